@@ -1,0 +1,1 @@
+"""vetfluid's Qt front end: a thin layer over the headless core in ``vetfluid``."""

@@ -1,0 +1,50 @@
+"""Numbers printed the safe way.
+
+Safe-number rules for medication orders (the trade's long-standing rules, e.g.
+ISMP's list of error-prone abbreviations and dose designations): always a leading
+zero (``0.5 mL``, never ``.5 mL``), never a trailing zero (``5 mL``, never
+``5.0 mL``), the unit always shown, a space between number and unit.
+Everything that shows a quantity — CLI, window, printed sheet — calls
+:func:`format_quantity`.
+"""
+
+from __future__ import annotations
+
+import math
+
+from vetfluid.errors import InputError
+
+
+def default_decimals(value: float) -> int:
+    """Decimals that keep about three significant figures without false precision."""
+    magnitude = abs(value)
+    if magnitude >= 100:
+        return 0
+    if magnitude >= 10:
+        return 1
+    if magnitude >= 1:
+        return 2
+    if magnitude == 0:
+        return 0
+    # keep two significant figures for small volumes (0.035 mL)
+    return min(4, 1 - math.floor(math.log10(magnitude)))
+
+
+def format_number(value: float, *, decimals: int | None = None) -> str:
+    """A number with a leading zero and no trailing zeros (``0.5``, ``5``, ``12.25``)."""
+    if not math.isfinite(value):
+        raise InputError("cannot format a number that is not finite", field="value", value=value)
+    places = default_decimals(value) if decimals is None else decimals
+    text = f"{value:.{places}f}"
+    if "." in text:
+        text = text.rstrip("0").rstrip(".")
+    if text in ("-0", ""):
+        text = "0"
+    return text
+
+
+def format_quantity(value: float, unit: str, *, decimals: int | None = None) -> str:
+    """A number with its unit, the safe way: ``format_quantity(0.5, "mL") == "0.5 mL"``."""
+    if not unit:
+        raise InputError("a quantity needs a unit", field="unit", value=unit)
+    return f"{format_number(value, decimals=decimals)} {unit}"

@@ -1,0 +1,115 @@
+"""Units: body weight with a unit, and laboratory unit conversions.
+
+Conversions use exact definitions (1 lb = 0.45359237 kg, international
+avoirdupois pound, 1959 agreement) and molar masses computed by the molmass
+package from the molecular formula, so nothing here is a typed-in constant:
+glucose C6H12O6, urea nitrogen as N2 (BUN counts the two N of urea), creatinine
+C4H7N3O.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from functools import cache
+
+from vetfluid.errors import InputError
+
+KG_PER_LB = 0.45359237
+_WEIGHT_UNITS = {"g": 1e-3, "kg": 1.0, "lb": KG_PER_LB, "lbs": KG_PER_LB, "mg": 1e-6}
+_WEIGHT_PATTERN = re.compile(r"^\s*([0-9]*[.,]?[0-9]+(?:[eE][-+]?\d+)?)\s*([a-zA-Z]*)\s*$")
+
+
+def parse_weight_kg(text: str | float | int, *, default_unit: str | None = None) -> float:
+    """Body weight in kg from text such as ``"350 g"``, ``"0.35 kg"``, ``"4.2 lb"``, ``"20kg"``.
+
+    A bare number needs ``default_unit``; without one it is an error, never a
+    silent guess (the gram/kilogram slip is a classic dosing error).
+    """
+    if isinstance(text, bool):
+        raise InputError("weight must be a number with a unit", field="weight", value=text)
+    if isinstance(text, int | float):
+        if default_unit is None:
+            raise InputError(
+                "weight needs a unit", field="weight", value=text, fix='write e.g. "350 g" or "20 kg"'
+            )
+        text = f"{text} {default_unit}"
+    match = _WEIGHT_PATTERN.match(str(text))
+    if not match:
+        raise InputError(
+            "cannot read this weight",
+            field="weight",
+            value=text,
+            fix='write a number and a unit, e.g. "350 g", "0.35 kg", "4.2 lb"',
+        )
+    number = float(match.group(1).replace(",", "."))
+    unit = (match.group(2) or default_unit or "").lower()
+    if not unit:
+        raise InputError(
+            "weight needs a unit", field="weight", value=text, fix='write e.g. "350 g" or "20 kg"'
+        )
+    if unit not in _WEIGHT_UNITS:
+        raise InputError(
+            f"unknown weight unit {unit!r}",
+            field="weight",
+            value=text,
+            fix=f"use one of: {', '.join(sorted(_WEIGHT_UNITS))}",
+        )
+    kg = number * _WEIGHT_UNITS[unit]
+    if not math.isfinite(kg) or kg <= 0:
+        raise InputError("weight must be more than zero", field="weight", value=text)
+    return kg
+
+
+# Lab analytes: the formula whose molar mass converts mmol/L to mg/dL.
+_ANALYTE_FORMULA = {
+    "glucose": "C6H12O6",
+    "urea": "CH4N2O",
+    "bun": "N2",  # blood urea *nitrogen*: mg of N per dL, two N per urea
+    "creatinine": "C4H7N3O",
+}
+
+
+@cache
+def molar_mass_g_per_mol(formula: str) -> float:
+    """Molar mass of a formula from the molmass package (IUPAC standard atomic weights)."""
+    from molmass import Formula
+
+    try:
+        return float(Formula(formula).mass)
+    except Exception as exc:  # molmass raises its own FormulaError family
+        raise InputError(
+            f"cannot read chemical formula {formula!r}", field="formula", value=formula
+        ) from exc
+
+
+def _analyte_mass(analyte: str) -> float:
+    key = analyte.lower()
+    if key not in _ANALYTE_FORMULA:
+        raise InputError(
+            f"unknown analyte {analyte!r}",
+            field="analyte",
+            value=analyte,
+            fix=f"use one of: {', '.join(_ANALYTE_FORMULA)}",
+        )
+    return molar_mass_g_per_mol(_ANALYTE_FORMULA[key])
+
+
+def mmol_per_l_to_mg_per_dl(value: float, analyte: str) -> float:
+    """mmol/L → mg/dL: multiply by molar mass (g/mol) and divide by 10 (L → dL, g → mg)."""
+    return value * _analyte_mass(analyte) / 10.0
+
+
+def mg_per_dl_to_mmol_per_l(value: float, analyte: str) -> float:
+    """mg/dL → mmol/L, the inverse of :func:`mmol_per_l_to_mg_per_dl`."""
+    return value * 10.0 / _analyte_mass(analyte)
+
+
+def mg_per_dl_to_umol_per_l(value: float, analyte: str) -> float:
+    """mg/dL → µmol/L (creatinine is usually reported in µmol/L)."""
+    return mg_per_dl_to_mmol_per_l(value, analyte) * 1000.0
+
+
+def umol_per_l_to_mg_per_dl(value: float, analyte: str) -> float:
+    """µmol/L → mg/dL."""
+    return mmol_per_l_to_mg_per_dl(value / 1000.0, analyte)
