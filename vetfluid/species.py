@@ -1,0 +1,588 @@
+"""The species table: one row per (species, parameter), every value with its basis.
+
+Files (long format, see ``species_data/README.md``):
+
+* ``species.csv`` — identity rows; ``rank`` is ``group`` or ``species`` and
+  ``parent`` names the group whose values a row inherits (chains are allowed:
+  rodent → placental mammal → mammal).
+* ``parameters.csv`` — ``species_id, parameter, value, low, high, unit,
+  source_id, basis, note``; ``basis`` is ``published``, ``memory`` or ``derived``.
+* ``parameter_definitions.csv`` — the unit, type and requirement of each parameter.
+* ``sources.csv`` — ``source_id, citation, year, kind``.
+
+Clinic overrides live in the user data folder (``overrides/parameters.csv`` and an
+optional ``overrides/sources.csv``, same columns) and are merged on top; every
+effective value says where it came from (shipped, inherited, clinic override).
+
+The loader uses the ``csv`` module, not pandas: the CLI must start fast.
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass, field
+from functools import cache
+from pathlib import Path
+
+from vetfluid.errors import InputError, SpeciesDataError
+from vetfluid.paths import resource_dir, user_data_dir
+
+BASES = ("published", "memory", "derived")
+ORIGINS = ("shipped", "inherited", "override")
+RANKS = ("group", "species")
+MAINTENANCE_METHODS = ("linear", "allometric", "energy")
+# What each maintenance method needs, checked after inheritance.
+METHOD_PARAMETERS = {
+    "linear": ("maintenance_ml_per_kg_day",),
+    "allometric": ("maintenance_allometric_a", "maintenance_allometric_b"),
+    "energy": ("energy_k_kcal_per_day", "energy_exponent", "water_ml_per_kcal"),
+}
+_FLAGS = {"yes": True, "no": False}
+
+Value = float | str | bool
+
+
+@dataclass(frozen=True, kw_only=True)
+class Source:
+    """A publication (or other reference) a value rests on."""
+
+    source_id: str
+    citation: str
+    year: int | None
+    kind: str
+
+
+@dataclass(frozen=True, kw_only=True)
+class ParameterDefinition:
+    """What a parameter means, its unit and type, and who must have it."""
+
+    name: str
+    unit: str
+    type: str  # number | text | flag
+    required: str  # all | ectotherm | none
+    description: str
+
+
+@dataclass(frozen=True, kw_only=True)
+class Species:
+    """Identity of a species or taxon-group row."""
+
+    id: str
+    rank: str
+    common_name: str
+    scientific_name: str
+    taxon_group: str
+    thermoregulation: str
+    nitrogen_excretion: str
+    parent: str | None
+
+    @property
+    def is_ectotherm(self) -> bool:
+        return self.thermoregulation == "ectotherm"
+
+
+@dataclass(frozen=True, kw_only=True)
+class SpeciesValue:
+    """One effective value for one species, with everything needed to trust it.
+
+    ``defined_on`` is the row (species or group) that holds the value; ``origin``
+    is ``shipped`` (on the species itself), ``inherited`` (from a group row) or
+    ``override`` (a clinic override). ``location`` is ``file:line``.
+    """
+
+    species_id: str
+    parameter: str
+    value: Value
+    low: float | None
+    high: float | None
+    unit: str
+    source_id: str | None
+    basis: str
+    note: str
+    origin: str
+    defined_on: str
+    location: str
+
+    @property
+    def unverified(self) -> bool:
+        """True when the value was recalled rather than checked against a source."""
+        return self.basis == "memory"
+
+    @property
+    def number(self) -> float:
+        if not isinstance(self.value, float):
+            raise InputError(
+                f"{self.parameter} is not a number", field=self.parameter, value=self.value
+            )
+        return self.value
+
+    def provenance(self) -> dict[str, object]:
+        """The traceability record every plan and CLI output carries."""
+        return {
+            "parameter": self.parameter,
+            "value": self.value,
+            "low": self.low,
+            "high": self.high,
+            "unit": self.unit,
+            "source_id": self.source_id,
+            "basis": self.basis,
+            "origin": self.origin,
+            "defined_on": self.defined_on,
+            "note": self.note,
+        }
+
+
+@dataclass(frozen=True, kw_only=True)
+class _Row:
+    species_id: str
+    parameter: str
+    value: Value
+    low: float | None
+    high: float | None
+    unit: str
+    source_id: str | None
+    basis: str
+    note: str
+    location: str
+    override: bool
+
+
+@dataclass(frozen=True)
+class SpeciesTable:
+    """The loaded, validated table. Build it with :func:`load_table`."""
+
+    species_by_id: Mapping[str, Species]
+    definitions: Mapping[str, ParameterDefinition]
+    sources: Mapping[str, Source]
+    _rows: Mapping[tuple[str, str], _Row] = field(repr=False)
+
+    # ---- identity -------------------------------------------------------------
+    def species(self, species_id: str) -> Species:
+        """A species or group row; an unknown id lists the closest known ones."""
+        try:
+            return self.species_by_id[species_id]
+        except KeyError:
+            close = difflib.get_close_matches(species_id, list(self.species_by_id), n=5)
+            hint = f"did you mean: {', '.join(close)}?" if close else "run `vetfluid-cli species`"
+            raise InputError(
+                f"unknown species {species_id!r}", field="species", value=species_id, fix=hint
+            ) from None
+
+    def species_ids(self) -> list[str]:
+        """Ids of the species rows (not groups), in file order."""
+        return [s.id for s in self.species_by_id.values() if s.rank == "species"]
+
+    def lineage(self, species_id: str) -> list[str]:
+        """The row itself, then its parent group, grandparent group …"""
+        chain = []
+        current: str | None = species_id
+        while current is not None:
+            chain.append(current)
+            current = self.species_by_id[current].parent
+        return chain
+
+    # ---- values ---------------------------------------------------------------
+    def get(self, species_id: str, parameter: str) -> SpeciesValue | None:
+        """The effective value, or None when neither the species nor a group has it."""
+        self.species(species_id)
+        for depth, holder in enumerate(self.lineage(species_id)):
+            row = self._rows.get((holder, parameter))
+            if row is not None:
+                if row.override:
+                    origin = "override"
+                else:
+                    origin = "shipped" if depth == 0 else "inherited"
+                return SpeciesValue(
+                    species_id=species_id,
+                    parameter=parameter,
+                    value=row.value,
+                    low=row.low,
+                    high=row.high,
+                    unit=row.unit,
+                    source_id=row.source_id,
+                    basis=row.basis,
+                    note=row.note,
+                    origin=origin,
+                    defined_on=holder,
+                    location=row.location,
+                )
+        return None
+
+    def value(self, species_id: str, parameter: str) -> SpeciesValue:
+        """The effective value; missing values raise an InputError naming the gap."""
+        found = self.get(species_id, parameter)
+        if found is None:
+            if parameter not in self.definitions:
+                raise InputError(
+                    f"unknown parameter {parameter!r}",
+                    field="parameter",
+                    value=parameter,
+                    fix="see species_data/parameter_definitions.csv",
+                )
+            raise InputError(
+                f"the species table has no {parameter} for {species_id}",
+                field=parameter,
+                value=None,
+                fix="add a row to species_data/parameters.csv or a clinic override",
+            )
+        return found
+
+    def effective(self, species_id: str) -> dict[str, SpeciesValue]:
+        """Every parameter the species has after inheritance and overrides."""
+        values = {}
+        for name in self.definitions:
+            found = self.get(species_id, name)
+            if found is not None:
+                values[name] = found
+        return values
+
+    def __iter__(self) -> Iterator[SpeciesValue]:
+        for species_id in self.species_ids():
+            yield from self.effective(species_id).values()
+
+    def search(self, text: str) -> list[Species]:
+        """Species whose common name, scientific name, group or id contains ``text``."""
+        needle = text.strip().lower()
+        return [
+            s
+            for s in self.species_by_id.values()
+            if s.rank == "species"
+            and any(
+                needle in hay.lower() for hay in (s.id, s.common_name, s.scientific_name, s.taxon_group)
+            )
+        ]
+
+
+# ---- loading ------------------------------------------------------------------
+def _read(path: Path, required_columns: tuple[str, ...]) -> list[tuple[str, dict[str, str]]]:
+    """Rows of a CSV with their ``file:line`` location; missing columns are an error."""
+    try:
+        with path.open(newline="", encoding="utf-8") as handle:
+            reader = csv.DictReader(handle)
+            header = reader.fieldnames or []
+            missing = [c for c in required_columns if c not in header]
+            if missing:
+                raise SpeciesDataError(
+                    f"missing column(s) {', '.join(missing)}",
+                    location=f"{path.name}:1",
+                    fix=f"the header must include: {', '.join(required_columns)}",
+                )
+            rows = []
+            for row in reader:
+                cleaned = {k: (v or "").strip() for k, v in row.items() if k is not None}
+                if not any(cleaned.values()):
+                    continue
+                rows.append((f"{path.name}:{reader.line_num}", cleaned))
+            return rows
+    except UnicodeDecodeError as exc:
+        raise SpeciesDataError(
+            "file is not UTF-8 text", location=f"{path.name}:1", fix="save the file as UTF-8"
+        ) from exc
+
+
+def _number(text: str, *, location: str, column: str) -> float | None:
+    if text == "":
+        return None
+    try:
+        number = float(text)
+    except ValueError:
+        raise SpeciesDataError(
+            f"{column} {text!r} is not a number", location=location, fix="write a plain number"
+        ) from None
+    if number != number or number in (float("inf"), float("-inf")):
+        raise SpeciesDataError(f"{column} must be finite", location=location)
+    return number
+
+
+def _load_sources(path: Path) -> dict[str, Source]:
+    sources: dict[str, Source] = {}
+    for location, row in _read(path, ("source_id", "citation", "year", "kind")):
+        sid = row["source_id"]
+        if not sid:
+            raise SpeciesDataError("empty source_id", location=location)
+        if sid in sources:
+            raise SpeciesDataError(f"duplicate source_id {sid!r}", location=location)
+        if not row["citation"]:
+            raise SpeciesDataError(
+                f"source {sid!r} has no citation", location=location, fix="authors, title, year"
+            )
+        year = _number(row["year"], location=location, column="year")
+        sources[sid] = Source(
+            source_id=sid,
+            citation=row["citation"],
+            year=int(year) if year is not None else None,
+            kind=row["kind"],
+        )
+    return sources
+
+
+def _load_definitions(path: Path) -> dict[str, ParameterDefinition]:
+    definitions: dict[str, ParameterDefinition] = {}
+    for location, row in _read(path, ("parameter", "unit", "type", "required", "description")):
+        name = row["parameter"]
+        if name in definitions:
+            raise SpeciesDataError(f"duplicate parameter {name!r}", location=location)
+        if row["type"] not in ("number", "text", "flag"):
+            raise SpeciesDataError(
+                f"type {row['type']!r} unknown", location=location, fix="number, text or flag"
+            )
+        if row["required"] not in ("all", "ectotherm", "none"):
+            raise SpeciesDataError(
+                f"required {row['required']!r} unknown", location=location, fix="all, ectotherm or none"
+            )
+        definitions[name] = ParameterDefinition(
+            name=name,
+            unit=row["unit"],
+            type=row["type"],
+            required=row["required"],
+            description=row["description"],
+        )
+    return definitions
+
+
+def _load_species(path: Path) -> dict[str, Species]:
+    columns = (
+        "id",
+        "rank",
+        "common_name",
+        "scientific_name",
+        "taxon_group",
+        "thermoregulation",
+        "nitrogen_excretion",
+        "parent",
+    )
+    species: dict[str, Species] = {}
+    locations: dict[str, str] = {}
+    for location, row in _read(path, columns):
+        sid = row["id"]
+        if not sid:
+            raise SpeciesDataError("empty id", location=location)
+        if sid in species:
+            raise SpeciesDataError(f"duplicate species id {sid!r}", location=location)
+        if row["rank"] not in RANKS:
+            raise SpeciesDataError(f"rank {row['rank']!r} unknown", location=location, fix="group or species")
+        if row["thermoregulation"] not in ("endotherm", "ectotherm"):
+            raise SpeciesDataError(
+                f"thermoregulation {row['thermoregulation']!r} unknown",
+                location=location,
+                fix="endotherm or ectotherm",
+            )
+        species[sid] = Species(
+            id=sid,
+            rank=row["rank"],
+            common_name=row["common_name"],
+            scientific_name=row["scientific_name"],
+            taxon_group=row["taxon_group"],
+            thermoregulation=row["thermoregulation"],
+            nitrogen_excretion=row["nitrogen_excretion"],
+            parent=row["parent"] or None,
+        )
+        locations[sid] = location
+    for sid, sp in species.items():
+        if sp.parent is None:
+            continue
+        if sp.parent not in species:
+            raise SpeciesDataError(f"parent {sp.parent!r} is not a known id", location=locations[sid])
+        if species[sp.parent].rank != "group":
+            raise SpeciesDataError(
+                f"parent {sp.parent!r} is a species, not a group", location=locations[sid]
+            )
+        seen = {sid}
+        current = sp.parent
+        while current is not None:
+            if current in seen:
+                raise SpeciesDataError(f"parent chain of {sid!r} loops", location=locations[sid])
+            seen.add(current)
+            current = species[current].parent
+    return species
+
+
+def _parse_row(
+    location: str,
+    row: dict[str, str],
+    *,
+    species: Mapping[str, Species],
+    definitions: Mapping[str, ParameterDefinition],
+    sources: Mapping[str, Source],
+    override: bool,
+) -> _Row:
+    sid, name = row["species_id"], row["parameter"]
+    if sid not in species:
+        close = difflib.get_close_matches(sid, list(species), n=3)
+        raise SpeciesDataError(
+            f"unknown species id {sid!r}",
+            location=location,
+            fix=f"did you mean {', '.join(close)}?" if close else "add it to species.csv first",
+        )
+    if name not in definitions:
+        close = difflib.get_close_matches(name, list(definitions), n=3)
+        raise SpeciesDataError(
+            f"unknown parameter {name!r}",
+            location=location,
+            fix=f"did you mean {', '.join(close)}?" if close else "define it in parameter_definitions.csv",
+        )
+    definition = definitions[name]
+    if row["unit"] != definition.unit:
+        raise SpeciesDataError(
+            f"unit {row['unit']!r} for {name} should be {definition.unit!r}", location=location
+        )
+    basis = row["basis"]
+    if basis not in BASES:
+        raise SpeciesDataError(
+            f"basis {basis!r} unknown", location=location, fix="published, memory or derived"
+        )
+    source_id = row["source_id"] or None
+    if source_id is not None and source_id not in sources:
+        raise SpeciesDataError(
+            f"unknown source_id {source_id!r}", location=location, fix="add it to sources.csv"
+        )
+    if basis == "published" and source_id is None:
+        raise SpeciesDataError(
+            "a published value needs a source_id", location=location, fix="cite it or mark it memory"
+        )
+    if basis == "derived" and not row["note"]:
+        raise SpeciesDataError(
+            "a derived value needs a note saying how it was derived", location=location
+        )
+    low = _number(row["low"], location=location, column="low")
+    high = _number(row["high"], location=location, column="high")
+    value: Value
+    if definition.type == "number":
+        number = _number(row["value"], location=location, column="value")
+        if number is None:
+            raise SpeciesDataError(f"{name} has no value", location=location)
+        if (low is not None and number < low) or (high is not None and number > high):
+            raise SpeciesDataError(
+                f"value {number:g} lies outside low–high ({row['low']}–{row['high']})",
+                location=location,
+                fix="low ≤ value ≤ high",
+            )
+        if number < 0:
+            raise SpeciesDataError(f"{name} cannot be negative", location=location)
+        value = number
+    elif definition.type == "flag":
+        if row["value"] not in _FLAGS:
+            raise SpeciesDataError(f"{name} must be yes or no", location=location)
+        value = _FLAGS[row["value"]]
+    else:
+        value = row["value"]
+        if name == "maintenance_method" and value not in MAINTENANCE_METHODS:
+            raise SpeciesDataError(
+                f"maintenance_method {value!r} unknown",
+                location=location,
+                fix=", ".join(MAINTENANCE_METHODS),
+            )
+    return _Row(
+        species_id=sid,
+        parameter=name,
+        value=value,
+        low=low,
+        high=high,
+        unit=row["unit"],
+        source_id=source_id,
+        basis=basis,
+        note=row["note"],
+        location=location,
+        override=override,
+    )
+
+
+PARAMETER_COLUMNS = ("species_id", "parameter", "value", "low", "high", "unit", "source_id", "basis", "note")
+
+
+def _check_complete(table: SpeciesTable) -> None:
+    """Every species has every required parameter after inheritance."""
+    for sid in table.species_ids():
+        sp = table.species_by_id[sid]
+        missing = [
+            d.name
+            for d in table.definitions.values()
+            if (d.required == "all" or (d.required == "ectotherm" and sp.is_ectotherm))
+            and table.get(sid, d.name) is None
+        ]
+        method = table.get(sid, "maintenance_method")
+        if method is not None:
+            missing += [p for p in METHOD_PARAMETERS[str(method.value)] if table.get(sid, p) is None]
+        if missing:
+            raise SpeciesDataError(
+                f"species {sid!r} lacks {', '.join(sorted(set(missing)))} after inheritance",
+                location="parameters.csv",
+                fix="add the rows to the species or to its group",
+            )
+
+
+def overrides_dir() -> Path:
+    """Where clinic overrides live (inside the user data folder)."""
+    return user_data_dir() / "overrides"
+
+
+def load_table(data_dir: Path | None = None, *, overrides: Path | None = None) -> SpeciesTable:
+    """Load and validate the species table, merging clinic overrides on top.
+
+    ``data_dir`` defaults to the shipped ``species_data/``; ``overrides`` to
+    :func:`overrides_dir`. Pass a folder to test broken files.
+    """
+    directory = data_dir or resource_dir("species_data")
+    override_dir = overrides if overrides is not None else overrides_dir()
+    return _load_cached(directory, override_dir, _stamp(override_dir))
+
+
+def _stamp(override_dir: Path) -> tuple[float, ...]:
+    """Modification times of the override files, so a saved override reloads."""
+    return tuple(
+        (override_dir / name).stat().st_mtime if (override_dir / name).exists() else 0.0
+        for name in ("parameters.csv", "sources.csv")
+    )
+
+
+@cache
+def _load_cached(directory: Path, override_dir: Path, _stamp: tuple[float, ...]) -> SpeciesTable:
+    sources = _load_sources(directory / "sources.csv")
+    override_sources = override_dir / "sources.csv"
+    if override_sources.exists():
+        for sid, src in _load_sources(override_sources).items():
+            if sid in sources:
+                raise SpeciesDataError(
+                    f"override source {sid!r} repeats a shipped source id",
+                    location=f"{override_sources.name}",
+                    fix="pick a new id",
+                )
+            sources[sid] = src
+    definitions = _load_definitions(directory / "parameter_definitions.csv")
+    species = _load_species(directory / "species.csv")
+    rows: dict[tuple[str, str], _Row] = {}
+    for location, raw in _read(directory / "parameters.csv", PARAMETER_COLUMNS):
+        parsed = _parse_row(
+            location, raw, species=species, definitions=definitions, sources=sources, override=False
+        )
+        key = (parsed.species_id, parsed.parameter)
+        if key in rows:
+            raise SpeciesDataError(
+                f"duplicate row for {key[0]} / {key[1]} (first at {rows[key].location})",
+                location=location,
+            )
+        rows[key] = parsed
+    override_file = override_dir / "parameters.csv"
+    if override_file.exists():
+        seen: set[tuple[str, str]] = set()
+        for location, raw in _read(override_file, PARAMETER_COLUMNS):
+            parsed = _parse_row(
+                f"overrides/{location}",
+                raw,
+                species=species,
+                definitions=definitions,
+                sources=sources,
+                override=True,
+            )
+            key = (parsed.species_id, parsed.parameter)
+            if key in seen:
+                raise SpeciesDataError(
+                    f"duplicate override for {key[0]} / {key[1]}", location=f"overrides/{location}"
+                )
+            seen.add(key)
+            rows[key] = parsed
+    table = SpeciesTable(species, definitions, sources, rows)
+    _check_complete(table)
+    return table
