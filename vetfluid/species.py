@@ -19,13 +19,13 @@ The loader uses the ``csv`` module, not pandas: the CLI must start fast.
 
 from __future__ import annotations
 
-import csv
 import difflib
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
 from functools import cache
 from pathlib import Path
 
+from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.paths import resource_dir, user_data_dir
 
@@ -250,55 +250,16 @@ class SpeciesTable:
             for s in self.species_by_id.values()
             if s.rank == "species"
             and any(
-                needle in hay.lower() for hay in (s.id, s.common_name, s.scientific_name, s.taxon_group)
+                needle in hay.lower()
+                for hay in (s.id, s.common_name, s.scientific_name, s.taxon_group)
             )
         ]
 
 
 # ---- loading ------------------------------------------------------------------
-def _read(path: Path, required_columns: tuple[str, ...]) -> list[tuple[str, dict[str, str]]]:
-    """Rows of a CSV with their ``file:line`` location; missing columns are an error."""
-    try:
-        with path.open(newline="", encoding="utf-8") as handle:
-            reader = csv.DictReader(handle)
-            header = reader.fieldnames or []
-            missing = [c for c in required_columns if c not in header]
-            if missing:
-                raise SpeciesDataError(
-                    f"missing column(s) {', '.join(missing)}",
-                    location=f"{path.name}:1",
-                    fix=f"the header must include: {', '.join(required_columns)}",
-                )
-            rows = []
-            for row in reader:
-                cleaned = {k: (v or "").strip() for k, v in row.items() if k is not None}
-                if not any(cleaned.values()):
-                    continue
-                rows.append((f"{path.name}:{reader.line_num}", cleaned))
-            return rows
-    except UnicodeDecodeError as exc:
-        raise SpeciesDataError(
-            "file is not UTF-8 text", location=f"{path.name}:1", fix="save the file as UTF-8"
-        ) from exc
-
-
-def _number(text: str, *, location: str, column: str) -> float | None:
-    if text == "":
-        return None
-    try:
-        number = float(text)
-    except ValueError:
-        raise SpeciesDataError(
-            f"{column} {text!r} is not a number", location=location, fix="write a plain number"
-        ) from None
-    if number != number or number in (float("inf"), float("-inf")):
-        raise SpeciesDataError(f"{column} must be finite", location=location)
-    return number
-
-
 def _load_sources(path: Path) -> dict[str, Source]:
     sources: dict[str, Source] = {}
-    for location, row in _read(path, ("source_id", "citation", "year", "kind")):
+    for location, row in read_rows(path, ("source_id", "citation", "year", "kind")):
         sid = row["source_id"]
         if not sid:
             raise SpeciesDataError("empty source_id", location=location)
@@ -308,7 +269,7 @@ def _load_sources(path: Path) -> dict[str, Source]:
             raise SpeciesDataError(
                 f"source {sid!r} has no citation", location=location, fix="authors, title, year"
             )
-        year = _number(row["year"], location=location, column="year")
+        year = parse_number(row["year"], location=location, column="year")
         sources[sid] = Source(
             source_id=sid,
             citation=row["citation"],
@@ -320,7 +281,7 @@ def _load_sources(path: Path) -> dict[str, Source]:
 
 def _load_definitions(path: Path) -> dict[str, ParameterDefinition]:
     definitions: dict[str, ParameterDefinition] = {}
-    for location, row in _read(path, ("parameter", "unit", "type", "required", "description")):
+    for location, row in read_rows(path, ("parameter", "unit", "type", "required", "description")):
         name = row["parameter"]
         if name in definitions:
             raise SpeciesDataError(f"duplicate parameter {name!r}", location=location)
@@ -330,7 +291,9 @@ def _load_definitions(path: Path) -> dict[str, ParameterDefinition]:
             )
         if row["required"] not in ("all", "ectotherm", "none"):
             raise SpeciesDataError(
-                f"required {row['required']!r} unknown", location=location, fix="all, ectotherm or none"
+                f"required {row['required']!r} unknown",
+                location=location,
+                fix="all, ectotherm or none",
             )
         definitions[name] = ParameterDefinition(
             name=name,
@@ -355,14 +318,16 @@ def _load_species(path: Path) -> dict[str, Species]:
     )
     species: dict[str, Species] = {}
     locations: dict[str, str] = {}
-    for location, row in _read(path, columns):
+    for location, row in read_rows(path, columns):
         sid = row["id"]
         if not sid:
             raise SpeciesDataError("empty id", location=location)
         if sid in species:
             raise SpeciesDataError(f"duplicate species id {sid!r}", location=location)
         if row["rank"] not in RANKS:
-            raise SpeciesDataError(f"rank {row['rank']!r} unknown", location=location, fix="group or species")
+            raise SpeciesDataError(
+                f"rank {row['rank']!r} unknown", location=location, fix="group or species"
+            )
         if row["thermoregulation"] not in ("endotherm", "ectotherm"):
             raise SpeciesDataError(
                 f"thermoregulation {row['thermoregulation']!r} unknown",
@@ -384,7 +349,9 @@ def _load_species(path: Path) -> dict[str, Species]:
         if sp.parent is None:
             continue
         if sp.parent not in species:
-            raise SpeciesDataError(f"parent {sp.parent!r} is not a known id", location=locations[sid])
+            raise SpeciesDataError(
+                f"parent {sp.parent!r} is not a known id", location=locations[sid]
+            )
         if species[sp.parent].rank != "group":
             raise SpeciesDataError(
                 f"parent {sp.parent!r} is a species, not a group", location=locations[sid]
@@ -421,7 +388,9 @@ def _parse_row(
         raise SpeciesDataError(
             f"unknown parameter {name!r}",
             location=location,
-            fix=f"did you mean {', '.join(close)}?" if close else "define it in parameter_definitions.csv",
+            fix=f"did you mean {', '.join(close)}?"
+            if close
+            else "define it in parameter_definitions.csv",
         )
     definition = definitions[name]
     if row["unit"] != definition.unit:
@@ -440,17 +409,19 @@ def _parse_row(
         )
     if basis == "published" and source_id is None:
         raise SpeciesDataError(
-            "a published value needs a source_id", location=location, fix="cite it or mark it memory"
+            "a published value needs a source_id",
+            location=location,
+            fix="cite it or mark it memory",
         )
     if basis == "derived" and not row["note"]:
         raise SpeciesDataError(
             "a derived value needs a note saying how it was derived", location=location
         )
-    low = _number(row["low"], location=location, column="low")
-    high = _number(row["high"], location=location, column="high")
+    low = parse_number(row["low"], location=location, column="low")
+    high = parse_number(row["high"], location=location, column="high")
     value: Value
     if definition.type == "number":
-        number = _number(row["value"], location=location, column="value")
+        number = parse_number(row["value"], location=location, column="value")
         if number is None:
             raise SpeciesDataError(f"{name} has no value", location=location)
         if (low is not None and number < low) or (high is not None and number > high):
@@ -489,7 +460,17 @@ def _parse_row(
     )
 
 
-PARAMETER_COLUMNS = ("species_id", "parameter", "value", "low", "high", "unit", "source_id", "basis", "note")
+PARAMETER_COLUMNS = (
+    "species_id",
+    "parameter",
+    "value",
+    "low",
+    "high",
+    "unit",
+    "source_id",
+    "basis",
+    "note",
+)
 
 
 def _check_complete(table: SpeciesTable) -> None:
@@ -504,7 +485,9 @@ def _check_complete(table: SpeciesTable) -> None:
         ]
         method = table.get(sid, "maintenance_method")
         if method is not None:
-            missing += [p for p in METHOD_PARAMETERS[str(method.value)] if table.get(sid, p) is None]
+            missing += [
+                p for p in METHOD_PARAMETERS[str(method.value)] if table.get(sid, p) is None
+            ]
         if missing:
             raise SpeciesDataError(
                 f"species {sid!r} lacks {', '.join(sorted(set(missing)))} after inheritance",
@@ -553,7 +536,7 @@ def _load_cached(directory: Path, override_dir: Path, _stamp: tuple[float, ...])
     definitions = _load_definitions(directory / "parameter_definitions.csv")
     species = _load_species(directory / "species.csv")
     rows: dict[tuple[str, str], _Row] = {}
-    for location, raw in _read(directory / "parameters.csv", PARAMETER_COLUMNS):
+    for location, raw in read_rows(directory / "parameters.csv", PARAMETER_COLUMNS):
         parsed = _parse_row(
             location, raw, species=species, definitions=definitions, sources=sources, override=False
         )
@@ -567,7 +550,7 @@ def _load_cached(directory: Path, override_dir: Path, _stamp: tuple[float, ...])
     override_file = override_dir / "parameters.csv"
     if override_file.exists():
         seen: set[tuple[str, str]] = set()
-        for location, raw in _read(override_file, PARAMETER_COLUMNS):
+        for location, raw in read_rows(override_file, PARAMETER_COLUMNS):
             parsed = _parse_row(
                 f"overrides/{location}",
                 raw,

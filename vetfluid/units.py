@@ -31,7 +31,10 @@ def parse_weight_kg(text: str | float | int, *, default_unit: str | None = None)
     if isinstance(text, int | float):
         if default_unit is None:
             raise InputError(
-                "weight needs a unit", field="weight", value=text, fix='write e.g. "350 g" or "20 kg"'
+                "weight needs a unit",
+                field="weight",
+                value=text,
+                fix='write e.g. "350 g" or "20 kg"',
             )
         text = f"{text} {default_unit}"
     match = _WEIGHT_PATTERN.match(str(text))

@@ -1,0 +1,52 @@
+"""Reading the shipped CSV tables: rows with their ``file:line``, numbers checked.
+
+Plain ``csv`` rather than pandas so the CLI starts fast; every error names the
+file and line and what to fix.
+"""
+
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+from vetfluid.errors import SpeciesDataError
+
+
+def read_rows(path: Path, required_columns: tuple[str, ...]) -> list[tuple[str, dict[str, str]]]:
+    """Rows of a CSV with their ``file:line``; blank rows skipped, missing columns an error."""
+    try:
+        with path.open(newline="", encoding="utf-8") as handle:
+            reader = csv.DictReader(handle)
+            header = reader.fieldnames or []
+            missing = [c for c in required_columns if c not in header]
+            if missing:
+                raise SpeciesDataError(
+                    f"missing column(s) {', '.join(missing)}",
+                    location=f"{path.name}:1",
+                    fix=f"the header must include: {', '.join(required_columns)}",
+                )
+            rows = []
+            for row in reader:
+                cleaned = {k: (v or "").strip() for k, v in row.items() if k is not None}
+                if not any(cleaned.values()):
+                    continue
+                rows.append((f"{path.name}:{reader.line_num}", cleaned))
+            return rows
+    except UnicodeDecodeError as exc:
+        raise SpeciesDataError(
+            "file is not UTF-8 text", location=f"{path.name}:1", fix="save the file as UTF-8"
+        ) from exc
+
+
+def parse_number(text: str, *, location: str, column: str) -> float | None:
+    if text == "":
+        return None
+    try:
+        number = float(text)
+    except ValueError:
+        raise SpeciesDataError(
+            f"{column} {text!r} is not a number", location=location, fix="write a plain number"
+        ) from None
+    if number != number or number in (float("inf"), float("-inf")):
+        raise SpeciesDataError(f"{column} must be finite", location=location)
+    return number

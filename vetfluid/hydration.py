@@ -1,0 +1,141 @@
+"""Hydration: dehydration estimate from findings, deficit, free-water deficit.
+
+* Findings table: DiBartola SP (ed.), Fluid, Electrolyte, and Acid-Base
+  Disorders in Small Animal Practice, 4th ed., 2012, Table 14-4 (after Muir &
+  DiBartola 1983), shipped as ``species_data/dehydration_findings.csv``. It is a
+  display aid: the clinician confirms the percentage.
+* Deficit: body weight (kg) × fraction dehydrated = litres (1 kg lost ≈ 1 L);
+  Davis H et al., 2013 AAHA/AAFP Fluid Therapy Guidelines; DiBartola 2012.
+* Free-water deficit: TBW × (Na_patient / Na_normal − 1), TBW = fraction × BW
+  (0.6 in adult dogs and cats); the standard formula as in veterinary case
+  commentaries, with the species' own body-water fraction and normal Na.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from functools import cache
+from pathlib import Path
+
+from vetfluid.csvfiles import parse_number, read_rows
+from vetfluid.errors import InputError, SpeciesDataError
+from vetfluid.paths import resource_dir
+
+
+@dataclass(frozen=True, kw_only=True)
+class ClinicalFinding:
+    finding_id: str
+    label: str
+    percent_low: float
+    percent_high: float
+    source_id: str
+    basis: str
+
+
+@dataclass(frozen=True, kw_only=True)
+class DehydrationEstimate:
+    """The band the entered findings point to; the clinician confirms a value in it."""
+
+    percent_low: float
+    percent_high: float
+    findings: tuple[str, ...]
+    source_id: str
+
+    @property
+    def suggested_percent(self) -> float:
+        """The low end of the band: the cautious starting point, to be confirmed."""
+        return self.percent_low
+
+
+@cache
+def load_findings(data_dir: Path | None = None) -> dict[str, ClinicalFinding]:
+    """The findings table, keyed by finding id."""
+    path = (data_dir or resource_dir("species_data")) / "dehydration_findings.csv"
+    table: dict[str, ClinicalFinding] = {}
+    columns = ("finding_id", "label", "percent_low", "percent_high", "source_id", "basis")
+    for location, row in read_rows(path, columns):
+        low = parse_number(row["percent_low"], location=location, column="percent_low")
+        high = parse_number(row["percent_high"], location=location, column="percent_high")
+        if low is None or high is None or not 0 <= low <= high <= 100:
+            raise SpeciesDataError("percent_low ≤ percent_high within 0–100", location=location)
+        if row["finding_id"] in table:
+            raise SpeciesDataError(f"duplicate finding {row['finding_id']!r}", location=location)
+        table[row["finding_id"]] = ClinicalFinding(
+            finding_id=row["finding_id"],
+            label=row["label"],
+            percent_low=low,
+            percent_high=high,
+            source_id=row["source_id"],
+            basis=row["basis"],
+        )
+    return table
+
+
+def estimate_dehydration(finding_ids: tuple[str, ...] | list[str]) -> DehydrationEstimate:
+    """% dehydration band from clinical findings: the most severe finding sets the band.
+
+    Method: DiBartola 2012, Table 14-4. An empty list means nothing was
+    detectable (< 5%).
+    """
+    table = load_findings()
+    unknown = [f for f in finding_ids if f not in table]
+    if unknown:
+        raise InputError(
+            f"unknown finding(s) {', '.join(unknown)}",
+            field="findings",
+            value=unknown,
+            fix=f"use: {', '.join(table)}",
+        )
+    chosen = [table[f] for f in finding_ids] or [table["none_detectable"]]
+    worst = max(chosen, key=lambda f: (f.percent_low, f.percent_high))
+    return DehydrationEstimate(
+        percent_low=worst.percent_low,
+        percent_high=worst.percent_high,
+        findings=tuple(f.finding_id for f in chosen),
+        source_id=worst.source_id,
+    )
+
+
+def _check_weight(weight_kg: float) -> None:
+    if not (isinstance(weight_kg, int | float) and math.isfinite(weight_kg) and weight_kg > 0):
+        raise InputError("body weight must be more than 0 kg", field="weight", value=weight_kg)
+
+
+def check_percent(percent: float) -> float:
+    """A dehydration percentage in 0–20 (above 15% death is imminent; DiBartola 2012)."""
+    if not (isinstance(percent, int | float) and math.isfinite(percent) and 0 <= percent <= 20):
+        raise InputError(
+            "dehydration must be between 0 and 20 %",
+            field="dehydration",
+            value=percent,
+            fix="enter the estimated percentage, e.g. 7",
+        )
+    return float(percent)
+
+
+def deficit_ml(weight_kg: float, dehydration_percent: float) -> float:
+    """Fluid deficit in mL: BW (kg) × fraction dehydrated × 1000 (Davis 2013; DiBartola 2012)."""
+    _check_weight(weight_kg)
+    return weight_kg * check_percent(dehydration_percent) / 100.0 * 1000.0
+
+
+def free_water_deficit_ml(
+    *, weight_kg: float, serum_na: float, normal_na: float, tbw_fraction: float
+) -> float:
+    """Free-water deficit in mL: TBW × (Na / Na_normal − 1) × 1000; 0 when Na ≤ normal.
+
+    TBW (L) = ``tbw_fraction`` × BW (kg). Standard formula (0.6 × BW in adult
+    dogs and cats).
+    """
+    _check_weight(weight_kg)
+    for name, value in (("serum_na", serum_na), ("normal_na", normal_na)):
+        if not (isinstance(value, int | float) and math.isfinite(value) and 80 <= value <= 230):
+            raise InputError("sodium must be between 80 and 230 mmol/L", field=name, value=value)
+    if not 0 < tbw_fraction < 1:
+        raise InputError(
+            "body-water fraction must be between 0 and 1", field="tbw", value=tbw_fraction
+        )
+    if serum_na <= normal_na:
+        return 0.0
+    return tbw_fraction * weight_kg * (serum_na / normal_na - 1.0) * 1000.0

@@ -1,0 +1,279 @@
+"""Maintenance fluid: linear, allometric and energy-based methods, and the water budget.
+
+Methods (each a pure function; the species table supplies the constants with
+their basis):
+
+* linear — rate (mL/kg/day) × BW; e.g. 60 mL/kg/day (DiBartola 2012, Table 14-9).
+* allometric — a · BW^b mL/day; the 2013 AAHA/AAFP guideline formulas
+  132 · BW^0.75 (dogs) and 80 · BW^0.75 (cats) (Davis H et al. 2013).
+* energy — K · BW^b kcal/day (Kleiber-style scaling; Kleiber 1961 70 · W^0.75
+  for placental mammals; Lasiewski & Dawson 1967 for birds; Andrews & Pough 1985
+  exponent for squamates), water ≈ 1 mL per kcal.
+* ectotherms — rates scale with body temperature by Q10 (Bennett & Dawson 1976):
+  factor = Q10^((T − T_ref)/10). The energy constant is quoted at
+  ``energy_reference_temp_c``; the linear reptile rate is taken to apply at the
+  species' preferred temperature, so it is scaled from there (our reasoning,
+  shown in the formula).
+
+Water budget: insensible + faecal + urine water. The obligatory urine water is
+the osmotic solute load divided by the concentrating ceiling (the species'
+maximum urine osmolality, U/P × plasma, or a ceiling from the patient's USG or
+urine osmolality). A patient whose ceiling has fallen to plasma (isosthenuria)
+needs more water for the same load. Reptiles and birds concentrate weakly yet
+need *less* water per kg: their solute load is small because their metabolism
+is low (reptiles) and nitrogen leaves as precipitated urate, not dissolved urea;
+cloaca, colon and bladder then reclaim water after the kidney.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from vetfluid.errors import InputError
+from vetfluid.species import MAINTENANCE_METHODS, SpeciesTable, SpeciesValue
+
+# Urine osmolality from USG: mOsm/kg ≈ (USG − 1) × this factor. There is no agreed
+# conversion constant (USG–osmolality correlation r 0.87–0.99, Mösch M et al.,
+# J Vet Diagn Invest 2020); 30 000 puts isosthenuria (USG 1.010) at plasma
+# (≈ 300 mOsm/kg). Common practice, no source — shown as memory wherever used.
+USG_TO_MOSM_FACTOR = 30_000.0
+
+
+def _positive(name: str, value: float) -> float:
+    if not (isinstance(value, int | float) and math.isfinite(value) and value > 0):
+        raise InputError(f"{name} must be a positive number", field=name, value=value)
+    return float(value)
+
+
+def linear_ml_per_day(weight_kg: float, ml_per_kg_day: float) -> float:
+    """Linear maintenance: rate × BW (mL/day). E.g. 60 mL/kg/day (DiBartola 2012)."""
+    return _positive("weight_kg", weight_kg) * _positive("ml_per_kg_day", ml_per_kg_day)
+
+
+def allometric_ml_per_day(weight_kg: float, a: float, b: float) -> float:
+    """Allometric maintenance a · BW^b mL/day (Davis 2013: dog 132·BW^0.75, cat 80·BW^0.75)."""
+    return _positive("a", a) * _positive("weight_kg", weight_kg) ** _positive("b", b)
+
+
+def energy_kcal_per_day(weight_kg: float, k: float, exponent: float) -> float:
+    """Energy expenditure K · BW^b kcal/day (Kleiber 1961: 70 · W^0.75 for placental mammals)."""
+    return _positive("k", k) * _positive("weight_kg", weight_kg) ** _positive("exponent", exponent)
+
+
+def q10_factor(body_temp_c: float, reference_temp_c: float, q10: float) -> float:
+    """Metabolic scaling with temperature: Q10^((T − T_ref)/10) (Bennett & Dawson 1976)."""
+    if not (isinstance(body_temp_c, int | float) and math.isfinite(body_temp_c)):
+        raise InputError(
+            "body temperature must be a number", field="body_temp_c", value=body_temp_c
+        )
+    if not -5 <= body_temp_c <= 50:
+        raise InputError(
+            "body temperature must be between −5 and 50 °C",
+            field="body_temp_c",
+            value=body_temp_c,
+            fix="enter the measured body (cloacal) temperature in °C",
+        )
+    return _positive("q10", q10) ** ((body_temp_c - reference_temp_c) / 10.0)
+
+
+@dataclass(frozen=True, kw_only=True)
+class Maintenance:
+    """The maintenance volume with the method, the formula shown to the user, and its inputs."""
+
+    ml_per_day: float
+    method: str
+    formula: str
+    temperature_factor: float
+    body_temp_c: float | None
+    provenance: tuple[SpeciesValue, ...]
+
+    @property
+    def ml_per_h(self) -> float:
+        return self.ml_per_day / 24.0
+
+
+def _temperature(
+    table: SpeciesTable, species_id: str, body_temp_c: float | None, reference: SpeciesValue
+) -> tuple[float, float | None, list[SpeciesValue]]:
+    """Q10 factor for ectotherms (1 for endotherms) and the values it used."""
+    species = table.species(species_id)
+    if not species.is_ectotherm:
+        return 1.0, None, []
+    q10 = table.value(species_id, "q10")
+    preferred = table.value(species_id, "preferred_temp_c")
+    temp = preferred.number if body_temp_c is None else body_temp_c
+    factor = q10_factor(temp, reference.number, q10.number)
+    return factor, temp, [q10, preferred, reference]
+
+
+def maintenance(
+    table: SpeciesTable,
+    species_id: str,
+    weight_kg: float,
+    *,
+    method: str | None = None,
+    body_temp_c: float | None = None,
+) -> Maintenance:
+    """Maintenance for one patient by the species' default method or the one asked for.
+
+    For ectotherms without an entered temperature the preferred temperature is
+    used; the planner reports that as a finding.
+    """
+    _positive("weight_kg", weight_kg)
+    default = table.value(species_id, "maintenance_method")
+    chosen = method or str(default.value)
+    if chosen not in MAINTENANCE_METHODS:
+        raise InputError(
+            f"unknown maintenance method {chosen!r}",
+            field="maintenance_method",
+            value=chosen,
+            fix=", ".join(MAINTENANCE_METHODS),
+        )
+    used: list[SpeciesValue] = [] if method else [default]
+    if chosen == "linear":
+        rate = table.value(species_id, "maintenance_ml_per_kg_day")
+        base = linear_ml_per_day(weight_kg, rate.number)
+        formula = f"{rate.number:g} mL/kg/day × {weight_kg:.4g} kg"
+        used.append(rate)
+        reference = table.get(species_id, "preferred_temp_c")
+    elif chosen == "allometric":
+        a = table.value(species_id, "maintenance_allometric_a")
+        b = table.value(species_id, "maintenance_allometric_b")
+        base = allometric_ml_per_day(weight_kg, a.number, b.number)
+        formula = f"{a.number:g} × {weight_kg:.4g}^{b.number:g} mL/day"
+        used += [a, b]
+        reference = table.get(species_id, "preferred_temp_c")
+    else:
+        k = table.value(species_id, "energy_k_kcal_per_day")
+        b = table.value(species_id, "energy_exponent")
+        water = table.value(species_id, "water_ml_per_kcal")
+        base = energy_kcal_per_day(weight_kg, k.number, b.number) * water.number
+        formula = f"{k.number:g} × {weight_kg:.4g}^{b.number:g} kcal/day × {water.number:g} mL/kcal"
+        used += [k, b, water]
+        reference = table.get(species_id, "energy_reference_temp_c")
+    factor, temp = 1.0, None
+    if reference is not None and table.species(species_id).is_ectotherm:
+        factor, temp, temp_values = _temperature(table, species_id, body_temp_c, reference)
+        used += [v for v in temp_values if v not in used]
+        q10 = table.value(species_id, "q10").number
+        formula += f" × {q10:g}^(({temp:g} − {reference.number:g}) / 10)"
+    return Maintenance(
+        ml_per_day=base * factor,
+        method=chosen,
+        formula=formula,
+        temperature_factor=factor,
+        body_temp_c=temp,
+        provenance=tuple(used),
+    )
+
+
+# ---- water budget ------------------------------------------------------------------------------
+@dataclass(frozen=True, kw_only=True)
+class WaterBudget:
+    """Daily water budget (mL/day) with the concentrating ceiling it assumed.
+
+    ``obligatory_urine_ml`` is the least urine that can carry the solute load at
+    the ceiling; ``isosthenuric_urine_ml`` is the same load at plasma osmolality,
+    to show what a patient who has lost concentrating ability needs.
+    """
+
+    energy_kcal_per_day: float
+    solute_mosm_per_day: float
+    ceiling_mosm_per_kg: float
+    ceiling_from: str  # species maximum | U/P × plasma | USG | urine osmolality
+    plasma_mosm_per_kg: float
+    obligatory_urine_ml: float
+    isosthenuric_urine_ml: float
+    insensible_ml: float | None
+    faecal_ml: float | None
+    provenance: tuple[SpeciesValue, ...]
+
+    @property
+    def minimum_ml(self) -> float:
+        """Insensible + faecal + obligatory urine water, counting only what is on record."""
+        return self.obligatory_urine_ml + (self.insensible_ml or 0.0) + (self.faecal_ml or 0.0)
+
+    @property
+    def extra_if_isosthenuric_ml(self) -> float:
+        return self.isosthenuric_urine_ml - self.obligatory_urine_ml
+
+
+def obligatory_urine_ml(solute_mosm: float, ceiling_mosm_per_kg: float) -> float:
+    """Obligatory urine water (mL) = solute load (mOsm) ÷ ceiling (mOsm/kg) × 1000."""
+    return _positive("solute_mosm", solute_mosm) / _positive("ceiling", ceiling_mosm_per_kg) * 1000
+
+
+def usg_to_osmolality(usg: float) -> float:
+    """Approximate urine osmolality (mOsm/kg) from USG: (USG − 1) × 30 000 (memory, see above)."""
+    if not (isinstance(usg, int | float) and 1.000 <= usg <= 1.080):
+        raise InputError(
+            "USG must be between 1.000 and 1.080", field="usg", value=usg, fix="e.g. 1.012"
+        )
+    return max((usg - 1.0) * USG_TO_MOSM_FACTOR, 1.0)
+
+
+def concentrating_ceiling(
+    table: SpeciesTable, species_id: str
+) -> tuple[float, str, list[SpeciesValue]]:
+    """The species' maximum urine osmolality: measured, or U/P ratio × plasma osmolality."""
+    plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
+    direct = table.get(species_id, "max_urine_osmolality_mosm_per_kg")
+    if direct is not None:
+        return direct.number, "species maximum", [direct]
+    ratio = table.get(species_id, "max_urine_plasma_ratio")
+    if ratio is not None:
+        return ratio.number * plasma.number, "U/P × plasma", [ratio, plasma]
+    raise InputError(
+        f"no urine-concentrating ceiling on record for {species_id}",
+        field="max_urine_osmolality_mosm_per_kg",
+        value=None,
+        fix="enter the patient's USG or urine osmolality, or add the value to the species table",
+    )
+
+
+def water_budget(
+    table: SpeciesTable,
+    species_id: str,
+    weight_kg: float,
+    *,
+    body_temp_c: float | None = None,
+    usg: float | None = None,
+    urine_osmolality: float | None = None,
+) -> WaterBudget:
+    """Daily water budget: insensible + faecal + obligatory urine water.
+
+    Solute load = energy expenditure (K · BW^b, Q10-scaled for ectotherms) ×
+    urine solute per kcal. The ceiling is the patient's measured urine
+    osmolality, else USG converted, else the species' maximum.
+    """
+    energy = maintenance(table, species_id, weight_kg, method="energy", body_temp_c=body_temp_c)
+    water = table.value(species_id, "water_ml_per_kcal")
+    kcal = energy.ml_per_day / water.number
+    solute_rate = table.value(species_id, "urine_solute_mosm_per_kcal")
+    plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
+    used = [*energy.provenance, solute_rate, plasma]
+    if urine_osmolality is not None:
+        ceiling = _positive("urine_osmolality", urine_osmolality)
+        source = "urine osmolality"
+    elif usg is not None:
+        ceiling, source = usg_to_osmolality(usg), "USG"
+    else:
+        ceiling, source, ceiling_values = concentrating_ceiling(table, species_id)
+        used += [v for v in ceiling_values if v not in used]
+    solute = kcal * solute_rate.number
+    insensible = table.get(species_id, "insensible_loss_ml_per_kg_day")
+    faecal = table.get(species_id, "faecal_water_ml_per_kg_day")
+    used += [v for v in (insensible, faecal) if v is not None]
+    return WaterBudget(
+        energy_kcal_per_day=kcal,
+        solute_mosm_per_day=solute,
+        ceiling_mosm_per_kg=ceiling,
+        ceiling_from=source,
+        plasma_mosm_per_kg=plasma.number,
+        obligatory_urine_ml=obligatory_urine_ml(solute, ceiling),
+        isosthenuric_urine_ml=obligatory_urine_ml(solute, plasma.number),
+        insensible_ml=insensible.number * weight_kg if insensible else None,
+        faecal_ml=faecal.number * weight_kg if faecal else None,
+        provenance=tuple(used),
+    )
