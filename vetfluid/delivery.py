@@ -85,7 +85,9 @@ def divided_boluses(
     need = _rate(need_ml_per_h)
     if not (isinstance(per_site_limit_ml, int | float) and per_site_limit_ml > 0):
         raise InputError(
-            "per-site limit must be more than 0 mL", field="per_site_limit_ml", value=per_site_limit_ml
+            "per-site limit must be more than 0 mL",
+            field="per_site_limit_ml",
+            value=per_site_limit_ml,
         )
     for interval in DIVIDED_INTERVALS_H:
         dose = need * interval

@@ -869,15 +869,16 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             "odunayo2018",
         )
 
+    running_h = maint_end - main.start_h
     if (
         tone.effective_class == "isotonic"
-        and maint_end - main.start_h >= limit("isotonic_maintenance_hours").value
+        and running_h >= limit("isotonic_maintenance_hours").value
     ):
         c.add(
             "info",
             "ISOTONIC_FOR_MAINTENANCE",
-            f"{base_fluid.name} is an isotonic replacement fluid; this plan keeps it running "
-            f"{maint_end - main.start_h:g} h into maintenance.",
+            f"{base_fluid.name} is an isotonic replacement fluid; this plan runs it for "
+            f"{running_h:g} h, the last {maint_end - hour:g} h as maintenance.",
             "For maintenance beyond a day consider a hypotonic maintenance fluid with potassium.",
             "pardo2024",
         )

@@ -1,0 +1,356 @@
+"""vetfluid-cli: the headless command line (never imports Qt).
+
+Exit codes: 0 a usable answer; 3 the plan was computed but a hard limit was hit
+(the findings say which); 2 invalid input (one line on stderr naming the field,
+the bad value and the fix).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from collections.abc import Sequence
+from datetime import datetime, time
+from typing import NoReturn
+
+from vetfluid.cautions import CAUTIONS, SHORT_CAUTION
+from vetfluid.errors import InputError, VetfluidError
+from vetfluid.formatting import format_quantity
+
+EXIT_OK, EXIT_INPUT, EXIT_HARD_LIMIT = 0, 2, 3
+DEVICE_WORDS = {
+    "pump": "infusion pump",
+    "gravity": "gravity drip",
+    "syringe": "syringe pump",
+    "divided": "divided boluses",
+}
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports bad input as one line and exit code 2."""
+
+    def error(self, message: str) -> NoReturn:
+        self.exit(
+            EXIT_INPUT,
+            f"vetfluid-cli: {message} — see `vetfluid-cli {self.prog.split()[-1]} --help`\n",
+        )
+
+
+def _start_time(text: str) -> time:
+    try:
+        return datetime.strptime(text, "%H:%M").time()
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"start time {text!r} must be HH:MM, e.g. 08:30") from None
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="vetfluid-cli", description="Headless fluid-therapy planning. " + SHORT_CAUTION
+    )
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    species = sub.add_parser("species", help="the effective species table with sources")
+    species.add_argument("--species", help="show one species only")
+    species.add_argument("--json", action="store_true")
+
+    fluids_cmd = sub.add_parser("fluids", help="the fluid library with computed composition")
+    fluids_cmd.add_argument("--json", action="store_true")
+
+    plan = sub.add_parser("plan", help="build a fluid plan for one patient")
+    plan.add_argument("--species", required=True, help="species id (see `vetfluid-cli species`)")
+    plan.add_argument(
+        "--weight", required=True, help='body weight with unit, e.g. "20 kg" or "350 g"'
+    )
+    plan.add_argument("--dehydration", type=float, help="estimated dehydration, %% of body weight")
+    plan.add_argument(
+        "--finding", action="append", default=[], help="clinical finding id (repeatable)"
+    )
+    plan.add_argument(
+        "--replace-hours", type=float, default=24.0, help="period to replace the deficit (h)"
+    )
+    plan.add_argument(
+        "--losses-ml-per-day", type=float, default=0.0, help="ongoing losses (mL/day)"
+    )
+    plan.add_argument("--maintenance-method", choices=("linear", "allometric", "energy"))
+    plan.add_argument(
+        "--fluid", default="lactated_ringers", help="fluid id (see `vetfluid-cli fluids`)"
+    )
+    plan.add_argument("--route", choices=("iv", "io", "sc", "icoel"))
+    plan.add_argument("--device", choices=("pump", "gravity", "syringe", "divided"))
+    plan.add_argument(
+        "--drop-factor", type=float, help="giving set drops/mL (implies a gravity drip)"
+    )
+    plan.add_argument("--boluses", type=int, default=0, help="resuscitation boluses to plan first")
+    plan.add_argument("--body-temp-c", type=float, help="body temperature (ectotherms)")
+    plan.add_argument("--serum-na", type=float, help="serum sodium, mmol/L")
+    plan.add_argument("--serum-k", type=float, help="serum potassium, mmol/L")
+    plan.add_argument("--usg", type=float, help="urine specific gravity")
+    plan.add_argument("--urine-osm", type=float, help="urine osmolality, mOsm/kg")
+    plan.add_argument("--kcl-mmol-per-l", type=float, help="KCl to add per litre, by hand")
+    plan.add_argument("--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v")
+    plan.add_argument("--start", type=_start_time, help="clock time of hour 0, HH:MM")
+    plan.add_argument("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
+    for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
+        plan.add_argument(f"--{flag}", action="store_true", help=f"patient flag: {flag}")
+    plan.add_argument("--json", action="store_true")
+
+    sodium = sub.add_parser("sodium", help="predicted serum Na change per litre (Adrogué–Madias)")
+    sodium.add_argument("--species", required=True)
+    sodium.add_argument("--weight", required=True)
+    sodium.add_argument("--serum-na", required=True, type=float)
+    sodium.add_argument("--fluid", required=True)
+    sodium.add_argument(
+        "--max-na-change", type=float, help="mmol/L/h (default from the limits table)"
+    )
+    sodium.add_argument("--json", action="store_true")
+    return parser
+
+
+# ---- commands -----------------------------------------------------------------------------------
+def _emit(data: object) -> None:
+    json.dump(data, sys.stdout, indent=2, ensure_ascii=False)
+    sys.stdout.write("\n")
+
+
+def _cautions_text() -> str:
+    return "\n".join(f"! {c}" for c in CAUTIONS)
+
+
+def _shown(value: object) -> str:
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    return f"{value:g}" if isinstance(value, float) else str(value)
+
+
+def _basis_mark(basis: str) -> str:
+    return {"memory": "[memory — unverified]", "derived": "[derived]"}.get(basis, "")
+
+
+def cmd_species(args: argparse.Namespace) -> int:
+    from vetfluid.serialize import species_dict
+    from vetfluid.species import load_table
+
+    table = load_table()
+    data = species_dict(table)
+    if args.species:
+        table.species(args.species)
+        data["species"] = [s for s in data["species"] if s["id"] == args.species]
+    if args.json:
+        _emit(data)
+        return EXIT_OK
+    for sp in data["species"]:
+        print(f"\n{sp['common_name']} ({sp['scientific_name']}) — {sp['taxon_group']} [{sp['id']}]")
+        for name, v in sp["values"].items():
+            shown = _shown(v["value"])
+            rng = (
+                f" ({v['low']:g}–{v['high']:g})"
+                if v["low"] is not None and v["high"] is not None
+                else ""
+            )
+            print(
+                f"  {name:34} {shown}{rng} {v['unit']}  {v['basis']}"
+                f"{' ' + _basis_mark(v['basis']) if v['basis'] != 'published' else ''}"
+                f"  source={v['source_id'] or '—'}  ({v['origin']}{' from ' + v['defined_on'] if v['origin'] == 'inherited' else ''})"
+            )
+    print("\nSources:")
+    for s in data["sources"]:
+        print(f"  {s['source_id']:22} {s['citation']}")
+    print("\n" + _cautions_text())
+    return EXIT_OK
+
+
+def cmd_fluids(args: argparse.Namespace) -> int:
+    from vetfluid.fluids import load_fluids
+    from vetfluid.serialize import fluid_dict
+
+    data = [fluid_dict(f) for f in load_fluids().values()]
+    if args.json:
+        _emit({"fluids": data, "cautions": list(CAUTIONS)})
+        return EXIT_OK
+    print(
+        f"{'fluid':28} {'Na':>6} {'K':>5} {'Cl':>6} {'Ca':>5} {'Mg':>5} {'dextrose g/L':>13} {'mOsm/L':>8}  basis"
+    )
+    for f in data:
+        print(
+            f"{f['fluid_id']:28} {f['na']:6.0f} {f['k']:5.1f} {f['cl']:6.0f} {f['ca']:5.2f} {f['mg']:5.2f}"
+            f" {f['dextrose_g_per_l']:13.0f} {f['osmolarity_mosm_per_l']:8.0f}  {f['basis']} {_basis_mark(f['basis'])}"
+        )
+    print("(ions in mmol/L, computed from the formula with molar masses from molmass)\n")
+    print(_cautions_text())
+    return EXIT_OK
+
+
+def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, imported lazily
+    from vetfluid.plan import PlanRequest
+    from vetfluid.units import parse_weight_kg
+
+    device = args.device or ("gravity" if args.drop_factor is not None else None)
+    return PlanRequest(
+        species_id=args.species,
+        weight_kg=parse_weight_kg(args.weight),
+        dehydration_percent=args.dehydration,
+        dehydration_findings=tuple(args.finding),
+        replace_hours=args.replace_hours,
+        losses_ml_per_day=args.losses_ml_per_day,
+        maintenance_method=args.maintenance_method,
+        fluid_id=args.fluid,
+        route=args.route,
+        device=device,
+        drop_factor=args.drop_factor,
+        resuscitation_boluses=args.boluses,
+        body_temp_c=args.body_temp_c,
+        serum_na=args.serum_na,
+        serum_k=args.serum_k,
+        usg=args.usg,
+        urine_osmolality=args.urine_osm,
+        kcl_mmol_per_l=args.kcl_mmol_per_l,
+        dextrose_percent=args.dextrose_percent,
+        start_time=args.start,
+        cardiac_disease=args.cardiac,
+        renal_disease=args.renal,
+        anaesthesia=args.anaesthesia,
+        neonate=args.neonate,
+        max_na_change_per_h=args.max_na_change,
+    )
+
+
+def _q(value: float | None, unit: str) -> str:
+    return "—" if value is None else format_quantity(value, unit)
+
+
+def print_plan(data: dict) -> None:
+    """The plan as a readable sheet for a person at a terminal."""
+    m = data["maintenance"]
+    print(f"Fluid plan — {data['species_name']}, {_q(data['weight_kg'], 'kg')}")
+    print(
+        f"  Maintenance   {_q(m['ml_per_day'], 'mL/day')} ({_q(m['ml_per_h'], 'mL/h')}) — {m['method']}: {m['formula']}"
+    )
+    print(
+        f"  Dehydration   {data['dehydration_percent']:g} % → deficit {_q(data['deficit_ml'], 'mL')}"
+    )
+    if data["free_water_deficit_ml"] is not None:
+        print(f"  Free water    {_q(data['free_water_deficit_ml'], 'mL')}")
+    fl = data["fluid"]
+    print(
+        f"  Fluid         {fl['name']} ({fl['tonicity']} in the body; Na {_q(fl['na_mmol_per_l'], 'mmol/L')}, K {_q(fl['k_mmol_per_l'], 'mmol/L')})"
+    )
+    print(f"  Route         {data['route'].upper()}, {DEVICE_WORDS[data['device']]}")
+    print(f"  First 24 h    {_q(data['total_ml_first_24h'], 'mL')}")
+    print("\nPhases")
+    for p in data["phases"]:
+        span = f"h {p['start_h']:g}–{p['end_h']:g}"
+        if p["mode"] == "continuous":
+            extra = f" = {_q(p['drops_per_min'], 'drops/min')}" if p.get("drops_per_min") else ""
+            print(
+                f"  {p['kind']:14} {span:14} {_q(p['rate_ml_per_h'], 'mL/h')}{extra}  total {_q(p['volume_ml'], 'mL')}"
+            )
+        else:
+            print(
+                f"  {p['kind']:14} {span:14} {_q(p['dose_ml'], 'mL')} every {p['interval_h']:g} h ×{p['doses']}"
+                f" in {p['sites_per_dose']} site(s)  total {_q(p['volume_ml'], 'mL')}"
+            )
+    if "potassium" in data:
+        k = data["potassium"]
+        print(
+            f"\nPotassium     add {_q(k['kcl_mmol_per_l'], 'mmol/L')} KCl ({k['from']}) → {_q(k['mmol_per_kg_per_h'], 'mmol/kg/h')} (ceiling {_q(k['ceiling_mmol_per_kg_per_h'], 'mmol/kg/h')})"
+        )
+    if "sodium" in data:
+        s = data["sodium"]
+        print(
+            f"Sodium        ΔNa {_q(s['delta_na_per_l'], 'mmol/L')} per litre; fastest rate {_q(s['max_rate_ml_per_h'], 'mL/h')}"
+        )
+    print("\nSchedule")
+    for e in data["schedule"]:
+        print(f"  {e['clock'] or ('h ' + format(e['hour'], 'g')):>12}  {e['action']}")
+    print("\nFindings")
+    for f in data["findings"] or [
+        {"severity": "info", "code": "NONE", "message": "none", "action": ""}
+    ]:
+        print(f"  [{f['severity'].upper():4}] {f['code']}: {f['message']} {f['action']}".rstrip())
+    memory = [v for v in data["provenance"] if v["basis"] == "memory"]
+    print(f"\nSpecies values used ({len(memory)} recalled from memory, marked *):")
+    for v in data["provenance"]:
+        shown = _shown(v["value"])
+        print(
+            f"  {'*' if v['basis'] == 'memory' else ' '} {v['parameter']:34} {shown} {v['unit']}  {v['basis']}  source={v['source_id'] or '—'}"
+        )
+    print("\n" + _cautions_text())
+
+
+def cmd_plan(args: argparse.Namespace) -> int:
+    from vetfluid.plan import build_plan
+    from vetfluid.serialize import plan_dict
+
+    plan = build_plan(_request(args))
+    data = plan_dict(plan)
+    if args.json:
+        _emit(data)
+    else:
+        print_plan(data)
+    return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK
+
+
+def cmd_sodium(args: argparse.Namespace) -> int:
+    from vetfluid import electrolytes, fluids
+    from vetfluid.limits import limit
+    from vetfluid.species import load_table
+    from vetfluid.units import parse_weight_kg
+
+    table = load_table()
+    weight = parse_weight_kg(args.weight)
+    tbw = table.value(args.species, "total_body_water_fraction")
+    comp = fluids.composition(fluids.fluid(args.fluid))
+    change = electrolytes.sodium_change_per_litre(
+        serum_na=args.serum_na,
+        infusate_na=comp.na_mmol_per_l,
+        infusate_k=comp.k_mmol_per_l,
+        tbw_l=tbw.number * weight,
+    )
+    max_change = args.max_na_change or limit("sodium_max_correction_mmol_per_l_h").value
+    data = {
+        "species_id": args.species,
+        "weight_kg": weight,
+        "serum_na": args.serum_na,
+        "fluid_id": args.fluid,
+        "infusate_na_plus_k": comp.na_mmol_per_l + comp.k_mmol_per_l,
+        "tbw_l": tbw.number * weight,
+        "tbw_fraction": tbw.provenance(),
+        "delta_na_per_l": change,
+        "max_change_per_h": max_change,
+        "max_rate_ml_per_h": electrolytes.max_rate_for_sodium(
+            change_per_litre=change, max_change_per_h=max_change
+        ),
+        "method": "Adrogué–Madias: (infusate Na + K − serum Na) / (TBW + 1)",
+        "source_id": "adrogue2000",
+        "cautions": list(CAUTIONS),
+    }
+    if args.json:
+        _emit(data)
+        return EXIT_OK
+    print(f"TBW {_q(data['tbw_l'], 'L')} ({tbw.number:g} × BW, {tbw.basis})")
+    print(f"ΔNa after 1 L of {args.fluid}: {_q(change, 'mmol/L')}")
+    print(
+        f"Fastest rate within {_q(max_change, 'mmol/L/h')}: {_q(data['max_rate_ml_per_h'], 'mL/h')}"
+    )
+    print("\n" + _cautions_text())
+    return EXIT_OK
+
+
+COMMANDS = {"species": cmd_species, "fluids": cmd_fluids, "plan": cmd_plan, "sodium": cmd_sodium}
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    try:
+        return COMMANDS[args.command](args)
+    except InputError as exc:
+        sys.stderr.write(f"vetfluid-cli: invalid input — {exc.one_line()}\n")
+        return EXIT_INPUT
+    except VetfluidError as exc:
+        sys.stderr.write(f"vetfluid-cli: {exc.one_line()}\n")
+        return EXIT_INPUT
+
+
+if __name__ == "__main__":
+    sys.exit(main())

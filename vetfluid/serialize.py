@@ -1,0 +1,187 @@
+"""Plain-data views of core results, shared by the CLI (JSON), the window and print.
+
+One function per result, so every surface shows the same numbers. Keys are
+stable and documented in README.md.
+"""
+
+from __future__ import annotations
+
+from vetfluid import fluids
+from vetfluid.cautions import CAUTIONS
+from vetfluid.plan import Phase, Plan
+from vetfluid.species import SpeciesTable, SpeciesValue
+
+
+def value_dict(value: SpeciesValue) -> dict[str, object]:
+    return value.provenance()
+
+
+def phase_dict(phase: Phase) -> dict[str, object]:
+    data: dict[str, object] = {
+        "kind": phase.kind,
+        "mode": phase.mode,
+        "route": phase.route,
+        "start_h": phase.start_h,
+        "end_h": phase.end_h,
+        "volume_ml": phase.volume_ml,
+        "kcl_mmol_per_l": phase.kcl_mmol_per_l,
+    }
+    if phase.mode == "continuous":
+        data["rate_ml_per_h"] = phase.rate_ml_per_h
+        data["drops_per_min"] = phase.drops_per_min
+        data["seconds_per_drop"] = phase.seconds_per_drop
+    else:
+        data.update(
+            dose_ml=phase.dose_ml,
+            interval_h=phase.interval_h,
+            doses=phase.doses,
+            sites_per_dose=phase.sites_per_dose,
+            ml_per_site=phase.ml_per_site,
+        )
+    if phase.note:
+        data["note"] = phase.note
+    return data
+
+
+def plan_dict(plan: Plan) -> dict[str, object]:
+    """The plan as JSON-ready data (see README: "Plan JSON")."""
+    main = plan.main_phase
+    budget = plan.water_budget
+    request = plan.request
+    data: dict[str, object] = {
+        "species_id": request.species_id,
+        "species_name": plan.species_name,
+        "weight_kg": request.weight_kg,
+        "maintenance": {
+            "ml_per_day": plan.maintenance.ml_per_day,
+            "ml_per_h": plan.maintenance.ml_per_h,
+            "method": plan.maintenance.method,
+            "formula": plan.maintenance.formula,
+            "temperature_factor": plan.maintenance.temperature_factor,
+            "body_temp_c": plan.maintenance.body_temp_c,
+            "provenance": [value_dict(v) for v in plan.maintenance.provenance],
+        },
+        "dehydration_percent": plan.dehydration_percent,
+        "dehydration_estimate": (
+            {
+                "percent_low": plan.dehydration_estimate.percent_low,
+                "percent_high": plan.dehydration_estimate.percent_high,
+                "findings": list(plan.dehydration_estimate.findings),
+                "source_id": plan.dehydration_estimate.source_id,
+            }
+            if plan.dehydration_estimate
+            else None
+        ),
+        "deficit_ml": plan.deficit_ml,
+        "losses_ml_per_day": request.losses_ml_per_day,
+        "free_water_deficit_ml": plan.free_water_deficit_ml,
+        "fluid": {
+            "fluid_id": request.fluid_id,
+            "name": plan.fluid_name,
+            "na_mmol_per_l": plan.fluid_na_mmol_per_l,
+            "k_mmol_per_l": plan.fluid_k_mmol_per_l,
+            "tonicity": plan.tonicity.effective_class,
+            "tonicity_in_bag": plan.tonicity.in_vitro_class,
+            "osmolarity_ratio_to_plasma": plan.tonicity.in_vitro_ratio,
+        },
+        "route": plan.route,
+        "device": plan.device,
+        "phases": [phase_dict(p) for p in plan.phases],
+        "total_ml_first_24h": plan.total_ml_first_24h,
+        "delivery": {
+            "device": plan.device,
+            "drop_factor": request.drop_factor if plan.device == "gravity" else None,
+            "rate_ml_per_h": main.rate_ml_per_h,
+            "drops_per_min": main.drops_per_min,
+            "seconds_per_drop": main.seconds_per_drop,
+            "dose_ml": main.dose_ml,
+            "interval_h": main.interval_h,
+        },
+        "schedule": [
+            {"hour": e.hour, "clock": e.clock, "phase": e.phase, "action": e.action}
+            for e in plan.schedule
+        ],
+        "findings": [f.as_dict() for f in plan.findings],
+        "hard_limit": plan.has_hard_limit,
+        "provenance": [value_dict(v) for v in plan.provenance],
+        "cautions": list(CAUTIONS),
+    }
+    if plan.resuscitation is not None:
+        r = plan.resuscitation
+        data["resuscitation"] = {
+            "bolus_ml_per_kg": r.bolus_ml_per_kg,
+            "bolus_ml": r.bolus_ml,
+            "minutes": r.minutes,
+            "rate_ml_per_h": r.rate_ml_per_h,
+            "cap_ml_per_kg": r.cap_ml_per_kg,
+            "cap_ml": r.cap_ml,
+            "cap_from": r.cap_from,
+            "bolus_from": r.bolus_from,
+            "max_boluses": r.max_boluses,
+            "reassess": r.reassess,
+        }
+    if plan.potassium is not None:
+        data["potassium"] = dict(plan.potassium)
+    if plan.sodium is not None:
+        data["sodium"] = dict(plan.sodium)
+    if budget is not None:
+        data["water_budget"] = {
+            "energy_kcal_per_day": budget.energy_kcal_per_day,
+            "solute_mosm_per_day": budget.solute_mosm_per_day,
+            "ceiling_mosm_per_kg": budget.ceiling_mosm_per_kg,
+            "ceiling_from": budget.ceiling_from,
+            "obligatory_urine_ml_per_day": budget.obligatory_urine_ml,
+            "isosthenuric_urine_ml_per_day": budget.isosthenuric_urine_ml,
+            "insensible_ml_per_day": budget.insensible_ml,
+            "faecal_ml_per_day": budget.faecal_ml,
+            "minimum_ml_per_day": budget.minimum_ml,
+        }
+    return data
+
+
+def species_dict(table: SpeciesTable) -> dict[str, object]:
+    """The effective table: every species with every value, plus the sources."""
+    return {
+        "species": [
+            {
+                "id": s.id,
+                "common_name": s.common_name,
+                "scientific_name": s.scientific_name,
+                "taxon_group": s.taxon_group,
+                "thermoregulation": s.thermoregulation,
+                "nitrogen_excretion": s.nitrogen_excretion,
+                "values": {k: value_dict(v) for k, v in table.effective(s.id).items()},
+            }
+            for s in (table.species(i) for i in table.species_ids())
+        ],
+        "sources": [
+            {"source_id": s.source_id, "citation": s.citation, "year": s.year, "kind": s.kind}
+            for s in table.sources.values()
+        ],
+        "cautions": list(CAUTIONS),
+    }
+
+
+COMPOSITION_KEYS = ("na", "k", "cl", "ca", "mg", "lactate", "acetate", "gluconate")
+
+
+def fluid_dict(fluid: fluids.Fluid) -> dict[str, object]:
+    comp = fluids.composition(fluid)
+    data: dict[str, object] = {
+        "fluid_id": fluid.fluid_id,
+        "name": fluid.name,
+        "kind": fluid.kind,
+        "basis": fluid.basis,
+        "source_id": fluid.source_id or None,
+        "solutes_g_per_l": {a.solute.solute_id: a.g_per_l for a in fluid.solutes},
+    }
+    for key in COMPOSITION_KEYS:
+        data[key] = comp.mmol_per_l(key)
+    data.update(
+        dextrose_g_per_l=comp.dextrose_hydrous_g_per_l,
+        glucose_anhydrous_g_per_l=comp.dextrose_g_per_l,
+        osmolarity_mosm_per_l=comp.osmolarity_mosm_per_l,
+        effective_osmolarity_mosm_per_l=comp.effective_osmolarity_mosm_per_l,
+        kcal_per_l=comp.kcal_per_l,
+    )
+    return data
