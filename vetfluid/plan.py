@@ -566,6 +566,15 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             "vcna2017_sc",
         )
 
+    if species.is_ectotherm and request.dextrose_percent > 0:
+        c.add(
+            "soft",
+            "REPTILE_DEXTROSE",
+            "Dextrose-containing fluids caused severe hyperglycaemia in dehydrated bearded dragons.",
+            "Prefer an isotonic crystalloid without dextrose; check blood glucose if you add it.",
+            "parkinson2020",
+        )
+
     # Phases
     phases: list[Phase] = []
     hour = 0.0

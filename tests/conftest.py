@@ -1,0 +1,17 @@
+"""Shared test setup: every test writes only into its own temporary VETFLUID_HOME."""
+
+from __future__ import annotations
+
+import os
+
+import pytest
+
+os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+
+
+@pytest.fixture(autouse=True)
+def vetfluid_home(tmp_path, monkeypatch):
+    home = tmp_path / "vetfluid-home"
+    home.mkdir()
+    monkeypatch.setenv("VETFLUID_HOME", str(home))
+    return home

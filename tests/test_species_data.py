@@ -1,0 +1,221 @@
+"""The shipped species table: complete, traceable, and physiologically sane."""
+
+from __future__ import annotations
+
+import csv
+import shutil
+from pathlib import Path
+
+import pytest
+
+from vetfluid.errors import InputError, SpeciesDataError
+from vetfluid.maintenance import concentrating_ceiling
+from vetfluid.paths import resource_dir
+from vetfluid.species import BASES, load_table
+
+DATA = resource_dir("species_data")
+REQUIRED_SPECIES = [
+    "dog", "cat", "ferret", "rabbit", "guinea_pig", "chinchilla", "rat", "mouse",
+    "syrian_hamster", "mongolian_gerbil", "kangaroo_rat", "jerboa", "sugar_glider", "hedgehog",
+    "budgerigar", "cockatiel", "african_grey", "canary", "pigeon", "chicken", "red_tailed_hawk",
+    "bearded_dragon", "leopard_gecko", "green_iguana", "ball_python", "corn_snake",
+    "red_eared_slider", "hermanns_tortoise",
+]  # fmt: skip
+
+
+@pytest.fixture(scope="module")
+def table():
+    return load_table(overrides=Path("/nonexistent-override-folder"))
+
+
+def _rows(name):
+    with (DATA / name).open(newline="", encoding="utf-8") as handle:
+        return list(csv.DictReader(handle))
+
+
+def test_at_least_30_species_in_6_groups(table):
+    ids = table.species_ids()
+    assert len(ids) >= 30
+    assert len({table.species(i).taxon_group for i in ids}) >= 6
+    assert set(REQUIRED_SPECIES) <= set(ids)
+
+
+def test_every_value_has_a_valid_basis_and_published_values_cite_a_known_source(table):
+    rows = _rows("parameters.csv")
+    assert rows
+    for line, row in enumerate(rows, start=2):
+        assert row["basis"] in BASES, f"parameters.csv:{line}"
+        if row["basis"] == "published":
+            assert row["source_id"] in table.sources, f"parameters.csv:{line}"
+        if row["basis"] == "derived":
+            assert row["note"], f"parameters.csv:{line} derived without a note"
+
+
+def test_every_source_has_a_citation_and_is_cited_somewhere(table):
+    data_files = ("parameters.csv", "fluids.csv", "potassium_scale.csv", "safety_limits.csv",
+                  "dehydration_findings.csv")  # fmt: skip
+    used = {r["source_id"] for name in data_files for r in _rows(name)}
+    code = " ".join(p.read_text(encoding="utf-8") for p in Path(DATA.parent, "vetfluid").glob("*.py"))
+    for source in table.sources.values():
+        assert len(source.citation) > 20, source.source_id
+        assert source.source_id in used or f'"{source.source_id}"' in code, source.source_id
+
+
+def test_inheritance_resolves_every_required_parameter(table):
+    for sid in table.species_ids():
+        values = table.effective(sid)
+        for definition in table.definitions.values():
+            needed = definition.required == "all" or (
+                definition.required == "ectotherm" and table.species(sid).is_ectotherm
+            )
+            if needed:
+                assert definition.name in values, (sid, definition.name)
+
+
+def test_values_say_where_they_come_from(table):
+    dog_shock = table.value("dog", "shock_dose_ml_per_kg")
+    assert (dog_shock.origin, dog_shock.defined_on) == ("shipped", "dog")
+    gecko_up = table.value("leopard_gecko", "max_urine_plasma_ratio")
+    assert (gecko_up.origin, gecko_up.defined_on) == ("inherited", "group_reptile")
+    assert table.value("dog", "energy_exponent").defined_on == "group_mammal"
+
+
+def test_no_reptile_concentrates_urine_above_plasma(table):
+    # Reptiles lack a loop of Henle (Holz, Vet Clin North Am Exot Anim Pract; Braun 1985);
+    # also common practice, no source: "reptiles no higher than plasma".
+    reptiles = [s for s in table.species_ids() if table.species(s).is_ectotherm]
+    assert len(reptiles) >= 7
+    for sid in reptiles:
+        ceiling, _, _ = concentrating_ceiling(table, sid)
+        plasma = table.value(sid, "plasma_osmolality_mosm_per_kg").number
+        assert ceiling <= plasma, sid
+
+
+def test_some_desert_rodent_exceeds_2000_and_dogs_sit_between_people_and_gerbils(table):
+    # Common practice, no source: desert rodents concentrate well over 2000 mOsm/kg,
+    # a person 1200–1400; the dog maximum 2289 is Hardy & Osborne 1979.
+    gerbil, _, _ = concentrating_ceiling(table, "mongolian_gerbil")
+    dog, _, _ = concentrating_ceiling(table, "dog")
+    assert gerbil > 2000
+    assert 1400 < dog < gerbil
+    assert dog == pytest.approx(2289)
+
+
+def test_plasma_osmolality_near_300_for_mammals(table):
+    # Common practice, no source: plasma ≈ 300 mOsm/kg.
+    for sid in table.species_ids():
+        if table.lineage(sid)[-1] == "group_mammal":
+            assert 280 <= table.value(sid, "plasma_osmolality_mosm_per_kg").number <= 330, sid
+
+
+def test_dog_and_cat_guideline_values(table):
+    # Davis H et al. 2013 AAHA/AAFP guidelines: 132·BW^0.75 (dog), 80·BW^0.75 (cat),
+    # shock dose dog 80–90, cat 50–55 mL/kg.
+    assert table.value("dog", "maintenance_allometric_a").number == 132
+    assert table.value("cat", "maintenance_allometric_a").number == 80
+    assert table.value("dog", "shock_dose_ml_per_kg").high == 90
+    assert table.value("cat", "shock_dose_ml_per_kg").low == 50
+
+
+def test_usg_flag_follows_urine_concentration(table):
+    for sid in table.species_ids():
+        ceiling, _, _ = concentrating_ceiling(table, sid) if table.get(
+            sid, "max_urine_osmolality_mosm_per_kg"
+        ) or table.get(sid, "max_urine_plasma_ratio") else (None, None, None)
+        if ceiling is not None and table.species(sid).is_ectotherm:
+            assert table.value(sid, "usg_interpretable").value is False
+
+
+def test_unknown_species_lists_close_matches(table):
+    with pytest.raises(InputError, match="did you mean: dog"):
+        table.species("dgo")
+
+
+def test_search_finds_common_scientific_and_group_names(table):
+    assert [s.id for s in table.search("gerbil")] == ["mongolian_gerbil"]
+    assert "ball_python" in [s.id for s in table.search("python regius")]
+    assert len(table.search("chelonian")) == 2
+
+
+# ---- broken files: errors name the file and line ---------------------------------------------
+@pytest.fixture()
+def data_copy(tmp_path):
+    target = tmp_path / "species_data"
+    shutil.copytree(DATA, target)
+    return target
+
+
+def _append(path: Path, line: str) -> int:
+    text = path.read_text(encoding="utf-8")
+    path.write_text(text + line + "\n", encoding="utf-8")
+    return len((text + line).splitlines())
+
+
+@pytest.mark.parametrize(
+    ("row", "message"),
+    [
+        ("dog,no_such_parameter,1,,,kg,,memory,", "unknown parameter"),
+        ("dgo,body_weight_kg,1,,,kg,,memory,", "unknown species id"),
+        ("cat,shock_dose_ml_per_kg,40,50,55,mL/kg,davis2013,published,", "outside low–high"),
+        ("cat,body_weight_kg,4,2,8,kg,,memory,", "duplicate row"),
+        ("ferret,shock_dose_ml_per_kg,60,,,mL,,memory,", "unit 'mL'"),
+        ("ferret,shock_dose_ml_per_kg,60,,,mL/kg,nobody2099,published,", "unknown source_id"),
+        ("ferret,shock_dose_ml_per_kg,60,,,mL/kg,,published,", "needs a source_id"),
+        ("ferret,shock_dose_ml_per_kg,sixty,,,mL/kg,,memory,", "not a number"),
+        ("ferret,shock_dose_ml_per_kg,60,,,mL/kg,,guess,", "basis 'guess'"),
+        ("ferret,shock_dose_ml_per_kg,60,,,mL/kg,,derived,", "needs a note"),
+        ("ferret,usg_interpretable,maybe,,,yes/no,,memory,", "yes or no"),
+    ],
+)
+def test_broken_rows_name_file_and_line(data_copy, tmp_path, row, message):
+    line = _append(data_copy / "parameters.csv", row)
+    with pytest.raises(SpeciesDataError, match=message) as caught:
+        load_table(data_copy, overrides=tmp_path / "none")
+    assert f"parameters.csv:{line}" in str(caught.value)
+
+
+def test_missing_required_parameter_after_inheritance_is_reported(data_copy, tmp_path):
+    path = data_copy / "parameters.csv"
+    kept = [ln for ln in path.read_text(encoding="utf-8").splitlines()
+            if not ln.startswith("group_mammal,serum_k_mmol_per_l")]  # fmt: skip
+    path.write_text("\n".join(kept) + "\n", encoding="utf-8")
+    with pytest.raises(SpeciesDataError, match="lacks serum_k_mmol_per_l"):
+        load_table(data_copy, overrides=tmp_path / "none")
+
+
+def test_parent_loop_is_reported(data_copy, tmp_path):
+    path = data_copy / "species.csv"
+    text = path.read_text(encoding="utf-8").replace(
+        "group_mammal,group,Mammals,Mammalia,mammal,endotherm,urea,",
+        "group_mammal,group,Mammals,Mammalia,mammal,endotherm,urea,group_rodent",
+    )
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(SpeciesDataError, match="loops"):
+        load_table(data_copy, overrides=tmp_path / "none")
+
+
+# ---- clinic overrides --------------------------------------------------------------------------
+def test_clinic_override_merges_on_top_and_says_so(tmp_path):
+    overrides = tmp_path / "overrides"
+    overrides.mkdir()
+    (overrides / "parameters.csv").write_text(
+        "species_id,parameter,value,low,high,unit,source_id,basis,note\n"
+        "ferret,blood_volume_ml_per_kg,75,,,mL/kg,,memory,Clinic protocol 2026\n",
+        encoding="utf-8",
+    )
+    table = load_table(overrides=overrides)
+    value = table.value("ferret", "blood_volume_ml_per_kg")
+    assert (value.value, value.origin, value.basis) == (75, "override", "memory")
+    assert table.value("dog", "blood_volume_ml_per_kg").origin == "shipped"
+
+
+def test_broken_override_names_the_override_file(tmp_path):
+    overrides = tmp_path / "overrides"
+    overrides.mkdir()
+    (overrides / "parameters.csv").write_text(
+        "species_id,parameter,value,low,high,unit,source_id,basis,note\n"
+        "ferret,blood_volume_ml_per_kg,-5,,,mL/kg,,memory,\n",
+        encoding="utf-8",
+    )
+    with pytest.raises(SpeciesDataError, match="overrides/parameters.csv:2"):
+        load_table(overrides=overrides)
