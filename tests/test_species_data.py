@@ -55,7 +55,9 @@ def test_every_source_has_a_citation_and_is_cited_somewhere(table):
     data_files = ("parameters.csv", "fluids.csv", "potassium_scale.csv", "safety_limits.csv",
                   "dehydration_findings.csv")  # fmt: skip
     used = {r["source_id"] for name in data_files for r in _rows(name)}
-    code = " ".join(p.read_text(encoding="utf-8") for p in Path(DATA.parent, "vetfluid").glob("*.py"))
+    code = " ".join(
+        p.read_text(encoding="utf-8") for p in Path(DATA.parent, "vetfluid").glob("*.py")
+    )
     for source in table.sources.values():
         assert len(source.citation) > 20, source.source_id
         assert source.source_id in used or f'"{source.source_id}"' in code, source.source_id
@@ -119,9 +121,12 @@ def test_dog_and_cat_guideline_values(table):
 
 def test_usg_flag_follows_urine_concentration(table):
     for sid in table.species_ids():
-        ceiling, _, _ = concentrating_ceiling(table, sid) if table.get(
-            sid, "max_urine_osmolality_mosm_per_kg"
-        ) or table.get(sid, "max_urine_plasma_ratio") else (None, None, None)
+        ceiling, _, _ = (
+            concentrating_ceiling(table, sid)
+            if table.get(sid, "max_urine_osmolality_mosm_per_kg")
+            or table.get(sid, "max_urine_plasma_ratio")
+            else (None, None, None)
+        )
         if ceiling is not None and table.species(sid).is_ectotherm:
             assert table.value(sid, "usg_interpretable").value is False
 

@@ -282,10 +282,10 @@ def _route_and_device(c: _Collector, request: PlanRequest) -> tuple[str, str]:
     """Route and delivery: a line when the patient is big enough, divided boluses otherwise."""
     line_min = c.value("continuous_line_min_kg")
     small = request.weight_kg < line_min.number
-    route = request.route or ("sc" if small else "iv")
-    if route == "sc" and c.table.species(request.species_id).taxon_group in ("chelonian",):
-        route = request.route or "icoel"
-    device = request.device or ("divided" if route not in LINE_ROUTES else "pump")
+    chelonian = c.table.species(request.species_id).taxon_group == "chelonian"
+    default_route = "iv" if not small else ("icoel" if chelonian else "sc")
+    route = request.route or default_route
+    device = request.device or ("pump" if route in LINE_ROUTES else "divided")
     if route not in LINE_ROUTES and device != "divided":
         raise InputError(
             f"{route.upper()} fluids are given as divided boluses, not by {device}",
@@ -300,9 +300,7 @@ def _route_and_device(c: _Collector, request: PlanRequest) -> tuple[str, str]:
             value=None,
             fix="enter the drops/mL printed on the set (10, 15, 20 or 60)",
         )
-    if small and route in LINE_ROUTES and not request.route:
-        route = "sc"
-    if small and device == "divided" and request.route is None:
+    if small and request.route is None:
         c.add(
             "info",
             "DIVIDED_BOLUSES",
@@ -310,6 +308,7 @@ def _route_and_device(c: _Collector, request: PlanRequest) -> tuple[str, str]:
             f"{_fmt(line_min.number, 'kg')} at which a continuous line is practical; "
             "fluids are planned as divided boluses.",
             "Choose an IV or IO route instead if a line is in place.",
+            line_min.source_id,
         )
     return route, device
 

@@ -1,0 +1,273 @@
+"""The plan builder: phases, totals, delivery, findings and provenance."""
+
+from __future__ import annotations
+
+import math
+from datetime import time
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from vetfluid.errors import InputError
+from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.species import load_table
+
+
+def codes(plan):
+    return {f.code: f.severity for f in plan.findings}
+
+
+def plan_for(**kwargs):
+    return build_plan(PlanRequest(**kwargs))
+
+
+def test_dehydrated_dog_phases_rates_and_totals():
+    # Davis 2013: maintenance 132·BW^0.75 mL/day; deficit = BW × fraction dehydrated.
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12,
+                    start_time=time(8, 0))  # fmt: skip
+    maintenance = 132 * 20**0.75
+    assert plan.maintenance.ml_per_day == pytest.approx(maintenance)
+    assert plan.deficit_ml == pytest.approx(1400)
+    replacement, tail = plan.phases
+    assert (replacement.kind, replacement.start_h, replacement.end_h) == ("replacement", 0, 12)
+    assert replacement.rate_ml_per_h == pytest.approx(1400 / 12 + maintenance / 24)
+    assert (tail.kind, tail.start_h, tail.end_h) == ("maintenance", 12, 24)
+    assert tail.rate_ml_per_h == pytest.approx(maintenance / 24)
+    assert plan.total_ml_first_24h == pytest.approx(1400 + maintenance)
+    assert [e.clock for e in plan.schedule] == ["08:00", "20:00"]
+    assert not plan.has_hard_limit
+
+
+def test_losses_add_to_every_phase():
+    base = plan_for(species_id="cat", weight_kg=4, dehydration_percent=5)
+    lossy = plan_for(species_id="cat", weight_kg=4, dehydration_percent=5, losses_ml_per_day=96)
+    for a, b in zip(base.phases, lossy.phases, strict=True):
+        assert b.rate_ml_per_h - a.rate_ml_per_h == pytest.approx(4.0)
+
+
+def test_resuscitation_boluses_come_first_with_reassessment():
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=8, resuscitation_boluses=2)
+    first, second = plan.phases[:2]
+    assert first.kind == second.kind == "resuscitation"
+    assert first.volume_ml == pytest.approx(15 * 20)  # 15 mL/kg, recalled from Pardo 2024
+    assert first.end_h == pytest.approx(0.25) and second.start_h == pytest.approx(0.25)
+    assert first.kcl_mmol_per_l == 0  # no KCl in resuscitation boluses (Côté 2020)
+    assert plan.phases[2].start_h == pytest.approx(0.5)
+    assert "BOLUS_NOT_SUBTRACTED" in codes(plan)
+
+
+def test_boluses_beyond_the_shock_dose_are_a_soft_finding():
+    # Davis 2013: dog shock dose 80–90 mL/kg; 7 × 15 mL/kg = 105 mL/kg.
+    assert (
+        codes(plan_for(species_id="dog", weight_kg=20, resuscitation_boluses=7))[
+            "BOLUSES_ABOVE_SHOCK_DOSE"
+        ]
+        == "soft"
+    )
+    assert "BOLUSES_ABOVE_SHOCK_DOSE" not in codes(
+        plan_for(species_id="dog", weight_kg=20, resuscitation_boluses=6)
+    )
+
+
+def test_weight_checks_catch_the_gram_kilogram_slip():
+    assert codes(plan_for(species_id="dog", weight_kg=0.02))["WEIGHT_UNIT_SLIP"] == "hard"
+    assert codes(plan_for(species_id="dog", weight_kg=95))["WEIGHT_OUTSIDE_RANGE"] == "soft"
+    assert "WEIGHT_OUTSIDE_RANGE" not in codes(plan_for(species_id="dog", weight_kg=30))
+    # a gerbil entered as 70 kg instead of 70 g
+    assert (
+        codes(plan_for(species_id="mongolian_gerbil", weight_kg=70))["WEIGHT_UNIT_SLIP"] == "hard"
+    )
+
+
+def test_rate_above_one_shock_dose_per_hour_is_hard():
+    # 15% of 20 kg over 1 h = 3000 mL/h, above 90 mL/kg/h = 1800 mL/h (Davis 2013 shock dose).
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=15, replace_hours=1)
+    assert codes(plan)["RATE_ABOVE_SHOCK_DOSE"] == "hard"
+    assert plan.has_hard_limit
+
+
+def test_potassium_from_the_scale_and_the_ceiling():
+    # Côté 2020 scale: serum K 2.3 → 60 mmol/L KCl added, max 8 mL/kg/h.
+    plan = plan_for(species_id="dog", weight_kg=10, dehydration_percent=5, serum_k=2.3)
+    assert plan.potassium["kcl_mmol_per_l"] == 60
+    assert plan.potassium["band_max_rate_ml_per_kg_h"] == 8
+    rate = plan.main_phase.rate_ml_per_h
+    expected = plan.fluid_k_mmol_per_l * rate / 1000 / 10
+    assert plan.potassium["mmol_per_kg_per_h"] == pytest.approx(expected)
+    assert plan.fluid_k_mmol_per_l == pytest.approx((4 + 60) * 1000 / 1030, rel=0.01)
+    assert "POTASSIUM_ABOVE_CEILING" not in codes(plan)
+
+
+def test_potassium_above_half_a_millimole_per_kg_per_hour_is_hard():
+    plan = plan_for(species_id="dog", weight_kg=10, dehydration_percent=10, replace_hours=4,
+                    kcl_mmol_per_l=80)  # fmt: skip
+    k_rate = plan.fluid_k_mmol_per_l * plan.main_phase.rate_ml_per_h / 1000 / 10
+    assert k_rate > 0.5
+    assert codes(plan)["POTASSIUM_ABOVE_CEILING"] == "hard"
+
+
+def test_sodium_falling_too_fast_is_soft_and_free_water_deficit_is_given():
+    # Adrogué–Madias 2000: ΔNa per L = (0 − 170)/(0.6·20 + 1) = −13.1 mmol/L for 5% dextrose.
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12,
+                    serum_na=170, fluid_id="dextrose_5")  # fmt: skip
+    assert plan.sodium["delta_na_per_l"] == pytest.approx(-170 / 13)
+    assert plan.sodium["max_rate_ml_per_h"] == pytest.approx(0.5 / (170 / 13) * 1000)
+    assert codes(plan)["SODIUM_CHANGE_TOO_FAST"] == "soft"
+    # free-water deficit 0.6 × 20 × (170/145 − 1) L, dog normal Na 145 (memory)
+    assert plan.free_water_deficit_ml == pytest.approx(0.6 * 20 * (170 / 145 - 1) * 1000)
+
+
+def test_cardiac_disease_suggests_a_lower_rate():
+    plan = plan_for(species_id="cat", weight_kg=4, dehydration_percent=6, replace_hours=12,
+                    cardiac_disease=True)  # fmt: skip
+    finding = next(f for f in plan.findings if f.code == "OVERLOAD_RISK")
+    assert finding.severity == "soft"
+    slower = 240 / 24 + plan.maintenance.ml_per_h
+    assert f"{slower:.1f} mL/h" in finding.message
+    assert slower < plan.main_phase.rate_ml_per_h
+
+
+def test_anaesthesia_rate_above_ten_ml_per_kg_per_hour():
+    plan = plan_for(species_id="dog", weight_kg=10, dehydration_percent=8, replace_hours=6,
+                    anaesthesia=True)  # fmt: skip
+    assert plan.main_phase.rate_ml_per_h > 100
+    assert codes(plan)["ANAESTHESIA_RATE"] == "soft"
+
+
+def test_cold_reptile_is_flagged_and_its_needs_scaled_down():
+    warm = plan_for(species_id="bearded_dragon", weight_kg=0.4, body_temp_c=32)
+    cold = plan_for(species_id="bearded_dragon", weight_kg=0.4, body_temp_c=22)
+    assert "ECTOTHERM_OUTSIDE_PREFERRED_TEMP" not in codes(warm)
+    assert codes(cold)["ECTOTHERM_OUTSIDE_PREFERRED_TEMP"] == "soft"
+    q10 = load_table().value("bearded_dragon", "q10").number
+    assert cold.maintenance.ml_per_day / warm.maintenance.ml_per_day == pytest.approx(q10**-1)
+    assert "ECTOTHERM_TEMP_NOT_ENTERED" in codes(plan_for(species_id="corn_snake", weight_kg=0.5))
+
+
+def test_reptile_needs_less_water_per_kg_than_a_dog():
+    dragon = plan_for(species_id="bearded_dragon", weight_kg=0.4, body_temp_c=30)
+    dog = plan_for(species_id="dog", weight_kg=20)
+    assert dragon.maintenance.ml_per_day / 0.4 < dog.maintenance.ml_per_day / 20
+    assert dragon.water_budget.minimum_ml / 0.4 < dog.water_budget.minimum_ml / 20
+
+
+def test_usg_is_not_used_for_reptiles_and_birds():
+    plan = plan_for(species_id="green_iguana", weight_kg=3, usg=1.010, body_temp_c=32)
+    assert codes(plan)["USG_NOT_INTERPRETABLE"] == "info"
+    assert plan.water_budget.ceiling_from == "U/P × plasma"
+    assert "USG_NOT_INTERPRETABLE" in codes(plan_for(species_id="pigeon", weight_kg=0.35, usg=1.01))
+
+
+def test_isosthenuric_dog_needs_more_urine_water():
+    normal = plan_for(species_id="dog", weight_kg=20)
+    isosthenuric = plan_for(species_id="dog", weight_kg=20, usg=1.010)
+    assert isosthenuric.water_budget.ceiling_from == "USG"
+    assert (
+        isosthenuric.water_budget.obligatory_urine_ml > 5 * normal.water_budget.obligatory_urine_ml
+    )
+    assert "LOW_CONCENTRATING_CEILING" in codes(isosthenuric)
+
+
+def test_small_desert_rodent_gets_divided_boluses():
+    plan = plan_for(species_id="mongolian_gerbil", weight_kg=0.07, dehydration_percent=6)
+    assert plan.device == "divided" and plan.route == "sc"
+    phase = plan.main_phase
+    assert phase.mode == "intermittent"
+    assert phase.interval_h >= 6  # SC absorbed over 6–8 h (Vet Clin North Am 2017)
+    assert phase.ml_per_site <= 0.07 * 10 + 1e-9  # 10 mL/kg per site (memory for rodents)
+    assert phase.dose_ml == pytest.approx((4.2 / 24 + plan.maintenance.ml_per_h) * phase.interval_h)
+    assert "DIVIDED_BOLUSES" in codes(plan)
+
+
+def test_chelonians_default_to_intracoelomic_and_hypertonic_sc_is_blocked():
+    assert plan_for(species_id="hermanns_tortoise", weight_kg=0.8, body_temp_c=27).route == "icoel"
+    blocked = plan_for(species_id="rabbit", weight_kg=2, route="sc", fluid_id="nacl_7_2")
+    assert codes(blocked)["FLUID_NOT_FOR_SC"] == "hard"
+
+
+def test_gravity_drip_and_schedule_carry_drop_rates():
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12,
+                    device="gravity", drop_factor=20)  # fmt: skip
+    rate = plan.main_phase.rate_ml_per_h
+    assert plan.main_phase.drops_per_min == pytest.approx(rate * 20 / 60)
+    assert "drops/min" in plan.schedule[0].action
+
+
+def test_provenance_lists_each_species_value_once_with_its_basis():
+    plan = plan_for(species_id="african_grey", weight_kg=0.45, dehydration_percent=5)
+    names = [v.parameter for v in plan.provenance]
+    assert len(names) == len(set(names))
+    assert {"maintenance_ml_per_kg_day", "plasma_osmolality_mosm_per_kg"} <= set(names)
+    plasma = next(v for v in plan.provenance if v.parameter == "plasma_osmolality_mosm_per_kg")
+    assert (plasma.basis, plasma.source_id) == ("published", "beaufrere2011")
+    assert plan.unverified_values and all(v.basis == "memory" for v in plan.unverified_values)
+    assert "UNVERIFIED_VALUES" in codes(plan)
+
+
+def test_findings_block_ready_until_soft_ones_are_acknowledged():
+    plan = plan_for(species_id="dog", weight_kg=95)
+    blocking = plan.unacknowledged({})
+    assert [f.code for f in blocking] == ["WEIGHT_OUTSIDE_RANGE"]
+    assert plan.unacknowledged({"WEIGHT_OUTSIDE_RANGE": "giant breed, weighed twice"}) == []
+    assert plan.unacknowledged({"WEIGHT_OUTSIDE_RANGE": "  "}) == blocking
+
+
+def test_dehydration_from_findings_uses_the_published_band():
+    # DiBartola 2012 Table 14-4: delayed skin return, slightly prolonged CRT → 6–8 %.
+    plan = plan_for(species_id="dog", weight_kg=10,
+                    dehydration_findings=("skin_return_delayed", "crt_slightly_prolonged"))  # fmt: skip
+    assert plan.dehydration_percent == 6
+    assert (plan.dehydration_estimate.percent_low, plan.dehydration_estimate.percent_high) == (6, 8)
+    assert "DEHYDRATION_FROM_FINDINGS" in codes(plan)
+
+
+@pytest.mark.parametrize(
+    "kwargs",
+    [
+        {"weight_kg": -1},
+        {"weight_kg": float("nan")},
+        {"weight_kg": 10, "dehydration_percent": 35},
+        {"weight_kg": 10, "replace_hours": 0},
+        {"weight_kg": 10, "route": "oral"},
+        {"weight_kg": 10, "serum_na": 400},
+        {"weight_kg": 10, "usg": 2.0},
+        {"weight_kg": 10, "drop_factor": 0},
+        {"weight_kg": 10, "resuscitation_boluses": -1},
+        {"weight_kg": 10, "dehydration_findings": ("sunken_eys",)},
+        {"weight_kg": 10, "device": "gravity"},
+        {"weight_kg": 10, "route": "sc", "device": "pump"},
+        {"weight_kg": 10, "fluid_id": "saline"},
+    ],
+)
+def test_bad_requests_raise_typed_errors(kwargs):
+    with pytest.raises(InputError):
+        build_plan(PlanRequest(species_id="dog", **kwargs))
+
+
+def test_a_group_row_is_not_a_patient():
+    with pytest.raises(InputError, match="taxon group"):
+        plan_for(species_id="group_reptile", weight_kg=1)
+
+
+SPECIES = load_table().species_ids()
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    species=st.sampled_from(SPECIES),
+    scale=st.floats(min_value=0.05, max_value=20),
+    percent=st.floats(min_value=0, max_value=15),
+    hours=st.floats(min_value=2, max_value=48),
+    losses=st.floats(min_value=0, max_value=500),
+)
+def test_plans_never_hold_negative_or_nan_numbers(species, scale, percent, hours, losses):
+    typical = load_table().value(species, "body_weight_kg").number
+    plan = plan_for(species_id=species, weight_kg=typical * scale, dehydration_percent=percent,
+                    replace_hours=hours, losses_ml_per_day=losses, body_temp_c=None)  # fmt: skip
+    numbers = [plan.maintenance.ml_per_day, plan.deficit_ml, plan.total_ml_first_24h]
+    for phase in plan.phases:
+        numbers += [phase.volume_ml, phase.rate_ml_per_h or 0, phase.dose_ml or 0]
+        assert phase.end_h > phase.start_h
+    assert all(math.isfinite(n) and n >= 0 for n in numbers)
+    assert plan.total_ml_first_24h >= plan.maintenance.ml_per_day * 0.99 or plan.device == "divided"
