@@ -157,6 +157,16 @@ class SpeciesTable:
     definitions: Mapping[str, ParameterDefinition]
     sources: Mapping[str, Source]
     _rows: Mapping[tuple[str, str], _Row] = field(repr=False)
+    # Effective values, resolved once on load: species id → parameter → value.
+    _resolved: dict[str, dict[str, SpeciesValue]] = field(default_factory=dict, repr=False)
+
+    def __post_init__(self) -> None:
+        for sid in self.species_by_id:
+            self._resolved[sid] = {
+                name: found
+                for name in self.definitions
+                if (found := self._resolve(sid, name)) is not None
+            }
 
     # ---- identity -------------------------------------------------------------
     def species(self, species_id: str) -> Species:
@@ -186,7 +196,13 @@ class SpeciesTable:
     # ---- values ---------------------------------------------------------------
     def get(self, species_id: str, parameter: str) -> SpeciesValue | None:
         """The effective value, or None when neither the species nor a group has it."""
-        self.species(species_id)
+        resolved = self._resolved.get(species_id)
+        if resolved is None:
+            self.species(species_id)  # raises the helpful unknown-species error
+        return resolved.get(parameter) if resolved is not None else None
+
+    def _resolve(self, species_id: str, parameter: str) -> SpeciesValue | None:
+        """Walk species → parent group → … for the first row that holds the parameter."""
         for depth, holder in enumerate(self.lineage(species_id)):
             row = self._rows.get((holder, parameter))
             if row is not None:
@@ -231,12 +247,8 @@ class SpeciesTable:
 
     def effective(self, species_id: str) -> dict[str, SpeciesValue]:
         """Every parameter the species has after inheritance and overrides."""
-        values = {}
-        for name in self.definitions:
-            found = self.get(species_id, name)
-            if found is not None:
-                values[name] = found
-        return values
+        self.species(species_id)
+        return dict(self._resolved[species_id])
 
     def __iter__(self) -> Iterator[SpeciesValue]:
         for species_id in self.species_ids():

@@ -1,0 +1,62 @@
+"""Speed benchmarks (skipped in the ordinary run; `python3 dev.py bench` runs them).
+
+* building a plan with findings — well under a millisecond;
+* `vetfluid-cli plan` as a whole process — at most 1.5× `python -c "import pandas"`,
+  both measured in the same run.
+"""
+
+from __future__ import annotations
+
+import statistics
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.species import load_table
+
+pytestmark = pytest.mark.benchmark
+CLI = str(Path(sys.executable).with_name("vetfluid-cli"))
+
+
+def test_build_plan_with_findings(benchmark):
+    table = load_table()
+    request = PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12,
+                          serum_k=3.2, serum_na=160, resuscitation_boluses=1, cardiac_disease=True)  # fmt: skip
+    plan = benchmark(build_plan, request, table)
+    assert plan.findings
+    assert benchmark.stats["median"] < 1e-3
+
+
+def _median_seconds(command: list[str], runs: int = 7) -> float:
+    times = []
+    for _ in range(runs):
+        start = time.perf_counter()
+        subprocess.run(command, check=True, capture_output=True)
+        times.append(time.perf_counter() - start)
+    return statistics.median(times)
+
+
+def test_cli_plan_process_against_importing_pandas(benchmark):
+    plan_cmd = [
+        CLI,
+        "plan",
+        "--species",
+        "dog",
+        "--weight",
+        "20 kg",
+        "--dehydration",
+        "7",
+        "--json",
+    ]
+    pandas_cmd = [sys.executable, "-c", "import pandas"]
+    _median_seconds(plan_cmd, runs=1)  # warm the file cache for both
+    _median_seconds(pandas_cmd, runs=1)
+    cli_s = benchmark.pedantic(_median_seconds, args=(plan_cmd,), rounds=1, iterations=1)
+    pandas_s = _median_seconds(pandas_cmd)
+    benchmark.extra_info.update(cli_median_s=cli_s, import_pandas_median_s=pandas_s,
+                                ratio=cli_s / pandas_s)  # fmt: skip
+    assert cli_s <= 1.5 * pandas_s, f"cli {cli_s:.3f}s vs import pandas {pandas_s:.3f}s"

@@ -1,0 +1,168 @@
+"""vetfluid-cli: JSON keys, exit codes, one-line errors, never a traceback."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from vetfluid import cli
+from vetfluid.plan import PlanRequest, build_plan
+
+CLI = [str(Path(sys.executable).with_name("vetfluid-cli"))]
+
+
+def run(capsys, *args):
+    code = cli.main(list(args))
+    out = capsys.readouterr()
+    return code, out.out, out.err
+
+
+def run_json(capsys, *args):
+    code, out, _ = run(capsys, *args, "--json")
+    return code, json.loads(out)
+
+
+def test_plan_json_has_the_documented_keys(capsys):
+    code, data = run_json(capsys, "plan", "--species", "dog", "--weight", "20 kg",
+                          "--dehydration", "7", "--replace-hours", "12", "--serum-k", "3.2",
+                          "--drop-factor", "20", "--start", "08:00")  # fmt: skip
+    assert code == 0
+    for key in ("species_id", "weight_kg", "maintenance", "dehydration_percent", "deficit_ml",
+                "phases", "total_ml_first_24h", "delivery", "potassium", "findings", "cautions",
+                "provenance"):  # fmt: skip
+        assert key in data, key
+    assert set(data["maintenance"]) >= {"ml_per_day", "method", "formula", "provenance"}
+    assert data["maintenance"]["ml_per_day"] == pytest.approx(132 * 20**0.75)
+    phase = data["phases"][0]
+    assert {"kind", "mode", "start_h", "end_h", "rate_ml_per_h", "volume_ml"} <= set(phase)
+    assert set(data["delivery"]) >= {"drop_factor", "drops_per_min", "seconds_per_drop"}
+    assert data["delivery"]["drops_per_min"] == pytest.approx(phase["rate_ml_per_h"] * 20 / 60)
+    assert set(data["potassium"]) >= {"kcl_mmol_per_l", "mmol_per_kg_per_h"}
+    for value in data["provenance"] + data["maintenance"]["provenance"]:
+        assert {"source_id", "basis"} <= set(value)
+    assert all({"severity", "code", "message"} <= set(f) for f in data["findings"])
+    assert any("verify" in c.lower() for c in data["cautions"])
+
+
+def test_plan_json_equals_the_core_plan(capsys):
+    _, data = run_json(capsys, "plan", "--species", "bearded_dragon", "--weight", "350 g",
+                       "--dehydration", "5", "--body-temp-c", "26")  # fmt: skip
+    plan = build_plan(PlanRequest(species_id="bearded_dragon", weight_kg=0.35,
+                                  dehydration_percent=5, body_temp_c=26))  # fmt: skip
+    assert data["total_ml_first_24h"] == pytest.approx(plan.total_ml_first_24h)
+    assert [p["dose_ml"] for p in data["phases"]] == pytest.approx([p.dose_ml for p in plan.phases])
+
+
+def test_intermittent_phases_give_dose_and_interval(capsys):
+    _, data = run_json(capsys, "plan", "--species", "mongolian_gerbil", "--weight", "70 g",
+                       "--dehydration", "6")  # fmt: skip
+    phase = data["phases"][0]
+    assert phase["mode"] == "intermittent"
+    assert {"dose_ml", "interval_h", "sites_per_dose"} <= set(phase)
+
+
+def test_hard_limit_exits_3_and_names_it(capsys):
+    code, data = run_json(capsys, "plan", "--species", "dog", "--weight", "20 g")
+    assert code == 3
+    assert any(
+        f["code"] == "WEIGHT_UNIT_SLIP" and f["severity"] == "hard" for f in data["findings"]
+    )
+
+
+@pytest.mark.parametrize(
+    ("args", "names"),
+    [
+        (["plan", "--species", "dgo", "--weight", "20 kg"], "species"),
+        (["plan", "--species", "dog", "--weight", "20"], "weight"),
+        (["plan", "--species", "dog", "--weight", "twenty kg"], "weight"),
+        (["plan", "--species", "dog", "--weight", "20 stone"], "weight"),
+        (["plan", "--species", "dog", "--weight", "20 kg", "--dehydration", "40"], "dehydration"),
+        (["plan", "--species", "dog", "--weight", "20 kg", "--dehydration", "x"], "dehydration"),
+        (["plan", "--species", "dog", "--weight", "20 kg", "--fluid", "saline"], "saline"),
+        (["plan", "--species", "dog", "--weight", "20 kg", "--start", "25:99"], "start"),
+        (["plan", "--species", "dog", "--weight", "20 kg", "--usg", "1.5"], "usg"),
+        (["plan", "--species", "dog", "--weight", "20 kg", "--serum-k", "-1"], "serum_k"),
+        (["plan", "--species", "dog"], "--weight"),
+        (
+            [
+                "sodium",
+                "--species",
+                "dog",
+                "--weight",
+                "20 kg",
+                "--serum-na",
+                "160",
+                "--fluid",
+                "nope",
+            ],
+            "nope",
+        ),  # fmt: skip
+        (["species", "--species", "unicorn"], "unicorn"),
+        (["frobnicate"], "frobnicate"),
+    ],
+)
+def test_invalid_input_is_one_line_on_stderr_with_exit_2(capsys, args, names):
+    try:
+        code, out, err = run(capsys, *args)
+    except SystemExit as stop:  # argparse errors
+        code, err = stop.code, capsys.readouterr().err
+    assert code == 2
+    assert err.count("\n") == 1 and names in err
+    assert "Traceback" not in err
+
+
+def test_whole_process_never_prints_a_traceback():
+    result = subprocess.run([*CLI, "plan", "--species", "cat", "--weight", "abc"],
+                            capture_output=True, text=True)  # fmt: skip
+    assert result.returncode == 2
+    assert "Traceback" not in result.stderr and result.stderr.count("\n") == 1
+
+
+def test_species_json_has_values_with_basis_and_sources(capsys):
+    code, data = run_json(capsys, "species")
+    assert code == 0
+    assert len(data["species"]) >= 30
+    dragon = next(s for s in data["species"] if s["id"] == "bearded_dragon")
+    up = dragon["values"]["max_urine_plasma_ratio"]
+    assert (up["value"], up["basis"], up["origin"]) == (1.0, "published", "inherited")
+    assert {s["source_id"] for s in data["sources"]} >= {"davis2013", "hardy1979"}
+
+
+def test_species_text_marks_memory_values(capsys):
+    code, out, _ = run(capsys, "species", "--species", "cat")
+    assert code == 0
+    assert "[memory — unverified]" in out and "Decision support" in out
+
+
+def test_fluids_json_computes_composition(capsys):
+    # USP label values: 0.9% NaCl Na 154 mmol/L, 308 mOsm/L.
+    code, data = run_json(capsys, "fluids")
+    assert code == 0
+    saline = next(f for f in data["fluids"] if f["fluid_id"] == "nacl_0_9")
+    assert saline["na"] == pytest.approx(154, abs=0.5)
+    assert saline["osmolarity_mosm_per_l"] == pytest.approx(308, abs=1)
+    assert {"na", "k", "cl", "ca", "mg", "dextrose_g_per_l", "osmolarity_mosm_per_l"} <= set(saline)
+
+
+def test_sodium_json(capsys):
+    # Adrogué–Madias 2000: (77 − 165)/(0.6·10 + 1) for 0.45% NaCl.
+    code, data = run_json(capsys, "sodium", "--species", "dog", "--weight", "10 kg",
+                          "--serum-na", "165", "--fluid", "nacl_0_45")  # fmt: skip
+    assert code == 0
+    assert data["tbw_l"] == pytest.approx(6)
+    assert data["delta_na_per_l"] == pytest.approx((77 - 165) / 7, abs=0.1)
+    assert data["max_rate_ml_per_h"] == pytest.approx(0.5 / (88 / 7) * 1000, rel=0.01)
+
+
+def test_text_plan_is_readable_and_carries_cautions(capsys):
+    code, out, _ = run(
+        capsys, "plan", "--species", "dog", "--weight", "20 kg", "--dehydration", "7"
+    )
+    assert code == 0
+    assert "Fluid plan — Dog, 20 kg" in out
+    assert "replacement" in out and "Verify every volume" in out
+    assert "* body_weight_kg" in out  # memory values are starred
