@@ -224,3 +224,9 @@ def test_broken_override_names_the_override_file(tmp_path):
     )
     with pytest.raises(SpeciesDataError, match="overrides/parameters.csv:2"):
         load_table(overrides=overrides)
+
+
+def test_every_parameter_is_documented_in_the_data_readme(table):
+    readme = (DATA / "README.md").read_text(encoding="utf-8")
+    for name in table.definitions:
+        assert f"`{name}`" in readme, name
