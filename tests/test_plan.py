@@ -90,11 +90,11 @@ def test_rate_above_one_shock_dose_per_hour_is_hard():
 def test_potassium_from_the_scale_and_the_ceiling():
     # Côté 2020 scale: serum K 2.3 → 60 mmol/L KCl added, max 8 mL/kg/h.
     plan = plan_for(species_id="dog", weight_kg=10, dehydration_percent=5, serum_k=2.3)
-    assert plan.potassium["kcl_mmol_per_l"] == 60
-    assert plan.potassium["band_max_rate_ml_per_kg_h"] == 8
+    assert plan.potassium.kcl_mmol_per_l == 60
+    assert plan.potassium.band_max_rate_ml_per_kg_h == 8
     rate = plan.main_phase.rate_ml_per_h
     expected = plan.fluid_k_mmol_per_l * rate / 1000 / 10
-    assert plan.potassium["mmol_per_kg_per_h"] == pytest.approx(expected)
+    assert plan.potassium.mmol_per_kg_per_h == pytest.approx(expected)
     assert plan.fluid_k_mmol_per_l == pytest.approx((4 + 60) * 1000 / 1030, rel=0.01)
     assert "POTASSIUM_ABOVE_CEILING" not in codes(plan)
 
@@ -111,8 +111,8 @@ def test_sodium_falling_too_fast_is_soft_and_free_water_deficit_is_given():
     # Adrogué–Madias 2000: ΔNa per L = (0 − 170)/(0.6·20 + 1) = −13.1 mmol/L for 5% dextrose.
     plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12,
                     serum_na=170, fluid_id="dextrose_5")  # fmt: skip
-    assert plan.sodium["delta_na_per_l"] == pytest.approx(-170 / 13)
-    assert plan.sodium["max_rate_ml_per_h"] == pytest.approx(0.5 / (170 / 13) * 1000)
+    assert plan.sodium.delta_na_per_l == pytest.approx(-170 / 13)
+    assert plan.sodium.max_rate_ml_per_h == pytest.approx(0.5 / (170 / 13) * 1000)
     assert codes(plan)["SODIUM_CHANGE_TOO_FAST"] == "soft"
     # free-water deficit 0.6 × 20 × (170/145 − 1) L, dog normal Na 145 (memory)
     assert plan.free_water_deficit_ml == pytest.approx(0.6 * 20 * (170 / 145 - 1) * 1000)

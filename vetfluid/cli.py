@@ -253,7 +253,7 @@ def print_plan(data: dict) -> None:
     if "potassium" in data:
         k = data["potassium"]
         print(
-            f"\nPotassium     add {_q(k['kcl_mmol_per_l'], 'mmol/L')} KCl ({k['from']}) → {_q(k['mmol_per_kg_per_h'], 'mmol/kg/h')} (ceiling {_q(k['ceiling_mmol_per_kg_per_h'], 'mmol/kg/h')})"
+            f"\nPotassium     add {_q(k['kcl_mmol_per_l'], 'mmol/L')} KCl ({k['added_by']}) → {_q(k['mmol_per_kg_per_h'], 'mmol/kg/h')} (ceiling {_q(k['ceiling_mmol_per_kg_per_h'], 'mmol/kg/h')})"
         )
     if "sodium" in data:
         s = data["sodium"]

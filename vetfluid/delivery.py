@@ -16,7 +16,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from vetfluid.errors import InputError
+from vetfluid.checks import require_number
 
 STANDARD_DROP_FACTORS = (10, 15, 20, 60)
 SYRINGE_STEP_ML = 0.1
@@ -27,23 +27,15 @@ MAX_SITES_PER_DOSE = 4  # common practice, no source: more sites per handling is
 
 
 def _rate(rate_ml_per_h: float) -> float:
-    if not (isinstance(rate_ml_per_h, int | float) and math.isfinite(rate_ml_per_h)):
-        raise InputError("rate must be a number", field="rate_ml_per_h", value=rate_ml_per_h)
-    if rate_ml_per_h < 0:
-        raise InputError("rate cannot be negative", field="rate_ml_per_h", value=rate_ml_per_h)
-    return float(rate_ml_per_h)
+    return require_number(rate_ml_per_h, "rate_ml_per_h", low=0, unit="mL/h")
 
 
 def check_drop_factor(drop_factor: float) -> float:
     """A drop factor in drops/mL (any positive value up to 100; 10, 15, 20, 60 are usual)."""
-    if not (isinstance(drop_factor, int | float) and 1 <= drop_factor <= 100):
-        raise InputError(
-            "drop factor must be between 1 and 100 drops/mL",
-            field="drop_factor",
-            value=drop_factor,
-            fix="read it off the giving-set packet (10, 15, 20 or 60)",
-        )
-    return float(drop_factor)
+    return require_number(
+        drop_factor, "drop_factor", low=1, high=100, unit="drops/mL",
+        fix="read it off the giving-set packet (10, 15, 20 or 60)",
+    )  # fmt: skip
 
 
 def drops_per_min(rate_ml_per_h: float, drop_factor: float) -> float:
@@ -59,8 +51,7 @@ def seconds_per_drop(rate_ml_per_h: float, drop_factor: float) -> float | None:
 
 def syringe_ml(volume_ml: float) -> float:
     """A volume rounded to the 0.1 mL a syringe pump is set to."""
-    if not (isinstance(volume_ml, int | float) and math.isfinite(volume_ml) and volume_ml >= 0):
-        raise InputError("volume must be zero or more", field="volume_ml", value=volume_ml)
+    require_number(volume_ml, "volume_ml", low=0, unit="mL")
     return round(volume_ml / SYRINGE_STEP_ML) * SYRINGE_STEP_ML
 
 
@@ -83,12 +74,7 @@ def divided_boluses(
 ) -> DividedBoluses:
     """Split an hourly need into doses: the longest interval whose dose fits few enough sites."""
     need = _rate(need_ml_per_h)
-    if not (isinstance(per_site_limit_ml, int | float) and per_site_limit_ml > 0):
-        raise InputError(
-            "per-site limit must be more than 0 mL",
-            field="per_site_limit_ml",
-            value=per_site_limit_ml,
-        )
+    require_number(per_site_limit_ml, "per_site_limit_ml", positive=True, unit="mL")
     for interval in DIVIDED_INTERVALS_H:
         dose = need * interval
         sites = max(1, math.ceil(round(dose / per_site_limit_ml, 9)))

@@ -12,13 +12,13 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
 
+from vetfluid.checks import require_number
 from vetfluid.csvfiles import parse_number, read_rows
-from vetfluid.errors import InputError, SpeciesDataError
+from vetfluid.errors import SpeciesDataError
 from vetfluid.paths import resource_dir
 
 
@@ -59,11 +59,7 @@ def load_potassium_scale(data_dir: Path | None = None) -> tuple[PotassiumBand, .
 
 
 def _finite(name: str, value: float, low: float, high: float, unit: str) -> float:
-    if not (isinstance(value, int | float) and math.isfinite(value) and low <= value <= high):
-        raise InputError(
-            f"{name} must be between {low:g} and {high:g} {unit}", field=name, value=value
-        )
-    return float(value)
+    return require_number(value, name, low=low, high=high, unit=unit)
 
 
 def potassium_band(serum_k: float) -> PotassiumBand | None:
@@ -97,6 +93,8 @@ def sodium_change_per_litre(
 ) -> float:
     """Adrogué–Madias: ΔNa (mmol/L) after 1 L = (Na_inf + K_inf − Na_serum) / (TBW + 1)."""
     _finite("serum_na", serum_na, 80, 230, "mmol/L")
+    _finite("infusate_na", infusate_na, 0, 2000, "mmol/L")
+    _finite("infusate_k", infusate_k, 0, 2000, "mmol/L")
     _finite("tbw_l", tbw_l, 1e-4, 2000, "L")
     return (infusate_na + infusate_k - serum_na) / (tbw_l + 1.0)
 
@@ -111,3 +109,57 @@ def max_rate_for_sodium(*, change_per_litre: float, max_change_per_h: float) -> 
     if abs(change_per_litre) < 1e-9:
         return None
     return max_change_per_h / abs(change_per_litre) * 1000.0
+
+
+@dataclass(frozen=True, kw_only=True)
+class PotassiumSummary:
+    """Potassium in a plan: what was added, what it delivers, and the limits."""
+
+    serum_k: float | None
+    kcl_mmol_per_l: float
+    added_by: str  # serum-K scale | entered by hand
+    bag_k_mmol_per_l: float
+    mmol_per_kg_per_h: float  # at the first rate after resuscitation
+    peak_mmol_per_kg_per_h: float  # at the fastest rate that carries potassium
+    ceiling_mmol_per_kg_per_h: float
+    max_rate_ml_per_h: float | None
+    band_max_rate_ml_per_kg_h: float | None
+    source_id: str | None
+
+
+@dataclass(frozen=True, kw_only=True)
+class SodiumSummary:
+    """Predicted serum Na change for the plan's fluid (Adrogué–Madias 2000)."""
+
+    serum_na: float
+    tbw_l: float
+    delta_na_per_l: float
+    predicted_change_per_h: float
+    max_change_per_h: float
+    max_rate_ml_per_h: float | None
+    source_id: str = "adrogue2000"
+
+
+def sodium_summary(
+    *,
+    serum_na: float,
+    infusate_na: float,
+    infusate_k: float,
+    tbw_l: float,
+    rate_ml_per_h: float,
+    max_change_per_h: float,
+) -> SodiumSummary:
+    """ΔNa per litre, the change per hour at ``rate_ml_per_h`` and the fastest safe rate."""
+    change = sodium_change_per_litre(
+        serum_na=serum_na, infusate_na=infusate_na, infusate_k=infusate_k, tbw_l=tbw_l
+    )
+    return SodiumSummary(
+        serum_na=serum_na,
+        tbw_l=tbw_l,
+        delta_na_per_l=change,
+        predicted_change_per_h=change * rate_ml_per_h / 1000.0,
+        max_change_per_h=max_change_per_h,
+        max_rate_ml_per_h=max_rate_for_sodium(
+            change_per_litre=change, max_change_per_h=max_change_per_h
+        ),
+    )

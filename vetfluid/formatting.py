@@ -27,13 +27,15 @@ def default_decimals(value: float) -> int:
     if magnitude == 0:
         return 0
     # keep two significant figures for small volumes (0.035 mL)
-    return min(4, 1 - math.floor(math.log10(magnitude)))
+    return min(8, 1 - math.floor(math.log10(magnitude)))
 
 
 def format_number(value: float, *, decimals: int | None = None) -> str:
     """A number with a leading zero and no trailing zeros (``0.5``, ``5``, ``12.25``)."""
     if not math.isfinite(value):
         raise InputError("cannot format a number that is not finite", field="value", value=value)
+    if decimals is not None and (isinstance(decimals, bool) or not 0 <= decimals <= 8):
+        raise InputError("decimals must be 0 to 8", field="decimals", value=decimals)
     places = default_decimals(value) if decimals is None else decimals
     text = f"{value:.{places}f}"
     if "." in text:

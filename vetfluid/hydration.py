@@ -13,11 +13,11 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
 
+from vetfluid.checks import require_number
 from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.paths import resource_dir
@@ -98,20 +98,19 @@ def estimate_dehydration(finding_ids: tuple[str, ...] | list[str]) -> Dehydratio
 
 
 def _check_weight(weight_kg: float) -> None:
-    if not (isinstance(weight_kg, int | float) and math.isfinite(weight_kg) and weight_kg > 0):
-        raise InputError("body weight must be more than 0 kg", field="weight", value=weight_kg)
+    require_number(weight_kg, "weight_kg", positive=True, unit="kg")
 
 
 def check_percent(percent: float) -> float:
     """A dehydration percentage in 0–20 (above 15% death is imminent; DiBartola 2012)."""
-    if not (isinstance(percent, int | float) and math.isfinite(percent) and 0 <= percent <= 20):
-        raise InputError(
-            "dehydration must be between 0 and 20 %",
-            field="dehydration",
-            value=percent,
-            fix="enter the estimated percentage, e.g. 7",
-        )
-    return float(percent)
+    return require_number(
+        percent,
+        "dehydration",
+        low=0,
+        high=20,
+        unit="%",
+        fix="enter the estimated percentage, e.g. 7",
+    )
 
 
 def deficit_ml(weight_kg: float, dehydration_percent: float) -> float:
@@ -130,12 +129,8 @@ def free_water_deficit_ml(
     """
     _check_weight(weight_kg)
     for name, value in (("serum_na", serum_na), ("normal_na", normal_na)):
-        if not (isinstance(value, int | float) and math.isfinite(value) and 80 <= value <= 230):
-            raise InputError("sodium must be between 80 and 230 mmol/L", field=name, value=value)
-    if not 0 < tbw_fraction < 1:
-        raise InputError(
-            "body-water fraction must be between 0 and 1", field="tbw", value=tbw_fraction
-        )
+        require_number(value, name, low=80, high=230, unit="mmol/L")
+    require_number(tbw_fraction, "tbw_fraction", low=0.01, high=0.99)
     if serum_na <= normal_na:
         return 0.0
     return tbw_fraction * weight_kg * (serum_na / normal_na - 1.0) * 1000.0

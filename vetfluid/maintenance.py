@@ -27,9 +27,9 @@ cloaca, colon and bladder then reclaim water after the kidney.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
+from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.species import MAINTENANCE_METHODS, SpeciesTable, SpeciesValue
 
@@ -41,9 +41,7 @@ USG_TO_MOSM_FACTOR = 30_000.0
 
 
 def _positive(name: str, value: float) -> float:
-    if not (isinstance(value, int | float) and math.isfinite(value) and value > 0):
-        raise InputError(f"{name} must be a positive number", field=name, value=value)
-    return float(value)
+    return require_number(value, name, positive=True)
 
 
 def linear_ml_per_day(weight_kg: float, ml_per_kg_day: float) -> float:
@@ -63,17 +61,10 @@ def energy_kcal_per_day(weight_kg: float, k: float, exponent: float) -> float:
 
 def q10_factor(body_temp_c: float, reference_temp_c: float, q10: float) -> float:
     """Metabolic scaling with temperature: Q10^((T − T_ref)/10) (Bennett & Dawson 1976)."""
-    if not (isinstance(body_temp_c, int | float) and math.isfinite(body_temp_c)):
-        raise InputError(
-            "body temperature must be a number", field="body_temp_c", value=body_temp_c
-        )
-    if not -5 <= body_temp_c <= 50:
-        raise InputError(
-            "body temperature must be between −5 and 50 °C",
-            field="body_temp_c",
-            value=body_temp_c,
-            fix="enter the measured body (cloacal) temperature in °C",
-        )
+    require_number(
+        body_temp_c, "body_temp_c", low=-5, high=50, unit="°C",
+        fix="enter the measured body (cloacal) temperature in °C",
+    )  # fmt: skip
     return _positive("q10", q10) ** ((body_temp_c - reference_temp_c) / 10.0)
 
 

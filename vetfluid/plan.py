@@ -10,19 +10,31 @@ losses, then maintenance. Every species value used is carried in
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
-from datetime import datetime, time, timedelta
+from datetime import time
 
-from vetfluid import delivery, electrolytes, fluids, hydration, maintenance, resuscitation
+from vetfluid import (
+    delivery,
+    electrolytes,
+    fluids,
+    hydration,
+    maintenance,
+    resuscitation,
+    safety,
+    schedule,
+)
+from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.findings import Finding, worst
+from vetfluid.formatting import format_quantity
+from vetfluid.ledger import Ledger
 from vetfluid.limits import limit
+from vetfluid.schedule import Phase, ScheduleEntry
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
 
 ROUTES = ("iv", "io", "sc", "icoel")
 DEVICES = ("pump", "gravity", "syringe", "divided")
-LINE_ROUTES = ("iv", "io")
+LINE_ROUTES = safety.LINE_ROUTES
 # Per-site limit parameter for each bolus route.
 SITE_LIMIT_PARAMETER = {
     "sc": "max_site_volume_sc_ml_per_kg",
@@ -112,59 +124,13 @@ class PlanRequest:
 
 
 def _require(value: object, name: str, low: float, high: float, unit: str) -> None:
-    if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
-        raise InputError(f"{name} must be a number", field=name, value=value)
-    if not low <= value <= high:
-        raise InputError(
-            f"{name} must be between {low:g} and {high:g} {unit}", field=name, value=value
-        )
-
-
-@dataclass(frozen=True, kw_only=True)
-class Phase:
-    """One phase of the plan. Continuous phases have a rate; intermittent ones doses."""
-
-    kind: str  # resuscitation | replacement | maintenance
-    mode: str  # continuous | intermittent
-    start_h: float
-    end_h: float
-    volume_ml: float
-    rate_ml_per_h: float | None = None
-    dose_ml: float | None = None
-    interval_h: float | None = None
-    doses: int | None = None
-    sites_per_dose: int | None = None
-    ml_per_site: float | None = None
-    route: str = "iv"
-    drops_per_min: float | None = None
-    seconds_per_drop: float | None = None
-    kcl_mmol_per_l: float = 0.0
-    note: str = ""
-
-    @property
-    def hours(self) -> float:
-        return self.end_h - self.start_h
-
-    def volume_between(self, start_h: float, end_h: float) -> float:
-        """Volume this phase delivers within [start_h, end_h)."""
-        if self.mode == "continuous":
-            overlap = max(0.0, min(end_h, self.end_h) - max(start_h, self.start_h))
-            return (self.rate_ml_per_h or 0.0) * overlap
-        assert self.dose_ml is not None and self.interval_h is not None and self.doses is not None
-        times = (self.start_h + i * self.interval_h for i in range(self.doses))
-        return sum(self.dose_ml for t in times if start_h <= t < end_h)
-
-
-@dataclass(frozen=True, kw_only=True)
-class ScheduleEntry:
-    hour: float
-    clock: str | None
-    phase: str
-    action: str
+    require_number(value, name, low=low, high=high, unit=unit)
 
 
 @dataclass(frozen=True, kw_only=True)
 class Plan:
+    """A checked, timed fluid plan; every number traceable to the request and the table."""
+
     request: PlanRequest
     species_name: str
     maintenance: maintenance.Maintenance
@@ -181,8 +147,8 @@ class Plan:
     route: str
     device: str
     resuscitation: resuscitation.Resuscitation | None
-    potassium: dict[str, object] | None
-    sodium: dict[str, object] | None
+    potassium: electrolytes.PotassiumSummary | None
+    sodium: electrolytes.SodiumSummary | None
     water_budget: maintenance.WaterBudget | None
     findings: tuple[Finding, ...]
     provenance: tuple[SpeciesValue, ...] = field(repr=False)
@@ -196,7 +162,7 @@ class Plan:
         return worst(self.findings) == "hard"
 
     def unacknowledged(self, acknowledged: dict[str, str]) -> list[Finding]:
-        """Soft findings without a written reason, and every hard finding: what blocks 'ready'."""
+        """What blocks 'ready': every hard finding, and soft ones without a written reason."""
         return [
             f
             for f in self.findings
@@ -206,7 +172,7 @@ class Plan:
 
     @property
     def main_phase(self) -> Phase:
-        """The phase the pump is set for first after resuscitation (replacement, else maintenance)."""
+        """The first phase after resuscitation (replacement, else maintenance)."""
         return next(p for p in self.phases if p.kind != "resuscitation")
 
     @property
@@ -215,74 +181,11 @@ class Plan:
 
 
 # ---- building ----------------------------------------------------------------------------------
-class _Collector:
-    """Gathers provenance (once per parameter) and findings while the plan is built."""
-
-    def __init__(self, table: SpeciesTable, species_id: str) -> None:
-        self.table = table
-        self.species_id = species_id
-        self.values: dict[str, SpeciesValue] = {}
-        self.findings: list[Finding] = []
-
-    def use(self, *values: SpeciesValue) -> None:
-        for value in values:
-            self.values.setdefault(value.parameter, value)
-
-    def value(self, parameter: str) -> SpeciesValue:
-        found = self.table.value(self.species_id, parameter)
-        self.use(found)
-        return found
-
-    def get(self, parameter: str) -> SpeciesValue | None:
-        found = self.table.get(self.species_id, parameter)
-        if found is not None:
-            self.use(found)
-        return found
-
-    def add(
-        self, severity: str, code: str, message: str, action: str = "", source_id: str | None = None
-    ) -> None:
-        self.findings.append(
-            Finding(
-                severity=severity, code=code, message=message, action=action, source_id=source_id
-            )
-        )
-
-
-def _fmt(value: float, unit: str) -> str:
-    from vetfluid.formatting import format_quantity
-
-    return format_quantity(value, unit)
-
-
-def _check_weight(c: _Collector, weight_kg: float) -> None:
-    """Soft outside the species' usual range, hard far outside it (the g/kg slip)."""
-    weight = c.value("body_weight_kg")
-    low, high = weight.low or weight.number, weight.high or weight.number
-    factor = limit("weight_far_outside_factor")
-    if weight_kg > high * factor.value or weight_kg < low / factor.value:
-        c.add(
-            "hard",
-            "WEIGHT_UNIT_SLIP",
-            f"{_fmt(weight_kg, 'kg')} is far outside the usual {_fmt(low, 'kg')}–{_fmt(high, 'kg')} "
-            f"for this species (more than {factor.value:g}× beyond the range).",
-            "Check the unit (g or kg) and re-weigh before planning.",
-        )
-    elif weight_kg > high or weight_kg < low:
-        c.add(
-            "soft",
-            "WEIGHT_OUTSIDE_RANGE",
-            f"{_fmt(weight_kg, 'kg')} is outside the usual {_fmt(low, 'kg')}–{_fmt(high, 'kg')} "
-            "for this species.",
-            "Confirm the weight and unit; acknowledge with a reason if it is right.",
-        )
-
-
-def _route_and_device(c: _Collector, request: PlanRequest) -> tuple[str, str]:
-    """Route and delivery: a line when the patient is big enough, divided boluses otherwise."""
-    line_min = c.value("continuous_line_min_kg")
+def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
+    """A line when the patient is big enough, divided boluses otherwise."""
+    line_min = ledger.value("continuous_line_min_kg")
     small = request.weight_kg < line_min.number
-    chelonian = c.table.species(request.species_id).taxon_group == "chelonian"
+    chelonian = ledger.species.taxon_group == "chelonian"
     default_route = "iv" if not small else ("icoel" if chelonian else "sc")
     route = request.route or default_route
     device = request.device or ("pump" if route in LINE_ROUTES else "divided")
@@ -293,6 +196,13 @@ def _route_and_device(c: _Collector, request: PlanRequest) -> tuple[str, str]:
             value=device,
             fix="choose divided boluses, or an IV/IO route",
         )
+    if route in LINE_ROUTES and device == "divided":
+        raise InputError(
+            "divided boluses are planned for SC or intracoelomic routes",
+            field="device",
+            value=device,
+            fix="choose a pump, syringe pump or gravity drip for a line",
+        )
     if device == "gravity" and request.drop_factor is None:
         raise InputError(
             "a gravity drip needs the giving set's drop factor",
@@ -301,11 +211,11 @@ def _route_and_device(c: _Collector, request: PlanRequest) -> tuple[str, str]:
             fix="enter the drops/mL printed on the set (10, 15, 20 or 60)",
         )
     if small and request.route is None:
-        c.add(
+        ledger.add(
             "info",
             "DIVIDED_BOLUSES",
-            f"At {_fmt(request.weight_kg, 'kg')} this patient is below the "
-            f"{_fmt(line_min.number, 'kg')} at which a continuous line is practical; "
+            f"At {format_quantity(request.weight_kg, 'kg')} this patient is below the "
+            f"{format_quantity(line_min.number, 'kg')} at which a continuous line is practical; "
             "fluids are planned as divided boluses.",
             "Choose an IV or IO route instead if a line is in place.",
             line_min.source_id,
@@ -313,612 +223,310 @@ def _route_and_device(c: _Collector, request: PlanRequest) -> tuple[str, str]:
     return route, device
 
 
-def _bag(c: _Collector, request: PlanRequest, plasma: float) -> tuple[fluids.Fluid, float]:
-    """The fluid with its additives, and the KCl added per litre."""
-    base = fluids.fluid(request.fluid_id)
-    kcl = 0.0
+def _potassium_to_add(request: PlanRequest) -> float:
+    """KCl (mmol) to add per litre: by hand, else from the serum-K scale, else none."""
     if request.kcl_mmol_per_l is not None:
-        kcl = request.kcl_mmol_per_l
-    elif request.serum_k is not None:
+        return request.kcl_mmol_per_l
+    if request.serum_k is not None:
         band = electrolytes.potassium_band(request.serum_k)
-        kcl = band.kcl_mmol_per_l if band else 0.0
-    bag = base
-    if kcl > 0:
+        return band.kcl_mmol_per_l if band else 0.0
+    return 0.0
+
+
+def _bag(request: PlanRequest, kcl_mmol_per_l: float) -> fluids.Fluid:
+    """The chosen fluid with KCl and dextrose added to each litre."""
+    bag = fluids.fluid(request.fluid_id)
+    if kcl_mmol_per_l > 0:
         concentrate = fluids.fluid(KCL_CONCENTRATE_ID)
         k_per_ml = fluids.composition(concentrate).k_mmol_per_l / 1000.0
         bag = fluids.with_additive(
-            bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=kcl / k_per_ml
+            bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=kcl_mmol_per_l / k_per_ml
         ).fluid
     if request.dextrose_percent > 0:
         concentrate = fluids.fluid(DEXTROSE_CONCENTRATE_ID)
         strength = fluids.composition(concentrate).dextrose_hydrous_g_per_l / 10.0  # % w/v
-        p = request.dextrose_percent
-        if p >= strength:
+        wanted = request.dextrose_percent
+        if wanted >= strength:
             raise InputError(
                 f"dextrose must be below the concentrate's {strength:g} %",
                 field="dextrose_percent",
-                value=p,
+                value=wanted,
             )
+        # x mL of concentrate in 1000 mL: strength·x / (1000 + x) = wanted
+        added_ml = 1000.0 * wanted / (strength - wanted)
         bag = fluids.with_additive(
-            bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=1000.0 * p / (strength - p)
+            bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=added_ml
         ).fluid
-    return bag, kcl
+    return bag
 
 
-def _intermittent_phase(
-    c: _Collector,
-    *,
-    kind: str,
-    start_h: float,
-    end_h: float,
-    need_ml_per_h: float,
-    route: str,
-    weight_kg: float,
-    kcl: float,
-) -> Phase:
-    site_limit = c.value(SITE_LIMIT_PARAMETER[route]) if route in SITE_LIMIT_PARAMETER else None
-    if site_limit is None:
-        raise InputError(
-            f"no per-site limit for route {route!r}",
-            field="route",
-            value=route,
-            fix="use SC (or intracoelomic for reptiles), or an IV/IO line",
-        )
-    split = delivery.divided_boluses(
-        need_ml_per_h=need_ml_per_h, per_site_limit_ml=site_limit.number * weight_kg, route=route
-    )
-    doses = max(1, math.ceil(round((end_h - start_h) / split.interval_h, 9)))
-    if not split.fits:
-        c.add(
-            "soft",
-            "DIVIDED_TOO_MANY_SITES",
-            f"Each {route.upper()} dose of {_fmt(split.dose_ml, 'mL')} needs {split.sites_per_dose} "
-            f"sites at {_fmt(split.per_site_limit_ml, 'mL')} per site.",
-            "Replace the deficit over a longer period, or place an IO/IV line.",
-        )
-    return Phase(
-        kind=kind,
-        mode="intermittent",
-        start_h=start_h,
-        end_h=end_h,
-        volume_ml=split.dose_ml * doses,
-        dose_ml=split.dose_ml,
-        interval_h=split.interval_h,
-        doses=doses,
-        sites_per_dose=split.sites_per_dose,
-        ml_per_site=split.ml_per_site,
-        route=route,
-        kcl_mmol_per_l=kcl,
-    )
-
-
-def _continuous_phase(
-    *,
-    kind: str,
-    start_h: float,
-    end_h: float,
-    rate: float,
-    route: str,
-    drop_factor: float | None,
-    kcl: float,
-    note: str = "",
-) -> Phase:
-    return Phase(
-        kind=kind,
-        mode="continuous",
-        start_h=start_h,
-        end_h=end_h,
-        volume_ml=rate * (end_h - start_h),
-        rate_ml_per_h=rate,
-        route=route,
-        drops_per_min=delivery.drops_per_min(rate, drop_factor) if drop_factor else None,
-        seconds_per_drop=delivery.seconds_per_drop(rate, drop_factor) if drop_factor else None,
-        kcl_mmol_per_l=kcl,
-        note=note,
-    )
-
-
-def _clock(start: time | None, hour: float) -> str | None:
-    if start is None:
-        return None
-    moment = datetime.combine(datetime(2000, 1, 1), start) + timedelta(hours=hour)
-    day = (moment.date() - datetime(2000, 1, 1).date()).days
-    return moment.strftime("%H:%M") + (f" (+{day} d)" if day else "")
-
-
-def _schedule(
-    phases: tuple[Phase, ...], start: time | None, res: resuscitation.Resuscitation | None
-) -> tuple[ScheduleEntry, ...]:
-    entries = []
-    for phase in phases:
-        if phase.kind == "resuscitation":
-            assert res is not None
-            entries.append(
-                ScheduleEntry(
-                    hour=phase.start_h,
-                    clock=_clock(start, phase.start_h),
-                    phase=phase.kind,
-                    action=f"Bolus {_fmt(phase.volume_ml, 'mL')} {phase.route.upper()} over "
-                    f"{res.minutes:g} min ({_fmt(phase.rate_ml_per_h or 0, 'mL/h')}); then reassess",
-                )
-            )
-        elif phase.mode == "continuous":
-            action = f"Set {_fmt(phase.rate_ml_per_h or 0, 'mL/h')}"
-            if phase.drops_per_min is not None:
-                action += f" = {_fmt(phase.drops_per_min, 'drops/min')}"
-                if phase.seconds_per_drop is not None:
-                    action += f" (1 drop every {_fmt(phase.seconds_per_drop, 's')})"
-            action += f" until hour {phase.end_h:g} ({_fmt(phase.volume_ml, 'mL')} in this phase)"
-            entries.append(
-                ScheduleEntry(
-                    hour=phase.start_h,
-                    clock=_clock(start, phase.start_h),
-                    phase=phase.kind,
-                    action=action,
-                )
-            )
-        else:
-            assert phase.doses is not None and phase.interval_h is not None
-            for i in range(phase.doses):
-                hour = phase.start_h + i * phase.interval_h
-                entries.append(
-                    ScheduleEntry(
-                        hour=hour,
-                        clock=_clock(start, hour),
-                        phase=phase.kind,
-                        action=f"Give {_fmt(delivery.syringe_ml(phase.dose_ml or 0), 'mL')} "
-                        f"{phase.route.upper()} in {phase.sites_per_dose} site(s), "
-                        f"{_fmt(delivery.syringe_ml(phase.ml_per_site or 0), 'mL')} per site",
-                    )
-                )
-    return tuple(entries)
-
-
-def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
-    """Build the plan for a request (pure: same request and table, same plan)."""
-    table = table or load_table()
-    species = table.species(request.species_id)
-    if species.rank != "species":
-        raise InputError(
-            f"{request.species_id!r} is a taxon group, not a species",
-            field="species",
-            value=request.species_id,
-            fix="pick a species; groups only hold shared defaults",
-        )
-    c = _Collector(table, request.species_id)
-    w = request.weight_kg
-    _check_weight(c, w)
-
-    # Maintenance (with temperature for ectotherms)
-    maint = maintenance.maintenance(
-        table,
-        request.species_id,
-        w,
-        method=request.maintenance_method,
-        body_temp_c=request.body_temp_c,
-    )
-    c.use(*maint.provenance)
-    if species.is_ectotherm:
-        preferred = c.value("preferred_temp_c")
-        low, high = preferred.low or preferred.number, preferred.high or preferred.number
-        if request.body_temp_c is None:
-            c.add(
-                "info",
-                "ECTOTHERM_TEMP_NOT_ENTERED",
-                f"No body temperature entered; maintenance assumes the preferred {_fmt(preferred.number, '°C')}.",
-                "Measure the body temperature and enter it.",
-            )
-        elif not low <= request.body_temp_c <= high:
-            c.add(
-                "soft",
-                "ECTOTHERM_OUTSIDE_PREFERRED_TEMP",
-                f"Body temperature {_fmt(request.body_temp_c, '°C')} is outside the preferred "
-                f"{_fmt(low, '°C')}–{_fmt(high, '°C')}; maintenance is scaled ×{maint.temperature_factor:.2f} "
-                "by Q10 and the estimate is less reliable.",
-                "Warm the animal into its preferred range, then re-plan.",
-            )
-
-    # Dehydration and deficit
+def _dehydration(
+    ledger: Ledger, request: PlanRequest
+) -> tuple[float, hydration.DehydrationEstimate | None]:
+    """The % used: entered, else the low end of the findings band (reported), else 0."""
     estimate = (
         hydration.estimate_dehydration(request.dehydration_findings)
         if request.dehydration_findings
         else None
     )
     if request.dehydration_percent is not None:
-        percent = request.dehydration_percent
-    elif estimate is not None:
-        percent = estimate.suggested_percent
-        c.add(
-            "info",
-            "DEHYDRATION_FROM_FINDINGS",
-            f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % dehydration; "
-            f"the plan uses {percent:g} %.",
-            "Confirm or enter the percentage yourself.",
-            estimate.source_id,
-        )
-    else:
-        percent = 0.0
-    deficit = hydration.deficit_ml(w, percent)
-    losses_h = request.losses_ml_per_day / 24.0
-
-    # Fluid, tonicity and additives
-    plasma = c.value("plasma_osmolality_mosm_per_kg")
-    band = limit("tonicity_band_fraction")
-    bag, kcl = _bag(c, request, plasma.number)
-    base_fluid = fluids.fluid(request.fluid_id)
-    tone = fluids.tonicity(
-        base_fluid, plasma_osmolality_mosm_per_kg=plasma.number, band_fraction=band.value
+        return request.dehydration_percent, estimate
+    if estimate is None:
+        return 0.0, None
+    ledger.add(
+        "info",
+        "DEHYDRATION_FROM_FINDINGS",
+        f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % dehydration; "
+        f"the plan uses {estimate.suggested_percent:g} %.",
+        "Confirm or enter the percentage yourself.",
+        estimate.source_id,
     )
-    bag_comp = fluids.composition(bag)
+    return estimate.suggested_percent, estimate
 
-    route, device = _route_and_device(c, request)
-    drop_factor = request.drop_factor if device == "gravity" else None
-    if route not in LINE_ROUTES and (
-        tone.in_vitro_class == "hypertonic" or bag_comp.dextrose_g_per_l > 0
-    ):
-        c.add(
+
+def _resuscitation_phases(
+    ledger: Ledger, request: PlanRequest, *, route: str, drop_factor: float | None
+) -> tuple[list[Phase], resuscitation.Resuscitation | None]:
+    """Boluses one after another, each followed by reassessment; never with KCl."""
+    if not request.resuscitation_boluses:
+        return [], None
+    if route not in LINE_ROUTES:
+        ledger.add(
             "hard",
-            "FLUID_NOT_FOR_SC",
-            f"{base_fluid.name} {'with dextrose ' if request.dextrose_percent else ''}is not suitable "
-            f"{route.upper()}: no hypertonic or dextrose-containing fluids outside a vein.",
-            "Choose an isotonic crystalloid for SC/intracoelomic use.",
-            "vcna2017_sc",
+            "RESUSCITATION_NEEDS_LINE",
+            f"Resuscitation boluses cannot be given {route.upper()}.",
+            "Place an IV or IO line for shock.",
         )
-
-    if species.is_ectotherm and request.dextrose_percent > 0:
-        c.add(
-            "soft",
-            "REPTILE_DEXTROSE",
-            "Dextrose-containing fluids caused severe hyperglycaemia in dehydrated bearded dragons.",
-            "Prefer an isotonic crystalloid without dextrose; check blood glucose if you add it.",
-            "parkinson2020",
-        )
-
-    # Phases
-    phases: list[Phase] = []
+        return [], None
+    res = resuscitation.resuscitation(
+        ledger.table, request.species_id, request.weight_kg, route=route
+    )
+    ledger.use(*res.provenance)
+    phases = []
     hour = 0.0
-    res = None
-    if request.resuscitation_boluses:
-        if route not in LINE_ROUTES:
-            c.add(
-                "hard",
-                "RESUSCITATION_NEEDS_LINE",
-                f"Resuscitation boluses cannot be given {route.upper()}.",
-                "Place an IV or IO line for shock.",
+    count = request.resuscitation_boluses
+    for number in range(1, count + 1):
+        end = hour + res.minutes / 60.0
+        phases.append(
+            schedule.continuous_phase(
+                kind="resuscitation",
+                start_h=hour,
+                end_h=end,
+                rate_ml_per_h=res.rate_ml_per_h,
+                route=route,
+                drop_factor=drop_factor,
+                kcl_mmol_per_l=0.0,
+                note=f"bolus {number} of {count}; reassess before the next",
             )
-        else:
-            res = resuscitation.resuscitation(table, request.species_id, w, route=route)
-            c.use(*res.provenance)
-            for i in range(request.resuscitation_boluses):
-                end = hour + res.minutes / 60.0
-                phases.append(
-                    _continuous_phase(
-                        kind="resuscitation",
-                        start_h=hour,
-                        end_h=end,
-                        rate=res.rate_ml_per_h,
-                        route=route,
-                        drop_factor=drop_factor,
-                        kcl=0.0,
-                        note=f"bolus {i + 1} of {request.resuscitation_boluses}; reassess before the next",
-                    )
-                )
-                hour = end
-            given = res.bolus_ml_per_kg * request.resuscitation_boluses
-            if given > res.cap_ml_per_kg + 1e-9:
-                c.add(
-                    "soft",
-                    "BOLUSES_ABOVE_SHOCK_DOSE",
-                    f"{request.resuscitation_boluses} boluses give {_fmt(given, 'mL/kg')}, above the "
-                    f"{res.cap_from} of {_fmt(res.cap_ml_per_kg, 'mL/kg')}.",
-                    "Reassess after each bolus; look for other causes of poor perfusion.",
-                    c.values.get(
-                        "shock_dose_ml_per_kg", c.values.get("blood_volume_ml_per_kg")
-                    ).source_id,
-                )
-    replace_end = hour + request.replace_hours
-    maint_end = (
-        max(24.0, replace_end + MAINTENANCE_TAIL_H)
-        if deficit > 0
-        else max(24.0, hour + MAINTENANCE_TAIL_H)
-    )
+        )
+        hour = end
+    safety.check_boluses(ledger, res, count)
+    return phases, res
+
+
+def _fluid_phases(
+    ledger: Ledger,
+    *,
+    start_h: float,
+    deficit_ml: float,
+    replace_hours: float,
+    background_ml_per_h: float,
+    route: str,
+    device: str,
+    drop_factor: float | None,
+    kcl_mmol_per_l: float,
+) -> list[Phase]:
+    """Replacement (deficit + maintenance + losses), then maintenance to hour 24 or later."""
     segments = []
-    if deficit > 0:
+    hour = start_h
+    if deficit_ml > 0:
+        end = hour + replace_hours
         segments.append(
-            (
-                "replacement",
-                hour,
-                replace_end,
-                deficit / request.replace_hours + maint.ml_per_h + losses_h,
-            )
+            ("replacement", hour, end, deficit_ml / replace_hours + background_ml_per_h)
         )
-        hour = replace_end
-    segments.append(("maintenance", hour, maint_end, maint.ml_per_h + losses_h))
-    for kind, start_h, end_h, rate in segments:
-        if device == "divided":
-            phases.append(
-                _intermittent_phase(
-                    c,
-                    kind=kind,
-                    start_h=start_h,
-                    end_h=end_h,
-                    need_ml_per_h=rate,
-                    route=route,
-                    weight_kg=w,
-                    kcl=kcl,
-                )
+        hour = end
+    segments.append(
+        ("maintenance", hour, max(24.0, hour + MAINTENANCE_TAIL_H), background_ml_per_h)
+    )
+    if device == "divided":
+        site_limit = ledger.value(SITE_LIMIT_PARAMETER[route])
+        return [
+            schedule.intermittent_phase(
+                kind=kind,
+                start_h=start,
+                end_h=end,
+                need_ml_per_h=rate,
+                route=route,
+                per_site_limit_ml=site_limit.number * ledger.weight_kg,
+                kcl_mmol_per_l=kcl_mmol_per_l,
             )
-        else:
-            phases.append(
-                _continuous_phase(
-                    kind=kind,
-                    start_h=start_h,
-                    end_h=end_h,
-                    rate=rate,
-                    route=route,
-                    drop_factor=drop_factor,
-                    kcl=kcl,
-                )
-            )
-    main = next(p for p in phases if p.kind != "resuscitation")
-    main_rate = (
-        main.rate_ml_per_h
-        if main.mode == "continuous"
-        else (main.dose_ml or 0) / (main.interval_h or 1)
+            for kind, start, end, rate in segments
+        ]
+    return [
+        schedule.continuous_phase(
+            kind=kind,
+            start_h=start,
+            end_h=end,
+            rate_ml_per_h=rate,
+            route=route,
+            drop_factor=drop_factor,
+            kcl_mmol_per_l=kcl_mmol_per_l,
+            syringe=device == "syringe",
+        )
+        for kind, start, end, rate in segments
+    ]
+
+
+def _potassium(
+    request: PlanRequest, *, kcl: float, bag_k: float, phases: tuple[Phase, ...], main: Phase
+) -> electrolytes.PotassiumSummary | None:
+    if kcl <= 0 and request.serum_k is None:
+        return None
+    w = request.weight_kg
+    ceiling = limit("potassium_max_mmol_per_kg_h")
+    band = electrolytes.potassium_band(request.serum_k) if request.serum_k is not None else None
+    peak = max(p.average_ml_per_h for p in phases if p.kind != "resuscitation")
+
+    def per_kg_h(rate: float) -> float:
+        return electrolytes.potassium_mmol_per_kg_h(
+            k_mmol_per_l=bag_k, rate_ml_per_h=rate, weight_kg=w
+        )
+
+    return electrolytes.PotassiumSummary(
+        serum_k=request.serum_k,
+        kcl_mmol_per_l=kcl,
+        added_by="entered by hand" if request.kcl_mmol_per_l is not None else "serum-K scale",
+        bag_k_mmol_per_l=bag_k,
+        mmol_per_kg_per_h=per_kg_h(main.average_ml_per_h),
+        peak_mmol_per_kg_per_h=per_kg_h(peak),
+        ceiling_mmol_per_kg_per_h=ceiling.value,
+        max_rate_ml_per_h=electrolytes.max_rate_for_potassium(
+            k_mmol_per_l=bag_k, weight_kg=w, ceiling=ceiling.value
+        ),
+        band_max_rate_ml_per_kg_h=band.max_rate_ml_per_kg_h if band else None,
+        source_id=ceiling.source_id,
     )
 
-    # Hourly rate against the shock dose per hour
-    cap = c.get("shock_dose_ml_per_kg") or c.value("blood_volume_ml_per_kg")
-    for p in phases:
-        if p.mode == "continuous" and (p.rate_ml_per_h or 0) > cap.number * w * (1 + 1e-9):
-            c.add(
-                "hard",
-                "RATE_ABOVE_SHOCK_DOSE",
-                f"The {p.kind} rate {_fmt(p.rate_ml_per_h or 0, 'mL/h')} exceeds one "
-                f"{'shock dose' if cap.parameter == 'shock_dose_ml_per_kg' else 'blood volume'} per hour "
-                f"({_fmt(cap.number * w, 'mL/h')}).",
-                "Check the weight, deficit and replacement period.",
-                cap.source_id,
-            )
-            break
 
-    # Potassium
-    potassium = None
-    if kcl > 0 or request.serum_k is not None:
-        k_rate = electrolytes.potassium_mmol_per_kg_h(
-            k_mmol_per_l=bag_comp.k_mmol_per_l, rate_ml_per_h=main_rate or 0, weight_kg=w
+def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
+    """Build the plan for a request (pure: same request and table, same plan)."""
+    table = table or load_table()
+    if table.species(request.species_id).rank != "species":
+        raise InputError(
+            f"{request.species_id!r} is a taxon group, not a species",
+            field="species",
+            value=request.species_id,
+            fix="pick a species; groups only hold shared defaults",
         )
-        ceiling = limit("potassium_max_mmol_per_kg_h")
-        band_k = (
-            electrolytes.potassium_band(request.serum_k) if request.serum_k is not None else None
-        )
-        potassium = {
-            "serum_k": request.serum_k,
-            "kcl_mmol_per_l": kcl,
-            "from": "entered by hand" if request.kcl_mmol_per_l is not None else "serum-K scale",
-            "bag_k_mmol_per_l": bag_comp.k_mmol_per_l,
-            "mmol_per_kg_per_h": k_rate,
-            "ceiling_mmol_per_kg_per_h": ceiling.value,
-            "max_rate_ml_per_h": electrolytes.max_rate_for_potassium(
-                k_mmol_per_l=bag_comp.k_mmol_per_l, weight_kg=w, ceiling=ceiling.value
-            ),
-            "band_max_rate_ml_per_kg_h": band_k.max_rate_ml_per_kg_h if band_k else None,
-            "source_id": ceiling.source_id,
-        }
-        peak_rate = (
-            max(
-                (p.rate_ml_per_h or 0)
-                for p in phases
-                if p.kind != "resuscitation" and p.mode == "continuous"
-            )
-            if device != "divided"
-            else main_rate
-        )
-        peak_k = electrolytes.potassium_mmol_per_kg_h(
-            k_mmol_per_l=bag_comp.k_mmol_per_l, rate_ml_per_h=peak_rate or 0, weight_kg=w
-        )
-        if peak_k > ceiling.value:
-            c.add(
-                "hard",
-                "POTASSIUM_ABOVE_CEILING",
-                f"Potassium would run at {_fmt(peak_k, 'mmol/kg/h')}, above the {_fmt(ceiling.value, 'mmol/kg/h')} ceiling.",
-                f"Lower the rate to at most {_fmt(potassium['max_rate_ml_per_h'] or 0, 'mL/h')} or the KCl added.",
-                ceiling.source_id,
-            )
-        elif band_k and kcl > 0 and (peak_rate or 0) > band_k.max_rate_ml_per_kg_h * w:
-            c.add(
-                "soft",
-                "POTASSIUM_RATE_ABOVE_BAND",
-                f"{_fmt(peak_rate or 0, 'mL/h')} is faster than the scale's {_fmt(band_k.max_rate_ml_per_kg_h, 'mL/kg/h')} "
-                f"for this serum K ({_fmt(band_k.max_rate_ml_per_kg_h * w, 'mL/h')}).",
-                "Slow the rate or run potassium in a separate line.",
-                band_k.source_id,
-            )
-        peripheral = limit("kcl_peripheral_max_mmol_per_l")
-        if bag_comp.k_mmol_per_l > peripheral.value and route == "iv":
-            c.add(
-                "soft",
-                "KCL_PERIPHERAL_CONCENTRATION",
-                f"The bag holds {_fmt(bag_comp.k_mmol_per_l, 'mmol/L')} K, above {_fmt(peripheral.value, 'mmol/L')} for a peripheral vein.",
-                "Use a central line or a lower concentration.",
-                peripheral.source_id,
-            )
+    ledger = Ledger(table, request.species_id, weight_kg=request.weight_kg)
+    w = request.weight_kg
+    safety.check_weight(ledger, w)
 
-    # Sodium
-    sodium = None
-    free_water = None
-    normal_na = c.value("serum_na_mmol_per_l")
+    maint = maintenance.maintenance(
+        table, request.species_id, w, method=request.maintenance_method,
+        body_temp_c=request.body_temp_c,
+    )  # fmt: skip
+    ledger.use(*maint.provenance)
+    safety.check_temperature(ledger, request.body_temp_c, maint)
+    percent, estimate = _dehydration(ledger, request)
+    deficit = hydration.deficit_ml(w, percent)
+    background = maint.ml_per_h + request.losses_ml_per_day / 24.0
+
+    plasma = ledger.value("plasma_osmolality_mosm_per_kg")
+    kcl = _potassium_to_add(request)
+    bag = _bag(request, kcl)
+    bag_comp = fluids.composition(bag)
+    base = fluids.fluid(request.fluid_id)
+    tone = fluids.tonicity(
+        base,
+        plasma_osmolality_mosm_per_kg=plasma.number,
+        band_fraction=limit("tonicity_band_fraction").value,
+    )
+    route, device = _route_and_device(ledger, request)
+    drop_factor = request.drop_factor if device == "gravity" else None
+    safety.check_fluid_for_route(
+        ledger, route=route, fluid_name=bag.name, tonicity=tone,
+        dextrose_g_per_l=bag_comp.dextrose_g_per_l,
+    )  # fmt: skip
+    safety.check_reptile_dextrose(ledger, request.dextrose_percent)
+
+    bolus_phases, res = _resuscitation_phases(ledger, request, route=route, drop_factor=drop_factor)
+    start_h = bolus_phases[-1].end_h if bolus_phases else 0.0
+    fluid_phases = _fluid_phases(
+        ledger, start_h=start_h, deficit_ml=deficit, replace_hours=request.replace_hours,
+        background_ml_per_h=background, route=route, device=device, drop_factor=drop_factor,
+        kcl_mmol_per_l=kcl,
+    )  # fmt: skip
+    phases = (*bolus_phases, *fluid_phases)
+    main = fluid_phases[0]
+    safety.check_rates_against_shock_dose(ledger, phases, w)
+    safety.check_divided_sites(ledger, phases)
+
+    potassium = _potassium(request, kcl=kcl, bag_k=bag_comp.k_mmol_per_l, phases=phases, main=main)
+    if potassium is not None:
+        peak_rate = max(p.average_ml_per_h for p in fluid_phases)
+        safety.check_potassium(
+            ledger, potassium, weight_kg=w, route=route, peak_rate_ml_per_h=peak_rate
+        )
+
+    sodium, free_water = None, None
     if request.serum_na is not None:
-        tbw_fraction = c.value("total_body_water_fraction")
-        tbw_l = tbw_fraction.number * w
-        change = electrolytes.sodium_change_per_litre(
-            serum_na=request.serum_na,
-            infusate_na=bag_comp.na_mmol_per_l,
-            infusate_k=bag_comp.k_mmol_per_l,
-            tbw_l=tbw_l,
+        tbw = ledger.value("total_body_water_fraction")
+        max_change = (
+            request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
         )
-        na_limit = limit("sodium_max_correction_mmol_per_l_h")
-        max_change = request.max_na_change_per_h or na_limit.value
-        max_rate = electrolytes.max_rate_for_sodium(
-            change_per_litre=change, max_change_per_h=max_change
-        )
-        predicted = change * (main_rate or 0) / 1000.0
-        sodium = {
-            "serum_na": request.serum_na,
-            "tbw_l": tbw_l,
-            "delta_na_per_l": change,
-            "predicted_change_per_h": predicted,
-            "max_change_per_h": max_change,
-            "max_rate_ml_per_h": max_rate,
-            "source_id": "adrogue2000",
-        }
-        if max_rate is not None and (main_rate or 0) > max_rate:
-            direction = "fall" if change < 0 else "rise"
-            c.add(
-                "soft",
-                "SODIUM_CHANGE_TOO_FAST",
-                f"At {_fmt(main_rate or 0, 'mL/h')} serum Na is predicted to {direction} "
-                f"{_fmt(abs(predicted), 'mmol/L/h')}, faster than {_fmt(max_change, 'mmol/L/h')}.",
-                f"Keep the rate at or below {_fmt(max_rate, 'mL/h')} or choose a fluid closer to the patient's Na; recheck Na every 4–6 h.",
-                "adrogue2000",
-            )
-        high_na = normal_na.high or normal_na.number
-        if request.serum_na > high_na:
+        sodium = electrolytes.sodium_summary(
+            serum_na=request.serum_na, infusate_na=bag_comp.na_mmol_per_l,
+            infusate_k=bag_comp.k_mmol_per_l, tbw_l=tbw.number * w,
+            rate_ml_per_h=main.average_ml_per_h, max_change_per_h=max_change,
+        )  # fmt: skip
+        safety.check_sodium(ledger, sodium, main.average_ml_per_h)
+        normal = ledger.value("serum_na_mmol_per_l")
+        reference_high = normal.high if normal.high is not None else normal.number
+        if request.serum_na > reference_high:
             free_water = hydration.free_water_deficit_ml(
-                weight_kg=w,
-                serum_na=request.serum_na,
-                normal_na=normal_na.number,
-                tbw_fraction=tbw_fraction.number,
-            )
-            c.add(
-                "info",
-                "FREE_WATER_DEFICIT",
-                f"Serum Na {_fmt(request.serum_na, 'mmol/L')} is above the {_fmt(high_na, 'mmol/L')} reference; "
-                f"free-water deficit ≈ {_fmt(free_water, 'mL')}.",
-                f"Correct no faster than {_fmt(max_change, 'mmol/L/h')}.",
-            )
+                weight_kg=w, serum_na=request.serum_na, normal_na=normal.number,
+                tbw_fraction=tbw.number,
+            )  # fmt: skip
+            safety.note_free_water(
+                ledger, serum_na=request.serum_na, reference_high=reference_high,
+                free_water_ml=free_water, max_change=max_change,
+            )  # fmt: skip
 
-    # Urine concentration and the water budget
-    usg_ok = c.value("usg_interpretable")
-    if request.usg is not None and not usg_ok.value:
-        c.add(
-            "info",
-            "USG_NOT_INTERPRETABLE",
-            f"USG does not judge hydration in {species.taxon_group}s: {usg_ok.note}.",
-            "Judge hydration by weight, examination, PCV/TS and uric acid or urea.",
-            usg_ok.source_id,
-        )
-    budget = None
-    try:
-        budget = maintenance.water_budget(
-            table,
-            request.species_id,
-            w,
-            body_temp_c=request.body_temp_c,
-            usg=request.usg if usg_ok.value else None,
-            urine_osmolality=request.urine_osmolality,
-        )
-        c.use(*budget.provenance)
-    except InputError as exc:
-        c.add("info", "NO_CONCENTRATING_CEILING", exc.message, exc.fix or "")
-    if (
-        budget is not None
-        and budget.ceiling_from in ("USG", "urine osmolality")
-        and budget.ceiling_mosm_per_kg <= 1.2 * budget.plasma_mosm_per_kg
-    ):
-        c.add(
-            "info",
-            "LOW_CONCENTRATING_CEILING",
-            f"Urine at {_fmt(budget.ceiling_mosm_per_kg, 'mOsm/kg')} is close to plasma: the kidney needs "
-            f"{_fmt(budget.obligatory_urine_ml, 'mL/day')} of urine for its solute load.",
-            "Expect higher urine losses; measure urine output and add it as ongoing losses.",
-        )
-
-    # Clinical flags
-    if request.cardiac_disease or request.renal_disease:
-        factor = limit("heart_kidney_slowdown_factor")
-        slower_h = max(24.0, request.replace_hours * factor.value)
-        suggested = (deficit / slower_h if deficit else 0) + maint.ml_per_h + losses_h
-        which = " and ".join(
-            n
-            for n, on in (("cardiac", request.cardiac_disease), ("renal", request.renal_disease))
-            if on
-        )
-        gain = limit("overload_weight_gain_fraction")
-        c.add(
-            "soft",
-            "OVERLOAD_RISK",
-            f"With {which} disease fluid overload is more likely; suggested rate "
-            f"{_fmt(suggested, 'mL/h')} (deficit over {slower_h:g} h).",
-            f"Weigh every 6–12 h; stop and reassess at a gain of {gain.value:.0%} over baseline "
-            f"({_fmt(w * (1 + gain.value), 'kg')}).",
-            gain.source_id,
-        )
+    budget = _water_budget(ledger, request)
+    safety.check_urine(ledger, usg=request.usg, budget=budget)
+    safety.check_overload(
+        ledger, cardiac=request.cardiac_disease, renal=request.renal_disease, weight_kg=w,
+        deficit_ml=deficit, replace_hours=request.replace_hours, background_ml_per_h=background,
+    )  # fmt: skip
     if request.anaesthesia:
-        anaes = limit("anaesthesia_max_ml_per_kg_h")
-        start = c.get("anaesthesia_rate_ml_per_kg_h")
-        if main.mode == "continuous" and (main.rate_ml_per_h or 0) > anaes.value * w:
-            c.add(
-                "soft",
-                "ANAESTHESIA_RATE",
-                f"{_fmt(main.rate_ml_per_h or 0, 'mL/h')} is above {_fmt(anaes.value, 'mL/kg/h')} "
-                f"({_fmt(anaes.value * w, 'mL/h')}) for an anaesthetised patient.",
-                "Start at "
-                + (f"{_fmt(start.number, 'mL/kg/h')} " if start else "a lower rate ")
-                + "and reduce by 25% per hour as tolerated.",
-                anaes.source_id,
-            )
+        safety.check_anaesthesia(ledger, main, w)
     if request.neonate:
-        c.add(
-            "info",
-            "NEONATE",
-            "Neonates hold more body water (up to 80% of body weight) and tolerate fasting poorly.",
-            "Check glucose; weigh on a gram scale; reassess often.",
-            "odunayo2018",
-        )
-
-    running_h = maint_end - main.start_h
-    if (
-        tone.effective_class == "isotonic"
-        and running_h >= limit("isotonic_maintenance_hours").value
-    ):
-        c.add(
-            "info",
-            "ISOTONIC_FOR_MAINTENANCE",
-            f"{base_fluid.name} is an isotonic replacement fluid; this plan runs it for "
-            f"{running_h:g} h, the last {maint_end - hour:g} h as maintenance.",
-            "For maintenance beyond a day consider a hypotonic maintenance fluid with potassium.",
-            "pardo2024",
-        )
+        safety.note_neonate(ledger)
+    tail = fluid_phases[-1]
+    safety.check_isotonic_maintenance(
+        ledger, fluid_name=base.name, tonicity=tone, running_h=tail.end_h - main.start_h,
+        maintenance_h=tail.hours,
+    )  # fmt: skip
     if deficit > 0 and res is not None:
-        c.add(
+        ledger.add(
             "info",
             "BOLUS_NOT_SUBTRACTED",
             "Resuscitation volume is not subtracted from the deficit.",
             "Reassess hydration after resuscitation and re-plan.",
         )
+    safety.note_unverified(ledger)
 
-    unverified = [v for v in c.values.values() if v.unverified]
-    if unverified:
-        c.add(
-            "info",
-            "UNVERIFIED_VALUES",
-            f"{len(unverified)} species value(s) used here were recalled from memory, not checked "
-            f"against a publication: {', '.join(v.parameter for v in unverified)}.",
-            "Check them against your references before relying on them.",
-        )
-
-    phases_t = tuple(phases)
     return Plan(
         request=request,
-        species_name=species.common_name,
+        species_name=ledger.species.common_name,
         maintenance=maint,
         dehydration_percent=percent,
         dehydration_estimate=estimate,
         deficit_ml=deficit,
         free_water_deficit_ml=free_water,
-        phases=phases_t,
-        schedule=_schedule(phases_t, request.start_time, res),
+        phases=phases,
+        schedule=schedule.schedule_entries(phases, request.start_time),
         fluid_name=bag.name,
         fluid_na_mmol_per_l=bag_comp.na_mmol_per_l,
         fluid_k_mmol_per_l=bag_comp.k_mmol_per_l,
@@ -929,6 +537,21 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         potassium=potassium,
         sodium=sodium,
         water_budget=budget,
-        findings=tuple(c.findings),
-        provenance=tuple(c.values.values()),
+        findings=tuple(ledger.findings),
+        provenance=tuple(ledger.values.values()),
     )
+
+
+def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:
+    """The budget with the patient's own urine data where the taxon can use them."""
+    usg_ok = ledger.value("usg_interpretable")
+    try:
+        budget = maintenance.water_budget(
+            ledger.table, request.species_id, request.weight_kg, body_temp_c=request.body_temp_c,
+            usg=request.usg if usg_ok.value else None, urine_osmolality=request.urine_osmolality,
+        )  # fmt: skip
+    except InputError as exc:
+        ledger.add("info", "NO_CONCENTRATING_CEILING", exc.message, exc.fix or "")
+        return None
+    ledger.use(*budget.provenance)
+    return budget

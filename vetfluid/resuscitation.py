@@ -15,6 +15,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.species import SpeciesTable, SpeciesValue
 
@@ -55,8 +56,7 @@ def resuscitation(
             value=route,
             fix="use an IV or IO line for shock",
         )
-    if not weight_kg > 0:
-        raise InputError("weight must be more than 0 kg", field="weight", value=weight_kg)
+    require_number(weight_kg, "weight_kg", positive=True, unit="kg")
     shock = table.get(species_id, "shock_dose_ml_per_kg")
     if shock is not None:
         cap_values = [shock]

@@ -6,9 +6,12 @@ stable and documented in README.md.
 
 from __future__ import annotations
 
+from dataclasses import asdict
+
 from vetfluid import fluids
 from vetfluid.cautions import CAUTIONS
-from vetfluid.plan import Phase, Plan
+from vetfluid.plan import Plan
+from vetfluid.schedule import Phase
 from vetfluid.species import SpeciesTable, SpeciesValue
 
 
@@ -30,6 +33,7 @@ def phase_dict(phase: Phase) -> dict[str, object]:
         data["rate_ml_per_h"] = phase.rate_ml_per_h
         data["drops_per_min"] = phase.drops_per_min
         data["seconds_per_drop"] = phase.seconds_per_drop
+        data["syringe_ml"] = phase.syringe_ml
     else:
         data.update(
             dose_ml=phase.dose_ml,
@@ -121,9 +125,9 @@ def plan_dict(plan: Plan) -> dict[str, object]:
             "reassess": r.reassess,
         }
     if plan.potassium is not None:
-        data["potassium"] = dict(plan.potassium)
+        data["potassium"] = asdict(plan.potassium)
     if plan.sodium is not None:
-        data["sodium"] = dict(plan.sodium)
+        data["sodium"] = asdict(plan.sodium)
     if budget is not None:
         data["water_budget"] = {
             "energy_kcal_per_day": budget.energy_kcal_per_day,

@@ -13,6 +13,7 @@ import math
 import re
 from functools import cache
 
+from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 
 KG_PER_LB = 0.45359237
@@ -45,7 +46,17 @@ def parse_weight_kg(text: str | float | int, *, default_unit: str | None = None)
             value=text,
             fix='write a number and a unit, e.g. "350 g", "0.35 kg", "4.2 lb"',
         )
-    number = float(match.group(1).replace(",", "."))
+    digits = match.group(1)
+    if re.fullmatch(r"\d{1,3},\d{3}", digits):
+        # "1,500 g" may mean 1500 g (thousands) or 1.5 g (decimal comma): never guess
+        raise InputError(
+            "this weight is ambiguous",
+            field="weight",
+            value=text,
+            fix=f"write {digits.replace(',', '')} or {digits.replace(',', '.')} with its unit, "
+            "without a thousands separator",
+        )
+    number = float(digits.replace(",", "."))
     unit = (match.group(2) or default_unit or "").lower()
     if not unit:
         raise InputError(
@@ -98,14 +109,18 @@ def _analyte_mass(analyte: str) -> float:
     return molar_mass_g_per_mol(_ANALYTE_FORMULA[key])
 
 
+def _concentration(value: float) -> float:
+    return require_number(value, "concentration", low=0)
+
+
 def mmol_per_l_to_mg_per_dl(value: float, analyte: str) -> float:
     """mmol/L → mg/dL: multiply by molar mass (g/mol) and divide by 10 (L → dL, g → mg)."""
-    return value * _analyte_mass(analyte) / 10.0
+    return _concentration(value) * _analyte_mass(analyte) / 10.0
 
 
 def mg_per_dl_to_mmol_per_l(value: float, analyte: str) -> float:
     """mg/dL → mmol/L, the inverse of :func:`mmol_per_l_to_mg_per_dl`."""
-    return value * 10.0 / _analyte_mass(analyte)
+    return _concentration(value) * 10.0 / _analyte_mass(analyte)
 
 
 def mg_per_dl_to_umol_per_l(value: float, analyte: str) -> float:
@@ -115,4 +130,4 @@ def mg_per_dl_to_umol_per_l(value: float, analyte: str) -> float:
 
 def umol_per_l_to_mg_per_dl(value: float, analyte: str) -> float:
     """µmol/L → mg/dL."""
-    return mmol_per_l_to_mg_per_dl(value / 1000.0, analyte)
+    return mmol_per_l_to_mg_per_dl(_concentration(value) / 1000.0, analyte)

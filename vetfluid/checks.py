@@ -1,0 +1,38 @@
+"""One way to check a number the user gave: a real, finite number in range, or an InputError."""
+
+from __future__ import annotations
+
+import math
+
+from vetfluid.errors import InputError
+
+
+def require_number(
+    value: object,
+    name: str,
+    *,
+    low: float | None = None,
+    high: float | None = None,
+    unit: str = "",
+    positive: bool = False,
+    fix: str | None = None,
+) -> float:
+    """``value`` as a float; bools, NaN, infinities and out-of-range values are refused.
+
+    ``positive`` demands more than zero; ``low``/``high`` bound it inclusively.
+    """
+    if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
+        raise InputError(f"{name} must be a finite number", field=name, value=value, fix=fix)
+    number = float(value)
+    unit_text = f" {unit}" if unit else ""
+    if positive and number <= 0:
+        raise InputError(f"{name} must be more than 0{unit_text}", field=name, value=value, fix=fix)
+    if (low is not None and number < low) or (high is not None and number > high):
+        if low is not None and high is not None:
+            bounds = f"between {low:g} and {high:g}{unit_text}"
+        elif low is not None:
+            bounds = f"at least {low:g}{unit_text}"
+        else:
+            bounds = f"at most {high:g}{unit_text}"
+        raise InputError(f"{name} must be {bounds}", field=name, value=value, fix=fix)
+    return number

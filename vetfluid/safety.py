@@ -1,0 +1,344 @@
+"""Safety checks: each limit in ``species_data/safety_limits.csv`` becomes a finding.
+
+Every check adds to a :class:`~vetfluid.ledger.Ledger`: ``info`` informs, ``soft``
+must be acknowledged with a reason, ``hard`` blocks marking the plan ready.
+Messages name the value, the limit and what to do; codes are stable.
+"""
+
+from __future__ import annotations
+
+from vetfluid import fluids
+from vetfluid.electrolytes import PotassiumSummary, SodiumSummary
+from vetfluid.formatting import format_quantity as q
+from vetfluid.ledger import Ledger
+from vetfluid.limits import limit
+from vetfluid.maintenance import Maintenance, WaterBudget
+from vetfluid.resuscitation import Resuscitation
+from vetfluid.schedule import Phase
+
+LINE_ROUTES = ("iv", "io")
+NEAR_PLASMA_FACTOR = 1.2  # urine within 20% of plasma counts as "close to plasma" for the note
+
+
+def check_weight(ledger: Ledger, weight_kg: float) -> None:
+    """Soft outside the species' usual range, hard far outside it (the g/kg slip)."""
+    weight = ledger.value("body_weight_kg")
+    low = weight.low if weight.low is not None else weight.number
+    high = weight.high if weight.high is not None else weight.number
+    factor = limit("weight_far_outside_factor")
+    usual = f"{q(low, 'kg')}–{q(high, 'kg')}"
+    if weight_kg > high * factor.value or weight_kg < low / factor.value:
+        ledger.add(
+            "hard",
+            "WEIGHT_UNIT_SLIP",
+            f"{q(weight_kg, 'kg')} is far outside the usual {usual} for this species "
+            f"(more than {factor.value:g}× beyond the range).",
+            "Check the unit (g or kg) and re-weigh before planning.",
+        )
+    elif not low <= weight_kg <= high:
+        ledger.add(
+            "soft",
+            "WEIGHT_OUTSIDE_RANGE",
+            f"{q(weight_kg, 'kg')} is outside the usual {usual} for this species.",
+            "Confirm the weight and unit; acknowledge with a reason if it is right.",
+        )
+
+
+def check_temperature(ledger: Ledger, body_temp_c: float | None, maint: Maintenance) -> None:
+    """Ectotherms: a temperature outside the preferred range makes maintenance unreliable."""
+    if not ledger.species.is_ectotherm:
+        return
+    preferred = ledger.value("preferred_temp_c")
+    low = preferred.low if preferred.low is not None else preferred.number
+    high = preferred.high if preferred.high is not None else preferred.number
+    if body_temp_c is None:
+        ledger.add(
+            "info",
+            "ECTOTHERM_TEMP_NOT_ENTERED",
+            f"No body temperature entered; maintenance assumes the preferred "
+            f"{q(preferred.number, '°C')}.",
+            "Measure the body temperature and enter it.",
+        )
+    elif not low <= body_temp_c <= high:
+        ledger.add(
+            "soft",
+            "ECTOTHERM_OUTSIDE_PREFERRED_TEMP",
+            f"Body temperature {q(body_temp_c, '°C')} is outside the preferred "
+            f"{q(low, '°C')}–{q(high, '°C')}; maintenance is scaled "
+            f"×{maint.temperature_factor:.2f} by Q10 and the estimate is less reliable.",
+            "Warm the animal into its preferred range, then re-plan.",
+        )
+
+
+def check_fluid_for_route(
+    ledger: Ledger,
+    *,
+    route: str,
+    fluid_name: str,
+    tonicity: fluids.Tonicity,
+    dextrose_g_per_l: float,
+) -> None:
+    """No hypertonic or dextrose-containing fluid outside a vein (Vet Clin North Am 2017)."""
+    if route in LINE_ROUTES:
+        return
+    if tonicity.in_vitro_class == "hypertonic" or dextrose_g_per_l > 0:
+        ledger.add(
+            "hard",
+            "FLUID_NOT_FOR_SC",
+            f"{fluid_name} is not suitable {route.upper()}: no hypertonic or "
+            "dextrose-containing fluids outside a vein.",
+            "Choose an isotonic crystalloid for SC or intracoelomic use.",
+            "vcna2017_sc",
+        )
+
+
+def check_reptile_dextrose(ledger: Ledger, dextrose_percent: float) -> None:
+    """Parkinson & Mans 2020: dextrose fluids caused severe hyperglycaemia in bearded dragons."""
+    if ledger.species.is_ectotherm and dextrose_percent > 0:
+        ledger.add(
+            "soft",
+            "REPTILE_DEXTROSE",
+            "Dextrose-containing fluids caused severe hyperglycaemia in dehydrated bearded "
+            "dragons.",
+            "Prefer an isotonic crystalloid without dextrose; check blood glucose if you add it.",
+            "parkinson2020",
+        )
+
+
+def check_boluses(ledger: Ledger, res: Resuscitation, boluses: int) -> None:
+    """Cumulative boluses beyond the shock dose (or one blood volume) are a soft finding."""
+    given = res.bolus_ml_per_kg * boluses
+    if given > res.cap_ml_per_kg * (1 + 1e-9):
+        cap = ledger.get("shock_dose_ml_per_kg") or ledger.value("blood_volume_ml_per_kg")
+        ledger.add(
+            "soft",
+            "BOLUSES_ABOVE_SHOCK_DOSE",
+            f"{boluses} boluses give {q(given, 'mL/kg')}, above the {res.cap_from} of "
+            f"{q(res.cap_ml_per_kg, 'mL/kg')}.",
+            "Reassess after each bolus; look for other causes of poor perfusion.",
+            cap.source_id,
+        )
+
+
+def check_rates_against_shock_dose(
+    ledger: Ledger, phases: tuple[Phase, ...], weight_kg: float
+) -> None:
+    """Any hourly rate above one shock dose (or blood volume) per hour is hard."""
+    cap = ledger.get("shock_dose_ml_per_kg") or ledger.value("blood_volume_ml_per_kg")
+    per_hour = cap.number * weight_kg
+    what = "shock dose" if cap.parameter == "shock_dose_ml_per_kg" else "blood volume"
+    for phase in phases:
+        if phase.mode == "continuous" and (phase.rate_ml_per_h or 0.0) > per_hour * (1 + 1e-9):
+            ledger.add(
+                "hard",
+                "RATE_ABOVE_SHOCK_DOSE",
+                f"The {phase.kind} rate {q(phase.rate_ml_per_h or 0.0, 'mL/h')} exceeds one "
+                f"{what} per hour ({q(per_hour, 'mL/h')}).",
+                "Check the weight, deficit and replacement period.",
+                cap.source_id,
+            )
+            return
+
+
+def check_divided_sites(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
+    """Doses that need more injection sites than is practical."""
+    for phase in phases:
+        if phase.mode == "intermittent" and not phase.fits_sites:
+            per_site = (phase.dose_ml or 0.0) / (phase.sites_per_dose or 1)
+            ledger.add(
+                "soft",
+                "DIVIDED_TOO_MANY_SITES",
+                f"Each {phase.route.upper()} {phase.kind} dose of {q(phase.dose_ml or 0.0, 'mL')} "
+                f"needs {phase.sites_per_dose} sites at {q(per_site, 'mL')} per site.",
+                "Replace the deficit over a longer period, or place an IO/IV line.",
+            )
+            return
+
+
+def check_potassium(
+    ledger: Ledger, k: PotassiumSummary, *, weight_kg: float, route: str, peak_rate_ml_per_h: float
+) -> None:
+    """The 0.5 mmol/kg/h ceiling (hard), the scale's rate (soft), peripheral concentration."""
+    if k.peak_mmol_per_kg_per_h > k.ceiling_mmol_per_kg_per_h:
+        ledger.add(
+            "hard",
+            "POTASSIUM_ABOVE_CEILING",
+            f"Potassium would run at {q(k.peak_mmol_per_kg_per_h, 'mmol/kg/h')}, above the "
+            f"{q(k.ceiling_mmol_per_kg_per_h, 'mmol/kg/h')} ceiling.",
+            f"Lower the rate to at most {q(k.max_rate_ml_per_h or 0.0, 'mL/h')} or add less KCl.",
+            k.source_id,
+        )
+    elif (
+        k.band_max_rate_ml_per_kg_h is not None
+        and k.kcl_mmol_per_l > 0
+        and peak_rate_ml_per_h > k.band_max_rate_ml_per_kg_h * weight_kg
+    ):
+        ledger.add(
+            "soft",
+            "POTASSIUM_RATE_ABOVE_BAND",
+            f"{q(peak_rate_ml_per_h, 'mL/h')} is faster than the scale's "
+            f"{q(k.band_max_rate_ml_per_kg_h, 'mL/kg/h')} for this serum K "
+            f"({q(k.band_max_rate_ml_per_kg_h * weight_kg, 'mL/h')}).",
+            "Slow the rate or run potassium in a separate line.",
+            "cote2020",
+        )
+    peripheral = limit("kcl_peripheral_max_mmol_per_l")
+    if route == "iv" and k.bag_k_mmol_per_l > peripheral.value:
+        ledger.add(
+            "soft",
+            "KCL_PERIPHERAL_CONCENTRATION",
+            f"The bag holds {q(k.bag_k_mmol_per_l, 'mmol/L')} K, above "
+            f"{q(peripheral.value, 'mmol/L')} for a peripheral vein.",
+            "Use a central line or a lower concentration.",
+            peripheral.source_id,
+        )
+
+
+def check_sodium(ledger: Ledger, na: SodiumSummary, rate_ml_per_h: float) -> None:
+    """Serum Na predicted to move faster than the correction limit (soft)."""
+    if na.max_rate_ml_per_h is not None and rate_ml_per_h > na.max_rate_ml_per_h:
+        direction = "fall" if na.delta_na_per_l < 0 else "rise"
+        ledger.add(
+            "soft",
+            "SODIUM_CHANGE_TOO_FAST",
+            f"At {q(rate_ml_per_h, 'mL/h')} serum Na is predicted to {direction} "
+            f"{q(abs(na.predicted_change_per_h), 'mmol/L/h')}, faster than "
+            f"{q(na.max_change_per_h, 'mmol/L/h')}.",
+            f"Keep the rate at or below {q(na.max_rate_ml_per_h, 'mL/h')} or choose a fluid "
+            "closer to the patient's Na; recheck Na every 4–6 h.",
+            na.source_id,
+        )
+
+
+def note_free_water(
+    ledger: Ledger,
+    *,
+    serum_na: float,
+    reference_high: float,
+    free_water_ml: float,
+    max_change: float,
+) -> None:
+    ledger.add(
+        "info",
+        "FREE_WATER_DEFICIT",
+        f"Serum Na {q(serum_na, 'mmol/L')} is above the {q(reference_high, 'mmol/L')} "
+        f"reference; free-water deficit ≈ {q(free_water_ml, 'mL')}.",
+        f"Correct no faster than {q(max_change, 'mmol/L/h')}.",
+    )
+
+
+def check_urine(ledger: Ledger, *, usg: float | None, budget: WaterBudget | None) -> None:
+    """USG where the taxon cannot use it; urine close to plasma (low concentrating ceiling)."""
+    usg_ok = ledger.value("usg_interpretable")
+    if usg is not None and not usg_ok.value:
+        ledger.add(
+            "info",
+            "USG_NOT_INTERPRETABLE",
+            f"USG does not judge hydration in this taxon ({ledger.species.taxon_group}): "
+            f"{usg_ok.note}.",
+            "Judge hydration by weight, examination, PCV/TS and uric acid or urea.",
+            usg_ok.source_id,
+        )
+    if (
+        budget is not None
+        and budget.ceiling_from in ("USG", "urine osmolality")
+        and budget.ceiling_mosm_per_kg <= NEAR_PLASMA_FACTOR * budget.plasma_mosm_per_kg
+    ):
+        ledger.add(
+            "info",
+            "LOW_CONCENTRATING_CEILING",
+            f"Urine at {q(budget.ceiling_mosm_per_kg, 'mOsm/kg')} is close to plasma: the kidney "
+            f"needs {q(budget.obligatory_urine_ml, 'mL/day')} of urine for its solute load.",
+            "Expect higher urine losses; measure urine output and add it as ongoing losses.",
+        )
+
+
+def check_overload(
+    ledger: Ledger,
+    *,
+    cardiac: bool,
+    renal: bool,
+    weight_kg: float,
+    deficit_ml: float,
+    replace_hours: float,
+    background_ml_per_h: float,
+) -> None:
+    """Cardiac or renal disease: a soft caution with a slower suggested rate."""
+    if not (cardiac or renal):
+        return
+    factor = limit("heart_kidney_slowdown_factor")
+    slower_h = max(24.0, replace_hours * factor.value)
+    suggested = (deficit_ml / slower_h if deficit_ml else 0.0) + background_ml_per_h
+    which = " and ".join(n for n, on in (("cardiac", cardiac), ("renal", renal)) if on)
+    gain = limit("overload_weight_gain_fraction")
+    ledger.add(
+        "soft",
+        "OVERLOAD_RISK",
+        f"With {which} disease fluid overload is more likely; suggested rate "
+        f"{q(suggested, 'mL/h')} (deficit over {slower_h:g} h).",
+        f"Weigh every 6–12 h; stop and reassess at a gain of {gain.value:.0%} over baseline "
+        f"({q(weight_kg * (1 + gain.value), 'kg')}).",
+        gain.source_id,
+    )
+
+
+def check_anaesthesia(ledger: Ledger, main: Phase, weight_kg: float) -> None:
+    """Under anaesthesia: below 10 mL/kg/h (Davis 2013)."""
+    ceiling = limit("anaesthesia_max_ml_per_kg_h")
+    start = ledger.get("anaesthesia_rate_ml_per_kg_h")
+    if main.average_ml_per_h > ceiling.value * weight_kg:
+        begin = q(start.number, "mL/kg/h") if start else "a lower rate"
+        ledger.add(
+            "soft",
+            "ANAESTHESIA_RATE",
+            f"{q(main.average_ml_per_h, 'mL/h')} is above {q(ceiling.value, 'mL/kg/h')} "
+            f"({q(ceiling.value * weight_kg, 'mL/h')}) for an anaesthetised patient.",
+            f"Start at {begin} and reduce by 25% per hour as tolerated.",
+            ceiling.source_id,
+        )
+
+
+def note_neonate(ledger: Ledger) -> None:
+    ledger.add(
+        "info",
+        "NEONATE",
+        "Neonates hold more body water (up to 80% of body weight) and tolerate fasting poorly.",
+        "Check glucose; weigh on a gram scale; reassess often.",
+        "odunayo2018",
+    )
+
+
+def check_isotonic_maintenance(
+    ledger: Ledger,
+    *,
+    fluid_name: str,
+    tonicity: fluids.Tonicity,
+    running_h: float,
+    maintenance_h: float,
+) -> None:
+    """An isotonic replacement fluid kept on for long maintenance (Pardo 2024)."""
+    if (
+        tonicity.effective_class == "isotonic"
+        and running_h >= limit("isotonic_maintenance_hours").value
+    ):
+        ledger.add(
+            "info",
+            "ISOTONIC_FOR_MAINTENANCE",
+            f"{fluid_name} is an isotonic replacement fluid; this plan runs it for "
+            f"{running_h:g} h, the last {maintenance_h:g} h as maintenance.",
+            "For maintenance beyond a day consider a hypotonic maintenance fluid with potassium.",
+            "pardo2024",
+        )
+
+
+def note_unverified(ledger: Ledger) -> None:
+    """Say how many species values the plan rests on were recalled from memory."""
+    unverified = [v for v in ledger.values.values() if v.unverified]
+    if unverified:
+        ledger.add(
+            "info",
+            "UNVERIFIED_VALUES",
+            f"{len(unverified)} species value(s) used here were recalled from memory, not "
+            f"checked against a publication: {', '.join(v.parameter for v in unverified)}.",
+            "Check them against your references before relying on them.",
+        )

@@ -1,0 +1,199 @@
+"""Phases and the timed schedule: what runs when, at what rate or dose.
+
+Continuous phases carry a pump rate (and drops/min for a gravity drip);
+intermittent phases carry a dose, an interval and the sites per dose
+(see :mod:`vetfluid.delivery` for the methods).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from datetime import datetime, time, timedelta
+
+from vetfluid import delivery
+from vetfluid.formatting import format_quantity
+
+
+@dataclass(frozen=True, kw_only=True)
+class Phase:
+    """One phase of the plan. Continuous phases have a rate; intermittent ones doses."""
+
+    kind: str  # resuscitation | replacement | maintenance
+    mode: str  # continuous | intermittent
+    start_h: float
+    end_h: float
+    volume_ml: float
+    route: str
+    rate_ml_per_h: float | None = None
+    dose_ml: float | None = None
+    interval_h: float | None = None
+    doses: int | None = None
+    sites_per_dose: int | None = None
+    ml_per_site: float | None = None
+    drops_per_min: float | None = None
+    seconds_per_drop: float | None = None
+    syringe_ml: float | None = None
+    kcl_mmol_per_l: float = 0.0
+    fits_sites: bool = True
+    note: str = ""
+
+    @property
+    def hours(self) -> float:
+        return self.end_h - self.start_h
+
+    @property
+    def average_ml_per_h(self) -> float:
+        """The hourly rate, or for doses the dose spread over its interval."""
+        if self.mode == "continuous":
+            return self.rate_ml_per_h or 0.0
+        return (self.dose_ml or 0.0) / (self.interval_h or 1.0)
+
+    def dose_hours(self) -> list[float]:
+        """When each dose of an intermittent phase is given (empty for continuous)."""
+        if self.mode != "intermittent" or self.doses is None or self.interval_h is None:
+            return []
+        return [self.start_h + i * self.interval_h for i in range(self.doses)]
+
+    def volume_between(self, start_h: float, end_h: float) -> float:
+        """Volume this phase delivers within [start_h, end_h)."""
+        if self.mode == "continuous":
+            overlap = max(0.0, min(end_h, self.end_h) - max(start_h, self.start_h))
+            return (self.rate_ml_per_h or 0.0) * overlap
+        return sum(self.dose_ml or 0.0 for t in self.dose_hours() if start_h <= t < end_h)
+
+
+def continuous_phase(
+    *,
+    kind: str,
+    start_h: float,
+    end_h: float,
+    rate_ml_per_h: float,
+    route: str,
+    drop_factor: float | None,
+    kcl_mmol_per_l: float,
+    syringe: bool = False,
+    note: str = "",
+) -> Phase:
+    """A phase at a constant rate; drops/min for a gravity drip, the fill for a syringe pump."""
+    return Phase(
+        kind=kind,
+        mode="continuous",
+        start_h=start_h,
+        end_h=end_h,
+        volume_ml=rate_ml_per_h * (end_h - start_h),
+        rate_ml_per_h=rate_ml_per_h,
+        route=route,
+        drops_per_min=delivery.drops_per_min(rate_ml_per_h, drop_factor) if drop_factor else None,
+        seconds_per_drop=(
+            delivery.seconds_per_drop(rate_ml_per_h, drop_factor) if drop_factor else None
+        ),
+        syringe_ml=delivery.syringe_ml(rate_ml_per_h * (end_h - start_h)) if syringe else None,
+        kcl_mmol_per_l=kcl_mmol_per_l,
+        note=note,
+    )
+
+
+def intermittent_phase(
+    *,
+    kind: str,
+    start_h: float,
+    end_h: float,
+    need_ml_per_h: float,
+    route: str,
+    per_site_limit_ml: float,
+    kcl_mmol_per_l: float,
+) -> Phase:
+    """A phase of divided boluses covering ``need_ml_per_h`` from start to end."""
+    split = delivery.divided_boluses(
+        need_ml_per_h=need_ml_per_h, per_site_limit_ml=per_site_limit_ml, route=route
+    )
+    doses = max(1, math.ceil(round((end_h - start_h) / split.interval_h, 9)))
+    return Phase(
+        kind=kind,
+        mode="intermittent",
+        start_h=start_h,
+        end_h=end_h,
+        volume_ml=split.dose_ml * doses,
+        dose_ml=split.dose_ml,
+        interval_h=split.interval_h,
+        doses=doses,
+        sites_per_dose=split.sites_per_dose,
+        ml_per_site=split.ml_per_site,
+        route=route,
+        kcl_mmol_per_l=kcl_mmol_per_l,
+        fits_sites=split.fits,
+    )
+
+
+@dataclass(frozen=True, kw_only=True)
+class ScheduleEntry:
+    hour: float
+    clock: str | None
+    phase: str
+    action: str
+
+
+def clock_time(start: time | None, hour: float) -> str | None:
+    """``HH:MM`` of an hour offset from the start time, with ``(+N d)`` past midnight."""
+    if start is None:
+        return None
+    origin = datetime(2000, 1, 1)
+    moment = datetime.combine(origin.date(), start) + timedelta(hours=hour)
+    day = (moment.date() - origin.date()).days
+    return moment.strftime("%H:%M") + (f" (+{day} d)" if day else "")
+
+
+def _ml(value: float | None) -> str:
+    return format_quantity(value or 0.0, "mL")
+
+
+def _continuous_action(phase: Phase) -> str:
+    rate = format_quantity(phase.rate_ml_per_h or 0.0, "mL/h")
+    if phase.kind == "resuscitation":
+        minutes = phase.hours * 60
+        return (
+            f"Bolus {_ml(phase.volume_ml)} {phase.route.upper()} over {minutes:.0f} min ({rate}); "
+            "then reassess"
+        )
+    if phase.syringe_ml is not None:
+        rate = format_quantity(round(phase.rate_ml_per_h or 0.0, 1), "mL/h", decimals=1)
+        return (
+            f"Syringe pump: set {rate}; load {format_quantity(phase.syringe_ml, 'mL', decimals=1)} "
+            f"for hours {phase.start_h:g}–{phase.end_h:g}"
+        )
+    action = f"Set {rate}"
+    if phase.drops_per_min is not None:
+        action += f" = {format_quantity(phase.drops_per_min, 'drops/min')}"
+        if phase.seconds_per_drop is not None:
+            action += f" (1 drop every {format_quantity(phase.seconds_per_drop, 's')})"
+    return action + f" until hour {phase.end_h:g} ({_ml(phase.volume_ml)} in this phase)"
+
+
+def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[ScheduleEntry, ...]:
+    """The plan on the clock: each phase start and each divided dose (volumes to 0.1 mL)."""
+    entries = []
+    for phase in phases:
+        if phase.mode == "continuous":
+            entries.append(
+                ScheduleEntry(
+                    hour=phase.start_h,
+                    clock=clock_time(start, phase.start_h),
+                    phase=phase.kind,
+                    action=_continuous_action(phase),
+                )
+            )
+            continue
+        dose = delivery.syringe_ml(phase.dose_ml or 0.0)
+        per_site = delivery.syringe_ml(phase.ml_per_site or 0.0)
+        for hour in phase.dose_hours():
+            entries.append(
+                ScheduleEntry(
+                    hour=hour,
+                    clock=clock_time(start, hour),
+                    phase=phase.kind,
+                    action=f"Give {_ml(dose)} {phase.route.upper()} in {phase.sites_per_dose} "
+                    f"site(s), {_ml(per_site)} per site",
+                )
+            )
+    return tuple(entries)
