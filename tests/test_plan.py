@@ -167,6 +167,10 @@ def test_isosthenuric_dog_needs_more_urine_water():
         isosthenuric.water_budget.obligatory_urine_ml > 5 * normal.water_budget.obligatory_urine_ml
     )
     assert "LOW_CONCENTRATING_CEILING" in codes(isosthenuric)
+    # the budget now exceeds the 2013 guideline maintenance: the plan says so
+    assert isosthenuric.water_budget.minimum_ml > isosthenuric.maintenance.ml_per_day
+    assert "MAINTENANCE_BELOW_WATER_BUDGET" in codes(isosthenuric)
+    assert "MAINTENANCE_BELOW_WATER_BUDGET" not in codes(normal)
 
 
 def test_small_desert_rodent_gets_divided_boluses():

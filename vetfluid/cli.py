@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 from collections.abc import Sequence
 from datetime import datetime, time
@@ -127,6 +128,23 @@ def _basis_mark(basis: str) -> str:
     return {"memory": "[memory — unverified]", "derived": "[derived]"}.get(basis, "")
 
 
+def _range(v: dict) -> str:
+    if v["low"] is None or v["high"] is None:
+        return ""
+    return f" ({v['low']:g}–{v['high']:g})"
+
+
+def _value_line(name: str, v: dict) -> str:
+    """One species value for a person: value, range, unit, basis, source and origin."""
+    mark = f" {_basis_mark(v['basis'])}" if v["basis"] != "published" else ""
+    origin = v["origin"] + (f" from {v['defined_on']}" if v["origin"] == "inherited" else "")
+    source = v["source_id"] or "—"
+    return (
+        f"  {name:34} {_shown(v['value'])}{_range(v)} {v['unit']}  {v['basis']}{mark}"
+        f"  source={source}  ({origin})"
+    )
+
+
 def cmd_species(args: argparse.Namespace) -> int:
     from vetfluid.serialize import species_dict
     from vetfluid.species import load_table
@@ -142,22 +160,17 @@ def cmd_species(args: argparse.Namespace) -> int:
     for sp in data["species"]:
         print(f"\n{sp['common_name']} ({sp['scientific_name']}) — {sp['taxon_group']} [{sp['id']}]")
         for name, v in sp["values"].items():
-            shown = _shown(v["value"])
-            rng = (
-                f" ({v['low']:g}–{v['high']:g})"
-                if v["low"] is not None and v["high"] is not None
-                else ""
-            )
-            print(
-                f"  {name:34} {shown}{rng} {v['unit']}  {v['basis']}"
-                f"{' ' + _basis_mark(v['basis']) if v['basis'] != 'published' else ''}"
-                f"  source={v['source_id'] or '—'}  ({v['origin']}{' from ' + v['defined_on'] if v['origin'] == 'inherited' else ''})"
-            )
+            print(_value_line(name, v))
     print("\nSources:")
     for s in data["sources"]:
         print(f"  {s['source_id']:22} {s['citation']}")
     print("\n" + _cautions_text())
     return EXIT_OK
+
+
+FLUID_COLUMNS = (("Na", "na", 6, 0), ("K", "k", 7, 1), ("Cl", "cl", 6, 0), ("Ca", "ca", 5, 2),
+                 ("Mg", "mg", 5, 2), ("dextrose g/L", "dextrose_g_per_l", 13, 0),
+                 ("mOsm/L", "osmolarity_mosm_per_l", 8, 0))  # fmt: skip
 
 
 def cmd_fluids(args: argparse.Namespace) -> int:
@@ -168,14 +181,11 @@ def cmd_fluids(args: argparse.Namespace) -> int:
     if args.json:
         _emit({"fluids": data, "cautions": list(CAUTIONS)})
         return EXIT_OK
-    print(
-        f"{'fluid':28} {'Na':>6} {'K':>5} {'Cl':>6} {'Ca':>5} {'Mg':>5} {'dextrose g/L':>13} {'mOsm/L':>8}  basis"
-    )
+    header = "".join(f" {title:>{width}}" for title, _, width, _ in FLUID_COLUMNS)
+    print(f"{'fluid':28}{header}  basis")
     for f in data:
-        print(
-            f"{f['fluid_id']:28} {f['na']:6.0f} {f['k']:5.1f} {f['cl']:6.0f} {f['ca']:5.2f} {f['mg']:5.2f}"
-            f" {f['dextrose_g_per_l']:13.0f} {f['osmolarity_mosm_per_l']:8.0f}  {f['basis']} {_basis_mark(f['basis'])}"
-        )
+        cells = "".join(f" {f[key]:{width}.{places}f}" for _, key, width, places in FLUID_COLUMNS)
+        print(f"{f['fluid_id']:28}{cells}  {f['basis']} {_basis_mark(f['basis'])}".rstrip())
     print("(ions in mmol/L, computed from the formula with molar masses from molmass)\n")
     print(_cautions_text())
     return EXIT_OK
@@ -219,62 +229,62 @@ def _q(value: float | None, unit: str) -> str:
     return "—" if value is None else format_quantity(value, unit)
 
 
+def _phase_line(p: dict) -> str:
+    span = f"h {p['start_h']:g}–{p['end_h']:g}"
+    total = f"total {_q(p['volume_ml'], 'mL')}"
+    if p["mode"] == "continuous":
+        drip = f" = {_q(p['drops_per_min'], 'drops/min')}" if p.get("drops_per_min") else ""
+        return f"  {p['kind']:14} {span:14} {_q(p['rate_ml_per_h'], 'mL/h')}{drip}  {total}"
+    dose = f"{_q(p['dose_ml'], 'mL')} every {p['interval_h']:g} h ×{p['doses']}"
+    return f"  {p['kind']:14} {span:14} {dose} in {p['sites_per_dose']} site(s)  {total}"
+
+
 def print_plan(data: dict) -> None:
     """The plan as a readable sheet for a person at a terminal."""
-    m = data["maintenance"]
-    print(f"Fluid plan — {data['species_name']}, {_q(data['weight_kg'], 'kg')}")
-    print(
-        f"  Maintenance   {_q(m['ml_per_day'], 'mL/day')} ({_q(m['ml_per_h'], 'mL/h')}) — {m['method']}: {m['formula']}"
-    )
-    print(
-        f"  Dehydration   {data['dehydration_percent']:g} % → deficit {_q(data['deficit_ml'], 'mL')}"
-    )
-    if data["free_water_deficit_ml"] is not None:
-        print(f"  Free water    {_q(data['free_water_deficit_ml'], 'mL')}")
-    fl = data["fluid"]
-    print(
-        f"  Fluid         {fl['name']} ({fl['tonicity']} in the body; Na {_q(fl['na_mmol_per_l'], 'mmol/L')}, K {_q(fl['k_mmol_per_l'], 'mmol/L')})"
-    )
-    print(f"  Route         {data['route'].upper()}, {DEVICE_WORDS[data['device']]}")
-    print(f"  First 24 h    {_q(data['total_ml_first_24h'], 'mL')}")
-    print("\nPhases")
-    for p in data["phases"]:
-        span = f"h {p['start_h']:g}–{p['end_h']:g}"
-        if p["mode"] == "continuous":
-            extra = f" = {_q(p['drops_per_min'], 'drops/min')}" if p.get("drops_per_min") else ""
-            print(
-                f"  {p['kind']:14} {span:14} {_q(p['rate_ml_per_h'], 'mL/h')}{extra}  total {_q(p['volume_ml'], 'mL')}"
-            )
-        else:
-            print(
-                f"  {p['kind']:14} {span:14} {_q(p['dose_ml'], 'mL')} every {p['interval_h']:g} h ×{p['doses']}"
-                f" in {p['sites_per_dose']} site(s)  total {_q(p['volume_ml'], 'mL')}"
-            )
+    m, fl = data["maintenance"], data["fluid"]
+    rows = [
+        ("Maintenance", f"{_q(m['ml_per_day'], 'mL/day')} ({_q(m['ml_per_h'], 'mL/h')}) — "
+                        f"{m['method']}: {m['formula']}"),
+        ("Dehydration", f"{data['dehydration_percent']:g} % → deficit "
+                        f"{_q(data['deficit_ml'], 'mL')}"),
+        ("Free water", _q(data["free_water_deficit_ml"], "mL")
+         if data["free_water_deficit_ml"] is not None else None),
+        ("Fluid", f"{fl['name']} ({fl['tonicity']} in the body; Na "
+                  f"{_q(fl['na_mmol_per_l'], 'mmol/L')}, K {_q(fl['k_mmol_per_l'], 'mmol/L')})"),
+        ("Route", f"{data['route'].upper()}, {DEVICE_WORDS[data['device']]}"),
+        ("First 24 h", _q(data["total_ml_first_24h"], "mL")),
+    ]  # fmt: skip
     if "potassium" in data:
         k = data["potassium"]
-        print(
-            f"\nPotassium     add {_q(k['kcl_mmol_per_l'], 'mmol/L')} KCl ({k['added_by']}) → {_q(k['mmol_per_kg_per_h'], 'mmol/kg/h')} (ceiling {_q(k['ceiling_mmol_per_kg_per_h'], 'mmol/kg/h')})"
-        )
+        rows.append(("Potassium", f"add {_q(k['kcl_mmol_per_l'], 'mmol/L')} KCl "
+                     f"({k['added_by']}) → "
+                     f"{_q(k['mmol_per_kg_per_h'], 'mmol/kg/h')} "
+                     f"(ceiling {_q(k['ceiling_mmol_per_kg_per_h'], 'mmol/kg/h')})"))  # fmt: skip
     if "sodium" in data:
         s = data["sodium"]
-        print(
-            f"Sodium        ΔNa {_q(s['delta_na_per_l'], 'mmol/L')} per litre; fastest rate {_q(s['max_rate_ml_per_h'], 'mL/h')}"
-        )
+        rows.append(("Sodium", f"ΔNa {_q(s['delta_na_per_l'], 'mmol/L')} per litre; fastest rate "
+                     f"{_q(s['max_rate_ml_per_h'], 'mL/h')}"))  # fmt: skip
+    print(f"Fluid plan — {data['species_name']}, {_q(data['weight_kg'], 'kg')}")
+    for label, text in rows:
+        if text is not None:
+            print(f"  {label:13} {text}")
+    print("\nPhases")
+    for p in data["phases"]:
+        print(_phase_line(p))
     print("\nSchedule")
     for e in data["schedule"]:
-        print(f"  {e['clock'] or ('h ' + format(e['hour'], 'g')):>12}  {e['action']}")
+        when = e["clock"] or f"h {e['hour']:g}"
+        print(f"  {when:>12}  {e['action']}")
     print("\nFindings")
-    for f in data["findings"] or [
-        {"severity": "info", "code": "NONE", "message": "none", "action": ""}
-    ]:
+    for f in data["findings"]:
         print(f"  [{f['severity'].upper():4}] {f['code']}: {f['message']} {f['action']}".rstrip())
+    if not data["findings"]:
+        print("  none")
     memory = [v for v in data["provenance"] if v["basis"] == "memory"]
     print(f"\nSpecies values used ({len(memory)} recalled from memory, marked *):")
     for v in data["provenance"]:
-        shown = _shown(v["value"])
-        print(
-            f"  {'*' if v['basis'] == 'memory' else ' '} {v['parameter']:34} {shown} {v['unit']}  {v['basis']}  source={v['source_id'] or '—'}"
-        )
+        star = "*" if v["basis"] == "memory" else " "
+        print(f"  {star}{_value_line(v['parameter'], v)[1:]}")
     print("\n" + _cautions_text())
 
 
@@ -302,11 +312,9 @@ def cmd_sodium(args: argparse.Namespace) -> int:
     tbw = table.value(args.species, "total_body_water_fraction")
     comp = fluids.composition(fluids.fluid(args.fluid))
     change = electrolytes.sodium_change_per_litre(
-        serum_na=args.serum_na,
-        infusate_na=comp.na_mmol_per_l,
-        infusate_k=comp.k_mmol_per_l,
-        tbw_l=tbw.number * weight,
-    )
+        serum_na=args.serum_na, infusate_na=comp.na_mmol_per_l,
+        infusate_k=comp.k_mmol_per_l, tbw_l=tbw.number * weight,
+    )  # fmt: skip
     max_change = args.max_na_change or limit("sodium_max_correction_mmol_per_l_h").value
     data = {
         "species_id": args.species,
@@ -350,6 +358,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     except VetfluidError as exc:
         sys.stderr.write(f"vetfluid-cli: {exc.one_line()}\n")
         return EXIT_INPUT
+    except BrokenPipeError:
+        # the reader (e.g. `head`) closed the pipe: stop quietly, as Unix tools do
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return EXIT_OK
 
 
 if __name__ == "__main__":

@@ -495,6 +495,9 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
 
     budget = _water_budget(ledger, request)
     safety.check_urine(ledger, usg=request.usg, budget=budget)
+    safety.check_budget_against_maintenance(
+        ledger, budget=budget, maintenance_ml_per_day=maint.ml_per_day
+    )
     safety.check_overload(
         ledger, cardiac=request.cardiac_disease, renal=request.renal_disease, weight_kg=w,
         deficit_ml=deficit, replace_hours=request.replace_hours, background_ml_per_h=background,

@@ -253,6 +253,27 @@ def check_urine(ledger: Ledger, *, usg: float | None, budget: WaterBudget | None
         )
 
 
+def check_budget_against_maintenance(
+    ledger: Ledger, *, budget: WaterBudget | None, maintenance_ml_per_day: float
+) -> None:
+    """Say so when the species' maintenance rate is below the water the budget says is needed.
+
+    This happens when the kidney's ceiling has fallen (isosthenuria: the same solute
+    load needs more urine) or when a per-kg maintenance rate does not fit a very
+    small, fast-metabolising patient.
+    """
+    if budget is None or budget.minimum_ml <= maintenance_ml_per_day:
+        return
+    ledger.add(
+        "info",
+        "MAINTENANCE_BELOW_WATER_BUDGET",
+        f"Maintenance {q(maintenance_ml_per_day, 'mL/day')} is below the estimated minimum "
+        f"water need of {q(budget.minimum_ml, 'mL/day')} (urine water at "
+        f"{q(budget.ceiling_mosm_per_kg, 'mOsm/kg')}: {q(budget.obligatory_urine_ml, 'mL/day')}).",
+        "Measure urine output and add it as ongoing losses; weigh often.",
+    )
+
+
 def check_overload(
     ledger: Ledger,
     *,
