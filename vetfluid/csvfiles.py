@@ -13,9 +13,13 @@ from vetfluid.errors import SpeciesDataError
 
 
 def read_rows(path: Path, required_columns: tuple[str, ...]) -> list[tuple[str, dict[str, str]]]:
-    """Rows of a CSV with their ``file:line``; blank rows skipped, missing columns an error."""
+    """Rows of a CSV with their ``file:line``; blank rows skipped.
+
+    Missing columns, rows with too many or too few fields and text that is not
+    UTF-8 are errors (a byte-order mark, as spreadsheets write, is accepted).
+    """
     try:
-        with path.open(newline="", encoding="utf-8") as handle:
+        with path.open(newline="", encoding="utf-8-sig") as handle:
             reader = csv.DictReader(handle)
             header = reader.fieldnames or []
             missing = [c for c in required_columns if c not in header]
@@ -27,10 +31,18 @@ def read_rows(path: Path, required_columns: tuple[str, ...]) -> list[tuple[str, 
                 )
             rows = []
             for row in reader:
-                cleaned = {k: (v or "").strip() for k, v in row.items() if k is not None}
-                if not any(cleaned.values()):
-                    continue
-                rows.append((f"{path.name}:{reader.line_num}", cleaned))
+                location = f"{path.name}:{reader.line_num}"
+                if None in row or any(v is None for v in row.values()):
+                    if not any((v or "").strip() for v in row.values() if isinstance(v, str)):
+                        continue
+                    raise SpeciesDataError(
+                        "wrong number of fields",
+                        location=location,
+                        fix=f"give {len(header)} fields; quote a note that holds a comma",
+                    )
+                cleaned = {k: v.strip() for k, v in row.items()}
+                if any(cleaned.values()):
+                    rows.append((location, cleaned))
             return rows
     except UnicodeDecodeError as exc:
         raise SpeciesDataError(

@@ -23,7 +23,6 @@ The CSVs are read with the ``csv`` module (not pandas) so the CLI starts fast.
 
 from __future__ import annotations
 
-import csv
 import math
 import re
 from collections.abc import Mapping
@@ -33,6 +32,8 @@ from pathlib import Path
 from types import MappingProxyType
 
 from vetfluid import paths
+from vetfluid.checks import require_number
+from vetfluid.csvfiles import read_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.formatting import format_quantity
 from vetfluid.units import molar_mass_g_per_mol
@@ -82,12 +83,7 @@ def _check_id(value: str, name: str) -> None:
 
 
 def _check_number(value: float, name: str, *, positive: bool) -> float:
-    if isinstance(value, bool) or not isinstance(value, int | float):
-        raise InputError("must be a number", field=name, value=value)
-    if not math.isfinite(value) or value < 0 or (positive and value == 0):
-        bound = "more than zero" if positive else "zero or more"
-        raise InputError(f"must be a finite number {bound}", field=name, value=value)
-    return float(value)
+    return require_number(value, name, low=0, positive=positive)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -417,36 +413,7 @@ def _csv_file(folder: Path | None, name: str) -> Path:
 
 
 def _read_rows(path: Path, columns: tuple[str, ...]) -> list[tuple[str, dict[str, str]]]:
-    """Rows of a CSV as (``file:line``, stripped values), checking the header and row widths."""
-    try:
-        return _read_checked(path, columns)
-    except UnicodeDecodeError as exc:
-        raise SpeciesDataError(
-            "file is not UTF-8 text", location=f"{path.name}:1", fix="save the file as UTF-8"
-        ) from exc
-
-
-def _read_checked(path: Path, columns: tuple[str, ...]) -> list[tuple[str, dict[str, str]]]:
-    with path.open(encoding="utf-8-sig", newline="") as handle:
-        reader = csv.DictReader(handle)
-        header = reader.fieldnames or []
-        missing = [column for column in columns if column not in header]
-        if missing:
-            raise SpeciesDataError(
-                f"missing column(s) {', '.join(missing)}",
-                location=f"{path.name}:1",
-                fix=f"the header must hold: {','.join(columns)}",
-            )
-        rows = []
-        for row in reader:
-            location = f"{path.name}:{reader.line_num}"
-            if None in row or any(value is None for value in row.values()):
-                raise SpeciesDataError(
-                    "wrong number of fields",
-                    location=location,
-                    fix=f"give {len(header)} fields; quote a note that holds a comma",
-                )
-            rows.append((location, {key: value.strip() for key, value in row.items()}))
+    rows = read_rows(path, columns)
     if not rows:
         raise SpeciesDataError("no rows", location=f"{path.name}:1", fix="add at least one row")
     return rows
