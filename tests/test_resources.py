@@ -1,0 +1,72 @@
+"""The wheel ships species_data/ and icons/, and the locator finds them when installed."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import zipfile
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def test_wheel_carries_the_data_and_finds_it_when_installed(tmp_path):
+    out = tmp_path / "dist"
+    subprocess.run(
+        [sys.executable, "-m", "pip", "wheel", "--no-deps", "--no-build-isolation", "-q",
+         "-w", str(out), str(ROOT)],
+        check=True, capture_output=True,
+    )  # fmt: skip
+    wheel = next(out.glob("vetfluid-*.whl"))
+    names = set(zipfile.ZipFile(wheel).namelist())
+    for shipped in (ROOT / "species_data").glob("*.csv"):
+        assert f"vetfluid/_resources/species_data/{shipped.name}" in names
+    assert "vetfluid/_resources/icons/vetfluid.svg" in names
+    assert "ui/app.py" in names
+
+    target = tmp_path / "site"
+    subprocess.run(
+        [sys.executable, "-m", "pip", "install", "--no-deps", "-q", "--target", str(target),
+         str(wheel)],
+        check=True, capture_output=True,
+    )  # fmt: skip
+    probe = (
+        f"import sys; sys.path.insert(0, {str(target)!r}); "
+        "from vetfluid.paths import resource_dir; from vetfluid.species import load_table; "
+        "print(resource_dir('species_data')); print(len(load_table().species_ids()))"
+    )
+    result = subprocess.run(
+        [sys.executable, "-c", probe], capture_output=True, text=True, check=True, cwd=tmp_path
+    )
+    located, count = result.stdout.split()
+    assert Path(located).is_relative_to(target)
+    assert int(count) >= 30
+
+
+def test_checkout_locator_finds_the_top_level_folders():
+    from vetfluid.paths import resource_dir
+
+    assert resource_dir("species_data") == ROOT / "species_data"
+    assert resource_dir("icons") == ROOT / "icons"
+
+
+def test_unknown_resources_list_the_known_ones():
+    import pytest
+
+    from vetfluid.errors import InputError
+    from vetfluid.paths import resource_dir, resource_file
+
+    with pytest.raises(InputError, match="species_data, icons"):
+        resource_dir("sounds")
+    with pytest.raises(InputError, match="parameters.csv"):
+        resource_file("species_data", "parameter.csv")
+
+
+def test_vetfluid_home_replaces_the_user_data_folder(tmp_path, monkeypatch):
+    from vetfluid.paths import user_data_dir
+    from vetfluid.species import overrides_dir
+
+    monkeypatch.setenv("VETFLUID_HOME", str(tmp_path / "clinic"))
+    assert user_data_dir() == tmp_path / "clinic"
+    assert (tmp_path / "clinic").is_dir()
+    assert overrides_dir() == tmp_path / "clinic" / "overrides"
