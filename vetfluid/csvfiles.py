@@ -62,3 +62,12 @@ def parse_number(text: str, *, location: str, column: str) -> float | None:
     if number != number or number in (float("inf"), float("-inf")):
         raise SpeciesDataError(f"{column} must be finite", location=location)
     return number
+
+
+def require_choice(value: str, allowed: tuple[str, ...], *, column: str, location: str) -> str:
+    """A cell that must be one of a few words; the error lists them."""
+    if value not in allowed:
+        raise SpeciesDataError(
+            f"{column} {value!r} unknown", location=location, fix=f"use {', '.join(allowed)}"
+        )
+    return value

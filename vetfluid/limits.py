@@ -6,7 +6,7 @@ from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
 
-from vetfluid.csvfiles import parse_number, read_rows
+from vetfluid.csvfiles import parse_number, read_rows, require_choice
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.findings import SEVERITIES
 from vetfluid.paths import resource_dir
@@ -33,10 +33,8 @@ def load_limits(data_dir: Path | None = None) -> dict[str, Limit]:
     for location, row in read_rows(path, columns):
         if row["limit_id"] in limits:
             raise SpeciesDataError(f"duplicate limit {row['limit_id']!r}", location=location)
-        if row["severity"] not in SEVERITIES:
-            raise SpeciesDataError(f"severity {row['severity']!r} unknown", location=location)
-        if row["basis"] not in BASES:
-            raise SpeciesDataError(f"basis {row['basis']!r} unknown", location=location)
+        require_choice(row["severity"], SEVERITIES, column="severity", location=location)
+        require_choice(row["basis"], BASES, column="basis", location=location)
         value = parse_number(row["value"], location=location, column="value")
         if value is None:
             raise SpeciesDataError("limit has no value", location=location)

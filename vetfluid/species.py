@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 from functools import cache
 from pathlib import Path
 
-from vetfluid.csvfiles import parse_number, read_rows
+from vetfluid.csvfiles import parse_number, read_rows, require_choice
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.paths import resource_dir, user_data_dir
 
@@ -297,16 +297,10 @@ def _load_definitions(path: Path) -> dict[str, ParameterDefinition]:
         name = row["parameter"]
         if name in definitions:
             raise SpeciesDataError(f"duplicate parameter {name!r}", location=location)
-        if row["type"] not in ("number", "text", "flag"):
-            raise SpeciesDataError(
-                f"type {row['type']!r} unknown", location=location, fix="number, text or flag"
-            )
-        if row["required"] not in ("all", "ectotherm", "none"):
-            raise SpeciesDataError(
-                f"required {row['required']!r} unknown",
-                location=location,
-                fix="all, ectotherm or none",
-            )
+        require_choice(row["type"], ("number", "text", "flag"), column="type", location=location)
+        require_choice(
+            row["required"], ("all", "ectotherm", "none"), column="required", location=location
+        )
         definitions[name] = ParameterDefinition(
             name=name,
             unit=row["unit"],
@@ -336,16 +330,13 @@ def _load_species(path: Path) -> dict[str, Species]:
             raise SpeciesDataError("empty id", location=location)
         if sid in species:
             raise SpeciesDataError(f"duplicate species id {sid!r}", location=location)
-        if row["rank"] not in RANKS:
-            raise SpeciesDataError(
-                f"rank {row['rank']!r} unknown", location=location, fix="group or species"
-            )
-        if row["thermoregulation"] not in ("endotherm", "ectotherm"):
-            raise SpeciesDataError(
-                f"thermoregulation {row['thermoregulation']!r} unknown",
-                location=location,
-                fix="endotherm or ectotherm",
-            )
+        require_choice(row["rank"], RANKS, column="rank", location=location)
+        require_choice(
+            row["thermoregulation"],
+            ("endotherm", "ectotherm"),
+            column="thermoregulation",
+            location=location,
+        )
         species[sid] = Species(
             id=sid,
             rank=row["rank"],
@@ -409,11 +400,7 @@ def _parse_row(
         raise SpeciesDataError(
             f"unit {row['unit']!r} for {name} should be {definition.unit!r}", location=location
         )
-    basis = row["basis"]
-    if basis not in BASES:
-        raise SpeciesDataError(
-            f"basis {basis!r} unknown", location=location, fix="published, memory or derived"
-        )
+    basis = require_choice(row["basis"], BASES, column="basis", location=location)
     source_id = row["source_id"] or None
     if source_id is not None and source_id not in sources:
         raise SpeciesDataError(
