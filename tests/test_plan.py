@@ -275,3 +275,11 @@ def test_plans_never_hold_negative_or_nan_numbers(species, scale, percent, hours
         assert phase.end_h > phase.start_h
     assert all(math.isfinite(n) and n >= 0 for n in numbers)
     assert plan.total_ml_first_24h >= plan.maintenance.ml_per_day * 0.99 or plan.device == "divided"
+
+
+def test_replacement_fluid_for_long_maintenance_is_recognised_by_sodium():
+    # Pardo 2024: hypotonic fluids for maintenance. LRS counts as a replacement fluid even
+    # where a species' plasma (cat 310 mOsm/kg, memory) makes it read slightly hypotonic.
+    assert "ISOTONIC_FOR_MAINTENANCE" in codes(plan_for(species_id="cat", weight_kg=4))
+    half = plan_for(species_id="cat", weight_kg=4, fluid_id="nacl_0_45_dextrose_2_5")
+    assert "ISOTONIC_FOR_MAINTENANCE" not in codes(half)

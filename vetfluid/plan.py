@@ -508,8 +508,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         safety.note_neonate(ledger)
     tail = fluid_phases[-1]
     safety.check_isotonic_maintenance(
-        ledger, fluid_name=base.name, tonicity=tone, running_h=tail.end_h - main.start_h,
-        maintenance_h=tail.hours,
+        ledger, fluid_name=base.name, fluid_na=bag_comp.na_mmol_per_l,
+        running_h=tail.end_h - main.start_h, maintenance_h=tail.hours,
     )  # fmt: skip
     if deficit > 0 and res is not None:
         ledger.add(

@@ -330,23 +330,20 @@ def note_neonate(ledger: Ledger) -> None:
 
 
 def check_isotonic_maintenance(
-    ledger: Ledger,
-    *,
-    fluid_name: str,
-    tonicity: fluids.Tonicity,
-    running_h: float,
-    maintenance_h: float,
+    ledger: Ledger, *, fluid_name: str, fluid_na: float, running_h: float, maintenance_h: float
 ) -> None:
-    """An isotonic replacement fluid kept on for long maintenance (Pardo 2024)."""
-    if (
-        tonicity.effective_class == "isotonic"
-        and running_h >= limit("isotonic_maintenance_hours").value
-    ):
+    """A sodium-rich replacement fluid kept on for long maintenance (Pardo 2024).
+
+    A replacement fluid is recognised by its sodium (130–154 mmol/L), not by its
+    tonicity class, which shifts with each species' plasma osmolality.
+    """
+    replacement = fluid_na >= limit("replacement_fluid_min_na_mmol_per_l").value
+    if replacement and running_h >= limit("isotonic_maintenance_hours").value:
         ledger.add(
             "info",
             "ISOTONIC_FOR_MAINTENANCE",
-            f"{fluid_name} is an isotonic replacement fluid; this plan runs it for "
-            f"{running_h:g} h, the last {maintenance_h:g} h as maintenance.",
+            f"{fluid_name} is an isotonic replacement fluid (Na {q(fluid_na, 'mmol/L')}); this "
+            f"plan runs it for {running_h:g} h, the last {maintenance_h:g} h as maintenance.",
             "For maintenance beyond a day consider a hypotonic maintenance fluid with potassium.",
             "pardo2024",
         )
