@@ -24,8 +24,10 @@ CLI = str(Path(sys.executable).with_name("vetfluid-cli"))
 
 def test_build_plan_with_findings(benchmark):
     table = load_table()
-    request = PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12,
-                          serum_k=3.2, serum_na=160, resuscitation_boluses=1, cardiac_disease=True)  # fmt: skip
+    request = PlanRequest(
+        species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12, serum_k=3.2,
+        serum_na=160, resuscitation_boluses=1, cardiac_disease=True,
+    )  # fmt: skip
     plan = benchmark(build_plan, request, table)
     assert plan.findings
     assert benchmark.stats["median"] < 1e-3
@@ -55,8 +57,11 @@ def test_cli_plan_process_against_importing_pandas(benchmark):
     pandas_cmd = [sys.executable, "-c", "import pandas"]
     _median_seconds(plan_cmd, runs=1)  # warm the file cache for both
     _median_seconds(pandas_cmd, runs=1)
-    cli_s = benchmark.pedantic(_median_seconds, args=(plan_cmd,), rounds=1, iterations=1)
+    benchmark.pedantic(
+        subprocess.run, args=(plan_cmd,), kwargs={"check": True, "capture_output": True},
+        rounds=7, iterations=1,
+    )  # fmt: skip
+    cli_s = benchmark.stats["median"]
     pandas_s = _median_seconds(pandas_cmd)
-    benchmark.extra_info.update(cli_median_s=cli_s, import_pandas_median_s=pandas_s,
-                                ratio=cli_s / pandas_s)  # fmt: skip
+    benchmark.extra_info.update(import_pandas_median_s=pandas_s, ratio=cli_s / pandas_s)
     assert cli_s <= 1.5 * pandas_s, f"cli {cli_s:.3f}s vs import pandas {pandas_s:.3f}s"

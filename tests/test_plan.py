@@ -219,8 +219,8 @@ def test_findings_block_ready_until_soft_ones_are_acknowledged():
 
 def test_dehydration_from_findings_uses_the_published_band():
     # DiBartola 2012 Table 14-4: delayed skin return, slightly prolonged CRT → 6–8 %.
-    plan = plan_for(species_id="dog", weight_kg=10,
-                    dehydration_findings=("skin_return_delayed", "crt_slightly_prolonged"))  # fmt: skip
+    findings = ("skin_return_delayed", "crt_slightly_prolonged")
+    plan = plan_for(species_id="dog", weight_kg=10, dehydration_findings=findings)
     assert plan.dehydration_percent == 6
     assert (plan.dehydration_estimate.percent_low, plan.dehydration_estimate.percent_high) == (6, 8)
     assert "DEHYDRATION_FROM_FINDINGS" in codes(plan)

@@ -23,7 +23,7 @@ class MainWindow(QMainWindow):
         cautions.setAccessibleName("Cautions")
         status = QLabel(
             "The planning window is being built. Plans are available now from the command line: "
-            "<code>vetfluid-cli plan --species dog --weight \"20 kg\" --dehydration 7</code>"
+            '<code>vetfluid-cli plan --species dog --weight "20 kg" --dehydration 7</code>'
         )
         status.setWordWrap(True)
         for widget in (heading, cautions, status):

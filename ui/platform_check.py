@@ -65,7 +65,8 @@ def display_problem() -> str | None:
     packages = missing_packages(platform or "xcb")
     if packages:
         return (
-            "vetfluid: Qt cannot open a window because system libraries are missing. Install them with:\n"
+            "vetfluid: Qt cannot open a window because system libraries are missing. "
+            "Install them with:\n"
             f"  sudo apt-get install {' '.join(packages)}"
         )
     return None

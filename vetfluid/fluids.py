@@ -27,7 +27,7 @@ import math
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from functools import cache
+from functools import cache, lru_cache
 from pathlib import Path
 from types import MappingProxyType
 
@@ -316,6 +316,11 @@ def composition(fluid: Fluid) -> Composition:
     dextrose hydrous g/L × 3.4 kcal/g (label convention).
     """
     _check_fluid(fluid, "fluid")
+    return _composition(fluid)
+
+
+@lru_cache(maxsize=256)  # fluids are frozen; plans ask for the same few many times
+def _composition(fluid: Fluid) -> Composition:
     mmol = dict.fromkeys(ION_KEYS, 0.0)
     osmolarity = 0.0
     effective = 0.0
