@@ -50,3 +50,9 @@ def test_import_linter_contract_holds():
     lint = Path(sys.executable).with_name("lint-imports")
     out = subprocess.run([str(lint)], capture_output=True, text=True, cwd=ROOT)
     assert out.returncode == 0, out.stdout + out.stderr
+
+
+def test_ruff_finds_nothing():
+    ruff = Path(sys.executable).with_name("ruff")
+    out = subprocess.run([str(ruff), "check", "."], capture_output=True, text=True, cwd=ROOT)
+    assert out.returncode == 0, out.stdout

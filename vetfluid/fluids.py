@@ -36,15 +36,15 @@ from vetfluid.checks import require_number
 from vetfluid.csvfiles import read_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.formatting import format_quantity
+from vetfluid.species import BASES
 from vetfluid.units import molar_mass_g_per_mol
 
 KINDS = ("crystalloid", "additive_concentrate")
-BASES = ("published", "memory", "derived")
 METABOLISED = ("no", "yes", "anion_to_bicarbonate")
 TONICITY_CLASSES = ("hypotonic", "isotonic", "hypertonic")
 
 # Label convention: 3.4 kcal per g of dextrose *hydrous* (USP-labelled 5% dextrose,
-# 50 g hydrous/L, states 170 kcal/L — REFERENCE_VALUES "Fluids", status C).
+# 50 g hydrous/L, states 170 kcal/L).
 KCAL_PER_G_DEXTROSE_HYDROUS = 3.4
 GLUCOSE_FORMULA = "C6H12O6"
 DEXTROSE_HYDROUS_FORMULA = "C6H12O6.H2O"
