@@ -511,16 +511,18 @@ def load_table(data_dir: Path | None = None, *, overrides: Path | None = None) -
     return _load_cached(directory, override_dir, _stamp(override_dir))
 
 
-def _stamp(override_dir: Path) -> tuple[float, ...]:
-    """Modification times of the override files, so a saved override reloads."""
-    return tuple(
-        (override_dir / name).stat().st_mtime if (override_dir / name).exists() else 0.0
-        for name in ("parameters.csv", "sources.csv")
-    )
+def _stamp(override_dir: Path) -> tuple[tuple[int, int], ...]:
+    """Change stamps (mtime in ns, size) of the override files, so a saved override reloads."""
+    stamps = []
+    for name in ("parameters.csv", "sources.csv"):
+        path = override_dir / name
+        stat = path.stat() if path.exists() else None
+        stamps.append((stat.st_mtime_ns, stat.st_size) if stat else (0, 0))
+    return tuple(stamps)
 
 
 @cache
-def _load_cached(directory: Path, override_dir: Path, _stamp: tuple[float, ...]) -> SpeciesTable:
+def _load_cached(directory: Path, override_dir: Path, _stamp: tuple) -> SpeciesTable:
     sources = _load_sources(directory / "sources.csv")
     override_sources = override_dir / "sources.csv"
     if override_sources.exists():
