@@ -59,10 +59,9 @@ def _parser() -> argparse.ArgumentParser:
     fluids_cmd.add_argument("--json", action="store_true")
 
     plan = sub.add_parser("plan", help="build a fluid plan for one patient")
-    plan.add_argument("--species", required=True, help="species id (see `vetfluid-cli species`)")
-    plan.add_argument(
-        "--weight", required=True, help='body weight with unit, e.g. "20 kg" or "350 g"'
-    )
+    plan.add_argument("--demo", help="plan for a demo patient (see README) instead of --species")
+    plan.add_argument("--species", help="species id (see `vetfluid-cli species`)")
+    plan.add_argument("--weight", help='body weight with unit, e.g. "20 kg" or "350 g"')
     plan.add_argument("--dehydration", type=float, help="estimated dehydration, %% of body weight")
     plan.add_argument(
         "--finding", action="append", default=[], help="clinical finding id (repeatable)"
@@ -92,6 +91,8 @@ def _parser() -> argparse.ArgumentParser:
     plan.add_argument("--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v")
     plan.add_argument("--start", type=_start_time, help="clock time of hour 0, HH:MM")
     plan.add_argument("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
+    plan.add_argument("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
+    plan.add_argument("--ts", type=float, help="total solids, g/dL (recorded with the plan)")
     for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
         plan.add_argument(f"--{flag}", action="store_true", help=f"patient flag: {flag}")
     plan.add_argument("--json", action="store_true")
@@ -195,6 +196,19 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
     from vetfluid.plan import PlanRequest
     from vetfluid.units import parse_weight_kg
 
+    if args.demo:
+        from vetfluid.demos import demo
+
+        if args.species or args.weight:
+            raise InputError(
+                "--demo brings its own patient", field="demo", value=args.demo,
+                fix="drop --species/--weight, or drop --demo",
+            )  # fmt: skip
+        return demo(args.demo).request
+    for flag, value in (("--species", args.species), ("--weight", args.weight)):
+        if not value:
+            raise InputError("is required", field=flag, value=None, fix="or use --demo")
+
     device = args.device or ("gravity" if args.drop_factor is not None else None)
     return PlanRequest(
         species_id=args.species,
@@ -222,6 +236,8 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         anaesthesia=args.anaesthesia,
         neonate=args.neonate,
         max_na_change_per_h=args.max_na_change,
+        pcv_percent=args.pcv,
+        total_solids_g_per_dl=args.ts,
     )
 
 

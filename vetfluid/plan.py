@@ -74,6 +74,8 @@ class PlanRequest:
     anaesthesia: bool = False
     neonate: bool = False
     max_na_change_per_h: float | None = None
+    pcv_percent: float | None = None  # recorded with the plan; followed over the course
+    total_solids_g_per_dl: float | None = None
 
     def __post_init__(self) -> None:
         _require(self.weight_kg, "weight_kg", 1e-4, 5000, "kg")
@@ -113,6 +115,8 @@ class PlanRequest:
             ("kcl_mmol_per_l", 0, 200, "mmol/L"),
             ("max_na_change_per_h", 0.05, 5, "mmol/L/h"),
             ("body_temp_c", -5, 50, "°C"),
+            ("pcv_percent", 3, 90, "%"),
+            ("total_solids_g_per_dl", 1, 15, "g/dL"),
         ):
             value = getattr(self, name)
             if value is not None:

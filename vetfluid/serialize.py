@@ -6,11 +6,13 @@ stable and documented in README.md.
 
 from __future__ import annotations
 
-from dataclasses import asdict
+from dataclasses import asdict, fields
+from datetime import datetime
 
 from vetfluid import fluids
 from vetfluid.cautions import CAUTIONS
-from vetfluid.plan import Plan
+from vetfluid.errors import InputError
+from vetfluid.plan import Plan, PlanRequest
 from vetfluid.schedule import Phase
 from vetfluid.species import SpeciesTable, SpeciesValue
 
@@ -189,3 +191,41 @@ def fluid_dict(fluid: fluids.Fluid) -> dict[str, object]:
         kcal_per_l=comp.kcal_per_l,
     )
     return data
+
+
+REQUEST_FORMAT = "vetfluid-plan-request"
+REQUEST_VERSION = 1
+
+
+def request_to_dict(request: PlanRequest) -> dict[str, object]:
+    """A request as plain data (start time as ``HH:MM``), for saving and the CLI."""
+    data = {f.name: getattr(request, f.name) for f in fields(PlanRequest)}
+    data["dehydration_findings"] = list(request.dehydration_findings)
+    data["start_time"] = request.start_time.strftime("%H:%M") if request.start_time else None
+    return data
+
+
+def request_from_dict(data: dict[str, object]) -> PlanRequest:
+    """Rebuild a request; unknown keys and bad values raise InputError naming them."""
+    if not isinstance(data, dict):
+        raise InputError("a plan request must be a mapping", field="request", value=data)
+    known = {f.name for f in fields(PlanRequest)}
+    unknown = sorted(set(data) - known)
+    if unknown:
+        raise InputError(
+            f"unknown field(s) {', '.join(unknown)}", field="request", value=unknown,
+            fix=f"known fields: {', '.join(sorted(known))}",
+        )  # fmt: skip
+    values = dict(data)
+    start = values.get("start_time")
+    if isinstance(start, str):
+        try:
+            values["start_time"] = datetime.strptime(start, "%H:%M").time()
+        except ValueError:
+            raise InputError("start time must be HH:MM", field="start_time", value=start) from None
+    if "dehydration_findings" in values:
+        values["dehydration_findings"] = tuple(values["dehydration_findings"] or ())
+    try:
+        return PlanRequest(**values)
+    except TypeError as exc:  # a missing species_id or weight_kg
+        raise InputError(str(exc), field="request", value=sorted(values)) from None

@@ -75,6 +75,23 @@ def parse_weight_kg(text: str | float | int, *, default_unit: str | None = None)
     return kg
 
 
+WEIGHT_UNITS = ("g", "kg", "lb")
+
+
+def weight_in_unit(weight_kg: float, unit: str) -> float:
+    """A weight in kg expressed in g, kg or lb (for showing it in the unit the user chose)."""
+    if unit not in WEIGHT_UNITS:
+        raise InputError(
+            f"unknown weight unit {unit!r}", field="unit", value=unit, fix=", ".join(WEIGHT_UNITS)
+        )
+    return require_number(weight_kg, "weight_kg", low=0) / _WEIGHT_UNITS[unit]
+
+
+def preferred_weight_unit(typical_weight_kg: float) -> str:
+    """g for patients usually under 1 kg (a 65 g gerbil reads better than 0.065 kg), else kg."""
+    return "g" if typical_weight_kg < 1.0 else "kg"
+
+
 # Lab analytes: the formula whose molar mass converts mmol/L to mg/dL.
 _ANALYTE_FORMULA = {
     "glucose": "C6H12O6",
