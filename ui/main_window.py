@@ -1,33 +1,362 @@
-"""The main window. For now it shows the cautions and the species table summary;
-the planning views arrive with the window issue."""
+"""The main window: patient on the left, the plan and its checks on the right, the
+species table on its own page, the cautions always in view.
+
+pyqtgraph and the species table are built after the first paint so the window
+appears quickly.
+"""
 
 from __future__ import annotations
 
-from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QLabel, QMainWindow, QVBoxLayout, QWidget
+import json
+from pathlib import Path
 
-from vetfluid.cautions import CAUTIONS
+from PySide6.QtCore import QSettings, Qt, QTimer
+from PySide6.QtGui import QAction, QCloseEvent, QKeySequence, QTextDocument
+from PySide6.QtWidgets import (
+    QFileDialog,
+    QLabel,
+    QMainWindow,
+    QMessageBox,
+    QScrollArea,
+    QSplitter,
+    QTabWidget,
+    QVBoxLayout,
+    QWidget,
+)
+
+from ui.findings_view import FindingsView
+from ui.help_dialog import HelpDialog
+from ui.icons import icon
+from ui.patient_view import PatientView
+from ui.plan_view import PlanSettings, PlanSummary
+from ui.provenance_view import ProvenanceView
+from ui.session import PlanSession
+from vetfluid.cautions import SHORT_CAUTION
+from vetfluid.demos import DEMOS
+from vetfluid.errors import VetfluidError
+from vetfluid.formatting import format_quantity
+from vetfluid.paths import user_data_dir
+from vetfluid.serialize import REQUEST_FORMAT, REQUEST_VERSION, request_from_dict, request_to_dict
+
+FILE_FILTER = "vetfluid plan request (*.vfplan.json)"
 
 
 class MainWindow(QMainWindow):
-    def __init__(self) -> None:
+    def __init__(self, session: PlanSession | None = None) -> None:
         super().__init__()
+        self.session = session or PlanSession(parent=self)
+        self.setWindowIcon(icon("vetfluid"))
         self.setWindowTitle("vetfluid")
-        body = QWidget(self)
-        layout = QVBoxLayout(body)
-        heading = QLabel("<h2>vetfluid — fluid therapy planning across species</h2>")
-        cautions = QLabel("<br>".join(f"⚠ {c}" for c in CAUTIONS))
-        cautions.setObjectName("cautions")
-        cautions.setWordWrap(True)
-        cautions.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-        cautions.setAccessibleName("Cautions")
-        status = QLabel(
-            "The planning window is being built. Plans are available now from the command line: "
-            '<code>vetfluid-cli plan --species dog --weight "20 kg" --dehydration 7</code>'
+        self.timeline_view = None
+        self.species_view = None
+
+        body = QWidget()
+        outer = QVBoxLayout(body)
+        outer.setContentsMargins(6, 6, 6, 6)
+        self.cautions = QLabel(f"⚠ {SHORT_CAUTION} — <a href='help'>read in full (F1)</a>")
+        self.cautions.setObjectName("cautions")
+        self.cautions.setWordWrap(True)
+        self.cautions.setAccessibleName("Cautions")
+        self.cautions.linkActivated.connect(self.show_help)
+        self.cautions.setStyleSheet(
+            "QLabel#cautions { border: 1px solid palette(mid); padding: 4px; font-weight: 600; }"
         )
-        status.setWordWrap(True)
-        for widget in (heading, cautions, status):
-            layout.addWidget(widget)
-        layout.addStretch(1)
+        outer.addWidget(self.cautions)
+
+        self.pages = QTabWidget()
+        self.pages.setAccessibleName("Pages")
+        outer.addWidget(self.pages, 1)
         self.setCentralWidget(body)
-        self.resize(720, 360)
+
+        # -- the planner page -----------------------------------------------------------------
+        self.patient = PatientView(self.session)
+        self.settings_box = PlanSettings(self.session)
+        inputs = QWidget()
+        inputs_layout = QVBoxLayout(inputs)
+        inputs_layout.setContentsMargins(0, 0, 0, 0)
+        inputs_layout.addWidget(self.patient)
+        inputs_layout.addWidget(self.settings_box)
+        inputs_layout.addStretch(1)
+        scroll = QScrollArea()
+        scroll.setWidget(inputs)
+        scroll.setWidgetResizable(True)
+        scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        scroll.setMinimumWidth(440)
+        scroll.setAccessibleName("Patient and plan inputs")
+        self.summary = PlanSummary(self.session)
+        plan_page = self.summary
+
+        self.details = QTabWidget()
+        self.details.setAccessibleName("Plan details")
+        self.details.addTab(plan_page, "&Plan and schedule")
+        self.timeline_holder = QWidget()
+        QVBoxLayout(self.timeline_holder).addWidget(QLabel("Drawing the timeline…"))
+        self.details.addTab(self.timeline_holder, "&Timeline")
+        self.findings = FindingsView(self.session)
+        self.details.addTab(self.findings, "&Checks")
+        self.provenance = ProvenanceView(self.session)
+        self.details.addTab(self.provenance, "&Values used")
+
+        self.splitter = QSplitter(Qt.Orientation.Horizontal)
+        self.splitter.addWidget(scroll)
+        self.splitter.addWidget(self.details)
+        self.splitter.setStretchFactor(1, 1)
+        self.splitter.setSizes([470, 900])
+        self.pages.addTab(self.splitter, "Planner")
+        self.species_holder = QWidget()
+        QVBoxLayout(self.species_holder).addWidget(QLabel("Loading the species table…"))
+        self.pages.addTab(self.species_holder, "Species table")
+
+        self._build_menus()
+        self.session.planChanged.connect(self._plan_changed)
+        self.session.readinessChanged.connect(self._update_check_tab)
+        self.statusBar().showMessage("Choose a species and enter a weight to start.")
+        self._restore_geometry()
+        self.session.recompute()
+        QTimer.singleShot(0, self._build_after_first_paint)
+
+    # ---- building -------------------------------------------------------------------------
+    def _action(self, text: str, slot, shortcut=None, tip: str = "") -> QAction:  # noqa: ANN001
+        action = QAction(text, self)
+        if shortcut is not None:
+            action.setShortcut(QKeySequence(shortcut))
+        action.setToolTip(tip or text.replace("&", ""))
+        action.setStatusTip(tip or text.replace("&", ""))
+        action.triggered.connect(slot)
+        self.addAction(action)
+        return action
+
+    def _build_menus(self) -> None:
+        bar = self.menuBar()
+        file_menu = bar.addMenu("&File")
+        file_menu.addAction(
+            self._action("&New patient", self.new_patient, QKeySequence.StandardKey.New)
+        )
+        file_menu.addAction(
+            self._action("&Open plan request…", self.open_file, QKeySequence.StandardKey.Open)
+        )
+        file_menu.addAction(
+            self._action("&Save plan request…", self.save_file, QKeySequence.StandardKey.Save)
+        )
+        demos = file_menu.addMenu("&Demo patients")
+        for demo in DEMOS.values():
+            action = self._action(
+                demo.title, lambda _=False, d=demo.demo_id: self.open_demo(d), tip=demo.story
+            )
+            demos.addAction(action)
+        file_menu.addSeparator()
+        file_menu.addAction(
+            self._action("&Print plan…", self.print_plan, QKeySequence.StandardKey.Print)
+        )
+        file_menu.addSeparator()
+        # some desktops bind no key to the standard Quit; Ctrl+Q is what users expect
+        quit_keys = QKeySequence.keyBindings(QKeySequence.StandardKey.Quit) or [
+            QKeySequence("Ctrl+Q")
+        ]
+        quit_action = self._action("&Quit", self.close)
+        quit_action.setShortcuts(quit_keys)
+        file_menu.addAction(quit_action)
+
+        self.edit_menu = bar.addMenu("&Edit")  # undo/redo of table edits join once it is built
+        self.find_action = self._action(
+            "&Find species", self.find_species, QKeySequence.StandardKey.Find
+        )
+        self.edit_menu.addAction(self.find_action)
+
+        view = bar.addMenu("&View")
+        view.addAction(self._action("&Planner", lambda: self.pages.setCurrentIndex(0), "Ctrl+1"))
+        view.addAction(
+            self._action("&Species table", lambda: self.pages.setCurrentIndex(1), "Ctrl+2")
+        )
+
+        help_menu = bar.addMenu("&Help")
+        help_menu.addAction(
+            self._action(
+                "&Cautions and sources", self.show_help, QKeySequence.StandardKey.HelpContents
+            )
+        )
+
+    def _build_after_first_paint(self) -> None:
+        """Heavy parts (pyqtgraph, the big table) load once the window is on screen."""
+        from ui.species_view import SpeciesTableView
+        from ui.timeline_view import TimelineView
+
+        self.timeline_view = TimelineView()
+        self._swap(self.timeline_holder, self.timeline_view)
+        self.session.planChanged.connect(self._plot)
+        self._plot(self.session.plan)
+
+        self.species_view = SpeciesTableView()
+        self._swap(self.species_holder, self.species_view)
+        self.species_view.tableChanged.connect(self.session.reload_table)
+        self.edit_menu.insertActions(
+            self.find_action, [self.species_view.undo_action, self.species_view.redo_action]
+        )
+
+    def _plot(self, plan) -> None:  # noqa: ANN001 — Plan | None
+        """Draw the plan; with no valid plan the timeline is hidden behind a message."""
+        if self.timeline_view is None:
+            return
+        self.timeline_view.setEnabled(plan is not None)
+        if plan is not None:
+            self.timeline_view.set_plan(plan)
+
+    @staticmethod
+    def _swap(holder: QWidget, widget: QWidget) -> None:
+        layout = holder.layout()
+        while layout.count():
+            item = layout.takeAt(0)
+            if item.widget():
+                item.widget().deleteLater()
+        layout.setContentsMargins(0, 0, 0, 0)
+        layout.addWidget(widget)
+
+    # ---- reacting to the plan ------------------------------------------------------------------
+    def _plan_changed(self, plan) -> None:  # noqa: ANN001 — Plan | None
+        if plan is None:
+            self.setWindowTitle("vetfluid")
+            self.statusBar().showMessage(self.session.problem or "No plan yet.")
+        else:
+            weight = format_quantity(plan.request.weight_kg, "kg")
+            self.setWindowTitle(f"vetfluid — {plan.species_name}, {weight}")
+            self.statusBar().showMessage(
+                f"Plan updated: {format_quantity(plan.total_ml_first_24h, 'mL')} in the first 24 h."
+            )
+        self._update_check_tab()
+
+    def _update_check_tab(self) -> None:
+        plan = self.session.plan
+        index = self.details.indexOf(self.findings)
+        if plan is None:
+            self.details.setTabText(index, "&Checks")
+            return
+        hard = sum(f.severity == "hard" for f in plan.findings)
+        soft = sum(1 for f in self.session.blockers() if f.severity == "soft")
+        label = "&Checks"
+        if hard:
+            label += f" — {hard} hard limit{'s' if hard > 1 else ''}"
+        elif soft:
+            label += f" — {soft} to acknowledge"
+        elif self.session.ready:
+            label += " — ready"
+        self.details.setTabText(index, label)
+        severity = "hard" if hard else ("soft" if soft else "info")
+        self.details.setTabIcon(index, icon(f"severity-{severity}"))
+
+    # ---- commands ----------------------------------------------------------------------------
+    def new_patient(self) -> None:
+        self.session.replace_request(None)
+        self.patient.species_box.setFocus()
+
+    def open_demo(self, demo_id: str) -> None:
+        demo = DEMOS[demo_id]
+        self.session.replace_request(demo.request)
+        self.statusBar().showMessage(demo.story)
+
+    def find_species(self) -> None:
+        if self.pages.currentIndex() == 1 and self.species_view is not None:
+            self.species_view.filter_edit.setFocus()
+            self.species_view.filter_edit.selectAll()
+            return
+        self.pages.setCurrentIndex(0)
+        self.patient.species_box.setFocus()
+        self.patient.species_box.lineEdit().selectAll()
+
+    def save_file(self) -> None:
+        plan = self.session.plan
+        if plan is None:
+            QMessageBox.information(self, "vetfluid", "There is no valid plan to save yet.")
+            return
+        name, _ = QFileDialog.getSaveFileName(
+            self, "Save plan request", str(user_data_dir()), FILE_FILTER
+        )
+        if name:
+            self.write_request(Path(name))
+
+    def write_request(self, path: Path) -> None:
+        """Save the inputs and acknowledgements (atomically: a crash never leaves half a file)."""
+        plan = self.session.plan
+        if plan is None:
+            return
+        if not path.name.endswith(".vfplan.json"):
+            path = path.with_name(path.name + ".vfplan.json")
+        data = {
+            "format": REQUEST_FORMAT,
+            "version": REQUEST_VERSION,
+            "request": request_to_dict(plan.request),
+            "acknowledged": self.session.acknowledged,
+        }
+        temp = path.with_name(path.name + ".tmp")
+        temp.write_text(json.dumps(data, indent=2, ensure_ascii=False), encoding="utf-8")
+        temp.replace(path)
+        self.statusBar().showMessage(f"Saved {path}")
+
+    def open_file(self) -> None:
+        name, _ = QFileDialog.getOpenFileName(
+            self, "Open plan request", str(user_data_dir()), FILE_FILTER
+        )
+        if name:
+            self.read_request(Path(name))
+
+    def read_request(self, path: Path) -> bool:
+        try:
+            data = json.loads(path.read_text(encoding="utf-8"))
+            if data.get("format") != REQUEST_FORMAT:
+                raise VetfluidError(f"{path.name} is not a vetfluid plan request")
+            request = request_from_dict(data["request"])
+        except (OSError, ValueError, KeyError, VetfluidError) as exc:
+            QMessageBox.warning(self, "vetfluid", f"Could not open {path.name}:\n{exc}")
+            return False
+        self.session.replace_request(request, data.get("acknowledged") or {})
+        self.statusBar().showMessage(f"Opened {path}")
+        return True
+
+    def print_plan(self) -> None:
+        from PySide6.QtPrintSupport import QPrintDialog, QPrinter
+
+        if self.session.plan is None:
+            QMessageBox.information(self, "vetfluid", "There is no valid plan to print yet.")
+            return
+        printer = QPrinter(QPrinter.PrinterMode.HighResolution)
+        if QPrintDialog(printer, self).exec():
+            self.print_to(printer)
+
+    def print_to(self, printer) -> None:  # noqa: ANN001 — QPrinter
+        from vetfluid.sheet import plan_sheet_html
+
+        document = QTextDocument()
+        document.setHtml(
+            plan_sheet_html(
+                self.session.plan, acknowledged=self.session.acknowledged, ready=self.session.ready
+            )
+        )
+        document.print_(printer)
+
+    def show_help(self, *_: object) -> None:
+        HelpDialog(self.session.table, self).exec()
+
+    # ---- window state ------------------------------------------------------------------------
+    def _settings(self) -> QSettings:
+        return QSettings(str(user_data_dir() / "window.ini"), QSettings.Format.IniFormat)
+
+    def _restore_geometry(self) -> None:
+        settings = self._settings()
+        geometry = settings.value("geometry")
+        if geometry is not None:
+            self.restoreGeometry(geometry)
+        size = settings.value("size")
+        if size is not None and not self.isMaximized():
+            self.resize(size)  # the geometry may be clamped to a screen that has since changed
+        elif geometry is None:
+            self.resize(1360, 860)
+        splitter = settings.value("splitter")
+        if splitter is not None:
+            self.splitter.restoreState(splitter)
+
+    def closeEvent(self, event: QCloseEvent) -> None:  # noqa: N802 (Qt override)
+        settings = self._settings()
+        settings.setValue("geometry", self.saveGeometry())
+        settings.setValue("size", self.size())
+        settings.setValue("splitter", self.splitter.saveState())
+        settings.sync()
+        super().closeEvent(event)

@@ -22,7 +22,7 @@ from __future__ import annotations
 import difflib
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
-from functools import cache
+from functools import lru_cache
 from pathlib import Path
 
 from vetfluid.csvfiles import parse_number, read_rows, require_choice
@@ -521,7 +521,7 @@ def _stamp(override_dir: Path) -> tuple[tuple[int, int], ...]:
     return tuple(stamps)
 
 
-@cache
+@lru_cache(maxsize=8)  # bounded: each saved override makes a new stamp
 def _load_cached(directory: Path, override_dir: Path, _stamp: tuple) -> SpeciesTable:
     sources = _load_sources(directory / "sources.csv")
     override_sources = override_dir / "sources.csv"

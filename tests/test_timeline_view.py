@@ -1,0 +1,210 @@
+"""The timeline view draws the core's arrays, keeps its curve items, and reads out values."""
+
+from __future__ import annotations
+
+from datetime import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+from PySide6.QtCore import QPointF, Qt
+from PySide6.QtGui import QColor, QPalette
+
+from ui.timeline_view import TimelineView
+from vetfluid.formatting import format_quantity
+from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.timeline import timeline, values_at
+
+ROOT = Path(__file__).resolve().parents[1]
+DOG = PlanRequest(
+    species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12,
+    resuscitation_boluses=1, start_time=time(22, 30),
+)  # fmt: skip
+GERBIL = PlanRequest(species_id="mongolian_gerbil", weight_kg=0.07, dehydration_percent=6)
+
+
+@pytest.fixture
+def view(qtbot):
+    widget = TimelineView()
+    qtbot.addWidget(widget)
+    widget.resize(1000, 700)
+    return widget
+
+
+def curve_arrays(curve):
+    x, y = curve.getData()
+    return np.asarray(x), np.asarray(y)
+
+
+def assert_draws(view: TimelineView, tl) -> None:
+    pairs = (
+        (view.rate_curve, tl.rate_ml_per_h),
+        (view.given_curve, tl.given_ml),
+        (view.needed_curve, tl.needed_ml),
+        (view.deficit_curve, tl.remaining_deficit_ml),
+        (view.weight_curve, tl.weight_kg),
+    )
+    for curve, expected in pairs:
+        x, y = curve_arrays(curve)
+        np.testing.assert_array_equal(x, tl.hours)
+        np.testing.assert_array_equal(y, expected)
+    np.testing.assert_array_equal(curve_arrays(view.overload_curve)[1], [tl.overload_weight_kg] * 2)
+    np.testing.assert_array_equal(curve_arrays(view.baseline_curve)[1], [tl.baseline_weight_kg] * 2)
+    np.testing.assert_array_equal(curve_arrays(view.overload_curve)[0], [0, tl.end_h])
+
+
+def test_curves_hold_the_core_arrays(view):
+    plan = build_plan(DOG)
+    view.set_plan(plan)
+    tl = timeline(plan)
+    assert_draws(view, tl)
+    assert view.rate_curve.opts["stepMode"] == "right"  # rate[i] holds from hours[i] onward
+    assert "22 kg" in view.overload_text.toPlainText()
+    assert "+10 %" in view.overload_text.toPlainText()
+
+
+def test_updating_keeps_the_same_items_with_new_data(view):
+    view.set_plan(build_plan(DOG))
+    items = [list(plot.listDataItems()) for plot in view.plots]
+    curves = view.curves
+    gerbil = build_plan(GERBIL)
+    view.set_plan(gerbil)
+    assert view.curves == curves
+    assert [list(plot.listDataItems()) for plot in view.plots] == items  # nothing added, none lost
+    assert all(a is b for a, b in zip(view.curves, curves, strict=True))
+    tl = timeline(gerbil)
+    assert_draws(view, tl)
+    assert curve_arrays(view.given_curve)[1][-1] == pytest.approx(18.49, abs=0.01)
+    assert view.rate_plot.titleLabel.text.startswith("Planned rate (divided doses")
+
+
+def test_hover_read_out_at_an_hour(view):
+    plan = build_plan(DOG)
+    view.set_plan(plan)
+    view.show_hour(6.01)
+    values = values_at(timeline(plan), 6.0)
+    text = view.readout.text()
+    assert text.startswith("At 6 h, 04:30 (+1 d):")
+    for expected in (
+        format_quantity(values["rate_ml_per_h"], "mL/h"),
+        format_quantity(values["given_ml"], "mL"),
+        format_quantity(values["needed_ml"], "mL"),
+        format_quantity(values["remaining_deficit_ml"], "mL"),
+    ):
+        assert expected in text
+    assert "rate 169 mL/h" in text and "deficit left 442 mL" in text
+    assert "weight 20.96 kg" in text
+    assert all(line.value() == 6.0 and line.isVisible() for line in view.hover_lines)
+
+
+def test_hover_follows_a_scene_position(view, qtbot):
+    view.set_plan(build_plan(DOG))
+    view.show()
+    qtbot.waitExposed(view)
+    for plot in (view.volume_plot, view.weight_plot):
+        y = plot.vb.viewRange()[1][0]
+        scene_pos = plot.vb.mapViewToScene(QPointF(9.0, y + 0.5 * (plot.vb.viewRange()[1][1] - y)))
+        view.on_mouse_moved(scene_pos)
+        assert view.hover_hour == pytest.approx(9.0, abs=5 / 60 / 2 + 1e-9)
+        assert view.readout.text().startswith("At 9 h, 07:30 (+1 d):")
+    view.on_mouse_moved(QPointF(-500, -500))  # off every plot: nothing moves
+    assert view.hover_hour == pytest.approx(9.0, abs=0.05)
+
+
+def test_empty_view_says_so(view):
+    assert "No plan yet" in view.readout.text()
+    view.show_hour(3)
+    assert not any(line.isVisible() for line in view.hover_lines)
+    assert view.accessibleName() == "Rehydration timeline"
+
+
+def test_no_plan_empties_the_view_and_keeps_its_items(view):
+    view.set_plan(build_plan(DOG))
+    view.show_hour(4)
+    curves = view.curves
+    view.set_plan(None)  # the session publishes None while an input is missing
+    assert view.timeline is None and view.curves == curves
+    assert all(c.getData()[0] is None or len(c.getData()[0]) == 0 for c in view.curves)
+    assert "No plan yet" in view.readout.text()
+    assert not any(line.isVisible() for line in view.hover_lines)
+    view.set_plan(build_plan(GERBIL))
+    assert_draws(view, timeline(build_plan(GERBIL)))
+
+
+def test_axes_carry_units_and_clock_time(view):
+    view.set_plan(build_plan(DOG))
+    labels = [plot.getAxis("left").labelText for plot in view.plots]
+    assert labels == ["Rate (mL/h)", "Volume (mL)", "Deficit (mL)", "Weight (kg)"]
+    bottom = view.weight_plot.getAxis("bottom")
+    assert "(h)" in bottom.labelText and "clock" in bottom.labelText
+    assert bottom.tickStrings([0, 6], 1, 6) == ["0 h\n22:30", "6 h\n04:30 (+1 d)"]
+    assert not any(plot.getAxis(n).autoSIPrefix for plot in view.plots for n in ("left", "bottom"))
+    view.set_plan(build_plan(GERBIL))
+    assert bottom.tickStrings([0, 6], 1, 6) == ["0 h", "6 h"]
+    assert "clock" not in bottom.labelText
+    left = view.weight_plot.getAxis("left")
+    assert left.tickStrings([0.07, 0.072], 1, 0.002) == ["0.07", "0.072"]  # leading zero kept
+
+
+def test_hour_ticks_fall_on_clinical_intervals(view):
+    view.set_plan(build_plan(DOG))
+    major, minor = view.hour_axis.tickSpacing(0, 24, 700)
+    assert major[0] in (2, 3, 4, 6, 8, 12) and major[0] % minor[0] == 0
+
+
+def test_plots_share_the_hour_axis(view):
+    view.set_plan(build_plan(DOG))
+    view.rate_plot.setXRange(2, 8, padding=0)
+    for plot in view.plots:
+        assert plot.vb.viewRange()[0] == pytest.approx([2, 8])
+
+
+def test_legends_name_every_curve_and_styles_differ_without_colour(view):
+    view.set_plan(build_plan(DOG))
+    named = {
+        label.text: sample.item for plot in view.plots for sample, label in plot.legend.items
+    }  # fmt: skip
+    assert set(named.values()) == set(view.curves)
+    assert {"Given", "Needed", "Overload line", "Predicted weight", "Entered weight"} <= set(named)
+    for plot in view.plots:
+        styles = [item.opts["pen"].style() for item in plot.listDataItems()]
+        assert len(set(styles)) == len(styles), "two curves in one plot differ only by colour"
+    assert view.needed_curve.opts["pen"].style() == Qt.PenStyle.DashLine
+
+
+def test_follows_a_dark_palette(view):
+    view.set_plan(build_plan(DOG))
+    palette = view.palette()
+    palette.setColor(QPalette.ColorRole.Base, QColor("#151515"))
+    palette.setColor(QPalette.ColorRole.Text, QColor("#eeeeee"))
+    view.setPalette(palette)
+    assert view.graphics.backgroundBrush().color() == QColor("#151515")
+    assert view.weight_plot.getAxis("left").textPen().color() == QColor("#eeeeee")
+
+
+def test_accessible_description_summarises_the_plan(view):
+    view.set_plan(build_plan(DOG))
+    description = view.accessibleDescription()
+    assert "2948 mL given" in description and "overload line at 22 kg" in description
+
+
+def test_renders_a_picture(view, qtbot):
+    view.set_plan(build_plan(DOG))
+    view.show()
+    qtbot.waitExposed(view)
+    view.show_hour(6)
+    picture = view.grab().toImage()
+    assert (picture.width(), picture.height()) == (1000, 700)
+    out = ROOT / "renders"
+    out.mkdir(exist_ok=True)
+    assert picture.save(str(out / "timeline_view.png"))
+    colours = {
+        picture.pixel(x, y) for x in range(0, picture.width(), 5) for y in range(0, 700, 5)
+    }  # fmt: skip
+    assert len(colours) > 20, "rendered timeline is blank"
+    # each curve colour is on screen somewhere
+    wanted = {QColor(c).rgb() & 0xFFFFFF for c in ("#3873b8", "#cf6a17", "#2e8c5a")}
+    seen = {
+        picture.pixel(x, y) & 0xFFFFFF for x in range(picture.width()) for y in range(0, 700, 2)
+    }  # fmt: skip
+    assert wanted <= seen

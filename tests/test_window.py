@@ -1,0 +1,217 @@
+"""The planning window, driven as a user would drive it (pytest-qt, offscreen)."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from PySide6.QtCore import Qt
+from PySide6.QtWidgets import QApplication
+
+from vetfluid.demos import DEMOS
+from vetfluid.formatting import format_quantity as q
+
+CLI = str(Path(sys.executable).with_name("vetfluid-cli"))
+
+
+@pytest.fixture()
+def window(qtbot):
+    from ui.main_window import MainWindow
+
+    win = MainWindow()
+    qtbot.addWidget(win)
+    win.resize(1400, 900)
+    win.show()
+    qtbot.waitUntil(lambda: win.timeline_view is not None and win.species_view is not None)
+    return win
+
+
+def wait_for_plan(qtbot, win, predicate):
+    qtbot.waitUntil(lambda: win.session.plan is not None and predicate(win.session.plan))
+    return win.session.plan
+
+
+def test_new_window_asks_for_a_species_and_shows_the_cautions(window):
+    assert window.session.plan is None
+    assert "Choose a species" in window.summary.problem.text()
+    assert "verify before giving" in window.cautions.text()
+
+
+def test_plan_a_gerbil_from_an_empty_form(qtbot, window):
+    patient = window.patient
+    line = patient.species_box.lineEdit()
+    qtbot.keyClicks(line, "gerbil")
+    popup = patient.species_box.completer().popup()
+    qtbot.waitUntil(popup.isVisible)
+    qtbot.keyClick(popup, Qt.Key.Key_Down)
+    qtbot.keyClick(popup, Qt.Key.Key_Return)
+    qtbot.waitUntil(lambda: window.session.inputs["species_id"] == "mongolian_gerbil")
+    assert patient.unit_box.currentText() == "g"  # small species default to grams
+    assert "45 g–130 g" in patient.range_label.text()
+
+    qtbot.keyClicks(patient.weight_edit, "65")
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.weight_kg == pytest.approx(0.065))
+    assert plan.device == "divided"
+    assert window.windowTitle().startswith("vetfluid — Mongolian gerbil")
+
+    patient.dehydration_field.setText("7")
+    patient.dehydration_field.commit()
+    plan = wait_for_plan(qtbot, window, lambda p: p.dehydration_percent == 7)
+    assert window.summary.values["deficit"].text().startswith("7 % → 4.55 mL")
+    first_dose = plan.phases[0].dose_ml
+    assert window.summary.schedule_model.text(0, 3).startswith(
+        f"Give {q(round(first_dose, 1), 'mL')}"
+    )
+    # the plots follow the plan
+    curves = window.timeline_view
+    assert curves is not None
+
+
+def test_typing_a_bad_weight_says_so_and_shows_no_plan(qtbot, window):
+    window.open_demo("dehydrated_dog")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
+    window.patient.weight_edit.setText("2o")
+    window.patient._weight_changed()
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    assert "cannot read" in window.summary.problem.text()
+    assert window.summary.values["first24"].text() == "—"
+
+
+def test_acknowledging_a_warning_allows_ready_and_a_hard_limit_blocks_it(qtbot, window):
+    window.open_demo("cold_bearded_dragon")
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "bearded_dragon")
+    soft = [f for f in plan.findings if f.severity == "soft"]
+    assert any(f.code == "ECTOTHERM_OUTSIDE_PREFERRED_TEMP" for f in soft)
+    findings = window.findings
+    assert not findings.ready_button.isEnabled()
+    model = findings.model
+    for row in range(model.rowCount()):
+        if model.finding(row).severity == "soft":
+            assert model.setData(model.index(row, 3), "warming lamp on, re-plan in 2 h")
+    assert findings.ready_button.isEnabled()
+    qtbot.mouseClick(findings.ready_button, Qt.MouseButton.LeftButton)
+    assert window.session.ready
+    assert "ready" in findings.status.text()
+
+    # the classic slip: 380 kg typed for a 380 g dragon
+    window.patient.unit_box.setCurrentText("kg")
+    window.patient.weight_edit.setText("380")
+    window.patient._weight_changed()
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.weight_kg == 380)
+    assert plan.has_hard_limit
+    assert not findings.ready_button.isEnabled() and not window.session.ready
+    assert "hard limit" in findings.status.text()
+    assert "hard limit" in window.details.tabText(window.details.indexOf(findings))
+
+
+def test_memory_values_are_marked_in_words(qtbot, window):
+    window.open_demo("small_gerbil")
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "mongolian_gerbil")
+    model = window.provenance.model
+    memory_rows = [r for r in range(model.rowCount()) if model.text(r, 3) == "memory — unverified"]
+    assert len(memory_rows) == len(plan.unverified_values) > 0
+    tip = model.data(model.index(memory_rows[0], 0), Qt.ItemDataRole.ToolTipRole)
+    assert "unverified" in tip
+
+
+@pytest.mark.parametrize("demo_id", list(DEMOS))
+def test_every_number_matches_the_cli(qtbot, window, demo_id):
+    window.open_demo(demo_id)
+    plan = wait_for_plan(qtbot, window, lambda p: p.request == DEMOS[demo_id].request)
+    result = subprocess.run([CLI, "plan", "--demo", demo_id, "--json"], capture_output=True,
+                            text=True)  # fmt: skip
+    assert result.returncode in (0, 3), result.stderr
+    data = json.loads(result.stdout)
+    assert window.summary.values["first24"].text() == q(data["total_ml_first_24h"], "mL")
+    m = data["maintenance"]
+    expected = f"{q(m['ml_per_day'], 'mL/day')} ({q(m['ml_per_h'], 'mL/h')})"
+    assert window.summary.values["maintenance"].text().startswith(expected)
+    assert f"→ {q(data['deficit_ml'], 'mL')}" in window.summary.values["deficit"].text()
+    shown = [window.summary.schedule_model.text(r, 3) for r in range(len(data["schedule"]))]
+    assert shown == [e["action"] for e in data["schedule"]]
+    assert window.summary.schedule_model.rowCount() == len(data["schedule"])
+    codes = {window.findings.model.finding(r).code for r in range(window.findings.model.rowCount())}
+    assert codes == {f["code"] for f in data["findings"]}
+    assert plan.has_hard_limit == data["hard_limit"]
+
+
+@pytest.mark.parametrize("demo_id", list(DEMOS))
+def test_each_view_renders_to_a_picture(qtbot, window, tmp_path, demo_id):
+    window.open_demo(demo_id)
+    wait_for_plan(qtbot, window, lambda p: p.request == DEMOS[demo_id].request)
+    for index in range(window.details.count()):
+        window.details.setCurrentIndex(index)
+        QApplication.processEvents()
+        image = window.grab().toImage()
+        assert image.save(str(tmp_path / f"{demo_id}-{index}.png"))
+        colours = {image.pixel(x, y) for x in range(0, image.width(), 13)
+                   for y in range(0, image.height(), 13)}  # fmt: skip
+        assert len(colours) > 8, f"view {index} looks blank"
+
+
+def test_save_and_open_a_plan_request(qtbot, window, tmp_path):
+    window.open_demo("renal_cat")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
+    window.session.acknowledge("OVERLOAD_RISK", "weighing every 6 h")
+    path = tmp_path / "cat.vfplan.json"
+    window.write_request(path)
+    window.new_patient()
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    assert window.read_request(path)
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
+    assert plan.request == DEMOS["renal_cat"].request
+    assert window.session.acknowledged == {"OVERLOAD_RISK": "weighing every 6 h"}
+
+
+def test_opening_a_broken_file_is_a_message_not_a_crash(qtbot, window, tmp_path, monkeypatch):
+    from PySide6.QtWidgets import QMessageBox
+
+    shown = []
+    monkeypatch.setattr(QMessageBox, "warning", lambda *args: shown.append(args[2]))
+    path = tmp_path / "broken.vfplan.json"
+    path.write_text('{"format": "vetfluid-plan-request", "request": {"species_id": "dog"}}')
+    assert not window.read_request(path)
+    assert shown and "broken.vfplan.json" in shown[0]
+
+
+def test_print_to_pdf_carries_the_cautions(qtbot, window, tmp_path):
+    from PySide6.QtPrintSupport import QPrinter
+
+    window.open_demo("dehydrated_dog")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
+    printer = QPrinter()
+    printer.setOutputFormat(QPrinter.OutputFormat.PdfFormat)
+    out = tmp_path / "plan.pdf"
+    printer.setOutputFileName(str(out))
+    window.print_to(printer)
+    assert out.stat().st_size > 1000
+
+
+def test_window_remembers_its_size(qtbot, window, vetfluid_home):
+    window.resize(1111, 777)
+    window.close()
+    assert (vetfluid_home / "window.ini").exists()
+    from ui.main_window import MainWindow
+
+    again = MainWindow()
+    qtbot.addWidget(again)
+    assert again.size().width() == 1111
+
+
+def test_help_lists_cautions_and_sources(qtbot, window):
+    from ui.help_dialog import help_html
+
+    html = help_html(window.session.table)
+    assert "Verify every volume" in html and "Hardy RM, Osborne CA" in html
+
+
+def test_standard_shortcuts_exist(window):
+    actions = [
+        a for menu in window.menuBar().findChildren(type(window.edit_menu)) for a in menu.actions()
+    ]
+    shortcuts = {a.shortcut().toString() for a in actions if not a.shortcut().isEmpty()}
+    for key in ("Ctrl+N", "Ctrl+O", "Ctrl+P", "Ctrl+Q", "Ctrl+Z", "Ctrl+F"):
+        assert key in shortcuts, key

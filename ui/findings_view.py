@@ -1,0 +1,167 @@
+"""Checks: every finding with its severity (icon and word), what to do, and for warnings
+a reason field that acknowledges it. A hard limit blocks marking the plan ready."""
+
+from __future__ import annotations
+
+from PySide6.QtCore import QAbstractTableModel, QModelIndex, QPersistentModelIndex, Qt
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QPushButton,
+    QTableView,
+    QVBoxLayout,
+    QWidget,
+)
+
+from ui.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
+from ui.session import PlanSession
+from vetfluid.findings import Finding
+
+COLUMNS = ("Severity", "Finding", "What to do", "Reason (warnings)")
+REASON_COLUMN = 3
+
+
+class FindingsModel(QAbstractTableModel):
+    """Findings of the current plan; the reason column edits the session's acknowledgements."""
+
+    def __init__(self, session: PlanSession, parent=None) -> None:
+        super().__init__(parent)
+        self.session = session
+        self._findings: list[Finding] = []
+        session.planChanged.connect(self._plan_changed)
+
+    def _plan_changed(self, plan) -> None:  # noqa: ANN001 — Plan | None
+        self.beginResetModel()
+        order = {"hard": 0, "soft": 1, "info": 2}
+        self._findings = sorted(plan.findings, key=lambda f: order[f.severity]) if plan else []
+        self.endResetModel()
+
+    def finding(self, row: int) -> Finding:
+        return self._findings[row]
+
+    def rowCount(self, parent: QModelIndex | QPersistentModelIndex = QModelIndex()) -> int:  # noqa: N802
+        return 0 if parent.isValid() else len(self._findings)
+
+    def columnCount(self, parent: QModelIndex | QPersistentModelIndex = QModelIndex()) -> int:  # noqa: N802
+        return 0 if parent.isValid() else len(COLUMNS)
+
+    def headerData(self, section, orientation, role=Qt.ItemDataRole.DisplayRole):  # noqa: N802
+        if orientation == Qt.Orientation.Horizontal and role == Qt.ItemDataRole.DisplayRole:
+            return COLUMNS[section]
+        return None
+
+    def flags(self, index):
+        base = super().flags(index)
+        if index.column() == REASON_COLUMN and self._findings[index.row()].severity == "soft":
+            return base | Qt.ItemFlag.ItemIsEditable
+        return base
+
+    def data(self, index, role=Qt.ItemDataRole.DisplayRole):
+        if not index.isValid():
+            return None
+        f = self._findings[index.row()]
+        column = index.column()
+        if role in (Qt.ItemDataRole.DisplayRole, Qt.ItemDataRole.EditRole):
+            if column == 0:
+                return SEVERITY_WORDS[f.severity]
+            if column == 1:
+                return f"{f.message}\n[{f.code}]"
+            if column == 2:
+                return f.action
+            if f.severity == "soft":
+                reason = self.session.acknowledged.get(f.code, "")
+                if role == Qt.ItemDataRole.EditRole:
+                    return reason
+                return f"✓ {reason}" if reason else "type why this is acceptable…"
+            return "blocks the plan" if f.severity == "hard" else ""
+        if role == Qt.ItemDataRole.DecorationRole and column == 0:
+            return icon(SEVERITY_ICONS[f.severity])
+        if role == Qt.ItemDataRole.ToolTipRole:
+            source = f"\nSource: {f.source_id}" if f.source_id else ""
+            return f"{SEVERITY_WORDS[f.severity]}: {f.message}\n{f.action}{source}"
+        return None
+
+    def setData(self, index, value, role=Qt.ItemDataRole.EditRole) -> bool:  # noqa: N802
+        if index.column() != REASON_COLUMN or role != Qt.ItemDataRole.EditRole:
+            return False
+        finding = self._findings[index.row()]
+        if finding.severity != "soft":
+            return False
+        self.session.acknowledge(finding.code, str(value))
+        self.dataChanged.emit(index, index)
+        return True
+
+
+class FindingsView(QWidget):
+    def __init__(self, session: PlanSession, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.session = session
+        self.setAccessibleName("Checks")
+        layout = QVBoxLayout(self)
+        self.model = FindingsModel(session, self)
+        self.table = QTableView()
+        self.table.setModel(self.model)
+        self.table.setAccessibleName("Findings")
+        self.table.setWordWrap(True)
+        self.table.verticalHeader().setVisible(False)
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setEditTriggers(
+            QAbstractItemView.EditTrigger.DoubleClicked
+            | QAbstractItemView.EditTrigger.EditKeyPressed
+            | QAbstractItemView.EditTrigger.AnyKeyPressed
+        )
+        header = self.table.horizontalHeader()
+        header.setSectionResizeMode(0, QHeaderView.ResizeMode.ResizeToContents)
+        header.setSectionResizeMode(1, QHeaderView.ResizeMode.Stretch)
+        header.setSectionResizeMode(2, QHeaderView.ResizeMode.Stretch)
+        header.setSectionResizeMode(3, QHeaderView.ResizeMode.Interactive)
+        header.resizeSection(3, 220)
+        self.table.setToolTip(
+            "Double-click or press F2 in the Reason column to acknowledge a warning"
+        )
+        layout.addWidget(self.table, 1)
+
+        row = QHBoxLayout()
+        self.status = QLabel()
+        self.status.setWordWrap(True)
+        self.status.setAccessibleName("Plan readiness")
+        self.ready_button = QPushButton("Mark plan &ready")
+        self.ready_button.setToolTip(
+            "Possible when no hard limit is hit and every warning has a reason"
+        )
+        self.ready_button.clicked.connect(self._mark_ready)
+        row.addWidget(self.status, 1)
+        row.addWidget(self.ready_button)
+        layout.addLayout(row)
+        session.readinessChanged.connect(self._show_readiness)
+        self.model.modelReset.connect(self.table.resizeRowsToContents)
+        self._show_readiness()
+
+    def _mark_ready(self) -> None:
+        # a slot must not hand a value back to Qt: session.mark_ready returns a bool
+        self.session.mark_ready()
+
+    def _show_readiness(self) -> None:
+        blockers = self.session.blockers()
+        plan = self.session.plan
+        self.ready_button.setEnabled(plan is not None and not blockers and not self.session.ready)
+        if plan is None:
+            text = "No plan yet."
+        elif self.session.ready:
+            text = "✓ Plan marked ready. Verify every volume and rate before giving it."
+        elif blockers:
+            hard = [f for f in blockers if f.severity == "hard"]
+            soft = [f for f in blockers if f.severity == "soft"]
+            parts = []
+            if hard:
+                parts.append(f"✖ {len(hard)} hard limit(s) block this plan: "
+                             + ", ".join(f.code for f in hard))  # fmt: skip
+            if soft:
+                parts.append(f"⚠ {len(soft)} warning(s) need a reason: "
+                             + ", ".join(f.code for f in soft))  # fmt: skip
+            text = "\n".join(parts)
+        else:
+            text = "Nothing blocks this plan."
+        self.status.setText(text)

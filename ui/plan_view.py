@@ -1,0 +1,392 @@
+"""The plan: its settings (phases, fluid, route, delivery, additives, start) and its results
+(totals, phases, the schedule on the clock). Every number shown comes from the core plan.
+"""
+
+from __future__ import annotations
+
+from datetime import datetime, time
+
+from PySide6.QtCore import QSignalBlocker, QTime
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QComboBox,
+    QDoubleSpinBox,
+    QFormLayout,
+    QGridLayout,
+    QGroupBox,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QSpinBox,
+    QTableView,
+    QTimeEdit,
+    QVBoxLayout,
+    QWidget,
+)
+
+from ui.patient_view import NumberField, buddy_label, compact
+from ui.rows_model import Cell, RowsModel
+from ui.session import PlanSession
+from vetfluid import fluids
+from vetfluid.delivery import STANDARD_DROP_FACTORS
+from vetfluid.formatting import format_quantity as q
+from vetfluid.plan import Plan
+from vetfluid.serialize import fluid_dict
+
+ROUTE_CHOICES = (
+    (None, "Automatic (by weight)"),
+    ("iv", "IV"),
+    ("io", "IO"),
+    ("sc", "SC"),
+    ("icoel", "Intracoelomic"),
+)
+DEVICE_CHOICES = (
+    (None, "Automatic"),
+    ("pump", "Infusion pump"),
+    ("gravity", "Gravity drip"),
+    ("syringe", "Syringe pump"),
+    ("divided", "Divided boluses"),
+)
+METHOD_CHOICES = (
+    (None, "Species default"),
+    ("linear", "Linear (mL/kg/day)"),
+    ("allometric", "Allometric (a·BW^b)"),
+    ("energy", "Energy-based (K·BW^b kcal)"),
+)
+DEVICE_WORDS = {
+    "pump": "infusion pump",
+    "gravity": "gravity drip",
+    "syringe": "syringe pump",
+    "divided": "divided boluses",
+}
+
+
+def _choice_box(choices: tuple, name: str, tooltip: str) -> QComboBox:
+    box = QComboBox()
+    for value, label in choices:
+        box.addItem(label, value)
+    box.setAccessibleName(name)
+    box.setToolTip(tooltip)
+    compact(box, 14)
+    return box
+
+
+def _select(box: QComboBox, value: object) -> None:
+    with QSignalBlocker(box):
+        box.setCurrentIndex(max(0, box.findData(value)))
+
+
+def fluid_tooltip(fluid_id: str, plan: Plan | None) -> str:
+    """Composition of a fluid and, with a plan, its tonicity against this patient's plasma."""
+    data = fluid_dict(fluids.fluid(fluid_id))
+    ions = ", ".join(
+        f"{key.capitalize()} {q(data[key], 'mmol/L')}"
+        for key in ("na", "k", "cl", "ca", "mg", "lactate", "acetate", "gluconate")
+        if data[key]
+    )
+    lines = [data["name"], ions or "no electrolytes"]
+    if data["dextrose_g_per_l"]:
+        lines.append(f"dextrose {q(data['dextrose_g_per_l'], 'g/L')}")
+    lines.append(f"calculated {q(data['osmolarity_mosm_per_l'], 'mOsm/L')}")
+    if data["basis"] == "memory":
+        lines.append("formula recalled from memory — unverified")
+    if plan is not None:
+        tone = fluids.tonicity(
+            fluids.fluid(fluid_id),
+            plasma_osmolality_mosm_per_kg=plan.tonicity.plasma_osmolality_mosm_per_kg,
+            band_fraction=plan.tonicity.band_fraction,
+        )
+        lines.append(
+            f"against this patient's plasma ({q(tone.plasma_osmolality_mosm_per_kg, 'mOsm/kg')}): "
+            f"{tone.in_vitro_class} in the bag, {tone.effective_class} in the body"
+        )
+    return "\n".join(lines)
+
+
+class PlanSettings(QGroupBox):
+    """How the plan is given: durations, fluid, route, delivery, additives, start time."""
+
+    def __init__(self, session: PlanSession, parent: QWidget | None = None):
+        super().__init__("How to give it", parent)
+        self.session = session
+        form = QFormLayout(self)
+
+        self.replace_hours = QDoubleSpinBox()
+        self.replace_hours.setRange(1, 96)
+        self.replace_hours.setDecimals(1)
+        self.replace_hours.setSuffix(" h")
+        self.replace_hours.setAccessibleName("Replace the deficit over")
+        self.replace_hours.setToolTip("Period over which the deficit is replaced (usually 12–24 h)")
+        self.replace_hours.valueChanged.connect(lambda v: session.update(replace_hours=v))
+        form.addRow("&Replace deficit over", self.replace_hours)
+
+        self.boluses = QSpinBox()
+        self.boluses.setRange(0, 10)
+        self.boluses.setAccessibleName("Resuscitation boluses")
+        self.boluses.setToolTip("Boluses to give first, each followed by reassessment")
+        self.boluses.valueChanged.connect(lambda v: session.update(resuscitation_boluses=v))
+        form.addRow("Resuscitation &boluses", self.boluses)
+
+        self.method = _choice_box(
+            METHOD_CHOICES, "Maintenance method", "How maintenance is estimated"
+        )
+        self.method.activated.connect(
+            lambda _: session.update(maintenance_method=self.method.currentData())
+        )
+        form.addRow("&Maintenance method", self.method)
+
+        self.fluid = QComboBox()
+        self.fluid.setAccessibleName("Fluid")
+        compact(self.fluid, 18)
+        for fluid in fluids.load_fluids().values():
+            if fluid.kind == "crystalloid":
+                self.fluid.addItem(fluid.name, fluid.fluid_id)
+        self.fluid.activated.connect(lambda _: session.update(fluid_id=self.fluid.currentData()))
+        form.addRow("&Fluid", self.fluid)
+
+        self.route = _choice_box(ROUTE_CHOICES, "Route", "Automatic: a line above the species' "
+                                 "line weight, divided boluses below it")  # fmt: skip
+        self.route.activated.connect(lambda _: session.update(route=self.route.currentData()))
+        form.addRow("R&oute", self.route)
+
+        self.device = _choice_box(DEVICE_CHOICES, "Delivery", "How the fluid is delivered")
+        self.device.activated.connect(self._device_changed)
+        self.drop_factor = QComboBox()
+        self.drop_factor.setEditable(True)
+        self.drop_factor.addItems([str(n) for n in STANDARD_DROP_FACTORS])
+        self.drop_factor.setAccessibleName("Drop factor, drops per mL")
+        self.drop_factor.setToolTip("Drops per mL of the giving set (printed on its packet)")
+        self.drop_factor.currentTextChanged.connect(self._drop_factor_changed)
+        row = QHBoxLayout()
+        row.addWidget(self.device, 2)
+        row.addWidget(QLabel("drops/mL"))
+        row.addWidget(self.drop_factor, 1)
+        form.addRow(buddy_label("&Delivery", self.device), row)
+
+        self.kcl_mode = _choice_box(
+            ((None, "From the serum-K scale"), ("hand", "By hand")),
+            "Potassium chloride",
+            "KCl per litre from the published serum-K scale, or entered by hand",
+        )
+        self.kcl_mode.activated.connect(self._kcl_mode_changed)
+        self.kcl = NumberField(session, "kcl_mmol_per_l", "mmol/L", "KCl to add per litre, mmol/L")
+        row = QHBoxLayout()
+        row.addWidget(self.kcl_mode, 2)
+        row.addWidget(self.kcl, 1)
+        form.addRow(buddy_label("&KCl added", self.kcl_mode), row)
+        self.dextrose = NumberField(session, "dextrose_percent", "0", "Dextrose to add, % w/v")
+        form.addRow("De&xtrose added (%)", self.dextrose)
+        self.max_na = NumberField(
+            session, "max_na_change_per_h", "0.5 (default)", "Maximum serum Na change, mmol/L/h"
+        )
+        form.addRow("Max Na change (mmol/L/h)", self.max_na)
+
+        self.start = QTimeEdit()
+        self.start.setDisplayFormat("HH:mm")
+        self.start.setAccessibleName("Start time")
+        self.start.setToolTip("Clock time of hour 0 of the plan")
+        self.start.timeChanged.connect(self._start_changed)
+        form.addRow("&Start at", self.start)
+
+        session.inputsReplaced.connect(self.load_inputs)
+        session.planChanged.connect(self._plan_changed)
+        self.load_inputs()
+
+    def load_inputs(self, *_: object) -> None:
+        inputs = self.session.inputs
+        with QSignalBlocker(self.replace_hours):
+            self.replace_hours.setValue(inputs["replace_hours"])
+        with QSignalBlocker(self.boluses):
+            self.boluses.setValue(inputs["resuscitation_boluses"])
+        _select(self.method, inputs["maintenance_method"])
+        _select(self.fluid, inputs["fluid_id"])
+        _select(self.route, inputs["route"])
+        _select(self.device, inputs["device"])
+        with QSignalBlocker(self.drop_factor):
+            self.drop_factor.setCurrentText(format_drop(inputs["drop_factor"]))
+        self.drop_factor.setEnabled(inputs["device"] == "gravity")
+        by_hand = inputs["kcl_mmol_per_l"] is not None
+        _select(self.kcl_mode, "hand" if by_hand else None)
+        self.kcl.show_value(inputs["kcl_mmol_per_l"])
+        self.kcl.setEnabled(by_hand)
+        self.dextrose.show_value(inputs["dextrose_percent"] or None)
+        self.max_na.show_value(inputs["max_na_change_per_h"])
+        start = inputs["start_time"]
+        if start is None:
+            now = datetime.now()
+            start = time(now.hour, now.minute - now.minute % 5)
+            self.session.update(start_time=start)
+        with QSignalBlocker(self.start):
+            self.start.setTime(QTime(start.hour, start.minute))
+
+    def _device_changed(self, _: int) -> None:
+        device = self.device.currentData()
+        self.drop_factor.setEnabled(device == "gravity")
+        changes = {"device": device}
+        if device == "gravity":
+            changes["drop_factor"] = float(self.drop_factor.currentText() or 20)
+        self.session.update(**changes)
+
+    def _drop_factor_changed(self, text: str) -> None:
+        try:
+            value = float(text)
+        except ValueError:
+            self.session.set_field_error("drop_factor", f"Drop factor {text!r} is not a number")
+            return
+        self.session.update(drop_factor=value)
+
+    def _kcl_mode_changed(self, _: int) -> None:
+        by_hand = self.kcl_mode.currentData() == "hand"
+        self.kcl.setEnabled(by_hand)
+        if by_hand:
+            self.kcl.setFocus()
+            self.kcl.commit()
+        else:
+            self.kcl.show_value(None)
+            self.session.update(kcl_mmol_per_l=None)
+
+    def _start_changed(self, value: QTime) -> None:
+        self.session.update(start_time=time(value.hour(), value.minute()))
+
+    def _plan_changed(self, plan: Plan | None) -> None:
+        for i in range(self.fluid.count()):
+            self.fluid.setItemData(i, fluid_tooltip(self.fluid.itemData(i), plan), 3)  # ToolTipRole
+        self.fluid.setToolTip(fluid_tooltip(self.fluid.currentData(), plan))
+
+
+def format_drop(value: float | None) -> str:
+    return "20" if value is None else f"{value:g}"
+
+
+class PlanSummary(QWidget):
+    """Totals, phases and the schedule of the current plan."""
+
+    def __init__(self, session: PlanSession, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.session = session
+        layout = QVBoxLayout(self)
+        self.problem = QLabel()
+        self.problem.setObjectName("problem")
+        self.problem.setWordWrap(True)
+        self.problem.setAccessibleName("Input problem")
+        layout.addWidget(self.problem)
+
+        totals = QGroupBox("Totals")
+        self.grid = QGridLayout(totals)
+        self.values: dict[str, QLabel] = {}
+        for row, (key, label) in enumerate(
+            (
+                ("maintenance", "Maintenance"),
+                ("deficit", "Deficit"),
+                ("first24", "First 24 h"),
+                ("fluid", "Fluid"),
+                ("route", "Route"),
+                ("potassium", "Potassium"),
+                ("sodium", "Sodium"),
+            )
+        ):
+            name = QLabel(f"<b>{label}</b>")
+            value = QLabel("—")
+            value.setWordWrap(True)
+            value.setAccessibleName(label)
+            value.setObjectName(f"total_{key}")
+            self.grid.addWidget(name, row, 0)
+            self.grid.addWidget(value, row, 1)
+            self.values[key] = value
+        self.grid.setColumnStretch(1, 1)
+        layout.addWidget(totals)
+
+        self.phases_model = RowsModel(["Phase", "Hours", "Rate or dose", "Volume", "Route"])
+        self.phases_view = self._table(self.phases_model, "Phases")
+        layout.addWidget(QLabel("<b>Phases</b>"))
+        layout.addWidget(self.phases_view, 1)
+        self.schedule_model = RowsModel(["Clock", "Hour", "Phase", "What to do"])
+        self.schedule_view = self._table(self.schedule_model, "Schedule")
+        layout.addWidget(QLabel("<b>Schedule</b>"))
+        layout.addWidget(self.schedule_view, 2)
+
+        session.planChanged.connect(self.show_plan)
+        session.problemChanged.connect(self._show_problem)
+        self._show_problem(session.problem)
+
+    @staticmethod
+    def _table(model: RowsModel, name: str) -> QTableView:
+        view = QTableView()
+        view.setModel(model)
+        view.setAccessibleName(name)
+        view.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        view.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        view.setWordWrap(True)
+        view.verticalHeader().setVisible(False)
+        view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        view.horizontalHeader().setStretchLastSection(True)
+        return view
+
+    def _show_problem(self, problem: str) -> None:
+        self.problem.setText(f"⚠ {problem}" if problem else "")
+        self.problem.setVisible(bool(problem))
+
+    def show_plan(self, plan: Plan | None) -> None:
+        if plan is None:
+            for label in self.values.values():
+                label.setText("—")
+            self.phases_model.set_rows([])
+            self.schedule_model.set_rows([])
+            return
+        m = plan.maintenance
+        self.values["maintenance"].setText(
+            f"{q(m.ml_per_day, 'mL/day')} ({q(m.ml_per_h, 'mL/h')}) — {m.method}: {m.formula}"
+        )
+        deficit = f"{plan.dehydration_percent:g} % → {q(plan.deficit_ml, 'mL')}"
+        if plan.free_water_deficit_ml is not None:
+            deficit += f"; free-water deficit {q(plan.free_water_deficit_ml, 'mL')}"
+        self.values["deficit"].setText(deficit)
+        self.values["first24"].setText(q(plan.total_ml_first_24h, "mL"))
+        self.values["fluid"].setText(
+            f"{plan.fluid_name} — Na {q(plan.fluid_na_mmol_per_l, 'mmol/L')}, "
+            f"K {q(plan.fluid_k_mmol_per_l, 'mmol/L')}; {plan.tonicity.effective_class} in the body"
+        )
+        self.values["route"].setText(f"{plan.route.upper()}, {DEVICE_WORDS[plan.device]}")
+        k = plan.potassium
+        self.values["potassium"].setText(
+            f"{q(k.kcl_mmol_per_l, 'mmol/L')} KCl added ({k.added_by}); "
+            f"{q(k.peak_mmol_per_kg_per_h, 'mmol/kg/h')} at the fastest rate "
+            f"(ceiling {q(k.ceiling_mmol_per_kg_per_h, 'mmol/kg/h')})"
+            if k
+            else "no serum K entered, no KCl added"
+        )
+        na = plan.sodium
+        self.values["sodium"].setText(
+            f"ΔNa {q(na.delta_na_per_l, 'mmol/L')} per litre; fastest rate within "
+            f"{q(na.max_change_per_h, 'mmol/L/h')}: "
+            + (q(na.max_rate_ml_per_h, "mL/h") if na.max_rate_ml_per_h else "no limit")
+            if na
+            else "no serum Na entered"
+        )
+        self.phases_model.set_rows([_phase_row(p) for p in plan.phases])
+        self.schedule_model.set_rows(
+            [
+                [Cell(e.clock or "—"), Cell(f"{e.hour:g}"), Cell(e.phase), Cell(e.action)]
+                for e in plan.schedule
+            ]
+        )
+        self.schedule_view.resizeRowsToContents()
+
+
+def _phase_row(p) -> list[Cell]:  # noqa: ANN001 — vetfluid.schedule.Phase
+    if p.mode == "continuous":
+        dose = q(p.rate_ml_per_h or 0.0, "mL/h")
+        if p.drops_per_min is not None:
+            dose += f" = {q(p.drops_per_min, 'drops/min')}"
+    else:
+        dose = (
+            f"{q(p.dose_ml or 0.0, 'mL')} every {p.interval_h:g} h × {p.doses}, "
+            f"{p.sites_per_dose} site(s)"
+        )
+    return [
+        Cell(p.kind, p.note),
+        Cell(f"{p.start_h:g}–{p.end_h:g}"),
+        Cell(dose),
+        Cell(q(p.volume_ml, "mL")),
+        Cell(p.route.upper()),
+    ]

@@ -1,0 +1,113 @@
+"""Values used: every species value the plan rests on, with its basis and source.
+
+Values recalled from memory carry a marker icon *and* the words "memory —
+unverified"; the tooltip gives the citation or says the value is unverified.
+"""
+
+from __future__ import annotations
+
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QHeaderView,
+    QLabel,
+    QTableView,
+    QVBoxLayout,
+    QWidget,
+)
+
+from ui.icons import BASIS_ICONS, BASIS_WORDS, icon
+from ui.rows_model import Cell, RowsModel
+from ui.session import PlanSession
+from vetfluid.formatting import format_number
+from vetfluid.species import SpeciesTable, SpeciesValue
+
+
+def basis_key(value: SpeciesValue) -> str:
+    """The marker to show: a clinic override outranks the basis of what it replaced."""
+    return "override" if value.origin == "override" else value.basis
+
+
+def shown_value(value: SpeciesValue) -> str:
+    if isinstance(value.value, bool):
+        return "yes" if value.value else "no"
+    if isinstance(value.value, float):
+        text = format_number(value.value)
+        if value.low is not None and value.high is not None:
+            text += f" ({format_number(value.low)}–{format_number(value.high)})"
+        return text
+    return str(value.value)
+
+
+def provenance_tooltip(value: SpeciesValue, table: SpeciesTable) -> str:
+    origin = {
+        "shipped": "shipped with vetfluid",
+        "inherited": f"inherited from {value.defined_on}",
+        "override": "clinic override",
+    }[value.origin]
+    if value.source_id and value.source_id in table.sources:
+        source = table.sources[value.source_id].citation
+    else:
+        source = "no source on record"
+    lines = [f"{value.parameter}: {shown_value(value)} {value.unit}", f"Origin: {origin}"]
+    if value.unverified:
+        lines.append("Recalled from memory — unverified, not checked against a publication.")
+        if value.source_id:
+            lines.append(f"Believed to come from: {source}")
+    else:
+        lines.append(f"Source: {source}")
+    if value.note:
+        lines.append(value.note)
+    return "\n".join(lines)
+
+
+class ProvenanceView(QWidget):
+    def __init__(self, session: PlanSession, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.session = session
+        self.setAccessibleName("Values used")
+        layout = QVBoxLayout(self)
+        self.summary = QLabel()
+        self.summary.setWordWrap(True)
+        layout.addWidget(self.summary)
+        self.model = RowsModel(["Value", "Amount", "Unit", "Basis", "Origin", "Source"])
+        self.table = QTableView()
+        self.table.setModel(self.model)
+        self.table.setAccessibleName("Species values used by the plan")
+        self.table.verticalHeader().setVisible(False)
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        header = self.table.horizontalHeader()
+        header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        header.setStretchLastSection(True)
+        layout.addWidget(self.table, 1)
+        session.planChanged.connect(self.show_plan)
+
+    def show_plan(self, plan) -> None:  # noqa: ANN001 — Plan | None
+        if plan is None:
+            self.model.set_rows([])
+            self.summary.setText("No plan yet.")
+            return
+        table = self.session.table
+        rows = []
+        for value in plan.provenance:
+            key = basis_key(value)
+            tip = provenance_tooltip(value, table)
+            rows.append(
+                [
+                    Cell(value.parameter, tip),
+                    Cell(shown_value(value), tip),
+                    Cell(value.unit, tip),
+                    Cell(BASIS_WORDS[key], tip, icon(BASIS_ICONS[key])),
+                    Cell(
+                        value.origin if value.origin != "inherited" else f"from {value.defined_on}",
+                        tip,
+                    ),
+                    Cell(value.source_id or "—", tip),
+                ]
+            )
+        self.model.set_rows(rows)
+        memory = len(plan.unverified_values)
+        self.summary.setText(
+            f"This plan uses {len(plan.provenance)} species values; {memory} of them were recalled "
+            "from memory and are marked “memory — unverified”. Hover a row for its source."
+        )

@@ -1,0 +1,156 @@
+"""The one composition point of the window: the current inputs, the current plan.
+
+Views write what the user entered into the session; the session rebuilds the
+request and the plan once per event-loop turn (edits are coalesced with a
+zero-delay single-shot timer) and tells every view. No clinical arithmetic
+happens here: the plan comes from :func:`vetfluid.plan.build_plan`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import MISSING, fields
+from typing import Any
+
+from PySide6.QtCore import QObject, QTimer, Signal
+
+from vetfluid.errors import VetfluidError
+from vetfluid.findings import Finding
+from vetfluid.plan import Plan, PlanRequest, build_plan
+from vetfluid.species import SpeciesTable, load_table
+
+REQUEST_FIELDS = frozenset(f.name for f in fields(PlanRequest))
+# A new patient: nothing chosen yet (no silent default species or weight).
+BLANK_INPUTS: dict[str, Any] = {
+    f.name: (None if f.default is MISSING else f.default) for f in fields(PlanRequest)
+}
+
+
+class PlanSession(QObject):
+    """Holds the inputs, the plan built from them and the acknowledged warnings."""
+
+    #: the new plan, or None while an input is invalid
+    planChanged = Signal(object)
+    #: a one-line message about the inputs ("" when all is well)
+    problemChanged = Signal(str)
+    #: the inputs were replaced as a whole (new patient, demo, file): views reload
+    inputsReplaced = Signal(object)
+    #: acknowledgements or readiness changed
+    readinessChanged = Signal()
+
+    def __init__(self, request: PlanRequest | None = None, parent: QObject | None = None):
+        super().__init__(parent)
+        self._inputs: dict[str, Any] = (
+            {f: getattr(request, f) for f in REQUEST_FIELDS} if request else dict(BLANK_INPUTS)
+        )
+        self._field_errors: dict[str, str] = {}
+        self._acknowledged: dict[str, str] = {}
+        self._ready = False
+        self.plan: Plan | None = None
+        self.problem = ""
+        self.table: SpeciesTable = load_table()
+        self._timer = QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(0)
+        self._timer.timeout.connect(self.recompute)
+
+    # ---- inputs ----------------------------------------------------------------------------
+    @property
+    def inputs(self) -> dict[str, Any]:
+        return dict(self._inputs)
+
+    def update(self, **changes: Any) -> None:
+        """Change some inputs; the plan is rebuilt on the next event-loop turn."""
+        unknown = set(changes) - REQUEST_FIELDS
+        if unknown:
+            raise KeyError(f"not a plan input: {', '.join(sorted(unknown))}")
+        for name in changes:
+            self._field_errors.pop(name, None)
+        self._inputs.update(changes)
+        self._schedule()
+
+    def set_field_error(self, name: str, message: str) -> None:
+        """A view could not read what the user typed; no plan until it is fixed."""
+        self._field_errors[name] = message
+        self._schedule()
+
+    def replace_request(
+        self, request: PlanRequest | None, acknowledged: dict[str, str] | None = None
+    ) -> None:
+        """A new patient (None), a demo or an opened file: everything is replaced."""
+        self._inputs = (
+            {f: getattr(request, f) for f in REQUEST_FIELDS} if request else dict(BLANK_INPUTS)
+        )
+        self._field_errors.clear()
+        self._acknowledged = dict(acknowledged or {})
+        self.inputsReplaced.emit(request)
+        self.recompute()
+
+    def reload_table(self) -> None:
+        """The species table changed (a clinic override): rebuild with the new values."""
+        self.table = load_table()
+        self._schedule()
+
+    def _schedule(self) -> None:
+        self._timer.start()
+
+    # ---- the plan --------------------------------------------------------------------------
+    def recompute(self) -> None:
+        """Build the request and the plan now (normally called by the coalescing timer)."""
+        self._timer.stop()
+        self._ready = False
+        if self._field_errors:
+            self._publish(None, next(iter(self._field_errors.values())))
+            return
+        if not self._inputs.get("species_id"):
+            self._publish(None, "Choose a species to start a plan.")
+            return
+        if self._inputs.get("weight_kg") is None:
+            self._publish(None, "Enter the body weight with its unit.")
+            return
+        try:
+            request = PlanRequest(**self._inputs)
+            plan = build_plan(request, self.table)
+        except VetfluidError as exc:
+            self._publish(None, exc.one_line())
+            return
+        self._publish(plan, "")
+
+    def _publish(self, plan: Plan | None, problem: str) -> None:
+        self.plan = plan
+        if problem != self.problem:
+            self.problem = problem
+            self.problemChanged.emit(problem)
+        self.planChanged.emit(plan)
+        self.readinessChanged.emit()
+
+    @property
+    def request(self) -> PlanRequest | None:
+        return self.plan.request if self.plan else None
+
+    # ---- acknowledgements and readiness ---------------------------------------------------
+    @property
+    def acknowledged(self) -> dict[str, str]:
+        return dict(self._acknowledged)
+
+    def acknowledge(self, code: str, reason: str) -> None:
+        """Record why a soft finding is accepted (an empty reason withdraws it)."""
+        if reason.strip():
+            self._acknowledged[code] = reason.strip()
+        else:
+            self._acknowledged.pop(code, None)
+        self._ready = False
+        self.readinessChanged.emit()
+
+    def blockers(self) -> list[Finding]:
+        """What stops the plan being marked ready (all hard findings, unacknowledged soft)."""
+        return self.plan.unacknowledged(self._acknowledged) if self.plan else []
+
+    def mark_ready(self) -> bool:
+        """Mark the plan ready if nothing blocks it; returns whether it is ready."""
+        self._ready = self.plan is not None and not self.blockers()
+        self.readinessChanged.emit()
+        return self._ready
+
+    @property
+    def ready(self) -> bool:
+        return self._ready

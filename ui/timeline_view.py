@@ -1,0 +1,389 @@
+"""Draws :mod:`vetfluid.timeline`: four stacked plots sharing the hour axis.
+
+From top to bottom: the planned rate (mL/h, a step), cumulative volume given
+against the volume needed (mL), the deficit still to replace (mL), and the
+predicted body weight (kg) with the overload line. Every number drawn or written
+comes from the core (:func:`vetfluid.timeline.timeline`, :func:`values_at`,
+:func:`tick_labels`, :func:`vetfluid.formatting.format_quantity`); this module
+only places it on screen.
+
+Each curve is created once in ``__init__`` and updated with ``setData``. Curves
+differ in line style as well as colour (solid, dashed, dotted, dash-dot) so they
+read without colour vision; the colours are mid-tone so they hold on light and
+dark palettes.
+"""
+
+from __future__ import annotations
+
+from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
+from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
+from PySide6.QtWidgets import QLabel, QSizePolicy, QVBoxLayout, QWidget
+
+import pyqtgraph as pg  # isort: skip  (after PySide6, so pyqtgraph binds to it)
+
+from vetfluid.formatting import format_number, format_quantity
+from vetfluid.plan import Plan
+from vetfluid.schedule import clock_time
+from vetfluid.timeline import Timeline, tick_labels, timeline, values_at
+
+# Our own palette: mid-tone hues legible on a white and on a near-black background.
+RATE_COLOUR = "#3873b8"  # azure
+GIVEN_COLOUR = "#3873b8"
+NEEDED_COLOUR = "#cf6a17"  # burnt orange
+DEFICIT_COLOUR = "#9c4f96"  # plum
+WEIGHT_COLOUR = "#2e8c5a"  # pine green
+OVERLOAD_COLOUR = "#cf3f38"  # brick red
+NEUTRAL_COLOUR = "#8c8c8c"  # entered weight, hover line
+
+LEFT_AXIS_WIDTH = 74  # px, the same on every plot so the hour axes line up
+LEGEND_WIDTH = 150  # px, legends sit beside the plots, never over the curves
+X_MARGIN_FRACTION = 0.01  # a sliver either side so a step at hour 0 clears the axis
+HOUR_STEPS = (0.25, 0.5, 1.0, 2.0, 3.0, 4.0, 6.0, 8.0, 12.0, 24.0, 48.0)
+EDGE_TEXT_PX = 40  # tick text may run this far past either end of the hour axis
+TICK_PX_HOURS = 55.0  # room for "12 h"
+TICK_PX_CLOCK = 110.0  # room for "04:30 (+1 d)" under it
+RATE_TITLE = "Planned rate"
+RATE_TITLE_DIVIDED = "Planned rate (divided doses shown spread over their interval)"
+EMPTY_READOUT = "No plan yet: the timeline appears once a plan is built."
+
+_configured = False
+
+
+def configure_pyqtgraph() -> None:
+    """Set pyqtgraph's global options once per process (antialiased lines)."""
+    global _configured
+    if not _configured:
+        pg.setConfigOptions(antialias=True)
+        _configured = True
+
+
+def _pen(colour: str, *, width: float = 2.0, style: Qt.PenStyle = Qt.PenStyle.SolidLine):
+    pen = pg.mkPen(colour, width=width, style=style)
+    pen.setCosmetic(True)
+    return pen
+
+
+def _brush(colour: str, alpha: int):
+    c = QColor(colour)
+    c.setAlpha(alpha)
+    return pg.mkBrush(c)
+
+
+class SafeNumberAxis(pg.AxisItem):
+    """A value axis whose tick text follows the safe-number rules (0.5, never .5 or 5.0)."""
+
+    def tickStrings(self, values, scale, spacing):  # noqa: N802 (Qt override)
+        places = _places(spacing * scale)
+        return [format_number(v * scale, decimals=places) for v in values]
+
+
+def _places(spacing: float) -> int:
+    """Decimals that show a tick spacing (1 → 0, 0.25 → 2, 0.002 → 3)."""
+    text = f"{spacing:.8f}".rstrip("0")
+    return min(8, len(text.split(".")[1])) if "." in text else 0
+
+
+class HourClockAxis(pg.AxisItem):
+    """The hour axis: ticks on whole clinical intervals (1, 2, 3, 4, 6, 12 h …), each
+    labelled in hours, and with the clock time beneath when the plan has a start time."""
+
+    def __init__(self) -> None:
+        super().__init__("bottom")
+        self.timeline: Timeline | None = None
+        self.setStyle(maxTextLevel=0, autoExpandTextSpace=True)
+
+    def tickSpacing(self, minVal, maxVal, size):  # noqa: N802, N803 (Qt override)
+        span = abs(maxVal - minVal)
+        if span == 0 or size <= 0:
+            return []
+        clock = self.timeline is not None and self.timeline.start_time is not None
+        fit = max(1.0, size / (TICK_PX_CLOCK if clock else TICK_PX_HOURS))
+        major = next((s for s in HOUR_STEPS if span / s <= fit), HOUR_STEPS[-1])
+        minor = next((s for s in reversed(HOUR_STEPS) if s < major and major % s == 0), major / 2)
+        return [(major, 0.0), (minor, 0.0)]
+
+    def tickStrings(self, values, scale, spacing):  # noqa: N802 (Qt override)
+        if self.timeline is None:
+            return [format_quantity(v, "h") for v in values]
+        return list(tick_labels(self.timeline, values))
+
+    def _two_row_height(self) -> int:
+        """Ticks, two lines of tick text and the axis label, with a little air between."""
+        line = QFontMetricsF(self.style["tickFont"] or QFont()).lineSpacing()
+        label = self.label.boundingRect().height()
+        return int(
+            self.style["tickLength"] + self.style["tickTextOffset"][1] + 2 * line + label + 4
+        )
+
+    def boundingRect(self):  # noqa: N802 (Qt override)
+        """Leave room for the first and last tick text to run past the plot's edges."""
+        return super().boundingRect().adjusted(-EDGE_TEXT_PX, 0, EDGE_TEXT_PX, 0)
+
+    def set_timeline(self, tl: Timeline) -> None:
+        two_rows = tl.start_time is not None
+        changed = (self.timeline is None) or ((self.timeline.start_time is not None) != two_rows)
+        self.timeline = tl
+        if changed:
+            self.setLabel(
+                "Time from start (h), clock time below" if two_rows else "Time from start (h)"
+            )
+            self.setHeight(self._two_row_height() if two_rows else None)
+        self.picture = None
+        self.update()
+
+
+class LineSample(pg.ItemSample):
+    """Legend sample showing a curve's line style (dash pattern) without its fill."""
+
+    WIDTH = 34
+
+    def __init__(self, item) -> None:
+        super().__init__(item)
+        self.setFixedWidth(self.WIDTH)
+
+    def boundingRect(self):  # noqa: N802 (Qt override)
+        return QRectF(0, 0, self.WIDTH, 20)
+
+    def paint(self, p, *args) -> None:
+        if not self.item.isVisible():
+            super().paint(p, *args)  # pyqtgraph's hidden-curve eye
+            return
+        p.setRenderHint(QPainter.RenderHint.Antialiasing)
+        p.setPen(pg.mkPen(self.item.opts["pen"]))
+        p.drawLine(QPointF(1, 11), QPointF(self.WIDTH - 1, 11))
+
+
+class TimelineView(QWidget):
+    """The rehydration timeline of one plan, with a hover read-out."""
+
+    def __init__(self, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        configure_pyqtgraph()
+        self.setObjectName("timelineView")
+        self.setAccessibleName("Rehydration timeline")
+        self.setAccessibleDescription(EMPTY_READOUT)
+        self.timeline: Timeline | None = None
+        self.hover_hour: float | None = None
+
+        self.readout = QLabel(EMPTY_READOUT, self)
+        self.readout.setObjectName("timelineReadout")
+        self.readout.setAccessibleName("Timeline values at the pointer")
+        self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.readout.setSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Fixed)
+        self.readout.setContentsMargins(LEFT_AXIS_WIDTH, 4, 4, 4)
+
+        self.graphics = pg.GraphicsLayoutWidget(self)
+        self.graphics.setAccessibleName("Timeline plots")
+        self.graphics.ci.layout.setColumnFixedWidth(1, LEGEND_WIDTH)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(0, 0, 0, 0)
+        layout.setSpacing(0)
+        layout.addWidget(self.readout)
+        layout.addWidget(self.graphics, 1)
+
+        self.hour_axis = HourClockAxis()
+        self.rate_plot = self._add_plot(0, RATE_TITLE, "Rate (mL/h)")
+        self.volume_plot = self._add_plot(1, "Cumulative volume", "Volume (mL)")
+        self.deficit_plot = self._add_plot(2, "Deficit still to replace", "Deficit (mL)")
+        self.weight_plot = self._add_plot(3, "Predicted body weight", "Weight (kg)", self.hour_axis)
+        self.plots = (self.rate_plot, self.volume_plot, self.deficit_plot, self.weight_plot)
+        for plot in self.plots[1:]:
+            plot.setXLink(self.rate_plot)
+
+        dash, dot = Qt.PenStyle.DashLine, Qt.PenStyle.DotLine
+        self.rate_curve = self.rate_plot.plot(
+            name="Planned rate", pen=_pen(RATE_COLOUR, width=2.5),
+            stepMode="right", fillLevel=0.0, brush=_brush(RATE_COLOUR, 50),
+        )  # fmt: skip
+        self.given_curve = self.volume_plot.plot(name="Given", pen=_pen(GIVEN_COLOUR, width=2.5))
+        self.needed_curve = self.volume_plot.plot(
+            name="Needed", pen=_pen(NEEDED_COLOUR, width=2.0, style=dash)
+        )
+        self.deficit_curve = self.deficit_plot.plot(
+            name="Deficit left", pen=_pen(DEFICIT_COLOUR, width=2.5),
+            fillLevel=0.0, brush=_brush(DEFICIT_COLOUR, 45),
+        )  # fmt: skip
+        self.weight_curve = self.weight_plot.plot(
+            name="Predicted weight", pen=_pen(WEIGHT_COLOUR, width=2.5)
+        )
+        self.overload_curve = self.weight_plot.plot(
+            name="Overload line",
+            pen=_pen(OVERLOAD_COLOUR, width=2.0, style=Qt.PenStyle.DashDotLine),
+        )
+        self.baseline_curve = self.weight_plot.plot(
+            name="Entered weight", pen=_pen(NEUTRAL_COLOUR, width=1.5, style=dot)
+        )
+        self.curves = (
+            self.rate_curve, self.given_curve, self.needed_curve, self.deficit_curve,
+            self.weight_curve, self.overload_curve, self.baseline_curve,
+        )  # fmt: skip
+        for plot in self.plots:
+            self._pin_legend(plot.legend)
+        self.overload_text = pg.TextItem("", color=OVERLOAD_COLOUR, anchor=(1.0, 1.0))
+        self.weight_plot.addItem(self.overload_text, ignoreBounds=True)
+
+        hover_pen = _pen(NEUTRAL_COLOUR, width=1.0, style=dash)
+        self.hover_lines = tuple(pg.InfiniteLine(angle=90, pen=hover_pen) for _ in self.plots)
+        for plot, line in zip(self.plots, self.hover_lines, strict=True):
+            line.setVisible(False)
+            plot.addItem(line, ignoreBounds=True)
+        self.graphics.scene().sigMouseMoved.connect(self.on_mouse_moved)
+        self._apply_palette()
+
+    # ---- building ---------------------------------------------------------------------------
+    def _add_plot(self, row: int, title: str, y_label: str, bottom: pg.AxisItem | None = None):
+        axes = {"left": SafeNumberAxis("left")}
+        if bottom is not None:
+            axes["bottom"] = bottom
+        plot = self.graphics.addPlot(row=row, col=0, title=title, axisItems=axes)
+        plot.setLabel("left", y_label)
+        for name in ("left", "bottom"):
+            plot.getAxis(name).enableAutoSIPrefix(False)  # never "(x0.001)" on a dose axis
+        plot.getAxis("left").setWidth(LEFT_AXIS_WIDTH)
+        plot.showGrid(x=True, y=True, alpha=0.2)
+        plot.setMouseEnabled(x=True, y=False)
+        plot.setMenuEnabled(False)
+        plot.hideButtons()
+        if bottom is None:
+            plot.getAxis("bottom").setStyle(showValues=False)
+        legend = pg.LegendItem(labelTextSize="9pt", sampleType=LineSample, frame=False)
+        self.graphics.addItem(legend, row=row, col=1)
+        plot.legend = legend  # plot.plot(name=…) enters each curve in it
+        return plot
+
+    def _pin_legend(self, legend: pg.LegendItem) -> None:
+        """Keep a legend its own height, at the top of its cell (no spread-out rows)."""
+        legend.updateSize()
+        legend.setMaximumHeight(legend.height())
+        self.graphics.ci.layout.setAlignment(
+            legend, Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft
+        )
+
+    def _apply_palette(self) -> None:
+        """Plot background and text from the widget's palette (light or dark)."""
+        palette = self.palette()
+        base = palette.color(QPalette.ColorRole.Base)
+        text = palette.color(QPalette.ColorRole.Text)
+        self.graphics.setBackground(base)
+        for plot in self.plots:
+            for name in ("left", "bottom"):
+                axis = plot.getAxis(name)
+                axis.setPen(text)
+                axis.setTextPen(text)
+            plot.setTitle(plot.titleLabel.text, color=text.name(), size="9pt")
+            plot.legend.setLabelTextColor(text)
+            for _sample, label in plot.legend.items:
+                label.setText(label.text, color=text.name())
+
+    def changeEvent(self, event: QEvent) -> None:  # noqa: N802 (Qt override)
+        if event.type() == QEvent.Type.PaletteChange:
+            self._apply_palette()
+        super().changeEvent(event)
+
+    # ---- data -------------------------------------------------------------------------------
+    def set_plan(self, plan: Plan | None) -> None:
+        """Draw a plan (its timeline is computed by the core); ``None`` empties the view."""
+        if plan is None:
+            self.clear_timeline()
+        else:
+            self.set_timeline(timeline(plan))
+
+    def clear_timeline(self) -> None:
+        """No plan to draw (e.g. an input is missing): empty curves, keep the items."""
+        self.timeline = None
+        for curve in self.curves:
+            curve.setData([], [])
+        self.overload_text.setText("")
+        for line in self.hover_lines:
+            line.setVisible(False)
+        self.readout.setText(EMPTY_READOUT)
+        self.setAccessibleDescription(EMPTY_READOUT)
+
+    def set_timeline(self, tl: Timeline) -> None:
+        """Draw a timeline: every curve keeps its item and takes the new arrays."""
+        self.timeline = tl
+        hours = tl.hours
+        self.rate_curve.setData(hours, tl.rate_ml_per_h)
+        self.given_curve.setData(hours, tl.given_ml)
+        self.needed_curve.setData(hours, tl.needed_ml)
+        self.deficit_curve.setData(hours, tl.remaining_deficit_ml)
+        self.weight_curve.setData(hours, tl.weight_kg)
+        ends = [0.0, tl.end_h]
+        self.overload_curve.setData(ends, [tl.overload_weight_kg] * 2)
+        self.baseline_curve.setData(ends, [tl.baseline_weight_kg] * 2)
+        self.overload_text.setText(
+            f"overload line: +{format_number(tl.overload_gain_percent)} % = "
+            f"{_weight_text(tl.overload_weight_kg)}"
+        )
+        self.overload_text.setPos(tl.end_h, tl.overload_weight_kg)
+        self.rate_plot.setTitle(
+            RATE_TITLE_DIVIDED if tl.has_divided_doses else RATE_TITLE,
+            color=self.palette().color(QPalette.ColorRole.Text).name(), size="9pt",
+        )  # fmt: skip
+        self.hour_axis.set_timeline(tl)
+        for plot in self.plots[:3]:
+            plot.enableAutoRange(axis="y")
+        self._fit_weight_range(tl)
+        margin = X_MARGIN_FRACTION * tl.end_h
+        self.rate_plot.setLimits(xMin=-margin, xMax=tl.end_h + margin)
+        self.rate_plot.setXRange(-margin, tl.end_h + margin, padding=0.0)
+        self.setAccessibleDescription(self._summary(tl))
+        self.show_hour(self.hover_hour if self.hover_hour is not None else 0.0)
+
+    def _fit_weight_range(self, tl: Timeline) -> None:
+        """Show the weight, the entered weight and the overload line, with room for its label."""
+        low = min(float(tl.weight_kg.min()), tl.baseline_weight_kg)
+        high = max(float(tl.weight_kg.max()), tl.overload_weight_kg)
+        span = high - low
+        self.weight_plot.setYRange(low - 0.08 * span, high + 0.25 * span, padding=0.0)
+
+    # ---- hover ------------------------------------------------------------------------------
+    def on_mouse_moved(self, scene_pos: QPointF) -> None:
+        """Follow the pointer: the hour under it in whichever plot it is over."""
+        for plot in self.plots:
+            if plot.vb.sceneBoundingRect().contains(scene_pos):
+                self.show_hour(plot.vb.mapSceneToView(scene_pos).x())
+                return
+
+    def show_hour(self, hour: float) -> None:
+        """Move the hover line to ``hour`` (snapped to the grid) and write the values there."""
+        if self.timeline is None:
+            return
+        values = values_at(self.timeline, hour)
+        self.hover_hour = values["hour"]
+        for line in self.hover_lines:
+            line.setPos(values["hour"])
+            line.setVisible(True)
+        self.readout.setText(self.readout_text(values))
+
+    def readout_text(self, values: dict[str, float]) -> str:
+        """The read-out line for one grid point's values."""
+        tl = self.timeline
+        when = format_quantity(values["hour"], "h")
+        clock = clock_time(tl.start_time, values["hour"]) if tl is not None else None
+        if clock:
+            when += f", {clock}"
+        return f"At {when}:  " + "  ·  ".join(
+            (
+                f"rate {format_quantity(values['rate_ml_per_h'], 'mL/h')}",
+                f"given {format_quantity(values['given_ml'], 'mL')}",
+                f"needed {format_quantity(values['needed_ml'], 'mL')}",
+                f"deficit left {format_quantity(values['remaining_deficit_ml'], 'mL')}",
+                f"weight {_weight_text(values['weight_kg'])}",
+            )
+        )
+
+    @staticmethod
+    def _summary(tl: Timeline) -> str:
+        return (
+            f"Timeline over {format_quantity(tl.end_h, 'h')}: "
+            f"{format_quantity(float(tl.given_ml[-1]), 'mL')} given in all; deficit "
+            f"{format_quantity(tl.deficit_ml, 'mL')}; predicted weight from "
+            f"{_weight_text(tl.baseline_weight_kg)} to {_weight_text(float(tl.weight_kg[-1]))}; "
+            f"overload line at {_weight_text(tl.overload_weight_kg)}."
+        )
+
+
+def _weight_text(kg: float) -> str:
+    """A weight to 0.1 g under 1 kg, to 10 g above, so hour-to-hour fluid shifts show."""
+    return format_quantity(kg, "kg", decimals=4 if abs(kg) < 1 else 2)
