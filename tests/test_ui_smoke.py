@@ -14,7 +14,8 @@ def test_cautions_banner_and_help_carry_every_caution(qtbot):
 
     window = MainWindow()
     qtbot.addWidget(window)
-    assert SHORT_CAUTION in window.cautions.text()
+    assert SHORT_CAUTION in window.cautions.text()  # on the very first paint
+    window.build_planner()
     html = help_html(window.session.table)
     for caution in CAUTIONS:
         assert escape(caution) in html

@@ -25,7 +25,12 @@ def window(qtbot):
     qtbot.addWidget(win)
     win.resize(1400, 900)
     win.show()
-    qtbot.waitUntil(lambda: win.timeline_view is not None and win.species_view is not None)
+    qtbot.waitUntil(lambda: win.session is not None)  # the planner follows the first paint
+    win.details.setCurrentWidget(win.timeline_holder)  # plots are built on first opening
+    win.pages.setCurrentIndex(1)  # so is the species table
+    win.pages.setCurrentIndex(0)
+    win.details.setCurrentIndex(0)
+    assert win.timeline_view is not None and win.species_view is not None
     return win
 
 

@@ -10,7 +10,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from PySide6.QtCore import QSettings, Qt, QTimer
+from PySide6.QtCore import QEvent, QSettings, Qt, QTimer
 from PySide6.QtGui import QAction, QCloseEvent, QKeySequence, QTextDocument
 from PySide6.QtWidgets import (
     QFileDialog,
@@ -24,31 +24,32 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from ui.findings_view import FindingsView
-from ui.help_dialog import HelpDialog
 from ui.icons import icon
-from ui.patient_view import PatientView
-from ui.plan_view import PlanSettings, PlanSummary
-from ui.provenance_view import ProvenanceView
-from ui.session import PlanSession
 from vetfluid.cautions import SHORT_CAUTION
-from vetfluid.demos import DEMOS
 from vetfluid.errors import VetfluidError
-from vetfluid.formatting import format_quantity
 from vetfluid.paths import user_data_dir
-from vetfluid.serialize import REQUEST_FORMAT, REQUEST_VERSION, request_from_dict, request_to_dict
 
 FILE_FILTER = "vetfluid plan request (*.vfplan.json)"
 
 
+def _placeholder(text: str) -> QWidget:
+    holder = QWidget()
+    QVBoxLayout(holder).addWidget(QLabel(text))
+    return holder
+
+
 class MainWindow(QMainWindow):
-    def __init__(self, session: PlanSession | None = None) -> None:
+    """Built in three steps so it appears at once: the frame (cautions, menus) paints
+    first; the planner follows on the next event-loop turn; the plots (pyqtgraph) and
+    the species table are built the first time their tab is opened."""
+
+    def __init__(self) -> None:
         super().__init__()
-        self.session = session or PlanSession(parent=self)
-        self.setWindowIcon(icon("vetfluid"))
-        self.setWindowTitle("vetfluid")
+        self.session = None  # created with the planner, right after the first paint
         self.timeline_view = None
         self.species_view = None
+        self.setWindowIcon(icon("vetfluid"))
+        self.setWindowTitle("vetfluid")
 
         body = QWidget()
         outer = QVBoxLayout(body)
@@ -62,13 +63,41 @@ class MainWindow(QMainWindow):
             "QLabel#cautions { border: 1px solid palette(mid); padding: 4px; font-weight: 600; }"
         )
         outer.addWidget(self.cautions)
-
         self.pages = QTabWidget()
         self.pages.setAccessibleName("Pages")
+        self.planner_holder = _placeholder("Opening the planner…")
+        self.species_holder = _placeholder("Opening the species table…")
+        self.pages.addTab(self.planner_holder, "Planner")
+        self.pages.addTab(self.species_holder, "Species table")
         outer.addWidget(self.pages, 1)
         self.setCentralWidget(body)
 
-        # -- the planner page -----------------------------------------------------------------
+        self._build_menus()
+        self.statusBar().showMessage("Choose a species and enter a weight to start.")
+        self._restore_geometry()
+        self._painted = False
+        self.installEventFilter(self)
+
+    def eventFilter(self, watched, event) -> bool:  # noqa: N802,ANN001 (Qt override)
+        """After the first paint, build the planner on the next event-loop turn."""
+        if watched is self and event.type() == QEvent.Type.Paint and not self._painted:
+            self._painted = True
+            self.removeEventFilter(self)
+            QTimer.singleShot(0, self.build_planner)
+        return super().eventFilter(watched, event)
+
+    def build_planner(self) -> None:
+        """The planner page: inputs on the left, results on the right (idempotent)."""
+        if self.session is not None:
+            return
+        from ui.findings_view import FindingsView
+        from ui.patient_view import PatientView
+        from ui.plan_view import PlanSettings, PlanSummary
+        from ui.provenance_view import ProvenanceView
+        from ui.session import PlanSession
+        from vetfluid.demos import DEMOS
+
+        self.session = PlanSession(parent=self)
         self.patient = PatientView(self.session)
         self.settings_box = PlanSettings(self.session)
         inputs = QWidget()
@@ -83,37 +112,39 @@ class MainWindow(QMainWindow):
         scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
         scroll.setMinimumWidth(440)
         scroll.setAccessibleName("Patient and plan inputs")
-        self.summary = PlanSummary(self.session)
-        plan_page = self.summary
 
+        self.summary = PlanSummary(self.session)
         self.details = QTabWidget()
         self.details.setAccessibleName("Plan details")
-        self.details.addTab(plan_page, "&Plan and schedule")
-        self.timeline_holder = QWidget()
-        QVBoxLayout(self.timeline_holder).addWidget(QLabel("Drawing the timeline…"))
+        self.details.addTab(self.summary, "&Plan and schedule")
+        self.timeline_holder = _placeholder("Drawing the timeline…")
         self.details.addTab(self.timeline_holder, "&Timeline")
         self.findings = FindingsView(self.session)
         self.details.addTab(self.findings, "&Checks")
         self.provenance = ProvenanceView(self.session)
         self.details.addTab(self.provenance, "&Values used")
+        self.details.currentChanged.connect(self._detail_opened)
 
         self.splitter = QSplitter(Qt.Orientation.Horizontal)
         self.splitter.addWidget(scroll)
         self.splitter.addWidget(self.details)
         self.splitter.setStretchFactor(1, 1)
         self.splitter.setSizes([470, 900])
-        self.pages.addTab(self.splitter, "Planner")
-        self.species_holder = QWidget()
-        QVBoxLayout(self.species_holder).addWidget(QLabel("Loading the species table…"))
-        self.pages.addTab(self.species_holder, "Species table")
+        splitter_state = self._settings().value("splitter")
+        if splitter_state is not None:
+            self.splitter.restoreState(splitter_state)
+        self._swap(self.planner_holder, self.splitter)
+        self.pages.currentChanged.connect(self._page_opened)
 
-        self._build_menus()
+        for demo in DEMOS.values():
+            action = self._action(
+                demo.title, lambda _=False, d=demo.demo_id: self.open_demo(d), tip=demo.story
+            )
+            self.demo_menu.addAction(action)
         self.session.planChanged.connect(self._plan_changed)
         self.session.readinessChanged.connect(self._update_check_tab)
-        self.statusBar().showMessage("Choose a species and enter a weight to start.")
-        self._restore_geometry()
         self.session.recompute()
-        QTimer.singleShot(0, self._build_after_first_paint)
+        self._page_opened(self.pages.currentIndex())
 
     # ---- building -------------------------------------------------------------------------
     def _action(self, text: str, slot, shortcut=None, tip: str = "") -> QAction:  # noqa: ANN001
@@ -138,12 +169,7 @@ class MainWindow(QMainWindow):
         file_menu.addAction(
             self._action("&Save plan request…", self.save_file, QKeySequence.StandardKey.Save)
         )
-        demos = file_menu.addMenu("&Demo patients")
-        for demo in DEMOS.values():
-            action = self._action(
-                demo.title, lambda _=False, d=demo.demo_id: self.open_demo(d), tip=demo.story
-            )
-            demos.addAction(action)
+        self.demo_menu = file_menu.addMenu("&Demo patients")  # filled with the planner
         file_menu.addSeparator()
         file_menu.addAction(
             self._action("&Print plan…", self.print_plan, QKeySequence.StandardKey.Print)
@@ -176,22 +202,27 @@ class MainWindow(QMainWindow):
             )
         )
 
-    def _build_after_first_paint(self) -> None:
-        """Heavy parts (pyqtgraph, the big table) load once the window is on screen."""
-        from ui.species_view import SpeciesTableView
-        from ui.timeline_view import TimelineView
+    def _detail_opened(self, index: int) -> None:
+        """The plots are built the first time the Timeline tab is opened (pyqtgraph is big)."""
+        if self.details.widget(index) is self.timeline_holder and self.timeline_view is None:
+            from ui.timeline_view import TimelineView
 
-        self.timeline_view = TimelineView()
-        self._swap(self.timeline_holder, self.timeline_view)
-        self.session.planChanged.connect(self._plot)
-        self._plot(self.session.plan)
+            self.timeline_view = TimelineView()
+            self._swap(self.timeline_holder, self.timeline_view)
+            self.session.planChanged.connect(self._plot)
+            self._plot(self.session.plan)
 
-        self.species_view = SpeciesTableView()
-        self._swap(self.species_holder, self.species_view)
-        self.species_view.tableChanged.connect(self.session.reload_table)
-        self.edit_menu.insertActions(
-            self.find_action, [self.species_view.undo_action, self.species_view.redo_action]
-        )
+    def _page_opened(self, index: int) -> None:
+        """The species table is built the first time its page is opened."""
+        if self.pages.widget(index) is self.species_holder and self.species_view is None:
+            from ui.species_view import SpeciesTableView
+
+            self.species_view = SpeciesTableView()
+            self._swap(self.species_holder, self.species_view)
+            self.species_view.tableChanged.connect(self.session.reload_table)
+            self.edit_menu.insertActions(
+                self.find_action, [self.species_view.undo_action, self.species_view.redo_action]
+            )
 
     def _plot(self, plan) -> None:  # noqa: ANN001 — Plan | None
         """Draw the plan; with no valid plan the timeline is hidden behind a message."""
@@ -217,6 +248,8 @@ class MainWindow(QMainWindow):
             self.setWindowTitle("vetfluid")
             self.statusBar().showMessage(self.session.problem or "No plan yet.")
         else:
+            from vetfluid.formatting import format_quantity
+
             weight = format_quantity(plan.request.weight_kg, "kg")
             self.setWindowTitle(f"vetfluid — {plan.species_name}, {weight}")
             self.statusBar().showMessage(
@@ -245,15 +278,20 @@ class MainWindow(QMainWindow):
 
     # ---- commands ----------------------------------------------------------------------------
     def new_patient(self) -> None:
+        self.build_planner()
         self.session.replace_request(None)
         self.patient.species_box.setFocus()
 
     def open_demo(self, demo_id: str) -> None:
-        demo = DEMOS[demo_id]
-        self.session.replace_request(demo.request)
-        self.statusBar().showMessage(demo.story)
+        from vetfluid.demos import demo
+
+        self.build_planner()
+        chosen = demo(demo_id)
+        self.session.replace_request(chosen.request)
+        self.statusBar().showMessage(chosen.story)
 
     def find_species(self) -> None:
+        self.build_planner()
         if self.pages.currentIndex() == 1 and self.species_view is not None:
             self.species_view.filter_edit.setFocus()
             self.species_view.filter_edit.selectAll()
@@ -263,6 +301,7 @@ class MainWindow(QMainWindow):
         self.patient.species_box.lineEdit().selectAll()
 
     def save_file(self) -> None:
+        self.build_planner()
         plan = self.session.plan
         if plan is None:
             QMessageBox.information(self, "vetfluid", "There is no valid plan to save yet.")
@@ -275,6 +314,8 @@ class MainWindow(QMainWindow):
 
     def write_request(self, path: Path) -> None:
         """Save the inputs and acknowledgements (atomically: a crash never leaves half a file)."""
+        from vetfluid.serialize import REQUEST_FORMAT, REQUEST_VERSION, request_to_dict
+
         plan = self.session.plan
         if plan is None:
             return
@@ -299,6 +340,9 @@ class MainWindow(QMainWindow):
             self.read_request(Path(name))
 
     def read_request(self, path: Path) -> bool:
+        from vetfluid.serialize import REQUEST_FORMAT, request_from_dict
+
+        self.build_planner()
         try:
             data = json.loads(path.read_text(encoding="utf-8"))
             if data.get("format") != REQUEST_FORMAT:
@@ -314,6 +358,7 @@ class MainWindow(QMainWindow):
     def print_plan(self) -> None:
         from PySide6.QtPrintSupport import QPrintDialog, QPrinter
 
+        self.build_planner()
         if self.session.plan is None:
             QMessageBox.information(self, "vetfluid", "There is no valid plan to print yet.")
             return
@@ -333,6 +378,9 @@ class MainWindow(QMainWindow):
         document.print_(printer)
 
     def show_help(self, *_: object) -> None:
+        from ui.help_dialog import HelpDialog
+
+        self.build_planner()
         HelpDialog(self.session.table, self).exec()
 
     # ---- window state ------------------------------------------------------------------------
@@ -349,14 +397,12 @@ class MainWindow(QMainWindow):
             self.resize(size)  # the geometry may be clamped to a screen that has since changed
         elif geometry is None:
             self.resize(1360, 860)
-        splitter = settings.value("splitter")
-        if splitter is not None:
-            self.splitter.restoreState(splitter)
 
     def closeEvent(self, event: QCloseEvent) -> None:  # noqa: N802 (Qt override)
         settings = self._settings()
         settings.setValue("geometry", self.saveGeometry())
         settings.setValue("size", self.size())
-        settings.setValue("splitter", self.splitter.saveState())
+        if self.session is not None:
+            settings.setValue("splitter", self.splitter.saveState())
         settings.sync()
         super().closeEvent(event)

@@ -239,6 +239,7 @@ class PatientView(QWidget):
             self.species_box.setCurrentIndex(index)
             if index < 0:
                 self.species_box.setEditText("")
+            self.species_box.lineEdit().setCursorPosition(0)  # show the start of the name
         self._show_species_context(sid)
         weight = inputs.get("weight_kg")
         if weight is not None and sid:

@@ -15,9 +15,11 @@ dark palettes.
 
 from __future__ import annotations
 
+import math
+
 from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
-from PySide6.QtWidgets import QLabel, QSizePolicy, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QGraphicsItem, QLabel, QSizePolicy, QVBoxLayout, QWidget
 
 import pyqtgraph as pg  # isort: skip  (after PySide6, so pyqtgraph binds to it)
 
@@ -47,6 +49,17 @@ RATE_TITLE_DIVIDED = "Planned rate (divided doses shown spread over their interv
 EMPTY_READOUT = "No plan yet: the timeline appears once a plan is built."
 
 _configured = False
+
+
+def nice_ceiling(value: float) -> float:
+    """The next 1, 2, 2.5 or 5 × 10^k at or above ``value`` (axis bounds that move rarely)."""
+    if value <= 0:
+        return 1.0
+    power = 10 ** math.floor(math.log10(value))
+    for factor in (1.0, 2.0, 2.5, 5.0, 10.0):
+        if value <= factor * power * (1 + 1e-9):
+            return factor * power
+    return 10.0 * power
 
 
 def configure_pyqtgraph() -> None:
@@ -122,7 +135,14 @@ class HourClockAxis(pg.AxisItem):
     def set_timeline(self, tl: Timeline) -> None:
         two_rows = tl.start_time is not None
         changed = (self.timeline is None) or ((self.timeline.start_time is not None) != two_rows)
+        same_ticks = (
+            self.timeline is not None
+            and self.timeline.start_time == tl.start_time
+            and self.timeline.end_h == tl.end_h
+        )
         self.timeline = tl
+        if same_ticks:
+            return  # the labels depend only on the start time and the span: keep the picture
         if changed:
             self.setLabel(
                 "Time from start (h), clock time below" if two_rows else "Time from start (h)"
@@ -164,6 +184,10 @@ class TimelineView(QWidget):
         self.setAccessibleDescription(EMPTY_READOUT)
         self.timeline: Timeline | None = None
         self.hover_hour: float | None = None
+        # what is on screen, so unchanged ranges and titles are not set again
+        self._y_ranges: dict[int, tuple[float, float]] = {}
+        self._x_end: float | None = None
+        self._shown_title = ""
 
         self.readout = QLabel(EMPTY_READOUT, self)
         self.readout.setObjectName("timelineReadout")
@@ -187,6 +211,10 @@ class TimelineView(QWidget):
         self.deficit_plot = self._add_plot(2, "Deficit still to replace", "Deficit (mL)")
         self.weight_plot = self._add_plot(3, "Predicted body weight", "Weight (kg)", self.hour_axis)
         self.plots = (self.rate_plot, self.volume_plot, self.deficit_plot, self.weight_plot)
+        for plot in self.plots:
+            for side in ("left", "bottom"):
+                # replaying an axis' text is most of a redraw; keep it as a pixmap instead
+                plot.getAxis(side).setCacheMode(QGraphicsItem.CacheMode.DeviceCoordinateCache)
         for plot in self.plots[1:]:
             plot.setXLink(self.rate_plot)
 
@@ -311,31 +339,51 @@ class TimelineView(QWidget):
         ends = [0.0, tl.end_h]
         self.overload_curve.setData(ends, [tl.overload_weight_kg] * 2)
         self.baseline_curve.setData(ends, [tl.baseline_weight_kg] * 2)
-        self.overload_text.setText(
+        label = (
             f"overload line: +{format_number(tl.overload_gain_percent)} % = "
             f"{_weight_text(tl.overload_weight_kg)}"
         )
+        if label != self.overload_text.toPlainText():
+            self.overload_text.setText(label)
         self.overload_text.setPos(tl.end_h, tl.overload_weight_kg)
-        self.rate_plot.setTitle(
-            RATE_TITLE_DIVIDED if tl.has_divided_doses else RATE_TITLE,
-            color=self.palette().color(QPalette.ColorRole.Text).name(), size="9pt",
-        )  # fmt: skip
+        title = RATE_TITLE_DIVIDED if tl.has_divided_doses else RATE_TITLE
+        if title != self._shown_title:
+            self._shown_title = title
+            self.rate_plot.setTitle(
+                title, color=self.palette().color(QPalette.ColorRole.Text).name(), size="9pt"
+            )
         self.hour_axis.set_timeline(tl)
-        for plot in self.plots[:3]:
-            plot.enableAutoRange(axis="y")
+        for plot, series in zip(
+            self.plots[:3], (tl.rate_ml_per_h, tl.given_ml, tl.remaining_deficit_ml), strict=True
+        ):
+            top = max(
+                float(series.max()), float(tl.needed_ml.max()) if plot is self.plots[1] else 0.0
+            )
+            self._set_y_range(plot, 0.0, nice_ceiling(top) * 1.05)
         self._fit_weight_range(tl)
         margin = X_MARGIN_FRACTION * tl.end_h
-        self.rate_plot.setLimits(xMin=-margin, xMax=tl.end_h + margin)
-        self.rate_plot.setXRange(-margin, tl.end_h + margin, padding=0.0)
+        if self._x_end != tl.end_h:
+            self._x_end = tl.end_h
+            self.rate_plot.setLimits(xMin=-margin, xMax=tl.end_h + margin)
+            self.rate_plot.setXRange(-margin, tl.end_h + margin, padding=0.0)
         self.setAccessibleDescription(self._summary(tl))
         self.show_hour(self.hover_hour if self.hover_hour is not None else 0.0)
+
+    def _set_y_range(self, plot, low: float, high: float) -> None:  # noqa: ANN001 — PlotItem
+        """Change a y range only when it really changes: an unchanged axis keeps its cached
+        tick picture, which is most of the cost of a redraw."""
+        if self._y_ranges.get(id(plot)) != (low, high):
+            self._y_ranges[id(plot)] = (low, high)
+            plot.setYRange(low, high, padding=0.0)
 
     def _fit_weight_range(self, tl: Timeline) -> None:
         """Show the weight, the entered weight and the overload line, with room for its label."""
         low = min(float(tl.weight_kg.min()), tl.baseline_weight_kg)
         high = max(float(tl.weight_kg.max()), tl.overload_weight_kg)
-        span = high - low
-        self.weight_plot.setYRange(low - 0.08 * span, high + 0.25 * span, padding=0.0)
+        step = nice_ceiling((high - low) / 4) or 1.0
+        low = math.floor(low / step) * step
+        high = math.ceil(high / step) * step
+        self._set_y_range(self.weight_plot, low - 0.5 * step, high + step)
 
     # ---- hover ------------------------------------------------------------------------------
     def on_mouse_moved(self, scene_pos: QPointF) -> None:

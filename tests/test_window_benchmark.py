@@ -1,0 +1,51 @@
+"""Window speed (skipped in the ordinary run; `python3 dev.py bench` runs them).
+
+* one edit → recompute → plots redrawn: target 8 ms median (half a frame);
+* cold start to the first paint and peak memory against a bare QMainWindow:
+  scripts/startup_benchmark.py, run here so the figures land in the benchmark report.
+"""
+
+from __future__ import annotations
+
+import itertools
+import sys
+from pathlib import Path
+
+import pytest
+from PySide6.QtWidgets import QApplication
+
+pytestmark = pytest.mark.benchmark
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def test_edit_recompute_redraw(qtbot, benchmark):
+    from ui.main_window import MainWindow
+
+    window = MainWindow()
+    qtbot.addWidget(window)
+    window.resize(1400, 900)
+    window.show()
+    qtbot.waitUntil(lambda: window.session is not None)
+    window.open_demo("dehydrated_dog")
+    window.details.setCurrentWidget(window.timeline_holder)
+    QApplication.processEvents()
+    weights = itertools.cycle([24.0, 24.5, 25.0, 23.5])
+
+    def edit() -> None:
+        window.session.update(weight_kg=next(weights))
+        window.session.recompute()  # what the coalescing timer does on the next turn
+        QApplication.processEvents()  # the views and the plots repaint
+
+    benchmark(edit)
+    benchmark.extra_info["target_median_ms"] = 8
+    assert window.session.plan is not None
+
+
+def test_cold_start_and_memory_against_a_bare_window(benchmark):
+    sys.path.insert(0, str(ROOT / "scripts"))
+    from startup_benchmark import measure
+
+    results = benchmark.pedantic(measure, args=(5,), rounds=1, iterations=1)
+    benchmark.extra_info.update(results)
+    assert results["start_ratio"] <= 1.5, results
+    assert results["memory_ratio"] <= 2.0, results
