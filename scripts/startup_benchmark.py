@@ -68,20 +68,20 @@ app.exec()
 def one_run(kind: str) -> tuple[float, int, int]:
     env = dict(os.environ, QT_QPA_PLATFORM=os.environ.get("QT_QPA_PLATFORM", "offscreen"))
     start = time.perf_counter()
-    child = subprocess.Popen(
-        [sys.executable, "-c", CHILD, kind], stdout=subprocess.PIPE, text=True, env=env
-    )
-    assert child.stdout is not None
     painted = None
     rss = rss_plots = 0
-    for line in child.stdout:
-        if line.startswith("painted") and painted is None:
-            painted = time.perf_counter() - start
-        elif line.startswith("rss_kib"):
-            rss = int(line.split()[1])
-        elif line.startswith("rss_plots_kib"):
-            rss_plots = int(line.split()[1])
-    child.wait(timeout=60)
+    with subprocess.Popen(
+        [sys.executable, "-c", CHILD, kind], stdout=subprocess.PIPE, text=True, env=env
+    ) as child:
+        assert child.stdout is not None
+        for line in child.stdout:
+            if line.startswith("painted") and painted is None:
+                painted = time.perf_counter() - start
+            elif line.startswith("rss_kib"):
+                rss = int(line.split()[1])
+            elif line.startswith("rss_plots_kib"):
+                rss_plots = int(line.split()[1])
+        child.wait(timeout=60)
     if painted is None or child.returncode != 0:
         raise RuntimeError(f"{kind} window did not paint (exit {child.returncode})")
     return painted, rss, rss_plots
