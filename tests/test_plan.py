@@ -283,3 +283,15 @@ def test_replacement_fluid_for_long_maintenance_is_recognised_by_sodium():
     assert "ISOTONIC_FOR_MAINTENANCE" in codes(plan_for(species_id="cat", weight_kg=4))
     half = plan_for(species_id="cat", weight_kg=4, fluid_id="nacl_0_45_dextrose_2_5")
     assert "ISOTONIC_FOR_MAINTENANCE" not in codes(half)
+
+
+def test_predicted_weight_above_the_overload_line_is_soft():
+    # Pardo 2024: a gain of 10 % or more over baseline marks overhydration. A 65 g gerbil
+    # 7 % dehydrated, replaced by 6-hourly SC doses of about 5 % of its weight, peaks above it.
+    gerbil = plan_for(species_id="mongolian_gerbil", weight_kg=0.065, dehydration_percent=7)
+    assert codes(gerbil)["PREDICTED_OVERLOAD"] == "soft"
+    dog = plan_for(species_id="dog", weight_kg=24, dehydration_percent=8, replace_hours=12)
+    assert "PREDICTED_OVERLOAD" not in codes(dog)
+    # eight 15 mL/kg boluses (120 mL/kg, 12 % of body weight in 2 h) do
+    boluses = plan_for(species_id="dog", weight_kg=20, resuscitation_boluses=8)
+    assert "PREDICTED_OVERLOAD" in codes(boluses)

@@ -359,7 +359,8 @@ class TimelineView(QWidget):
             top = max(
                 float(series.max()), float(tl.needed_ml.max()) if plot is self.plots[1] else 0.0
             )
-            self._set_y_range(plot, 0.0, nice_ceiling(top) * 1.05)
+            ceiling = nice_ceiling(top)
+            self._set_y_range(plot, -0.1 * ceiling, ceiling * 1.05)  # room for the 0 label
         self._fit_weight_range(tl)
         margin = X_MARGIN_FRACTION * tl.end_h
         if self._x_end != tl.end_h:

@@ -140,6 +140,36 @@ def check_rates_against_shock_dose(
             return
 
 
+def check_predicted_gain(
+    ledger: Ledger, phases: tuple[Phase, ...], *, consumption_ml_per_h: float, weight_kg: float
+) -> None:
+    """Net fluid balance (1 mL ≈ 1 g) rising above the overload line (Pardo 2024: ≥ 10 %).
+
+    Given minus consumed is piecewise linear, so its peaks lie at phase boundaries and
+    just after doses; those are the only points checked.
+    """
+    gain = limit("overload_weight_gain_fraction")
+    moments = sorted({p.start_h for p in phases} | {p.end_h for p in phases}
+                     | {h for p in phases for h in p.dose_hours()})  # fmt: skip
+    peak_ml, peak_h = 0.0, 0.0
+    for hour in moments:
+        given = sum(p.volume_between(0.0, hour + 1e-9) for p in phases)
+        net = given - consumption_ml_per_h * hour
+        if net > peak_ml:
+            peak_ml, peak_h = net, hour
+    if peak_ml / 1000.0 > gain.value * weight_kg:
+        ledger.add(
+            "soft",
+            "PREDICTED_OVERLOAD",
+            f"Predicted weight peaks at {q(weight_kg + peak_ml / 1000.0, 'kg')} at hour "
+            f"{peak_h:g}, more than {gain.value:.0%} above the entered "
+            f"{q(weight_kg, 'kg')}.",
+            "Give smaller, more frequent doses or replace the deficit more slowly; weigh before "
+            "each dose.",
+            gain.source_id,
+        )
+
+
 def check_divided_sites(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
     """Doses that need more injection sites than is practical."""
     for phase in phases:
