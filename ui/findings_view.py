@@ -136,8 +136,17 @@ class FindingsView(QWidget):
         row.addWidget(self.ready_button)
         layout.addLayout(row)
         session.readinessChanged.connect(self._show_readiness)
-        self.model.modelReset.connect(self.table.resizeRowsToContents)
+        self.model.modelReset.connect(self._fit_rows)
         self._show_readiness()
+
+    def _fit_rows(self) -> None:
+        # measuring wrapped rows is costly: only for a table someone can see
+        if self.isVisible():
+            self.table.resizeRowsToContents()
+
+    def showEvent(self, event) -> None:  # noqa: N802,ANN001 (Qt override)
+        self.table.resizeRowsToContents()
+        super().showEvent(event)
 
     def _mark_ready(self) -> None:
         # a slot must not hand a value back to Qt: session.mark_ready returns a bool

@@ -11,7 +11,7 @@ import json
 from pathlib import Path
 
 from PySide6.QtCore import QEvent, QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QCloseEvent, QKeySequence, QTextDocument
+from PySide6.QtGui import QAction, QCloseEvent, QIcon, QKeySequence, QTextDocument
 from PySide6.QtWidgets import (
     QFileDialog,
     QLabel,
@@ -258,23 +258,25 @@ class MainWindow(QMainWindow):
         self._update_check_tab()
 
     def _update_check_tab(self) -> None:
+        """The Checks tab says what needs attention, in words and by icon."""
         plan = self.session.plan
+        label, severity = "&Checks", None
+        if plan is not None:
+            hard = sum(f.severity == "hard" for f in plan.findings)
+            soft = sum(1 for f in self.session.blockers() if f.severity == "soft")
+            if hard:
+                label += f" — {hard} hard limit{'s' if hard > 1 else ''}"
+            elif soft:
+                label += f" — {soft} to acknowledge"
+            elif self.session.ready:
+                label += " — ready"
+            severity = "hard" if hard else ("soft" if soft else "info")
+        if (label, severity) == getattr(self, "_check_tab_state", None):
+            return  # relabelling a tab relays out the whole window: only when it changes
+        self._check_tab_state = (label, severity)
         index = self.details.indexOf(self.findings)
-        if plan is None:
-            self.details.setTabText(index, "&Checks")
-            return
-        hard = sum(f.severity == "hard" for f in plan.findings)
-        soft = sum(1 for f in self.session.blockers() if f.severity == "soft")
-        label = "&Checks"
-        if hard:
-            label += f" — {hard} hard limit{'s' if hard > 1 else ''}"
-        elif soft:
-            label += f" — {soft} to acknowledge"
-        elif self.session.ready:
-            label += " — ready"
         self.details.setTabText(index, label)
-        severity = "hard" if hard else ("soft" if soft else "info")
-        self.details.setTabIcon(index, icon(f"severity-{severity}"))
+        self.details.setTabIcon(index, icon(f"severity-{severity}") if severity else QIcon())
 
     # ---- commands ----------------------------------------------------------------------------
     def new_patient(self) -> None:

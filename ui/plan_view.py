@@ -370,7 +370,12 @@ class PlanSummary(QWidget):
                 for e in plan.schedule
             ]
         )
+        if self.isVisible():  # measuring wrapped rows is costly: only when on screen
+            self.schedule_view.resizeRowsToContents()
+
+    def showEvent(self, event) -> None:  # noqa: N802,ANN001 (Qt override)
         self.schedule_view.resizeRowsToContents()
+        super().showEvent(event)
 
 
 def _phase_row(p) -> list[Cell]:  # noqa: ANN001 — vetfluid.schedule.Phase

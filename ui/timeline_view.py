@@ -193,7 +193,8 @@ class TimelineView(QWidget):
         self.readout.setObjectName("timelineReadout")
         self.readout.setAccessibleName("Timeline values at the pointer")
         self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-        self.readout.setSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Fixed)
+        # Ignored width: new text must not change the size hint and relay out the window
+        self.readout.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
         self.readout.setContentsMargins(LEFT_AXIS_WIDTH, 4, 4, 4)
 
         self.graphics = pg.GraphicsLayoutWidget(self)
