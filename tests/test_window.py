@@ -75,6 +75,18 @@ def test_plan_a_gerbil_from_an_empty_form(qtbot, window):
     assert curves is not None
 
 
+def test_hidden_views_catch_up_when_shown(qtbot, window):
+    window.open_demo("dehydrated_dog")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
+    window.details.setCurrentWidget(window.findings)
+    before = window.findings.model.rowCount()
+    window.details.setCurrentIndex(0)
+    window.open_demo("cold_bearded_dragon")  # changed while Checks is hidden
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "bearded_dragon")
+    window.details.setCurrentWidget(window.findings)
+    assert window.findings.model.rowCount() == len(plan.findings) != before
+
+
 def test_typing_a_bad_weight_says_so_and_shows_no_plan(qtbot, window):
     window.open_demo("dehydrated_dog")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
@@ -91,6 +103,7 @@ def test_acknowledging_a_warning_allows_ready_and_a_hard_limit_blocks_it(qtbot, 
     soft = [f for f in plan.findings if f.severity == "soft"]
     assert any(f.code == "ECTOTHERM_OUTSIDE_PREFERRED_TEMP" for f in soft)
     findings = window.findings
+    window.details.setCurrentWidget(findings)  # the user opens the Checks tab
     assert not findings.ready_button.isEnabled()
     model = findings.model
     for row in range(model.rowCount()):
@@ -115,6 +128,7 @@ def test_acknowledging_a_warning_allows_ready_and_a_hard_limit_blocks_it(qtbot, 
 def test_memory_values_are_marked_in_words(qtbot, window):
     window.open_demo("small_gerbil")
     plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "mongolian_gerbil")
+    window.details.setCurrentWidget(window.provenance)
     model = window.provenance.model
     memory_rows = [r for r in range(model.rowCount()) if model.text(r, 3) == "memory — unverified"]
     assert len(memory_rows) == len(plan.unverified_values) > 0
@@ -138,7 +152,9 @@ def test_every_number_matches_the_cli(qtbot, window, demo_id):
     shown = [window.summary.schedule_model.text(r, 3) for r in range(len(data["schedule"]))]
     assert shown == [e["action"] for e in data["schedule"]]
     assert window.summary.schedule_model.rowCount() == len(data["schedule"])
-    codes = {window.findings.model.finding(r).code for r in range(window.findings.model.rowCount())}
+    window.details.setCurrentWidget(window.findings)  # views behind a tab update when shown
+    model = window.findings.model
+    codes = {model.finding(r).code for r in range(model.rowCount())}
     assert codes == {f["code"] for f in data["findings"]}
     assert plan.has_hard_limit == data["hard_limit"]
 

@@ -17,6 +17,7 @@ from PySide6.QtWidgets import (
 
 from ui.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
 from ui.session import PlanSession
+from ui.shown_plan import ShownPlan
 from vetfluid.findings import Finding
 
 COLUMNS = ("Severity", "Finding", "What to do", "Reason (warnings)")
@@ -30,9 +31,8 @@ class FindingsModel(QAbstractTableModel):
         super().__init__(parent)
         self.session = session
         self._findings: list[Finding] = []
-        session.planChanged.connect(self._plan_changed)
 
-    def _plan_changed(self, plan) -> None:  # noqa: ANN001 — Plan | None
+    def show_plan(self, plan) -> None:  # noqa: ANN001 — Plan | None
         self.beginResetModel()
         order = {"hard": 0, "soft": 1, "info": 2}
         self._findings = sorted(plan.findings, key=lambda f: order[f.severity]) if plan else []
@@ -101,6 +101,7 @@ class FindingsView(QWidget):
         self.setAccessibleName("Checks")
         layout = QVBoxLayout(self)
         self.model = FindingsModel(session, self)
+        self.shown = ShownPlan(self, session, self.model.show_plan)
         self.table = QTableView()
         self.table.setModel(self.model)
         self.table.setAccessibleName("Findings")

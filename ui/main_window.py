@@ -205,11 +205,12 @@ class MainWindow(QMainWindow):
     def _detail_opened(self, index: int) -> None:
         """The plots are built the first time the Timeline tab is opened (pyqtgraph is big)."""
         if self.details.widget(index) is self.timeline_holder and self.timeline_view is None:
+            from ui.shown_plan import ShownPlan
             from ui.timeline_view import TimelineView
 
             self.timeline_view = TimelineView()
             self._swap(self.timeline_holder, self.timeline_view)
-            self.session.planChanged.connect(self._plot)
+            self.timeline_shown = ShownPlan(self.timeline_view, self.session, self._plot)
             self._plot(self.session.plan)
 
     def _page_opened(self, index: int) -> None:

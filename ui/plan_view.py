@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from datetime import datetime, time
 
-from PySide6.QtCore import QSignalBlocker, QTime
+from PySide6.QtCore import QSignalBlocker, Qt, QTime
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
@@ -27,6 +27,7 @@ from PySide6.QtWidgets import (
 from ui.patient_view import NumberField, buddy_label, compact
 from ui.rows_model import Cell, RowsModel
 from ui.session import PlanSession
+from ui.shown_plan import ShownPlan
 from vetfluid import fluids
 from vetfluid.delivery import STANDARD_DROP_FACTORS
 from vetfluid.formatting import format_quantity as q
@@ -249,8 +250,19 @@ class PlanSettings(QGroupBox):
         self.session.update(start_time=time(value.hour(), value.minute()))
 
     def _plan_changed(self, plan: Plan | None) -> None:
+        # the tooltips depend only on the patient's plasma and the chosen fluid; touching
+        # the combo's items on every edit would relay out the window
+        key = (
+            plan.tonicity.plasma_osmolality_mosm_per_kg if plan else None,
+            self.fluid.currentData(),
+        )
+        if key == getattr(self, "_tooltip_key", None):
+            return
+        self._tooltip_key = key
         for i in range(self.fluid.count()):
-            self.fluid.setItemData(i, fluid_tooltip(self.fluid.itemData(i), plan), 3)  # ToolTipRole
+            self.fluid.setItemData(
+                i, fluid_tooltip(self.fluid.itemData(i), plan), Qt.ItemDataRole.ToolTipRole
+            )
         self.fluid.setToolTip(fluid_tooltip(self.fluid.currentData(), plan))
 
 
@@ -305,7 +317,7 @@ class PlanSummary(QWidget):
         layout.addWidget(QLabel("<b>Schedule</b>"))
         layout.addWidget(self.schedule_view, 2)
 
-        session.planChanged.connect(self.show_plan)
+        self.shown = ShownPlan(self, session, self.show_plan)
         session.problemChanged.connect(self._show_problem)
         self._show_problem(session.problem)
 

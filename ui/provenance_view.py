@@ -18,6 +18,7 @@ from PySide6.QtWidgets import (
 from ui.icons import BASIS_ICONS, BASIS_WORDS, icon
 from ui.rows_model import Cell, RowsModel
 from ui.session import PlanSession
+from ui.shown_plan import ShownPlan
 from vetfluid.formatting import format_number
 from vetfluid.species import SpeciesTable, SpeciesValue
 
@@ -80,7 +81,7 @@ class ProvenanceView(QWidget):
         header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
         header.setStretchLastSection(True)
         layout.addWidget(self.table, 1)
-        session.planChanged.connect(self.show_plan)
+        self.shown = ShownPlan(self, session, self.show_plan)
 
     def show_plan(self, plan) -> None:  # noqa: ANN001 — Plan | None
         if plan is None:

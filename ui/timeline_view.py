@@ -19,7 +19,7 @@ import math
 
 from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
-from PySide6.QtWidgets import QGraphicsItem, QLabel, QSizePolicy, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
 import pyqtgraph as pg  # isort: skip  (after PySide6, so pyqtgraph binds to it)
 
@@ -193,9 +193,10 @@ class TimelineView(QWidget):
         self.readout.setObjectName("timelineReadout")
         self.readout.setAccessibleName("Timeline values at the pointer")
         self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-        # Ignored width: new text must not change the size hint and relay out the window
-        self.readout.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
         self.readout.setContentsMargins(LEFT_AXIS_WIDTH, 4, 4, 4)
+        # A fixed size (kept to the view's width in resizeEvent): new read-out text must not
+        # ask every layout up to the window to recompute, which a hover would do each move.
+        self.readout.setFixedSize(400, self.readout.sizeHint().height())
 
         self.graphics = pg.GraphicsLayoutWidget(self)
         self.graphics.setAccessibleName("Timeline plots")
@@ -405,6 +406,11 @@ class TimelineView(QWidget):
             line.setPos(values["hour"])
             line.setVisible(True)
         self.readout.setText(self.readout_text(values))
+
+    def resizeEvent(self, event) -> None:  # noqa: N802,ANN001 (Qt override)
+        margins = self.layout().contentsMargins()
+        self.readout.setFixedWidth(max(0, event.size().width() - margins.left() - margins.right()))
+        super().resizeEvent(event)
 
     def readout_text(self, values: dict[str, float]) -> str:
         """The read-out line for one grid point's values."""
