@@ -211,6 +211,32 @@ def test_print_to_pdf_carries_the_cautions(qtbot, window, tmp_path):
     assert out.stat().st_size > 1000
 
 
+def test_every_printed_page_carries_the_cautions(qtbot, tmp_path, monkeypatch):
+    from PySide6.QtGui import QPainter
+    from PySide6.QtPrintSupport import QPrinter
+
+    import ui.printing
+    from vetfluid.cautions import SHORT_CAUTION
+
+    footers = []
+
+    class RecordingPainter(QPainter):
+        def drawText(self, *args):  # noqa: N802 (Qt name)
+            footers.append(args[-1])
+            return super().drawText(*args)
+
+    monkeypatch.setattr(ui.printing, "QPainter", RecordingPainter)
+    printer = QPrinter()
+    printer.setOutputFormat(QPrinter.OutputFormat.PdfFormat)
+    printer.setOutputFileName(str(tmp_path / "long.pdf"))
+    long_sheet = "<html><body>" + "<p>row</p>" * 400 + "</body></html>"
+    pages = ui.printing.print_sheet(long_sheet, printer)
+    assert pages > 1
+    assert len(footers) == pages
+    assert all(SHORT_CAUTION in text for text in footers)
+    assert footers[-1].endswith(f"Page {pages} of {pages}")
+
+
 def test_window_remembers_its_size(qtbot, window, vetfluid_home):
     window.resize(1111, 777)
     window.close()

@@ -11,7 +11,7 @@ import json
 from pathlib import Path
 
 from PySide6.QtCore import QEvent, QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QCloseEvent, QIcon, QKeySequence, QTextDocument
+from PySide6.QtGui import QAction, QCloseEvent, QIcon, QKeySequence
 from PySide6.QtWidgets import (
     QFileDialog,
     QLabel,
@@ -370,15 +370,13 @@ class MainWindow(QMainWindow):
             self.print_to(printer)
 
     def print_to(self, printer) -> None:  # noqa: ANN001 — QPrinter
+        from ui.printing import print_sheet
         from vetfluid.sheet import plan_sheet_html
 
-        document = QTextDocument()
-        document.setHtml(
-            plan_sheet_html(
-                self.session.plan, acknowledged=self.session.acknowledged, ready=self.session.ready
-            )
+        html = plan_sheet_html(
+            self.session.plan, acknowledged=self.session.acknowledged, ready=self.session.ready
         )
-        document.print_(printer)
+        print_sheet(html, printer)
 
     def show_help(self, *_: object) -> None:
         from ui.help_dialog import HelpDialog

@@ -1,0 +1,49 @@
+"""Print an HTML sheet page by page with the cautions at the foot of every page."""
+
+from __future__ import annotations
+
+from PySide6.QtCore import QRectF, QSizeF, Qt
+from PySide6.QtGui import QPainter, QTextDocument
+
+from vetfluid.cautions import SHORT_CAUTION
+
+FOOTER_LINES = 2
+
+
+def print_sheet(html: str, printer) -> int:  # noqa: ANN001 — QPrinter
+    """Lay the sheet out on the printer's pages; returns the number of pages printed."""
+    painter = QPainter()
+    if not painter.begin(printer):
+        raise OSError("the printer could not be opened")
+    try:
+        page = QRectF(printer.pageLayout().paintRectPixels(printer.resolution()))
+        page.moveTo(0, 0)
+        footer_height = painter.fontMetrics().lineSpacing() * (FOOTER_LINES + 1)
+        body = QSizeF(page.width(), page.height() - footer_height)
+        document = QTextDocument()
+        document.documentLayout().setPaintDevice(printer)
+        document.setHtml(html)
+        document.setPageSize(body)
+        pages = document.pageCount()
+        for number in range(pages):
+            if number:
+                printer.newPage()
+            painter.save()
+            painter.translate(0, -number * body.height())
+            document.drawContents(
+                painter, QRectF(0, number * body.height(), body.width(), body.height())
+            )
+            painter.restore()
+            footer = QRectF(0, body.height(), page.width(), footer_height)
+            painter.drawText(
+                footer,
+                int(
+                    Qt.AlignmentFlag.AlignBottom
+                    | Qt.AlignmentFlag.AlignLeft
+                    | Qt.TextFlag.TextWordWrap
+                ),
+                f"{SHORT_CAUTION}.  Page {number + 1} of {pages}",
+            )
+        return pages
+    finally:
+        painter.end()
