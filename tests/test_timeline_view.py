@@ -59,7 +59,7 @@ def test_curves_hold_the_core_arrays(view):
     tl = timeline(plan)
     assert_draws(view, tl)
     assert view.rate_curve.opts["stepMode"] == "right"  # rate[i] holds from hours[i] onward
-    assert "22 kg" in view.overload_text.toPlainText()
+    assert "23.54 kg" in view.overload_text.toPlainText()
     assert "+10 %" in view.overload_text.toPlainText()
 
 
@@ -185,7 +185,7 @@ def test_follows_a_dark_palette(view):
 def test_accessible_description_summarises_the_plan(view):
     view.set_plan(build_plan(DOG))
     description = view.accessibleDescription()
-    assert "2948 mL given" in description and "overload line at 22 kg" in description
+    assert "2948 mL given" in description and "overload line at 23.54 kg" in description
 
 
 def test_renders_a_picture(view, qtbot):

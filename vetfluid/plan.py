@@ -465,7 +465,10 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     main = fluid_phases[0]
     safety.check_rates_against_shock_dose(ledger, phases, w)
     safety.check_divided_sites(ledger, phases)
-    safety.check_predicted_gain(ledger, phases, consumption_ml_per_h=background, weight_kg=w)
+    safety.check_dose_spacing(ledger, phases)
+    safety.check_predicted_gain(
+        ledger, phases, consumption_ml_per_h=background, weight_kg=w, deficit_ml=deficit
+    )
 
     potassium = _potassium(request, kcl=kcl, bag_k=bag_comp.k_mmol_per_l, phases=phases, main=main)
     if potassium is not None:

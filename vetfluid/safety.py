@@ -8,8 +8,10 @@ Messages name the value, the limit and what to do; codes are stable.
 from __future__ import annotations
 
 from vetfluid import fluids
+from vetfluid.delivery import DIVIDED_INTERVALS_H
 from vetfluid.electrolytes import PotassiumSummary, SodiumSummary
 from vetfluid.formatting import format_quantity as q
+from vetfluid.hydration import overload_weight_kg
 from vetfluid.ledger import Ledger
 from vetfluid.limits import limit
 from vetfluid.maintenance import Maintenance, WaterBudget
@@ -140,15 +142,39 @@ def check_rates_against_shock_dose(
             return
 
 
-def check_predicted_gain(
-    ledger: Ledger, phases: tuple[Phase, ...], *, consumption_ml_per_h: float, weight_kg: float
-) -> None:
-    """Net fluid balance (1 mL ≈ 1 g) rising above the overload line (Pardo 2024: ≥ 10 %).
+def check_dose_spacing(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
+    """SC doses closer than the 6–8 h it takes them to be absorbed (Vet Clin North Am 2017)."""
+    shortest = min(DIVIDED_INTERVALS_H)
+    for phase in phases:
+        if phase.mode == "intermittent" and (phase.interval_h or 0.0) < shortest - 1e-9:
+            ledger.add(
+                "soft",
+                "DOSES_CLOSER_THAN_ABSORPTION",
+                f"{phase.kind.capitalize()} doses are {q(phase.interval_h or 0.0, 'h')} apart, "
+                f"closer than the {q(shortest, 'h')} SC fluid takes to be absorbed.",
+                f"Choose a replacement period that is a multiple of {q(shortest, 'h')}, or check "
+                "that the last dose has been absorbed before the next.",
+                "vcna2017_sc",
+            )
+            return
 
+
+def check_predicted_gain(
+    ledger: Ledger,
+    phases: tuple[Phase, ...],
+    *,
+    consumption_ml_per_h: float,
+    weight_kg: float,
+    deficit_ml: float,
+) -> None:
+    """Predicted weight (1 mL ≈ 1 g) above the overload line (Pardo 2024: ≥ 10 % gain).
+
+    The line is 10 % over the euhydrated weight (:func:`hydration.overload_weight_kg`).
     Given minus consumed is piecewise linear, so its peaks lie at phase boundaries and
     just after doses; those are the only points checked.
     """
     gain = limit("overload_weight_gain_fraction")
+    line = overload_weight_kg(weight_kg=weight_kg, deficit_ml=deficit_ml, gain_fraction=gain.value)
     moments = sorted({p.start_h for p in phases} | {p.end_h for p in phases}
                      | {h for p in phases for h in p.dose_hours()})  # fmt: skip
     peak_ml, peak_h = 0.0, 0.0
@@ -157,13 +183,14 @@ def check_predicted_gain(
         net = given - consumption_ml_per_h * hour
         if net > peak_ml:
             peak_ml, peak_h = net, hour
-    if peak_ml / 1000.0 > gain.value * weight_kg:
+    peak_kg = weight_kg + peak_ml / 1000.0
+    if peak_kg > line:
         ledger.add(
             "soft",
             "PREDICTED_OVERLOAD",
-            f"Predicted weight peaks at {q(weight_kg + peak_ml / 1000.0, 'kg')} at hour "
-            f"{peak_h:g}, more than {gain.value:.0%} above the entered "
-            f"{q(weight_kg, 'kg')}.",
+            f"Predicted weight peaks at {q(peak_kg, 'kg')} at hour {peak_h:g}, above the "
+            f"overload line of {q(line, 'kg')} ({gain.value:.0%} over the euhydrated "
+            f"{q(weight_kg + deficit_ml / 1000.0, 'kg')}).",
             "Give smaller, more frequent doses or replace the deficit more slowly; weigh before "
             "each dose.",
             gain.source_id,

@@ -104,25 +104,36 @@ def intermittent_phase(
     per_site_limit_ml: float,
     kcl_mmol_per_l: float,
 ) -> Phase:
-    """A phase of divided boluses covering ``need_ml_per_h`` from start to end."""
+    """A phase of divided boluses that gives exactly ``need_ml_per_h`` × its hours.
+
+    The interval comes from :func:`vetfluid.delivery.divided_boluses`; the phase is
+    split into that many evenly spaced doses (rounding up, so no dose grows beyond
+    what the sites allow), and it gives neither more nor less than it needs. When the
+    phase is not a whole number of intervals the spacing shrinks below the interval;
+    the plan reports that as a finding.
+    """
     split = delivery.divided_boluses(
         need_ml_per_h=need_ml_per_h, per_site_limit_ml=per_site_limit_ml, route=route
     )
-    doses = max(1, math.ceil(round((end_h - start_h) / split.interval_h, 9)))
+    hours = end_h - start_h
+    doses = max(1, math.ceil(round(hours / split.interval_h, 9)))
+    spacing = hours / doses
+    dose = need_ml_per_h * spacing
+    sites = max(1, math.ceil(round(dose / per_site_limit_ml, 9)))
     return Phase(
         kind=kind,
         mode="intermittent",
         start_h=start_h,
         end_h=end_h,
-        volume_ml=split.dose_ml * doses,
-        dose_ml=split.dose_ml,
-        interval_h=split.interval_h,
+        volume_ml=dose * doses,
+        dose_ml=dose,
+        interval_h=spacing,
         doses=doses,
-        sites_per_dose=split.sites_per_dose,
-        ml_per_site=split.ml_per_site,
+        sites_per_dose=sites,
+        ml_per_site=dose / sites,
         route=route,
         kcl_mmol_per_l=kcl_mmol_per_l,
-        fits_sites=split.fits,
+        fits_sites=sites <= delivery.MAX_SITES_PER_DOSE,
     )
 
 

@@ -39,6 +39,7 @@ import numpy as np
 from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.formatting import format_quantity
+from vetfluid.hydration import overload_weight_kg
 from vetfluid.limits import limit
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time
@@ -178,7 +179,9 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
         remaining_deficit_ml=_frozen(np.maximum(deficit - net, 0.0)),
         weight_kg=_frozen(baseline + net / ML_PER_KG),
         baseline_weight_kg=baseline,
-        overload_weight_kg=baseline * (1.0 + gain),
+        overload_weight_kg=overload_weight_kg(
+            weight_kg=baseline, deficit_ml=deficit, gain_fraction=gain
+        ),
         overload_gain_fraction=gain,
         deficit_ml=deficit,
         consumption_ml_per_h=consumption,
