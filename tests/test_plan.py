@@ -296,3 +296,27 @@ def test_predicted_weight_above_the_overload_line_is_soft():
     # eight 15 mL/kg boluses into a patient with no deficit: 120 mL/kg, 12 % in 2 h
     boluses = plan_for(species_id="dog", weight_kg=20, resuscitation_boluses=8)
     assert codes(boluses)["PREDICTED_OVERLOAD"] == "soft"
+
+
+def test_kcl_into_a_hyperkalaemic_patient_is_hard():
+    # Côté 2020: the scale adds nothing above 5 mmol/L; adding KCl by hand then is blocked.
+    plan = plan_for(species_id="cat", weight_kg=4, serum_k=5.8, kcl_mmol_per_l=40)
+    assert codes(plan)["KCL_WITH_HIGH_SERUM_K"] == "hard"
+    assert "KCL_WITH_HIGH_SERUM_K" not in codes(
+        plan_for(species_id="cat", weight_kg=4, serum_k=5.8)
+    )
+
+
+def test_a_dilute_urine_sample_is_not_a_ceiling_below_plasma():
+    plan = plan_for(species_id="kangaroo_rat", weight_kg=0.04, usg=1.000)
+    budget = plan.water_budget
+    assert budget.ceiling_mosm_per_kg == budget.plasma_mosm_per_kg  # isosthenuria at worst
+
+
+def test_boluses_are_named_as_the_plain_fluid():
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=12, serum_k=3.2,
+                    resuscitation_boluses=1)  # fmt: skip
+    bolus, replacement = plan.phases[:2]
+    assert "with nothing added" in bolus.fluid_name and "potassium" not in bolus.fluid_name
+    assert "potassium chloride" in replacement.fluid_name
+    assert "with nothing added" in plan.schedule[0].action

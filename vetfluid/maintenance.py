@@ -216,7 +216,7 @@ def concentrating_ceiling(
     if ratio is not None:
         return ratio.number * plasma.number, "U/P × plasma", [ratio, plasma]
     raise InputError(
-        f"no urine-concentrating ceiling on record for {species_id}",
+        f"no urine-concentrating ceiling on record for {species_id};",
         field="max_urine_osmolality_mosm_per_kg",
         value=None,
         fix="enter the patient's USG or urine osmolality, or add the value to the species table",
@@ -244,11 +244,13 @@ def water_budget(
     solute_rate = table.value(species_id, "urine_solute_mosm_per_kcal")
     plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
     used = [*energy.provenance, solute_rate, plasma]
+    # A dilute sample shows what the kidney is doing now, not the most it can do: a
+    # measured ceiling is never taken below isosthenuria (plasma osmolality).
     if urine_osmolality is not None:
-        ceiling = _positive("urine_osmolality", urine_osmolality)
+        ceiling = max(_positive("urine_osmolality", urine_osmolality), plasma.number)
         source = "urine osmolality"
     elif usg is not None:
-        ceiling, source = usg_to_osmolality(usg), "USG"
+        ceiling, source = max(usg_to_osmolality(usg), plasma.number), "USG"
     else:
         ceiling, source, ceiling_values = concentrating_ceiling(table, species_id)
         used += [v for v in ceiling_values if v not in used]

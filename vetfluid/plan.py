@@ -320,7 +320,9 @@ def _resuscitation_phases(
                 route=route,
                 drop_factor=drop_factor,
                 kcl_mmol_per_l=0.0,
-                note=f"bolus {number} of {count}; reassess before the next",
+                fluid_name=f"{fluids.fluid(request.fluid_id).name} with nothing added",
+                note=f"bolus {number} of {count}; reassess before the next; no KCl or "
+                "dextrose in a resuscitation bolus",
             )
         )
         hour = end
@@ -339,6 +341,7 @@ def _fluid_phases(
     device: str,
     drop_factor: float | None,
     kcl_mmol_per_l: float,
+    fluid_name: str,
 ) -> list[Phase]:
     """Replacement (deficit + maintenance + losses), then maintenance to hour 24 or later."""
     segments = []
@@ -363,6 +366,7 @@ def _fluid_phases(
                 route=route,
                 per_site_limit_ml=site_limit.number * ledger.weight_kg,
                 kcl_mmol_per_l=kcl_mmol_per_l,
+                fluid_name=fluid_name,
             )
             for kind, start, end, rate in segments
         ]
@@ -375,6 +379,7 @@ def _fluid_phases(
             route=route,
             drop_factor=drop_factor,
             kcl_mmol_per_l=kcl_mmol_per_l,
+            fluid_name=fluid_name,
             syringe=device == "syringe",
         )
         for kind, start, end, rate in segments
@@ -459,7 +464,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     fluid_phases = _fluid_phases(
         ledger, start_h=start_h, deficit_ml=deficit, replace_hours=request.replace_hours,
         background_ml_per_h=background, route=route, device=device, drop_factor=drop_factor,
-        kcl_mmol_per_l=kcl,
+        kcl_mmol_per_l=kcl, fluid_name=bag.name,
     )  # fmt: skip
     phases = (*bolus_phases, *fluid_phases)
     main = fluid_phases[0]

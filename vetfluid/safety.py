@@ -215,14 +215,29 @@ def check_divided_sites(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
 def check_potassium(
     ledger: Ledger, k: PotassiumSummary, *, weight_kg: float, route: str, peak_rate_ml_per_h: float
 ) -> None:
-    """The 0.5 mmol/kg/h ceiling (hard), the scale's rate (soft), peripheral concentration."""
+    """KCl into a patient whose K is already high (hard), the 0.5 mmol/kg/h ceiling (hard),
+    the scale's rate for the serum K (soft), concentration for a peripheral vein (soft)."""
+    normal_k = ledger.value("serum_k_mmol_per_l")
+    k_high = normal_k.high if normal_k.high is not None else normal_k.number
+    if k.kcl_mmol_per_l > 0 and k.serum_k is not None and k.serum_k > k_high:
+        ledger.add(
+            "hard",
+            "KCL_WITH_HIGH_SERUM_K",
+            f"KCl is added although serum K {q(k.serum_k, 'mmol/L')} is above the "
+            f"{q(k_high, 'mmol/L')} reference.",
+            "Do not add potassium; recheck serum K and look for the cause.",
+            "cote2020",
+        )
     if k.peak_mmol_per_kg_per_h > k.ceiling_mmol_per_kg_per_h:
+        safe = [r for r in (k.max_rate_ml_per_h,) if r is not None]
+        if k.band_max_rate_ml_per_kg_h is not None:
+            safe.append(k.band_max_rate_ml_per_kg_h * weight_kg)
         ledger.add(
             "hard",
             "POTASSIUM_ABOVE_CEILING",
             f"Potassium would run at {q(k.peak_mmol_per_kg_per_h, 'mmol/kg/h')}, above the "
             f"{q(k.ceiling_mmol_per_kg_per_h, 'mmol/kg/h')} ceiling.",
-            f"Lower the rate to at most {q(k.max_rate_ml_per_h or 0.0, 'mL/h')} or add less KCl.",
+            f"Lower the rate to at most {q(min(safe, default=0.0), 'mL/h')} or add less KCl.",
             k.source_id,
         )
     elif (

@@ -34,6 +34,7 @@ class Phase:
     drops_per_min: float | None = None
     seconds_per_drop: float | None = None
     syringe_ml: float | None = None
+    fluid_name: str = ""
     kcl_mmol_per_l: float = 0.0
     fits_sites: bool = True
     note: str = ""
@@ -72,6 +73,7 @@ def continuous_phase(
     route: str,
     drop_factor: float | None,
     kcl_mmol_per_l: float,
+    fluid_name: str = "",
     syringe: bool = False,
     note: str = "",
 ) -> Phase:
@@ -90,6 +92,7 @@ def continuous_phase(
         ),
         syringe_ml=delivery.syringe_ml(rate_ml_per_h * (end_h - start_h)) if syringe else None,
         kcl_mmol_per_l=kcl_mmol_per_l,
+        fluid_name=fluid_name,
         note=note,
     )
 
@@ -103,6 +106,7 @@ def intermittent_phase(
     route: str,
     per_site_limit_ml: float,
     kcl_mmol_per_l: float,
+    fluid_name: str = "",
 ) -> Phase:
     """A phase of divided boluses that gives exactly ``need_ml_per_h`` × its hours.
 
@@ -133,6 +137,7 @@ def intermittent_phase(
         ml_per_site=dose / sites,
         route=route,
         kcl_mmol_per_l=kcl_mmol_per_l,
+        fluid_name=fluid_name,
         fits_sites=sites <= delivery.MAX_SITES_PER_DOSE,
     )
 
@@ -163,9 +168,15 @@ def _continuous_action(phase: Phase) -> str:
     rate = format_quantity(phase.rate_ml_per_h or 0.0, "mL/h")
     if phase.kind == "resuscitation":
         minutes = phase.hours * 60
+        fluid = f" of {phase.fluid_name}" if phase.fluid_name else ""
+        drip = (
+            f" = {format_quantity(phase.drops_per_min, 'drops/min')}"
+            if phase.drops_per_min is not None
+            else ""
+        )
         return (
-            f"Bolus {_ml(phase.volume_ml)} {phase.route.upper()} over {minutes:.0f} min ({rate}); "
-            "then reassess"
+            f"Bolus {_ml(phase.volume_ml)}{fluid} {phase.route.upper()} over {minutes:.0f} min "
+            f"({rate}{drip}); then reassess"
         )
     if phase.syringe_ml is not None:
         rate = format_quantity(round(phase.rate_ml_per_h or 0.0, 1), "mL/h", decimals=1)

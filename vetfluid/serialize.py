@@ -30,6 +30,7 @@ def phase_dict(phase: Phase) -> dict[str, object]:
         "end_h": phase.end_h,
         "volume_ml": phase.volume_ml,
         "kcl_mmol_per_l": phase.kcl_mmol_per_l,
+        "fluid": phase.fluid_name or None,
     }
     if phase.mode == "continuous":
         data["rate_ml_per_h"] = phase.rate_ml_per_h
