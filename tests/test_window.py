@@ -262,3 +262,24 @@ def test_standard_shortcuts_exist(window):
     shortcuts = {a.shortcut().toString() for a in actions if not a.shortcut().isEmpty()}
     for key in ("Ctrl+N", "Ctrl+O", "Ctrl+P", "Ctrl+Q", "Ctrl+Z", "Ctrl+F"):
         assert key in shortcuts, key
+
+
+def test_clearing_losses_means_none_not_an_error(qtbot, window):
+    window.open_demo("dehydrated_dog")
+    wait_for_plan(qtbot, window, lambda p: p.request.losses_ml_per_day == 240)
+    window.patient.losses_field.setText("")
+    window.patient.losses_field.commit()
+    wait_for_plan(qtbot, window, lambda p: p.request.losses_ml_per_day == 0)
+
+
+def test_a_bad_reptile_temperature_does_not_follow_the_patient_to_a_dog(qtbot, window):
+    window.open_demo("cold_bearded_dragon")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "bearded_dragon")
+    window.patient.temp_field.setText("3o")
+    window.patient.temp_field.commit()
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    window.patient._set_species("dog")
+    window.patient.weight_edit.setText("20")
+    window.patient._weight_changed()
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
+    assert plan.request.body_temp_c is None

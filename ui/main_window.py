@@ -7,7 +7,6 @@ appears quickly.
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 from PySide6.QtCore import QEvent, QSettings, Qt, QTimer
@@ -305,35 +304,29 @@ class MainWindow(QMainWindow):
 
     def save_file(self) -> None:
         self.build_planner()
-        plan = self.session.plan
-        if plan is None:
+        if self.session.plan is None:
             QMessageBox.information(self, "vetfluid", "There is no valid plan to save yet.")
             return
-        name, _ = QFileDialog.getSaveFileName(
-            self, "Save plan request", str(user_data_dir()), FILE_FILTER
-        )
-        if name:
-            self.write_request(Path(name))
+        dialog = QFileDialog(self, "Save plan request", str(user_data_dir()), FILE_FILTER)
+        dialog.setAcceptMode(QFileDialog.AcceptMode.AcceptSave)
+        dialog.setDefaultSuffix("vfplan.json")  # so the overwrite question sees the real name
+        if dialog.exec() and dialog.selectedFiles():
+            self.write_request(Path(dialog.selectedFiles()[0]))
 
-    def write_request(self, path: Path) -> None:
-        """Save the inputs and acknowledgements (atomically: a crash never leaves half a file)."""
-        from vetfluid.serialize import REQUEST_FORMAT, REQUEST_VERSION, request_to_dict
+    def write_request(self, path: Path) -> bool:
+        """Save the inputs and acknowledgements; a failure is a message, never a crash."""
+        from vetfluid.request_file import write_request_file
 
         plan = self.session.plan
         if plan is None:
-            return
-        if not path.name.endswith(".vfplan.json"):
-            path = path.with_name(path.name + ".vfplan.json")
-        data = {
-            "format": REQUEST_FORMAT,
-            "version": REQUEST_VERSION,
-            "request": request_to_dict(plan.request),
-            "acknowledged": self.session.acknowledged,
-        }
-        temp = path.with_name(path.name + ".tmp")
-        temp.write_text(json.dumps(data, indent=2, ensure_ascii=False), encoding="utf-8")
-        temp.replace(path)
-        self.statusBar().showMessage(f"Saved {path}")
+            return False
+        try:
+            written = write_request_file(path, plan.request, self.session.acknowledged)
+        except OSError as exc:
+            QMessageBox.warning(self, "vetfluid", f"Could not save {path.name}:\n{exc}")
+            return False
+        self.statusBar().showMessage(f"Saved {written}")
+        return True
 
     def open_file(self) -> None:
         name, _ = QFileDialog.getOpenFileName(
@@ -343,18 +336,15 @@ class MainWindow(QMainWindow):
             self.read_request(Path(name))
 
     def read_request(self, path: Path) -> bool:
-        from vetfluid.serialize import REQUEST_FORMAT, request_from_dict
+        from vetfluid.request_file import read_request_file
 
         self.build_planner()
         try:
-            data = json.loads(path.read_text(encoding="utf-8"))
-            if data.get("format") != REQUEST_FORMAT:
-                raise VetfluidError(f"{path.name} is not a vetfluid plan request")
-            request = request_from_dict(data["request"])
-        except (OSError, ValueError, KeyError, VetfluidError) as exc:
+            request, acknowledged = read_request_file(path)
+        except (OSError, VetfluidError) as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not open {path.name}:\n{exc}")
             return False
-        self.session.replace_request(request, data.get("acknowledged") or {})
+        self.session.replace_request(request, acknowledged)
         self.statusBar().showMessage(f"Opened {path}")
         return True
 

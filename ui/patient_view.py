@@ -86,9 +86,18 @@ def _mark(widget: QWidget, problem: str) -> None:
 class NumberField(QLineEdit):
     """A line edit for an optional number that writes into one request field."""
 
-    def __init__(self, session: PlanSession, name: str, placeholder: str, help_text: str):
+    def __init__(
+        self,
+        session: PlanSession,
+        name: str,
+        placeholder: str,
+        help_text: str,
+        *,
+        empty: float | None = None,
+    ):
         super().__init__()
         self.session, self.name = session, name
+        self.empty = empty  # what an empty field means (None: not measured; 0: none)
         self.setPlaceholderText(placeholder)
         self.setProperty("helpText", help_text)
         self.setToolTip(help_text)
@@ -105,7 +114,7 @@ class NumberField(QLineEdit):
             self.session.set_field_error(self.name, f"{label}: {self.text()!r} is {exc.message}")
             return
         _mark(self, "")
-        self.session.update(**{self.name: value})
+        self.session.update(**{self.name: self.empty if value is None else value})
 
     def show_value(self, value: float | None) -> None:
         with QSignalBlocker(self):
@@ -212,6 +221,7 @@ class PatientView(QWidget):
             "losses_ml_per_day",
             "0",
             "Ongoing losses (vomiting, diarrhoea, polyuria), mL/day",
+            empty=0.0,
         )
         hform.addRow("Ongoing &losses (mL/day)", self.losses_field)
         layout.addWidget(hyd)
@@ -283,6 +293,10 @@ class PatientView(QWidget):
         )
         ectotherm = table.species(sid).is_ectotherm
         self.temp_field.setEnabled(ectotherm)
+        if not ectotherm and (self.temp_field.text() or self.session.inputs.get("body_temp_c")):
+            # a temperature (or a typing error in it) must not linger for an endotherm
+            self.temp_field.show_value(None)
+            self.session.update(body_temp_c=None)
         if ectotherm:
             pref = table.value(sid, "preferred_temp_c")
             lo, hi = pref.low or pref.number, pref.high or pref.number

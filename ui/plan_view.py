@@ -175,7 +175,9 @@ class PlanSettings(QGroupBox):
         row.addWidget(self.kcl_mode, 2)
         row.addWidget(self.kcl, 1)
         form.addRow(buddy_label("&KCl added", self.kcl_mode), row)
-        self.dextrose = NumberField(session, "dextrose_percent", "0", "Dextrose to add, % w/v")
+        self.dextrose = NumberField(
+            session, "dextrose_percent", "0", "Dextrose to add, % w/v", empty=0.0
+        )
         form.addRow("De&xtrose added (%)", self.dextrose)
         self.max_na = NumberField(
             session, "max_na_change_per_h", "0.5 (default)", "Maximum serum Na change, mmol/L/h"

@@ -224,8 +224,17 @@ def request_from_dict(data: dict[str, object]) -> PlanRequest:
             values["start_time"] = datetime.strptime(start, "%H:%M").time()
         except ValueError:
             raise InputError("start time must be HH:MM", field="start_time", value=start) from None
+    elif start is not None:
+        raise InputError("start time must be HH:MM", field="start_time", value=start)
     if "dehydration_findings" in values:
-        values["dehydration_findings"] = tuple(values["dehydration_findings"] or ())
+        findings = values["dehydration_findings"] or ()
+        if not isinstance(findings, list | tuple) or not all(isinstance(f, str) for f in findings):
+            raise InputError(
+                "dehydration findings must be a list of finding ids",
+                field="dehydration_findings",
+                value=findings,
+            )
+        values["dehydration_findings"] = tuple(findings)
     try:
         return PlanRequest(**values)
     except TypeError as exc:  # a missing species_id or weight_kg

@@ -1,0 +1,71 @@
+"""Plan-request files (``*.vfplan.json``): a patient's inputs and acknowledgements.
+
+Our own small JSON format: ``{"format": "vetfluid-plan-request", "version": 1,
+"request": {...}, "acknowledged": {code: reason}}``. Writes are atomic (temporary
+file, fsync, rename), so a crash never leaves half a file; reads check every part
+and say what is wrong.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+
+from vetfluid.errors import InputError
+from vetfluid.plan import PlanRequest
+from vetfluid.serialize import REQUEST_FORMAT, REQUEST_VERSION, request_from_dict, request_to_dict
+
+SUFFIX = ".vfplan.json"
+
+
+def with_suffix(path: Path) -> Path:
+    return path if path.name.endswith(SUFFIX) else path.with_name(path.name + SUFFIX)
+
+
+def write_request_file(path: Path, request: PlanRequest, acknowledged: dict[str, str]) -> Path:
+    """Write the file atomically; returns the path written (the suffix added if missing)."""
+    path = with_suffix(Path(path))
+    data = {
+        "format": REQUEST_FORMAT,
+        "version": REQUEST_VERSION,
+        "request": request_to_dict(request),
+        "acknowledged": dict(acknowledged),
+    }
+    temp = path.with_name(path.name + ".tmp")
+    try:
+        with temp.open("w", encoding="utf-8") as handle:
+            json.dump(data, handle, indent=2, ensure_ascii=False)
+            handle.flush()
+            os.fsync(handle.fileno())
+        temp.replace(path)
+    finally:
+        temp.unlink(missing_ok=True)
+    return path
+
+
+def read_request_file(path: Path) -> tuple[PlanRequest, dict[str, str]]:
+    """The request and acknowledgements in a file; anything malformed is an InputError."""
+    path = Path(path)
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise InputError(
+            f"{path.name} is not readable JSON", field="file", value=str(exc)
+        ) from None
+    if not isinstance(data, dict) or data.get("format") != REQUEST_FORMAT:
+        raise InputError(f"{path.name} is not a vetfluid plan request", field="file")
+    if data.get("version") != REQUEST_VERSION:
+        raise InputError(
+            f"{path.name} is version {data.get('version')!r}; this vetfluid reads version "
+            f"{REQUEST_VERSION}",
+            field="version",
+        )
+    if "request" not in data:
+        raise InputError(f"{path.name} holds no request", field="request")
+    acknowledged = data.get("acknowledged") or {}
+    if not isinstance(acknowledged, dict) or not all(
+        isinstance(k, str) and isinstance(v, str) for k, v in acknowledged.items()
+    ):
+        raise InputError("acknowledgements must map finding codes to reasons", field="acknowledged")
+    return request_from_dict(data["request"]), acknowledged
