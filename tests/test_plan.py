@@ -320,3 +320,17 @@ def test_boluses_are_named_as_the_plain_fluid():
     assert "with nothing added" in bolus.fluid_name and "potassium" not in bolus.fluid_name
     assert "potassium chloride" in replacement.fluid_name
     assert "with nothing added" in plan.schedule[0].action
+
+
+def test_syringe_pump_phases_are_split_into_fills_on_the_clock():
+    plan = plan_for(species_id="cat", weight_kg=4, dehydration_percent=7, device="syringe",
+                    syringe_size_ml=60, start_time=time(8, 0))  # fmt: skip
+    replacement = plan.phases[0]
+    assert replacement.rate_ml_per_h == round(replacement.rate_ml_per_h, 1)  # set to 0.1 mL/h
+    volumes = [ml for _, ml in replacement.syringe_fills]
+    assert all(v <= 60 for v in volumes)
+    assert sum(volumes) == pytest.approx(replacement.volume_ml, abs=0.05 * len(volumes))
+    hours = [h for h, _ in replacement.syringe_fills]
+    assert hours[1] == pytest.approx(60 / replacement.rate_ml_per_h)
+    changes = [e for e in plan.schedule if e.action.startswith("Change syringe")]
+    assert len(changes) >= len(volumes) - 1

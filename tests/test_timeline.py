@@ -196,8 +196,10 @@ def test_remaining_deficit_never_negative_and_zero_when_replaced(any_plan):
     replacement = [p for p in any_plan.phases if p.kind == "replacement"]
     if replacement:
         done = at(tl, replacement[-1].end_h)
-        assert tl.remaining_deficit_ml[done] == pytest.approx(0, abs=1e-9)
-        assert np.all(tl.remaining_deficit_ml[done:] <= 1e-9)
+        # a syringe pump is set to 0.1 mL/h: up to 0.05 mL/h × hours may stay unreplaced
+        slack = 0.05 * replacement[-1].hours if replacement[-1].syringe_fills else 1e-9
+        assert tl.remaining_deficit_ml[done] == pytest.approx(0, abs=slack)
+        assert np.all(tl.remaining_deficit_ml[done:] <= slack)
     else:
         assert np.all(tl.remaining_deficit_ml == 0)
 

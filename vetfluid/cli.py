@@ -91,6 +91,7 @@ def _parser() -> argparse.ArgumentParser:
     plan.add_argument("--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v")
     plan.add_argument("--start", type=_start_time, help="clock time of hour 0, HH:MM")
     plan.add_argument("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
+    plan.add_argument("--syringe-ml", type=float, default=60.0, help="syringe size, mL")
     plan.add_argument("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
     plan.add_argument("--ts", type=float, help="total solids, g/dL (recorded with the plan)")
     for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
@@ -236,6 +237,7 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         anaesthesia=args.anaesthesia,
         neonate=args.neonate,
         max_na_change_per_h=args.max_na_change,
+        syringe_size_ml=args.syringe_ml,
         pcv_percent=args.pcv,
         total_solids_g_per_dl=args.ts,
     )

@@ -74,6 +74,7 @@ class PlanRequest:
     anaesthesia: bool = False
     neonate: bool = False
     max_na_change_per_h: float | None = None
+    syringe_size_ml: float = 60.0  # the syringe the pump takes
     pcv_percent: float | None = None  # recorded with the plan; followed over the course
     total_solids_g_per_dl: float | None = None
 
@@ -84,6 +85,7 @@ class PlanRequest:
         _require(self.replace_hours, "replace_hours", 1, 96, "h")
         _require(self.losses_ml_per_day, "losses_ml_per_day", 0, 1e6, "mL/day")
         _require(self.dextrose_percent, "dextrose_percent", 0, 10, "%")
+        _require(self.syringe_size_ml, "syringe_size_ml", 1, 100, "mL")
         if self.route is not None and self.route not in ROUTES:
             raise InputError(
                 f"unknown route {self.route!r}",
@@ -342,6 +344,7 @@ def _fluid_phases(
     drop_factor: float | None,
     kcl_mmol_per_l: float,
     fluid_name: str,
+    syringe_size_ml: float,
 ) -> list[Phase]:
     """Replacement (deficit + maintenance + losses), then maintenance to hour 24 or later."""
     segments = []
@@ -380,7 +383,7 @@ def _fluid_phases(
             drop_factor=drop_factor,
             kcl_mmol_per_l=kcl_mmol_per_l,
             fluid_name=fluid_name,
-            syringe=device == "syringe",
+            syringe_size_ml=syringe_size_ml if device == "syringe" else None,
         )
         for kind, start, end, rate in segments
     ]
@@ -464,7 +467,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     fluid_phases = _fluid_phases(
         ledger, start_h=start_h, deficit_ml=deficit, replace_hours=request.replace_hours,
         background_ml_per_h=background, route=route, device=device, drop_factor=drop_factor,
-        kcl_mmol_per_l=kcl, fluid_name=bag.name,
+        kcl_mmol_per_l=kcl, fluid_name=bag.name, syringe_size_ml=request.syringe_size_ml,
     )  # fmt: skip
     phases = (*bolus_phases, *fluid_phases)
     main = fluid_phases[0]

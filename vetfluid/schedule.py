@@ -33,7 +33,7 @@ class Phase:
     ml_per_site: float | None = None
     drops_per_min: float | None = None
     seconds_per_drop: float | None = None
-    syringe_ml: float | None = None
+    syringe_fills: tuple[tuple[float, float], ...] = ()  # (hour, mL) for a syringe pump
     fluid_name: str = ""
     kcl_mmol_per_l: float = 0.0
     fits_sites: bool = True
@@ -74,10 +74,21 @@ def continuous_phase(
     drop_factor: float | None,
     kcl_mmol_per_l: float,
     fluid_name: str = "",
-    syringe: bool = False,
+    syringe_size_ml: float | None = None,
     note: str = "",
 ) -> Phase:
-    """A phase at a constant rate; drops/min for a gravity drip, the fill for a syringe pump."""
+    """A phase at a constant rate; drops/min for a gravity drip.
+
+    For a syringe pump the rate is set to 0.1 mL/h and the phase is split into syringe
+    fills of at most ``syringe_size_ml`` (volumes to 0.1 mL), each with the hour it
+    goes in, so syringe changes stand on the clock.
+    """
+    fills: tuple[tuple[float, float], ...] = ()
+    if syringe_size_ml is not None:
+        rate_ml_per_h = round(rate_ml_per_h, 1)
+        fills = syringe_fills(
+            start_h=start_h, end_h=end_h, rate_ml_per_h=rate_ml_per_h, size_ml=syringe_size_ml
+        )
     return Phase(
         kind=kind,
         mode="continuous",
@@ -90,7 +101,7 @@ def continuous_phase(
         seconds_per_drop=(
             delivery.seconds_per_drop(rate_ml_per_h, drop_factor) if drop_factor else None
         ),
-        syringe_ml=delivery.syringe_ml(rate_ml_per_h * (end_h - start_h)) if syringe else None,
+        syringe_fills=fills,
         kcl_mmol_per_l=kcl_mmol_per_l,
         fluid_name=fluid_name,
         note=note,
@@ -142,6 +153,22 @@ def intermittent_phase(
     )
 
 
+def syringe_fills(
+    *, start_h: float, end_h: float, rate_ml_per_h: float, size_ml: float
+) -> tuple[tuple[float, float], ...]:
+    """When each syringe goes in and how much it holds (to 0.1 mL) to run a phase."""
+    total = rate_ml_per_h * (end_h - start_h)
+    if rate_ml_per_h <= 0 or total <= 0:
+        return ((start_h, 0.0),)
+    fills = []
+    given = 0.0
+    while given < total - 1e-9:
+        volume = min(size_ml, total - given)
+        fills.append((start_h + given / rate_ml_per_h, delivery.syringe_ml(volume)))
+        given += volume
+    return tuple(fills)
+
+
 @dataclass(frozen=True, kw_only=True)
 class ScheduleEntry:
     hour: float
@@ -178,12 +205,6 @@ def _continuous_action(phase: Phase) -> str:
             f"Bolus {_ml(phase.volume_ml)}{fluid} {phase.route.upper()} over {minutes:.0f} min "
             f"({rate}{drip}); then reassess"
         )
-    if phase.syringe_ml is not None:
-        rate = format_quantity(round(phase.rate_ml_per_h or 0.0, 1), "mL/h", decimals=1)
-        return (
-            f"Syringe pump: set {rate}; load {format_quantity(phase.syringe_ml, 'mL', decimals=1)} "
-            f"for hours {phase.start_h:g}–{phase.end_h:g}"
-        )
     action = f"Set {rate}"
     if phase.drops_per_min is not None:
         action += f" = {format_quantity(phase.drops_per_min, 'drops/min')}"
@@ -196,6 +217,20 @@ def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[Sch
     """The plan on the clock: each phase start and each divided dose (volumes to 0.1 mL)."""
     entries = []
     for phase in phases:
+        if phase.syringe_fills:
+            rate = format_quantity(phase.rate_ml_per_h or 0.0, "mL/h", decimals=1)
+            for number, (hour, volume) in enumerate(phase.syringe_fills):
+                load = format_quantity(volume, "mL", decimals=1)
+                action = (
+                    f"Syringe pump: set {rate}; load {load}"
+                    if number == 0
+                    else f"Change syringe: load {load}; {rate} continues"
+                )
+                entries.append(
+                    ScheduleEntry(hour=hour, clock=clock_time(start, hour), phase=phase.kind,
+                                  action=action + f" (until hour {phase.end_h:g})")
+                )  # fmt: skip
+            continue
         if phase.mode == "continuous":
             entries.append(
                 ScheduleEntry(

@@ -36,7 +36,7 @@ def phase_dict(phase: Phase) -> dict[str, object]:
         data["rate_ml_per_h"] = phase.rate_ml_per_h
         data["drops_per_min"] = phase.drops_per_min
         data["seconds_per_drop"] = phase.seconds_per_drop
-        data["syringe_ml"] = phase.syringe_ml
+        data["syringe_fills"] = [{"hour": h, "ml": ml} for h, ml in phase.syringe_fills]
     else:
         data.update(
             dose_ml=phase.dose_ml,
