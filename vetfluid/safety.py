@@ -364,13 +364,14 @@ def check_overload(
     suggested = (deficit_ml / slower_h if deficit_ml else 0.0) + background_ml_per_h
     which = " and ".join(n for n, on in (("cardiac", cardiac), ("renal", renal)) if on)
     gain = limit("overload_weight_gain_fraction")
+    line = overload_weight_kg(weight_kg=weight_kg, deficit_ml=deficit_ml, gain_fraction=gain.value)
     ledger.add(
         "soft",
         "OVERLOAD_RISK",
         f"With {which} disease fluid overload is more likely; suggested rate "
         f"{q(suggested, 'mL/h')} (deficit over {slower_h:g} h).",
-        f"Weigh every 6–12 h; stop and reassess at a gain of {gain.value:.0%} over baseline "
-        f"({q(weight_kg * (1 + gain.value), 'kg')}).",
+        f"Weigh every 6–12 h; stop and reassess at {q(line, 'kg')} ({gain.value:.0%} over "
+        f"the euhydrated {q(weight_kg + deficit_ml / 1000.0, 'kg')}).",
         gain.source_id,
     )
 
