@@ -41,7 +41,6 @@ SITE_LIMIT_PARAMETER = {
     "icoel": "max_site_volume_icoel_ml_per_kg",
 }
 MAINTENANCE_TAIL_H = 12.0  # maintenance runs to hour 24, and at least 12 h after replacement
-KCL_CONCENTRATE_ID = "kcl_2_meq_per_ml"
 DEXTROSE_CONCENTRATE_ID = "dextrose_50"
 
 
@@ -243,7 +242,7 @@ def _bag(request: PlanRequest, kcl_mmol_per_l: float) -> fluids.Fluid:
     """The chosen fluid with KCl and dextrose added to each litre."""
     bag = fluids.fluid(request.fluid_id)
     if kcl_mmol_per_l > 0:
-        concentrate = fluids.fluid(KCL_CONCENTRATE_ID)
+        concentrate = fluids.fluid(fluids.KCL_CONCENTRATE_ID)
         k_per_ml = fluids.composition(concentrate).k_mmol_per_l / 1000.0
         bag = fluids.with_additive(
             bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=kcl_mmol_per_l / k_per_ml

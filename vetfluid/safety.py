@@ -15,10 +15,10 @@ from vetfluid.hydration import overload_weight_kg
 from vetfluid.ledger import Ledger
 from vetfluid.limits import limit
 from vetfluid.maintenance import Maintenance, WaterBudget
-from vetfluid.resuscitation import Resuscitation
+from vetfluid.resuscitation import RESUSCITATION_ROUTES, Resuscitation
 from vetfluid.schedule import Phase
 
-LINE_ROUTES = ("iv", "io")
+LINE_ROUTES = RESUSCITATION_ROUTES  # a continuous line: IV or IO
 NEAR_PLASMA_FACTOR = 1.2  # urine within 20% of plasma counts as "close to plasma" for the note
 
 
