@@ -166,3 +166,24 @@ def test_text_plan_is_readable_and_carries_cautions(capsys):
     assert "Fluid plan — Dog, 20 kg" in out
     assert "replacement" in out and "Verify every volume" in out
     assert "* body_weight_kg" in out  # memory values are starred
+
+
+def test_course_prints_the_compartments_at_the_requested_hours(capsys):
+    code, data = run_json(capsys, "course", "--species", "dog", "--weight", "20 kg",
+                          "--dehydration", "7", "--serum-na", "150", "--bolus-ml-per-kg", "15",
+                          "--at", "0,0.25,24")  # fmt: skip
+    assert code == 0
+    rows = data["rows"]
+    assert [r["hour"] for r in rows] == [0, 0.25, 24]
+    for key in ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
+                "remaining_deficit_ml", "given_ml", "serum_na"):  # fmt: skip
+        assert key in rows[0]
+    assert rows[0]["plasma_ml"] == pytest.approx(1000)  # 5 % of 20 kg (Odunayo 2018)
+    assert rows[1]["plasma_ml"] > rows[0]["plasma_ml"]  # the bolus expands the plasma
+    assert rows[2]["remaining_deficit_ml"] == pytest.approx(0, abs=1)
+    assert rows[2]["weight_kg"] > rows[1]["weight_kg"]
+
+
+def test_course_rejects_bad_hours(capsys):
+    code, _, err = run(capsys, "course", "--species", "dog", "--weight", "20 kg", "--at", "x")
+    assert code == 2 and "--at" in err

@@ -45,6 +45,54 @@ def _start_time(text: str) -> time:
         raise argparse.ArgumentTypeError(f"start time {text!r} must be HH:MM, e.g. 08:30") from None
 
 
+def _add_plan_arguments(parser: argparse.ArgumentParser) -> None:
+    """The patient and plan options shared by `plan` and `course`."""
+    parser.add_argument("--demo", help="plan for a demo patient (see README) instead of --species")
+    parser.add_argument("--species", help="species id (see `vetfluid-cli species`)")
+    parser.add_argument("--weight", help='body weight with unit, e.g. "20 kg" or "350 g"')
+    parser.add_argument(
+        "--dehydration", type=float, help="estimated dehydration, %% of body weight"
+    )
+    parser.add_argument(
+        "--finding", action="append", default=[], help="clinical finding id (repeatable)"
+    )
+    parser.add_argument(
+        "--replace-hours", type=float, default=24.0, help="period to replace the deficit (h)"
+    )
+    parser.add_argument(
+        "--losses-ml-per-day", type=float, default=0.0, help="ongoing losses (mL/day)"
+    )
+    parser.add_argument("--maintenance-method", choices=("linear", "allometric", "energy"))
+    parser.add_argument(
+        "--fluid", default="lactated_ringers", help="fluid id (see `vetfluid-cli fluids`)"
+    )
+    parser.add_argument("--route", choices=("iv", "io", "sc", "icoel"))
+    parser.add_argument("--device", choices=("pump", "gravity", "syringe", "divided"))
+    parser.add_argument(
+        "--drop-factor", type=float, help="giving set drops/mL (implies a gravity drip)"
+    )
+    parser.add_argument(
+        "--boluses", type=int, default=0, help="resuscitation boluses to plan first"
+    )
+    parser.add_argument("--body-temp-c", type=float, help="body temperature (ectotherms)")
+    parser.add_argument("--serum-na", type=float, help="serum sodium, mmol/L")
+    parser.add_argument("--serum-k", type=float, help="serum potassium, mmol/L")
+    parser.add_argument("--usg", type=float, help="urine specific gravity")
+    parser.add_argument("--urine-osm", type=float, help="urine osmolality, mOsm/kg")
+    parser.add_argument("--kcl-mmol-per-l", type=float, help="KCl to add per litre, by hand")
+    parser.add_argument(
+        "--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v"
+    )
+    parser.add_argument("--start", type=_start_time, help="clock time of hour 0, HH:MM")
+    parser.add_argument("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
+    parser.add_argument("--syringe-ml", type=float, default=60.0, help="syringe size, mL")
+    parser.add_argument("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
+    parser.add_argument("--ts", type=float, help="total solids, g/dL (recorded with the plan)")
+    for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
+        parser.add_argument(f"--{flag}", action="store_true", help=f"patient flag: {flag}")
+    parser.add_argument("--json", action="store_true")
+
+
 def _parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="vetfluid-cli", description="Headless fluid-therapy planning. " + SHORT_CAUTION
@@ -59,44 +107,15 @@ def _parser() -> argparse.ArgumentParser:
     fluids_cmd.add_argument("--json", action="store_true")
 
     plan = sub.add_parser("plan", help="build a fluid plan for one patient")
-    plan.add_argument("--demo", help="plan for a demo patient (see README) instead of --species")
-    plan.add_argument("--species", help="species id (see `vetfluid-cli species`)")
-    plan.add_argument("--weight", help='body weight with unit, e.g. "20 kg" or "350 g"')
-    plan.add_argument("--dehydration", type=float, help="estimated dehydration, %% of body weight")
-    plan.add_argument(
-        "--finding", action="append", default=[], help="clinical finding id (repeatable)"
-    )
-    plan.add_argument(
-        "--replace-hours", type=float, default=24.0, help="period to replace the deficit (h)"
-    )
-    plan.add_argument(
-        "--losses-ml-per-day", type=float, default=0.0, help="ongoing losses (mL/day)"
-    )
-    plan.add_argument("--maintenance-method", choices=("linear", "allometric", "energy"))
-    plan.add_argument(
-        "--fluid", default="lactated_ringers", help="fluid id (see `vetfluid-cli fluids`)"
-    )
-    plan.add_argument("--route", choices=("iv", "io", "sc", "icoel"))
-    plan.add_argument("--device", choices=("pump", "gravity", "syringe", "divided"))
-    plan.add_argument(
-        "--drop-factor", type=float, help="giving set drops/mL (implies a gravity drip)"
-    )
-    plan.add_argument("--boluses", type=int, default=0, help="resuscitation boluses to plan first")
-    plan.add_argument("--body-temp-c", type=float, help="body temperature (ectotherms)")
-    plan.add_argument("--serum-na", type=float, help="serum sodium, mmol/L")
-    plan.add_argument("--serum-k", type=float, help="serum potassium, mmol/L")
-    plan.add_argument("--usg", type=float, help="urine specific gravity")
-    plan.add_argument("--urine-osm", type=float, help="urine osmolality, mOsm/kg")
-    plan.add_argument("--kcl-mmol-per-l", type=float, help="KCl to add per litre, by hand")
-    plan.add_argument("--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v")
-    plan.add_argument("--start", type=_start_time, help="clock time of hour 0, HH:MM")
-    plan.add_argument("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
-    plan.add_argument("--syringe-ml", type=float, default=60.0, help="syringe size, mL")
-    plan.add_argument("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
-    plan.add_argument("--ts", type=float, help="total solids, g/dL (recorded with the plan)")
-    for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
-        plan.add_argument(f"--{flag}", action="store_true", help=f"patient flag: {flag}")
-    plan.add_argument("--json", action="store_true")
+    _add_plan_arguments(plan)
+
+    course = sub.add_parser("course", help="body water, weight and Na over the course of a plan")
+    _add_plan_arguments(course)
+    course.add_argument("--bolus-ml-per-kg", type=float, help="an extra IV bolus at hour 0, mL/kg")
+    course.add_argument("--bolus-fluid", default="nacl_0_9", help="fluid id of the extra bolus")
+    course.add_argument("--bolus-minutes", type=float, default=15.0, help="bolus duration, min")
+    course.add_argument("--at", default="0,1,4,12,24", help="hours to report, e.g. 0,0.5,2,24")
+    course.add_argument("--horizon-h", type=float, help="hours to simulate (up to 336)")
 
     sodium = sub.add_parser("sodium", help="predicted serum Na change per litre (Adrogué–Madias)")
     sodium.add_argument("--species", required=True)
@@ -363,7 +382,66 @@ def cmd_sodium(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-COMMANDS = {"species": cmd_species, "fluids": cmd_fluids, "plan": cmd_plan, "sodium": cmd_sodium}
+def _hours(text: str) -> list[float]:
+    try:
+        hours = [float(part) for part in text.split(",") if part.strip()]
+    except ValueError:
+        raise InputError(
+            "--at must list hours separated by commas", field="--at", value=text, fix="e.g. 0,1,24"
+        ) from None
+    if not hours or any(h < 0 for h in hours):
+        raise InputError("--at needs hours of 0 or more", field="--at", value=text)
+    return hours
+
+
+COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
+               "remaining_deficit_ml", "given_ml", "serum_na")  # fmt: skip
+
+
+def cmd_course(args: argparse.Namespace) -> int:
+    from vetfluid.course import bolus_input, course
+    from vetfluid.plan import build_plan
+
+    plan = build_plan(_request(args))
+    hours = _hours(args.at)
+    extra = ()
+    if args.bolus_ml_per_kg:
+        extra = (
+            bolus_input(fluid_id=args.bolus_fluid, ml_per_kg=args.bolus_ml_per_kg,
+                        weight_kg=plan.request.weight_kg, minutes=args.bolus_minutes),
+        )  # fmt: skip
+    horizon = args.horizon_h or max(max(hours), max(p.end_h for p in plan.phases))
+    result = course(plan, horizon_h=horizon, extra_boluses=extra)
+    rows = [result.at(h) for h in hours]
+    data = {
+        "species_id": plan.request.species_id,
+        "weight_kg": plan.request.weight_kg,
+        "rows": rows,
+        "model": "docs/model.md",
+        "provenance": [v.provenance() for v in result.provenance],
+        "findings": [f.as_dict() for f in plan.findings],
+        "cautions": list(CAUTIONS),
+    }
+    if args.json:
+        _emit(data)
+    else:
+        print(f"Course — {plan.species_name}, {_q(plan.request.weight_kg, 'kg')}")
+        print(f"{'hour':>6} " + " ".join(f"{k:>20}" for k in COURSE_KEYS))
+        for row in rows:
+            cells = " ".join(f"{'—' if row[k] is None else format(row[k], '.6g'):>20}"
+                             for k in COURSE_KEYS)  # fmt: skip
+            print(f"{row['hour']:>6g} {cells}")
+        print("\n" + _cautions_text())
+    return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK
+
+
+COMMANDS = {
+    "species": cmd_species,
+    "fluids": cmd_fluids,
+    "plan": cmd_plan,
+    "course": cmd_course,
+    "sodium": cmd_sodium,
+}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -157,6 +157,8 @@ class Plan:
     water_budget: maintenance.WaterBudget | None
     findings: tuple[Finding, ...]
     provenance: tuple[SpeciesValue, ...] = field(repr=False)
+    bag: fluids.Fluid = field(repr=False)  # the fluid with its additives
+    bolus_fluid: fluids.Fluid = field(repr=False)  # the plain fluid, for boluses
 
     @property
     def total_ml_first_24h(self) -> float:
@@ -557,6 +559,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         water_budget=budget,
         findings=tuple(ledger.findings),
         provenance=tuple(ledger.values.values()),
+        bag=bag,
+        bolus_fluid=base,
     )
 
 
