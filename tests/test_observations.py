@@ -1,0 +1,94 @@
+"""Observations: alerts against the plan, ins-and-outs, re-planning from the current state."""
+
+from __future__ import annotations
+
+import pytest
+
+from vetfluid.errors import InputError
+from vetfluid.observations import (
+    Observation,
+    alerts,
+    ins_and_outs,
+    predicted_weight_kg,
+    replan_request,
+)
+from vetfluid.plan import PlanRequest, build_plan
+
+
+@pytest.fixture(scope="module")
+def dog():
+    return build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7,
+                                  replace_hours=12, serum_na=160))  # fmt: skip
+
+
+def codes(findings):
+    return {f.code for f in findings}
+
+
+def test_weight_at_the_overload_line_alerts(dog):
+    # Pardo 2024: ≥ 10 % over baseline; baseline = euhydrated 21.4 kg → line 23.54 kg.
+    assert "OBSERVED_OVERLOAD" in codes(alerts(dog, [Observation(hour=10, weight_kg=23.6)]))
+    assert "OBSERVED_OVERLOAD" not in codes(alerts(dog, [Observation(hour=10, weight_kg=21.3)]))
+
+
+def test_oliguria_below_the_species_threshold(dog):
+    # Foster 2018: normal 1–2 mL/kg/h in dogs; below 1 is oliguria (our default threshold).
+    low = Observation(hour=8, weight_kg=20.6, urine_ml=60, urine_period_h=4)  # 0.73 mL/kg/h
+    ok = Observation(hour=8, weight_kg=20.6, urine_ml=120, urine_period_h=4)  # 1.46 mL/kg/h
+    assert "OLIGURIA" in codes(alerts(dog, [low]))
+    assert "OLIGURIA" not in codes(alerts(dog, [ok]))
+    assert "OLIGURIA" not in codes(alerts(dog, [low], oliguria_ml_per_kg_h=0.5))  # editable
+
+
+def test_sodium_falling_faster_than_the_limit(dog):
+    fast = [Observation(hour=0, serum_na=160), Observation(hour=4, serum_na=156)]  # 1 mmol/L/h
+    slow = [Observation(hour=0, serum_na=160), Observation(hour=4, serum_na=158.5)]
+    assert "NA_CHANGING_TOO_FAST" in codes(alerts(dog, fast))
+    assert "NA_CHANGING_TOO_FAST" not in codes(alerts(dog, slow))
+
+
+def test_deficit_not_closing(dog):
+    predicted = predicted_weight_kg(dog, 8)
+    assert predicted > 20.5
+    stuck = Observation(hour=8, weight_kg=20.1)
+    assert "DEFICIT_NOT_CLOSING" in codes(alerts(dog, [stuck]))
+    on_track = Observation(hour=8, weight_kg=predicted)
+    assert "DEFICIT_NOT_CLOSING" not in codes(alerts(dog, [on_track]))
+
+
+def test_ins_and_outs_follow_the_measured_urine():
+    # Côté 2020: insensible (20 mL/kg/day) + measured urine + other losses, over the next period.
+    rows = ins_and_outs(weight_kg=10, insensible_ml_per_kg_day=20, period_h=6,
+                        measured=[(30, 0), (0, 0), (90, 20)])  # fmt: skip
+    insensible = 20 * 10 * 6 / 24  # 50 mL per 6 h
+    assert [r.replace_ml for r in rows] == [insensible + 30, insensible, insensible + 110]
+    assert rows[2].next_rate_ml_per_h == pytest.approx((insensible + 110) / 6)
+    assert [(r.start_h, r.end_h) for r in rows] == [(0, 6), (6, 12), (12, 18)]
+
+
+def test_replan_starts_from_the_current_state(dog):
+    observed = [Observation(hour=6, weight_kg=20.7, serum_na=157),
+                Observation(hour=12, weight_kg=21.0, serum_k=3.4)]  # fmt: skip
+    request = replan_request(dog, observed)
+    assert request.weight_kg == 21.0
+    assert request.dehydration_percent == pytest.approx((21.4 - 21.0) / 21.0 * 100)
+    assert (request.serum_na, request.serum_k) == (157, 3.4)
+    assert request.fluid_id == dog.request.fluid_id
+    again = build_plan(request)
+    assert again.deficit_ml == pytest.approx(400, rel=0.01)
+    assert dog.deficit_ml == pytest.approx(1400)  # the earlier version is untouched
+
+
+@pytest.mark.parametrize(
+    "kwargs",
+    [{"hour": -1}, {"hour": 1, "urine_ml": 20}, {"hour": 1, "weight_kg": 0},
+     {"hour": 1, "mucous_membranes": "purple"}, {"hour": 1, "serum_na": 500}],
+)  # fmt: skip
+def test_bad_observations_are_input_errors(kwargs):
+    with pytest.raises(InputError):
+        Observation(**kwargs)
+
+
+def test_replan_needs_a_weight(dog):
+    with pytest.raises(InputError, match="measured weight"):
+        replan_request(dog, [Observation(hour=2, serum_na=158)])

@@ -1,0 +1,265 @@
+"""Observations during the course, the alerts they raise, and ins-and-outs.
+
+* Observations are what the clinician records at an hour of the plan: weight,
+  PCV/TS, urine output (a measured volume over a period), serum Na and K, heart
+  and respiratory rate, mucous membranes and CRT, a note.
+* Alerts compare them with the plan and the species table:
+  - weight at or above the overload line, 10 % over the euhydrated weight
+    (Pardo M et al. 2024 AAHA guidelines);
+  - urine output below the oliguria threshold, the low end of the species' normal
+    urine output (dogs and cats 1 mL/kg/h; Foster JD 2018 — thresholds of 0.5 or
+    0.25 mL/kg/h are also used; editable);
+  - serum Na changing faster than the correction limit between two measurements
+    (0.5 mmol/L/h default; see ``safety_limits.csv``);
+  - the deficit not closing as predicted: after 6 h, less than half the predicted
+    weight gain (our rule of thumb, no source).
+* Ins and outs for oliguric or anuric patients (Côté E 2020, AKI algorithm):
+  the next period's fluid = insensible loss (20 mL/kg/day in dogs and cats) +
+  measured urine output + other measured losses over the last period.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from vetfluid.checks import require_number
+from vetfluid.errors import InputError
+from vetfluid.findings import Finding
+from vetfluid.formatting import format_quantity as q
+from vetfluid.hydration import overload_weight_kg
+from vetfluid.limits import limit
+from vetfluid.plan import Plan
+from vetfluid.species import SpeciesTable, load_table
+
+MUCOUS_MEMBRANES = ("pink", "pale", "injected", "cyanotic", "icteric", "tacky", "dry")
+DEFICIT_CHECK_AFTER_H = 6.0  # our rule of thumb, no source
+DEFICIT_CLOSING_FRACTION = 0.5  # our rule of thumb, no source
+
+
+@dataclass(frozen=True, kw_only=True)
+class Observation:
+    """What was measured at ``hour`` of the plan (all values optional but the hour)."""
+
+    hour: float
+    weight_kg: float | None = None
+    pcv_percent: float | None = None
+    total_solids_g_per_dl: float | None = None
+    urine_ml: float | None = None
+    urine_period_h: float | None = None
+    serum_na: float | None = None
+    serum_k: float | None = None
+    heart_rate_per_min: float | None = None
+    respiratory_rate_per_min: float | None = None
+    mucous_membranes: str | None = None
+    crt_s: float | None = None
+    note: str = ""
+
+    def __post_init__(self) -> None:
+        require_number(self.hour, "hour", low=0, high=14 * 24, unit="h")
+        for name, low, high, unit in (
+            ("weight_kg", 1e-4, 5000, "kg"),
+            ("pcv_percent", 3, 90, "%"),
+            ("total_solids_g_per_dl", 1, 15, "g/dL"),
+            ("urine_ml", 0, 1e6, "mL"),
+            ("urine_period_h", 0.1, 48, "h"),
+            ("serum_na", 80, 230, "mmol/L"),
+            ("serum_k", 0.5, 12, "mmol/L"),
+            ("heart_rate_per_min", 5, 1000, "/min"),
+            ("respiratory_rate_per_min", 1, 300, "/min"),
+            ("crt_s", 0, 10, "s"),
+        ):
+            value = getattr(self, name)
+            if value is not None:
+                require_number(value, name, low=low, high=high, unit=unit)
+        if (self.urine_ml is None) != (self.urine_period_h is None):
+            raise InputError(
+                "urine output needs both a volume and the period it was collected over",
+                field="urine",
+                value=(self.urine_ml, self.urine_period_h),
+                fix="enter mL and hours, e.g. 45 mL over 4 h",
+            )
+        if self.mucous_membranes is not None and self.mucous_membranes not in MUCOUS_MEMBRANES:
+            raise InputError(
+                f"unknown mucous membrane finding {self.mucous_membranes!r}",
+                field="mucous_membranes",
+                value=self.mucous_membranes,
+                fix=", ".join(MUCOUS_MEMBRANES),
+            )
+
+    def urine_ml_per_kg_h(self, weight_kg: float) -> float | None:
+        if self.urine_ml is None or self.urine_period_h is None:
+            return None
+        return self.urine_ml / self.urine_period_h / weight_kg
+
+
+def predicted_weight_kg(plan: Plan, hour: float) -> float:
+    """Entered weight + net fluid balance by ``hour`` (1 mL ≈ 1 g; Davis 2013)."""
+    given = sum(p.volume_between(0.0, hour + 1e-9) for p in plan.phases)
+    consumed = (plan.maintenance.ml_per_h + plan.request.losses_ml_per_day / 24.0) * hour
+    return plan.request.weight_kg + (given - consumed) / 1000.0
+
+
+def alerts(
+    plan: Plan,
+    observations: list[Observation] | tuple[Observation, ...],
+    *,
+    oliguria_ml_per_kg_h: float | None = None,
+    table: SpeciesTable | None = None,
+) -> list[Finding]:
+    """Findings from what was observed (see the module docstring for each rule)."""
+    table = table or load_table()
+    sid = plan.request.species_id
+    ordered = sorted(observations, key=lambda o: o.hour)
+    found: list[Finding] = []
+    gain = limit("overload_weight_gain_fraction")
+    line = overload_weight_kg(
+        weight_kg=plan.request.weight_kg, deficit_ml=plan.deficit_ml, gain_fraction=gain.value
+    )
+    urine = table.get(sid, "urine_output_ml_per_kg_h")
+    threshold = oliguria_ml_per_kg_h
+    if threshold is None and urine is not None:
+        threshold = urine.low if urine.low is not None else urine.number
+    na_limit = plan.request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
+    last_na: Observation | None = None
+    latest_weight = plan.request.weight_kg
+    for obs in ordered:
+        if obs.weight_kg is not None:
+            latest_weight = obs.weight_kg
+            if obs.weight_kg >= line:
+                found.append(Finding(
+                    severity="soft", code="OBSERVED_OVERLOAD",
+                    message=f"At hour {obs.hour:g} the patient weighs {q(obs.weight_kg, 'kg')}, "
+                    f"at or above the overload line of {q(line, 'kg')}.",
+                    action="Stop or slow the fluids, examine for overload and re-plan.",
+                    source_id=gain.source_id,
+                ))  # fmt: skip
+            expected_gain = predicted_weight_kg(plan, obs.hour) - plan.request.weight_kg
+            seen_gain = obs.weight_kg - plan.request.weight_kg
+            if (
+                obs.hour >= DEFICIT_CHECK_AFTER_H
+                and plan.deficit_ml > 0
+                and expected_gain > 0
+                and seen_gain < DEFICIT_CLOSING_FRACTION * expected_gain
+            ):
+                found.append(Finding(
+                    severity="soft", code="DEFICIT_NOT_CLOSING",
+                    message=f"At hour {obs.hour:g} the weight has risen "
+                    f"{q(seen_gain * 1000, 'g')}, less than half the predicted "
+                    f"{q(expected_gain * 1000, 'g')}.",
+                    action="Look for losses not counted (urine, vomit, diarrhoea) and re-plan.",
+                ))  # fmt: skip
+        rate = obs.urine_ml_per_kg_h(latest_weight)
+        if rate is not None and threshold is not None and rate < threshold:
+            found.append(Finding(
+                severity="soft", code="OLIGURIA",
+                message=f"Urine output {q(rate, 'mL/kg/h')} over {q(obs.urine_period_h, 'h')} "
+                f"to hour {obs.hour:g} is below {q(threshold, 'mL/kg/h')}.",
+                action="Check the catheter and bladder, reassess hydration and blood pressure; "
+                "consider ins-and-outs fluid therapy.",
+                source_id=urine.source_id if urine is not None else None,
+            ))  # fmt: skip
+        if obs.serum_na is not None:
+            if last_na is not None and obs.hour > last_na.hour:
+                speed = (obs.serum_na - (last_na.serum_na or 0.0)) / (obs.hour - last_na.hour)
+                if abs(speed) > na_limit:
+                    found.append(Finding(
+                        severity="soft", code="NA_CHANGING_TOO_FAST",
+                        message=f"Serum Na moved {q(abs(speed), 'mmol/L/h')} between hours "
+                        f"{last_na.hour:g} and {obs.hour:g}, faster than "
+                        f"{q(na_limit, 'mmol/L/h')}.",
+                        action="Slow the fluids or change to a fluid closer to the patient's Na; "
+                        "recheck in 2–4 h.",
+                        source_id="adrogue2000",
+                    ))  # fmt: skip
+            last_na = obs
+    return found
+
+
+@dataclass(frozen=True, kw_only=True)
+class InsAndOutsRow:
+    period: int
+    start_h: float
+    end_h: float
+    urine_ml: float
+    other_losses_ml: float
+    insensible_ml: float
+    replace_ml: float
+    next_rate_ml_per_h: float
+
+
+def ins_and_outs(
+    *,
+    weight_kg: float,
+    insensible_ml_per_kg_day: float,
+    period_h: float,
+    measured: list[tuple[float, float]],
+) -> list[InsAndOutsRow]:
+    """Ins and outs (Côté 2020): each period's measured urine and other losses, plus the
+    insensible loss for the period, are given over the next period.
+
+    ``measured`` holds (urine mL, other losses mL) per period, oldest first.
+    """
+    require_number(weight_kg, "weight_kg", positive=True, unit="kg")
+    require_number(insensible_ml_per_kg_day, "insensible_ml_per_kg_day", low=0)
+    require_number(period_h, "period_h", low=1, high=24, unit="h")
+    rows = []
+    insensible = insensible_ml_per_kg_day * weight_kg * period_h / 24.0
+    for number, (urine, other) in enumerate(measured, start=1):
+        require_number(urine, "urine_ml", low=0, unit="mL")
+        require_number(other, "other_losses_ml", low=0, unit="mL")
+        total = insensible + urine + other
+        rows.append(
+            InsAndOutsRow(
+                period=number,
+                start_h=(number - 1) * period_h,
+                end_h=number * period_h,
+                urine_ml=urine,
+                other_losses_ml=other,
+                insensible_ml=insensible,
+                replace_ml=total,
+                next_rate_ml_per_h=total / period_h,
+            )
+        )
+    return rows
+
+
+def observed_series(observations: list[Observation], field: str) -> tuple[np.ndarray, np.ndarray]:
+    """(hours, values) of one observed quantity, for plotting over the prediction."""
+    points = [(o.hour, getattr(o, field)) for o in observations if getattr(o, field) is not None]
+    points.sort()
+    return np.array([p[0] for p in points]), np.array([p[1] for p in points], dtype=float)
+
+
+def replan_request(plan: Plan, observations: list[Observation] | tuple[Observation, ...]):
+    """A new request from the patient's current state (the earlier plan is kept by the caller).
+
+    Weight: the latest measured weight. Remaining deficit: the euhydrated weight
+    (entered weight + deficit, 1 L ≈ 1 kg) less that weight, as a % of it. Labs: the
+    latest Na and K. Everything else (fluid, route, flags) carries over.
+    """
+    from dataclasses import replace
+
+    ordered = sorted(observations, key=lambda o: o.hour)
+    weights = [o for o in ordered if o.weight_kg is not None]
+    if not weights:
+        raise InputError(
+            "re-planning needs a measured weight", field="weight", fix="record a weight first"
+        )
+    current = weights[-1].weight_kg
+    euhydrated = plan.request.weight_kg + plan.deficit_ml / 1000.0
+    remaining_percent = max(0.0, (euhydrated - current) / current * 100.0)
+    latest = {
+        name: next((getattr(o, name) for o in reversed(ordered) if getattr(o, name) is not None),
+                   getattr(plan.request, name))
+        for name in ("serum_na", "serum_k", "pcv_percent", "total_solids_g_per_dl")
+    }  # fmt: skip
+    return replace(
+        plan.request,
+        weight_kg=current,
+        dehydration_percent=min(remaining_percent, 20.0),
+        dehydration_findings=(),
+        resuscitation_boluses=0,
+        **latest,
+    )
