@@ -46,6 +46,7 @@ class MainWindow(QMainWindow):
         super().__init__()
         self.session = None  # created with the planner, right after the first paint
         self.timeline_view = None
+        self.course_view = None
         self.species_view = None
         self.setWindowIcon(icon("vetfluid"))
         self.setWindowTitle("vetfluid")
@@ -118,6 +119,8 @@ class MainWindow(QMainWindow):
         self.details.addTab(self.summary, "&Plan and schedule")
         self.timeline_holder = _placeholder("Drawing the timeline…")
         self.details.addTab(self.timeline_holder, "&Timeline")
+        self.course_holder = _placeholder("Modelling the course…")
+        self.details.addTab(self.course_holder, "Co&urse")
         self.findings = FindingsView(self.session)
         self.details.addTab(self.findings, "&Checks")
         self.provenance = ProvenanceView(self.session)
@@ -211,6 +214,12 @@ class MainWindow(QMainWindow):
             self._swap(self.timeline_holder, self.timeline_view)
             self.timeline_shown = ShownPlan(self.timeline_view, self.session, self._plot)
             self._plot(self.session.plan)
+
+        if self.details.widget(index) is self.course_holder and self.course_view is None:
+            from ui.course_view import CourseView
+
+            self.course_view = CourseView(self.session)
+            self._swap(self.course_holder, self.course_view)
 
     def _page_opened(self, index: int) -> None:
         """The species table is built the first time its page is opened."""

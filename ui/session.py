@@ -36,6 +36,8 @@ class PlanSession(QObject):
     inputsReplaced = Signal(object)
     #: acknowledgements or readiness changed
     readinessChanged = Signal()
+    #: observations were recorded or removed, or a new plan version began
+    observationsChanged = Signal()
 
     def __init__(self, request: PlanRequest | None = None, parent: QObject | None = None):
         super().__init__(parent)
@@ -45,6 +47,8 @@ class PlanSession(QObject):
         self._field_errors: dict[str, str] = {}
         self._acknowledged: dict[str, str] = {}
         self._ready = False
+        self.observations: list = []  # vetfluid.observations.Observation, for this version
+        self.versions: list[tuple[PlanRequest, tuple]] = []  # earlier (request, observations)
         self.plan: Plan | None = None
         self.problem = ""
         self.table: SpeciesTable = load_table()
@@ -82,7 +86,10 @@ class PlanSession(QObject):
         )
         self._field_errors.clear()
         self._acknowledged = dict(acknowledged or {})
+        self.observations = []
+        self.versions = []
         self.inputsReplaced.emit(request)
+        self.observationsChanged.emit()
         self.recompute()
 
     def reload_table(self) -> None:
@@ -154,3 +161,26 @@ class PlanSession(QObject):
     @property
     def ready(self) -> bool:
         return self._ready
+
+    # ---- observations and plan versions ------------------------------------------------------
+    def add_observation(self, observation) -> None:  # noqa: ANN001 — Observation
+        self.observations.append(observation)
+        self.observations.sort(key=lambda o: o.hour)
+        self.observationsChanged.emit()
+
+    def remove_observation(self, index: int) -> None:
+        del self.observations[index]
+        self.observationsChanged.emit()
+
+    def replan(self) -> None:
+        """Start a new plan version from the patient's current state; keep the earlier one."""
+        from vetfluid.observations import replan_request
+
+        if self.plan is None:
+            return
+        request = replan_request(self.plan, self.observations)  # raises InputError if no weight
+        versions = [*self.versions, (self.plan.request, tuple(self.observations))]
+        acknowledged = self.acknowledged
+        self.replace_request(request, acknowledged)
+        self.versions = versions
+        self.observationsChanged.emit()

@@ -18,8 +18,8 @@ class ShownPlan(QObject):
         super().__init__(widget)
         self._widget = widget
         self._show = show
-        self._plan: object = None
-        self._stale = False
+        self._plan: object = session.plan  # the plan of the moment is shown on first sight
+        self._stale = True
         session.planChanged.connect(self._changed)
         widget.installEventFilter(self)
 

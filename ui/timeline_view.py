@@ -62,6 +62,29 @@ def nice_ceiling(value: float) -> float:
     return 10.0 * power
 
 
+def pin_legend(graphics: pg.GraphicsLayoutWidget, legend: pg.LegendItem) -> None:
+    """Keep a legend its own height, at the top of its cell (no spread-out rows)."""
+    legend.updateSize()
+    legend.setMaximumHeight(legend.height())
+    graphics.ci.layout.setAlignment(legend, Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
+
+
+def apply_palette(palette: QPalette, graphics: pg.GraphicsLayoutWidget, plots) -> None:  # noqa: ANN001
+    """Plot background and text from the widget's palette (light or dark)."""
+    base = palette.color(QPalette.ColorRole.Base)
+    text = palette.color(QPalette.ColorRole.Text)
+    graphics.setBackground(base)
+    for plot in plots:
+        for name in ("left", "bottom"):
+            axis = plot.getAxis(name)
+            axis.setPen(text)
+            axis.setTextPen(text)
+        plot.setTitle(plot.titleLabel.text, color=text.name(), size="9pt")
+        plot.legend.setLabelTextColor(text)
+        for _sample, label in plot.legend.items:
+            label.setText(label.text, color=text.name())
+
+
 def configure_pyqtgraph() -> None:
     """Set pyqtgraph's global options once per process (antialiased lines)."""
     global _configured
@@ -282,28 +305,10 @@ class TimelineView(QWidget):
         return plot
 
     def _pin_legend(self, legend: pg.LegendItem) -> None:
-        """Keep a legend its own height, at the top of its cell (no spread-out rows)."""
-        legend.updateSize()
-        legend.setMaximumHeight(legend.height())
-        self.graphics.ci.layout.setAlignment(
-            legend, Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft
-        )
+        pin_legend(self.graphics, legend)
 
     def _apply_palette(self) -> None:
-        """Plot background and text from the widget's palette (light or dark)."""
-        palette = self.palette()
-        base = palette.color(QPalette.ColorRole.Base)
-        text = palette.color(QPalette.ColorRole.Text)
-        self.graphics.setBackground(base)
-        for plot in self.plots:
-            for name in ("left", "bottom"):
-                axis = plot.getAxis(name)
-                axis.setPen(text)
-                axis.setTextPen(text)
-            plot.setTitle(plot.titleLabel.text, color=text.name(), size="9pt")
-            plot.legend.setLabelTextColor(text)
-            for _sample, label in plot.legend.items:
-                label.setText(label.text, color=text.name())
+        apply_palette(self.palette(), self.graphics, self.plots)
 
     def changeEvent(self, event: QEvent) -> None:  # noqa: N802 (Qt override)
         if event.type() == QEvent.Type.PaletteChange:

@@ -1,0 +1,86 @@
+"""The course view: observations recorded as a user would, alerts, re-planning."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from PySide6.QtWidgets import QApplication
+
+from vetfluid.course import course
+
+
+@pytest.fixture()
+def window(qtbot):
+    from ui.main_window import MainWindow
+
+    win = MainWindow()
+    qtbot.addWidget(win)
+    win.resize(1400, 900)
+    win.show()
+    qtbot.waitUntil(lambda: win.session is not None)
+    win.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: win.session.plan is not None)
+    win.details.setCurrentWidget(win.course_holder)
+    assert win.course_view is not None
+    return win
+
+
+def record(view, hour, index_of, value, period=None):
+    view.hour.setValue(hour)
+    view.quantity.setCurrentIndex(view.quantity.findData(index_of))
+    if period is not None:
+        view.period.setValue(period)
+    view.value.setText(str(value))
+    view.record()
+
+
+def test_curves_show_the_core_course(window):
+    view = window.course_view
+    expected = course(window.session.plan, step_minutes=5)
+    x, y = view.weight_curve.getData()
+    assert np.allclose(y, expected.weight_kg[: len(y)])
+    x, y = view.plasma_curve.getData()
+    assert y[0] == pytest.approx(0)
+
+
+def test_recording_observations_plots_them_and_raises_alerts(window):
+    view = window.course_view
+    record(view, 4, "weight_kg", 24.5)
+    record(view, 8, "urine_ml", 60, period=4)  # 0.6 mL/kg/h: below the dog's 1 mL/kg/h
+    assert [o.hour for o in window.session.observations] == [4, 8]
+    x, y = view.weight_points.getData()
+    assert list(x) == [4] and list(y) == [24.5]
+    alerts = [view.alerts_model.text(r, 1) for r in range(view.alerts_model.rowCount())]
+    assert any("Urine output" in a for a in alerts)
+
+
+def test_bad_values_are_messages(window):
+    view = window.course_view
+    record(view, 2, "weight_kg", "heavy")
+    assert "not a number" in view.message.text()
+    record(view, 2, "serum_na", 400)
+    assert "serum_na" in view.message.text()
+    assert window.session.observations == []
+
+
+def test_replan_keeps_the_earlier_version(qtbot, window):
+    view = window.course_view
+    first = window.session.plan
+    view.replan()
+    assert "needs a measured weight" in view.message.text()
+    record(view, 6, "weight_kg", 25.0)
+    view.replan()
+    qtbot.waitUntil(lambda: window.session.plan is not first)
+    assert window.session.plan.request.weight_kg == 25.0
+    assert len(window.session.versions) == 1
+    assert window.session.versions[0][0] == first.request
+    assert "version 2" in view.message.text()
+
+
+def test_course_view_renders(window, tmp_path):
+    QApplication.processEvents()
+    image = window.grab().toImage()
+    assert image.save(str(tmp_path / "course.png"))
+    colours = {image.pixel(x, y) for x in range(0, image.width(), 13)
+               for y in range(0, image.height(), 13)}  # fmt: skip
+    assert len(colours) > 8

@@ -1,0 +1,287 @@
+"""The course view: body-water compartments, serum Na and weight predicted by the core
+(`vetfluid/course.py`), the observations recorded against them, and re-planning.
+
+Entering an observation takes an hour, a quantity and a value; everything else
+(alerts, curves) is recomputed by the core.
+"""
+
+from __future__ import annotations
+
+import pyqtgraph as pg
+from PySide6.QtCore import QEvent, Qt
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QComboBox,
+    QDoubleSpinBox,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QLineEdit,
+    QPushButton,
+    QSplitter,
+    QTableView,
+    QVBoxLayout,
+    QWidget,
+)
+
+from ui.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
+from ui.rows_model import Cell, RowsModel
+from ui.session import PlanSession
+from ui.shown_plan import ShownPlan
+from ui.timeline_view import (
+    SafeNumberAxis,
+    _pen,
+    apply_palette,
+    configure_pyqtgraph,
+    pin_legend,
+)
+from vetfluid.course import course
+from vetfluid.errors import VetfluidError
+from vetfluid.formatting import format_quantity as q
+from vetfluid.observations import Observation, alerts, observed_series
+
+# What can be recorded: field → (label, unit)
+QUANTITIES = {
+    "weight_kg": ("Weight", "kg"),
+    "urine_ml": ("Urine output", "mL"),
+    "serum_na": ("Serum Na", "mmol/L"),
+    "serum_k": ("Serum K", "mmol/L"),
+    "pcv_percent": ("PCV", "%"),
+    "total_solids_g_per_dl": ("Total solids", "g/dL"),
+    "heart_rate_per_min": ("Heart rate", "/min"),
+    "respiratory_rate_per_min": ("Respiratory rate", "/min"),
+    "crt_s": ("CRT", "s"),
+    "mucous_membranes": ("Mucous membranes", ""),
+    "note": ("Note", ""),
+}
+PLASMA, INTERSTITIAL, CELLS, NA, WEIGHT = "#1f77b4", "#2ca02c", "#9467bd", "#d62728", "#8c564b"
+
+
+class CourseView(QWidget):
+    def __init__(self, session: PlanSession, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        configure_pyqtgraph()
+        self.session = session
+        self.setAccessibleName("Course")
+        layout = QVBoxLayout(self)
+
+        # -- recording an observation ---------------------------------------------------------
+        entry = QHBoxLayout()
+        self.hour = QDoubleSpinBox()
+        self.hour.setRange(0, 14 * 24)
+        self.hour.setDecimals(2)
+        self.hour.setSingleStep(0.5)
+        self.hour.setSuffix(" h")
+        self.hour.setAccessibleName("Hour of the observation")
+        self.hour.setToolTip("Hours since the start of the plan")
+        self.quantity = QComboBox()
+        for key, (label, unit) in QUANTITIES.items():
+            self.quantity.addItem(f"{label} ({unit})" if unit else label, key)
+        self.quantity.setAccessibleName("What was measured")
+        self.quantity.currentIndexChanged.connect(self._quantity_changed)
+        self.value = QLineEdit()
+        self.value.setPlaceholderText("value")
+        self.value.setAccessibleName("Measured value")
+        self.value.returnPressed.connect(self.record)
+        self.period = QDoubleSpinBox()
+        self.period.setRange(0.5, 48)
+        self.period.setValue(4)
+        self.period.setSuffix(" h collected")
+        self.period.setAccessibleName("Urine collection period")
+        self.period.setToolTip("Urine: the period over which the volume was collected")
+        self.record_button = QPushButton("&Record")
+        self.record_button.setToolTip("Add this observation to the course")
+        self.record_button.clicked.connect(self.record)
+        self.replan_button = QPushButton("Re-&plan from now")
+        self.replan_button.setToolTip(
+            "Start a new plan version from the latest weight and labs; the earlier one is kept"
+        )
+        self.replan_button.clicked.connect(self.replan)
+        for widget in (QLabel("At"), self.hour, self.quantity, self.value, self.period,
+                       self.record_button):  # fmt: skip
+            entry.addWidget(widget)
+        entry.addStretch(1)
+        entry.addWidget(self.replan_button)
+        layout.addLayout(entry)
+        self.message = QLabel()
+        self.message.setWordWrap(True)
+        self.message.setAccessibleName("Course message")
+        layout.addWidget(self.message)
+
+        # -- plots -----------------------------------------------------------------------------
+        split = QSplitter(Qt.Orientation.Vertical)
+        self.graphics = pg.GraphicsLayoutWidget()
+        self.graphics.setAccessibleName("Course plots")
+        self.volume_plot = self._plot(0, "Body water: change from the start", "Change (mL)")
+        self.na_plot = self._plot(1, "Serum sodium", "Na (mmol/L)")
+        self.weight_plot = self._plot(2, "Body weight", "Weight (kg)", hours=True)
+        for plot in (self.na_plot, self.weight_plot):
+            plot.setXLink(self.volume_plot)
+        dash = Qt.PenStyle.DashLine
+        self.plasma_curve = self.volume_plot.plot(name="Plasma", pen=_pen(PLASMA, width=2.5))
+        self.interstitial_curve = self.volume_plot.plot(
+            name="Interstitium", pen=_pen(INTERSTITIAL, width=2.0, style=dash)
+        )
+        self.cells_curve = self.volume_plot.plot(
+            name="Cells", pen=_pen(CELLS, width=2.0, style=Qt.PenStyle.DotLine)
+        )
+        self.na_curve = self.na_plot.plot(name="Predicted Na", pen=_pen(NA, width=2.5))
+        self.na_points = self.na_plot.plot(
+            name="Measured Na", pen=None, symbol="o", symbolBrush=NA, symbolSize=9
+        )
+        self.weight_curve = self.weight_plot.plot(
+            name="Predicted weight", pen=_pen(WEIGHT, width=2.5)
+        )
+        self.weight_points = self.weight_plot.plot(
+            name="Measured weight", pen=None, symbol="s", symbolBrush=WEIGHT, symbolSize=9
+        )
+        self.plots = (self.volume_plot, self.na_plot, self.weight_plot)
+        for plot in self.plots:
+            pin_legend(self.graphics, plot.legend)
+        apply_palette(self.palette(), self.graphics, self.plots)
+        split.addWidget(self.graphics)
+
+        bottom = QWidget()
+        tables = QHBoxLayout(bottom)
+        tables.setContentsMargins(0, 0, 0, 0)
+        self.observations_model = RowsModel(["Hour", "Measured", "Value"])
+        self.alerts_model = RowsModel(["Severity", "Alert", "What to do"])
+        for model, name in (
+            (self.observations_model, "Observations"),
+            (self.alerts_model, "Alerts"),
+        ):
+            view = QTableView()
+            view.setModel(model)
+            view.setAccessibleName(name)
+            view.verticalHeader().setVisible(False)
+            view.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+            view.setWordWrap(True)
+            view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+            view.horizontalHeader().setStretchLastSection(True)
+            tables.addWidget(view, 1 if name == "Observations" else 2)
+        self.observations_table = tables.itemAt(0).widget()
+        split.addWidget(bottom)
+        split.setStretchFactor(0, 3)
+        split.setStretchFactor(1, 1)
+        layout.addWidget(split, 1)
+
+        self._quantity_changed()
+        self.shown = ShownPlan(self, session, self.refresh)
+        session.observationsChanged.connect(lambda: self.refresh(session.plan))
+
+    def _plot(self, row: int, title: str, label: str, *, hours: bool = False):
+        plot = self.graphics.addPlot(row=row, col=0, title=title,
+                                     axisItems={"left": SafeNumberAxis("left")})  # fmt: skip
+        plot.setLabel("left", label)
+        if hours:
+            plot.setLabel("bottom", "Time from start (h)")
+        else:
+            plot.getAxis("bottom").setStyle(showValues=False)
+        for name in ("left", "bottom"):
+            plot.getAxis(name).enableAutoSIPrefix(False)
+        plot.showGrid(x=True, y=True, alpha=0.2)
+        plot.setMenuEnabled(False)
+        plot.hideButtons()
+        # the default sample draws symbols too (measured points); no filled curves here
+        plot.legend = pg.LegendItem(labelTextSize="9pt", frame=False)
+        self.graphics.addItem(plot.legend, row=row, col=1)
+        return plot
+
+    def changeEvent(self, event) -> None:  # noqa: N802,ANN001 (Qt override)
+        if event.type() == QEvent.Type.PaletteChange:
+            apply_palette(self.palette(), self.graphics, self.plots)
+        super().changeEvent(event)
+
+    def _quantity_changed(self, *_: object) -> None:
+        self.period.setVisible(self.quantity.currentData() == "urine_ml")
+
+    # ---- user actions ------------------------------------------------------------------------
+    def record(self) -> None:
+        key = self.quantity.currentData()
+        text = self.value.text().strip()
+        try:
+            if key in ("note", "mucous_membranes"):
+                value: object = text
+            else:
+                value = float(text.replace(",", "."))
+            extra = {"urine_period_h": self.period.value()} if key == "urine_ml" else {}
+            observation = Observation(hour=self.hour.value(), **{key: value}, **extra)
+        except ValueError:
+            self.message.setText(f"⚠ {text!r} is not a number — type digits, e.g. 21.4")
+            return
+        except VetfluidError as exc:
+            self.message.setText(f"⚠ {exc.one_line()}")
+            return
+        self.message.setText("")
+        self.value.clear()
+        self.session.add_observation(observation)
+
+    def replan(self) -> None:
+        try:
+            self.session.replan()
+        except VetfluidError as exc:
+            self.message.setText(f"⚠ {exc.one_line()}")
+            return
+        versions = len(self.session.versions)
+        self.message.setText(
+            f"New plan version {versions + 1} from the current state; "
+            f"{versions} earlier version(s) kept."
+        )
+
+    # ---- drawing -----------------------------------------------------------------------------
+    def refresh(self, plan) -> None:  # noqa: ANN001 — Plan | None
+        observations = list(self.session.observations)
+        self._show_observations(observations)
+        if plan is None:
+            for curve in (
+                self.plasma_curve,
+                self.interstitial_curve,
+                self.cells_curve,
+                self.na_curve,
+                self.na_points,
+                self.weight_curve,
+                self.weight_points,
+            ):
+                curve.setData([], [])  # fmt: skip
+            self.alerts_model.set_rows([])
+            return
+        horizon = max([p.end_h for p in plan.phases] + [o.hour for o in observations])
+        result = course(plan, horizon_h=horizon, step_minutes=5, table=self.session.table)
+        h = result.hours
+        self.plasma_curve.setData(h, result.plasma_ml - result.plasma_ml[0])
+        self.interstitial_curve.setData(h, result.interstitial_ml - result.interstitial_ml[0])
+        self.cells_curve.setData(h, result.intracellular_ml - result.intracellular_ml[0])
+        if result.serum_na is not None:
+            self.na_curve.setData(h, result.serum_na)
+        else:
+            self.na_curve.setData([], [])
+        self.na_points.setData(*observed_series(observations, "serum_na"))
+        self.weight_curve.setData(h, result.weight_kg)
+        self.weight_points.setData(*observed_series(observations, "weight_kg"))
+        rows = []
+        for finding in alerts(plan, observations, table=self.session.table):
+            rows.append(
+                [
+                    Cell(SEVERITY_WORDS[finding.severity], finding.code,
+                         icon(SEVERITY_ICONS[finding.severity])),
+                    Cell(finding.message),
+                    Cell(finding.action),
+                ]
+            )  # fmt: skip
+        self.alerts_model.set_rows(rows)
+
+    def _show_observations(self, observations: list[Observation]) -> None:
+        rows = []
+        for obs in observations:
+            for key, (label, unit) in QUANTITIES.items():
+                value = getattr(obs, key)
+                if value in (None, ""):
+                    continue
+                if isinstance(value, float):
+                    shown = q(value, unit) if unit else f"{value:g}"
+                    if key == "urine_ml":
+                        shown += f" over {q(obs.urine_period_h or 0, 'h')}"
+                else:
+                    shown = str(value)
+                rows.append([Cell(f"{obs.hour:g}"), Cell(label), Cell(shown)])
+        self.observations_model.set_rows(rows)
