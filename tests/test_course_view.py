@@ -7,6 +7,7 @@ import pytest
 from PySide6.QtWidgets import QApplication
 
 from vetfluid.course import course
+from vetfluid.formatting import format_quantity
 
 
 @pytest.fixture()
@@ -84,3 +85,29 @@ def test_course_view_renders(window, tmp_path):
     colours = {image.pixel(x, y) for x in range(0, image.width(), 13)
                for y in range(0, image.height(), 13)}  # fmt: skip
     assert len(colours) > 8
+
+
+def test_ins_and_outs_table_follows_entered_urine(window):
+    # Côté 2020: insensible 20 mL/kg/day + measured urine, replaced over the next period.
+    view = window.course_view
+    view.ins_outs_period.setValue(6)
+    record(view, 6, "urine_ml", 30, period=6)
+    record(view, 12, "urine_ml", 0, period=6)
+    model = view.ins_outs_model
+    insensible = 20 * 24 * 6 / 24  # 24 kg dog, 6 h
+    assert model.text(0, 2) == "30 mL"
+    assert model.text(0, 6) == format_quantity((insensible + 30) / 6, "mL/h")
+    assert model.text(1, 2) == "0 mL"
+
+
+def test_versions_table_compares_plans(qtbot, window):
+    view = window.course_view
+    record(view, 6, "weight_kg", 25.0)
+    first = window.session.plan
+    view.replan()
+    qtbot.waitUntil(lambda: window.session.plan is not first)
+    QApplication.processEvents()
+    model = view.versions_model
+    assert model.rowCount() == 2
+    assert model.text(0, 4) == "earlier, kept" and model.text(1, 4) == "current"
+    assert model.text(0, 1) == "24 kg" and model.text(1, 1) == "25 kg"

@@ -92,3 +92,17 @@ def test_bad_observations_are_input_errors(kwargs):
 def test_replan_needs_a_weight(dog):
     with pytest.raises(InputError, match="measured weight"):
         replan_request(dog, [Observation(hour=2, serum_na=158)])
+
+
+def test_ins_and_outs_table_follows_the_recorded_urine():
+    # Côté 2020: each period's urine and other losses plus insensible loss, given next period.
+    from vetfluid.observations import ins_and_outs_from_observations
+
+    recorded = [Observation(hour=4, urine_ml=20, urine_period_h=4),
+                Observation(hour=6, other_losses_ml=15),
+                Observation(hour=10, urine_ml=5, urine_period_h=4)]  # fmt: skip
+    rows = ins_and_outs_from_observations(recorded, weight_kg=10, insensible_ml_per_kg_day=20,
+                                          period_h=6, until_h=12)  # fmt: skip
+    insensible = 20 * 10 * 6 / 24
+    assert [(r.urine_ml, r.other_losses_ml) for r in rows] == [(20, 15), (5, 0)]
+    assert [r.next_rate_ml_per_h for r in rows] == [(insensible + 35) / 6, (insensible + 5) / 6]

@@ -18,8 +18,10 @@ from PySide6.QtWidgets import (
     QLabel,
     QLineEdit,
     QPushButton,
+    QSpinBox,
     QSplitter,
     QTableView,
+    QTabWidget,
     QVBoxLayout,
     QWidget,
 )
@@ -38,12 +40,18 @@ from ui.timeline_view import (
 from vetfluid.course import course
 from vetfluid.errors import VetfluidError
 from vetfluid.formatting import format_quantity as q
-from vetfluid.observations import Observation, alerts, observed_series
+from vetfluid.observations import (
+    Observation,
+    alerts,
+    ins_and_outs_from_observations,
+    observed_series,
+)
 
 # What can be recorded: field → (label, unit)
 QUANTITIES = {
     "weight_kg": ("Weight", "kg"),
     "urine_ml": ("Urine output", "mL"),
+    "other_losses_ml": ("Other losses", "mL"),
     "serum_na": ("Serum Na", "mmol/L"),
     "serum_k": ("Serum K", "mmol/L"),
     "pcv_percent": ("PCV", "%"),
@@ -141,25 +149,35 @@ class CourseView(QWidget):
         apply_palette(self.palette(), self.graphics, self.plots)
         split.addWidget(self.graphics)
 
-        bottom = QWidget()
-        tables = QHBoxLayout(bottom)
-        tables.setContentsMargins(0, 0, 0, 0)
+        bottom = QTabWidget()
+        bottom.setAccessibleName("Course tables")
         self.observations_model = RowsModel(["Hour", "Measured", "Value"])
         self.alerts_model = RowsModel(["Severity", "Alert", "What to do"])
+        self.ins_outs_model = RowsModel(
+            ["Period", "Hours", "Urine", "Other losses", "Insensible", "Give next", "Next rate"]
+        )
+        self.versions_model = RowsModel(["Version", "Weight", "Deficit", "First 24 h", "Status"])
         for model, name in (
-            (self.observations_model, "Observations"),
-            (self.alerts_model, "Alerts"),
+            (self.observations_model, "&Observations"),
+            (self.alerts_model, "&Alerts"),
+            (self.ins_outs_model, "&Ins and outs"),
+            (self.versions_model, "Plan &versions"),
         ):
+            page = QWidget()
+            page_layout = QVBoxLayout(page)
+            page_layout.setContentsMargins(0, 0, 0, 0)
+            if model is self.ins_outs_model:
+                page_layout.addLayout(self._ins_outs_controls())
             view = QTableView()
             view.setModel(model)
-            view.setAccessibleName(name)
+            view.setAccessibleName(name.replace("&", ""))
             view.verticalHeader().setVisible(False)
             view.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
             view.setWordWrap(True)
             view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
             view.horizontalHeader().setStretchLastSection(True)
-            tables.addWidget(view, 1 if name == "Observations" else 2)
-        self.observations_table = tables.itemAt(0).widget()
+            page_layout.addWidget(view)
+            bottom.addTab(page, name)
         split.addWidget(bottom)
         split.setStretchFactor(0, 3)
         split.setStretchFactor(1, 1)
@@ -191,6 +209,22 @@ class CourseView(QWidget):
         if event.type() == QEvent.Type.PaletteChange:
             apply_palette(self.palette(), self.graphics, self.plots)
         super().changeEvent(event)
+
+    def _ins_outs_controls(self) -> QHBoxLayout:
+        row = QHBoxLayout()
+        row.addWidget(QLabel("Replace measured urine and other losses plus insensible loss every"))
+        self.ins_outs_period = QSpinBox()
+        self.ins_outs_period.setRange(1, 24)
+        self.ins_outs_period.setValue(6)
+        self.ins_outs_period.setSuffix(" h")
+        self.ins_outs_period.setAccessibleName("Ins-and-outs period")
+        self.ins_outs_period.setToolTip(
+            "Côté 2020: replace over the next 4–6 h (interval recalled)"
+        )
+        self.ins_outs_period.valueChanged.connect(lambda _: self.refresh(self.session.plan))
+        row.addWidget(self.ins_outs_period)
+        row.addStretch(1)
+        return row
 
     def _quantity_changed(self, *_: object) -> None:
         self.period.setVisible(self.quantity.currentData() == "urine_ml")
@@ -269,6 +303,52 @@ class CourseView(QWidget):
                 ]
             )  # fmt: skip
         self.alerts_model.set_rows(rows)
+        self._show_ins_and_outs(plan, observations, horizon)
+        self._show_versions(plan)
+
+    def _show_ins_and_outs(self, plan, observations, horizon: float) -> None:  # noqa: ANN001
+        insensible = self.session.table.get(
+            plan.request.species_id, "insensible_loss_ml_per_kg_day"
+        )
+        if insensible is None:
+            self.ins_outs_model.set_rows(
+                [[Cell("—"), Cell("no insensible loss on record for this species")]
+                 + [Cell("")] * 5]
+            )  # fmt: skip
+            return
+        table = ins_and_outs_from_observations(
+            observations, weight_kg=plan.request.weight_kg,
+            insensible_ml_per_kg_day=insensible.number,
+            period_h=float(self.ins_outs_period.value()), until_h=max(horizon, 1.0),
+        )  # fmt: skip
+        self.ins_outs_model.set_rows(
+            [
+                [Cell(str(r.period)), Cell(f"{r.start_h:g}–{r.end_h:g}"), Cell(q(r.urine_ml, "mL")),
+                 Cell(q(r.other_losses_ml, "mL")), Cell(q(r.insensible_ml, "mL")),
+                 Cell(q(r.replace_ml, "mL")), Cell(q(r.next_rate_ml_per_h, "mL/h"))]
+                for r in table
+            ]
+        )  # fmt: skip
+
+    def _show_versions(self, plan) -> None:  # noqa: ANN001
+        from vetfluid.plan import build_plan
+
+        rows = []
+        for number, (request, _) in enumerate(self.session.versions, start=1):
+            earlier = build_plan(request, self.session.table)
+            rows.append(self._version_row(number, earlier, "earlier, kept"))
+        rows.append(self._version_row(len(self.session.versions) + 1, plan, "current"))
+        self.versions_model.set_rows(rows)
+
+    @staticmethod
+    def _version_row(number: int, plan, status: str) -> list[Cell]:  # noqa: ANN001
+        return [
+            Cell(str(number)),
+            Cell(q(plan.request.weight_kg, "kg")),
+            Cell(f"{plan.dehydration_percent:g} % → {q(plan.deficit_ml, 'mL')}"),
+            Cell(q(plan.total_ml_first_24h, "mL")),
+            Cell(status),
+        ]
 
     def _show_observations(self, observations: list[Observation]) -> None:
         rows = []

@@ -48,6 +48,7 @@ class Observation:
     total_solids_g_per_dl: float | None = None
     urine_ml: float | None = None
     urine_period_h: float | None = None
+    other_losses_ml: float | None = None  # vomit, diarrhoea, drains, measured
     serum_na: float | None = None
     serum_k: float | None = None
     heart_rate_per_min: float | None = None
@@ -64,6 +65,7 @@ class Observation:
             ("total_solids_g_per_dl", 1, 15, "g/dL"),
             ("urine_ml", 0, 1e6, "mL"),
             ("urine_period_h", 0.1, 48, "h"),
+            ("other_losses_ml", 0, 1e6, "mL"),
             ("serum_na", 80, 230, "mmol/L"),
             ("serum_k", 0.5, 12, "mmol/L"),
             ("heart_rate_per_min", 5, 1000, "/min"),
@@ -262,4 +264,32 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
         dehydration_findings=(),
         resuscitation_boluses=0,
         **latest,
+    )
+
+
+def ins_and_outs_from_observations(
+    observations: list[Observation] | tuple[Observation, ...],
+    *,
+    weight_kg: float,
+    insensible_ml_per_kg_day: float,
+    period_h: float,
+    until_h: float,
+) -> list[InsAndOutsRow]:
+    """The ins-and-outs table from what was recorded: urine and other losses are counted in
+    the period in which their measurement was recorded (hour in (start, end])."""
+    require_number(until_h, "until_h", low=0, high=14 * 24, unit="h")
+    require_number(period_h, "period_h", low=1, high=24, unit="h")
+    periods = max(1, int(np.ceil(until_h / period_h - 1e-9)))
+    measured = []
+    for number in range(periods):
+        start, end = number * period_h, (number + 1) * period_h
+        inside = [o for o in observations if start < o.hour <= end or (number == 0 and o.hour == 0)]
+        measured.append(
+            (sum(o.urine_ml or 0.0 for o in inside), sum(o.other_losses_ml or 0.0 for o in inside))
+        )
+    return ins_and_outs(
+        weight_kg=weight_kg,
+        insensible_ml_per_kg_day=insensible_ml_per_kg_day,
+        period_h=period_h,
+        measured=measured,
     )
