@@ -15,3 +15,16 @@ def vetfluid_home(tmp_path, monkeypatch):
     home.mkdir()
     monkeypatch.setenv("VETFLUID_HOME", str(home))
     return home
+
+
+@pytest.fixture()
+def planner(qtbot):
+    """The main window, shown, with its planner built (it follows the first paint)."""
+    from ui.main_window import MainWindow
+
+    win = MainWindow()
+    qtbot.addWidget(win)
+    win.resize(1400, 900)
+    win.show()
+    qtbot.waitUntil(lambda: win.session is not None)
+    return win

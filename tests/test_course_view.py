@@ -11,14 +11,8 @@ from vetfluid.formatting import format_quantity
 
 
 @pytest.fixture()
-def window(qtbot):
-    from ui.main_window import MainWindow
-
-    win = MainWindow()
-    qtbot.addWidget(win)
-    win.resize(1400, 900)
-    win.show()
-    qtbot.waitUntil(lambda: win.session is not None)
+def window(qtbot, planner):
+    win = planner
     win.open_demo("dehydrated_dog")
     qtbot.waitUntil(lambda: win.session.plan is not None)
     win.details.setCurrentWidget(win.course_holder)

@@ -18,14 +18,8 @@ CLI = str(Path(sys.executable).with_name("vetfluid-cli"))
 
 
 @pytest.fixture()
-def window(qtbot):
-    from ui.main_window import MainWindow
-
-    win = MainWindow()
-    qtbot.addWidget(win)
-    win.resize(1400, 900)
-    win.show()
-    qtbot.waitUntil(lambda: win.session is not None)  # the planner follows the first paint
+def window(planner):
+    win = planner
     win.details.setCurrentWidget(win.timeline_holder)  # plots are built on first opening
     win.pages.setCurrentIndex(1)  # so is the species table
     win.pages.setCurrentIndex(0)
