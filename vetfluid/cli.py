@@ -117,6 +117,14 @@ def _parser() -> argparse.ArgumentParser:
     course.add_argument("--at", default="0,1,4,12,24", help="hours to report, e.g. 0,0.5,2,24")
     course.add_argument("--horizon-h", type=float, help="hours to simulate (up to 336)")
 
+    chart = sub.add_parser("chart", help="weight-band quick-reference chart for a species")
+    chart.add_argument("--species", required=True)
+    chart.add_argument("--drop-factor", type=float, default=20.0)
+    chart.add_argument("--bands", type=int, default=10)
+    chart_format = chart.add_mutually_exclusive_group()
+    chart_format.add_argument("--json", action="store_true")
+    chart_format.add_argument("--csv", action="store_true")
+
     sodium = sub.add_parser("sodium", help="predicted serum Na change per litre (Adrogué–Madias)")
     sodium.add_argument("--species", required=True)
     sodium.add_argument("--weight", required=True)
@@ -338,6 +346,37 @@ def cmd_plan(args: argparse.Namespace) -> int:
     return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK
 
 
+def cmd_chart(args: argparse.Namespace) -> int:
+    from vetfluid.chart import Chart, chart
+    from vetfluid.export import csv_text
+    from vetfluid.species import load_table
+
+    table = load_table()
+    result = chart(args.species, drop_factor=args.drop_factor, bands=args.bands, table=table)
+    if args.csv:
+        sys.stdout.write(csv_text(Chart.COLUMNS, result.rows()))
+        return EXIT_OK
+    if args.json:
+        _emit({
+            "species_id": result.species_id, "method": result.method,
+            "drop_factor": result.drop_factor, "columns": list(Chart.COLUMNS),
+            "rows": result.rows(), "cautions": list(CAUTIONS),
+        })  # fmt: skip
+        return EXIT_OK
+    species = table.species(args.species)
+    print(f"Weight bands — {species.common_name} (maintenance: {result.method}; "
+          f"drops/min at {result.drop_factor:g} drops/mL)")  # fmt: skip
+    print(
+        f"{'weight':>10} {'mL/day':>10} {'mL/h':>8} {'per 5 %':>9} {'bolus':>9} {'drops/min':>10}"
+    )
+    for w, day, hour, five, bolus, dpm in result.rows():
+        print(f"{_q(w, 'kg'):>10} {_q(day, 'mL'):>10} {_q(hour, 'mL/h'):>11} {_q(five, 'mL'):>9} "
+              f"{_q(bolus, 'mL'):>9} {_q(dpm, 'drops/min'):>15}")  # fmt: skip
+    print("(bolus — where a continuous line is not practical)\n")
+    print(_cautions_text())
+    return EXIT_OK
+
+
 def cmd_sodium(args: argparse.Namespace) -> int:
     from vetfluid import electrolytes, fluids
     from vetfluid.limits import limit
@@ -440,6 +479,7 @@ COMMANDS = {
     "fluids": cmd_fluids,
     "plan": cmd_plan,
     "course": cmd_course,
+    "chart": cmd_chart,
     "sodium": cmd_sodium,
 }
 

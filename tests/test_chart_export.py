@@ -1,0 +1,62 @@
+"""The weight-band chart and formula-safe CSV."""
+
+from __future__ import annotations
+
+import csv
+import io
+
+import numpy as np
+import pytest
+
+from vetfluid import cli
+from vetfluid.chart import chart
+from vetfluid.export import csv_text, safe_cell
+from vetfluid.maintenance import maintenance
+from vetfluid.species import load_table
+
+
+@pytest.mark.parametrize("species", ["dog", "cat", "bearded_dragon", "mongolian_gerbil",
+                                     "african_grey", "red_kangaroo"])  # fmt: skip
+def test_chart_agrees_with_the_scalar_calculators(species):
+    table = load_table()
+    result = chart(species, table=table)
+    for w, ml_day in zip(result.weight_kg, result.maintenance_ml_per_day, strict=True):
+        assert ml_day == pytest.approx(maintenance(table, species, float(w)).ml_per_day)
+    assert np.allclose(result.deficit_ml_per_5_percent, result.weight_kg * 50)  # Davis 2013
+    assert np.allclose(result.drops_per_min, result.maintenance_ml_per_h * 20 / 60)
+    weight = table.value(species, "body_weight_kg")
+    assert result.weight_kg[0] == pytest.approx(weight.low)
+    assert result.weight_kg[-1] == pytest.approx(weight.high)
+
+
+def test_dog_chart_matches_the_2013_guideline_and_bolus():
+    # Davis 2013: 132 · BW^0.75 mL/day; bolus 15 mL/kg (recalled from Pardo 2024).
+    result = chart("dog")
+    assert result.maintenance_ml_per_day[0] == pytest.approx(132.0)  # 1 kg
+    assert result.bolus_ml[0] == pytest.approx(15.0)
+
+
+def test_bolus_is_blank_where_no_line_is_practical():
+    assert np.all(np.isnan(chart("mongolian_gerbil").bolus_ml))
+
+
+@pytest.mark.parametrize("text", ["=1+1", "+SUM(A1)", "-2+3", "@cmd", "\t=x"])
+def test_formula_cells_are_neutralised(text):
+    assert safe_cell(text) == "'" + text
+    rows = list(csv.reader(io.StringIO(csv_text(["a"], [[text]]))))
+    assert rows[1][0].startswith("'")
+
+
+def test_numbers_and_plain_text_pass_unchanged():
+    assert safe_cell(-5.0) == -5.0 and safe_cell("Dog") == "Dog"
+
+
+def test_cli_chart_csv_and_json(capsys):
+    assert cli.main(["chart", "--species", "cat", "--csv"]) == 0
+    rows = list(csv.reader(io.StringIO(capsys.readouterr().out)))
+    assert rows[0][0] == "weight_kg" and len(rows) == 11
+    assert cli.main(["chart", "--species", "cat", "--json", "--drop-factor", "60"]) == 0
+    import json
+
+    data = json.loads(capsys.readouterr().out)
+    assert data["drop_factor"] == 60 and len(data["rows"]) == 10

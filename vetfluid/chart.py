@@ -1,0 +1,109 @@
+"""Weight-band chart: a quick reference across a species' weight range.
+
+For each band: maintenance (mL/day and mL/h, the species' default method, at the
+preferred temperature for ectotherms), the deficit per 5 % dehydration (BW × 0.05 L;
+Davis 2013), the resuscitation bolus where a line is practical (see
+:mod:`vetfluid.resuscitation`), and drops/min of the maintenance rate for a drop
+factor (mL/h × drops/mL ÷ 60). Computed on numpy arrays: one call per species.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from vetfluid.checks import require_number
+from vetfluid.delivery import check_drop_factor
+from vetfluid.resuscitation import resuscitation
+from vetfluid.species import SpeciesTable, load_table
+
+DEFAULT_BANDS = 10
+
+
+@dataclass(frozen=True, kw_only=True)
+class Chart:
+    species_id: str
+    method: str
+    weight_kg: np.ndarray
+    maintenance_ml_per_day: np.ndarray
+    maintenance_ml_per_h: np.ndarray
+    deficit_ml_per_5_percent: np.ndarray
+    bolus_ml: np.ndarray  # NaN where a continuous line is not practical
+    drops_per_min: np.ndarray
+    drop_factor: float
+
+    COLUMNS = (
+        "weight_kg", "maintenance_ml_per_day", "maintenance_ml_per_h",
+        "deficit_ml_per_5_percent", "bolus_ml", "drops_per_min",
+    )  # fmt: skip
+
+    def rows(self) -> list[list[float | None]]:
+        columns = [getattr(self, name) for name in self.COLUMNS]
+        return [
+            [None if np.isnan(v) else float(v) for v in values]
+            for values in zip(*columns, strict=True)
+        ]
+
+
+def maintenance_ml_per_day(
+    table: SpeciesTable, species_id: str, weights: np.ndarray
+) -> tuple[np.ndarray, str]:
+    """The species' default maintenance for many weights at once (same methods and constants
+    as :func:`vetfluid.maintenance.maintenance`; ectotherms at their preferred temperature)."""
+    method = str(table.value(species_id, "maintenance_method").value)
+    if method == "linear":
+        result = table.value(species_id, "maintenance_ml_per_kg_day").number * weights
+    elif method == "allometric":
+        a = table.value(species_id, "maintenance_allometric_a").number
+        b = table.value(species_id, "maintenance_allometric_b").number
+        result = a * weights**b
+    else:
+        k = table.value(species_id, "energy_k_kcal_per_day").number
+        b = table.value(species_id, "energy_exponent").number
+        result = k * weights**b * table.value(species_id, "water_ml_per_kcal").number
+        if table.species(species_id).is_ectotherm:
+            q10 = table.value(species_id, "q10").number
+            reference = table.value(species_id, "energy_reference_temp_c").number
+            preferred = table.value(species_id, "preferred_temp_c").number
+            result = result * q10 ** ((preferred - reference) / 10.0)
+    return result, method
+
+
+def weight_bands(low_kg: float, high_kg: float, bands: int) -> np.ndarray:
+    """Evenly spaced bands, or log-spaced when the range spans more than tenfold."""
+    if high_kg / low_kg > 10:
+        return np.geomspace(low_kg, high_kg, bands)
+    return np.linspace(low_kg, high_kg, bands)
+
+
+def chart(
+    species_id: str,
+    *,
+    drop_factor: float = 20,
+    bands: int = DEFAULT_BANDS,
+    table: SpeciesTable | None = None,
+) -> Chart:
+    table = table or load_table()
+    check_drop_factor(drop_factor)
+    require_number(bands, "bands", low=2, high=100)
+    weight = table.value(species_id, "body_weight_kg")
+    low = weight.low if weight.low is not None else weight.number
+    high = weight.high if weight.high is not None else weight.number
+    weights = weight_bands(low, high, int(bands)) if high > low else np.array([weight.number])
+    ml_day, method = maintenance_ml_per_day(table, species_id, weights)
+    bolus_per_kg = resuscitation(table, species_id, 1.0).bolus_ml_per_kg  # linear in weight
+    line_min = table.value(species_id, "continuous_line_min_kg").number
+    bolus_ml = np.where(weights >= line_min, bolus_per_kg * weights, np.nan)
+    ml_h = ml_day / 24.0
+    return Chart(
+        species_id=species_id,
+        method=method,
+        weight_kg=weights,
+        maintenance_ml_per_day=ml_day,
+        maintenance_ml_per_h=ml_h,
+        deficit_ml_per_5_percent=weights * 0.05 * 1000.0,
+        bolus_ml=bolus_ml,
+        drops_per_min=ml_h * drop_factor / 60.0,
+        drop_factor=float(drop_factor),
+    )
