@@ -1,0 +1,188 @@
+"""Patient records: versions never overwritten, nothing lost on a crash, clear refusals."""
+
+from __future__ import annotations
+
+import json
+import os
+import random
+import signal
+import sqlite3
+import stat
+import subprocess
+import sys
+import textwrap
+import time
+from pathlib import Path
+
+import pytest
+
+from vetfluid.demos import DEMOS
+from vetfluid.errors import InputError
+from vetfluid.plan import build_plan
+from vetfluid.records import Records, RecordsError
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+@pytest.fixture()
+def records(tmp_path):
+    with Records.open(tmp_path / "records.sqlite") as db:
+        yield db
+
+
+def test_new_file_is_owner_only_wal_with_foreign_keys(records):
+    mode = stat.S_IMODE(os.stat(records.path).st_mode)
+    assert mode == 0o600
+    with sqlite3.connect(records.path) as raw:
+        assert raw.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
+    assert records._db.execute("PRAGMA foreign_keys").fetchone()[0] == 1
+
+
+def test_versions_are_added_never_overwritten(records):
+    pid = records.add_patient(name="Rex", species_id="dog", client_ref="C-12")
+    plan = build_plan(DEMOS["dehydrated_dog"].request)
+    assert records.save_version(patient_id=pid, plan=plan, acknowledged={}, author="AB") == 1
+    assert records.save_version(patient_id=pid, plan=plan, acknowledged={"X": "why"}) == 2
+    versions = records.versions(pid)
+    assert [v.version for v in versions] == [1, 2]
+    assert versions[0].request["species_id"] == "dog" and versions[0].author == "AB"
+    assert versions[1].acknowledged == {"X": "why"}
+    assert versions[0].plan["total_ml_first_24h"] == pytest.approx(plan.total_ml_first_24h)
+    with pytest.raises(sqlite3.DatabaseError, match="immutable"):
+        records._db.execute("UPDATE plan_versions SET author = 'Z'")
+    with pytest.raises(sqlite3.DatabaseError, match="immutable"):
+        records._db.execute("DELETE FROM plan_versions")
+
+
+def test_search_patients_by_name_species_or_client(records):
+    records.add_patient(name="Rex", species_id="dog", client_ref="C-12")
+    records.add_patient(name="Spike", species_id="bearded_dragon")
+    assert [p.name for p in records.find_patients("rex")] == ["Rex"]
+    assert [p.name for p in records.find_patients("dragon")] == ["Spike"]
+    assert [p.name for p in records.find_patients("C-12")] == ["Rex"]
+    assert [p.name for p in records.find_patients("'; DROP TABLE patients; --")] == []
+    assert len(records.find_patients()) == 2  # parameters only: the text above was harmless
+
+
+def test_draft_is_kept_and_offered_back(tmp_path):
+    path = tmp_path / "records.sqlite"
+    with Records.open(path) as db:
+        db.save_draft({"request": {"species_id": "cat"}, "acknowledged": {}})
+    with Records.open(path) as db:
+        assert db.draft()["request"]["species_id"] == "cat"
+        db.clear_draft()
+        assert db.draft() is None
+
+
+def test_backup_restore_and_export_import(records, tmp_path):
+    pid = records.add_patient(name="Rex", species_id="dog")
+    plan = build_plan(DEMOS["dehydrated_dog"].request)
+    records.save_version(patient_id=pid, plan=plan, acknowledged={})
+    vid = records.versions(pid)[0].id
+    records.add_observation(version_id=vid, observation={"hour": 4, "weight_kg": 24.5})
+    copy = records.backup(tmp_path / "backup.sqlite")
+    with Records.open(copy) as restored:
+        assert restored.versions(pid)[0].version == 1
+    target = tmp_path / "restored.sqlite"
+    Records.restore(copy, target)
+    with Records.open(target) as restored:
+        assert restored.observations(vid) == [{"hour": 4, "weight_kg": 24.5}]
+    exported = json.loads(json.dumps(records.export_patient(pid)))
+    new_id = records.import_patient(exported)
+    assert new_id != pid
+    assert records.export_patient(new_id)["plan_versions"] == exported["plan_versions"]
+    with pytest.raises(InputError):
+        records.import_patient({"format": "something else"})
+
+
+def test_a_newer_schema_is_refused_and_left_untouched(tmp_path):
+    path = tmp_path / "records.sqlite"
+    Records.open(path).close()
+    with sqlite3.connect(path) as raw:
+        raw.execute("UPDATE meta SET value = '99' WHERE key = 'schema_version'")
+    before = path.read_bytes()
+    with pytest.raises(RecordsError, match="newer vetfluid"):
+        Records.open(path)
+    assert path.read_bytes() == before
+
+
+def test_a_corrupted_or_foreign_file_is_refused_and_left_untouched(tmp_path):
+    path = tmp_path / "records.sqlite"
+    path.write_bytes(b"this is not a database" * 100)
+    before = path.read_bytes()
+    with pytest.raises(RecordsError, match="not a usable vetfluid records file"):
+        Records.open(path)
+    assert path.read_bytes() == before
+    Records.open(tmp_path / "other.sqlite").close()  # the program can still open another file
+
+
+def test_a_read_only_folder_is_a_clear_message(tmp_path, monkeypatch):
+    import errno
+
+    import vetfluid.records
+
+    def refuse(*args, **kwargs):
+        raise PermissionError(errno.EACCES, "Permission denied")
+
+    monkeypatch.setattr(vetfluid.records.os, "open", refuse)  # as a read-only folder answers
+    with pytest.raises(RecordsError, match="cannot create.*Permission denied"):
+        Records.open(tmp_path / "records.sqlite")
+    assert not (tmp_path / "records.sqlite").exists()
+
+
+def test_a_full_disk_is_a_clear_message_and_keeps_what_was_saved(records):
+    pid = records.add_patient(name="Rex", species_id="dog")
+    plan = build_plan(DEMOS["dehydrated_dog"].request)
+    records.save_version(patient_id=pid, plan=plan, acknowledged={})
+    records.save_draft({"request": {"species_id": "dog"}})
+    pages = records._db.execute("PRAGMA page_count").fetchone()[0]
+    records._db.execute(f"PRAGMA max_page_count = {pages}")  # SQLite now answers "disk is full"
+    with pytest.raises(RecordsError, match="full"):
+        for _ in range(200):
+            records.save_version(patient_id=pid, plan=plan, acknowledged={})
+    assert records.versions(pid)[0].version == 1
+    assert records.draft() == {"request": {"species_id": "dog"}}
+
+
+WRITER = textwrap.dedent(
+    """
+    import sys
+    from vetfluid.demos import DEMOS
+    from vetfluid.plan import build_plan
+    from vetfluid.records import Records
+
+    db = Records.open(sys.argv[1])
+    pid = db.find_patients("Kill")[0].id if db.find_patients("Kill") else db.add_patient(
+        name="Kill", species_id="dog")
+    plan = build_plan(DEMOS["dehydrated_dog"].request)
+    print("ready", flush=True)
+    while True:
+        number = db.save_version(patient_id=pid, plan=plan, acknowledged={"A": "b"})
+        print(number, flush=True)
+    """
+)
+
+
+def test_kill_during_saves_never_loses_a_returned_version(tmp_path):
+    """SIGKILL a process saving versions in a loop, 50 times at random moments."""
+    path = tmp_path / "kill.sqlite"
+    rng = random.Random(20261201)
+    confirmed: set[int] = set()
+    runs = 50
+    for _ in range(runs):
+        child = subprocess.Popen([sys.executable, "-c", WRITER, str(path)],
+                                 stdout=subprocess.PIPE, text=True, cwd=ROOT)  # fmt: skip
+        assert child.stdout is not None
+        assert child.stdout.readline().strip() == "ready"
+        time.sleep(rng.uniform(0.0, 0.08))
+        child.send_signal(signal.SIGKILL)
+        out, _ = child.communicate()
+        confirmed.update(int(line) for line in out.split() if line.isdigit())
+        with sqlite3.connect(path) as raw:
+            assert raw.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    with Records.open(path) as db:
+        pid = db.find_patients("Kill")[0].id
+        saved = {v.version for v in db.versions(pid)}
+    assert confirmed, "no save completed in any run"
+    assert confirmed <= saved
+    print(f"kill test: {runs} runs, {len(confirmed)} confirmed saves, {len(saved)} on disk")

@@ -1,0 +1,410 @@
+"""Patient records that never lose data: SQLite in the user data folder.
+
+* WAL journal, foreign keys on, ``synchronous=FULL``, one transaction per save, so a
+  crash or power cut loses at most the save in progress, never an earlier one.
+* A schema version in ``meta`` with forward migrations; a file from a newer
+  vetfluid, or one that is not a vetfluid database or is damaged, is refused with a
+  clear message and left untouched.
+* Plans are immutable versions (triggers refuse UPDATE and DELETE); saving always
+  adds a version with the request, the computed plan, the findings, the reasons
+  given for acknowledged warnings, the author's initials, a timestamp and the
+  program version.
+* The file is created readable by its owner only. Only parameterised SQL.
+* Backup and restore through SQLite's online backup; one patient with every
+  version exports to and imports from plain JSON.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import sqlite3
+from dataclasses import dataclass
+from datetime import UTC, datetime
+from pathlib import Path
+
+from vetfluid import __version__
+from vetfluid.errors import InputError, VetfluidError
+from vetfluid.paths import user_data_dir
+
+DATABASE_NAME = "records.sqlite"
+SCHEMA_VERSION = 1
+EXPORT_FORMAT = "vetfluid-patient"
+
+_SCHEMA_1 = """
+CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
+CREATE TABLE patients (
+    id INTEGER PRIMARY KEY,
+    name TEXT NOT NULL,
+    species_id TEXT NOT NULL,
+    sex TEXT NOT NULL DEFAULT '',
+    birth_date TEXT NOT NULL DEFAULT '',
+    age_text TEXT NOT NULL DEFAULT '',
+    client_ref TEXT NOT NULL DEFAULT '',
+    notes TEXT NOT NULL DEFAULT '',
+    created_at TEXT NOT NULL
+);
+CREATE TABLE plan_versions (
+    id INTEGER PRIMARY KEY,
+    patient_id INTEGER NOT NULL REFERENCES patients(id),
+    version INTEGER NOT NULL,
+    request_json TEXT NOT NULL,
+    plan_json TEXT NOT NULL,
+    acknowledged_json TEXT NOT NULL,
+    author TEXT NOT NULL DEFAULT '',
+    created_at TEXT NOT NULL,
+    program_version TEXT NOT NULL,
+    UNIQUE (patient_id, version)
+);
+CREATE TRIGGER plan_versions_no_update BEFORE UPDATE ON plan_versions
+BEGIN SELECT RAISE(ABORT, 'plan versions are immutable'); END;
+CREATE TRIGGER plan_versions_no_delete BEFORE DELETE ON plan_versions
+BEGIN SELECT RAISE(ABORT, 'plan versions are immutable'); END;
+CREATE TABLE observations (
+    id INTEGER PRIMARY KEY,
+    plan_version_id INTEGER NOT NULL REFERENCES plan_versions(id),
+    observation_json TEXT NOT NULL,
+    recorded_at TEXT NOT NULL
+);
+CREATE TABLE draft (
+    id INTEGER PRIMARY KEY CHECK (id = 1),
+    content_json TEXT NOT NULL,
+    saved_at TEXT NOT NULL
+);
+CREATE INDEX patients_name ON patients(name);
+"""
+# Forward migrations: MIGRATIONS[n] takes a database from version n to n + 1.
+MIGRATIONS: dict[int, str] = {}
+
+
+class RecordsError(VetfluidError):
+    """The records database cannot be used as asked (the message says why and what to do)."""
+
+
+def _now() -> str:
+    return datetime.now(UTC).isoformat(timespec="seconds")
+
+
+@dataclass(frozen=True, kw_only=True)
+class PatientRow:
+    id: int
+    name: str
+    species_id: str
+    sex: str
+    birth_date: str
+    age_text: str
+    client_ref: str
+    notes: str
+    created_at: str
+
+
+@dataclass(frozen=True, kw_only=True)
+class VersionRow:
+    id: int
+    patient_id: int
+    version: int
+    request: dict
+    plan: dict
+    acknowledged: dict
+    author: str
+    created_at: str
+    program_version: str
+
+
+class Records:
+    """One records database; open it with :meth:`open`."""
+
+    def __init__(self, connection: sqlite3.Connection, path: Path) -> None:
+        self._db = connection
+        self.path = path
+
+    # ---- opening ---------------------------------------------------------------------------
+    @classmethod
+    def open(cls, path: Path | None = None) -> Records:
+        """Open (or create) the database; a newer, foreign or damaged file is refused."""
+        path = Path(path) if path is not None else user_data_dir() / DATABASE_NAME
+        new = not path.exists() or path.stat().st_size == 0  # empty: a create cut short
+        if not path.exists():
+            try:
+                # created owner-only before SQLite writes anything into it
+                os.close(os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600))
+            except OSError as exc:
+                raise RecordsError(
+                    f"cannot create the records file {path}: {exc.strerror}",
+                    fix="choose a folder you can write to, or free some disk space",
+                ) from exc
+        try:
+            connection = sqlite3.connect(path, timeout=10, isolation_level=None)
+            connection.execute("PRAGMA foreign_keys = ON")
+            if new:
+                connection.execute("PRAGMA journal_mode = WAL")
+            connection.execute("PRAGMA synchronous = FULL")
+            records = cls(connection, path)
+            records._prepare(new)
+        except sqlite3.DatabaseError as exc:
+            raise RecordsError(
+                f"{path.name} is not a usable vetfluid records file ({exc}); it was left untouched",
+                fix="open another file or restore a backup",
+            ) from exc
+        return records
+
+    def _prepare(self, new: bool) -> None:
+        if new:
+            # one script, one transaction: a crash here leaves an empty file, never half a schema
+            self._db.executescript(
+                "BEGIN IMMEDIATE;"
+                + _SCHEMA_1
+                + f"INSERT INTO meta (key, value) VALUES ('schema_version', '{SCHEMA_VERSION}');"
+                + "COMMIT;"
+            )
+            return
+        check = self._db.execute("PRAGMA quick_check").fetchone()[0]
+        if check != "ok":
+            raise sqlite3.DatabaseError(f"integrity check failed: {check}")
+        try:
+            row = self._db.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
+        except sqlite3.OperationalError:
+            raise sqlite3.DatabaseError("no vetfluid schema") from None
+        version = int(row[0]) if row else 0
+        if version > SCHEMA_VERSION:
+            self._db.close()
+            raise RecordsError(
+                f"{self.path.name} was written by a newer vetfluid (schema {version}; this one "
+                f"reads up to {SCHEMA_VERSION}); it was left untouched",
+                fix="update vetfluid, or open another records file",
+            )
+        while version < SCHEMA_VERSION:
+            with self._transaction():
+                self._db.execute(MIGRATIONS[version])
+                version += 1
+                self._db.execute(
+                    "UPDATE meta SET value = ? WHERE key = 'schema_version'", (str(version),)
+                )
+
+    def close(self) -> None:
+        self._db.close()
+
+    def __enter__(self) -> Records:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    class _Transaction:
+        def __init__(self, db: sqlite3.Connection) -> None:
+            self.db = db
+
+        def __enter__(self) -> None:
+            self.db.execute("BEGIN IMMEDIATE")
+
+        def __exit__(self, kind, value, traceback) -> None:  # noqa: ANN001
+            if kind is None:
+                self.db.execute("COMMIT")
+            elif self.db.in_transaction:  # SQLite may already have rolled back (e.g. disk full)
+                self.db.execute("ROLLBACK")
+
+    def _transaction(self) -> Records._Transaction:
+        return Records._Transaction(self._db)
+
+    def _write(self, sql: str, params: tuple) -> int:
+        """One statement in its own transaction; disk errors become a clear message."""
+        try:
+            with self._transaction():
+                return self._db.execute(sql, params).lastrowid or 0
+        except sqlite3.OperationalError as exc:
+            raise RecordsError(
+                f"could not save to {self.path.name}: {exc}",
+                fix="check that the disk has space and the folder is writable; nothing was lost",
+            ) from exc
+
+    # ---- patients --------------------------------------------------------------------------
+    def add_patient(
+        self,
+        *,
+        name: str,
+        species_id: str,
+        sex: str = "",
+        birth_date: str = "",
+        age_text: str = "",
+        client_ref: str = "",
+        notes: str = "",
+    ) -> int:
+        if not name.strip():
+            raise InputError("a patient needs a name", field="name", value=name)
+        if not species_id.strip():
+            raise InputError("a patient needs a species", field="species_id", value=species_id)
+        return self._write(
+            "INSERT INTO patients (name, species_id, sex, birth_date, age_text, client_ref, notes,"
+            " created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+            (name.strip(), species_id, sex, birth_date, age_text, client_ref, notes, _now()),
+        )
+
+    def patient(self, patient_id: int) -> PatientRow:
+        row = self._db.execute(
+            "SELECT id, name, species_id, sex, birth_date, age_text, client_ref, notes, created_at"
+            " FROM patients WHERE id = ?",
+            (patient_id,),
+        ).fetchone()
+        if row is None:
+            raise InputError(f"no patient {patient_id}", field="patient", value=patient_id)
+        return PatientRow(**dict(zip(PatientRow.__dataclass_fields__, row, strict=True)))
+
+    def find_patients(self, text: str = "", *, limit: int = 50) -> list[PatientRow]:
+        """Recent patients whose name, species or client reference contains ``text``."""
+        like = f"%{text.strip()}%"
+        rows = self._db.execute(
+            "SELECT id, name, species_id, sex, birth_date, age_text, client_ref, notes, created_at"
+            " FROM patients WHERE name LIKE ? OR species_id LIKE ? OR client_ref LIKE ?"
+            " ORDER BY id DESC LIMIT ?",
+            (like, like, like, limit),
+        ).fetchall()
+        return [
+            PatientRow(**dict(zip(PatientRow.__dataclass_fields__, r, strict=True))) for r in rows
+        ]
+
+    # ---- plan versions ---------------------------------------------------------------------
+    def save_version(
+        self, *, patient_id: int, plan, acknowledged: dict[str, str], author: str = ""
+    ) -> int:  # noqa: ANN001 — vetfluid.plan.Plan
+        """Save the plan as the patient's next version (one transaction); returns its number."""
+        from vetfluid.serialize import plan_dict, request_to_dict
+
+        self.patient(patient_id)
+        request_json = json.dumps(request_to_dict(plan.request), ensure_ascii=False)
+        plan_json = json.dumps(plan_dict(plan), ensure_ascii=False)
+        ack_json = json.dumps(dict(acknowledged), ensure_ascii=False)
+        try:
+            with self._transaction():
+                row = self._db.execute(
+                    "SELECT COALESCE(MAX(version), 0) + 1 FROM plan_versions WHERE patient_id = ?",
+                    (patient_id,),
+                ).fetchone()
+                number = int(row[0])
+                self._db.execute(
+                    "INSERT INTO plan_versions (patient_id, version, request_json, plan_json,"
+                    " acknowledged_json, author, created_at, program_version)"
+                    " VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                    (patient_id, number, request_json, plan_json, ack_json, author, _now(),
+                     __version__),
+                )  # fmt: skip
+        except sqlite3.OperationalError as exc:
+            raise RecordsError(
+                f"could not save the plan to {self.path.name}: {exc}",
+                fix="check the disk and the folder; the plan on screen is unchanged",
+            ) from exc
+        return number
+
+    def versions(self, patient_id: int) -> list[VersionRow]:
+        rows = self._db.execute(
+            "SELECT id, patient_id, version, request_json, plan_json, acknowledged_json, author,"
+            " created_at, program_version FROM plan_versions WHERE patient_id = ? ORDER BY version",
+            (patient_id,),
+        ).fetchall()
+        return [
+            VersionRow(id=r[0], patient_id=r[1], version=r[2], request=json.loads(r[3]),
+                       plan=json.loads(r[4]), acknowledged=json.loads(r[5]), author=r[6],
+                       created_at=r[7], program_version=r[8])
+            for r in rows
+        ]  # fmt: skip
+
+    def add_observation(self, *, version_id: int, observation: dict) -> int:
+        return self._write(
+            "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
+            " VALUES (?, ?, ?)",
+            (version_id, json.dumps(observation, ensure_ascii=False), _now()),
+        )
+
+    def observations(self, version_id: int) -> list[dict]:
+        rows = self._db.execute(
+            "SELECT observation_json FROM observations WHERE plan_version_id = ? ORDER BY id",
+            (version_id,),
+        ).fetchall()
+        return [json.loads(r[0]) for r in rows]
+
+    # ---- the draft being edited ------------------------------------------------------------
+    def save_draft(self, content: dict) -> None:
+        self._write(
+            "INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)"
+            " ON CONFLICT(id) DO UPDATE SET content_json = excluded.content_json,"
+            " saved_at = excluded.saved_at",
+            (json.dumps(content, ensure_ascii=False), _now()),
+        )
+
+    def draft(self) -> dict | None:
+        row = self._db.execute("SELECT content_json FROM draft WHERE id = 1").fetchone()
+        return json.loads(row[0]) if row else None
+
+    def clear_draft(self) -> None:
+        self._write("DELETE FROM draft WHERE id = ?", (1,))
+
+    # ---- backup, export ----------------------------------------------------------------------
+    def backup(self, target: Path) -> Path:
+        """A consistent copy through SQLite's online backup (safe while the file is in use)."""
+        target = Path(target)
+        with sqlite3.connect(target) as copy:
+            self._db.backup(copy)
+        os.chmod(target, 0o600)
+        return target
+
+    @staticmethod
+    def restore(backup: Path, target: Path) -> None:
+        """Copy a backup over ``target`` (online backup; the backup is checked first)."""
+        with sqlite3.connect(Path(backup)) as source:
+            if source.execute("PRAGMA integrity_check").fetchone()[0] != "ok":
+                raise RecordsError(f"{Path(backup).name} is damaged; nothing was restored")
+            with sqlite3.connect(Path(target)) as copy:
+                source.backup(copy)
+
+    def export_patient(self, patient_id: int) -> dict:
+        patient = self.patient(patient_id)
+        return {
+            "format": EXPORT_FORMAT,
+            "version": 1,
+            "patient": {k: getattr(patient, k) for k in PatientRow.__dataclass_fields__},
+            "plan_versions": [
+                {
+                    "version": v.version,
+                    "request": v.request,
+                    "plan": v.plan,
+                    "acknowledged": v.acknowledged,
+                    "author": v.author,
+                    "created_at": v.created_at,
+                    "program_version": v.program_version,
+                    "observations": self.observations(v.id),
+                }
+                for v in self.versions(patient_id)
+            ],
+        }
+
+    def import_patient(self, data: dict) -> int:
+        """Import an exported patient as a new patient with all its versions (one transaction)."""
+        if not isinstance(data, dict) or data.get("format") != EXPORT_FORMAT:
+            raise InputError("not a vetfluid patient export", field="file")
+        patient = data.get("patient") or {}
+        try:
+            with self._transaction():
+                cursor = self._db.execute(
+                    "INSERT INTO patients (name, species_id, sex, birth_date, age_text, client_ref,"
+                    " notes, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                    tuple(str(patient.get(k, "")) for k in ("name", "species_id", "sex",
+                          "birth_date", "age_text", "client_ref", "notes")) + (_now(),),
+                )  # fmt: skip
+                new_id = cursor.lastrowid
+                for v in data.get("plan_versions", []):
+                    version_id = self._db.execute(
+                        "INSERT INTO plan_versions (patient_id, version, request_json, plan_json,"
+                        " acknowledged_json, author, created_at, program_version)"
+                        " VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                        (new_id, int(v["version"]), json.dumps(v["request"]), json.dumps(v["plan"]),
+                         json.dumps(v.get("acknowledged", {})), str(v.get("author", "")),
+                         str(v.get("created_at", _now())), str(v.get("program_version", ""))),
+                    ).lastrowid  # fmt: skip
+                    for obs in v.get("observations", []):
+                        self._db.execute(
+                            "INSERT INTO observations (plan_version_id, observation_json,"
+                            " recorded_at) VALUES (?, ?, ?)",
+                            (version_id, json.dumps(obs), _now()),
+                        )
+        except (KeyError, TypeError, ValueError) as exc:
+            raise InputError(f"the patient export is incomplete: {exc}", field="file") from None
+        return int(new_id)
