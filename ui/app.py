@@ -9,7 +9,45 @@ from __future__ import annotations
 import sys
 
 
+def sheet_command(argv: list[str]) -> int:
+    """``vetfluid sheet PLAN.json -o sheet.pdf``: the treatment sheet, rendered offscreen."""
+    import argparse
+    import json
+    import os
+    from pathlib import Path
+
+    parser = argparse.ArgumentParser(prog="vetfluid sheet", description="Print a treatment sheet.")
+    parser.add_argument("plan", help="a plan as printed by `vetfluid-cli plan --json`")
+    parser.add_argument("-o", "--output", required=True, help="the PDF to write")
+    parser.add_argument("--page", choices=("a4", "letter"), default="a4")
+    parser.add_argument("--patient-name", default="")
+    args = parser.parse_args(argv)
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # no window is shown
+    try:
+        data = json.loads(Path(args.plan).read_text(encoding="utf-8"))
+        from vetfluid.sheet import sheet_html
+
+        html = sheet_html(data, patient={"name": args.patient_name} if args.patient_name else None)
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        sys.stderr.write(
+            f"vetfluid sheet: cannot read {args.plan}: {exc} — give the JSON that "
+            "`vetfluid-cli plan --json` prints\n"
+        )
+        return 2
+    from PySide6.QtWidgets import QApplication
+
+    from ui.printing import print_sheet_to_pdf
+
+    app = QApplication.instance() or QApplication(["vetfluid"])  # noqa: F841 (Qt needs one)
+    pages = print_sheet_to_pdf(html, args.output, page=args.page)
+    sys.stdout.write(f"wrote {args.output} ({pages} page{'s' if pages != 1 else ''})\n")
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
+    arguments = sys.argv[1:] if argv is None else argv[1:]
+    if arguments and arguments[0] == "sheet":
+        return sheet_command(arguments[1:])
     from ui.platform_check import display_problem
 
     problem = display_problem()

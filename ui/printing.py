@@ -47,3 +47,21 @@ def print_sheet(html: str, printer) -> int:  # noqa: ANN001 — QPrinter
         return pages
     finally:
         painter.end()
+
+
+PAGE_SIZES = {"a4": "A4", "letter": "Letter"}
+
+
+def print_sheet_to_pdf(html: str, path, *, page: str = "a4") -> int:  # noqa: ANN001
+    """Write the sheet as a PDF on A4 or US Letter; returns the number of pages."""
+    from PySide6.QtGui import QPageSize
+    from PySide6.QtPrintSupport import QPrinter
+
+    if page not in PAGE_SIZES:
+        raise ValueError(f"page must be one of {', '.join(PAGE_SIZES)}")
+    printer = QPrinter(QPrinter.PrinterMode.HighResolution)
+    printer.setOutputFormat(QPrinter.OutputFormat.PdfFormat)
+    printer.setOutputFileName(str(path))
+    size = QPageSize.PageSizeId.A4 if page == "a4" else QPageSize.PageSizeId.Letter
+    printer.setPageSize(QPageSize(size))
+    return print_sheet(html, printer)

@@ -112,6 +112,7 @@ def plan_dict(plan: Plan) -> dict[str, object]:
         "hard_limit": plan.has_hard_limit,
         "provenance": [value_dict(v) for v in plan.provenance],
         "cautions": list(CAUTIONS),
+        "request": request_to_dict(plan.request),
     }
     if plan.resuscitation is not None:
         r = plan.resuscitation

@@ -1,64 +1,127 @@
-"""The plan as a printable sheet (HTML), built from the same data as the CLI's JSON.
+"""The treatment sheet (HTML), built from the plan's JSON so the window, the CLI's JSON
+and ``vetfluid sheet PLAN.json`` print the same thing.
 
-Every page carries the cautions; values recalled from memory are marked with
-"(memory — unverified)" in words, so the marking survives black-and-white print.
+Sections: patient header, cautions, plan summary, the hourly schedule on the clock
+with columns the nurse fills in, bag or syringe labels, findings with the reasons
+given, and footnotes naming the source of every species value used — values
+recalled from memory say "(memory — unverified)" in words, so the marking survives
+black-and-white print. Every text is escaped: a patient called "<b>Rex</b>" prints
+as those characters. Numbers are formatted the safe way.
 """
 
 from __future__ import annotations
 
+import math
 from html import escape
 
 from vetfluid.cautions import CAUTIONS
 from vetfluid.formatting import format_quantity as q
 from vetfluid.plan import Plan
+from vetfluid.schedule import clock_time
 from vetfluid.serialize import plan_dict
 
 SEVERITY_WORDS = {"info": "Note", "soft": "Warning", "hard": "HARD LIMIT"}
+NURSE_COLUMNS = ("Rate set", "Volume given", "Weight", "HR", "RR", "MM / CRT", "Urine", "Initials")
+# Discard a spiked bag or filled syringe after 24 h: common practice, no source.
+DISCARD_AFTER_H = 24.0
+STYLE = (
+    "body { font-family: sans-serif; font-size: 9pt; } "
+    "table { border-collapse: collapse; } td, th { border: 1px solid black; padding: 2px; }"
+)
 
 
-def _rows(rows: list[list[str]], header: list[str]) -> str:
-    head = "".join(f"<th align='left'>{escape(h)}</th>" for h in header)
-    body = "".join("<tr>" + "".join(f"<td>{escape(c)}</td>" for c in r) + "</tr>" for r in rows)
-    table = "<table border='1' cellspacing='0' cellpadding='3' width='100%'>"
-    return f"{table}<tr>{head}</tr>{body}</table>"
+def _table(rows: list[list[str]], header: list[str] | None, *, padding: int = 2) -> str:
+    cells = "".join(f"<th align='left'>{escape(h)}</th>" for h in header or ())
+    head = f"<tr>{cells}</tr>" if header else ""
+    body = "".join("<tr>" + "".join(f"<td>{escape(c)}</td>" for c in row) + "</tr>" for row in rows)
+    return f"<table width='100%' cellspacing='0' cellpadding='{padding}'>{head}{body}</table>"
 
 
-def plan_sheet_html(
-    plan: Plan, *, acknowledged: dict[str, str] | None = None, ready: bool = False
+def _start(data: dict):  # noqa: ANN202 — datetime.time | None
+    from datetime import datetime
+
+    start = (data.get("request") or {}).get("start_time")
+    if not start:
+        clocks = [e["clock"] for e in data["schedule"] if e.get("clock")]
+        return datetime.strptime(clocks[0][:5], "%H:%M").time() if clocks else None
+    return datetime.strptime(start, "%H:%M").time()
+
+
+def _planned_at(phases: list[dict], hour: float) -> str:
+    """What the schedule says for the hour starting at ``hour``: a rate or the doses due."""
+    parts = []
+    for p in phases:
+        if p["mode"] == "continuous" and p["start_h"] <= hour < p["end_h"]:
+            parts.append(q(p["rate_ml_per_h"], "mL/h"))
+        elif p["mode"] == "intermittent":
+            due = [
+                p["start_h"] + i * p["interval_h"]
+                for i in range(p["doses"])
+                if hour <= p["start_h"] + i * p["interval_h"] < hour + 1
+            ]
+            parts += [f"dose {q(p['dose_ml'], 'mL')}" for _ in due]
+    return ", ".join(parts) or "—"
+
+
+def sheet_html(
+    data: dict,
+    *,
+    patient: dict | None = None,
+    acknowledged: dict[str, str] | None = None,
+    ready: bool = False,
 ) -> str:
-    """The treatment sheet for one plan: patient, totals, schedule, findings, values used."""
-    data = plan_dict(plan)
+    """The treatment sheet for a plan's JSON (``vetfluid-cli plan --json``)."""
     acknowledged = acknowledged or {}
+    patient = patient or {}
+    start = _start(data)
     m = data["maintenance"]
-    cautions = "".join(f"<li>{escape(c)}</li>" for c in CAUTIONS)
+    end = max(p["end_h"] for p in data["phases"])
+    hours = range(int(math.ceil(end)))
+    name = patient.get("name") or "(patient name)"
     parts = [
-        "<html><body style='font-family: sans-serif; font-size: 10pt'>",
-        f"<h2>Fluid plan — {escape(data['species_name'])}, "
-        f"{escape(q(data['weight_kg'], 'kg'))}</h2>",
-        f"<p><b>Status:</b> {'marked ready' if ready else 'not marked ready'}</p>",
-        "<div style='border: 1px solid black; padding: 4px'>",
-        f"<b>Cautions</b><ul>{cautions}</ul></div>",
-        "<h3>Totals</h3>",
-        _rows(
+        f"<html><head><style>{STYLE}</style></head><body>",
+        f"<h2>Fluid treatment sheet — {escape(str(name))}</h2>",
+        "<p>"
+        + escape(
+            f"{data['species_name']}, {q(data['weight_kg'], 'kg')}"
+            + "".join(f" · {k}: {v}" for k, v in patient.items() if k != "name" and v)
+        )
+        + f"<br>Status: {'marked ready' if ready else 'NOT marked ready'}</p>",
+        "<p><b>Cautions:</b> " + escape(" ".join(CAUTIONS)) + "</p>",
+        "<h3>Plan</h3>",
+        _table(
             [
                 ["Maintenance", f"{q(m['ml_per_day'], 'mL/day')} — {m['method']}: {m['formula']}"],
                 [
                     "Dehydration",
                     f"{data['dehydration_percent']:g} % → deficit {q(data['deficit_ml'], 'mL')}",
                 ],
-                ["First 24 h", q(data["total_ml_first_24h"], "mL")],
                 ["Fluid", data["fluid"]["name"]],
                 ["Route", f"{data['route'].upper()} ({data['device']})"],
-            ],
-            ["", ""],
-        ),
+                ["First 24 h", q(data["total_ml_first_24h"], "mL")],
+            ]
+            + [[f"Phase: {p['kind']}", _phase_text(p)] for p in data["phases"]],
+            None,
+        ),  # fmt: skip
         "<h3>Schedule</h3>",
-        _rows(
+        _table(
             [[e["clock"] or f"h {e['hour']:g}", e["phase"], e["action"]] for e in data["schedule"]],
             ["Clock", "Phase", "What to do"],
-        ),  # fmt: skip
+        ),
+        "<h3>Hourly record (fill in)</h3>",
+        _table(
+            [
+                [clock_time(start, h) or f"h {h}", f"{h}", _planned_at(data["phases"], h)]
+                + [""] * len(NURSE_COLUMNS)
+                for h in hours
+            ],
+            ["Clock", "Hour", "Planned", *NURSE_COLUMNS],
+            padding=6,  # room to write by hand
+        ),
+        "<h3>Labels</h3>",
+        _labels(data, str(name), start),
         "<h3>Findings</h3>",
-        _rows(
+        _table(
             [
                 [
                     SEVERITY_WORDS[f["severity"]],
@@ -70,8 +133,8 @@ def plan_sheet_html(
             or [["—", "none", ""]],
             ["Severity", "Finding", "Reason given"],
         ),  # fmt: skip
-        "<h3>Species values used</h3>",
-        _rows(
+        "<h3>Sources of the species values used</h3>",
+        _table(
             [
                 [
                     v["parameter"],
@@ -86,3 +149,52 @@ def plan_sheet_html(
         "</body></html>",
     ]
     return "".join(parts)
+
+
+def _phase_text(p: dict) -> str:
+    span = f"h {p['start_h']:g}–{p['end_h']:g}"
+    if p["mode"] == "continuous":
+        return f"{span}: {q(p['rate_ml_per_h'], 'mL/h')}, {q(p['volume_ml'], 'mL')}"
+    return (
+        f"{span}: {q(p['dose_ml'], 'mL')} every {p['interval_h']:g} h × {p['doses']}, "
+        f"{p['sites_per_dose']} site(s)"
+    )
+
+
+def _labels(data: dict, name: str, start) -> str:  # noqa: ANN001
+    """One label per bag or syringe: patient, fluid with additives, rate, start and discard."""
+    cells = []
+    for p in data["phases"]:
+        fluid = p.get("fluid") or data["fluid"]["name"]
+        rate = (
+            q(p["rate_ml_per_h"], "mL/h")
+            if p["mode"] == "continuous"
+            else f"{q(p['dose_ml'], 'mL')} per dose"
+        )
+        begin = clock_time(start, p["start_h"]) or f"h {p['start_h']:g}"
+        discard = clock_time(start, p["start_h"] + DISCARD_AFTER_H) or (
+            f"h {p['start_h'] + DISCARD_AFTER_H:g}"
+        )
+        cells.append(
+            "<td>"
+            + "<br>".join(
+                escape(text)
+                for text in (
+                    name,
+                    f"{data['species_name']}, {q(data['weight_kg'], 'kg')}",
+                    fluid,
+                    f"{p['kind']}: {rate} {p['route'].upper()}",
+                    f"start {begin} · discard by {discard}",
+                )
+            )
+            + "</td>"
+        )
+    return "<table cellspacing='4'><tr>" + "".join(cells) + "</tr></table>"
+
+
+def plan_sheet_html(
+    plan: Plan, *, acknowledged: dict[str, str] | None = None, ready: bool = False,
+    patient: dict | None = None,
+) -> str:  # fmt: skip
+    """The sheet for a plan object (the window's path to :func:`sheet_html`)."""
+    return sheet_html(plan_dict(plan), patient=patient, acknowledged=acknowledged, ready=ready)

@@ -1,0 +1,63 @@
+"""The treatment sheet: from the plan's JSON, headless to PDF, every text escaped."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+from vetfluid.demos import DEMOS
+from vetfluid.plan import build_plan
+from vetfluid.serialize import plan_dict
+from vetfluid.sheet import NURSE_COLUMNS, sheet_html
+
+VETFLUID = str(Path(sys.executable).with_name("vetfluid"))
+
+
+def dog_data():
+    return plan_dict(build_plan(DEMOS["dehydrated_dog"].request))
+
+
+def test_sheet_has_the_nurse_columns_labels_cautions_and_sources():
+    html = sheet_html(dog_data(), patient={"name": "Rex", "client": "C-12"})
+    for column in NURSE_COLUMNS:
+        assert column in html
+    assert "discard by" in html and "Hourly record" in html
+    assert "Verify every volume" in html
+    assert "(memory — unverified)" in html and "davis2013" in html
+    assert "08:00" in html and "20:00" in html  # the clock from the demo's start
+
+
+def test_sheet_numbers_match_the_plan():
+    data = dog_data()
+    html = sheet_html(data)
+    from vetfluid.formatting import format_quantity as q
+
+    assert q(data["total_ml_first_24h"], "mL") in html
+    assert q(data["phases"][0]["rate_ml_per_h"], "mL/h") in html
+
+
+def test_markup_in_names_prints_as_text():
+    html = sheet_html(dog_data(), patient={"name": "<b>Rex</b><script>x</script>"})
+    assert "<script>" not in html and "&lt;script&gt;" in html
+
+
+def test_headless_sheet_command_writes_a_pdf(tmp_path):
+    plan = tmp_path / "plan.json"
+    plan.write_text(json.dumps(dog_data()), encoding="utf-8")
+    out = tmp_path / "sheet.pdf"
+    result = subprocess.run([VETFLUID, "sheet", str(plan), "-o", str(out), "--page", "letter"],
+                            capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert result.returncode == 0, result.stderr
+    assert out.read_bytes().startswith(b"%PDF")
+    assert "page" in result.stdout
+
+
+def test_headless_sheet_command_refuses_bad_json(tmp_path):
+    plan = tmp_path / "plan.json"
+    plan.write_text("{}", encoding="utf-8")
+    result = subprocess.run([VETFLUID, "sheet", str(plan), "-o", str(tmp_path / "x.pdf")],
+                            capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert result.returncode == 2 and "vetfluid-cli plan --json" in result.stderr
+    assert "Traceback" not in result.stderr
