@@ -145,6 +145,7 @@ class MainWindow(QMainWindow):
             self.demo_menu.addAction(action)
         self.session.planChanged.connect(self._plan_changed)
         self.session.readinessChanged.connect(self._update_check_tab)
+        self._open_records()
         self.session.recompute()
         self._page_opened(self.pages.currentIndex())
 
@@ -171,6 +172,14 @@ class MainWindow(QMainWindow):
         file_menu.addAction(
             self._action("&Save plan request…", self.save_file, QKeySequence.StandardKey.Save)
         )
+        file_menu.addAction(
+            self._action("Open &patient…", self.open_patient, "Ctrl+Shift+O",
+                         tip="Find a patient in the records and open a plan version")
+        )  # fmt: skip
+        file_menu.addAction(
+            self._action("Save as new &version", lambda: self.save_version(), "Ctrl+Shift+S",
+                         tip="Save this plan as the patient's next version (never overwritten)")
+        )  # fmt: skip
         self.demo_menu = file_menu.addMenu("&Demo patients")  # filled with the planner
         file_menu.addSeparator()
         file_menu.addAction(
@@ -203,6 +212,121 @@ class MainWindow(QMainWindow):
                 "&Cautions and sources", self.show_help, QKeySequence.StandardKey.HelpContents
             )
         )
+
+    # ---- records ----------------------------------------------------------------------------
+    def _open_records(self) -> None:
+        """Open the records database; if it cannot be used the planner still works."""
+        from vetfluid.records import Records, RecordsError
+
+        self.current_patient: int | None = None
+        try:
+            self.records = Records.open()
+        except RecordsError as exc:
+            self.records = None
+            self.statusBar().showMessage(f"Records unavailable: {exc.one_line()}")
+            return
+        self._draft_timer = QTimer(self)
+        self._draft_timer.setSingleShot(True)
+        self._draft_timer.setInterval(2000)  # a crash loses at most a few seconds of typing
+        self._draft_timer.timeout.connect(self._save_draft)
+        self.session.planChanged.connect(lambda _plan: self._draft_timer.start())
+        QTimer.singleShot(0, self.offer_draft)
+
+    def _save_draft(self) -> None:
+        from vetfluid.records import RecordsError
+        from vetfluid.serialize import request_to_dict
+
+        if self.records is None or self.session.plan is None:
+            return
+        try:
+            self.records.save_draft(
+                {
+                    "request": request_to_dict(self.session.plan.request),
+                    "acknowledged": self.session.acknowledged,
+                    "patient_id": self.current_patient,
+                }
+            )
+        except RecordsError as exc:
+            self.statusBar().showMessage(f"Draft not saved: {exc.one_line()}")
+
+    def offer_draft(self) -> bool:
+        """Offer back the plan that was being edited when vetfluid last stopped."""
+        from vetfluid.serialize import request_from_dict
+
+        draft = self.records.draft() if self.records is not None else None
+        if not draft:
+            return False
+        answer = QMessageBox.question(
+            self,
+            "vetfluid",
+            "A plan was being edited when vetfluid last stopped. Restore it?",
+        )
+        if answer != QMessageBox.StandardButton.Yes:
+            self.records.clear_draft()
+            return False
+        try:
+            request = request_from_dict(draft["request"])
+        except (VetfluidError, KeyError, TypeError) as exc:
+            self.statusBar().showMessage(f"The draft could not be restored: {exc}")
+            return False
+        self.session.replace_request(request, draft.get("acknowledged") or {})
+        self.current_patient = draft.get("patient_id")
+        self.statusBar().showMessage("Restored the plan that was being edited.")
+        return True
+
+    def save_version(
+        self, *, name: str | None = None, client_ref: str = "", author: str = ""
+    ) -> int | None:
+        """Save the plan as the patient's next version (asks for the patient the first time)."""
+        from ui.records_view import NewPatientDialog
+        from vetfluid.records import RecordsError
+
+        self.build_planner()
+        plan = self.session.plan
+        if plan is None or self.records is None:
+            QMessageBox.information(self, "vetfluid", "There is no valid plan, or no records file.")
+            return None
+        try:
+            if self.current_patient is None:
+                if name is None:
+                    dialog = NewPatientDialog(plan.request.species_id, self)
+                    if not dialog.exec() or not dialog.name.text().strip():
+                        return None
+                    name, client_ref = dialog.name.text(), dialog.client.text()
+                    author = dialog.initials.text()
+                self.current_patient = self.records.add_patient(
+                    name=name, species_id=plan.request.species_id, client_ref=client_ref
+                )
+            number = self.records.save_version(
+                patient_id=self.current_patient, plan=plan,
+                acknowledged=self.session.acknowledged, author=author,
+            )  # fmt: skip
+        except (RecordsError, VetfluidError) as exc:
+            QMessageBox.warning(self, "vetfluid", f"Not saved: {exc}")
+            return None
+        self.records.clear_draft()
+        self.statusBar().showMessage(f"Saved as version {number}; earlier versions are kept.")
+        return number
+
+    def open_patient(self) -> None:
+        from ui.records_view import OpenPatientDialog
+
+        self.build_planner()
+        if self.records is None:
+            QMessageBox.information(self, "vetfluid", "No records file is open.")
+            return
+        dialog = OpenPatientDialog(self.records, self)
+        if dialog.exec() and dialog.chosen():
+            self.load_version(*dialog.chosen())
+
+    def load_version(self, patient_id: int, version: int) -> None:
+        from vetfluid.serialize import request_from_dict
+
+        chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
+        self.session.replace_request(request_from_dict(chosen.request), chosen.acknowledged)
+        self.current_patient = patient_id
+        patient = self.records.patient(patient_id)
+        self.statusBar().showMessage(f"Opened {patient.name}, version {version}.")
 
     def _detail_opened(self, index: int) -> None:
         """The plots are built the first time the Timeline tab is opened (pyqtgraph is big)."""
@@ -290,6 +414,7 @@ class MainWindow(QMainWindow):
     # ---- commands ----------------------------------------------------------------------------
     def new_patient(self) -> None:
         self.build_planner()
+        self.current_patient = None
         self.session.replace_request(None)
         self.patient.species_box.setFocus()
 
@@ -298,6 +423,7 @@ class MainWindow(QMainWindow):
 
         self.build_planner()
         chosen = demo(demo_id)
+        self.current_patient = None
         self.session.replace_request(chosen.request)
         self.statusBar().showMessage(chosen.story)
 
@@ -404,5 +530,10 @@ class MainWindow(QMainWindow):
         settings.setValue("size", self.size())
         if self.session is not None:
             settings.setValue("splitter", self.splitter.saveState())
+            if self.records is not None:
+                self._draft_timer.stop()
+                self._save_draft()  # offered back next time, like after a crash
+                self.records.close()
+                self.records = None
         settings.sync()
         super().closeEvent(event)

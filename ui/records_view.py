@@ -1,0 +1,114 @@
+"""Patients in the records database: find one, see its plan versions, open one.
+
+The records themselves (SQLite, immutable versions) are in ``vetfluid/records.py``;
+this dialog only lists and chooses.
+"""
+
+from __future__ import annotations
+
+from PySide6.QtWidgets import (
+    QDialog,
+    QDialogButtonBox,
+    QFormLayout,
+    QLabel,
+    QLineEdit,
+    QListWidget,
+    QListWidgetItem,
+    QVBoxLayout,
+    QWidget,
+)
+
+from vetfluid.records import Records
+
+
+class OpenPatientDialog(QDialog):
+    """Search recent patients by name, species or client reference; pick a version."""
+
+    def __init__(self, records: Records, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.records = records
+        self.setWindowTitle("vetfluid — open a patient")
+        layout = QVBoxLayout(self)
+        self.search = QLineEdit()
+        self.search.setPlaceholderText("name, species or client reference")
+        self.search.setAccessibleName("Find a patient")
+        self.search.textChanged.connect(self._find)
+        layout.addWidget(self.search)
+        self.patients = QListWidget()
+        self.patients.setAccessibleName("Patients")
+        self.patients.currentItemChanged.connect(self._show_versions)
+        layout.addWidget(self.patients, 2)
+        layout.addWidget(QLabel("Plan versions (never overwritten):"))
+        self.versions = QListWidget()
+        self.versions.setAccessibleName("Plan versions")
+        self.versions.itemDoubleClicked.connect(self.accept)
+        layout.addWidget(self.versions, 1)
+        buttons = QDialogButtonBox(
+            QDialogButtonBox.StandardButton.Open | QDialogButtonBox.StandardButton.Cancel
+        )
+        buttons.accepted.connect(self.accept)
+        buttons.rejected.connect(self.reject)
+        layout.addWidget(buttons)
+        self.resize(520, 520)
+        self._find("")
+
+    def _find(self, text: str) -> None:
+        self.patients.clear()
+        for patient in self.records.find_patients(text):
+            label = f"{patient.name} — {patient.species_id}"
+            if patient.client_ref:
+                label += f" · {patient.client_ref}"
+            item = QListWidgetItem(label)
+            item.setData(256, patient.id)  # Qt.UserRole
+            self.patients.addItem(item)
+        if self.patients.count():
+            self.patients.setCurrentRow(0)
+
+    def _show_versions(self, item: QListWidgetItem | None, _previous=None) -> None:  # noqa: ANN001
+        self.versions.clear()
+        if item is None:
+            return
+        for version in reversed(self.records.versions(item.data(256))):
+            plan = version.plan
+            text = (
+                f"v{version.version} · {version.created_at} · {version.author or 'no initials'} · "
+                f"{plan['weight_kg']:g} kg · first 24 h {plan['total_ml_first_24h']:.0f} mL"
+            )
+            entry = QListWidgetItem(text)
+            entry.setData(256, version.version)
+            self.versions.addItem(entry)
+        if self.versions.count():
+            self.versions.setCurrentRow(0)
+
+    def chosen(self) -> tuple[int, int] | None:
+        """(patient id, version number) of the selection, or None."""
+        patient, version = self.patients.currentItem(), self.versions.currentItem()
+        if patient is None or version is None:
+            return None
+        return patient.data(256), version.data(256)
+
+
+class NewPatientDialog(QDialog):
+    """Name, client reference and the author's initials for a first save."""
+
+    def __init__(self, species_id: str, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setWindowTitle("vetfluid — save as a new patient")
+        form = QFormLayout(self)
+        self.name = QLineEdit()
+        self.name.setAccessibleName("Patient name")
+        self.client = QLineEdit()
+        self.client.setAccessibleName("Client reference")
+        self.initials = QLineEdit()
+        self.initials.setAccessibleName("Your initials")
+        self.initials.setMaxLength(6)
+        form.addRow("Species", QLabel(species_id))
+        form.addRow("Patient &name", self.name)
+        form.addRow("&Client reference", self.client)
+        form.addRow("Your &initials", self.initials)
+        buttons = QDialogButtonBox(
+            QDialogButtonBox.StandardButton.Save | QDialogButtonBox.StandardButton.Cancel
+        )
+        buttons.accepted.connect(self.accept)
+        buttons.rejected.connect(self.reject)
+        form.addRow(buttons)
