@@ -18,6 +18,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from vetfluid.formatting import format_quantity as q
 from vetfluid.records import Records
 
 
@@ -72,7 +73,8 @@ class OpenPatientDialog(QDialog):
             plan = version.plan
             text = (
                 f"v{version.version} · {version.created_at} · {version.author or 'no initials'} · "
-                f"{plan['weight_kg']:g} kg · first 24 h {plan['total_ml_first_24h']:.0f} mL"
+                f"{q(plan['weight_kg'], 'kg')} · {plan['dehydration_percent']:g} % · "
+                f"first 24 h {q(plan['total_ml_first_24h'], 'mL')}"
             )
             entry = QListWidgetItem(text)
             entry.setData(256, version.version)
