@@ -60,3 +60,20 @@ def test_cli_chart_csv_and_json(capsys):
 
     data = json.loads(capsys.readouterr().out)
     assert data["drop_factor"] == 60 and len(data["rows"]) == 10
+
+
+def test_schedule_and_observations_export_safely():
+    from vetfluid.demos import DEMOS
+    from vetfluid.export import observations_csv, schedule_csv
+    from vetfluid.observations import Observation
+    from vetfluid.plan import build_plan
+    from vetfluid.serialize import plan_dict
+
+    data = plan_dict(build_plan(DEMOS["dehydrated_dog"].request))
+    rows = list(csv.reader(io.StringIO(schedule_csv(data))))
+    assert rows[0] == ["clock", "hour", "phase", "action"]
+    assert rows[1][0] == "08:00" and rows[1][3].startswith("Set ")
+    notes = [Observation(hour=2, weight_kg=24.2, note='=HYPERLINK("x")')]
+    rows = list(csv.reader(io.StringIO(observations_csv(notes))))
+    assert rows[1][0] == "2" and rows[1][1] == "24.2"
+    assert rows[1][-1].startswith("'=")

@@ -47,3 +47,39 @@ def test_declining_the_draft_clears_it(qtbot, planner, monkeypatch):
     monkeypatch.setattr(QMessageBox, "question", lambda *a, **k: QMessageBox.StandardButton.No)
     assert not window.offer_draft()
     assert window.records.draft() is None
+
+
+def test_export_schedule_and_observations_from_the_window(qtbot, planner, tmp_path):
+    import csv
+
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.add_observation(Observation(hour=3, weight_kg=24.4, note="@risk"))
+    assert window.export_csv("schedule", tmp_path / "schedule.csv")
+    assert window.export_csv("observations", tmp_path / "obs.csv")
+    schedule = list(
+        csv.reader((tmp_path / "schedule.csv").read_text(encoding="utf-8").splitlines())
+    )
+    assert len(schedule) == len(window.session.plan.schedule) + 1
+    observed = list(csv.reader((tmp_path / "obs.csv").read_text(encoding="utf-8").splitlines()))
+    assert observed[1][1] == "24.4" and observed[1][-1] == "'@risk"
+
+
+def test_chart_dialog_shows_the_core_chart(qtbot, planner, tmp_path):
+    from ui.chart_view import ChartDialog
+    from vetfluid.chart import chart
+    from vetfluid.formatting import format_quantity
+
+    dialog = ChartDialog(planner.session.table, "cat")
+    qtbot.addWidget(dialog)
+    expected = chart("cat", drop_factor=20)
+    assert dialog.model.text(0, 1) == format_quantity(expected.maintenance_ml_per_day[0], "mL")
+    dialog.drop_factor.setCurrentIndex(dialog.drop_factor.findData(60))
+    assert dialog.model.text(0, 5) == format_quantity(expected.maintenance_ml_per_h[0], "drops/min")
+    dialog.export_to(tmp_path / "chart.csv")
+    assert (tmp_path / "chart.csv").read_text(encoding="utf-8").startswith("weight_kg,")
+    image = dialog.grab().toImage()
+    assert image.save(str(tmp_path / "chart.png"))

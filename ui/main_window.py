@@ -185,6 +185,12 @@ class MainWindow(QMainWindow):
         file_menu.addAction(
             self._action("&Print plan…", self.print_plan, QKeySequence.StandardKey.Print)
         )
+        file_menu.addAction(self._action("Print pre&view…", self.print_preview))
+        export = file_menu.addMenu("&Export")
+        export.addAction(self._action("&Schedule as CSV…", lambda: self.export_csv("schedule")))
+        export.addAction(
+            self._action("&Observations as CSV…", lambda: self.export_csv("observations"))
+        )
         file_menu.addSeparator()
         # some desktops bind no key to the standard Quit; Ctrl+Q is what users expect
         quit_keys = QKeySequence.keyBindings(QKeySequence.StandardKey.Quit) or [
@@ -201,6 +207,7 @@ class MainWindow(QMainWindow):
         self.edit_menu.addAction(self.find_action)
 
         view = bar.addMenu("&View")
+        view.addAction(self._action("&Weight-band chart…", self.show_chart, "Ctrl+Shift+W"))
         view.addAction(self._action("&Planner", lambda: self.pages.setCurrentIndex(0), "Ctrl+1"))
         view.addAction(
             self._action("&Species table", lambda: self.pages.setCurrentIndex(1), "Ctrl+2")
@@ -502,6 +509,51 @@ class MainWindow(QMainWindow):
             self.session.plan, acknowledged=self.session.acknowledged, ready=self.session.ready
         )
         print_sheet(html, printer)
+
+    def print_preview(self) -> None:
+        from PySide6.QtPrintSupport import QPrintPreviewDialog
+
+        self.build_planner()
+        if self.session.plan is None:
+            QMessageBox.information(self, "vetfluid", "There is no valid plan to print yet.")
+            return
+        dialog = QPrintPreviewDialog(self)
+        dialog.paintRequested.connect(self.print_to)
+        dialog.exec()
+
+    def export_csv(self, what: str, path: Path | None = None) -> bool:
+        """Write the schedule or the observations as formula-safe CSV."""
+        from vetfluid.export import observations_csv, schedule_csv
+        from vetfluid.serialize import plan_dict
+
+        self.build_planner()
+        if self.session.plan is None:
+            QMessageBox.information(self, "vetfluid", "There is no valid plan to export yet.")
+            return False
+        if path is None:
+            name, _ = QFileDialog.getSaveFileName(self, f"Export {what}", "", "CSV (*.csv)")
+            if not name:
+                return False
+            path = Path(name)
+        text = (
+            schedule_csv(plan_dict(self.session.plan))
+            if what == "schedule"
+            else observations_csv(self.session.observations)
+        )
+        try:
+            path.write_text(text, encoding="utf-8")
+        except OSError as exc:
+            QMessageBox.warning(self, "vetfluid", f"Could not write {path.name}:\n{exc}")
+            return False
+        self.statusBar().showMessage(f"Exported the {what} to {path}")
+        return True
+
+    def show_chart(self) -> None:
+        from ui.chart_view import ChartDialog
+
+        self.build_planner()
+        species = self.session.inputs.get("species_id") or "dog"
+        ChartDialog(self.session.table, species, self).exec()
 
     def show_help(self, *_: object) -> None:
         from ui.help_dialog import HelpDialog

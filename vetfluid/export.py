@@ -29,3 +29,25 @@ def csv_text(header: Sequence[str], rows: Iterable[Sequence[object]]) -> str:
     for row in rows:
         writer.writerow([safe_cell(cell) for cell in row])
     return out.getvalue()
+
+
+SCHEDULE_COLUMNS = ("clock", "hour", "phase", "action")
+OBSERVATION_COLUMNS = (
+    "hour", "weight_kg", "pcv_percent", "total_solids_g_per_dl", "urine_ml", "urine_period_h",
+    "other_losses_ml", "serum_na", "serum_k", "heart_rate_per_min", "respiratory_rate_per_min",
+    "mucous_membranes", "crt_s", "note",
+)  # fmt: skip
+
+
+def schedule_csv(plan_data: dict) -> str:
+    """The plan's schedule (from its JSON) as formula-safe CSV."""
+    return csv_text(
+        SCHEDULE_COLUMNS, ([e.get(c) for c in SCHEDULE_COLUMNS] for e in plan_data["schedule"])
+    )
+
+
+def observations_csv(observations) -> str:  # noqa: ANN001 — list[Observation]
+    """Recorded observations as formula-safe CSV (a note starting with "=" stays text)."""
+    return csv_text(
+        OBSERVATION_COLUMNS, ([getattr(o, c) for c in OBSERVATION_COLUMNS] for o in observations)
+    )
