@@ -25,7 +25,7 @@ from vetfluid.export import csv_text
 from vetfluid.formatting import format_quantity as q
 from vetfluid.species import SpeciesTable
 
-HEADERS = ("Weight", "Maintenance per day", "per hour", "Deficit per 5 %", "Bolus", "Drip")
+HEADERS = ("Weight", "Maintenance a day", "Maintenance an hour", "Deficit per 5 %", "Bolus", "Drip")
 UNITS = ("kg", "mL", "mL/h", "mL", "mL", "drops/min")
 
 
@@ -59,7 +59,8 @@ class ChartDialog(QDialog):
         view.setAccessibleName("Weight bands")
         view.verticalHeader().setVisible(False)
         view.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
-        view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Stretch)
+        view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        view.horizontalHeader().setStretchLastSection(True)
         layout.addWidget(view)
         self.note = QLabel()
         self.note.setWordWrap(True)
