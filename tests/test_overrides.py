@@ -272,3 +272,18 @@ def test_export_matches_the_effective_table(tmp_path):
 def test_export_into_a_missing_folder_is_refused(tmp_path):
     with pytest.raises(InputError, match="does not exist"):
         export_effective_table(tmp_path / "nowhere" / "effective.csv")
+
+
+def test_export_neutralises_a_formula_in_a_clinic_note(tmp_path):
+    import csv as csv_module
+
+    from vetfluid.overrides import export_effective_table, set_override
+
+    set_override(species_id="ferret", parameter="blood_volume_ml_per_kg", value=75,
+                 note="=HYPERLINK(\"http://x\")")  # fmt: skip
+    out = tmp_path / "table.csv"
+    export_effective_table(out)
+    rows = list(csv_module.DictReader(out.read_text(encoding="utf-8").splitlines()))
+    ferret = next(r for r in rows if r["species_id"] == "ferret"
+                  and r["parameter"] == "blood_volume_ml_per_kg")  # fmt: skip
+    assert ferret["note"].startswith("'=")

@@ -35,6 +35,7 @@ from pathlib import Path
 
 from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import InputError, SpeciesDataError
+from vetfluid.export import safe_cell
 from vetfluid.paths import resource_dir
 from vetfluid.species import (
     BASES,
@@ -460,17 +461,20 @@ def export_effective_table(path: Path, *, table: SpeciesTable | None = None) -> 
     path = Path(path)
     rows = [
         {
-            "species_id": v.species_id,
-            "parameter": v.parameter,
-            "value": stored_text(v.value),
-            "low": stored_text(v.low),
-            "high": stored_text(v.high),
-            "unit": v.unit,
-            "basis": v.basis,
-            "origin": v.origin,
-            "defined_on": v.defined_on,
-            "source_id": v.source_id or "",
-            "note": v.note,
+            key: safe_cell(text)  # a clinic note starting with "=" must stay text
+            for key, text in {
+                "species_id": v.species_id,
+                "parameter": v.parameter,
+                "value": stored_text(v.value),
+                "low": stored_text(v.low),
+                "high": stored_text(v.high),
+                "unit": v.unit,
+                "basis": v.basis,
+                "origin": v.origin,
+                "defined_on": v.defined_on,
+                "source_id": v.source_id or "",
+                "note": v.note,
+            }.items()
         }
         for v in table
     ]
