@@ -186,3 +186,18 @@ def test_kill_during_saves_never_loses_a_returned_version(tmp_path):
     assert confirmed, "no save completed in any run"
     assert confirmed <= saved
     print(f"kill test: {runs} runs, {len(confirmed)} confirmed saves, {len(saved)} on disk")
+
+
+def test_compare_two_versions():
+    from vetfluid.records import compare_versions
+    from vetfluid.serialize import plan_dict
+
+    first = plan_dict(build_plan(DEMOS["dehydrated_dog"].request))
+    from dataclasses import replace
+
+    second = plan_dict(build_plan(replace(DEMOS["dehydrated_dog"].request, weight_kg=25.0,
+                                          dehydration_percent=4)))  # fmt: skip
+    rows = {what: (a, b, differs) for what, a, b, differs in compare_versions(first, second)}
+    assert rows["Weight"] == ("24 kg", "25 kg", True)
+    assert rows["Dehydration"][2] and rows["Fluid"][2] is False
+    assert rows["Phase 1"][0].startswith("replacement h 0–12")

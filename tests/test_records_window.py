@@ -83,3 +83,24 @@ def test_chart_dialog_shows_the_core_chart(qtbot, planner, tmp_path):
     assert (tmp_path / "chart.csv").read_text(encoding="utf-8").startswith("weight_kg,")
     image = dialog.grab().toImage()
     assert image.save(str(tmp_path / "chart.png"))
+
+
+def test_compare_two_saved_versions(qtbot, planner):
+    from ui.records_view import OpenPatientDialog
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.save_version(name="Rex", author="AB")
+    window.session.update(weight_kg=25.0)
+    qtbot.waitUntil(lambda: window.session.plan.request.weight_kg == 25.0)
+    window.save_version(author="AB")
+    dialog = OpenPatientDialog(window.records)
+    qtbot.addWidget(dialog)
+    dialog.versions.selectAll()
+    compare = dialog.compare()
+    qtbot.addWidget(compare)
+    model = compare.model
+    weight_row = next(r for r in range(model.rowCount()) if model.text(r, 0) == "Weight")
+    assert (model.text(weight_row, 1), model.text(weight_row, 2)) == ("24 kg", "25 kg")
+    assert model.text(weight_row, 3) == "differs"

@@ -10,16 +10,21 @@ from PySide6.QtWidgets import (
     QDialog,
     QDialogButtonBox,
     QFormLayout,
+    QHeaderView,
     QLabel,
     QLineEdit,
     QListWidget,
     QListWidgetItem,
+    QMessageBox,
+    QPushButton,
+    QTableView,
     QVBoxLayout,
     QWidget,
 )
 
+from ui.rows_model import Cell, RowsModel
 from vetfluid.formatting import format_quantity as q
-from vetfluid.records import Records
+from vetfluid.records import Records, VersionRow, compare_versions
 
 
 class OpenPatientDialog(QDialog):
@@ -43,7 +48,12 @@ class OpenPatientDialog(QDialog):
         self.versions = QListWidget()
         self.versions.setAccessibleName("Plan versions")
         self.versions.itemDoubleClicked.connect(self.accept)
+        self.versions.setSelectionMode(QListWidget.SelectionMode.ExtendedSelection)
+        self.versions.setToolTip("Select two versions (Ctrl+click) and press Compare")
         layout.addWidget(self.versions, 1)
+        self.compare_button = QPushButton("&Compare two versions")
+        self.compare_button.clicked.connect(self.compare)
+        layout.addWidget(self.compare_button)
         buttons = QDialogButtonBox(
             QDialogButtonBox.StandardButton.Open | QDialogButtonBox.StandardButton.Cancel
         )
@@ -82,6 +92,18 @@ class OpenPatientDialog(QDialog):
         if self.versions.count():
             self.versions.setCurrentRow(0)
 
+    def compare(self) -> CompareDialog | None:
+        """Show the two selected versions side by side (differences marked in words)."""
+        patient = self.patients.currentItem()
+        picked = sorted(item.data(256) for item in self.versions.selectedItems())
+        if patient is None or len(picked) != 2:
+            QMessageBox.information(self, "vetfluid", "Select exactly two versions to compare.")
+            return None
+        by_number = {v.version: v for v in self.records.versions(patient.data(256))}
+        dialog = CompareDialog(by_number[picked[0]], by_number[picked[1]], self)
+        dialog.show()
+        return dialog
+
     def chosen(self) -> tuple[int, int] | None:
         """(patient id, version number) of the selection, or None."""
         patient, version = self.patients.currentItem(), self.versions.currentItem()
@@ -114,3 +136,25 @@ class NewPatientDialog(QDialog):
         buttons.accepted.connect(self.accept)
         buttons.rejected.connect(self.reject)
         form.addRow(buttons)
+
+
+class CompareDialog(QDialog):
+    def __init__(self, first: VersionRow, second: VersionRow, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.setWindowTitle(f"vetfluid — version {first.version} and version {second.version}")
+        layout = QVBoxLayout(self)
+        self.model = RowsModel(["", f"Version {first.version}", f"Version {second.version}", ""])
+        rows = compare_versions(first.plan, second.plan)
+        self.model.set_rows(
+            [[Cell(what), Cell(a), Cell(b), Cell("differs" if differs else "")]
+             for what, a, b, differs in rows]
+        )  # fmt: skip
+        view = QTableView()
+        view.setModel(self.model)
+        view.setAccessibleName("Version comparison")
+        view.verticalHeader().setVisible(False)
+        view.setWordWrap(True)
+        view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        view.horizontalHeader().setStretchLastSection(True)
+        layout.addWidget(view)
+        self.resize(820, 420)

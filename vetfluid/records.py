@@ -408,3 +408,44 @@ class Records:
         except (KeyError, TypeError, ValueError) as exc:
             raise InputError(f"the patient export is incomplete: {exc}", field="file") from None
         return int(new_id)
+
+
+COMPARED = (
+    ("weight_kg", "Weight", "kg"),
+    ("dehydration_percent", "Dehydration", "%"),
+    ("deficit_ml", "Deficit", "mL"),
+    ("total_ml_first_24h", "First 24 h", "mL"),
+)
+
+
+def compare_versions(a: dict, b: dict) -> list[tuple[str, str, str, bool]]:
+    """What differs between two saved plans (their JSON): (what, in a, in b, differs)."""
+    from vetfluid.formatting import format_quantity
+
+    def quantity(value: object, unit: str) -> str:
+        return "—" if value is None else format_quantity(float(value), unit)
+
+    rows = [
+        (label, quantity(a.get(key), unit), quantity(b.get(key), unit))
+        for key, label, unit in COMPARED
+    ]
+    rows.append(("Fluid", a["fluid"]["name"], b["fluid"]["name"]))
+    rows.append(("Route", f"{a['route']} ({a['device']})", f"{b['route']} ({b['device']})"))
+
+    def phase(data: dict, i: int) -> str:
+        if i >= len(data["phases"]):
+            return "—"
+        p = data["phases"][i]
+        rate = (
+            quantity(p.get("rate_ml_per_h"), "mL/h")
+            if p["mode"] == "continuous"
+            else f"{quantity(p.get('dose_ml'), 'mL')} every {p.get('interval_h'):g} h"
+        )
+        return f"{p['kind']} h {p['start_h']:g}–{p['end_h']:g}: {rate}"
+
+    for i in range(max(len(a["phases"]), len(b["phases"]))):
+        rows.append((f"Phase {i + 1}", phase(a, i), phase(b, i)))
+    codes_a = {f["code"] for f in a["findings"]}
+    codes_b = {f["code"] for f in b["findings"]}
+    rows.append(("Findings", ", ".join(sorted(codes_a)) or "—", ", ".join(sorted(codes_b)) or "—"))
+    return [(what, left, right, left != right) for what, left, right in rows]
