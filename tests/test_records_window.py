@@ -102,5 +102,5 @@ def test_compare_two_saved_versions(qtbot, planner):
     qtbot.addWidget(compare)
     model = compare.model
     weight_row = next(r for r in range(model.rowCount()) if model.text(r, 0) == "Weight")
-    assert (model.text(weight_row, 1), model.text(weight_row, 2)) == ("24 kg", "25 kg")
-    assert model.text(weight_row, 3) == "differs"
+    assert (model.text(weight_row, 2), model.text(weight_row, 3)) == ("24 kg", "25 kg")
+    assert model.text(weight_row, 1) == "≠ differs"

@@ -143,10 +143,10 @@ class CompareDialog(QDialog):
         super().__init__(parent)
         self.setWindowTitle(f"vetfluid — version {first.version} and version {second.version}")
         layout = QVBoxLayout(self)
-        self.model = RowsModel(["", f"Version {first.version}", f"Version {second.version}", ""])
+        self.model = RowsModel(["", "", f"Version {first.version}", f"Version {second.version}"])
         rows = compare_versions(first.plan, second.plan)
         self.model.set_rows(
-            [[Cell(what), Cell(a), Cell(b), Cell("differs" if differs else "")]
+            [[Cell(what), Cell("≠ differs" if differs else "same"), Cell(a), Cell(b)]
              for what, a, b, differs in rows]
         )  # fmt: skip
         view = QTableView()
@@ -154,7 +154,11 @@ class CompareDialog(QDialog):
         view.setAccessibleName("Version comparison")
         view.verticalHeader().setVisible(False)
         view.setWordWrap(True)
-        view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
-        view.horizontalHeader().setStretchLastSection(True)
+        header = view.horizontalHeader()
+        for column, mode in enumerate((QHeaderView.ResizeMode.ResizeToContents,) * 2
+                                      + (QHeaderView.ResizeMode.Stretch,) * 2):  # fmt: skip
+            header.setSectionResizeMode(column, mode)
+        view.resizeRowsToContents()
         layout.addWidget(view)
-        self.resize(820, 420)
+        self.view = view
+        self.resize(900, 460)
