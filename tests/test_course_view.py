@@ -105,3 +105,14 @@ def test_versions_table_compares_plans(qtbot, window):
     assert model.rowCount() == 2
     assert model.text(0, 4) == "earlier, kept" and model.text(1, 4) == "current"
     assert model.text(0, 1) == "24 kg" and model.text(1, 1) == "25 kg"
+
+
+def test_clock_time_sets_the_hour(window):
+    from PySide6.QtCore import QTime
+
+    view = window.course_view  # the demo dog starts at 08:00
+    view.clock.setTime(QTime(14, 30))
+    assert view.hour.value() == pytest.approx(6.5)
+    view.day.setValue(1)
+    view.clock.setTime(QTime(7, 0))
+    assert view.hour.value() == pytest.approx(23.0)

@@ -334,3 +334,10 @@ def test_syringe_pump_phases_are_split_into_fills_on_the_clock():
     assert hours[1] == pytest.approx(60 / replacement.rate_ml_per_h)
     changes = [e for e in plan.schedule if e.action.startswith("Change syringe")]
     assert len(changes) >= len(volumes) - 1
+
+
+def test_hours_since_start_across_midnight():
+    from vetfluid.schedule import clock_time, hours_since_start
+
+    assert hours_since_start(time(22, 0), time(1, 30), day=1) == pytest.approx(3.5)
+    assert clock_time(time(22, 0), 3.5) == "01:30 (+1 d)"

@@ -7,6 +7,8 @@ Entering an observation takes an hour, a quantity and a value; everything else
 
 from __future__ import annotations
 
+from datetime import time
+
 import pyqtgraph as pg
 from PySide6.QtCore import QEvent, Qt
 from PySide6.QtWidgets import (
@@ -22,6 +24,7 @@ from PySide6.QtWidgets import (
     QSplitter,
     QTableView,
     QTabWidget,
+    QTimeEdit,
     QVBoxLayout,
     QWidget,
 )
@@ -46,6 +49,7 @@ from vetfluid.observations import (
     ins_and_outs_from_observations,
     observed_series,
 )
+from vetfluid.schedule import hours_since_start
 
 # What can be recorded: field → (label, unit)
 QUANTITIES = {
@@ -82,6 +86,16 @@ class CourseView(QWidget):
         self.hour.setSuffix(" h")
         self.hour.setAccessibleName("Hour of the observation")
         self.hour.setToolTip("Hours since the start of the plan")
+        self.clock = QTimeEdit()
+        self.clock.setDisplayFormat("HH:mm")
+        self.clock.setAccessibleName("Clock time of the observation")
+        self.clock.setToolTip("Clock time; sets the hour from the plan's start time")
+        self.day = QSpinBox()
+        self.day.setRange(0, 14)
+        self.day.setPrefix("day +")
+        self.day.setAccessibleName("Day of the observation after the start day")
+        self.clock.timeChanged.connect(self._clock_changed)
+        self.day.valueChanged.connect(self._clock_changed)
         self.quantity = QComboBox()
         for key, (label, unit) in QUANTITIES.items():
             self.quantity.addItem(f"{label} ({unit})" if unit else label, key)
@@ -105,8 +119,8 @@ class CourseView(QWidget):
             "Start a new plan version from the latest weight and labs; the earlier one is kept"
         )
         self.replan_button.clicked.connect(self.replan)
-        for widget in (QLabel("At"), self.hour, self.quantity, self.value, self.period,
-                       self.record_button):  # fmt: skip
+        for widget in (QLabel("At"), self.clock, self.day, QLabel("="), self.hour, self.quantity,
+                       self.value, self.period, self.record_button):  # fmt: skip
             entry.addWidget(widget)
         entry.addStretch(1)
         entry.addWidget(self.replan_button)
@@ -225,6 +239,16 @@ class CourseView(QWidget):
         row.addWidget(self.ins_outs_period)
         row.addStretch(1)
         return row
+
+    def _clock_changed(self, *_: object) -> None:
+        plan = self.session.plan
+        start = plan.request.start_time if plan is not None else None
+        if start is None:
+            return
+        clock = self.clock.time()
+        self.hour.setValue(
+            hours_since_start(start, time(clock.hour(), clock.minute()), day=self.day.value())
+        )
 
     def _quantity_changed(self, *_: object) -> None:
         self.period.setVisible(self.quantity.currentData() == "urine_ml")

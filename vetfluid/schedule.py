@@ -187,6 +187,14 @@ def clock_time(start: time | None, hour: float) -> str | None:
     return moment.strftime("%H:%M") + (f" (+{day} d)" if day else "")
 
 
+def hours_since_start(start: time, clock: time, *, day: int = 0) -> float:
+    """Hours from the plan's start to a clock time on day ``day`` (0 = the start day)."""
+    if day < 0:
+        raise ValueError("day must be 0 or later")
+    minutes = (clock.hour * 60 + clock.minute) - (start.hour * 60 + start.minute) + day * 24 * 60
+    return max(0.0, minutes / 60.0)
+
+
 def _ml(value: float | None) -> str:
     return format_quantity(value or 0.0, "mL")
 
