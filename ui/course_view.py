@@ -10,7 +10,7 @@ from __future__ import annotations
 from datetime import time
 
 import pyqtgraph as pg
-from PySide6.QtCore import QEvent, Qt
+from PySide6.QtCore import QEvent, QSignalBlocker, Qt, QTime
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
@@ -303,6 +303,10 @@ class CourseView(QWidget):
                 curve.setData([], [])  # fmt: skip
             self.alerts_model.set_rows([])
             return
+        start = plan.request.start_time
+        if start is not None and self.hour.value() == 0:
+            with QSignalBlocker(self.clock):  # the clock follows the plan's hour 0
+                self.clock.setTime(QTime(start.hour, start.minute))
         horizon = max([p.end_h for p in plan.phases] + [o.hour for o in observations])
         result = course(plan, horizon_h=horizon, step_minutes=5, table=self.session.table)
         h = result.hours
