@@ -47,3 +47,19 @@ def test_missing_xcb_libraries_name_their_packages(monkeypatch):
     assert "libxcb-cursor0" in missing_packages("xcb")
     assert "apt-get install" in display_problem() and "libxcb-cursor0" in display_problem()
     assert "libxcb-cursor0" not in missing_packages("offscreen")
+
+
+def test_unexpected_errors_are_logged_and_shown(qtbot, monkeypatch, vetfluid_home):
+    from PySide6.QtWidgets import QMessageBox
+
+    from ui import errors
+
+    shown = []
+    monkeypatch.setattr(QMessageBox, "critical", lambda *args: shown.append(args[2]))
+    try:
+        raise RuntimeError("boom")
+    except RuntimeError as exc:
+        errors.report_unexpected(type(exc), exc, exc.__traceback__)
+    assert "boom" in shown[0] and "check it before use" in shown[0]
+    logged = (vetfluid_home / "vetfluid.log").read_text(encoding="utf-8")
+    assert "RuntimeError: boom" in logged and "Traceback" in logged

@@ -56,8 +56,10 @@ def main(argv: list[str] | None = None) -> int:
         return 1
     from PySide6.QtWidgets import QApplication
 
+    from ui import errors
     from ui.main_window import MainWindow
 
+    errors.install()
     app = QApplication.instance() or QApplication(argv if argv is not None else sys.argv)
     app.setApplicationName("vetfluid")
     app.setOrganizationName("vetfluid")

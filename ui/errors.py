@@ -1,0 +1,44 @@
+"""Anything unexpected is shown in a dialog and written to the log — never swallowed.
+
+Expected problems (bad input, a file that cannot be read) are handled where the
+user acted; this hook catches the rest so the clinician sees that something went
+wrong instead of a window that silently stops updating.
+"""
+
+from __future__ import annotations
+
+import sys
+import traceback
+from pathlib import Path
+from types import TracebackType
+
+from vetfluid.paths import user_data_dir
+
+LOG_NAME = "vetfluid.log"
+
+
+def log_path() -> Path:
+    return user_data_dir() / LOG_NAME
+
+
+def report_unexpected(kind: type[BaseException], value: BaseException, tb: TracebackType | None):
+    """Log the error with its traceback and tell the user in a dialog."""
+    text = "".join(traceback.format_exception(kind, value, tb))
+    try:
+        with log_path().open("a", encoding="utf-8") as handle:
+            handle.write(text + "\n")
+    except OSError:
+        sys.stderr.write(text)
+    from PySide6.QtWidgets import QApplication, QMessageBox
+
+    if QApplication.instance() is not None:
+        QMessageBox.critical(
+            None,
+            "vetfluid — unexpected error",
+            f"Something unexpected went wrong: {value}\n\nThe plan on screen may be out of date: "
+            f"check it before use. Details were written to {log_path()}.",
+        )
+
+
+def install() -> None:
+    sys.excepthook = report_unexpected
