@@ -197,6 +197,7 @@ class CourseView(QWidget):
         split.setStretchFactor(1, 1)
         layout.addWidget(split, 1)
 
+        self._earlier_plans: dict = {}  # PlanRequest → Plan of earlier versions
         self._quantity_changed()
         self.shown = ShownPlan(self, session, self.refresh)
         session.observationsChanged.connect(lambda: self.refresh(session.plan))
@@ -310,9 +311,10 @@ class CourseView(QWidget):
         horizon = max([p.end_h for p in plan.phases] + [o.hour for o in observations])
         result = course(plan, horizon_h=horizon, step_minutes=5, table=self.session.table)
         h = result.hours
-        self.plasma_curve.setData(h, result.plasma_ml - result.plasma_ml[0])
-        self.interstitial_curve.setData(h, result.interstitial_ml - result.interstitial_ml[0])
-        self.cells_curve.setData(h, result.intracellular_ml - result.intracellular_ml[0])
+        change = result.change_from_start()
+        self.plasma_curve.setData(h, change["plasma"])
+        self.interstitial_curve.setData(h, change["interstitial"])
+        self.cells_curve.setData(h, change["intracellular"])
         if result.serum_na is not None:
             self.na_curve.setData(h, result.serum_na)
         else:
@@ -363,7 +365,10 @@ class CourseView(QWidget):
 
         rows = []
         for number, (request, _) in enumerate(self.session.versions, start=1):
-            earlier = build_plan(request, self.session.table)
+            # earlier versions never change: build each once, not on every refresh
+            if request not in self._earlier_plans:
+                self._earlier_plans[request] = build_plan(request, self.session.table)
+            earlier = self._earlier_plans[request]
             rows.append(self._version_row(number, earlier, "earlier, kept"))
         rows.append(self._version_row(len(self.session.versions) + 1, plan, "current"))
         self.versions_model.set_rows(rows)

@@ -38,11 +38,11 @@ from vetfluid import fluids
 from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.plan import Plan
+from vetfluid.safety import LINE_ROUTES
 from vetfluid.schedule import Phase
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
 
 MAX_HORIZON_H = 14 * 24.0
-LINE_ROUTES = ("iv", "io")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -60,6 +60,13 @@ class Course:
     weight_kg: np.ndarray
     remaining_deficit_ml: np.ndarray
     provenance: tuple[SpeciesValue, ...]
+
+    def change_from_start(self) -> dict[str, np.ndarray]:
+        """Each compartment's gain (mL) since hour 0, for plotting what the fluids did."""
+        return {
+            name: getattr(self, f"{name}_ml") - getattr(self, f"{name}_ml")[0]
+            for name in ("plasma", "interstitial", "intracellular")
+        }
 
     def at(self, hour: float) -> dict[str, float | None]:
         """Values at the grid point nearest ``hour``."""

@@ -120,7 +120,8 @@ class PotassiumSummary:
     added_by: str  # serum-K scale | entered by hand
     bag_k_mmol_per_l: float
     mmol_per_kg_per_h: float  # at the first rate after resuscitation
-    peak_mmol_per_kg_per_h: float  # at the fastest rate that carries potassium
+    peak_rate_ml_per_h: float  # the fastest rate that carries potassium
+    peak_mmol_per_kg_per_h: float  # potassium at that rate
     ceiling_mmol_per_kg_per_h: float
     max_rate_ml_per_h: float | None
     band_max_rate_ml_per_kg_h: float | None

@@ -411,6 +411,7 @@ def _potassium(
         added_by="entered by hand" if request.kcl_mmol_per_l is not None else "serum-K scale",
         bag_k_mmol_per_l=bag_k,
         mmol_per_kg_per_h=per_kg_h(main.average_ml_per_h),
+        peak_rate_ml_per_h=peak,
         peak_mmol_per_kg_per_h=per_kg_h(peak),
         ceiling_mmol_per_kg_per_h=ceiling.value,
         max_rate_ml_per_h=electrolytes.max_rate_for_potassium(
@@ -481,10 +482,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
 
     potassium = _potassium(request, kcl=kcl, bag_k=bag_comp.k_mmol_per_l, phases=phases, main=main)
     if potassium is not None:
-        peak_rate = max(p.average_ml_per_h for p in fluid_phases)
-        safety.check_potassium(
-            ledger, potassium, weight_kg=w, route=route, peak_rate_ml_per_h=peak_rate
-        )
+        safety.check_potassium(ledger, potassium, weight_kg=w, route=route)
 
     sodium, free_water = None, None
     if request.serum_na is not None:

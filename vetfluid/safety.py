@@ -201,20 +201,18 @@ def check_divided_sites(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
     """Doses that need more injection sites than is practical."""
     for phase in phases:
         if phase.mode == "intermittent" and not phase.fits_sites:
-            per_site = (phase.dose_ml or 0.0) / (phase.sites_per_dose or 1)
             ledger.add(
                 "soft",
                 "DIVIDED_TOO_MANY_SITES",
                 f"Each {phase.route.upper()} {phase.kind} dose of {q(phase.dose_ml or 0.0, 'mL')} "
-                f"needs {phase.sites_per_dose} sites at {q(per_site, 'mL')} per site.",
+                f"needs {phase.sites_per_dose} sites at {q(phase.ml_per_site or 0.0, 'mL')} "
+                "per site.",
                 "Replace the deficit over a longer period, or place an IO/IV line.",
             )
             return
 
 
-def check_potassium(
-    ledger: Ledger, k: PotassiumSummary, *, weight_kg: float, route: str, peak_rate_ml_per_h: float
-) -> None:
+def check_potassium(ledger: Ledger, k: PotassiumSummary, *, weight_kg: float, route: str) -> None:
     """KCl into a patient whose K is already high (hard), the 0.5 mmol/kg/h ceiling (hard),
     the scale's rate for the serum K (soft), concentration for a peripheral vein (soft)."""
     normal_k = ledger.value("serum_k_mmol_per_l")
@@ -243,12 +241,12 @@ def check_potassium(
     elif (
         k.band_max_rate_ml_per_kg_h is not None
         and k.kcl_mmol_per_l > 0
-        and peak_rate_ml_per_h > k.band_max_rate_ml_per_kg_h * weight_kg
+        and k.peak_rate_ml_per_h > k.band_max_rate_ml_per_kg_h * weight_kg
     ):
         ledger.add(
             "soft",
             "POTASSIUM_RATE_ABOVE_BAND",
-            f"{q(peak_rate_ml_per_h, 'mL/h')} is faster than the scale's "
+            f"{q(k.peak_rate_ml_per_h, 'mL/h')} is faster than the scale's "
             f"{q(k.band_max_rate_ml_per_kg_h, 'mL/kg/h')} for this serum K "
             f"({q(k.band_max_rate_ml_per_kg_h * weight_kg, 'mL/h')}).",
             "Slow the rate or run potassium in a separate line.",
