@@ -34,6 +34,15 @@ def render(demo_id: str, out: Path) -> list[Path]:
     path = out / f"{demo_id}-species-table.png"
     window.grab().save(str(path))
     saved.append(path)
+    from ui.chart_view import ChartDialog
+
+    chart = ChartDialog(window.session.table, window.session.plan.request.species_id, window)
+    chart.show()
+    QApplication.processEvents()
+    path = out / f"{demo_id}-chart.png"
+    chart.grab().save(str(path))
+    saved.append(path)
+    chart.close()
     window.close()
     return saved
 

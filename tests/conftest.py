@@ -28,3 +28,18 @@ def planner(qtbot):
     win.show()
     qtbot.waitUntil(lambda: win.session is not None)
     return win
+
+
+@pytest.fixture
+def pdf_text():
+    """Read a PDF's text back: ligatures undone, any run of spaces, tabs or breaks as one space."""
+    import re
+    import unicodedata
+
+    import pypdf
+
+    def read(path) -> str:  # noqa: ANN001
+        text = " ".join(page.extract_text() for page in pypdf.PdfReader(path).pages)
+        return re.sub(r"\s+", " ", unicodedata.normalize("NFKC", text))
+
+    return read

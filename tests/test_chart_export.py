@@ -60,6 +60,11 @@ def test_cli_chart_csv_and_json(capsys):
 
     data = json.loads(capsys.readouterr().out)
     assert data["drop_factor"] == 60 and len(data["rows"]) == 10
+    used = {v["parameter"]: v for v in data["provenance"]}
+    assert used["maintenance_allometric_a"]["value"] == 80  # Davis 2013: cat 80 × BW^0.75
+    assert "davis2013" in data["sources"]
+    assert cli.main(["chart", "--species", "mongolian_gerbil"]) == 0
+    assert "Recalled, not checked against a publication" in capsys.readouterr().out
 
 
 def test_schedule_and_observations_export_safely():

@@ -33,10 +33,46 @@ def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, monkeypatch):
     window._save_draft()  # what the autosave timer does a few seconds after each edit
     window.new_patient()
     qtbot.waitUntil(lambda: window.session.plan is None)
-    monkeypatch.setattr(QMessageBox, "question", lambda *a, **k: QMessageBox.StandardButton.Yes)
+    asked = []
+    monkeypatch.setattr(
+        QMessageBox, "question",
+        lambda _parent, _title, text: asked.append(text) or QMessageBox.StandardButton.Yes,
+    )  # fmt: skip
     assert window.offer_draft()
+    assert "stopped unexpectedly" in asked[0]
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert window.session.plan.request == DEMOS["small_gerbil"].request
+
+
+def test_closing_with_unsaved_edits_keeps_them_and_says_so(qtbot, planner, monkeypatch):
+    window = planner
+    window.open_demo("cold_bearded_dragon")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    assert window._draft_timer.isActive()  # edited less than the autosave delay ago
+    window.close()
+    from ui.main_window import MainWindow
+
+    asked = []
+    monkeypatch.setattr(
+        QMessageBox, "question",
+        lambda _parent, _title, text: asked.append(text) or QMessageBox.StandardButton.Yes,
+    )  # fmt: skip
+    again = MainWindow()
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: again.session is not None and again.session.plan is not None)
+    assert "closed with a plan that had not been saved" in asked[0]
+    assert again.session.plan.request == DEMOS["cold_bearded_dragon"].request
+
+
+def test_no_draft_is_offered_after_saving_and_closing(qtbot, planner, monkeypatch):
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.save_version(name="Rex", author="AB")
+    window.close()
+    with Records.open() as db:
+        assert db.draft() is None
 
 
 def test_declining_the_draft_clears_it(qtbot, planner, monkeypatch):
@@ -68,7 +104,7 @@ def test_export_schedule_and_observations_from_the_window(qtbot, planner, tmp_pa
     assert observed[1][1] == "24.4" and observed[1][-1] == "'@risk"
 
 
-def test_chart_dialog_shows_the_core_chart(qtbot, planner, tmp_path):
+def test_chart_dialog_shows_the_core_chart(qtbot, planner, tmp_path, pdf_text):
     from ui.chart_view import ChartDialog
     from vetfluid.chart import chart
     from vetfluid.formatting import format_quantity
@@ -83,6 +119,14 @@ def test_chart_dialog_shows_the_core_chart(qtbot, planner, tmp_path):
     assert (tmp_path / "chart.csv").read_text(encoding="utf-8").startswith("weight_kg,")
     image = dialog.grab().toImage()
     assert image.save(str(tmp_path / "chart.png"))
+    from PySide6.QtPrintSupport import QPrinter
+
+    printer = QPrinter(QPrinter.PrinterMode.HighResolution)
+    printer.setOutputFormat(QPrinter.OutputFormat.PdfFormat)
+    printer.setOutputFileName(str(tmp_path / "chart.pdf"))
+    assert dialog.print_to(printer) == 1
+    printed = pdf_text(tmp_path / "chart.pdf")
+    assert dialog.model.text(0, 5) in printed and dialog.model.text(3, 1) in printed
 
 
 def test_compare_two_saved_versions(qtbot, planner):

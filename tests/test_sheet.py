@@ -25,7 +25,7 @@ def test_sheet_has_the_nurse_columns_labels_cautions_and_sources():
         assert column in html
     assert "discard by" in html and "Hourly record" in html
     assert "Verify every volume" in html
-    assert "(memory — unverified)" in html and "davis2013" in html
+    assert "memory — unverified" in html and "davis2013" in html
     assert "08:00" in html and "20:00" in html  # the clock from the demo's start
 
 
@@ -43,15 +43,23 @@ def test_markup_in_names_prints_as_text():
     assert "<script>" not in html and "&lt;script&gt;" in html
 
 
-def test_headless_sheet_command_writes_a_pdf(tmp_path):
+def test_headless_sheet_command_writes_a_pdf(tmp_path, pdf_text):
+    data = dog_data()
     plan = tmp_path / "plan.json"
-    plan.write_text(json.dumps(dog_data()), encoding="utf-8")
+    plan.write_text(json.dumps(data), encoding="utf-8")
     out = tmp_path / "sheet.pdf"
     result = subprocess.run([VETFLUID, "sheet", str(plan), "-o", str(out), "--page", "letter"],
                             capture_output=True, text=True, timeout=60)  # fmt: skip
     assert result.returncode == 0, result.stderr
-    assert out.read_bytes().startswith(b"%PDF")
     assert "page" in result.stdout
+    text = pdf_text(out)
+    from vetfluid.formatting import format_quantity as q
+
+    for phase in data["phases"]:
+        if phase["mode"] == "continuous":
+            assert q(phase["rate_ml_per_h"], "mL/h") in text
+    assert q(data["total_ml_first_24h"], "mL") in text
+    assert "Page 1 of" in text and "verify before giving" in text
 
 
 def test_headless_sheet_command_refuses_bad_json(tmp_path):

@@ -34,20 +34,55 @@ def sheet_command(argv: list[str]) -> int:
             "`vetfluid-cli plan --json` prints\n"
         )
         return 2
+    return _write_pdf(html, args.output, args.page)
+
+
+def chart_command(argv: list[str]) -> int:
+    """``vetfluid chart --species ID -o chart.pdf``: the weight-band chart, rendered offscreen."""
+    import argparse
+    import os
+
+    parser = argparse.ArgumentParser(
+        prog="vetfluid chart", description="Print a species' weight-band chart."
+    )
+    parser.add_argument("--species", required=True, help="a species id (vetfluid-cli species)")
+    parser.add_argument("--drop-factor", type=float, default=20, help="drops/mL of the drip set")
+    parser.add_argument("-o", "--output", required=True, help="the PDF to write")
+    parser.add_argument("--page", choices=("a4", "letter"), default="a4")
+    args = parser.parse_args(argv)
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    from vetfluid.chart import chart
+    from vetfluid.chart_sheet import chart_sheet_html
+    from vetfluid.errors import VetfluidError
+
+    try:
+        html = chart_sheet_html(chart(args.species, drop_factor=args.drop_factor))
+    except VetfluidError as exc:
+        sys.stderr.write(f"vetfluid chart: {exc.one_line()}\n")
+        return 2
+    return _write_pdf(html, args.output, args.page)
+
+
+def _write_pdf(html: str, output: str, page: str) -> int:
     from PySide6.QtWidgets import QApplication
 
     from ui.printing import print_sheet_to_pdf
 
     app = QApplication.instance() or QApplication(["vetfluid"])  # noqa: F841 (Qt needs one)
-    pages = print_sheet_to_pdf(html, args.output, page=args.page)
-    sys.stdout.write(f"wrote {args.output} ({pages} page{'s' if pages != 1 else ''})\n")
+    try:
+        pages = print_sheet_to_pdf(html, output, page=page)
+    except OSError as exc:
+        sys.stderr.write(f"vetfluid: cannot write {output}: {exc}\n")
+        return 2
+    sys.stdout.write(f"wrote {output} ({pages} page{'s' if pages != 1 else ''})\n")
     return 0
 
 
 def main(argv: list[str] | None = None) -> int:
     arguments = sys.argv[1:] if argv is None else argv[1:]
-    if arguments and arguments[0] == "sheet":
-        return sheet_command(arguments[1:])
+    commands = {"sheet": sheet_command, "chart": chart_command}
+    if arguments and arguments[0] in commands:
+        return commands[arguments[0]](arguments[1:])
     from ui.platform_check import display_problem
 
     problem = display_problem()

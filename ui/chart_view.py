@@ -1,4 +1,5 @@
-"""The weight-band chart for a species (numbers from ``vetfluid/chart.py``), with CSV export."""
+"""The weight-band chart for a species (numbers from ``vetfluid/chart.py``): shown, printed
+(the page from ``vetfluid/chart_sheet.py``) and exported as formula-safe CSV."""
 
 from __future__ import annotations
 
@@ -19,14 +20,12 @@ from PySide6.QtWidgets import (
 )
 
 from ui.rows_model import Cell, RowsModel
+from vetfluid.cautions import SHORT_CAUTION
 from vetfluid.chart import Chart, chart
+from vetfluid.chart_sheet import HEADERS, chart_cells, chart_note, chart_sheet_html
 from vetfluid.delivery import STANDARD_DROP_FACTORS
 from vetfluid.export import csv_text
-from vetfluid.formatting import format_quantity as q
 from vetfluid.species import SpeciesTable
-
-HEADERS = ("Weight", "Maintenance a day", "Maintenance an hour", "Deficit per 5 %", "Bolus", "Drip")
-UNITS = ("kg", "mL", "mL/h", "mL", "mL", "drops/min")
 
 
 class ChartDialog(QDialog):
@@ -48,10 +47,15 @@ class ChartDialog(QDialog):
         self.drop_factor.setCurrentIndex(self.drop_factor.findData(20))
         export = QPushButton("&Export CSV…")
         export.clicked.connect(self._export)
+        printing = QPushButton("&Print…")
+        printing.clicked.connect(self._print)
+        preview = QPushButton("Print pre&view…")
+        preview.clicked.connect(self._preview)
         for widget in (QLabel("Species"), self.species, QLabel("Drip set"), self.drop_factor):
             row.addWidget(widget)
         row.addStretch(1)
-        row.addWidget(export)
+        for button in (preview, printing, export):
+            row.addWidget(button)
         layout.addLayout(row)
         self.model = RowsModel(list(HEADERS))
         view = QTableView()
@@ -65,6 +69,9 @@ class ChartDialog(QDialog):
         self.note = QLabel()
         self.note.setWordWrap(True)
         layout.addWidget(self.note)
+        caution = QLabel(SHORT_CAUTION)
+        caution.setWordWrap(True)
+        layout.addWidget(caution)
         self.species.currentIndexChanged.connect(self.refresh)
         self.drop_factor.currentIndexChanged.connect(self.refresh)
         self.resize(760, 460)
@@ -76,18 +83,24 @@ class ChartDialog(QDialog):
 
     def refresh(self, *_: object) -> None:
         result = self.current()
-        self.model.set_rows(
-            [
-                [Cell("—" if v is None else q(v, unit)) for v, unit in zip(row, UNITS, strict=True)]
-                for row in result.rows()
-            ]
-        )
-        weight = self.table.value(result.species_id, "body_weight_kg")
-        flag = " (range recalled, unverified)" if weight.unverified else ""
-        self.note.setText(
-            f"Maintenance by the {result.method} method{flag}; bolus only where a continuous "
-            "line is practical; deficit per 5 % = body weight × 50 mL (Davis 2013)."
-        )
+        self.model.set_rows([[Cell(text) for text in row] for row in chart_cells(result)])
+        self.note.setText(chart_note(result))
+
+    def _print(self) -> None:
+        from ui.printing import choose_printer_and_print
+
+        choose_printer_and_print(self, self.print_to)
+
+    def _preview(self) -> None:
+        from ui.printing import show_print_preview
+
+        show_print_preview(self, self.print_to)
+
+    def print_to(self, printer) -> int:  # noqa: ANN001 — QPrinter
+        """Print the chart as shown; returns the number of pages."""
+        from ui.printing import print_sheet
+
+        return print_sheet(chart_sheet_html(self.current()), printer)
 
     def _export(self) -> None:
         name, _ = QFileDialog.getSaveFileName(self, "Export chart", "", "CSV (*.csv)")

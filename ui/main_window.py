@@ -239,7 +239,8 @@ class MainWindow(QMainWindow):
         self.session.planChanged.connect(lambda _plan: self._draft_timer.start())
         QTimer.singleShot(0, self.offer_draft)
 
-    def _save_draft(self) -> None:
+    def _save_draft(self, *, closed: bool = False) -> None:
+        """Keep the plan being edited; ``closed`` marks a normal close rather than a crash."""
         from vetfluid.records import RecordsError
         from vetfluid.serialize import request_to_dict
 
@@ -251,6 +252,7 @@ class MainWindow(QMainWindow):
                     "request": request_to_dict(self.session.plan.request),
                     "acknowledged": self.session.acknowledged,
                     "patient_id": self.current_patient,
+                    "closed": closed,
                 }
             )
         except RecordsError as exc:
@@ -263,11 +265,13 @@ class MainWindow(QMainWindow):
         draft = self.records.draft() if self.records is not None else None
         if not draft:
             return False
-        answer = QMessageBox.question(
-            self,
-            "vetfluid",
-            "A plan was being edited when vetfluid last stopped. Restore it?",
+        question = (
+            "vetfluid was closed with a plan that had not been saved as a version. Restore it?"
+            if draft.get("closed")
+            else "vetfluid stopped unexpectedly while a plan was being edited. Restore it? "
+            "The last few seconds of typing may be missing."
         )
+        answer = QMessageBox.question(self, "vetfluid", question)
         if answer != QMessageBox.StandardButton.Yes:
             self.records.clear_draft()
             return False
@@ -311,6 +315,7 @@ class MainWindow(QMainWindow):
         except (RecordsError, VetfluidError) as exc:
             QMessageBox.warning(self, "vetfluid", f"Not saved: {exc}")
             return None
+        self._draft_timer.stop()  # what was being edited is now saved
         self.records.clear_draft()
         self.statusBar().showMessage(f"Saved as version {number}; earlier versions are kept.")
         return number
@@ -490,16 +495,18 @@ class MainWindow(QMainWindow):
         self.statusBar().showMessage(f"Opened {path}")
         return True
 
-    def print_plan(self) -> None:
-        from PySide6.QtPrintSupport import QPrintDialog, QPrinter
-
+    def _printable(self) -> bool:
         self.build_planner()
         if self.session.plan is None:
             QMessageBox.information(self, "vetfluid", "There is no valid plan to print yet.")
-            return
-        printer = QPrinter(QPrinter.PrinterMode.HighResolution)
-        if QPrintDialog(printer, self).exec():
-            self.print_to(printer)
+            return False
+        return True
+
+    def print_plan(self) -> None:
+        from ui.printing import choose_printer_and_print
+
+        if self._printable():
+            choose_printer_and_print(self, self.print_to)
 
     def print_to(self, printer) -> None:  # noqa: ANN001 — QPrinter
         from ui.printing import print_sheet
@@ -511,15 +518,10 @@ class MainWindow(QMainWindow):
         print_sheet(html, printer)
 
     def print_preview(self) -> None:
-        from PySide6.QtPrintSupport import QPrintPreviewDialog
+        from ui.printing import show_print_preview
 
-        self.build_planner()
-        if self.session.plan is None:
-            QMessageBox.information(self, "vetfluid", "There is no valid plan to print yet.")
-            return
-        dialog = QPrintPreviewDialog(self)
-        dialog.paintRequested.connect(self.print_to)
-        dialog.exec()
+        if self._printable():
+            show_print_preview(self, self.print_to)
 
     def export_csv(self, what: str, path: Path | None = None) -> bool:
         """Write the schedule or the observations as formula-safe CSV."""
@@ -583,8 +585,9 @@ class MainWindow(QMainWindow):
         if self.session is not None:
             settings.setValue("splitter", self.splitter.saveState())
             if self.records is not None:
+                if self._draft_timer.isActive() or self.records.draft() is not None:
+                    self._save_draft(closed=True)  # edits not saved as a version: offered back
                 self._draft_timer.stop()
-                self._save_draft()  # offered back next time, like after a crash
                 self.records.close()
                 self.records = None
         settings.sync()

@@ -49,6 +49,24 @@ def print_sheet(html: str, printer) -> int:  # noqa: ANN001 — QPrinter
         painter.end()
 
 
+def choose_printer_and_print(parent, paint) -> None:  # noqa: ANN001 — QWidget, callable
+    """The system print dialog, then ``paint(printer)`` if the user confirms."""
+    from PySide6.QtPrintSupport import QPrintDialog, QPrinter
+
+    printer = QPrinter(QPrinter.PrinterMode.HighResolution)
+    if QPrintDialog(printer, parent).exec():
+        paint(printer)
+
+
+def show_print_preview(parent, paint) -> None:  # noqa: ANN001 — QWidget, callable
+    """Qt's print preview, painted by ``paint(printer)`` (page set-up changes repaint)."""
+    from PySide6.QtPrintSupport import QPrintPreviewDialog
+
+    dialog = QPrintPreviewDialog(parent)
+    dialog.paintRequested.connect(paint)
+    dialog.exec()
+
+
 PAGE_SIZES = {"a4": "A4", "letter": "Letter"}
 
 

@@ -16,7 +16,7 @@ import numpy as np
 from vetfluid.checks import require_number
 from vetfluid.delivery import check_drop_factor
 from vetfluid.resuscitation import resuscitation
-from vetfluid.species import SpeciesTable, load_table
+from vetfluid.species import SpeciesTable, SpeciesValue, load_table
 
 DEFAULT_BANDS = 10
 
@@ -24,6 +24,7 @@ DEFAULT_BANDS = 10
 @dataclass(frozen=True, kw_only=True)
 class Chart:
     species_id: str
+    species_name: str
     method: str
     weight_kg: np.ndarray
     maintenance_ml_per_day: np.ndarray
@@ -32,6 +33,8 @@ class Chart:
     bolus_ml: np.ndarray  # NaN where a continuous line is not practical
     drops_per_min: np.ndarray
     drop_factor: float
+    provenance: tuple[SpeciesValue, ...]  # every species value the chart used
+    citations: dict[str, str]  # source id → citation for those values
 
     COLUMNS = (
         "weight_kg", "maintenance_ml_per_day", "maintenance_ml_per_h",
@@ -48,26 +51,34 @@ class Chart:
 
 def maintenance_ml_per_day(
     table: SpeciesTable, species_id: str, weights: np.ndarray
-) -> tuple[np.ndarray, str]:
+) -> tuple[np.ndarray, str, list[SpeciesValue]]:
     """The species' default maintenance for many weights at once (same methods and constants
-    as :func:`vetfluid.maintenance.maintenance`; ectotherms at their preferred temperature)."""
-    method = str(table.value(species_id, "maintenance_method").value)
+    as :func:`vetfluid.maintenance.maintenance`; ectotherms at their preferred temperature).
+    Returns mL/day, the method and the species values used."""
+    used: list[SpeciesValue] = []
+
+    def value(parameter: str) -> SpeciesValue:
+        used.append(table.value(species_id, parameter))
+        return used[-1]
+
+    method = str(value("maintenance_method").value)
     if method == "linear":
-        result = table.value(species_id, "maintenance_ml_per_kg_day").number * weights
+        result = value("maintenance_ml_per_kg_day").number * weights
     elif method == "allometric":
-        a = table.value(species_id, "maintenance_allometric_a").number
-        b = table.value(species_id, "maintenance_allometric_b").number
-        result = a * weights**b
+        result = (
+            value("maintenance_allometric_a").number
+            * weights ** value("maintenance_allometric_b").number
+        )
     else:
-        k = table.value(species_id, "energy_k_kcal_per_day").number
-        b = table.value(species_id, "energy_exponent").number
-        result = k * weights**b * table.value(species_id, "water_ml_per_kcal").number
+        k = value("energy_k_kcal_per_day").number
+        b = value("energy_exponent").number
+        result = k * weights**b * value("water_ml_per_kcal").number
         if table.species(species_id).is_ectotherm:
-            q10 = table.value(species_id, "q10").number
-            reference = table.value(species_id, "energy_reference_temp_c").number
-            preferred = table.value(species_id, "preferred_temp_c").number
+            q10 = value("q10").number
+            reference = value("energy_reference_temp_c").number
+            preferred = value("preferred_temp_c").number
             result = result * q10 ** ((preferred - reference) / 10.0)
-    return result, method
+    return result, method, used
 
 
 def weight_bands(low_kg: float, high_kg: float, bands: int) -> np.ndarray:
@@ -91,13 +102,17 @@ def chart(
     low = weight.low if weight.low is not None else weight.number
     high = weight.high if weight.high is not None else weight.number
     weights = weight_bands(low, high, int(bands)) if high > low else np.array([weight.number])
-    ml_day, method = maintenance_ml_per_day(table, species_id, weights)
-    bolus_per_kg = resuscitation(table, species_id, 1.0).bolus_ml_per_kg  # linear in weight
-    line_min = table.value(species_id, "continuous_line_min_kg").number
+    ml_day, method, used = maintenance_ml_per_day(table, species_id, weights)
+    bolus = resuscitation(table, species_id, 1.0)  # linear in weight
+    bolus_per_kg = bolus.bolus_ml_per_kg
+    line = table.value(species_id, "continuous_line_min_kg")
+    line_min = line.number
     bolus_ml = np.where(weights >= line_min, bolus_per_kg * weights, np.nan)
     ml_h = ml_day / 24.0
+    used_values = tuple({v.parameter: v for v in (weight, *used, *bolus.provenance, line)}.values())
     return Chart(
         species_id=species_id,
+        species_name=table.species(species_id).common_name,
         method=method,
         weight_kg=weights,
         maintenance_ml_per_day=ml_day,
@@ -106,4 +121,6 @@ def chart(
         bolus_ml=bolus_ml,
         drops_per_min=ml_h * drop_factor / 60.0,
         drop_factor=float(drop_factor),
+        provenance=used_values,
+        citations=table.citations(used_values),
     )

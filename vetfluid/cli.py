@@ -348,7 +348,9 @@ def cmd_plan(args: argparse.Namespace) -> int:
 
 def cmd_chart(args: argparse.Namespace) -> int:
     from vetfluid.chart import Chart, chart
+    from vetfluid.chart_sheet import chart_note
     from vetfluid.export import csv_text
+    from vetfluid.serialize import value_dict
     from vetfluid.species import load_table
 
     table = load_table()
@@ -360,7 +362,9 @@ def cmd_chart(args: argparse.Namespace) -> int:
         _emit({
             "species_id": result.species_id, "method": result.method,
             "drop_factor": result.drop_factor, "columns": list(Chart.COLUMNS),
-            "rows": result.rows(), "cautions": list(CAUTIONS),
+            "rows": result.rows(),
+            "provenance": [value_dict(v) for v in result.provenance],
+            "sources": result.citations, "cautions": list(CAUTIONS),
         })  # fmt: skip
         return EXIT_OK
     species = table.species(args.species)
@@ -372,7 +376,8 @@ def cmd_chart(args: argparse.Namespace) -> int:
     for w, day, hour, five, bolus, dpm in result.rows():
         print(f"{_q(w, 'kg'):>10} {_q(day, 'mL'):>10} {_q(hour, 'mL/h'):>11} {_q(five, 'mL'):>9} "
               f"{_q(bolus, 'mL'):>9} {_q(dpm, 'drops/min'):>15}")  # fmt: skip
-    print("(bolus — where a continuous line is not practical)\n")
+    print("(bolus — where a continuous line is not practical)")
+    print(chart_note(result) + "\n")
     print(_cautions_text())
     return EXIT_OK
 

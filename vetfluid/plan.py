@@ -159,6 +159,7 @@ class Plan:
     provenance: tuple[SpeciesValue, ...] = field(repr=False)
     bag: fluids.Fluid = field(repr=False)  # the fluid with its additives
     bolus_fluid: fluids.Fluid = field(repr=False)  # the plain fluid, for boluses
+    citations: dict[str, str] = field(default_factory=dict, repr=False)  # source id → citation
 
     @property
     def total_ml_first_24h(self) -> float:
@@ -559,6 +560,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         provenance=tuple(ledger.values.values()),
         bag=bag,
         bolus_fluid=base,
+        citations=ledger.table.citations(ledger.values.values()),
     )
 
 

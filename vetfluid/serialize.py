@@ -111,6 +111,7 @@ def plan_dict(plan: Plan) -> dict[str, object]:
         "findings": [f.as_dict() for f in plan.findings],
         "hard_limit": plan.has_hard_limit,
         "provenance": [value_dict(v) for v in plan.provenance],
+        "sources": dict(plan.citations),
         "cautions": list(CAUTIONS),
         "request": request_to_dict(plan.request),
     }

@@ -4,7 +4,7 @@ and ``vetfluid sheet PLAN.json`` print the same thing.
 Sections: patient header, cautions, plan summary, the hourly schedule on the clock
 with columns the nurse fills in, bag or syringe labels, findings with the reasons
 given, and footnotes naming the source of every species value used — values
-recalled from memory say "(memory — unverified)" in words, so the marking survives
+recalled from memory say "memory — unverified" in words, so the marking survives
 black-and-white print. Every text is escaped: a patient called "<b>Rex</b>" prints
 as those characters. Numbers are formatted the safe way.
 """
@@ -30,7 +30,7 @@ STYLE = (
 )
 
 
-def _table(rows: list[list[str]], header: list[str] | None, *, padding: int = 2) -> str:
+def table_html(rows: list[list[str]], header: list[str] | None, *, padding: int = 2) -> str:
     cells = "".join(f"<th align='left'>{escape(h)}</th>" for h in header or ())
     head = f"<tr>{cells}</tr>" if header else ""
     body = "".join("<tr>" + "".join(f"<td>{escape(c)}</td>" for c in row) + "</tr>" for row in rows)
@@ -89,7 +89,7 @@ def sheet_html(
         + f"<br>Status: {'marked ready' if ready else 'NOT marked ready'}</p>",
         "<p><b>Cautions:</b> " + escape(" ".join(CAUTIONS)) + "</p>",
         "<h3>Plan</h3>",
-        _table(
+        table_html(
             [
                 ["Maintenance", f"{q(m['ml_per_day'], 'mL/day')} — {m['method']}: {m['formula']}"],
                 [
@@ -104,12 +104,12 @@ def sheet_html(
             None,
         ),  # fmt: skip
         "<h3>Schedule</h3>",
-        _table(
+        table_html(
             [[e["clock"] or f"h {e['hour']:g}", e["phase"], e["action"]] for e in data["schedule"]],
             ["Clock", "Phase", "What to do"],
         ),
         "<h3>Hourly record (fill in)</h3>",
-        _table(
+        table_html(
             [
                 [clock_time(start, h) or f"h {h}", f"{h}", _planned_at(data["phases"], h)]
                 + [""] * len(NURSE_COLUMNS)
@@ -121,7 +121,7 @@ def sheet_html(
         "<h3>Labels</h3>",
         _labels(data, str(name), start),
         "<h3>Findings</h3>",
-        _table(
+        table_html(
             [
                 [
                     SEVERITY_WORDS[f["severity"]],
@@ -133,22 +133,35 @@ def sheet_html(
             or [["—", "none", ""]],
             ["Severity", "Finding", "Reason given"],
         ),  # fmt: skip
-        "<h3>Sources of the species values used</h3>",
-        _table(
-            [
-                [
-                    v["parameter"],
-                    f"{v['value']} {v['unit']}",
-                    v["basis"] + (" (memory — unverified)" if v["basis"] == "memory" else ""),
-                    v["source_id"] or "—",
-                ]
-                for v in data["provenance"]
-            ],
-            ["Value", "Amount", "Basis", "Source"],
-        ),  # fmt: skip
+        sources_html(data["provenance"], data.get("sources") or {}),
         "</body></html>",
     ]
     return "".join(parts)
+
+
+def sources_html(provenance: list[dict], citations: dict[str, str]) -> str:
+    """Footnotes: every species value used with its basis, and the publications cited."""
+    used = table_html(
+        [
+            [
+                v["parameter"],
+                f"{v['value']} {v['unit']}",
+                "memory — unverified" if v["basis"] == "memory" else v["basis"],
+                v["source_id"] or "—",
+            ]
+            for v in provenance
+        ],
+        ["Value", "Amount", "Basis", "Source"],
+    )
+    cited = "".join(
+        f"<li>{escape(source_id)}: {escape(citation)}</li>"
+        for source_id, citation in citations.items()
+    )
+    return (
+        "<h3>Sources of the species values used</h3>"
+        + used
+        + (f"<ul>{cited}</ul>" if cited else "")
+    )
 
 
 def _phase_text(p: dict) -> str:

@@ -20,7 +20,7 @@ The loader uses the ``csv`` module, not pandas: the CLI must start fast.
 from __future__ import annotations
 
 import difflib
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -249,6 +249,14 @@ class SpeciesTable:
         """Every parameter the species has after inheritance and overrides."""
         self.species(species_id)
         return dict(self._resolved[species_id])
+
+    def citations(self, values: Iterable[SpeciesValue]) -> dict[str, str]:
+        """Source id → citation for the sources the given values rest on, in first-use order."""
+        return {
+            v.source_id: self.sources[v.source_id].citation
+            for v in values
+            if v.source_id and v.source_id in self.sources
+        }
 
     def __iter__(self) -> Iterator[SpeciesValue]:
         for species_id in self.species_ids():

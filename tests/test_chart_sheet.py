@@ -1,0 +1,72 @@
+"""The printable weight-band chart: the same numbers as the chart, cautions, sources;
+headless to PDF and read back."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from vetfluid.cautions import CAUTIONS
+from vetfluid.chart import chart
+from vetfluid.chart_sheet import NO_LINE, chart_cells, chart_sheet_html
+from vetfluid.formatting import format_quantity as q
+
+VETFLUID = str(Path(sys.executable).with_name("vetfluid"))
+
+
+def test_page_carries_every_number_the_cautions_and_the_sources():
+    result = chart("dog")
+    html = chart_sheet_html(result)
+    for row in chart_cells(result):
+        for cell in row:
+            assert cell in html
+    for caution in CAUTIONS:
+        assert caution.replace("'", "&#x27;") in html
+    # the 2013 guideline formula the dog's maintenance rests on, cited in full
+    assert "davis2013" in html and "Fluid Therapy Guidelines" in html
+
+
+def test_memory_values_are_named_in_words():
+    result = chart("mongolian_gerbil")
+    unverified = [v.parameter for v in result.provenance if v.unverified]
+    assert unverified, "the gerbil chart uses recalled values"
+    html = chart_sheet_html(result)
+    assert "memory — unverified" in html
+    assert all(name in html for name in unverified)
+
+
+def test_no_bolus_where_no_line_is_practical_and_small_species_in_grams():
+    result = chart("mongolian_gerbil")
+    cells = chart_cells(result)
+    assert all(row[4] == NO_LINE for row in cells)
+    assert cells[0][0] == q(result.weight_kg[0] * 1000, "g")
+    assert chart_cells(chart("dog"))[0][0].endswith(" kg")
+
+
+def test_headless_chart_command_writes_the_numbers_into_a_pdf(tmp_path, pdf_text):
+    out = tmp_path / "chart.pdf"
+    result = subprocess.run(
+        [VETFLUID, "chart", "--species", "cat", "--drop-factor", "60", "-o", str(out)],
+        capture_output=True, text=True, timeout=60,
+    )  # fmt: skip
+    assert result.returncode == 0, result.stderr
+    text = pdf_text(out)
+    expected = chart("cat", drop_factor=60)
+    assert q(expected.maintenance_ml_per_day[0], "mL") in text
+    assert q(expected.drops_per_min[-1], "drops/min") in text
+    assert "Verify every volume" in text
+
+
+@pytest.mark.parametrize(
+    ("arguments", "message"),
+    [(["--species", "unicorn"], "unicorn"), (["--species", "cat", "--drop-factor", "0"], "drop")],
+)
+def test_headless_chart_command_refuses_bad_input(tmp_path, arguments, message):
+    result = subprocess.run([VETFLUID, "chart", *arguments, "-o", str(tmp_path / "x.pdf")],
+                            capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert result.returncode == 2 and message in result.stderr.lower()
+    assert "Traceback" not in result.stderr
+    assert not (tmp_path / "x.pdf").exists()
