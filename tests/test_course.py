@@ -16,7 +16,16 @@ reference = pytest.mark.reference
 
 @pytest.fixture(scope="module")
 def dog():
+    """A euhydrated 20 kg dog on maintenance, with healthy kidneys (renal elimination on)."""
     return build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=140))
+
+
+@pytest.fixture(scope="module")
+def dog_no_excretion():
+    """The same dog with renal disease: the model leaves renal elimination out, so the
+    checks of distribution alone see every infused millilitre stay in the body."""
+    return build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=140,
+                                  renal_disease=True))  # fmt: skip
 
 
 def effect(plan, fluid_id, ml_per_kg, minutes, hour):
@@ -33,28 +42,56 @@ def effect(plan, fluid_id, ml_per_kg, minutes, hour):
 
 
 @reference
-def test_isotonic_bolus_settles_at_the_plasma_share_of_the_ecf(dog):
+def test_isotonic_bolus_settles_at_the_plasma_share_of_the_ecf(dog, dog_no_excretion):
     # Odunayo 2018: plasma 5 %, ECF 20 % of BW in dogs → about a quarter stays in plasma
     # once distributed (the usual teaching of crystalloid distribution).
-    settled = effect(dog, "nacl_0_9", 10, 15, hour=3)
+    settled = effect(dog_no_excretion, "nacl_0_9", 10, 15, hour=3)
     assert settled["plasma"] == pytest.approx(0.25, abs=0.02)
     assert settled["plasma"] + settled["interstitial"] == pytest.approx(1.0, abs=0.03)
+    # with healthy kidneys part of it has been excreted by then, from the plasma
+    left = effect(dog, "nacl_0_9", 10, 15, hour=3)
+    assert 0 < left["plasma"] < settled["plasma"]
+    assert 0 < left["plasma"] + left["interstitial"] < 1
 
 
 @reference
-def test_bolus_expands_plasma_first_then_distributes(dog):
+def test_fifteen_to_twenty_percent_stays_in_plasma_half_an_hour_after_an_infusion(dog):
+    # Hahn 2020 (volume kinetics, people): 15–20 % of a crystalloid remains in the plasma
+    # 30 min after an infusion ends. Calibration, not an independent check: the elimination
+    # half-life (species_data, basis derived) was set so the model reproduces it; this test
+    # keeps it reproduced for infusions of 15 and 30 min as the model changes.
+    for minutes in (15, 30):
+        left = effect(dog, "lactated_ringers", 20, minutes, hour=(minutes + 30) / 60)
+        assert 0.15 <= left["plasma"] <= 0.20
+
+
+@reference
+def test_a_colloid_stays_in_the_plasma(dog, dog_no_excretion):
+    # Hahn 2020: colloids have no distribution phase. Half an hour after 10 mL/kg of a
+    # starch, most of it is still in the plasma; the same volume of saline has mostly left.
+    starch = effect(dog_no_excretion, "hes_130_0_4_6", 10, 15, hour=0.75)
+    saline = effect(dog_no_excretion, "nacl_0_9", 10, 15, hour=0.75)
+    assert starch["plasma"] > 0.85 and saline["plasma"] < 0.4
+    # it then lets its volume go with its half-life (3 h, colloids.csv, memory): after one
+    # half-life about half of what it held has joined the interstitium
+    held = effect(dog_no_excretion, "hes_130_0_4_6", 10, 1 / 60, hour=3)["plasma"]
+    assert held == pytest.approx(0.25 + 0.75 * 0.5, abs=0.04)
+
+
+@reference
+def test_bolus_expands_plasma_first_then_distributes(dog_no_excretion):
     # Hahn 2020 (volume kinetics): plasma dilution peaks at the end of the infusion and
     # falls over the next half hour as fluid moves into the interstitium.
-    end = effect(dog, "nacl_0_9", 10, 15, hour=0.25)["plasma"]
-    later = effect(dog, "nacl_0_9", 10, 15, hour=0.75)["plasma"]
+    end = effect(dog_no_excretion, "nacl_0_9", 10, 15, hour=0.25)["plasma"]
+    later = effect(dog_no_excretion, "nacl_0_9", 10, 15, hour=0.75)["plasma"]
     assert end > 0.5 > later > 0.25
 
 
 @reference
-def test_five_percent_dextrose_spreads_over_total_body_water(dog):
+def test_five_percent_dextrose_spreads_over_total_body_water(dog_no_excretion):
     # Free water distributes in proportion to the compartments: ICF/TBW = 40/60 = two thirds
     # into the cells (Odunayo 2018 fractions; DiBartola ch. 1).
-    settled = effect(dog, "dextrose_5", 10, 15, hour=3)
+    settled = effect(dog_no_excretion, "dextrose_5", 10, 15, hour=3)
     assert settled["intracellular"] == pytest.approx(2 / 3, abs=0.01)
     assert settled["plasma"] == pytest.approx(0.05 / 0.6, abs=0.01)
 
@@ -73,17 +110,20 @@ def test_weight_change_equals_net_fluid_balance():
     # Davis 2013: 1 kg lost ≈ 1 L.
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7))
     c = course(plan)
-    assert np.allclose((c.weight_kg - 20) * 1000, c.given_ml - c.consumed_ml)
+    assert np.allclose((c.weight_kg - 20) * 1000, c.given_ml - c.consumed_ml - c.eliminated_ml)
     end_of_replacement = int(24 * 60)
     assert c.remaining_deficit_ml[end_of_replacement] == pytest.approx(0, abs=1e-6)
+    # replacing a deficit never takes the ECF above its euhydrated size: nothing is excreted
+    assert c.eliminated_ml[-1] == pytest.approx(0, abs=1e-6)
 
 
 @reference
-def test_sodium_step_by_step_equals_adrogue_madias_for_one_litre(dog):
+def test_sodium_step_by_step_equals_adrogue_madias_for_one_litre(dog_no_excretion):
     # Adrogué & Madias 2000: ΔNa = (Na_inf + K_inf − Na) / (TBW + 1) for one litre. The
     # course model's losses leave at the starting Na, so over a short 1 L infusion the
     # step-by-step Na equals the closed form on the TBW left after those losses.
     extra = bolus_input(fluid_id="nacl_0_45", ml_per_kg=50, weight_kg=20, minutes=10)
+    dog = dog_no_excretion  # the formula knows no urine
     c = course(dog, horizon_h=1, extra_boluses=(extra,))
     i = 10  # minutes: end of the litre
     maintenance_ml = c.given_ml[i] - 1000.0  # the plan's own lactated Ringer's runs alongside
@@ -117,3 +157,32 @@ def test_horizon_and_step_are_checked(dog):
         course(dog, step_minutes=0)
     c = course(dog, horizon_h=14 * 24)
     assert len(c.hours) == 14 * 24 * 60 + 1
+
+
+def test_after_the_plan_ends_the_state_it_left_holds():
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7))
+    c = course(plan, horizon_h=14 * 24)
+    end = int(max(p.end_h for p in plan.phases) * 60)
+    assert np.allclose(c.weight_kg[end:], c.weight_kg[end])
+    assert np.all(c.plasma_ml > 0) and np.all(c.intracellular_ml > 0)
+
+
+@pytest.mark.parametrize(
+    ("request_changes", "species", "reason"),
+    [
+        ({"renal_disease": True}, "dog", "renal disease"),
+        ({"anaesthesia": True}, "dog", "anaesthesia"),
+        ({}, "african_grey", "no value for the species"),
+        ({}, "dog", None),
+    ],
+)
+def test_renal_elimination_is_left_out_where_it_cannot_be_trusted(request_changes, species,
+                                                                  reason):  # fmt: skip
+    from vetfluid.species import load_table
+
+    weight = load_table().value(species, "body_weight_kg").number
+    plan = build_plan(PlanRequest(species_id=species, weight_kg=weight, **request_changes))
+    c = course(plan, horizon_h=2, extra_boluses=(
+        bolus_input(fluid_id="nacl_0_9", ml_per_kg=20, weight_kg=weight, minutes=15),))  # fmt: skip
+    assert c.elimination_left_out == reason
+    assert (c.eliminated_ml[-1] > 0) == (reason is None)

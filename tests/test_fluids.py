@@ -414,7 +414,8 @@ def test_a_good_folder_loads(tmp_path):
         ("saline,saline,crystalloid,nacl,nan,,memory,\n", 2, "not a number above zero"),
         (GOOD_ROW + "saline,saline,crystalloid,nacl,4,,memory,\n", 3, "fluids.csv:2"),
         (GOOD_ROW + "saline,saline,colloid,kcl,1,,memory,\n", 3, "kind"),
-        ("saline,saline,colloid,nacl,9,,memory,\n", 2, "unknown kind"),
+        ("saline,saline,gel,nacl,9,,memory,\n", 2, "unknown kind"),
+        ("saline,saline,colloid,nacl,9,,memory,\n", 2, "names its colloid"),
         ("saline,saline,crystalloid,nacl,9,,recalled,\n", 2, "unknown basis"),
         ("saline,saline,crystalloid,nacl,9,,published,\n", 2, "needs its source"),
         ("Saline 0.9,saline,crystalloid,nacl,9,,memory,\n", 2, "lower-case"),
@@ -486,3 +487,46 @@ def test_a_file_that_is_not_utf8_is_a_data_error(tmp_path):
     with pytest.raises(SpeciesDataError) as caught:
         load_fluids(folder)
     assert caught.value.location == "fluids.csv:1"
+
+
+COLLOID_HEADER = "fluid_id,colloid,g_per_l,volume_half_life_h,source_id,basis,note\n"
+STARCH = "starch,starch in saline,colloid,nacl,9,,memory,\n"
+
+
+def test_a_colloid_carries_its_molecule_and_adds_no_effective_osmoles(tmp_path):
+    folder = _folder(tmp_path, HEADER + STARCH)
+    (folder / "colloids.csv").write_text(COLLOID_HEADER + "starch,a starch,60,3,,memory,\n")
+    starch = load_fluids(folder)["starch"]
+    assert starch.colloid.volume_half_life_h == 3 and starch.colloid.g_per_l == 60
+    # the carrier alone sets the osmoles: 9 g/L NaCl → 2 × 9 / M(NaCl), M from periodictable
+    saline = fl.composition(starch).effective_osmolarity_mosm_per_l
+    assert saline == pytest.approx(2 * 9000 / periodictable.formula("NaCl").mass, rel=1e-4)
+
+
+@pytest.mark.parametrize(
+    ("colloids", "words"),
+    [
+        ("starch,a starch,60,3,,memory,\nother,a starch,60,3,,memory,\n", "fluids.csv lacks"),
+        ("starch,a starch,60,three,,memory,\n", "not a number"),
+        ("starch,a starch,60,3,,memory,\nstarch,a starch,60,3,,memory,\n", "twice"),
+    ],
+)
+def test_bad_colloid_rows_are_refused(tmp_path, colloids, words):
+    folder = _folder(tmp_path, HEADER + STARCH)
+    (folder / "colloids.csv").write_text(COLLOID_HEADER + colloids)
+    with pytest.raises(SpeciesDataError, match=words):
+        load_fluids(folder)
+
+
+def test_colloid_plans_are_flagged_and_never_given_under_the_skin():
+    from vetfluid.plan import PlanRequest, build_plan
+
+    iv = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6"))
+    assert "COLLOID_CHOSEN" in {f.code for f in iv.findings}
+    sc = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6",
+                                route="sc", device="divided"))  # fmt: skip
+    # Vet Clin North Am Small Anim Pract 2017: no colloid SC
+    assert {f.code for f in sc.findings if f.severity == "hard"} >= {"FLUID_NOT_FOR_SC"}
+    with_k = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6",
+                                    serum_k=3.0))  # fmt: skip
+    assert with_k.bag.colloid is not None  # KCl added to a colloid bag keeps it a colloid

@@ -140,7 +140,7 @@ class PlanSettings(QGroupBox):
         self.fluid.setAccessibleName("Fluid")
         compact(self.fluid, 18)
         for fluid in fluids.load_fluids().values():
-            if fluid.kind == "crystalloid":
+            if fluid.kind in fluids.INFUSIBLE_KINDS:
                 self.fluid.addItem(fluid.name, fluid.fluid_id)
         self.fluid.activated.connect(lambda _: session.update(fluid_id=self.fluid.currentData()))
         form.addRow("&Fluid", self.fluid)

@@ -439,7 +439,7 @@ def _hours(text: str) -> list[float]:
 
 
 COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
-               "remaining_deficit_ml", "given_ml", "serum_na")  # fmt: skip
+               "remaining_deficit_ml", "given_ml", "eliminated_ml", "serum_na")  # fmt: skip
 
 
 def cmd_course(args: argparse.Namespace) -> int:
@@ -462,6 +462,8 @@ def cmd_course(args: argparse.Namespace) -> int:
         "weight_kg": plan.request.weight_kg,
         "rows": rows,
         "model": "docs/model.md",
+        "renal_elimination": result.elimination_left_out is None,
+        "renal_elimination_left_out_for": result.elimination_left_out,
         "provenance": [v.provenance() for v in result.provenance],
         "findings": [f.as_dict() for f in plan.findings],
         "cautions": list(CAUTIONS),
@@ -475,6 +477,8 @@ def cmd_course(args: argparse.Namespace) -> int:
             cells = " ".join(f"{'—' if row[k] is None else format(row[k], '.6g'):>20}"
                              for k in COURSE_KEYS)  # fmt: skip
             print(f"{row['hour']:>6g} {cells}")
+        if result.elimination_left_out:
+            print(f"Renal elimination of excess fluid left out: {result.elimination_left_out}.")
         print("\n" + _cautions_text())
     return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK
 

@@ -15,7 +15,11 @@ equations, their sources and their simplifications are written out in
   or IO enters the plasma, fluid given SC or intracoelomically the interstitium.
   The excess of plasma over its equilibrium share of the ECF (plasma/ECF) decays
   with the species' ``crystalloid_distribution_half_life_min`` (a first-order
-  form of Hahn's volume kinetics).
+  form of Hahn's volume kinetics). A colloid holds its volume in the plasma and
+  lets it go with its own half-life (``colloids.csv``).
+* **Renal elimination.** With healthy kidneys, ECF above its euhydrated size is
+  excreted from the plasma with ``crystalloid_elimination_half_life_min``; left out
+  with renal disease, under anaesthesia, or where the species has no value.
 * **Serum Na (Adrogué–Madias, step by step).** Na × TBW is the exchangeable
   Na + K; each step adds the infusate's Na + K and water. For one litre and no
   losses this equals the closed form (Na_inf + K_inf − Na) / (TBW + 1).
@@ -52,6 +56,7 @@ class Course:
     hours: np.ndarray
     given_ml: np.ndarray
     consumed_ml: np.ndarray
+    eliminated_ml: np.ndarray  # excreted by the kidneys above the plan's losses
     plasma_ml: np.ndarray
     interstitial_ml: np.ndarray
     intracellular_ml: np.ndarray
@@ -60,6 +65,7 @@ class Course:
     weight_kg: np.ndarray
     remaining_deficit_ml: np.ndarray
     provenance: tuple[SpeciesValue, ...]
+    elimination_left_out: str | None  # why renal elimination is not modelled, or None
 
     def change_from_start(self) -> dict[str, np.ndarray]:
         """Each compartment's gain (mL) since hour 0, for plotting what the fluids did."""
@@ -81,6 +87,7 @@ class Course:
             "weight_kg": float(self.weight_kg[i]),
             "remaining_deficit_ml": float(self.remaining_deficit_ml[i]),
             "given_ml": float(self.given_ml[i]),
+            "eliminated_ml": float(self.eliminated_ml[i]),
             "serum_na": None if self.serum_na is None else float(self.serum_na[i]),
         }
 
@@ -95,18 +102,24 @@ class _Input:
     effective_mosm_per_l: float
     na_k_mmol_per_l: float
     into_plasma: bool
+    colloid_half_life_h: float | None = None  # a colloid holds its volume in the plasma
+
+
+def _fluid_terms(fluid: fluids.Fluid, *, into_plasma: bool) -> dict:
+    comp = fluids.composition(fluid)
+    return {
+        "effective_mosm_per_l": comp.effective_osmolarity_mosm_per_l,
+        "na_k_mmol_per_l": comp.na_mmol_per_l + comp.k_mmol_per_l,
+        "into_plasma": into_plasma,
+        "colloid_half_life_h": fluid.colloid.volume_half_life_h if fluid.colloid else None,
+    }
 
 
 def _inputs(plan: Plan, extra: list[_Input]) -> list[_Input]:
     result = list(extra)
     for phase in plan.phases:
         fluid = plan.bolus_fluid if phase.kind == "resuscitation" else plan.bag
-        comp = fluids.composition(fluid)
-        common = {
-            "effective_mosm_per_l": comp.effective_osmolarity_mosm_per_l,
-            "na_k_mmol_per_l": comp.na_mmol_per_l + comp.k_mmol_per_l,
-            "into_plasma": phase.route in LINE_ROUTES,
-        }
+        common = _fluid_terms(fluid, into_plasma=phase.route in LINE_ROUTES)
         result.extend(_phase_inputs(phase, common))
     return result
 
@@ -123,14 +136,11 @@ def bolus_input(
     """An extra IV bolus of any library fluid (e.g. 4 mL/kg of 7.2% NaCl over 5 min)."""
     require_number(ml_per_kg, "bolus_ml_per_kg", positive=True, high=100, unit="mL/kg")
     require_number(minutes, "bolus_minutes", positive=True, high=24 * 60, unit="min")
-    comp = fluids.composition(fluids.fluid(fluid_id))
     return _Input(
         start_h,
         start_h + minutes / 60.0,
         ml_per_kg * weight_kg,
-        comp.effective_osmolarity_mosm_per_l,
-        comp.na_mmol_per_l + comp.k_mmol_per_l,
-        True,
+        **_fluid_terms(fluids.fluid(fluid_id), into_plasma=True),
     )
 
 
@@ -142,28 +152,93 @@ def _cumulative(hours: np.ndarray, item: _Input) -> np.ndarray:
     return item.ml * fraction
 
 
-def _excess_plasma(hours: np.ndarray, inputs: list[_Input], share: float, k_per_h: float):
-    """X(t) = plasma − share × ECF: fed by what enters plasma (or interstitium), decaying at k.
+def _response_terms(item: _Input, share: float, k: float) -> list[tuple[float, float]]:
+    """The excess X after 1 mL of this input at t = 0, as Σ c·e^(−λt): pairs (c, λ) per hour.
 
-    Each input is solved in closed form and the solutions are added (the equation is
-    linear): a constant inflow u over [a, b] gives (u/k)(1 − e^(−k(t−a))) during it and
-    decays after it; a dose gives a step that decays.
+    A crystalloid into the plasma adds (1 − share) that decays at k; into the interstitium
+    it takes share away. A colloid holds its volume in the plasma and lets it go at
+    k_c = ln 2 / t½; what it lets go then distributes at k (two first-order steps in a row):
+    X = (1 − share)·[k/(k − k_c)·e^(−k_c t) − k_c/(k − k_c)·e^(−k t)].
+    """
+    if not item.into_plasma:
+        return [(-share, k)]
+    if item.colloid_half_life_h is None:
+        return [(1.0 - share, k)]
+    kc = math.log(2) / item.colloid_half_life_h
+    if math.isclose(kc, k, rel_tol=1e-6):
+        kc *= 1.0 + 1e-6  # the limit k_c → k is smooth; stay off the removable singularity
+    return [((1.0 - share) * k / (k - kc), kc), (-(1.0 - share) * kc / (k - kc), k)]
+
+
+def _excess_plasma(hours: np.ndarray, inputs: list[_Input], share: float, k_per_h: float):
+    """X(t) = plasma − share × ECF: fed by what enters plasma (or interstitium), decaying.
+
+    Each input is solved in closed form and the solutions are added (the equations are
+    linear): for a term c·e^(−λt), a constant inflow u over [a, b] gives
+    c·(u/λ)(1 − e^(−λ(t−a))) during it and decays after it; a dose gives a decaying step.
     """
     excess = np.zeros_like(hours)
     for item in inputs:
-        gain = (1.0 - share) if item.into_plasma else -share
         t = hours - item.start_h
         after = t >= -1e-9
-        if item.end_h <= item.start_h:
-            excess += np.where(after, gain * item.ml * np.exp(-k_per_h * np.clip(t, 0, None)), 0.0)
-            continue
-        u = gain * item.ml / (item.end_h - item.start_h)
         span = item.end_h - item.start_h
-        during = np.clip(t, 0.0, span)
-        level = (u / k_per_h) * (1.0 - np.exp(-k_per_h * during))
-        decay = np.exp(-k_per_h * np.clip(t - span, 0.0, None))
-        excess += np.where(after, level * decay, 0.0)
+        for c, rate in _response_terms(item, share, k_per_h):
+            if span <= 0:
+                excess += np.where(after, c * item.ml * np.exp(-rate * np.clip(t, 0, None)), 0.0)
+                continue
+            u = c * item.ml / span
+            level = (u / rate) * (1.0 - np.exp(-rate * np.clip(t, 0.0, span)))
+            decay = np.exp(-rate * np.clip(t - span, 0.0, None))
+            excess += np.where(after, level * decay, 0.0)
     return excess
+
+
+def _renal_elimination(
+    ecf_excess: np.ndarray, *, k_e_per_step: float, k_per_step: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """Cumulative volume the kidneys remove, E, and its undistributed part in the plasma, F.
+
+    e = k_e · max(ECF − ECF_ref, 0), taken from the plasma; F follows e and decays at the
+    distribution rate k (the interstitium refills the plasma). Stepped exactly for the
+    first-order removal over each step; the loop runs only over the span where the ECF is
+    above its reference, since elimination can only lower it.
+    """
+    eliminated = np.zeros_like(ecf_excess)
+    in_plasma = np.zeros_like(ecf_excess)
+    above = np.flatnonzero(ecf_excess > 0)
+    if above.size == 0:
+        return eliminated, in_plasma
+    first, last = int(above[0]), int(above[-1])
+    take = -math.expm1(-k_e_per_step)  # the fraction of the excess removed in one step
+    keep = math.exp(-k_per_step)
+    total = removed = 0.0
+    totals, undistributed = [], []
+    for excess in ecf_excess[first : last + 1].tolist():
+        surplus = excess - total
+        step = surplus * take if surplus > 0 else 0.0
+        total += step
+        removed = removed * keep + step
+        totals.append(total)
+        undistributed.append(removed)
+    eliminated[first : last + 1] = totals
+    eliminated[last + 1 :] = total
+    in_plasma[first : last + 1] = undistributed
+    in_plasma[last + 1 :] = removed * keep ** np.arange(1, len(ecf_excess) - last)
+    return eliminated, in_plasma
+
+
+def elimination_applies(plan: Plan) -> str | None:
+    """Why renal elimination of the excess is left out of this course, or None if it is in.
+
+    Left out with renal disease (the kidneys may not excrete it) and under anaesthesia
+    (volume-kinetic studies find elimination much reduced; Hahn 2020): the prediction then
+    errs towards overload, the safer side.
+    """
+    if plan.request.renal_disease:
+        return "renal disease"
+    if plan.request.anaesthesia:
+        return "anaesthesia"
+    return None
 
 
 def course(
@@ -192,6 +267,10 @@ def course(
             "crystalloid_distribution_half_life_min",
         )
     }
+    elimination = table.get(sid, "crystalloid_elimination_half_life_min")
+    left_out = elimination_applies(plan) if elimination is not None else "no value for the species"
+    if elimination is not None:
+        values["crystalloid_elimination_half_life_min"] = elimination
     tbw0 = values["total_body_water_fraction"].number * w * 1000.0  # mL
     ecf0 = values["ecf_fraction"].number * w * 1000.0
     plasma0 = values["plasma_fraction"].number * w * 1000.0
@@ -212,7 +291,9 @@ def course(
         osmoles_in += delivered * item.effective_mosm_per_l / 1000.0
         na_k_in += delivered * item.na_k_mmol_per_l / 1000.0
     consumption = plan.maintenance.ml_per_h + plan.request.losses_ml_per_day / 24.0
-    consumed = consumption * hours
+    # After the plan's last phase the patient's own intake is taken to match its losses
+    # (net zero): the model does not drain an animal that is drinking and eating again.
+    consumed = consumption * np.minimum(hours, end)
 
     # Osmotic equilibrium between ECF and ICF (losses isotonic at the starting osmolality)
     icf_osmoles = osm0 * (tbw0 - ecf0) / 1000.0
@@ -220,22 +301,39 @@ def course(
     tbw = tbw0 + given - consumed
     osmolality = (ecf_osmoles + icf_osmoles) * 1000.0 / tbw
     ecf = ecf_osmoles * 1000.0 / osmolality
+    excess = _excess_plasma(hours, inputs, share, k_per_h)
+    na0 = plan.request.serum_na
+    # exchangeable Na + K (mmol); losses leave at the starting Na
+    sodium = None if na0 is None else na0 * tbw0 / 1000.0 + na_k_in - na0 * consumed / 1000.0
+
+    eliminated = np.zeros_like(hours)
+    if left_out is None:
+        # The kidneys excrete the ECF above its euhydrated size (the deficit restored)
+        # as fluid of the moment's osmolality and Na, taken from the plasma.
+        step_h = step_minutes / 60.0
+        k_e = math.log(2) / (elimination.number / 60.0)
+        eliminated, undistributed = _renal_elimination(
+            ecf - (ecf0 + plan.deficit_ml), k_e_per_step=k_e * step_h, k_per_step=k_per_h * step_h
+        )
+        removed = np.diff(eliminated, prepend=0.0)
+        ecf_osmoles = ecf_osmoles - np.cumsum(removed * osmolality) / 1000.0
+        if sodium is not None:
+            sodium = sodium - np.cumsum(removed * sodium * 1000.0 / tbw) / 1000.0
+        tbw = tbw - eliminated
+        osmolality = (ecf_osmoles + icf_osmoles) * 1000.0 / tbw
+        ecf = ecf_osmoles * 1000.0 / osmolality
+        excess = excess - (1.0 - share) * undistributed
     icf = tbw - ecf
-    plasma = share * ecf + _excess_plasma(hours, inputs, share, k_per_h)
+    plasma = share * ecf + excess
+    serum_na = None if sodium is None else sodium * 1000.0 / tbw
 
-    serum_na = None
-    if plan.request.serum_na is not None:
-        na0 = plan.request.serum_na
-        # exchangeable Na + K (mmol) over TBW (L); losses leave at the starting Na
-        sodium = na0 * tbw0 / 1000.0 + na_k_in - na0 * consumed / 1000.0
-        serum_na = sodium * 1000.0 / tbw
-
-    net = given - consumed
+    net = given - consumed - eliminated
     provenance = tuple(values.values())
     return Course(
         hours=hours,
         given_ml=given,
         consumed_ml=consumed,
+        eliminated_ml=eliminated,
         plasma_ml=plasma,
         interstitial_ml=ecf - plasma,
         intracellular_ml=icf,
@@ -244,4 +342,5 @@ def course(
         weight_kg=w + net / 1000.0,
         remaining_deficit_ml=np.maximum(plan.deficit_ml - net, 0.0),
         provenance=provenance,
+        elimination_left_out=left_out,
     )

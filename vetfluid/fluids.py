@@ -26,20 +26,21 @@ from __future__ import annotations
 import math
 import re
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cache, lru_cache
 from pathlib import Path
 from types import MappingProxyType
 
 from vetfluid import paths
 from vetfluid.checks import require_number
-from vetfluid.csvfiles import read_rows
+from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.formatting import format_quantity
 from vetfluid.species import BASES
 from vetfluid.units import molar_mass_g_per_mol
 
-KINDS = ("crystalloid", "additive_concentrate")
+KINDS = ("crystalloid", "colloid", "additive_concentrate")
+INFUSIBLE_KINDS = ("crystalloid", "colloid")  # what can be given as the plan's fluid
 METABOLISED = ("no", "yes", "anion_to_bicarbonate")
 TONICITY_CLASSES = ("hypotonic", "isotonic", "hypertonic")
 
@@ -70,6 +71,9 @@ _ID_PATTERN = re.compile(r"^[a-z0-9_]+$")
 
 SOLUTE_COLUMNS = ("solute_id", "name", "formula", "ions", "metabolised", "note")
 FLUID_COLUMNS = ("fluid_id", "name", "kind", "solute_id", "g_per_l", "source_id", "basis", "note")
+COLLOID_COLUMNS = (
+    "fluid_id", "colloid", "g_per_l", "volume_half_life_h", "source_id", "basis", "note",
+)  # fmt: skip
 
 
 def _check_id(value: str, name: str) -> None:
@@ -192,6 +196,31 @@ class SoluteAmount:
 
 
 @dataclass(frozen=True, kw_only=True)
+class Colloid:
+    """The large molecule of a colloid fluid, which holds water in the plasma.
+
+    It adds no effective osmoles of its own (a few mOsm/L at most); the course model
+    keeps the volume it holds in the plasma and lets it go with
+    ``volume_half_life_h`` (``docs/model.md``). ``basis`` as for fluids.
+    """
+
+    name: str
+    g_per_l: float
+    volume_half_life_h: float
+    basis: str
+    source_id: str = ""
+    note: str = field(default="", repr=False)
+
+    def __post_init__(self) -> None:
+        _check_number(self.g_per_l, "g_per_l", positive=True)
+        _check_number(self.volume_half_life_h, "volume_half_life_h", positive=True)
+        if self.basis not in BASES:
+            raise InputError("unknown basis", field="basis", value=self.basis)
+        if self.basis == "published" and not self.source_id:
+            raise InputError("a published value needs its source", field="source_id")
+
+
+@dataclass(frozen=True, kw_only=True)
 class Fluid:
     """A fluid as its formula: solutes in g/L, with the basis of that formula.
 
@@ -207,6 +236,7 @@ class Fluid:
     basis: str
     source_id: str = ""
     note: str = field(default="", repr=False)
+    colloid: Colloid | None = None
 
     def __post_init__(self) -> None:
         if not self.fluid_id:
@@ -228,6 +258,13 @@ class Fluid:
                 field="source_id",
                 value=self.source_id,
                 fix="give the source_id, or mark the basis memory",
+            )
+        if (self.kind == "colloid") != (self.colloid is not None):
+            raise InputError(
+                "a colloid fluid, and only a colloid fluid, names its colloid",
+                field="colloid",
+                value=self.fluid_id,
+                fix="add or remove its row in colloids.csv",
             )
         ids = [amount.solute.solute_id for amount in self.solutes]
         duplicates = sorted({solute_id for solute_id in ids if ids.count(solute_id) > 1})
@@ -505,8 +542,34 @@ def _known_sources(folder: Path | None) -> frozenset[str] | None:
 _FLUID_LEVEL = ("name", "kind", "source_id", "basis")
 
 
+def _load_colloids(path: Path, sources: frozenset[str] | None) -> dict[str, Colloid]:
+    colloids: dict[str, Colloid] = {}
+    for location, row in _read_rows(path, COLLOID_COLUMNS):
+        if row["fluid_id"] in colloids:
+            raise SpeciesDataError(f"{row['fluid_id']} is listed twice", location=location)
+        if sources is not None and row["source_id"] and row["source_id"] not in sources:
+            raise SpeciesDataError(f"unknown source_id {row['source_id']!r}", location=location)
+        try:
+            colloids[row["fluid_id"]] = Colloid(
+                name=row["colloid"],
+                g_per_l=_parse_g_per_l(row["g_per_l"], location),
+                volume_half_life_h=parse_number(
+                    row["volume_half_life_h"], location=location, column="volume_half_life_h"
+                ),
+                basis=row["basis"],
+                source_id=row["source_id"],
+                note=row["note"],
+            )
+        except InputError as exc:
+            raise _located(exc, location) from exc
+    return colloids
+
+
 def _load_fluids(
-    path: Path, solutes: Mapping[str, Solute], sources: frozenset[str] | None
+    path: Path,
+    solutes: Mapping[str, Solute],
+    sources: frozenset[str] | None,
+    colloids: Mapping[str, Colloid],
 ) -> Mapping[str, Fluid]:
     groups: dict[str, list[tuple[str, dict[str, str]]]] = {}
     seen: dict[tuple[str, str], str] = {}
@@ -567,16 +630,29 @@ def _load_fluids(
                 basis=first["basis"],
                 source_id=first["source_id"],
                 note="; ".join(dict.fromkeys(notes)),
+                colloid=colloids.get(fluid_id),
             )
         except InputError as exc:
             raise _located(exc, location) from exc
+    unused = sorted(set(colloids) - set(fluids))
+    if unused:
+        raise SpeciesDataError(
+            f"colloids.csv names fluids that fluids.csv lacks: {', '.join(unused)}",
+            location=str(path),
+            fix="add the fluid (its carrier solutes) to fluids.csv",
+        )
     return MappingProxyType(fluids)
 
 
 @cache
 def _load(folder: Path | None) -> tuple[Mapping[str, Solute], Mapping[str, Fluid]]:
     solutes = _load_solutes(_csv_file(folder, "solutes.csv"))
-    fluids = _load_fluids(_csv_file(folder, "fluids.csv"), solutes, _known_sources(folder))
+    sources = _known_sources(folder)
+    # colloids.csv is optional, so a folder of crystalloids alone (tests) still loads
+    directory = paths.resource_dir("species_data") if folder is None else Path(folder)
+    colloid_file = directory / "colloids.csv"
+    colloids = _load_colloids(colloid_file, sources) if colloid_file.is_file() else {}
+    fluids = _load_fluids(_csv_file(folder, "fluids.csv"), solutes, sources, colloids)
     return solutes, fluids
 
 
@@ -675,6 +751,9 @@ def with_additive(
             f"{bag_text} {fluid.fluid_id} ({fluid.basis}) + {added_text} "
             f"{additive.fluid_id} ({additive.basis}); volumes taken as additive"
         ),
+        colloid=None
+        if fluid.colloid is None
+        else replace(fluid.colloid, g_per_l=fluid.colloid.g_per_l * bag_ml / total_ml),
     )
     return Mixture(fluid=mixed, volume_ml=total_ml, bag_volume_ml=bag_ml, additive_ml=added_ml)
 

@@ -461,9 +461,10 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     drop_factor = request.drop_factor if device == "gravity" else None
     safety.check_fluid_for_route(
         ledger, route=route, fluid_name=bag.name, tonicity=tone,
-        dextrose_g_per_l=bag_comp.dextrose_g_per_l,
+        dextrose_g_per_l=bag_comp.dextrose_g_per_l, colloid=bag.colloid is not None,
     )  # fmt: skip
     safety.check_reptile_dextrose(ledger, request.dextrose_percent)
+    safety.check_colloid(ledger, bag)
 
     bolus_phases, res = _resuscitation_phases(ledger, request, route=route, drop_factor=drop_factor)
     start_h = bolus_phases[-1].end_h if bolus_phases else 0.0

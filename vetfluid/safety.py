@@ -79,19 +79,37 @@ def check_fluid_for_route(
     fluid_name: str,
     tonicity: fluids.Tonicity,
     dextrose_g_per_l: float,
+    colloid: bool = False,
 ) -> None:
-    """No hypertonic or dextrose-containing fluid outside a vein (Vet Clin North Am 2017)."""
+    """No hypertonic, colloid or dextrose-containing fluid outside a vein
+    (Vet Clin North Am 2017)."""
     if route in LINE_ROUTES:
         return
-    if tonicity.in_vitro_class == "hypertonic" or dextrose_g_per_l > 0:
+    if tonicity.in_vitro_class == "hypertonic" or dextrose_g_per_l > 0 or colloid:
         ledger.add(
             "hard",
             "FLUID_NOT_FOR_SC",
-            f"{fluid_name} is not suitable {route.upper()}: no hypertonic or "
+            f"{fluid_name} is not suitable {route.upper()}: no hypertonic, colloid or "
             "dextrose-containing fluids outside a vein.",
             "Choose an isotonic crystalloid for SC or intracoelomic use.",
             "vcna2017_sc",
         )
+
+
+def check_colloid(ledger: Ledger, fluid: fluids.Fluid) -> None:
+    """A colloid as the plan's fluid: it restores plasma volume, not an interstitial
+    deficit. The risks of starches are recalled (fluid note), not checked — memory."""
+    if fluid.colloid is None:
+        return
+    ledger.add(
+        "soft",
+        "COLLOID_CHOSEN",
+        f"{fluid.name} holds its volume in the plasma: it does not rehydrate the interstitium "
+        "and adds no maintenance water. Starches have been restricted in critically ill "
+        "people for kidney injury and bleeding (recalled — unverified).",
+        "Use a crystalloid for rehydration and maintenance; give a colloid only as your "
+        "practice protocol allows, and record why.",
+    )
 
 
 def check_reptile_dextrose(ledger: Ledger, dextrose_percent: float) -> None:
