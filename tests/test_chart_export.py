@@ -80,5 +80,9 @@ def test_schedule_and_observations_export_safely():
     assert rows[1][0] == "08:00" and rows[1][3].startswith("Set ")
     notes = [Observation(hour=2, weight_kg=24.2, note='=HYPERLINK("x")')]
     rows = list(csv.reader(io.StringIO(observations_csv(notes))))
-    assert rows[1][0] == "2" and rows[1][1] == "24.2"
+    assert rows[1][:3] == ["", "2", "24.2"]  # no date without the plan's start
     assert rows[1][-1].startswith("'=")
+    from datetime import datetime
+
+    rows = list(csv.reader(io.StringIO(observations_csv(notes, datetime(2026, 12, 1, 23, 0)))))
+    assert rows[0][0] == "at" and rows[1][0] == "2026-12-02 01:00"

@@ -102,6 +102,14 @@ def test_hard_limit_exits_3_and_names_it(capsys):
             "nope",
         ),  # fmt: skip
         (["species", "--species", "unicorn"], "unicorn"),
+        (
+            ["plan", "--species", "dog", "--weight", "20 kg", "--start-date", "2026-13-01"],
+            "YYYY-MM-DD",
+        ),
+        (
+            ["plan", "--species", "dog", "--weight", "20 kg", "--start-date", "2026-12-01"],
+            "start time",
+        ),
         (["frobnicate"], "frobnicate"),
     ],
 )
@@ -187,3 +195,15 @@ def test_course_prints_the_compartments_at_the_requested_hours(capsys):
 def test_course_rejects_bad_hours(capsys):
     code, _, err = run(capsys, "course", "--species", "dog", "--weight", "20 kg", "--at", "x")
     assert code == 2 and "--at" in err
+
+
+def test_a_plan_on_the_calendar_keeps_its_date(capsys):
+    code, out, _ = run(capsys, "plan", "--species", "dog", "--weight", "20 kg",
+                       "--start", "22:00", "--start-date", "2026-12-31", "--json")  # fmt: skip
+    request = json.loads(out)["request"]
+    assert code == 0 and request["start_date"] == "2026-12-31" and request["start_time"] == "22:00"
+    from vetfluid.serialize import request_from_dict
+
+    assert request_from_dict(request).start_date.isoformat() == "2026-12-31"
+    with pytest.raises(Exception, match="YYYY-MM-DD"):
+        request_from_dict({**request, "start_date": "31/12/2026"})

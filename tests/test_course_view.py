@@ -107,12 +107,21 @@ def test_versions_table_compares_plans(qtbot, window):
     assert model.text(0, 1) == "24 kg" and model.text(1, 1) == "25 kg"
 
 
-def test_clock_time_sets_the_hour(window):
-    from PySide6.QtCore import QTime
+def test_date_and_time_set_the_hour_and_back(window):
+    from PySide6.QtCore import QDate, QDateTime, QTime
 
-    view = window.course_view  # the demo dog starts at 08:00
-    view.clock.setTime(QTime(14, 30))
+    from vetfluid.demos import DEMO_DAY
+
+    view = window.course_view  # the demo dog starts at 08:00 on the scenario's day
+    day = QDate(DEMO_DAY.year, DEMO_DAY.month, DEMO_DAY.day)
+    view.at.setDateTime(QDateTime(day, QTime(14, 30)))
     assert view.hour.value() == pytest.approx(6.5)
-    view.day.setValue(1)
-    view.clock.setTime(QTime(7, 0))
+    view.at.setDateTime(QDateTime(day.addDays(1), QTime(7, 0)))
     assert view.hour.value() == pytest.approx(23.0)
+    view.at.setDateTime(QDateTime(day, QTime(7, 0)))  # before the start: said, not taken
+    assert "before the plan started" in view.message.text()
+    assert view.hour.value() == pytest.approx(23.0)
+    view.hour.setValue(48)
+    assert view.at.dateTime() == QDateTime(day.addDays(2), QTime(8, 0))
+    record(view, 30, "weight_kg", 24.5)
+    assert view.observations_model.text(0, 0) == f"{DEMO_DAY.replace(day=2)} 14:00 (h 30)"

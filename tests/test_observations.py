@@ -5,10 +5,10 @@ from __future__ import annotations
 import pytest
 
 from vetfluid.errors import InputError
+from vetfluid.ins_and_outs import ins_and_outs
 from vetfluid.observations import (
     Observation,
     alerts,
-    ins_and_outs,
     predicted_weight_kg,
     replan_request,
 )

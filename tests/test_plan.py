@@ -336,8 +336,14 @@ def test_syringe_pump_phases_are_split_into_fills_on_the_clock():
     assert len(changes) >= len(volumes) - 1
 
 
-def test_hours_since_start_across_midnight():
-    from vetfluid.schedule import clock_time, hours_since_start
+def test_hours_since_start_across_midnight_and_months():
+    from datetime import date, datetime
 
-    assert hours_since_start(time(22, 0), time(1, 30), day=1) == pytest.approx(3.5)
+    from vetfluid.schedule import clock_time, hours_since, moment_at
+
+    start = date(2026, 11, 30)
+    assert hours_since(start, time(22, 0), datetime(2026, 12, 1, 1, 30)) == pytest.approx(3.5)
+    assert moment_at(start, time(22, 0), 3.5) == datetime(2026, 12, 1, 1, 30)
     assert clock_time(time(22, 0), 3.5) == "01:30 (+1 d)"
+    with pytest.raises(InputError, match="before the plan started"):
+        hours_since(start, time(22, 0), datetime(2026, 11, 30, 21, 0))

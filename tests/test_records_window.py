@@ -101,7 +101,8 @@ def test_export_schedule_and_observations_from_the_window(qtbot, planner, tmp_pa
     )
     assert len(schedule) == len(window.session.plan.schedule) + 1
     observed = list(csv.reader((tmp_path / "obs.csv").read_text(encoding="utf-8").splitlines()))
-    assert observed[1][1] == "24.4" and observed[1][-1] == "'@risk"
+    assert observed[1][:3] == ["2026-12-01 11:00", "3", "24.4"]  # the demo starts 08:00
+    assert observed[1][-1] == "'@risk"
 
 
 def test_chart_dialog_shows_the_core_chart(qtbot, planner, tmp_path, pdf_text):

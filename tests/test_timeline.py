@@ -109,7 +109,7 @@ def test_given_meets_need_at_end_of_replacement_dog(dog):
     assert end == 12
     i = at(tl, end)
     assert tl.needed_ml[i] == pytest.approx(expected, abs=0.01)
-    tolerance = tl.consumption_ml_per_h * STEP_H  # one grid step of need
+    tolerance = dog.consumed_ml(STEP_H)  # one grid step of need
     assert abs(tl.given_ml[i] - tl.needed_ml[i]) <= tolerance
     # and not before: an hour earlier the dog is still behind by a whole hour of deficit
     j = at(tl, end - 1)
@@ -185,7 +185,10 @@ def test_last_given_is_the_plan_volume(any_plan):
 
 def test_weight_change_is_net_fluid_balance_everywhere(any_plan):
     tl = timeline(any_plan)
-    net_ml = tl.given_ml - tl.consumption_ml_per_h * tl.hours
+    net_ml = tl.given_ml - tl.consumed_ml
+    # a standard plan's outflow: maintenance + losses every hour up to the plan's end
+    rate = any_plan.maintenance.ml_per_h + any_plan.request.losses_ml_per_day / 24.0
+    np.testing.assert_allclose(tl.consumed_ml, rate * np.minimum(tl.hours, any_plan.end_h))
     np.testing.assert_allclose((tl.weight_kg - tl.baseline_weight_kg) * 1000, net_ml, atol=1e-9)
 
 
@@ -290,7 +293,7 @@ def test_identities_hold_for_any_dog(weight, percent, hours, losses, boluses):
     assert tl.given_ml[-1] == pytest.approx(sum(p.volume_ml for p in plan.phases), rel=1e-9)
     assert np.all(tl.remaining_deficit_ml >= 0)
     assert np.all(np.diff(tl.hours) > 0)
-    net = tl.given_ml - tl.consumption_ml_per_h * tl.hours
+    net = tl.given_ml - tl.consumed_ml
     np.testing.assert_allclose(tl.weight_kg, weight + net / 1000, rtol=1e-12)
 
 

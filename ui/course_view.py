@@ -1,19 +1,20 @@
 """The course view: body-water compartments, serum Na and weight predicted by the core
 (`vetfluid/course.py`), the observations recorded against them, and re-planning.
 
-Entering an observation takes an hour, a quantity and a value; everything else
-(alerts, curves) is recomputed by the core.
+Entering an observation takes a date and time (or the hour of the plan), a quantity
+and a value; everything else (alerts, curves) is recomputed by the core.
 """
 
 from __future__ import annotations
 
-from datetime import time
+from datetime import date, datetime, time
 
 import pyqtgraph as pg
-from PySide6.QtCore import QEvent, QSignalBlocker, Qt, QTime
+from PySide6.QtCore import QDate, QDateTime, QEvent, QSignalBlocker, Qt, QTime
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
+    QDateTimeEdit,
     QDoubleSpinBox,
     QHBoxLayout,
     QHeaderView,
@@ -24,7 +25,6 @@ from PySide6.QtWidgets import (
     QSplitter,
     QTableView,
     QTabWidget,
-    QTimeEdit,
     QVBoxLayout,
     QWidget,
 )
@@ -49,7 +49,13 @@ from vetfluid.observations import (
     ins_and_outs_from_observations,
     observed_series,
 )
-from vetfluid.schedule import hours_since_start
+from vetfluid.schedule import hours_since, moment_at
+
+
+def _qt_moment(moment: datetime) -> QDateTime:
+    return QDateTime(QDate(moment.year, moment.month, moment.day),
+                     QTime(moment.hour, moment.minute))  # fmt: skip
+
 
 # What can be recorded: field → (label, unit)
 QUANTITIES = {
@@ -86,16 +92,13 @@ class CourseView(QWidget):
         self.hour.setSuffix(" h")
         self.hour.setAccessibleName("Hour of the observation")
         self.hour.setToolTip("Hours since the start of the plan")
-        self.clock = QTimeEdit()
-        self.clock.setDisplayFormat("HH:mm")
-        self.clock.setAccessibleName("Clock time of the observation")
-        self.clock.setToolTip("Clock time; sets the hour from the plan's start time")
-        self.day = QSpinBox()
-        self.day.setRange(0, 14)
-        self.day.setPrefix("day +")
-        self.day.setAccessibleName("Day of the observation after the start day")
-        self.clock.timeChanged.connect(self._clock_changed)
-        self.day.valueChanged.connect(self._clock_changed)
+        self.at = QDateTimeEdit()
+        self.at.setDisplayFormat("yyyy-MM-dd HH:mm")
+        self.at.setCalendarPopup(True)
+        self.at.setAccessibleName("Date and time of the observation")
+        self.at.setToolTip("When it was measured; sets the hour from the plan's start")
+        self.at.dateTimeChanged.connect(self._moment_changed)
+        self.hour.valueChanged.connect(self._hour_changed)
         self.quantity = QComboBox()
         for key, (label, unit) in QUANTITIES.items():
             self.quantity.addItem(f"{label} ({unit})" if unit else label, key)
@@ -119,7 +122,7 @@ class CourseView(QWidget):
             "Start a new plan version from the latest weight and labs; the earlier one is kept"
         )
         self.replan_button.clicked.connect(self.replan)
-        for widget in (QLabel("At"), self.clock, self.day, QLabel("="), self.hour, self.quantity,
+        for widget in (QLabel("At"), self.at, QLabel("="), self.hour, self.quantity,
                        self.value, self.period, self.record_button):  # fmt: skip
             entry.addWidget(widget)
         entry.addStretch(1)
@@ -165,7 +168,7 @@ class CourseView(QWidget):
 
         bottom = QTabWidget()
         bottom.setAccessibleName("Course tables")
-        self.observations_model = RowsModel(["Hour", "Measured", "Value"])
+        self.observations_model = RowsModel(["When", "Measured", "Value"])
         self.alerts_model = RowsModel(["Severity", "Alert", "What to do"])
         self.ins_outs_model = RowsModel(
             ["Period", "Hours", "Urine", "Other losses", "Insensible", "Give next", "Next rate"]
@@ -241,15 +244,32 @@ class CourseView(QWidget):
         row.addStretch(1)
         return row
 
-    def _clock_changed(self, *_: object) -> None:
+    def _start(self) -> tuple[date, time] | None:
         plan = self.session.plan
-        start = plan.request.start_time if plan is not None else None
+        if plan is None or plan.request.start_time is None or plan.request.start_date is None:
+            return None
+        return plan.request.start_date, plan.request.start_time
+
+    def _moment_changed(self, value: QDateTime) -> None:
+        start = self._start()
         if start is None:
             return
-        clock = self.clock.time()
-        self.hour.setValue(
-            hours_since_start(start, time(clock.hour(), clock.minute()), day=self.day.value())
-        )
+        day, clock = value.date(), value.time()
+        moment = datetime(day.year(), day.month(), day.day(), clock.hour(), clock.minute())
+        try:
+            hour = hours_since(*start, moment)
+        except VetfluidError as exc:
+            self.message.setText(f"⚠ {exc.one_line()}")
+            return
+        self.message.setText("")
+        with QSignalBlocker(self.hour):
+            self.hour.setValue(hour)
+
+    def _hour_changed(self, hour: float) -> None:
+        start = self._start()
+        if start is not None:
+            with QSignalBlocker(self.at):
+                self.at.setDateTime(_qt_moment(moment_at(*start, hour)))
 
     def _quantity_changed(self, *_: object) -> None:
         self.period.setVisible(self.quantity.currentData() == "urine_ml")
@@ -304,10 +324,7 @@ class CourseView(QWidget):
                 curve.setData([], [])  # fmt: skip
             self.alerts_model.set_rows([])
             return
-        start = plan.request.start_time
-        if start is not None and self.hour.value() == 0:
-            with QSignalBlocker(self.clock):  # the clock follows the plan's hour 0
-                self.clock.setTime(QTime(start.hour, start.minute))
+        self._hour_changed(self.hour.value())  # the date and time follow the plan's start
         horizon = max([p.end_h for p in plan.phases] + [o.hour for o in observations])
         result = course(plan, horizon_h=horizon, step_minutes=5, table=self.session.table)
         h = result.hours
@@ -383,6 +400,12 @@ class CourseView(QWidget):
             Cell(status),
         ]
 
+    def _when(self, hour: float) -> str:
+        start = self._start()
+        if start is None:
+            return f"h {hour:g}"
+        return f"{moment_at(*start, hour):%Y-%m-%d %H:%M} (h {hour:g})"
+
     def _show_observations(self, observations: list[Observation]) -> None:
         rows = []
         for obs in observations:
@@ -396,5 +419,5 @@ class CourseView(QWidget):
                         shown += f" over {q(obs.urine_period_h or 0, 'h')}"
                 else:
                     shown = str(value)
-                rows.append([Cell(f"{obs.hour:g}"), Cell(label), Cell(shown)])
+                rows.append([Cell(self._when(obs.hour)), Cell(label), Cell(shown)])
         self.observations_model.set_rows(rows)

@@ -7,6 +7,7 @@ appears quickly.
 
 from __future__ import annotations
 
+from datetime import datetime
 from pathlib import Path
 
 from PySide6.QtCore import QEvent, QSettings, Qt, QTimer
@@ -540,7 +541,7 @@ class MainWindow(QMainWindow):
         text = (
             schedule_csv(plan_dict(self.session.plan))
             if what == "schedule"
-            else observations_csv(self.session.observations)
+            else observations_csv(self.session.observations, _plan_start(self.session.plan))
         )
         try:
             path.write_text(text, encoding="utf-8")
@@ -592,3 +593,11 @@ class MainWindow(QMainWindow):
                 self.records = None
         settings.sync()
         super().closeEvent(event)
+
+
+def _plan_start(plan) -> datetime | None:  # noqa: ANN001 — Plan
+    """The plan's start on the calendar, when it has a date and a time."""
+    request = plan.request
+    if request.start_date is None or request.start_time is None:
+        return None
+    return datetime.combine(request.start_date, request.start_time)

@@ -4,12 +4,13 @@
 
 from __future__ import annotations
 
-from datetime import datetime, time
+from datetime import date, datetime, time
 
-from PySide6.QtCore import QSignalBlocker, Qt, QTime
+from PySide6.QtCore import QDate, QDateTime, QSignalBlocker, Qt, QTime
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
+    QDateTimeEdit,
     QDoubleSpinBox,
     QFormLayout,
     QGridLayout,
@@ -19,7 +20,6 @@ from PySide6.QtWidgets import (
     QLabel,
     QSpinBox,
     QTableView,
-    QTimeEdit,
     QVBoxLayout,
     QWidget,
 )
@@ -184,11 +184,12 @@ class PlanSettings(QGroupBox):
         )
         form.addRow("Max Na change (mmol/L/h)", self.max_na)
 
-        self.start = QTimeEdit()
-        self.start.setDisplayFormat("HH:mm")
-        self.start.setAccessibleName("Start time")
-        self.start.setToolTip("Clock time of hour 0 of the plan")
-        self.start.timeChanged.connect(self._start_changed)
+        self.start = QDateTimeEdit()
+        self.start.setDisplayFormat("yyyy-MM-dd HH:mm")
+        self.start.setCalendarPopup(True)
+        self.start.setAccessibleName("Start date and time")
+        self.start.setToolTip("Date and clock time of hour 0 of the plan")
+        self.start.dateTimeChanged.connect(self._start_changed)
         form.addRow("&Start at", self.start)
 
         session.inputsReplaced.connect(self.load_inputs)
@@ -214,13 +215,16 @@ class PlanSettings(QGroupBox):
         self.kcl.setEnabled(by_hand)
         self.dextrose.show_value(inputs["dextrose_percent"] or None)
         self.max_na.show_value(inputs["max_na_change_per_h"])
-        start = inputs["start_time"]
-        if start is None:
+        start, day = inputs["start_time"], inputs["start_date"]
+        if start is None or day is None:
+            # a plan in the window always sits on the calendar; shown, so the user sees it
             now = datetime.now()
-            start = time(now.hour, now.minute - now.minute % 5)
-            self.session.update(start_time=start)
+            start = start or time(now.hour, now.minute - now.minute % 5)
+            day = day or now.date()
+            self.session.update(start_time=start, start_date=day)
         with QSignalBlocker(self.start):
-            self.start.setTime(QTime(start.hour, start.minute))
+            self.start.setDateTime(QDateTime(QDate(day.year, day.month, day.day),
+                                             QTime(start.hour, start.minute)))  # fmt: skip
 
     def _device_changed(self, _: int) -> None:
         device = self.device.currentData()
@@ -248,8 +252,12 @@ class PlanSettings(QGroupBox):
             self.kcl.show_value(None)
             self.session.update(kcl_mmol_per_l=None)
 
-    def _start_changed(self, value: QTime) -> None:
-        self.session.update(start_time=time(value.hour(), value.minute()))
+    def _start_changed(self, value: QDateTime) -> None:
+        day, clock = value.date(), value.time()
+        self.session.update(
+            start_time=time(clock.hour(), clock.minute()),
+            start_date=date(day.year(), day.month(), day.day()),
+        )
 
     def _plan_changed(self, plan: Plan | None) -> None:
         # the tooltips depend only on the patient's plasma and the chosen fluid; touching

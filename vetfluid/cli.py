@@ -12,7 +12,7 @@ import json
 import os
 import sys
 from collections.abc import Sequence
-from datetime import datetime, time
+from datetime import date, datetime, time
 from typing import NoReturn
 
 from vetfluid.cautions import CAUTIONS, SHORT_CAUTION
@@ -43,6 +43,15 @@ def _start_time(text: str) -> time:
         return datetime.strptime(text, "%H:%M").time()
     except ValueError:
         raise argparse.ArgumentTypeError(f"start time {text!r} must be HH:MM, e.g. 08:30") from None
+
+
+def _start_date(text: str) -> date:
+    try:
+        return date.fromisoformat(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"start date {text!r} must be YYYY-MM-DD, e.g. 2026-12-02"
+        ) from None
 
 
 def _add_plan_arguments(parser: argparse.ArgumentParser) -> None:
@@ -84,6 +93,7 @@ def _add_plan_arguments(parser: argparse.ArgumentParser) -> None:
         "--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v"
     )
     parser.add_argument("--start", type=_start_time, help="clock time of hour 0, HH:MM")
+    parser.add_argument("--start-date", type=_start_date, help="date of hour 0, YYYY-MM-DD")
     parser.add_argument("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
     parser.add_argument("--syringe-ml", type=float, default=60.0, help="syringe size, mL")
     parser.add_argument("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
@@ -259,6 +269,7 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         kcl_mmol_per_l=args.kcl_mmol_per_l,
         dextrose_percent=args.dextrose_percent,
         start_time=args.start,
+        start_date=args.start_date,
         cardiac_disease=args.cardiac,
         renal_disease=args.renal,
         anaesthesia=args.anaesthesia,

@@ -290,10 +290,9 @@ def course(
         given += delivered
         osmoles_in += delivered * item.effective_mosm_per_l / 1000.0
         na_k_in += delivered * item.na_k_mmol_per_l / 1000.0
-    consumption = plan.maintenance.ml_per_h + plan.request.losses_ml_per_day / 24.0
-    # After the plan's last phase the patient's own intake is taken to match its losses
-    # (net zero): the model does not drain an animal that is drinking and eating again.
-    consumed = consumption * np.minimum(hours, end)
+    # maintenance and losses (or measured outputs), none after the plan's last phase:
+    # the model does not drain an animal that is drinking and eating again
+    consumed = plan.consumed_ml(hours)
 
     # Osmotic equilibrium between ECF and ICF (losses isotonic at the starting osmolality)
     icf_osmoles = osm0 * (tbw0 - ecf0) / 1000.0

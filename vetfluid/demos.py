@@ -1,16 +1,19 @@
 """Demo patients: invented cases of our own for trying vetfluid. Not real animals.
 
 Each demo is a plain set of plan inputs, so the window (File → Demo patients)
-and the CLI (``vetfluid-cli plan --demo ID``) build exactly the same plan.
+and the CLI (``vetfluid-cli plan --demo ID``) build exactly the same plan. All of
+them start on one invented day of the scenario, DEMO_DAY.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import time
+from datetime import date, time
 
 from vetfluid.errors import InputError
 from vetfluid.plan import PlanRequest
+
+DEMO_DAY = date(2026, 12, 1)  # the scenario's day; invented like the patients
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -38,6 +41,7 @@ DEMOS: dict[str, Demo] = {
                 serum_k=3.3,
                 serum_na=146.0,
                 start_time=time(8, 0),
+                start_date=DEMO_DAY,
             ),
         ),
         Demo(
@@ -51,6 +55,7 @@ DEMOS: dict[str, Demo] = {
                 dehydration_percent=5.0,
                 body_temp_c=24.0,
                 start_time=time(9, 0),
+                start_date=DEMO_DAY,
             ),
         ),
         Demo(
@@ -64,6 +69,7 @@ DEMOS: dict[str, Demo] = {
                 dehydration_percent=7.0,
                 replace_hours=24.0,
                 start_time=time(10, 0),
+                start_date=DEMO_DAY,
             ),
         ),
         Demo(
@@ -79,6 +85,7 @@ DEMOS: dict[str, Demo] = {
                 usg=1.011,
                 renal_disease=True,
                 start_time=time(14, 0),
+                start_date=DEMO_DAY,
             ),
         ),
     )

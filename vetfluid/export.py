@@ -10,6 +10,7 @@ from __future__ import annotations
 import csv
 import io
 from collections.abc import Iterable, Sequence
+from datetime import datetime, timedelta
 
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 
@@ -46,8 +47,14 @@ def schedule_csv(plan_data: dict) -> str:
     )
 
 
-def observations_csv(observations) -> str:  # noqa: ANN001 — list[Observation]
-    """Recorded observations as formula-safe CSV (a note starting with "=" stays text)."""
+def observations_csv(observations, start: datetime | None = None) -> str:  # noqa: ANN001
+    """Recorded observations (list[Observation]) as formula-safe CSV (a note starting with
+    "=" stays text); with the plan's start, each row also gets its date and time."""
+
+    def at(hour: float) -> str:
+        return "" if start is None else (start + timedelta(hours=hour)).strftime("%Y-%m-%d %H:%M")
+
     return csv_text(
-        OBSERVATION_COLUMNS, ([getattr(o, c) for c in OBSERVATION_COLUMNS] for o in observations)
+        ("at", *OBSERVATION_COLUMNS),
+        ([at(o.hour), *(getattr(o, c) for c in OBSERVATION_COLUMNS)] for o in observations),
     )

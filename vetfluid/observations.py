@@ -13,9 +13,8 @@
     (0.5 mmol/L/h default; see ``safety_limits.csv``);
   - the deficit not closing as predicted: after 6 h, less than half the predicted
     weight gain (our rule of thumb, no source).
-* Ins and outs for oliguric or anuric patients (Côté E 2020, AKI algorithm):
-  the next period's fluid = insensible loss (20 mL/kg/day in dogs and cats) +
-  measured urine output + other measured losses over the last period.
+* Ins and outs for oliguric or anuric patients (``vetfluid/ins_and_outs.py``): the
+  urine and other losses recorded in each period, summed for the plan.
 """
 
 from __future__ import annotations
@@ -29,6 +28,7 @@ from vetfluid.errors import InputError
 from vetfluid.findings import Finding
 from vetfluid.formatting import format_quantity as q
 from vetfluid.hydration import overload_weight_kg
+from vetfluid.ins_and_outs import InsAndOutsRow, ins_and_outs
 from vetfluid.limits import limit
 from vetfluid.plan import Plan
 from vetfluid.species import SpeciesTable, load_table
@@ -99,7 +99,7 @@ class Observation:
 def predicted_weight_kg(plan: Plan, hour: float) -> float:
     """Entered weight + net fluid balance by ``hour`` (1 mL ≈ 1 g; Davis 2013)."""
     given = sum(p.volume_between(0.0, hour + 1e-9) for p in plan.phases)
-    consumed = (plan.maintenance.ml_per_h + plan.request.losses_ml_per_day / 24.0) * hour
+    consumed = plan.consumed_ml(hour)
     return plan.request.weight_kg + (given - consumed) / 1000.0
 
 
@@ -177,54 +177,6 @@ def alerts(
                     ))  # fmt: skip
             last_na = obs
     return found
-
-
-@dataclass(frozen=True, kw_only=True)
-class InsAndOutsRow:
-    period: int
-    start_h: float
-    end_h: float
-    urine_ml: float
-    other_losses_ml: float
-    insensible_ml: float
-    replace_ml: float
-    next_rate_ml_per_h: float
-
-
-def ins_and_outs(
-    *,
-    weight_kg: float,
-    insensible_ml_per_kg_day: float,
-    period_h: float,
-    measured: list[tuple[float, float]],
-) -> list[InsAndOutsRow]:
-    """Ins and outs (Côté 2020): each period's measured urine and other losses, plus the
-    insensible loss for the period, are given over the next period.
-
-    ``measured`` holds (urine mL, other losses mL) per period, oldest first.
-    """
-    require_number(weight_kg, "weight_kg", positive=True, unit="kg")
-    require_number(insensible_ml_per_kg_day, "insensible_ml_per_kg_day", low=0)
-    require_number(period_h, "period_h", low=1, high=24, unit="h")
-    rows = []
-    insensible = insensible_ml_per_kg_day * weight_kg * period_h / 24.0
-    for number, (urine, other) in enumerate(measured, start=1):
-        require_number(urine, "urine_ml", low=0, unit="mL")
-        require_number(other, "other_losses_ml", low=0, unit="mL")
-        total = insensible + urine + other
-        rows.append(
-            InsAndOutsRow(
-                period=number,
-                start_h=(number - 1) * period_h,
-                end_h=number * period_h,
-                urine_ml=urine,
-                other_losses_ml=other,
-                insensible_ml=insensible,
-                replace_ml=total,
-                next_rate_ml_per_h=total / period_h,
-            )
-        )
-    return rows
 
 
 def observed_series(observations: list[Observation], field: str) -> tuple[np.ndarray, np.ndarray]:

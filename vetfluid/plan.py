@@ -11,7 +11,9 @@ losses, then maintenance. Every species value used is carried in
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from datetime import time
+from datetime import date, time
+
+import numpy as np
 
 from vetfluid import (
     delivery,
@@ -27,6 +29,7 @@ from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.findings import Finding, worst
 from vetfluid.formatting import format_quantity
+from vetfluid.ins_and_outs import InsAndOutsRow, ins_and_outs
 from vetfluid.ledger import Ledger
 from vetfluid.limits import limit
 from vetfluid.schedule import Phase, ScheduleEntry
@@ -68,6 +71,7 @@ class PlanRequest:
     kcl_mmol_per_l: float | None = None
     dextrose_percent: float = 0.0
     start_time: time | None = None
+    start_date: date | None = None  # with start_time, puts the plan on the calendar
     cardiac_disease: bool = False
     renal_disease: bool = False
     anaesthesia: bool = False
@@ -76,6 +80,10 @@ class PlanRequest:
     syringe_size_ml: float = 60.0  # the syringe the pump takes
     pcv_percent: float | None = None  # recorded with the plan; followed over the course
     total_solids_g_per_dl: float | None = None
+    # Ins-and-outs mode (oliguric or anuric patients): fluid by periods of this many hours,
+    # each giving insensible loss + what was measured over the period before it.
+    ins_and_outs_period_h: float | None = None
+    measured_outputs: tuple[tuple[float, float], ...] = ()  # (urine mL, other mL) per period
 
     def __post_init__(self) -> None:
         _require(self.weight_kg, "weight_kg", 1e-4, 5000, "kg")
@@ -85,6 +93,19 @@ class PlanRequest:
         _require(self.losses_ml_per_day, "losses_ml_per_day", 0, 1e6, "mL/day")
         _require(self.dextrose_percent, "dextrose_percent", 0, 10, "%")
         _require(self.syringe_size_ml, "syringe_size_ml", 1, 100, "mL")
+        if self.ins_and_outs_period_h is not None:
+            _require(self.ins_and_outs_period_h, "ins_and_outs_period_h", 1, 24, "h")
+        elif self.measured_outputs:
+            raise InputError(
+                "measured outputs belong to an ins-and-outs plan",
+                field="measured_outputs", fix="give the ins-and-outs period too",
+            )  # fmt: skip
+        _check_measured(self.measured_outputs)
+        if self.start_date is not None and self.start_time is None:
+            raise InputError(
+                "a start date needs a start time", field="start_time", value=None,
+                fix="give the clock time of hour 0 too",
+            )  # fmt: skip
         if self.route is not None and self.route not in ROUTES:
             raise InputError(
                 f"unknown route {self.route!r}",
@@ -132,6 +153,32 @@ def _require(value: object, name: str, low: float, high: float, unit: str) -> No
     require_number(value, name, low=low, high=high, unit=unit)
 
 
+def consumed_ml(outflow: tuple[tuple[float, float], ...], end_h: float, hours):  # noqa: ANN001, ANN201
+    """Volume that has left the patient by each hour: piecewise constant rates
+    ``(from hour, mL/h)``. After the plan's last phase (``end_h``) the patient's own
+    intake is taken to match its losses, so nothing more is counted."""
+    t = np.minimum(np.asarray(hours, dtype=float), end_h)
+    starts = [start for start, _ in outflow]
+    ends = [*starts[1:], np.inf]
+    total = np.zeros_like(t)
+    for start, end, (_, rate) in zip(starts, ends, outflow, strict=True):
+        total = total + rate * np.clip(t - start, 0.0, end - start)
+    return total if total.ndim else float(total)
+
+
+def _check_measured(measured: object) -> None:
+    if not isinstance(measured, tuple) or not all(
+        isinstance(m, tuple) and len(m) == 2 for m in measured
+    ):
+        raise InputError(
+            "measured outputs must be (urine mL, other losses mL) per period",
+            field="measured_outputs", value=measured,
+        )  # fmt: skip
+    for urine, other in measured:
+        require_number(urine, "measured urine", low=0, high=1e6, unit="mL")
+        require_number(other, "measured other losses", low=0, high=1e6, unit="mL")
+
+
 @dataclass(frozen=True, kw_only=True)
 class Plan:
     """A checked, timed fluid plan; every number traceable to the request and the table."""
@@ -160,6 +207,19 @@ class Plan:
     bag: fluids.Fluid = field(repr=False)  # the fluid with its additives
     bolus_fluid: fluids.Fluid = field(repr=False)  # the plain fluid, for boluses
     citations: dict[str, str] = field(default_factory=dict, repr=False)  # source id → citation
+    # What leaves the patient: (from hour, mL/h), each rate until the next; maintenance and
+    # losses, or in ins-and-outs mode insensible loss + what was measured.
+    outflow: tuple[tuple[float, float], ...] = ((0.0, 0.0),)
+    ins_and_outs: tuple[InsAndOutsRow, ...] = ()  # the period table, in ins-and-outs mode
+
+    @property
+    def end_h(self) -> float:
+        return max(p.end_h for p in self.phases)
+
+    def consumed_ml(self, hours):  # noqa: ANN001, ANN201 — float or array in, same out
+        """Volume that has left the patient by each hour, as the plan assumes it
+        (:func:`consumed_ml`)."""
+        return consumed_ml(self.outflow, self.end_h, hours)
 
     @property
     def total_ml_first_24h(self) -> float:
@@ -334,20 +394,12 @@ def _resuscitation_phases(
     return phases, res
 
 
-def _fluid_phases(
-    ledger: Ledger,
-    *,
-    start_h: float,
-    deficit_ml: float,
-    replace_hours: float,
-    background_ml_per_h: float,
-    route: str,
-    device: str,
-    drop_factor: float | None,
-    kcl_mmol_per_l: float,
-    fluid_name: str,
-    syringe_size_ml: float,
-) -> list[Phase]:
+Segment = tuple[str, float, float, float]  # kind, start h, end h, mL/h
+
+
+def _standard_segments(
+    *, start_h: float, deficit_ml: float, replace_hours: float, background_ml_per_h: float
+) -> list[Segment]:
     """Replacement (deficit + maintenance + losses), then maintenance to hour 24 or later."""
     segments = []
     hour = start_h
@@ -360,6 +412,58 @@ def _fluid_phases(
     segments.append(
         ("maintenance", hour, max(24.0, hour + MAINTENANCE_TAIL_H), background_ml_per_h)
     )
+    return segments
+
+
+def _ins_and_outs_segments(
+    ledger: Ledger, request: PlanRequest, *, start_h: float, deficit_ml: float
+) -> tuple[list[Segment], tuple[InsAndOutsRow, ...], tuple[tuple[float, float], ...]]:
+    """Ins-and-outs periods from hour 0: each gives insensible loss + the urine and other
+    losses measured over the period before it (nothing measured before the first), plus
+    its share of the deficit over ``replace_hours``. The plan runs to the end of the
+    period after the last one measured; it is recalculated as each period is measured.
+    Returns the segments, the period table and the outflow (measured, then assumed)."""
+    period = float(request.ins_and_outs_period_h or 0.0)
+    insensible = ledger.value("insensible_loss_ml_per_kg_day")
+    per_day = insensible.number * request.weight_kg
+    rows = tuple(
+        ins_and_outs(
+            weight_kg=request.weight_kg, insensible_ml_per_kg_day=insensible.number,
+            period_h=period, measured=list(request.measured_outputs),
+        )
+    )  # fmt: skip
+    replace_end = start_h + request.replace_hours
+
+    def deficit_rate(a: float, b: float) -> float:
+        overlap = max(0.0, min(b, replace_end) - max(a, start_h))
+        return deficit_ml / request.replace_hours * overlap / (b - a) if deficit_ml > 0 else 0.0
+
+    segments: list[Segment] = []
+    for number in range(len(rows) + 1):
+        a, b = number * period, (number + 1) * period
+        if b <= start_h:
+            continue  # taken up by resuscitation boluses
+        needs = rows[number - 1].next_rate_ml_per_h if number else per_day / 24.0
+        segments.append(("ins and outs", max(a, start_h), b, needs + deficit_rate(a, b)))
+    # what leaves: the measured periods, then insensible loss + the last period measured
+    outflow = tuple((r.start_h, r.replace_ml / period) for r in rows) + (
+        (len(rows) * period, rows[-1].replace_ml / period if rows else per_day / 24.0),
+    )
+    return segments, rows, outflow
+
+
+def _fluid_phases(
+    ledger: Ledger,
+    segments: list[Segment],
+    *,
+    route: str,
+    device: str,
+    drop_factor: float | None,
+    kcl_mmol_per_l: float,
+    fluid_name: str,
+    syringe_size_ml: float,
+) -> list[Phase]:
+    """The segments as phases for the chosen delivery (continuous or divided boluses)."""
     if device == "divided":
         site_limit = ledger.value(SITE_LIMIT_PARAMETER[route])
         return [
@@ -468,9 +572,20 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
 
     bolus_phases, res = _resuscitation_phases(ledger, request, route=route, drop_factor=drop_factor)
     start_h = bolus_phases[-1].end_h if bolus_phases else 0.0
+    period_table: tuple[InsAndOutsRow, ...] = ()
+    outflow: tuple[tuple[float, float], ...] = ((0.0, background),)
+    if request.ins_and_outs_period_h is None:
+        segments = _standard_segments(
+            start_h=start_h, deficit_ml=deficit, replace_hours=request.replace_hours,
+            background_ml_per_h=background,
+        )  # fmt: skip
+    else:
+        segments, period_table, outflow = _ins_and_outs_segments(
+            ledger, request, start_h=start_h, deficit_ml=deficit
+        )
+        safety.note_ins_and_outs(ledger, measured_periods=len(period_table))
     fluid_phases = _fluid_phases(
-        ledger, start_h=start_h, deficit_ml=deficit, replace_hours=request.replace_hours,
-        background_ml_per_h=background, route=route, device=device, drop_factor=drop_factor,
+        ledger, segments, route=route, device=device, drop_factor=drop_factor,
         kcl_mmol_per_l=kcl, fluid_name=bag.name, syringe_size_ml=request.syringe_size_ml,
     )  # fmt: skip
     phases = (*bolus_phases, *fluid_phases)
@@ -478,9 +593,11 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     safety.check_rates_against_shock_dose(ledger, phases, w)
     safety.check_divided_sites(ledger, phases)
     safety.check_dose_spacing(ledger, phases)
+    end_h = max(ph.end_h for ph in phases)
     safety.check_predicted_gain(
-        ledger, phases, consumption_ml_per_h=background, weight_kg=w, deficit_ml=deficit
-    )
+        ledger, phases, consumed=lambda hour: consumed_ml(outflow, end_h, hour),
+        weight_kg=w, deficit_ml=deficit,
+    )  # fmt: skip
 
     potassium = _potassium(request, kcl=kcl, bag_k=bag_comp.k_mmol_per_l, phases=phases, main=main)
     if potassium is not None:
@@ -562,6 +679,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         bag=bag,
         bolus_fluid=base,
         citations=ledger.table.citations(ledger.values.values()),
+        outflow=outflow,
+        ins_and_outs=period_table,
     )
 
 

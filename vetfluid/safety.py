@@ -7,6 +7,8 @@ Messages name the value, the limit and what to do; codes are stable.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from vetfluid import fluids
 from vetfluid.delivery import DIVIDED_INTERVALS_H
 from vetfluid.electrolytes import PotassiumSummary, SodiumSummary
@@ -96,6 +98,24 @@ def check_fluid_for_route(
         )
 
 
+def note_ins_and_outs(ledger: Ledger, *, measured_periods: int) -> None:
+    """Ins and outs (Côté 2020): say what the next period's rate rests on."""
+    basis = (
+        "nothing is measured yet, so the first period gives insensible loss only"
+        if measured_periods == 0
+        else f"{measured_periods} period(s) measured; the last period planned gives "
+        "insensible loss + the urine and other losses measured over the period before it"
+    )
+    ledger.add(
+        "info",
+        "INS_AND_OUTS",
+        f"Ins-and-outs plan: {basis}.",
+        "Measure urine output (and other losses) over each period and record it; the plan "
+        "is recalculated from it. Weigh at least every 6–12 h.",
+        "cote2020",
+    )
+
+
 def check_colloid(ledger: Ledger, fluid: fluids.Fluid) -> None:
     """A colloid as the plan's fluid: it restores plasma volume, not an interstitial
     deficit. The risks of starches are recalled (fluid note), not checked — memory."""
@@ -181,15 +201,15 @@ def check_predicted_gain(
     ledger: Ledger,
     phases: tuple[Phase, ...],
     *,
-    consumption_ml_per_h: float,
+    consumed: Callable[[float], float],
     weight_kg: float,
     deficit_ml: float,
 ) -> None:
     """Predicted weight (1 mL ≈ 1 g) above the overload line (Pardo 2024: ≥ 10 % gain).
 
     The line is 10 % over the euhydrated weight (:func:`hydration.overload_weight_kg`).
-    Given minus consumed is piecewise linear, so its peaks lie at phase boundaries and
-    just after doses; those are the only points checked.
+    Given minus consumed (``consumed(hour)``, mL) is piecewise linear, with its peaks at
+    phase boundaries and just after doses; those are the only points checked.
     """
     gain = limit("overload_weight_gain_fraction")
     line = overload_weight_kg(weight_kg=weight_kg, deficit_ml=deficit_ml, gain_fraction=gain.value)
@@ -198,7 +218,7 @@ def check_predicted_gain(
     peak_ml, peak_h = 0.0, 0.0
     for hour in moments:
         given = sum(p.volume_between(0.0, hour + 1e-9) for p in phases)
-        net = given - consumption_ml_per_h * hour
+        net = given - consumed(hour)
         if net > peak_ml:
             peak_ml, peak_h = net, hour
     peak_kg = weight_kg + peak_ml / 1000.0

@@ -9,9 +9,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from datetime import datetime, time, timedelta
+from datetime import date, datetime, time, timedelta
 
 from vetfluid import delivery
+from vetfluid.errors import InputError
 from vetfluid.formatting import format_quantity
 
 
@@ -187,12 +188,21 @@ def clock_time(start: time | None, hour: float) -> str | None:
     return moment.strftime("%H:%M") + (f" (+{day} d)" if day else "")
 
 
-def hours_since_start(start: time, clock: time, *, day: int = 0) -> float:
-    """Hours from the plan's start to a clock time on day ``day`` (0 = the start day)."""
-    if day < 0:
-        raise ValueError("day must be 0 or later")
-    minutes = (clock.hour * 60 + clock.minute) - (start.hour * 60 + start.minute) + day * 24 * 60
-    return max(0.0, minutes / 60.0)
+def moment_at(start_date: date, start_time: time, hour: float) -> datetime:
+    """The calendar date and time of an hour of the plan."""
+    return datetime.combine(start_date, start_time) + timedelta(hours=hour)
+
+
+def hours_since(start_date: date, start_time: time, at: datetime) -> float:
+    """Hours from the plan's start to a date and time (an observation's); never before it."""
+    hours = (at - datetime.combine(start_date, start_time)).total_seconds() / 3600.0
+    if hours < 0:
+        start = datetime.combine(start_date, start_time).strftime("%Y-%m-%d %H:%M")
+        raise InputError(
+            f"{at:%Y-%m-%d %H:%M} is before the plan started ({start})",
+            field="hour", value=at, fix="give a date and time after the plan's start",
+        )  # fmt: skip
+    return hours
 
 
 def _ml(value: float | None) -> str:

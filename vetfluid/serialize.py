@@ -7,7 +7,7 @@ stable and documented in README.md.
 from __future__ import annotations
 
 from dataclasses import asdict, fields
-from datetime import datetime
+from datetime import date, datetime
 
 from vetfluid import fluids
 from vetfluid.cautions import CAUTIONS
@@ -201,10 +201,13 @@ REQUEST_VERSION = 1
 
 
 def request_to_dict(request: PlanRequest) -> dict[str, object]:
-    """A request as plain data (start time as ``HH:MM``), for saving and the CLI."""
+    """A request as plain data (start time ``HH:MM``, date ``YYYY-MM-DD``), for saving and
+    the CLI."""
     data = {f.name: getattr(request, f.name) for f in fields(PlanRequest)}
     data["dehydration_findings"] = list(request.dehydration_findings)
+    data["measured_outputs"] = [list(m) for m in request.measured_outputs]
     data["start_time"] = request.start_time.strftime("%H:%M") if request.start_time else None
+    data["start_date"] = request.start_date.isoformat() if request.start_date else None
     return data
 
 
@@ -228,6 +231,19 @@ def request_from_dict(data: dict[str, object]) -> PlanRequest:
             raise InputError("start time must be HH:MM", field="start_time", value=start) from None
     elif start is not None:
         raise InputError("start time must be HH:MM", field="start_time", value=start)
+    day = values.get("start_date")
+    if day is not None:
+        try:
+            values["start_date"] = date.fromisoformat(day) if isinstance(day, str) else None
+        except ValueError:
+            values["start_date"] = None
+        if values["start_date"] is None:
+            raise InputError("start date must be YYYY-MM-DD", field="start_date", value=day)
+    measured = values.get("measured_outputs")
+    if isinstance(measured, list | tuple):
+        values["measured_outputs"] = tuple(
+            tuple(m) if isinstance(m, list | tuple) else m for m in measured
+        )
     if "dehydration_findings" in values:
         findings = values["dehydration_findings"] or ()
         if not isinstance(findings, list | tuple) or not all(isinstance(f, str) for f in findings):

@@ -81,7 +81,7 @@ class Timeline:
     overload_weight_kg: float
     overload_gain_fraction: float
     deficit_ml: float
-    consumption_ml_per_h: float
+    consumed_ml: np.ndarray  # what has left the patient by each hour (Plan.consumed_ml)
     phase_spans: tuple[PhaseSpan, ...]
     start_time: time | None = None
 
@@ -130,8 +130,8 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
     divided boluses add each dose at its dose hour. Consumption runs at
     maintenance + ongoing losses (mL/day ÷ 24) from hour 0. Then, in mL:
 
-    * needed = deficit + consumption × t (Davis 2013; Pardo 2024),
-    * net balance = given − consumption × t,
+    * needed = deficit + consumed(t) (Davis 2013; Pardo 2024),
+    * net balance = given − consumed(t),
     * remaining deficit = max(deficit − net balance, 0),
     * weight (kg) = entered weight + net balance ÷ 1000 (1 mL ≈ 1 g, Davis 2013),
     * overload weight = entered weight × (1 + 10 %) (Pardo 2024).
@@ -165,8 +165,7 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
         cumulative = np.concatenate(([0.0], np.cumsum(dose_ml[order])))
         given = given + cumulative[np.searchsorted(dose_hours[order], hours, side="right")]
 
-    consumption = plan.maintenance.ml_per_h + plan.request.losses_ml_per_day / 24.0
-    consumed = consumption * hours
+    consumed = plan.consumed_ml(hours)
     net = given - consumed
     deficit = float(plan.deficit_ml)
     baseline = float(plan.request.weight_kg)
@@ -184,7 +183,7 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
         ),
         overload_gain_fraction=gain,
         deficit_ml=deficit,
-        consumption_ml_per_h=consumption,
+        consumed_ml=_frozen(consumed),
         phase_spans=tuple(
             PhaseSpan(kind=p.kind, mode=p.mode, start_h=p.start_h, end_h=p.end_h) for p in phases
         ),
