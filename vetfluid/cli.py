@@ -45,6 +45,26 @@ def _start_time(text: str) -> time:
         raise argparse.ArgumentTypeError(f"start time {text!r} must be HH:MM, e.g. 08:30") from None
 
 
+def _volumes(text: str) -> tuple[float, ...]:
+    try:
+        return tuple(float(part) for part in text.split(",") if part.strip())
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"{text!r} must be volumes in mL separated by commas, e.g. 60,45"
+        ) from None
+
+
+def _measured(
+    urine: tuple[float, ...], other: tuple[float, ...]
+) -> tuple[tuple[float, float], ...]:
+    if other and len(other) != len(urine):
+        raise InputError(
+            "give one other-losses volume per measured urine period",
+            field="measured_other_ml", value=other, fix="or leave --measured-other-ml out",
+        )  # fmt: skip
+    return tuple(zip(urine, other or (0.0,) * len(urine), strict=True))
+
+
 def _start_date(text: str) -> date:
     try:
         return date.fromisoformat(text)
@@ -94,6 +114,26 @@ def _add_plan_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument("--start", type=_start_time, help="clock time of hour 0, HH:MM")
     parser.add_argument("--start-date", type=_start_date, help="date of hour 0, YYYY-MM-DD")
+    parser.add_argument(
+        "--ins-and-outs-period",
+        type=float,
+        metavar="H",
+        help="plan by ins and outs in periods of H hours (oliguric patients)",
+    )
+    parser.add_argument(
+        "--measured-urine-ml",
+        type=_volumes,
+        default=(),
+        metavar="V1,V2,…",
+        help="urine measured over each ins-and-outs period so far, mL",
+    )
+    parser.add_argument(
+        "--measured-other-ml",
+        type=_volumes,
+        default=(),
+        metavar="V1,V2,…",
+        help="other measured losses (vomit, diarrhoea, drains) per period, mL",
+    )
     parser.add_argument("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
     parser.add_argument("--syringe-ml", type=float, default=60.0, help="syringe size, mL")
     parser.add_argument("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
@@ -270,6 +310,8 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         dextrose_percent=args.dextrose_percent,
         start_time=args.start,
         start_date=args.start_date,
+        ins_and_outs_period_h=args.ins_and_outs_period,
+        measured_outputs=_measured(args.measured_urine_ml, args.measured_other_ml),
         cardiac_disease=args.cardiac,
         renal_disease=args.renal,
         anaesthesia=args.anaesthesia,
@@ -327,6 +369,15 @@ def print_plan(data: dict) -> None:
     print("\nPhases")
     for p in data["phases"]:
         print(_phase_line(p))
+    if "ins_and_outs" in data:
+        io = data["ins_and_outs"]
+        print(f"\nIns and outs (every {io['period_h']:g} h; the next period replaces these)")
+        for r in io["periods"]:
+            print(f"  h {r['start_h']:g}–{r['end_h']:g}: urine {_q(r['urine_ml'], 'mL')}, other "
+                  f"{_q(r['other_losses_ml'], 'mL')}, insensible {_q(r['insensible_ml'], 'mL')} "
+                  f"→ {_q(r['next_rate_ml_per_h'], 'mL/h')} next")  # fmt: skip
+        if not io["periods"]:
+            print("  nothing measured yet")
     print("\nSchedule")
     for e in data["schedule"]:
         when = e["clock"] or f"h {e['hour']:g}"

@@ -634,7 +634,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     )
     safety.check_overload(
         ledger, cardiac=request.cardiac_disease, renal=request.renal_disease, weight_kg=w,
-        deficit_ml=deficit, replace_hours=request.replace_hours, background_ml_per_h=background,
+        deficit_ml=deficit, replace_hours=request.replace_hours,
+        background_ml_per_h=outflow[-1][1],  # maintenance and losses, or the measured outputs
     )  # fmt: skip
     if request.anaesthesia:
         safety.check_anaesthesia(ledger, main, w)

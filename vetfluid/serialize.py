@@ -129,6 +129,11 @@ def plan_dict(plan: Plan) -> dict[str, object]:
             "max_boluses": r.max_boluses,
             "reassess": r.reassess,
         }
+    if request.ins_and_outs_period_h is not None:
+        data["ins_and_outs"] = {
+            "period_h": request.ins_and_outs_period_h,
+            "periods": [asdict(row) for row in plan.ins_and_outs],
+        }
     if plan.potassium is not None:
         data["potassium"] = asdict(plan.potassium)
     if plan.sodium is not None:

@@ -1,0 +1,99 @@
+"""The ins-and-outs plan mode for oliguric and anuric patients, checked against the rule
+of Côté E (ed.) Clinical Veterinary Advisor 2020 (AKI algorithm): the next period's fluid
+= insensible loss (20 mL/kg/day) + the urine and other losses measured over the last."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+from vetfluid import cli
+from vetfluid.course import course
+from vetfluid.errors import InputError
+from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.serialize import plan_dict, request_from_dict, request_to_dict
+
+reference = pytest.mark.reference
+INSENSIBLE_ML_PER_H = 20 * 20 / 24  # Côté 2020: 20 mL/kg/day, a 20 kg dog
+
+
+def anuric_dog(measured=(), **changes):
+    return build_plan(PlanRequest(species_id="dog", weight_kg=20, renal_disease=True,
+                                  ins_and_outs_period_h=6, measured_outputs=measured,
+                                  **changes))  # fmt: skip
+
+
+@reference
+def test_before_anything_is_measured_the_first_period_gives_insensible_loss_only():
+    plan = anuric_dog()
+    assert [(p.kind, p.start_h, p.end_h) for p in plan.phases] == [("ins and outs", 0, 6)]
+    assert plan.phases[0].rate_ml_per_h == pytest.approx(INSENSIBLE_ML_PER_H)
+    assert "INS_AND_OUTS" in {f.code for f in plan.findings}
+
+
+@reference
+def test_each_period_replaces_what_was_measured_over_the_one_before():
+    plan = anuric_dog(measured=((60.0, 0.0), (30.0, 12.0)))
+    rates = [p.rate_ml_per_h for p in plan.phases]
+    # Côté 2020 by hand: (insensible for 6 h + urine + other) / 6 h
+    assert rates == pytest.approx([INSENSIBLE_ML_PER_H, (100 + 60) / 6, (100 + 30 + 12) / 6])
+    assert [r.replace_ml for r in plan.ins_and_outs] == pytest.approx([160, 142])
+
+
+def test_a_deficit_is_added_over_its_replacement_hours():
+    plan = anuric_dog(measured=((60.0, 0.0),), dehydration_percent=5, replace_hours=12)
+    deficit_rate = 1000 / 12  # 5 % of 20 kg over 12 h (Davis 2013: 1 kg ≈ 1 L)
+    rates = [p.rate_ml_per_h for p in plan.phases]
+    assert rates == pytest.approx(
+        [INSENSIBLE_ML_PER_H + deficit_rate, (100 + 60) / 6 + deficit_rate]
+    )
+
+
+def test_the_course_follows_the_measured_outputs():
+    # what leaves is what was measured (and, in the period planned, the last measured again);
+    # each period gives back the one before, so the patient runs one period behind
+    measured = ((60.0, 0.0), (30.0, 12.0))
+    plan = anuric_dog(measured=measured)
+    c = course(plan)
+    consumed = c.consumed_ml[[6 * 60, 12 * 60]]
+    assert consumed == pytest.approx([160, 160 + 142])
+    end = int(plan.end_h * 60)
+    given, left = 100 + 160 + 142, 160 + 142 + 142
+    assert c.weight_kg[end] == pytest.approx(20 + (given - left) / 1000, abs=1e-9)
+    assert np.all(np.isfinite(c.plasma_ml))
+
+
+def test_the_mode_round_trips_through_json_and_the_cli(capsys):
+    plan = anuric_dog(measured=((60.0, 0.0), (30.0, 12.0)))
+    request = json.loads(json.dumps(request_to_dict(plan.request)))
+    assert request_from_dict(request) == plan.request
+    assert cli.main(["plan", "--species", "dog", "--weight", "20 kg", "--renal",
+                     "--ins-and-outs-period", "6", "--measured-urine-ml", "60,30",
+                     "--measured-other-ml", "0,12", "--json"]) == 0  # fmt: skip
+    data = json.loads(capsys.readouterr().out)
+    assert data["ins_and_outs"] == plan_dict(plan)["ins_and_outs"]
+    assert [p["rate_ml_per_h"] for p in data["phases"]] == pytest.approx(
+        [p.rate_ml_per_h for p in plan.phases]
+    )
+
+
+@pytest.mark.parametrize(
+    "changes",
+    [
+        {"measured_outputs": ((10.0, 0.0),)},  # measured but no period
+        {"ins_and_outs_period_h": 0.5},
+        {"ins_and_outs_period_h": 6, "measured_outputs": ((-1.0, 0.0),)},
+        {"ins_and_outs_period_h": 6, "measured_outputs": ((1.0,),)},
+    ],
+)
+def test_bad_ins_and_outs_input_is_refused(changes):
+    with pytest.raises(InputError):
+        PlanRequest(species_id="dog", weight_kg=20, **changes)
+
+
+def test_a_species_without_an_insensible_loss_says_so():
+    with pytest.raises(InputError, match="insensible_loss"):
+        build_plan(PlanRequest(species_id="bearded_dragon", weight_kg=0.4,
+                               ins_and_outs_period_h=6))  # fmt: skip
