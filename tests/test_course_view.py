@@ -94,6 +94,33 @@ def test_ins_and_outs_table_follows_entered_urine(window):
     assert model.text(1, 2) == "0 mL"
 
 
+def test_planning_by_ins_and_outs_follows_each_measurement(qtbot, window):
+    # a user switches an oliguric patient's plan to ins and outs, then records urine
+    view = window.course_view
+    view.ins_outs_period.setValue(4)
+    view.ins_outs_mode.setChecked(True)
+    qtbot.waitUntil(lambda: window.session.plan.request.ins_and_outs_period_h == 4)
+    plan = window.session.plan
+    assert {p.kind for p in plan.phases} - {"resuscitation"} == {"ins and outs"}
+    record(view, 4, "urine_ml", 20, period=4)
+    qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((20.0, 0.0),))
+    plan = window.session.plan
+    insensible = 20 * 24 * 4 / 24  # Côté 2020: 20 mL/kg/day, 24 kg dog, 4 h
+    deficit = plan.deficit_ml / plan.request.replace_hours  # the demo's deficit, over 12 h
+    second = next(p for p in plan.phases if p.start_h == 4)
+    assert second.rate_ml_per_h == pytest.approx((insensible + 20) / 4 + deficit)
+    first = next(p for p in plan.phases if p.kind == "ins and outs")  # the vomiting, entered
+    assert first.rate_ml_per_h == pytest.approx((20 * 24 + 240) / 24 + deficit)
+    assert view.ins_outs_model.text(0, 2) == "20 mL"  # the plan's own period table
+    # the cli gives the same plan for the same request
+    from vetfluid.plan import build_plan
+
+    assert build_plan(plan.request).phases == plan.phases
+    view.ins_outs_mode.setChecked(False)
+    qtbot.waitUntil(lambda: window.session.plan.request.ins_and_outs_period_h is None)
+    assert window.session.plan.request.measured_outputs == ()
+
+
 def test_versions_table_compares_plans(qtbot, window):
     view = window.course_view
     record(view, 6, "weight_kg", 25.0)

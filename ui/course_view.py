@@ -13,6 +13,7 @@ import pyqtgraph as pg
 from PySide6.QtCore import QDate, QDateTime, QEvent, QSignalBlocker, Qt, QTime
 from PySide6.QtWidgets import (
     QAbstractItemView,
+    QCheckBox,
     QComboBox,
     QDateTimeEdit,
     QDoubleSpinBox,
@@ -230,7 +231,15 @@ class CourseView(QWidget):
 
     def _ins_outs_controls(self) -> QHBoxLayout:
         row = QHBoxLayout()
-        row.addWidget(QLabel("Replace measured urine and other losses plus insensible loss every"))
+        self.ins_outs_mode = QCheckBox("Plan &by ins and outs:")
+        self.ins_outs_mode.setAccessibleName("Plan by ins and outs")
+        self.ins_outs_mode.setToolTip(
+            "For oliguric or anuric patients: the plan gives, each period, insensible loss + "
+            "the urine and other losses recorded over the period before (Côté 2020)"
+        )
+        self.ins_outs_mode.toggled.connect(self._ins_outs_mode_changed)
+        row.addWidget(self.ins_outs_mode)
+        row.addWidget(QLabel("replace measured urine and other losses plus insensible loss every"))
         self.ins_outs_period = QSpinBox()
         self.ins_outs_period.setRange(1, 24)
         self.ins_outs_period.setValue(6)
@@ -239,10 +248,19 @@ class CourseView(QWidget):
         self.ins_outs_period.setToolTip(
             "Côté 2020: replace over the next 4–6 h (interval recalled)"
         )
-        self.ins_outs_period.valueChanged.connect(lambda _: self.refresh(self.session.plan))
+        self.ins_outs_period.valueChanged.connect(self._ins_outs_period_changed)
         row.addWidget(self.ins_outs_period)
         row.addStretch(1)
         return row
+
+    def _ins_outs_mode_changed(self, on: bool) -> None:
+        self.session.set_ins_and_outs(float(self.ins_outs_period.value()) if on else None)
+
+    def _ins_outs_period_changed(self, _: int) -> None:
+        if self.ins_outs_mode.isChecked():
+            self._ins_outs_mode_changed(True)
+        else:
+            self.refresh(self.session.plan)
 
     def _start(self) -> tuple[date, time] | None:
         plan = self.session.plan
@@ -336,6 +354,11 @@ class CourseView(QWidget):
             self.na_curve.setData(h, result.serum_na)
         else:
             self.na_curve.setData([], [])
+        title = "Serum sodium" + (
+            "" if result.serum_na is not None else " — enter a serum Na to predict it"
+        )
+        if self.na_plot.titleLabel.text != title:  # setting a title relays out the plot
+            self.na_plot.setTitle(title)
         self.na_points.setData(*observed_series(observations, "serum_na"))
         self.weight_curve.setData(h, result.weight_kg)
         self.weight_points.setData(*observed_series(observations, "weight_kg"))
@@ -354,6 +377,14 @@ class CourseView(QWidget):
         self._show_versions(plan)
 
     def _show_ins_and_outs(self, plan, observations, horizon: float) -> None:  # noqa: ANN001
+        period = plan.request.ins_and_outs_period_h
+        with QSignalBlocker(self.ins_outs_mode), QSignalBlocker(self.ins_outs_period):
+            self.ins_outs_mode.setChecked(period is not None)
+            if period is not None:
+                self.ins_outs_period.setValue(int(round(period)))
+        if period is not None:  # the plan's own periods: what it gives rests on these
+            self._ins_outs_rows(plan.ins_and_outs)
+            return
         insensible = self.session.table.get(
             plan.request.species_id, "insensible_loss_ml_per_kg_day"
         )
@@ -368,6 +399,15 @@ class CourseView(QWidget):
             insensible_ml_per_kg_day=insensible.number,
             period_h=float(self.ins_outs_period.value()), until_h=max(horizon, 1.0),
         )  # fmt: skip
+        self._ins_outs_rows(table)
+
+    def _ins_outs_rows(self, table) -> None:  # noqa: ANN001 — InsAndOutsRow sequence
+        if not table:
+            self.ins_outs_model.set_rows(
+                [[Cell("—"), Cell("nothing measured yet: the first period gives insensible loss")]
+                 + [Cell("")] * 5]
+            )  # fmt: skip
+            return
         self.ins_outs_model.set_rows(
             [
                 [Cell(str(r.period)), Cell(f"{r.start_h:g}–{r.end_h:g}"), Cell(q(r.urine_ml, "mL")),

@@ -356,9 +356,16 @@ class PlanSummary(QWidget):
             self.schedule_model.set_rows([])
             return
         m = plan.maintenance
-        self.values["maintenance"].setText(
+        maintenance = (
             f"{q(m.ml_per_day, 'mL/day')} ({q(m.ml_per_h, 'mL/h')}) — {m.method}: {m.formula}"
         )
+        period = plan.request.ins_and_outs_period_h
+        if period is not None:
+            maintenance += (
+                f"; not given — ins and outs every {period:g} h instead (insensible loss + "
+                "measured urine and other losses; Course tab)"
+            )
+        self.values["maintenance"].setText(maintenance)
         deficit = f"{plan.dehydration_percent:g} % → {q(plan.deficit_ml, 'mL')}"
         if plan.free_water_deficit_ml is not None:
             deficit += f"; free-water deficit {q(plan.free_water_deficit_ml, 'mL')}"

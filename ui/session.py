@@ -166,11 +166,26 @@ class PlanSession(QObject):
     def add_observation(self, observation) -> None:  # noqa: ANN001 — Observation
         self.observations.append(observation)
         self.observations.sort(key=lambda o: o.hour)
-        self.observationsChanged.emit()
+        self._observed()
 
     def remove_observation(self, index: int) -> None:
         del self.observations[index]
+        self._observed()
+
+    def set_ins_and_outs(self, period_h: float | None) -> None:
+        """Plan by ins and outs every ``period_h`` hours from what was measured, or stop."""
+        from vetfluid.observations import measured_outputs
+
+        measured = (
+            () if period_h is None else measured_outputs(self.observations, period_h=period_h)
+        )
+        self.update(ins_and_outs_period_h=period_h, measured_outputs=measured)
+
+    def _observed(self) -> None:
         self.observationsChanged.emit()
+        period = self._inputs.get("ins_and_outs_period_h")
+        if period is not None:  # an ins-and-outs plan follows each measurement
+            self.set_ins_and_outs(period)
 
     def replan(self) -> None:
         """Start a new plan version from the patient's current state; keep the earlier one."""

@@ -215,8 +215,37 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
         dehydration_percent=min(remaining_percent, 20.0),
         dehydration_findings=(),
         resuscitation_boluses=0,
+        measured_outputs=(),  # the new version's periods start at its own hour 0
         **latest,
     )
+
+
+def measured_outputs(
+    observations: list[Observation] | tuple[Observation, ...],
+    *,
+    period_h: float,
+    until_h: float | None = None,
+) -> tuple[tuple[float, float], ...]:
+    """(urine mL, other losses mL) per period of ``period_h`` from hour 0, counting each
+    measurement in the period in which it was recorded (hour in (start, end]; hour 0 in
+    the first), up to the period holding the latest measurement or ``until_h``."""
+    require_number(period_h, "period_h", low=1, high=24, unit="h")
+    hours = [o.hour for o in observations if o.urine_ml is not None or o.other_losses_ml]
+    last = max([*hours, until_h or 0.0])
+    if last <= 0 and until_h is None:
+        return ()
+    periods = max(1, int(np.ceil(last / period_h - 1e-9)))
+    measured = []
+    for number in range(periods):
+        start, end = number * period_h, (number + 1) * period_h
+        inside = [o for o in observations if start < o.hour <= end or (number == 0 and o.hour == 0)]
+        measured.append(
+            (
+                float(sum(o.urine_ml or 0.0 for o in inside)),
+                float(sum(o.other_losses_ml or 0.0 for o in inside)),
+            )
+        )
+    return tuple(measured)
 
 
 def ins_and_outs_from_observations(
@@ -227,21 +256,11 @@ def ins_and_outs_from_observations(
     period_h: float,
     until_h: float,
 ) -> list[InsAndOutsRow]:
-    """The ins-and-outs table from what was recorded: urine and other losses are counted in
-    the period in which their measurement was recorded (hour in (start, end])."""
+    """The ins-and-outs table from what was recorded, over the periods up to ``until_h``."""
     require_number(until_h, "until_h", low=0, high=14 * 24, unit="h")
-    require_number(period_h, "period_h", low=1, high=24, unit="h")
-    periods = max(1, int(np.ceil(until_h / period_h - 1e-9)))
-    measured = []
-    for number in range(periods):
-        start, end = number * period_h, (number + 1) * period_h
-        inside = [o for o in observations if start < o.hour <= end or (number == 0 and o.hour == 0)]
-        measured.append(
-            (sum(o.urine_ml or 0.0 for o in inside), sum(o.other_losses_ml or 0.0 for o in inside))
-        )
     return ins_and_outs(
         weight_kg=weight_kg,
         insensible_ml_per_kg_day=insensible_ml_per_kg_day,
         period_h=period_h,
-        measured=measured,
+        measured=list(measured_outputs(observations, period_h=period_h, until_h=until_h)),
     )

@@ -419,7 +419,7 @@ def _ins_and_outs_segments(
     ledger: Ledger, request: PlanRequest, *, start_h: float, deficit_ml: float
 ) -> tuple[list[Segment], tuple[InsAndOutsRow, ...], tuple[tuple[float, float], ...]]:
     """Ins-and-outs periods from hour 0: each gives insensible loss + the urine and other
-    losses measured over the period before it (nothing measured before the first), plus
+    losses measured over the period before it (before the first: the losses entered), plus
     its share of the deficit over ``replace_hours``. The plan runs to the end of the
     period after the last one measured; it is recalculated as each period is measured.
     Returns the segments, the period table and the outflow (measured, then assumed)."""
@@ -433,6 +433,9 @@ def _ins_and_outs_segments(
         )
     )  # fmt: skip
     replace_end = start_h + request.replace_hours
+    # nothing measured before the first period: insensible loss + the losses entered, and no
+    # urine (the safe guess for an oliguric patient)
+    first_guess = (per_day + request.losses_ml_per_day) / 24.0
 
     def deficit_rate(a: float, b: float) -> float:
         overlap = max(0.0, min(b, replace_end) - max(a, start_h))
@@ -443,11 +446,11 @@ def _ins_and_outs_segments(
         a, b = number * period, (number + 1) * period
         if b <= start_h:
             continue  # taken up by resuscitation boluses
-        needs = rows[number - 1].next_rate_ml_per_h if number else per_day / 24.0
+        needs = rows[number - 1].next_rate_ml_per_h if number else first_guess
         segments.append(("ins and outs", max(a, start_h), b, needs + deficit_rate(a, b)))
     # what leaves: the measured periods, then insensible loss + the last period measured
     outflow = tuple((r.start_h, r.replace_ml / period) for r in rows) + (
-        (len(rows) * period, rows[-1].replace_ml / period if rows else per_day / 24.0),
+        (len(rows) * period, rows[-1].replace_ml / period if rows else first_guess),
     )
     return segments, rows, outflow
 

@@ -101,7 +101,8 @@ def check_fluid_for_route(
 def note_ins_and_outs(ledger: Ledger, *, measured_periods: int) -> None:
     """Ins and outs (Côté 2020): say what the next period's rate rests on."""
     basis = (
-        "nothing is measured yet, so the first period gives insensible loss only"
+        "nothing is measured yet, so the first period gives insensible loss and the ongoing "
+        "losses entered, and no urine"
         if measured_periods == 0
         else f"{measured_periods} period(s) measured; the last period planned gives "
         "insensible loss + the urine and other losses measured over the period before it"
