@@ -186,3 +186,23 @@ def test_renal_elimination_is_left_out_where_it_cannot_be_trusted(request_change
         bolus_input(fluid_id="nacl_0_9", ml_per_kg=20, weight_kg=weight, minutes=15),))  # fmt: skip
     assert c.elimination_left_out == reason
     assert (c.eliminated_ml[-1] > 0) == (reason is None)
+
+
+def test_volume_given_is_kept_by_fluid_and_adds_up(dog):
+    extra = bolus_input(fluid_id="hes_130_0_4_6", ml_per_kg=5, weight_kg=20, minutes=15)
+    c = course(dog, horizon_h=2, extra_boluses=(extra,))
+    by_fluid = c.given_by_fluid_ml
+    assert set(by_fluid) == {dog.bag.name, fluid("hes_130_0_4_6").name}
+    assert by_fluid[fluid("hes_130_0_4_6").name][-1] == pytest.approx(100)
+    assert np.allclose(sum(by_fluid.values()), c.given_ml)
+
+
+def test_the_sodium_band_is_the_correction_limit_from_the_start():
+    # 0.5 mmol/L/h by default (safety_limits.csv); editable with the plan
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=160,
+                                  max_na_change_per_h=0.4))  # fmt: skip
+    c = course(plan, horizon_h=10)
+    low, high = c.na_band()
+    assert high[-1] == pytest.approx(164) and low[-1] == pytest.approx(156)
+    assert np.all((c.serum_na >= low - 1e-9) & (c.serum_na <= high + 1e-9))  # LRS at this rate
+    assert course(build_plan(PlanRequest(species_id="dog", weight_kg=20))).na_band() is None

@@ -155,6 +155,10 @@ class CourseView(QWidget):
         self.na_points = self.na_plot.plot(
             name="Measured Na", pen=None, symbol="o", symbolBrush=NA, symbolSize=9
         )
+        # the correction limit: where Na may be without changing faster than allowed
+        band_pen = _pen(NA, width=1.2, style=Qt.PenStyle.DashLine)
+        self.na_band_low = self.na_plot.plot(name="Correction limit", pen=band_pen)
+        self.na_band_high = self.na_plot.plot(pen=band_pen)
         self.weight_curve = self.weight_plot.plot(
             name="Predicted weight", pen=_pen(WEIGHT, width=2.5)
         )
@@ -336,6 +340,8 @@ class CourseView(QWidget):
                 self.cells_curve,
                 self.na_curve,
                 self.na_points,
+                self.na_band_low,
+                self.na_band_high,
                 self.weight_curve,
                 self.weight_points,
             ):
@@ -350,12 +356,18 @@ class CourseView(QWidget):
         self.plasma_curve.setData(h, change["plasma"])
         self.interstitial_curve.setData(h, change["interstitial"])
         self.cells_curve.setData(h, change["intracellular"])
-        if result.serum_na is not None:
+        band = result.na_band()
+        if result.serum_na is not None and band is not None:
             self.na_curve.setData(h, result.serum_na)
+            self.na_band_low.setData(h, band[0])
+            self.na_band_high.setData(h, band[1])
         else:
-            self.na_curve.setData([], [])
+            for curve in (self.na_curve, self.na_band_low, self.na_band_high):
+                curve.setData([], [])
         title = "Serum sodium" + (
-            "" if result.serum_na is not None else " — enter a serum Na to predict it"
+            f" (dashed: ±{result.na_max_change_per_h:g} mmol/L per hour from the start)"
+            if result.serum_na is not None
+            else " — enter a serum Na to predict it"
         )
         if self.na_plot.titleLabel.text != title:  # setting a title relays out the plot
             self.na_plot.setTitle(title)

@@ -41,6 +41,7 @@ import numpy as np
 from vetfluid import fluids
 from vetfluid.checks import require_number
 from vetfluid.errors import InputError
+from vetfluid.limits import limit
 from vetfluid.plan import Plan
 from vetfluid.safety import LINE_ROUTES
 from vetfluid.schedule import Phase
@@ -55,6 +56,7 @@ class Course:
 
     hours: np.ndarray
     given_ml: np.ndarray
+    given_by_fluid_ml: dict[str, np.ndarray]  # fluid name → volume given of it
     consumed_ml: np.ndarray
     eliminated_ml: np.ndarray  # excreted by the kidneys above the plan's losses
     plasma_ml: np.ndarray
@@ -62,10 +64,19 @@ class Course:
     intracellular_ml: np.ndarray
     osmolality_mosm_per_kg: np.ndarray
     serum_na: np.ndarray | None
+    na_max_change_per_h: float  # the correction limit the band is drawn with
     weight_kg: np.ndarray
     remaining_deficit_ml: np.ndarray
     provenance: tuple[SpeciesValue, ...]
     elimination_left_out: str | None  # why renal elimination is not modelled, or None
+
+    def na_band(self) -> tuple[np.ndarray, np.ndarray] | None:
+        """Where serum Na may be by each hour without changing faster than the limit:
+        starting Na ∓ limit × hours (Adrogué & Madias 2000; limit in safety_limits.csv)."""
+        if self.serum_na is None:
+            return None
+        reach = self.na_max_change_per_h * self.hours
+        return self.serum_na[0] - reach, self.serum_na[0] + reach
 
     def change_from_start(self) -> dict[str, np.ndarray]:
         """Each compartment's gain (mL) since hour 0, for plotting what the fluids did."""
@@ -87,6 +98,7 @@ class Course:
             "weight_kg": float(self.weight_kg[i]),
             "remaining_deficit_ml": float(self.remaining_deficit_ml[i]),
             "given_ml": float(self.given_ml[i]),
+            "given_by_fluid_ml": {name: float(v[i]) for name, v in self.given_by_fluid_ml.items()},
             "eliminated_ml": float(self.eliminated_ml[i]),
             "serum_na": None if self.serum_na is None else float(self.serum_na[i]),
         }
@@ -103,11 +115,13 @@ class _Input:
     na_k_mmol_per_l: float
     into_plasma: bool
     colloid_half_life_h: float | None = None  # a colloid holds its volume in the plasma
+    fluid_name: str = ""
 
 
 def _fluid_terms(fluid: fluids.Fluid, *, into_plasma: bool) -> dict:
     comp = fluids.composition(fluid)
     return {
+        "fluid_name": fluid.name,
         "effective_mosm_per_l": comp.effective_osmolarity_mosm_per_l,
         "na_k_mmol_per_l": comp.na_mmol_per_l + comp.k_mmol_per_l,
         "into_plasma": into_plasma,
@@ -283,11 +297,13 @@ def course(
     hours = np.arange(0.0, horizon + 1e-9, step_minutes / 60.0)
     inputs = _inputs(plan, list(extra_boluses))
     given = np.zeros_like(hours)
+    by_fluid: dict[str, np.ndarray] = {}
     osmoles_in = np.zeros_like(hours)  # effective mOsm added to the ECF
     na_k_in = np.zeros_like(hours)  # mmol of Na + K added
     for item in inputs:
         delivered = _cumulative(hours, item)
         given += delivered
+        by_fluid[item.fluid_name] = by_fluid.get(item.fluid_name, 0.0) + delivered
         osmoles_in += delivered * item.effective_mosm_per_l / 1000.0
         na_k_in += delivered * item.na_k_mmol_per_l / 1000.0
     # maintenance and losses (or measured outputs), none after the plan's last phase:
@@ -331,6 +347,7 @@ def course(
     return Course(
         hours=hours,
         given_ml=given,
+        given_by_fluid_ml=by_fluid,
         consumed_ml=consumed,
         eliminated_ml=eliminated,
         plasma_ml=plasma,
@@ -338,6 +355,8 @@ def course(
         intracellular_ml=icf,
         osmolality_mosm_per_kg=osmolality,
         serum_na=serum_na,
+        na_max_change_per_h=plan.request.max_na_change_per_h
+        or limit("sodium_max_correction_mmol_per_l_h").value,
         weight_kg=w + net / 1000.0,
         remaining_deficit_ml=np.maximum(plan.deficit_ml - net, 0.0),
         provenance=provenance,
