@@ -206,3 +206,25 @@ def test_the_sodium_band_is_the_correction_limit_from_the_start():
     assert high[-1] == pytest.approx(164) and low[-1] == pytest.approx(156)
     assert np.all((c.serum_na >= low - 1e-9) & (c.serum_na <= high + 1e-9))  # LRS at this rate
     assert course(build_plan(PlanRequest(species_id="dog", weight_kg=20))).na_band() is None
+
+
+def test_a_bolus_then_replacement_fades_in_the_plasma_while_the_weight_climbs():
+    # The "done when": a dehydrated dog given a resuscitation bolus and then its
+    # replacement. The bolus shows as a plasma peak that fades as it distributes
+    # (Hahn 2020), and the weight climbs to the euhydrated weight (Davis 2013: 1 L ≈ 1 kg).
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7,
+                                  replace_hours=12, resuscitation_boluses=1))  # fmt: skip
+    c = course(plan)
+    bolus_end = int(plan.phases[0].end_h * 60)
+    change = c.change_from_start()["plasma"]
+    after = change[bolus_end : bolus_end + 31]
+    assert after.argmax() == 0 and after[-1] < 0.8 * after[0]  # a peak that fades in 30 min
+    replaced = int(plan.main_phase.end_h * 60)
+    # euhydrated, plus the bolus: the plan does not subtract it from the deficit (it says so,
+    # BOLUS_NOT_SUBTRACTED, and asks for reassessment)
+    bolus_l = plan.phases[0].volume_ml / 1000
+    euhydrated = 20 + plan.deficit_ml / 1000
+    assert euhydrated <= c.weight_kg[replaced] <= euhydrated + bolus_l
+    assert np.all(np.diff(c.weight_kg[bolus_end:replaced]) >= -1e-9)  # climbing, not falling
+    # the kidneys excrete only what goes past euhydration, never the deficit being replaced
+    assert 0 <= c.eliminated_ml[replaced] <= plan.phases[0].volume_ml

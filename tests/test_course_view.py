@@ -152,3 +152,17 @@ def test_date_and_time_set_the_hour_and_back(window):
     assert view.at.dateTime() == QDateTime(day.addDays(2), QTime(8, 0))
     record(view, 30, "weight_kg", 24.5)
     assert view.observations_model.text(0, 0) == f"{DEMO_DAY.replace(day=2)} 14:00 (h 30)"
+
+
+def test_the_oliguria_threshold_is_editable(window):
+    # Foster 2018: < 1 mL/kg/h in dogs; some use 0.5. 24 kg dog, 60 mL over 4 h = 0.625
+    view = window.course_view
+    record(view, 4, "urine_ml", 60, period=4)
+
+    def alert_codes():
+        model = view.alerts_model
+        return " ".join(model.text(r, 1) for r in range(model.rowCount()))
+
+    assert "Urine output" in alert_codes()
+    view.oliguria.setValue(0.5)
+    assert "Urine output" not in alert_codes()

@@ -190,6 +190,8 @@ class CourseView(QWidget):
             page_layout.setContentsMargins(0, 0, 0, 0)
             if model is self.ins_outs_model:
                 page_layout.addLayout(self._ins_outs_controls())
+            if model is self.alerts_model:
+                page_layout.addLayout(self._alert_controls())
             view = QTableView()
             view.setModel(model)
             view.setAccessibleName(name.replace("&", ""))
@@ -232,6 +234,28 @@ class CourseView(QWidget):
         if event.type() == QEvent.Type.PaletteChange:
             apply_palette(self.palette(), self.graphics, self.plots)
         super().changeEvent(event)
+
+    def _alert_controls(self) -> QHBoxLayout:
+        row = QHBoxLayout()
+        label = QLabel("&Oliguria below")
+        self.oliguria = QDoubleSpinBox()
+        self.oliguria.setRange(0.0, 5.0)
+        self.oliguria.setSingleStep(0.25)
+        self.oliguria.setDecimals(2)
+        self.oliguria.setSuffix(" mL/kg/h")
+        self.oliguria.setSpecialValueText("the species' normal low end")
+        self.oliguria.setAccessibleName("Oliguria threshold")
+        self.oliguria.setToolTip(
+            "Urine output below this raises an alert. Default: the low end of the species' "
+            "normal urine output (dogs and cats 1 mL/kg/h; Foster JD 2018); 0.5 or 0.25 "
+            "mL/kg/h are also used"
+        )
+        self.oliguria.valueChanged.connect(lambda _: self.refresh(self.session.plan))
+        label.setBuddy(self.oliguria)
+        row.addWidget(label)
+        row.addWidget(self.oliguria)
+        row.addStretch(1)
+        return row
 
     def _ins_outs_controls(self) -> QHBoxLayout:
         row = QHBoxLayout()
@@ -375,7 +399,10 @@ class CourseView(QWidget):
         self.weight_curve.setData(h, result.weight_kg)
         self.weight_points.setData(*observed_series(observations, "weight_kg"))
         rows = []
-        for finding in alerts(plan, observations, table=self.session.table):
+        threshold = self.oliguria.value() or None  # 0 shows as the species' default
+        for finding in alerts(
+            plan, observations, oliguria_ml_per_kg_h=threshold, table=self.session.table
+        ):
             rows.append(
                 [
                     Cell(SEVERITY_WORDS[finding.severity], finding.code,
