@@ -228,3 +228,15 @@ def test_a_bolus_then_replacement_fades_in_the_plasma_while_the_weight_climbs():
     assert np.all(np.diff(c.weight_kg[bolus_end:replaced]) >= -1e-9)  # climbing, not falling
     # the kidneys excrete only what goes past euhydration, never the deficit being replaced
     assert 0 <= c.eliminated_ml[replaced] <= plan.phases[0].volume_ml
+
+
+def test_the_closed_form_tail_of_elimination_equals_stepping_it():
+    from vetfluid.course import _renal_elimination
+
+    rng = np.random.default_rng(7)
+    excess = np.concatenate([np.cumsum(rng.uniform(-2, 5, 300)), np.full(700, 150.0)])
+    stepped = _renal_elimination(excess, k_e_per_step=0.006, k_per_step=0.087,
+                                 steady_from=len(excess))  # fmt: skip
+    closed = _renal_elimination(excess, k_e_per_step=0.006, k_per_step=0.087, steady_from=300)
+    for a, b in zip(stepped, closed, strict=True):
+        np.testing.assert_allclose(a, b, rtol=1e-9, atol=1e-9)

@@ -158,12 +158,15 @@ def bolus_input(
     )
 
 
-def _cumulative(hours: np.ndarray, item: _Input) -> np.ndarray:
-    """Volume of one input delivered by each grid time (a ramp, or a step for a dose)."""
-    if item.end_h <= item.start_h:
-        return np.where(hours >= item.start_h - 1e-9, item.ml, 0.0)
-    fraction = np.clip((hours - item.start_h) / (item.end_h - item.start_h), 0.0, 1.0)
-    return item.ml * fraction
+def _add_cumulative(total: np.ndarray, hours: np.ndarray, item: _Input, scale: float) -> None:
+    """Add ``scale`` × the volume of one input delivered by each grid time (a ramp, or a
+    step for a dose) to ``total``, touching the ramp only where it changes."""
+    first = int(np.searchsorted(hours, item.start_h - 1e-9))
+    last = int(np.searchsorted(hours, item.end_h - 1e-9))
+    if last > first:
+        span = item.end_h - item.start_h
+        total[first:last] += scale * item.ml * (hours[first:last] - item.start_h) / span
+    total[max(first, last) :] += scale * item.ml
 
 
 def _response_terms(item: _Input, share: float, k: float) -> list[tuple[float, float]]:
@@ -184,60 +187,83 @@ def _response_terms(item: _Input, share: float, k: float) -> list[tuple[float, f
     return [((1.0 - share) * k / (k - kc), kc), (-(1.0 - share) * kc / (k - kc), k)]
 
 
+NEGLIGIBLE_DECAY = 40.0  # e^(−40) ≈ 4e−18: past this many time constants a term is zero
+
+
 def _excess_plasma(hours: np.ndarray, inputs: list[_Input], share: float, k_per_h: float):
     """X(t) = plasma − share × ECF: fed by what enters plasma (or interstitium), decaying.
 
     Each input is solved in closed form and the solutions are added (the equations are
     linear): for a term c·e^(−λt), a constant inflow u over [a, b] gives
     c·(u/λ)(1 − e^(−λ(t−a))) during it and decays after it; a dose gives a decaying step.
+    Each term is evaluated only from its start until it has decayed to nothing, so the
+    cost follows the plan, not the horizon.
     """
     excess = np.zeros_like(hours)
     for item in inputs:
-        t = hours - item.start_h
-        after = t >= -1e-9
         span = item.end_h - item.start_h
+        first = int(np.searchsorted(hours, item.start_h - 1e-9))
         for c, rate in _response_terms(item, share, k_per_h):
+            last = int(np.searchsorted(hours, item.end_h + NEGLIGIBLE_DECAY / rate))
+            t = hours[first:last] - item.start_h
             if span <= 0:
-                excess += np.where(after, c * item.ml * np.exp(-rate * np.clip(t, 0, None)), 0.0)
+                excess[first:last] += c * item.ml * np.exp(-rate * t)
                 continue
             u = c * item.ml / span
-            level = (u / rate) * (1.0 - np.exp(-rate * np.clip(t, 0.0, span)))
-            decay = np.exp(-rate * np.clip(t - span, 0.0, None))
-            excess += np.where(after, level * decay, 0.0)
+            level = (u / rate) * -np.expm1(-rate * np.minimum(t, span))
+            excess[first:last] += level * np.exp(-rate * np.maximum(t - span, 0.0))
     return excess
 
 
 def _renal_elimination(
-    ecf_excess: np.ndarray, *, k_e_per_step: float, k_per_step: float
+    ecf_excess: np.ndarray, *, k_e_per_step: float, k_per_step: float, steady_from: int
 ) -> tuple[np.ndarray, np.ndarray]:
     """Cumulative volume the kidneys remove, E, and its undistributed part in the plasma, F.
 
     e = k_e · max(ECF − ECF_ref, 0), taken from the plasma; F follows e and decays at the
     distribution rate k (the interstitium refills the plasma). Stepped exactly for the
-    first-order removal over each step; the loop runs only over the span where the ECF is
-    above its reference, since elimination can only lower it.
+    first-order removal over each step, over the span where the ECF is above its
+    reference (elimination can only lower it). From ``steady_from`` on nothing goes in or
+    out, so the surplus S decays geometrically and the steps have a closed form:
+    E_n = E_0 + S_0(1 − r^n), F_n = F_0·q^n + S_0·take·(q^n − r^n)/(q − r), with
+    r = 1 − take and q the distribution decay per step.
     """
-    eliminated = np.zeros_like(ecf_excess)
-    in_plasma = np.zeros_like(ecf_excess)
+    size = len(ecf_excess)
+    eliminated = np.zeros(size)
+    in_plasma = np.zeros(size)
     above = np.flatnonzero(ecf_excess > 0)
     if above.size == 0:
         return eliminated, in_plasma
-    first, last = int(above[0]), int(above[-1])
-    take = -math.expm1(-k_e_per_step)  # the fraction of the excess removed in one step
+    first = int(above[0])
+    stop = max(first, min(int(above[-1]) + 1, steady_from))
+    take = -math.expm1(-k_e_per_step)  # the fraction of the surplus removed in one step
     keep = math.exp(-k_per_step)
     total = removed = 0.0
     totals, undistributed = [], []
-    for excess in ecf_excess[first : last + 1].tolist():
+    for excess in ecf_excess[first:stop].tolist():
         surplus = excess - total
         step = surplus * take if surplus > 0 else 0.0
         total += step
         removed = removed * keep + step
         totals.append(total)
         undistributed.append(removed)
-    eliminated[first : last + 1] = totals
-    eliminated[last + 1 :] = total
-    in_plasma[first : last + 1] = undistributed
-    in_plasma[last + 1 :] = removed * keep ** np.arange(1, len(ecf_excess) - last)
+    eliminated[first:stop] = totals
+    in_plasma[first:stop] = undistributed
+    n = np.arange(1, size - stop + 1, dtype=float)
+    kept = np.exp(n * -k_per_step)  # q^n
+    surplus = float(ecf_excess[stop]) - total if stop < size else 0.0
+    if stop < steady_from or surplus <= 0:  # nothing above the reference any more
+        eliminated[stop:] = total
+        in_plasma[stop:] = removed * kept
+        return eliminated, in_plasma
+    rest = 1.0 - take
+    left = np.exp(n * -k_e_per_step)  # r^n, since r = e^(−k_e·Δt)
+    eliminated[stop:] = total + surplus * (1.0 - left)
+    if math.isclose(keep, rest):
+        tail = surplus * take * n * kept / keep  # the limit q → r
+    else:
+        tail = surplus * take * (kept - left) / (keep - rest)
+    in_plasma[stop:] = removed * kept + tail
     return eliminated, in_plasma
 
 
@@ -301,11 +327,13 @@ def course(
     osmoles_in = np.zeros_like(hours)  # effective mOsm added to the ECF
     na_k_in = np.zeros_like(hours)  # mmol of Na + K added
     for item in inputs:
-        delivered = _cumulative(hours, item)
+        if item.fluid_name not in by_fluid:
+            by_fluid[item.fluid_name] = np.zeros_like(hours)
+        _add_cumulative(by_fluid[item.fluid_name], hours, item, 1.0)
+        _add_cumulative(osmoles_in, hours, item, item.effective_mosm_per_l / 1000.0)
+        _add_cumulative(na_k_in, hours, item, item.na_k_mmol_per_l / 1000.0)
+    for delivered in by_fluid.values():
         given += delivered
-        by_fluid[item.fluid_name] = by_fluid.get(item.fluid_name, 0.0) + delivered
-        osmoles_in += delivered * item.effective_mosm_per_l / 1000.0
-        na_k_in += delivered * item.na_k_mmol_per_l / 1000.0
     # maintenance and losses (or measured outputs), none after the plan's last phase:
     # the model does not drain an animal that is drinking and eating again
     consumed = plan.consumed_ml(hours)
@@ -327,9 +355,11 @@ def course(
         # as fluid of the moment's osmolality and Na, taken from the plasma.
         step_h = step_minutes / 60.0
         k_e = math.log(2) / (elimination.number / 60.0)
+        settled_h = max([plan.end_h, *(item.end_h for item in inputs)])
         eliminated, undistributed = _renal_elimination(
-            ecf - (ecf0 + plan.deficit_ml), k_e_per_step=k_e * step_h, k_per_step=k_per_h * step_h
-        )
+            ecf - (ecf0 + plan.deficit_ml), k_e_per_step=k_e * step_h, k_per_step=k_per_h * step_h,
+            steady_from=int(np.searchsorted(hours, settled_h + 1e-9)),
+        )  # fmt: skip
         removed = np.diff(eliminated, prepend=0.0)
         ecf_osmoles = ecf_osmoles - np.cumsum(removed * osmolality) / 1000.0
         if sodium is not None:
