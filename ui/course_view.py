@@ -40,6 +40,7 @@ from ui.timeline_view import (
     apply_palette,
     configure_pyqtgraph,
     pin_legend,
+    show_grid,
 )
 from vetfluid.course import course
 from vetfluid.errors import VetfluidError
@@ -222,7 +223,7 @@ class CourseView(QWidget):
             plot.getAxis("bottom").setStyle(showValues=False)
         for name in ("left", "bottom"):
             plot.getAxis(name).enableAutoSIPrefix(False)
-        plot.showGrid(x=True, y=True, alpha=0.2)
+        show_grid(plot)
         plot.setMenuEnabled(False)
         plot.hideButtons()
         # the default sample draws symbols too (measured points); no filled curves here

@@ -273,6 +273,8 @@ class MainWindow(QMainWindow):
             "The last few seconds of typing may be missing."
         )
         answer = QMessageBox.question(self, "vetfluid", question)
+        if self.records is None:  # the window was closed while the question was open
+            return False
         if answer != QMessageBox.StandardButton.Yes:
             self.records.clear_draft()
             return False

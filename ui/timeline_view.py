@@ -93,6 +93,14 @@ def configure_pyqtgraph() -> None:
         _configured = True
 
 
+def show_grid(plot: pg.PlotItem) -> None:
+    """Faint grid lines: every hour tick, but only the major value ticks. pyqtgraph draws
+    the grid as part of the axis, so minor value lines would be re-rendered across the
+    whole plot each time an edit moves the value range (half the cost of a redraw)."""
+    plot.showGrid(x=True, y=True, alpha=0.2)
+    plot.getAxis("left").setStyle(maxTickLevel=0)
+
+
 def _pen(colour: str, *, width: float = 2.0, style: Qt.PenStyle = Qt.PenStyle.SolidLine):
     pen = pg.mkPen(colour, width=width, style=style)
     pen.setCosmetic(True)
@@ -293,7 +301,7 @@ class TimelineView(QWidget):
         for name in ("left", "bottom"):
             plot.getAxis(name).enableAutoSIPrefix(False)  # never "(x0.001)" on a dose axis
         plot.getAxis("left").setWidth(LEFT_AXIS_WIDTH)
-        plot.showGrid(x=True, y=True, alpha=0.2)
+        show_grid(plot)
         plot.setMouseEnabled(x=True, y=False)
         plot.setMenuEnabled(False)
         plot.hideButtons()
