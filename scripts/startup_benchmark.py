@@ -15,6 +15,7 @@ import os
 import statistics
 import subprocess
 import sys
+import tempfile
 import time
 
 CHILD = r"""
@@ -67,6 +68,8 @@ app.exec()
 
 def one_run(kind: str) -> tuple[float, int, int]:
     env = dict(os.environ, QT_QPA_PLATFORM=os.environ.get("QT_QPA_PLATFORM", "offscreen"))
+    # a data folder of its own: no draft from an earlier session waits with a question
+    env["VETFLUID_HOME"] = tempfile.mkdtemp(prefix="vetfluid-bench-")
     start = time.perf_counter()
     painted = None
     rss = rss_plots = 0

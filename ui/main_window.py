@@ -7,6 +7,7 @@ appears quickly.
 
 from __future__ import annotations
 
+import linecache
 from datetime import datetime
 from pathlib import Path
 
@@ -137,6 +138,7 @@ class MainWindow(QMainWindow):
         if splitter_state is not None:
             self.splitter.restoreState(splitter_state)
         self._swap(self.planner_holder, self.splitter)
+        release_source_cache()
         self.pages.currentChanged.connect(self._page_opened)
 
         for demo in DEMOS.values():
@@ -349,6 +351,7 @@ class MainWindow(QMainWindow):
             from ui.shown_plan import ShownPlan
             from ui.timeline_view import TimelineView
 
+            release_source_cache()  # before the plots allocate, so they reuse the memory
             self.timeline_view = TimelineView()
             self._swap(self.timeline_holder, self.timeline_view)
             self.timeline_shown = ShownPlan(self.timeline_view, self.session, self._plot)
@@ -357,6 +360,7 @@ class MainWindow(QMainWindow):
         if self.details.widget(index) is self.course_holder and self.course_view is None:
             from ui.course_view import CourseView
 
+            release_source_cache()
             self.course_view = CourseView(self.session)
             self._swap(self.course_holder, self.course_view)
 
@@ -365,6 +369,7 @@ class MainWindow(QMainWindow):
         if self.pages.widget(index) is self.species_holder and self.species_view is None:
             from ui.species_view import SpeciesTableView
 
+            release_source_cache()
             self.species_view = SpeciesTableView()
             self._swap(self.species_holder, self.species_view)
             self.species_view.tableChanged.connect(self.session.reload_table)
@@ -595,6 +600,13 @@ class MainWindow(QMainWindow):
                 self.records = None
         settings.sync()
         super().closeEvent(event)
+
+
+def release_source_cache() -> None:
+    """Drop the module sources Python keeps in ``linecache``. PySide6 reads the source of
+    every module imported after it (to see whether the module uses PySide), several MiB
+    that nothing needs afterwards; a traceback reads the files again."""
+    linecache.clearcache()
 
 
 def _plan_start(plan) -> datetime | None:  # noqa: ANN001 — Plan
