@@ -112,7 +112,12 @@ class MainWindow(QMainWindow):
         scroll.setWidget(inputs)
         scroll.setWidgetResizable(True)
         scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
-        scroll.setMinimumWidth(440)
+        # never narrower than the form: with no horizontal scrollbar it would be clipped
+        scroll.setMinimumWidth(
+            inputs.minimumSizeHint().width()
+            + scroll.verticalScrollBar().sizeHint().width()
+            + 2 * scroll.frameWidth()
+        )
         scroll.setAccessibleName("Patient and plan inputs")
 
         self.summary = PlanSummary(self.session)
