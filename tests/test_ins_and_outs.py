@@ -65,6 +65,17 @@ def test_the_course_follows_the_measured_outputs():
     assert np.all(np.isfinite(c.plasma_ml))
 
 
+def test_no_urine_is_assumed_on_top_of_what_was_measured():
+    # an anuric patient whose kidneys are not flagged: the measured outflow is all that
+    # leaves, so two boluses stay in the body (renal elimination is left out in this mode)
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, ins_and_outs_period_h=6,
+                                  measured_outputs=((0.0, 0.0),), resuscitation_boluses=2))  # fmt: skip
+    c = course(plan)
+    assert c.elimination_left_out and np.all(c.eliminated_ml == 0)
+    end = int(plan.end_h * 60)
+    assert c.weight_kg[end] == pytest.approx(20 + (c.given_ml[end] - c.consumed_ml[end]) / 1000)
+
+
 def test_the_mode_round_trips_through_json_and_the_cli(capsys):
     plan = anuric_dog(measured=((60.0, 0.0), (30.0, 12.0)))
     request = json.loads(json.dumps(request_to_dict(plan.request)))
@@ -97,3 +108,23 @@ def test_a_species_without_an_insensible_loss_says_so():
     with pytest.raises(InputError, match="insensible_loss"):
         build_plan(PlanRequest(species_id="bearded_dragon", weight_kg=0.4,
                                ins_and_outs_period_h=6))  # fmt: skip
+
+
+def test_boluses_longer_than_the_first_periods_leave_the_period_after_them():
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, ins_and_outs_period_h=1,
+                                  resuscitation_boluses=4))  # fmt: skip
+    periods = [p for p in plan.phases if p.kind == "ins and outs"]
+    assert periods and periods[0].start_h == pytest.approx(1.0)  # 4 × 15 min of boluses
+
+
+def test_the_deficit_is_given_in_full_after_a_bolus():
+    # Davis 2013: deficit = 5 % of 20 kg = 1 L, over the 12 h after the bolus
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, ins_and_outs_period_h=6,
+                                  measured_outputs=((0.0, 0.0), (0.0, 0.0)),
+                                  dehydration_percent=5, replace_hours=12,
+                                  resuscitation_boluses=1))  # fmt: skip
+    periods = [p for p in plan.phases if p.kind == "ins and outs"]
+    insensible = sum(p.hours for p in periods) * INSENSIBLE_ML_PER_H
+    deficit_given = sum(p.volume_ml for p in periods) - insensible
+    assert periods[-1].end_h > periods[0].start_h + 12  # the plan covers the replacement
+    assert deficit_given == pytest.approx(1000)

@@ -270,10 +270,13 @@ def _renal_elimination(
 def elimination_applies(plan: Plan) -> str | None:
     """Why renal elimination of the excess is left out of this course, or None if it is in.
 
-    Left out with renal disease (the kidneys may not excrete it) and under anaesthesia
-    (volume-kinetic studies find elimination much reduced; Hahn 2020): the prediction then
-    errs towards overload, the safer side.
+    Left out in ins-and-outs mode (what the kidneys make is measured and already leaves
+    as the plan's outflow), with renal disease (the kidneys may not excrete it) and under
+    anaesthesia (volume-kinetic studies find elimination much reduced; Hahn 2020): the
+    prediction then errs towards overload, the safer side.
     """
+    if plan.request.ins_and_outs_period_h is not None:
+        return "ins and outs (urine is measured)"
     if plan.request.renal_disease:
         return "renal disease"
     if plan.request.anaesthesia:

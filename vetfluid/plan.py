@@ -10,6 +10,7 @@ losses, then maintenance. Every species value used is carried in
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from datetime import date, time
 
@@ -441,13 +442,17 @@ def _ins_and_outs_segments(
         overlap = max(0.0, min(b, replace_end) - max(a, start_h))
         return deficit_ml / request.replace_hours * overlap / (b - a) if deficit_ml > 0 else 0.0
 
+    def needs(number: int) -> float:  # what the period before it measured, or the best guess
+        if number == 0 or not rows:
+            return first_guess
+        return rows[min(number, len(rows)) - 1].next_rate_ml_per_h
+
     segments: list[Segment] = []
-    for number in range(len(rows) + 1):
-        a, b = number * period, (number + 1) * period
-        if b <= start_h:
-            continue  # taken up by resuscitation boluses
-        needs = rows[number - 1].next_rate_ml_per_h if number else first_guess
-        segments.append(("ins and outs", max(a, start_h), b, needs + deficit_rate(a, b)))
+    # every period measured, the next one, and at least the period after the boluses
+    for number in range(max(len(rows) + 1, math.floor(start_h / period) + 1)):
+        a, b = max(number * period, start_h), (number + 1) * period
+        if b > a:  # periods before the end of resuscitation boluses are skipped
+            segments.append(("ins and outs", a, b, needs(number) + deficit_rate(a, b)))
     # what leaves: the measured periods, then insensible loss + the last period measured
     outflow = tuple((r.start_h, r.replace_ml / period) for r in rows) + (
         (len(rows) * period, rows[-1].replace_ml / period if rows else first_guess),
