@@ -166,3 +166,15 @@ def test_the_oliguria_threshold_is_editable(window):
     assert "Urine output" in alert_codes()
     view.oliguria.setValue(0.5)
     assert "Urine output" not in alert_codes()
+
+
+def test_a_reopened_ins_and_outs_plan_keeps_what_was_measured(qtbot, window):
+    from dataclasses import replace
+
+    request = replace(window.session.plan.request, ins_and_outs_period_h=6.0,
+                      measured_outputs=((60.0, 0.0), (30.0, 12.0)))  # fmt: skip
+    window.session.replace_request(request)  # as when a saved version is opened
+    qtbot.waitUntil(lambda: window.session.plan.request == request)
+    record(window.course_view, 18, "urine_ml", 20, period=6)
+    expected = ((60.0, 0.0), (30.0, 12.0), (20.0, 0.0))
+    qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == expected)

@@ -69,7 +69,8 @@ def test_no_urine_is_assumed_on_top_of_what_was_measured():
     # an anuric patient whose kidneys are not flagged: the measured outflow is all that
     # leaves, so two boluses stay in the body (renal elimination is left out in this mode)
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, ins_and_outs_period_h=6,
-                                  measured_outputs=((0.0, 0.0),), resuscitation_boluses=2))  # fmt: skip
+                                  measured_outputs=((0.0, 0.0),),
+                                  resuscitation_boluses=2))  # fmt: skip
     c = course(plan)
     assert c.elimination_left_out and np.all(c.eliminated_ml == 0)
     end = int(plan.end_h * 60)

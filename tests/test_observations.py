@@ -100,9 +100,26 @@ def test_ins_and_outs_table_follows_the_recorded_urine():
 
     recorded = [Observation(hour=4, urine_ml=20, urine_period_h=4),
                 Observation(hour=6, other_losses_ml=15),
-                Observation(hour=10, urine_ml=5, urine_period_h=4)]  # fmt: skip
+                Observation(hour=10, urine_ml=5, urine_period_h=4),
+                Observation(hour=12, urine_ml=3, urine_period_h=2)]  # fmt: skip
     rows = ins_and_outs_from_observations(recorded, weight_kg=10, insensible_ml_per_kg_day=20,
-                                          period_h=6, until_h=12)  # fmt: skip
+                                          period_h=6)  # fmt: skip
     insensible = 20 * 10 * 6 / 24
-    assert [(r.urine_ml, r.other_losses_ml) for r in rows] == [(20, 15), (5, 0)]
-    assert [r.next_rate_ml_per_h for r in rows] == [(insensible + 35) / 6, (insensible + 5) / 6]
+    assert [(r.urine_ml, r.other_losses_ml) for r in rows] == [(20, 15), (8, 0)]
+    assert [r.next_rate_ml_per_h for r in rows] == [(insensible + 35) / 6, (insensible + 8) / 6]
+
+
+def test_only_complete_periods_count_and_urine_is_spread_over_its_collection():
+    from vetfluid.observations import measured_outputs
+
+    # 3 h into a 6 h period nothing is complete yet: the plan stays in the first period
+    assert measured_outputs([Observation(hour=3, urine_ml=9, urine_period_h=3)], period_h=6) == ()
+    # 70 mL collected over hours 0–7: 60 mL in the first 6 h period, 10 in the second, which
+    # is not complete yet
+    assert measured_outputs([Observation(hour=7, urine_ml=70, urine_period_h=7)],
+                            period_h=6) == ((60.0, 0.0),)  # fmt: skip
+    # outputs saved with a reopened plan stand where no observation covers their period
+    saved = ((60.0, 0.0), (30.0, 12.0))
+    again = [Observation(hour=18, urine_ml=20, urine_period_h=6)]
+    assert measured_outputs(again, period_h=6, earlier=saved) == ((60.0, 0.0), (30.0, 12.0),
+                                                                  (20.0, 0.0))  # fmt: skip

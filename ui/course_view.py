@@ -413,10 +413,10 @@ class CourseView(QWidget):
                 ]
             )  # fmt: skip
         self.alerts_model.set_rows(rows)
-        self._show_ins_and_outs(plan, observations, horizon)
+        self._show_ins_and_outs(plan, observations)
         self._show_versions(plan)
 
-    def _show_ins_and_outs(self, plan, observations, horizon: float) -> None:  # noqa: ANN001
+    def _show_ins_and_outs(self, plan, observations) -> None:  # noqa: ANN001
         period = plan.request.ins_and_outs_period_h
         with QSignalBlocker(self.ins_outs_mode), QSignalBlocker(self.ins_outs_period):
             self.ins_outs_mode.setChecked(period is not None)
@@ -437,7 +437,7 @@ class CourseView(QWidget):
         table = ins_and_outs_from_observations(
             observations, weight_kg=plan.request.weight_kg,
             insensible_ml_per_kg_day=insensible.number,
-            period_h=float(self.ins_outs_period.value()), until_h=max(horizon, 1.0),
+            period_h=float(self.ins_outs_period.value()),
         )  # fmt: skip
         self._ins_outs_rows(table)
 

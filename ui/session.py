@@ -49,6 +49,9 @@ class PlanSession(QObject):
         self._ready = False
         self.observations: list = []  # vetfluid.observations.Observation, for this version
         self.versions: list[tuple[PlanRequest, tuple]] = []  # earlier (request, observations)
+        self._saved_outputs: tuple[float | None, tuple] = (
+            (request.ins_and_outs_period_h, request.measured_outputs) if request else (None, ())
+        )
         self.plan: Plan | None = None
         self.problem = ""
         self.table: SpeciesTable = load_table()
@@ -86,6 +89,10 @@ class PlanSession(QObject):
         )
         self._field_errors.clear()
         self._acknowledged = dict(acknowledged or {})
+        # outputs measured before this session: kept for periods no new observation covers
+        self._saved_outputs = (
+            (request.ins_and_outs_period_h, request.measured_outputs) if request else (None, ())
+        )
         self.observations = []
         self.versions = []
         self.inputsReplaced.emit(request)
@@ -176,8 +183,12 @@ class PlanSession(QObject):
         """Plan by ins and outs every ``period_h`` hours from what was measured, or stop."""
         from vetfluid.observations import measured_outputs
 
+        saved_period, saved = self._saved_outputs
+        earlier = saved if saved_period == period_h else ()  # other periods cannot be reused
         measured = (
-            () if period_h is None else measured_outputs(self.observations, period_h=period_h)
+            ()
+            if period_h is None
+            else measured_outputs(self.observations, period_h=period_h, earlier=earlier)
         )
         self.update(ins_and_outs_period_h=period_h, measured_outputs=measured)
 

@@ -224,28 +224,41 @@ def measured_outputs(
     observations: list[Observation] | tuple[Observation, ...],
     *,
     period_h: float,
-    until_h: float | None = None,
+    earlier: tuple[tuple[float, float], ...] = (),
 ) -> tuple[tuple[float, float], ...]:
-    """(urine mL, other losses mL) per period of ``period_h`` from hour 0, counting each
-    measurement in the period in which it was recorded (hour in (start, end]; hour 0 in
-    the first), up to the period holding the latest measurement or ``until_h``."""
+    """(urine mL, other losses mL) for each *complete* period of ``period_h`` from hour 0.
+
+    Urine is spread evenly over the window it was collected in (``urine_period_h`` up to
+    its hour), so a volume collected across two periods counts in both. Other losses
+    count in the period they were recorded in (hour in (start, end]; hour 0 in the first).
+    A period is complete once a urine or loss measurement at or after its end is recorded.
+    ``earlier`` holds outputs saved with the plan for periods no observation here covers
+    (a reopened plan keeps them)."""
     require_number(period_h, "period_h", low=1, high=24, unit="h")
-    hours = [o.hour for o in observations if o.urine_ml is not None or o.other_losses_ml]
-    last = max([*hours, until_h or 0.0])
-    if last <= 0 and until_h is None:
-        return ()
-    periods = max(1, int(np.ceil(last / period_h - 1e-9)))
-    measured = []
-    for number in range(periods):
-        start, end = number * period_h, (number + 1) * period_h
-        inside = [o for o in observations if start < o.hour <= end or (number == 0 and o.hour == 0)]
-        measured.append(
-            (
-                float(sum(o.urine_ml or 0.0 for o in inside)),
-                float(sum(o.other_losses_ml or 0.0 for o in inside)),
-            )
-        )
-    return tuple(measured)
+    measuring = [o for o in observations if o.urine_ml is not None or o.other_losses_ml]
+    latest = max((o.hour for o in measuring), default=0.0)
+    complete = max(int(np.floor(latest / period_h + 1e-9)), len(earlier))
+    urine = np.zeros(complete)
+    other = np.zeros(complete)
+    covered = np.zeros(complete, dtype=bool)
+    starts = np.arange(complete) * period_h
+    for o in measuring:
+        if o.urine_ml is not None and o.urine_period_h:
+            a, b = max(0.0, o.hour - o.urine_period_h), o.hour
+            overlap = np.clip(np.minimum(starts + period_h, b) - np.maximum(starts, a), 0.0, None)
+            urine += o.urine_ml * overlap / (b - a) if b > a else 0.0
+            covered |= overlap > 0
+        if o.other_losses_ml:
+            number = max(0, int(np.ceil(o.hour / period_h - 1e-9)) - 1)
+            if number < complete:
+                other[number] += o.other_losses_ml
+                covered[number] = True
+    return tuple(
+        (float(urine[i]), float(other[i]))
+        if covered[i] or i >= len(earlier)
+        else (float(earlier[i][0]), float(earlier[i][1]))
+        for i in range(complete)
+    )
 
 
 def ins_and_outs_from_observations(
@@ -254,13 +267,11 @@ def ins_and_outs_from_observations(
     weight_kg: float,
     insensible_ml_per_kg_day: float,
     period_h: float,
-    until_h: float,
 ) -> list[InsAndOutsRow]:
-    """The ins-and-outs table from what was recorded, over the periods up to ``until_h``."""
-    require_number(until_h, "until_h", low=0, high=14 * 24, unit="h")
+    """The ins-and-outs table of the complete periods recorded (:func:`measured_outputs`)."""
     return ins_and_outs(
         weight_kg=weight_kg,
         insensible_ml_per_kg_day=insensible_ml_per_kg_day,
         period_h=period_h,
-        measured=list(measured_outputs(observations, period_h=period_h, until_h=until_h)),
+        measured=list(measured_outputs(observations, period_h=period_h)),
     )
