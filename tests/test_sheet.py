@@ -8,7 +8,7 @@ import sys
 from pathlib import Path
 
 from vetfluid.demos import DEMOS
-from vetfluid.plan import build_plan
+from vetfluid.plan import PlanRequest, build_plan
 from vetfluid.serialize import plan_dict
 from vetfluid.sheet import NURSE_COLUMNS, sheet_html
 
@@ -69,3 +69,13 @@ def test_headless_sheet_command_refuses_bad_json(tmp_path):
                             capture_output=True, text=True, timeout=60)  # fmt: skip
     assert result.returncode == 2 and "vetfluid-cli plan --json" in result.stderr
     assert "Traceback" not in result.stderr
+
+
+def test_an_ins_and_outs_sheet_says_maintenance_is_not_given_and_shows_the_periods():
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, renal_disease=True,
+                                  ins_and_outs_period_h=6,
+                                  measured_outputs=((60.0, 0.0),)))  # fmt: skip
+    html = sheet_html(plan_dict(plan))
+    assert "not given — ins and outs every 6 h" in html
+    assert "the periods planned so far, to hour 12" in html
+    assert "Ins and outs (every 6 h" in html and "60 mL" in html

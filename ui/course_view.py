@@ -42,7 +42,7 @@ from ui.timeline_view import (
     pin_legend,
     show_grid,
 )
-from vetfluid.course import course
+from vetfluid.course import MAX_HORIZON_H, course
 from vetfluid.errors import VetfluidError
 from vetfluid.formatting import format_quantity as q
 from vetfluid.observations import (
@@ -374,7 +374,8 @@ class CourseView(QWidget):
             self.alerts_model.set_rows([])
             return
         self._hour_changed(self.hour.value())  # the date and time follow the plan's start
-        horizon = max([p.end_h for p in plan.phases] + [o.hour for o in observations])
+        # the plan and every observation, within the model's 14 days
+        horizon = min(max([plan.end_h] + [o.hour for o in observations]), MAX_HORIZON_H)
         result = course(plan, horizon_h=horizon, step_minutes=5, table=self.session.table)
         h = result.hours
         change = result.change_from_start()

@@ -31,6 +31,7 @@ from ui.shown_plan import ShownPlan
 from vetfluid import fluids
 from vetfluid.delivery import STANDARD_DROP_FACTORS
 from vetfluid.formatting import format_quantity as q
+from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
 from vetfluid.serialize import fluid_dict
 
@@ -361,16 +362,16 @@ class PlanSummary(QWidget):
         )
         period = plan.request.ins_and_outs_period_h
         if period is not None:
-            maintenance += (
-                f"; not given — ins and outs every {period:g} h instead (insensible loss + "
-                "measured urine and other losses; Course tab)"
-            )
+            maintenance += f"; {maintenance_not_given(period)} — Course tab"
         self.values["maintenance"].setText(maintenance)
         deficit = f"{plan.dehydration_percent:g} % → {q(plan.deficit_ml, 'mL')}"
         if plan.free_water_deficit_ml is not None:
             deficit += f"; free-water deficit {q(plan.free_water_deficit_ml, 'mL')}"
         self.values["deficit"].setText(deficit)
-        self.values["first24"].setText(q(plan.total_ml_first_24h, "mL"))
+        first24 = q(plan.total_ml_first_24h, "mL")
+        if period is not None and plan.end_h < 24:
+            first24 += f" ({planned_so_far(plan.end_h)})"
+        self.values["first24"].setText(first24)
         self.values["fluid"].setText(
             f"{plan.fluid_name} — Na {q(plan.fluid_na_mmol_per_l, 'mmol/L')}, "
             f"K {q(plan.fluid_k_mmol_per_l, 'mmol/L')}; {plan.tonicity.effective_class} in the body"

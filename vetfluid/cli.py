@@ -339,10 +339,11 @@ def _phase_line(p: dict) -> str:
 
 def print_plan(data: dict) -> None:
     """The plan as a readable sheet for a person at a terminal."""
-    m, fl = data["maintenance"], data["fluid"]
+    from vetfluid.sheet import first_24h_text, maintenance_text
+
+    fl = data["fluid"]
     rows = [
-        ("Maintenance", f"{_q(m['ml_per_day'], 'mL/day')} ({_q(m['ml_per_h'], 'mL/h')}) — "
-                        f"{m['method']}: {m['formula']}"),
+        ("Maintenance", maintenance_text(data)),
         ("Dehydration", f"{data['dehydration_percent']:g} % → deficit "
                         f"{_q(data['deficit_ml'], 'mL')}"),
         ("Free water", _q(data["free_water_deficit_ml"], "mL")
@@ -350,7 +351,7 @@ def print_plan(data: dict) -> None:
         ("Fluid", f"{fl['name']} ({fl['tonicity']} in the body; Na "
                   f"{_q(fl['na_mmol_per_l'], 'mmol/L')}, K {_q(fl['k_mmol_per_l'], 'mmol/L')})"),
         ("Route", f"{data['route'].upper()}, {DEVICE_WORDS[data['device']]}"),
-        ("First 24 h", _q(data["total_ml_first_24h"], "mL")),
+        ("First 24 h", first_24h_text(data)),
     ]  # fmt: skip
     if "potassium" in data:
         k = data["potassium"]
@@ -516,7 +517,7 @@ def cmd_course(args: argparse.Namespace) -> int:
             bolus_input(fluid_id=args.bolus_fluid, ml_per_kg=args.bolus_ml_per_kg,
                         weight_kg=plan.request.weight_kg, minutes=args.bolus_minutes),
         )  # fmt: skip
-    horizon = args.horizon_h or max(max(hours), max(p.end_h for p in plan.phases))
+    horizon = args.horizon_h or max(max(hours), plan.end_h)
     result = course(plan, horizon_h=horizon, extra_boluses=extra)
     rows = [result.at(h) for h in hours]
     data = {

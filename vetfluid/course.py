@@ -295,7 +295,7 @@ def course(
     """Simulate a plan (plus optional extra boluses) on a regular grid; see module docstring."""
     table = table or load_table()
     require_number(step_minutes, "step_minutes", positive=True, high=60, unit="min")
-    end = max(p.end_h for p in plan.phases)
+    end = plan.end_h
     horizon = end if horizon_h is None else require_number(
         horizon_h, "horizon_h", positive=True, high=MAX_HORIZON_H, unit="h"
     )  # fmt: skip

@@ -13,6 +13,19 @@ from dataclasses import dataclass
 from vetfluid.checks import require_number
 
 
+def maintenance_not_given(period_h: float) -> str:
+    """What every surface says of the maintenance rate in ins-and-outs mode."""
+    return (
+        f"not given — ins and outs every {period_h:g} h instead (insensible loss + "
+        "measured urine and other losses)"
+    )
+
+
+def planned_so_far(end_h: float) -> str:
+    """The first-24-h total covers only the periods planned so far in ins-and-outs mode."""
+    return f"the periods planned so far, to hour {end_h:g}; more follow as each is measured"
+
+
 @dataclass(frozen=True, kw_only=True)
 class InsAndOutsRow:
     period: int

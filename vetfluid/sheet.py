@@ -16,6 +16,7 @@ from html import escape
 
 from vetfluid.cautions import CAUTIONS
 from vetfluid.formatting import format_quantity as q
+from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time
 from vetfluid.serialize import plan_dict
@@ -74,7 +75,6 @@ def sheet_html(
     acknowledged = acknowledged or {}
     patient = patient or {}
     start = _start(data)
-    m = data["maintenance"]
     end = max(p["end_h"] for p in data["phases"])
     hours = range(int(math.ceil(end)))
     name = patient.get("name") or "(patient name)"
@@ -91,18 +91,19 @@ def sheet_html(
         "<h3>Plan</h3>",
         table_html(
             [
-                ["Maintenance", f"{q(m['ml_per_day'], 'mL/day')} — {m['method']}: {m['formula']}"],
+                ["Maintenance", maintenance_text(data)],
                 [
                     "Dehydration",
                     f"{data['dehydration_percent']:g} % → deficit {q(data['deficit_ml'], 'mL')}",
                 ],
                 ["Fluid", data["fluid"]["name"]],
                 ["Route", f"{data['route'].upper()} ({data['device']})"],
-                ["First 24 h", q(data["total_ml_first_24h"], "mL")],
+                ["First 24 h", first_24h_text(data)],
             ]
             + [[f"Phase: {p['kind']}", _phase_text(p)] for p in data["phases"]],
             None,
         ),  # fmt: skip
+        _ins_and_outs_html(data),
         "<h3>Schedule</h3>",
         table_html(
             [[e["clock"] or f"h {e['hour']:g}", e["phase"], e["action"]] for e in data["schedule"]],
@@ -161,6 +162,36 @@ def sources_html(provenance: list[dict], citations: dict[str, str]) -> str:
         "<h3>Sources of the species values used</h3>"
         + used
         + (f"<ul>{cited}</ul>" if cited else "")
+    )
+
+
+def maintenance_text(data: dict) -> str:
+    """The maintenance line of a plan's JSON; in ins-and-outs mode it says it is not given."""
+    m = data["maintenance"]
+    text = f"{q(m['ml_per_day'], 'mL/day')} ({q(m['ml_per_h'], 'mL/h')}) — {m['method']}: "
+    io = data.get("ins_and_outs")
+    return text + m["formula"] + (f"; {maintenance_not_given(io['period_h'])}" if io else "")
+
+
+def first_24h_text(data: dict) -> str:
+    """The volume of hours 0–24; in ins-and-outs mode, which periods that covers."""
+    end = max(p["end_h"] for p in data["phases"])
+    so_far = f" ({planned_so_far(end)})" if data.get("ins_and_outs") and end < 24 else ""
+    return q(data["total_ml_first_24h"], "mL") + so_far
+
+
+def _ins_and_outs_html(data: dict) -> str:
+    io = data.get("ins_and_outs")
+    if not io:
+        return ""
+    rows = [
+        [f"h {r['start_h']:g}–{r['end_h']:g}", q(r["urine_ml"], "mL"),
+         q(r["other_losses_ml"], "mL"), q(r["insensible_ml"], "mL"),
+         q(r["next_rate_ml_per_h"], "mL/h")]
+        for r in io["periods"]
+    ] or [["nothing measured yet", "", "", "", ""]]  # fmt: skip
+    return f"<h3>Ins and outs (every {io['period_h']:g} h; Côté 2020)</h3>" + table_html(
+        rows, ["Period", "Urine", "Other losses", "Insensible", "Next rate"]
     )
 
 
