@@ -530,3 +530,15 @@ def test_colloid_plans_are_flagged_and_never_given_under_the_skin():
     with_k = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6",
                                     serum_k=3.0))  # fmt: skip
     assert with_k.bag.colloid is not None  # KCl added to a colloid bag keeps it a colloid
+
+
+def test_a_whole_plan_of_colloid_is_a_hard_limit():
+    from vetfluid.plan import PlanRequest, build_plan
+
+    # 20 mL/kg/day (recalled, safety_limits.csv): a day of starch for a dog is far above it
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6",
+                                  dehydration_percent=8, resuscitation_boluses=3))  # fmt: skip
+    limit = next(f for f in plan.findings if f.code == "COLLOID_DAILY_LIMIT")
+    assert limit.severity == "hard" and "unverified" in limit.message
+    assert "memory — unverified" in next(f.message for f in plan.findings
+                                         if f.code == "COLLOID_CHOSEN")  # fmt: skip

@@ -576,7 +576,6 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         dextrose_g_per_l=bag_comp.dextrose_g_per_l, colloid=bag.colloid is not None,
     )  # fmt: skip
     safety.check_reptile_dextrose(ledger, request.dextrose_percent)
-    safety.check_colloid(ledger, bag)
 
     bolus_phases, res = _resuscitation_phases(ledger, request, route=route, drop_factor=drop_factor)
     start_h = bolus_phases[-1].end_h if bolus_phases else 0.0
@@ -599,6 +598,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     phases = (*bolus_phases, *fluid_phases)
     main = fluid_phases[0]
     safety.check_rates_against_shock_dose(ledger, phases, w)
+    safety.check_colloid(ledger, bag, phases, w)
     safety.check_divided_sites(ledger, phases)
     safety.check_dose_spacing(ledger, phases)
     end_h = max(ph.end_h for ph in phases)

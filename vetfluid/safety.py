@@ -117,9 +117,12 @@ def note_ins_and_outs(ledger: Ledger, *, measured_periods: int) -> None:
     )
 
 
-def check_colloid(ledger: Ledger, fluid: fluids.Fluid) -> None:
+def check_colloid(
+    ledger: Ledger, fluid: fluids.Fluid, phases: tuple[Phase, ...], weight_kg: float
+) -> None:
     """A colloid as the plan's fluid: it restores plasma volume, not an interstitial
-    deficit. The risks of starches are recalled (fluid note), not checked — memory."""
+    deficit, and its daily dose is limited. The risks of starches, the daily limit and the
+    colloid's volume half-life are recalled, not checked — memory, and said so."""
     if fluid.colloid is None:
         return
     ledger.add(
@@ -127,10 +130,23 @@ def check_colloid(ledger: Ledger, fluid: fluids.Fluid) -> None:
         "COLLOID_CHOSEN",
         f"{fluid.name} holds its volume in the plasma: it does not rehydrate the interstitium "
         "and adds no maintenance water. Starches have been restricted in critically ill "
-        "people for kidney injury and bleeding (recalled — unverified).",
+        "people for kidney injury and bleeding, and its volume half-life of "
+        f"{fluid.colloid.volume_half_life_h:g} h is recalled (memory — unverified).",
         "Use a crystalloid for rehydration and maintenance; give a colloid only as your "
         "practice protocol allows, and record why.",
     )
+    most = limit("colloid_max_ml_per_kg_day")
+    first_day = sum(p.volume_between(0.0, 24.0) for p in phases) / weight_kg
+    if first_day > most.value:
+        ledger.add(
+            most.severity,
+            "COLLOID_DAILY_LIMIT",
+            f"The plan gives {q(first_day, 'mL/kg')} of {fluid.name} in the first 24 h, above "
+            f"{q(most.value, 'mL/kg/day')} (recalled — unverified).",
+            "Give the deficit and maintenance as a crystalloid; keep the colloid to small "
+            "boluses within the daily limit your protocol sets.",
+            most.source_id,
+        )
 
 
 def check_reptile_dextrose(ledger: Ledger, dextrose_percent: float) -> None:
