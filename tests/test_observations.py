@@ -79,6 +79,16 @@ def test_replan_starts_from_the_current_state(dog):
     assert dog.deficit_ml == pytest.approx(1400)  # the earlier version is untouched
 
 
+def test_a_replan_starts_when_its_weight_was_taken():
+    from datetime import date, time
+
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7,
+                                  start_time=time(20, 0),
+                                  start_date=date(2026, 12, 31)))  # fmt: skip
+    request = replan_request(plan, [Observation(hour=6, weight_kg=20.9)])
+    assert (request.start_date, request.start_time) == (date(2027, 1, 1), time(2, 0))
+
+
 @pytest.mark.parametrize(
     "kwargs",
     [{"hour": -1}, {"hour": 1, "urine_ml": 20}, {"hour": 1, "weight_kg": 0},

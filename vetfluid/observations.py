@@ -20,6 +20,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import date
 
 import numpy as np
 
@@ -31,6 +32,7 @@ from vetfluid.hydration import overload_weight_kg
 from vetfluid.ins_and_outs import InsAndOutsRow, ins_and_outs
 from vetfluid.limits import limit
 from vetfluid.plan import Plan
+from vetfluid.schedule import moment_at
 from vetfluid.species import SpeciesTable, load_table
 
 MUCOUS_MEMBRANES = ("pink", "pale", "injected", "cyanotic", "icteric", "tacky", "dry")
@@ -189,6 +191,7 @@ def observed_series(observations: list[Observation], field: str) -> tuple[np.nda
 def replan_request(plan: Plan, observations: list[Observation] | tuple[Observation, ...]):
     """A new request from the patient's current state (the earlier plan is kept by the caller).
 
+    Hour 0 of the new version is when the latest weight was taken; its clock and date follow.
     Weight: the latest measured weight. Remaining deficit: the euhydrated weight
     (entered weight + deficit, 1 L ≈ 1 kg) less that weight, as a % of it. Labs: the
     latest Na and K. Everything else (fluid, route, flags) carries over.
@@ -209,9 +212,19 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
                    getattr(plan.request, name))
         for name in ("serum_na", "serum_k", "pcv_percent", "total_solids_g_per_dl")
     }  # fmt: skip
+    hour_zero = weights[-1].hour  # the new version starts when that weight was taken
+    start = {}
+    if plan.request.start_time is not None:
+        day = plan.request.start_date or date(2000, 1, 1)  # a clock alone: only the time moves
+        moment = moment_at(day, plan.request.start_time, hour_zero)
+        start = {
+            "start_time": moment.time(),
+            "start_date": moment.date() if plan.request.start_date else None,
+        }
     return replace(
         plan.request,
         weight_kg=current,
+        **start,
         dehydration_percent=min(remaining_percent, 20.0),
         dehydration_findings=(),
         resuscitation_boluses=0,
