@@ -339,11 +339,13 @@ def test_syringe_pump_phases_are_split_into_fills_on_the_clock():
 def test_hours_since_start_across_midnight_and_months():
     from datetime import date, datetime
 
-    from vetfluid.schedule import clock_time, hours_since, moment_at
+    from vetfluid.schedule import clock_time, hours_since
 
-    start = date(2026, 11, 30)
-    assert hours_since(start, time(22, 0), datetime(2026, 12, 1, 1, 30)) == pytest.approx(3.5)
-    assert moment_at(start, time(22, 0), 3.5) == datetime(2026, 12, 1, 1, 30)
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, start_time=time(22, 0),
+                                  start_date=date(2026, 11, 30)))  # fmt: skip
+    start = plan.start_moment
+    assert hours_since(start, datetime(2026, 12, 1, 1, 30)) == pytest.approx(3.5)
+    assert plan.moment_at(3.5) == datetime(2026, 12, 1, 1, 30)
     assert clock_time(time(22, 0), 3.5) == "01:30 (+1 d)"
     with pytest.raises(InputError, match="before the plan started"):
-        hours_since(start, time(22, 0), datetime(2026, 11, 30, 21, 0))
+        hours_since(start, datetime(2026, 11, 30, 21, 0))

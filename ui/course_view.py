@@ -7,10 +7,8 @@ and a value; everything else (alerts, curves) is recomputed by the core.
 
 from __future__ import annotations
 
-from datetime import date, datetime, time
-
 import pyqtgraph as pg
-from PySide6.QtCore import QDate, QDateTime, QEvent, QSignalBlocker, Qt, QTime
+from PySide6.QtCore import QDateTime, QEvent, QSignalBlocker, Qt
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QCheckBox,
@@ -31,6 +29,7 @@ from PySide6.QtWidgets import (
 )
 
 from ui.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
+from ui.qt_dates import from_qt, to_qt
 from ui.rows_model import Cell, RowsModel
 from ui.session import PlanSession
 from ui.shown_plan import ShownPlan
@@ -51,13 +50,7 @@ from vetfluid.observations import (
     ins_and_outs_from_observations,
     observed_series,
 )
-from vetfluid.schedule import hours_since, moment_at
-
-
-def _qt_moment(moment: datetime) -> QDateTime:
-    return QDateTime(QDate(moment.year, moment.month, moment.day),
-                     QTime(moment.hour, moment.minute))  # fmt: skip
-
+from vetfluid.schedule import hours_since
 
 # What can be recorded: field → (label, unit)
 QUANTITIES = {
@@ -291,20 +284,12 @@ class CourseView(QWidget):
         else:
             self.refresh(self.session.plan)
 
-    def _start(self) -> tuple[date, time] | None:
-        plan = self.session.plan
-        if plan is None or plan.request.start_time is None or plan.request.start_date is None:
-            return None
-        return plan.request.start_date, plan.request.start_time
-
     def _moment_changed(self, value: QDateTime) -> None:
-        start = self._start()
+        start = self.session.plan.start_moment if self.session.plan else None
         if start is None:
             return
-        day, clock = value.date(), value.time()
-        moment = datetime(day.year(), day.month(), day.day(), clock.hour(), clock.minute())
         try:
-            hour = hours_since(*start, moment)
+            hour = hours_since(start, from_qt(value))
         except VetfluidError as exc:
             self.message.setText(f"⚠ {exc.one_line()}")
             return
@@ -313,10 +298,10 @@ class CourseView(QWidget):
             self.hour.setValue(hour)
 
     def _hour_changed(self, hour: float) -> None:
-        start = self._start()
-        if start is not None:
+        moment = self.session.plan.moment_at(hour) if self.session.plan else None
+        if moment is not None:
             with QSignalBlocker(self.at):
-                self.at.setDateTime(_qt_moment(moment_at(*start, hour)))
+                self.at.setDateTime(to_qt(moment))
 
     def _quantity_changed(self, *_: object) -> None:
         self.period.setVisible(self.quantity.currentData() == "urine_ml")
@@ -482,10 +467,8 @@ class CourseView(QWidget):
         ]
 
     def _when(self, hour: float) -> str:
-        start = self._start()
-        if start is None:
-            return f"h {hour:g}"
-        return f"{moment_at(*start, hour):%Y-%m-%d %H:%M} (h {hour:g})"
+        moment = self.session.plan.moment_at(hour) if self.session.plan else None
+        return f"h {hour:g}" if moment is None else f"{moment:%Y-%m-%d %H:%M} (h {hour:g})"
 
     def _show_observations(self, observations: list[Observation]) -> None:
         rows = []

@@ -8,7 +8,6 @@ appears quickly.
 from __future__ import annotations
 
 import linecache
-from datetime import datetime
 from pathlib import Path
 
 from PySide6.QtCore import QEvent, QSettings, Qt, QTimer
@@ -553,7 +552,7 @@ class MainWindow(QMainWindow):
         text = (
             schedule_csv(plan_dict(self.session.plan))
             if what == "schedule"
-            else observations_csv(self.session.observations, _plan_start(self.session.plan))
+            else observations_csv(self.session.observations, self.session.plan.start_moment)
         )
         try:
             path.write_text(text, encoding="utf-8")
@@ -612,11 +611,3 @@ def release_source_cache() -> None:
     every module imported after it (to see whether the module uses PySide), several MiB
     that nothing needs afterwards; a traceback reads the files again."""
     linecache.clearcache()
-
-
-def _plan_start(plan) -> datetime | None:  # noqa: ANN001 — Plan
-    """The plan's start on the calendar, when it has a date and a time."""
-    request = plan.request
-    if request.start_date is None or request.start_time is None:
-        return None
-    return datetime.combine(request.start_date, request.start_time)

@@ -4,9 +4,9 @@
 
 from __future__ import annotations
 
-from datetime import date, datetime, time
+from datetime import datetime, time
 
-from PySide6.QtCore import QDate, QDateTime, QSignalBlocker, Qt, QTime
+from PySide6.QtCore import QDateTime, QSignalBlocker, Qt
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
@@ -25,6 +25,7 @@ from PySide6.QtWidgets import (
 )
 
 from ui.patient_view import NumberField, buddy_label, compact
+from ui.qt_dates import from_qt, to_qt
 from ui.rows_model import Cell, RowsModel
 from ui.session import PlanSession
 from ui.shown_plan import ShownPlan
@@ -224,8 +225,7 @@ class PlanSettings(QGroupBox):
             day = day or now.date()
             self.session.update(start_time=start, start_date=day)
         with QSignalBlocker(self.start):
-            self.start.setDateTime(QDateTime(QDate(day.year, day.month, day.day),
-                                             QTime(start.hour, start.minute)))  # fmt: skip
+            self.start.setDateTime(to_qt(datetime.combine(day, start)))
 
     def _device_changed(self, _: int) -> None:
         device = self.device.currentData()
@@ -254,11 +254,8 @@ class PlanSettings(QGroupBox):
             self.session.update(kcl_mmol_per_l=None)
 
     def _start_changed(self, value: QDateTime) -> None:
-        day, clock = value.date(), value.time()
-        self.session.update(
-            start_time=time(clock.hour(), clock.minute()),
-            start_date=date(day.year(), day.month(), day.day()),
-        )
+        moment = from_qt(value)
+        self.session.update(start_time=moment.time(), start_date=moment.date())
 
     def _plan_changed(self, plan: Plan | None) -> None:
         # the tooltips depend only on the patient's plasma and the chosen fluid; touching

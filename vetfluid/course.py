@@ -23,8 +23,10 @@ equations, their sources and their simplifications are written out in
 * **Serum Na (Adrogué–Madias, step by step).** Na × TBW is the exchangeable
   Na + K; each step adds the infusate's Na + K and water. For one litre and no
   losses this equals the closed form (Na_inf + K_inf − Na) / (TBW + 1).
-* **Losses.** Maintenance and ongoing losses leave the ECF as fluid isotonic at
-  the patient's starting osmolality and Na, so they change volumes, not Na.
+* **Losses.** The plan's outflow (maintenance and ongoing losses, or the measured
+  outputs in ins-and-outs mode) leaves the ECF as fluid isotonic at the patient's
+  starting osmolality and Na, so it changes volumes, not Na. It stops with the plan:
+  after its last phase the patient's own intake is taken to match its losses.
 * **Weight** = entered weight + net fluid balance (1 mL ≈ 1 g; Davis 2013).
 
 The starting compartments are the species' fractions of the entered (dehydrated)

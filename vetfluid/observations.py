@@ -20,7 +20,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, datetime, timedelta
 
 import numpy as np
 
@@ -32,7 +32,6 @@ from vetfluid.hydration import overload_weight_kg
 from vetfluid.ins_and_outs import InsAndOutsRow, ins_and_outs
 from vetfluid.limits import limit
 from vetfluid.plan import Plan
-from vetfluid.schedule import moment_at
 from vetfluid.species import SpeciesTable, load_table
 
 MUCOUS_MEMBRANES = ("pink", "pale", "injected", "cyanotic", "icteric", "tacky", "dry")
@@ -216,7 +215,7 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
     start = {}
     if plan.request.start_time is not None:
         day = plan.request.start_date or date(2000, 1, 1)  # a clock alone: only the time moves
-        moment = moment_at(day, plan.request.start_time, hour_zero)
+        moment = datetime.combine(day, plan.request.start_time) + timedelta(hours=hour_zero)
         start = {
             "start_time": moment.time(),
             "start_date": moment.date() if plan.request.start_date else None,

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from datetime import date, time
+from datetime import date, datetime, time, timedelta
 
 import numpy as np
 
@@ -216,6 +216,19 @@ class Plan:
     @property
     def end_h(self) -> float:
         return max(p.end_h for p in self.phases)
+
+    @property
+    def start_moment(self) -> datetime | None:
+        """Hour 0 on the calendar, when the plan has a start date and time."""
+        r = self.request
+        if r.start_date is None or r.start_time is None:
+            return None
+        return datetime.combine(r.start_date, r.start_time)
+
+    def moment_at(self, hour: float) -> datetime | None:
+        """The date and time of an hour of the plan, when it is on the calendar."""
+        start = self.start_moment
+        return None if start is None else start + timedelta(hours=hour)
 
     def consumed_ml(self, hours):  # noqa: ANN001, ANN201 — float or array in, same out
         """Volume that has left the patient by each hour, as the plan assumes it

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from datetime import date, datetime, time, timedelta
+from datetime import datetime, time, timedelta
 
 from vetfluid import delivery
 from vetfluid.errors import InputError
@@ -188,18 +188,12 @@ def clock_time(start: time | None, hour: float) -> str | None:
     return moment.strftime("%H:%M") + (f" (+{day} d)" if day else "")
 
 
-def moment_at(start_date: date, start_time: time, hour: float) -> datetime:
-    """The calendar date and time of an hour of the plan."""
-    return datetime.combine(start_date, start_time) + timedelta(hours=hour)
-
-
-def hours_since(start_date: date, start_time: time, at: datetime) -> float:
+def hours_since(start: datetime, at: datetime) -> float:
     """Hours from the plan's start to a date and time (an observation's); never before it."""
-    hours = (at - datetime.combine(start_date, start_time)).total_seconds() / 3600.0
+    hours = (at - start).total_seconds() / 3600.0
     if hours < 0:
-        start = datetime.combine(start_date, start_time).strftime("%Y-%m-%d %H:%M")
         raise InputError(
-            f"{at:%Y-%m-%d %H:%M} is before the plan started ({start})",
+            f"{at:%Y-%m-%d %H:%M} is before the plan started ({start:%Y-%m-%d %H:%M})",
             field="hour", value=at, fix="give a date and time after the plan's start",
         )  # fmt: skip
     return hours

@@ -12,7 +12,8 @@ the last phase, as numpy arrays the plots draw directly:
 
 Methods and sources:
 
-* Need = deficit + (maintenance + ongoing losses) × t / 24 h, the deficit being
+* Need = deficit + what has left the patient by t (maintenance + ongoing losses
+  × t / 24 h, or the measured outputs in ins-and-outs mode), the deficit being
   % dehydration × body weight: the replacement-plus-maintenance frame of
   Davis H et al., 2013 AAHA/AAFP Fluid Therapy Guidelines for Dogs and Cats
   (J Am Anim Hosp Assoc 49:149–159) and Pardo M et al., 2024 AAHA Fluid Therapy
@@ -127,8 +128,9 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
     """Sample ``plan`` every ``step_minutes`` (and at each phase boundary and dose hour).
 
     Given: continuous phases integrate their rate (rate × time within the phase);
-    divided boluses add each dose at its dose hour. Consumption runs at
-    maintenance + ongoing losses (mL/day ÷ 24) from hour 0. Then, in mL:
+    divided boluses add each dose at its dose hour. What is consumed is the plan's
+    outflow (:meth:`Plan.consumed_ml`: maintenance + ongoing losses, or in ins-and-outs
+    mode the measured outputs, up to the plan's end). Then, in mL:
 
     * needed = deficit + consumed(t) (Davis 2013; Pardo 2024),
     * net balance = given − consumed(t),
