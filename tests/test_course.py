@@ -111,6 +111,11 @@ def test_weight_change_equals_net_fluid_balance():
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7))
     c = course(plan)
     assert np.allclose((c.weight_kg - 20) * 1000, c.given_ml - c.consumed_ml - c.eliminated_ml)
+    # and each side from the plan itself: every phase's volume given, maintenance + losses
+    # consumed for as long as the plan runs
+    assert c.given_ml[-1] == pytest.approx(sum(p.volume_ml for p in plan.phases))
+    rate = plan.maintenance.ml_per_h + plan.request.losses_ml_per_day / 24
+    assert c.consumed_ml[-1] == pytest.approx(rate * plan.end_h)
     end_of_replacement = int(24 * 60)
     assert c.remaining_deficit_ml[end_of_replacement] == pytest.approx(0, abs=1e-6)
     # replacing a deficit never takes the ECF above its euhydrated size: nothing is excreted
