@@ -178,3 +178,14 @@ def test_a_reopened_ins_and_outs_plan_keeps_what_was_measured(qtbot, window):
     record(window.course_view, 18, "urine_ml", 20, period=6)
     expected = ((60.0, 0.0), (30.0, 12.0), (20.0, 0.0))
     qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == expected)
+
+
+def test_moving_the_start_says_the_observation_times_moved(qtbot, window):
+    from datetime import time
+
+    view = window.course_view
+    record(view, 3, "weight_kg", 24.3)
+    window.session.update(start_time=time(9, 30))  # the demo dog starts 08:00
+    qtbot.waitUntil(lambda: window.session.plan.request.start_time == time(9, 30))
+    assert "moved by +1.5 h" in view.message.text()
+    assert view.observations_model.text(0, 0).endswith("12:30 (h 3)")

@@ -75,6 +75,7 @@ class CourseView(QWidget):
         super().__init__(parent)
         configure_pyqtgraph()
         self.session = session
+        self._shown_start = None  # the plan start the observations were last shown against
         self.setAccessibleName("Course")
         layout = QVBoxLayout(self)
 
@@ -342,6 +343,7 @@ class CourseView(QWidget):
     # ---- drawing -----------------------------------------------------------------------------
     def refresh(self, plan) -> None:  # noqa: ANN001 — Plan | None
         observations = list(self.session.observations)
+        self._say_if_start_moved(plan, observations)
         self._show_observations(observations)
         if plan is None:
             for curve in (
@@ -465,6 +467,19 @@ class CourseView(QWidget):
             Cell(q(plan.total_ml_first_24h, "mL")),
             Cell(status),
         ]
+
+    def _say_if_start_moved(self, plan, observations) -> None:  # noqa: ANN001
+        """Observations keep their hour of the plan: moving the start moves their dates."""
+        start = plan.start_moment if plan is not None else None
+        moved = self._shown_start is not None and start is not None and start != self._shown_start
+        if moved and observations:
+            shift = (start - self._shown_start).total_seconds() / 3600
+            self.message.setText(
+                f"⚠ The plan's start moved by {shift:+g} h. The {len(observations)} recorded "
+                "observation(s) keep their hour of the plan, so their dates and times moved "
+                "with it; check them."
+            )
+        self._shown_start = start
 
     def _when(self, hour: float) -> str:
         moment = self.session.plan.moment_at(hour) if self.session.plan else None
