@@ -245,3 +245,23 @@ def test_the_closed_form_tail_of_elimination_equals_stepping_it():
     closed = _renal_elimination(excess, k_e_per_step=0.006, k_per_step=0.087, steady_from=300)
     for a, b in zip(stepped, closed, strict=True):
         np.testing.assert_allclose(a, b, rtol=1e-9, atol=1e-9)
+
+
+@reference
+def test_pcv_and_total_solids_follow_the_plasma_dilution(dog_no_excretion):
+    # Hahn 2020: volume kinetics reads plasma dilution from haemoglobin; dilution is
+    # deepest at the end of an infusion and eases as the fluid distributes. Red cells and
+    # plasma protein stay as they were, so PCV and TS fall with the plasma's expansion.
+    from dataclasses import replace
+
+    plan = build_plan(replace(dog_no_excretion.request, pcv_percent=45, total_solids_g_per_dl=6))
+    extra = bolus_input(fluid_id="lactated_ringers", ml_per_kg=20, weight_kg=20, minutes=15)
+    c = course(plan, horizon_h=3, extra_boluses=(extra,))
+    end, later = 15, 120
+    assert c.pcv_percent[0] == pytest.approx(45) and c.total_solids_g_per_dl[0] == pytest.approx(6)
+    assert c.pcv_percent[end] < c.pcv_percent[later] < 45
+    assert c.total_solids_g_per_dl[end] < c.total_solids_g_per_dl[later] < 6
+    # by hand at the end of the bolus: RBC = P0 · 45/55, PCV = RBC / (RBC + P)
+    red_cells = c.plasma_ml[0] * 45 / 55
+    assert c.pcv_percent[end] == pytest.approx(100 * red_cells / (red_cells + c.plasma_ml[end]))
+    assert course(dog_no_excretion, horizon_h=1).pcv_percent is None  # no PCV entered

@@ -189,3 +189,12 @@ def test_moving_the_start_says_the_observation_times_moved(qtbot, window):
     qtbot.waitUntil(lambda: window.session.plan.request.start_time == time(9, 30))
     assert "moved by +1.5 h" in view.message.text()
     assert view.observations_model.text(0, 0).endswith("12:30 (h 3)")
+
+
+def test_each_measurement_stands_beside_its_prediction(window):
+    view = window.course_view
+    record(view, 6, "weight_kg", 24.1)
+    expected = course(window.session.plan, step_minutes=5).predicted("weight_kg", 6)
+    assert view.observations_model.text(0, 3) == format_quantity(expected, "kg")
+    record(view, 7, "heart_rate_per_min", 120)
+    assert view.observations_model.text(1, 3) == "—"  # the model does not predict it

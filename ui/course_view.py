@@ -168,7 +168,7 @@ class CourseView(QWidget):
 
         bottom = QTabWidget()
         bottom.setAccessibleName("Course tables")
-        self.observations_model = RowsModel(["When", "Measured", "Value"])
+        self.observations_model = RowsModel(["When", "Measured", "Value", "Predicted"])
         self.alerts_model = RowsModel(["Severity", "Alert", "What to do"])
         self.ins_outs_model = RowsModel(
             ["Period", "Hours", "Urine", "Other losses", "Insensible", "Give next", "Next rate"]
@@ -344,8 +344,8 @@ class CourseView(QWidget):
     def refresh(self, plan) -> None:  # noqa: ANN001 — Plan | None
         observations = list(self.session.observations)
         self._say_if_start_moved(plan, observations)
-        self._show_observations(observations)
         if plan is None:
+            self._show_observations(observations, None)
             for curve in (
                 self.plasma_curve,
                 self.interstitial_curve,
@@ -364,6 +364,7 @@ class CourseView(QWidget):
         # the plan and every observation, within the model's 14 days
         horizon = min(max([plan.end_h] + [o.hour for o in observations]), MAX_HORIZON_H)
         result = course(plan, horizon_h=horizon, step_minutes=5, table=self.session.table)
+        self._show_observations(observations, result)
         h = result.hours
         change = result.change_from_start()
         self.plasma_curve.setData(h, change["plasma"])
@@ -485,18 +486,21 @@ class CourseView(QWidget):
         moment = self.session.plan.moment_at(hour) if self.session.plan else None
         return f"h {hour:g}" if moment is None else f"{moment:%Y-%m-%d %H:%M} (h {hour:g})"
 
-    def _show_observations(self, observations: list[Observation]) -> None:
+    def _show_observations(self, observations: list[Observation], result) -> None:  # noqa: ANN001
+        """Each measurement, beside what the model predicted for it where it predicts one."""
         rows = []
         for obs in observations:
             for key, (label, unit) in QUANTITIES.items():
                 value = getattr(obs, key)
                 if value in (None, ""):
                     continue
-                if isinstance(value, float):
-                    shown = q(value, unit) if unit else f"{value:g}"
+                if isinstance(value, int | float):
+                    shown = q(float(value), unit) if unit else f"{value:g}"
                     if key == "urine_ml":
                         shown += f" over {q(obs.urine_period_h or 0, 'h')}"
                 else:
                     shown = str(value)
-                rows.append([Cell(self._when(obs.hour)), Cell(label), Cell(shown)])
+                predicted = result.predicted(key, obs.hour) if result is not None else None
+                expected = "—" if predicted is None else q(predicted, unit)
+                rows.append([Cell(self._when(obs.hour)), Cell(label), Cell(shown), Cell(expected)])
         self.observations_model.set_rows(rows)

@@ -50,6 +50,7 @@ from vetfluid.schedule import Phase
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
 
 MAX_HORIZON_H = 14 * 24.0
+PREDICTED_OBSERVABLES = ("weight_kg", "serum_na", "pcv_percent", "total_solids_g_per_dl")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -66,11 +67,21 @@ class Course:
     intracellular_ml: np.ndarray
     osmolality_mosm_per_kg: np.ndarray
     serum_na: np.ndarray | None
+    pcv_percent: np.ndarray | None  # by dilution of the starting PCV, when one was entered
+    total_solids_g_per_dl: np.ndarray | None  # likewise for total solids
     na_max_change_per_h: float  # the correction limit the band is drawn with
     weight_kg: np.ndarray
     remaining_deficit_ml: np.ndarray
     provenance: tuple[SpeciesValue, ...]
     elimination_left_out: str | None  # why renal elimination is not modelled, or None
+
+    def predicted(self, field: str, hour: float) -> float | None:
+        """The model's value of an observable (weight_kg, serum_na, pcv_percent,
+        total_solids_g_per_dl) at ``hour``, to set beside what was measured."""
+        if field not in PREDICTED_OBSERVABLES:
+            return None
+        value = self.at(hour)[field]
+        return None if value is None else float(value)
 
     def na_band(self) -> tuple[np.ndarray, np.ndarray] | None:
         """Where serum Na may be by each hour without changing faster than the limit:
@@ -103,6 +114,10 @@ class Course:
             "given_by_fluid_ml": {name: float(v[i]) for name, v in self.given_by_fluid_ml.items()},
             "eliminated_ml": float(self.eliminated_ml[i]),
             "serum_na": None if self.serum_na is None else float(self.serum_na[i]),
+            "pcv_percent": None if self.pcv_percent is None else float(self.pcv_percent[i]),
+            "total_solids_g_per_dl": None
+            if self.total_solids_g_per_dl is None
+            else float(self.total_solids_g_per_dl[i]),
         }
 
 
@@ -269,6 +284,23 @@ def _renal_elimination(
     return eliminated, in_plasma
 
 
+def _dilution(
+    plasma: np.ndarray, pcv0: float | None, solids0: float | None
+) -> tuple[np.ndarray | None, np.ndarray | None]:
+    """PCV and total solids as the plasma is diluted: red cells and plasma protein stay
+    as they were (no bleeding, no transfusion, no protein given or lost), so
+    PCV(t) = RBC / (RBC + P(t)) with RBC = P₀·PCV₀/(1 − PCV₀), and TS(t) = TS₀·P₀/P(t).
+    The dilution arithmetic volume kinetics rests on (Hahn 2020 measures plasma dilution
+    from haemoglobin); no veterinary validation of these predictions is on record."""
+    pcv = solids = None
+    if pcv0 is not None:
+        red_cells = plasma[0] * pcv0 / (100.0 - pcv0)
+        pcv = 100.0 * red_cells / (red_cells + plasma)
+    if solids0 is not None:
+        solids = solids0 * plasma[0] / plasma
+    return pcv, solids
+
+
 def elimination_applies(plan: Plan) -> str | None:
     """Why renal elimination of the excess is left out of this course, or None if it is in.
 
@@ -376,6 +408,7 @@ def course(
     icf = tbw - ecf
     plasma = share * ecf + excess
     serum_na = None if sodium is None else sodium * 1000.0 / tbw
+    pcv, solids = _dilution(plasma, plan.request.pcv_percent, plan.request.total_solids_g_per_dl)
 
     net = given - consumed - eliminated
     provenance = tuple(values.values())
@@ -390,6 +423,8 @@ def course(
         intracellular_ml=icf,
         osmolality_mosm_per_kg=osmolality,
         serum_na=serum_na,
+        pcv_percent=pcv,
+        total_solids_g_per_dl=solids,
         na_max_change_per_h=plan.request.max_na_change_per_h
         or limit("sodium_max_correction_mmol_per_l_h").value,
         weight_kg=w + net / 1000.0,
