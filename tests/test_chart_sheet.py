@@ -31,7 +31,7 @@ def test_page_carries_every_number_the_cautions_and_the_sources():
 
 def test_memory_values_are_named_in_words():
     result = chart("mongolian_gerbil")
-    unverified = [v.parameter for v in result.provenance if v.unverified]
+    unverified = [v.label for v in result.provenance if v.unverified]
     assert unverified, "the gerbil chart uses recalled values"
     html = chart_sheet_html(result)
     assert "memory — unverified" in html

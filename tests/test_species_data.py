@@ -230,3 +230,16 @@ def test_every_parameter_is_documented_in_the_data_readme(table):
     readme = (DATA / "README.md").read_text(encoding="utf-8")
     for name in table.definitions:
         assert f"`{name}`" in readme, name
+
+
+def test_every_parameter_has_a_label_people_read():
+    from vetfluid.plan import PlanRequest, build_plan
+    from vetfluid.species import load_table
+
+    table = load_table()
+    labels = [d.label for d in table.definitions.values()]
+    assert all(labels) and len(set(labels)) == len(labels)
+    plan = build_plan(PlanRequest(species_id="mongolian_gerbil", weight_kg=0.065))
+    note = next(f for f in plan.findings if f.code == "UNVERIFIED_VALUES")
+    assert "Lightest weight for a continuous line" in note.message
+    assert "continuous_line_min_kg" not in note.message

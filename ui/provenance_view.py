@@ -49,7 +49,10 @@ def provenance_tooltip(value: SpeciesValue, table: SpeciesTable) -> str:
         source = table.sources[value.source_id].citation
     else:
         source = "no source on record"
-    lines = [f"{value.parameter}: {shown_value(value)} {value.unit}", f"Origin: {origin}"]
+    lines = [
+        f"{value.label or value.parameter} ({value.parameter}): {shown_value(value)} {value.unit}",
+        f"Origin: {origin}",
+    ]
     if value.unverified:
         lines.append("Recalled from memory — unverified, not checked against a publication.")
         if value.source_id:
@@ -95,7 +98,7 @@ class ProvenanceView(QWidget):
             tip = provenance_tooltip(value, table)
             rows.append(
                 [
-                    Cell(value.parameter, tip),
+                    Cell(value.label or value.parameter, tip),
                     Cell(shown_value(value), tip),
                     Cell(value.unit, tip),
                     Cell(BASIS_WORDS[key], tip, icon(BASIS_ICONS[key])),

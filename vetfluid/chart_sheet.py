@@ -35,7 +35,7 @@ def chart_cells(chart: Chart) -> list[list[str]]:
 
 def chart_note(chart: Chart) -> str:
     """How the columns were computed, with the unverified values named."""
-    unverified = sorted({v.parameter for v in chart.provenance if v.unverified})
+    unverified = sorted({v.label or v.parameter for v in chart.provenance if v.unverified})
     flag = (
         f" Recalled, not checked against a publication: {', '.join(unverified)}."
         if unverified

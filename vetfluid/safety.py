@@ -477,12 +477,12 @@ def check_isotonic_maintenance(
 
 def note_unverified(ledger: Ledger) -> None:
     """Say how many species values the plan rests on were recalled from memory."""
-    unverified = [v for v in ledger.values.values() if v.unverified]
+    unverified = [v.label or v.parameter for v in ledger.values.values() if v.unverified]
     if unverified:
         ledger.add(
             "info",
             "UNVERIFIED_VALUES",
             f"{len(unverified)} species value(s) used here were recalled from memory, not "
-            f"checked against a publication: {', '.join(v.parameter for v in unverified)}.",
+            f"checked against a publication: {', '.join(unverified)}.",
             "Check them against your references before relying on them.",
         )

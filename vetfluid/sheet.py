@@ -145,7 +145,7 @@ def sources_html(provenance: list[dict], citations: dict[str, str]) -> str:
     used = table_html(
         [
             [
-                v["parameter"],
+                v.get("label") or v["parameter"],
                 f"{v['value']} {v['unit']}",
                 "memory — unverified" if v["basis"] == "memory" else v["basis"],
                 v["source_id"] or "—",

@@ -59,6 +59,7 @@ class ParameterDefinition:
     """What a parameter means, its unit and type, and who must have it."""
 
     name: str
+    label: str  # the name people read ("Body weight")
     unit: str
     type: str  # number | text | flag
     required: str  # all | ectotherm | none
@@ -104,6 +105,7 @@ class SpeciesValue:
     origin: str
     defined_on: str
     location: str
+    label: str = ""  # from parameter_definitions.csv; the parameter id when empty
 
     @property
     def unverified(self) -> bool:
@@ -122,6 +124,7 @@ class SpeciesValue:
         """The traceability record every plan and CLI output carries."""
         return {
             "parameter": self.parameter,
+            "label": self.label or self.parameter,
             "value": self.value,
             "low": self.low,
             "high": self.high,
@@ -223,6 +226,7 @@ class SpeciesTable:
                     origin=origin,
                     defined_on=holder,
                     location=row.location,
+                    label=self.definitions[parameter].label,
                 )
         return None
 
@@ -301,16 +305,22 @@ def _load_sources(path: Path) -> dict[str, Source]:
 
 def _load_definitions(path: Path) -> dict[str, ParameterDefinition]:
     definitions: dict[str, ParameterDefinition] = {}
-    for location, row in read_rows(path, ("parameter", "unit", "type", "required", "description")):
+    columns = ("parameter", "label", "unit", "type", "required", "description")
+    for location, row in read_rows(path, columns):
         name = row["parameter"]
         if name in definitions:
             raise SpeciesDataError(f"duplicate parameter {name!r}", location=location)
+        if not row["label"].strip():
+            raise SpeciesDataError(
+                f"{name} has no label", location=location, fix="give the name people read"
+            )
         require_choice(row["type"], ("number", "text", "flag"), column="type", location=location)
         require_choice(
             row["required"], ("all", "ectotherm", "none"), column="required", location=location
         )
         definitions[name] = ParameterDefinition(
             name=name,
+            label=row["label"].strip(),
             unit=row["unit"],
             type=row["type"],
             required=row["required"],
