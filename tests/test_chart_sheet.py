@@ -11,7 +11,7 @@ import pytest
 
 from vetfluid.cautions import CAUTIONS
 from vetfluid.chart import chart
-from vetfluid.chart_sheet import NO_LINE, chart_cells, chart_sheet_html
+from vetfluid.chart_sheet import NO_LINE, chart_cells, chart_note, chart_sheet_html
 from vetfluid.formatting import format_quantity as q
 
 VETFLUID = str(Path(sys.executable).with_name("vetfluid"))
@@ -35,7 +35,9 @@ def test_memory_values_are_named_in_words():
     assert unverified, "the gerbil chart uses recalled values"
     html = chart_sheet_html(result)
     assert "memory — unverified" in html
-    assert all(name in html for name in unverified)
+    note = chart_note(result)  # the sentence under the chart names them in words
+    assert all(name in note for name in unverified)
+    assert not any(v.parameter in note for v in result.provenance)
 
 
 def test_no_bolus_where_no_line_is_practical_and_small_species_in_grams():

@@ -198,3 +198,16 @@ def test_each_measurement_stands_beside_its_prediction(window):
     assert view.observations_model.text(0, 3) == format_quantity(expected, "kg")
     record(view, 7, "heart_rate_per_min", 120)
     assert view.observations_model.text(1, 3) == "—"  # the model does not predict it
+
+
+def test_the_deficit_alert_and_the_predicted_column_use_one_model(window):
+    # the course model's weight, not the plan's fluid balance alone, in both places
+    view = window.course_view
+    record(view, 8, "weight_kg", 24.2)
+    predicted = course(window.session.plan, step_minutes=5).predicted("weight_kg", 8)
+    model = view.alerts_model
+    alert = next(
+        model.text(r, 1) for r in range(model.rowCount()) if "predicted" in model.text(r, 1)
+    )
+    assert format_quantity((predicted - 24.0) * 1000, "g") in alert
+    assert view.observations_model.text(0, 3) == format_quantity(predicted, "kg")

@@ -542,3 +542,20 @@ def test_a_whole_plan_of_colloid_is_a_hard_limit():
     assert limit.severity == "hard" and "unverified" in limit.message
     assert "memory — unverified" in next(f.message for f in plan.findings
                                          if f.code == "COLLOID_CHOSEN")  # fmt: skip
+
+
+def test_the_colloid_limit_holds_for_every_24_hours_not_only_the_first():
+    from vetfluid.plan import PlanRequest, build_plan
+
+    def codes(**changes):
+        plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6",
+                                      renal_disease=True, **changes))  # fmt: skip
+        return {f.code for f in plan.findings}
+
+    # ins and outs of an anuric dog on starch: 100 mL insensible loss each 6 h period is
+    # 0.83 mL/kg/h, 20 mL/kg in 24 h — at the limit; measured urine takes it over on day 2
+    under = codes(ins_and_outs_period_h=6, measured_outputs=((0.0, 0.0),) * 3)
+    assert "COLLOID_DAILY_LIMIT" not in under
+    over = codes(ins_and_outs_period_h=6,
+                 measured_outputs=((0.0, 0.0),) * 4 + ((120.0, 0.0),) * 4)  # fmt: skip
+    assert "COLLOID_DAILY_LIMIT" in over

@@ -118,6 +118,20 @@ def test_boluses_longer_than_the_first_periods_leave_the_period_after_them():
     assert periods and periods[0].start_h == pytest.approx(1.0)  # 4 × 15 min of boluses
 
 
+def test_boluses_whose_minutes_do_not_add_up_exactly_still_leave_a_period():
+    # a clinic's 20 min boluses: 6 × 20 min sums to 1.9999999999999998 h in floating point
+    from vetfluid.overrides import set_override
+    from vetfluid.species import load_table
+
+    set_override(species_id="dog", parameter="bolus_minutes", value=20, low=15, high=30,
+                 note="clinic protocol")  # fmt: skip
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, ins_and_outs_period_h=2,
+                                  resuscitation_boluses=6), load_table())  # fmt: skip
+    periods = [p for p in plan.phases if p.kind == "ins and outs"]
+    assert [(round(p.start_h, 6), p.end_h) for p in periods] == [(2.0, 4.0)]
+    assert all(p.volume_ml > 0 for p in plan.phases)
+
+
 def test_the_deficit_is_given_in_full_after_a_bolus():
     # Davis 2013: deficit = 5 % of 20 kg = 1 L, over the 12 h after the bolus
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, ins_and_outs_period_h=6,

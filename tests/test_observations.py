@@ -128,8 +128,15 @@ def test_only_complete_periods_count_and_urine_is_spread_over_its_collection():
     # is not complete yet
     assert measured_outputs([Observation(hour=7, urine_ml=70, urine_period_h=7)],
                             period_h=6) == ((60.0, 0.0),)  # fmt: skip
-    # outputs saved with a reopened plan stand where no observation covers their period
+    # outputs saved with a reopened plan stay; what is recorded now adds to them
     saved = ((60.0, 0.0), (30.0, 12.0))
-    again = [Observation(hour=18, urine_ml=20, urine_period_h=6)]
-    assert measured_outputs(again, period_h=6, earlier=saved) == ((60.0, 0.0), (30.0, 12.0),
+    again = [Observation(hour=18, urine_ml=20, urine_period_h=6),
+             Observation(hour=9, other_losses_ml=5)]  # fmt: skip
+    assert measured_outputs(again, period_h=6, earlier=saved) == ((60.0, 0.0), (30.0, 17.0),
                                                                   (20.0, 0.0))  # fmt: skip
+    # urine collected before the plan started belongs to no period: 120 mL over 12 h to
+    # hour 6 puts 60 mL in hours 0–6
+    before = [Observation(hour=6, urine_ml=120, urine_period_h=12)]
+    assert measured_outputs(before, period_h=6) == ((60.0, 0.0),)
+    # a loss alone does not complete a period: its urine is still to come
+    assert measured_outputs([Observation(hour=13, other_losses_ml=8)], period_h=6) == ()

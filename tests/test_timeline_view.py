@@ -39,9 +39,11 @@ def curve_arrays(curve):
 def assert_draws(view: TimelineView, tl) -> None:
     pairs = (
         (view.rate_curve, tl.rate_ml_per_h),
+        (view.rate_fill, tl.rate_ml_per_h),
         (view.given_curve, tl.given_ml),
         (view.needed_curve, tl.needed_ml),
         (view.deficit_curve, tl.remaining_deficit_ml),
+        (view.deficit_fill, tl.remaining_deficit_ml),
         (view.weight_curve, tl.weight_kg),
     )
     for curve, expected in pairs:

@@ -391,8 +391,9 @@ class CourseView(QWidget):
         rows = []
         threshold = self.oliguria.value() or None  # 0 shows as the species' default
         for finding in alerts(
-            plan, observations, oliguria_ml_per_kg_h=threshold, table=self.session.table
-        ):
+            plan, observations, oliguria_ml_per_kg_h=threshold, table=self.session.table,
+            predicted_weight=lambda hour: result.predicted("weight_kg", hour),
+        ):  # fmt: skip
             rows.append(
                 [
                     Cell(SEVERITY_WORDS[finding.severity], finding.code,

@@ -19,6 +19,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 
@@ -110,9 +111,14 @@ def alerts(
     *,
     oliguria_ml_per_kg_h: float | None = None,
     table: SpeciesTable | None = None,
+    predicted_weight: Callable[[float], float] | None = None,
 ) -> list[Finding]:
-    """Findings from what was observed (see the module docstring for each rule)."""
+    """Findings from what was observed (see the module docstring for each rule).
+
+    ``predicted_weight(hour)`` is the weight the deficit check compares with: the course
+    model's where it is shown (``Course.predicted``), else the plan's fluid balance."""
     table = table or load_table()
+    expected = predicted_weight or (lambda hour: predicted_weight_kg(plan, hour))
     sid = plan.request.species_id
     ordered = sorted(observations, key=lambda o: o.hour)
     found: list[Finding] = []
@@ -138,7 +144,7 @@ def alerts(
                     action="Stop or slow the fluids, examine for overload and re-plan.",
                     source_id=gain.source_id,
                 ))  # fmt: skip
-            expected_gain = predicted_weight_kg(plan, obs.hour) - plan.request.weight_kg
+            expected_gain = expected(obs.hour) - plan.request.weight_kg
             seen_gain = obs.weight_kg - plan.request.weight_kg
             if (
                 obs.hour >= DEFICIT_CHECK_AFTER_H
@@ -241,36 +247,28 @@ def measured_outputs(
     """(urine mL, other losses mL) for each *complete* period of ``period_h`` from hour 0.
 
     Urine is spread evenly over the window it was collected in (``urine_period_h`` up to
-    its hour), so a volume collected across two periods counts in both. Other losses
-    count in the period they were recorded in (hour in (start, end]; hour 0 in the first).
-    A period is complete once a urine or loss measurement at or after its end is recorded.
-    ``earlier`` holds outputs saved with the plan for periods no observation here covers
-    (a reopened plan keeps them)."""
+    its hour); the part collected before hour 0 belongs to no period. Other losses count
+    in the period they were recorded in (hour in (start, end]; hour 0 in the first). A
+    period is complete once urine has been measured to its end. ``earlier`` holds the
+    outputs saved with a reopened plan, from measurements not among ``observations``:
+    what is recorded now is added to them."""
     require_number(period_h, "period_h", low=1, high=24, unit="h")
-    measuring = [o for o in observations if o.urine_ml is not None or o.other_losses_ml]
-    latest = max((o.hour for o in measuring), default=0.0)
+    urine_seen = [o for o in observations if o.urine_ml is not None and o.urine_period_h]
+    latest = max((o.hour for o in urine_seen), default=0.0)
     complete = max(int(np.floor(latest / period_h + 1e-9)), len(earlier))
-    urine = np.zeros(complete)
-    other = np.zeros(complete)
-    covered = np.zeros(complete, dtype=bool)
     starts = np.arange(complete) * period_h
-    for o in measuring:
-        if o.urine_ml is not None and o.urine_period_h:
-            a, b = max(0.0, o.hour - o.urine_period_h), o.hour
-            overlap = np.clip(np.minimum(starts + period_h, b) - np.maximum(starts, a), 0.0, None)
-            urine += o.urine_ml * overlap / (b - a) if b > a else 0.0
-            covered |= overlap > 0
+    urine = np.array([u for u, _ in earlier] + [0.0] * (complete - len(earlier)))
+    other = np.array([o for _, o in earlier] + [0.0] * (complete - len(earlier)))
+    for o in urine_seen:
+        a, b = o.hour - o.urine_period_h, o.hour
+        overlap = np.clip(np.minimum(starts + period_h, b) - np.maximum(starts, a), 0.0, None)
+        urine += o.urine_ml * overlap / o.urine_period_h
+    for o in observations:
         if o.other_losses_ml:
             number = max(0, int(np.ceil(o.hour / period_h - 1e-9)) - 1)
             if number < complete:
                 other[number] += o.other_losses_ml
-                covered[number] = True
-    return tuple(
-        (float(urine[i]), float(other[i]))
-        if covered[i] or i >= len(earlier)
-        else (float(earlier[i][0]), float(earlier[i][1]))
-        for i in range(complete)
-    )
+    return tuple((float(u), float(x)) for u, x in zip(urine, other, strict=True))
 
 
 def ins_and_outs_from_observations(

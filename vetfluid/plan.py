@@ -462,9 +462,10 @@ def _ins_and_outs_segments(
 
     segments: list[Segment] = []
     # every period measured, the next one, and at least the period after the boluses
-    for number in range(max(len(rows) + 1, math.floor(start_h / period) + 1)):
+    # (bolus ends are sums of minutes: 6 × 20 min can come to 1.9999999999999998 h)
+    for number in range(max(len(rows) + 1, math.floor(start_h / period + 1e-9) + 1)):
         a, b = max(number * period, start_h), (number + 1) * period
-        if b > a:  # periods before the end of resuscitation boluses are skipped
+        if b - a > 1e-6:  # periods taken up by resuscitation boluses are skipped
             segments.append(("ins and outs", a, b, needs(number) + deficit_rate(a, b)))
     # what leaves: the measured periods, then insensible loss + the last period measured
     outflow = tuple((r.start_h, r.replace_ml / period) for r in rows) + (

@@ -121,32 +121,43 @@ def check_colloid(
     ledger: Ledger, fluid: fluids.Fluid, phases: tuple[Phase, ...], weight_kg: float
 ) -> None:
     """A colloid as the plan's fluid: it restores plasma volume, not an interstitial
-    deficit, and its daily dose is limited. The risks of starches, the daily limit and the
-    colloid's volume half-life are recalled, not checked — memory, and said so."""
+    deficit, and its dose over any 24 h is limited (safety_limits.csv). Each recalled
+    value says so, read from its basis."""
     if fluid.colloid is None:
         return
+    half_life = "recalled (memory — unverified)" if fluid.colloid.basis == "memory" else "on record"
     ledger.add(
         "soft",
         "COLLOID_CHOSEN",
         f"{fluid.name} holds its volume in the plasma: it does not rehydrate the interstitium "
         "and adds no maintenance water. Starches have been restricted in critically ill "
-        "people for kidney injury and bleeding, and its volume half-life of "
-        f"{fluid.colloid.volume_half_life_h:g} h is recalled (memory — unverified).",
+        "people for kidney injury and bleeding (recalled — unverified); its volume half-life "
+        f"of {fluid.colloid.volume_half_life_h:g} h is {half_life}.",
         "Use a crystalloid for rehydration and maintenance; give a colloid only as your "
         "practice protocol allows, and record why.",
     )
     most = limit("colloid_max_ml_per_kg_day")
-    first_day = sum(p.volume_between(0.0, 24.0) for p in phases) / weight_kg
-    if first_day > most.value:
+    worst_ml, worst_start = _largest_24_h(phases)
+    if worst_ml / weight_kg > most.value:
+        basis = " (recalled — unverified)" if most.basis == "memory" else ""
         ledger.add(
             most.severity,
             "COLLOID_DAILY_LIMIT",
-            f"The plan gives {q(first_day, 'mL/kg')} of {fluid.name} in the first 24 h, above "
-            f"{q(most.value, 'mL/kg/day')} (recalled — unverified).",
+            f"The plan gives {q(worst_ml / weight_kg, 'mL/kg')} of {fluid.name} in the 24 h "
+            f"from hour {worst_start:g}, above {q(most.value, 'mL/kg/day')}{basis}.",
             "Give the deficit and maintenance as a crystalloid; keep the colloid to small "
             "boluses within the daily limit your protocol sets.",
             most.source_id,
         )
+
+
+def _largest_24_h(phases: tuple[Phase, ...]) -> tuple[float, float]:
+    """The most given in any 24 h and where that window starts. Volume given is piecewise
+    linear in time, so the largest window starts or ends at a phase boundary or dose."""
+    moments = {p.start_h for p in phases} | {p.end_h for p in phases}
+    moments |= {h for p in phases for h in p.dose_hours()}
+    starts = {max(0.0, m) for m in moments} | {max(0.0, m - 24.0) for m in moments}
+    return max((sum(p.volume_between(a, a + 24.0) for p in phases), a) for a in sorted(starts))
 
 
 def check_reptile_dextrose(ledger: Ledger, dextrose_percent: float) -> None:
