@@ -277,3 +277,20 @@ def test_a_bad_reptile_temperature_does_not_follow_the_patient_to_a_dog(qtbot, w
     window.patient._weight_changed()
     plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
     assert plan.request.body_temp_c is None
+
+
+def test_a_plan_without_a_start_date_says_todays_is_assumed(qtbot, planner):
+    from dataclasses import replace
+    from datetime import date
+
+    from vetfluid.demos import DEMOS
+
+    request = replace(DEMOS["dehydrated_dog"].request, start_date=None)
+    planner.session.replace_request(request)
+    qtbot.waitUntil(lambda: planner.session.plan is not None)
+    settings = planner.settings_box
+    assert settings.start_note.isVisible() and "no start date" in settings.start_note.text()
+    assert planner.session.plan.request.start_date == date.today()
+    planner.open_demo("small_gerbil")  # a demo has its date: no note
+    qtbot.waitUntil(lambda: planner.session.plan.request.species_id == "mongolian_gerbil")
+    assert not settings.start_note.isVisible()

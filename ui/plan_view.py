@@ -193,6 +193,11 @@ class PlanSettings(QGroupBox):
         self.start.setToolTip("Date and clock time of hour 0 of the plan")
         self.start.dateTimeChanged.connect(self._start_changed)
         form.addRow("&Start at", self.start)
+        self.start_note = QLabel()
+        self.start_note.setWordWrap(True)
+        self.start_note.setAccessibleName("Start note")
+        self.start_note.hide()
+        form.addRow("", self.start_note)
 
         session.inputsReplaced.connect(self.load_inputs)
         session.planChanged.connect(self._plan_changed)
@@ -218,6 +223,10 @@ class PlanSettings(QGroupBox):
         self.dextrose.show_value(inputs["dextrose_percent"] or None)
         self.max_na.show_value(inputs["max_na_change_per_h"])
         start, day = inputs["start_time"], inputs["start_date"]
+        # a plan opened with a clock time but no date (saved before plans had dates) is put
+        # on today's date: said beside the field, not done silently
+        self.start_note.setText("⚠ This plan had no start date; today's is assumed — check it.")
+        self.start_note.setVisible(start is not None and day is None)
         if start is None or day is None:
             # a plan in the window always sits on the calendar; shown, so the user sees it
             now = datetime.now()
@@ -254,6 +263,7 @@ class PlanSettings(QGroupBox):
             self.session.update(kcl_mmol_per_l=None)
 
     def _start_changed(self, value: QDateTime) -> None:
+        self.start_note.hide()  # the user has set it
         moment = from_qt(value)
         self.session.update(start_time=moment.time(), start_date=moment.date())
 
