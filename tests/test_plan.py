@@ -349,3 +349,19 @@ def test_hours_since_start_across_midnight_and_months():
     assert clock_time(time(22, 0), 3.5) == "01:30 (+1 d)"
     with pytest.raises(InputError, match="before the plan started"):
         hours_since(start, datetime(2026, 11, 30, 21, 0))
+
+
+def test_an_intracoelomic_dose_bigger_than_one_injection_says_so():
+    # the coelom is one space: a dose split over "sites" is several punctures, not sites
+    plan = build_plan(PlanRequest(species_id="red_eared_slider", weight_kg=0.8,
+                                  dehydration_percent=8))  # fmt: skip
+    assert plan.route == "icoel"
+    many = [p for p in plan.phases if p.mode == "intermittent" and p.sites_per_dose > 1]
+    assert many
+    finding = next(f for f in plan.findings if f.code == "ICOEL_MORE_THAN_ONE_INJECTION")
+    assert finding.severity == "soft" and f"{many[0].sites_per_dose} punctures" in finding.message
+    assert "replacement dose" in finding.message  # the maintenance doses fit one injection
+    euhydrated = build_plan(PlanRequest(species_id="red_eared_slider", weight_kg=0.8,
+                                        dehydration_percent=0))  # fmt: skip
+    assert all(p.sites_per_dose == 1 for p in euhydrated.phases if p.mode == "intermittent")
+    assert "ICOEL_MORE_THAN_ONE_INJECTION" not in {f.code for f in euhydrated.findings}

@@ -264,7 +264,21 @@ def check_predicted_gain(
 
 
 def check_divided_sites(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
-    """Doses that need more injection sites than is practical."""
+    """Doses that need more injection sites than is practical. Into the coelom, which is
+    one space, a dose above the per-injection volume is more than one puncture: said
+    on its own (the per-injection volume is the species' value)."""
+    for phase in phases:
+        if phase.mode == "intermittent" and phase.route == "icoel" and phase.sites_per_dose > 1:
+            ledger.add(
+                "soft",
+                "ICOEL_MORE_THAN_ONE_INJECTION",
+                f"Each intracoelomic {phase.kind} dose of {q(phase.dose_ml or 0.0, 'mL')} is more "
+                f"than one injection holds; it is planned as {phase.sites_per_dose} punctures "
+                f"of {q(phase.ml_per_site or 0.0, 'mL')}.",
+                "Give smaller doses more often (replace the deficit over a longer period), or "
+                "place an IO/IV line.",
+            )
+            break
     for phase in phases:
         if phase.mode == "intermittent" and not phase.fits_sites:
             ledger.add(
