@@ -409,9 +409,13 @@ class MainWindow(QMainWindow):
 
             weight = format_quantity(plan.request.weight_kg, "kg")
             self.setWindowTitle(f"vetfluid — {plan.species_name}, {weight}")
-            self.statusBar().showMessage(
-                f"Plan updated: {format_quantity(plan.total_ml_first_24h, 'mL')} in the first 24 h."
+            total = format_quantity(plan.total_ml_first_24h, "mL")
+            span = (
+                f"over the {plan.end_h:g} h planned so far"
+                if plan.request.ins_and_outs_period_h is not None and plan.end_h < 24
+                else "in the first 24 h"
             )
+            self.statusBar().showMessage(f"Plan updated: {total} {span}.")
         self._update_check_tab()
 
     def _update_check_tab(self) -> None:
