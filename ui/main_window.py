@@ -406,15 +406,13 @@ class MainWindow(QMainWindow):
             self.statusBar().showMessage(self.session.problem or "No plan yet.")
         else:
             from vetfluid.formatting import format_quantity
+            from vetfluid.ins_and_outs import planned_so_far
 
             weight = format_quantity(plan.request.weight_kg, "kg")
             self.setWindowTitle(f"vetfluid — {plan.species_name}, {weight}")
             total = format_quantity(plan.total_ml_first_24h, "mL")
-            span = (
-                f"over the {plan.end_h:g} h planned so far"
-                if plan.request.ins_and_outs_period_h is not None and plan.end_h < 24
-                else "in the first 24 h"
-            )
+            covers = planned_so_far(plan.end_h, plan.request.ins_and_outs_period_h)
+            span = f"over {covers}" if covers else "in the first 24 h"
             self.statusBar().showMessage(f"Plan updated: {total} {span}.")
         self._update_check_tab()
 

@@ -376,8 +376,9 @@ class PlanSummary(QWidget):
             deficit += f"; free-water deficit {q(plan.free_water_deficit_ml, 'mL')}"
         self.values["deficit"].setText(deficit)
         first24 = q(plan.total_ml_first_24h, "mL")
-        if period is not None and plan.end_h < 24:
-            first24 += f" ({planned_so_far(plan.end_h)})"
+        covers = planned_so_far(plan.end_h, period)
+        if covers:
+            first24 += f" ({covers})"
         self.values["first24"].setText(first24)
         self.values["fluid"].setText(
             f"{plan.fluid_name} — Na {q(plan.fluid_na_mmol_per_l, 'mmol/L')}, "

@@ -339,7 +339,7 @@ def _phase_line(p: dict) -> str:
 
 def print_plan(data: dict) -> None:
     """The plan as a readable sheet for a person at a terminal."""
-    from vetfluid.sheet import first_24h_text, maintenance_text
+    from vetfluid.sheet import first_24h_text, ins_and_outs_rows, maintenance_text
 
     fl = data["fluid"]
     rows = [
@@ -373,10 +373,9 @@ def print_plan(data: dict) -> None:
     if "ins_and_outs" in data:
         io = data["ins_and_outs"]
         print(f"\nIns and outs (every {io['period_h']:g} h; the next period replaces these)")
-        for r in io["periods"]:
-            print(f"  h {r['start_h']:g}–{r['end_h']:g}: urine {_q(r['urine_ml'], 'mL')}, other "
-                  f"{_q(r['other_losses_ml'], 'mL')}, insensible {_q(r['insensible_ml'], 'mL')} "
-                  f"→ {_q(r['next_rate_ml_per_h'], 'mL/h')} next")  # fmt: skip
+        for period, urine, other, insensible, rate in ins_and_outs_rows(data):
+            print(f"  {period}: urine {urine}, other {other}, insensible {insensible} "
+                  f"→ {rate} next")  # fmt: skip
         if not io["periods"]:
             print("  nothing measured yet")
     print("\nSchedule")

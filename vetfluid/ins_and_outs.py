@@ -21,8 +21,11 @@ def maintenance_not_given(period_h: float) -> str:
     )
 
 
-def planned_so_far(end_h: float) -> str:
-    """The first-24-h total covers only the periods planned so far in ins-and-outs mode."""
+def planned_so_far(end_h: float, period_h: float | None) -> str | None:
+    """What a first-24-h total covers when an ins-and-outs plan ends before hour 24
+    (None otherwise: then it is the whole first day)."""
+    if period_h is None or end_h >= 24:
+        return None
     return f"the periods planned so far, to hour {end_h:g}; more follow as each is measured"
 
 

@@ -151,11 +151,16 @@ def check_colloid(
         )
 
 
+def _turning_points(phases: tuple[Phase, ...]) -> set[float]:
+    """Where volume given stops being linear in time: phase boundaries and dose hours."""
+    moments = {p.start_h for p in phases} | {p.end_h for p in phases}
+    return moments | {h for p in phases for h in p.dose_hours()}
+
+
 def _largest_24_h(phases: tuple[Phase, ...]) -> tuple[float, float]:
     """The most given in any 24 h and where that window starts. Volume given is piecewise
     linear in time, so the largest window starts or ends at a phase boundary or dose."""
-    moments = {p.start_h for p in phases} | {p.end_h for p in phases}
-    moments |= {h for p in phases for h in p.dose_hours()}
+    moments = _turning_points(phases)
     starts = {max(0.0, m) for m in moments} | {max(0.0, m - 24.0) for m in moments}
     return max((sum(p.volume_between(a, a + 24.0) for p in phases), a) for a in sorted(starts))
 
@@ -241,8 +246,7 @@ def check_predicted_gain(
     """
     gain = limit("overload_weight_gain_fraction")
     line = overload_weight_kg(weight_kg=weight_kg, deficit_ml=deficit_ml, gain_fraction=gain.value)
-    moments = sorted({p.start_h for p in phases} | {p.end_h for p in phases}
-                     | {h for p in phases for h in p.dose_hours()})  # fmt: skip
+    moments = sorted(_turning_points(phases))
     peak_ml, peak_h = 0.0, 0.0
     for hour in moments:
         given = sum(p.volume_between(0.0, hour + 1e-9) for p in phases)

@@ -176,22 +176,32 @@ def maintenance_text(data: dict) -> str:
 def first_24h_text(data: dict) -> str:
     """The volume of hours 0–24; in ins-and-outs mode, which periods that covers."""
     end = max(p["end_h"] for p in data["phases"])
-    so_far = f" ({planned_so_far(end)})" if data.get("ins_and_outs") and end < 24 else ""
+    io = data.get("ins_and_outs")
+    covers = planned_so_far(end, io["period_h"] if io else None)
+    so_far = f" ({covers})" if covers else ""
     return q(data["total_ml_first_24h"], "mL") + so_far
+
+
+INS_AND_OUTS_HEADER = ("Period", "Urine", "Other losses", "Insensible", "Next rate")
+
+
+def ins_and_outs_rows(data: dict) -> list[list[str]]:
+    """The ins-and-outs period table of a plan's JSON as text (sheet and CLI)."""
+    return [
+        [f"h {r['start_h']:g}–{r['end_h']:g}", q(r["urine_ml"], "mL"),
+         q(r["other_losses_ml"], "mL"), q(r["insensible_ml"], "mL"),
+         q(r["next_rate_ml_per_h"], "mL/h")]
+        for r in data["ins_and_outs"]["periods"]
+    ]  # fmt: skip
 
 
 def _ins_and_outs_html(data: dict) -> str:
     io = data.get("ins_and_outs")
     if not io:
         return ""
-    rows = [
-        [f"h {r['start_h']:g}–{r['end_h']:g}", q(r["urine_ml"], "mL"),
-         q(r["other_losses_ml"], "mL"), q(r["insensible_ml"], "mL"),
-         q(r["next_rate_ml_per_h"], "mL/h")]
-        for r in io["periods"]
-    ] or [["nothing measured yet", "", "", "", ""]]  # fmt: skip
+    rows = ins_and_outs_rows(data) or [["nothing measured yet", "", "", "", ""]]
     return f"<h3>Ins and outs (every {io['period_h']:g} h; Côté 2020)</h3>" + table_html(
-        rows, ["Period", "Urine", "Other losses", "Insensible", "Next rate"]
+        rows, list(INS_AND_OUTS_HEADER)
     )
 
 
