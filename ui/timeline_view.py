@@ -23,6 +23,7 @@ from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
 import pyqtgraph as pg  # isort: skip  (after PySide6, so pyqtgraph binds to it)
 
+from ui.plot_trace import Trace
 from vetfluid.formatting import format_number, format_quantity
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time
@@ -111,6 +112,13 @@ def _brush(colour: str, alpha: int):
     c = QColor(colour)
     c.setAlpha(alpha)
     return pg.mkBrush(c)
+
+
+def curve(plot: pg.PlotItem, **opts) -> Trace:
+    """One series on ``plot``, entered in its legend when it has a name."""
+    item = Trace(**opts)
+    plot.addItem(item)
+    return item
 
 
 class SafeNumberAxis(pg.AxisItem):
@@ -254,32 +262,31 @@ class TimelineView(QWidget):
         dash, dot = Qt.PenStyle.DashLine, Qt.PenStyle.DotLine
         # Fills are items of their own, drawn without antialiasing (a filled polygon's
         # antialiased edge is a good part of a redraw); the lines over them stay smooth.
-        self.rate_fill = self.rate_plot.plot(
-            pen=None, stepMode="right", fillLevel=0.0, brush=_brush(RATE_COLOUR, 50),
-            antialias=False,
-        )  # fmt: skip
-        self.rate_curve = self.rate_plot.plot(
-            name="Planned rate", pen=_pen(RATE_COLOUR, width=2.5), stepMode="right"
+        self.rate_fill = curve(
+            self.rate_plot, step=True, brush=_brush(RATE_COLOUR, 50), antialias=False
         )
-        self.given_curve = self.volume_plot.plot(name="Given", pen=_pen(GIVEN_COLOUR, width=2.5))
-        self.needed_curve = self.volume_plot.plot(
-            name="Needed", pen=_pen(NEEDED_COLOUR, width=2.0, style=dash)
+        self.rate_curve = curve(
+            self.rate_plot, name="Planned rate", pen=_pen(RATE_COLOUR, width=2.5), step=True
         )
-        self.deficit_fill = self.deficit_plot.plot(
-            pen=None, fillLevel=0.0, brush=_brush(DEFICIT_COLOUR, 45), antialias=False
+        self.given_curve = curve(self.volume_plot, name="Given", pen=_pen(GIVEN_COLOUR, width=2.5))
+        self.needed_curve = curve(
+            self.volume_plot, name="Needed", pen=_pen(NEEDED_COLOUR, width=2.0, style=dash)
         )
-        self.deficit_curve = self.deficit_plot.plot(
-            name="Deficit left", pen=_pen(DEFICIT_COLOUR, width=2.5)
+        self.deficit_fill = curve(
+            self.deficit_plot, brush=_brush(DEFICIT_COLOUR, 45), antialias=False
         )
-        self.weight_curve = self.weight_plot.plot(
-            name="Predicted weight", pen=_pen(WEIGHT_COLOUR, width=2.5)
+        self.deficit_curve = curve(
+            self.deficit_plot, name="Deficit left", pen=_pen(DEFICIT_COLOUR, width=2.5)
         )
-        self.overload_curve = self.weight_plot.plot(
-            name="Overload line",
+        self.weight_curve = curve(
+            self.weight_plot, name="Predicted weight", pen=_pen(WEIGHT_COLOUR, width=2.5)
+        )
+        self.overload_curve = curve(
+            self.weight_plot, name="Overload line",
             pen=_pen(OVERLOAD_COLOUR, width=2.0, style=Qt.PenStyle.DashDotLine),
-        )
-        self.baseline_curve = self.weight_plot.plot(
-            name="Entered weight", pen=_pen(NEUTRAL_COLOUR, width=1.5, style=dot)
+        )  # fmt: skip
+        self.baseline_curve = curve(
+            self.weight_plot, name="Entered weight", pen=_pen(NEUTRAL_COLOUR, width=1.5, style=dot)
         )
         self.fills = (self.rate_fill, self.deficit_fill)  # shading under their lines, unnamed
         self.curves = (

@@ -1,0 +1,125 @@
+"""A plotted series kept as one polygon: the line of a curve, or the area under it.
+
+pyqtgraph's general curve item recomputes bounds, pixel padding and finite checks on
+every update and several times per repaint; with nine curves that was half of an
+edit's redraw. A :class:`Trace` takes the core's arrays (always finite), builds its
+polygon and bounds once per ``setData`` and only draws in ``paint``. Like any plot
+item it is created once and updated in place.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from PySide6.QtCore import QRectF, Qt
+from PySide6.QtGui import QBrush, QPainter, QPen, QPolygonF
+
+import pyqtgraph as pg  # isort: skip  (after PySide6, so pyqtgraph binds to it)
+
+EDGE_PX = 3.0  # a line's half-width and its antialiased edge, kept inside the bounds
+
+
+def step_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The corners of a step line where ``y[i]`` holds from ``x[i]`` until ``x[i + 1]``."""
+    if len(x) == 0:
+        return x, y
+    return np.repeat(x, 2)[1:], np.repeat(y, 2)[:-1]
+
+
+class Trace(pg.GraphicsObject):
+    """A line (``pen``) or the area between the line and zero (``brush``) over (x, y).
+
+    ``step=True`` holds each value until the next x (a rate that changes in steps).
+    ``opts`` carries the pen, brush and step mode under pyqtgraph's keys, which the
+    legend samples read.
+    """
+
+    def __init__(
+        self,
+        *,
+        name: str | None = None,
+        pen: QPen | None = None,
+        brush: QBrush | None = None,
+        step: bool = False,
+        antialias: bool = True,
+    ) -> None:
+        super().__init__()
+        self.opts = {
+            "name": name,
+            "pen": pen,
+            "brush": brush,
+            "stepMode": "right" if step else None,
+            "antialias": antialias,
+        }
+        self._x = np.zeros(0)
+        self._y = np.zeros(0)
+        self._polygon = QPolygonF()
+        self._bounds = QRectF()
+        self._padded: QRectF | None = None  # the bounds plus EDGE_PX, in data units
+
+    # ---- what pyqtgraph's plot and legend ask of a data item --------------------------------
+    def implements(self, interface: str | None = None) -> bool | list[str]:
+        return ["plotData"] if interface is None else interface == "plotData"
+
+    def name(self) -> str | None:
+        return self.opts["name"]
+
+    def getData(self) -> tuple[np.ndarray, np.ndarray]:  # noqa: N802 (pyqtgraph's name)
+        return self._x, self._y
+
+    def dataBounds(self, ax: int, frac: float = 1.0, orthoRange=None):  # noqa: N802, ANN001
+        if len(self._x) == 0:
+            return None, None
+        if ax == 0:
+            return self._bounds.left(), self._bounds.right()
+        return self._bounds.top(), self._bounds.bottom()
+
+    def pixelPadding(self) -> float:  # noqa: N802 (pyqtgraph's name)
+        return EDGE_PX
+
+    # ---- data -------------------------------------------------------------------------------
+    def setData(self, x, y) -> None:  # noqa: N802, ANN001 (pyqtgraph's name; array-likes)
+        """Take new arrays; the polygon and bounds are built here, not while painting."""
+        self._x = np.asarray(x, dtype=float)
+        self._y = np.asarray(y, dtype=float)
+        xs, ys = step_points(self._x, self._y) if self.opts["stepMode"] else (self._x, self._y)
+        if self.opts["brush"] is not None and len(xs):
+            xs = np.concatenate((xs, [xs[-1], xs[0]]))  # down to zero and back along it
+            ys = np.concatenate((ys, [0.0, 0.0]))
+        self._polygon = pg.functions.arrayToQPolygonF(xs, ys) if len(xs) else QPolygonF()
+        self.prepareGeometryChange()
+        if len(xs):
+            self._bounds = QRectF(
+                float(xs.min()), float(ys.min()),
+                float(xs.max() - xs.min()), float(ys.max() - ys.min()),
+            )  # fmt: skip
+        else:
+            self._bounds = QRectF()
+        self._padded = None
+        self.update()
+
+    # ---- drawing ----------------------------------------------------------------------------
+    def viewTransformChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
+        """The padding is in pixels: recompute it when the view's scale changes."""
+        self.prepareGeometryChange()
+        self._padded = None
+
+    def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
+        if self._padded is None:
+            px, py = self.pixelVectors()
+            dx = EDGE_PX * abs(px.x()) if px is not None else 0.0
+            dy = EDGE_PX * abs(py.y()) if py is not None else 0.0
+            self._padded = self._bounds.adjusted(-dx, -dy, dx, dy)
+        return self._padded
+
+    def paint(self, painter: QPainter, *_: object) -> None:
+        if self._polygon.isEmpty():
+            return
+        painter.setRenderHint(QPainter.RenderHint.Antialiasing, self.opts["antialias"])
+        if self.opts["brush"] is not None:
+            painter.setPen(Qt.PenStyle.NoPen)
+            painter.setBrush(self.opts["brush"])
+            painter.drawPolygon(self._polygon)
+        if self.opts["pen"] is not None:
+            painter.setPen(self.opts["pen"])
+            painter.setBrush(Qt.BrushStyle.NoBrush)
+            painter.drawPolyline(self._polygon)
