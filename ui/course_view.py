@@ -7,7 +7,6 @@ and a value; everything else (alerts, curves) is recomputed by the core.
 
 from __future__ import annotations
 
-import pyqtgraph as pg
 from PySide6.QtCore import QDateTime, QEvent, QSignalBlocker, Qt
 from PySide6.QtWidgets import (
     QAbstractItemView,
@@ -29,6 +28,7 @@ from PySide6.QtWidgets import (
 )
 
 from ui.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
+from ui.pyqtgraph_loader import pg
 from ui.qt_dates import from_qt, to_qt
 from ui.rows_model import Cell, RowsModel
 from ui.session import PlanSession

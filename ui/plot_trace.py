@@ -13,7 +13,7 @@ import numpy as np
 from PySide6.QtCore import QRectF, Qt
 from PySide6.QtGui import QBrush, QPainter, QPen, QPolygonF
 
-import pyqtgraph as pg  # isort: skip  (after PySide6, so pyqtgraph binds to it)
+from ui.pyqtgraph_loader import pg
 
 EDGE_PX = 3.0  # a line's half-width and its antialiased edge, kept inside the bounds
 

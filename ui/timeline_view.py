@@ -21,9 +21,8 @@ from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
-import pyqtgraph as pg  # isort: skip  (after PySide6, so pyqtgraph binds to it)
-
 from ui.plot_trace import Trace
+from ui.pyqtgraph_loader import pg
 from vetfluid.formatting import format_number, format_quantity
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time

@@ -1,0 +1,61 @@
+"""pyqtgraph loaded through ui/pyqtgraph_loader.py sees exactly PySide6's Qt, built lazily."""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+import textwrap
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+
+# A fresh process: in this one another test may already have imported pyqtgraph.
+PROBE = textwrap.dedent(
+    """
+    import json, sys
+    from PySide6 import QtCore, QtGui, QtWidgets
+    from PySide6.QtWidgets import QApplication
+    app = QApplication([])
+    from ui.pyqtgraph_loader import pg
+    plot = pg.PlotWidget()
+    plot.plot([0, 1, 2], [1, 3, 2])
+    plot.grab()
+    names = ("QGraphicsView", "QGraphicsObject", "QApplication", "QSizePolicy")
+    try:
+        pg.QtWidgets.NoSuchQtClass
+        missing = "resolved"
+    except AttributeError:
+        missing = "AttributeError"
+    print(json.dumps({
+        "same_widgets": all(getattr(pg.QtWidgets, n) is getattr(QtWidgets, n) for n in names),
+        "same_core": pg.QtCore.Signal is QtCore.Signal and pg.QtCore.Qt is QtCore.Qt,
+        "same_gui": pg.QtGui.QPainterPath is QtGui.QPainterPath,
+        "pyqtgraph_additions": pg.QtGui.QFileSystemModel is QtWidgets.QFileSystemModel,
+        "missing_name": missing,
+        "dir_restored": len(dir(QtWidgets)) > 150 and "QGraphicsView" in dir(QtWidgets),
+        "widgets_built": len(QtWidgets.__dict__),
+        "widgets_listed": len(dir(QtWidgets)),
+    }))
+    """
+)
+
+
+def run_probe() -> dict:
+    env = dict(os.environ, QT_QPA_PLATFORM="offscreen")
+    out = subprocess.run(
+        [sys.executable, "-c", PROBE], capture_output=True, text=True, check=True, cwd=ROOT, env=env
+    )
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def test_pyqtgraph_mirrors_resolve_to_pyside6_and_stay_lazy():
+    probe = run_probe()
+    assert probe["same_widgets"] and probe["same_core"] and probe["same_gui"]
+    assert probe["pyqtgraph_additions"], "pyqtgraph's own shims still land in its mirrors"
+    assert probe["missing_name"] == "AttributeError"
+    assert probe["dir_restored"], "PySide6 lists its names again once pyqtgraph has loaded"
+    # a plot drawn, menus and all, and still a quarter of QtWidgets never built (pyqtgraph's
+    # own copy of the module builds every class: built == listed)
+    assert probe["widgets_built"] < 0.75 * probe["widgets_listed"], probe

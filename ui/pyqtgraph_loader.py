@@ -1,0 +1,61 @@
+"""pyqtgraph, loaded without making PySide6 build every Qt class.
+
+pyqtgraph keeps its own copies of QtCore, QtGui and QtWidgets (``pyqtgraph.Qt.QtCore`` …)
+and fills them by copying every name PySide6 lists. PySide6 creates its classes lazily,
+on first use; that copy makes it create all of them, with their enums, about 5 MiB more
+than the window and the plots use. Here pyqtgraph is given those three modules ready
+made: each looks a name up in PySide6 the first time pyqtgraph asks for it, so every
+name resolves to the very same PySide6 object as before, and PySide6's name lists are
+hidden while pyqtgraph loads, so there is nothing to copy.
+
+Import ``pg`` from here, never ``pyqtgraph`` itself, so this runs first.
+"""
+
+from __future__ import annotations
+
+import importlib
+import sys
+import types
+
+from PySide6 import QtCore, QtGui, QtWidgets
+
+_MIRRORED = {"QtCore": QtCore, "QtGui": QtGui, "QtWidgets": QtWidgets}
+
+
+def _lazy_mirror(name: str, source: types.ModuleType) -> types.ModuleType:
+    """A module that takes each attribute from ``source`` on first use (PEP 562)."""
+    mirror = types.ModuleType(name, f"PySide6's {source.__name__}, resolved name by name")
+
+    def __getattr__(attribute: str) -> object:  # noqa: N807 (the module hook's name)
+        value = getattr(source, attribute)  # a missing name raises AttributeError, as before
+        setattr(mirror, attribute, value)  # resolved once; pyqtgraph may then add its own
+        return value
+
+    mirror.__getattr__ = __getattr__
+    return mirror
+
+
+def _nothing_to_list() -> list[str]:
+    return []
+
+
+def load_pyqtgraph() -> types.ModuleType:
+    """Import pyqtgraph with lazily resolved Qt mirrors (see the module docstring)."""
+    if "pyqtgraph" in sys.modules:
+        return sys.modules["pyqtgraph"]
+    listers = {}
+    for name, source in _MIRRORED.items():
+        sys.modules[f"pyqtgraph.Qt.{name}"] = _lazy_mirror(f"pyqtgraph.Qt.{name}", source)
+        listers[name] = source.__dict__.get("__dir__")
+        source.__dir__ = _nothing_to_list
+    try:
+        return importlib.import_module("pyqtgraph")
+    finally:
+        for name, source in _MIRRORED.items():
+            if listers[name] is None:
+                del source.__dir__
+            else:
+                source.__dir__ = listers[name]
+
+
+pg = load_pyqtgraph()
