@@ -208,8 +208,10 @@ class CourseView(QWidget):
         session.observationsChanged.connect(lambda: self.refresh(session.plan))
 
     def _plot(self, row: int, title: str, label: str, *, hours: bool = False):
-        plot = self.graphics.addPlot(row=row, col=0, title=title,
-                                     axisItems={"left": SafeNumberAxis("left")})  # fmt: skip
+        plot = self.graphics.addPlot(
+            row=row, col=0, title=title, axisItems={"left": SafeNumberAxis("left")},
+            enableMenu=False,
+        )  # fmt: skip
         plot.setLabel("left", label)
         if hours:
             plot.setLabel("bottom", "Time from start (h)")

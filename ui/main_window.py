@@ -8,6 +8,8 @@ appears quickly.
 from __future__ import annotations
 
 import linecache
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 from PySide6.QtCore import QEvent, QSettings, Qt, QTimer
@@ -36,6 +38,29 @@ def _placeholder(text: str) -> QWidget:
     holder = QWidget()
     QVBoxLayout(holder).addWidget(QLabel(text))
     return holder
+
+
+class _ForgetfulLineCache(dict):
+    """A ``linecache`` store that keeps nothing: every read goes back to the file."""
+
+    def __setitem__(self, key: str, value: tuple) -> None:
+        pass
+
+
+@contextmanager
+def sources_not_kept() -> Iterator[None]:
+    """While the window imports its heavy parts, ``linecache`` keeps no module source.
+
+    PySide6 reads the source of every module imported after it, to see whether the module
+    uses PySide (its ``__feature__`` import hook), and ``linecache`` would keep all of it:
+    numpy's and pyqtgraph's sources, about 5 MiB at the peak, that nothing needs. A
+    traceback still reads the files, from disk. Used as a decorator on the builders."""
+    kept = linecache.cache
+    linecache.cache = _ForgetfulLineCache()
+    try:
+        yield
+    finally:
+        linecache.cache = kept
 
 
 class MainWindow(QMainWindow):
@@ -87,6 +112,7 @@ class MainWindow(QMainWindow):
             QTimer.singleShot(0, self.build_planner)
         return super().eventFilter(watched, event)
 
+    @sources_not_kept()
     def build_planner(self) -> None:
         """The planner page: inputs on the left, results on the right (idempotent)."""
         if self.session is not None:
@@ -142,7 +168,6 @@ class MainWindow(QMainWindow):
         if splitter_state is not None:
             self.splitter.restoreState(splitter_state)
         self._swap(self.planner_holder, self.splitter)
-        release_source_cache()
         self.pages.currentChanged.connect(self._page_opened)
 
         for demo in DEMOS.values():
@@ -349,13 +374,13 @@ class MainWindow(QMainWindow):
         patient = self.records.patient(patient_id)
         self.statusBar().showMessage(f"Opened {patient.name}, version {version}.")
 
+    @sources_not_kept()
     def _detail_opened(self, index: int) -> None:
         """The plots are built the first time the Timeline tab is opened (pyqtgraph is big)."""
         if self.details.widget(index) is self.timeline_holder and self.timeline_view is None:
             from ui.shown_plan import ShownPlan
             from ui.timeline_view import TimelineView
 
-            release_source_cache()  # before the plots allocate, so they reuse the memory
             self.timeline_view = TimelineView()
             self._swap(self.timeline_holder, self.timeline_view)
             self.timeline_shown = ShownPlan(self.timeline_view, self.session, self._plot)
@@ -364,16 +389,15 @@ class MainWindow(QMainWindow):
         if self.details.widget(index) is self.course_holder and self.course_view is None:
             from ui.course_view import CourseView
 
-            release_source_cache()
             self.course_view = CourseView(self.session)
             self._swap(self.course_holder, self.course_view)
 
+    @sources_not_kept()
     def _page_opened(self, index: int) -> None:
         """The species table is built the first time its page is opened."""
         if self.pages.widget(index) is self.species_holder and self.species_view is None:
             from ui.species_view import SpeciesTableView
 
-            release_source_cache()
             self.species_view = SpeciesTableView()
             self._swap(self.species_holder, self.species_view)
             self.species_view.tableChanged.connect(self.session.reload_table)
@@ -606,10 +630,3 @@ class MainWindow(QMainWindow):
                 self.records = None
         settings.sync()
         super().closeEvent(event)
-
-
-def release_source_cache() -> None:
-    """Drop the module sources Python keeps in ``linecache``. PySide6 reads the source of
-    every module imported after it (to see whether the module uses PySide), several MiB
-    that nothing needs afterwards; a traceback reads the files again."""
-    linecache.clearcache()

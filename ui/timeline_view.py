@@ -311,7 +311,7 @@ class TimelineView(QWidget):
         axes = {"left": SafeNumberAxis("left")}
         if bottom is not None:
             axes["bottom"] = bottom
-        plot = self.graphics.addPlot(row=row, col=0, title=title, axisItems=axes)
+        plot = self.graphics.addPlot(row=row, col=0, title=title, axisItems=axes, enableMenu=False)
         plot.setLabel("left", y_label)
         for name in ("left", "bottom"):
             plot.getAxis(name).enableAutoSIPrefix(False)  # never "(x0.001)" on a dose axis
