@@ -434,14 +434,14 @@ def test_bad_fluid_rows_name_file_and_line(tmp_path, rows, line, words):
 @pytest.mark.parametrize(
     ("bad_row", "words"),
     [
-        ("cacl2_bad,calcium chloride,CaCl2.2H2O,Ca2+:1;Cl-:1,no,", "net charge"),
-        ("nacl_bad,sodium chloride,NaCl,K+:1;Cl-:1,no,", "has 1 Na but the ions give 0"),
-        ("hco3,sodium bicarbonate,NaHCO3,Na+:1;HCO3-:1,no,", "unknown ion"),
-        ("nacl_bad,sodium chloride,NaQ,Na+:1;Cl-:1,no,", "formula"),
-        ("nacl_bad,sodium chloride,NaCl,Na+:one;Cl-:1,no,", "whole number"),
-        ("nacl_bad,sodium chloride,NaCl,Na+:1;Cl-:1,sometimes,", "metabolic fate"),
-        ("nacl_bad,sodium chloride,NaCl,Na+:1;Cl-:1,anion_to_bicarbonate,", "lactate"),
-        ("nacl,sodium chloride again,NaCl,Na+:1;Cl-:1,no,", "already defined"),
+        ("cacl2_bad,calcium chloride,CaCl2.2H2O,147.0144,Ca2+:1;Cl-:1,no,", "net charge"),
+        ("nacl_bad,sodium chloride,NaCl,58.4427,K+:1;Cl-:1,no,", "has 1 Na but the ions give 0"),
+        ("hco3,sodium bicarbonate,NaHCO3,84.0067,Na+:1;HCO3-:1,no,", "unknown ion"),
+        ("nacl_bad,sodium chloride,NaQ,58.4427,Na+:1;Cl-:1,no,", "formula"),
+        ("nacl_bad,sodium chloride,NaCl,58.4427,Na+:one;Cl-:1,no,", "whole number"),
+        ("nacl_bad,sodium chloride,NaCl,58.4427,Na+:1;Cl-:1,sometimes,", "metabolic fate"),
+        ("nacl_bad,sodium chloride,NaCl,58.4427,Na+:1;Cl-:1,anion_to_bicarbonate,", "lactate"),
+        ("nacl,sodium chloride again,NaCl,58.4427,Na+:1;Cl-:1,no,", "already defined"),
     ],
 )
 def test_bad_solute_rows_name_file_and_line(tmp_path, bad_row, words):
@@ -451,6 +451,41 @@ def test_bad_solute_rows_name_file_and_line(tmp_path, bad_row, words):
         load_fluids(_folder(tmp_path, HEADER + GOOD_ROW, solutes))
     assert caught.value.location == f"solutes.csv:{line}"
     assert words in str(caught.value)
+
+
+@pytest.mark.parametrize(
+    ("mass", "words"),
+    [
+        ("", "molar_mass_g_per_mol is missing"),
+        ("0", "not a number above zero"),
+        ("-58.4427", "not a number above zero"),
+        ("58.4 g", "not a number above zero"),
+        ("inf", "not a number above zero"),
+        ("nan", "not a number above zero"),
+    ],
+)
+def test_a_missing_or_bad_molar_mass_names_file_line_and_fix(tmp_path, mass, words):
+    # never a default: a solute without a usable molar mass stops the library loading
+    solutes = (
+        SHIPPED_SOLUTES.rstrip("\n") + f"\nnacl_2,sodium chloride,NaCl,{mass},Na+:1;Cl-:1,no,\n"
+    )
+    line = solutes.count("\n")
+    with pytest.raises(SpeciesDataError) as caught:
+        load_fluids(_folder(tmp_path, HEADER + GOOD_ROW, solutes))
+    assert caught.value.location == f"solutes.csv:{line}"
+    assert words in str(caught.value)
+    assert "g/mol" in (caught.value.fix or "")
+
+
+def test_a_solute_file_without_molar_masses_is_refused(tmp_path):
+    # the old layout (no molar_mass_g_per_mol column) must fail loudly, not fall back
+    old_layout = (
+        "solute_id,name,formula,ions,metabolised,note\nnacl,sodium chloride,NaCl,Na+:1;Cl-:1,no,\n"
+    )
+    with pytest.raises(SpeciesDataError) as caught:
+        load_fluids(_folder(tmp_path, HEADER + GOOD_ROW, old_layout))
+    assert caught.value.location == "solutes.csv:1"
+    assert "molar_mass_g_per_mol" in str(caught.value)
 
 
 def test_missing_column_points_at_the_header(tmp_path):

@@ -265,7 +265,10 @@ def cmd_fluids(args: argparse.Namespace) -> int:
     for f in data:
         cells = "".join(f" {f[key]:{width}.{places}f}" for _, key, width, places in FLUID_COLUMNS)
         print(f"{f['fluid_id']:28}{cells}  {f['basis']} {_basis_mark(f['basis'])}".rstrip())
-    print("(ions in mmol/L, computed from the formula with molar masses from molmass)\n")
+    print(
+        "(ions in mmol/L, computed from g/L with the molar masses in solutes.csv, "
+        "from IUPAC standard atomic weights)\n"
+    )
     print(_cautions_text())
     return EXIT_OK
 

@@ -4,9 +4,11 @@ A fluid is written the pharmacopoeial way — grams of each solute per litre (th
 USP–NF monographs give e.g. lactated Ringer's per 100 mL) — in
 ``species_data/fluids.csv``; its solutes, their molecular formulas and what one
 formula unit gives in solution are in ``species_data/solutes.csv``. Every mmol/L,
-mEq/L and mOsm/L is computed here from molar masses (molmass, through
-:func:`vetfluid.units.molar_mass_g_per_mol`), never typed in, so the numbers
-printed on fluid labels are checks in the tests rather than inputs.
+mEq/L and mOsm/L is computed here from the grams per litre and each solute's molar
+mass (the ``molar_mass_g_per_mol`` column, computed from the formula with molmass and
+checked by the tests against molmass and periodictable; see :mod:`vetfluid.chemistry`),
+never typed in, so the numbers printed on fluid labels are checks in the tests rather
+than inputs.
 
 What happens to a solute in the body (``metabolised`` in solutes.csv):
 
@@ -33,11 +35,11 @@ from types import MappingProxyType
 
 from vetfluid import paths
 from vetfluid.checks import require_number
+from vetfluid.chemistry import formula_atoms, molar_mass_g_per_mol, parse_molar_mass
 from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.formatting import format_quantity
 from vetfluid.species import BASES
-from vetfluid.units import molar_mass_g_per_mol
 
 KINDS = ("crystalloid", "colloid", "additive_concentrate")
 INFUSIBLE_KINDS = ("crystalloid", "colloid")  # what can be given as the plan's fluid
@@ -69,7 +71,9 @@ _ION_ELEMENT = {"na": "Na", "k": "K", "cl": "Cl", "ca": "Ca", "mg": "Mg"}
 _BICARBONATE_PRECURSORS = frozenset({"lactate", "acetate", "gluconate"})
 _ID_PATTERN = re.compile(r"^[a-z0-9_]+$")
 
-SOLUTE_COLUMNS = ("solute_id", "name", "formula", "ions", "metabolised", "note")
+SOLUTE_COLUMNS = (
+    "solute_id", "name", "formula", "molar_mass_g_per_mol", "ions", "metabolised", "note",
+)  # fmt: skip
 FLUID_COLUMNS = ("fluid_id", "name", "kind", "solute_id", "g_per_l", "source_id", "basis", "note")
 COLLOID_COLUMNS = (
     "fluid_id", "colloid", "g_per_l", "volume_half_life_h", "source_id", "basis", "note",
@@ -94,22 +98,32 @@ def _check_number(value: float, name: str, *, positive: bool) -> float:
 class Solute:
     """One salt or sugar as weighed into a fluid.
 
-    ``formula`` is a molmass formula with water of hydration (``CaCl2.2H2O``) so the
-    molar mass is that of the substance actually weighed. ``ions`` is what one
-    formula unit gives in solution, as (ion key, count) with keys from
-    :data:`ION_KEYS`; ``metabolised`` is one of :data:`METABOLISED` (module docstring).
+    ``formula`` is written with its water of hydration (``CaCl2.2H2O``) and
+    ``molar_mass_g_per_mol`` is the molar mass of that formula, so it is the mass of
+    the substance actually weighed (stored data, computed with molmass from IUPAC
+    standard atomic weights; :mod:`vetfluid.chemistry`). ``ions`` is what one formula
+    unit gives in solution, as (ion key, count) with keys from :data:`ION_KEYS`;
+    ``metabolised`` is one of :data:`METABOLISED` (module docstring).
     """
 
     solute_id: str
     name: str
     formula: str
+    molar_mass_g_per_mol: float
     ions: tuple[tuple[str, int], ...]
     metabolised: str = "no"
     note: str = field(default="", repr=False)
 
     def __post_init__(self) -> None:
         _check_id(self.solute_id, "solute_id")
-        molar_mass_g_per_mol(self.formula)  # raises InputError if molmass cannot read it
+        atoms = formula_atoms(self.formula)  # raises InputError if the formula is unreadable
+        mass = require_number(
+            self.molar_mass_g_per_mol,
+            "molar_mass_g_per_mol",
+            positive=True,
+            fix=f"give the molar mass of {self.formula} in g/mol",
+        )
+        object.__setattr__(self, "molar_mass_g_per_mol", mass)
         if not self.ions:
             raise InputError("a solute needs at least one ion or molecule", field="ions")
         seen: set[str] = set()
@@ -136,7 +150,7 @@ class Solute:
                 value=self.ions,
                 fix="list every ion with its count so the charges balance",
             )
-        self._check_elements()
+        self._check_elements(atoms)
         if self.metabolised not in METABOLISED:
             raise InputError(
                 "unknown metabolic fate",
@@ -151,11 +165,8 @@ class Solute:
                 value=self.metabolised,
             )
 
-    def _check_elements(self) -> None:
+    def _check_elements(self, atoms: Mapping[str, int]) -> None:
         # Catches a wrong count (Cl-:1 for CaCl2) or an ion absent from the formula.
-        from molmass import Formula
-
-        atoms = {symbol: item.count for symbol, item in Formula(self.formula).composition().items()}
         listed = dict(self.ions)
         for key, element in _ION_ELEMENT.items():
             if listed.get(key, 0) != atoms.get(element, 0):
@@ -166,11 +177,6 @@ class Solute:
                     value=self.ions,
                     fix="make the ions match the formula",
                 )
-
-    @property
-    def molar_mass_g_per_mol(self) -> float:
-        """Molar mass (g/mol) of the formula as weighed, hydrate water included (molmass)."""
-        return molar_mass_g_per_mol(self.formula)
 
     @property
     def effective_osmoles_per_unit(self) -> int:
@@ -346,11 +352,11 @@ class Composition:
 def composition(fluid: Fluid) -> Composition:
     """Composition of a fluid from its formula.
 
-    Method: mmol/L of each solute = g/L ÷ molar mass (g/mol) × 1000 (molmass, IUPAC
-    standard atomic weights); each ion = solute mmol/L × ions per formula unit;
-    osmolarity = sum of all particles (ideal dissociation, the way labels calculate
-    it); effective osmolarity = the same less solutes the body clears; energy =
-    dextrose hydrous g/L × 3.4 kcal/g (label convention).
+    Method: mmol/L of each solute = g/L ÷ molar mass (g/mol) × 1000 (the solute's
+    stored molar mass, from IUPAC standard atomic weights); each ion = solute mmol/L ×
+    ions per formula unit; osmolarity = sum of all particles (ideal dissociation, the
+    way labels calculate it); effective osmolarity = the same less solutes the body
+    clears; energy = dextrose hydrous g/L × 3.4 kcal/g (label convention).
     """
     _check_fluid(fluid, "fluid")
     return _composition(fluid)
@@ -506,6 +512,9 @@ def _load_solutes(path: Path) -> Mapping[str, Solute]:
                 solute_id=solute_id,
                 name=row["name"],
                 formula=row["formula"],
+                molar_mass_g_per_mol=parse_molar_mass(
+                    row["molar_mass_g_per_mol"], location=location
+                ),
                 ions=_parse_ions(row["ions"]),
                 metabolised=row["metabolised"],
                 note=row["note"],

@@ -1,19 +1,20 @@
 """Units: body weight with a unit, and laboratory unit conversions.
 
 Conversions use exact definitions (1 lb = 0.45359237 kg, international
-avoirdupois pound, 1959 agreement) and molar masses computed by the molmass
-package from the molecular formula, so nothing here is a typed-in constant:
-glucose C6H12O6, urea nitrogen as N2 (BUN counts the two N of urea), creatinine
-C4H7N3O.
+avoirdupois pound, 1959 agreement) and the molar mass of each analyte's formula as
+recorded in ``species_data/molar_masses.csv`` (computed with molmass from IUPAC
+standard atomic weights and checked by the tests against molmass and periodictable;
+:mod:`vetfluid.chemistry`): glucose C6H12O6, urea CH4N2O, urea nitrogen as N2 (BUN
+counts the two N of urea), creatinine C4H7N3O.
 """
 
 from __future__ import annotations
 
 import math
 import re
-from functools import cache
 
 from vetfluid.checks import require_number
+from vetfluid.chemistry import molar_mass_g_per_mol
 from vetfluid.errors import InputError
 
 KG_PER_LB = 0.45359237
@@ -92,7 +93,7 @@ def preferred_weight_unit(typical_weight_kg: float) -> str:
     return "g" if typical_weight_kg < 1.0 else "kg"
 
 
-# Lab analytes: the formula whose molar mass converts mmol/L to mg/dL.
+# Lab analytes: the formula whose molar mass (molar_masses.csv) converts mmol/L to mg/dL.
 _ANALYTE_FORMULA = {
     "glucose": "C6H12O6",
     "urea": "CH4N2O",
@@ -101,20 +102,8 @@ _ANALYTE_FORMULA = {
 }
 
 
-@cache
-def molar_mass_g_per_mol(formula: str) -> float:
-    """Molar mass of a formula from the molmass package (IUPAC standard atomic weights)."""
-    from molmass import Formula
-
-    try:
-        return float(Formula(formula).mass)
-    except Exception as exc:  # molmass raises its own FormulaError family
-        raise InputError(
-            f"cannot read chemical formula {formula!r}", field="formula", value=formula
-        ) from exc
-
-
 def _analyte_mass(analyte: str) -> float:
+    """Molar mass (g/mol) of a lab analyte's formula, from molar_masses.csv."""
     key = analyte.lower()
     if key not in _ANALYTE_FORMULA:
         raise InputError(
