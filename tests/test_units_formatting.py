@@ -1,8 +1,9 @@
 """Units (body weight with a unit, lab conversions) and safe number formatting.
 
-Reference factors are the textbook ones, named beside each check; molar masses are
-checked a second way with the ``periodictable`` package, which is independent of
-the ``molmass`` package the core uses. Expected values are computed here, never
+Reference factors are the textbook ones, named beside each check; the molar masses
+the core reads from ``species_data/molar_masses.csv`` are checked here a second way
+with the ``periodictable`` package (tests/test_molar_masses.py checks every stored
+mass against molmass and periodictable). Expected values are computed here, never
 taken from the module under test.
 """
 
