@@ -25,6 +25,28 @@ def step_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.repeat(x, 2)[1:], np.repeat(y, 2)[:-1]
 
 
+def turning_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The points where the line changes direction, and both ends: the same picture.
+
+    The core's arrays are sampled every few minutes but are straight between phase changes,
+    so a 36-hour line of 433 points has a dozen corners, and stroking an antialiased line
+    costs by its points. With both axes scaled to their range, a point is dropped when the
+    line through it turns by less than 1e-9 rad (rounding, not shape: even summed over
+    thousands of points that is far below a pixel) or when it repeats its neighbour; a
+    line that doubles back is kept."""
+    if len(x) < 3:
+        return x, y
+    xs = (x - x[0]) / (np.ptp(x) or 1.0)
+    ys = (y - y[0]) / (np.ptp(y) or 1.0)
+    dx1, dy1 = np.diff(xs[:-1]), np.diff(ys[:-1])
+    dx2, dy2 = np.diff(xs[1:]), np.diff(ys[1:])
+    lengths = np.hypot(dx1, dy1) * np.hypot(dx2, dy2)
+    turn = np.abs(dx1 * dy2 - dy1 * dx2)  # |sin| of the turn × the two lengths
+    straight = (lengths == 0) | ((turn <= 1e-9 * lengths) & (dx1 * dx2 + dy1 * dy2 > 0))
+    keep = np.concatenate(([True], ~straight, [True]))
+    return x[keep], y[keep]
+
+
 class Trace(pg.GraphicsObject):
     """A line (``pen``) or the area between the line and zero (``brush``) over (x, y).
 
@@ -81,7 +103,9 @@ class Trace(pg.GraphicsObject):
         """Take new arrays; the polygon and bounds are built here, not while painting."""
         self._x = np.asarray(x, dtype=float)
         self._y = np.asarray(y, dtype=float)
-        xs, ys = step_points(self._x, self._y) if self.opts["stepMode"] else (self._x, self._y)
+        xs, ys = turning_points(
+            *(step_points(self._x, self._y) if self.opts["stepMode"] else (self._x, self._y))
+        )
         if self.opts["brush"] is not None and len(xs):
             xs = np.concatenate((xs, [xs[-1], xs[0]]))  # down to zero and back along it
             ys = np.concatenate((ys, [0.0, 0.0]))

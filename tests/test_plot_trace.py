@@ -1,0 +1,99 @@
+"""The plotted series item: the same picture from fewer points, bounds built on update."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from ui.plot_trace import Trace, step_points, turning_points
+
+
+def distance_to_polyline(px: float, py: float, xs: np.ndarray, ys: np.ndarray) -> float:
+    """Shortest distance from (px, py) to the polyline through (xs, ys)."""
+    best = np.inf
+    for x0, y0, x1, y1 in zip(xs[:-1], ys[:-1], xs[1:], ys[1:], strict=True):
+        dx, dy = x1 - x0, y1 - y0
+        t = 0.0 if dx == dy == 0 else ((px - x0) * dx + (py - y0) * dy) / (dx * dx + dy * dy)
+        t = min(1.0, max(0.0, t))
+        best = min(best, float(np.hypot(px - (x0 + t * dx), py - (y0 + t * dy))))
+    return best
+
+
+def test_step_points_hold_each_value_until_the_next_hour():
+    xs, ys = step_points(np.array([0.0, 1.0, 3.0]), np.array([5.0, 2.0, 0.0]))
+    assert list(zip(xs, ys, strict=True)) == [(0, 5), (1, 5), (1, 2), (3, 2), (3, 0)]
+
+
+def test_turning_points_keep_the_corners_and_drop_the_rest():
+    hours = np.arange(0, 24.001, 1 / 12)  # five-minute steps, as the core samples
+    given = np.where(hours < 12, 100 * hours, 1200 + 20 * (hours - 12))
+    xs, ys = turning_points(hours, given)
+    assert list(xs) == [0.0, 12.0, 24.0]
+    assert ys[1] == pytest.approx(1200) and ys[2] == pytest.approx(1440)
+
+
+def test_a_line_that_doubles_back_keeps_its_turn():
+    xs, ys = turning_points(np.array([0.0, 2.0, 1.0]), np.array([0.0, 2.0, 1.0]))
+    assert len(xs) == 3
+
+
+@given(
+    st.lists(
+        st.tuples(st.floats(0.01, 5), st.floats(-1e4, 1e4), st.integers(1, 20)),
+        min_size=1,
+        max_size=8,
+    )
+)
+def test_every_dropped_point_lies_on_the_simplified_line(pieces):
+    """Piecewise-straight data, as the core produces: nothing of the picture is lost."""
+    xs, ys = [0.0], [0.0]
+    for width, slope, samples in pieces:
+        for _ in range(samples):
+            xs.append(xs[-1] + width / samples)
+            ys.append(ys[-1] + slope * width / samples)
+    x, y = np.array(xs), np.array(ys)
+    kept_x, kept_y = turning_points(x, y)
+    assert kept_x[0] == x[0] and kept_x[-1] == x[-1]
+    assert len(kept_x) <= len(pieces) + 1
+    # at the plot's scale (both axes to their range) no point moves by a millionth
+    sx, sy = np.ptp(x) or 1.0, np.ptp(y) or 1.0
+    worst = max(
+        distance_to_polyline(px / sx, py / sy, kept_x / sx, kept_y / sy)
+        for px, py in zip(x, y, strict=True)
+    )
+    assert worst < 1e-6
+
+
+def test_a_smooth_curve_sampled_finely_keeps_its_shape():
+    """Local turns below the threshold must not add up to a visible straight cut."""
+    hours = np.linspace(0, 336, 20161)  # 14 days at one-minute steps
+    curve = 1 - np.exp(-hours / 100)
+    kept_x, kept_y = turning_points(hours, curve)
+    mid = np.interp(168, kept_x, kept_y)
+    assert mid == pytest.approx(1 - np.exp(-1.68), abs=1e-4)
+
+
+def test_trace_keeps_the_arrays_and_bounds_and_draws_fewer_points(qtbot):
+    trace = Trace(name="Given", step=True)
+    hours = np.arange(0, 6.001, 0.25)
+    rate = np.where(hours < 2, 50.0, 10.0)
+    trace.setData(hours, rate)
+    x, y = trace.getData()
+    np.testing.assert_array_equal(x, hours)
+    np.testing.assert_array_equal(y, rate)
+    assert trace.dataBounds(0) == (0.0, 6.0) and trace.dataBounds(1) == (10.0, 50.0)
+    assert trace._polygon.size() == 4  # (0,50) (2,50) (2,10) (6,10)
+    trace.setData([], [])
+    assert trace.dataBounds(0) == (None, None) and trace._polygon.isEmpty()
+
+
+def test_a_shaded_trace_closes_down_to_zero(qtbot):
+    from PySide6.QtGui import QBrush
+
+    area = Trace(brush=QBrush())
+    area.setData([0.0, 1.0, 2.0], [3.0, 2.0, 1.0])
+    points = [(p.x(), p.y()) for p in area._polygon]
+    assert points == [(0, 3), (2, 1), (2, 0), (0, 0)]
+    assert area.dataBounds(1) == (0.0, 3.0)
