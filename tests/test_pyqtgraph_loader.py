@@ -37,6 +37,9 @@ PROBE = textwrap.dedent(
         "dir_restored": len(dir(QtWidgets)) > 150 and "QGraphicsView" in dir(QtWidgets),
         "widgets_built": len(QtWidgets.__dict__),
         "widgets_listed": len(dir(QtWidgets)),
+        "unused_bindings_loaded": [m for m in ("PySide6.QtSvg", "PySide6.QtTest")
+                                   if m in sys.modules],
+        "svg_importable_later": __import__("importlib").import_module("PySide6.QtSvg") is not None,
     }))
     """
 )
@@ -59,3 +62,5 @@ def test_pyqtgraph_mirrors_resolve_to_pyside6_and_stay_lazy():
     # a plot drawn, menus and all, and still a quarter of QtWidgets never built (pyqtgraph's
     # own copy of the module builds every class: built == listed)
     assert probe["widgets_built"] < 0.75 * probe["widgets_listed"], probe
+    # SVG export and test helpers are left unloaded, yet anyone may import them afterwards
+    assert probe["unused_bindings_loaded"] == [] and probe["svg_importable_later"]

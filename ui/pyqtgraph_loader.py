@@ -20,6 +20,9 @@ import types
 from PySide6 import QtCore, QtGui, QtWidgets
 
 _MIRRORED = {"QtCore": QtCore, "QtGui": QtGui, "QtWidgets": QtWidgets}
+# Bindings pyqtgraph imports if it can but the window never uses (SVG export, test helpers);
+# it records them as missing and carries on. Left alone when something loaded them already.
+_NOT_NEEDED = ("PySide6.QtSvg", "PySide6.QtTest")
 
 
 def _lazy_mirror(name: str, source: types.ModuleType) -> types.ModuleType:
@@ -44,6 +47,9 @@ def load_pyqtgraph() -> types.ModuleType:
     if "pyqtgraph" in sys.modules:
         return sys.modules["pyqtgraph"]
     listers = {}
+    skipped = [name for name in _NOT_NEEDED if name not in sys.modules]
+    for name in skipped:
+        sys.modules[name] = None  # an import of it raises ImportError (the import system's rule)
     for name, source in _MIRRORED.items():
         sys.modules[f"pyqtgraph.Qt.{name}"] = _lazy_mirror(f"pyqtgraph.Qt.{name}", source)
         listers[name] = source.__dict__.get("__dir__")
@@ -51,6 +57,9 @@ def load_pyqtgraph() -> types.ModuleType:
     try:
         return importlib.import_module("pyqtgraph")
     finally:
+        for name in skipped:
+            if sys.modules.get(name, False) is None:
+                del sys.modules[name]  # importable again for anyone who needs it later
         for name, source in _MIRRORED.items():
             if listers[name] is None:
                 del source.__dir__

@@ -21,7 +21,7 @@ from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
-from ui.plot_trace import Trace
+from ui.plot_items import TickGrid, Trace
 from ui.pyqtgraph_loader import pg
 from vetfluid.formatting import format_number, format_quantity
 from vetfluid.plan import Plan
@@ -79,6 +79,7 @@ def apply_palette(palette: QPalette, graphics: pg.GraphicsLayoutWidget, plots) -
             axis = plot.getAxis(name)
             axis.setPen(text)
             axis.setTextPen(text)
+        plot.grid.set_colour(text)
         plot.setTitle(plot.titleLabel.text, color=text.name(), size="9pt")
         plot.legend.setLabelTextColor(text)
         for _sample, label in plot.legend.items:
@@ -93,12 +94,13 @@ def configure_pyqtgraph() -> None:
         _configured = True
 
 
-def show_grid(plot: pg.PlotItem) -> None:
-    """Faint grid lines: every hour tick, but only the major value ticks. pyqtgraph draws
-    the grid as part of the axis, so minor value lines would be re-rendered across the
-    whole plot each time an edit moves the value range (half the cost of a redraw)."""
-    plot.showGrid(x=True, y=True, alpha=0.2)
+def show_grid(plot: pg.PlotItem, hour_axis: pg.AxisItem | None = None) -> None:
+    """Faint grid lines at the hour ticks (of ``hour_axis`` when given, so stacked plots
+    share their verticals) and at the major value ticks, drawn by a :class:`TickGrid`
+    inside the plot; the value axis labels its major ticks only."""
     plot.getAxis("left").setStyle(maxTickLevel=0)
+    plot.grid = TickGrid(hour_axis or plot.getAxis("bottom"), plot.getAxis("left"))
+    plot.vb.addItem(plot.grid, ignoreBounds=True)
 
 
 def _pen(colour: str, *, width: float = 2.0, style: Qt.PenStyle = Qt.PenStyle.SolidLine):
@@ -252,9 +254,9 @@ class TimelineView(QWidget):
         self.weight_plot = self._add_plot(3, "Predicted body weight", "Weight (kg)", self.hour_axis)
         self.plots = (self.rate_plot, self.volume_plot, self.deficit_plot, self.weight_plot)
         for plot in self.plots:
-            for side in ("left", "bottom"):
-                # replaying an axis' text is most of a redraw; keep it as a pixmap instead
-                plot.getAxis(side).setCacheMode(QGraphicsItem.CacheMode.DeviceCoordinateCache)
+            # replaying an axis' text is most of a redraw; keep it as a pixmap instead
+            plot.getAxis("left").setCacheMode(QGraphicsItem.CacheMode.DeviceCoordinateCache)
+        self.hour_axis.setCacheMode(QGraphicsItem.CacheMode.DeviceCoordinateCache)
         for plot in self.plots[1:]:
             plot.setXLink(self.rate_plot)
 
@@ -316,12 +318,13 @@ class TimelineView(QWidget):
         for name in ("left", "bottom"):
             plot.getAxis(name).enableAutoSIPrefix(False)  # never "(x0.001)" on a dose axis
         plot.getAxis("left").setWidth(LEFT_AXIS_WIDTH)
-        show_grid(plot)
+        show_grid(plot, self.hour_axis)
         plot.setMouseEnabled(x=True, y=False)
         plot.setMenuEnabled(False)
         plot.hideButtons()
         if bottom is None:
             plot.getAxis("bottom").setStyle(showValues=False)
+            plot.getAxis("bottom").setTickPen(pg.mkPen(None))  # the grid marks the hours
         legend = pg.LegendItem(labelTextSize="9pt", sampleType=LineSample, frame=False)
         self.graphics.addItem(legend, row=row, col=1)
         plot.legend = legend  # plot.plot(name=…) enters each curve in it

@@ -113,6 +113,13 @@ def _frozen(array: np.ndarray) -> np.ndarray:
     return array
 
 
+def _distinct(values: np.ndarray) -> np.ndarray:
+    """The distinct values, sorted. Not ``np.unique``: its first call imports numpy's masked
+    arrays (≈2 MiB in the window) for what a sort does."""
+    ordered = np.sort(values)
+    return ordered[np.concatenate(([True], np.diff(ordered) != 0))] if len(ordered) else ordered
+
+
 def _grid(step_h: float, end_h: float, breaks: np.ndarray) -> np.ndarray:
     """Every ``step_h`` from 0 to ``end_h``, with the plan's own steps (``breaks``) exact."""
     count = int(np.floor(end_h / step_h + 1e-9))
@@ -149,7 +156,7 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
     dose_hours = np.array([h for p in phases for h in p.dose_hours()], dtype=float)
     dose_ml = np.array([p.dose_ml or 0.0 for p in phases for _ in p.dose_hours()], dtype=float)
     end_h = float(ends.max())
-    breaks = np.unique(np.concatenate(([0.0, end_h], starts, ends, dose_hours)))
+    breaks = _distinct(np.concatenate(([0.0, end_h], starts, ends, dose_hours)))
     hours = _grid(step / 60.0, end_h, breaks)
 
     # the planned rate: the phase whose [start, end) holds each point, else 0
@@ -161,7 +168,9 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
     # given: continuous phases integrate; doses step up at their hour (inclusive)
     elapsed = np.clip(hours[None, :] - starts[continuous, None], 0.0, None)
     elapsed = np.minimum(elapsed, (ends - starts)[continuous, None])
-    given = rates[continuous] @ elapsed if continuous.any() else np.zeros_like(hours)
+    # a sum of products, not ``@``: a matrix product starts OpenBLAS (its threads and
+    # buffers, ≈3 MiB) for a handful of phases
+    given = (rates[continuous, None] * elapsed).sum(axis=0)
     if dose_hours.size:
         order = np.argsort(dose_hours, kind="stable")
         cumulative = np.concatenate(([0.0], np.cumsum(dose_ml[order])))

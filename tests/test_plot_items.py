@@ -7,7 +7,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from ui.plot_trace import Trace, step_points, turning_points
+from ui.plot_items import Trace, step_points, turning_points
 
 
 def distance_to_polyline(px: float, py: float, xs: np.ndarray, ys: np.ndarray) -> float:
