@@ -97,3 +97,38 @@ def test_a_shaded_trace_closes_down_to_zero(qtbot):
     points = [(p.x(), p.y()) for p in area._polygon]
     assert points == [(0, 3), (2, 1), (2, 0), (0, 0)]
     assert area.dataBounds(1) == (0.0, 3.0)
+
+
+def test_tick_grid_draws_at_the_axis_ticks_in_the_text_colour(qtbot):
+    from PySide6.QtGui import QColor
+
+    from ui.plot_items import TickGrid
+    from ui.pyqtgraph_loader import pg
+
+    widget = pg.PlotWidget()
+    qtbot.addWidget(widget)
+    widget.resize(600, 300)
+    widget.setBackground("w")
+    plot = widget.getPlotItem()
+    grid = TickGrid(plot.getAxis("bottom"), plot.getAxis("left"))
+    plot.vb.addItem(grid, ignoreBounds=True)
+    grid.set_colour(QColor("#000000"))
+    plot.setXRange(0, 24, padding=0)
+    plot.setYRange(0, 100, padding=0)
+    widget.show()
+    qtbot.waitExposed(widget)
+    image = widget.grab().toImage()
+    assert grid.boundingRect() == plot.vb.viewRect()
+
+    def shade(x: float, y: float) -> int:
+        """The darkest pixel within one pixel of (x, y): a 1-px line may round either way."""
+        point = widget.mapFromScene(plot.vb.mapViewToScene(pg.Point(x, y)))
+        return min(QColor(image.pixel(point.x() + dx, point.y())).lightness() for dx in (-1, 0, 1))
+
+    major_x = plot.getAxis("bottom").tickValues(0, 24, plot.vb.width())[0][1]
+    major_x = [x for x in major_x if 0 < x < 24]
+    assert major_x, "the axis has major ticks inside the range"
+    for x in major_x:
+        assert shade(x, 50) < 240, f"no grid line at hour {x}"
+    between = (major_x[0] + (major_x[1] if len(major_x) > 1 else 24)) / 2 + 0.37
+    assert shade(between, 37.3) == 255, "the grid draws only at ticks"

@@ -168,9 +168,7 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
     # given: continuous phases integrate; doses step up at their hour (inclusive)
     elapsed = np.clip(hours[None, :] - starts[continuous, None], 0.0, None)
     elapsed = np.minimum(elapsed, (ends - starts)[continuous, None])
-    # a sum of products, not ``@``: a matrix product starts OpenBLAS (its threads and
-    # buffers, ≈3 MiB) for a handful of phases
-    given = (rates[continuous, None] * elapsed).sum(axis=0)
+    given = rates[continuous] @ elapsed if continuous.any() else np.zeros_like(hours)
     if dose_hours.size:
         order = np.argsort(dose_hours, kind="stable")
         cumulative = np.concatenate(([0.0], np.cumsum(dose_ml[order])))
