@@ -132,3 +132,24 @@ def test_tick_grid_draws_at_the_axis_ticks_in_the_text_colour(qtbot):
         assert shade(x, 50) < 240, f"no grid line at hour {x}"
     between = (major_x[0] + (major_x[1] if len(major_x) > 1 else 24)) / 2 + 0.37
     assert shade(between, 37.3) == 255, "the grid draws only at ticks"
+
+
+def test_tick_grid_works_its_lines_out_again_when_the_range_moves(qtbot):
+    from ui.plot_items import TickGrid
+    from ui.pyqtgraph_loader import pg
+
+    widget = pg.PlotWidget()
+    qtbot.addWidget(widget)
+    widget.resize(600, 300)
+    plot = widget.getPlotItem()
+    grid = TickGrid(plot.getAxis("bottom"), plot.getAxis("left"))
+    plot.vb.addItem(grid, ignoreBounds=True)
+    plot.setXRange(0, 24, padding=0)
+    plot.setYRange(0, 100, padding=0)
+    widget.show()
+    qtbot.waitExposed(widget)
+    day = [line.x1() for line in grid.lines()[0] if line.x1() == line.x2()]
+    assert grid.lines() is grid.lines()  # kept between repaints
+    plot.setXRange(0, 240, padding=0)
+    ten_days = [line.x1() for line in grid.lines()[0] if line.x1() == line.x2()]
+    assert max(ten_days) > max(day) and ten_days != day

@@ -157,7 +157,8 @@ class Trace(pg.GraphicsObject):
 class TickGrid(pg.GraphicsObject):
     """Faint lines across a plot at its axes' ticks: every tick of ``x_axis`` (major lines
     darker than minor ones), and the major ticks of ``y_axis`` only (minor value lines would
-    crowd a short plot). Drawn under the curves, in the axes' text colour."""
+    crowd a short plot). Drawn under the curves, in the axes' text colour. The lines are
+    worked out when the view's range or size changes, not on every repaint."""
 
     MAJOR_ALPHA = 51  # of 255: what pyqtgraph's grid at alpha 0.2 gives a major tick
     MINOR_ALPHA = 25
@@ -167,41 +168,60 @@ class TickGrid(pg.GraphicsObject):
         self.x_axis = x_axis
         self.y_axis = y_axis
         self.setZValue(-1000)
-        self._colour = QColor("#808080")
+        self._pens = (self._pen(QColor("#808080"), self.MAJOR_ALPHA),) * 2
+        self._lines: tuple[list[QLineF], list[QLineF]] | None = None  # major, minor
+
+    @staticmethod
+    def _pen(colour: QColor, alpha: int) -> QPen:
+        shade = QColor(colour)
+        shade.setAlpha(alpha)
+        pen = QPen(shade, 1.0)
+        pen.setCosmetic(True)
+        return pen
 
     def set_colour(self, colour: QColor) -> None:
-        self._colour = QColor(colour)
+        self._pens = (self._pen(colour, self.MAJOR_ALPHA), self._pen(colour, self.MINOR_ALPHA))
+        self.update()
+
+    def refresh(self) -> None:
+        """Work the lines out again (the axes' ticks may have moved)."""
+        self.prepareGeometryChange()
+        self._lines = None
         self.update()
 
     def viewRangeChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
-        self.prepareGeometryChange()
-        self.update()
+        self.refresh()
+
+    def viewTransformChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook: resized)
+        self.refresh()
 
     def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
         view = self.getViewBox()
         return QRectF() if view is None else view.viewRect()
 
-    def _pen(self, alpha: int) -> QPen:
-        colour = QColor(self._colour)
-        colour.setAlpha(alpha)
-        pen = QPen(colour, 1.0)
-        pen.setCosmetic(True)
-        return pen
+    def lines(self) -> tuple[list[QLineF], list[QLineF]]:
+        """The major and the minor grid lines for the view's current range and size."""
+        if self._lines is None:
+            view = self.getViewBox()
+            if view is None:
+                return [], []
+            rect, size = view.viewRect(), view.geometry()
+            major: list[QLineF] = []
+            minor: list[QLineF] = []
+            x_levels = self.x_axis.tickValues(rect.left(), rect.right(), size.width())
+            for level, (_spacing, hours) in enumerate(x_levels[:2]):
+                (major if level == 0 else minor).extend(
+                    QLineF(x, rect.top(), x, rect.bottom()) for x in hours
+                )
+            y_levels = self.y_axis.tickValues(rect.top(), rect.bottom(), size.height())
+            if y_levels:
+                major.extend(QLineF(rect.left(), y, rect.right(), y) for y in y_levels[0][1])
+            self._lines = (major, minor)
+        return self._lines
 
     def paint(self, painter: QPainter, *_: object) -> None:
-        view = self.getViewBox()
-        if view is None:
-            return
-        rect = view.viewRect()
-        size = view.geometry()
         painter.setRenderHint(QPainter.RenderHint.Antialiasing, False)
-        x_levels = self.x_axis.tickValues(rect.left(), rect.right(), size.width())
-        for level, (_spacing, hours) in enumerate(x_levels[:2]):
-            painter.setPen(self._pen(self.MAJOR_ALPHA if level == 0 else self.MINOR_ALPHA))
-            for x in hours:
-                painter.drawLine(QLineF(x, rect.top(), x, rect.bottom()))
-        y_levels = self.y_axis.tickValues(rect.top(), rect.bottom(), size.height())
-        if y_levels:
-            painter.setPen(self._pen(self.MAJOR_ALPHA))
-            for y in y_levels[0][1]:
-                painter.drawLine(QLineF(rect.left(), y, rect.right(), y))
+        for pen, lines in zip(self._pens, self.lines(), strict=True):
+            if lines:
+                painter.setPen(pen)
+                painter.drawLines(lines)

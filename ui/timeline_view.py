@@ -172,7 +172,8 @@ class HourClockAxis(pg.AxisItem):
         """Leave room for the first and last tick text to run past the plot's edges."""
         return super().boundingRect().adjusted(-EDGE_TEXT_PX, 0, EDGE_TEXT_PX, 0)
 
-    def set_timeline(self, tl: Timeline) -> None:
+    def set_timeline(self, tl: Timeline) -> bool:
+        """Take a new timeline; True when the ticks may have moved (new start or span)."""
         two_rows = tl.start_time is not None
         changed = (self.timeline is None) or ((self.timeline.start_time is not None) != two_rows)
         same_ticks = (
@@ -182,7 +183,7 @@ class HourClockAxis(pg.AxisItem):
         )
         self.timeline = tl
         if same_ticks:
-            return  # the labels depend only on the start time and the span: keep the picture
+            return False  # the labels depend only on the start time and the span: keep them
         if changed:
             self.setLabel(
                 "Time from start (h), clock time below" if two_rows else "Time from start (h)"
@@ -190,6 +191,7 @@ class HourClockAxis(pg.AxisItem):
             self.setHeight(self._two_row_height() if two_rows else None)
         self.picture = None
         self.update()
+        return True
 
 
 class LineSample(pg.ItemSample):
@@ -387,7 +389,9 @@ class TimelineView(QWidget):
             self.rate_plot.setTitle(
                 title, color=self.palette().color(QPalette.ColorRole.Text).name(), size="9pt"
             )
-        self.hour_axis.set_timeline(tl)
+        if self.hour_axis.set_timeline(tl):
+            for plot in self.plots:
+                plot.grid.refresh()  # the grids follow the hour axis' ticks
         for plot, series in zip(
             self.plots[:3], (tl.rate_ml_per_h, tl.given_ml, tl.remaining_deficit_ml), strict=True
         ):
