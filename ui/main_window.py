@@ -44,7 +44,7 @@ class _ForgetfulLineCache(dict):
     """A ``linecache`` store that keeps nothing: every read goes back to the file."""
 
     def __setitem__(self, key: str, value: tuple) -> None:
-        pass
+        """Keep nothing: ``linecache`` returns what it read without storing it."""
 
 
 @contextmanager
