@@ -76,7 +76,9 @@ def test_a_smooth_curve_sampled_finely_keeps_its_shape():
 
 
 def test_trace_keeps_the_arrays_and_bounds_and_draws_fewer_points(qtbot):
-    trace = Trace(name="Given", step=True)
+    from PySide6.QtGui import QPen
+
+    trace = Trace(name="Given", pen=QPen(), step=True)
     hours = np.arange(0, 6.001, 0.25)
     rate = np.where(hours < 2, 50.0, 10.0)
     trace.setData(hours, rate)
@@ -84,9 +86,53 @@ def test_trace_keeps_the_arrays_and_bounds_and_draws_fewer_points(qtbot):
     np.testing.assert_array_equal(x, hours)
     np.testing.assert_array_equal(y, rate)
     assert trace.dataBounds(0) == (0.0, 6.0) and trace.dataBounds(1) == (10.0, 50.0)
-    assert trace._polygon.size() == 4  # (0,50) (2,50) (2,10) (6,10)
+    corners = [(p.x(), p.y()) for p in trace._segments]  # pairs: one per drawn segment
+    assert corners == [(0, 50), (2, 50), (2, 50), (2, 10), (2, 10), (6, 10)]
+    assert trace._polygon.isEmpty()  # nothing to fill without a brush
     trace.setData([], [])
-    assert trace.dataBounds(0) == (None, None) and trace._polygon.isEmpty()
+    assert trace.dataBounds(0) == (None, None) and trace._segments.isEmpty()
+
+
+@pytest.mark.parametrize("style", ["SolidLine", "DashLine", "DotLine"])
+def test_segments_draw_the_picture_a_polyline_would(qtbot, style):
+    """Separate segments (the fast path) against one polyline (Qt's general stroker): the
+    ink stays on the line's path, and there is as much of it. A dash pattern may restart
+    its phase at a corner, so dashed pixels are not compared one by one."""
+    from PySide6.QtCore import QPointF, Qt
+    from PySide6.QtGui import QColor, QImage, QPainter, QPen, QPolygonF
+
+    x = np.array([10.0, 120.0, 120.0, 250.0, 390.0])
+    y = np.array([150.0, 150.0, 40.0, 100.0, 20.0])
+    pen = QPen(QColor("black"), 2.5, getattr(Qt.PenStyle, style))
+    trace = Trace(pen=pen)
+    trace.setData(x, y)
+
+    def ink(draw) -> np.ndarray:
+        image = QImage(400, 170, QImage.Format.Format_ARGB32_Premultiplied)
+        image.fill(QColor("white"))
+        painter = QPainter(image)
+        painter.setRenderHint(QPainter.RenderHint.Antialiasing)
+        draw(painter)
+        painter.end()
+        pixels = np.frombuffer(image.constBits(), np.uint8).reshape(170, 400, 4)
+        return pixels[..., :3].mean(axis=2) < 128
+
+    def polyline(line_pen: QPen):
+        def draw(painter: QPainter) -> None:
+            painter.setPen(line_pen)
+            painter.drawPolyline(QPolygonF([QPointF(a, b) for a, b in zip(x, y, strict=True)]))
+
+        return draw
+
+    ours, reference = ink(trace.paint), ink(polyline(pen))
+    wide = QPen(QColor("black"), 4.5, Qt.PenStyle.SolidLine, Qt.PenCapStyle.SquareCap)
+    wide.setJoinStyle(Qt.PenJoinStyle.MiterJoin)
+    path = ink(polyline(wide))  # the solid line, a pixel wider, corners kept
+    assert reference.sum() > 400  # the reference line is there at all
+    assert not (ours & ~path).any()  # no ink off the line
+    assert abs(int(ours.sum()) - int(reference.sum())) <= 0.05 * reference.sum()
+    if style == "SolidLine":
+        assert (ours != reference).sum() <= 0.05 * reference.sum()
 
 
 def test_a_shaded_trace_closes_down_to_zero(qtbot):
@@ -112,7 +158,7 @@ def test_tick_grid_draws_at_the_axis_ticks_in_the_text_colour(qtbot):
     plot = widget.getPlotItem()
     grid = TickGrid(plot.getAxis("bottom"), plot.getAxis("left"))
     plot.vb.addItem(grid, ignoreBounds=True)
-    grid.set_colour(QColor("#000000"))
+    grid.set_colour(QColor("#000000"), QColor("#ffffff"))
     plot.setXRange(0, 24, padding=0)
     plot.setYRange(0, 100, padding=0)
     widget.show()

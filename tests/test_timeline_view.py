@@ -39,11 +39,9 @@ def curve_arrays(curve):
 def assert_draws(view: TimelineView, tl) -> None:
     pairs = (
         (view.rate_curve, tl.rate_ml_per_h),
-        (view.rate_fill, tl.rate_ml_per_h),
         (view.given_curve, tl.given_ml),
         (view.needed_curve, tl.needed_ml),
         (view.deficit_curve, tl.remaining_deficit_ml),
-        (view.deficit_fill, tl.remaining_deficit_ml),
         (view.weight_curve, tl.weight_kg),
     )
     for curve, expected in pairs:
@@ -166,11 +164,10 @@ def test_legends_name_every_curve_and_styles_differ_without_colour(view):
     named = {
         label.text: sample.item for plot in view.plots for sample, label in plot.legend.items
     }  # fmt: skip
-    assert set(named.values()) == set(view.curves) - set(view.fills)  # every line, no shading
+    assert set(named.values()) == set(view.curves)  # every line
     assert {"Given", "Needed", "Overload line", "Predicted weight", "Entered weight"} <= set(named)
     for plot in view.plots:
-        lines = [item for item in plot.listDataItems() if item not in view.fills]
-        styles = [item.opts["pen"].style() for item in lines]
+        styles = [item.opts["pen"].style() for item in plot.listDataItems()]
         assert len(set(styles)) == len(styles), "two curves in one plot differ only by colour"
     assert view.needed_curve.opts["pen"].style() == Qt.PenStyle.DashLine
 

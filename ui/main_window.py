@@ -419,6 +419,7 @@ class MainWindow(QMainWindow):
         while layout.count():
             item = layout.takeAt(0)
             if item.widget():
+                item.widget().hide()  # deleted on the next turn of the loop; unseen till then
                 item.widget().deleteLater()
         layout.setContentsMargins(0, 0, 0, 0)
         layout.addWidget(widget)

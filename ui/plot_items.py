@@ -14,9 +14,11 @@ the axes stay small.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
-from PySide6.QtCore import QLineF, QRectF, Qt
-from PySide6.QtGui import QBrush, QColor, QPainter, QPen, QPolygonF
+from PySide6.QtCore import QLineF, QRect, QRectF, Qt
+from PySide6.QtGui import QBrush, QColor, QPainter, QPen, QPolygonF, QTransform
 
 from ui.pyqtgraph_loader import pg
 
@@ -53,7 +55,10 @@ def turning_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray
 
 
 class Trace(pg.GraphicsObject):
-    """A line (``pen``) or the area between the line and zero (``brush``) over (x, y).
+    """A line (``pen``) and the area between it and zero (``brush``) over (x, y).
+
+    The area is filled without antialiasing: the line over it gives the smooth edge, and
+    an antialiased fill edge is a good part of a redraw.
 
     ``step=True`` holds each value until the next x (a rate that changes in steps).
     ``opts`` carries the pen, brush and step mode under pyqtgraph's keys, which the
@@ -79,7 +84,8 @@ class Trace(pg.GraphicsObject):
         }
         self._x = np.zeros(0)
         self._y = np.zeros(0)
-        self._polygon = QPolygonF()
+        self._polygon = QPolygonF()  # the outline to fill
+        self._segments = QPolygonF()  # the line as point pairs, one pair a segment
         self._bounds = QRectF()
         self._padded: QRectF | None = None  # the bounds plus EDGE_PX, in data units
 
@@ -111,10 +117,18 @@ class Trace(pg.GraphicsObject):
         xs, ys = turning_points(
             *(step_points(self._x, self._y) if self.opts["stepMode"] else (self._x, self._y))
         )
+        polygon = pg.functions.arrayToQPolygonF
+        self._segments = (
+            polygon(np.repeat(xs, 2)[1:-1], np.repeat(ys, 2)[1:-1])
+            if len(xs) > 1 and self.opts["pen"] is not None
+            else QPolygonF()
+        )
         if self.opts["brush"] is not None and len(xs):
             xs = np.concatenate((xs, [xs[-1], xs[0]]))  # down to zero and back along it
             ys = np.concatenate((ys, [0.0, 0.0]))
-        self._polygon = pg.functions.arrayToQPolygonF(xs, ys) if len(xs) else QPolygonF()
+            self._polygon = polygon(xs, ys)
+        else:
+            self._polygon = QPolygonF()
         self.prepareGeometryChange()
         if len(xs):
             self._bounds = QRectF(
@@ -141,24 +155,32 @@ class Trace(pg.GraphicsObject):
         return self._padded
 
     def paint(self, painter: QPainter, *_: object) -> None:
-        if self._polygon.isEmpty():
-            return
-        painter.setRenderHint(QPainter.RenderHint.Antialiasing, self.opts["antialias"])
-        if self.opts["brush"] is not None:
+        if not self._polygon.isEmpty():
+            painter.setRenderHint(QPainter.RenderHint.Antialiasing, False)
             painter.setPen(Qt.PenStyle.NoPen)
             painter.setBrush(self.opts["brush"])
             painter.drawPolygon(self._polygon)
-        if self.opts["pen"] is not None:
+        if not self._segments.isEmpty():
+            # Separate segments in device pixels, not a polyline in data units: Qt
+            # rasterises a solid or dashed line with flat or square caps directly when the
+            # painter has no scale, where it strokes a wide polyline (or any line under a
+            # scale) into an outline and fills that, about ten times the work for a slanted
+            # line. The square caps cover the joins at the few corners a trace has.
+            device = painter.transform().map(self._segments)
+            painter.save()
+            painter.resetTransform()  # the clip is kept in device pixels
+            painter.setRenderHint(QPainter.RenderHint.Antialiasing, self.opts["antialias"])
             painter.setPen(self.opts["pen"])
-            painter.setBrush(Qt.BrushStyle.NoBrush)
-            painter.drawPolyline(self._polygon)
+            painter.drawLines(device)
+            painter.restore()
 
 
 class TickGrid(pg.GraphicsObject):
     """Faint lines across a plot at its axes' ticks: every tick of ``x_axis`` (major lines
     darker than minor ones), and the major ticks of ``y_axis`` only (minor value lines would
-    crowd a short plot). Drawn under the curves, in the axes' text colour. The lines are
-    worked out when the view's range or size changes, not on every repaint."""
+    crowd a short plot). Drawn under the curves, in the axes' text colour faded into the
+    background. The lines are worked out when the view's range or size changes, not on
+    every repaint."""
 
     MAJOR_ALPHA = 51  # of 255: what pyqtgraph's grid at alpha 0.2 gives a major tick
     MINOR_ALPHA = 25
@@ -168,25 +190,32 @@ class TickGrid(pg.GraphicsObject):
         self.x_axis = x_axis
         self.y_axis = y_axis
         self.setZValue(-1000)
-        self._pens = (self._pen(QColor("#808080"), self.MAJOR_ALPHA),) * 2
+        self.set_colour(QColor("#808080"), QColor("#ffffff"))
         self._lines: tuple[list[QLineF], list[QLineF]] | None = None  # major, minor
+        self._device: tuple[QTransform, tuple[list[QRect], list[QRect]]] | None = None
 
     @staticmethod
-    def _pen(colour: QColor, alpha: int) -> QPen:
-        shade = QColor(colour)
-        shade.setAlpha(alpha)
-        pen = QPen(shade, 1.0)
-        pen.setCosmetic(True)
-        return pen
+    def _shade(colour: QColor, background: QColor, alpha: int) -> QColor:
+        """``colour`` laid at ``alpha`` over ``background``, as one opaque colour."""
+        mix = [
+            round((a * alpha + b * (255 - alpha)) / 255)
+            for a, b in zip(colour.getRgb()[:3], background.getRgb()[:3], strict=True)
+        ]
+        return QColor(*mix)
 
-    def set_colour(self, colour: QColor) -> None:
-        self._pens = (self._pen(colour, self.MAJOR_ALPHA), self._pen(colour, self.MINOR_ALPHA))
+    def set_colour(self, colour: QColor, background: QColor) -> None:
+        """Lines in ``colour`` made faint against the plot's ``background``."""
+        self._shades = (
+            self._shade(colour, background, self.MAJOR_ALPHA),
+            self._shade(colour, background, self.MINOR_ALPHA),
+        )
         self.update()
 
     def refresh(self) -> None:
         """Work the lines out again (the axes' ticks may have moved)."""
         self.prepareGeometryChange()
         self._lines = None
+        self._device = None
         self.update()
 
     def viewRangeChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
@@ -219,9 +248,33 @@ class TickGrid(pg.GraphicsObject):
             self._lines = (major, minor)
         return self._lines
 
+    def device_rects(self, transform: QTransform) -> tuple[list[QRect], list[QRect]]:
+        """The lines as one-pixel-wide rectangles in device pixels, kept while
+        ``transform`` (the painter's) stays the same."""
+        if self._device is None or self._device[0] != transform:
+            rects = tuple(
+                [_pixel_rect(transform.map(line)) for line in lines] for lines in self.lines()
+            )
+            self._device = (QTransform(transform), rects)
+        return self._device[1]
+
     def paint(self, painter: QPainter, *_: object) -> None:
+        # Opaque rectangles in device pixels: Qt fills those row by row, where even a thin
+        # line is stepped pixel by pixel and a faint one blended into each of them.
+        rects = self.device_rects(painter.transform())
+        painter.save()
+        painter.resetTransform()  # the clip is kept in device pixels
         painter.setRenderHint(QPainter.RenderHint.Antialiasing, False)
-        for pen, lines in zip(self._pens, self.lines(), strict=True):
+        painter.setPen(Qt.PenStyle.NoPen)
+        for shade, lines in zip(self._shades, rects, strict=True):
             if lines:
-                painter.setPen(pen)
-                painter.drawLines(lines)
+                painter.setBrush(shade)
+                painter.drawRects(lines)
+        painter.restore()
+
+
+def _pixel_rect(line: QLineF) -> QRect:
+    """The pixels a one-pixel, unsmoothed, horizontal or vertical ``line`` covers."""
+    left, top = math.floor(min(line.x1(), line.x2())), math.floor(min(line.y1(), line.y2()))
+    right, bottom = math.floor(max(line.x1(), line.x2())), math.floor(max(line.y1(), line.y2()))
+    return QRect(left, top, right - left + 1, bottom - top + 1)

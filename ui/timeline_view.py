@@ -79,7 +79,7 @@ def apply_palette(palette: QPalette, graphics: pg.GraphicsLayoutWidget, plots) -
             axis = plot.getAxis(name)
             axis.setPen(text)
             axis.setTextPen(text)
-        plot.grid.set_colour(text)
+        plot.grid.set_colour(text, base)
         plot.setTitle(plot.titleLabel.text, color=text.name(), size="9pt")
         plot.legend.setLabelTextColor(text)
         for _sample, label in plot.legend.items:
@@ -263,24 +263,18 @@ class TimelineView(QWidget):
             plot.setXLink(self.rate_plot)
 
         dash, dot = Qt.PenStyle.DashLine, Qt.PenStyle.DotLine
-        # Fills are items of their own, drawn without antialiasing (a filled polygon's
-        # antialiased edge is a good part of a redraw); the lines over them stay smooth.
-        self.rate_fill = curve(
-            self.rate_plot, step=True, brush=_brush(RATE_COLOUR, 50), antialias=False
-        )
         self.rate_curve = curve(
-            self.rate_plot, name="Planned rate", pen=_pen(RATE_COLOUR, width=2.5), step=True
-        )
+            self.rate_plot, name="Planned rate", pen=_pen(RATE_COLOUR, width=2.5),
+            brush=_brush(RATE_COLOUR, 50), step=True,
+        )  # fmt: skip
         self.given_curve = curve(self.volume_plot, name="Given", pen=_pen(GIVEN_COLOUR, width=2.5))
         self.needed_curve = curve(
             self.volume_plot, name="Needed", pen=_pen(NEEDED_COLOUR, width=2.0, style=dash)
         )
-        self.deficit_fill = curve(
-            self.deficit_plot, brush=_brush(DEFICIT_COLOUR, 45), antialias=False
-        )
         self.deficit_curve = curve(
-            self.deficit_plot, name="Deficit left", pen=_pen(DEFICIT_COLOUR, width=2.5)
-        )
+            self.deficit_plot, name="Deficit left", pen=_pen(DEFICIT_COLOUR, width=2.5),
+            brush=_brush(DEFICIT_COLOUR, 45),
+        )  # fmt: skip
         self.weight_curve = curve(
             self.weight_plot, name="Predicted weight", pen=_pen(WEIGHT_COLOUR, width=2.5)
         )
@@ -291,11 +285,9 @@ class TimelineView(QWidget):
         self.baseline_curve = curve(
             self.weight_plot, name="Entered weight", pen=_pen(NEUTRAL_COLOUR, width=1.5, style=dot)
         )
-        self.fills = (self.rate_fill, self.deficit_fill)  # shading under their lines, unnamed
         self.curves = (
-            self.rate_fill, self.rate_curve, self.given_curve, self.needed_curve,
-            self.deficit_fill, self.deficit_curve, self.weight_curve, self.overload_curve,
-            self.baseline_curve,
+            self.rate_curve, self.given_curve, self.needed_curve, self.deficit_curve,
+            self.weight_curve, self.overload_curve, self.baseline_curve,
         )  # fmt: skip
         for plot in self.plots:
             self._pin_legend(plot.legend)
@@ -366,12 +358,10 @@ class TimelineView(QWidget):
         """Draw a timeline: every curve keeps its item and takes the new arrays."""
         self.timeline = tl
         hours = tl.hours
-        for curve in (self.rate_fill, self.rate_curve):
-            curve.setData(hours, tl.rate_ml_per_h)
+        self.rate_curve.setData(hours, tl.rate_ml_per_h)
         self.given_curve.setData(hours, tl.given_ml)
         self.needed_curve.setData(hours, tl.needed_ml)
-        for curve in (self.deficit_fill, self.deficit_curve):
-            curve.setData(hours, tl.remaining_deficit_ml)
+        self.deficit_curve.setData(hours, tl.remaining_deficit_ml)
         self.weight_curve.setData(hours, tl.weight_kg)
         ends = [0.0, tl.end_h]
         self.overload_curve.setData(ends, [tl.overload_weight_kg] * 2)
