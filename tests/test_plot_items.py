@@ -199,3 +199,43 @@ def test_tick_grid_works_its_lines_out_again_when_the_range_moves(qtbot):
     plot.setXRange(0, 240, padding=0)
     ten_days = [line.x1() for line in grid.lines()[0] if line.x1() == line.x2()]
     assert max(ten_days) > max(day) and ten_days != day
+
+
+def test_plot_label_sits_above_left_of_its_point_at_a_fixed_pixel_size(qtbot):
+    from PySide6.QtWidgets import QApplication
+
+    from ui.plot_items import PlotLabel
+    from ui.pyqtgraph_loader import pg
+
+    widget = pg.PlotWidget()
+    qtbot.addWidget(widget)
+    widget.resize(600, 300)
+    plot = widget.getPlotItem()
+    plot.setXRange(0, 24, padding=0)
+    plot.setYRange(0, 10, padding=0)
+    label = PlotLabel("#d62728")
+    plot.addItem(label, ignoreBounds=True)
+    label.setText("overload line: +10 % = 28.51 kg")
+    label.setPos(20, 5)
+    widget.show()
+    qtbot.waitExposed(widget)
+
+    def placed():
+        """The label's rectangle (its text and margin) and its point, in the widget's pixels."""
+        QApplication.processEvents()  # the view takes its new range on the next turn
+        device = label.deviceTransform(widget.viewportTransform())
+        rect = device.mapRect(label.boundingRect())
+        point = widget.viewportTransform().map(plot.vb.mapViewToScene(pg.Point(20, 5)))
+        return rect, point
+
+    rect, point = placed()
+    assert label.text() == "overload line: +10 % = 28.51 kg"
+    assert rect.width() > 100 and rect.height() > 8  # one line of text, in pixels
+    assert rect.right() == pytest.approx(point.x(), abs=1)  # within a pixel
+    assert rect.bottom() == pytest.approx(point.y(), abs=1)
+    plot.setXRange(0, 240, padding=0)  # ten times the hours: the text keeps its size
+    plot.setYRange(0, 100, padding=0)
+    moved, point = placed()
+    assert moved.size() == rect.size()
+    assert moved.right() == pytest.approx(point.x(), abs=1)  # within a pixel
+    assert moved.bottom() == pytest.approx(point.y(), abs=1)

@@ -59,8 +59,8 @@ def test_curves_hold_the_core_arrays(view):
     tl = timeline(plan)
     assert_draws(view, tl)
     assert view.rate_curve.opts["stepMode"] == "right"  # rate[i] holds from hours[i] onward
-    assert "23.54 kg" in view.overload_text.toPlainText()
-    assert "+10 %" in view.overload_text.toPlainText()
+    assert "23.54 kg" in view.overload_text.text()
+    assert "+10 %" in view.overload_text.text()
 
 
 def test_updating_keeps_the_same_items_with_new_data(view):

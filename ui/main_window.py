@@ -99,6 +99,8 @@ class MainWindow(QMainWindow):
         self.setCentralWidget(body)
 
         self._build_menus()
+        # Opaque: a new message (one per edit) repaints the bar only, not the window behind it.
+        self.statusBar().setAutoFillBackground(True)
         self.statusBar().showMessage("Choose a species and enter a weight to start.")
         self._restore_geometry()
         self._painted = False

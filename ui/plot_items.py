@@ -1,4 +1,5 @@
-"""Light plot items of our own: a plotted series (:class:`Trace`) and the grid (:class:`TickGrid`).
+"""Light plot items of our own: a plotted series (:class:`Trace`), the grid (:class:`TickGrid`)
+and a text pinned to a point (:class:`PlotLabel`).
 
 pyqtgraph's general curve item recomputes bounds, pixel padding and finite checks on
 every update and several times per repaint; with nine curves that was half of an
@@ -10,6 +11,10 @@ pyqtgraph draws a grid as part of each axis, which makes every axis as large as 
 cached as pixmaps (the axes' text is costly to redraw) that was about 3 MiB for the four
 timeline plots. A :class:`TickGrid` draws the same faint lines from inside the plot, so
 the axes stay small.
+
+pyqtgraph's text item is a whole text document, laid out again on every change and
+re-transformed on every repaint. A :class:`PlotLabel` is one line laid out once per
+change and drawn unscaled at its point.
 """
 
 from __future__ import annotations
@@ -17,8 +22,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from PySide6.QtCore import QLineF, QRect, QRectF, Qt
-from PySide6.QtGui import QBrush, QColor, QPainter, QPen, QPolygonF, QTransform
+from PySide6.QtCore import QLineF, QPointF, QRect, QRectF, Qt
+from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPen, QPolygonF, QStaticText, QTransform
 
 from ui.pyqtgraph_loader import pg
 
@@ -278,3 +283,44 @@ def _pixel_rect(line: QLineF) -> QRect:
     left, top = math.floor(min(line.x1(), line.x2())), math.floor(min(line.y1(), line.y2()))
     right, bottom = math.floor(max(line.x1(), line.x2())), math.floor(max(line.y1(), line.y2()))
     return QRect(left, top, right - left + 1, bottom - top + 1)
+
+
+class PlotLabel(pg.GraphicsObject):
+    """One line of text above and left of its position (in data units), ``MARGIN_PX`` clear
+    of it so a line drawn through the position stays readable; drawn in pixels, so it
+    keeps its size however the plot is scaled."""
+
+    MARGIN_PX = 4.0
+
+    def __init__(self, colour: str) -> None:
+        super().__init__()
+        self.setFlag(self.GraphicsItemFlag.ItemIgnoresTransformations)
+        self._colour = QColor(colour)
+        self._font = QFont()
+        self._text = QStaticText()
+        self._text.setTextFormat(Qt.TextFormat.PlainText)
+        self._rect = QRectF()
+
+    def text(self) -> str:
+        return self._text.text()
+
+    def setText(self, text: str) -> None:  # noqa: N802 (the name of Qt's text items)
+        """Show ``text``; laid out here, once, not on every repaint."""
+        if text == self._text.text():
+            return
+        self.prepareGeometryChange()
+        self._text.setText(text)
+        self._text.prepare(QTransform(), self._font)
+        size = self._text.size()
+        width, height = size.width() + self.MARGIN_PX, size.height() + self.MARGIN_PX
+        self._rect = QRectF(-width, -height, width, height)
+        self.update()
+
+    def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
+        return self._rect
+
+    def paint(self, painter: QPainter, *_: object) -> None:
+        if self._text.text():
+            painter.setFont(self._font)
+            painter.setPen(self._colour)
+            painter.drawStaticText(QPointF(self._rect.left(), self._rect.top()), self._text)

@@ -21,7 +21,7 @@ from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
-from ui.plot_items import TickGrid, Trace
+from ui.plot_items import PlotLabel, TickGrid, Trace
 from ui.pyqtgraph_loader import pg
 from vetfluid.formatting import format_number, format_quantity
 from vetfluid.plan import Plan
@@ -234,7 +234,15 @@ class TimelineView(QWidget):
         self.readout = QLabel(EMPTY_READOUT, self)
         self.readout.setObjectName("timelineReadout")
         self.readout.setAccessibleName("Timeline values at the pointer")
-        self.readout.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        # Plain text, not selectable: a selectable label keeps a whole text document and
+        # lays it out again on every change, and the read-out changes with every edit and
+        # pointer move. The same values are in the plan's tables and the view's description.
+        self.readout.setTextFormat(Qt.TextFormat.PlainText)
+        # Opaque, in the plots' colours: a new read-out repaints itself only, not the tabs
+        # and frames beneath it.
+        self.readout.setBackgroundRole(QPalette.ColorRole.Base)
+        self.readout.setForegroundRole(QPalette.ColorRole.Text)
+        self.readout.setAutoFillBackground(True)
         self.readout.setContentsMargins(LEFT_AXIS_WIDTH, 4, 4, 4)
         # A fixed size (kept to the view's width in resizeEvent): new read-out text must not
         # ask every layout up to the window to recompute, which a hover would do each move.
@@ -291,7 +299,7 @@ class TimelineView(QWidget):
         )  # fmt: skip
         for plot in self.plots:
             self._pin_legend(plot.legend)
-        self.overload_text = pg.TextItem("", color=OVERLOAD_COLOUR, anchor=(1.0, 1.0))
+        self.overload_text = PlotLabel(OVERLOAD_COLOUR)
         self.weight_plot.addItem(self.overload_text, ignoreBounds=True)
 
         hover_pen = _pen(NEUTRAL_COLOUR, width=1.0, style=dash)
@@ -370,8 +378,7 @@ class TimelineView(QWidget):
             f"overload line: +{format_number(tl.overload_gain_percent)} % = "
             f"{_weight_text(tl.overload_weight_kg)}"
         )
-        if label != self.overload_text.toPlainText():
-            self.overload_text.setText(label)
+        self.overload_text.setText(label)
         self.overload_text.setPos(tl.end_h, tl.overload_weight_kg)
         title = RATE_TITLE_DIVIDED if tl.has_divided_doses else RATE_TITLE
         if title != self._shown_title:
