@@ -7,7 +7,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from ui.plot_items import Trace, step_points, turning_points
+from ui.plot_items import Trace, step_changes, step_points, turning_mask, turning_points
 
 
 def distance_to_polyline(px: float, py: float, xs: np.ndarray, ys: np.ndarray) -> float:
@@ -24,6 +24,28 @@ def distance_to_polyline(px: float, py: float, xs: np.ndarray, ys: np.ndarray) -
 def test_step_points_hold_each_value_until_the_next_hour():
     xs, ys = step_points(np.array([0.0, 1.0, 3.0]), np.array([5.0, 2.0, 0.0]))
     assert list(zip(xs, ys, strict=True)) == [(0, 5), (1, 5), (1, 2), (3, 2), (3, 0)]
+
+
+def test_a_step_that_holds_its_last_value_ends_without_a_drop():
+    xs, ys = step_points(np.array([0.0, 1.0, 3.0]), np.array([5.0, 2.0, 2.0]))
+    assert list(zip(xs, ys, strict=True)) == [(0, 5), (1, 5), (1, 2), (3, 2)]
+
+
+def test_step_changes_keep_the_ends_and_each_new_value():
+    rate = np.array([50.0, 50.0, 50.0, 10.0, 10.0, 0.0, 0.0])
+    assert list(np.flatnonzero(step_changes(rate))) == [0, 3, 5, 6]
+
+
+def test_lines_on_one_x_share_their_corners():
+    """One pass for several lines keeps every corner of each (and only corners)."""
+    hours = np.arange(0, 24.001, 1 / 12)
+    given = np.where(hours < 12, 100 * hours, 1200 + 20 * (hours - 12))
+    deficit = np.maximum(800 - 100 * hours, 0)  # reaches zero at 8 h
+    weight = np.full_like(hours, 24.0)  # flat: no corners of its own
+    keep = turning_mask(hours, given, deficit, weight)
+    assert list(hours[keep]) == [0.0, 8.0, 12.0, 24.0]
+    for line in (given, deficit, weight):
+        np.testing.assert_allclose(np.interp(hours, hours[keep], line[keep]), line, atol=1e-9)
 
 
 def test_turning_points_keep_the_corners_and_drop_the_rest():

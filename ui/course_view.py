@@ -217,7 +217,7 @@ class CourseView(QWidget):
             plot.setLabel("bottom", "Time from start (h)")
         else:
             plot.getAxis("bottom").setStyle(showValues=False)
-        for name in ("left", "bottom"):
+        for name in ("left", "bottom", "top", "right"):  # see timeline_view._add_plot
             plot.getAxis(name).enableAutoSIPrefix(False)
         show_grid(plot)
         plot.setMenuEnabled(False)

@@ -31,32 +31,53 @@ EDGE_PX = 3.0  # a line's half-width and its antialiased edge, kept inside the b
 
 
 def step_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The corners of a step line where ``y[i]`` holds from ``x[i]`` until ``x[i + 1]``."""
+    """The corners of a step line where ``y[i]`` holds from ``x[i]`` until ``x[i + 1]``; the
+    line ends with the step to the last value at the last x (none when the value holds)."""
     if len(x) == 0:
         return x, y
-    return np.repeat(x, 2)[1:], np.repeat(y, 2)[:-1]
+    xs, ys = np.repeat(x, 2)[1:], np.repeat(y, 2)[:-1]
+    if len(y) > 1 and y[-1] == y[-2]:
+        return xs[:-1], ys[:-1]
+    return xs, ys
 
 
-def turning_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The points where the line changes direction, and both ends: the same picture.
+def turning_mask(x: np.ndarray, *lines: np.ndarray) -> np.ndarray:
+    """Which points to keep so that each of ``lines`` (over the same ``x``) draws the same
+    picture: both ends and every point where some line changes direction.
 
     The core's arrays are sampled every few minutes but are straight between phase changes,
-    so a 36-hour line of 433 points has a dozen corners, and stroking an antialiased line
-    costs by its points. With both axes scaled to their range, a point is dropped when the
-    line through it turns by less than 1e-9 rad (rounding, not shape: even summed over
-    thousands of points that is far below a pixel) or when it repeats its neighbour; a
-    line that doubles back is kept."""
-    if len(x) < 3:
-        return x, y
-    xs = (x - x[0]) / (np.ptp(x) or 1.0)
-    ys = (y - y[0]) / (np.ptp(y) or 1.0)
-    dx1, dy1 = np.diff(xs[:-1]), np.diff(ys[:-1])
-    dx2, dy2 = np.diff(xs[1:]), np.diff(ys[1:])
+    so a 36-hour line of 433 points has a dozen corners, and drawing costs by its points.
+    With both axes scaled to their range, a point may go when every line through it turns
+    by less than 1e-9 rad (rounding, not shape: even summed over thousands of points that
+    is far below a pixel) or repeats its neighbour; a line that doubles back is kept.
+    Lines sharing an x are tested together, one pass for all of them."""
+    keep = np.ones(len(x), dtype=bool)
+    if len(x) < 3 or not lines:
+        return keep
+    ys = np.vstack(lines)
+    spans = np.ptp(ys, axis=1, keepdims=True)
+    dx = np.diff(x) / (np.ptp(x) or 1.0)
+    dy = np.diff(ys, axis=1) / np.where(spans == 0, 1.0, spans)
+    dx1, dx2, dy1, dy2 = dx[:-1], dx[1:], dy[:, :-1], dy[:, 1:]
     lengths = np.hypot(dx1, dy1) * np.hypot(dx2, dy2)
     turn = np.abs(dx1 * dy2 - dy1 * dx2)  # |sin| of the turn × the two lengths
     straight = (lengths == 0) | ((turn <= 1e-9 * lengths) & (dx1 * dx2 + dy1 * dy2 > 0))
-    keep = np.concatenate(([True], ~straight, [True]))
+    keep[1:-1] = ~straight.all(axis=0)
+    return keep
+
+
+def turning_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The points of one line that :func:`turning_mask` keeps."""
+    keep = turning_mask(x, y)
     return x[keep], y[keep]
+
+
+def step_changes(y: np.ndarray) -> np.ndarray:
+    """Which points of a step line to keep: both ends and each point where the value
+    changes (between them the line holds its value)."""
+    keep = np.ones(len(y), dtype=bool)
+    keep[1:-1] = y[1:-1] != y[:-2]
+    return keep
 
 
 class Trace(pg.GraphicsObject):
@@ -115,13 +136,19 @@ class Trace(pg.GraphicsObject):
         return EDGE_PX
 
     # ---- data -------------------------------------------------------------------------------
-    def setData(self, x, y) -> None:  # noqa: N802, ANN001 (pyqtgraph's name; array-likes)
-        """Take new arrays; the polygon and bounds are built here, not while painting."""
+    def setData(self, x, y, corners: np.ndarray | None = None) -> None:  # noqa: N802, ANN001
+        """Take new arrays; the polygon and bounds are built here, not while painting.
+
+        ``corners`` marks the points to draw through when the caller has worked them out
+        for several lines at once (:func:`turning_mask`); by default the line's own."""
         self._x = np.asarray(x, dtype=float)
         self._y = np.asarray(y, dtype=float)
-        xs, ys = turning_points(
-            *(step_points(self._x, self._y) if self.opts["stepMode"] else (self._x, self._y))
-        )
+        if self.opts["stepMode"]:
+            keep = step_changes(self._y) if corners is None else corners
+            xs, ys = step_points(self._x[keep], self._y[keep])
+        else:
+            keep = turning_mask(self._x, self._y) if corners is None else corners
+            xs, ys = self._x[keep], self._y[keep]
         polygon = pg.functions.arrayToQPolygonF
         self._segments = (
             polygon(np.repeat(xs, 2)[1:-1], np.repeat(ys, 2)[1:-1])

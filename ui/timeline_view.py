@@ -21,7 +21,7 @@ from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
-from ui.plot_items import PlotLabel, TickGrid, Trace
+from ui.plot_items import PlotLabel, TickGrid, Trace, turning_mask
 from ui.pyqtgraph_loader import pg
 from vetfluid.formatting import format_number, format_quantity
 from vetfluid.plan import Plan
@@ -317,8 +317,10 @@ class TimelineView(QWidget):
             axes["bottom"] = bottom
         plot = self.graphics.addPlot(row=row, col=0, title=title, axisItems=axes, enableMenu=False)
         plot.setLabel("left", y_label)
-        for name in ("left", "bottom"):
-            plot.getAxis(name).enableAutoSIPrefix(False)  # never "(x0.001)" on a dose axis
+        # never "(x0.001)" on a dose axis; and the hidden top and right axes would otherwise
+        # re-typeset their empty label on every range change
+        for name in ("left", "bottom", "top", "right"):
+            plot.getAxis(name).enableAutoSIPrefix(False)
         plot.getAxis("left").setWidth(LEFT_AXIS_WIDTH)
         show_grid(plot, self.hour_axis)
         plot.setMouseEnabled(x=True, y=False)
@@ -367,10 +369,15 @@ class TimelineView(QWidget):
         self.timeline = tl
         hours = tl.hours
         self.rate_curve.setData(hours, tl.rate_ml_per_h)
-        self.given_curve.setData(hours, tl.given_ml)
-        self.needed_curve.setData(hours, tl.needed_ml)
-        self.deficit_curve.setData(hours, tl.remaining_deficit_ml)
-        self.weight_curve.setData(hours, tl.weight_kg)
+        lines = {
+            self.given_curve: tl.given_ml,
+            self.needed_curve: tl.needed_ml,
+            self.deficit_curve: tl.remaining_deficit_ml,
+            self.weight_curve: tl.weight_kg,
+        }
+        corners = turning_mask(hours, *lines.values())  # one pass for the four lines
+        for item, values in lines.items():
+            item.setData(hours, values, corners)
         ends = [0.0, tl.end_h]
         self.overload_curve.setData(ends, [tl.overload_weight_kg] * 2)
         self.baseline_curve.setData(ends, [tl.baseline_weight_kg] * 2)
