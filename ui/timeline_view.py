@@ -264,9 +264,10 @@ class TimelineView(QWidget):
         self.weight_plot = self._add_plot(3, "Predicted body weight", "Weight (kg)", self.hour_axis)
         self.plots = (self.rate_plot, self.volume_plot, self.deficit_plot, self.weight_plot)
         for plot in self.plots:
-            # replaying an axis' text is most of a redraw; keep it as a pixmap instead
-            plot.getAxis("left").setCacheMode(QGraphicsItem.CacheMode.DeviceCoordinateCache)
-        self.hour_axis.setCacheMode(QGraphicsItem.CacheMode.DeviceCoordinateCache)
+            # Replaying an axis' recorded drawing (text and all) is most of a redraw; keep
+            # each axis as a pixmap instead, redrawn only when its range or size changes.
+            for name in ("left", "bottom"):
+                plot.getAxis(name).setCacheMode(QGraphicsItem.CacheMode.DeviceCoordinateCache)
         for plot in self.plots[1:]:
             plot.setXLink(self.rate_plot)
 
