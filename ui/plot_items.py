@@ -20,6 +20,7 @@ change and drawn unscaled at its point.
 from __future__ import annotations
 
 import math
+from itertools import pairwise
 
 import numpy as np
 from PySide6.QtCore import QLineF, QPointF, QRect, QRectF, Qt
@@ -149,24 +150,25 @@ class Trace(pg.GraphicsObject):
         else:
             keep = turning_mask(self._x, self._y) if corners is None else corners
             xs, ys = self._x[keep], self._y[keep]
-        polygon = pg.functions.arrayToQPolygonF
+        # The kept points are few: plain Python lists and Qt points beat numpy's per-call cost.
+        lx, ly = xs.tolist(), ys.tolist()
+        points = [QPointF(a, b) for a, b in zip(lx, ly, strict=True)]
         self._segments = (
-            polygon(np.repeat(xs, 2)[1:-1], np.repeat(ys, 2)[1:-1])
-            if len(xs) > 1 and self.opts["pen"] is not None
+            QPolygonF([point for pair in pairwise(points) for point in pair])
+            if self.opts["pen"] is not None
             else QPolygonF()
         )
-        if self.opts["brush"] is not None and len(xs):
-            xs = np.concatenate((xs, [xs[-1], xs[0]]))  # down to zero and back along it
-            ys = np.concatenate((ys, [0.0, 0.0]))
-            self._polygon = polygon(xs, ys)
-        else:
-            self._polygon = QPolygonF()
+        self._polygon = (
+            QPolygonF([*points, QPointF(lx[-1], 0.0), QPointF(lx[0], 0.0)])  # down to zero, back
+            if self.opts["brush"] is not None and points
+            else QPolygonF()
+        )
         self.prepareGeometryChange()
-        if len(xs):
-            self._bounds = QRectF(
-                float(xs.min()), float(ys.min()),
-                float(xs.max() - xs.min()), float(ys.max() - ys.min()),
-            )  # fmt: skip
+        if points:
+            if self.opts["brush"] is not None:
+                ly.append(0.0)
+            left, bottom = min(lx), min(ly)
+            self._bounds = QRectF(left, bottom, max(lx) - left, max(ly) - bottom)
         else:
             self._bounds = QRectF()
         self._padded = None
