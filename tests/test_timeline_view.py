@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
 from datetime import time
 from pathlib import Path
 
@@ -150,6 +151,21 @@ def test_hour_ticks_fall_on_clinical_intervals(view):
     view.set_plan(build_plan(DOG))
     major, minor = view.hour_axis.tickSpacing(0, 24, 700)
     assert major[0] in (2, 3, 4, 6, 8, 12) and major[0] % minor[0] == 0
+
+
+def test_weight_axis_holds_still_for_small_changes_and_always_shows_the_lines(view):
+    def shown(weight_kg: float):
+        tl = timeline(build_plan(replace(DOG, weight_kg=weight_kg)))
+        view.set_timeline(tl)
+        low, high = view.weight_plot.vb.viewRange()[1]
+        lines = (float(tl.weight_kg.min()), tl.baseline_weight_kg, tl.overload_weight_kg)
+        assert low < min(lines) and max(lines) < high  # every line, and room above for the label
+        return low, high
+
+    first = shown(24.0)
+    assert shown(24.5) == first and shown(23.5) == first  # a digit typed: the axis stays
+    moved = shown(40.0)
+    assert moved[0] > first[1]  # a new patient size: a fresh fit, not the old axis stretched
 
 
 def test_plots_share_the_hour_axis(view):

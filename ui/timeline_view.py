@@ -333,6 +333,9 @@ class TimelineView(QWidget):
         legend = pg.LegendItem(labelTextSize="9pt", sampleType=LineSample, frame=False)
         self.graphics.addItem(legend, row=row, col=1)
         plot.legend = legend  # plot.plot(name=…) enters each curve in it
+        # Neither draws anything itself (no border, no frame): Qt then skips their paint.
+        for container in (plot.vb, legend):
+            container.setFlag(QGraphicsItem.GraphicsItemFlag.ItemHasNoContents)
         return plot
 
     def _pin_legend(self, legend: pg.LegendItem) -> None:
@@ -422,13 +425,26 @@ class TimelineView(QWidget):
             plot.setYRange(low, high, padding=0.0)
 
     def _fit_weight_range(self, tl: Timeline) -> None:
-        """Show the weight, the entered weight and the overload line, with room for its label."""
+        """Show the weight, the entered weight and the overload line, with room for its label.
+
+        The axis stays where it is while the lines still sit well inside it (at least a
+        quarter step from the bottom, three quarters from the top for the label) and it is
+        not much wider than a fresh fit: a weight typed digit by digit does not make the
+        whole plot jump, nor redraw its axis, at every keystroke."""
         low = min(float(tl.weight_kg.min()), tl.baseline_weight_kg)
         high = max(float(tl.weight_kg.max()), tl.overload_weight_kg)
         step = nice_ceiling((high - low) / 4) or 1.0
-        low = math.floor(low / step) * step
-        high = math.ceil(high / step) * step
-        self._set_y_range(self.weight_plot, low - 0.5 * step, high + step)
+        bottom = math.floor(low / step) * step - 0.5 * step
+        top = math.ceil(high / step) * step + step
+        shown = self._y_ranges.get(id(self.weight_plot))
+        if (
+            shown is not None
+            and shown[0] <= low - 0.25 * step
+            and shown[1] >= high + 0.75 * step
+            and shown[1] - shown[0] <= 1.5 * (top - bottom)
+        ):
+            return
+        self._set_y_range(self.weight_plot, bottom, top)
 
     # ---- hover ------------------------------------------------------------------------------
     def on_mouse_moved(self, scene_pos: QPointF) -> None:
