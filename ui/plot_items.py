@@ -113,6 +113,7 @@ class Trace(pg.GraphicsObject):
         self._y = np.zeros(0)
         self._polygon = QPolygonF()  # the outline to fill
         self._segments = QPolygonF()  # the line as point pairs, one pair a segment
+        self._smooth = False  # some segment is slanted: worth antialiasing
         self._bounds = QRectF()
         self._padded: QRectF | None = None  # the bounds plus EDGE_PX, in data units
 
@@ -158,6 +159,9 @@ class Trace(pg.GraphicsObject):
             if self.opts["pen"] is not None
             else QPolygonF()
         )
+        self._smooth = self.opts["antialias"] and any(
+            x0 != x1 and y0 != y1 for (x0, y0), (x1, y1) in pairwise(zip(lx, ly, strict=True))
+        )
         self._polygon = (
             QPolygonF([*points, QPointF(lx[-1], 0.0), QPointF(lx[0], 0.0)])  # down to zero, back
             if self.opts["brush"] is not None and points
@@ -199,11 +203,13 @@ class Trace(pg.GraphicsObject):
             # rasterises a solid or dashed line with flat or square caps directly when the
             # painter has no scale, where it strokes a wide polyline (or any line under a
             # scale) into an outline and fills that, about ten times the work for a slanted
-            # line. The square caps cover the joins at the few corners a trace has.
+            # line. The square caps cover the joins at the few corners a trace has. A line
+            # along the axes only (a step, a level) is drawn crisp: smoothing would only
+            # blur it, at a cost.
             device = painter.transform().map(self._segments)
             painter.save()
             painter.resetTransform()  # the clip is kept in device pixels
-            painter.setRenderHint(QPainter.RenderHint.Antialiasing, self.opts["antialias"])
+            painter.setRenderHint(QPainter.RenderHint.Antialiasing, self._smooth)
             painter.setPen(self.opts["pen"])
             painter.drawLines(device)
             painter.restore()
