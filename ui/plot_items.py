@@ -116,6 +116,7 @@ class Trace(pg.GraphicsObject):
         self._smooth = False  # some segment is slanted: worth antialiasing
         self._bounds = QRectF()
         self._padded: QRectF | None = None  # the bounds plus EDGE_PX, in data units
+        self._pad: tuple[float, float] | None = None  # EDGE_PX in data units, per view scale
 
     # ---- what pyqtgraph's plot and legend ask of a data item --------------------------------
     def implements(self, interface: str | None = None) -> bool | list[str]:
@@ -180,15 +181,19 @@ class Trace(pg.GraphicsObject):
 
     # ---- drawing ----------------------------------------------------------------------------
     def viewTransformChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
-        """The padding is in pixels: recompute it when the view's scale changes."""
+        """The padding is in pixels: work it out again when the view's scale changes."""
         self.prepareGeometryChange()
+        self._pad = None
         self._padded = None
 
     def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
         if self._padded is None:
-            px, py = self.pixelVectors()
-            dx = EDGE_PX * abs(px.x()) if px is not None else 0.0
-            dy = EDGE_PX * abs(py.y()) if py is not None else 0.0
+            if self._pad is None:
+                px, py = self.pixelVectors()
+                if px is None or py is None:  # not in a view yet: no padding to know
+                    return self._bounds
+                self._pad = (EDGE_PX * abs(px.x()), EDGE_PX * abs(py.y()))
+            dx, dy = self._pad
             self._padded = self._bounds.adjusted(-dx, -dy, dx, dy)
         return self._padded
 
