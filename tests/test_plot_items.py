@@ -261,3 +261,25 @@ def test_plot_label_sits_above_left_of_its_point_at_a_fixed_pixel_size(qtbot):
     assert moved.size() == rect.size()
     assert moved.right() == pytest.approx(point.x(), abs=1)  # within a pixel
     assert moved.bottom() == pytest.approx(point.y(), abs=1)
+
+
+def test_plot_axis_bounds_follow_its_geometry_and_tick_style(qtbot):
+    from ui.plot_items import PlotAxis
+    from ui.pyqtgraph_loader import pg
+
+    widget = pg.PlotWidget(axisItems={"left": PlotAxis("left")})
+    qtbot.addWidget(widget)
+    widget.resize(600, 300)
+    widget.show()
+    qtbot.waitExposed(widget)
+    axis = widget.getPlotItem().getAxis("left")
+
+    def pyqtgraphs_own():
+        return pg.AxisItem.boundingRect(axis)
+
+    assert axis.boundingRect() == pyqtgraphs_own()
+    widget.resize(700, 420)
+    qtbot.waitUntil(lambda: axis.geometry().height() > 300)
+    assert axis.boundingRect() == pyqtgraphs_own()  # a new size, new bounds
+    axis.setStyle(tickLength=-12)  # ticks pointing out widen the rectangle
+    assert axis.boundingRect() == pyqtgraphs_own()

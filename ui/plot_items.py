@@ -1,5 +1,6 @@
-"""Light plot items of our own: a plotted series (:class:`Trace`), the grid (:class:`TickGrid`)
-and a text pinned to a point (:class:`PlotLabel`).
+"""Light plot items of our own: a plotted series (:class:`Trace`), the grid (:class:`TickGrid`),
+a text pinned to a point (:class:`PlotLabel`) and an axis that remembers its bounds
+(:class:`PlotAxis`).
 
 pyqtgraph's general curve item recomputes bounds, pixel padding and finite checks on
 every update and several times per repaint; with nine curves that was half of an
@@ -364,3 +365,17 @@ class PlotLabel(pg.GraphicsObject):
             painter.setFont(self._font)
             painter.setPen(self._colour)
             painter.drawStaticText(QPointF(self._rect.left(), self._rect.top()), self._text)
+
+
+class PlotAxis(pg.AxisItem):
+    """pyqtgraph's axis, remembering its bounding rectangle until its geometry or tick style
+    changes: Qt asks for it a few dozen times a redraw, and pyqtgraph works it out afresh
+    each time."""
+
+    def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
+        key = (self.geometry(), self.style["tickLength"], self.style["hideOverlappingLabels"])
+        cached = getattr(self, "_bounds_for", None)
+        if cached is None or cached[0] != key:
+            cached = (key, super().boundingRect())
+            self._bounds_for = cached
+        return QRectF(cached[1])

@@ -21,7 +21,7 @@ from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
-from ui.plot_items import PlotLabel, TickGrid, Trace, turning_mask
+from ui.plot_items import PlotAxis, PlotLabel, TickGrid, Trace, turning_mask
 from ui.pyqtgraph_loader import pg
 from vetfluid.formatting import format_number, format_quantity
 from vetfluid.plan import Plan
@@ -122,7 +122,7 @@ def curve(plot: pg.PlotItem, **opts) -> Trace:
     return item
 
 
-class SafeNumberAxis(pg.AxisItem):
+class SafeNumberAxis(PlotAxis):
     """A value axis whose tick text follows the safe-number rules (0.5, never .5 or 5.0)."""
 
     def tickStrings(self, values, scale, spacing):  # noqa: N802 (Qt override)
@@ -136,7 +136,7 @@ def _places(spacing: float) -> int:
     return min(8, len(text.split(".")[1])) if "." in text else 0
 
 
-class HourClockAxis(pg.AxisItem):
+class HourClockAxis(PlotAxis):
     """The hour axis: ticks on whole clinical intervals (1, 2, 3, 4, 6, 12 h …), each
     labelled in hours, and with the clock time beneath when the plan has a start time."""
 
@@ -313,9 +313,7 @@ class TimelineView(QWidget):
 
     # ---- building ---------------------------------------------------------------------------
     def _add_plot(self, row: int, title: str, y_label: str, bottom: pg.AxisItem | None = None):
-        axes = {"left": SafeNumberAxis("left")}
-        if bottom is not None:
-            axes["bottom"] = bottom
+        axes = {"left": SafeNumberAxis("left"), "bottom": bottom or PlotAxis("bottom")}
         plot = self.graphics.addPlot(row=row, col=0, title=title, axisItems=axes, enableMenu=False)
         plot.setLabel("left", y_label)
         # never "(x0.001)" on a dose axis; and the hidden top and right axes would otherwise
