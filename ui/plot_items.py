@@ -56,14 +56,17 @@ def turning_mask(x: np.ndarray, *lines: np.ndarray) -> np.ndarray:
     keep = np.ones(len(x), dtype=bool)
     if len(x) < 3 or not lines:
         return keep
-    ys = np.vstack(lines)
-    spans = np.ptp(ys, axis=1, keepdims=True)
-    dx = np.diff(x) / (np.ptp(x) or 1.0)
-    dy = np.diff(ys, axis=1) / np.where(spans == 0, 1.0, spans)
+    ys = np.array(lines, dtype=float)
+    spans = ys.max(axis=1) - ys.min(axis=1)
+    spans[spans == 0] = 1.0
+    dx = np.diff(x) * (1.0 / ((x.max() - x.min()) or 1.0))
+    dy = np.diff(ys, axis=1) / spans[:, None]
+    squared = dx * dx + dy * dy  # each segment's length², per line
     dx1, dx2, dy1, dy2 = dx[:-1], dx[1:], dy[:, :-1], dy[:, 1:]
-    lengths = np.hypot(dx1, dy1) * np.hypot(dx2, dy2)
+    lengths = np.sqrt(squared[:, :-1] * squared[:, 1:])  # the two lengths' product
     turn = np.abs(dx1 * dy2 - dy1 * dx2)  # |sin| of the turn × the two lengths
-    straight = (lengths == 0) | ((turn <= 1e-9 * lengths) & (dx1 * dx2 + dy1 * dy2 > 0))
+    straight = (turn <= 1e-9 * lengths) & (dx1 * dx2 + dy1 * dy2 > 0)
+    straight |= lengths == 0
     keep[1:-1] = ~straight.all(axis=0)
     return keep
 

@@ -163,7 +163,8 @@ def consumed_ml(outflow: tuple[tuple[float, float], ...], end_h: float, hours): 
     ends = [*starts[1:], np.inf]
     total = np.zeros_like(t)
     for start, end, (_, rate) in zip(starts, ends, outflow, strict=True):
-        total = total + rate * np.clip(t - start, 0.0, end - start)
+        # minimum(maximum()) rather than clip: the same, without clip's per-call overhead
+        total = total + rate * np.minimum(np.maximum(t - start, 0.0), end - start)
     return total if total.ndim else float(total)
 
 
