@@ -215,13 +215,12 @@ class Trace(pg.GraphicsObject):
             # line. The square caps cover the joins at the few corners a trace has. A line
             # along the axes only (a step, a level) is drawn crisp: smoothing would only
             # blur it, at a cost.
-            device = painter.transform().map(self._segments)
-            painter.save()
+            transform = painter.transform()
             painter.resetTransform()  # the clip is kept in device pixels
             painter.setRenderHint(QPainter.RenderHint.Antialiasing, self._smooth)
             painter.setPen(self.opts["pen"])
-            painter.drawLines(device)
-            painter.restore()
+            painter.drawLines(transform.map(self._segments))
+            painter.setTransform(transform)  # cheaper than a save and restore of all state
 
 
 class TickGrid(pg.GraphicsObject):
@@ -310,8 +309,8 @@ class TickGrid(pg.GraphicsObject):
     def paint(self, painter: QPainter, *_: object) -> None:
         # Opaque rectangles in device pixels: Qt fills those row by row, where even a thin
         # line is stepped pixel by pixel and a faint one blended into each of them.
-        rects = self.device_rects(painter.transform())
-        painter.save()
+        transform = painter.transform()
+        rects = self.device_rects(transform)
         painter.resetTransform()  # the clip is kept in device pixels
         painter.setRenderHint(QPainter.RenderHint.Antialiasing, False)
         painter.setPen(Qt.PenStyle.NoPen)
@@ -319,7 +318,7 @@ class TickGrid(pg.GraphicsObject):
             if lines:
                 painter.setBrush(shade)
                 painter.drawRects(lines)
-        painter.restore()
+        painter.setTransform(transform)  # cheaper than a save and restore of all state
 
 
 def _pixel_rect(line: QLineF) -> QRect:
