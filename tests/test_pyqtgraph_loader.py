@@ -64,3 +64,35 @@ def test_pyqtgraph_mirrors_resolve_to_pyside6_and_stay_lazy():
     assert probe["widgets_built"] < 0.75 * probe["widgets_listed"], probe
     # SVG export and test helpers are left unloaded, yet anyone may import them afterwards
     assert probe["unused_bindings_loaded"] == [] and probe["svg_importable_later"]
+
+
+def test_layout_widgets_report_the_rectangle_pyqtgraph_would(qtbot):
+    """Qt's own boundingRect and shape stand in for pyqtgraph's Python ones: for every
+    plot, title, legend, view box and the layout itself, the same rectangle as pyqtgraph's
+    formula (its geometry mapped into the widget), in a laid-out window and after a resize."""
+    from PySide6.QtCore import QRectF
+
+    from ui.pyqtgraph_loader import pg
+    from ui.timeline_view import TimelineView
+
+    view = TimelineView()
+    qtbot.addWidget(view)
+    view.resize(900, 650)
+    view.show()
+    qtbot.waitExposed(view)
+    kinds = (pg.PlotItem, pg.LabelItem, pg.LegendItem, pg.ViewBox, pg.GraphicsLayout)
+    widgets = [item for item in view.graphics.scene().items() if isinstance(item, kinds)]
+    assert {type(w) for w in widgets} == set(kinds)
+
+    def pyqtgraphs_rectangle(widget) -> QRectF:
+        return widget.mapRectFromParent(widget.geometry()).normalized()
+
+    for size in ((900, 650), (700, 900)):
+        view.resize(*size)
+        qtbot.wait(20)
+        for widget in widgets:
+            expected = pyqtgraphs_rectangle(widget)
+            if isinstance(widget, pg.ViewBox):
+                expected = expected.adjusted(0, 0, 0.5, 0.5)  # the view box's own margin
+            assert widget.boundingRect() == expected, type(widget).__name__
+            assert widget.shape().boundingRect() == widget.boundingRect(), type(widget).__name__

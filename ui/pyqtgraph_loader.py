@@ -8,6 +8,11 @@ made: each looks a name up in PySide6 the first time pyqtgraph asks for it, so e
 name resolves to the very same PySide6 object as before, and PySide6's name lists are
 hidden while pyqtgraph loads, so there is nothing to copy.
 
+pyqtgraph's layout widgets (plots, titles, legends, the layout) re-implement Qt's
+``boundingRect`` and ``shape`` in Python, to cache what is simply the widget's own
+rectangle. Qt asks for them a hundred times a redraw, each time a call into Python; here
+those widgets use Qt's own, the same rectangle worked out in C++ (:func:`qt_rectangles`).
+
 Import ``pg`` from here, never ``pyqtgraph`` itself, so this runs first.
 """
 
@@ -67,4 +72,25 @@ def load_pyqtgraph() -> types.ModuleType:
                 source.__dir__ = listers[name]
 
 
+def qt_rectangles(pyqtgraph: types.ModuleType) -> None:
+    """Give pyqtgraph's layout widgets Qt's own bounding rectangle and shape: the widget's
+    rectangle, as pyqtgraph's Python versions return it (``tests/test_pyqtgraph_loader.py``
+    compares the two)."""
+    widget = QtWidgets.QGraphicsWidget
+    pyqtgraph.GraphicsWidget.boundingRect = widget.boundingRect
+    pyqtgraph.GraphicsWidget.shape = widget.shape
+    pyqtgraph.GraphicsLayout.boundingRect = widget.boundingRect
+    pyqtgraph.LegendItem.boundingRect = widget.boundingRect
+    # The view box's rectangle runs half a pixel past its widget (pyqtgraph's own choice)
+    # and it clips the curves to its shape: keep the shape on that rectangle.
+    pyqtgraph.ViewBox.shape = _rectangle_shape
+
+
+def _rectangle_shape(item: QtWidgets.QGraphicsItem) -> QtGui.QPainterPath:
+    path = QtGui.QPainterPath()
+    path.addRect(item.boundingRect())
+    return path
+
+
 pg = load_pyqtgraph()
+qt_rectangles(pg)
