@@ -168,6 +168,20 @@ def test_weight_axis_holds_still_for_small_changes_and_always_shows_the_lines(vi
     assert moved[0] > first[1]  # a new patient size: a fresh fit, not the old axis stretched
 
 
+def test_value_axes_grow_at_once_and_shrink_only_when_the_line_fills_little(view):
+    def ceiling_after(top: float) -> float:
+        view._fit_from_zero(view.volume_plot, top)
+        low, high = view.volume_plot.vb.viewRange()[1]
+        assert low < 0 < top < high  # the line and the 0 label are always in view
+        return high / 1.05
+
+    assert ceiling_after(24.0) == pytest.approx(25)
+    assert ceiling_after(26.0) == pytest.approx(50)  # off the top: grows at once
+    assert ceiling_after(24.0) == pytest.approx(50)  # back under 25 but half full: stays
+    assert ceiling_after(21.0) == pytest.approx(50)  # 42 % full: stays
+    assert ceiling_after(19.0) == pytest.approx(20)  # 38 % full: a fresh fit
+
+
 def test_plots_share_the_hour_axis(view):
     view.set_plan(build_plan(DOG))
     view.rate_plot.setXRange(2, 8, padding=0)

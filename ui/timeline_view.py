@@ -40,6 +40,7 @@ NEUTRAL_COLOUR = "#8c8c8c"  # entered weight, hover line
 LEFT_AXIS_WIDTH = 74  # px, the same on every plot so the hour axes line up
 LEGEND_WIDTH = 150  # px, legends sit beside the plots, never over the curves
 X_MARGIN_FRACTION = 0.01  # a sliver either side so a step at hour 0 clears the axis
+SHRINK_BELOW = 0.4  # a value axis refits down once its line fills less than this of it
 HOUR_STEPS = (0.25, 0.5, 1.0, 2.0, 3.0, 4.0, 6.0, 8.0, 12.0, 24.0, 48.0)
 EDGE_TEXT_PX = 40  # tick text may run this far past either end of the hour axis
 TICK_PX_HOURS = 55.0  # room for "12 h"
@@ -228,6 +229,7 @@ class TimelineView(QWidget):
         self.hover_hour: float | None = None
         # what is on screen, so unchanged ranges and titles are not set again
         self._y_ranges: dict[int, tuple[float, float]] = {}
+        self._ceilings: dict[int, float] = {}  # each value plot's round ceiling
         self._x_end: float | None = None
         self._shown_title = ""
 
@@ -404,8 +406,7 @@ class TimelineView(QWidget):
             top = max(
                 float(series.max()), float(tl.needed_ml.max()) if plot is self.plots[1] else 0.0
             )
-            ceiling = nice_ceiling(top)
-            self._set_y_range(plot, -0.1 * ceiling, ceiling * 1.05)  # room for the 0 label
+            self._fit_from_zero(plot, top)
         self._fit_weight_range(tl)
         margin = X_MARGIN_FRACTION * tl.end_h
         if self._x_end != tl.end_h:
@@ -422,11 +423,22 @@ class TimelineView(QWidget):
             self._y_ranges[id(plot)] = (low, high)
             plot.setYRange(low, high, padding=0.0)
 
+    def _fit_from_zero(self, plot, top: float) -> None:  # noqa: ANN001 — PlotItem
+        """Show 0 to a round ceiling above ``top``, growing at once when the line would run
+        off the plot but shrinking only when it fills less than ``SHRINK_BELOW`` of it: an
+        edit that moves the top across a round number does not make the axis jump back
+        and forth (nor redraw it) at every keystroke."""
+        ceiling = self._ceilings.get(id(plot))
+        if ceiling is None or not SHRINK_BELOW * ceiling <= top <= ceiling:
+            ceiling = nice_ceiling(top)
+            self._ceilings[id(plot)] = ceiling
+        self._set_y_range(plot, -0.1 * ceiling, ceiling * 1.05)  # room for the 0 label
+
     def _fit_weight_range(self, tl: Timeline) -> None:
         """Show the weight, the entered weight and the overload line, with room for its label.
 
-        The axis stays where it is while the lines still sit well inside it (at least a
-        quarter step from the bottom, three quarters from the top for the label) and it is
+        The axis stays where it is while the lines still sit inside it (a tenth of a step
+        from the bottom, three quarters of one from the top for the label) and it is
         not much wider than a fresh fit: a weight typed digit by digit does not make the
         whole plot jump, nor redraw its axis, at every keystroke."""
         low = min(float(tl.weight_kg.min()), tl.baseline_weight_kg)
@@ -437,7 +449,7 @@ class TimelineView(QWidget):
         shown = self._y_ranges.get(id(self.weight_plot))
         if (
             shown is not None
-            and shown[0] <= low - 0.25 * step
+            and shown[0] <= low - 0.1 * step
             and shown[1] >= high + 0.75 * step
             and shown[1] - shown[0] <= 1.5 * (top - bottom)
         ):
