@@ -241,6 +241,7 @@ class TickGrid(pg.GraphicsObject):
         self.set_colour(QColor("#808080"), QColor("#ffffff"))
         self._lines: tuple[list[QLineF], list[QLineF]] | None = None  # major, minor
         self._device: tuple[QTransform, tuple[list[QRect], list[QRect]]] | None = None
+        self._bounds: QRectF | None = None  # the view's range
 
     @staticmethod
     def _shade(colour: QColor, background: QColor, alpha: int) -> QColor:
@@ -264,6 +265,7 @@ class TickGrid(pg.GraphicsObject):
         self.prepareGeometryChange()
         self._lines = None
         self._device = None
+        self._bounds = None
         self.update()
 
     def viewRangeChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
@@ -273,8 +275,13 @@ class TickGrid(pg.GraphicsObject):
         self.refresh()
 
     def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
-        view = self.getViewBox()
-        return QRectF() if view is None else view.viewRect()
+        """The view's range, kept until it changes (Qt asks for it on every repaint)."""
+        if self._bounds is None:
+            view = self.getViewBox()
+            if view is None:
+                return QRectF()
+            self._bounds = view.viewRect()
+        return self._bounds
 
     def lines(self) -> tuple[list[QLineF], list[QLineF]]:
         """The major and the minor grid lines for the view's current range and size."""
