@@ -103,7 +103,6 @@ class Trace(pg.GraphicsObject):
         pen: QPen | None = None,
         brush: QBrush | None = None,
         step: bool = False,
-        antialias: bool = True,
     ) -> None:
         super().__init__()
         self.opts = {
@@ -111,7 +110,6 @@ class Trace(pg.GraphicsObject):
             "pen": pen,
             "brush": brush,
             "stepMode": "right" if step else None,
-            "antialias": antialias,
         }
         self._x = np.zeros(0)
         self._y = np.zeros(0)
@@ -164,7 +162,7 @@ class Trace(pg.GraphicsObject):
             if self.opts["pen"] is not None
             else QPolygonF()
         )
-        self._smooth = self.opts["antialias"] and any(
+        self._smooth = any(
             x0 != x1 and y0 != y1 for (x0, y0), (x1, y1) in pairwise(zip(lx, ly, strict=True))
         )
         self._polygon = (
