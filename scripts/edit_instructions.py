@@ -1,11 +1,12 @@
-"""Instructions per edit on the Timeline tab (edit → recompute → plots redrawn), counted by
-valgrind's callgrind.
+"""Instructions per edit (edit → recompute → the open tab redrawn), counted by valgrind's
+callgrind; the Timeline tab unless ``--tab plan``.
 
 Wall-clock time on a shared machine drifts by up to 2× within an hour; the instruction
 count of the same code repeats to a fraction of a percent, so compare two versions with
 this and quote the wall clock from ``python3 dev.py bench``.
 
     .venv/bin/python scripts/edit_instructions.py [--edits 20] [--demo dehydrated_dog]
+                                                  [--tab timeline|plan]
 
 Needs valgrind (``callgrind_control``). The script runs itself under callgrind with
 counting off, opens the window offscreen, warms up with 20 edits and counts only the
@@ -26,6 +27,7 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 WARM_UP_EDITS = 20
+TABS = {"plan": 0, "timeline": 1}  # the details tabs' places (ui/main_window.py)
 # tests/test_window_benchmark.py types 24, 24.5, 25 and 23.5 kg for the 24 kg dog; other
 # patients get the same steps in proportion to their own weight
 WEIGHT_STEPS = tuple(kg / 24.0 for kg in (24.0, 24.5, 25.0, 23.5))
@@ -38,8 +40,8 @@ def _count(on: bool) -> None:
     )  # fmt: skip
 
 
-def measured_edits(demo: str, edits: int) -> None:
-    """Inside callgrind: open the window on ``demo``'s timeline and edit the weight."""
+def measured_edits(demo: str, edits: int, tab: str) -> None:
+    """Inside callgrind: open the window on ``demo`` at ``tab`` and edit the weight."""
     sys.path.insert(0, str(ROOT))
     from PySide6.QtWidgets import QApplication
 
@@ -52,7 +54,7 @@ def measured_edits(demo: str, edits: int) -> None:
     while window.session is None:
         app.processEvents()
     window.open_demo(demo)
-    window.details.setCurrentWidget(window.timeline_holder)
+    window.details.setCurrentIndex(TABS[tab])
     app.processEvents()
     weight_kg = window.session.inputs["weight_kg"]
     weights = itertools.cycle([weight_kg * step for step in WEIGHT_STEPS])
@@ -74,11 +76,12 @@ def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--edits", type=int, default=20)
     parser.add_argument("--demo", default="dehydrated_dog")
+    parser.add_argument("--tab", choices=sorted(TABS), default="timeline")
     parser.add_argument("--keep", type=Path, help="keep callgrind's profile here")
     parser.add_argument("--inside", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.inside:
-        measured_edits(args.demo, args.edits)
+        measured_edits(args.demo, args.edits, args.tab)
         return 0
     if shutil.which("valgrind") is None or shutil.which("callgrind_control") is None:
         print("valgrind is not installed (Debian: apt install valgrind)", file=sys.stderr)
@@ -90,7 +93,7 @@ def main() -> int:
             [
                 "valgrind", "--tool=callgrind", "--instr-atstart=no",
                 f"--callgrind-out-file={profile}", sys.executable, __file__,
-                "--inside", "--edits", str(args.edits), "--demo", args.demo,
+                "--inside", "--edits", str(args.edits), "--demo", args.demo, "--tab", args.tab,
             ],
             env=env, capture_output=True, text=True,
         )  # fmt: skip
@@ -99,7 +102,8 @@ def main() -> int:
         print(run.stderr[-2000:], file=sys.stderr)
         return 1
     per_edit = int(found.group(1)) / args.edits
-    print(f"{per_edit / 1e6:.2f} M instructions per edit ({args.demo}, {args.edits} edits)")
+    where = f"{args.demo}, {args.tab} tab, {args.edits} edits"
+    print(f"{per_edit / 1e6:.2f} M instructions per edit ({where})")
     return 0
 
 

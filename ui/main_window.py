@@ -148,9 +148,15 @@ class MainWindow(QMainWindow):
         scroll.setAccessibleName("Patient and plan inputs")
 
         self.summary = PlanSummary(self.session)
+        # In a scroll area of its own: the totals wrap, and new text on every edit would
+        # otherwise lay out the whole window again, the input panel and all.
+        summary_page = QScrollArea()
+        summary_page.setWidget(self.summary)
+        summary_page.setWidgetResizable(True)
+        summary_page.setFrameShape(QScrollArea.Shape.NoFrame)
         self.details = QTabWidget()
         self.details.setAccessibleName("Plan details")
-        self.details.addTab(self.summary, "&Plan and schedule")
+        self.details.addTab(summary_page, "&Plan and schedule")
         self.timeline_holder = _placeholder("Drawing the timeline…")
         self.details.addTab(self.timeline_holder, "&Timeline")
         self.course_holder = _placeholder("Modelling the course…")
