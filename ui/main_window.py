@@ -11,9 +11,10 @@ import linecache
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from PySide6.QtCore import QEvent, QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QCloseEvent, QIcon, QKeySequence
+from PySide6.QtCore import QEvent, QSettings, QTimer
+from PySide6.QtGui import QAction, QIcon, QKeySequence
 from PySide6.QtWidgets import (
     QFileDialog,
     QLabel,
@@ -30,6 +31,9 @@ from ui.icons import icon
 from vetfluid.cautions import SHORT_CAUTION
 from vetfluid.errors import VetfluidError
 from vetfluid.paths import user_data_dir
+
+if TYPE_CHECKING:
+    from PySide6.QtGui import QCloseEvent
 
 FILE_FILTER = "vetfluid plan request (*.vfplan.json)"
 
@@ -119,6 +123,9 @@ class MainWindow(QMainWindow):
         """The planner page: inputs on the left, results on the right (idempotent)."""
         if self.session is not None:
             return
+        # Qt's namespace of enums takes PySide6 30–45 ms to build: after the first paint.
+        from PySide6.QtCore import Qt
+
         from ui.findings_view import FindingsView
         from ui.patient_view import PatientView
         from ui.plan_view import PlanSettings, PlanSummary
@@ -193,7 +200,9 @@ class MainWindow(QMainWindow):
     def _action(self, text: str, slot, shortcut=None, tip: str = "") -> QAction:  # noqa: ANN001
         action = QAction(text, self)
         if shortcut is not None:
-            action.setShortcut(QKeySequence(shortcut))
+            # the list form: setShortcut's overloads make PySide6 build Qt's whole enum
+            # namespace (30–45 ms) before the first paint
+            action.setShortcuts([QKeySequence(shortcut)])
         action.setToolTip(tip or text.replace("&", ""))
         action.setStatusTip(tip or text.replace("&", ""))
         action.triggered.connect(slot)
