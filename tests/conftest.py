@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import gc
 import os
 
 import pytest
@@ -15,6 +16,20 @@ def vetfluid_home(tmp_path, monkeypatch):
     home.mkdir()
     monkeypatch.setenv("VETFLUID_HOME", str(home))
     return home
+
+
+@pytest.fixture(autouse=True)
+def collect_qt_garbage(request):
+    """After a test that built widgets, collect its cyclic garbage there and then.
+
+    pyqtgraph's scenes and items hold each other in reference cycles; left to the cycle
+    collector, they are torn down whenever it next runs, which may be in the middle of
+    the next test building its own plots. Once, in a full run, that hung inside
+    pyqtgraph's item bookkeeping. Collecting here, after pytest-qt has closed the test's
+    widgets, tears them down while nothing else is being built."""
+    yield
+    if "qtbot" in request.fixturenames:
+        gc.collect()
 
 
 @pytest.fixture()
