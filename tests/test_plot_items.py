@@ -7,7 +7,13 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from ui.plot_items import Trace, step_changes, step_points, turning_mask, turning_points
+from ui.plot_items import Trace, step_changes, step_points, turning_mask
+
+
+def turning_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The points of one line that turning_mask keeps."""
+    keep = turning_mask(x, y)
+    return x[keep], y[keep]
 
 
 def distance_to_polyline(px: float, py: float, xs: np.ndarray, ys: np.ndarray) -> float:

@@ -434,10 +434,10 @@ class MainWindow(QMainWindow):
     def _swap(holder: QWidget, widget: QWidget) -> None:
         layout = holder.layout()
         while layout.count():
-            item = layout.takeAt(0)
-            if item.widget():
-                item.widget().hide()  # deleted on the next turn of the loop; unseen till then
-                item.widget().deleteLater()
+            old = layout.takeAt(0).widget()
+            if old is not None:
+                old.hide()  # deleted on the next turn of the loop; unseen till then
+                old.deleteLater()
         layout.setContentsMargins(0, 0, 0, 0)
         layout.addWidget(widget)
 

@@ -71,12 +71,6 @@ def turning_mask(x: np.ndarray, *lines: np.ndarray) -> np.ndarray:
     return keep
 
 
-def turning_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The points of one line that :func:`turning_mask` keeps."""
-    keep = turning_mask(x, y)
-    return x[keep], y[keep]
-
-
 def step_changes(y: np.ndarray) -> np.ndarray:
     """Which points of a step line to keep: both ends and each point where the value
     changes (between them the line holds its value)."""
