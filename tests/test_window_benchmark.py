@@ -18,7 +18,9 @@ pytestmark = pytest.mark.benchmark
 ROOT = Path(__file__).resolve().parents[1]
 
 
-def test_edit_recompute_redraw(qtbot, benchmark):
+# the three patients the tour plans: a dog, a reptile and a rodent on divided boluses
+@pytest.mark.parametrize("demo", ["dehydrated_dog", "cold_bearded_dragon", "small_gerbil"])
+def test_edit_recompute_redraw(qtbot, benchmark, demo):
     from ui.main_window import MainWindow
 
     window = MainWindow()
@@ -26,10 +28,11 @@ def test_edit_recompute_redraw(qtbot, benchmark):
     window.resize(1400, 900)
     window.show()
     qtbot.waitUntil(lambda: window.session is not None)
-    window.open_demo("dehydrated_dog")
+    window.open_demo(demo)
     window.details.setCurrentWidget(window.timeline_holder)
     QApplication.processEvents()
-    weights = itertools.cycle([24.0, 24.5, 25.0, 23.5])
+    entered = window.session.inputs["weight_kg"]
+    weights = itertools.cycle([entered * f for f in (0.96, 0.98, 1.0, 0.94)])
 
     def edit() -> None:
         window.session.update(weight_kg=next(weights))
