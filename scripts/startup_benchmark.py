@@ -2,8 +2,9 @@
 
 Each run is a fresh process. The parent clocks from just before it starts the
 child until the child reports its first paint; the child also reports its peak
-resident memory once the planner is built, and again after the plots (pyqtgraph)
-are opened for a demo patient.
+resident memory once the planner is built, again after the plots (pyqtgraph) are
+opened for a demo patient, and once more with every view built (the Course tab and
+the species table too).
 
     QT_QPA_PLATFORM=offscreen .venv/bin/python scripts/startup_benchmark.py [runs]
 """
@@ -57,6 +58,10 @@ def finish():
         window.details.setCurrentWidget(window.timeline_holder)  # builds the plots
         app.processEvents()
         print(f"rss_plots_kib {peak_kib()}", flush=True)
+        window.details.setCurrentWidget(window.course_holder)  # the other lazy views
+        window.pages.setCurrentWidget(window.species_holder)
+        app.processEvents()
+        print(f"rss_all_views_kib {peak_kib()}", flush=True)
     app.quit()
 
 watcher = FirstPaint()
@@ -66,13 +71,13 @@ app.exec()
 """
 
 
-def one_run(kind: str) -> tuple[float, int, int]:
+def one_run(kind: str) -> tuple[float, int, int, int]:
     env = dict(os.environ, QT_QPA_PLATFORM=os.environ.get("QT_QPA_PLATFORM", "offscreen"))
     # a data folder of its own: no draft from an earlier session waits with a question
     env["VETFLUID_HOME"] = tempfile.mkdtemp(prefix="vetfluid-bench-")
     start = time.perf_counter()
     painted = None
-    rss = rss_plots = 0
+    rss = rss_plots = rss_all = 0
     with subprocess.Popen(
         [sys.executable, "-c", CHILD, kind], stdout=subprocess.PIPE, text=True, env=env
     ) as child:
@@ -84,10 +89,12 @@ def one_run(kind: str) -> tuple[float, int, int]:
                 rss = int(line.split()[1])
             elif line.startswith("rss_plots_kib"):
                 rss_plots = int(line.split()[1])
+            elif line.startswith("rss_all_views_kib"):
+                rss_all = int(line.split()[1])
         child.wait(timeout=60)
     if painted is None or child.returncode != 0:
         raise RuntimeError(f"{kind} window did not paint (exit {child.returncode})")
-    return painted, rss, rss_plots
+    return painted, rss, rss_plots, rss_all
 
 
 def measure(runs: int = 5) -> dict[str, float]:
@@ -98,10 +105,14 @@ def measure(runs: int = 5) -> dict[str, float]:
         results[f"{kind}_first_paint_s"] = statistics.median(s[0] for s in samples)
         results[f"{kind}_peak_rss_mib"] = statistics.median(s[1] for s in samples) / 1024
     results["vetfluid_peak_rss_with_plots_mib"] = statistics.median(s[2] for s in samples) / 1024
+    results["vetfluid_peak_rss_all_views_mib"] = statistics.median(s[3] for s in samples) / 1024
     results["start_ratio"] = results["vetfluid_first_paint_s"] / results["bare_first_paint_s"]
     results["memory_ratio"] = results["vetfluid_peak_rss_mib"] / results["bare_peak_rss_mib"]
     results["memory_ratio_with_plots"] = (
         results["vetfluid_peak_rss_with_plots_mib"] / results["bare_peak_rss_mib"]
+    )
+    results["memory_ratio_all_views"] = (
+        results["vetfluid_peak_rss_all_views_mib"] / results["bare_peak_rss_mib"]
     )
     return results
 
