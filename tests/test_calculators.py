@@ -768,6 +768,21 @@ def test_syringe_bad_volume(bad):
         delivery.syringe_ml(bad)
 
 
+# a 1 mL syringe is marked every 0.01 mL, larger ones every 0.1 mL (common practice, no source)
+@pytest.mark.parametrize(
+    ("ml", "expected"),
+    [(0.567, 0.57), (0.04, 0.04), (0.004, 0.0), (0.996, 1.0), (3.39, 3.4), (12.04, 12.0)],
+)
+def test_hand_drawn_dose_to_its_syringe_marks(ml, expected):
+    assert delivery.draw_up_ml(ml) == expected
+
+
+@pytest.mark.parametrize("bad", [-0.1, float("nan"), float("inf"), "1"])
+def test_hand_drawn_bad_volume(bad):
+    with pytest.raises(InputError):
+        delivery.draw_up_ml(bad)
+
+
 def test_divided_boluses_worked_example_longest_interval_that_fits():
     # 2 mL/h with 5 mL per site: 12 h → 24 mL on 5 sites (too many); 8 h → 16 mL on
     # 4 sites of 4 mL. Doses at least 6 h apart: SC fluid is absorbed over 6–8 h

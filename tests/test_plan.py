@@ -184,6 +184,18 @@ def test_small_desert_rodent_gets_divided_boluses():
     assert "DIVIDED_BOLUSES" in codes(plan)
 
 
+def test_divided_dose_sites_add_up_to_the_dose_drawn():
+    """A nurse draws up the per-site volume at every site: the sites must give the dose
+    (to the 0.01 mL marks of a 1 mL syringe), not 6 × 0.6 = 3.6 mL for a 3.4 mL dose."""
+    plan = plan_for(species_id="mongolian_gerbil", weight_kg=0.065, dehydration_percent=7)
+    doses = [e for e in plan.schedule if e.action.startswith("Give ")]
+    assert doses
+    for entry in doses:
+        words = entry.action.split()
+        dose, sites, per_site = float(words[1]), int(words[5]), float(words[7])
+        assert sites * per_site == pytest.approx(dose, abs=sites * 0.005 + 0.05), entry.action
+
+
 def test_chelonians_default_to_intracoelomic_and_hypertonic_sc_is_blocked():
     assert plan_for(species_id="hermanns_tortoise", weight_kg=0.8, body_temp_c=27).route == "icoel"
     blocked = plan_for(species_id="rabbit", weight_kg=2, route="sc", fluid_id="nacl_7_2")

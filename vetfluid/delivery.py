@@ -5,6 +5,8 @@
   seconds per drop = 60 ÷ drops/min. Common sets deliver 10, 15, 20 (macro) or
   60 (micro) drops/mL.
 * Syringe pumps are set to 0.1 mL; volumes are rounded to 0.1 mL.
+* A dose drawn up by hand is rounded to the marks of the syringe it fits: 0.01 mL
+  below 1 mL (a 1 mL syringe), 0.1 mL above (common practice, no source).
 * Divided boluses for patients too small for a line: each dose is the hourly
   need × the dosing interval, split over as many sites as the route's per-site
   limit requires. SC fluids are absorbed over 6–8 h (Vet Clin North Am Small
@@ -20,6 +22,8 @@ from vetfluid.checks import require_number
 
 STANDARD_DROP_FACTORS = (10, 15, 20, 60)
 SYRINGE_STEP_ML = 0.1
+SMALL_SYRINGE_ML = 1.0  # a 1 mL syringe is marked every 0.01 mL (common practice, no source)
+SMALL_SYRINGE_STEP_ML = 0.01
 # Dosing intervals tried for divided boluses, longest first: fewer handlings
 # stress a small patient less; never shorter than the 6 h SC absorption time.
 DIVIDED_INTERVALS_H = (12.0, 8.0, 6.0)
@@ -53,6 +57,17 @@ def syringe_ml(volume_ml: float) -> float:
     """A volume rounded to the 0.1 mL a syringe pump is set to."""
     require_number(volume_ml, "volume_ml", low=0, unit="mL")
     return round(volume_ml / SYRINGE_STEP_ML) * SYRINGE_STEP_ML
+
+
+def draw_up_ml(volume_ml: float) -> float:
+    """A hand-drawn dose rounded to its syringe's marks: 0.01 mL below 1 mL, else 0.1 mL.
+
+    So a 0.57 mL site volume is not shown as 0.6 mL (six sites would then add up to
+    3.6 mL, not the 3.4 mL dose), nor 0.04 mL as nothing.
+    """
+    require_number(volume_ml, "volume_ml", low=0, unit="mL")
+    step = SMALL_SYRINGE_STEP_ML if volume_ml < SMALL_SYRINGE_ML else SYRINGE_STEP_ML
+    return round(round(volume_ml / step) * step, 2)
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -226,7 +226,8 @@ def _continuous_action(phase: Phase) -> str:
 
 
 def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[ScheduleEntry, ...]:
-    """The plan on the clock: each phase start and each divided dose (volumes to 0.1 mL)."""
+    """The plan on the clock: each phase start and each divided dose (volumes to the
+    syringe's marks, :func:`vetfluid.delivery.draw_up_ml`)."""
     entries = []
     for phase in phases:
         if phase.syringe_fills:
@@ -253,8 +254,8 @@ def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[Sch
                 )
             )
             continue
-        dose = delivery.syringe_ml(phase.dose_ml or 0.0)
-        per_site = delivery.syringe_ml(phase.ml_per_site or 0.0)
+        dose = delivery.draw_up_ml(phase.dose_ml or 0.0)
+        per_site = delivery.draw_up_ml(phase.ml_per_site or 0.0)
         for hour in phase.dose_hours():
             entries.append(
                 ScheduleEntry(
