@@ -441,7 +441,7 @@ def test_bad_fluid_rows_name_file_and_line(tmp_path, rows, line, words):
         ("nacl_bad,sodium chloride,NaCl,58.4427,Na+:one;Cl-:1,no,", "whole number"),
         ("nacl_bad,sodium chloride,NaCl,58.4427,Na+:1;Cl-:1,sometimes,", "metabolic fate"),
         ("nacl_bad,sodium chloride,NaCl,58.4427,Na+:1;Cl-:1,anion_to_bicarbonate,", "lactate"),
-        ("nacl,sodium chloride again,NaCl,58.4427,Na+:1;Cl-:1,no,", "already defined"),
+        ("nacl,sodium chloride again,NaCl,58.4427,Na+:1;Cl-:1,no,", "already listed at"),
     ],
 )
 def test_bad_solute_rows_name_file_and_line(tmp_path, bad_row, words):
@@ -451,6 +451,13 @@ def test_bad_solute_rows_name_file_and_line(tmp_path, bad_row, words):
         load_fluids(_folder(tmp_path, HEADER + GOOD_ROW, solutes))
     assert caught.value.location == f"solutes.csv:{line}"
     assert words in str(caught.value)
+
+
+def test_a_solute_table_with_only_its_header_is_refused(tmp_path):
+    header = SHIPPED_SOLUTES.splitlines(keepends=True)[0]
+    with pytest.raises(SpeciesDataError) as caught:
+        load_fluids(_folder(tmp_path, HEADER + GOOD_ROW, header))
+    assert caught.value.location == "solutes.csv:1" and "no rows" in str(caught.value)
 
 
 @pytest.mark.parametrize(

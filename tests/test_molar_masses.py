@@ -207,6 +207,12 @@ def test_bad_rows_name_file_line_and_fix(tmp_path, row, words):
     assert caught.value.fix
 
 
+def test_a_file_with_only_its_header_is_refused(tmp_path):
+    with pytest.raises(SpeciesDataError) as caught:
+        _load(tmp_path, HEADER)
+    assert caught.value.location == "molar_masses.csv:1" and "no rows" in str(caught.value)
+
+
 def test_a_missing_column_points_at_the_header(tmp_path):
     with pytest.raises(SpeciesDataError) as caught:
         _load(tmp_path, "formula,name,note\nC6H12O6,glucose,\n")

@@ -23,7 +23,7 @@ from functools import cache
 from pathlib import Path
 from types import MappingProxyType
 
-from vetfluid.csvfiles import read_rows
+from vetfluid.csvfiles import unique_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.paths import resource_dir
 
@@ -158,23 +158,13 @@ def load_molar_masses(data_dir: Path | None = None) -> Mapping[str, float]:
             fix=f"add {MOLAR_MASS_FILE} to the folder",
         )
     masses: dict[str, float] = {}
-    first_line: dict[str, str] = {}
-    for location, row in read_rows(path, MOLAR_MASS_COLUMNS):
+    for location, row in unique_rows(path, MOLAR_MASS_COLUMNS, key="formula", what="formula"):
         formula = row["formula"]
-        if formula in masses:
-            raise SpeciesDataError(
-                f"formula {formula!r} already listed at {first_line[formula]}",
-                location=location,
-                fix="keep one row per formula",
-            )
         try:
             formula_atoms(formula)
         except InputError as exc:
             raise SpeciesDataError(exc.message, location=location, fix=exc.fix) from exc
         masses[formula] = parse_molar_mass(row["molar_mass_g_per_mol"], location=location)
-        first_line[formula] = location
-    if not masses:
-        raise SpeciesDataError("no rows", location=f"{path.name}:1", fix="add at least one row")
     return MappingProxyType(masses)
 
 

@@ -7,6 +7,7 @@ file and line and what to fix.
 from __future__ import annotations
 
 import csv
+from collections.abc import Iterator
 from pathlib import Path
 
 from vetfluid.errors import SpeciesDataError
@@ -48,6 +49,26 @@ def read_rows(path: Path, required_columns: tuple[str, ...]) -> list[tuple[str, 
         raise SpeciesDataError(
             "file is not UTF-8 text", location=f"{path.name}:1", fix="save the file as UTF-8"
         ) from exc
+
+
+def unique_rows(
+    path: Path, required_columns: tuple[str, ...], *, key: str, what: str
+) -> Iterator[tuple[str, dict[str, str]]]:
+    """The rows of :func:`read_rows`, each ``key`` (a formula, an id) listed once: a second
+    row with the same one is an error naming both lines, and so is a file with no rows."""
+    first_line: dict[str, str] = {}
+    for location, row in read_rows(path, required_columns):
+        name = row[key]
+        if name in first_line:
+            raise SpeciesDataError(
+                f"{what} {name!r} already listed at {first_line[name]}",
+                location=location,
+                fix=f"keep one row per {what}",
+            )
+        first_line[name] = location
+        yield location, row
+    if not first_line:
+        raise SpeciesDataError("no rows", location=f"{path.name}:1", fix="add at least one row")
 
 
 def parse_number(text: str, *, location: str, column: str) -> float | None:

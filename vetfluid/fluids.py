@@ -36,7 +36,7 @@ from types import MappingProxyType
 from vetfluid import paths
 from vetfluid.checks import require_number
 from vetfluid.chemistry import formula_atoms, molar_mass_g_per_mol, parse_molar_mass
-from vetfluid.csvfiles import parse_number, read_rows
+from vetfluid.csvfiles import parse_number, read_rows, unique_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.formatting import format_quantity
 from vetfluid.species import BASES
@@ -498,15 +498,8 @@ def _located(error: InputError, location: str) -> SpeciesDataError:
 
 def _load_solutes(path: Path) -> Mapping[str, Solute]:
     solutes: dict[str, Solute] = {}
-    first_line: dict[str, str] = {}
-    for location, row in _read_rows(path, SOLUTE_COLUMNS):
+    for location, row in unique_rows(path, SOLUTE_COLUMNS, key="solute_id", what="solute"):
         solute_id = row["solute_id"]
-        if solute_id in solutes:
-            raise SpeciesDataError(
-                f"solute {solute_id!r} already defined at {first_line[solute_id]}",
-                location=location,
-                fix="keep one row per solute",
-            )
         try:
             solutes[solute_id] = Solute(
                 solute_id=solute_id,
@@ -521,7 +514,6 @@ def _load_solutes(path: Path) -> Mapping[str, Solute]:
             )
         except InputError as exc:
             raise _located(exc, location) from exc
-        first_line[solute_id] = location
     return MappingProxyType(solutes)
 
 
