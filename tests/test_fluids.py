@@ -451,6 +451,7 @@ def test_bad_solute_rows_name_file_and_line(tmp_path, bad_row, words):
         load_fluids(_folder(tmp_path, HEADER + GOOD_ROW, solutes))
     assert caught.value.location == f"solutes.csv:{line}"
     assert words in str(caught.value)
+    assert caught.value.fix  # every refused row says what to change
 
 
 def test_a_solute_table_with_only_its_header_is_refused(tmp_path):
@@ -481,6 +482,7 @@ def test_a_missing_or_bad_molar_mass_names_file_line_and_fix(tmp_path, mass, wor
         load_fluids(_folder(tmp_path, HEADER + GOOD_ROW, solutes))
     assert caught.value.location == f"solutes.csv:{line}"
     assert words in str(caught.value)
+    assert caught.value.fix  # every refused row says what to change
     assert "g/mol" in (caught.value.fix or "")
 
 

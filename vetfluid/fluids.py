@@ -163,6 +163,7 @@ class Solute:
                 "anion_to_bicarbonate needs a lactate, acetate or gluconate ion",
                 field="metabolised",
                 value=self.metabolised,
+                fix="list the lactate, acetate or gluconate ion in ions, or set metabolised to no",
             )
 
     def _check_elements(self, atoms: Mapping[str, int]) -> None:
