@@ -235,7 +235,12 @@ def test_dehydration_from_findings_uses_the_published_band():
     plan = plan_for(species_id="dog", weight_kg=10, dehydration_findings=findings)
     assert plan.dehydration_percent == 6
     assert (plan.dehydration_estimate.percent_low, plan.dehydration_estimate.percent_high) == (6, 8)
-    assert "DEHYDRATION_FROM_FINDINGS" in codes(plan)
+    # an estimate the clinician has not confirmed holds the plan back from "ready"
+    assert codes(plan)["DEHYDRATION_FROM_FINDINGS"] == "soft"
+    confirmed = plan_for(species_id="dog", weight_kg=10, dehydration_findings=findings,
+                         dehydration_percent=6)  # fmt: skip
+    assert confirmed.dehydration_percent == 6
+    assert "DEHYDRATION_FROM_FINDINGS" not in codes(confirmed)
 
 
 @pytest.mark.parametrize(

@@ -69,6 +69,54 @@ def test_plan_a_gerbil_from_an_empty_form(qtbot, window):
     assert curves is not None
 
 
+def test_enter_or_tab_takes_the_one_species_the_text_names(qtbot, window):
+    patient = window.patient
+    line = patient.species_box.lineEdit()
+    assert not patient.weight_edit.isEnabled()  # the unit comes from the species: it waits
+    qtbot.keyClicks(line, "gerbil")
+    qtbot.keyClick(line, Qt.Key.Key_Return)  # no arrow key, no click on the list
+    qtbot.waitUntil(lambda: window.session.inputs["species_id"] == "mongolian_gerbil")
+    assert line.cursorPosition() == 0  # the name is shown from its start
+    assert patient.weight_edit.isEnabled() and patient.unit_box.currentText() == "g"
+
+    line.clear()
+    qtbot.keyClicks(line, "Pogona")  # a scientific name; Tab moves on and takes it
+    line.editingFinished.emit()
+    qtbot.waitUntil(lambda: window.session.inputs["species_id"] == "bearded_dragon")
+
+    line.clear()
+    qtbot.keyClicks(line, "parrot")  # two parrots: nothing is guessed, the user is told
+    line.editingFinished.emit()
+    qtbot.waitUntil(lambda: window.session.plan is None and "parrot" in window.session.problem)
+    assert "2 species match 'parrot'" in window.summary.problem.text()
+    assert window.session.inputs["species_id"] == "bearded_dragon"
+
+
+def test_a_unit_typed_with_the_weight_is_read_and_shown_in_the_box(qtbot, window):
+    window.patient._set_species("dog")
+    window.patient.weight_edit.setText("350 g")
+    window.patient._weight_changed()
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.weight_kg == pytest.approx(0.35))
+    assert window.patient.unit_box.currentText() == "g"
+    assert "WEIGHT_OUTSIDE_RANGE" in {f.code for f in plan.findings}  # below the dog's 1–90 kg
+
+
+def test_an_estimate_from_findings_shows_as_unconfirmed_until_used(qtbot, window):
+    window.open_demo("dehydrated_dog")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
+    patient = window.patient
+    patient.dehydration_field.setText("")
+    patient.dehydration_field.commit()
+    patient.finding_boxes["skin_return_delayed"].setChecked(True)
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent is None)
+    assert patient.dehydration_field.placeholderText().endswith("not confirmed")
+    assert {f.code: f.severity for f in plan.findings}["DEHYDRATION_FROM_FINDINGS"] == "soft"
+    qtbot.mouseClick(patient.use_estimate, Qt.MouseButton.LeftButton)
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent is not None)
+    assert patient.dehydration_field.text() == f"{plan.dehydration_percent:g}"
+    assert "DEHYDRATION_FROM_FINDINGS" not in {f.code for f in plan.findings}
+
+
 def test_hidden_views_catch_up_when_shown(qtbot, window):
     window.open_demo("dehydrated_dog")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
@@ -87,7 +135,7 @@ def test_typing_a_bad_weight_says_so_and_shows_no_plan(qtbot, window):
     window.patient.weight_edit.setText("2o")
     window.patient._weight_changed()
     qtbot.waitUntil(lambda: window.session.plan is None)
-    assert "cannot read" in window.summary.problem.text()
+    assert "unknown weight unit 'o'" in window.summary.problem.text()  # a letter O for 0
     assert window.summary.values["first24"].text() == "—"
 
 

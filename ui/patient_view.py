@@ -8,6 +8,8 @@ come from the core.
 
 from __future__ import annotations
 
+import re
+
 from PySide6.QtCore import QSignalBlocker, Qt
 from PySide6.QtWidgets import (
     QCheckBox,
@@ -43,6 +45,7 @@ LAB_FIELDS = {
     "pcv_percent": ("PCV", "%", "not measured", "Packed cell volume, recorded with the plan"),
     "total_solids_g_per_dl": ("Total solids", "g/dL", "not measured", "Recorded with the plan"),
 }
+TYPED_UNIT = re.compile(r"[a-zA-Z]+$")  # the unit at the end of "350 g" or "20kg"
 FLAG_FIELDS = {
     "neonate": "Neonate",
     "cardiac_disease": "Cardiac disease",
@@ -151,6 +154,8 @@ class PatientView(QWidget):
         self.species_box.setCompleter(completer)
         completer.activated[str].connect(self._species_text_chosen)
         self.species_box.activated.connect(self._species_index_chosen)
+        # Enter or Tab after typing part of a name takes the species it names, if only one
+        self.species_box.lineEdit().editingFinished.connect(self._species_typed)
         form.addRow("&Species", self.species_box)
 
         self.weight_edit = QLineEdit()
@@ -277,6 +282,11 @@ class PatientView(QWidget):
 
     def _show_species_context(self, sid: str | None) -> None:
         """Usual weight range and, for ectotherms, the preferred temperature range."""
+        # the weight waits for the species: its unit (g or kg) comes from the species, and
+        # a number typed before would be read in whatever unit the box happened to show
+        self.weight_edit.setEnabled(bool(sid))
+        self.unit_box.setEnabled(bool(sid))
+        self.weight_edit.setPlaceholderText("weight" if sid else "choose a species first")
         if not sid:
             self.range_label.setText("Choose a species first.")
             self.temp_field.setEnabled(False)
@@ -318,9 +328,38 @@ class PatientView(QWidget):
                 self.species_box.setCurrentIndex(index)
             self._set_species(self.species_box.itemData(index))
 
+    def _species_typed(self) -> None:
+        """Enter or Tab after typing: take the species the text names, when it names one
+        (contained in one entry only, or at the start of one only); otherwise say so."""
+        text = self.species_box.currentText().strip()
+        sid = self.session.inputs.get("species_id")
+        chosen = self.species_box.findData(sid) if sid else -1
+        if not text or (chosen >= 0 and self.species_box.itemText(chosen) == text):
+            return
+        wanted = text.casefold()
+        names = [self.species_box.itemText(i).casefold() for i in range(self.species_box.count())]
+        matches = [i for i, name in enumerate(names) if wanted in name]
+        starting = [i for i in matches if names[i].startswith(wanted)]
+        if len(matches) != 1 and len(starting) == 1:
+            matches = starting
+        if len(matches) == 1:
+            with QSignalBlocker(self.species_box):
+                self.species_box.setCurrentIndex(matches[0])
+            self._set_species(self.species_box.itemData(matches[0]))
+            return
+        problem = (
+            f"no species matches {text!r}: try a common name, a scientific name or a group"
+            if not matches
+            else f"{len(matches)} species match {text!r}: pick one from the list"
+        )
+        _mark(self.species_box, problem)
+        self.session.set_field_error("species_id", f"Species: {problem}")
+
     def _set_species(self, sid: str | None) -> None:
         if not sid:
             return
+        _mark(self.species_box, "")
+        self.species_box.lineEdit().setCursorPosition(0)  # the start of the name, not its end
         self._show_species_context(sid)
         unit = preferred_weight_unit(self.session.table.value(sid, "body_weight_kg").number)
         weight = self.session.inputs.get("weight_kg")
@@ -339,12 +378,17 @@ class PatientView(QWidget):
             self.session.update(weight_kg=None)
             return
         try:
-            kg = parse_weight_kg(f"{text} {self.unit_box.currentText()}")
+            # a unit typed with the number ("350 g") wins over the box, which then follows it
+            kg = parse_weight_kg(text, default_unit=self.unit_box.currentText())
         except InputError as exc:
             _mark(self.weight_edit, f"{exc.message} — {exc.fix or ''}")
             self.session.set_field_error("weight_kg", f"Weight {text!r}: {exc.message}")
             return
         _mark(self.weight_edit, "")
+        typed_unit = TYPED_UNIT.search(text)
+        if typed_unit and typed_unit.group(0).lower() in WEIGHT_UNITS:
+            with QSignalBlocker(self.unit_box):
+                self.unit_box.setCurrentText(typed_unit.group(0).lower())
         self.session.update(weight_kg=kg)
 
     def _chosen_findings(self) -> tuple[str, ...]:
@@ -360,10 +404,16 @@ class PatientView(QWidget):
         if not chosen:
             self.estimate_label.setText("Tick what you find to see the estimated band.")
             self.use_estimate.setEnabled(False)
+            self.dehydration_field.setPlaceholderText("0")
             return
+        # an empty field now means the estimate, not 0: say so where the number would be
+        self.dehydration_field.setPlaceholderText(
+            f"{estimate.suggested_percent:g} from findings — not confirmed"
+        )
         self.estimate_label.setText(
             f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % "
-            "(DiBartola 2012, Table 14-4). Confirm the % above."
+            f"(DiBartola 2012, Table 14-4). The plan uses {estimate.suggested_percent:g}\u00a0% "
+            "until you confirm it: click the button or type the % above."
         )
         self.use_estimate.setText(f"Use {estimate.suggested_percent:g} %")
         self.use_estimate.setEnabled(True)

@@ -346,7 +346,11 @@ def _bag(request: PlanRequest, kcl_mmol_per_l: float) -> fluids.Fluid:
 def _dehydration(
     ledger: Ledger, request: PlanRequest
 ) -> tuple[float, hydration.DehydrationEstimate | None]:
-    """The % used: entered, else the low end of the findings band (reported), else 0."""
+    """The % used: entered, else the low end of the findings band, else 0.
+
+    The band is an estimate the clinician confirms (DiBartola 2012 gives a band, not a
+    number): used unconfirmed, it is a soft limit, so a plan is not ready on it unless
+    someone enters the % or says why the estimate stands."""
     estimate = (
         hydration.estimate_dehydration(request.dehydration_findings)
         if request.dehydration_findings
@@ -357,11 +361,12 @@ def _dehydration(
     if estimate is None:
         return 0.0, None
     ledger.add(
-        "info",
+        "soft",
         "DEHYDRATION_FROM_FINDINGS",
         f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % dehydration; "
-        f"the plan uses {estimate.suggested_percent:g} %.",
-        "Confirm or enter the percentage yourself.",
+        f"the plan uses {estimate.suggested_percent:g} %, not yet confirmed.",
+        f"Enter the % yourself to confirm it (the window's Use {estimate.suggested_percent:g} % "
+        "button enters this one), or acknowledge why the estimate stands.",
         estimate.source_id,
     )
     return estimate.suggested_percent, estimate
