@@ -9,8 +9,10 @@ from vetfluid.ins_and_outs import ins_and_outs
 from vetfluid.observations import (
     Observation,
     alerts,
+    check_observation,
     predicted_weight_kg,
     replan_request,
+    weight_is_plausible,
 )
 from vetfluid.plan import PlanRequest, build_plan
 
@@ -140,3 +142,60 @@ def test_only_complete_periods_count_and_urine_is_spread_over_its_collection():
     assert measured_outputs(before, period_h=6) == ((60.0, 0.0),)
     # a loss alone does not complete a period: its urine is still to come
     assert measured_outputs([Observation(hour=13, other_losses_ml=8)], period_h=6) == ()
+
+
+@pytest.fixture(scope="module")
+def lizard():
+    # a 350 g bearded dragon at a temperature inside its preferred range
+    return build_plan(PlanRequest(species_id="bearded_dragon", weight_kg=0.35,
+                                  dehydration_percent=5, body_temp_c=30))  # fmt: skip
+
+
+@pytest.mark.parametrize(
+    ("weight_kg", "accepted"),
+    # the rule: within a factor of 1.5 of the entered 20 kg, either way (common practice)
+    [(20 * 1.49, True), (20 * 1.51, False), (20 / 1.49, True), (20 / 1.51, False),
+     (20.0, True), (23.6, True)],
+)  # fmt: skip
+def test_a_weight_beyond_a_factor_of_one_and_a_half_is_refused(dog, weight_kg, accepted):
+    observation = Observation(hour=4, weight_kg=weight_kg)
+    assert weight_is_plausible(measured_kg=weight_kg, entered_kg=20) is accepted
+    if accepted:
+        check_observation(dog, observation)
+    else:
+        with pytest.raises(InputError, match="plan's weight of 20 kg"):
+            check_observation(dog, observation)
+
+
+def test_a_gram_reading_typed_as_kilograms_is_refused_naming_both_weights(lizard):
+    # the review's case: a scale reading of 352 g typed into a kg field
+    with pytest.raises(InputError) as caught:
+        check_observation(lizard, Observation(hour=2, weight_kg=352), weight_unit="kg")
+    text = caught.value.one_line()
+    assert "352 kg" in text and "350 g" in text
+    assert "unit (g, kg or lb)" in text and "not recorded" in text
+    check_observation(lizard, Observation(hour=2, weight_kg=0.352), weight_unit="g")
+
+
+def test_pounds_typed_as_kilograms_and_back_are_refused(dog):
+    # 1 lb = 0.45359237 kg: the 20 kg dog weighs about 44 lb
+    with pytest.raises(InputError, match="44 kg"):
+        check_observation(dog, Observation(hour=2, weight_kg=44.0))
+    with pytest.raises(InputError, match="20 lb"):
+        check_observation(dog, Observation(hour=2, weight_kg=20 * 0.45359237), weight_unit="lb")
+
+
+def test_replan_refuses_an_implausible_latest_weight(lizard):
+    with pytest.raises(InputError, match="no new plan") as caught:
+        replan_request(lizard, [Observation(hour=2, weight_kg=0.36),
+                                Observation(hour=4, weight_kg=352)])  # fmt: skip
+    assert "352 kg" in str(caught.value) and "350 g" in str(caught.value)
+    assert replan_request(lizard, [Observation(hour=4, weight_kg=0.36)]).weight_kg == 0.36
+
+
+def test_an_implausible_recorded_weight_is_a_hard_alert_and_nothing_else(lizard):
+    # e.g. recorded before the plan's weight was corrected: no overload alarm from it
+    found = alerts(lizard, [Observation(hour=8, weight_kg=352)])
+    assert codes(found) == {"IMPLAUSIBLE_WEIGHT"}
+    assert found[0].severity == "hard"
+    assert "352 kg" in found[0].message and "350 g" in found[0].message

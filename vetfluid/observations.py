@@ -12,7 +12,14 @@
   - serum Na changing faster than the correction limit between two measurements
     (0.5 mmol/L/h default; see ``safety_limits.csv``);
   - the deficit not closing as predicted: after 6 h, less than half the predicted
-    weight gain (our rule of thumb, no source).
+    weight gain (our rule of thumb, no source);
+  - a recorded weight that cannot be this patient's (see below), as a hard alert.
+* A measured weight more than 1.5 times, or less than 1/1.5 of, the weight the plan was
+  made for is refused when recorded (:func:`check_observation`) and never carried into a
+  new plan version (:func:`replan_request`): within a fluid plan the weight moves by the
+  deficit and any overload, tens of percent at most, so a factor of 1.5 is a slip of unit
+  (g/kg: 1000 times; lb/kg: 2.2 times) or of the decimal point (10 times), or a wrong
+  entered weight, not a fluid shift.
 * Ins and outs for oliguric or anuric patients (``vetfluid/ins_and_outs.py``): the
   urine and other losses recorded in each period, summed for the plan.
 """
@@ -28,16 +35,25 @@ import numpy as np
 from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.findings import Finding
+from vetfluid.formatting import format_number
 from vetfluid.formatting import format_quantity as q
 from vetfluid.hydration import overload_weight_kg
 from vetfluid.ins_and_outs import InsAndOutsRow, ins_and_outs
 from vetfluid.limits import limit
 from vetfluid.plan import Plan
 from vetfluid.species import SpeciesTable, load_table
+from vetfluid.units import preferred_weight_unit, weight_in_unit
 
 MUCOUS_MEMBRANES = ("pink", "pale", "injected", "cyanotic", "icteric", "tacky", "dry")
 DEFICIT_CHECK_AFTER_H = 6.0  # our rule of thumb, no source
 DEFICIT_CLOSING_FRACTION = 0.5  # our rule of thumb, no source
+# A measured weight beyond this factor of the entered weight, either way, is refused.
+# Common practice, no source. Why 1.5: the dehydration scale ends at 12–15 % with signs
+# of shock (DiBartola SP 2012, Fluid, Electrolyte, and Acid-Base Disorders in Small Animal
+# Practice) and the overload line is 10 % over the euhydrated weight (Pardo M et al. 2024
+# AAHA Fluid Therapy Guidelines), so a real change within a plan stays well inside it,
+# while a g/kg slip (1000), lb/kg (2.2) or a misplaced decimal point (10) lies outside.
+WEIGHT_PLAUSIBLE_FACTOR = 1.5
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -98,6 +114,64 @@ class Observation:
         return self.urine_ml / self.urine_period_h / weight_kg
 
 
+def weight_is_plausible(*, measured_kg: float, entered_kg: float) -> bool:
+    """Whether a measured weight lies within :data:`WEIGHT_PLAUSIBLE_FACTOR` of the weight
+    the plan was made for, either way (a factor of 1.5: common practice, no source)."""
+    measured = require_number(measured_kg, "weight_kg", positive=True, unit="kg")
+    entered = require_number(entered_kg, "entered weight", positive=True, unit="kg")
+    ratio = measured / entered
+    return 1.0 / WEIGHT_PLAUSIBLE_FACTOR <= ratio <= WEIGHT_PLAUSIBLE_FACTOR
+
+
+def _weights_text(measured_kg: float, entered_kg: float, unit: str) -> tuple[str, str]:
+    """Both weights in ``unit``; the entered one also in its usual unit when that differs."""
+    natural = preferred_weight_unit(entered_kg)
+    entered = q(weight_in_unit(entered_kg, unit), unit)
+    if natural != unit:
+        entered += f" ({q(weight_in_unit(entered_kg, natural), natural)})"
+    return q(weight_in_unit(measured_kg, unit), unit), entered
+
+
+def _how_far(measured_kg: float, entered_kg: float) -> str:
+    ratio = measured_kg / entered_kg
+    if ratio >= 1:
+        return f"{format_number(ratio)} times"
+    return f"{format_number(ratio * 100)} % of"
+
+
+def _implausible_weight(
+    plan: Plan, weight_kg: float, *, unit: str, subject: str, consequence: str
+) -> InputError:
+    """The refusal of a weight beyond the plausible factor; ``subject`` holds ``{weight}``."""
+    measured_text, entered_text = _weights_text(weight_kg, plan.request.weight_kg, unit)
+    how_far = _how_far(weight_kg, plan.request.weight_kg)
+    return InputError(
+        f"{subject.format(weight=measured_text)} is {how_far} the plan's weight of "
+        f"{entered_text}; during fluid therapy a patient's weight does not change by more "
+        f"than a factor of {WEIGHT_PLAUSIBLE_FACTOR:g}, so {consequence}",
+        field="weight",
+        value=weight_kg,
+        fix="check the unit (g, kg or lb) and the decimal point, then record the weight again; "
+        f"if the scale really reads {measured_text}, the plan's weight is wrong: correct the "
+        "patient's weight first",
+    )
+
+
+def check_observation(plan: Plan, observation: Observation, *, weight_unit: str = "kg") -> None:
+    """Refuse an observation that cannot be this patient's before it is recorded.
+
+    A measured weight beyond :data:`WEIGHT_PLAUSIBLE_FACTOR` of the plan's entered weight
+    (either way) raises :class:`InputError` naming both weights, in ``weight_unit`` (the
+    unit it was typed in), and what to fix. Other quantities are checked by
+    :class:`Observation` itself."""
+    weight = observation.weight_kg
+    if weight is None or weight_is_plausible(measured_kg=weight, entered_kg=plan.request.weight_kg):
+        return
+    raise _implausible_weight(
+        plan, weight, unit=weight_unit, subject="{weight}", consequence="it was not recorded"
+    )
+
+
 def predicted_weight_kg(plan: Plan, hour: float) -> float:
     """Entered weight + net fluid balance by ``hour`` (1 mL ≈ 1 g; Davis 2013)."""
     given = sum(p.volume_between(0.0, hour + 1e-9) for p in plan.phases)
@@ -134,7 +208,22 @@ def alerts(
     last_na: Observation | None = None
     latest_weight = plan.request.weight_kg
     for obs in ordered:
-        if obs.weight_kg is not None:
+        if obs.weight_kg is not None and not weight_is_plausible(
+            measured_kg=obs.weight_kg, entered_kg=plan.request.weight_kg
+        ):
+            # recorded against an earlier entered weight, or read from a file: not used
+            measured_text, entered_text = _weights_text(
+                obs.weight_kg, plan.request.weight_kg, preferred_weight_unit(obs.weight_kg)
+            )
+            found.append(Finding(
+                severity="hard", code="IMPLAUSIBLE_WEIGHT",
+                message=f"The weight recorded at hour {obs.hour:g}, {measured_text}, is "
+                f"{_how_far(obs.weight_kg, plan.request.weight_kg)} the {entered_text} this "
+                "plan was made for; no alert or re-plan uses it.",
+                action="Check the plan's weight and this reading (unit, decimal point); weigh "
+                "the patient and record the weight again.",
+            ))  # fmt: skip
+        elif obs.weight_kg is not None:
             latest_weight = obs.weight_kg
             if obs.weight_kg >= line:
                 found.append(Finding(
@@ -197,7 +286,8 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
     """A new request from the patient's current state (the earlier plan is kept by the caller).
 
     Hour 0 of the new version is when the latest weight was taken; its clock and date follow.
-    Weight: the latest measured weight. Remaining deficit: the euhydrated weight
+    Weight: the latest measured weight, refused (:class:`InputError`) when it is beyond
+    :data:`WEIGHT_PLAUSIBLE_FACTOR` of the entered weight. Remaining deficit: the euhydrated weight
     (entered weight + deficit, 1 L ≈ 1 kg) less that weight, as a % of it. Labs: the
     latest Na and K. Everything else (fluid, route, flags) carries over.
     """
@@ -210,6 +300,12 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
             "re-planning needs a measured weight", field="weight", fix="record a weight first"
         )
     current = weights[-1].weight_kg
+    if not weight_is_plausible(measured_kg=current, entered_kg=plan.request.weight_kg):
+        raise _implausible_weight(  # an implausible weight never becomes the plan's
+            plan, current, unit=preferred_weight_unit(current),
+            subject=f"the latest weight, {{weight}} at hour {weights[-1].hour:g},",
+            consequence="no new plan was made from it",
+        )  # fmt: skip
     euhydrated = plan.request.weight_kg + plan.deficit_ml / 1000.0
     remaining_percent = max(0.0, (euhydrated - current) / current * 100.0)
     latest = {
