@@ -167,6 +167,37 @@ def test_acknowledging_a_warning_allows_ready_and_a_hard_limit_blocks_it(qtbot, 
     assert "hard limit" in window.details.tabText(window.details.indexOf(findings))
 
 
+def test_a_reason_covers_the_warning_it_was_given_for_not_a_changed_one(qtbot, window):
+    window.open_demo("small_gerbil")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "mongolian_gerbil")
+    session, findings = window.session, window.findings
+    window.details.setCurrentWidget(findings)
+    model = findings.model
+    row = next(
+        r for r in range(model.rowCount()) if model.finding(r).code == "DIVIDED_TOO_MANY_SITES"
+    )
+    assert model.setData(model.index(row, 3), "owner declined IO; two nurses")
+    assert not session.blockers()
+    session.update(losses_ml_per_day=0.0)  # an edit that leaves the warning's words alone
+    wait_for_plan(qtbot, window, lambda p: p.request.losses_ml_per_day == 0)
+    assert session.acknowledged == {"DIVIDED_TOO_MANY_SITES": "owner declined IO; two nurses"}
+
+    session.update(replace_hours=12)  # more fluid per dose: more sites, a different warning
+    wait_for_plan(qtbot, window, lambda p: p.request.replace_hours == 12)
+    assert "DIVIDED_TOO_MANY_SITES" not in session.acknowledged
+    assert [f.code for f in session.blockers()] == ["DIVIDED_TOO_MANY_SITES"]
+    assert not findings.ready_button.isEnabled()
+    row = next(
+        r for r in range(model.rowCount()) if model.finding(r).code == "DIVIDED_TOO_MANY_SITES"
+    )
+    shown = model.data(model.index(row, 3))
+    assert "the warning changed" in shown and "owner declined IO" in shown
+    assert (
+        model.data(model.index(row, 3), Qt.ItemDataRole.EditRole) == "owner declined IO; two nurses"
+    )
+    assert "divided too many sites" in findings.status.text()  # in words, not a code
+
+
 def test_memory_values_are_marked_in_words(qtbot, window):
     window.open_demo("small_gerbil")
     plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "mongolian_gerbil")

@@ -72,15 +72,24 @@ class FindingsModel(QAbstractTableModel):
                 return f.action
             if f.severity == "soft":
                 reason = self.session.acknowledged.get(f.code, "")
+                lapsed, _ = self.session.lapsed.get(f.code, ("", ""))
                 if role == Qt.ItemDataRole.EditRole:
-                    return reason
-                return f"✓ {reason}" if reason else "type why this is acceptable…"
+                    return reason or lapsed  # an earlier reason is offered for editing
+                if reason:
+                    return f"✓ {reason}"
+                if lapsed:
+                    return f"⚠ the warning changed; your reason “{lapsed}” no longer covers it"
+                return "type why this is acceptable…"
             return "blocks the plan" if f.severity == "hard" else ""
         if role == Qt.ItemDataRole.DecorationRole and column == 0:
             return icon(SEVERITY_ICONS[f.severity])
         if role == Qt.ItemDataRole.ToolTipRole:
             source = f"\nSource: {f.source_id}" if f.source_id else ""
-            return f"{SEVERITY_WORDS[f.severity]}: {f.message}\n{f.action}{source}"
+            text = f"{SEVERITY_WORDS[f.severity]}: {f.message}\n{f.action}{source}"
+            if f.code in self.session.lapsed:
+                reason, given_for = self.session.lapsed[f.code]
+                text += f"\n\nYour reason “{reason}” was given when it read: {given_for}"
+            return text
         return None
 
     def setData(self, index, value, role=Qt.ItemDataRole.EditRole) -> bool:  # noqa: N802
@@ -167,11 +176,17 @@ class FindingsView(QWidget):
             parts = []
             if hard:
                 parts.append(f"✖ {len(hard)} hard limit(s) block this plan: "
-                             + ", ".join(f.code for f in hard))  # fmt: skip
+                             + "; ".join(_in_words(f) for f in hard))  # fmt: skip
             if soft:
                 parts.append(f"⚠ {len(soft)} warning(s) need a reason: "
-                             + ", ".join(f.code for f in soft))  # fmt: skip
+                             + "; ".join(_in_words(f) for f in soft))  # fmt: skip
             text = "\n".join(parts)
         else:
             text = "Nothing blocks this plan."
         self.status.setText(text)
+
+
+def _in_words(finding: Finding) -> str:
+    """A finding's code as words for a sentence: ``WEIGHT_OUTSIDE_RANGE`` → weight outside
+    range (the table beside it gives the full message)."""
+    return finding.code.replace("_", " ").lower()

@@ -46,6 +46,10 @@ class PlanSession(QObject):
         )
         self._field_errors: dict[str, str] = {}
         self._acknowledged: dict[str, str] = {}
+        # what each warning said when its reason was given: a reason covers that, no more
+        self._acknowledged_for: dict[str, str] = {}
+        #: reasons that lapsed because their warning changed: code → (reason, what it said)
+        self.lapsed: dict[str, tuple[str, str]] = {}
         self._ready = False
         self.observations: list = []  # vetfluid.observations.Observation, for this version
         self.versions: list[tuple[PlanRequest, tuple]] = []  # earlier (request, observations)
@@ -81,14 +85,23 @@ class PlanSession(QObject):
         self._schedule()
 
     def replace_request(
-        self, request: PlanRequest | None, acknowledged: dict[str, str] | None = None
+        self,
+        request: PlanRequest | None,
+        acknowledged: dict[str, str] | None = None,
+        acknowledged_for: dict[str, str] | None = None,
     ) -> None:
-        """A new patient (None), a demo or an opened file: everything is replaced."""
+        """A new patient (None), a demo or an opened file: everything is replaced.
+
+        ``acknowledged`` reasons cover the warnings as the new plan words them, unless
+        ``acknowledged_for`` says what they were given for (a re-plan): then a warning
+        that now says something else needs its reason again."""
         self._inputs = (
             {f: getattr(request, f) for f in REQUEST_FIELDS} if request else dict(BLANK_INPUTS)
         )
         self._field_errors.clear()
         self._acknowledged = dict(acknowledged or {})
+        self._acknowledged_for = dict(acknowledged_for or {})
+        self.lapsed = {}
         # outputs measured before this session: kept for periods no new observation covers
         self._saved_outputs = (
             (request.ins_and_outs_period_h, request.measured_outputs) if request else (None, ())
@@ -131,6 +144,8 @@ class PlanSession(QObject):
 
     def _publish(self, plan: Plan | None, problem: str) -> None:
         self.plan = plan
+        if plan is not None:
+            self._lapse_changed_acknowledgements(plan)
         if problem != self.problem:
             self.problem = problem
             self.problemChanged.emit(problem)
@@ -146,14 +161,37 @@ class PlanSession(QObject):
     def acknowledged(self) -> dict[str, str]:
         return dict(self._acknowledged)
 
+    @property
+    def acknowledged_for(self) -> dict[str, str]:
+        """What each acknowledged warning said when its reason was given."""
+        return dict(self._acknowledged_for)
+
     def acknowledge(self, code: str, reason: str) -> None:
-        """Record why a soft finding is accepted (an empty reason withdraws it)."""
+        """Record why a soft finding, as it now reads, is accepted (an empty reason
+        withdraws it)."""
+        self.lapsed.pop(code, None)
         if reason.strip():
             self._acknowledged[code] = reason.strip()
+            shown = self.plan and next((f for f in self.plan.findings if f.code == code), None)
+            if shown:
+                self._acknowledged_for[code] = shown.message
         else:
             self._acknowledged.pop(code, None)
+            self._acknowledged_for.pop(code, None)
         self._ready = False
         self.readinessChanged.emit()
+
+    def _lapse_changed_acknowledgements(self, plan: Plan) -> None:
+        """A reason given for one wording of a warning ("6 sites at 0.57 mL") does not
+        cover another ("7 sites at 0.65 mL"): it lapses and is kept to show the user."""
+        for finding in plan.findings:
+            code = finding.code
+            if code not in self._acknowledged:
+                continue
+            given_for = self._acknowledged_for.setdefault(code, finding.message)
+            if given_for != finding.message:
+                self.lapsed[code] = (self._acknowledged.pop(code), given_for)
+                del self._acknowledged_for[code]
 
     def blockers(self) -> list[Finding]:
         """What stops the plan being marked ready (all hard findings, unacknowledged soft)."""
@@ -206,7 +244,6 @@ class PlanSession(QObject):
             return
         request = replan_request(self.plan, self.observations)  # raises InputError if no weight
         versions = [*self.versions, (self.plan.request, tuple(self.observations))]
-        acknowledged = self.acknowledged
-        self.replace_request(request, acknowledged)
+        self.replace_request(request, self.acknowledged, self.acknowledged_for)
         self.versions = versions
         self.observationsChanged.emit()
