@@ -54,16 +54,15 @@ def test_plan_a_gerbil_from_an_empty_form(qtbot, window):
     qtbot.keyClicks(patient.weight_edit, "65")
     plan = wait_for_plan(qtbot, window, lambda p: p.request.weight_kg == pytest.approx(0.065))
     assert plan.device == "divided"
-    assert window.windowTitle().startswith("vetfluid — Mongolian gerbil")
+    assert window.windowTitle() == "vetfluid — Mongolian gerbil, 65 g"  # its own unit
 
     patient.dehydration_field.setText("7")
     patient.dehydration_field.commit()
     plan = wait_for_plan(qtbot, window, lambda p: p.dehydration_percent == 7)
     assert window.summary.values["deficit"].text().startswith("7 % → 4.55 mL")
-    first_dose = plan.phases[0].dose_ml
-    assert window.summary.schedule_model.text(0, 3).startswith(
-        f"Give {q(round(first_dose, 1), 'mL')}"
-    )
+    first = plan.phases[0]
+    assert window.summary.schedule_model.text(0, 3).startswith("Give ")
+    assert f"in {first.sites_per_dose} sites" in window.summary.schedule_model.text(0, 3)
     # the plots follow the plan
     curves = window.timeline_view
     assert curves is not None
@@ -165,6 +164,15 @@ def test_acknowledging_a_warning_allows_ready_and_a_hard_limit_blocks_it(qtbot, 
     assert not findings.ready_button.isEnabled() and not window.session.ready
     assert "hard limit" in findings.status.text()
     assert "hard limit" in window.details.tabText(window.details.indexOf(findings))
+    # the plan's numbers stay on show, under a banner that says not to give them
+    window.details.setCurrentIndex(0)
+    assert not window.summary.blocked.isHidden()
+    assert "do not give this plan" in window.summary.blocked.text()
+    assert "hard limit" in window.statusBar().currentMessage()
+    window.patient.weight_edit.setText("0.38")
+    window.patient._weight_changed()
+    wait_for_plan(qtbot, window, lambda p: p.request.weight_kg == 0.38)
+    assert window.summary.blocked.isHidden()
 
 
 def test_a_reason_covers_the_warning_it_was_given_for_not_a_changed_one(qtbot, window):

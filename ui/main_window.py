@@ -449,13 +449,17 @@ class MainWindow(QMainWindow):
         else:
             from vetfluid.formatting import format_quantity
             from vetfluid.ins_and_outs import planned_so_far
+            from vetfluid.units import preferred_weight_unit, weight_in_unit
 
-            weight = format_quantity(plan.request.weight_kg, "kg")
+            typical = self.session.table.value(plan.request.species_id, "body_weight_kg")
+            unit = preferred_weight_unit(typical.number)  # 65 g, not 0.065 kg
+            weight = format_quantity(weight_in_unit(plan.request.weight_kg, unit), unit)
             self.setWindowTitle(f"vetfluid — {plan.species_name}, {weight}")
             total = format_quantity(plan.total_ml_first_24h, "mL")
             covers = planned_so_far(plan.end_h, plan.request.ins_and_outs_period_h)
             span = f"over {covers}" if covers else "in the first 24 h"
-            self.statusBar().showMessage(f"Plan updated: {total} {span}.")
+            blocked = " Blocked by a hard limit: see Checks." if plan.has_hard_limit else ""
+            self.statusBar().showMessage(f"Plan updated: {total} {span}.{blocked}")
         self._update_check_tab()
 
     def _update_check_tab(self) -> None:

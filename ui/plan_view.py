@@ -300,6 +300,17 @@ class PlanSummary(QWidget):
         self.problem.setWordWrap(True)
         self.problem.setAccessibleName("Input problem")
         layout.addWidget(self.problem)
+        # A plan with a hard limit still shows its numbers (to see what to change), so it
+        # must not look like one to give: a banner above them says so in words.
+        self.blocked = QLabel()
+        self.blocked.setObjectName("blocked")
+        self.blocked.setWordWrap(True)
+        self.blocked.setAccessibleName("Plan blocked")
+        self.blocked.setStyleSheet(
+            "QLabel#blocked { border: 2px solid palette(text); padding: 6px; font-weight: 600; }"
+        )
+        self.blocked.hide()
+        layout.addWidget(self.blocked)
 
         totals = QGroupBox("Totals")
         self.grid = QGridLayout(totals)
@@ -356,7 +367,19 @@ class PlanSummary(QWidget):
         self.problem.setText(f"⚠ {problem}" if problem else "")
         self.problem.setVisible(bool(problem))
 
+    def _show_blocked(self, plan: Plan | None) -> None:
+        hard = [f for f in plan.findings if f.severity == "hard"] if plan else []
+        if hard:
+            more = f" (and {len(hard) - 1} more)" if len(hard) > 1 else ""
+            self.blocked.setText(
+                f"✖ Hard limit — do not give this plan as it stands: {hard[0].message}{more} "
+                "Change the inputs; the Checks tab says what to do."
+            )
+        if self.blocked.isHidden() == bool(hard):
+            self.blocked.setVisible(bool(hard))
+
     def show_plan(self, plan: Plan | None) -> None:
+        self._show_blocked(plan)
         if plan is None:
             for label in self.values.values():
                 label.setText("—")
