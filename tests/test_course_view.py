@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QApplication
 
 from vetfluid.course import course
@@ -29,6 +30,21 @@ def record(view, hour, index_of, value, period=None):
     view.record()
 
 
+def type_weight(qtbot, view, hour, text, unit=None):
+    """As a nurse does: choose Weight, (choose the unit), type the reading, press Record."""
+    view.hour.setValue(hour)
+    view.quantity.setCurrentIndex(view.quantity.findData("weight_kg"))
+    if unit is not None:
+        view.weight_unit.setCurrentText(unit)
+    view.value.clear()
+    qtbot.keyClicks(view.value, text)
+    qtbot.mouseClick(view.record_button, Qt.MouseButton.LeftButton)
+
+
+def alerts_tab_text(view):
+    return view.tables.tabText(view.tables.indexOf(view.alerts_page))
+
+
 def test_curves_show_the_core_course(window):
     view = window.course_view
     expected = course(window.session.plan, step_minutes=5)
@@ -52,7 +68,7 @@ def test_recording_observations_plots_them_and_raises_alerts(window):
 def test_bad_values_are_messages(window):
     view = window.course_view
     record(view, 2, "weight_kg", "heavy")
-    assert "not a number" in view.message.text()
+    assert "cannot read this weight" in view.message.text()
     record(view, 2, "serum_na", 400)
     assert "serum_na" in view.message.text()
     assert window.session.observations == []
@@ -211,3 +227,89 @@ def test_the_deficit_alert_and_the_predicted_column_use_one_model(window):
     )
     assert format_quantity((predicted - 24.0) * 1000, "g") in alert
     assert view.observations_model.text(0, 3) == format_quantity(predicted, "kg")
+
+
+@pytest.fixture()
+def dragon(qtbot, planner):
+    win = planner
+    win.open_demo("cold_bearded_dragon")  # 380 g
+    qtbot.waitUntil(lambda: win.session.plan is not None)
+    win.details.setCurrentWidget(win.course_holder)
+    assert win.course_view is not None
+    return win
+
+
+def test_a_weight_is_recorded_in_the_unit_chosen_beside_it(qtbot, dragon):
+    # the review's case: the scale reads 352 g on a 380 g bearded dragon
+    view = dragon.course_view
+    view.quantity.setCurrentIndex(view.quantity.findData("weight_kg"))
+    assert view.weight_unit.isVisibleTo(view) and view.weight_unit.currentText() == "g"
+    type_weight(qtbot, view, 2, "352")
+    assert [o.weight_kg for o in dragon.session.observations] == [pytest.approx(0.352)]
+    assert view.observations_model.text(0, 2) == "352 g"
+    assert view.observations_model.text(0, 3).endswith(" g")  # the prediction, in g too
+    assert view.value.text() == "" and view.message.text() == ""
+
+
+def test_grams_typed_with_kilograms_chosen_are_refused_with_both_weights(qtbot, dragon):
+    view = dragon.course_view
+    type_weight(qtbot, view, 2, "352", unit="kg")
+    message = view.message.text()
+    assert "352 kg" in message and "380 g" in message and "not recorded" in message
+    assert "unit (g, kg or lb)" in message
+    assert dragon.session.observations == []
+    assert view.value.text() == "352"  # what was typed stays, to be corrected
+    assert "none" in alerts_tab_text(view)  # no false overload alarm
+    view.replan()  # nothing implausible to carry forward: nothing was recorded
+    assert "needs a measured weight" in view.message.text()
+    assert dragon.session.plan.request.weight_kg == pytest.approx(0.38)
+
+
+def test_pounds_are_converted_and_shown_in_the_species_unit(qtbot, window):
+    view = window.course_view  # the demo dog, 24 kg: its unit is kg
+    view.quantity.setCurrentIndex(view.quantity.findData("weight_kg"))
+    assert view.weight_unit.currentText() == "kg"
+    type_weight(qtbot, view, 4, "53", unit="lb")
+    assert window.session.observations[0].weight_kg == pytest.approx(53 * 0.45359237)
+    assert view.observations_model.text(0, 2) == format_quantity(53 * 0.45359237, "kg")
+    type_weight(qtbot, view, 6, "53", unit="kg")  # the same reading with kg chosen: 2.2 times
+    assert "53 kg" in view.message.text() and "24 kg" in view.message.text()
+    assert len(window.session.observations) == 1
+
+
+def test_the_weight_unit_is_only_offered_for_a_weight(window):
+    view = window.course_view
+    view.quantity.setCurrentIndex(view.quantity.findData("serum_na"))
+    assert not view.weight_unit.isVisibleTo(view)
+    view.quantity.setCurrentIndex(view.quantity.findData("weight_kg"))
+    assert view.weight_unit.isVisibleTo(view)
+
+
+def test_the_alerts_tab_counts_its_alerts_in_text(qtbot, window):
+    view = window.course_view
+    assert alerts_tab_text(view) == "&Alerts (none)"
+    record(view, 4, "urine_ml", 60, period=4)  # 0.6 mL/kg/h: below the dog's 1 mL/kg/h
+    assert alerts_tab_text(view) == "&Alerts (1 ⚠)"
+    record(view, 8, "urine_ml", 60, period=4)
+    assert alerts_tab_text(view) == "&Alerts (2 ⚠)"
+    assert view.alerts_model.rowCount() == 2
+    # the plan's weight corrected after a weight was recorded: that reading is now a hard alert
+    type_weight(qtbot, view, 9, "24.5")
+    window.session.update(weight_kg=2.4)
+    qtbot.waitUntil(lambda: window.session.plan.request.weight_kg == 2.4)
+    assert alerts_tab_text(view) == "&Alerts (1 ✖)"  # 15 mL/h is no oliguria at 2.4 kg
+    record(view, 12, "urine_ml", 4, period=4)  # 0.42 mL/kg/h
+    assert alerts_tab_text(view) == "&Alerts (1 ✖, 1 ⚠)"  # worst first
+    tooltip = view.tables.tabToolTip(view.tables.indexOf(view.alerts_page))
+    assert "1 × hard limit" in tooltip and "1 × warning" in tooltip
+
+
+def test_replan_refuses_a_weight_recorded_before_the_plans_weight_changed(qtbot, window):
+    view = window.course_view
+    type_weight(qtbot, view, 6, "24.5")
+    window.session.update(weight_kg=2.4)  # someone corrects the patient's weight to 2.4 kg
+    qtbot.waitUntil(lambda: window.session.plan.request.weight_kg == 2.4)
+    before = window.session.plan
+    view.replan()
+    assert "no new plan" in view.message.text() and "24.5 kg" in view.message.text()
+    assert window.session.plan is before and window.session.versions == []

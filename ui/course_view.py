@@ -2,7 +2,9 @@
 (`vetfluid/course.py`), the observations recorded against them, and re-planning.
 
 Entering an observation takes a date and time (or the hour of the plan), a quantity
-and a value; everything else (alerts, curves) is recomputed by the core.
+and a value; a weight also takes its unit (g, kg or lb, by default the one the species'
+weight is usually given in) and is checked against the plan's weight by the core before
+it is recorded. Everything else (alerts, curves) is recomputed by the core.
 """
 
 from __future__ import annotations
@@ -43,16 +45,19 @@ from ui.timeline_view import (
 )
 from vetfluid.course import MAX_HORIZON_H, course
 from vetfluid.errors import VetfluidError
+from vetfluid.findings import SEVERITIES
 from vetfluid.formatting import format_quantity as q
 from vetfluid.observations import (
     Observation,
     alerts,
+    check_observation,
     ins_and_outs_from_observations,
     observed_series,
 )
 from vetfluid.schedule import hours_since
+from vetfluid.units import WEIGHT_UNITS, parse_weight_kg, preferred_weight_unit, weight_in_unit
 
-# What can be recorded: field → (label, unit)
+# What can be recorded: field → (label, unit); a weight is typed and shown in a chosen unit
 QUANTITIES = {
     "weight_kg": ("Weight", "kg"),
     "urine_ml": ("Urine output", "mL"),
@@ -67,6 +72,8 @@ QUANTITIES = {
     "mucous_membranes": ("Mucous membranes", ""),
     "note": ("Note", ""),
 }
+# the Alerts tab says in text, not colour alone, how many alerts wait and how severe
+SEVERITY_MARKS = {"hard": "✖", "soft": "⚠", "info": "ℹ"}
 PLASMA, INTERSTITIAL, CELLS, NA, WEIGHT = "#1f77b4", "#2ca02c", "#9467bd", "#d62728", "#8c564b"
 
 
@@ -97,13 +104,22 @@ class CourseView(QWidget):
         self.hour.valueChanged.connect(self._hour_changed)
         self.quantity = QComboBox()
         for key, (label, unit) in QUANTITIES.items():
-            self.quantity.addItem(f"{label} ({unit})" if unit else label, key)
+            self.quantity.addItem(label if not unit or key == "weight_kg" else f"{label} ({unit})",
+                                  key)  # fmt: skip
         self.quantity.setAccessibleName("What was measured")
         self.quantity.currentIndexChanged.connect(self._quantity_changed)
         self.value = QLineEdit()
         self.value.setPlaceholderText("value")
         self.value.setAccessibleName("Measured value")
         self.value.returnPressed.connect(self.record)
+        self.weight_unit = QComboBox()
+        self.weight_unit.addItems(list(WEIGHT_UNITS))
+        self.weight_unit.setAccessibleName("Unit of the measured weight")
+        self.weight_unit.setToolTip(
+            "Unit of the scale reading: g, kg or lb (starts at the unit this species' weight "
+            "is usually given in)"
+        )
+        self._unit_species: str | None = None  # the species the unit was last set for
         self.period = QDoubleSpinBox()
         self.period.setRange(0.5, 48)
         self.period.setValue(4)
@@ -119,7 +135,8 @@ class CourseView(QWidget):
         )
         self.replan_button.clicked.connect(self.replan)
         for widget in (QLabel("At"), self.at, QLabel("="), self.hour, self.quantity,
-                       self.value, self.period, self.record_button):  # fmt: skip
+                       self.value, self.weight_unit, self.period,
+                       self.record_button):  # fmt: skip
             entry.addWidget(widget)
         entry.addStretch(1)
         entry.addWidget(self.replan_button)
@@ -168,6 +185,7 @@ class CourseView(QWidget):
 
         bottom = QTabWidget()
         bottom.setAccessibleName("Course tables")
+        self.tables = bottom
         self.observations_model = RowsModel(["When", "Measured", "Value", "Predicted"])
         self.alerts_model = RowsModel(["Severity", "Alert", "What to do"])
         self.ins_outs_model = RowsModel(
@@ -195,8 +213,16 @@ class CourseView(QWidget):
             view.setWordWrap(True)
             view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
             view.horizontalHeader().setStretchLastSection(True)
+            if model is self.alerts_model:  # long sentences: wrap them, never push one off
+                for column in (1, 2):
+                    view.horizontalHeader().setSectionResizeMode(
+                        column, QHeaderView.ResizeMode.Stretch
+                    )
+                view.verticalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
             page_layout.addWidget(view)
             bottom.addTab(page, name)
+            if model is self.alerts_model:
+                self.alerts_page = page
         split.addWidget(bottom)
         split.setStretchFactor(0, 3)
         split.setStretchFactor(1, 1)
@@ -308,18 +334,45 @@ class CourseView(QWidget):
 
     def _quantity_changed(self, *_: object) -> None:
         self.period.setVisible(self.quantity.currentData() == "urine_ml")
+        self.weight_unit.setVisible(self.quantity.currentData() == "weight_kg")
+
+    def _species_weight_unit(self, plan) -> str:  # noqa: ANN001 — Plan | None
+        """The unit this patient's weight is usually given in (as on the patient form)."""
+        if plan is None:
+            return "kg"
+        typical = self.session.table.value(plan.request.species_id, "body_weight_kg")
+        return preferred_weight_unit(typical.number)
+
+    def _follow_species(self, plan) -> None:  # noqa: ANN001 — Plan | None
+        """A new species starts the unit chooser at its usual unit; a choice made for this
+        species is left alone."""
+        sid = plan.request.species_id if plan is not None else None
+        if sid is not None and sid != self._unit_species:
+            self._unit_species = sid
+            self.weight_unit.setCurrentText(self._species_weight_unit(plan))
 
     # ---- user actions ------------------------------------------------------------------------
     def record(self) -> None:
         key = self.quantity.currentData()
         text = self.value.text().strip()
+        plan = self.session.plan
         try:
             if key in ("note", "mucous_membranes"):
                 value: object = text
+            elif key == "weight_kg":
+                if plan is None:
+                    self.message.setText(
+                        "⚠ A weight is checked against the plan's weight, and there is no plan "
+                        "yet: complete the patient's details first. Nothing was recorded."
+                    )
+                    return
+                value = parse_weight_kg(text, default_unit=self.weight_unit.currentText())
             else:
                 value = float(text.replace(",", "."))
             extra = {"urine_period_h": self.period.value()} if key == "urine_ml" else {}
             observation = Observation(hour=self.hour.value(), **{key: value}, **extra)
+            if plan is not None:
+                check_observation(plan, observation, weight_unit=self.weight_unit.currentText())
         except ValueError:
             self.message.setText(f"⚠ {text!r} is not a number — type digits, e.g. 21.4")
             return
@@ -346,8 +399,9 @@ class CourseView(QWidget):
     def refresh(self, plan) -> None:  # noqa: ANN001 — Plan | None
         observations = list(self.session.observations)
         self._say_if_start_moved(plan, observations)
+        self._follow_species(plan)
         if plan is None:
-            self._show_observations(observations, None)
+            self._show_observations(observations, None, None)
             for curve in (
                 self.plasma_curve,
                 self.interstitial_curve,
@@ -361,12 +415,13 @@ class CourseView(QWidget):
             ):
                 curve.setData([], [])  # fmt: skip
             self.alerts_model.set_rows([])
+            self._count_alerts([])
             return
         self._hour_changed(self.hour.value())  # the date and time follow the plan's start
         # the plan and every observation, within the model's 14 days
         horizon = min(max([plan.end_h] + [o.hour for o in observations]), MAX_HORIZON_H)
         result = course(plan, horizon_h=horizon, step_minutes=5, table=self.session.table)
-        self._show_observations(observations, result)
+        self._show_observations(observations, result, plan)
         h = result.hours
         change = result.change_from_start()
         self.plasma_curve.setData(h, change["plasma"])
@@ -392,10 +447,11 @@ class CourseView(QWidget):
         self.weight_points.setData(*observed_series(observations, "weight_kg"))
         rows = []
         threshold = self.oliguria.value() or None  # 0 shows as the species' default
-        for finding in alerts(
+        found = alerts(
             plan, observations, oliguria_ml_per_kg_h=threshold, table=self.session.table,
             predicted_weight=lambda hour: result.predicted("weight_kg", hour),
-        ):  # fmt: skip
+        )  # fmt: skip
+        for finding in found:
             rows.append(
                 [
                     Cell(SEVERITY_WORDS[finding.severity], finding.code,
@@ -405,8 +461,19 @@ class CourseView(QWidget):
                 ]
             )  # fmt: skip
         self.alerts_model.set_rows(rows)
+        self._count_alerts(found)
         self._show_ins_and_outs(plan, observations)
         self._show_versions(plan)
+
+    def _count_alerts(self, found) -> None:  # noqa: ANN001 — Finding sequence
+        """The Alerts tab's label: how many alerts wait, by severity, worst first."""
+        counts = {s: sum(f.severity == s for f in found) for s in reversed(SEVERITIES)}
+        present = [(s, n) for s, n in counts.items() if n]
+        marks = ", ".join(f"{n} {SEVERITY_MARKS[s]}" for s, n in present)
+        words = ", ".join(f"{n} × {SEVERITY_WORDS[s].lower()}" for s, n in present)
+        index = self.tables.indexOf(self.alerts_page)
+        self.tables.setTabText(index, f"&Alerts ({marks or 'none'})")
+        self.tables.setTabToolTip(index, f"Alerts: {words}" if words else "No alerts")
 
     def _show_ins_and_outs(self, plan, observations) -> None:  # noqa: ANN001
         period = plan.request.ins_and_outs_period_h
@@ -489,14 +556,19 @@ class CourseView(QWidget):
         moment = self.session.plan.moment_at(hour) if self.session.plan else None
         return f"h {hour:g}" if moment is None else f"{moment:%Y-%m-%d %H:%M} (h {hour:g})"
 
-    def _show_observations(self, observations: list[Observation], result) -> None:  # noqa: ANN001
-        """Each measurement, beside what the model predicted for it where it predicts one."""
+    def _show_observations(self, observations: list[Observation], result, plan) -> None:  # noqa: ANN001
+        """Each measurement, beside what the model predicted for it where it predicts one;
+        weights in the unit this species' weight is usually given in."""
+        weight_unit = self._species_weight_unit(plan)
         rows = []
         for obs in observations:
             for key, (label, unit) in QUANTITIES.items():
                 value = getattr(obs, key)
                 if value in (None, ""):
                     continue
+                if key == "weight_kg":
+                    unit = weight_unit
+                    value = weight_in_unit(value, unit)
                 if isinstance(value, int | float):
                     shown = q(float(value), unit) if unit else f"{value:g}"
                     if key == "urine_ml":
@@ -504,6 +576,8 @@ class CourseView(QWidget):
                 else:
                     shown = str(value)
                 predicted = result.predicted(key, obs.hour) if result is not None else None
+                if predicted is not None and key == "weight_kg":
+                    predicted = weight_in_unit(predicted, unit)
                 expected = "—" if predicted is None else q(predicted, unit)
                 rows.append([Cell(self._when(obs.hour)), Cell(label), Cell(shown), Cell(expected)])
         self.observations_model.set_rows(rows)

@@ -218,8 +218,8 @@ def alerts(
             found.append(Finding(
                 severity="hard", code="IMPLAUSIBLE_WEIGHT",
                 message=f"The weight recorded at hour {obs.hour:g}, {measured_text}, is "
-                f"{_how_far(obs.weight_kg, plan.request.weight_kg)} the {entered_text} this "
-                "plan was made for; no alert or re-plan uses it.",
+                f"{_how_far(obs.weight_kg, plan.request.weight_kg)} the plan's weight of "
+                f"{entered_text}; no alert or re-plan uses it.",
                 action="Check the plan's weight and this reading (unit, decimal point); weigh "
                 "the patient and record the weight again.",
             ))  # fmt: skip
