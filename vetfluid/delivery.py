@@ -3,7 +3,10 @@
 * Drip rate (the standard infusion arithmetic taught in every nursing and
   pharmacy text): drops/min = mL/h × drop factor (drops/mL) ÷ 60;
   seconds per drop = 60 ÷ drops/min. Common sets deliver 10, 15, 20 (macro) or
-  60 (micro) drops/mL.
+  60 (micro) drops/mL. A gravity drip's rate is kept to the figures it is shown
+  with, so the drops/min shown are those of the rate shown. Faster than two drops a
+  second drops cannot be counted by eye (common practice, no source); such a drip
+  is timed by the bag's volume marks instead.
 * Syringe pumps are set to 0.1 mL; volumes are rounded to 0.1 mL.
 * A dose drawn up by hand is rounded to the marks of the syringe it fits: 0.01 mL
   below 1 mL (a 1 mL syringe), 0.1 mL above (common practice, no source).
@@ -19,6 +22,8 @@ import math
 from dataclasses import dataclass
 
 from vetfluid.checks import require_number
+from vetfluid.errors import InputError
+from vetfluid.formatting import default_decimals
 
 STANDARD_DROP_FACTORS = (10, 15, 20, 60)
 SYRINGE_STEP_ML = 0.1
@@ -28,6 +33,9 @@ SMALL_SYRINGE_STEP_ML = 0.01
 # stress a small patient less; never shorter than the 6 h SC absorption time.
 DIVIDED_INTERVALS_H = (12.0, 8.0, 6.0)
 MAX_SITES_PER_DOSE = 4  # common practice, no source: more sites per handling is impractical
+# Fastest drip whose drops a nurse can count by eye: two drops a second (common
+# practice, no source). Faster drops blur together and are miscounted.
+COUNTABLE_DROPS_PER_MIN = 120.0
 
 
 def _rate(rate_ml_per_h: float) -> float:
@@ -53,6 +61,26 @@ def seconds_per_drop(rate_ml_per_h: float, drop_factor: float) -> float | None:
     return None if dpm == 0 else 60.0 / dpm
 
 
+def drip_ml_per_h(rate_ml_per_h: float) -> float:
+    """A gravity drip's rate in mL/h to the figures it is shown with
+    (:func:`vetfluid.formatting.default_decimals`: 1 mL/h from 100 mL/h, 0.1 mL/h from
+    10, 0.01 mL/h from 1). Drops are counted from the rate shown, so the plan runs
+    that rate: 229.64 mL/h is set as 230 mL/h = 76.7 drops/min at 20 drops/mL, not
+    shown as 230 mL/h beside the 76.5 drops/min of 229.64 mL/h. This changes the rate
+    by at most 0.5 % from 1 mL/h up, and by at most 5 % below 1 mL/h (two significant
+    figures).
+    """
+    rate = _rate(rate_ml_per_h)
+    return round(rate, default_decimals(rate))
+
+
+def countable(drops_per_min: float) -> bool:
+    """Whether a drip is slow enough to count its drops (at most
+    :data:`COUNTABLE_DROPS_PER_MIN`); faster ones are timed by the bag's volume marks."""
+    require_number(drops_per_min, "drops_per_min", low=0, unit="drops/min")
+    return drops_per_min <= COUNTABLE_DROPS_PER_MIN
+
+
 def syringe_ml(volume_ml: float) -> float:
     """A volume rounded to the 0.1 mL a syringe pump is set to."""
     require_number(volume_ml, "volume_ml", low=0, unit="mL")
@@ -68,6 +96,29 @@ def draw_up_ml(volume_ml: float) -> float:
     require_number(volume_ml, "volume_ml", low=0, unit="mL")
     step = SMALL_SYRINGE_STEP_ML if volume_ml < SMALL_SYRINGE_ML else SYRINGE_STEP_ML
     return round(round(volume_ml / step) * step, 2)
+
+
+@dataclass(frozen=True, kw_only=True)
+class DrawnUpDose:
+    """A divided dose as the nurse gives it: ``sites`` injections of ``ml_per_site``
+    (drawn up to the syringe's marks); ``dose_ml`` is what they add up to."""
+
+    sites: int
+    ml_per_site: float
+    dose_ml: float
+
+
+def drawn_up_dose(*, ml_per_site: float, sites: int) -> DrawnUpDose:
+    """The dose a nurse gives: each site's volume to its syringe's marks
+    (:func:`draw_up_ml`) times the sites, so the dose shown is what the sites add up to
+    (4 sites of 0.56 mL give 2.24 mL, not the 2.25 mL planned)."""
+    if isinstance(sites, bool) or not isinstance(sites, int) or sites < 1:
+        raise InputError(
+            "the number of sites must be a whole number, at least 1",
+            field="sites", value=sites, fix="give 1 or more sites",
+        )  # fmt: skip
+    per_site = draw_up_ml(require_number(ml_per_site, "ml_per_site", low=0, unit="mL"))
+    return DrawnUpDose(sites=sites, ml_per_site=per_site, dose_ml=round(per_site * sites, 2))
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -15,6 +15,10 @@ from vetfluid import delivery
 from vetfluid.errors import InputError
 from vetfluid.formatting import format_quantity
 
+# A drip too fast to count is checked against the bag's marks every 15 min (a bolus:
+# over its own minutes). Common practice, no source.
+MARKS_CHECK_MIN = 15.0
+
 
 @dataclass(frozen=True, kw_only=True)
 class Phase:
@@ -80,11 +84,15 @@ def continuous_phase(
 ) -> Phase:
     """A phase at a constant rate; drops/min for a gravity drip.
 
+    A gravity drip runs the rate to the figures it is shown with
+    (:func:`vetfluid.delivery.drip_ml_per_h`), so its drops/min match the rate shown.
     For a syringe pump the rate is set to 0.1 mL/h and the phase is split into syringe
     fills of at most ``syringe_size_ml`` (volumes to 0.1 mL), each with the hour it
     goes in, so syringe changes stand on the clock.
     """
     fills: tuple[tuple[float, float], ...] = ()
+    if drop_factor:
+        rate_ml_per_h = delivery.drip_ml_per_h(rate_ml_per_h)
     if syringe_size_ml is not None:
         rate_ml_per_h = round(rate_ml_per_h, 1)
         fills = syringe_fills(
@@ -203,32 +211,75 @@ def _ml(value: float | None) -> str:
     return format_quantity(value or 0.0, "mL")
 
 
-def _continuous_action(phase: Phase) -> str:
+def _drip(phase: Phase) -> tuple[str, str]:
+    """How to set a gravity drip, as ``(drops, spacing)``: ``("76.7 drops/min", "1 drop
+    every 0.78 s")``; too fast to count, ``("", how to time it by the bag's volume
+    marks)``; for a pump ``("", "")``."""
+    if phase.drops_per_min is None:
+        return "", ""
+    if delivery.countable(phase.drops_per_min):
+        spacing = (
+            f"1 drop every {format_quantity(phase.seconds_per_drop, 's')}"
+            if phase.seconds_per_drop is not None
+            else "nothing runs"
+        )
+        return format_quantity(phase.drops_per_min, "drops/min"), spacing
+    if phase.kind == "resuscitation":
+        minutes, per = phase.hours * 60, "in"
+    else:
+        minutes, per = MARKS_CHECK_MIN, "every"
+    volume = _ml((phase.rate_ml_per_h or 0.0) * minutes / 60)
+    return "", (
+        "too fast to count drops: set the clamp by the bag's volume marks, "
+        f"{volume} {per} {minutes:.0f} min"
+    )
+
+
+def _continuous_action(phase: Phase, *, bolus_number: int = 1) -> str:
+    """A continuous phase's instruction; a bolus after the first is given only if the
+    patient is still poorly perfused when reassessed."""
     rate = format_quantity(phase.rate_ml_per_h or 0.0, "mL/h")
+    drops, how = _drip(phase)
     if phase.kind == "resuscitation":
         minutes = phase.hours * 60
         fluid = f" of {phase.fluid_name}" if phase.fluid_name else ""
-        drip = (
-            f" = {format_quantity(phase.drops_per_min, 'drops/min')}"
-            if phase.drops_per_min is not None
-            else ""
-        )
-        return (
-            f"Bolus {_ml(phase.volume_ml)}{fluid} {phase.route.upper()} over {minutes:.0f} min "
+        drip = f" = {drops}, {how}" if drops else (f", {how}" if how else "")
+        bolus = (
+            f"{_ml(phase.volume_ml)}{fluid} {phase.route.upper()} over {minutes:.0f} min "
             f"({rate}{drip}); then reassess"
         )
-    action = f"Set {rate}"
-    if phase.drops_per_min is not None:
-        action += f" = {format_quantity(phase.drops_per_min, 'drops/min')}"
-        if phase.seconds_per_drop is not None:
-            action += f" (1 drop every {format_quantity(phase.seconds_per_drop, 's')})"
-    return action + f" until hour {phase.end_h:g} ({_ml(phase.volume_ml)} in this phase)"
+        if bolus_number == 1:
+            return "Bolus " + bolus
+        return "If still poorly perfused at reassessment: bolus " + bolus
+    drip = f" = {drops} ({how})" if drops else (f" ({how})" if how else "")
+    return f"Set {rate}{drip} until hour {phase.end_h:g} ({_ml(phase.volume_ml)} in this phase)"
+
+
+def sites_text(sites: int) -> str:
+    """``1 site`` or ``N sites``."""
+    return f"{sites} site" if sites == 1 else f"{sites} sites"
+
+
+def divided_dose_text(*, ml_per_site: float, sites: int, route: str) -> str:
+    """What the nurse gives at each divided dose, as drawn up
+    (:func:`vetfluid.delivery.drawn_up_dose`): the dose is the sites' volumes added up.
+
+    Keeps its word positions (``Give DOSE mL ROUTE in SITES sites, PER_SITE mL per
+    site``) for readers that split it.
+    """
+    drawn = delivery.drawn_up_dose(ml_per_site=ml_per_site, sites=sites)
+    dose = format_quantity(drawn.dose_ml, "mL", decimals=2)
+    per_site = format_quantity(drawn.ml_per_site, "mL", decimals=2)
+    return f"Give {dose} {route.upper()} in {sites_text(sites)}, {per_site} per site"
 
 
 def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[ScheduleEntry, ...]:
     """The plan on the clock: each phase start and each divided dose (volumes to the
-    syringe's marks, :func:`vetfluid.delivery.draw_up_ml`)."""
+    syringe's marks, :func:`vetfluid.delivery.draw_up_ml`). The first resuscitation
+    bolus is given; each later one only if the patient is still poorly perfused when
+    reassessed (its time stays reserved on the clock)."""
     entries = []
+    boluses = 0
     for phase in phases:
         if phase.syringe_fills:
             rate = format_quantity(phase.rate_ml_per_h or 0.0, "mL/h", decimals=1)
@@ -245,25 +296,23 @@ def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[Sch
                 )  # fmt: skip
             continue
         if phase.mode == "continuous":
+            boluses += phase.kind == "resuscitation"
             entries.append(
                 ScheduleEntry(
                     hour=phase.start_h,
                     clock=clock_time(start, phase.start_h),
                     phase=phase.kind,
-                    action=_continuous_action(phase),
+                    action=_continuous_action(phase, bolus_number=boluses),
                 )
             )
             continue
-        dose = delivery.draw_up_ml(phase.dose_ml or 0.0)
-        per_site = delivery.draw_up_ml(phase.ml_per_site or 0.0)
+        action = divided_dose_text(
+            ml_per_site=phase.ml_per_site or 0.0, sites=phase.sites_per_dose or 1,
+            route=phase.route,
+        )  # fmt: skip
         for hour in phase.dose_hours():
             entries.append(
-                ScheduleEntry(
-                    hour=hour,
-                    clock=clock_time(start, hour),
-                    phase=phase.kind,
-                    action=f"Give {_ml(dose)} {phase.route.upper()} in {phase.sites_per_dose} "
-                    f"site(s), {_ml(per_site)} per site",
-                )
-            )
+                ScheduleEntry(hour=hour, clock=clock_time(start, hour), phase=phase.kind,
+                              action=action)
+            )  # fmt: skip
     return tuple(entries)

@@ -15,10 +15,12 @@ import math
 from html import escape
 
 from vetfluid.cautions import CAUTIONS
+from vetfluid.delivery import DrawnUpDose, drawn_up_dose
+from vetfluid.errors import InputError
 from vetfluid.formatting import format_quantity as q
 from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
-from vetfluid.schedule import clock_time
+from vetfluid.schedule import clock_time, sites_text
 from vetfluid.serialize import plan_dict
 
 SEVERITY_WORDS = {"info": "Note", "soft": "Warning", "hard": "HARD LIMIT"}
@@ -60,8 +62,24 @@ def _planned_at(phases: list[dict], hour: float) -> str:
                 for i in range(p["doses"])
                 if hour <= p["start_h"] + i * p["interval_h"] < hour + 1
             ]
-            parts += [f"dose {q(p['dose_ml'], 'mL')}" for _ in due]
+            parts += [f"dose {_dose_ml(p)}" for _ in due]
     return ", ".join(parts) or "—"
+
+
+def _drawn(p: dict) -> DrawnUpDose:
+    """A divided dose as drawn up, the same figures as the schedule's.
+
+    A plan file whose figures are not numbers is refused with a ValueError, as a file
+    that is not JSON is (``vetfluid sheet`` reports both as a file it cannot read).
+    """
+    try:
+        return drawn_up_dose(ml_per_site=p["ml_per_site"], sites=p["sites_per_dose"])
+    except InputError as err:
+        raise ValueError(f"the {p.get('kind', '')} phase's dose: {err}") from err
+
+
+def _dose_ml(p: dict) -> str:
+    return q(_drawn(p).dose_ml, "mL", decimals=2)
 
 
 def sheet_html(
@@ -209,9 +227,10 @@ def _phase_text(p: dict) -> str:
     span = f"h {p['start_h']:g}–{p['end_h']:g}"
     if p["mode"] == "continuous":
         return f"{span}: {q(p['rate_ml_per_h'], 'mL/h')}, {q(p['volume_ml'], 'mL')}"
+    drawn = _drawn(p)
     return (
-        f"{span}: {q(p['dose_ml'], 'mL')} every {p['interval_h']:g} h × {p['doses']}, "
-        f"{p['sites_per_dose']} site(s)"
+        f"{span}: {_dose_ml(p)} every {p['interval_h']:g} h × {p['doses']}, "
+        f"{sites_text(drawn.sites)} of {q(drawn.ml_per_site, 'mL', decimals=2)}"
     )
 
 
@@ -223,7 +242,7 @@ def _labels(data: dict, name: str, start) -> str:  # noqa: ANN001
         rate = (
             q(p["rate_ml_per_h"], "mL/h")
             if p["mode"] == "continuous"
-            else f"{q(p['dose_ml'], 'mL')} per dose"
+            else f"{_dose_ml(p)} per dose"
         )
         begin = clock_time(start, p["start_h"]) or f"h {p['start_h']:g}"
         discard = clock_time(start, p["start_h"] + DISCARD_AFTER_H) or (
