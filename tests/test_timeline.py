@@ -235,6 +235,21 @@ def test_divided_boluses_step_at_dose_hours(gerbil):
         assert tl.rate_ml_per_h[i] == pytest.approx(phase.dose_ml / phase.interval_h)
 
 
+def test_divided_at_knows_which_hours_run_on_doses(gerbil, dog):
+    tl = timeline(gerbil)
+    assert all(tl.divided_at(h) for h in (0.0, 5.9, 24.0, tl.end_h - 0.1))
+    assert not tl.divided_at(tl.end_h)  # nothing runs after the plan
+    dog_tl = timeline(dog)
+    assert not any(dog_tl.divided_at(h) for h in (0.0, 12.0, dog_tl.end_h - 0.1))
+
+
+def test_overload_line_is_ten_percent_over_the_rehydrated_weight(dog):
+    tl = timeline(dog)
+    # euhydrated = entered + deficit (1 L ≈ 1 kg, Davis 2013); +10 % marks overload (Pardo 2024)
+    assert tl.euhydrated_weight_kg == pytest.approx(tl.baseline_weight_kg + tl.deficit_ml / 1000)
+    assert tl.overload_weight_kg == pytest.approx(tl.euhydrated_weight_kg * 1.10)
+
+
 def test_rate_is_a_step_per_phase_and_zero_after_the_end(dog_shock):
     tl = timeline(dog_shock)
     for phase in dog_shock.phases:

@@ -37,20 +37,22 @@ def curve_arrays(curve):
     return np.asarray(x), np.asarray(y)
 
 
-def assert_draws(view: TimelineView, tl) -> None:
+def assert_draws(view: TimelineView, tl, per_kg: float = 1.0) -> None:
+    """The curves hold the core's arrays; weights in the view's unit (1000 per kg in g)."""
     pairs = (
         (view.rate_curve, tl.rate_ml_per_h),
         (view.given_curve, tl.given_ml),
         (view.needed_curve, tl.needed_ml),
         (view.deficit_curve, tl.remaining_deficit_ml),
-        (view.weight_curve, tl.weight_kg),
+        (view.weight_curve, tl.weight_kg * per_kg),
     )
     for curve, expected in pairs:
         x, y = curve_arrays(curve)
         np.testing.assert_array_equal(x, tl.hours)
         np.testing.assert_array_equal(y, expected)
-    np.testing.assert_array_equal(curve_arrays(view.overload_curve)[1], [tl.overload_weight_kg] * 2)
-    np.testing.assert_array_equal(curve_arrays(view.baseline_curve)[1], [tl.baseline_weight_kg] * 2)
+    overload, baseline = tl.overload_weight_kg * per_kg, tl.baseline_weight_kg * per_kg
+    np.testing.assert_array_equal(curve_arrays(view.overload_curve)[1], [overload] * 2)
+    np.testing.assert_array_equal(curve_arrays(view.baseline_curve)[1], [baseline] * 2)
     np.testing.assert_array_equal(curve_arrays(view.overload_curve)[0], [0, tl.end_h])
 
 
@@ -60,8 +62,9 @@ def test_curves_hold_the_core_arrays(view):
     tl = timeline(plan)
     assert_draws(view, tl)
     assert view.rate_curve.opts["stepMode"] == "right"  # rate[i] holds from hours[i] onward
-    assert "23.54 kg" in view.overload_text.text()
-    assert "+10 %" in view.overload_text.text()
+    # 10 % over the rehydrated weight, 20 kg + 7 % deficit (1.4 L ≈ 1.4 kg), and it says so
+    assert view.overload_text.text() == "overload line: rehydrated 21.4 kg + 10 % = 23.54 kg"
+    assert view.weight_plot.getAxis("left").labelText == "Weight (kg)"
 
 
 def test_updating_keeps_the_same_items_with_new_data(view):
@@ -74,7 +77,11 @@ def test_updating_keeps_the_same_items_with_new_data(view):
     assert [list(plot.listDataItems()) for plot in view.plots] == items  # nothing added, none lost
     assert all(a is b for a, b in zip(view.curves, curves, strict=True))
     tl = timeline(gerbil)
-    assert_draws(view, tl)
+    assert_draws(view, tl, per_kg=1000.0)  # a 70 g gerbil's weight is drawn in grams
+    assert view.weight_plot.getAxis("left").labelText == "Weight (g)"
+    assert view.overload_text.text().endswith(f"= {tl.overload_weight_kg * 1000:.1f} g")
+    low, high = view.weight_plot.vb.viewRange()[1]
+    assert low <= 70 <= high  # the range moved to grams too
     assert curve_arrays(view.given_curve)[1][-1] == pytest.approx(18.49, abs=0.01)
     assert view.rate_plot.titleLabel.text.startswith("Planned rate (divided doses")
 
@@ -96,6 +103,11 @@ def test_hover_read_out_at_an_hour(view):
     assert "rate 169 mL/h" in text and "deficit left 442 mL" in text
     assert "weight 20.96 kg" in text
     assert all(line.value() == 6.0 and line.isVisible() for line in view.hover_lines)
+    gerbil = build_plan(GERBIL)  # on divided doses the rate is an average, and says so
+    view.set_plan(gerbil)
+    view.show_hour(1.0)
+    assert "doses average " in view.readout.text() and "rate " not in view.readout.text()
+    assert "weight 7" in view.readout.text() and view.readout.text().endswith(" g")
 
 
 def test_hover_follows_a_scene_position(view, qtbot):
@@ -129,7 +141,7 @@ def test_no_plan_empties_the_view_and_keeps_its_items(view):
     assert "No plan yet" in view.readout.text()
     assert not any(line.isVisible() for line in view.hover_lines)
     view.set_plan(build_plan(GERBIL))
-    assert_draws(view, timeline(build_plan(GERBIL)))
+    assert_draws(view, timeline(build_plan(GERBIL)), per_kg=1000.0)
 
 
 def test_axes_carry_units_and_clock_time(view):

@@ -27,6 +27,7 @@ from vetfluid.formatting import format_number, format_quantity
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time
 from vetfluid.timeline import Timeline, tick_labels, timeline, values_at
+from vetfluid.units import weight_in_unit
 
 # Our own palette: mid-tone hues legible on a white and on a near-black background.
 RATE_COLOUR = "#3873b8"  # azure
@@ -232,6 +233,7 @@ class TimelineView(QWidget):
         self._ceilings: dict[int, float] = {}  # each value plot's round ceiling
         self._x_end: float | None = None
         self._shown_title = ""
+        self.weight_unit = "kg"  # the species' own unit: a gerbil's weight is drawn in g
 
         self.readout = QLabel(EMPTY_READOUT, self)
         self.readout.setObjectName("timelineReadout")
@@ -355,7 +357,7 @@ class TimelineView(QWidget):
         if plan is None:
             self.clear_timeline()
         else:
-            self.set_timeline(timeline(plan))
+            self.set_timeline(timeline(plan), weight_unit=plan.weight_unit)
 
     def clear_timeline(self) -> None:
         """No plan to draw (e.g. an input is missing): empty curves, keep the items."""
@@ -368,29 +370,37 @@ class TimelineView(QWidget):
         self.readout.setText(EMPTY_READOUT)
         self.setAccessibleDescription(EMPTY_READOUT)
 
-    def set_timeline(self, tl: Timeline) -> None:
-        """Draw a timeline: every curve keeps its item and takes the new arrays."""
+    def set_timeline(self, tl: Timeline, *, weight_unit: str = "kg") -> None:
+        """Draw a timeline: every curve keeps its item and takes the new arrays; weights
+        are drawn and written in ``weight_unit`` (g or kg)."""
         self.timeline = tl
+        if weight_unit != self.weight_unit:
+            self.weight_unit = weight_unit
+            self.weight_plot.setLabel("left", f"Weight ({weight_unit})")
+            self._y_ranges.pop(id(self.weight_plot), None)  # the old range is in the old unit
+        per_kg = weight_in_unit(1.0, weight_unit)
         hours = tl.hours
         self.rate_curve.setData(hours, tl.rate_ml_per_h)
         lines = {
             self.given_curve: tl.given_ml,
             self.needed_curve: tl.needed_ml,
             self.deficit_curve: tl.remaining_deficit_ml,
-            self.weight_curve: tl.weight_kg,
+            self.weight_curve: tl.weight_kg * per_kg,
         }
         corners = turning_mask(hours, *lines.values())  # one pass for the four lines
         for item, values in lines.items():
             item.setData(hours, values, corners)
         ends = [0.0, tl.end_h]
-        self.overload_curve.setData(ends, [tl.overload_weight_kg] * 2)
-        self.baseline_curve.setData(ends, [tl.baseline_weight_kg] * 2)
+        self.overload_curve.setData(ends, [tl.overload_weight_kg * per_kg] * 2)
+        self.baseline_curve.setData(ends, [tl.baseline_weight_kg * per_kg] * 2)
+        # the line is 10 % over the weight once rehydrated, not over the weight entered
         label = (
-            f"overload line: +{format_number(tl.overload_gain_percent)} % = "
-            f"{_weight_text(tl.overload_weight_kg)}"
+            f"overload line: rehydrated {self._weight_text(tl.euhydrated_weight_kg)} "
+            f"+ {format_number(tl.overload_gain_percent)} % = "
+            f"{self._weight_text(tl.overload_weight_kg)}"
         )
         self.overload_text.setText(label)
-        self.overload_text.setPos(tl.end_h, tl.overload_weight_kg)
+        self.overload_text.setPos(tl.end_h, tl.overload_weight_kg * per_kg)
         title = RATE_TITLE_DIVIDED if tl.has_divided_doses else RATE_TITLE
         if title != self._shown_title:
             self._shown_title = title
@@ -407,7 +417,7 @@ class TimelineView(QWidget):
                 float(series.max()), float(tl.needed_ml.max()) if plot is self.plots[1] else 0.0
             )
             self._fit_from_zero(plot, top)
-        self._fit_weight_range(tl)
+        self._fit_weight_range(tl, per_kg)
         margin = X_MARGIN_FRACTION * tl.end_h
         if self._x_end != tl.end_h:
             self._x_end = tl.end_h
@@ -434,15 +444,15 @@ class TimelineView(QWidget):
             self._ceilings[id(plot)] = ceiling
         self._set_y_range(plot, -0.1 * ceiling, ceiling * 1.05)  # room for the 0 label
 
-    def _fit_weight_range(self, tl: Timeline) -> None:
+    def _fit_weight_range(self, tl: Timeline, per_kg: float) -> None:
         """Show the weight, the entered weight and the overload line, with room for its label.
 
         The axis stays where it is while the lines still sit inside it (a tenth of a step
         from the bottom, three quarters of one from the top for the label) and it is
         not much wider than a fresh fit: a weight typed digit by digit does not make the
         whole plot jump, nor redraw its axis, at every keystroke."""
-        low = min(float(tl.weight_kg.min()), tl.baseline_weight_kg)
-        high = max(float(tl.weight_kg.max()), tl.overload_weight_kg)
+        low = min(float(tl.weight_kg.min()), tl.baseline_weight_kg) * per_kg
+        high = max(float(tl.weight_kg.max()), tl.overload_weight_kg) * per_kg
         step = nice_ceiling((high - low) / 4) or 1.0
         bottom = math.floor(low / step) * step - 0.5 * step
         top = math.ceil(high / step) * step + step
@@ -489,25 +499,29 @@ class TimelineView(QWidget):
             when += f", {clock}"
         return f"At {when}:  " + "  ·  ".join(
             (
-                f"rate {format_quantity(values['rate_ml_per_h'], 'mL/h')}",
+                # a divided dose's rate is an average: never to be read as a pump setting
+                ("doses average " if tl is not None and tl.divided_at(values["hour"]) else "rate ")
+                + format_quantity(values["rate_ml_per_h"], "mL/h"),
                 f"given {format_quantity(values['given_ml'], 'mL')}",
                 f"needed {format_quantity(values['needed_ml'], 'mL')}",
                 f"deficit left {format_quantity(values['remaining_deficit_ml'], 'mL')}",
-                f"weight {_weight_text(values['weight_kg'])}",
+                f"weight {self._weight_text(values['weight_kg'])}",
             )
         )
 
-    @staticmethod
-    def _summary(tl: Timeline) -> str:
+    def _weight_text(self, kg: float) -> str:
+        """A weight in the view's unit, to 0.1 g (10 g above 1 kg in kg), so hour-to-hour
+        fluid shifts show."""
+        if self.weight_unit == "g":
+            return format_quantity(weight_in_unit(kg, "g"), "g", decimals=1)
+        return format_quantity(kg, "kg", decimals=4 if abs(kg) < 1 else 2)
+
+    def _summary(self, tl: Timeline) -> str:
         return (
             f"Timeline over {format_quantity(tl.end_h, 'h')}: "
             f"{format_quantity(float(tl.given_ml[-1]), 'mL')} given in all; deficit "
             f"{format_quantity(tl.deficit_ml, 'mL')}; predicted weight from "
-            f"{_weight_text(tl.baseline_weight_kg)} to {_weight_text(float(tl.weight_kg[-1]))}; "
-            f"overload line at {_weight_text(tl.overload_weight_kg)}."
+            f"{self._weight_text(tl.baseline_weight_kg)} to "
+            f"{self._weight_text(float(tl.weight_kg[-1]))}; "
+            f"overload line at {self._weight_text(tl.overload_weight_kg)}."
         )
-
-
-def _weight_text(kg: float) -> str:
-    """A weight to 0.1 g under 1 kg, to 10 g above, so hour-to-hour fluid shifts show."""
-    return format_quantity(kg, "kg", decimals=4 if abs(kg) < 1 else 2)

@@ -136,6 +136,14 @@ def free_water_deficit_ml(
     return tbw_fraction * weight_kg * (serum_na / normal_na - 1.0) * 1000.0
 
 
+def euhydrated_weight_kg(*, weight_kg: float, deficit_ml: float) -> float:
+    """The weight once the deficit is replaced: entered weight + deficit (1 L ≈ 1 kg,
+    Davis 2013)."""
+    _check_weight(weight_kg)
+    require_number(deficit_ml, "deficit_ml", low=0)
+    return weight_kg + deficit_ml / 1000.0
+
+
 def overload_weight_kg(*, weight_kg: float, deficit_ml: float, gain_fraction: float) -> float:
     """The weight that marks overhydration: the euhydrated weight plus ``gain_fraction``.
 
@@ -144,7 +152,5 @@ def overload_weight_kg(*, weight_kg: float, deficit_ml: float, gain_fraction: fl
     entered weight + deficit (1 L ≈ 1 kg, Davis 2013), so replacing the deficit itself is
     never read as overload.
     """
-    _check_weight(weight_kg)
-    require_number(deficit_ml, "deficit_ml", low=0)
     require_number(gain_fraction, "gain_fraction", positive=True, high=1)
-    return (weight_kg + deficit_ml / 1000.0) * (1.0 + gain_fraction)
+    return euhydrated_weight_kg(weight_kg=weight_kg, deficit_ml=deficit_ml) * (1.0 + gain_fraction)

@@ -35,6 +35,7 @@ from vetfluid.ledger import Ledger
 from vetfluid.limits import limit
 from vetfluid.schedule import Phase, ScheduleEntry
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
+from vetfluid.units import preferred_weight_unit
 
 ROUTES = ("iv", "io", "sc", "icoel")
 DEVICES = ("pump", "gravity", "syringe", "divided")
@@ -239,6 +240,16 @@ class Plan:
     @property
     def total_ml_first_24h(self) -> float:
         return sum(p.volume_between(0.0, 24.0) for p in self.phases)
+
+    @property
+    def weight_unit(self) -> str:
+        """g or kg: the unit this species' weight is usually given in (a 65 g gerbil,
+        not 0.065 kg), as the patient form chooses it (units.preferred_weight_unit)."""
+        typical = next(
+            (v.number for v in self.provenance if v.parameter == "body_weight_kg"),
+            self.request.weight_kg,
+        )
+        return preferred_weight_unit(typical)
 
     @property
     def has_hard_limit(self) -> bool:

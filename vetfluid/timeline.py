@@ -37,6 +37,7 @@ from datetime import time
 
 import numpy as np
 
+from vetfluid import hydration
 from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.formatting import format_quantity
@@ -89,6 +90,21 @@ class Timeline:
     @property
     def end_h(self) -> float:
         return float(self.hours[-1])
+
+    @property
+    def euhydrated_weight_kg(self) -> float:
+        """The entered weight plus the deficit: what the overload line is 10 % above."""
+        return hydration.euhydrated_weight_kg(
+            weight_kg=self.baseline_weight_kg, deficit_ml=self.deficit_ml
+        )
+
+    def divided_at(self, hour: float) -> bool:
+        """True when the phase running at ``hour`` gives divided doses (its rate is an
+        average, not a pump setting)."""
+        return any(
+            span.mode == "intermittent" and span.start_h <= hour < span.end_h
+            for span in self.phase_spans
+        )
 
     @property
     def has_divided_doses(self) -> bool:
