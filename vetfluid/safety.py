@@ -497,8 +497,15 @@ def check_isotonic_maintenance(
         ledger.add(
             "info",
             "ISOTONIC_FOR_MAINTENANCE",
-            f"{fluid_name} is an isotonic replacement fluid (Na {q(fluid_na, 'mmol/L')}); this "
-            f"plan runs it for {running_h:g} h, the last {maintenance_h:g} h as maintenance.",
+            # "replacement fluid", not "isotonic": against this species' plasma the Totals
+            # may call the same fluid hypotonic in the body
+            f"{fluid_name} is a replacement fluid, near plasma in sodium (Na "
+            f"{q(fluid_na, 'mmol/L')}); this plan runs it for {running_h:g} h, "
+            + (
+                "all of it as maintenance."
+                if maintenance_h >= running_h
+                else f"the last {maintenance_h:g} h as maintenance."
+            ),
             "For maintenance beyond a day consider a hypotonic maintenance fluid with potassium.",
             "pardo2024",
         )
