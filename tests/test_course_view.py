@@ -249,6 +249,13 @@ def test_a_weight_is_recorded_in_the_unit_chosen_beside_it(qtbot, dragon):
     assert view.observations_model.text(0, 2) == "352 g"
     assert view.observations_model.text(0, 3).endswith(" g")  # the prediction, in g too
     assert view.value.text() == "" and view.message.text() == ""
+    # the plot draws weights in g too
+    assert view.weight_plot.getAxis("left").labelText == "Weight (g)"
+    x, y = view.weight_points.getData()
+    assert list(x) == [2] and list(y) == [pytest.approx(352)]
+    x, y = view.weight_curve.getData()
+    expected = course(dragon.session.plan, step_minutes=5)
+    assert np.allclose(y, expected.weight_kg[: len(y)] * 1000)
 
 
 def test_grams_typed_with_kilograms_chosen_are_refused_with_both_weights(qtbot, dragon):

@@ -199,3 +199,11 @@ def test_an_implausible_recorded_weight_is_a_hard_alert_and_nothing_else(lizard)
     assert codes(found) == {"IMPLAUSIBLE_WEIGHT"}
     assert found[0].severity == "hard"
     assert "352 kg" in found[0].message and "350 g" in found[0].message
+
+
+def test_a_small_patients_overload_alert_speaks_in_grams(lizard):
+    # Pardo 2024: the line is 10 % over the rehydrated weight (350 g + 5 % deficit)
+    line_g = (0.35 + lizard.deficit_ml / 1000) * 1.1 * 1000
+    found = alerts(lizard, [Observation(hour=8, weight_kg=line_g / 1000 + 0.005)])
+    overload = next(f for f in found if f.code == "OBSERVED_OVERLOAD")
+    assert f"{line_g + 5:.0f} g" in overload.message and " kg" not in overload.message

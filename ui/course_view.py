@@ -55,7 +55,7 @@ from vetfluid.observations import (
     observed_series,
 )
 from vetfluid.schedule import hours_since
-from vetfluid.units import WEIGHT_UNITS, parse_weight_kg, preferred_weight_unit, weight_in_unit
+from vetfluid.units import WEIGHT_UNITS, parse_weight_kg, weight_in_unit
 
 # What can be recorded: field → (label, unit); a weight is typed and shown in a chosen unit
 QUANTITIES = {
@@ -153,6 +153,7 @@ class CourseView(QWidget):
         self.volume_plot = self._plot(0, "Body water: change from the start", "Change (mL)")
         self.na_plot = self._plot(1, "Serum sodium", "Na (mmol/L)")
         self.weight_plot = self._plot(2, "Body weight", "Weight (kg)", hours=True)
+        self._plotted_weight_unit = "kg"
         for plot in (self.na_plot, self.weight_plot):
             plot.setXLink(self.volume_plot)
         dash = Qt.PenStyle.DashLine
@@ -336,20 +337,13 @@ class CourseView(QWidget):
         self.period.setVisible(self.quantity.currentData() == "urine_ml")
         self.weight_unit.setVisible(self.quantity.currentData() == "weight_kg")
 
-    def _species_weight_unit(self, plan) -> str:  # noqa: ANN001 — Plan | None
-        """The unit this patient's weight is usually given in (as on the patient form)."""
-        if plan is None:
-            return "kg"
-        typical = self.session.table.value(plan.request.species_id, "body_weight_kg")
-        return preferred_weight_unit(typical.number)
-
     def _follow_species(self, plan) -> None:  # noqa: ANN001 — Plan | None
-        """A new species starts the unit chooser at its usual unit; a choice made for this
-        species is left alone."""
+        """A new species starts the unit chooser at the unit its weight is usually given in
+        (``Plan.weight_unit``, as on the patient form); a choice made for it is left alone."""
         sid = plan.request.species_id if plan is not None else None
         if sid is not None and sid != self._unit_species:
             self._unit_species = sid
-            self.weight_unit.setCurrentText(self._species_weight_unit(plan))
+            self.weight_unit.setCurrentText(plan.weight_unit)
 
     # ---- user actions ------------------------------------------------------------------------
     def record(self) -> None:
@@ -443,8 +437,14 @@ class CourseView(QWidget):
         if self.na_plot.titleLabel.text != title:  # setting a title relays out the plot
             self.na_plot.setTitle(title)
         self.na_points.setData(*observed_series(observations, "serum_na"))
-        self.weight_curve.setData(h, result.weight_kg)
-        self.weight_points.setData(*observed_series(observations, "weight_kg"))
+        # weights drawn in the species' own unit (a lizard in g), as in the table below
+        if plan.weight_unit != self._plotted_weight_unit:
+            self._plotted_weight_unit = plan.weight_unit
+            self.weight_plot.setLabel("left", f"Weight ({plan.weight_unit})")
+        per_kg = weight_in_unit(1.0, plan.weight_unit)
+        self.weight_curve.setData(h, result.weight_kg * per_kg)
+        hours, weights_kg = observed_series(observations, "weight_kg")
+        self.weight_points.setData(hours, weights_kg * per_kg)
         rows = []
         threshold = self.oliguria.value() or None  # 0 shows as the species' default
         found = alerts(
@@ -533,7 +533,7 @@ class CourseView(QWidget):
     def _version_row(number: int, plan, status: str) -> list[Cell]:  # noqa: ANN001
         return [
             Cell(str(number)),
-            Cell(q(plan.request.weight_kg, "kg")),
+            Cell(q(weight_in_unit(plan.request.weight_kg, plan.weight_unit), plan.weight_unit)),
             Cell(f"{plan.dehydration_percent:g} % → {q(plan.deficit_ml, 'mL')}"),
             Cell(q(plan.total_ml_first_24h, "mL")),
             Cell(status),
@@ -559,7 +559,7 @@ class CourseView(QWidget):
     def _show_observations(self, observations: list[Observation], result, plan) -> None:  # noqa: ANN001
         """Each measurement, beside what the model predicted for it where it predicts one;
         weights in the unit this species' weight is usually given in."""
-        weight_unit = self._species_weight_unit(plan)
+        weight_unit = plan.weight_unit if plan is not None else "kg"
         rows = []
         for obs in observations:
             for key, (label, unit) in QUANTITIES.items():

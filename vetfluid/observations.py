@@ -207,6 +207,11 @@ def alerts(
     na_limit = plan.request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
     last_na: Observation | None = None
     latest_weight = plan.request.weight_kg
+    unit = plan.weight_unit  # weights in the unit this species' weight is given in
+
+    def shown(weight_kg: float) -> str:
+        return q(weight_in_unit(weight_kg, unit), unit)
+
     for obs in ordered:
         if obs.weight_kg is not None and not weight_is_plausible(
             measured_kg=obs.weight_kg, entered_kg=plan.request.weight_kg
@@ -228,8 +233,8 @@ def alerts(
             if obs.weight_kg >= line:
                 found.append(Finding(
                     severity="soft", code="OBSERVED_OVERLOAD",
-                    message=f"At hour {obs.hour:g} the patient weighs {q(obs.weight_kg, 'kg')}, "
-                    f"at or above the overload line of {q(line, 'kg')}.",
+                    message=f"At hour {obs.hour:g} the patient weighs {shown(obs.weight_kg)}, "
+                    f"at or above the overload line of {shown(line)}.",
                     action="Stop or slow the fluids, examine for overload and re-plan.",
                     source_id=gain.source_id,
                 ))  # fmt: skip
