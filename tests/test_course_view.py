@@ -320,3 +320,12 @@ def test_replan_refuses_a_weight_recorded_before_the_plans_weight_changed(qtbot,
     view.replan()
     assert "no new plan" in view.message.text() and "24.5 kg" in view.message.text()
     assert window.session.plan is before and window.session.versions == []
+
+
+def test_without_a_plan_a_weight_is_not_recorded_unchecked(qtbot, window):
+    view = window.course_view
+    window.session.update(weight_kg=None)  # the patient's weight was cleared on the form
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    type_weight(qtbot, view, 2, "24.5")
+    assert "no plan yet" in view.message.text() and "Nothing was recorded" in view.message.text()
+    assert window.session.observations == [] and view.value.text() == "24.5"
