@@ -18,7 +18,12 @@ from vetfluid import delivery
 from vetfluid.demos import DEMOS
 from vetfluid.errors import InputError
 from vetfluid.plan import build_plan
-from vetfluid.schedule import continuous_phase, intermittent_phase, schedule_entries
+from vetfluid.schedule import (
+    continuous_phase,
+    intermittent_phase,
+    rate_or_dose_text,
+    schedule_entries,
+)
 from vetfluid.serialize import plan_dict
 from vetfluid.sheet import sheet_html
 
@@ -218,3 +223,20 @@ def test_sheet_refuses_a_plan_file_with_a_dose_that_is_not_a_number():
     data["phases"][0]["ml_per_site"] = None
     with pytest.raises(ValueError, match="replacement phase's dose"):
         sheet_html(data)
+
+
+def test_phase_summaries_give_the_figures_the_schedule_gives():
+    """The window's phase table and the schedule must not disagree (3.39 vs 3.42 mL)."""
+    gerbil = build_plan(DEMOS["small_gerbil"].request)
+    # per site 3.39 / 6 = 0.565 → 0.57 mL (0.01 mL marks); 6 × 0.57 = 3.42 mL
+    assert rate_or_dose_text(gerbil.phases[0]) == "3.42 mL every 6 h × 4, 6 sites of 0.57 mL"
+    assert "3.42 mL" in gerbil.schedule[0].action
+    told = next(f.message for f in gerbil.findings if f.code == "DIVIDED_TOO_MANY_SITES")
+    assert "3.42 mL" in told and "0.57 mL" in told  # the finding quotes the same figures
+    assert rate_or_dose_text(_bolus(0, drop_factor=20)) == "1440 mL/h (too fast to count drops)"
+    phase, action = _drip(140, 20)  # 140 × 20 / 60 = 46.67 drops/min
+    assert rate_or_dose_text(phase) == "140 mL/h = 46.7 drops/min"
+    assert "46.7 drops/min" in action
+    pump = continuous_phase(kind="replacement", start_h=0, end_h=12, rate_ml_per_h=140,
+                            route="iv", drop_factor=None, kcl_mmol_per_l=0.0)  # fmt: skip
+    assert rate_or_dose_text(pump) == "140 mL/h"

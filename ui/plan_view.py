@@ -34,6 +34,7 @@ from vetfluid.delivery import STANDARD_DROP_FACTORS
 from vetfluid.formatting import format_quantity as q
 from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
+from vetfluid.schedule import rate_or_dose_text
 from vetfluid.serialize import fluid_dict
 
 ROUTE_CHOICES = (
@@ -440,19 +441,10 @@ class PlanSummary(QWidget):
 
 
 def _phase_row(p) -> list[Cell]:  # noqa: ANN001 — vetfluid.schedule.Phase
-    if p.mode == "continuous":
-        dose = q(p.rate_ml_per_h or 0.0, "mL/h")
-        if p.drops_per_min is not None:
-            dose += f" = {q(p.drops_per_min, 'drops/min')}"
-    else:
-        dose = (
-            f"{q(p.dose_ml or 0.0, 'mL')} every {p.interval_h:g} h × {p.doses}, "
-            f"{p.sites_per_dose} site(s)"
-        )
     return [
         Cell(p.kind, p.note),
         Cell(f"{p.start_h:g}–{p.end_h:g}"),
-        Cell(dose),
+        Cell(rate_or_dose_text(p)),
         Cell(q(p.volume_ml, "mL")),
         Cell(p.route.upper()),
     ]

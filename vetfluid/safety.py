@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-from vetfluid import fluids
+from vetfluid import delivery, fluids
 from vetfluid.delivery import DIVIDED_INTERVALS_H
 from vetfluid.electrolytes import PotassiumSummary, SodiumSummary
 from vetfluid.formatting import format_quantity as q
@@ -285,12 +285,16 @@ def check_divided_sites(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
             break
     for phase in phases:
         if phase.mode == "intermittent" and not phase.fits_sites:
+            # the figures the schedule gives: as drawn up, so the two never disagree
+            drawn = delivery.drawn_up_dose(
+                ml_per_site=phase.ml_per_site or 0.0, sites=phase.sites_per_dose
+            )
             ledger.add(
                 "soft",
                 "DIVIDED_TOO_MANY_SITES",
-                f"Each {phase.route.upper()} {phase.kind} dose of {q(phase.dose_ml or 0.0, 'mL')} "
-                f"needs {phase.sites_per_dose} sites at {q(phase.ml_per_site or 0.0, 'mL')} "
-                "per site.",
+                f"Each {phase.route.upper()} {phase.kind} dose of "
+                f"{q(drawn.dose_ml, 'mL', decimals=2)} needs {drawn.sites} sites at "
+                f"{q(drawn.ml_per_site, 'mL', decimals=2)} per site.",
                 "Replace the deficit over a longer period, or place an IO/IV line.",
             )
             return

@@ -235,6 +235,24 @@ def _drip(phase: Phase) -> tuple[str, str]:
     )
 
 
+def rate_or_dose_text(phase: Phase) -> str:
+    """A phase's rate or dose in a few words, with the figures the schedule gives:
+    ``140 mL/h = 46.7 drops/min``, ``1440 mL/h (too fast to count drops)``, or a divided
+    dose as drawn up, ``3.42 mL every 6 h × 4, 6 sites of 0.57 mL``."""
+    if phase.mode == "continuous":
+        rate = format_quantity(phase.rate_ml_per_h or 0.0, "mL/h")
+        drops, how = _drip(phase)
+        if drops:
+            return f"{rate} = {drops}"
+        return f"{rate} (too fast to count drops)" if how else rate
+    drawn = delivery.drawn_up_dose(ml_per_site=phase.ml_per_site or 0.0, sites=phase.sites_per_dose)
+    return (
+        f"{format_quantity(drawn.dose_ml, 'mL', decimals=2)} every {phase.interval_h:g} h "
+        f"× {phase.doses}, {sites_text(drawn.sites)} of "
+        f"{format_quantity(drawn.ml_per_site, 'mL', decimals=2)}"
+    )
+
+
 def _continuous_action(phase: Phase, *, bolus_number: int = 1) -> str:
     """A continuous phase's instruction; a bolus after the first is given only if the
     patient is still poorly perfused when reassessed."""
