@@ -298,6 +298,7 @@ def test_every_printed_page_carries_the_cautions(qtbot, tmp_path, monkeypatch):
 
     import ui.printing
     from vetfluid.cautions import SHORT_CAUTION
+    from vetfluid.sheet import BLOCKED_MARK
 
     footers = []
 
@@ -316,6 +317,25 @@ def test_every_printed_page_carries_the_cautions(qtbot, tmp_path, monkeypatch):
     assert len(footers) == pages
     assert all(SHORT_CAUTION in text for text in footers)
     assert footers[-1].endswith(f"Page {pages} of {pages}")
+
+    # a plan with a hard limit says so at the foot of every page, pages get separated
+    footers.clear()
+    pages = ui.printing.print_sheet(long_sheet, printer, mark=BLOCKED_MARK)
+    assert len(footers) == pages and all(t.startswith(f"✖ {BLOCKED_MARK}") for t in footers)
+
+
+def test_a_blocked_plan_prints_as_not_to_be_given(qtbot, window):
+    from vetfluid.sheet import BLOCKED_MARK, plan_sheet_html
+
+    window.open_demo("cold_bearded_dragon")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "bearded_dragon")
+    assert BLOCKED_MARK not in plan_sheet_html(window.session.plan)
+    window.patient.unit_box.setCurrentText("kg")
+    window.patient.weight_edit.setText("380")  # the gram/kilogram slip: a hard limit
+    window.patient._weight_changed()
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.weight_kg == 380)
+    html = plan_sheet_html(plan)
+    assert BLOCKED_MARK in html and "far outside the usual" in html
 
 
 def test_window_remembers_its_size(qtbot, window, vetfluid_home):

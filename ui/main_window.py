@@ -570,12 +570,13 @@ class MainWindow(QMainWindow):
 
     def print_to(self, printer) -> None:  # noqa: ANN001 — QPrinter
         from ui.printing import print_sheet
-        from vetfluid.sheet import plan_sheet_html
+        from vetfluid.sheet import BLOCKED_MARK, plan_sheet_html
 
+        plan = self.session.plan
         html = plan_sheet_html(
-            self.session.plan, acknowledged=self.session.acknowledged, ready=self.session.ready
+            plan, acknowledged=self.session.acknowledged, ready=self.session.ready
         )
-        print_sheet(html, printer)
+        print_sheet(html, printer, mark=BLOCKED_MARK if plan.has_hard_limit else "")
 
     def print_preview(self) -> None:
         from ui.printing import show_print_preview

@@ -10,8 +10,10 @@ from vetfluid.cautions import SHORT_CAUTION
 FOOTER_LINES = 2
 
 
-def print_sheet(html: str, printer) -> int:  # noqa: ANN001 — QPrinter
-    """Lay the sheet out on the printer's pages; returns the number of pages printed."""
+def print_sheet(html: str, printer, *, mark: str = "") -> int:  # noqa: ANN001 — QPrinter
+    """Lay the sheet out on the printer's pages; returns the number of pages printed.
+    ``mark`` (a plan with a hard limit: :func:`vetfluid.sheet.page_mark`) heads every
+    page's footer."""
     painter = QPainter()
     if not painter.begin(printer):
         raise OSError("the printer could not be opened")
@@ -35,6 +37,7 @@ def print_sheet(html: str, printer) -> int:  # noqa: ANN001 — QPrinter
             )
             painter.restore()
             footer = QRectF(0, body.height(), page.width(), footer_height)
+            foot = f"{SHORT_CAUTION}.  Page {number + 1} of {pages}"
             painter.drawText(
                 footer,
                 int(
@@ -42,7 +45,7 @@ def print_sheet(html: str, printer) -> int:  # noqa: ANN001 — QPrinter
                     | Qt.AlignmentFlag.AlignLeft
                     | Qt.TextFlag.TextWordWrap
                 ),
-                f"{SHORT_CAUTION}.  Page {number + 1} of {pages}",
+                f"✖ {mark}.  {foot}" if mark else foot,
             )
         return pages
     finally:
@@ -70,8 +73,9 @@ def show_print_preview(parent, paint) -> None:  # noqa: ANN001 — QWidget, call
 PAGE_SIZES = {"a4": "A4", "letter": "Letter"}
 
 
-def print_sheet_to_pdf(html: str, path, *, page: str = "a4") -> int:  # noqa: ANN001
-    """Write the sheet as a PDF on A4 or US Letter; returns the number of pages."""
+def print_sheet_to_pdf(html: str, path, *, page: str = "a4", mark: str = "") -> int:  # noqa: ANN001
+    """Write the sheet as a PDF on A4 or US Letter (``mark`` as in :func:`print_sheet`);
+    returns the number of pages."""
     from PySide6.QtGui import QPageSize
     from PySide6.QtPrintSupport import QPrinter
 
@@ -82,4 +86,4 @@ def print_sheet_to_pdf(html: str, path, *, page: str = "a4") -> int:  # noqa: AN
     printer.setOutputFileName(str(path))
     size = QPageSize.PageSizeId.A4 if page == "a4" else QPageSize.PageSizeId.Letter
     printer.setPageSize(QPageSize(size))
-    return print_sheet(html, printer)
+    return print_sheet(html, printer, mark=mark)

@@ -82,6 +82,26 @@ def _dose_ml(p: dict) -> str:
     return q(_drawn(p).dose_ml, "mL", decimals=2)
 
 
+BLOCKED_MARK = "HARD LIMIT — NOT TO BE GIVEN AS IT STANDS"
+
+
+def page_mark(data: dict) -> str:
+    """What every printed page of a plan with a hard limit says beside the cautions
+    (pages get separated; the first page's warning alone is not enough)."""
+    return BLOCKED_MARK if data.get("hard_limit") else ""
+
+
+def _blocked_html(data: dict) -> str:
+    hard = [f["message"] for f in data.get("findings", ()) if f.get("severity") == "hard"]
+    if not data.get("hard_limit"):
+        return ""
+    return (
+        f"<p><b>✖ {BLOCKED_MARK}.</b> "
+        + escape(" ".join(hard))
+        + " The hard limits and what to do are listed under Findings.</p>"
+    )
+
+
 def sheet_html(
     data: dict,
     *,
@@ -105,6 +125,7 @@ def sheet_html(
             + "".join(f" · {k}: {v}" for k, v in patient.items() if k != "name" and v)
         )
         + f"<br>Status: {'marked ready' if ready else 'NOT marked ready'}</p>",
+        _blocked_html(data),
         "<p><b>Cautions:</b> " + escape(" ".join(CAUTIONS)) + "</p>",
         "<h3>Plan</h3>",
         table_html(
