@@ -329,3 +329,12 @@ def test_without_a_plan_a_weight_is_not_recorded_unchecked(qtbot, window):
     type_weight(qtbot, view, 2, "24.5")
     assert "no plan yet" in view.message.text() and "Nothing was recorded" in view.message.text()
     assert window.session.observations == [] and view.value.text() == "24.5"
+
+
+def test_a_urine_volume_with_a_thousands_comma_is_refused_not_read_as_a_decimal(window):
+    view = window.course_view
+    record(view, 6, "urine_ml", "1,500", period=6)  # 1500 mL or 1.5 mL? never guessed
+    assert "ambiguous" in view.message.text() and "1500" in view.message.text()
+    assert window.session.observations == []
+    record(view, 6, "urine_ml", "150,5", period=6)  # a decimal comma is fine
+    assert window.session.observations[-1].urine_ml == 150.5

@@ -24,6 +24,7 @@ from vetfluid.units import (
     mmol_per_l_to_mg_per_dl,
     molar_mass_g_per_mol,
     parse_weight_kg,
+    read_decimal,
     umol_per_l_to_mg_per_dl,
 )
 
@@ -437,3 +438,31 @@ def test_format_quantity_always_shows_the_unit(value, unit):
     number, shown_unit = text.split(" ", 1)
     assert shown_unit == unit
     _assert_safe(number)
+
+
+# ---- read_decimal: numbers typed in fields -------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [("7.5", 7.5), ("7,5", 7.5), (" 12 ", 12.0), ("", None), ("  ", None), ("0,25", 0.25)],
+)
+def test_read_decimal_accepts_a_decimal_comma(text, expected):
+    assert read_decimal(text) == expected
+
+
+@pytest.mark.parametrize("text", ["1,500", "12,000", "-1,250"])
+def test_read_decimal_refuses_a_thousands_or_decimal_comma(text):
+    # "1,500 mL" of urine is 1500 mL with a thousands separator, 1.5 mL with a decimal
+    # comma: a thousandfold difference, so it is refused with both readings offered
+    with pytest.raises(InputError) as err:
+        read_decimal(text, field="urine_ml")
+    assert "ambiguous" in err.value.message and err.value.field == "urine_ml"
+    assert text.replace(",", "") in err.value.fix and text.replace(",", ".") in err.value.fix
+
+
+@pytest.mark.parametrize("text", ["abc", "nan", "inf", "7.5.1", "1,5,0"])
+def test_read_decimal_refuses_what_is_not_a_number(text):
+    with pytest.raises(InputError) as err:
+        read_decimal(text)
+    assert err.value.fix

@@ -373,6 +373,18 @@ def test_clearing_losses_means_none_not_an_error(qtbot, window):
     wait_for_plan(qtbot, window, lambda p: p.request.losses_ml_per_day == 0)
 
 
+def test_a_number_with_a_thousands_comma_is_refused_in_every_field(qtbot, window):
+    window.open_demo("dehydrated_dog")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
+    window.patient.losses_field.setText("1,200")  # 1200 mL/day or 1.2? never guessed
+    window.patient.losses_field.commit()
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    assert "ambiguous" in window.summary.problem.text()
+    window.patient.losses_field.setText("1200")
+    window.patient.losses_field.commit()
+    wait_for_plan(qtbot, window, lambda p: p.request.losses_ml_per_day == 1200)
+
+
 def test_a_bad_reptile_temperature_does_not_follow_the_patient_to_a_dog(qtbot, window):
     window.open_demo("cold_bearded_dragon")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "bearded_dragon")

@@ -55,7 +55,7 @@ from vetfluid.observations import (
     observed_series,
 )
 from vetfluid.schedule import hours_since
-from vetfluid.units import WEIGHT_UNITS, parse_weight_kg, weight_in_unit
+from vetfluid.units import WEIGHT_UNITS, parse_weight_kg, read_decimal, weight_in_unit
 
 # What can be recorded: field → (label, unit); a weight is typed and shown in a chosen unit
 QUANTITIES = {
@@ -362,7 +362,9 @@ class CourseView(QWidget):
                     return
                 value = parse_weight_kg(text, default_unit=self.weight_unit.currentText())
             else:
-                value = float(text.replace(",", "."))
+                value = read_decimal(text, field=key)  # "1,500" mL is refused, not read as 1.5
+                if value is None:
+                    raise ValueError(text)
             extra = {"urine_period_h": self.period.value()} if key == "urine_ml" else {}
             observation = Observation(hour=self.hour.value(), **{key: value}, **extra)
             if plan is not None:

@@ -29,7 +29,13 @@ from ui.session import PlanSession
 from vetfluid.errors import InputError
 from vetfluid.formatting import format_number, format_quantity
 from vetfluid.hydration import estimate_dehydration, load_findings
-from vetfluid.units import WEIGHT_UNITS, parse_weight_kg, preferred_weight_unit, weight_in_unit
+from vetfluid.units import (
+    WEIGHT_UNITS,
+    parse_weight_kg,
+    preferred_weight_unit,
+    read_decimal,
+    weight_in_unit,
+)
 
 # Optional numeric inputs: request field → (label, unit, placeholder, tooltip)
 LAB_FIELDS = {
@@ -52,17 +58,6 @@ FLAG_FIELDS = {
     "renal_disease": "Renal disease",
     "anaesthesia": "Under anaesthesia",
 }
-
-
-def read_optional_number(text: str) -> float | None:
-    """The number typed in a field (decimal comma accepted), None when empty."""
-    cleaned = text.strip().replace(",", ".")
-    if not cleaned:
-        return None
-    try:
-        return float(cleaned)
-    except ValueError:
-        raise InputError("not a number", value=text, fix="type digits, e.g. 7.5") from None
 
 
 def compact(box: QComboBox, characters: int) -> None:
@@ -110,7 +105,7 @@ class NumberField(QLineEdit):
 
     def commit(self) -> None:
         try:
-            value = read_optional_number(self.text())
+            value = read_decimal(self.text(), field=self.name)
         except InputError as exc:
             _mark(self, f"{exc.message} — {exc.fix}")
             label = self.property("helpText")

@@ -22,6 +22,37 @@ _WEIGHT_UNITS = {"g": 1e-3, "kg": 1.0, "lb": KG_PER_LB, "lbs": KG_PER_LB, "mg": 
 _WEIGHT_PATTERN = re.compile(r"^\s*([0-9]*[.,]?[0-9]+(?:[eE][-+]?\d+)?)\s*([a-zA-Z]*)\s*$")
 
 
+_THOUSANDS_OR_DECIMAL = re.compile(r"[-+]?\d{1,3},\d{3}")
+
+
+def _not_ambiguous(digits: str, text: object, field: str, unit: str = "") -> None:
+    """ "1,500" may mean 1500 (thousands) or 1.5 (decimal comma): never guess."""
+    if _THOUSANDS_OR_DECIMAL.fullmatch(digits):
+        plain, decimal = digits.replace(",", ""), digits.replace(",", ".")
+        raise InputError(
+            "this number is ambiguous",
+            field=field,
+            value=text,
+            fix=f"write {plain} or {decimal}{unit}, without a thousands separator",
+        )
+
+
+def read_decimal(text: str, *, field: str = "value") -> float | None:
+    """The number typed in a field (a decimal comma is accepted: ``7,5`` is 7.5), None
+    when empty. ``1,500`` is refused as ambiguous (thousands or decimal?), never guessed."""
+    cleaned = str(text).strip()
+    if not cleaned:
+        return None
+    _not_ambiguous(cleaned, text, field)
+    try:
+        number = float(cleaned.replace(",", "."))
+    except ValueError:
+        number = math.nan  # "abc" and "nan" get the same message
+    if not math.isfinite(number):
+        raise InputError("not a number", field=field, value=text, fix="type digits, e.g. 7.5")
+    return number
+
+
 def parse_weight_kg(text: str | float | int, *, default_unit: str | None = None) -> float:
     """Body weight in kg from text such as ``"350 g"``, ``"0.35 kg"``, ``"4.2 lb"``, ``"20kg"``.
 
@@ -48,15 +79,7 @@ def parse_weight_kg(text: str | float | int, *, default_unit: str | None = None)
             fix='write a number and a unit, e.g. "350 g", "0.35 kg", "4.2 lb"',
         )
     digits = match.group(1)
-    if re.fullmatch(r"\d{1,3},\d{3}", digits):
-        # "1,500 g" may mean 1500 g (thousands) or 1.5 g (decimal comma): never guess
-        raise InputError(
-            "this weight is ambiguous",
-            field="weight",
-            value=text,
-            fix=f"write {digits.replace(',', '')} or {digits.replace(',', '.')} with its unit, "
-            "without a thousands separator",
-        )
+    _not_ambiguous(digits, text, "weight", " with its unit")
     number = float(digits.replace(",", "."))
     unit = (match.group(2) or default_unit or "").lower()
     if not unit:
