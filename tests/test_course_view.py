@@ -338,3 +338,26 @@ def test_a_urine_volume_with_a_thousands_comma_is_refused_not_read_as_a_decimal(
     assert window.session.observations == []
     record(view, 6, "urine_ml", "150,5", period=6)  # a decimal comma is fine
     assert window.session.observations[-1].urine_ml == 150.5
+
+
+def test_a_mistyped_observation_can_be_removed_after_a_question(window, monkeypatch):
+    from PySide6.QtWidgets import QMessageBox
+
+    view = window.course_view
+    record(view, 2, "serum_na", 150)
+    record(view, 4, "urine_ml", 40, period=4)
+    assert len(window.session.observations) == 2
+    assert not view.remove_button.isEnabled()  # nothing selected yet
+    view.observations_view.selectRow(1)  # the urine row (rows follow the hours)
+    assert view.remove_button.isEnabled()
+    asked = []
+    monkeypatch.setattr(
+        QMessageBox, "question", lambda *a: asked.append(a[2]) or QMessageBox.StandardButton.No
+    )
+    view.remove_selected()
+    assert len(window.session.observations) == 2  # "No" keeps it
+    assert "Urine" in asked[0] and "40 mL" in asked[0]
+    monkeypatch.setattr(QMessageBox, "question", lambda *a: QMessageBox.StandardButton.Yes)
+    view.remove_selected()
+    assert [o.serum_na for o in window.session.observations] == [150]
+    assert view.observations_model.rowCount() == 1 and "Removed" in view.message.text()

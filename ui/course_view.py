@@ -20,6 +20,7 @@ from PySide6.QtWidgets import (
     QHeaderView,
     QLabel,
     QLineEdit,
+    QMessageBox,
     QPushButton,
     QSpinBox,
     QSplitter,
@@ -206,6 +207,8 @@ class CourseView(QWidget):
                 page_layout.addLayout(self._ins_outs_controls())
             if model is self.alerts_model:
                 page_layout.addLayout(self._alert_controls())
+            if model is self.observations_model:
+                page_layout.addLayout(self._observation_controls())
             view = QTableView()
             view.setModel(model)
             view.setAccessibleName(name.replace("&", ""))
@@ -222,6 +225,11 @@ class CourseView(QWidget):
                 view.verticalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
             page_layout.addWidget(view)
             bottom.addTab(page, name)
+            if model is self.observations_model:
+                self.observations_view = view
+                view.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+                view.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+                view.selectionModel().selectionChanged.connect(self._observation_selected)
             if model is self.alerts_model:
                 self.alerts_page = page
         split.addWidget(bottom)
@@ -230,6 +238,7 @@ class CourseView(QWidget):
         layout.addWidget(split, 1)
 
         self._earlier_plans: dict = {}  # PlanRequest → Plan of earlier versions
+        self._observation_rows: list[int] = []  # table row → index in session.observations
         self._quantity_changed()
         self.shown = ShownPlan(self, session, self.refresh)
         session.observationsChanged.connect(lambda: self.refresh(session.plan))
@@ -378,6 +387,44 @@ class CourseView(QWidget):
         self.message.setText("")
         self.value.clear()
         self.session.add_observation(observation)
+
+    def _observation_controls(self) -> QHBoxLayout:
+        row = QHBoxLayout()
+        self.remove_button = QPushButton("Remove the selected observation…")
+        self.remove_button.setToolTip(
+            "Take a mistyped observation out of this course (saved plan versions keep theirs)"
+        )
+        self.remove_button.setEnabled(False)
+        self.remove_button.clicked.connect(self.remove_selected)
+        row.addWidget(self.remove_button)
+        row.addStretch(1)
+        return row
+
+    def _observation_selected(self, *_: object) -> None:
+        self.remove_button.setEnabled(self._selected_observation() is not None)
+
+    def _selected_observation(self) -> int | None:
+        rows = self.observations_view.selectionModel().selectedRows()
+        if not rows or rows[0].row() >= len(self._observation_rows):
+            return None
+        return self._observation_rows[rows[0].row()]
+
+    def remove_selected(self) -> None:
+        """Remove the observation of the selected row, once the user confirms it."""
+        number = self._selected_observation()
+        if number is None:
+            return
+        row = self.observations_view.selectionModel().selectedRows()[0].row()
+        what = " ".join(self.observations_model.text(row, c) for c in (1, 2))
+        answer = QMessageBox.question(
+            self,
+            "Remove observation",
+            f"Remove “{what}” recorded at {self.observations_model.text(row, 0)} from this "
+            "course? Plan versions already saved keep their own observations.",
+        )
+        if answer == QMessageBox.StandardButton.Yes:
+            self.session.remove_observation(number)
+            self.message.setText(f"Removed {what}.")
 
     def replan(self) -> None:
         try:
@@ -563,7 +610,8 @@ class CourseView(QWidget):
         weights in the unit this species' weight is usually given in."""
         weight_unit = plan.weight_unit if plan is not None else "kg"
         rows = []
-        for obs in observations:
+        self._observation_rows = []
+        for number, obs in enumerate(observations):
             for key, (label, unit) in QUANTITIES.items():
                 value = getattr(obs, key)
                 if value in (None, ""):
@@ -582,4 +630,6 @@ class CourseView(QWidget):
                     predicted = weight_in_unit(predicted, unit)
                 expected = "—" if predicted is None else q(predicted, unit)
                 rows.append([Cell(self._when(obs.hour)), Cell(label), Cell(shown), Cell(expected)])
+                self._observation_rows.append(number)
         self.observations_model.set_rows(rows)
+        self._observation_selected()
