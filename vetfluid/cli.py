@@ -74,76 +74,77 @@ def _start_date(text: str) -> date:
         ) from None
 
 
-def _add_plan_arguments(parser: argparse.ArgumentParser) -> None:
-    """The patient and plan options shared by `plan` and `course`."""
+def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = False) -> None:
+    """The patient and plan options shared by `plan` and `course`.
+
+    ``only_given`` leaves the patient and plan options without defaults, so parsing
+    yields just the ones typed (to refuse them beside --demo, see :func:`_demo_conflicts`).
+    """
     parser.add_argument("--demo", help="plan for a demo patient (see README) instead of --species")
-    parser.add_argument("--species", help="species id (see `vetfluid-cli species`)")
-    parser.add_argument("--weight", help='body weight with unit, e.g. "20 kg" or "350 g"')
-    parser.add_argument(
-        "--dehydration", type=float, help="estimated dehydration, %% of body weight"
+    patient = parser.add_argument_group(
+        "the patient and the plan (give these, or --demo for an invented patient, not both)"
     )
-    parser.add_argument(
-        "--finding", action="append", default=[], help="clinical finding id (repeatable)"
-    )
-    parser.add_argument(
-        "--replace-hours", type=float, default=24.0, help="period to replace the deficit (h)"
-    )
-    parser.add_argument(
-        "--losses-ml-per-day", type=float, default=0.0, help="ongoing losses (mL/day)"
-    )
-    parser.add_argument("--maintenance-method", choices=("linear", "allometric", "energy"))
-    parser.add_argument(
-        "--fluid", default="lactated_ringers", help="fluid id (see `vetfluid-cli fluids`)"
-    )
-    parser.add_argument("--route", choices=("iv", "io", "sc", "icoel"))
-    parser.add_argument("--device", choices=("pump", "gravity", "syringe", "divided"))
-    parser.add_argument(
-        "--drop-factor", type=float, help="giving set drops/mL (implies a gravity drip)"
-    )
-    parser.add_argument(
-        "--boluses", type=int, default=0, help="resuscitation boluses to plan first"
-    )
-    parser.add_argument("--body-temp-c", type=float, help="body temperature (ectotherms)")
-    parser.add_argument("--serum-na", type=float, help="serum sodium, mmol/L")
-    parser.add_argument("--serum-k", type=float, help="serum potassium, mmol/L")
-    parser.add_argument("--usg", type=float, help="urine specific gravity")
-    parser.add_argument("--urine-osm", type=float, help="urine osmolality, mOsm/kg")
-    parser.add_argument("--kcl-mmol-per-l", type=float, help="KCl to add per litre, by hand")
-    parser.add_argument(
-        "--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v"
-    )
-    parser.add_argument("--start", type=_start_time, help="clock time of hour 0, HH:MM")
-    parser.add_argument("--start-date", type=_start_date, help="date of hour 0, YYYY-MM-DD")
-    parser.add_argument(
+    inputs: list[argparse.Action] = []
+
+    def add(*flags: str, **options: object) -> None:
+        inputs.append(patient.add_argument(*flags, **options))  # type: ignore[arg-type]
+
+    add("--species", help="species id (see `vetfluid-cli species`)")
+    add("--weight", help='body weight with unit, e.g. "20 kg" or "350 g"')
+    add("--dehydration", type=float, help="estimated dehydration, %% of body weight")
+    add("--finding", action="append", default=[], help="clinical finding id (repeatable)")
+    add("--replace-hours", type=float, default=24.0, help="period to replace the deficit (h)")
+    add("--losses-ml-per-day", type=float, default=0.0, help="ongoing losses (mL/day)")
+    add("--maintenance-method", choices=("linear", "allometric", "energy"))
+    add("--fluid", default="lactated_ringers", help="fluid id (see `vetfluid-cli fluids`)")
+    add("--route", choices=("iv", "io", "sc", "icoel"))
+    add("--device", choices=("pump", "gravity", "syringe", "divided"))
+    add("--drop-factor", type=float, help="giving set drops/mL (implies a gravity drip)")
+    add("--boluses", type=int, default=0, help="resuscitation boluses to plan first")
+    add("--body-temp-c", type=float, help="body temperature (ectotherms)")
+    add("--serum-na", type=float, help="serum sodium, mmol/L")
+    add("--serum-k", type=float, help="serum potassium, mmol/L")
+    add("--usg", type=float, help="urine specific gravity")
+    add("--urine-osm", type=float, help="urine osmolality, mOsm/kg")
+    add("--kcl-mmol-per-l", type=float, help="KCl to add per litre, by hand")
+    add("--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v")
+    add("--start", type=_start_time, help="clock time of hour 0, HH:MM")
+    add("--start-date", type=_start_date, help="date of hour 0, YYYY-MM-DD")
+    add(
         "--ins-and-outs-period",
         type=float,
         metavar="H",
         help="plan by ins and outs in periods of H hours (oliguric patients)",
     )
-    parser.add_argument(
+    add(
         "--measured-urine-ml",
         type=_volumes,
         default=(),
         metavar="V1,V2,…",
         help="urine measured over each ins-and-outs period so far, mL",
     )
-    parser.add_argument(
+    add(
         "--measured-other-ml",
         type=_volumes,
         default=(),
         metavar="V1,V2,…",
         help="other measured losses (vomit, diarrhoea, drains) per period, mL",
     )
-    parser.add_argument("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
-    parser.add_argument("--syringe-ml", type=float, default=60.0, help="syringe size, mL")
-    parser.add_argument("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
-    parser.add_argument("--ts", type=float, help="total solids, g/dL (recorded with the plan)")
+    add("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
+    add("--syringe-ml", type=float, default=60.0, help="syringe size, mL")
+    add("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
+    add("--ts", type=float, help="total solids, g/dL (recorded with the plan)")
     for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
-        parser.add_argument(f"--{flag}", action="store_true", help=f"patient flag: {flag}")
+        add(f"--{flag}", action="store_true", help=f"patient flag: {flag}")
     parser.add_argument("--json", action="store_true")
+    parser.set_defaults(plan_input_flags={a.dest: a.option_strings[0] for a in inputs})
+    if only_given:
+        for action in inputs:
+            action.default = argparse.SUPPRESS
 
 
-def _parser() -> argparse.ArgumentParser:
+def _parser(*, only_given: bool = False) -> argparse.ArgumentParser:
+    """The command line; ``only_given``: see :func:`_add_plan_arguments`."""
     parser = _Parser(
         prog="vetfluid-cli", description="Headless fluid-therapy planning. " + SHORT_CAUTION
     )
@@ -157,10 +158,10 @@ def _parser() -> argparse.ArgumentParser:
     fluids_cmd.add_argument("--json", action="store_true")
 
     plan = sub.add_parser("plan", help="build a fluid plan for one patient")
-    _add_plan_arguments(plan)
+    _add_plan_arguments(plan, only_given=only_given)
 
     course = sub.add_parser("course", help="body water, weight and Na over the course of a plan")
-    _add_plan_arguments(course)
+    _add_plan_arguments(course, only_given=only_given)
     course.add_argument("--bolus-ml-per-kg", type=float, help="an extra IV bolus at hour 0, mL/kg")
     course.add_argument("--bolus-fluid", default="nacl_0_9", help="fluid id of the extra bolus")
     course.add_argument("--bolus-minutes", type=float, default=15.0, help="bolus duration, min")
@@ -280,11 +281,6 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
     if args.demo:
         from vetfluid.demos import demo
 
-        if args.species or args.weight:
-            raise InputError(
-                "--demo brings its own patient", field="demo", value=args.demo,
-                fix="drop --species/--weight, or drop --demo",
-            )  # fmt: skip
         return demo(args.demo).request
     for flag, value in (("--species", args.species), ("--weight", args.weight)):
         if not value:
@@ -558,9 +554,33 @@ COMMANDS = {
 }
 
 
+def _demo_conflicts(args: argparse.Namespace, argv: Sequence[str] | None) -> None:
+    """Refuse patient or plan options typed beside --demo.
+
+    A demo is a whole invented patient with its own inputs (the same plan as the
+    window's demo), so an option beside it would be silently left out. Layering the
+    options on the demo instead would give a plan that is neither the demo nor the
+    patient the user described, so both together are refused. Output options (--json)
+    and the course's own options (--at, --bolus-ml-per-kg, …) are not plan inputs.
+    """
+    if not getattr(args, "demo", None):
+        return
+    typed = vars(_parser(only_given=True).parse_args(argv))
+    flags = [flag for dest, flag in args.plan_input_flags.items() if dest in typed]
+    if flags:
+        raise InputError(
+            f"a demo patient comes with all its own inputs, so {', '.join(flags)} "
+            f"would not be used",
+            field="--demo", value=args.demo,
+            fix=f"leave out {', '.join(flags)} to plan the demo as it is, or leave out --demo "
+            "and give the whole patient (--species, --weight and the rest)",
+        )  # fmt: skip
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     try:
+        _demo_conflicts(args, argv)
         return COMMANDS[args.command](args)
     except InputError as exc:
         sys.stderr.write(f"vetfluid-cli: invalid input — {exc.one_line()}\n")
