@@ -207,3 +207,70 @@ def test_a_plan_on_the_calendar_keeps_its_date(capsys):
     assert request_from_dict(request).start_date.isoformat() == "2026-12-31"
     with pytest.raises(Exception, match="YYYY-MM-DD"):
         request_from_dict({**request, "start_date": "31/12/2026"})
+
+
+# ---- the phase list gives the schedule's figures ----------------------------------------------
+GRAVITY_DOG = ("plan", "--species", "dog", "--weight", "24 kg", "--dehydration", "8",
+               "--boluses", "2", "--device", "gravity", "--drop-factor", "20")  # fmt: skip
+
+
+def _phase_lines(out: str) -> list[str]:
+    block = out.split("\nPhases\n", 1)[1].split("\n\n", 1)[0]
+    return block.splitlines()
+
+
+def test_a_drip_too_fast_to_count_gives_no_drops_in_the_phase_list(capsys):
+    from vetfluid.delivery import COUNTABLE_DROPS_PER_MIN, drip_ml_per_h, drops_per_min
+    from vetfluid.formatting import format_quantity as q
+
+    code, out, _ = run(capsys, *GRAVITY_DOG)
+    _, data = run_json(capsys, *GRAVITY_DOG)
+    assert code == 0
+    lines = _phase_lines(out)
+    assert len(lines) == len(data["phases"])
+    fast = 0
+    for line, phase in zip(lines, data["phases"], strict=True):
+        rate = phase["rate_ml_per_h"]
+        # the drops of the rate as shown (delivery: gravity drips run to the figures shown)
+        drops = drops_per_min(drip_ml_per_h(rate), 20)
+        assert phase["drops_per_min"] == pytest.approx(drops)
+        assert phase["drops_countable"] is (drops <= COUNTABLE_DROPS_PER_MIN)
+        assert q(rate, "mL/h") in line
+        if drops > COUNTABLE_DROPS_PER_MIN:
+            fast += 1
+            assert "drops/min" not in line and "too fast to count drops" in line
+        else:
+            assert f"= {q(drops, 'drops/min')}" in line
+    # the boluses (1440 mL/h) are too fast to count, as the schedule says
+    assert fast == 2
+    assert sum("too fast to count drops" in e["action"] for e in data["schedule"]) == fast
+
+
+def test_divided_doses_read_as_drawn_up_in_the_phase_list_and_the_json(capsys):
+    code, out, _ = run(capsys, "plan", "--demo", "small_gerbil")
+    _, data = run_json(capsys, "plan", "--demo", "small_gerbil")
+    assert code == 0
+    lines = _phase_lines(out)
+    intermittent = [(line, p) for line, p in zip(lines, data["phases"], strict=True)
+                    if p["mode"] == "intermittent"]  # fmt: skip
+    assert intermittent
+    for line, phase in intermittent:
+        drawn = phase["drawn_up"]
+        # by hand from the rule in vetfluid/delivery.py: each site to the 0.01 mL marks
+        # of a 1 mL syringe (common practice, no source), the dose = sites × per site
+        assert phase["ml_per_site"] < 1
+        per_site = round(phase["ml_per_site"], 2)
+        assert drawn == {"sites": phase["sites_per_dose"], "ml_per_site": pytest.approx(per_site),
+                         "dose_ml": pytest.approx(per_site * phase["sites_per_dose"])}  # fmt: skip
+        # planned figures stay under their keys
+        assert phase["dose_ml"] == pytest.approx(phase["ml_per_site"] * phase["sites_per_dose"])
+        dose, sites, site_ml = (f"{drawn['dose_ml']:.2f}".rstrip("0").rstrip("."),
+                                drawn["sites"], f"{drawn['ml_per_site']:.2f}")  # fmt: skip
+        assert f"{dose} mL every" in line and f"{sites} sites of {site_ml} mL" in line
+        assert "site(s)" not in line
+        # and the schedule gives the same dose for this phase
+        assert any(
+            e["phase"] == phase["kind"] and e["action"].startswith(f"Give {dose} mL ")
+            and f"{site_ml} mL per site" in e["action"]
+            for e in data["schedule"]
+        )  # fmt: skip

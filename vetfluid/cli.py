@@ -12,12 +12,17 @@ import json
 import os
 import sys
 from collections.abc import Sequence
+from dataclasses import asdict
 from datetime import date, datetime, time
-from typing import NoReturn
+from typing import TYPE_CHECKING, NoReturn
 
 from vetfluid.cautions import CAUTIONS, SHORT_CAUTION
 from vetfluid.errors import InputError, VetfluidError
 from vetfluid.formatting import format_quantity
+
+if TYPE_CHECKING:
+    from vetfluid.plan import Plan
+    from vetfluid.schedule import Phase
 
 EXIT_OK, EXIT_INPUT, EXIT_HARD_LIMIT = 0, 2, 3
 DEVICE_WORDS = {
@@ -326,20 +331,43 @@ def _q(value: float | None, unit: str) -> str:
     return "—" if value is None else format_quantity(value, unit)
 
 
-def _phase_line(p: dict) -> str:
-    span = f"h {p['start_h']:g}–{p['end_h']:g}"
-    total = f"total {_q(p['volume_ml'], 'mL')}"
-    if p["mode"] == "continuous":
-        drip = f" = {_q(p['drops_per_min'], 'drops/min')}" if p.get("drops_per_min") else ""
-        return f"  {p['kind']:14} {span:14} {_q(p['rate_ml_per_h'], 'mL/h')}{drip}  {total}"
-    dose = f"{_q(p['dose_ml'], 'mL')} every {p['interval_h']:g} h ×{p['doses']}"
-    return f"  {p['kind']:14} {span:14} {dose} in {p['sites_per_dose']} site(s)  {total}"
+def _with_drawn_up(data: dict) -> dict:
+    """The plan's JSON with what the nurse gives beside the planned figures, which stay:
+    each intermittent phase gains ``drawn_up`` (``sites``, ``ml_per_site`` to the
+    syringe's marks, ``dose_ml`` = sites × per site, as the schedule says), each
+    gravity phase ``drops_countable`` (False: the schedule times it by the bag's
+    volume marks instead of giving drops/min)."""
+    from vetfluid.delivery import countable, drawn_up_dose
+
+    phases = []
+    for p in data["phases"]:
+        p = dict(p)
+        if p["mode"] == "intermittent":
+            drawn = drawn_up_dose(ml_per_site=p["ml_per_site"], sites=p["sites_per_dose"])
+            p["drawn_up"] = asdict(drawn)
+        elif p.get("drops_per_min") is not None:
+            p["drops_countable"] = countable(p["drops_per_min"])
+        phases.append(p)
+    return {**data, "phases": phases}
 
 
-def print_plan(data: dict) -> None:
+def _phase_line(phase: Phase) -> str:
+    """One phase in the figures the schedule and the window give
+    (:func:`vetfluid.schedule.rate_or_dose_text`): a gravity drip in drops/min only when
+    they can be counted, a divided dose as drawn up (sites × the volume per site)."""
+    from vetfluid.schedule import rate_or_dose_text
+
+    span = f"h {phase.start_h:g}–{phase.end_h:g}"
+    total = f"total {_q(phase.volume_ml, 'mL')}"
+    return f"  {phase.kind:14} {span:14} {rate_or_dose_text(phase)}  {total}"
+
+
+def print_plan(plan: Plan) -> None:
     """The plan as a readable sheet for a person at a terminal."""
+    from vetfluid.serialize import plan_dict
     from vetfluid.sheet import first_24h_text, ins_and_outs_rows, maintenance_text
 
+    data = plan_dict(plan)
     fl = data["fluid"]
     rows = [
         ("Maintenance", maintenance_text(data)),
@@ -367,8 +395,8 @@ def print_plan(data: dict) -> None:
         if text is not None:
             print(f"  {label:13} {text}")
     print("\nPhases")
-    for p in data["phases"]:
-        print(_phase_line(p))
+    for phase in plan.phases:
+        print(_phase_line(phase))
     if "ins_and_outs" in data:
         io = data["ins_and_outs"]
         print(f"\nIns and outs (every {io['period_h']:g} h; the next period replaces these)")
@@ -399,11 +427,10 @@ def cmd_plan(args: argparse.Namespace) -> int:
     from vetfluid.serialize import plan_dict
 
     plan = build_plan(_request(args))
-    data = plan_dict(plan)
     if args.json:
-        _emit(data)
+        _emit(_with_drawn_up(plan_dict(plan)))
     else:
-        print_plan(data)
+        print_plan(plan)
     return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK
 
 
