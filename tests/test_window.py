@@ -338,6 +338,30 @@ def test_a_blocked_plan_prints_as_not_to_be_given(qtbot, window):
     assert BLOCKED_MARK in html and "far outside the usual" in html
 
 
+def test_tab_moves_down_the_inputs_in_the_order_they_are_shown(qtbot, window):
+    from PySide6.QtCore import QPoint
+
+    window.open_demo("cold_bearded_dragon")  # an ectotherm: the temperature field is live
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "bearded_dragon")
+    panel = window.patient.parentWidget()
+    start = window.patient.species_box
+    order, widget = [], start
+    for _ in range(500):  # the whole window's chain, once round
+        widget = widget.nextInFocusChain()
+        if widget is start:
+            break
+        tabbable = widget.focusPolicy() & Qt.FocusPolicy.TabFocus
+        if tabbable and widget.isVisible() and widget.isEnabled() and panel.isAncestorOf(widget):
+            order.append(widget)
+    places = [widget.mapTo(panel, QPoint(0, 0)) for widget in order]
+    rows = [(p.y() // 20, p.x()) for p in places]  # a row of the form, then left to right
+    assert len(order) > 20  # patient, hydration, how to give it, labs
+    assert rows == sorted(rows), [w.accessibleName() or type(w).__name__ for w in order]
+    assert window.labs.fields["serum_na"] in order and window.settings_box.isAncestorOf(
+        order[order.index(window.labs.fields["serum_na"]) - 1]
+    )  # the labs come right after how the fluid is given
+
+
 def test_window_remembers_its_size(qtbot, window, vetfluid_home):
     window.resize(1111, 777)
     window.close()

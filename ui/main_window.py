@@ -127,7 +127,7 @@ class MainWindow(QMainWindow):
         from PySide6.QtCore import Qt
 
         from ui.findings_view import FindingsView
-        from ui.patient_view import PatientView
+        from ui.patient_view import LabsView, PatientView
         from ui.plan_view import PlanSettings, PlanSummary
         from ui.provenance_view import ProvenanceView
         from ui.session import PlanSession
@@ -136,11 +136,15 @@ class MainWindow(QMainWindow):
         self.session = PlanSession(parent=self)
         self.patient = PatientView(self.session)
         self.settings_box = PlanSettings(self.session)
+        # the optional labs last, after how the fluid is given (built in this order, so
+        # the tab order follows what is on screen)
+        self.labs = LabsView(self.session)
         inputs = QWidget()
         inputs_layout = QVBoxLayout(inputs)
         inputs_layout.setContentsMargins(0, 0, 0, 0)
         inputs_layout.addWidget(self.patient)
         inputs_layout.addWidget(self.settings_box)
+        inputs_layout.addWidget(self.labs)
         inputs_layout.addStretch(1)
         scroll = QScrollArea()
         scroll.setWidget(inputs)

@@ -1,4 +1,5 @@
-"""The patient form: species, weight with unit, flags, temperature, hydration, losses, labs.
+"""The patient form: species, weight with unit, flags, temperature, hydration, losses; and
+the optional laboratory values (:class:`LabsView`, placed after how the fluid is given).
 
 Each field writes into the :class:`~ui.session.PlanSession`; text that cannot be
 read is reported to the session (which then shows no plan) and marked on the
@@ -225,17 +226,7 @@ class PatientView(QWidget):
         )
         hform.addRow("Ongoing &losses (mL/day)", self.losses_field)
         layout.addWidget(hyd)
-
-        # -- labs -------------------------------------------------------------------------
-        labs = QGroupBox("Laboratory (optional)")
-        lform = QFormLayout(labs)
-        self.lab_fields: dict[str, NumberField] = {}
-        for name, (label, unit, placeholder, tip) in LAB_FIELDS.items():
-            field = NumberField(session, name, placeholder, tip)
-            self.lab_fields[name] = field
-            lform.addRow(f"{label} ({unit})" if unit else label, field)
-        layout.addWidget(labs)
-        layout.addStretch(1)
+        layout.setContentsMargins(0, 0, 0, 0)
 
         session.inputsReplaced.connect(self.load_inputs)
         self.load_inputs()
@@ -267,8 +258,6 @@ class PatientView(QWidget):
         self.temp_field.show_value(inputs.get("body_temp_c"))
         self.dehydration_field.show_value(inputs.get("dehydration_percent"))
         self.losses_field.show_value(inputs.get("losses_ml_per_day") or None)
-        for name, field in self.lab_fields.items():
-            field.show_value(inputs.get(name))
         chosen = set(inputs.get("dehydration_findings") or ())
         for fid, box in self.finding_boxes.items():
             with QSignalBlocker(box):
@@ -417,3 +406,25 @@ class PatientView(QWidget):
     def _use_estimate(self) -> None:
         self.dehydration_field.show_value(self._estimate)
         self.session.update(dehydration_percent=self._estimate)
+
+
+class LabsView(QGroupBox):
+    """Optional laboratory values; each writes into the session like the patient form."""
+
+    def __init__(self, session: PlanSession, parent: QWidget | None = None):
+        super().__init__("Laboratory (optional)", parent)
+        self.session = session
+        self.setAccessibleName("Laboratory values")
+        form = QFormLayout(self)
+        self.fields: dict[str, NumberField] = {}
+        for name, (label, unit, placeholder, tip) in LAB_FIELDS.items():
+            field = NumberField(session, name, placeholder, tip)
+            self.fields[name] = field
+            form.addRow(f"{label} ({unit})" if unit else label, field)
+        session.inputsReplaced.connect(self.load_inputs)
+        self.load_inputs()
+
+    def load_inputs(self, *_: object) -> None:
+        inputs = self.session.inputs
+        for name, field in self.fields.items():
+            field.show_value(inputs.get(name))
