@@ -201,3 +201,27 @@ def test_compare_two_versions():
     assert rows["Weight"] == ("24 kg", "25 kg", True)
     assert rows["Dehydration"][2] and rows["Fluid"][2] is False
     assert rows["Phase 1"][0].startswith("replacement h 0–12")
+
+
+def test_compare_gives_divided_doses_as_drawn_up():
+    import re
+    from dataclasses import replace
+
+    from vetfluid.records import compare_versions
+    from vetfluid.serialize import plan_dict
+
+    request = DEMOS["small_gerbil"].request
+    first = plan_dict(build_plan(request))
+    second = plan_dict(build_plan(replace(request, weight_kg=0.075)))
+    rows = {what: (a, b) for what, a, b, _ in compare_versions(first, second)}
+    for side, data in enumerate((first, second)):
+        for i, p in enumerate(data["phases"]):
+            assert p["mode"] == "intermittent"
+            # the schedule's words for this phase's doses: "Give D mL SC in N sites, S mL per site"
+            action = next(e["action"] for e in data["schedule"] if e["phase"] == p["kind"])
+            dose, sites, per_site = re.fullmatch(
+                r"Give (\S+) mL SC in (\d+) sites?, (\S+) mL per site", action
+            ).groups()
+            shown = rows[f"Phase {i + 1}"][side]
+            assert f": {dose} mL every {p['interval_h']:g} h" in shown
+            assert shown.endswith(f"{sites} sites of {per_site} mL")

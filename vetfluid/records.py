@@ -419,8 +419,11 @@ COMPARED = (
 
 
 def compare_versions(a: dict, b: dict) -> list[tuple[str, str, str, bool]]:
-    """What differs between two saved plans (their JSON): (what, in a, in b, differs)."""
+    """What differs between two saved plans (their JSON): (what, in a, in b, differs).
+    Divided doses are compared as drawn up (:func:`vetfluid.delivery.drawn_up_dose`)."""
+    from vetfluid.delivery import drawn_up_dose
     from vetfluid.formatting import format_quantity
+    from vetfluid.schedule import sites_text
 
     def quantity(value: object, unit: str) -> str:
         return "—" if value is None else format_quantity(float(value), unit)
@@ -436,11 +439,15 @@ def compare_versions(a: dict, b: dict) -> list[tuple[str, str, str, bool]]:
         if i >= len(data["phases"]):
             return "—"
         p = data["phases"][i]
-        rate = (
-            quantity(p.get("rate_ml_per_h"), "mL/h")
-            if p["mode"] == "continuous"
-            else f"{quantity(p.get('dose_ml'), 'mL')} every {p.get('interval_h'):g} h"
-        )
+        if p["mode"] == "continuous":
+            rate = quantity(p.get("rate_ml_per_h"), "mL/h")
+        else:  # as drawn up, the figures the schedule and the sheet give
+            drawn = drawn_up_dose(ml_per_site=p.get("ml_per_site"), sites=p.get("sites_per_dose"))
+            rate = (
+                f"{format_quantity(drawn.dose_ml, 'mL', decimals=2)} every "
+                f"{p.get('interval_h'):g} h, {sites_text(drawn.sites)} of "
+                f"{format_quantity(drawn.ml_per_site, 'mL', decimals=2)}"
+            )
         return f"{p['kind']} h {p['start_h']:g}–{p['end_h']:g}: {rate}"
 
     for i in range(max(len(a["phases"]), len(b["phases"]))):
