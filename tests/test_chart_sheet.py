@@ -3,6 +3,8 @@ headless to PDF and read back."""
 
 from __future__ import annotations
 
+import json
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -72,3 +74,58 @@ def test_headless_chart_command_refuses_bad_input(tmp_path, arguments, message):
     assert result.returncode == 2 and message in result.stderr.lower()
     assert "Traceback" not in result.stderr
     assert not (tmp_path / "x.pdf").exists()
+
+
+# ---- `vetfluid sheet` (ui/app.py, beside `vetfluid chart`): refusals and the hard-limit mark ---
+def _dog_plan_json(**request) -> dict:
+    from vetfluid.plan import PlanRequest, build_plan
+    from vetfluid.serialize import plan_dict
+
+    return plan_dict(build_plan(PlanRequest(species_id="dog", **request)))
+
+
+@pytest.mark.parametrize(
+    ("broken", "message"),
+    [
+        # NaN is valid JSON for Python; the core refuses to print it (InputError)
+        (lambda d: {**d, "weight_kg": float("nan")}, "not finite"),
+        (
+            lambda d: {**d, "phases": [{**d["phases"][0], "rate_ml_per_h": float("inf")}]},
+            "not finite",
+        ),  # fmt: skip
+        (lambda d: [d], "not a plan"),
+        (lambda d: {**d, "request": "08:00"}, "cannot read"),
+    ],
+    ids=["NaN weight", "infinite rate", "a list", "request not an object"],
+)
+def test_headless_sheet_command_refuses_a_broken_plan_in_one_line(tmp_path, broken, message):
+    from ui.app import sheet_command
+
+    plan = tmp_path / "plan.json"
+    plan.write_text(json.dumps(broken(_dog_plan_json(weight_kg=20.0))), encoding="utf-8")
+    out = tmp_path / "sheet.pdf"
+    result = subprocess.run([VETFLUID, "sheet", str(plan), "-o", str(out)],
+                            capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert result.returncode == 2
+    assert "Traceback" not in result.stderr and result.stderr.count("\n") == 1
+    assert message in result.stderr and "vetfluid-cli plan --json" in result.stderr
+    assert not out.exists()
+    assert sheet_command([str(plan), "-o", str(out)]) == 2  # in-process too: no exception
+
+
+def test_headless_sheet_of_a_hard_limit_plan_is_marked_on_every_page(tmp_path):
+    from vetfluid.sheet import BLOCKED_MARK
+
+    data = _dog_plan_json(weight_kg=0.02)  # 20 g for a dog: the gram/kilogram slip
+    assert data["hard_limit"]
+    plan = tmp_path / "plan.json"
+    plan.write_text(json.dumps(data), encoding="utf-8")
+    out = tmp_path / "sheet.pdf"
+    result = subprocess.run([VETFLUID, "sheet", str(plan), "-o", str(out)],
+                            capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert result.returncode == 0, result.stderr
+    import pypdf
+
+    pages = pypdf.PdfReader(out).pages
+    footers = [re.sub(r"\s+", " ", page.extract_text()) for page in pages]
+    assert all(f"✖ {BLOCKED_MARK}" in text for text in footers), len(pages)

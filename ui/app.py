@@ -23,18 +23,24 @@ def sheet_command(argv: list[str]) -> int:
     parser.add_argument("--patient-name", default="")
     args = parser.parse_args(argv)
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # no window is shown
+    from vetfluid.errors import VetfluidError
+    from vetfluid.sheet import page_mark, sheet_html
+
+    fix = "give the JSON that `vetfluid-cli plan --json` prints"
     try:
         data = json.loads(Path(args.plan).read_text(encoding="utf-8"))
-        from vetfluid.sheet import sheet_html
-
+        if not isinstance(data, dict):
+            raise ValueError(f"it holds a JSON {type(data).__name__}, not a plan")
         html = sheet_html(data, patient={"name": args.patient_name} if args.patient_name else None)
-    except (OSError, ValueError, KeyError, TypeError) as exc:
-        sys.stderr.write(
-            f"vetfluid sheet: cannot read {args.plan}: {exc} — give the JSON that "
-            "`vetfluid-cli plan --json` prints\n"
-        )
+        mark = page_mark(data)
+    except VetfluidError as exc:  # a figure the core refuses, e.g. a weight that is NaN
+        sys.stderr.write(f"vetfluid sheet: cannot print {args.plan}: {exc.one_line()} — {fix}\n")
         return 2
-    return _write_pdf(html, args.output, args.page)
+    except (OSError, ValueError, KeyError, TypeError, AttributeError, IndexError) as exc:
+        # a file that is missing, not JSON, or JSON of another shape than a plan's
+        sys.stderr.write(f"vetfluid sheet: cannot read {args.plan}: {exc} — {fix}\n")
+        return 2
+    return _write_pdf(html, args.output, args.page, mark=mark)
 
 
 def chart_command(argv: list[str]) -> int:
@@ -63,14 +69,15 @@ def chart_command(argv: list[str]) -> int:
     return _write_pdf(html, args.output, args.page)
 
 
-def _write_pdf(html: str, output: str, page: str) -> int:
+def _write_pdf(html: str, output: str, page: str, *, mark: str = "") -> int:
+    """Write the PDF; ``mark`` heads every page (a plan with a hard limit)."""
     from PySide6.QtWidgets import QApplication
 
     from ui.printing import print_sheet_to_pdf
 
     app = QApplication.instance() or QApplication(["vetfluid"])  # noqa: F841 (Qt needs one)
     try:
-        pages = print_sheet_to_pdf(html, output, page=page)
+        pages = print_sheet_to_pdf(html, output, page=page, mark=mark)
     except OSError as exc:
         sys.stderr.write(f"vetfluid: cannot write {output}: {exc}\n")
         return 2
