@@ -4,7 +4,10 @@ For each band: maintenance (mL/day and mL/h, the species' default method, at the
 preferred temperature for ectotherms), the deficit per 5 % dehydration (BW × 0.05 L;
 Davis 2013), the resuscitation bolus where a line is practical (see
 :mod:`vetfluid.resuscitation`), and drops/min of the maintenance rate for a drop
-factor (mL/h × drops/mL ÷ 60). Computed on numpy arrays: one call per species.
+factor, by the rule the schedule uses for a gravity drip (:mod:`vetfluid.delivery`):
+the rate to the figures shown, drops/min = that rate × drops/mL ÷ 60, and above
+120 drops/min (too fast to count by eye) timed by the bag's volume marks instead.
+Computed on numpy arrays: one call per species.
 """
 
 from __future__ import annotations
@@ -13,9 +16,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from vetfluid import delivery
 from vetfluid.checks import require_number
-from vetfluid.delivery import check_drop_factor
+from vetfluid.formatting import format_quantity
 from vetfluid.resuscitation import resuscitation
+from vetfluid.schedule import MARKS_CHECK_MIN
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
 
 DEFAULT_BANDS = 10
@@ -31,22 +36,46 @@ class Chart:
     maintenance_ml_per_h: np.ndarray
     deficit_ml_per_5_percent: np.ndarray
     bolus_ml: np.ndarray  # NaN where a continuous line is not practical
-    drops_per_min: np.ndarray
+    drops_per_min: np.ndarray  # of the rate as shown (delivery.drip_ml_per_h)
+    drops_countable: np.ndarray  # bool: False above delivery.COUNTABLE_DROPS_PER_MIN
     drop_factor: float
     provenance: tuple[SpeciesValue, ...]  # every species value the chart used
     citations: dict[str, str]  # source id → citation for those values
 
     COLUMNS = (
         "weight_kg", "maintenance_ml_per_day", "maintenance_ml_per_h",
-        "deficit_ml_per_5_percent", "bolus_ml", "drops_per_min",
+        "deficit_ml_per_5_percent", "bolus_ml", "drops_per_min", "drops_countable",
     )  # fmt: skip
 
-    def rows(self) -> list[list[float | None]]:
+    def rows(self) -> list[list[float | bool | None]]:
+        """One row per band in :attr:`COLUMNS` order: numbers (None where there is no
+        bolus), and whether the drip's drops can be counted."""
         columns = [getattr(self, name) for name in self.COLUMNS]
         return [
-            [None if np.isnan(v) else float(v) for v in values]
+            [bool(v) if isinstance(v, np.bool_) else None if np.isnan(v) else float(v)
+             for v in values]
             for values in zip(*columns, strict=True)
-        ]
+        ]  # fmt: skip
+
+    def drip_texts(self) -> list[str]:
+        """How to set each band's maintenance rate on a gravity drip, worded as the
+        schedule words it: ``19.9 drops/min``, or for a drip too fast to count, ``too fast
+        to count drops: set the clamp by the bag's volume marks, 33.3 mL every 15 min``."""
+        texts = []
+        for rate, drops, countable in zip(
+            self.maintenance_ml_per_h, self.drops_per_min, self.drops_countable, strict=True
+        ):
+            if countable:
+                texts.append(format_quantity(float(drops), "drops/min"))
+                continue
+            volume = format_quantity(
+                delivery.drip_ml_per_h(float(rate)) * MARKS_CHECK_MIN / 60.0, "mL"
+            )
+            texts.append(
+                "too fast to count drops: set the clamp by the bag's volume marks, "
+                f"{volume} every {MARKS_CHECK_MIN:.0f} min"
+            )
+        return texts
 
 
 def maintenance_ml_per_day(
@@ -96,7 +125,7 @@ def chart(
     table: SpeciesTable | None = None,
 ) -> Chart:
     table = table or load_table()
-    check_drop_factor(drop_factor)
+    delivery.check_drop_factor(drop_factor)
     require_number(bands, "bands", low=2, high=100)
     weight = table.value(species_id, "body_weight_kg")
     low = weight.low if weight.low is not None else weight.number
@@ -109,6 +138,10 @@ def chart(
     line_min = line.number
     bolus_ml = np.where(weights >= line_min, bolus_per_kg * weights, np.nan)
     ml_h = ml_day / 24.0
+    # a gravity drip runs its rate to the figures shown; its drops are that rate's
+    drops = np.array(
+        [delivery.drops_per_min(delivery.drip_ml_per_h(float(r)), drop_factor) for r in ml_h]
+    )
     used_values = tuple({v.parameter: v for v in (weight, *used, *bolus.provenance, line)}.values())
     return Chart(
         species_id=species_id,
@@ -119,7 +152,8 @@ def chart(
         maintenance_ml_per_h=ml_h,
         deficit_ml_per_5_percent=weights * 0.05 * 1000.0,
         bolus_ml=bolus_ml,
-        drops_per_min=ml_h * drop_factor / 60.0,
+        drops_per_min=drops,
+        drops_countable=np.array([delivery.countable(float(d)) for d in drops]),
         drop_factor=float(drop_factor),
         provenance=used_values,
         citations=table.citations(used_values),

@@ -21,15 +21,18 @@ NO_LINE = "no line"  # bolus column where a continuous line is not practical
 
 def chart_cells(chart: Chart) -> list[list[str]]:
     """The chart's rows as safely formatted text (shared by the dialog and the page).
-    Species lighter than 1 kg throughout show their weight in grams, as they are weighed."""
+    Species lighter than 1 kg throughout show their weight in grams, as they are weighed;
+    the drip column is worded as the schedule words it (:meth:`Chart.drip_texts`)."""
     grams = float(chart.weight_kg.max()) < 1.0
     cells = []
-    for weight, *rest in chart.rows():
+    for (weight, *rest), drip in zip(chart.rows(), chart.drip_texts(), strict=True):
         first = q(weight * 1000.0, "g") if grams else q(weight, "kg")
-        units = UNITS[1:]
-        cells.append(
-            [first] + [NO_LINE if v is None else q(v, u) for v, u in zip(rest, units, strict=True)]
-        )
+        units = UNITS[1:-1]  # the numbers between the weight and the drip
+        numbers = [
+            NO_LINE if v is None else q(v, u)
+            for v, u in zip(rest[: len(units)], units, strict=True)
+        ]
+        cells.append([first, *numbers, drip])
     return cells
 
 

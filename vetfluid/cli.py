@@ -461,9 +461,11 @@ def cmd_chart(args: argparse.Namespace) -> int:
     print(
         f"{'weight':>10} {'mL/day':>10} {'mL/h':>8} {'per 5 %':>9} {'bolus':>9} {'drops/min':>10}"
     )
-    for w, day, hour, five, bolus, dpm in result.rows():
+    for (w, day, hour, five, bolus, *_), drip in zip(
+        result.rows(), result.drip_texts(), strict=True
+    ):
         print(f"{_q(w, 'kg'):>10} {_q(day, 'mL'):>10} {_q(hour, 'mL/h'):>11} {_q(five, 'mL'):>9} "
-              f"{_q(bolus, 'mL'):>9} {_q(dpm, 'drops/min'):>15}")  # fmt: skip
+              f"{_q(bolus, 'mL'):>9} {drip:>15}")  # fmt: skip
     print("(bolus — where a continuous line is not practical)")
     print(chart_note(result) + "\n")
     print(_cautions_text())
