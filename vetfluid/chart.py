@@ -20,7 +20,7 @@ from vetfluid import delivery
 from vetfluid.checks import require_number
 from vetfluid.formatting import format_quantity
 from vetfluid.resuscitation import resuscitation
-from vetfluid.schedule import MARKS_CHECK_MIN
+from vetfluid.schedule import by_the_marks
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
 
 DEFAULT_BANDS = 10
@@ -68,13 +68,7 @@ class Chart:
             if countable:
                 texts.append(format_quantity(float(drops), "drops/min"))
                 continue
-            volume = format_quantity(
-                delivery.drip_ml_per_h(float(rate)) * MARKS_CHECK_MIN / 60.0, "mL"
-            )
-            texts.append(
-                "too fast to count drops: set the clamp by the bag's volume marks, "
-                f"{volume} every {MARKS_CHECK_MIN:.0f} min"
-            )
+            texts.append(by_the_marks(delivery.drip_ml_per_h(float(rate))))
         return texts
 
 

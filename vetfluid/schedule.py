@@ -225,11 +225,17 @@ def _drip(phase: Phase) -> tuple[str, str]:
         )
         return format_quantity(phase.drops_per_min, "drops/min"), spacing
     if phase.kind == "resuscitation":
-        minutes, per = phase.hours * 60, "in"
-    else:
-        minutes, per = MARKS_CHECK_MIN, "every"
-    volume = _ml((phase.rate_ml_per_h or 0.0) * minutes / 60)
-    return "", (
+        return "", by_the_marks(phase.rate_ml_per_h or 0.0, minutes=phase.hours * 60, per="in")
+    return "", by_the_marks(phase.rate_ml_per_h or 0.0)
+
+
+def by_the_marks(
+    rate_ml_per_h: float, *, minutes: float = MARKS_CHECK_MIN, per: str = "every"
+) -> str:
+    """How to run a drip too fast to count: ``too fast to count drops: set the clamp by
+    the bag's volume marks, 35 mL every 15 min`` (a bolus: ``360 mL in 15 min``)."""
+    volume = _ml(rate_ml_per_h * minutes / 60)
+    return (
         "too fast to count drops: set the clamp by the bag's volume marks, "
         f"{volume} {per} {minutes:.0f} min"
     )
