@@ -12,7 +12,6 @@ import json
 import os
 import sys
 from collections.abc import Sequence
-from dataclasses import asdict
 from datetime import date, datetime, time
 from typing import TYPE_CHECKING, NoReturn
 
@@ -331,26 +330,6 @@ def _q(value: float | None, unit: str) -> str:
     return "—" if value is None else format_quantity(value, unit)
 
 
-def _with_drawn_up(data: dict) -> dict:
-    """The plan's JSON with what the nurse gives beside the planned figures, which stay:
-    each intermittent phase gains ``drawn_up`` (``sites``, ``ml_per_site`` to the
-    syringe's marks, ``dose_ml`` = sites × per site, as the schedule says), each
-    gravity phase ``drops_countable`` (False: the schedule times it by the bag's
-    volume marks instead of giving drops/min)."""
-    from vetfluid.delivery import countable, drawn_up_dose
-
-    phases = []
-    for p in data["phases"]:
-        p = dict(p)
-        if p["mode"] == "intermittent":
-            drawn = drawn_up_dose(ml_per_site=p["ml_per_site"], sites=p["sites_per_dose"])
-            p["drawn_up"] = asdict(drawn)
-        elif p.get("drops_per_min") is not None:
-            p["drops_countable"] = countable(p["drops_per_min"])
-        phases.append(p)
-    return {**data, "phases": phases}
-
-
 def _phase_line(phase: Phase) -> str:
     """One phase in the figures the schedule and the window give
     (:func:`vetfluid.schedule.rate_or_dose_text`): a gravity drip in drops/min only when
@@ -428,7 +407,7 @@ def cmd_plan(args: argparse.Namespace) -> int:
 
     plan = build_plan(_request(args))
     if args.json:
-        _emit(_with_drawn_up(plan_dict(plan)))
+        _emit(plan_dict(plan))
     else:
         print_plan(plan)
     return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK

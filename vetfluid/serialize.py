@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import asdict, fields
 from datetime import date, datetime
 
-from vetfluid import fluids
+from vetfluid import delivery, fluids
 from vetfluid.cautions import CAUTIONS
 from vetfluid.errors import InputError
 from vetfluid.plan import Plan, PlanRequest
@@ -32,11 +32,17 @@ def phase_dict(phase: Phase) -> dict[str, object]:
         "kcl_mmol_per_l": phase.kcl_mmol_per_l,
         "fluid": phase.fluid_name or None,
     }
+    # beside the planned figures, what the nurse gives: a divided dose as drawn up
+    # (sites × the per-site volume to the syringe's marks, as the schedule says), and
+    # whether a gravity drip's drops can be counted (if not, the schedule times it by
+    # the bag's volume marks)
     if phase.mode == "continuous":
         data["rate_ml_per_h"] = phase.rate_ml_per_h
         data["drops_per_min"] = phase.drops_per_min
         data["seconds_per_drop"] = phase.seconds_per_drop
         data["syringe_fills"] = [{"hour": h, "ml": ml} for h, ml in phase.syringe_fills]
+        if phase.drops_per_min is not None:
+            data["drops_countable"] = delivery.countable(phase.drops_per_min)
     else:
         data.update(
             dose_ml=phase.dose_ml,
@@ -44,6 +50,11 @@ def phase_dict(phase: Phase) -> dict[str, object]:
             doses=phase.doses,
             sites_per_dose=phase.sites_per_dose,
             ml_per_site=phase.ml_per_site,
+            drawn_up=asdict(
+                delivery.drawn_up_dose(
+                    ml_per_site=phase.ml_per_site or 0.0, sites=phase.sites_per_dose
+                )
+            ),
         )
     if phase.note:
         data["note"] = phase.note
