@@ -379,6 +379,20 @@ def test_help_lists_cautions_and_sources(qtbot, window):
     html = help_html(window.session.table)
     assert "Verify every volume" in html and "Hardy RM, Osborne CA" in html
 
+    from PySide6.QtCore import QUrl
+    from PySide6.QtGui import QTextDocument
+
+    from ui.help_dialog import HelpDialog
+
+    dialog = HelpDialog(window.session.table, window)
+    qtbot.addWidget(dialog)
+    # the legend shows each severity and basis with the icon the window uses beside it
+    document = dialog.browser.document()
+    for name in ("severity-hard", "severity-soft", "basis-memory"):
+        assert f"src='icon:{name}'" in html
+        image = document.resource(QTextDocument.ResourceType.ImageResource, QUrl(f"icon:{name}"))
+        assert image is not None and not image.isNull()
+
 
 def test_standard_shortcuts_exist(window):
     actions = [

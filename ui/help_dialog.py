@@ -4,17 +4,27 @@ from __future__ import annotations
 
 from html import escape
 
+from PySide6.QtCore import QUrl
+from PySide6.QtGui import QTextDocument
 from PySide6.QtWidgets import QDialog, QDialogButtonBox, QTextBrowser, QVBoxLayout, QWidget
 
-from ui.icons import BASIS_WORDS, SEVERITY_WORDS
+from ui.icons import BASIS_ICONS, BASIS_WORDS, SEVERITY_ICONS, SEVERITY_WORDS, icon
 from vetfluid.cautions import CAUTIONS
 from vetfluid.species import SpeciesTable
+
+LEGEND_ICON_PX = 16
 
 
 def help_html(table: SpeciesTable) -> str:
     cautions = "".join(f"<li>{escape(c)}</li>" for c in CAUTIONS)
-    severities = "".join(f"<li><b>{w}</b> ({k})</li>" for k, w in SEVERITY_WORDS.items())
-    bases = "".join(f"<li><b>{w}</b></li>" for w in BASIS_WORDS.values())
+    # the icons the window shows beside each word (images added by HelpDialog)
+    severities = "".join(
+        f"<li><img src='icon:{SEVERITY_ICONS[k]}'> <b>{w}</b> ({k})</li>"
+        for k, w in SEVERITY_WORDS.items()
+    )
+    bases = "".join(
+        f"<li><img src='icon:{BASIS_ICONS[k]}'> <b>{w}</b></li>" for k, w in BASIS_WORDS.items()
+    )
     sources = "".join(
         f"<li><b>{escape(s.source_id)}</b>: {escape(s.citation)}"
         f"{f' ({s.year})' if s.year else ''}</li>"
@@ -38,6 +48,12 @@ class HelpDialog(QDialog):
         layout = QVBoxLayout(self)
         self.browser = QTextBrowser()
         self.browser.setAccessibleName("Cautions and sources")
+        document = self.browser.document()
+        for name in (*SEVERITY_ICONS.values(), *BASIS_ICONS.values()):
+            pixmap = icon(name).pixmap(LEGEND_ICON_PX, LEGEND_ICON_PX)
+            document.addResource(
+                QTextDocument.ResourceType.ImageResource, QUrl(f"icon:{name}"), pixmap
+            )
         self.browser.setHtml(help_html(table))
         layout.addWidget(self.browser)
         buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Close)
