@@ -771,7 +771,7 @@ def test_syringe_bad_volume(bad):
 # a 1 mL syringe is marked every 0.01 mL, larger ones every 0.1 mL (common practice, no source)
 @pytest.mark.parametrize(
     ("ml", "expected"),
-    [(0.567, 0.57), (0.04, 0.04), (0.004, 0.0), (0.996, 1.0), (3.39, 3.4), (12.04, 12.0)],
+    [(0.567, 0.57), (0.04, 0.04), (0.004, 0.01), (0.996, 1.0), (3.39, 3.4), (12.04, 12.0)],
 )
 def test_hand_drawn_dose_to_its_syringe_marks(ml, expected):
     assert delivery.draw_up_ml(ml) == expected

@@ -180,7 +180,12 @@ def test_small_desert_rodent_gets_divided_boluses():
     assert phase.mode == "intermittent"
     assert phase.interval_h >= 6  # SC absorbed over 6–8 h (Vet Clin North Am 2017)
     assert phase.ml_per_site <= 0.07 * 10 + 1e-9  # 10 mL/kg per site (memory for rodents)
-    assert phase.dose_ml == pytest.approx((4.2 / 24 + plan.maintenance.ml_per_h) * phase.interval_h)
+    # the need for one interval, as drawn up: each site to the 0.01 mL marks of a 1 mL
+    # syringe (common practice, no source), so within half a mark per site of the need
+    need = (4.2 / 24 + plan.maintenance.ml_per_h) * phase.interval_h
+    assert phase.dose_ml == pytest.approx(need, abs=0.005 * phase.sites_per_dose)
+    assert phase.dose_ml == pytest.approx(phase.ml_per_site * phase.sites_per_dose)
+    assert phase.ml_per_site == round(phase.ml_per_site, 2)  # a volume on the marks
     assert "DIVIDED_BOLUSES" in codes(plan)
 
 
@@ -190,10 +195,30 @@ def test_divided_dose_sites_add_up_to_the_dose_drawn():
     plan = plan_for(species_id="mongolian_gerbil", weight_kg=0.065, dehydration_percent=7)
     doses = [e for e in plan.schedule if e.action.startswith("Give ")]
     assert doses
+    hourly = {  # the need per hour: deficit over 24 h + maintenance, then maintenance
+        "replacement": plan.deficit_ml / 24 + plan.maintenance.ml_per_h,
+        "maintenance": plan.maintenance.ml_per_h,
+    }
     for entry in doses:
         words = entry.action.split()
         dose, sites, per_site = float(words[1]), int(words[5]), float(words[7])
-        assert sites * per_site == pytest.approx(dose, abs=sites * 0.005 + 0.05), entry.action
+        assert sites * per_site == pytest.approx(dose), entry.action
+        phase = next(p for p in plan.phases if p.start_h <= entry.hour < p.end_h)
+        # and the sites give the need for one interval, to within half a mark (0.005 mL) each
+        exact = hourly[phase.kind] * phase.interval_h
+        assert dose == pytest.approx(exact, abs=0.005 * sites + 1e-9), entry.action
+
+
+@pytest.mark.parametrize("grams", [65, 90, 117, 130])
+def test_a_drawn_up_site_volume_never_exceeds_the_site_limit(grams):
+    # SC at most 10 mL/kg per site in rodents (memory; species table); above 1 mL a site
+    # is drawn to the 0.1 mL marks, rounded down where rounding up would pass the limit
+    # (117 g: 1.17 mL per site is drawn as 1.1 mL, not 1.2 mL)
+    plan = plan_for(species_id="mongolian_gerbil", weight_kg=grams / 1000, dehydration_percent=5)
+    for entry in plan.schedule:  # what the nurse reads: "Give D mL SC in N sites, V mL per site"
+        per_site = float(entry.action.split()[7])
+        assert per_site <= 10 * grams / 1000 + 1e-9, entry.action
+    assert all(p.ml_per_site <= 10 * grams / 1000 + 1e-9 for p in plan.phases)
 
 
 def test_chelonians_default_to_intracoelomic_and_hypertonic_sc_is_blocked():

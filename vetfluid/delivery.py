@@ -87,15 +87,22 @@ def syringe_ml(volume_ml: float) -> float:
     return round(volume_ml / SYRINGE_STEP_ML) * SYRINGE_STEP_ML
 
 
-def draw_up_ml(volume_ml: float) -> float:
-    """A hand-drawn dose rounded to its syringe's marks: 0.01 mL below 1 mL, else 0.1 mL.
+def draw_up_ml(volume_ml: float, *, at_most: float | None = None) -> float:
+    """A hand-drawn dose rounded to its syringe's marks: 0.01 mL below 1 mL, else 0.1 mL;
+    down to the mark below when the nearest one is above ``at_most`` (a site's limit).
 
     So a 0.57 mL site volume is not shown as 0.6 mL (six sites would then add up to
-    3.6 mL, not the 3.4 mL dose), nor 0.04 mL as nothing.
+    3.6 mL, not the 3.4 mL dose), 1.17 mL under a 1.17 mL limit is 1.1 mL, not 1.2 mL,
+    and a volume too small for the marks is the smallest mark, never nothing.
     """
     require_number(volume_ml, "volume_ml", low=0, unit="mL")
     step = SMALL_SYRINGE_STEP_ML if volume_ml < SMALL_SYRINGE_ML else SYRINGE_STEP_ML
-    return round(round(volume_ml / step) * step, 2)
+    marks = round(volume_ml / step)
+    if at_most is not None and marks * step > require_number(at_most, "at_most", low=0) + 1e-9:
+        marks = math.floor(volume_ml / step + 1e-9)
+    if marks == 0 and volume_ml > 0:
+        marks = 1
+    return round(marks * step, 2)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -108,16 +115,18 @@ class DrawnUpDose:
     dose_ml: float
 
 
-def drawn_up_dose(*, ml_per_site: float, sites: int) -> DrawnUpDose:
+def drawn_up_dose(*, ml_per_site: float, sites: int, at_most: float | None = None) -> DrawnUpDose:
     """The dose a nurse gives: each site's volume to its syringe's marks
-    (:func:`draw_up_ml`) times the sites, so the dose shown is what the sites add up to
-    (4 sites of 0.56 mL give 2.24 mL, not the 2.25 mL planned)."""
+    (:func:`draw_up_ml`, never above ``at_most`` per site) times the sites, so the dose
+    is what the sites add up to (4 sites of 0.56 mL give 2.24 mL, not 2.25 mL)."""
     if isinstance(sites, bool) or not isinstance(sites, int) or sites < 1:
         raise InputError(
             "the number of sites must be a whole number, at least 1",
             field="sites", value=sites, fix="give 1 or more sites",
         )  # fmt: skip
-    per_site = draw_up_ml(require_number(ml_per_site, "ml_per_site", low=0, unit="mL"))
+    per_site = draw_up_ml(
+        require_number(ml_per_site, "ml_per_site", low=0, unit="mL"), at_most=at_most
+    )
     return DrawnUpDose(sites=sites, ml_per_site=per_site, dose_ml=round(per_site * sites, 2))
 
 

@@ -128,13 +128,16 @@ def intermittent_phase(
     kcl_mmol_per_l: float,
     fluid_name: str = "",
 ) -> Phase:
-    """A phase of divided boluses that gives exactly ``need_ml_per_h`` × its hours.
+    """A phase of divided boluses giving ``need_ml_per_h`` × its hours, as drawn up.
 
     The interval comes from :func:`vetfluid.delivery.divided_boluses`; the phase is
     split into that many evenly spaced doses (rounding up, so no dose grows beyond
-    what the sites allow), and it gives neither more nor less than it needs. When the
-    phase is not a whole number of intervals the spacing shrinks below the interval;
-    the plan reports that as a finding.
+    what the sites allow). Each site's volume is what a nurse draws up
+    (:func:`vetfluid.delivery.drawn_up_dose`: to the syringe's marks, never above the
+    site's limit), and the dose and the phase's volume are what those add up to, so
+    every figure shown is one that is given; it differs from the exact need by less
+    than a syringe mark per site. When the phase is not a whole number of intervals
+    the spacing shrinks below the interval; the plan reports that as a finding.
     """
     split = delivery.divided_boluses(
         need_ml_per_h=need_ml_per_h, per_site_limit_ml=per_site_limit_ml, route=route
@@ -142,19 +145,20 @@ def intermittent_phase(
     hours = end_h - start_h
     doses = max(1, math.ceil(round(hours / split.interval_h, 9)))
     spacing = hours / doses
-    dose = need_ml_per_h * spacing
-    sites = max(1, math.ceil(round(dose / per_site_limit_ml, 9)))
+    need = need_ml_per_h * spacing
+    sites = max(1, math.ceil(round(need / per_site_limit_ml, 9)))
+    drawn = delivery.drawn_up_dose(ml_per_site=need / sites, sites=sites, at_most=per_site_limit_ml)
     return Phase(
         kind=kind,
         mode="intermittent",
         start_h=start_h,
         end_h=end_h,
-        volume_ml=dose * doses,
-        dose_ml=dose,
+        volume_ml=drawn.dose_ml * doses,
+        dose_ml=drawn.dose_ml,
         interval_h=spacing,
         doses=doses,
         sites_per_dose=sites,
-        ml_per_site=dose / sites,
+        ml_per_site=drawn.ml_per_site,
         route=route,
         kcl_mmol_per_l=kcl_mmol_per_l,
         fluid_name=fluid_name,
