@@ -274,3 +274,16 @@ def test_divided_doses_read_as_drawn_up_in_the_phase_list_and_the_json(capsys):
             and f"{site_ml} mL per site" in e["action"]
             for e in data["schedule"]
         )  # fmt: skip
+
+
+def test_the_patient_is_weighed_in_the_unit_of_its_species(capsys):
+    """A 65 g gerbil (the weight typed) is '65 g', not '0.065 kg'; a dog stays in kg."""
+    _, out, _ = run(capsys, "plan", "--species", "mongolian_gerbil", "--weight", "65 g")
+    assert out.splitlines()[0] == "Fluid plan — Mongolian gerbil, 65 g"
+    _, out, _ = run(capsys, "course", "--species", "mongolian_gerbil", "--weight", "117 g",
+                    "--dehydration", "5")  # fmt: skip
+    assert out.splitlines()[0] == "Course — Mongolian gerbil, 117 g"
+    _, data = run_json(capsys, "plan", "--species", "mongolian_gerbil", "--weight", "65 g")
+    assert data["weight_unit"] == "g" and data["weight_kg"] == pytest.approx(0.065)
+    _, data = run_json(capsys, "plan", "--species", "dog", "--weight", "20 kg")
+    assert data["weight_unit"] == "kg"

@@ -7,6 +7,8 @@ import subprocess
 import sys
 from pathlib import Path
 
+import pytest
+
 from vetfluid.demos import DEMOS
 from vetfluid.plan import PlanRequest, build_plan
 from vetfluid.serialize import plan_dict
@@ -79,3 +81,61 @@ def test_an_ins_and_outs_sheet_says_maintenance_is_not_given_and_shows_the_perio
     assert "not given — ins and outs every 6 h" in html
     assert "the periods planned so far, to hour 12" in html
     assert "Ins and outs (every 6 h" in html and "60 mL" in html
+
+
+# ---- weights in the species' own unit -------------------------------------------------------
+def gerbil_data(weight_kg: float = 0.117, **inputs):
+    return plan_dict(build_plan(PlanRequest(species_id="mongolian_gerbil", weight_kg=weight_kg,
+                                            dehydration_percent=5, **inputs)))  # fmt: skip
+
+
+def _header_and_labels(html: str) -> str:
+    """The header line and the labels, where the sheet names the patient's weight."""
+    header = html.split("<p>", 1)[1].split("</p>", 1)[0]
+    labels = html.split("<h3>Labels</h3>", 1)[1].split("<h3>", 1)[0]
+    return header + labels
+
+
+def test_a_gerbil_is_weighed_in_grams_with_every_figure():
+    """117 g (the weight entered here) printed as 0.12 kg would be 120 g: a dosing error."""
+    data = gerbil_data()
+    assert data["weight_unit"] == "g" and data["weight_kg"] == 0.117
+    shown = _header_and_labels(sheet_html(data))
+    assert "Mongolian gerbil, 117 g" in shown
+    assert shown.count("117 g") == 1 + len(data["phases"])  # the header and every label
+    assert " kg" not in shown
+
+
+def test_an_older_plan_file_without_the_unit_still_prints_the_weight_unrounded():
+    data = gerbil_data()
+    del data["weight_unit"]  # a plan JSON saved before the key existed
+    assert "Mongolian gerbil, 117 g" in sheet_html(data)  # unit from the typical weight used
+    data["provenance"] = [v for v in data["provenance"] if v["parameter"] != "body_weight_kg"]
+    assert "Mongolian gerbil, 117 g" in sheet_html(data)  # unit from the patient's weight
+    dog = dog_data()
+    del dog["weight_unit"]
+    assert "Dog, 24 kg" in sheet_html(dog)  # the demo dog: 24 kg
+    # an 800 g puppy is in kg as the window shows it (the unit of the species, not of
+    # this patient's weight)
+    puppy = plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=0.8)))
+    assert puppy["weight_unit"] == "kg" and "Dog, 0.8 kg" in sheet_html(puppy)
+    del puppy["weight_unit"]
+    assert "Dog, 0.8 kg" in sheet_html(puppy)
+
+
+def test_weights_keep_their_figures():
+    from vetfluid.sheet import weight_text
+
+    assert weight_text(0.065, "g") == "65 g"  # 0.065 × 1000 is 65.00000000000001
+    assert weight_text(0.0654, "g") == "65.4 g"
+    assert weight_text(4.25, "kg") == "4.25 kg"
+    assert weight_text(1.2345, "kg") == "1.2345 kg"
+
+
+def test_a_plan_file_with_an_unknown_weight_unit_is_refused():
+    from vetfluid.errors import InputError
+
+    data = gerbil_data()
+    data["weight_unit"] = "stone"
+    with pytest.raises(InputError, match="stone"):
+        sheet_html(data)

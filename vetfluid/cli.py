@@ -344,7 +344,12 @@ def _phase_line(phase: Phase) -> str:
 def print_plan(plan: Plan) -> None:
     """The plan as a readable sheet for a person at a terminal."""
     from vetfluid.serialize import plan_dict
-    from vetfluid.sheet import first_24h_text, ins_and_outs_rows, maintenance_text
+    from vetfluid.sheet import (
+        first_24h_text,
+        ins_and_outs_rows,
+        maintenance_text,
+        patient_weight_text,
+    )
 
     data = plan_dict(plan)
     fl = data["fluid"]
@@ -369,7 +374,7 @@ def print_plan(plan: Plan) -> None:
         s = data["sodium"]
         rows.append(("Sodium", f"ΔNa {_q(s['delta_na_per_l'], 'mmol/L')} per litre; fastest rate "
                      f"{_q(s['max_rate_ml_per_h'], 'mL/h')}"))  # fmt: skip
-    print(f"Fluid plan — {data['species_name']}, {_q(data['weight_kg'], 'kg')}")
+    print(f"Fluid plan — {data['species_name']}, {patient_weight_text(data)}")
     for label, text in rows:
         if text is not None:
             print(f"  {label:13} {text}")
@@ -514,6 +519,7 @@ COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
 def cmd_course(args: argparse.Namespace) -> int:
     from vetfluid.course import bolus_input, course
     from vetfluid.plan import build_plan
+    from vetfluid.sheet import weight_text
 
     plan = build_plan(_request(args))
     hours = _hours(args.at)
@@ -540,7 +546,8 @@ def cmd_course(args: argparse.Namespace) -> int:
     if args.json:
         _emit(data)
     else:
-        print(f"Course — {plan.species_name}, {_q(plan.request.weight_kg, 'kg')}")
+        weight = weight_text(plan.request.weight_kg, plan.weight_unit)
+        print(f"Course — {plan.species_name}, {weight}")
         print(f"{'hour':>6} " + " ".join(f"{k:>20}" for k in COURSE_KEYS))
         for row in rows:
             cells = " ".join(f"{'—' if row[k] is None else format(row[k], '.6g'):>20}"

@@ -70,6 +70,9 @@ def plan_dict(plan: Plan) -> dict[str, object]:
         "species_id": request.species_id,
         "species_name": plan.species_name,
         "weight_kg": request.weight_kg,
+        # the unit this species' weight is given in (a 65 g gerbil, not 0.065 kg), so
+        # what is printed from the JSON shows the weight as the window does
+        "weight_unit": plan.weight_unit,
         "maintenance": {
             "ml_per_day": plan.maintenance.ml_per_day,
             "ml_per_h": plan.maintenance.ml_per_h,

@@ -17,11 +17,13 @@ from html import escape
 from vetfluid.cautions import CAUTIONS
 from vetfluid.delivery import DrawnUpDose, drawn_up_dose
 from vetfluid.errors import InputError
+from vetfluid.formatting import format_number
 from vetfluid.formatting import format_quantity as q
 from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time, sites_text
 from vetfluid.serialize import plan_dict
+from vetfluid.units import preferred_weight_unit, weight_in_unit
 
 SEVERITY_WORDS = {"info": "Note", "soft": "Warning", "hard": "HARD LIMIT"}
 NURSE_COLUMNS = ("Rate set", "Volume given", "Weight", "HR", "RR", "MM / CRT", "Urine", "Initials")
@@ -31,6 +33,45 @@ STYLE = (
     "body { font-family: sans-serif; font-size: 9pt; } "
     "table { border-collapse: collapse; } td, th { border: 1px solid black; padding: 2px; }"
 )
+
+
+# A weight is printed with every figure it has, up to this many significant figures (a
+# 117 g gerbil is "117 g", never "0.12 kg"); more than any scale reads.
+WEIGHT_SIGNIFICANT_FIGURES = 6
+
+
+def weight_text(weight_kg: float, unit: str) -> str:
+    """A body weight in ``unit`` (g, kg or lb) with all its figures: ``65 g``, ``117 g``,
+    ``24 kg``, ``4.25 kg``. Never rounded to fewer figures than it has (up to
+    :data:`WEIGHT_SIGNIFICANT_FIGURES`): a weight that is rounded is a different weight.
+    A unit that is not a weight unit raises InputError."""
+    value = weight_in_unit(weight_kg, unit)
+    if value == 0:
+        return f"0 {unit}"
+    most = max(0, min(8, WEIGHT_SIGNIFICANT_FIGURES - 1 - math.floor(math.log10(abs(value)))))
+    # the fewest decimals that keep the value (117.00000000000001 g is 117 g)
+    decimals = next(
+        (d for d in range(most) if abs(round(value, d) - value) <= 1e-9 * abs(value)), most
+    )
+    return f"{format_number(value, decimals=decimals)} {unit}"
+
+
+def patient_weight_text(data: dict) -> str:
+    """The patient's weight in a plan's JSON, in the unit the plan gives (``weight_unit``:
+    the species' own, as the window shows it). A plan saved before that key existed gets
+    the unit the same way the plan chooses it: from the species' typical weight in the
+    values used, else from the patient's weight."""
+    unit = data.get("weight_unit")
+    if unit is None:
+        typical = next(
+            (v.get("value") for v in data.get("provenance") or ()
+             if isinstance(v, dict) and v.get("parameter") == "body_weight_kg"),
+            None,
+        )  # fmt: skip
+        if isinstance(typical, bool) or not isinstance(typical, int | float):
+            typical = data["weight_kg"]
+        unit = preferred_weight_unit(typical)
+    return weight_text(data["weight_kg"], unit)
 
 
 def table_html(rows: list[list[str]], header: list[str] | None, *, padding: int = 2) -> str:
@@ -121,7 +162,7 @@ def sheet_html(
         f"<h2>Fluid treatment sheet — {escape(str(name))}</h2>",
         "<p>"
         + escape(
-            f"{data['species_name']}, {q(data['weight_kg'], 'kg')}"
+            f"{data['species_name']}, {patient_weight_text(data)}"
             + "".join(f" · {k}: {v}" for k, v in patient.items() if k != "name" and v)
         )
         + f"<br>Status: {'marked ready' if ready else 'NOT marked ready'}</p>",
@@ -258,6 +299,7 @@ def _phase_text(p: dict) -> str:
 def _labels(data: dict, name: str, start) -> str:  # noqa: ANN001
     """One label per bag or syringe: patient, fluid with additives, rate, start and discard."""
     cells = []
+    weight = patient_weight_text(data)
     for p in data["phases"]:
         fluid = p.get("fluid") or data["fluid"]["name"]
         rate = (
@@ -275,7 +317,7 @@ def _labels(data: dict, name: str, start) -> str:  # noqa: ANN001
                 escape(text)
                 for text in (
                     name,
-                    f"{data['species_name']}, {q(data['weight_kg'], 'kg')}",
+                    f"{data['species_name']}, {weight}",
                     fluid,
                     f"{p['kind']}: {rate} {p['route'].upper()}",
                     f"start {begin} · discard by {discard}",
