@@ -149,3 +149,53 @@ def test_compare_two_saved_versions(qtbot, planner):
     weight_row = next(r for r in range(model.rowCount()) if model.text(r, 0) == "Weight")
     assert (model.text(weight_row, 2), model.text(weight_row, 3)) == ("24 kg", "25 kg")
     assert model.text(weight_row, 1) == "≠ differs"
+
+
+def test_a_reason_comes_back_from_a_draft_or_version_for_the_words_it_was_given_for(
+    qtbot, planner, monkeypatch
+):
+    window, code = planner, "DIVIDED_TOO_MANY_SITES"
+    window.open_demo("small_gerbil")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.acknowledge(code, "owner declined IO")
+    said = window.session.acknowledged_for[code]
+    window.save_version(name="Pip", author="AB")
+    window._save_draft()  # what the autosave does after the next edit
+    monkeypatch.setattr(QMessageBox, "question", lambda *a: QMessageBox.StandardButton.Yes)
+    version = window.records.find_patients("Pip")[0].id
+    for reopen in (window.offer_draft, lambda: window.load_version(version, 1)):
+        window.new_patient()
+        qtbot.waitUntil(lambda: window.session.plan is None)
+        reopen()
+        qtbot.waitUntil(lambda: window.session.plan is not None)
+        assert window.session.acknowledged == {code: "owner declined IO"}
+        assert window.session.acknowledged_for == {code: said}  # the words it was given for
+        window.session.update(replace_hours=12)  # other figures: the reason lapses
+        qtbot.waitUntil(lambda: window.session.plan.request.replace_hours == 12)
+        assert code in {f.code for f in window.session.blockers()}
+
+
+def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_with(
+    qtbot, planner, monkeypatch
+):
+    from vetfluid.serialize import request_to_dict
+
+    window, code = planner, "DIVIDED_TOO_MANY_SITES"
+    window.open_demo("small_gerbil")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    said_at_24_h = next(f.message for f in window.session.plan.findings if f.code == code)
+    window.session.update(replace_hours=12)
+    qtbot.waitUntil(lambda: window.session.plan.request.replace_hours == 12)
+    assert next(f.message for f in window.session.plan.findings if f.code == code) != said_at_24_h
+    window.records.save_draft(  # a reason recorded for the 24 h words, kept with the 12 h plan
+        {"request": request_to_dict(window.session.plan.request),
+         "acknowledged": {code: "owner declined IO"},
+         "acknowledged_for": {code: said_at_24_h}, "closed": True}
+    )  # fmt: skip
+    monkeypatch.setattr(QMessageBox, "question", lambda *a: QMessageBox.StandardButton.Yes)
+    window.new_patient()
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    assert window.offer_draft()
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    assert code in {f.code for f in window.session.blockers()}
+    assert window.session.lapsed[code] == ("owner declined IO", said_at_24_h)

@@ -200,10 +200,41 @@ def test_a_reason_covers_the_warning_it_was_given_for_not_a_changed_one(qtbot, w
     )
     shown = model.data(model.index(row, 3))
     assert "the warning changed" in shown and "owner declined IO" in shown
-    assert (
-        model.data(model.index(row, 3), Qt.ItemDataRole.EditRole) == "owner declined IO; two nurses"
-    )
+    # the editor opens empty: leaving it must not give the old reason again unread
+    assert model.data(model.index(row, 3), Qt.ItemDataRole.EditRole) == ""
+    assert "owner declined IO" in model.data(model.index(row, 3), Qt.ItemDataRole.ToolTipRole)
     assert "divided too many sites" in findings.status.text()  # in words, not a code
+
+    session.update(replace_hours=24)  # back to the words the reason was given for
+    wait_for_plan(qtbot, window, lambda p: p.request.replace_hours == 24)
+    assert session.acknowledged == {"DIVIDED_TOO_MANY_SITES": "owner declined IO; two nurses"}
+    assert not session.blockers()
+
+
+def test_a_reason_opened_from_a_file_covers_only_the_warning_it_was_saved_with(qtbot, window):
+    # a reason kept while its warning had gone (dehydration 0 %) is saved, the file reopened,
+    # and the warning comes back with other figures: the reason must not cover it
+    window.open_demo("small_gerbil")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "mongolian_gerbil")
+    session = window.session
+    session.acknowledge("DIVIDED_TOO_MANY_SITES", "owner declined IO")
+    session.update(dehydration_percent=0.0)
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 0)
+    assert "DIVIDED_TOO_MANY_SITES" not in {f.code for f in plan.findings}
+    session.replace_request(plan.request, session.acknowledged)  # as File → Open does
+    wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 0)
+    session.update(dehydration_percent=12.0)
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 12)
+    assert "DIVIDED_TOO_MANY_SITES" in {f.code for f in plan.findings}
+    assert "DIVIDED_TOO_MANY_SITES" in {f.code for f in session.blockers()}
+    assert not session.mark_ready()
+
+    # a file whose warning is in the plan it opens: the reason covers that wording
+    window.open_demo("small_gerbil")
+    wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 7)
+    session.replace_request(session.plan.request, {"DIVIDED_TOO_MANY_SITES": "owner declined IO"})
+    wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 7)
+    assert not session.blockers()
 
 
 def test_memory_values_are_marked_in_words(qtbot, window):

@@ -74,7 +74,9 @@ class FindingsModel(QAbstractTableModel):
                 reason = self.session.acknowledged.get(f.code, "")
                 lapsed, _ = self.session.lapsed.get(f.code, ("", ""))
                 if role == Qt.ItemDataRole.EditRole:
-                    return reason or lapsed  # an earlier reason is offered for editing
+                    # never the lapsed reason: leaving the editor would give it again
+                    # unread (it is shown beside, and in full in the tooltip)
+                    return reason
                 if reason:
                     return f"✓ {reason}"
                 if lapsed:

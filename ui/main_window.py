@@ -304,6 +304,7 @@ class MainWindow(QMainWindow):
                 {
                     "request": request_to_dict(self.session.plan.request),
                     "acknowledged": self.session.acknowledged,
+                    "acknowledged_for": self.session.acknowledged_for,
                     "patient_id": self.current_patient,
                     "closed": closed,
                 }
@@ -335,7 +336,12 @@ class MainWindow(QMainWindow):
         except (VetfluidError, KeyError, TypeError) as exc:
             self.statusBar().showMessage(f"The draft could not be restored: {exc}")
             return False
-        self.session.replace_request(request, draft.get("acknowledged") or {})
+        wording = draft.get("acknowledged_for")
+        self.session.replace_request(
+            request,
+            draft.get("acknowledged") or {},
+            wording if isinstance(wording, dict) else None,  # older drafts have none
+        )
         self.current_patient = draft.get("patient_id")
         self.statusBar().showMessage("Restored the plan that was being edited.")
         return True
@@ -390,7 +396,12 @@ class MainWindow(QMainWindow):
         from vetfluid.serialize import request_from_dict
 
         chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
-        self.session.replace_request(request_from_dict(chosen.request), chosen.acknowledged)
+        # what each warning said when the version was saved: its reason covers that only
+        said = {f.get("code"): f.get("message") for f in chosen.plan.get("findings", ())}
+        wording = {code: said[code] for code in chosen.acknowledged if code in said}
+        self.session.replace_request(
+            request_from_dict(chosen.request), chosen.acknowledged, wording
+        )
         self.current_patient = patient_id
         patient = self.records.patient(patient_id)
         self.statusBar().showMessage(f"Opened {patient.name}, version {version}.")

@@ -25,6 +25,10 @@ BLANK_INPUTS: dict[str, Any] = {
 }
 
 
+# what a reason opened from a file was given for, when its warning was not in the plan
+WORDING_NOT_KNOWN = "(not among the warnings when this plan was opened)"
+
+
 class PlanSession(QObject):
     """Holds the inputs, the plan built from them and the acknowledged warnings."""
 
@@ -50,6 +54,7 @@ class PlanSession(QObject):
         self._acknowledged_for: dict[str, str] = {}
         #: reasons that lapsed because their warning changed: code → (reason, what it said)
         self.lapsed: dict[str, tuple[str, str]] = {}
+        self._adopt_wording = False  # reasons opened without their wording: see replace_request
         self._ready = False
         self.observations: list = []  # vetfluid.observations.Observation, for this version
         self.versions: list[tuple[PlanRequest, tuple]] = []  # earlier (request, observations)
@@ -92,15 +97,19 @@ class PlanSession(QObject):
     ) -> None:
         """A new patient (None), a demo or an opened file: everything is replaced.
 
-        ``acknowledged`` reasons cover the warnings as the new plan words them, unless
-        ``acknowledged_for`` says what they were given for (a re-plan): then a warning
-        that now says something else needs its reason again."""
+        ``acknowledged_for`` is what each reason's warning said when it was given (a
+        re-plan, a draft, a saved version): a warning that now says something else needs
+        its reason again. Reasons opened without it (a plan file) cover their warnings
+        as the first plan built from ``request`` words them, as they were saved; a
+        reason whose warning is not in that plan lapses rather than covering whatever
+        the warning may say later."""
         self._inputs = (
             {f: getattr(request, f) for f in REQUEST_FIELDS} if request else dict(BLANK_INPUTS)
         )
         self._field_errors.clear()
         self._acknowledged = dict(acknowledged or {})
         self._acknowledged_for = dict(acknowledged_for or {})
+        self._adopt_wording = acknowledged_for is None
         self.lapsed = {}
         # outputs measured before this session: kept for periods no new observation covers
         self._saved_outputs = (
@@ -183,13 +192,21 @@ class PlanSession(QObject):
 
     def _lapse_changed_acknowledgements(self, plan: Plan) -> None:
         """A reason given for one wording of a warning ("6 sites at 0.57 mL") does not
-        cover another ("7 sites at 0.65 mL"): it lapses and is kept to show the user."""
-        for finding in plan.findings:
-            code = finding.code
-            if code not in self._acknowledged:
-                continue
-            given_for = self._acknowledged_for.setdefault(code, finding.message)
-            if given_for != finding.message:
+        cover another ("7 sites at 0.65 mL"): it lapses and is kept to show the user, and
+        covers the warning again if it comes back to the words it was given for."""
+        adopting, self._adopt_wording = self._adopt_wording, False
+        shown = {f.code: f.message for f in plan.findings}
+        for code, (reason, given_for) in list(self.lapsed.items()):
+            if shown.get(code) == given_for:  # e.g. a weight retyped digit by digit
+                del self.lapsed[code]
+                self._acknowledged[code], self._acknowledged_for[code] = reason, given_for
+        for code in list(self._acknowledged):
+            message, given_for = shown.get(code), self._acknowledged_for.get(code)
+            if given_for is None and adopting and message is not None:
+                self._acknowledged_for[code] = message  # the plan it was saved with
+            elif given_for is None:
+                self.lapsed[code] = (self._acknowledged.pop(code), WORDING_NOT_KNOWN)
+            elif message is not None and message != given_for:
                 self.lapsed[code] = (self._acknowledged.pop(code), given_for)
                 del self._acknowledged_for[code]
 
