@@ -139,3 +139,30 @@ def test_a_plan_file_with_an_unknown_weight_unit_is_refused():
     data["weight_unit"] = "stone"
     with pytest.raises(InputError, match="stone"):
         sheet_html(data)
+
+
+# ---- the hard-limit mark --------------------------------------------------------------------
+def _hard_limit_data():
+    """A 20 g dog: the weight-unit slip is a hard limit (test_cli: WEIGHT_UNIT_SLIP)."""
+    data = plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=0.02)))
+    assert data["hard_limit"] and any(f["severity"] == "hard" for f in data["findings"])
+    return data
+
+
+def test_a_hard_finding_marks_the_sheet_even_without_the_hard_limit_flag():
+    from vetfluid.sheet import BLOCKED_MARK, page_mark
+
+    data = _hard_limit_data()
+    del data["hard_limit"]  # a hand-edited or older plan JSON
+    assert page_mark(data) == BLOCKED_MARK and f"✖ {BLOCKED_MARK}" in sheet_html(data)
+    data["hard_limit"] = False  # the flag says no, the finding says yes: marked
+    assert page_mark(data) == BLOCKED_MARK and f"✖ {BLOCKED_MARK}" in sheet_html(data)
+
+
+def test_the_hard_limit_flag_alone_marks_the_sheet():
+    from vetfluid.sheet import BLOCKED_MARK, page_mark
+
+    data = dog_data()
+    assert page_mark(data) == "" and BLOCKED_MARK not in sheet_html(data)
+    data["hard_limit"] = True  # findings edited away, the flag kept
+    assert page_mark(data) == BLOCKED_MARK and f"✖ {BLOCKED_MARK}" in sheet_html(data)

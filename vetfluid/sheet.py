@@ -126,16 +126,29 @@ def _dose_ml(p: dict) -> str:
 BLOCKED_MARK = "HARD LIMIT — NOT TO BE GIVEN AS IT STANDS"
 
 
+def _hard_findings(data: dict) -> list[dict]:
+    return [
+        f for f in data.get("findings") or () if isinstance(f, dict) and f.get("severity") == "hard"
+    ]
+
+
+def blocked(data: dict) -> bool:
+    """Whether a plan's JSON has a hard limit: its ``hard_limit`` flag or any finding of
+    severity "hard" says so (a hand-edited or older file may carry only one of them;
+    either is enough to keep the plan from looking like one to give)."""
+    return bool(data.get("hard_limit")) or bool(_hard_findings(data))
+
+
 def page_mark(data: dict) -> str:
     """What every printed page of a plan with a hard limit says beside the cautions
     (pages get separated; the first page's warning alone is not enough)."""
-    return BLOCKED_MARK if data.get("hard_limit") else ""
+    return BLOCKED_MARK if blocked(data) else ""
 
 
 def _blocked_html(data: dict) -> str:
-    hard = [f["message"] for f in data.get("findings", ()) if f.get("severity") == "hard"]
-    if not data.get("hard_limit"):
+    if not blocked(data):
         return ""
+    hard = [str(f.get("message", "")) for f in _hard_findings(data)]
     return (
         f"<p><b>✖ {BLOCKED_MARK}.</b> "
         + escape(" ".join(hard))
