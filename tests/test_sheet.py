@@ -139,6 +139,9 @@ def test_a_plan_file_with_an_unknown_weight_unit_is_refused():
     data["weight_unit"] = "stone"
     with pytest.raises(InputError, match="stone"):
         sheet_html(data)
+    for weight in ("0.117", float("nan"), None):
+        with pytest.raises(InputError, match="weight"):
+            sheet_html({**gerbil_data(), "weight_kg": weight})
 
 
 # ---- the hard-limit mark --------------------------------------------------------------------

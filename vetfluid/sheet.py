@@ -45,6 +45,11 @@ def weight_text(weight_kg: float, unit: str) -> str:
     ``24 kg``, ``4.25 kg``. Never rounded to fewer figures than it has (up to
     :data:`WEIGHT_SIGNIFICANT_FIGURES`): a weight that is rounded is a different weight.
     A unit that is not a weight unit raises InputError."""
+    if isinstance(weight_kg, bool) or not isinstance(weight_kg, int | float):
+        raise InputError("the weight is not a number", field="weight_kg", value=weight_kg)
+    if not math.isfinite(weight_kg):
+        raise InputError("cannot print a weight that is not finite", field="weight_kg",
+                         value=weight_kg)  # fmt: skip
     value = weight_in_unit(weight_kg, unit)
     if value == 0:
         return f"0 {unit}"
