@@ -287,3 +287,14 @@ def test_the_patient_is_weighed_in_the_unit_of_its_species(capsys):
     assert data["weight_unit"] == "g" and data["weight_kg"] == pytest.approx(0.065)
     _, data = run_json(capsys, "plan", "--species", "dog", "--weight", "20 kg")
     assert data["weight_unit"] == "kg"
+
+
+def test_the_potassium_line_is_the_sheets_at_the_fastest_rate(capsys):
+    from vetfluid.demos import DEMOS
+    from vetfluid.serialize import plan_dict
+    from vetfluid.sheet import potassium_text
+
+    _, out, _ = run(capsys, "plan", "--demo", "dehydrated_dog")  # serum K 3.3: KCl added
+    data = plan_dict(build_plan(DEMOS["dehydrated_dog"].request))
+    assert f"Potassium     {potassium_text(data)}" in out
+    assert "at the fastest rate" in out

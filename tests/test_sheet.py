@@ -169,3 +169,109 @@ def test_the_hard_limit_flag_alone_marks_the_sheet():
     assert page_mark(data) == "" and BLOCKED_MARK not in sheet_html(data)
     data["hard_limit"] = True  # findings edited away, the flag kept
     assert page_mark(data) == BLOCKED_MARK and f"✖ {BLOCKED_MARK}" in sheet_html(data)
+
+
+# ---- what a nurse needs on the sheet: the date, the inputs, potassium, the additives -----------
+def test_the_date_of_hour_0_heads_the_sheet_and_later_days_carry_their_date():
+    """The demo dog starts on DEMO_DAY at 08:00 (vetfluid/demos.py)."""
+    from datetime import date, datetime, timedelta
+
+    from vetfluid.demos import DEMO_DAY
+    from vetfluid.sheet import date_text
+
+    data = dog_data()
+    html = sheet_html(data)
+    assert f"Hour 0: {date_text(DEMO_DAY)}, 08:00" in html
+    # hour 16 is 00:00 the next day: the window's '(+1 d)' with the date it means
+    next_day = DEMO_DAY + timedelta(days=1)
+    assert f"00:00 (+1 d, {date_text(next_day, year=False)})" in html
+    assert date_text(date(2026, 12, 1)) == "Tue 1 Dec 2026"  # a calendar: a Tuesday
+    start = datetime(2026, 12, 1, 8, 0)
+    assert (start + timedelta(hours=16)).date() == next_day
+
+
+def test_without_a_date_or_a_time_the_sheet_leaves_a_blank_to_write_it_in():
+    eight = DEMOS["dehydrated_dog"].request.start_time  # 08:00
+    no_date = plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=20, start_time=eight)))
+    html = sheet_html(no_date)
+    assert "Hour 0: 08:00, date not entered — write it here" in html
+    assert "00:00 (+1 d)" in html  # the window's words, no date to add
+    html = sheet_html(plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=20))))
+    assert "Hour 0: clock time not entered — write it here" in html
+
+
+def test_a_start_date_that_is_not_a_date_is_refused():
+    from vetfluid.errors import InputError
+
+    data = dog_data()
+    data["request"]["start_date"] = "1/12/2026"
+    with pytest.raises(InputError, match="start date"):
+        sheet_html(data)
+
+
+def _inputs_block(html: str) -> str:
+    return html.split("<h3>Patient inputs</h3>", 1)[1].split("<h3>", 1)[0]
+
+
+def test_the_patient_inputs_block_lists_flags_temperature_dehydration_and_the_labs_entered():
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=6,
+                                  renal_disease=True, neonate=True, serum_na=146.5,
+                                  usg=1.012, pcv_percent=35, losses_ml_per_day=120))  # fmt: skip
+    block = _inputs_block(sheet_html(plan_dict(plan)))
+    assert "renal disease, neonate" in block and "cardiac" not in block
+    assert "6 %, entered" in block and "120 mL/day" in block
+    # the figures entered above, none rounded (146.5 is not 147) and only those entered
+    assert "Na 146.5 mmol/L · USG 1.012 · PCV 35 %" in block
+    assert "K " not in block and "TS" not in block and "osmolality" not in block
+    bare = plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=20)))
+    nothing = _inputs_block(sheet_html(bare))
+    assert "none entered" in nothing and "none (renal" in nothing
+
+
+def test_an_estimate_from_findings_is_marked_not_confirmed_and_a_temperature_is_shown():
+    plan = build_plan(PlanRequest(species_id="bearded_dragon", weight_kg=0.38, body_temp_c=24,
+                                  dehydration_findings=("membranes_dry",)))  # fmt: skip
+    data = plan_dict(plan)
+    block = _inputs_block(sheet_html(data))
+    estimate = data["dehydration_estimate"]
+    assert "NOT CONFIRMED" in block and "membranes_dry" in block
+    assert f"{estimate['percent_low']:g}–{estimate['percent_high']:g} %" in block
+    assert "24 °C" in block
+    confirmed = plan_dict(build_plan(PlanRequest(
+        species_id="bearded_dragon", weight_kg=0.38, dehydration_percent=5,
+        dehydration_findings=("membranes_dry",),
+    )))  # fmt: skip
+    block = _inputs_block(sheet_html(confirmed))
+    assert "5 %, entered" in block and "NOT CONFIRMED" not in block
+
+
+def test_the_potassium_line_and_the_labels_give_the_strength_in_the_bag():
+    from vetfluid.formatting import format_quantity as q
+
+    data = dog_data()  # serum K 3.3: KCl from the scale (Côté 2020)
+    k = data["potassium"]
+    html = sheet_html(data)
+    line = (f"{q(k['kcl_mmol_per_l'], 'mmol/L')} KCl added (serum-K scale): "
+            f"K {q(k['bag_k_mmol_per_l'], 'mmol/L')} in the bag; "
+            f"{q(k['peak_mmol_per_kg_per_h'], 'mmol/kg/h')} at the fastest rate")  # fmt: skip
+    assert line in html
+    label = f"K {q(data['fluid']['k_mmol_per_l'], 'mmol/L')} in the bag"
+    labels = html.split("<h3>Labels</h3>", 1)[1].split("<h3>", 1)[0]
+    assert labels.count(label) == len(data["phases"])  # every bag here carries the KCl
+    none = sheet_html(plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=20))))
+    assert "no serum K entered, no KCl added" in none and "in the bag" not in none
+
+
+def test_a_bolus_bag_has_nothing_added_and_dextrose_is_given_by_its_strength():
+    from vetfluid.formatting import format_quantity as q
+
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, resuscitation_boluses=1,
+                                  kcl_mmol_per_l=20, dextrose_percent=2.5))  # fmt: skip
+    data = plan_dict(plan)
+    labels = sheet_html(data).split("<h3>Labels</h3>", 1)[1].split("</table>", 1)[0]
+    cells = labels.split("<td>")[1:]
+    assert "with nothing added" in cells[0] and "in the bag" not in cells[0]
+    from vetfluid import fluids
+
+    dextrose = fluids.composition(plan.bag).dextrose_hydrous_g_per_l / 10  # g/L → % w/v
+    assert all(f"dextrose {q(dextrose, '%')} in the bag" in c for c in cells[1:])

@@ -349,6 +349,7 @@ def print_plan(plan: Plan) -> None:
         ins_and_outs_rows,
         maintenance_text,
         patient_weight_text,
+        potassium_text,
     )
 
     data = plan_dict(plan)
@@ -365,11 +366,7 @@ def print_plan(plan: Plan) -> None:
         ("First 24 h", first_24h_text(data)),
     ]  # fmt: skip
     if "potassium" in data:
-        k = data["potassium"]
-        rows.append(("Potassium", f"add {_q(k['kcl_mmol_per_l'], 'mmol/L')} KCl "
-                     f"({k['added_by']}) → "
-                     f"{_q(k['mmol_per_kg_per_h'], 'mmol/kg/h')} "
-                     f"(ceiling {_q(k['ceiling_mmol_per_kg_per_h'], 'mmol/kg/h')})"))  # fmt: skip
+        rows.append(("Potassium", potassium_text(data)))
     if "sodium" in data:
         s = data["sodium"]
         rows.append(("Sodium", f"ΔNa {_q(s['delta_na_per_l'], 'mmol/L')} per litre; fastest rate "

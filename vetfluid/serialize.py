@@ -101,6 +101,8 @@ def plan_dict(plan: Plan) -> dict[str, object]:
             "name": plan.fluid_name,
             "na_mmol_per_l": plan.fluid_na_mmol_per_l,
             "k_mmol_per_l": plan.fluid_k_mmol_per_l,
+            # dextrose monohydrate in the bag, additives included (g/L; ÷ 10 is % w/v)
+            "dextrose_g_per_l": fluids.composition(plan.bag).dextrose_hydrous_g_per_l,
             "tonicity": plan.tonicity.effective_class,
             "tonicity_in_bag": plan.tonicity.in_vitro_class,
             "osmolarity_ratio_to_plasma": plan.tonicity.in_vitro_ratio,

@@ -12,6 +12,8 @@ as those characters. Numbers are formatted the safe way.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
+from datetime import date, datetime, time, timedelta
 from html import escape
 
 from vetfluid.cautions import CAUTIONS
@@ -50,15 +52,21 @@ def weight_text(weight_kg: float, unit: str) -> str:
     if not math.isfinite(weight_kg):
         raise InputError("cannot print a weight that is not finite", field="weight_kg",
                          value=weight_kg)  # fmt: skip
-    value = weight_in_unit(weight_kg, unit)
+    return f"{entered_number(weight_in_unit(weight_kg, unit))} {unit}"
+
+
+def entered_number(value: float) -> str:
+    """A number someone entered (a weight, a lab value) with all its figures, up to
+    :data:`WEIGHT_SIGNIFICANT_FIGURES`, the safe way (``146.5``, ``0.35``, never
+    ``147`` or ``.35``): the fewest decimals that keep the value
+    (117.00000000000001 is 117)."""
     if value == 0:
-        return f"0 {unit}"
+        return "0"
     most = max(0, min(8, WEIGHT_SIGNIFICANT_FIGURES - 1 - math.floor(math.log10(abs(value)))))
-    # the fewest decimals that keep the value (117.00000000000001 g is 117 g)
     decimals = next(
         (d for d in range(most) if abs(round(value, d) - value) <= 1e-9 * abs(value)), most
     )
-    return f"{format_number(value, decimals=decimals)} {unit}"
+    return format_number(value, decimals=decimals)
 
 
 def patient_weight_text(data: dict) -> str:
@@ -86,14 +94,60 @@ def table_html(rows: list[list[str]], header: list[str] | None, *, padding: int 
     return f"<table width='100%' cellspacing='0' cellpadding='{padding}'>{head}{body}</table>"
 
 
-def _start(data: dict):  # noqa: ANN202 — datetime.time | None
-    from datetime import datetime
-
+def _start(data: dict) -> time | None:
     start = (data.get("request") or {}).get("start_time")
     if not start:
         clocks = [e["clock"] for e in data["schedule"] if e.get("clock")]
         return datetime.strptime(clocks[0][:5], "%H:%M").time() if clocks else None
     return datetime.strptime(start, "%H:%M").time()
+
+
+WEEKDAYS = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
+MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+
+
+def date_text(day: date, *, year: bool = True) -> str:
+    """A date no reader can take the wrong way round: ``Tue 1 Dec 2026`` (English names,
+    whatever the locale; 01/12 is 1 December to some and 12 January to others)."""
+    text = f"{WEEKDAYS[day.weekday()]} {day.day} {MONTHS[day.month - 1]}"
+    return f"{text} {day.year}" if year else text
+
+
+def _start_date(data: dict) -> date | None:
+    """The date of hour 0 in a plan's JSON; a date that is not YYYY-MM-DD is refused."""
+    day = (data.get("request") or {}).get("start_date")
+    if not day:
+        return None
+    try:
+        return date.fromisoformat(day)
+    except (TypeError, ValueError):
+        raise InputError(
+            "the start date is not a date", field="start_date", value=day, fix="YYYY-MM-DD"
+        ) from None
+
+
+def sheet_clock(start: time | None, day: date | None, hour: float) -> str:
+    """The clock of an hour of the plan: ``20:00``; on a later day ``00:00 (+1 d, Wed 2
+    Dec)`` when the date of hour 0 is known (the window's ``(+1 d)`` with the date it
+    means), else ``00:00 (+1 d)``; without a start time ``h 16``."""
+    if start is None:
+        return f"h {hour:g}"
+    if day is None:
+        return clock_time(start, hour) or f"h {hour:g}"
+    moment = datetime.combine(day, start) + timedelta(hours=hour)
+    days = (moment.date() - day).days
+    later = f" (+{days} d, {date_text(moment.date(), year=False)})" if days else ""
+    return moment.strftime("%H:%M") + later
+
+
+def hour_zero_text(data: dict) -> str:
+    """When hour 0 is, with a blank to write in what was not entered."""
+    start, day = _start(data), _start_date(data)
+    if start is None:
+        return "Hour 0: clock time not entered — write it here: ____________"
+    if day is None:
+        return f"Hour 0: {start:%H:%M}, date not entered — write it here: ____________"
+    return f"Hour 0: {date_text(day)}, {start:%H:%M}"
 
 
 def _planned_at(phases: list[dict], hour: float) -> str:
@@ -161,6 +215,102 @@ def _blocked_html(data: dict) -> str:
     )
 
 
+FLAG_WORDS = (
+    ("renal_disease", "renal disease"),
+    ("cardiac_disease", "cardiac disease"),
+    ("neonate", "neonate"),
+    ("anaesthesia", "under anaesthesia"),
+)
+
+
+def _dehydration_input(data: dict, request: dict) -> str:
+    """The dehydration %, and whether it was entered or is an unconfirmed estimate."""
+    percent = data["dehydration_percent"]
+    estimate = data.get("dehydration_estimate")
+    band = (
+        f"{estimate['percent_low']:g}–{estimate['percent_high']:g} % from findings "
+        f"({', '.join(estimate['findings'])})"
+        if estimate
+        else ""
+    )
+    if "dehydration_percent" not in request:  # a file without the request
+        return f"{percent:g} % (whether entered or estimated is not in this plan file)"
+    if request["dehydration_percent"] is not None:
+        return f"{percent:g} %, entered" + (f" (findings suggested {band})" if band else "")
+    if estimate:
+        return f"{percent:g} %, ESTIMATED {band}, NOT CONFIRMED by the clinician"
+    return f"{percent:g} % (none entered and no findings given)"
+
+
+def patient_inputs_rows(data: dict) -> list[list[str]]:
+    """What was entered about the patient, as the plan's JSON carries it: the flags, an
+    ectotherm's body temperature, dehydration (entered, or estimated and not confirmed),
+    ongoing losses and the labs entered (only those)."""
+    request = data.get("request") or {}
+    flags = [words for key, words in FLAG_WORDS if request.get(key)]
+    rows = [["Flags", ", ".join(flags) if flags else "none (renal, cardiac, neonate, anaesthesia)"]]
+    temperature = request.get("body_temp_c")
+    if temperature is not None:
+        factor = (data.get("maintenance") or {}).get("temperature_factor")
+        scaled = (
+            f"; maintenance × {format_number(factor)} for it"
+            if factor is not None and factor != 1
+            else ""
+        )
+        rows.append(["Body temperature", f"{entered_number(temperature)} °C{scaled}"])
+    rows.append(["Dehydration", _dehydration_input(data, request)])
+    if request.get("losses_ml_per_day"):
+        rows.append(["Ongoing losses", f"{entered_number(request['losses_ml_per_day'])} mL/day"])
+    labs = [
+        f"{label} {entered_number(request[key])}{unit}"
+        for key, label, unit in (
+            ("serum_na", "Na", " mmol/L"),
+            ("serum_k", "K", " mmol/L"),
+            ("usg", "USG", ""),
+            ("urine_osmolality", "urine osmolality", " mOsm/kg"),
+            ("pcv_percent", "PCV", " %"),
+            ("total_solids_g_per_dl", "TS", " g/dL"),
+        )
+        if request.get(key) is not None
+    ]
+    rows.append(["Labs", " · ".join(labs) if labs else "none entered"])
+    return rows
+
+
+def potassium_text(data: dict) -> str:
+    """The potassium line of a plan's JSON, as the window gives it: KCl added and how it
+    was chosen, the K in the bag, and mmol/kg/h at the fastest rate against its ceiling."""
+    k = data.get("potassium")
+    if not k:
+        return "no serum K entered, no KCl added"
+    return (
+        f"{q(k['kcl_mmol_per_l'], 'mmol/L')} KCl added ({k['added_by']}): "
+        f"K {q(k['bag_k_mmol_per_l'], 'mmol/L')} in the bag; "
+        f"{q(k['peak_mmol_per_kg_per_h'], 'mmol/kg/h')} at the fastest rate "
+        f"({q(k['peak_rate_ml_per_h'], 'mL/h')}; "
+        f"ceiling {q(k['ceiling_mmol_per_kg_per_h'], 'mmol/kg/h')})"
+    )
+
+
+def additive_lines(data: dict, phase: dict) -> list[str]:
+    """What was added to a phase's bag, by its strength in the bag (``K 31.6 mmol/L in the
+    bag (KCl 28 mmol/L added)``), beside the mL of concentrate in the fluid's name.
+    Resuscitation boluses run the fluid with nothing added."""
+    fluid = data["fluid"]
+    if (phase.get("fluid") or fluid["name"]) != fluid["name"]:
+        return []
+    lines = []
+    if phase.get("kcl_mmol_per_l"):
+        lines.append(
+            f"K {q(fluid['k_mmol_per_l'], 'mmol/L')} in the bag "
+            f"(KCl {q(phase['kcl_mmol_per_l'], 'mmol/L')} added)"
+        )
+    dextrose = fluid.get("dextrose_g_per_l")
+    if (data.get("request") or {}).get("dextrose_percent") and dextrose is not None:
+        lines.append(f"dextrose {q(dextrose / 10.0, '%')} in the bag")  # g/L → % w/v
+    return lines
+
+
 def sheet_html(
     data: dict,
     *,
@@ -171,7 +321,11 @@ def sheet_html(
     """The treatment sheet for a plan's JSON (``vetfluid-cli plan --json``)."""
     acknowledged = acknowledged or {}
     patient = patient or {}
-    start = _start(data)
+    start, day = _start(data), _start_date(data)
+
+    def clock(hour: float) -> str:
+        return sheet_clock(start, day, hour)
+
     end = max(p["end_h"] for p in data["phases"])
     hours = range(int(math.ceil(end)))
     name = patient.get("name") or "(patient name)"
@@ -183,9 +337,12 @@ def sheet_html(
             f"{data['species_name']}, {patient_weight_text(data)}"
             + "".join(f" · {k}: {v}" for k, v in patient.items() if k != "name" and v)
         )
+        + f"<br>{escape(hour_zero_text(data))}"
         + f"<br>Status: {'marked ready' if ready else 'NOT marked ready'}</p>",
         _blocked_html(data),
         "<p><b>Cautions:</b> " + escape(" ".join(CAUTIONS)) + "</p>",
+        "<h3>Patient inputs</h3>",
+        table_html(patient_inputs_rows(data), None),
         "<h3>Plan</h3>",
         table_html(
             [
@@ -195,6 +352,7 @@ def sheet_html(
                     f"{data['dehydration_percent']:g} % → deficit {q(data['deficit_ml'], 'mL')}",
                 ],
                 ["Fluid", data["fluid"]["name"]],
+                ["Potassium", potassium_text(data)],
                 ["Route", f"{data['route'].upper()} ({data['device']})"],
                 ["First 24 h", first_24h_text(data)],
             ]
@@ -204,21 +362,20 @@ def sheet_html(
         _ins_and_outs_html(data),
         "<h3>Schedule</h3>",
         table_html(
-            [[e["clock"] or f"h {e['hour']:g}", e["phase"], e["action"]] for e in data["schedule"]],
+            [[clock(e["hour"]), e["phase"], e["action"]] for e in data["schedule"]],
             ["Clock", "Phase", "What to do"],
         ),
         "<h3>Hourly record (fill in)</h3>",
         table_html(
             [
-                [clock_time(start, h) or f"h {h}", f"{h}", _planned_at(data["phases"], h)]
-                + [""] * len(NURSE_COLUMNS)
+                [clock(h), f"{h}", _planned_at(data["phases"], h)] + [""] * len(NURSE_COLUMNS)
                 for h in hours
             ],
             ["Clock", "Hour", "Planned", *NURSE_COLUMNS],
             padding=6,  # room to write by hand
         ),
         "<h3>Labels</h3>",
-        _labels(data, str(name), start),
+        _labels(data, str(name), clock),
         "<h3>Findings</h3>",
         table_html(
             [
@@ -314,8 +471,9 @@ def _phase_text(p: dict) -> str:
     )
 
 
-def _labels(data: dict, name: str, start) -> str:  # noqa: ANN001
-    """One label per bag or syringe: patient, fluid with additives, rate, start and discard."""
+def _labels(data: dict, name: str, clock: Callable[[float], str]) -> str:
+    """One label per bag or syringe: patient, fluid with additives and their strength in
+    the bag, rate, start and discard (``clock``: :func:`sheet_clock` of an hour)."""
     cells = []
     weight = patient_weight_text(data)
     for p in data["phases"]:
@@ -325,10 +483,8 @@ def _labels(data: dict, name: str, start) -> str:  # noqa: ANN001
             if p["mode"] == "continuous"
             else f"{_dose_ml(p)} per dose"
         )
-        begin = clock_time(start, p["start_h"]) or f"h {p['start_h']:g}"
-        discard = clock_time(start, p["start_h"] + DISCARD_AFTER_H) or (
-            f"h {p['start_h'] + DISCARD_AFTER_H:g}"
-        )
+        begin = clock(p["start_h"])
+        discard = clock(p["start_h"] + DISCARD_AFTER_H)
         cells.append(
             "<td>"
             + "<br>".join(
@@ -337,6 +493,7 @@ def _labels(data: dict, name: str, start) -> str:  # noqa: ANN001
                     name,
                     f"{data['species_name']}, {weight}",
                     fluid,
+                    *additive_lines(data, p),
                     f"{p['kind']}: {rate} {p['route'].upper()}",
                     f"start {begin} · discard by {discard}",
                 )
