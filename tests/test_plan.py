@@ -412,3 +412,19 @@ def test_an_intracoelomic_dose_bigger_than_one_injection_says_so():
                                         dehydration_percent=0))  # fmt: skip
     assert all(p.sites_per_dose == 1 for p in euhydrated.phases if p.mode == "intermittent")
     assert "ICOEL_MORE_THAN_ONE_INJECTION" not in {f.code for f in euhydrated.findings}
+
+
+@pytest.mark.parametrize("kg", [24500.0, 0.00005])
+def test_a_weight_beyond_any_patient_names_the_likely_slip_in_words(kg):
+    # 24500 "kg" is a 24.5 kg dog typed in grams with kg chosen: the message says so in
+    # words, not as a field code and bounds
+    with pytest.raises(InputError) as err:
+        plan_for(species_id="dog", weight_kg=kg)
+    assert err.value.message.startswith(f"a weight of {kg:g} kg is beyond any patient")
+    assert "weight_kg" not in err.value.message and "unit" in err.value.fix
+
+
+def test_a_cat_typed_as_4000_kg_gets_the_species_hard_limit_not_a_bound_error():
+    # with a serum K the potassium arithmetic once refused weights over 2000 kg first
+    plan = plan_for(species_id="cat", weight_kg=4000.0, serum_k=3.0)
+    assert codes(plan)["WEIGHT_UNIT_SLIP"] == "hard"  # "far outside the usual …, check the unit"

@@ -36,3 +36,27 @@ def require_number(
             bounds = f"at most {high:g}{unit_text}"
         raise InputError(f"{name} must be {bounds}", field=name, value=value, fix=fix)
     return number
+
+
+# Bounds of any weight vetfluid plans for, from a 0.1 g hatchling to a 5 t animal: a
+# sanity range for typing errors, not a clinical limit (each species' own range gives
+# those as findings). Set by us, no source.
+PATIENT_WEIGHT_KG = (1e-4, 5000.0)
+
+
+def require_patient_weight(weight_kg: object, field: str = "weight_kg") -> float:
+    """A body weight (kg) within :data:`PATIENT_WEIGHT_KG`; outside it the message names
+    the weight in words and the likely slip (the unit), not the field's code."""
+    number = require_number(
+        weight_kg, field, fix="type the weight as a number with its unit (g, kg or lb)"
+    )
+    low, high = PATIENT_WEIGHT_KG
+    if not low <= number <= high:
+        raise InputError(
+            f"a weight of {number:g} kg is beyond any patient vetfluid plans for "
+            f"({low * 1000:g} g to {high:g} kg)",
+            field=field,
+            value=weight_kg,
+            fix="check the number and its unit (g, kg or lb)",
+        )
+    return number

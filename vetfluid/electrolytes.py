@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
 
-from vetfluid.checks import require_number
+from vetfluid.checks import require_number, require_patient_weight
 from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import SpeciesDataError
 from vetfluid.paths import resource_dir
@@ -75,7 +75,7 @@ def potassium_mmol_per_kg_h(
     *, k_mmol_per_l: float, rate_ml_per_h: float, weight_kg: float
 ) -> float:
     """Potassium delivered (mmol/kg/h) = K concentration × rate ÷ 1000 ÷ BW."""
-    _finite("weight_kg", weight_kg, 1e-4, 2000, "kg")
+    require_patient_weight(weight_kg)
     return k_mmol_per_l * rate_ml_per_h / 1000.0 / weight_kg
 
 

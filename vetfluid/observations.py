@@ -32,7 +32,7 @@ from datetime import date, datetime, timedelta
 
 import numpy as np
 
-from vetfluid.checks import require_number
+from vetfluid.checks import require_number, require_patient_weight
 from vetfluid.errors import InputError
 from vetfluid.findings import Finding
 from vetfluid.formatting import format_number
@@ -77,8 +77,9 @@ class Observation:
 
     def __post_init__(self) -> None:
         require_number(self.hour, "hour", low=0, high=14 * 24, unit="h")
+        if self.weight_kg is not None:
+            require_patient_weight(self.weight_kg)
         for name, low, high, unit in (
-            ("weight_kg", 1e-4, 5000, "kg"),
             ("pcv_percent", 3, 90, "%"),
             ("total_solids_g_per_dl", 1, 15, "g/dL"),
             ("urine_ml", 0, 1e6, "mL"),

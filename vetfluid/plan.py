@@ -26,7 +26,7 @@ from vetfluid import (
     safety,
     schedule,
 )
-from vetfluid.checks import require_number
+from vetfluid.checks import require_number, require_patient_weight
 from vetfluid.errors import InputError
 from vetfluid.findings import Finding, worst
 from vetfluid.formatting import format_quantity
@@ -88,7 +88,7 @@ class PlanRequest:
     measured_outputs: tuple[tuple[float, float], ...] = ()  # (urine mL, other mL) per period
 
     def __post_init__(self) -> None:
-        _require(self.weight_kg, "weight_kg", 1e-4, 5000, "kg")
+        require_patient_weight(self.weight_kg)
         if self.dehydration_percent is not None:
             hydration.check_percent(self.dehydration_percent)
         _require(self.replace_hours, "replace_hours", 1, 96, "h")
