@@ -182,12 +182,32 @@ def test_the_date_of_hour_0_heads_the_sheet_and_later_days_carry_their_date():
     data = dog_data()
     html = sheet_html(data)
     assert f"Hour 0: {date_text(DEMO_DAY)}, 08:00" in html
-    # hour 16 is 00:00 the next day: the window's '(+1 d)' with the date it means
+    # hour 16 is 00:00 the next day: the hourly record gives the window's '(+1 d)' under a
+    # heading with the date; the labels (discard 24 h after 08:00) the date beside it
     next_day = DEMO_DAY + timedelta(days=1)
-    assert f"00:00 (+1 d, {date_text(next_day, year=False)})" in html
+    hourly = html.split("Hourly record", 1)[1].split("<h3>", 1)[0]
+    assert f"<b>{date_text(next_day)} (+1 d)</b></td></tr><tr><td>00:00 (+1 d)</td>" in hourly
+    assert hourly.count("(+1 d)</b>") == 1 and f"<b>{date_text(DEMO_DAY)}</b>" in hourly
+    assert f"discard by 08:00 (+1 d, {date_text(next_day, year=False)})" in html
     assert date_text(date(2026, 12, 1)) == "Tue 1 Dec 2026"  # a calendar: a Tuesday
     start = datetime(2026, 12, 1, 8, 0)
     assert (start + timedelta(hours=16)).date() == next_day
+
+
+def test_a_later_days_schedule_entry_carries_its_date():
+    """Boluses at 22:30 on 1 March 2026 (a Sunday by the calendar): replacement starts at
+    23:15, maintenance 24 h later on Monday 2 March."""
+    from datetime import date, time
+
+    from vetfluid.sheet import date_text
+
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=24, resuscitation_boluses=3,
+                                  dehydration_percent=5, start_time=time(22, 30),
+                                  start_date=date(2026, 3, 1)))  # fmt: skip
+    html = sheet_html(plan_dict(plan))
+    schedule = html.split("<h3>Schedule</h3>", 1)[1].split("<h3>", 1)[0]
+    assert f"<td>23:15 (+1 d, {date_text(date(2026, 3, 2), year=False)})</td>" in schedule
+    assert date_text(date(2026, 3, 2), year=False) == "Mon 2 Mar"
 
 
 def test_without_a_date_or_a_time_the_sheet_leaves_a_blank_to_write_it_in():
@@ -275,3 +295,64 @@ def test_a_bolus_bag_has_nothing_added_and_dextrose_is_given_by_its_strength():
 
     dextrose = fluids.composition(plan.bag).dextrose_hydrous_g_per_l / 10  # g/L → % w/v
     assert all(f"dextrose {q(dextrose, '%')} in the bag" in c for c in cells[1:])
+
+
+# ---- a bolus after the first is given only if still poorly perfused ---------------------------
+def _three_boluses():
+    eight = DEMOS["dehydrated_dog"].request.start_time  # 08:00
+    return plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=24,
+                                            resuscitation_boluses=3, dehydration_percent=5,
+                                            start_time=eight)))  # fmt: skip
+
+
+def test_later_boluses_are_marked_conditional_wherever_the_sheet_lists_them():
+    from vetfluid.sheet import CONDITIONAL
+
+    data = _three_boluses()
+    schedule = [e["action"] for e in data["schedule"] if e["phase"] == "resuscitation"]
+    assert schedule[0].startswith("Bolus") and all(
+        a.startswith("If still poorly perfused at reassessment") for a in schedule[1:]
+    )  # the schedule's words, which the sheet follows
+    html = sheet_html(data)
+    hourly = html.split("Hourly record", 1)[1].split("<h3>", 1)[0]
+    first_hour = hourly.split("<td>08:00</td>", 1)[1].split("</tr>", 1)[0]
+    assert "bolus 360 mL in 15 min" in first_hour  # 15 mL/kg × 24 kg over 15 min
+    assert f"bolus 2 ({CONDITIONAL})" in first_hour and f"bolus 3 ({CONDITIONAL})" in first_hour
+    assert "bolus 1 (" not in first_hour
+    # the rate that follows the boluses in that hour is listed too, from its start
+    replacement = next(p for p in data["phases"] if p["kind"] == "replacement")
+    from vetfluid.formatting import format_quantity as q
+
+    assert f"from 08:45: {q(replacement['rate_ml_per_h'], 'mL/h')}" in first_hour
+    labels = html.split("<h3>Labels</h3>", 1)[1].split("<h3>", 1)[0]
+    assert labels.count(CONDITIONAL.upper()) == 2
+    assert "bolus 2: " + CONDITIONAL.upper() in labels
+    plan_rows = html.split("<h3>Plan</h3>", 1)[1].split("<h3>", 1)[0]
+    assert plan_rows.count(CONDITIONAL) == 3  # boluses 2 and 3, and the first 24 h total
+
+
+def test_the_first_24_h_total_says_how_much_is_conditional():
+    from vetfluid.formatting import format_quantity as q
+    from vetfluid.sheet import first_24h_text
+
+    data = _three_boluses()
+    later = [p for p in data["phases"] if p["kind"] == "resuscitation"][1:]
+    maybe = sum(p["volume_ml"] for p in later)
+    assert f"of which {q(maybe, 'mL')} in boluses given only if" in first_24h_text(data)
+    assert "only if" not in first_24h_text(dog_data())  # no boluses
+    one = plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=24,
+                                           resuscitation_boluses=1)))  # fmt: skip
+    assert "only if" not in sheet_html(one)  # a single bolus is given
+
+
+def test_species_values_print_the_safe_way_without_trailing_zeros():
+    """The safe-number rule (vetfluid/formatting.py): 20 kg, never 20.0 kg."""
+    data = dog_data()
+    sources = sheet_html(data).split("Sources of the species values used", 1)[1]
+    whole = [v for v in data["provenance"] if isinstance(v["value"], float)
+             and v["value"].is_integer()]  # fmt: skip
+    assert whole  # e.g. the typical weight, 20 kg
+    for v in whole:
+        assert f"<td>{int(v['value'])} {v['unit']}</td>" in sources
+        assert f"{v['value']} {v['unit']}" not in sources
+    assert "True" not in sources  # a yes/no value says yes or no

@@ -31,6 +31,7 @@ SEVERITY_WORDS = {"info": "Note", "soft": "Warning", "hard": "HARD LIMIT"}
 NURSE_COLUMNS = ("Rate set", "Volume given", "Weight", "HR", "RR", "MM / CRT", "Urine", "Initials")
 # Discard a spiked bag or filled syringe after 24 h: common practice, no source.
 DISCARD_AFTER_H = 24.0
+LABELS_PER_ROW = 3  # wide enough to read a fluid's name with its additives
 STYLE = (
     "body { font-family: sans-serif; font-size: 9pt; } "
     "table { border-collapse: collapse; } td, th { border: 1px solid black; padding: 2px; }"
@@ -87,10 +88,28 @@ def patient_weight_text(data: dict) -> str:
     return weight_text(data["weight_kg"], unit)
 
 
-def table_html(rows: list[list[str]], header: list[str] | None, *, padding: int = 2) -> str:
-    cells = "".join(f"<th align='left'>{escape(h)}</th>" for h in header or ())
+def table_html(
+    rows: list[list[str] | str],
+    header: list[str] | None,
+    *,
+    padding: int = 2,
+    widths: dict[str, int] | None = None,
+) -> str:
+    """A table of text (escaped). A row that is one string is a heading across the whole
+    table (a new day in the hourly record); ``widths``: a header's share of the width, %."""
+    widths = widths or {}
+    cells = "".join(
+        f"<th align='left'{f' width={widths[h]}%' if h in widths else ''}>{escape(h)}</th>"
+        for h in header or ()
+    )
     head = f"<tr>{cells}</tr>" if header else ""
-    body = "".join("<tr>" + "".join(f"<td>{escape(c)}</td>" for c in row) + "</tr>" for row in rows)
+    span = max((len(r) for r in [header or [], *rows] if not isinstance(r, str)), default=1)
+    body = "".join(
+        f"<tr><td colspan='{span}'><b>{escape(row)}</b></td></tr>"
+        if isinstance(row, str)
+        else "<tr>" + "".join(f"<td>{escape(c)}</td>" for c in row) + "</tr>"
+        for row in rows
+    )
     return f"<table width='100%' cellspacing='0' cellpadding='{padding}'>{head}{body}</table>"
 
 
@@ -150,12 +169,47 @@ def hour_zero_text(data: dict) -> str:
     return f"Hour 0: {date_text(day)}, {start:%H:%M}"
 
 
-def _planned_at(phases: list[dict], hour: float) -> str:
-    """What the schedule says for the hour starting at ``hour``: a rate or the doses due."""
+# A resuscitation bolus after the first is given only if the patient is still poorly
+# perfused when reassessed (vetfluid.schedule words it so); the sheet says it wherever it
+# lists such a bolus, so none reads as routine.
+CONDITIONAL = "only if still poorly perfused at reassessment"
+
+
+def bolus_numbers(phases: list[dict]) -> dict[int, int]:
+    """Each resuscitation bolus's number (1, 2, …) by its index in ``phases``, counted as
+    the schedule counts them; a number above 1 is a bolus given only if still needed."""
+    numbers: dict[int, int] = {}
+    for index, p in enumerate(phases):
+        if p["kind"] == "resuscitation" and p["mode"] == "continuous":
+            numbers[index] = len(numbers) + 1
+    return numbers
+
+
+def _conditional(phases: list[dict], index: int) -> bool:
+    return bolus_numbers(phases).get(index, 1) > 1
+
+
+def _planned_at(phases: list[dict], hour: float, start: time | None) -> str:
+    """What the schedule plans for the hour starting at ``hour``: each rate that runs in
+    it (from when, if it starts within the hour), each bolus (later ones only if still
+    poorly perfused) and each divided dose due."""
+    numbers = bolus_numbers(phases)
     parts = []
-    for p in phases:
-        if p["mode"] == "continuous" and p["start_h"] <= hour < p["end_h"]:
-            parts.append(q(p["rate_ml_per_h"], "mL/h"))
+    for index, p in enumerate(phases):
+        if p["mode"] == "continuous" and p["start_h"] < hour + 1 and p["end_h"] > hour:
+            rate = q(p["rate_ml_per_h"], "mL/h")
+            if index in numbers:
+                minutes = (p["end_h"] - p["start_h"]) * 60
+                bolus = f"{q(p['volume_ml'], 'mL')} in {minutes:.0f} min ({rate})"
+                number = numbers[index]
+                parts.append(
+                    f"bolus {bolus}" if number == 1 else f"bolus {number} ({CONDITIONAL}): {bolus}"
+                )
+                continue
+            if p["start_h"] > hour:
+                when = clock_time(start, p["start_h"])
+                rate = f"from {when[:5] if when else 'h ' + format(p['start_h'], 'g')}: {rate}"
+            parts.append(rate)
         elif p["mode"] == "intermittent":
             due = [
                 p["start_h"] + i * p["interval_h"]
@@ -163,7 +217,27 @@ def _planned_at(phases: list[dict], hour: float) -> str:
                 if hour <= p["start_h"] + i * p["interval_h"] < hour + 1
             ]
             parts += [f"dose {_dose_ml(p)}" for _ in due]
-    return ", ".join(parts) or "—"
+    return "; ".join(parts) or "—"
+
+
+def _hourly_rows(
+    data: dict, hours: range, start: time | None, day: date | None
+) -> list[list[str] | str]:
+    """The hourly record: clock (``00:30 (+1 d)`` as the window gives it), hour, what is
+    planned, blanks to fill in; when the date of hour 0 is known, a heading with the date
+    where each new day begins."""
+    rows: list[list[str] | str] = []
+    for h in hours:
+        if start is not None and day is not None:
+            moment = datetime.combine(day, start) + timedelta(hours=h)
+            days = (moment.date() - day).days
+            if h == 0 or moment.hour == 0:
+                rows.append(f"{date_text(moment.date())}" + (f" (+{days} d)" if days else ""))
+        clock = clock_time(start, h) or f"h {h}"
+        rows.append(
+            [clock, f"{h}", _planned_at(data["phases"], h, start)] + [""] * len(NURSE_COLUMNS)
+        )
+    return rows
 
 
 def _drawn(p: dict) -> DrawnUpDose:
@@ -356,7 +430,18 @@ def sheet_html(
                 ["Route", f"{data['route'].upper()} ({data['device']})"],
                 ["First 24 h", first_24h_text(data)],
             ]
-            + [[f"Phase: {p['kind']}", _phase_text(p)] for p in data["phases"]],
+            + [
+                [
+                    f"Phase: {p['kind']}",
+                    _phase_text(p)
+                    + (
+                        f" — bolus {bolus_numbers(data['phases'])[i]}, {CONDITIONAL}"
+                        if _conditional(data["phases"], i)
+                        else ""
+                    ),
+                ]
+                for i, p in enumerate(data["phases"])
+            ],
             None,
         ),  # fmt: skip
         _ins_and_outs_html(data),
@@ -367,12 +452,10 @@ def sheet_html(
         ),
         "<h3>Hourly record (fill in)</h3>",
         table_html(
-            [
-                [clock(h), f"{h}", _planned_at(data["phases"], h)] + [""] * len(NURSE_COLUMNS)
-                for h in hours
-            ],
+            _hourly_rows(data, hours, start, day),
             ["Clock", "Hour", "Planned", *NURSE_COLUMNS],
             padding=6,  # room to write by hand
+            widths={"Clock": 13, "Planned": 24},
         ),
         "<h3>Labels</h3>",
         _labels(data, str(name), clock),
@@ -395,13 +478,24 @@ def sheet_html(
     return "".join(parts)
 
 
+def _amount(value: dict) -> str:
+    """A species value with its unit, the safe way (``20 kg``, not ``20.0 kg``); a yes/no
+    value as ``yes`` or ``no``."""
+    number = value["value"]
+    if isinstance(number, bool):
+        return "yes" if number else "no"
+    if isinstance(number, int | float):
+        return f"{entered_number(number)} {value['unit']}"
+    return f"{number} {value['unit']}"
+
+
 def sources_html(provenance: list[dict], citations: dict[str, str]) -> str:
     """Footnotes: every species value used with its basis, and the publications cited."""
     used = table_html(
         [
             [
                 v.get("label") or v["parameter"],
-                f"{v['value']} {v['unit']}",
+                _amount(v),
                 "memory — unverified" if v["basis"] == "memory" else v["basis"],
                 v["source_id"] or "—",
             ]
@@ -434,6 +528,14 @@ def first_24h_text(data: dict) -> str:
     io = data.get("ins_and_outs")
     covers = planned_so_far(end, io["period_h"] if io else None)
     so_far = f" ({covers})" if covers else ""
+    phases = data["phases"]
+    maybe = sum(
+        p["rate_ml_per_h"] * max(0.0, min(24.0, p["end_h"]) - p["start_h"])
+        for i, p in enumerate(phases)
+        if _conditional(phases, i)
+    )
+    if maybe > 0:
+        so_far += f", of which {q(maybe, 'mL')} in boluses given {CONDITIONAL}"
     return q(data["total_ml_first_24h"], "mL") + so_far
 
 
@@ -476,7 +578,8 @@ def _labels(data: dict, name: str, clock: Callable[[float], str]) -> str:
     the bag, rate, start and discard (``clock``: :func:`sheet_clock` of an hour)."""
     cells = []
     weight = patient_weight_text(data)
-    for p in data["phases"]:
+    numbers = bolus_numbers(data["phases"])
+    for index, p in enumerate(data["phases"]):
         fluid = p.get("fluid") or data["fluid"]["name"]
         rate = (
             q(p["rate_ml_per_h"], "mL/h")
@@ -495,12 +598,22 @@ def _labels(data: dict, name: str, clock: Callable[[float], str]) -> str:
                     fluid,
                     *additive_lines(data, p),
                     f"{p['kind']}: {rate} {p['route'].upper()}",
+                    *(
+                        [f"bolus {numbers[index]}: {CONDITIONAL.upper()}"]
+                        if numbers.get(index, 1) > 1
+                        else []
+                    ),
                     f"start {begin} · discard by {discard}",
                 )
             )
             + "</td>"
         )
-    return "<table cellspacing='4'><tr>" + "".join(cells) + "</tr></table>"
+    rows = [cells[i : i + LABELS_PER_ROW] for i in range(0, len(cells), LABELS_PER_ROW)]
+    return (
+        "<table cellspacing='4'>"
+        + "".join("<tr>" + "".join(row) + "</tr>" for row in rows)
+        + "</table>"
+    )
 
 
 def plan_sheet_html(
