@@ -327,7 +327,7 @@ def patient_inputs_rows(data: dict) -> list[list[str]]:
     if temperature is not None:
         factor = (data.get("maintenance") or {}).get("temperature_factor")
         scaled = (
-            f"; maintenance × {format_number(factor)} for it"
+            f"; maintenance scaled × {format_number(factor)} for this temperature"
             if factor is not None and factor != 1
             else ""
         )
