@@ -90,6 +90,37 @@ def test_enter_or_tab_takes_the_one_species_the_text_names(qtbot, window):
     assert "2 species match 'parrot'" in window.summary.problem.text()
     assert window.session.inputs["species_id"] == "bearded_dragon"
 
+    line.clear()
+    qtbot.keyClicks(line, "pig")  # Guinea pig or Pigeon? never guessed by where it stands
+    line.editingFinished.emit()
+    qtbot.waitUntil(lambda: "Guinea pig" in window.summary.problem.text())
+    assert "Pigeon" in window.summary.problem.text()
+    assert window.session.inputs["species_id"] == "bearded_dragon"
+    line.clear()
+    qtbot.keyClicks(line, "Rat")  # the whole common name of one of four matches names it
+    line.editingFinished.emit()
+    qtbot.waitUntil(lambda: window.session.inputs["species_id"] == "rat")
+
+    line.clear()
+    qtbot.keyClicks(line, "rodent")  # a group: several match, and the box says so ...
+    line.editingFinished.emit()
+    qtbot.waitUntil(lambda: "species match 'rodent'" in window.session.problem)
+    line.setText(patient.species_box.itemText(patient.species_box.findData("rat")))
+    line.editingFinished.emit()  # ... until the chosen species' name is back
+    qtbot.waitUntil(lambda: "match" not in window.session.problem)
+    assert "body weight" in window.session.problem  # the next step, not the stale message
+    assert not patient.species_box.property("problem")
+
+
+def test_tab_out_of_the_species_box_lands_on_the_weight(qtbot, window):
+    patient = window.patient
+    line = patient.species_box.lineEdit()
+    line.setFocus()
+    qtbot.keyClicks(line, "bearded")
+    qtbot.keyClick(line, Qt.Key.Key_Tab)  # focus leaves before the weight is enabled ...
+    qtbot.waitUntil(lambda: window.session.inputs["species_id"] == "bearded_dragon")
+    assert QApplication.focusWidget() is patient.weight_edit  # ... and comes back to it
+
 
 def test_a_unit_typed_with_the_weight_is_read_and_shown_in_the_box(qtbot, window):
     window.patient._set_species("dog")

@@ -13,6 +13,7 @@ import re
 
 from PySide6.QtCore import QSignalBlocker, Qt
 from PySide6.QtWidgets import (
+    QApplication,
     QCheckBox,
     QComboBox,
     QCompleter,
@@ -151,7 +152,10 @@ class PatientView(QWidget):
         completer.activated[str].connect(self._species_text_chosen)
         self.species_box.activated.connect(self._species_index_chosen)
         # Enter or Tab after typing part of a name takes the species it names, if only one
+        # (Tab with the suggestions open moves focus without the line edit's signal, so
+        # where focus goes is watched too)
         self.species_box.lineEdit().editingFinished.connect(self._species_typed)
+        QApplication.instance().focusChanged.connect(self._focus_moved)
         form.addRow("&Species", self.species_box)
 
         self.weight_edit = QLineEdit()
@@ -313,31 +317,62 @@ class PatientView(QWidget):
             self._set_species(self.species_box.itemData(index))
 
     def _species_typed(self) -> None:
-        """Enter or Tab after typing: take the species the text names, when it names one
-        (contained in one entry only, or at the start of one only); otherwise say so."""
+        """Enter or Tab after typing: take the species the text names — the only entry
+        that contains it, or the one whose common or scientific name or id it is —
+        otherwise say which match, never guess ("pig": Guinea pig or Pigeon?)."""
         text = self.species_box.currentText().strip()
         sid = self.session.inputs.get("species_id")
         chosen = self.species_box.findData(sid) if sid else -1
-        if not text or (chosen >= 0 and self.species_box.itemText(chosen) == text):
+        if not text:
+            return
+        if chosen >= 0 and self.species_box.itemText(chosen) == text:
+            if self.species_box.property("problem"):
+                self._set_species(sid)  # clears a message left by earlier text
             return
         wanted = text.casefold()
-        names = [self.species_box.itemText(i).casefold() for i in range(self.species_box.count())]
-        matches = [i for i, name in enumerate(names) if wanted in name]
-        starting = [i for i in matches if names[i].startswith(wanted)]
-        if len(matches) != 1 and len(starting) == 1:
-            matches = starting
+        table = self.session.table
+        ids = [self.species_box.itemData(i) for i in range(self.species_box.count())]
+        matches = [
+            i for i, name in enumerate(self.species_box.itemText(i) for i in range(len(ids)))
+            if wanted in name.casefold()
+        ]  # fmt: skip
+        named = [
+            i for i in matches
+            if wanted in (ids[i], table.species(ids[i]).common_name.casefold(),
+                          table.species(ids[i]).scientific_name.casefold())
+        ]  # fmt: skip
+        if len(matches) != 1 and len(named) == 1:
+            matches = named
         if len(matches) == 1:
             with QSignalBlocker(self.species_box):
                 self.species_box.setCurrentIndex(matches[0])
-            self._set_species(self.species_box.itemData(matches[0]))
+            self._set_species(ids[matches[0]])
+            self._to_weight_if_empty()
             return
-        problem = (
-            f"no species matches {text!r}: try a common name, a scientific name or a group"
-            if not matches
-            else f"{len(matches)} species match {text!r}: pick one from the list"
-        )
+        if matches:
+            names = [table.species(ids[i]).common_name for i in matches]
+            listed = ", ".join(names[:4]) + (
+                f" and {len(names) - 4} more" if len(names) > 4 else ""
+            )
+            problem = f"{len(matches)} species match {text!r} ({listed}): pick one from the list"
+        else:
+            problem = (
+                f"no species matches {text!r}: try a common name, a scientific name or a group"
+            )
         _mark(self.species_box, problem)
         self.session.set_field_error("species_id", f"Species: {problem}")
+
+    def _focus_moved(self, old: QWidget | None, new: QWidget | None) -> None:
+        box = (self.species_box, self.species_box.lineEdit())
+        if old in box and new not in box:
+            self._species_typed()
+
+    def _to_weight_if_empty(self) -> None:
+        """After a species is taken with Tab, focus has already passed the weight (it was
+        disabled while no species was chosen): bring it back there, the next thing to type."""
+        focus = QApplication.focusWidget()
+        if not self.weight_edit.text() and (focus is None or self.isAncestorOf(focus)):
+            self.weight_edit.setFocus(Qt.FocusReason.TabFocusReason)
 
     def _set_species(self, sid: str | None) -> None:
         if not sid:
