@@ -199,3 +199,51 @@ def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_wi
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert code in {f.code for f in window.session.blockers()}
     assert window.session.lapsed[code] == ("owner declined IO", said_at_24_h)
+
+
+def test_observations_are_kept_with_the_draft_and_the_saved_version(qtbot, planner, monkeypatch):
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    recorded = [Observation(hour=2.0, weight_kg=24.4), Observation(hour=4.0, urine_ml=90.0,
+                                                                  urine_period_h=4.0)]  # fmt: skip
+    for observation in recorded:
+        window.session.add_observation(observation)
+    window._save_draft()  # a crash now must not lose what the nurse recorded
+    monkeypatch.setattr(QMessageBox, "question", lambda *a: QMessageBox.StandardButton.Yes)
+    window.new_patient()
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    assert window.offer_draft()
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    assert window.session.observations == recorded
+
+    window.save_version(name="Rex", author="AB")
+    window.session.add_observation(Observation(hour=6.0, weight_kg=24.9))  # after the save
+    window.new_patient()
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    window.load_version(window.records.find_patients("Rex")[0].id, 1)
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    assert window.session.observations == recorded  # the version as it was saved
+
+
+def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
+    qtbot, planner, monkeypatch
+):
+    from vetfluid.serialize import request_to_dict
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.records.save_draft(
+        {"request": request_to_dict(window.session.plan.request), "closed": True,
+         "observations": [{"hour": 1.0, "weight_kg": 24.2}, {"hour": 2.0, "weight_kg": "heavy"},
+                          {"weight_kg": 24.0}]}
+    )  # fmt: skip
+    monkeypatch.setattr(QMessageBox, "question", lambda *a: QMessageBox.StandardButton.Yes)
+    window.new_patient()
+    assert window.offer_draft()
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    assert [o.weight_kg for o in window.session.observations] == [24.2]
+    assert "2 stored observation(s) could not be read" in window.statusBar().currentMessage()

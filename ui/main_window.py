@@ -305,6 +305,7 @@ class MainWindow(QMainWindow):
                     "request": request_to_dict(self.session.plan.request),
                     "acknowledged": self.session.acknowledged,
                     "acknowledged_for": self.session.acknowledged_for,
+                    "observations": self._observation_records(),
                     "patient_id": self.current_patient,
                     "closed": closed,
                 }
@@ -343,7 +344,8 @@ class MainWindow(QMainWindow):
             wording if isinstance(wording, dict) else None,  # older drafts have none
         )
         self.current_patient = draft.get("patient_id")
-        self.statusBar().showMessage("Restored the plan that was being edited.")
+        unreadable = self._restore_observations(draft.get("observations") or [])
+        self.statusBar().showMessage("Restored the plan that was being edited." + unreadable)
         return True
 
     def save_version(
@@ -372,6 +374,7 @@ class MainWindow(QMainWindow):
             number = self.records.save_version(
                 patient_id=self.current_patient, plan=plan,
                 acknowledged=self.session.acknowledged, author=author,
+                observations=self._observation_records(),
             )  # fmt: skip
         except (RecordsError, VetfluidError) as exc:
             QMessageBox.warning(self, "vetfluid", f"Not saved: {exc}")
@@ -402,9 +405,29 @@ class MainWindow(QMainWindow):
         self.session.replace_request(
             request_from_dict(chosen.request), chosen.acknowledged, wording
         )
+        unreadable = self._restore_observations(self.records.observations(chosen.id))
         self.current_patient = patient_id
         patient = self.records.patient(patient_id)
-        self.statusBar().showMessage(f"Opened {patient.name}, version {version}.")
+        self.statusBar().showMessage(f"Opened {patient.name}, version {version}.{unreadable}")
+
+    def _observation_records(self) -> list[dict]:
+        from vetfluid.observations import observation_record
+
+        return [observation_record(o) for o in self.session.observations]
+
+    def _restore_observations(self, records: list) -> str:
+        """Put stored observations back on the Course tab; one that cannot be read is
+        left out and counted in the returned note (the rest are kept)."""
+        from vetfluid.observations import observation_from_record
+
+        kept, unreadable = [], 0
+        for record in records:
+            try:
+                kept.append(observation_from_record(record))
+            except VetfluidError:
+                unreadable += 1
+        self.session.restore_observations(kept)
+        return f" {unreadable} stored observation(s) could not be read." if unreadable else ""
 
     @sources_not_kept()
     def _detail_opened(self, index: int) -> None:

@@ -230,6 +230,11 @@ class PlanSession(QObject):
         self.observations.sort(key=lambda o: o.hour)
         self._observed()
 
+    def restore_observations(self, observations) -> None:  # noqa: ANN001 — Observations
+        """The observations of a reopened draft or saved version (after replace_request)."""
+        self.observations = sorted(observations, key=lambda o: o.hour)
+        self._observed()
+
     def remove_observation(self, index: int) -> None:
         del self.observations[index]
         self._observed()

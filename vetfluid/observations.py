@@ -27,7 +27,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass, fields
 from datetime import date, datetime, timedelta
 
 import numpy as np
@@ -113,6 +113,34 @@ class Observation:
         if self.urine_ml is None or self.urine_period_h is None:
             return None
         return self.urine_ml / self.urine_period_h / weight_kg
+
+
+def observation_record(observation: Observation) -> dict[str, object]:
+    """An observation as stored in a draft or a saved plan version (its set fields)."""
+    return {k: v for k, v in asdict(observation).items() if v is not None and v != ""}
+
+
+def observation_from_record(record: object) -> Observation:
+    """An observation read back from a draft or a saved version; a record that is not one
+    raises :class:`InputError` naming what is wrong (values are checked as when typed)."""
+    known = {f.name for f in fields(Observation)}
+    if not isinstance(record, dict) or "hour" not in record:
+        raise InputError(
+            "a stored observation is not readable", field="observation", value=record,
+            fix="it needs at least an hour; the rest of the course is kept",
+        )  # fmt: skip
+    unknown = sorted(set(record) - known)
+    if unknown:
+        raise InputError(
+            f"a stored observation has unknown fields: {', '.join(unknown)}",
+            field="observation", value=record, fix="keep the fields vetfluid writes",
+        )  # fmt: skip
+    try:
+        return Observation(**record)
+    except TypeError as exc:
+        raise InputError(
+            f"a stored observation is not readable: {exc}", field="observation", value=record
+        ) from exc
 
 
 def weight_is_plausible(*, measured_kg: float, entered_kg: float) -> bool:

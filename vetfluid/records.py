@@ -264,9 +264,16 @@ class Records:
 
     # ---- plan versions ---------------------------------------------------------------------
     def save_version(
-        self, *, patient_id: int, plan, acknowledged: dict[str, str], author: str = ""
-    ) -> int:  # noqa: ANN001 — vetfluid.plan.Plan
-        """Save the plan as the patient's next version (one transaction); returns its number."""
+        self,
+        *,
+        patient_id: int,
+        plan,  # noqa: ANN001 — vetfluid.plan.Plan
+        acknowledged: dict[str, str],
+        author: str = "",
+        observations: list[dict] | tuple[dict, ...] = (),
+    ) -> int:
+        """Save the plan as the patient's next version with the observations recorded on
+        it so far (one transaction: all or nothing); returns its number."""
         from vetfluid.serialize import plan_dict, request_to_dict
 
         self.patient(patient_id)
@@ -280,12 +287,18 @@ class Records:
                     (patient_id,),
                 ).fetchone()
                 number = int(row[0])
-                self._db.execute(
+                cursor = self._db.execute(
                     "INSERT INTO plan_versions (patient_id, version, request_json, plan_json,"
                     " acknowledged_json, author, created_at, program_version)"
                     " VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
                     (patient_id, number, request_json, plan_json, ack_json, author, _now(),
                      __version__),
+                )  # fmt: skip
+                self._db.executemany(
+                    "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
+                    " VALUES (?, ?, ?)",
+                    [(cursor.lastrowid, json.dumps(o, ensure_ascii=False), _now())
+                     for o in observations],
                 )  # fmt: skip
         except sqlite3.OperationalError as exc:
             raise RecordsError(
