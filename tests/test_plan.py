@@ -187,6 +187,8 @@ def test_small_desert_rodent_gets_divided_boluses():
     assert phase.dose_ml == pytest.approx(phase.ml_per_site * phase.sites_per_dose)
     assert phase.ml_per_site == round(phase.ml_per_site, 2)  # a volume on the marks
     assert "DIVIDED_BOLUSES" in codes(plan)
+    said = next(f.message for f in plan.findings if f.code == "DIVIDED_BOLUSES")
+    assert said.startswith("At 70 g this patient")  # in the species' own unit
 
 
 def test_divided_dose_sites_add_up_to_the_dose_drawn():

@@ -445,7 +445,16 @@ def test_format_quantity_always_shows_the_unit(value, unit):
 
 @pytest.mark.parametrize(
     ("text", "expected"),
-    [("7.5", 7.5), ("7,5", 7.5), (" 12 ", 12.0), ("", None), ("  ", None), ("0,25", 0.25)],
+    [
+        ("7.5", 7.5),
+        ("7,5", 7.5),
+        (" 12 ", 12.0),
+        ("", None),
+        ("  ", None),
+        ("0,25", 0.25),
+        ("0,500", 0.5),
+        ("0,066", 0.066),
+    ],  # no thousands group starts with 0
 )
 def test_read_decimal_accepts_a_decimal_comma(text, expected):
     assert read_decimal(text) == expected

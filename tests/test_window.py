@@ -140,11 +140,23 @@ def test_an_estimate_from_findings_shows_as_unconfirmed_until_used(qtbot, window
     patient.finding_boxes["skin_return_delayed"].setChecked(True)
     plan = wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent is None)
     assert patient.dehydration_field.placeholderText().endswith("not confirmed")
+    assert (
+        window.summary.values["deficit"].text().endswith("(estimated from findings, not confirmed)")
+    )
     assert {f.code: f.severity for f in plan.findings}["DEHYDRATION_FROM_FINDINGS"] == "soft"
     qtbot.mouseClick(patient.use_estimate, Qt.MouseButton.LeftButton)
     plan = wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent is not None)
     assert patient.dehydration_field.text() == f"{plan.dehydration_percent:g}"
     assert "DEHYDRATION_FROM_FINDINGS" not in {f.code for f in plan.findings}
+    assert "not confirmed" not in window.summary.values["deficit"].text()
+
+
+def test_the_kcl_box_says_what_the_scale_chose(qtbot, window):
+    window.open_demo("dehydrated_dog")  # serum K 3.3 mmol/L: KCl from the scale
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
+    box = window.settings_box.kcl
+    assert not box.isEnabled()
+    assert box.placeholderText() == f"{q(plan.potassium.kcl_mmol_per_l, 'mmol/L')} from the scale"
 
 
 def test_hidden_views_catch_up_when_shown(qtbot, window):

@@ -487,10 +487,9 @@ class MainWindow(QMainWindow):
         else:
             from vetfluid.formatting import format_quantity
             from vetfluid.ins_and_outs import planned_so_far
-            from vetfluid.units import preferred_weight_unit, weight_in_unit
+            from vetfluid.units import weight_in_unit
 
-            typical = self.session.table.value(plan.request.species_id, "body_weight_kg")
-            unit = preferred_weight_unit(typical.number)  # 65 g, not 0.065 kg
+            unit = plan.weight_unit  # 65 g, not 0.065 kg
             weight = format_quantity(weight_in_unit(plan.request.weight_kg, unit), unit)
             self.setWindowTitle(f"vetfluid — {plan.species_name}, {weight}")
             total = format_quantity(plan.total_ml_first_24h, "mL")

@@ -173,6 +173,7 @@ class PlanSettings(QGroupBox):
             "KCl per litre from the published serum-K scale, or entered by hand",
         )
         self.kcl_mode.activated.connect(self._kcl_mode_changed)
+        session.planChanged.connect(self._show_scale_kcl)
         self.kcl = NumberField(session, "kcl_mmol_per_l", "mmol/L", "KCl to add per litre, mmol/L")
         row = QHBoxLayout()
         row.addWidget(self.kcl_mode, 2)
@@ -252,6 +253,17 @@ class PlanSettings(QGroupBox):
             self.session.set_field_error("drop_factor", f"Drop factor {text!r} is not a number")
             return
         self.session.update(drop_factor=value)
+
+    def _show_scale_kcl(self, plan: Plan | None) -> None:
+        """With KCl from the scale the box is disabled: its grey text says what was chosen."""
+        potassium = plan.potassium if plan is not None else None
+        text = (
+            f"{q(potassium.kcl_mmol_per_l, 'mmol/L')} from the scale"
+            if potassium is not None and plan.request.kcl_mmol_per_l is None
+            else "mmol/L"
+        )
+        if self.kcl.placeholderText() != text:
+            self.kcl.setPlaceholderText(text)
 
     def _kcl_mode_changed(self, _: int) -> None:
         by_hand = self.kcl_mode.currentData() == "hand"
@@ -396,6 +408,8 @@ class PlanSummary(QWidget):
             maintenance += f"; {maintenance_not_given(period)} — Course tab"
         self.values["maintenance"].setText(maintenance)
         deficit = f"{plan.dehydration_percent:g} % → {q(plan.deficit_ml, 'mL')}"
+        if plan.request.dehydration_percent is None and plan.dehydration_estimate is not None:
+            deficit += " (estimated from findings, not confirmed)"
         if plan.free_water_deficit_ml is not None:
             deficit += f"; free-water deficit {q(plan.free_water_deficit_ml, 'mL')}"
         self.values["deficit"].setText(deficit)

@@ -35,7 +35,7 @@ from vetfluid.ledger import Ledger
 from vetfluid.limits import limit
 from vetfluid.schedule import Phase, ScheduleEntry
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
-from vetfluid.units import preferred_weight_unit
+from vetfluid.units import preferred_weight_unit, weight_in_unit
 
 ROUTES = ("iv", "io", "sc", "icoel")
 DEVICES = ("pump", "gravity", "syringe", "divided")
@@ -149,6 +149,12 @@ class PlanRequest:
             maintenance.usg_to_osmolality(self.usg)
         if self.dehydration_findings:
             hydration.estimate_dehydration(self.dehydration_findings)
+
+
+def _weight_text(weight_kg: float, ledger: Ledger) -> str:
+    """The patient's weight in the unit its species' weight is usually given in (65 g)."""
+    unit = preferred_weight_unit(ledger.value("body_weight_kg").number)
+    return format_quantity(weight_in_unit(weight_kg, unit), unit)
 
 
 def _require(value: object, name: str, low: float, high: float, unit: str) -> None:
@@ -308,7 +314,7 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
         ledger.add(
             "info",
             "DIVIDED_BOLUSES",
-            f"At {format_quantity(request.weight_kg, 'kg')} this patient is below the "
+            f"At {_weight_text(request.weight_kg, ledger)} this patient is below the "
             f"{format_quantity(line_min.number, 'kg')} at which a continuous line is practical; "
             "fluids are planned as divided boluses.",
             "Choose an IV or IO route instead if a line is in place.",
@@ -376,8 +382,8 @@ def _dehydration(
         "DEHYDRATION_FROM_FINDINGS",
         f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % dehydration; "
         f"the plan uses {estimate.suggested_percent:g} %, not yet confirmed.",
-        f"Enter the % yourself to confirm it (the window's Use {estimate.suggested_percent:g} % "
-        "button enters this one), or acknowledge why the estimate stands.",
+        f"Enter the dehydration % yourself to confirm it ({estimate.suggested_percent:g} % or "
+        "another), or acknowledge why the estimate stands.",
         estimate.source_id,
     )
     return estimate.suggested_percent, estimate

@@ -22,7 +22,7 @@ _WEIGHT_UNITS = {"g": 1e-3, "kg": 1.0, "lb": KG_PER_LB, "lbs": KG_PER_LB, "mg": 
 _WEIGHT_PATTERN = re.compile(r"^\s*([0-9]*[.,]?[0-9]+(?:[eE][-+]?\d+)?)\s*([a-zA-Z]*)\s*$")
 
 
-_THOUSANDS_OR_DECIMAL = re.compile(r"[-+]?\d{1,3},\d{3}")
+_THOUSANDS_OR_DECIMAL = re.compile(r"[-+]?[1-9]\d{0,2},\d{3}")  # "0,500" is 0.5: no group starts 0
 
 
 def _not_ambiguous(digits: str, text: object, field: str, unit: str = "") -> None:
