@@ -247,3 +247,32 @@ def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert [o.weight_kg for o in window.session.observations] == [24.2]
     assert "2 stored observation(s) could not be read" in window.statusBar().currentMessage()
+
+
+def test_versions_whose_stored_plan_cannot_be_read_give_a_message_not_a_crash(
+    qtbot, planner, monkeypatch
+):
+    from ui.records_view import OpenPatientDialog
+
+    window = planner
+    window.open_demo("small_gerbil")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.save_version(name="Pip", author="AB")
+    window.save_version(author="AB")
+    # a version stored by an older vetfluid, its divided dose without a per-site volume
+    # (versions are immutable in the file, so the stored plan is altered on its way out)
+    import ui.records_view
+    from vetfluid.records import compare_versions
+
+    def older(first, second):
+        phases = [dict(first["phases"][0], ml_per_site=None), *first["phases"][1:]]
+        return compare_versions(dict(first, phases=phases), second)
+
+    monkeypatch.setattr(ui.records_view, "compare_versions", older)
+    shown = []
+    monkeypatch.setattr(QMessageBox, "warning", lambda *a: shown.append(a[2]))
+    dialog = OpenPatientDialog(window.records)
+    qtbot.addWidget(dialog)
+    dialog.versions.selectAll()
+    assert dialog.compare() is None
+    assert shown and shown[0].startswith("These versions cannot be compared")

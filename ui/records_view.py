@@ -23,6 +23,7 @@ from PySide6.QtWidgets import (
 )
 
 from ui.rows_model import Cell, RowsModel
+from vetfluid.errors import VetfluidError
 from vetfluid.formatting import format_quantity as q
 from vetfluid.records import Records, VersionRow, compare_versions
 
@@ -100,7 +101,11 @@ class OpenPatientDialog(QDialog):
             QMessageBox.information(self, "vetfluid", "Select exactly two versions to compare.")
             return None
         by_number = {v.version: v for v in self.records.versions(patient.data(256))}
-        dialog = CompareDialog(by_number[picked[0]], by_number[picked[1]], self)
+        try:
+            dialog = CompareDialog(by_number[picked[0]], by_number[picked[1]], self)
+        except VetfluidError as exc:  # a stored plan this version of vetfluid cannot read
+            QMessageBox.warning(self, "vetfluid", f"These versions cannot be compared: {exc}")
+            return None
         dialog.show()
         return dialog
 
