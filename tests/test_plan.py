@@ -430,3 +430,13 @@ def test_a_cat_typed_as_4000_kg_gets_the_species_hard_limit_not_a_bound_error():
     # with a serum K the potassium arithmetic once refused weights over 2000 kg first
     plan = plan_for(species_id="cat", weight_kg=4000.0, serum_k=3.0)
     assert codes(plan)["WEIGHT_UNIT_SLIP"] == "hard"  # "far outside the usual …, check the unit"
+
+
+def test_added_potassium_on_a_gravity_drip_is_a_warning():
+    # a drip's rate can drift unseen; potassium is run on a pump (common practice, no source)
+    on_drip = plan_for(species_id="cat", weight_kg=4, serum_k=3.0, device="gravity",
+                       drop_factor=60)  # fmt: skip
+    assert codes(on_drip)["KCL_ON_GRAVITY_DRIP"] == "soft"
+    assert "KCL_ON_GRAVITY_DRIP" not in codes(plan_for(species_id="cat", weight_kg=4, serum_k=3.0))
+    no_kcl = plan_for(species_id="cat", weight_kg=4, device="gravity", drop_factor=60)
+    assert "KCL_ON_GRAVITY_DRIP" not in codes(no_kcl)  # no serum K, nothing added

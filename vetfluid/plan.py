@@ -646,7 +646,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
 
     potassium = _potassium(request, kcl=kcl, bag_k=bag_comp.k_mmol_per_l, phases=phases, main=main)
     if potassium is not None:
-        safety.check_potassium(ledger, potassium, weight_kg=w, route=route)
+        safety.check_potassium(ledger, potassium, weight_kg=w, route=route, device=device)
 
     sodium, free_water = None, None
     if request.serum_na is not None:

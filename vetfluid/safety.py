@@ -300,9 +300,12 @@ def check_divided_sites(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
             return
 
 
-def check_potassium(ledger: Ledger, k: PotassiumSummary, *, weight_kg: float, route: str) -> None:
+def check_potassium(
+    ledger: Ledger, k: PotassiumSummary, *, weight_kg: float, route: str, device: str
+) -> None:
     """KCl into a patient whose K is already high (hard), the 0.5 mmol/kg/h ceiling (hard),
-    the scale's rate for the serum K (soft), concentration for a peripheral vein (soft)."""
+    the scale's rate for the serum K (soft), concentration for a peripheral vein (soft),
+    KCl on a gravity drip (soft)."""
     normal_k = ledger.value("serum_k_mmol_per_l")
     k_high = normal_k.high if normal_k.high is not None else normal_k.number
     if k.kcl_mmol_per_l > 0 and k.serum_k is not None and k.serum_k > k_high:
@@ -339,6 +342,17 @@ def check_potassium(ledger: Ledger, k: PotassiumSummary, *, weight_kg: float, ro
             f"({q(k.band_max_rate_ml_per_kg_h * weight_kg, 'mL/h')}).",
             "Slow the rate or run potassium in a separate line.",
             "cote2020",
+        )
+    if device == "gravity" and k.kcl_mmol_per_l > 0:
+        # A drip's rate drifts unseen (a clamp slips, the patient moves); the ceiling
+        # above holds only at the planned rate. Common practice, no source.
+        ledger.add(
+            "soft",
+            "KCL_ON_GRAVITY_DRIP",
+            f"The bag holds {q(k.bag_k_mmol_per_l, 'mmol/L')} K ({q(k.kcl_mmol_per_l, 'mmol/L')} "
+            "KCl added) and runs on a gravity drip, whose rate can change unnoticed.",
+            "Run fluid with added potassium on an infusion or syringe pump; without one, "
+            "check the drip rate and the bag's level often.",
         )
     peripheral = limit("kcl_peripheral_max_mmol_per_l")
     if route == "iv" and k.bag_k_mmol_per_l > peripheral.value:
