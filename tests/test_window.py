@@ -159,6 +159,16 @@ def test_the_kcl_box_says_what_the_scale_chose(qtbot, window):
     assert box.placeholderText() == f"{q(plan.potassium.kcl_mmol_per_l, 'mmol/L')} from the scale"
 
 
+def test_a_second_bolus_is_marked_conditional_in_the_phase_table(qtbot, window):
+    window.open_demo("dehydrated_dog")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")
+    window.session.update(resuscitation_boluses=2)
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.resuscitation_boluses == 2)
+    kinds = [window.summary.phases_model.text(r, 0) for r in range(len(plan.phases))]
+    assert kinds[:2] == ["resuscitation", "resuscitation (only if still poorly perfused)"]
+    assert window.summary.schedule_model.text(1, 3).startswith("If still poorly perfused")
+
+
 def test_hidden_views_catch_up_when_shown(qtbot, window):
     window.open_demo("dehydrated_dog")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "dog")

@@ -439,7 +439,15 @@ class PlanSummary(QWidget):
             if na
             else "no serum Na entered"
         )
-        self.phases_model.set_rows([_phase_row(p) for p in plan.phases])
+        boluses = 0
+        rows = []
+        for phase in plan.phases:
+            boluses += phase.kind == "resuscitation"
+            # a bolus after the first is given only if the patient still needs it
+            rows.append(
+                _phase_row(phase, conditional=phase.kind == "resuscitation" and boluses > 1)
+            )
+        self.phases_model.set_rows(rows)
         self.schedule_model.set_rows(
             [
                 [Cell(e.clock or "—"), Cell(f"{e.hour:g}"), Cell(e.phase), Cell(e.action)]
@@ -454,9 +462,10 @@ class PlanSummary(QWidget):
         super().showEvent(event)
 
 
-def _phase_row(p) -> list[Cell]:  # noqa: ANN001 — vetfluid.schedule.Phase
+def _phase_row(p, *, conditional: bool = False) -> list[Cell]:  # noqa: ANN001 — Phase
+    kind = f"{p.kind} (only if still poorly perfused)" if conditional else p.kind
     return [
-        Cell(p.kind, p.note),
+        Cell(kind, p.note),
         Cell(f"{p.start_h:g}–{p.end_h:g}"),
         Cell(rate_or_dose_text(p)),
         Cell(q(p.volume_ml, "mL")),
