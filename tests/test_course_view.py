@@ -361,3 +361,12 @@ def test_a_mistyped_observation_can_be_removed_after_a_question(window, monkeypa
     view.remove_selected()
     assert [o.serum_na for o in window.session.observations] == [150]
     assert view.observations_model.rowCount() == 1 and "Removed" in view.message.text()
+
+
+def test_urine_from_a_period_not_yet_complete_is_not_called_nothing_measured(window):
+    view = window.course_view
+    view.ins_outs_period.setValue(6)
+    model = view.ins_outs_model
+    assert model.text(0, 1).startswith("nothing measured yet")
+    record(view, 2, "urine_ml", 120, period=2)  # 2 h of a 6 h period collected so far
+    assert model.text(0, 1).startswith("no period measured to its end yet")

@@ -531,7 +531,9 @@ class CourseView(QWidget):
             if period is not None:
                 self.ins_outs_period.setValue(int(round(period)))
         if period is not None:  # the plan's own periods: what it gives rests on these
-            self._ins_outs_rows(plan.ins_and_outs)
+            self._ins_outs_rows(
+                plan.ins_and_outs, urine_recorded=any(o.urine_ml is not None for o in observations)
+            )
             return
         insensible = self.session.table.get(
             plan.request.species_id, "insensible_loss_ml_per_kg_day"
@@ -547,14 +549,18 @@ class CourseView(QWidget):
             insensible_ml_per_kg_day=insensible.number,
             period_h=float(self.ins_outs_period.value()),
         )  # fmt: skip
-        self._ins_outs_rows(table)
+        self._ins_outs_rows(table, urine_recorded=any(o.urine_ml is not None for o in observations))
 
-    def _ins_outs_rows(self, table) -> None:  # noqa: ANN001 — InsAndOutsRow sequence
+    def _ins_outs_rows(self, table, *, urine_recorded: bool = False) -> None:  # noqa: ANN001
         if not table:
-            self.ins_outs_model.set_rows(
-                [[Cell("—"), Cell("nothing measured yet: the first period gives insensible loss")]
-                 + [Cell("")] * 5]
-            )  # fmt: skip
+            # urine counts once a whole period's collection is in: say so, not "nothing"
+            said = (
+                "no period measured to its end yet (urine is counted once its collection "
+                "covers the whole period): the first period gives insensible loss"
+                if urine_recorded
+                else "nothing measured yet: the first period gives insensible loss"
+            )
+            self.ins_outs_model.set_rows([[Cell("—"), Cell(said)] + [Cell("")] * 5])
             return
         self.ins_outs_model.set_rows(
             [
