@@ -11,6 +11,15 @@ from vetfluid.course import course
 from vetfluid.formatting import format_quantity
 
 
+@pytest.fixture(autouse=True)
+def replan_without_saving(monkeypatch):
+    """Re-planning an unsaved plan asks whether to save it first: these tests answer No
+    (tests/test_records_window.py answers Yes and Cancel)."""
+    from PySide6.QtWidgets import QMessageBox
+
+    monkeypatch.setattr(QMessageBox, "question", lambda *a: QMessageBox.StandardButton.No)
+
+
 @pytest.fixture()
 def window(qtbot, planner):
     win = planner

@@ -54,6 +54,38 @@ def test_versions_are_added_never_overwritten(records):
         records._db.execute("DELETE FROM plan_versions")
 
 
+def test_observations_follow_the_screen_and_keep_their_recording_time(records):
+    pid = records.add_patient(name="Rex", species_id="dog")
+    plan = build_plan(DEMOS["dehydrated_dog"].request)
+    records.save_version(
+        patient_id=pid, plan=plan, acknowledged={}, observations=[{"hour": 2.0, "weight_kg": 24.4}]
+    )
+    vid = records.versions(pid)[0].id
+    first_recorded = records._db.execute("SELECT recorded_at FROM observations").fetchone()[0]
+    later = [{"hour": 2.0, "weight_kg": 24.4}, {"hour": 6.0, "weight_kg": 24.9}]
+    assert records.keep_observations(vid, later)
+    assert records.observations(vid) == later
+    assert not records.keep_observations(vid, later)  # nothing changed, nothing written
+    times = [r[0] for r in records._db.execute("SELECT recorded_at FROM observations ORDER BY id")]
+    assert times[0] == first_recorded
+    assert records.keep_observations(vid, later[1:])  # the nurse removed the first
+    assert records.observations(vid) == later[1:]
+
+
+def test_a_damaged_observation_row_is_returned_as_text_not_a_crash(records):
+    pid = records.add_patient(name="Rex", species_id="dog")
+    records.save_version(patient_id=pid, plan=build_plan(DEMOS["dehydrated_dog"].request),
+                         acknowledged={})  # fmt: skip
+    vid = records.versions(pid)[0].id
+    records.add_observation(version_id=vid, observation={"hour": 1.0, "weight_kg": 24.2})
+    records._db.execute(
+        "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
+        " VALUES (?, '{\"hour\": 2', 'now')",
+        (vid,),
+    )
+    assert records.observations(vid) == [{"hour": 1.0, "weight_kg": 24.2}, '{"hour": 2']
+
+
 def test_search_patients_by_name_species_or_client(records):
     records.add_patient(name="Rex", species_id="dog", client_ref="C-12")
     records.add_patient(name="Spike", species_id="bearded_dragon")

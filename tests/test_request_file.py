@@ -16,7 +16,17 @@ def test_round_trip_keeps_request_and_reasons(tmp_path):
     path = write_request_file(tmp_path / "cat", request, {"OVERLOAD_RISK": "weighed 6-hourly"})
     assert path.name == "cat.vfplan.json"
     assert not list(tmp_path.glob("*.tmp"))
-    assert read_request_file(path) == (request, {"OVERLOAD_RISK": "weighed 6-hourly"})
+    opened = read_request_file(path)
+    assert (opened.request, opened.acknowledged) == (request, {"OVERLOAD_RISK": "weighed 6-hourly"})
+    assert opened.acknowledged_for is None  # no wording given: none written
+
+
+def test_the_words_each_reason_was_given_for_are_kept(tmp_path):
+    said = {"OVERLOAD_RISK": "Given volume may reach 11 % over the starting weight"}
+    path = write_request_file(
+        tmp_path / "cat", DEMOS["renal_cat"].request, {"OVERLOAD_RISK": "weighed 6-hourly"}, said
+    )
+    assert read_request_file(path).acknowledged_for == said
 
 
 @pytest.mark.parametrize(
@@ -30,6 +40,8 @@ def test_round_trip_keeps_request_and_reasons(tmp_path):
          '"weight_kg": 20, "dehydration_findings": 5}}', "list of finding ids"),
         ('{"format": "vetfluid-plan-request", "version": 1, "request": {"species_id": "dog", '
          '"weight_kg": 20}, "acknowledged": [1]}', "acknowledgements"),
+        ('{"format": "vetfluid-plan-request", "version": 1, "request": {"species_id": "dog", '
+         '"weight_kg": 20}, "acknowledged_for": {"X": 1}}', "what each warning said"),
         ('{"format": "vetfluid-plan-request", "version": 1, "request": {"species_id": "dog", '
          '"weight_kg": 20, "start_time": 8}}', "HH:MM"),
         ('{"format": "vetfluid-plan-request", "version": 1, "request": {"species_id": "dog"}}',

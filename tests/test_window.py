@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import subprocess
 import sys
@@ -350,6 +351,41 @@ def test_save_and_open_a_plan_request(qtbot, window, tmp_path):
     plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
     assert plan.request == DEMOS["renal_cat"].request
     assert window.session.acknowledged == {"OVERLOAD_RISK": "weighing every 6 h"}
+
+
+def test_a_plan_file_keeps_the_words_each_reason_was_given_for(qtbot, window, tmp_path):
+    window.open_demo("renal_cat")
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
+    window.session.acknowledge("OVERLOAD_RISK", "weighing every 6 h")
+    path = tmp_path / "cat.vfplan.json"
+    assert window.write_request(path)
+    data = json.loads(path.read_text(encoding="utf-8"))
+    assert data["acknowledged_for"] == window.session.acknowledged_for
+    data["acknowledged_for"]["OVERLOAD_RISK"] = "what an older plan said"
+    path.write_text(json.dumps(data), encoding="utf-8")
+    window.new_patient()
+    assert window.read_request(path)
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
+    assert "OVERLOAD_RISK" in {f.code for f in window.session.blockers()}
+    assert window.session.lapsed["OVERLOAD_RISK"] == (
+        "weighing every 6 h",
+        "what an older plan said",
+    )
+
+
+def test_a_reason_without_its_words_does_not_cover_a_plan_built_after_a_failed_one(qtbot, window):
+    from ui.session import WORDING_NOT_KNOWN
+
+    unknown = dataclasses.replace(DEMOS["renal_cat"].request, species_id="unicorn")
+    window.session.replace_request(unknown, {"OVERLOAD_RISK": "weighing every 6 h"})
+    assert window.session.plan is None and "unknown species" in window.session.problem
+    form = window.patient
+    assert form.species_box.currentText() == "unicorn"  # what the file said, not a blank
+    assert (form.weight_edit.text(), form.unit_box.currentText()) == ("4.2", "kg")
+    window.session.update(species_id="cat")  # the clinician corrects the species
+    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
+    assert "OVERLOAD_RISK" in {f.code for f in window.session.blockers()}
+    assert window.session.lapsed["OVERLOAD_RISK"] == ("weighing every 6 h", WORDING_NOT_KNOWN)
 
 
 def test_opening_a_broken_file_is_a_message_not_a_crash(qtbot, window, tmp_path, monkeypatch):

@@ -9,6 +9,8 @@ it is recorded. Everything else (alerts, curves) is recomputed by the core.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from PySide6.QtCore import QDateTime, QEvent, QSignalBlocker, Qt
 from PySide6.QtWidgets import (
     QAbstractItemView,
@@ -79,10 +81,17 @@ PLASMA, INTERSTITIAL, CELLS, NA, WEIGHT = "#1f77b4", "#2ca02c", "#9467bd", "#d62
 
 
 class CourseView(QWidget):
-    def __init__(self, session: PlanSession, parent: QWidget | None = None) -> None:
+    def __init__(
+        self,
+        session: PlanSession,
+        parent: QWidget | None = None,
+        *,
+        before_replan: Callable[[], bool] | None = None,
+    ) -> None:
         super().__init__(parent)
         configure_pyqtgraph()
         self.session = session
+        self._before_replan = before_replan  # False: the user cancelled (the window saves first)
         self._shown_start = None  # the plan start the observations were last shown against
         self.setAccessibleName("Course")
         layout = QVBoxLayout(self)
@@ -428,6 +437,9 @@ class CourseView(QWidget):
 
     def replan(self) -> None:
         try:
+            self.session.replan_request()  # what stops a re-plan is said before any question
+            if self._before_replan is not None and not self._before_replan():
+                return
             self.session.replan()
         except VetfluidError as exc:
             self.message.setText(f"⚠ {exc.one_line()}")

@@ -279,6 +279,9 @@ class MainWindow(QMainWindow):
         from vetfluid.records import Records, RecordsError
 
         self.current_patient: int | None = None
+        # the saved version on screen (row id, request as saved): observations recorded on it
+        # while its plan is unchanged are written to it, not to a draft
+        self._saved_version: tuple[int, object] | None = None
         try:
             self.records = Records.open()
         except RecordsError as exc:
@@ -290,16 +293,42 @@ class MainWindow(QMainWindow):
         self._draft_timer.setInterval(2000)  # a crash loses at most a few seconds of typing
         self._draft_timer.timeout.connect(self._save_draft)
         self.session.planChanged.connect(lambda _plan: self._draft_timer.start())
+        self.session.observationsChanged.connect(self._draft_timer.start)
         QTimer.singleShot(0, self.offer_draft)
 
+    def _on_saved_version(self) -> bool:
+        """Whether the plan on screen is a saved version, unchanged since it was saved."""
+        plan = self.session.plan
+        return (
+            self._saved_version is not None
+            and plan is not None
+            and plan.request == self._saved_version[1]
+        )
+
+    def _keep_edits(self) -> None:
+        """Write what is waiting for the draft timer now (before the screen is replaced)."""
+        if self.records is not None and self._draft_timer.isActive():
+            self._draft_timer.stop()
+            self._save_draft()
+
     def _save_draft(self, *, closed: bool = False) -> None:
-        """Keep the plan being edited; ``closed`` marks a normal close rather than a crash."""
+        """Keep what is being edited; ``closed`` marks a normal close rather than a crash.
+
+        Observations recorded on an unchanged saved version are written to that version;
+        anything else (a plan not saved, or changed since) goes into the draft."""
         from vetfluid.records import RecordsError
         from vetfluid.serialize import request_to_dict
 
         if self.records is None or self.session.plan is None:
             return
         try:
+            if self._on_saved_version():
+                if self.records.keep_observations(
+                    self._saved_version[0], self._observation_records()
+                ):
+                    self.statusBar().showMessage("Observations saved with the plan version.")
+                self.records.clear_draft()  # nothing else is unsaved
+                return
             self.records.save_draft(
                 {
                     "request": request_to_dict(self.session.plan.request),
@@ -311,7 +340,7 @@ class MainWindow(QMainWindow):
                 }
             )
         except RecordsError as exc:
-            self.statusBar().showMessage(f"Draft not saved: {exc.one_line()}")
+            self.statusBar().showMessage(f"Not saved: {exc.one_line()}")
 
     def offer_draft(self) -> bool:
         """Offer back the plan that was being edited when vetfluid last stopped."""
@@ -320,6 +349,7 @@ class MainWindow(QMainWindow):
         draft = self.records.draft() if self.records is not None else None
         if not draft:
             return False
+        self._keep_edits()
         question = (
             "vetfluid was closed with a plan that had not been saved as a version. Restore it?"
             if draft.get("closed")
@@ -344,6 +374,7 @@ class MainWindow(QMainWindow):
             wording if isinstance(wording, dict) else None,  # older drafts have none
         )
         self.current_patient = draft.get("patient_id")
+        self._saved_version = None
         unreadable = self._restore_observations(draft.get("observations") or [])
         self.statusBar().showMessage("Restored the plan that was being edited." + unreadable)
         return True
@@ -380,6 +411,8 @@ class MainWindow(QMainWindow):
             QMessageBox.warning(self, "vetfluid", f"Not saved: {exc}")
             return None
         self._draft_timer.stop()  # what was being edited is now saved
+        saved = next(v for v in self.records.versions(self.current_patient) if v.version == number)
+        self._saved_version = (saved.id, plan.request)
         self.records.clear_draft()
         self.statusBar().showMessage(f"Saved as version {number}; earlier versions are kept.")
         return number
@@ -398,6 +431,7 @@ class MainWindow(QMainWindow):
     def load_version(self, patient_id: int, version: int) -> None:
         from vetfluid.serialize import request_from_dict
 
+        self._keep_edits()
         chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
         # what each warning said when the version was saved: its reason covers that only
         said = {f.get("code"): f.get("message") for f in chosen.plan.get("findings", ())}
@@ -405,10 +439,31 @@ class MainWindow(QMainWindow):
         self.session.replace_request(
             request_from_dict(chosen.request), chosen.acknowledged, wording
         )
+        self._saved_version = (chosen.id, self.session.request)
         unreadable = self._restore_observations(self.records.observations(chosen.id))
         self.current_patient = patient_id
         patient = self.records.patient(patient_id)
         self.statusBar().showMessage(f"Opened {patient.name}, version {version}.{unreadable}")
+
+    def _before_replan(self) -> bool:
+        """The plan being replaced goes into the records first, with its observations, so
+        the record shows what was given; declined, it is kept until vetfluid closes."""
+        if self.records is None or self.session.plan is None:
+            return True
+        if self._on_saved_version():
+            self._keep_edits()
+            return True
+        answer = QMessageBox.question(
+            self, "vetfluid",
+            "The plan being replaced has not been saved as a version. Save it first, with "
+            "its observations?\n\nNo re-plans anyway: the earlier plan and its observations "
+            "are then kept only until vetfluid closes.",
+            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No
+            | QMessageBox.StandardButton.Cancel,
+        )  # fmt: skip
+        if answer == QMessageBox.StandardButton.Yes:
+            return self.save_version() is not None
+        return answer == QMessageBox.StandardButton.No
 
     def _observation_records(self) -> list[dict]:
         from vetfluid.observations import observation_record
@@ -444,7 +499,7 @@ class MainWindow(QMainWindow):
         if self.details.widget(index) is self.course_holder and self.course_view is None:
             from ui.course_view import CourseView
 
-            self.course_view = CourseView(self.session)
+            self.course_view = CourseView(self.session, before_replan=self._before_replan)
             self._swap(self.course_holder, self.course_view)
 
     @sources_not_kept()
@@ -521,9 +576,15 @@ class MainWindow(QMainWindow):
         self.details.setTabIcon(index, icon(f"severity-{severity}") if severity else QIcon())
 
     # ---- commands ----------------------------------------------------------------------------
+    def _leave_plan(self) -> None:
+        """Before another plan replaces this one: keep its edits, forget its version."""
+        self._keep_edits()
+        self.current_patient = None
+        self._saved_version = None
+
     def new_patient(self) -> None:
         self.build_planner()
-        self.current_patient = None
+        self._leave_plan()
         self.session.replace_request(None)
         self.patient.species_box.setFocus()
 
@@ -532,7 +593,7 @@ class MainWindow(QMainWindow):
 
         self.build_planner()
         chosen = demo(demo_id)
-        self.current_patient = None
+        self._leave_plan()
         self.session.replace_request(chosen.request)
         self.statusBar().showMessage(chosen.story)
 
@@ -565,7 +626,9 @@ class MainWindow(QMainWindow):
         if plan is None:
             return False
         try:
-            written = write_request_file(path, plan.request, self.session.acknowledged)
+            written = write_request_file(
+                path, plan.request, self.session.acknowledged, self.session.acknowledged_for
+            )
         except OSError as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not save {path.name}:\n{exc}")
             return False
@@ -584,11 +647,12 @@ class MainWindow(QMainWindow):
 
         self.build_planner()
         try:
-            request, acknowledged = read_request_file(path)
+            opened = read_request_file(path)
         except (OSError, VetfluidError) as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not open {path.name}:\n{exc}")
             return False
-        self.session.replace_request(request, acknowledged)
+        self._leave_plan()
+        self.session.replace_request(opened.request, opened.acknowledged, opened.acknowledged_for)
         self.statusBar().showMessage(f"Opened {path}")
         return True
 

@@ -242,13 +242,18 @@ class PatientView(QWidget):
         with QSignalBlocker(self.species_box):
             index = self.species_box.findData(sid) if sid else -1
             self.species_box.setCurrentIndex(index)
-            if index < 0:
-                self.species_box.setEditText("")
+            if index < 0:  # none, or one this table lacks (the plan line names it)
+                self.species_box.setEditText(sid or "")
             self.species_box.lineEdit().setCursorPosition(0)  # show the start of the name
-        self._show_species_context(sid)
+        known = sid if index >= 0 else None
+        self._show_species_context(known)
         weight = inputs.get("weight_kg")
-        if weight is not None and sid:
-            unit = preferred_weight_unit(self.session.table.value(sid, "body_weight_kg").number)
+        if weight is not None:
+            unit = (
+                preferred_weight_unit(self.session.table.value(known, "body_weight_kg").number)
+                if known
+                else "kg"  # shown, not lost, until a species this table knows is chosen
+            )
             with QSignalBlocker(self.unit_box):
                 self.unit_box.setCurrentText(unit)
             with QSignalBlocker(self.weight_edit):

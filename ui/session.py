@@ -155,6 +155,9 @@ class PlanSession(QObject):
         self.plan = plan
         if plan is not None:
             self._lapse_changed_acknowledgements(plan)
+        # reasons without their wording adopt only the first plan's words: one that cannot
+        # be built leaves them to lapse rather than cover whatever a later plan says
+        self._adopt_wording = False
         if problem != self.problem:
             self.problem = problem
             self.problemChanged.emit(problem)
@@ -194,7 +197,7 @@ class PlanSession(QObject):
         """A reason given for one wording of a warning ("6 sites at 0.57 mL") does not
         cover another ("7 sites at 0.65 mL"): it lapses and is kept to show the user, and
         covers the warning again if it comes back to the words it was given for."""
-        adopting, self._adopt_wording = self._adopt_wording, False
+        adopting = self._adopt_wording
         shown = {f.code: f.message for f in plan.findings}
         for code, (reason, given_for) in list(self.lapsed.items()):
             if shown.get(code) == given_for:  # e.g. a weight retyped digit by digit
@@ -258,13 +261,18 @@ class PlanSession(QObject):
         if period is not None:  # an ins-and-outs plan follows each measurement
             self.set_ins_and_outs(period)
 
-    def replan(self) -> None:
-        """Start a new plan version from the patient's current state; keep the earlier one."""
+    def replan_request(self) -> PlanRequest | None:
+        """The request a re-plan would start from (raises InputError when nothing measured
+        allows one); None without a plan."""
         from vetfluid.observations import replan_request
 
-        if self.plan is None:
+        return replan_request(self.plan, self.observations) if self.plan else None
+
+    def replan(self) -> None:
+        """Start a new plan version from the patient's current state; keep the earlier one."""
+        request = self.replan_request()
+        if request is None:
             return
-        request = replan_request(self.plan, self.observations)  # raises InputError if no weight
         versions = [*self.versions, (self.plan.request, tuple(self.observations))]
         self.replace_request(request, self.acknowledged, self.acknowledged_for)
         self.versions = versions

@@ -81,6 +81,13 @@ class RecordsError(VetfluidError):
     """The records database cannot be used as asked (the message says why and what to do)."""
 
 
+def _json_or_text(text: str) -> object:
+    try:
+        return json.loads(text)
+    except json.JSONDecodeError:
+        return text
+
+
 def _now() -> str:
     return datetime.now(UTC).isoformat(timespec="seconds")
 
@@ -327,12 +334,48 @@ class Records:
             (version_id, json.dumps(observation, ensure_ascii=False), _now()),
         )
 
-    def observations(self, version_id: int) -> list[dict]:
+    def observations(self, version_id: int) -> list:
+        """The observations recorded on a version, oldest first. A row whose text is not
+        readable is returned as that text, for the caller to count as unreadable."""
         rows = self._db.execute(
             "SELECT observation_json FROM observations WHERE plan_version_id = ? ORDER BY id",
             (version_id,),
         ).fetchall()
-        return [json.loads(r[0]) for r in rows]
+        return [_json_or_text(r[0]) for r in rows]
+
+    def keep_observations(self, version_id: int, observations: list[dict]) -> bool:
+        """Make the version's stored observations the ones given (one transaction).
+
+        Rows already stored keep their time of recording; only the ones the user added or
+        removed change. Returns whether anything was written."""
+        wanted = [json.dumps(o, ensure_ascii=False) for o in observations]
+        stored = self._db.execute(
+            "SELECT id, observation_json FROM observations WHERE plan_version_id = ?",
+            (version_id,),
+        ).fetchall()
+        unmatched = list(wanted)
+        removed = []
+        for row_id, text in stored:
+            if text in unmatched:
+                unmatched.remove(text)
+            else:
+                removed.append((row_id,))
+        if not removed and not unmatched:
+            return False
+        try:
+            with self._transaction():
+                self._db.executemany("DELETE FROM observations WHERE id = ?", removed)
+                self._db.executemany(
+                    "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
+                    " VALUES (?, ?, ?)",
+                    [(version_id, text, _now()) for text in unmatched],
+                )
+        except sqlite3.OperationalError as exc:
+            raise RecordsError(
+                f"could not save the observations to {self.path.name}: {exc}",
+                fix="check the disk and the folder; the observations on screen are unchanged",
+            ) from exc
+        return True
 
     # ---- the draft being edited ------------------------------------------------------------
     def save_draft(self, content: dict) -> None:

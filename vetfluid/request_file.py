@@ -1,7 +1,9 @@
 """Plan-request files (``*.vfplan.json``): a patient's inputs and acknowledgements.
 
 Our own small JSON format: ``{"format": "vetfluid-plan-request", "version": 1,
-"request": {...}, "acknowledged": {code: reason}}``. Writes are atomic (temporary
+"request": {...}, "acknowledged": {code: reason}, "acknowledged_for": {code: wording}}``
+where ``acknowledged_for`` holds what each warning said when its reason was given (files
+written before it was kept have none). Writes are atomic (temporary
 file, fsync, rename), so a crash never leaves half a file; reads check every part
 and say what is wrong.
 """
@@ -10,6 +12,7 @@ from __future__ import annotations
 
 import json
 import os
+from dataclasses import dataclass
 from pathlib import Path
 
 from vetfluid.errors import InputError
@@ -23,7 +26,21 @@ def with_suffix(path: Path) -> Path:
     return path if path.name.endswith(SUFFIX) else path.with_name(path.name + SUFFIX)
 
 
-def write_request_file(path: Path, request: PlanRequest, acknowledged: dict[str, str]) -> Path:
+@dataclass(frozen=True)
+class RequestFile:
+    """What a plan-request file holds."""
+
+    request: PlanRequest
+    acknowledged: dict[str, str]
+    acknowledged_for: dict[str, str] | None  # None: written before the wording was kept
+
+
+def write_request_file(
+    path: Path,
+    request: PlanRequest,
+    acknowledged: dict[str, str],
+    acknowledged_for: dict[str, str] | None = None,
+) -> Path:
     """Write the file atomically; returns the path written (the suffix added if missing)."""
     path = with_suffix(Path(path))
     data = {
@@ -32,6 +49,8 @@ def write_request_file(path: Path, request: PlanRequest, acknowledged: dict[str,
         "request": request_to_dict(request),
         "acknowledged": dict(acknowledged),
     }
+    if acknowledged_for is not None:
+        data["acknowledged_for"] = dict(acknowledged_for)
     temp = path.with_name(path.name + ".tmp")
     try:
         with temp.open("w", encoding="utf-8") as handle:
@@ -44,7 +63,7 @@ def write_request_file(path: Path, request: PlanRequest, acknowledged: dict[str,
     return path
 
 
-def read_request_file(path: Path) -> tuple[PlanRequest, dict[str, str]]:
+def read_request_file(path: Path) -> RequestFile:
     """The request and acknowledgements in a file; anything malformed is an InputError."""
     path = Path(path)
     try:
@@ -64,8 +83,18 @@ def read_request_file(path: Path) -> tuple[PlanRequest, dict[str, str]]:
     if "request" not in data:
         raise InputError(f"{path.name} holds no request", field="request")
     acknowledged = data.get("acknowledged") or {}
-    if not isinstance(acknowledged, dict) or not all(
-        isinstance(k, str) and isinstance(v, str) for k, v in acknowledged.items()
-    ):
+    if not _codes_to_text(acknowledged):
         raise InputError("acknowledgements must map finding codes to reasons", field="acknowledged")
-    return request_from_dict(data["request"]), acknowledged
+    wording = data.get("acknowledged_for")
+    if wording is not None and not _codes_to_text(wording):
+        raise InputError(
+            "acknowledged_for must map finding codes to what each warning said",
+            field="acknowledged_for",
+        )
+    return RequestFile(request_from_dict(data["request"]), acknowledged, wording)
+
+
+def _codes_to_text(value: object) -> bool:
+    return isinstance(value, dict) and all(
+        isinstance(k, str) and isinstance(v, str) for k, v in value.items()
+    )
