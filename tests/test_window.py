@@ -123,6 +123,17 @@ def test_tab_out_of_the_species_box_lands_on_the_weight(qtbot, window):
     assert QApplication.focusWidget() is patient.weight_edit  # ... and comes back to it
 
 
+def test_a_click_out_of_the_species_box_keeps_focus_where_it_was_put(qtbot, window):
+    patient = window.patient
+    line = patient.species_box.lineEdit()
+    line.setFocus()
+    qtbot.keyClicks(line, "bearded")
+    target = patient.flag_boxes["renal_disease"]
+    target.setFocus(Qt.FocusReason.MouseFocusReason)  # what a click on the box does
+    qtbot.waitUntil(lambda: window.session.inputs["species_id"] == "bearded_dragon")
+    assert QApplication.focusWidget() is target  # the species is taken; focus not stolen
+
+
 def test_a_unit_typed_with_the_weight_is_read_and_shown_in_the_box(qtbot, window):
     window.patient._set_species("dog")
     window.patient.weight_edit.setText("350 g")

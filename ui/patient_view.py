@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import re
 
-from PySide6.QtCore import QSignalBlocker, Qt
+from PySide6.QtCore import QEvent, QObject, QSignalBlocker, Qt
 from PySide6.QtWidgets import (
     QApplication,
     QCheckBox,
@@ -156,6 +156,12 @@ class PatientView(QWidget):
         # where focus goes is watched too)
         self.species_box.lineEdit().editingFinished.connect(self._species_typed)
         QApplication.instance().focusChanged.connect(self._focus_moved)
+        # only Tab (or Enter, focus staying) leads on to the weight; a click elsewhere goes
+        # where it was aimed. Focus events name no reason here, so the key is watched (on the
+        # suggestions too: with them open they receive the keys)
+        self._tabbed_out = False
+        for watched in (self.species_box, self.species_box.lineEdit(), completer.popup()):
+            watched.installEventFilter(self)
         form.addRow("&Species", self.species_box)
 
         self.weight_edit = QLineEdit()
@@ -367,16 +373,27 @@ class PatientView(QWidget):
         _mark(self.species_box, problem)
         self.session.set_field_error("species_id", f"Species: {problem}")
 
+    def eventFilter(self, watched: QObject, event: QEvent) -> bool:  # noqa: N802 (Qt override)
+        if event.type() == QEvent.Type.KeyPress:
+            self._tabbed_out = event.key() == Qt.Key.Key_Tab
+        elif event.type() == QEvent.Type.FocusIn:
+            self._tabbed_out = False
+        return super().eventFilter(watched, event)
+
     def _focus_moved(self, old: QWidget | None, new: QWidget | None) -> None:
         box = (self.species_box, self.species_box.lineEdit())
-        if old in box and new not in box:
+        if old in box and new is not None and new not in box:  # None: another window's turn
             self._species_typed()
 
     def _to_weight_if_empty(self) -> None:
-        """After a species is taken with Tab, focus has already passed the weight (it was
-        disabled while no species was chosen): bring it back there, the next thing to type."""
+        """After a species is taken with Enter, or with Tab (focus has then already passed
+        the weight, disabled while no species was chosen), go to the weight, the next thing
+        to type. Focus that left by a click stays where the user put it."""
         focus = QApplication.focusWidget()
-        if not self.weight_edit.text() and (focus is None or self.isAncestorOf(focus)):
+        box = (self.species_box, self.species_box.lineEdit())
+        if not self.weight_edit.text() and (
+            focus in box or (self._tabbed_out and (focus is None or self.isAncestorOf(focus)))
+        ):
             self.weight_edit.setFocus(Qt.FocusReason.TabFocusReason)
 
     def _set_species(self, sid: str | None) -> None:
