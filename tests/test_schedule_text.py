@@ -173,6 +173,23 @@ def test_a_divided_dose_is_the_sites_times_the_volume_drawn_up():
     assert [e.action for e in entries] == ["Give 2.24 mL SC in 4 sites, 0.56 mL per site"] * 2
 
 
+def test_one_more_site_when_the_limit_would_force_every_site_a_mark_short():
+    # A 3.9 g finch at 10 mL/kg per site: at most 0.039 mL a site. 0.00975 mL/h × 12 h =
+    # 0.117 mL: 3 sites of 0.039 mL would each be drawn down to 0.03 mL (0.09 mL, 23 %
+    # short); 4 sites of 0.02925 mL are drawn as 0.03 mL, 0.12 mL, within half a mark each.
+    # Arithmetic; the 0.01 mL marks of a 1 mL syringe are common practice, no source.
+    phase, entries = _divided(0.00975, 0.039)
+    assert (phase.sites_per_dose, phase.ml_per_site, phase.dose_ml) == (4, 0.03, 0.12)
+    assert abs(phase.dose_ml - 0.117) <= 0.005 * phase.sites_per_dose
+
+
+def test_a_site_limit_below_the_smallest_mark_is_refused_not_exceeded():
+    with pytest.raises(InputError, match="smallest syringe mark") as err:
+        delivery.draw_up_ml(0.004, at_most=0.005)  # a 0.5 g patient at 10 mL/kg per site
+    assert err.value.field == "weight_kg"
+    assert delivery.draw_up_ml(0.004) == 0.01  # with no limit, the smallest mark
+
+
 def test_one_site_is_singular():
     # 0.05 mL/h × 12 h = 0.6 mL, under the 1 mL site limit: one site
     _, entries = _divided(0.05, 1.0)

@@ -136,8 +136,10 @@ def intermittent_phase(
     (:func:`vetfluid.delivery.drawn_up_dose`: to the syringe's marks, never above the
     site's limit), and the dose and the phase's volume are what those add up to, so
     every figure shown is one that is given; it differs from the exact need by less
-    than a syringe mark per site. When the phase is not a whole number of intervals
-    the spacing shrinks below the interval; the plan reports that as a finding.
+    than a syringe mark per site (by at most half a mark where the limit does not force
+    a site down: one more site is taken when that lands closer). When the phase is not
+    a whole number of intervals the spacing shrinks below the interval; the plan reports
+    that as a finding.
     """
     split = delivery.divided_boluses(
         need_ml_per_h=need_ml_per_h, per_site_limit_ml=per_site_limit_ml, route=route
@@ -147,7 +149,15 @@ def intermittent_phase(
     spacing = hours / doses
     need = need_ml_per_h * spacing
     sites = max(1, math.ceil(round(need / per_site_limit_ml, 9)))
-    drawn = delivery.drawn_up_dose(ml_per_site=need / sites, sites=sites, at_most=per_site_limit_ml)
+    drawn = min(  # one more site when the limit forces each down a mark and that lands closer
+        (
+            delivery.drawn_up_dose(ml_per_site=need / n, sites=n, at_most=per_site_limit_ml)
+            for n in (sites, sites + 1)
+            if n == sites or n <= delivery.MAX_SITES_PER_DOSE  # never past the site count
+        ),
+        key=lambda d: (round(abs(d.dose_ml - need), 9), d.sites),
+    )
+    sites = drawn.sites
     return Phase(
         kind=kind,
         mode="intermittent",
