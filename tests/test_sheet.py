@@ -124,7 +124,7 @@ def test_an_older_plan_file_without_the_unit_still_prints_the_weight_unrounded()
 
 
 def test_weights_keep_their_figures():
-    from vetfluid.sheet import weight_text
+    from vetfluid.units import weight_text
 
     assert weight_text(0.065, "g") == "65 g"  # 0.065 × 1000 is 65.00000000000001
     assert weight_text(0.0654, "g") == "65.4 g"
@@ -329,6 +329,25 @@ def test_later_boluses_are_marked_conditional_wherever_the_sheet_lists_them():
     assert "bolus 2: " + CONDITIONAL.upper() in labels
     plan_rows = html.split("<h3>Plan</h3>", 1)[1].split("<h3>", 1)[0]
     assert plan_rows.count(CONDITIONAL) == 3  # boluses 2 and 3, and the first 24 h total
+
+
+def test_a_bolus_running_into_the_next_hour_is_listed_once_and_then_said_to_run_on():
+    from datetime import time
+
+    from vetfluid.sheet import _planned_at
+
+    # a 60 min bolus from h 0.5 (a shape the hourly rows must handle even if no species
+    # default gives it today): due at 08:30, still running in the 09:00 row
+    phases = [
+        {"kind": "resuscitation", "mode": "continuous", "start_h": 0.5, "end_h": 1.5,
+         "rate_ml_per_h": 240.0, "volume_ml": 240.0},
+        {"kind": "replacement", "mode": "continuous", "start_h": 1.5, "end_h": 24.0,
+         "rate_ml_per_h": 50.0, "volume_ml": 1125.0},
+    ]  # fmt: skip
+    first, second = (_planned_at(phases, h, time(8, 0)) for h in (0, 1))
+    assert first == "bolus 240 mL in 60 min (240 mL/h)"
+    assert second.startswith("bolus still running until 09:30 (240 mL/h)")
+    assert "240 mL in" not in second  # never read as a second bolus to give
 
 
 def test_the_first_24_h_total_says_how_much_is_conditional():

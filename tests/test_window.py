@@ -56,6 +56,13 @@ def test_plan_a_gerbil_from_an_empty_form(qtbot, window):
     plan = wait_for_plan(qtbot, window, lambda p: p.request.weight_kg == pytest.approx(0.065))
     assert plan.device == "divided"
     assert window.windowTitle() == "vetfluid — Mongolian gerbil, 65 g"  # its own unit
+    qtbot.keyClicks(patient.weight_edit, ".25")  # every figure typed is shown, never rounded
+    plan = wait_for_plan(qtbot, window, lambda p: p.request.weight_kg == pytest.approx(0.06525))
+    assert window.windowTitle() == "vetfluid — Mongolian gerbil, 65.25 g"
+    assert "At 65.25 g" in next(f.message for f in plan.findings if f.code == "DIVIDED_BOLUSES")
+    qtbot.keyClick(patient.weight_edit, Qt.Key.Key_Backspace)
+    qtbot.keyClick(patient.weight_edit, Qt.Key.Key_Backspace)
+    qtbot.keyClick(patient.weight_edit, Qt.Key.Key_Backspace)
 
     patient.dehydration_field.setText("7")
     patient.dehydration_field.commit()

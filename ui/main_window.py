@@ -542,10 +542,9 @@ class MainWindow(QMainWindow):
         else:
             from vetfluid.formatting import format_quantity
             from vetfluid.ins_and_outs import planned_so_far
-            from vetfluid.units import weight_in_unit
+            from vetfluid.units import weight_text
 
-            unit = plan.weight_unit  # 65 g, not 0.065 kg
-            weight = format_quantity(weight_in_unit(plan.request.weight_kg, unit), unit)
+            weight = weight_text(plan.request.weight_kg, plan.weight_unit)  # 65 g, not 0.065 kg
             self.setWindowTitle(f"vetfluid — {plan.species_name}, {weight}")
             total = format_quantity(plan.total_ml_first_24h, "mL")
             covers = planned_so_far(plan.end_h, plan.request.ins_and_outs_period_h)

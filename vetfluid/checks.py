@@ -44,6 +44,12 @@ def require_number(
 PATIENT_WEIGHT_KG = (1e-4, 5000.0)
 
 
+def _plain(number: float) -> str:
+    """A number in plain decimals (0.00005, not 5e-05), as a person would write it."""
+    text = f"{number:.10f}".rstrip("0").rstrip(".")
+    return text if text not in ("", "-0", "0") or number == 0 else f"{number:g}"
+
+
 def require_patient_weight(weight_kg: object, field: str = "weight_kg") -> float:
     """A body weight (kg) within :data:`PATIENT_WEIGHT_KG`; outside it the message names
     the weight in words and the likely slip (the unit), not the field's code."""
@@ -53,7 +59,7 @@ def require_patient_weight(weight_kg: object, field: str = "weight_kg") -> float
     low, high = PATIENT_WEIGHT_KG
     if not low <= number <= high:
         raise InputError(
-            f"a weight of {number:g} kg is beyond any patient vetfluid plans for "
+            f"a weight of {_plain(number)} kg is beyond any patient vetfluid plans for "
             f"({low * 1000:g} g to {high:g} kg)",
             field=field,
             value=weight_kg,

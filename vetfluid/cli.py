@@ -516,7 +516,7 @@ COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
 def cmd_course(args: argparse.Namespace) -> int:
     from vetfluid.course import bolus_input, course
     from vetfluid.plan import build_plan
-    from vetfluid.sheet import weight_text
+    from vetfluid.units import weight_text
 
     plan = build_plan(_request(args))
     hours = _hours(args.at)

@@ -50,3 +50,22 @@ def format_quantity(value: float, unit: str, *, decimals: int | None = None) -> 
     if not unit:
         raise InputError("a quantity needs a unit", field="unit", value=unit)
     return f"{format_number(value, decimals=decimals)} {unit}"
+
+
+# A weight is printed with every figure it has, up to this many significant figures (a
+# 117 g gerbil is "117 g", never "0.12 kg"); more than any scale reads.
+WEIGHT_SIGNIFICANT_FIGURES = 6
+
+
+def entered_number(value: float) -> str:
+    """A number someone entered (a weight, a lab value) with all its figures, up to
+    :data:`WEIGHT_SIGNIFICANT_FIGURES`, the safe way (``146.5``, ``0.35``, never
+    ``147`` or ``.35``): the fewest decimals that keep the value
+    (117.00000000000001 is 117)."""
+    if value == 0:
+        return "0"
+    most = max(0, min(8, WEIGHT_SIGNIFICANT_FIGURES - 1 - math.floor(math.log10(abs(value)))))
+    decimals = next(
+        (d for d in range(most) if abs(round(value, d) - value) <= 1e-9 * abs(value)), most
+    )
+    return format_number(value, decimals=decimals)

@@ -35,7 +35,7 @@ from vetfluid.ledger import Ledger
 from vetfluid.limits import limit
 from vetfluid.schedule import Phase, ScheduleEntry
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
-from vetfluid.units import preferred_weight_unit, weight_in_unit
+from vetfluid.units import preferred_weight_unit, weight_text
 
 ROUTES = ("iv", "io", "sc", "icoel")
 DEVICES = ("pump", "gravity", "syringe", "divided")
@@ -152,9 +152,9 @@ class PlanRequest:
 
 
 def _weight_text(weight_kg: float, ledger: Ledger) -> str:
-    """The patient's weight in the unit its species' weight is usually given in (65 g)."""
-    unit = preferred_weight_unit(ledger.value("body_weight_kg").number)
-    return format_quantity(weight_in_unit(weight_kg, unit), unit)
+    """The patient's weight in the unit its species' weight is usually given in, with all
+    its figures (65 g, 117.5 g), as Plan.weight_unit chooses it."""
+    return weight_text(weight_kg, preferred_weight_unit(ledger.value("body_weight_kg").number))
 
 
 def _require(value: object, name: str, low: float, high: float, unit: str) -> None:

@@ -19,13 +19,13 @@ from html import escape
 from vetfluid.cautions import CAUTIONS
 from vetfluid.delivery import DrawnUpDose, drawn_up_dose
 from vetfluid.errors import InputError
-from vetfluid.formatting import format_number
+from vetfluid.formatting import entered_number, format_number
 from vetfluid.formatting import format_quantity as q
 from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time, sites_text
 from vetfluid.serialize import plan_dict
-from vetfluid.units import preferred_weight_unit, weight_in_unit
+from vetfluid.units import preferred_weight_unit, weight_text
 
 SEVERITY_WORDS = {"info": "Note", "soft": "Warning", "hard": "HARD LIMIT"}
 NURSE_COLUMNS = ("Rate set", "Volume given", "Weight", "HR", "RR", "MM / CRT", "Urine", "Initials")
@@ -36,38 +36,6 @@ STYLE = (
     "body { font-family: sans-serif; font-size: 9pt; } "
     "table { border-collapse: collapse; } td, th { border: 1px solid black; padding: 2px; }"
 )
-
-
-# A weight is printed with every figure it has, up to this many significant figures (a
-# 117 g gerbil is "117 g", never "0.12 kg"); more than any scale reads.
-WEIGHT_SIGNIFICANT_FIGURES = 6
-
-
-def weight_text(weight_kg: float, unit: str) -> str:
-    """A body weight in ``unit`` (g, kg or lb) with all its figures: ``65 g``, ``117 g``,
-    ``24 kg``, ``4.25 kg``. Never rounded to fewer figures than it has (up to
-    :data:`WEIGHT_SIGNIFICANT_FIGURES`): a weight that is rounded is a different weight.
-    A unit that is not a weight unit raises InputError."""
-    if isinstance(weight_kg, bool) or not isinstance(weight_kg, int | float):
-        raise InputError("the weight is not a number", field="weight_kg", value=weight_kg)
-    if not math.isfinite(weight_kg):
-        raise InputError("cannot print a weight that is not finite", field="weight_kg",
-                         value=weight_kg)  # fmt: skip
-    return f"{entered_number(weight_in_unit(weight_kg, unit))} {unit}"
-
-
-def entered_number(value: float) -> str:
-    """A number someone entered (a weight, a lab value) with all its figures, up to
-    :data:`WEIGHT_SIGNIFICANT_FIGURES`, the safe way (``146.5``, ``0.35``, never
-    ``147`` or ``.35``): the fewest decimals that keep the value
-    (117.00000000000001 is 117)."""
-    if value == 0:
-        return "0"
-    most = max(0, min(8, WEIGHT_SIGNIFICANT_FIGURES - 1 - math.floor(math.log10(abs(value)))))
-    decimals = next(
-        (d for d in range(most) if abs(round(value, d) - value) <= 1e-9 * abs(value)), most
-    )
-    return format_number(value, decimals=decimals)
 
 
 def patient_weight_text(data: dict) -> str:
@@ -191,17 +159,24 @@ def _conditional(phases: list[dict], index: int) -> bool:
 
 def _planned_at(phases: list[dict], hour: float, start: time | None) -> str:
     """What the schedule plans for the hour starting at ``hour``: each rate that runs in
-    it (from when, if it starts within the hour), each bolus (later ones only if still
-    poorly perfused) and each divided dose due."""
+    it (from when, if it starts within the hour), each bolus in the hour it starts (later
+    ones only if still poorly perfused; an hour it runs on into says it is still
+    running, so no bolus is read as due twice) and each divided dose due."""
     numbers = bolus_numbers(phases)
     parts = []
     for index, p in enumerate(phases):
         if p["mode"] == "continuous" and p["start_h"] < hour + 1 and p["end_h"] > hour:
             rate = q(p["rate_ml_per_h"], "mL/h")
             if index in numbers:
+                number = numbers[index]
+                if p["start_h"] < hour:  # started in an earlier hour, listed there: once only
+                    until = clock_time(start, p["end_h"])
+                    until = until[:5] if until else "h " + format(p["end_h"], "g")
+                    name = "bolus" if number == 1 else f"bolus {number}"
+                    parts.append(f"{name} still running until {until} ({rate})")
+                    continue
                 minutes = (p["end_h"] - p["start_h"]) * 60
                 bolus = f"{q(p['volume_ml'], 'mL')} in {minutes:.0f} min ({rate})"
-                number = numbers[index]
                 parts.append(
                     f"bolus {bolus}" if number == 1 else f"bolus {number} ({CONDITIONAL}): {bolus}"
                 )

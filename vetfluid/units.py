@@ -16,6 +16,7 @@ import re
 from vetfluid.checks import require_number
 from vetfluid.chemistry import molar_mass_g_per_mol
 from vetfluid.errors import InputError
+from vetfluid.formatting import entered_number
 
 KG_PER_LB = 0.45359237
 _WEIGHT_UNITS = {"g": 1e-3, "kg": 1.0, "lb": KG_PER_LB, "lbs": KG_PER_LB, "mg": 1e-6}
@@ -160,3 +161,16 @@ def mg_per_dl_to_umol_per_l(value: float, analyte: str) -> float:
 def umol_per_l_to_mg_per_dl(value: float, analyte: str) -> float:
     """µmol/L → mg/dL."""
     return mmol_per_l_to_mg_per_dl(_concentration(value) / 1000.0, analyte)
+
+
+def weight_text(weight_kg: float, unit: str) -> str:
+    """A body weight in ``unit`` (g, kg or lb) with all its figures: ``65 g``, ``117 g``,
+    ``24 kg``, ``4.25 kg``. Never rounded to fewer figures than it has (up to
+    :data:`vetfluid.formatting.WEIGHT_SIGNIFICANT_FIGURES`): a weight that is rounded is
+    a different weight. A unit that is not a weight unit raises InputError."""
+    if isinstance(weight_kg, bool) or not isinstance(weight_kg, int | float):
+        raise InputError("the weight is not a number", field="weight_kg", value=weight_kg)
+    if not math.isfinite(weight_kg):
+        raise InputError("cannot print a weight that is not finite", field="weight_kg",
+                         value=weight_kg)  # fmt: skip
+    return f"{entered_number(weight_in_unit(weight_kg, unit))} {unit}"
