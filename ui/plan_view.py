@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from datetime import datetime, time
 
-from PySide6.QtCore import QDateTime, QSignalBlocker, Qt
+from PySide6.QtCore import QDateTime, QSignalBlocker, Qt, QTimer
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
@@ -374,6 +374,11 @@ class PlanSummary(QWidget):
         view.verticalHeader().setVisible(False)
         view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
         view.horizontalHeader().setStretchLastSection(True)
+        # rows measured before the columns had their final widths stay too tall (or cut
+        # wrapped text): measure again once the widths settle, once per turn of the loop
+        refit = QTimer(view, singleShot=True, interval=0)
+        refit.timeout.connect(view.resizeRowsToContents)
+        view.horizontalHeader().sectionResized.connect(refit.start)
         return view
 
     def _show_problem(self, problem: str) -> None:
@@ -448,6 +453,7 @@ class PlanSummary(QWidget):
                 _phase_row(phase, conditional=phase.kind == "resuscitation" and boluses > 1)
             )
         self.phases_model.set_rows(rows)
+        self.phases_view.resizeRowsToContents()  # a few rows: cheap
         self.schedule_model.set_rows(
             [
                 [Cell(e.clock or "—"), Cell(f"{e.hour:g}"), Cell(e.phase), Cell(e.action)]
