@@ -322,7 +322,7 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
     Hour 0 of the new version is when the latest weight was taken; its clock and date follow.
     Weight: the latest measured weight, refused (:class:`InputError`) when it is beyond
     :data:`WEIGHT_PLAUSIBLE_FACTOR` of the entered weight. Remaining deficit: the euhydrated weight
-    (entered weight + deficit, 1 L ≈ 1 kg) less that weight, as a % of it. Labs: the
+    (entered weight + deficit, 1 L ≈ 1 kg) less that weight, as a % of it to 0.1 %. Labs: the
     latest Na and K. Everything else (fluid, route, flags) carries over.
     """
     from dataclasses import replace
@@ -341,7 +341,9 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
             consequence="no new plan was made from it",
         )  # fmt: skip
     euhydrated = plan.request.weight_kg + plan.deficit_ml / 1000.0
-    remaining_percent = max(0.0, (euhydrated - current) / current * 100.0)
+    # to 0.1 %, as a clinician would type it: the % is an estimate, and 3.26693 % in the
+    # form reads as a precision no scale or examination gives
+    remaining_percent = round(max(0.0, (euhydrated - current) / current * 100.0), 1)
     latest = {
         name: next((getattr(o, name) for o in reversed(ordered) if getattr(o, name) is not None),
                    getattr(plan.request, name))
