@@ -17,7 +17,7 @@ import pytest
 from vetfluid import delivery
 from vetfluid.demos import DEMOS
 from vetfluid.errors import InputError
-from vetfluid.plan import build_plan
+from vetfluid.plan import PlanRequest, build_plan
 from vetfluid.schedule import (
     continuous_phase,
     intermittent_phase,
@@ -183,11 +183,38 @@ def test_one_more_site_when_the_limit_would_force_every_site_a_mark_short():
     assert abs(phase.dose_ml - 0.117) <= 0.005 * phase.sites_per_dose
 
 
-def test_a_site_limit_below_the_smallest_mark_is_refused_not_exceeded():
-    with pytest.raises(InputError, match="smallest syringe mark") as err:
-        delivery.draw_up_ml(0.004, at_most=0.005)  # a 0.5 g patient at 10 mL/kg per site
-    assert err.value.field == "weight_kg"
-    assert delivery.draw_up_ml(0.004) == 0.01  # with no limit, the smallest mark
+def test_a_site_limit_below_the_smallest_mark_is_a_hard_limit_on_the_plan():
+    # a 0.5 g "gerbil" (a slip for 50 g) at 10 mL/kg per site: 0.005 mL a site, under the
+    # 0.01 mL mark; the site is drawn as the smallest mark and the plan cannot be ready
+    assert delivery.draw_up_ml(0.004, at_most=0.005) == 0.01
+    plan = build_plan(PlanRequest(species_id="mongolian_gerbil", weight_kg=0.0005,
+                                  dehydration_percent=5))  # fmt: skip
+    finding = next(f for f in plan.findings if f.code == "SITE_BELOW_SMALLEST_MARK")
+    assert finding.severity == "hard" and "0.005 mL" in finding.message
+    assert "SITE_BELOW_SMALLEST_MARK" not in {
+        f.code for f in build_plan(DEMOS["small_gerbil"].request).findings
+    }
+
+
+@pytest.mark.parametrize(
+    ("need_ml_per_h", "limit_ml", "route", "sites", "per_site"),
+    [
+        # 437 g slider, intracoelomic: 4.373 mL fits its one injection (nearest mark 4.4 mL
+        # is above it, drawn as 4.3 mL): still one puncture, never split for accuracy
+        (4.373 / 12, 4.373, "icoel", 1, 4.3),
+        # 150 g patient SC (1.5 mL a site): 1.02 mL is one site drawn as 1.0 mL, the nearest
+        # 0.1 mL mark and within the limit; not two sites of 0.51 mL for 0.02 mL more
+        (1.02 / 12, 1.5, "sc", 1, 1.0),
+    ],
+)  # fmt: skip
+def test_no_extra_site_unless_the_limit_forced_every_site_down(
+    need_ml_per_h, limit_ml, route, sites, per_site
+):
+    phase = intermittent_phase(kind="replacement", start_h=0, end_h=12,
+                               need_ml_per_h=need_ml_per_h, route=route,
+                               per_site_limit_ml=limit_ml, kcl_mmol_per_l=0.0)  # fmt: skip
+    assert phase.interval_h == 12
+    assert (phase.sites_per_dose, phase.ml_per_site) == (sites, per_site)
 
 
 def test_one_site_is_singular():

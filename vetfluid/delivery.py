@@ -93,23 +93,14 @@ def draw_up_ml(volume_ml: float, *, at_most: float | None = None) -> float:
 
     So a 0.57 mL site volume is not shown as 0.6 mL (six sites would then add up to
     3.6 mL, not the 3.4 mL dose), 1.17 mL under a 1.17 mL limit is 1.1 mL, not 1.2 mL,
-    and a volume too small for the marks is the smallest mark, never nothing. A limit
-    below the smallest mark cannot be kept by hand and is an InputError (at 10 mL/kg per
-    site, a patient under 1 g).
+    and a volume too small for the marks is the smallest mark, never nothing: even above
+    ``at_most`` when the limit is under one mark (at 10 mL/kg per site, a patient under
+    1 g), which the plan reports as a hard limit (SITE_BELOW_SMALLEST_MARK).
     """
     require_number(volume_ml, "volume_ml", low=0, unit="mL")
     step = SMALL_SYRINGE_STEP_ML if volume_ml < SMALL_SYRINGE_ML else SYRINGE_STEP_ML
     marks = round(volume_ml / step)
-    if at_most is not None and require_number(at_most, "at_most", low=0) < (
-        SMALL_SYRINGE_STEP_ML - 1e-9
-    ):
-        raise InputError(
-            f"a site takes at most {at_most:.2g} mL, less than the smallest syringe mark "
-            f"({SMALL_SYRINGE_STEP_ML:g} mL)",
-            field="weight_kg", value=at_most,
-            fix="check the weight and its unit; a patient this small cannot be dosed by hand",
-        )  # fmt: skip
-    if at_most is not None and marks * step > at_most + 1e-9:
+    if at_most is not None and marks * step > require_number(at_most, "at_most", low=0) + 1e-9:
         marks = math.floor(volume_ml / step + 1e-9)
     if marks == 0 and volume_ml > 0:
         marks = 1

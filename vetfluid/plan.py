@@ -636,7 +636,12 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     main = fluid_phases[0]
     safety.check_rates_against_shock_dose(ledger, phases, w)
     safety.check_colloid(ledger, bag, phases, w)
-    safety.check_divided_sites(ledger, phases)
+    safety.check_divided_sites(
+        ledger, phases,
+        site_limit_ml=(
+            ledger.value(SITE_LIMIT_PARAMETER[route]).number * w if device == "divided" else None
+        ),
+    )  # fmt: skip
     safety.check_dose_spacing(ledger, phases)
     end_h = max(ph.end_h for ph in phases)
     safety.check_predicted_gain(

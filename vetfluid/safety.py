@@ -267,10 +267,23 @@ def check_predicted_gain(
         )
 
 
-def check_divided_sites(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
+def check_divided_sites(
+    ledger: Ledger, phases: tuple[Phase, ...], *, site_limit_ml: float | None = None
+) -> None:
     """Doses that need more injection sites than is practical. Into the coelom, which is
     one space, a dose above the per-injection volume is more than one puncture: said
-    on its own (the per-injection volume is the species' value)."""
+    on its own (the per-injection volume is the species' value). A site limit below the
+    smallest syringe mark cannot be kept by hand at all (hard)."""
+    smallest = delivery.SMALL_SYRINGE_STEP_ML
+    if site_limit_ml is not None and site_limit_ml < smallest - 1e-9:
+        ledger.add(
+            "hard",
+            "SITE_BELOW_SMALLEST_MARK",
+            f"At this weight a site holds at most {q(site_limit_ml, 'mL', decimals=4)}, less "
+            f"than the smallest syringe mark ({q(smallest, 'mL')}); every site as planned "
+            "is more than it holds.",
+            "Check the weight and its unit; a patient this small cannot be dosed by syringe.",
+        )
     for phase in phases:
         if phase.mode == "intermittent" and phase.route == "icoel" and phase.sites_per_dose > 1:
             ledger.add(

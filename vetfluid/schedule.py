@@ -135,11 +135,11 @@ def intermittent_phase(
     what the sites allow). Each site's volume is what a nurse draws up
     (:func:`vetfluid.delivery.drawn_up_dose`: to the syringe's marks, never above the
     site's limit), and the dose and the phase's volume are what those add up to, so
-    every figure shown is one that is given; it differs from the exact need by less
-    than a syringe mark per site (by at most half a mark where the limit does not force
-    a site down: one more site is taken when that lands closer). When the phase is not
-    a whole number of intervals the spacing shrinks below the interval; the plan reports
-    that as a finding.
+    every figure shown is one that is given; it differs from the exact need by at most
+    half a syringe mark per site, or by less than a mark where the site's limit forces
+    each site a mark down (then one more SC site is taken when that lands closer). When
+    the phase is not a whole number of intervals the spacing shrinks below the
+    interval; the plan reports that as a finding.
     """
     split = delivery.divided_boluses(
         need_ml_per_h=need_ml_per_h, per_site_limit_ml=per_site_limit_ml, route=route
@@ -149,15 +149,17 @@ def intermittent_phase(
     spacing = hours / doses
     need = need_ml_per_h * spacing
     sites = max(1, math.ceil(round(need / per_site_limit_ml, 9)))
-    drawn = min(  # one more site when the limit forces each down a mark and that lands closer
-        (
-            delivery.drawn_up_dose(ml_per_site=need / n, sites=n, at_most=per_site_limit_ml)
-            for n in (sites, sites + 1)
-            if n == sites or n <= delivery.MAX_SITES_PER_DOSE  # never past the site count
-        ),
-        key=lambda d: (round(abs(d.dose_ml - need), 9), d.sites),
-    )
-    sites = drawn.sites
+    drawn = delivery.drawn_up_dose(ml_per_site=need / sites, sites=sites, at_most=per_site_limit_ml)
+    if _site_forced_down(need / sites, per_site_limit_ml) and route != "icoel":
+        # the limit drew every site a mark down; one more site (under the usual site
+        # count; never a second puncture into the coelom) when that lands closer
+        more = sites + 1
+        if more <= delivery.MAX_SITES_PER_DOSE:
+            spread = delivery.drawn_up_dose(
+                ml_per_site=need / more, sites=more, at_most=per_site_limit_ml
+            )
+            if round(abs(spread.dose_ml - need), 9) < round(abs(drawn.dose_ml - need), 9):
+                drawn, sites = spread, more
     return Phase(
         kind=kind,
         mode="intermittent",
@@ -174,6 +176,11 @@ def intermittent_phase(
         fluid_name=fluid_name,
         fits_sites=sites <= delivery.MAX_SITES_PER_DOSE,
     )
+
+
+def _site_forced_down(ml_per_site: float, limit_ml: float) -> bool:
+    """Whether the site's limit, not the nearest mark, decides what is drawn up."""
+    return delivery.draw_up_ml(ml_per_site, at_most=limit_ml) < delivery.draw_up_ml(ml_per_site)
 
 
 def syringe_fills(
