@@ -416,7 +416,9 @@ def test_an_intracoelomic_dose_bigger_than_one_injection_says_so():
     assert "ICOEL_MORE_THAN_ONE_INJECTION" not in {f.code for f in euhydrated.findings}
 
 
-@pytest.mark.parametrize(("kg", "written"), [(24500.0, "24500"), (0.00005, "0.00005")])
+@pytest.mark.parametrize(
+    ("kg", "written"), [(24500.0, "24500"), (0.00005, "0.00005"), (1e30, "1e+30")]
+)
 def test_a_weight_beyond_any_patient_names_the_likely_slip_in_words(kg, written):
     # 24500 "kg" is a 24.5 kg dog typed in grams with kg chosen: the message says so in
     # words (plain decimals, never 5e-05), not as a field code and bounds

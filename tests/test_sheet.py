@@ -334,7 +334,7 @@ def test_later_boluses_are_marked_conditional_wherever_the_sheet_lists_them():
 def test_a_bolus_running_into_the_next_hour_is_listed_once_and_then_said_to_run_on():
     from datetime import time
 
-    from vetfluid.sheet import _planned_at
+    from vetfluid.sheet import CONDITIONAL, _planned_at
 
     # a 60 min bolus from h 0.5 (a shape the hourly rows must handle even if no species
     # default gives it today): due at 08:30, still running in the 09:00 row
@@ -348,6 +348,10 @@ def test_a_bolus_running_into_the_next_hour_is_listed_once_and_then_said_to_run_
     assert first == "bolus 240 mL in 60 min (240 mL/h)"
     assert second.startswith("bolus still running until 09:30 (240 mL/h)")
     assert "240 mL in" not in second  # never read as a second bolus to give
+    # a later bolus keeps its condition, and a run past midnight its day
+    later = [{**phases[0], "start_h": 0.0, "end_h": 0.25, "volume_ml": 60.0}, *phases]
+    late = _planned_at(later, 1, time(23, 0))
+    assert late.startswith(f"bolus 2 ({CONDITIONAL}) still running until 00:30 (+1 d)")
 
 
 def test_the_first_24_h_total_says_how_much_is_conditional():

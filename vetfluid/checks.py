@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from decimal import Decimal
 
 from vetfluid.errors import InputError
 
@@ -45,9 +46,13 @@ PATIENT_WEIGHT_KG = (1e-4, 5000.0)
 
 
 def _plain(number: float) -> str:
-    """A number in plain decimals (0.00005, not 5e-05), as a person would write it."""
-    text = f"{number:.10f}".rstrip("0").rstrip(".")
-    return text if text not in ("", "-0", "0") or number == 0 else f"{number:g}"
+    """A number as a person would write it: plain decimals with the figures it has
+    (0.00005, not 5e-05; 24500); beyond a million, where plain digits stop being
+    readable, the short exponent form (1e+30)."""
+    if abs(number) >= 1e6:
+        return f"{number:g}"
+    text = format(Decimal(repr(number)), "f")  # repr: the shortest form that is the number
+    return text.rstrip("0").rstrip(".") if "." in text else text
 
 
 def require_patient_weight(weight_kg: object, field: str = "weight_kg") -> float:

@@ -170,9 +170,8 @@ def _planned_at(phases: list[dict], hour: float, start: time | None) -> str:
             if index in numbers:
                 number = numbers[index]
                 if p["start_h"] < hour:  # started in an earlier hour, listed there: once only
-                    until = clock_time(start, p["end_h"])
-                    until = until[:5] if until else "h " + format(p["end_h"], "g")
-                    name = "bolus" if number == 1 else f"bolus {number}"
+                    until = clock_time(start, p["end_h"]) or "h " + format(p["end_h"], "g")
+                    name = "bolus" if number == 1 else f"bolus {number} ({CONDITIONAL})"
                     parts.append(f"{name} still running until {until} ({rate})")
                     continue
                 minutes = (p["end_h"] - p["start_h"]) * 60
