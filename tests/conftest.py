@@ -33,9 +33,19 @@ def collect_qt_garbage(request):
 
 
 @pytest.fixture()
-def planner(qtbot):
-    """The main window, shown, with its planner built (it follows the first paint)."""
+def planner(qtbot, monkeypatch):
+    """The main window, shown, with its planner built (it follows the first paint).
+
+    A question the test did not expect (and answer by patching ``QMessageBox.question``)
+    fails the test at once instead of waiting for a click that never comes."""
+    from PySide6.QtWidgets import QMessageBox
+
     from ui.main_window import MainWindow
+
+    def unexpected(_parent, _title, text, *_args):  # noqa: ANN001, ANN202
+        raise AssertionError(f"the window asked a question the test did not answer: {text}")
+
+    monkeypatch.setattr(QMessageBox, "question", unexpected)
 
     win = MainWindow()
     qtbot.addWidget(win)
@@ -43,6 +53,25 @@ def planner(qtbot):
     win.show()
     qtbot.waitUntil(lambda: win.session is not None)
     return win
+
+
+@pytest.fixture()
+def answer(monkeypatch):
+    """Answer the window's questions by their words, as a user would:
+    ``answer({"Restore it": Yes, "This plan, or what was recorded": No})``. A question
+    that matches none fails the test."""
+    from PySide6.QtWidgets import QMessageBox
+
+    def set_answers(answers: dict) -> None:
+        def ask(_parent, _title, text, *_args):  # noqa: ANN001, ANN202
+            for words, button in answers.items():
+                if words in text:
+                    return button
+            raise AssertionError(f"the window asked a question the test did not answer: {text}")
+
+        monkeypatch.setattr(QMessageBox, "question", ask)
+
+    return set_answers
 
 
 @pytest.fixture

@@ -12,7 +12,7 @@ from vetfluid.formatting import format_quantity
 
 
 @pytest.fixture(autouse=True)
-def replan_without_saving(monkeypatch):
+def replan_without_saving(planner, monkeypatch):
     """Re-planning an unsaved plan asks whether to save it first: these tests answer No
     (tests/test_records_window.py answers Yes and Cancel)."""
     from PySide6.QtWidgets import QMessageBox

@@ -63,12 +63,14 @@ def test_observations_follow_the_screen_and_keep_their_recording_time(records):
     vid = records.versions(pid)[0].id
     first_recorded = records._db.execute("SELECT recorded_at FROM observations").fetchone()[0]
     later = [{"hour": 2.0, "weight_kg": 24.4}, {"hour": 6.0, "weight_kg": 24.9}]
-    assert records.keep_observations(vid, later)
+    assert records.keep_observations(version_id=vid, observations=later)
     assert records.observations(vid) == later
-    assert not records.keep_observations(vid, later)  # nothing changed, nothing written
+    # nothing changed, nothing written
+    assert not records.keep_observations(version_id=vid, observations=later)
     times = [r[0] for r in records._db.execute("SELECT recorded_at FROM observations ORDER BY id")]
     assert times[0] == first_recorded
-    assert records.keep_observations(vid, later[1:])  # the nurse removed the first
+    # the nurse removed the first
+    assert records.keep_observations(version_id=vid, observations=later[1:])
     assert records.observations(vid) == later[1:]
 
 
@@ -83,6 +85,9 @@ def test_a_damaged_observation_row_is_returned_as_text_not_a_crash(records):
         " VALUES (?, '{\"hour\": 2', 'now')",
         (vid,),
     )
+    assert records.observations(vid) == [{"hour": 1.0, "weight_kg": 24.2}, '{"hour": 2']
+    # nobody saw the damaged row, so nobody removed it: keeping what is on screen leaves it
+    records.keep_observations(version_id=vid, observations=[{"hour": 1, "weight_kg": 24.2}])
     assert records.observations(vid) == [{"hour": 1.0, "weight_kg": 24.2}, '{"hour": 2']
 
 

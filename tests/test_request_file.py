@@ -24,8 +24,9 @@ def test_round_trip_keeps_request_and_reasons(tmp_path):
 def test_the_words_each_reason_was_given_for_are_kept(tmp_path):
     said = {"OVERLOAD_RISK": "Given volume may reach 11 % over the starting weight"}
     path = write_request_file(
-        tmp_path / "cat", DEMOS["renal_cat"].request, {"OVERLOAD_RISK": "weighed 6-hourly"}, said
-    )
+        tmp_path / "cat", DEMOS["renal_cat"].request, {"OVERLOAD_RISK": "weighed 6-hourly"},
+        acknowledged_for=said,
+    )  # fmt: skip
     assert read_request_file(path).acknowledged_for == said
 
 

@@ -283,7 +283,12 @@ def test_a_reason_covers_the_warning_it_was_given_for_not_a_changed_one(qtbot, w
     assert not session.blockers()
 
 
-def test_a_reason_opened_from_a_file_covers_only_the_warning_it_was_saved_with(qtbot, window):
+def test_a_reason_opened_from_a_file_covers_only_the_warning_it_was_saved_with(
+    qtbot, window, answer
+):
+    from PySide6.QtWidgets import QMessageBox
+
+    answer({"This plan, or what was recorded": QMessageBox.StandardButton.No})
     # a reason kept while its warning had gone (dehydration 0 %) is saved, the file reopened,
     # and the warning comes back with other figures: the reason must not cover it
     window.open_demo("small_gerbil")
@@ -357,7 +362,10 @@ def test_each_view_renders_to_a_picture(qtbot, window, tmp_path, demo_id):
         assert len(colours) > 8, f"view {index} looks blank"
 
 
-def test_save_and_open_a_plan_request(qtbot, window, tmp_path):
+def test_save_and_open_a_plan_request(qtbot, window, tmp_path, answer):
+    from PySide6.QtWidgets import QMessageBox
+
+    answer({"This plan, or what was recorded": QMessageBox.StandardButton.No})
     window.open_demo("renal_cat")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
     window.session.acknowledge("OVERLOAD_RISK", "weighing every 6 h")
@@ -371,7 +379,10 @@ def test_save_and_open_a_plan_request(qtbot, window, tmp_path):
     assert window.session.acknowledged == {"OVERLOAD_RISK": "weighing every 6 h"}
 
 
-def test_a_plan_file_keeps_the_words_each_reason_was_given_for(qtbot, window, tmp_path):
+def test_a_plan_file_keeps_the_words_each_reason_was_given_for(qtbot, window, tmp_path, answer):
+    from PySide6.QtWidgets import QMessageBox
+
+    answer({"This plan, or what was recorded": QMessageBox.StandardButton.No})
     window.open_demo("renal_cat")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
     window.session.acknowledge("OVERLOAD_RISK", "weighing every 6 h")

@@ -10,6 +10,7 @@ from __future__ import annotations
 import linecache
 from collections.abc import Iterator
 from contextlib import contextmanager
+from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -35,7 +36,19 @@ from vetfluid.paths import user_data_dir
 if TYPE_CHECKING:
     from PySide6.QtGui import QCloseEvent
 
+    from vetfluid.plan import PlanRequest
+
 FILE_FILTER = "vetfluid plan request (*.vfplan.json)"
+
+
+@dataclass(frozen=True, kw_only=True)
+class SavedVersion:
+    """The saved version on screen: while the plan keeps these inputs and reasons, what is
+    recorded on it is written to that version rather than to the draft."""
+
+    row_id: int
+    request: PlanRequest
+    acknowledged: dict[str, str]
 
 
 def _placeholder(text: str) -> QWidget:
@@ -279,9 +292,11 @@ class MainWindow(QMainWindow):
         from vetfluid.records import Records, RecordsError
 
         self.current_patient: int | None = None
-        # the saved version on screen (row id, request as saved): observations recorded on it
-        # while its plan is unchanged are written to it, not to a draft
-        self._saved_version: tuple[int, object] | None = None
+        self._saved_version: SavedVersion | None = None
+        self._opened: tuple[object, dict[str, str]] = (None, {})  # request and reasons opened
+        self._opening = False
+        self.session.inputsReplaced.connect(self._plan_replaced)
+        self.session.planChanged.connect(self._plan_opened)
         try:
             self.records = Records.open()
         except RecordsError as exc:
@@ -292,18 +307,60 @@ class MainWindow(QMainWindow):
         self._draft_timer.setSingleShot(True)
         self._draft_timer.setInterval(2000)  # a crash loses at most a few seconds of typing
         self._draft_timer.timeout.connect(self._save_draft)
-        self.session.planChanged.connect(lambda _plan: self._draft_timer.start())
-        self.session.observationsChanged.connect(self._draft_timer.start)
+        for changed in (  # the plan, what was recorded on it, the reasons given
+            self.session.planChanged, self.session.observationsChanged,
+            self.session.readinessChanged,
+        ):  # fmt: skip
+            changed.connect(self._draft_timer.start)
         QTimer.singleShot(0, self.offer_draft)
 
+    def _plan_replaced(self, _request: object) -> None:
+        """A new patient, a demo, a file, a version or a re-plan: a saved version is named
+        again by whoever opened it; the plan built next is the yardstick for unsaved work."""
+        self._saved_version = None
+        self._opening = True
+
+    def _plan_opened(self, plan) -> None:  # noqa: ANN001 — Plan | None
+        if self._opening:  # built from what was opened, reasons already checked against it
+            self._opening = False
+            self._opened = (plan.request if plan else None, self.session.acknowledged)
+
     def _on_saved_version(self) -> bool:
-        """Whether the plan on screen is a saved version, unchanged since it was saved."""
-        plan = self.session.plan
+        """Whether the plan on screen is a saved version, unchanged since it was saved
+        (the same inputs and the same reasons)."""
+        plan, saved = self.session.plan, self._saved_version
         return (
-            self._saved_version is not None
+            saved is not None
             and plan is not None
-            and plan.request == self._saved_version[1]
+            and plan.request == saved.request
+            and self.session.acknowledged == saved.acknowledged
         )
+
+    def _has_unsaved_work(self) -> bool:
+        """Observations, or a plan changed since it was opened, not in a saved version."""
+        if self.records is None or self._on_saved_version():
+            return False
+        if self.session.observations:
+            return True
+        plan = self.session.plan
+        return plan is not None and (plan.request, self.session.acknowledged) != self._opened
+
+    def _may_leave(self) -> bool:
+        """Before another plan replaces this one: unsaved work is saved as a version (Yes),
+        left (No: it stays in the draft until the next plan's edits replace it), or the
+        command is cancelled."""
+        if not self._has_unsaved_work():
+            return True
+        answer = QMessageBox.question(
+            self, "vetfluid",
+            "This plan, or what was recorded on it, is not saved as a version. Save it "
+            "first?\n\nNo leaves it: it can be restored only until the next plan is edited.",
+            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No
+            | QMessageBox.StandardButton.Cancel,
+        )  # fmt: skip
+        if answer == QMessageBox.StandardButton.Yes:
+            return self.save_version() is not None
+        return answer == QMessageBox.StandardButton.No
 
     def _keep_edits(self) -> None:
         """Write what is waiting for the draft timer now (before the screen is replaced)."""
@@ -315,32 +372,50 @@ class MainWindow(QMainWindow):
         """Keep what is being edited; ``closed`` marks a normal close rather than a crash.
 
         Observations recorded on an unchanged saved version are written to that version;
-        anything else (a plan not saved, or changed since) goes into the draft."""
+        anything else (a plan not saved, or changed since) goes into the draft. With no
+        valid plan (a weight being retyped) the observations still go where they belong:
+        to the saved version, or into the draft with the last plan it holds."""
         from vetfluid.records import RecordsError
-        from vetfluid.serialize import request_to_dict
 
-        if self.records is None or self.session.plan is None:
+        if self.records is None:
             return
+        observations = self._observation_records()
         try:
-            if self._on_saved_version():
+            if self._on_saved_version() or (
+                self.session.plan is None and self._saved_version is not None
+            ):
                 if self.records.keep_observations(
-                    self._saved_version[0], self._observation_records()
+                    version_id=self._saved_version.row_id, observations=observations
                 ):
                     self.statusBar().showMessage("Observations saved with the plan version.")
-                self.records.clear_draft()  # nothing else is unsaved
+                if self.session.plan is not None:
+                    self.records.clear_draft()  # nothing else is unsaved
                 return
-            self.records.save_draft(
-                {
-                    "request": request_to_dict(self.session.plan.request),
-                    "acknowledged": self.session.acknowledged,
-                    "acknowledged_for": self.session.acknowledged_for,
-                    "observations": self._observation_records(),
-                    "patient_id": self.current_patient,
-                    "closed": closed,
-                }
-            )
+            if self.session.plan is None:
+                draft = self.records.draft()
+                if draft and draft.get("observations", []) != observations:
+                    self.records.save_draft({**draft, "observations": observations})
+                return
+            self.records.save_draft(self._draft(closed=closed))
         except RecordsError as exc:
             self.statusBar().showMessage(f"Not saved: {exc.one_line()}")
+            if self.session.plan is not None:  # the draft keeps them until the next try
+                try:
+                    self.records.save_draft(self._draft(closed=closed))
+                except RecordsError:
+                    pass  # the message above already says nothing was saved
+
+    def _draft(self, *, closed: bool) -> dict:
+        from vetfluid.serialize import request_to_dict
+
+        return {
+            "request": request_to_dict(self.session.plan.request),
+            "acknowledged": self.session.acknowledged,
+            "acknowledged_for": self.session.acknowledged_for,
+            "observations": self._observation_records(),
+            "patient_id": self.current_patient,
+            "closed": closed,
+        }
 
     def offer_draft(self) -> bool:
         """Offer back the plan that was being edited when vetfluid last stopped."""
@@ -374,7 +449,6 @@ class MainWindow(QMainWindow):
             wording if isinstance(wording, dict) else None,  # older drafts have none
         )
         self.current_patient = draft.get("patient_id")
-        self._saved_version = None
         unreadable = self._restore_observations(draft.get("observations") or [])
         self.statusBar().showMessage("Restored the plan that was being edited." + unreadable)
         return True
@@ -412,7 +486,9 @@ class MainWindow(QMainWindow):
             return None
         self._draft_timer.stop()  # what was being edited is now saved
         saved = next(v for v in self.records.versions(self.current_patient) if v.version == number)
-        self._saved_version = (saved.id, plan.request)
+        self._saved_version = SavedVersion(
+            row_id=saved.id, request=plan.request, acknowledged=self.session.acknowledged
+        )
         self.records.clear_draft()
         self.statusBar().showMessage(f"Saved as version {number}; earlier versions are kept.")
         return number
@@ -431,7 +507,8 @@ class MainWindow(QMainWindow):
     def load_version(self, patient_id: int, version: int) -> None:
         from vetfluid.serialize import request_from_dict
 
-        self._keep_edits()
+        if not self._leave_plan():
+            return
         chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
         # what each warning said when the version was saved: its reason covers that only
         said = {f.get("code"): f.get("message") for f in chosen.plan.get("findings", ())}
@@ -439,7 +516,9 @@ class MainWindow(QMainWindow):
         self.session.replace_request(
             request_from_dict(chosen.request), chosen.acknowledged, wording
         )
-        self._saved_version = (chosen.id, self.session.request)
+        self._saved_version = SavedVersion(
+            row_id=chosen.id, request=self.session.request, acknowledged=self.session.acknowledged
+        )
         unreadable = self._restore_observations(self.records.observations(chosen.id))
         self.current_patient = patient_id
         patient = self.records.patient(patient_id)
@@ -575,15 +654,19 @@ class MainWindow(QMainWindow):
         self.details.setTabIcon(index, icon(f"severity-{severity}") if severity else QIcon())
 
     # ---- commands ----------------------------------------------------------------------------
-    def _leave_plan(self) -> None:
-        """Before another plan replaces this one: keep its edits, forget its version."""
+    def _leave_plan(self) -> bool:
+        """Before another plan replaces this one: keep its edits, offer to save unsaved
+        work; False when the user cancels."""
         self._keep_edits()
+        if not self._may_leave():
+            return False
         self.current_patient = None
-        self._saved_version = None
+        return True
 
     def new_patient(self) -> None:
         self.build_planner()
-        self._leave_plan()
+        if not self._leave_plan():
+            return
         self.session.replace_request(None)
         self.patient.species_box.setFocus()
 
@@ -592,7 +675,8 @@ class MainWindow(QMainWindow):
 
         self.build_planner()
         chosen = demo(demo_id)
-        self._leave_plan()
+        if not self._leave_plan():
+            return
         self.session.replace_request(chosen.request)
         self.statusBar().showMessage(chosen.story)
 
@@ -626,8 +710,9 @@ class MainWindow(QMainWindow):
             return False
         try:
             written = write_request_file(
-                path, plan.request, self.session.acknowledged, self.session.acknowledged_for
-            )
+                path, plan.request, self.session.acknowledged,
+                acknowledged_for=self.session.acknowledged_for,
+            )  # fmt: skip
         except OSError as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not save {path.name}:\n{exc}")
             return False
@@ -650,7 +735,8 @@ class MainWindow(QMainWindow):
         except (OSError, VetfluidError) as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not open {path.name}:\n{exc}")
             return False
-        self._leave_plan()
+        if not self._leave_plan():
+            return False
         self.session.replace_request(opened.request, opened.acknowledged, opened.acknowledged_for)
         self.statusBar().showMessage(f"Opened {path}")
         return True

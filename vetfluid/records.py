@@ -88,6 +88,19 @@ def _json_or_text(text: str) -> object:
         return text
 
 
+def _observation_key(record: object) -> str | None:
+    """One observation however it was written (4 or 4.0, key order), or None when the
+    record is not a readable observation."""
+    from vetfluid.observations import observation_from_record, observation_record
+
+    try:
+        fields = observation_record(observation_from_record(record))
+    except VetfluidError:
+        return None
+    numbers = {k: float(v) if type(v) is int else v for k, v in fields.items()}
+    return json.dumps(numbers, sort_keys=True)
+
+
 def _now() -> str:
     return datetime.now(UTC).isoformat(timespec="seconds")
 
@@ -343,23 +356,28 @@ class Records:
         ).fetchall()
         return [_json_or_text(r[0]) for r in rows]
 
-    def keep_observations(self, version_id: int, observations: list[dict]) -> bool:
+    def keep_observations(self, *, version_id: int, observations: list[dict]) -> bool:
         """Make the version's stored observations the ones given (one transaction).
 
         Rows already stored keep their time of recording; only the ones the user added or
-        removed change. Returns whether anything was written."""
-        wanted = [json.dumps(o, ensure_ascii=False) for o in observations]
+        removed change. A stored row that cannot be read as an observation is never
+        touched: the user never saw it, so never removed it. Returns whether anything
+        was written."""
         stored = self._db.execute(
             "SELECT id, observation_json FROM observations WHERE plan_version_id = ?",
             (version_id,),
         ).fetchall()
-        unmatched = list(wanted)
+        unmatched = [(_observation_key(o), o) for o in observations]
         removed = []
         for row_id, text in stored:
-            if text in unmatched:
-                unmatched.remove(text)
-            else:
+            key = _observation_key(_json_or_text(text))
+            if key is None:
+                continue  # unreadable: left as it is
+            match = next((i for i, (k, _) in enumerate(unmatched) if k == key), None)
+            if match is None:
                 removed.append((row_id,))
+            else:
+                del unmatched[match]
         if not removed and not unmatched:
             return False
         try:
@@ -368,9 +386,9 @@ class Records:
                 self._db.executemany(
                     "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
                     " VALUES (?, ?, ?)",
-                    [(version_id, text, _now()) for text in unmatched],
+                    [(version_id, json.dumps(o, ensure_ascii=False), _now()) for _, o in unmatched],
                 )
-        except sqlite3.OperationalError as exc:
+        except sqlite3.DatabaseError as exc:
             raise RecordsError(
                 f"could not save the observations to {self.path.name}: {exc}",
                 fix="check the disk and the folder; the observations on screen are unchanged",
@@ -459,7 +477,7 @@ class Records:
                         self._db.execute(
                             "INSERT INTO observations (plan_version_id, observation_json,"
                             " recorded_at) VALUES (?, ?, ?)",
-                            (version_id, json.dumps(obs), _now()),
+                            (version_id, json.dumps(obs, ensure_ascii=False), _now()),
                         )
         except (KeyError, TypeError, ValueError) as exc:
             raise InputError(f"the patient export is incomplete: {exc}", field="file") from None

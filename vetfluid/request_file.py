@@ -26,7 +26,7 @@ def with_suffix(path: Path) -> Path:
     return path if path.name.endswith(SUFFIX) else path.with_name(path.name + SUFFIX)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class RequestFile:
     """What a plan-request file holds."""
 
@@ -39,6 +39,7 @@ def write_request_file(
     path: Path,
     request: PlanRequest,
     acknowledged: dict[str, str],
+    *,
     acknowledged_for: dict[str, str] | None = None,
 ) -> Path:
     """Write the file atomically; returns the path written (the suffix added if missing)."""
@@ -91,7 +92,10 @@ def read_request_file(path: Path) -> RequestFile:
             "acknowledged_for must map finding codes to what each warning said",
             field="acknowledged_for",
         )
-    return RequestFile(request_from_dict(data["request"]), acknowledged, wording)
+    return RequestFile(
+        request=request_from_dict(data["request"]), acknowledged=acknowledged,
+        acknowledged_for=wording,
+    )  # fmt: skip
 
 
 def _codes_to_text(value: object) -> bool:
