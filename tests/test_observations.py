@@ -208,3 +208,15 @@ def test_a_small_patients_overload_alert_speaks_in_grams(lizard):
     found = alerts(lizard, [Observation(hour=8, weight_kg=line_g / 1000 + 0.005)])
     overload = next(f for f in found if f.code == "OBSERVED_OVERLOAD")
     assert f"{line_g + 5:.0f} g" in overload.message and " kg" not in overload.message
+
+
+def test_outputs_saved_with_their_observations_are_not_counted_again():
+    from vetfluid.observations import measured_outputs, outputs_not_observed
+
+    observed = [Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0)]
+    saved = measured_outputs(observed, period_h=4)  # what the saved request holds
+    assert saved == ((70.0, 0.0),)
+    assert outputs_not_observed(saved, observed, period_h=4) == ((0.0, 0.0),)
+    # outputs with no observation behind them (an older plan file) are kept
+    assert outputs_not_observed(((90.0, 10.0),), observed, period_h=4) == ((20.0, 10.0),)
+    assert outputs_not_observed(((50.0, 0.0),), observed, period_h=4) == ((0.0, 0.0),)

@@ -422,3 +422,21 @@ def test_an_observation_recorded_while_the_weight_is_retyped_is_still_saved(qtbo
     window.close()
     with Records.open() as records:
         assert records.observations(saved.id) == [{"hour": 3.0, "weight_kg": 24.3}]
+
+
+def test_a_reopened_ins_and_outs_plan_counts_each_measurement_once(qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.session.replace_request(DEMOS["renal_cat"].request)
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.set_ins_and_outs(4.0)
+    window.session.add_observation(Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0))
+    qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
+    window.save_version(name="Tom", author="AB")
+    window.new_patient()
+    window.load_version(window.current_patient or window.records.find_patients("Tom")[0].id, 1)
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    qtbot.wait(50)  # the rebuild that follows the restored observations
+    assert window.session.plan.request.measured_outputs == ((70.0, 0.0),)  # not 140 mL
+    assert not window._has_unsaved_work()  # the reopened version is unchanged

@@ -234,8 +234,17 @@ class PlanSession(QObject):
         self._observed()
 
     def restore_observations(self, observations) -> None:  # noqa: ANN001 — Observations
-        """The observations of a reopened draft or saved version (after replace_request)."""
+        """The observations of a reopened draft or saved version (after replace_request);
+        the outputs saved with it that came from them are not counted a second time."""
+        from vetfluid.observations import outputs_not_observed
+
         self.observations = sorted(observations, key=lambda o: o.hour)
+        period, saved = self._saved_outputs
+        if period is not None and saved:
+            self._saved_outputs = (
+                period,
+                outputs_not_observed(saved, self.observations, period_h=period),
+            )
         self._observed()
 
     def remove_observation(self, index: int) -> None:

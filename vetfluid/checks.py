@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import math
-from decimal import Decimal
 
 from vetfluid.errors import InputError
+from vetfluid.formatting import entered_number
 
 
 def require_number(
@@ -46,13 +46,13 @@ PATIENT_WEIGHT_KG = (1e-4, 5000.0)
 
 
 def _plain(number: float) -> str:
-    """A number as a person would write it: plain decimals with the figures it has
-    (0.00005, not 5e-05; 24500); beyond a million, where plain digits stop being
-    readable, the short exponent form (1e+30)."""
-    if abs(number) >= 1e6:
+    """A number as a person would write it: plain decimals with the figures it has, up to
+    six (0.00005, not 5e-05; 24500; 6047.75, not the 6047.7470692100005 a conversion
+    leaves); past a billion or under a millionth, where plain digits stop being readable,
+    the short exponent form (1e+30)."""
+    if number and not 1e-6 <= abs(number) < 1e9:
         return f"{number:g}"
-    text = format(Decimal(repr(number)), "f")  # repr: the shortest form that is the number
-    return text.rstrip("0").rstrip(".") if "." in text else text
+    return entered_number(number)
 
 
 def require_patient_weight(weight_kg: object, field: str = "weight_kg") -> float:

@@ -403,6 +403,28 @@ def measured_outputs(
     return tuple((float(u), float(x)) for u, x in zip(urine, other, strict=True))
 
 
+def outputs_not_observed(
+    saved: tuple[tuple[float, float], ...],
+    observations: list[Observation] | tuple[Observation, ...],
+    *,
+    period_h: float,
+) -> tuple[tuple[float, float], ...]:
+    """What a reopened plan's saved outputs hold beyond the observations reopened with it.
+
+    A saved version or draft keeps both its measured outputs and the observations they
+    came from; counting both would replace urine twice. Per period, the saved outputs
+    less what the observations give (never below zero): what :func:`measured_outputs`
+    should take as ``earlier``."""
+    own = measured_outputs(observations, period_h=period_h)
+    return tuple(
+        (
+            round(max(0.0, urine - (own[i][0] if i < len(own) else 0.0)), 9),
+            round(max(0.0, other - (own[i][1] if i < len(own) else 0.0)), 9),
+        )
+        for i, (urine, other) in enumerate(saved)
+    )
+
+
 def ins_and_outs_from_observations(
     observations: list[Observation] | tuple[Observation, ...],
     *,
