@@ -30,24 +30,31 @@ def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, monkeypatch):
     window = planner
     window.open_demo("small_gerbil")
     qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=6.0)  # an edit: unsaved work
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
     window._save_draft()  # what the autosave timer does a few seconds after each edit
-    window.new_patient()
-    qtbot.waitUntil(lambda: window.session.plan is None)
     asked = []
     monkeypatch.setattr(
         QMessageBox, "question",
-        lambda _parent, _title, text: asked.append(text) or QMessageBox.StandardButton.Yes,
+        lambda _parent, _title, text, *_: asked.append(text) or (
+            QMessageBox.StandardButton.No if "Save it first" in text
+            else QMessageBox.StandardButton.Yes
+        ),
     )  # fmt: skip
+    window.new_patient()  # left unsaved (No): it stays in the draft
+    qtbot.waitUntil(lambda: window.session.plan is None)
     assert window.offer_draft()
-    assert "stopped unexpectedly" in asked[0]
+    assert "stopped unexpectedly" in asked[-1]
     qtbot.waitUntil(lambda: window.session.plan is not None)
-    assert window.session.plan.request == DEMOS["small_gerbil"].request
+    assert window.session.plan.request.dehydration_percent == 6.0
 
 
 def test_closing_with_unsaved_edits_keeps_them_and_says_so(qtbot, planner, monkeypatch):
     window = planner
     window.open_demo("cold_bearded_dragon")
     qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(body_temp_c=29.0)  # warmed up: an edit
+    qtbot.waitUntil(lambda: window.session.plan.request.body_temp_c == 29.0)
     assert window._draft_timer.isActive()  # edited less than the autosave delay ago
     window.close()
     from ui.main_window import MainWindow
@@ -62,7 +69,16 @@ def test_closing_with_unsaved_edits_keeps_them_and_says_so(qtbot, planner, monke
     again.show()
     qtbot.waitUntil(lambda: again.session is not None and again.session.plan is not None)
     assert "closed with a plan that had not been saved" in asked[0]
-    assert again.session.plan.request == DEMOS["cold_bearded_dragon"].request
+    assert again.session.plan.request.body_temp_c == 29.0
+
+
+def test_an_untouched_demo_leaves_no_draft(qtbot, planner):
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.close()  # nothing was changed: nothing to offer back at the next start
+    with Records.open() as db:
+        assert db.draft() is None
 
 
 def test_no_draft_is_offered_after_saving_and_closing(qtbot, planner, monkeypatch):
@@ -79,7 +95,9 @@ def test_declining_the_draft_clears_it(qtbot, planner, monkeypatch):
     window = planner
     window.open_demo("renal_cat")
     qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.acknowledge("OVERLOAD_RISK", "weighed 6-hourly")  # unsaved work
     window._save_draft()
+    assert window.records.draft() is not None
     monkeypatch.setattr(QMessageBox, "question", lambda *a, **k: QMessageBox.StandardButton.No)
     assert not window.offer_draft()
     assert window.records.draft() is None
@@ -440,3 +458,90 @@ def test_a_reopened_ins_and_outs_plan_counts_each_measurement_once(qtbot, planne
     qtbot.wait(50)  # the rebuild that follows the restored observations
     assert window.session.plan.request.measured_outputs == ((70.0, 0.0),)  # not 140 mL
     assert not window._has_unsaved_work()  # the reopened version is unchanged
+
+
+# ---- the third review's cases ----------------------------------------------------------------
+LEAVE = "This plan, or what was recorded"
+
+
+def test_an_observation_after_editing_a_version_never_goes_into_that_version(qtbot, planner):
+    from vetfluid.observations import Observation
+
+    window = planner
+    saved = _saved_dog(qtbot, window)
+    window.session.update(dehydration_percent=6.0)  # the plan now differs from version 1
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
+    window.session.update(weight_kg=None)  # and the weight is being retyped
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    window._save_draft()
+    assert window.records.observations(saved.id) == []
+    draft = window.records.draft()
+    assert draft["request"]["dehydration_percent"] == 6.0  # the last plan that could be built
+    assert draft["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
+
+
+def test_a_note_recorded_before_the_first_autosave_with_no_valid_plan_is_kept(qtbot, planner):
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.open_demo("small_gerbil")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(weight_kg=None)
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    window.session.add_observation(Observation(hour=1.0, note="drank a little"))
+    window.close()
+    with Records.open() as db:
+        draft = db.draft()
+    assert draft["request"]["species_id"] == "mongolian_gerbil"
+    assert draft["observations"] == [{"hour": 1.0, "note": "drank a little"}]
+
+
+def test_a_restored_draft_and_a_replan_left_unsaved_are_asked_about(qtbot, planner, answer):
+    window = planner
+    window.open_demo("renal_cat")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.acknowledge("OVERLOAD_RISK", "weighed 6-hourly")
+    window._save_draft()
+    answer({"Restore it": QMessageBox.StandardButton.Yes, LEAVE: QMessageBox.StandardButton.No})
+    assert window.offer_draft()  # restored, untouched since: still unsaved work
+    assert window._has_unsaved_work()
+    answer({LEAVE: QMessageBox.StandardButton.Cancel})
+    window.new_patient()
+    assert window.session.plan is not None  # asked, and cancelled
+
+
+def test_an_earlier_plan_left_by_a_replan_is_asked_about_before_it_is_dropped(
+    qtbot, planner, answer
+):
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.details.setCurrentWidget(window.course_holder)
+    window.session.add_observation(Observation(hour=4.0, weight_kg=24.6))
+    answer({"being replaced": QMessageBox.StandardButton.No})
+    window.course_view.replan()
+    assert len(window.session.versions) == 1
+    answer({LEAVE: QMessageBox.StandardButton.Cancel})
+    window.open_demo("small_gerbil")  # asked (Cancel): the earlier plan is not dropped
+    assert window.session.plan.request.species_id == "dog"
+
+
+def test_a_failed_write_is_unsaved_work_and_is_tried_again(qtbot, planner, monkeypatch):
+    from vetfluid.observations import Observation
+    from vetfluid.records import RecordsError
+
+    window = planner
+    _saved_dog(qtbot, window)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+
+    def full_disk(**_):
+        raise RecordsError("disk full")
+
+    monkeypatch.setattr(window.records, "keep_observations", full_disk)
+    window._save_draft()
+    assert "trying again" in window.statusBar().currentMessage()
+    assert window._draft_timer.isActive() and window._has_unsaved_work()
+    assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from PySide6.QtCore import QEvent, QSettings, QTimer
+from PySide6.QtCore import QDateTime, QEvent, QSettings, QTimer
 from PySide6.QtGui import QAction, QIcon, QKeySequence
 from PySide6.QtWidgets import (
     QFileDialog,
@@ -294,9 +294,17 @@ class MainWindow(QMainWindow):
         self.current_patient: int | None = None
         self._saved_version: SavedVersion | None = None
         self._opened: tuple[object, dict[str, str]] = (None, {})  # request and reasons opened
-        self._opening = False
+        self._opening = False  # the next plan built is the one opened
+        self._opened_unsaved = False  # ... and it is not saved anywhere (a draft, a re-plan)
+        self._unsaved_earlier = False  # a re-plan left its earlier plan unsaved
+        self._last_valid: tuple[object, bool] | None = None  # request, on the saved version
+        self._write_failed = False
+        self._plan_tag = ""  # marks the drafts this plan wrote
+        self._plans_opened = 0
         self.session.inputsReplaced.connect(self._plan_replaced)
         self.session.planChanged.connect(self._plan_opened)
+        for changed in (self.session.planChanged, self.session.readinessChanged):
+            changed.connect(self._remember_valid)
         try:
             self.records = Records.open()
         except RecordsError as exc:
@@ -318,12 +326,23 @@ class MainWindow(QMainWindow):
         """A new patient, a demo, a file, a version or a re-plan: a saved version is named
         again by whoever opened it; the plan built next is the yardstick for unsaved work."""
         self._saved_version = None
+        self._last_valid = None
         self._opening = True
+        self._plans_opened += 1
+        self._plan_tag = f"{id(self):x}-{QDateTime.currentMSecsSinceEpoch()}-{self._plans_opened}"
 
     def _plan_opened(self, plan) -> None:  # noqa: ANN001 — Plan | None
         if self._opening:  # built from what was opened, reasons already checked against it
             self._opening = False
-            self._opened = (plan.request if plan else None, self.session.acknowledged)
+            opened = plan.request if plan and not self._opened_unsaved else None
+            self._opened = (opened, self.session.acknowledged if opened else {})
+            self._opened_unsaved = False
+
+    def _remember_valid(self, *_: object) -> None:
+        """The last valid plan and whether it was the saved version: where observations
+        go while the plan cannot be built (a weight being retyped)."""
+        if self.session.plan is not None:
+            self._last_valid = (self.session.plan.request, self._on_saved_version())
 
     def _on_saved_version(self) -> bool:
         """Whether the plan on screen is a saved version, unchanged since it was saved
@@ -337,24 +356,30 @@ class MainWindow(QMainWindow):
         )
 
     def _has_unsaved_work(self) -> bool:
-        """Observations, or a plan changed since it was opened, not in a saved version."""
-        if self.records is None or self._on_saved_version():
+        """Observations, or a plan changed since it was opened, not in a saved version; an
+        earlier plan a re-plan left unsaved; a write that failed."""
+        if self.records is None:
+            return False
+        if self._write_failed or self._unsaved_earlier:
+            return True
+        last = self._last_valid
+        if last is not None and last[1]:  # the saved version, unchanged: written to it
             return False
         if self.session.observations:
             return True
-        plan = self.session.plan
-        return plan is not None and (plan.request, self.session.acknowledged) != self._opened
+        return last is not None and (last[0], self.session.acknowledged) != self._opened
 
     def _may_leave(self) -> bool:
         """Before another plan replaces this one: unsaved work is saved as a version (Yes),
-        left (No: it stays in the draft until the next plan's edits replace it), or the
-        command is cancelled."""
+        left (No: it stays in the draft, offered at the next start, until another plan
+        is changed), or the command is cancelled."""
         if not self._has_unsaved_work():
             return True
         answer = QMessageBox.question(
             self, "vetfluid",
             "This plan, or what was recorded on it, is not saved as a version. Save it "
-            "first?\n\nNo leaves it: it can be restored only until the next plan is edited.",
+            "first?\n\nNo leaves it in the draft, offered when vetfluid next starts, until "
+            "another plan is changed.",
             QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No
             | QMessageBox.StandardButton.Cancel,
         )  # fmt: skip
@@ -368,57 +393,65 @@ class MainWindow(QMainWindow):
             self._draft_timer.stop()
             self._save_draft()
 
+    def _draft_is_ours(self) -> bool:
+        draft = self.records.draft()
+        return bool(draft) and draft.get("tag") == self._plan_tag
+
     def _save_draft(self, *, closed: bool = False) -> None:
         """Keep what is being edited; ``closed`` marks a normal close rather than a crash.
 
         Observations recorded on an unchanged saved version are written to that version;
-        anything else (a plan not saved, or changed since) goes into the draft. With no
-        valid plan (a weight being retyped) the observations still go where they belong:
-        to the saved version, or into the draft with the last plan it holds."""
+        unsaved work goes into the draft, with the last valid plan while the plan cannot
+        be built. A draft another plan left is replaced only by unsaved work; a write
+        that fails is tried again and counts as unsaved work until it succeeds."""
         from vetfluid.records import RecordsError
 
         if self.records is None:
             return
-        observations = self._observation_records()
+        self._remember_valid()
+        if self._last_valid is None:
+            return  # nothing valid since this plan was opened: nothing to keep
+        request, on_saved = self._last_valid
         try:
-            if self._on_saved_version() or (
-                self.session.plan is None and self._saved_version is not None
-            ):
+            if on_saved:
                 if self.records.keep_observations(
-                    version_id=self._saved_version.row_id, observations=observations
+                    version_id=self._saved_version.row_id,
+                    observations=self._observation_records(),
                 ):
                     self.statusBar().showMessage("Observations saved with the plan version.")
-                if self.session.plan is not None:
-                    self.records.clear_draft()  # nothing else is unsaved
-                return
-            if self.session.plan is None:
-                draft = self.records.draft()
-                if draft and draft.get("observations", []) != observations:
-                    self.records.save_draft({**draft, "observations": observations})
-                return
-            self.records.save_draft(self._draft(closed=closed))
+                if self._draft_is_ours():
+                    self.records.clear_draft()  # its edits were undone: nothing is unsaved
+            elif self._has_unsaved_work() or self._write_failed:
+                self.records.save_draft(self._draft(request, closed=closed))
+            elif self._draft_is_ours():
+                self.records.clear_draft()
+            self._write_failed = False
         except RecordsError as exc:
-            self.statusBar().showMessage(f"Not saved: {exc.one_line()}")
-            if self.session.plan is not None:  # the draft keeps them until the next try
+            self._write_failed = True
+            self.statusBar().showMessage(f"Not saved (trying again): {exc.one_line()}")
+            self._draft_timer.start()
+            if on_saved:  # the draft keeps them meanwhile
                 try:
-                    self.records.save_draft(self._draft(closed=closed))
+                    self.records.save_draft(self._draft(request, closed=closed))
                 except RecordsError:
                     pass  # the message above already says nothing was saved
 
-    def _draft(self, *, closed: bool) -> dict:
+    def _draft(self, request, *, closed: bool) -> dict:  # noqa: ANN001 — PlanRequest
         from vetfluid.serialize import request_to_dict
 
         return {
-            "request": request_to_dict(self.session.plan.request),
+            "request": request_to_dict(request),
             "acknowledged": self.session.acknowledged,
             "acknowledged_for": self.session.acknowledged_for,
             "observations": self._observation_records(),
             "patient_id": self.current_patient,
             "closed": closed,
+            "tag": self._plan_tag,
         }
 
     def offer_draft(self) -> bool:
         """Offer back the plan that was being edited when vetfluid last stopped."""
+        from vetfluid.records import RecordsError
         from vetfluid.serialize import request_from_dict
 
         draft = self.records.draft() if self.records is not None else None
@@ -443,6 +476,7 @@ class MainWindow(QMainWindow):
             self.statusBar().showMessage(f"The draft could not be restored: {exc}")
             return False
         wording = draft.get("acknowledged_for")
+        self._opened_unsaved = True  # a draft is unsaved work from the start
         self.session.replace_request(
             request,
             draft.get("acknowledged") or {},
@@ -450,6 +484,10 @@ class MainWindow(QMainWindow):
         )
         self.current_patient = draft.get("patient_id")
         unreadable = self._restore_observations(draft.get("observations") or [])
+        try:  # the restored plan owns the draft now: saving it as a version clears it
+            self.records.save_draft({**draft, "tag": self._plan_tag})
+        except RecordsError:
+            pass  # the draft stays as it was, offered again at the next start
         self.statusBar().showMessage("Restored the plan that was being edited." + unreadable)
         return True
 
@@ -489,7 +527,9 @@ class MainWindow(QMainWindow):
         self._saved_version = SavedVersion(
             row_id=saved.id, request=plan.request, acknowledged=self.session.acknowledged
         )
-        self.records.clear_draft()
+        self._remember_valid()
+        if self._draft_is_ours():  # now saved; a draft another plan left stays
+            self.records.clear_draft()
         self.statusBar().showMessage(f"Saved as version {number}; earlier versions are kept.")
         return number
 
@@ -519,6 +559,7 @@ class MainWindow(QMainWindow):
         self._saved_version = SavedVersion(
             row_id=chosen.id, request=self.session.request, acknowledged=self.session.acknowledged
         )
+        self._remember_valid()
         unreadable = self._restore_observations(self.records.observations(chosen.id))
         self.current_patient = patient_id
         patient = self.records.patient(patient_id)
@@ -529,6 +570,7 @@ class MainWindow(QMainWindow):
         the record shows what was given; declined, it is kept until vetfluid closes."""
         if self.records is None or self.session.plan is None:
             return True
+        self._opened_unsaved = True  # the re-plan itself is not saved anywhere yet
         if self._on_saved_version():
             self._keep_edits()
             return True
@@ -541,8 +583,12 @@ class MainWindow(QMainWindow):
             | QMessageBox.StandardButton.Cancel,
         )  # fmt: skip
         if answer == QMessageBox.StandardButton.Yes:
-            return self.save_version() is not None
-        return answer == QMessageBox.StandardButton.No
+            going_on = self.save_version() is not None
+        else:
+            going_on = answer == QMessageBox.StandardButton.No
+            self._unsaved_earlier |= going_on  # asked about again before it is dropped
+        self._opened_unsaved = going_on
+        return going_on
 
     def _observation_records(self) -> list[dict]:
         from vetfluid.observations import observation_record
@@ -661,6 +707,7 @@ class MainWindow(QMainWindow):
         if not self._may_leave():
             return False
         self.current_patient = None
+        self._unsaved_earlier = self._write_failed = False  # left, as the user chose
         return True
 
     def new_patient(self) -> None:
@@ -832,9 +879,8 @@ class MainWindow(QMainWindow):
         if self.session is not None:
             settings.setValue("splitter", self.splitter.saveState())
             if self.records is not None:
-                if self._draft_timer.isActive() or self.records.draft() is not None:
-                    self._save_draft(closed=True)  # edits not saved as a version: offered back
                 self._draft_timer.stop()
+                self._save_draft(closed=True)  # unsaved work is offered back at the next start
                 self.records.close()
                 self.records = None
         settings.sync()
