@@ -362,14 +362,19 @@ def test_each_view_renders_to_a_picture(qtbot, window, tmp_path, demo_id):
         assert len(colours) > 8, f"view {index} looks blank"
 
 
-def test_save_and_open_a_plan_request(qtbot, window, tmp_path, answer):
+def _cat_with_a_reason(qtbot, window, tmp_path, answer):
+    """The renal cat with a reason for its overload warning; leaving it is answered No."""
     from PySide6.QtWidgets import QMessageBox
 
     answer({"This plan, or what was recorded": QMessageBox.StandardButton.No})
     window.open_demo("renal_cat")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
     window.session.acknowledge("OVERLOAD_RISK", "weighing every 6 h")
-    path = tmp_path / "cat.vfplan.json"
+    return tmp_path / "cat.vfplan.json"
+
+
+def test_save_and_open_a_plan_request(qtbot, window, tmp_path, answer):
+    path = _cat_with_a_reason(qtbot, window, tmp_path, answer)
     window.write_request(path)
     window.new_patient()
     qtbot.waitUntil(lambda: window.session.plan is None)
@@ -380,13 +385,7 @@ def test_save_and_open_a_plan_request(qtbot, window, tmp_path, answer):
 
 
 def test_a_plan_file_keeps_the_words_each_reason_was_given_for(qtbot, window, tmp_path, answer):
-    from PySide6.QtWidgets import QMessageBox
-
-    answer({"This plan, or what was recorded": QMessageBox.StandardButton.No})
-    window.open_demo("renal_cat")
-    wait_for_plan(qtbot, window, lambda p: p.request.species_id == "cat")
-    window.session.acknowledge("OVERLOAD_RISK", "weighing every 6 h")
-    path = tmp_path / "cat.vfplan.json"
+    path = _cat_with_a_reason(qtbot, window, tmp_path, answer)
     assert window.write_request(path)
     data = json.loads(path.read_text(encoding="utf-8"))
     assert data["acknowledged_for"] == window.session.acknowledged_for

@@ -375,17 +375,27 @@ class MainWindow(QMainWindow):
         is changed), or the command is cancelled."""
         if not self._has_unsaved_work():
             return True
+        return (
+            self._save_first(
+                "This plan, or what was recorded on it, is not saved as a version. Save it "
+                "first?\n\nNo leaves it in the draft, offered when vetfluid next starts, "
+                "until another plan is changed."
+            )
+            is not False
+        )
+
+    def _save_first(self, question: str) -> bool | None:
+        """Ask Yes (save a version, then go on) / No (go on unsaved) / Cancel: True to go
+        on with the work saved, None to go on without, False to stop (Cancel, or the
+        save was cancelled)."""
         answer = QMessageBox.question(
-            self, "vetfluid",
-            "This plan, or what was recorded on it, is not saved as a version. Save it "
-            "first?\n\nNo leaves it in the draft, offered when vetfluid next starts, until "
-            "another plan is changed.",
+            self, "vetfluid", question,
             QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No
             | QMessageBox.StandardButton.Cancel,
         )  # fmt: skip
         if answer == QMessageBox.StandardButton.Yes:
             return self.save_version() is not None
-        return answer == QMessageBox.StandardButton.No
+        return None if answer == QMessageBox.StandardButton.No else False
 
     def _keep_edits(self) -> None:
         """Write what is waiting for the draft timer now (before the screen is replaced)."""
@@ -574,21 +584,14 @@ class MainWindow(QMainWindow):
         if self._on_saved_version():
             self._keep_edits()
             return True
-        answer = QMessageBox.question(
-            self, "vetfluid",
+        answer = self._save_first(
             "The plan being replaced has not been saved as a version. Save it first, with "
             "its observations?\n\nNo re-plans anyway: the earlier plan and its observations "
-            "are then kept only until vetfluid closes.",
-            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No
-            | QMessageBox.StandardButton.Cancel,
-        )  # fmt: skip
-        if answer == QMessageBox.StandardButton.Yes:
-            going_on = self.save_version() is not None
-        else:
-            going_on = answer == QMessageBox.StandardButton.No
-            self._unsaved_earlier |= going_on  # asked about again before it is dropped
-        self._opened_unsaved = going_on
-        return going_on
+            "are then kept only until vetfluid closes."
+        )
+        self._unsaved_earlier |= answer is None  # asked about again before it is dropped
+        self._opened_unsaved = answer is not False
+        return answer is not False
 
     def _observation_records(self) -> list[dict]:
         from vetfluid.observations import observation_record
