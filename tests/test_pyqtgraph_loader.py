@@ -44,12 +44,92 @@ PROBE = textwrap.dedent(
     """
 )
 
+# The trimmed pyqtgraph: what the window's plots need is there, what they never use is not.
+TRIMMED_PROBE = textwrap.dedent(
+    """
+    import importlib, json, re, sys
+    from pathlib import Path
+    from PySide6.QtWidgets import QApplication
+    app = QApplication([])
+    if sys.argv[1:] == ["plots-need-roi"]:  # a pyqtgraph whose plots need a trimmed part
+        import importlib.abc, importlib.util
 
-def run_probe() -> dict:
+        class PlotsNeedRoi(importlib.abc.MetaPathFinder):
+            def find_spec(self, name, path, target=None):
+                if name != "pyqtgraph.graphicsItems.PlotItem.PlotItem":
+                    return None
+                sys.meta_path.remove(self)
+                spec = importlib.util.find_spec(name)
+                sys.meta_path.insert(0, self)
+                load = spec.loader.exec_module
+                def exec_module(module):  # as if PlotItem.py began "from ..ROI import ROI"
+                    from pyqtgraph.graphicsItems.ROI import ROI
+                    module.ROI = ROI
+                    load(module)
+                spec.loader.exec_module = exec_module
+                return spec
+
+        sys.meta_path.insert(0, PlotsNeedRoi())
+    import ui.pyqtgraph_loader as loader
+    pg = loader.pg
+    from ui.main_window import MainWindow
+
+    def draw_both_plots():  # the window is gone before Qt shuts down, as in ui.app.main
+        window = MainWindow()
+        window.resize(1360, 860)
+        window.build_planner()
+        window.open_demo("dehydrated_dog")
+        for tab in (window.timeline_holder, window.course_holder):
+            window.details.setCurrentWidget(tab)  # built, then drawn: axes, curves, legends
+            window.grab()
+        drawn = window.timeline_view is not None and window.course_view is not None
+        window.close()
+        return drawn
+
+    drawn = draw_both_plots()
+    QApplication.sendPostedEvents(None, 0)  # its deferred deletions, as the event loop would
+    used = set()
+    for source in Path("ui").glob("*.py"):
+        used |= set(re.findall(r"\\bpg\\.(\\w+)", source.read_text(encoding="utf-8")))
+    loaded = [n for n in loader._UNUSED_PARTS if n in sys.modules]
+    names_read = loader._trimmed_names.cache_info().currsize  # before the probing below
+    image_item = "ImageItem" in vars(pg)
+    opengl_real = all(
+        hasattr(importlib.import_module(n), attr)
+        for n, attr in (("PySide6.QtOpenGL", "QOpenGLBuffer"),
+                        ("PySide6.QtOpenGLWidgets", "QOpenGLWidget"))
+    )
+    roi = importlib.import_module("pyqtgraph.graphicsItems.ROI")
+    image = importlib.import_module("pyqtgraph.graphicsItems.ImageItem")
+    real_on_first_use = [  # pg.X of a trimmed part: the real thing, imported when asked for
+        pg.ImageItem is image.ImageItem,
+        pg.RectROI is roi.RectROI,
+        pg.RemoteGraphicsView.__module__ == "pyqtgraph.widgets.RemoteGraphicsView",
+        pg.ImageView.__module__ == "pyqtgraph.imageview.ImageView",
+        not hasattr(pg, "NoSuchItem"),
+    ]
+    print(json.dumps({
+        "drawn": drawn,
+        "used": sorted(used),
+        "missing": sorted(n for n in used if not hasattr(pg, n)),
+        "window_uses": loader.WINDOW_USES,
+        "parts_loaded": loaded,
+        "names_read": names_read,
+        "image_item": image_item,
+        "opengl_real_later": opengl_real,
+        "roi_real_later": hasattr(roi, "ROI"),
+        "real_on_first_use": real_on_first_use,
+    }))
+    """
+)
+
+
+def run_probe(probe: str = PROBE, *args: str) -> dict:
     env = dict(os.environ, QT_QPA_PLATFORM="offscreen")
     out = subprocess.run(
-        [sys.executable, "-c", PROBE], capture_output=True, text=True, check=True, cwd=ROOT, env=env
-    )
+        [sys.executable, "-c", probe, *args],
+        capture_output=True, text=True, check=True, cwd=ROOT, env=env,
+    )  # fmt: skip
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
@@ -64,6 +144,30 @@ def test_pyqtgraph_mirrors_resolve_to_pyside6_and_stay_lazy():
     assert probe["widgets_built"] < 0.75 * probe["widgets_listed"], probe
     # SVG export and test helpers are left unloaded, yet anyone may import them afterwards
     assert probe["unused_bindings_loaded"] == [] and probe["svg_importable_later"]
+
+
+def test_the_window_loads_pyqtgraph_without_the_parts_it_never_uses():
+    probe = run_probe(TRIMMED_PROBE)
+    # ui/ takes these from pg (a plot each for Timeline and Course was drawn with them)
+    assert {"PlotItem", "AxisItem", "LegendItem", "InfiniteLine", "mkPen"} <= set(probe["used"])
+    assert probe["drawn"] and probe["missing"] == []
+    assert set(probe["used"]) <= set(probe["window_uses"]), "the loader checks all of them"
+    # nothing of the trimmed parts was loaded or even looked up while the window worked
+    assert probe["parts_loaded"] == [] and not probe["image_item"]
+    assert probe["names_read"] == 0
+    # afterwards the real modules import, and pg gives their names on first use
+    assert probe["opengl_real_later"] and probe["roi_real_later"]
+    assert all(probe["real_on_first_use"]), probe["real_on_first_use"]
+
+
+def test_a_pyqtgraph_that_needs_a_trimmed_part_is_loaded_whole():
+    """A pyqtgraph release whose plots import one of the trimmed parts: the loader falls
+    back to the whole package, every part present, the plots drawn."""
+    probe = run_probe(TRIMMED_PROBE, "plots-need-roi")
+    assert probe["drawn"] and probe["missing"] == []
+    assert probe["image_item"], "loaded whole: the image item is there from the start"
+    assert probe["opengl_real_later"] and probe["roi_real_later"]
+    assert all(probe["real_on_first_use"]), probe["real_on_first_use"]
 
 
 def test_layout_widgets_report_the_rectangle_pyqtgraph_would(qtbot):

@@ -13,14 +13,30 @@ pyqtgraph's layout widgets (plots, titles, legends, the layout) re-implement Qt'
 rectangle. Qt asks for them a hundred times a redraw, each time a call into Python; here
 those widgets use Qt's own, the same rectangle worked out in C++ (:func:`qt_rectangles`).
 
+pyqtgraph's package imports every item and widget it has: images, regions of interest,
+colour bars, tree and table widgets, a remote-process view, and PySide6's OpenGL modules
+for a viewport the window never turns on, about 10 MiB of the window's memory. While it
+loads, the parts named in ``_UNUSED_PARTS`` are empty modules, and PySide6's two OpenGL
+modules are stand-ins (a ``QOpenGLWidget`` class no widget is an instance of, which is
+all pyqtgraph asks of them unless OpenGL is switched on). Afterwards every one of them
+can be imported for real. Should a pyqtgraph release need one of those parts to load,
+pyqtgraph is loaded whole instead: more memory, nothing missing
+(``tests/test_pyqtgraph_loader.py`` checks that the window's pyqtgraph is the trimmed one).
+
 Import ``pg`` from here, never ``pyqtgraph`` itself, so this runs first.
 """
 
 from __future__ import annotations
 
+import ast
+import functools
 import importlib
+import importlib.abc
+import importlib.machinery
+import importlib.util
 import sys
 import types
+from pathlib import Path
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
@@ -28,6 +44,43 @@ _MIRRORED = {"QtCore": QtCore, "QtGui": QtGui, "QtWidgets": QtWidgets}
 # Bindings pyqtgraph imports if it can but the window never uses (SVG export, test helpers);
 # it records them as missing and carries on. Left alone when something loaded them already.
 _NOT_NEEDED = ("PySide6.QtSvg", "PySide6.QtTest")
+# What pyqtgraph's package imports that no vetfluid plot uses (the window uses plots, axes,
+# legends, lines and its layout widget; ``ui/`` names every ``pg.`` it takes).
+_UNUSED_PARTS = tuple(
+    f"pyqtgraph.{part}"
+    for part in (
+        "imageview",
+        *(
+            f"graphicsItems.{item}"
+            for item in (
+                "ArrowItem", "BoxplotItem", "ColorBarItem", "CurvePoint", "DateAxisItem",
+                "ErrorBarItem", "FillBetweenItem", "GradientEditorItem", "GradientLegend",
+                "GraphItem", "GridItem", "HistogramLUTItem", "ImageItem", "IsocurveItem",
+                "LinearRegionItem", "PColorMeshItem", "ROI", "ScaleBar", "TargetItem",
+                "VTickGroup",
+            )
+        ),
+        *(
+            f"widgets.{widget}"
+            for widget in (
+                "BusyCursor", "CheckTable", "ColorButton", "ColorMapWidget", "ComboBox",
+                "DataFilterWidget", "DataTreeWidget", "DiffTreeWidget", "FeedbackButton",
+                "GradientWidget", "HistogramLUTWidget", "JoystickButton", "LayoutWidget",
+                "ProgressDialog", "RawImageWidget", "RemoteGraphicsView",
+                "ScatterPlotWidget", "SpinBox", "TableWidget", "TreeWidget", "ValueLabel",
+                "VerticalLabel",
+            )
+        ),
+    )
+)  # fmt: skip
+_OPENGL = ("PySide6.QtOpenGL", "PySide6.QtOpenGLWidgets")
+# Everything ``ui/`` takes from ``pg`` (tests/test_pyqtgraph_loader.py keeps this complete)
+# and what :func:`qt_rectangles` changes: a trimmed pyqtgraph lacking any of it is not used.
+WINDOW_USES = (
+    "AxisItem", "GraphicsLayout", "GraphicsLayoutWidget", "GraphicsObject", "GraphicsWidget",
+    "InfiniteLine", "ItemSample", "LegendItem", "PlotItem", "ViewBox", "mkBrush", "mkPen",
+    "setConfigOptions",
+)  # fmt: skip
 
 
 def _lazy_mirror(name: str, source: types.ModuleType) -> types.ModuleType:
@@ -47,8 +100,137 @@ def _nothing_to_list() -> list[str]:
     return []
 
 
+class _Placeholder:
+    """What a trimmed part gives a name imported from it while pyqtgraph loads; it must end
+    up only in pyqtgraph's own namespace, where it is removed (:func:`_import_trimmed`)."""
+
+    def __init__(self, part: str, name: str) -> None:
+        self.part, self.name = part, name
+
+    def __repr__(self) -> str:
+        return f"<{self.name} of the trimmed {self.part}>"
+
+
+class _EmptyParts(importlib.abc.MetaPathFinder, importlib.abc.Loader):
+    """Imports each of ``names`` as an empty package: ``from part import *`` takes nothing,
+    ``from part import Name`` takes a :class:`_Placeholder`, anything below it fails."""
+
+    def __init__(self, names: tuple[str, ...]) -> None:
+        self.names = names
+        self.made: list[str] = []
+
+    def find_spec(self, name: str, path: object, target: object = None):  # noqa: ANN201
+        if name in self.names:
+            return importlib.machinery.ModuleSpec(name, self, is_package=True)
+        return None
+
+    def create_module(self, spec: importlib.machinery.ModuleSpec) -> None:
+        return None  # the import system's default: a plain, empty module
+
+    def exec_module(self, module: types.ModuleType) -> None:
+        part = module.__name__
+
+        def placeholder(name: str) -> _Placeholder:
+            if name.startswith("_"):  # the import system's own questions get no answer
+                raise AttributeError(name)
+            return _Placeholder(part, name)
+
+        module.__all__ = []
+        module.__getattr__ = placeholder
+        self.made.append(part)
+
+
+def _opengl_stand_ins() -> dict[str, types.ModuleType]:
+    """PySide6's OpenGL modules as pyqtgraph sees them with OpenGL off: one widget class,
+    never instantiated, that pyqtgraph subclasses and tests drawing widgets against."""
+    widgets = types.ModuleType(_OPENGL[1], "stands in while pyqtgraph loads (OpenGL is off)")
+    widgets.QOpenGLWidget = type("QOpenGLWidget", (QtWidgets.QWidget,), {})
+    opengl = types.ModuleType(_OPENGL[0], "stands in while pyqtgraph loads (OpenGL is off)")
+    return {_OPENGL[0]: opengl, _OPENGL[1]: widgets}
+
+
+def _import_trimmed() -> types.ModuleType:
+    """pyqtgraph without ``_UNUSED_PARTS`` and with OpenGL stand-ins; afterwards the real
+    modules are importable again and pyqtgraph loads each part on first use
+    (:func:`_load_on_first_use`). On failure nothing of pyqtgraph stays loaded."""
+    parts = _EmptyParts(_UNUSED_PARTS)
+    stand_ins = {n: m for n, m in _opengl_stand_ins().items() if n not in sys.modules}
+    sys.modules.update(stand_ins)
+    sys.meta_path.insert(0, parts)
+    try:
+        pyqtgraph = importlib.import_module("pyqtgraph")
+        for module in [m for n, m in sys.modules.items() if n.startswith("pyqtgraph.")]:
+            taken = [v for v in vars(module).values() if isinstance(v, _Placeholder)]
+            if taken:
+                raise ImportError(f"{module.__name__} takes {taken[0]!r}")
+        for name in [n for n, v in vars(pyqtgraph).items() if isinstance(v, _Placeholder)]:
+            delattr(pyqtgraph, name)  # loaded on first use, like the star-imported parts
+        lacking = [name for name in WINDOW_USES if not hasattr(pyqtgraph, name)]
+        if lacking:
+            raise ImportError(f"trimmed pyqtgraph lacks {', '.join(lacking)}")
+        pyqtgraph.__getattr__ = _load_on_first_use
+        return pyqtgraph
+    except Exception:
+        for name in [n for n in sys.modules if n == "pyqtgraph" or n.startswith("pyqtgraph.")]:
+            if not name.startswith("pyqtgraph.Qt.Qt"):  # our mirrors, used again
+                del sys.modules[name]
+        raise
+    finally:
+        sys.meta_path.remove(parts)
+        for name in parts.made:
+            sys.modules.pop(name, None)  # a later import loads the real one
+        for name, stand_in in stand_ins.items():
+            if sys.modules.get(name) is stand_in:
+                del sys.modules[name]
+
+
+def _load_on_first_use(name: str) -> object:
+    """Any name of a trimmed part (``ImageItem``, ``ROI`` …): the part is imported for real
+    the first time one of its names is asked for, and the name kept in pyqtgraph."""
+    part = _trimmed_names().get(name)
+    if part is None:  # not ours: ``from pyqtgraph import submodule`` goes on to import it
+        raise AttributeError(f"module 'pyqtgraph' has no attribute {name!r}")
+    value = getattr(importlib.import_module(part), name)
+    setattr(sys.modules["pyqtgraph"], name, value)
+    return value
+
+
+@functools.cache
+def _trimmed_names() -> dict[str, str]:
+    """Each name a trimmed part gives pyqtgraph, and the part, read from the parts' source
+    (importing them to find out would import them all)."""
+    names = {}
+    for part in _UNUSED_PARTS:
+        spec = importlib.util.find_spec(part)
+        if spec is None or spec.origin is None:
+            continue
+        tree = ast.parse(Path(spec.origin).read_bytes())
+        for name in _exported(tree):
+            names.setdefault(name, part)
+    return names
+
+
+def _exported(tree: ast.Module) -> list[str]:
+    """What ``from module import *`` takes: ``__all__`` when the module lists it, else its
+    public top-level names."""
+    defined = []
+    for node in tree.body:
+        if isinstance(node, ast.Assign) and any(
+            isinstance(t, ast.Name) and t.id == "__all__" for t in node.targets
+        ):
+            return [str(v) for v in ast.literal_eval(node.value)]
+        if isinstance(node, ast.ClassDef | ast.FunctionDef):
+            defined.append(node.name)
+        elif isinstance(node, ast.Assign):
+            defined += [t.id for t in node.targets if isinstance(t, ast.Name)]
+        elif isinstance(node, ast.Import | ast.ImportFrom):
+            defined += [(a.asname or a.name).split(".")[0] for a in node.names]
+    return [name for name in defined if not name.startswith("_") and name != "*"]
+
+
 def load_pyqtgraph() -> types.ModuleType:
-    """Import pyqtgraph with lazily resolved Qt mirrors (see the module docstring)."""
+    """Import pyqtgraph with lazily resolved Qt mirrors, without the parts the window never
+    uses (see the module docstring)."""
     if "pyqtgraph" in sys.modules:
         return sys.modules["pyqtgraph"]
     listers = {}
@@ -60,7 +242,10 @@ def load_pyqtgraph() -> types.ModuleType:
         listers[name] = source.__dict__.get("__dir__")
         source.__dir__ = _nothing_to_list
     try:
-        return importlib.import_module("pyqtgraph")
+        try:
+            return _import_trimmed()
+        except Exception:  # a release that needs a part: whole, or its own error again
+            return importlib.import_module("pyqtgraph")
     finally:
         for name in skipped:
             if sys.modules.get(name, False) is None:
