@@ -220,3 +220,23 @@ def test_outputs_saved_with_their_observations_are_not_counted_again():
     # outputs with no observation behind them (an older plan file) are kept
     assert outputs_not_observed(((90.0, 10.0),), observed, period_h=4) == ((20.0, 10.0),)
     assert outputs_not_observed(((50.0, 0.0),), observed, period_h=4) == ((0.0, 0.0),)
+
+
+@pytest.mark.parametrize(
+    "older",  # outputs saved from measurements that are no longer among the observations
+    [(), ((50.0, 0.0),), ((50.0, 0.0), (0.0, 0.0)), ((30.0, 5.0), (20.0, 0.0), (0.0, 0.0))],
+)
+def test_a_reopened_plan_with_outputs_from_earlier_periods_counts_each_loss_once(older):
+    """Saved outputs that reach past the latest urine measurement: a loss recorded in such
+    a period is in the saved outputs and among the observations, and counts once."""
+    from vetfluid.observations import measured_outputs, outputs_not_observed
+
+    observed = [
+        Observation(hour=4.0, urine_ml=40.0, urine_period_h=4.0),
+        Observation(hour=6.0, other_losses_ml=20.0),  # vomit in the second period
+    ]
+    saved = measured_outputs(observed, period_h=4, earlier=older)
+    reopened = measured_outputs(
+        observed, period_h=4, earlier=outputs_not_observed(saved, observed, period_h=4)
+    )
+    assert reopened == saved  # reopened untouched, the plan replaces the same volumes

@@ -414,8 +414,10 @@ def outputs_not_observed(
     A saved version or draft keeps both its measured outputs and the observations they
     came from; counting both would replace urine twice. Per period, the saved outputs
     less what the observations give (never below zero): what :func:`measured_outputs`
-    should take as ``earlier``."""
-    own = measured_outputs(observations, period_h=period_h)
+    should take as ``earlier``. The observations are measured over as many periods as
+    were saved, as they were when saved, so a loss in a period past the latest urine
+    measurement is taken off too."""
+    own = measured_outputs(observations, period_h=period_h, earlier=((0.0, 0.0),) * len(saved))
     return tuple(
         (
             round(max(0.0, urine - (own[i][0] if i < len(own) else 0.0)), 9),
