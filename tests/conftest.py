@@ -36,16 +36,18 @@ def collect_qt_garbage(request):
 def planner(qtbot, monkeypatch):
     """The main window, shown, with its planner built (it follows the first paint).
 
-    A question the test did not expect (and answer by patching ``QMessageBox.question``)
-    fails the test at once instead of waiting for a click that never comes."""
+    A question or message the test did not expect (and answer by patching ``QMessageBox``
+    or with the ``answer`` fixture) fails the test at once instead of waiting for a click
+    that never comes."""
     from PySide6.QtWidgets import QMessageBox
 
     from ui.main_window import MainWindow
 
-    def unexpected(_parent, _title, text, *_args):  # noqa: ANN001, ANN202
+    def unexpected(_parent, _title, text, *_args, **_kwargs):  # noqa: ANN001, ANN202
         raise AssertionError(f"the window asked a question the test did not answer: {text}")
 
-    monkeypatch.setattr(QMessageBox, "question", unexpected)
+    for kind in ("question", "warning", "information"):
+        monkeypatch.setattr(QMessageBox, kind, unexpected)
 
     win = MainWindow()
     qtbot.addWidget(win)
@@ -58,18 +60,24 @@ def planner(qtbot, monkeypatch):
 @pytest.fixture()
 def answer(monkeypatch):
     """Answer the window's questions by their words, as a user would:
-    ``answer({"Restore it": Yes, "This plan, or what was recorded": No})``. A question
-    that matches none fails the test."""
+    ``answer({"Restore it": Yes, "This plan, or what was recorded": No})``; a message
+    is answered with a callable (``lambda: shown.append(1)``). A question that matches
+    none fails the test."""
     from PySide6.QtWidgets import QMessageBox
 
     def set_answers(answers: dict) -> None:
-        def ask(_parent, _title, text, *_args):  # noqa: ANN001, ANN202
+        def ask(_parent, _title, text, *_args, **_kwargs):  # noqa: ANN001, ANN202
             for words, button in answers.items():
-                if words in text:
-                    return button
+                if words in text:  # a callable stands for a message: it notes it was shown
+                    return button() if callable(button) else button
             raise AssertionError(f"the window asked a question the test did not answer: {text}")
 
-        monkeypatch.setattr(QMessageBox, "question", ask)
+        for kind in (
+            "question",
+            "warning",
+            "information",
+        ):  # a message is answered by its words too
+            monkeypatch.setattr(QMessageBox, kind, ask)
 
     return set_answers
 

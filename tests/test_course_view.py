@@ -12,12 +12,15 @@ from vetfluid.formatting import format_quantity
 
 
 @pytest.fixture(autouse=True)
-def replan_without_saving(planner, monkeypatch):
-    """Re-planning an unsaved plan asks whether to save it first: these tests answer No
-    (tests/test_records_window.py answers Yes and Cancel)."""
+def replan_saves_first(planner, answer):
+    """Re-planning an unsaved plan saves it as a version first: these tests answer Save,
+    for a patient named here (tests/test_records_window.py answers Cancel too)."""
     from PySide6.QtWidgets import QMessageBox
 
-    monkeypatch.setattr(QMessageBox, "question", lambda *a: QMessageBox.StandardButton.No)
+    from ui.main_window import MainWindow
+
+    answer({"being replaced": QMessageBox.StandardButton.Save})
+    planner.save_version = lambda: MainWindow.save_version(planner, name="Course test dog")
 
 
 @pytest.fixture()

@@ -26,25 +26,36 @@ def test_save_versions_and_open_them_again(qtbot, planner, vetfluid_home):
         assert [v.version for v in db.versions(patient.id)] == [1, 2]
 
 
-def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, monkeypatch):
+def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, answer):
+    from ui.main_window import MainWindow
+
     window = planner
     window.open_demo("small_gerbil")
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.update(dehydration_percent=6.0)  # an edit: unsaved work
     qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
     window._save_draft()  # what the autosave timer does a few seconds after each edit
-    asked = []
-    monkeypatch.setattr(
-        QMessageBox, "question",
-        lambda _parent, _title, text, *_: asked.append(text) or (
-            QMessageBox.StandardButton.No if "Save it first" in text
-            else QMessageBox.StandardButton.Yes
-        ),
-    )  # fmt: skip
-    window.new_patient()  # left unsaved (No): it stays in the draft
+    answer({"stopped unexpectedly": QMessageBox.StandardButton.Yes})
+    again = MainWindow()  # the first window never closed: it crashed
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: again.session is not None and again.session.plan is not None)
+    assert again.session.plan.request.dehydration_percent == 6.0
+
+
+def test_a_plan_left_unsaved_is_offered_back_as_left_not_as_a_crash(qtbot, planner, answer):
+    window = planner
+    window.open_demo("small_gerbil")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=6.0)
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
+    window._save_draft()  # the autosave, as if vetfluid could crash now
+    answer({"This plan, or what was recorded": QMessageBox.StandardButton.No,
+            "was left, or vetfluid was closed": QMessageBox.StandardButton.Yes})  # fmt: skip
+    window.new_patient()  # left on purpose (No), then nothing else changed
     qtbot.waitUntil(lambda: window.session.plan is None)
-    assert window.offer_draft()
-    assert "stopped unexpectedly" in asked[-1]
+    assert window.records.draft()["closed"]
+    assert window.offer_draft()  # asked with the words for a plan left, not a crash
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert window.session.plan.request.dehydration_percent == 6.0
 
@@ -68,7 +79,7 @@ def test_closing_with_unsaved_edits_keeps_them_and_says_so(qtbot, planner, monke
     qtbot.addWidget(again)
     again.show()
     qtbot.waitUntil(lambda: again.session is not None and again.session.plan is not None)
-    assert "closed with a plan that had not been saved" in asked[0]
+    assert "was left, or vetfluid was closed, before it was saved" in asked[0]
     assert again.session.plan.request.body_temp_c == 29.0
 
 
@@ -208,16 +219,16 @@ def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_wi
     window.session.update(replace_hours=12)
     qtbot.waitUntil(lambda: window.session.plan.request.replace_hours == 12)
     assert next(f.message for f in window.session.plan.findings if f.code == code) != said_at_24_h
-    window._draft_timer.stop()  # the draft below stands for one an older vetfluid left
-    window.records.save_draft(  # a reason recorded for the 24 h words, kept with the 12 h plan
-        {"request": request_to_dict(window.session.plan.request),
-         "acknowledged": {code: "owner declined IO"},
-         "acknowledged_for": {code: said_at_24_h}, "closed": True}
-    )  # fmt: skip
+    at_12_h = window.session.plan.request
     answer({"Restore it": QMessageBox.StandardButton.Yes,
             "This plan, or what was recorded": QMessageBox.StandardButton.No})  # fmt: skip
     window.new_patient()
     qtbot.waitUntil(lambda: window.session.plan is None)
+    window.records.save_draft(  # as an older vetfluid left it: a reason for the 24 h words
+        {"request": request_to_dict(at_12_h),  # kept with the 12 h plan
+         "acknowledged": {code: "owner declined IO"},
+         "acknowledged_for": {code: said_at_24_h}, "closed": True}
+    )  # fmt: skip
     assert window.offer_draft()
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert code in {f.code for f in window.session.blockers()}
@@ -277,7 +288,7 @@ def test_opening_a_saved_version_leaves_no_draft_and_edits_to_it_are_drafted(qtb
     assert window.records.observations(window.records.versions(pid)[0].id) == []
 
 
-def test_replanning_an_unsaved_plan_offers_to_save_it_first(qtbot, planner, monkeypatch, answer):
+def test_replanning_an_unsaved_plan_saves_it_first(qtbot, planner, monkeypatch, answer):
     from vetfluid.observations import Observation
 
     window = planner
@@ -290,7 +301,11 @@ def test_replanning_an_unsaved_plan_offers_to_save_it_first(qtbot, planner, monk
     window.course_view.replan()
     assert window.session.versions == [] and window.session.observations == [observed]
 
-    answer({"being replaced": QMessageBox.StandardButton.Yes})
+    answer({"being replaced": QMessageBox.StandardButton.Save})
+    monkeypatch.setattr(window, "save_version", lambda: None)  # the patient dialog cancelled
+    window.course_view.replan()
+    assert window.session.versions == [], "not saved, so not re-planned"
+
     monkeypatch.setattr(
         window, "save_version", lambda: window.__class__.save_version(window, name="Rex")
     )
@@ -299,6 +314,7 @@ def test_replanning_an_unsaved_plan_offers_to_save_it_first(qtbot, planner, monk
     saved = window.records.versions(window.current_patient)
     assert [v.version for v in saved] == [1]
     assert window.records.observations(saved[0].id) == [{"hour": 4.0, "weight_kg": 24.6}]
+    assert window._has_unsaved_work(), "the re-plan itself is saved nowhere yet"
 
 
 def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
@@ -497,7 +513,9 @@ def test_a_note_recorded_before_the_first_autosave_with_no_valid_plan_is_kept(qt
     assert draft["observations"] == [{"hour": 1.0, "note": "drank a little"}]
 
 
-def test_a_restored_draft_and_a_replan_left_unsaved_are_asked_about(qtbot, planner, answer):
+def test_a_restored_draft_and_a_replan_are_unsaved_work_until_saved(qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
     window = planner
     window.open_demo("renal_cat")
     qtbot.waitUntil(lambda: window.session.plan is not None)
@@ -505,43 +523,151 @@ def test_a_restored_draft_and_a_replan_left_unsaved_are_asked_about(qtbot, plann
     window._save_draft()
     answer({"Restore it": QMessageBox.StandardButton.Yes, LEAVE: QMessageBox.StandardButton.No})
     assert window.offer_draft()  # restored, untouched since: still unsaved work
+    qtbot.waitUntil(lambda: window.session.plan is not None)
     assert window._has_unsaved_work()
     answer({LEAVE: QMessageBox.StandardButton.Cancel})
     window.new_patient()
     assert window.session.plan is not None  # asked, and cancelled
 
+    window.details.setCurrentWidget(window.course_holder)
+    window.save_version(name="Tom", author="AB")
+    assert not window._has_unsaved_work()
+    window.session.add_observation(Observation(hour=6.0, weight_kg=4.1))
+    window.course_view.replan()  # on the saved version: its observations went into it
+    assert len(window.session.versions) == 1 and window._has_unsaved_work()
+    window.open_demo("small_gerbil")  # asked (Cancel): the re-plan is not dropped
+    assert window.session.plan.request.species_id == "cat"
 
-def test_an_earlier_plan_left_by_a_replan_is_asked_about_before_it_is_dropped(
-    qtbot, planner, answer
-):
+
+def test_a_restored_draft_that_no_longer_builds_is_still_unsaved_work(qtbot, planner, answer):
+    from vetfluid.serialize import request_to_dict
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    broken = request_to_dict(window.session.plan.request) | {"species_id": "no_such_species"}
+    window.records.save_draft({"request": broken, "closed": True, "observations": []})
+    answer({"Restore it": QMessageBox.StandardButton.Yes, LEAVE: QMessageBox.StandardButton.Cancel})
+    assert window.offer_draft()
+    qtbot.wait(50)
+    assert window.session.plan is None and window._has_unsaved_work()
+    window.new_patient()  # asked, and cancelled: the draft is not overwritten
+    assert window.records.draft()["request"]["species_id"] == "no_such_species"
+
+
+def test_observations_recorded_before_any_plan_are_kept(qtbot, planner, answer):
+    from ui.main_window import MainWindow
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.new_patient()  # nothing typed: no plan can be built
+    window.session.add_observation(Observation(hour=0.5, note="arrived collapsed"))
+    assert window._has_unsaved_work()
+    window.close()  # asks nothing: it goes into the draft
+    answer({"was left, or vetfluid was closed": QMessageBox.StandardButton.Yes})
+    again = MainWindow()
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: again.session is not None and again.session.observations != [])
+    assert again.session.observations == [Observation(hour=0.5, note="arrived collapsed")]
+    assert again.session.plan is None
+
+
+def test_saving_needs_a_plan_that_builds_and_says_what_is_wrong(qtbot, planner, answer):
+    window = planner
+    _saved_dog(qtbot, window)
+    window.session.update(dehydration_percent=6.0)
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
+    window.session.update(weight_kg=None)  # the weight being retyped
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    shown = []
+    answer({LEAVE: QMessageBox.StandardButton.Yes,
+            "cannot be saved until": lambda: shown.append(1)})  # fmt: skip
+    window.new_patient()  # Yes, save first: it cannot be, so nothing is left
+    assert shown and window.session.request is None and window._has_unsaved_work()
+    assert window.session.inputs["species_id"] == "dog"
+
+
+def _failing_writes(window):
+    """The disk refuses every write to the records until ``.undo()`` is called."""
+    import pytest
+
+    from vetfluid.records import RecordsError
+
+    def full_disk(*_, **__):
+        raise RecordsError("disk full")
+
+    disk = pytest.MonkeyPatch()
+    for name in ("keep_observations", "save_draft"):
+        disk.setattr(window.records, name, full_disk)
+    return disk
+
+
+def test_a_failed_write_is_unsaved_work_and_is_tried_again(qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
+    window = planner
+    _saved_dog(qtbot, window)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    window._draft_timer.stop()
+    disk = _failing_writes(window)
+    window._save_draft()
+    assert "trying again" in window.statusBar().currentMessage()
+    assert window._draft_timer.isActive() and window._has_unsaved_work()
+    disk.undo()
+    window._draft_timer.stop()
+    window._save_draft()  # the retry
+    assert not window._has_unsaved_work()
+    saved = window.records.versions(window.current_patient)[-1]
+    assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 24.2}]
+
+
+def test_after_a_failed_write_a_saved_version_is_saved_work(qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
+    window = planner
+    _saved_dog(qtbot, window)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    disk = _failing_writes(window)
+    window._save_draft()
+    assert window._has_unsaved_work()
+    disk.undo()
+    assert window.save_version(author="AB") == 2  # the observations are in version 2
+    window.new_patient()  # nothing unsaved: asks nothing (an unanswered question fails)
+    assert window.session.request is None
+
+
+def test_a_replan_waits_for_observations_that_could_not_be_written(qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
+    window = planner
+    saved = _saved_dog(qtbot, window)
+    window.details.setCurrentWidget(window.course_holder)
+    window.session.add_observation(Observation(hour=6.0, weight_kg=24.6))
+    disk = _failing_writes(window)
+    told = []
+    answer({"could not be written to the saved version": lambda: told.append(1)})
+    window.course_view.replan()
+    assert told and window.session.versions == []  # not re-planned: nothing lost
+    assert window.session.observations == [Observation(hour=6.0, weight_kg=24.6)]
+    disk.undo()
+    window.course_view.replan()  # written now, then re-planned
+    assert len(window.session.versions) == 1
+    assert window.records.observations(saved.id) == [{"hour": 6.0, "weight_kg": 24.6}]
+
+
+def test_closing_when_the_work_cannot_be_written_asks_first(qtbot, planner, answer):
     from vetfluid.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
     qtbot.waitUntil(lambda: window.session.plan is not None)
-    window.details.setCurrentWidget(window.course_holder)
-    window.session.add_observation(Observation(hour=4.0, weight_kg=24.6))
-    answer({"being replaced": QMessageBox.StandardButton.No})
-    window.course_view.replan()
-    assert len(window.session.versions) == 1
-    answer({LEAVE: QMessageBox.StandardButton.Cancel})
-    window.open_demo("small_gerbil")  # asked (Cancel): the earlier plan is not dropped
-    assert window.session.plan.request.species_id == "dog"
-
-
-def test_a_failed_write_is_unsaved_work_and_is_tried_again(qtbot, planner, monkeypatch):
-    from vetfluid.observations import Observation
-    from vetfluid.records import RecordsError
-
-    window = planner
-    _saved_dog(qtbot, window)
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-
-    def full_disk(**_):
-        raise RecordsError("disk full")
-
-    monkeypatch.setattr(window.records, "keep_observations", full_disk)
-    window._save_draft()
-    assert "trying again" in window.statusBar().currentMessage()
-    assert window._draft_timer.isActive() and window._has_unsaved_work()
-    assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
+    disk = _failing_writes(window)
+    answer({"Close anyway and lose it": QMessageBox.StandardButton.No})
+    assert not window.close()  # kept open, still trying
+    assert window.isVisible() and window.records is not None
+    answer({"Close anyway and lose it": QMessageBox.StandardButton.Yes})
+    assert window.close()
+    assert window.records is None
+    disk.undo()

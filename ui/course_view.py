@@ -401,7 +401,8 @@ class CourseView(QWidget):
         row = QHBoxLayout()
         self.remove_button = QPushButton("Remove the selected observation…")
         self.remove_button.setToolTip(
-            "Take a mistyped observation out of this course (saved plan versions keep theirs)"
+            "Take a mistyped observation out of this course, and out of the saved version\n"
+            "it was written to if this plan is that version, unchanged (others keep theirs)"
         )
         self.remove_button.setEnabled(False)
         self.remove_button.clicked.connect(self.remove_selected)
@@ -429,7 +430,8 @@ class CourseView(QWidget):
             self,
             "Remove observation",
             f"Remove “{what}” recorded at {self.observations_model.text(row, 0)} from this "
-            "course? Plan versions already saved keep their own observations.",
+            "course? If this plan is a saved version, unchanged, it is removed from that "
+            "version too; other versions keep their own observations.",
         )
         if answer == QMessageBox.StandardButton.Yes:
             self.session.remove_observation(number)

@@ -295,10 +295,11 @@ class MainWindow(QMainWindow):
         self._saved_version: SavedVersion | None = None
         self._opened: tuple[object, dict[str, str]] = (None, {})  # request and reasons opened
         self._opening = False  # the next plan built is the one opened
-        self._opened_unsaved = False  # ... and it is not saved anywhere (a draft, a re-plan)
-        self._unsaved_earlier = False  # a re-plan left its earlier plan unsaved
+        self._next_is_unsaved = False  # the next plan opened is saved nowhere (a draft, a re-plan)
+        self._opened_unsaved = False  # the plan opened is saved nowhere until saved as a version
+        self._opened_request = None  # what was opened: the draft's plan while none can be built
         self._last_valid: tuple[object, bool] | None = None  # request, on the saved version
-        self._write_failed = False
+        self._write_error = ""  # why the last write failed; empty once one succeeds
         self._plan_tag = ""  # marks the drafts this plan wrote
         self._plans_opened = 0
         self.session.inputsReplaced.connect(self._plan_replaced)
@@ -328,6 +329,8 @@ class MainWindow(QMainWindow):
         self._saved_version = None
         self._last_valid = None
         self._opening = True
+        self._opened_request = _request
+        self._opened_unsaved, self._next_is_unsaved = self._next_is_unsaved, False
         self._plans_opened += 1
         self._plan_tag = f"{id(self):x}-{QDateTime.currentMSecsSinceEpoch()}-{self._plans_opened}"
 
@@ -336,7 +339,6 @@ class MainWindow(QMainWindow):
             self._opening = False
             opened = plan.request if plan and not self._opened_unsaved else None
             self._opened = (opened, self.session.acknowledged if opened else {})
-            self._opened_unsaved = False
 
     def _remember_valid(self, *_: object) -> None:
         """The last valid plan and whether it was the saved version: where observations
@@ -356,46 +358,47 @@ class MainWindow(QMainWindow):
         )
 
     def _has_unsaved_work(self) -> bool:
-        """Observations, or a plan changed since it was opened, not in a saved version; an
-        earlier plan a re-plan left unsaved; a write that failed."""
+        """Observations, or a plan changed since it was opened, not in a saved version; a
+        plan opened from a draft or made by a re-plan, until it is saved; a write that
+        failed."""
         if self.records is None:
             return False
-        if self._write_failed or self._unsaved_earlier:
+        if self._write_error:
             return True
         last = self._last_valid
         if last is not None and last[1]:  # the saved version, unchanged: written to it
             return False
-        if self.session.observations:
+        if self.session.observations or self._opened_unsaved:
             return True
         return last is not None and (last[0], self.session.acknowledged) != self._opened
 
     def _may_leave(self) -> bool:
         """Before another plan replaces this one: unsaved work is saved as a version (Yes),
-        left (No: it stays in the draft, offered at the next start, until another plan
-        is changed), or the command is cancelled."""
+        left in the draft (No: offered at the next start, until another plan is changed),
+        or the command is cancelled. False when the work could not be kept either way."""
         if not self._has_unsaved_work():
             return True
-        return (
-            self._save_first(
-                "This plan, or what was recorded on it, is not saved as a version. Save it "
-                "first?\n\nNo leaves it in the draft, offered when vetfluid next starts, "
-                "until another plan is changed."
-            )
-            is not False
-        )
-
-    def _save_first(self, question: str) -> bool | None:
-        """Ask Yes (save a version, then go on) / No (go on unsaved) / Cancel: True to go
-        on with the work saved, None to go on without, False to stop (Cancel, or the
-        save was cancelled)."""
         answer = QMessageBox.question(
-            self, "vetfluid", question,
+            self, "vetfluid",
+            "This plan, or what was recorded on it, is not saved as a version. Save it "
+            "first?\n\nNo leaves it in the draft, offered when vetfluid next starts, "
+            "until another plan is changed.",
             QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No
             | QMessageBox.StandardButton.Cancel,
         )  # fmt: skip
         if answer == QMessageBox.StandardButton.Yes:
             return self.save_version() is not None
-        return None if answer == QMessageBox.StandardButton.No else False
+        if answer != QMessageBox.StandardButton.No:
+            return False
+        self._save_draft(closed=True)  # left on purpose: offered back as left, not crashed
+        if self._write_error:
+            QMessageBox.warning(
+                self, "vetfluid",
+                f"The plan could not be kept in the draft: {self._write_error}\n\nIt stays "
+                "open. Save it as a version, or try again once the problem is fixed.",
+            )  # fmt: skip
+            return False
+        return True
 
     def _keep_edits(self) -> None:
         """Write what is waiting for the draft timer now (before the screen is replaced)."""
@@ -419,9 +422,8 @@ class MainWindow(QMainWindow):
         if self.records is None:
             return
         self._remember_valid()
-        if self._last_valid is None:
-            return  # nothing valid since this plan was opened: nothing to keep
-        request, on_saved = self._last_valid
+        # while no plan has been built, what was opened (or, for a new patient, nothing)
+        request, on_saved = self._last_valid or (self._opened_request, False)
         try:
             if on_saved:
                 if self.records.keep_observations(
@@ -431,13 +433,13 @@ class MainWindow(QMainWindow):
                     self.statusBar().showMessage("Observations saved with the plan version.")
                 if self._draft_is_ours():
                     self.records.clear_draft()  # its edits were undone: nothing is unsaved
-            elif self._has_unsaved_work() or self._write_failed:
+            elif self._has_unsaved_work():
                 self.records.save_draft(self._draft(request, closed=closed))
             elif self._draft_is_ours():
                 self.records.clear_draft()
-            self._write_failed = False
+            self._write_error = ""
         except RecordsError as exc:
-            self._write_failed = True
+            self._write_error = exc.one_line()
             self.statusBar().showMessage(f"Not saved (trying again): {exc.one_line()}")
             self._draft_timer.start()
             if on_saved:  # the draft keeps them meanwhile
@@ -450,7 +452,7 @@ class MainWindow(QMainWindow):
         from vetfluid.serialize import request_to_dict
 
         return {
-            "request": request_to_dict(request),
+            "request": request_to_dict(request) if request is not None else None,
             "acknowledged": self.session.acknowledged,
             "acknowledged_for": self.session.acknowledged_for,
             "observations": self._observation_records(),
@@ -469,7 +471,8 @@ class MainWindow(QMainWindow):
             return False
         self._keep_edits()
         question = (
-            "vetfluid was closed with a plan that had not been saved as a version. Restore it?"
+            "The plan last worked on was left, or vetfluid was closed, before it was saved "
+            "as a version. Restore it?"
             if draft.get("closed")
             else "vetfluid stopped unexpectedly while a plan was being edited. Restore it? "
             "The last few seconds of typing may be missing."
@@ -480,13 +483,13 @@ class MainWindow(QMainWindow):
         if answer != QMessageBox.StandardButton.Yes:
             self.records.clear_draft()
             return False
-        try:
-            request = request_from_dict(draft["request"])
+        try:  # no plan: observations recorded before any plan could be built
+            request = None if draft["request"] is None else request_from_dict(draft["request"])
         except (VetfluidError, KeyError, TypeError) as exc:
             self.statusBar().showMessage(f"The draft could not be restored: {exc}")
             return False
         wording = draft.get("acknowledged_for")
-        self._opened_unsaved = True  # a draft is unsaved work from the start
+        self._next_is_unsaved = True  # a draft is unsaved work until it is saved
         self.session.replace_request(
             request,
             draft.get("acknowledged") or {},
@@ -510,8 +513,15 @@ class MainWindow(QMainWindow):
 
         self.build_planner()
         plan = self.session.plan
-        if plan is None or self.records is None:
-            QMessageBox.information(self, "vetfluid", "There is no valid plan, or no records file.")
+        if self.records is None:
+            QMessageBox.information(self, "vetfluid", "No records file is open.")
+            return None
+        if plan is None:
+            QMessageBox.information(
+                self, "vetfluid",
+                "The plan cannot be saved until it can be built: "
+                f"{self.session.problem or 'choose a species and a weight'}.",
+            )  # fmt: skip
             return None
         try:
             if self.current_patient is None:
@@ -532,14 +542,19 @@ class MainWindow(QMainWindow):
         except (RecordsError, VetfluidError) as exc:
             QMessageBox.warning(self, "vetfluid", f"Not saved: {exc}")
             return None
-        self._draft_timer.stop()  # what was being edited is now saved
+        self._draft_timer.stop()  # what was being edited is now saved, observations and all
+        self._write_error = ""
+        self._opened_unsaved = False
         saved = next(v for v in self.records.versions(self.current_patient) if v.version == number)
         self._saved_version = SavedVersion(
             row_id=saved.id, request=plan.request, acknowledged=self.session.acknowledged
         )
         self._remember_valid()
-        if self._draft_is_ours():  # now saved; a draft another plan left stays
-            self.records.clear_draft()
+        try:
+            if self._draft_is_ours():  # now saved; a draft another plan left stays
+                self.records.clear_draft()
+        except RecordsError:
+            pass  # the saved version holds it all; the stale draft is offered at the next start
         self.statusBar().showMessage(f"Saved as version {number}; earlier versions are kept.")
         return number
 
@@ -576,22 +591,30 @@ class MainWindow(QMainWindow):
         self.statusBar().showMessage(f"Opened {patient.name}, version {version}.{unreadable}")
 
     def _before_replan(self) -> bool:
-        """The plan being replaced goes into the records first, with its observations, so
-        the record shows what was given; declined, it is kept until vetfluid closes."""
+        """The plan being replaced is in the records first, with its observations, so the
+        patient's record shows what was given: saved now if it is not a saved version.
+        False (nothing re-planned) when it is not saved."""
         if self.records is None or self.session.plan is None:
-            return True
-        self._opened_unsaved = True  # the re-plan itself is not saved anywhere yet
-        if self._on_saved_version():
-            self._keep_edits()
-            return True
-        answer = self._save_first(
-            "The plan being replaced has not been saved as a version. Save it first, with "
-            "its observations?\n\nNo re-plans anyway: the earlier plan and its observations "
-            "are then kept only until vetfluid closes."
-        )
-        self._unsaved_earlier |= answer is None  # asked about again before it is dropped
-        self._opened_unsaved = answer is not False
-        return answer is not False
+            return True  # no records to keep it in: the status bar says so
+        self._keep_edits()
+        if not self._on_saved_version():
+            answer = QMessageBox.question(
+                self, "vetfluid",
+                "The plan being replaced has not been saved as a version. A re-plan keeps it "
+                "in the patient's record, with its observations. Save it now?",
+                QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Cancel,
+            )  # fmt: skip
+            if answer != QMessageBox.StandardButton.Save or self.save_version() is None:
+                return False
+        elif self._write_error:
+            QMessageBox.warning(
+                self, "vetfluid",
+                "The observations could not be written to the saved version: "
+                f"{self._write_error}\n\nvetfluid keeps trying; re-plan once they are saved.",
+            )  # fmt: skip
+            return False
+        self._next_is_unsaved = True  # the re-plan itself is saved nowhere yet
+        return True
 
     def _observation_records(self) -> list[dict]:
         from vetfluid.observations import observation_record
@@ -710,7 +733,6 @@ class MainWindow(QMainWindow):
         if not self._may_leave():
             return False
         self.current_patient = None
-        self._unsaved_earlier = self._write_failed = False  # left, as the user chose
         return True
 
     def new_patient(self) -> None:
@@ -875,6 +897,16 @@ class MainWindow(QMainWindow):
         elif geometry is None:
             self.resize(1360, 860)
 
+    def _close_losing_work(self) -> bool:
+        answer = QMessageBox.question(
+            self, "vetfluid",
+            f"What is not saved as a version could not be written: {self._write_error}\n\n"
+            "Close anyway and lose it? No keeps vetfluid open and keeps trying.",
+            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No,
+            QMessageBox.StandardButton.No,
+        )  # fmt: skip
+        return answer == QMessageBox.StandardButton.Yes
+
     def closeEvent(self, event: QCloseEvent) -> None:  # noqa: N802 (Qt override)
         settings = self._settings()
         settings.setValue("geometry", self.saveGeometry())
@@ -884,6 +916,10 @@ class MainWindow(QMainWindow):
             if self.records is not None:
                 self._draft_timer.stop()
                 self._save_draft(closed=True)  # unsaved work is offered back at the next start
+                if self._write_error and not self._close_losing_work():
+                    event.ignore()
+                    return
+                self._draft_timer.stop()
                 self.records.close()
                 self.records = None
         settings.sync()
