@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from decimal import Decimal
 
 from vetfluid.errors import InputError
 from vetfluid.formatting import entered_number
@@ -63,8 +64,11 @@ def require_patient_weight(weight_kg: object, field: str = "weight_kg") -> float
     )
     low, high = PATIENT_WEIGHT_KG
     if not low <= number <= high:
+        shown = _plain(number)
+        if low <= float(shown) <= high:  # rounded onto the range's edge: every figure it has
+            shown = format(Decimal(repr(number)), "f")
         raise InputError(
-            f"a weight of {_plain(number)} kg is beyond any patient vetfluid plans for "
+            f"a weight of {shown} kg is beyond any patient vetfluid plans for "
             f"({low * 1000:g} g to {high:g} kg)",
             field=field,
             value=weight_kg,
