@@ -141,7 +141,8 @@ class CourseView(QWidget):
         self.record_button.clicked.connect(self.record)
         self.replan_button = QPushButton("Re-&plan from now")
         self.replan_button.setToolTip(
-            "Start a new plan version from the latest weight and labs; the earlier one is kept"
+            "Start a new plan version from the latest weight and labs; the plan it replaces\n"
+            "is kept in the patient's record with its observations (saved first if it is not)"
         )
         self.replan_button.clicked.connect(self.replan)
         for widget in (QLabel("At"), self.at, QLabel("="), self.hour, self.quantity,
