@@ -56,3 +56,4 @@ def test_cold_start_and_memory_against_a_bare_window(benchmark):
     assert results["start_ratio"] <= 1.5, results
     assert results["memory_ratio"] <= 2.0, results
     assert results["memory_ratio_with_plots"] <= 2.0, results  # the peak, plots open
+    assert results["memory_ratio_all_views"] <= 2.0, results  # every view built
