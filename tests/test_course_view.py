@@ -382,3 +382,11 @@ def test_urine_from_a_period_not_yet_complete_is_not_called_nothing_measured(win
     assert model.text(0, 1).startswith("nothing measured yet")
     record(view, 2, "urine_ml", 120, period=2)  # 2 h of a 6 h period collected so far
     assert model.text(0, 1).startswith("no period measured to its end yet")
+
+
+def test_replan_with_no_plan_says_so_and_makes_no_version(qtbot, window):
+    window.session.update(weight_kg=None)  # the weight being retyped
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    window.course_view.replan()
+    assert "no plan to re-plan from" in window.course_view.message.text()
+    assert window.session.versions == []

@@ -240,3 +240,11 @@ def test_a_reopened_plan_with_outputs_from_earlier_periods_counts_each_loss_once
         observed, period_h=4, earlier=outputs_not_observed(saved, observed, period_h=4)
     )
     assert reopened == saved  # reopened untouched, the plan replaces the same volumes
+
+
+def test_whole_numbers_from_a_plan_file_take_the_next_measurement():
+    """A hand-edited file may give outputs as whole numbers; the next urine adds to them."""
+    from vetfluid.observations import measured_outputs
+
+    observed = [Observation(hour=8.0, urine_ml=30.0, urine_period_h=4.0)]
+    assert measured_outputs(observed, period_h=4, earlier=((70, 0),)) == ((70.0, 0.0), (30.0, 0.0))

@@ -420,7 +420,8 @@ def test_an_intracoelomic_dose_bigger_than_one_injection_says_so():
     ("kg", "written"),
     [(24500.0, "24500"), (0.00005, "0.00005"), (0.07 / 1000, "0.00007"), (1e30, "1e+30"),
      (13333 * 0.45359237, "6047.75"),  # 0.07 g and 13333 lb as converted, never 0.00007000…1
-     (5000.001, "5000.001"), (0.0000999999, "0.0000999999")],  # just past the range: not its edge
+     (5000.001, "5000.001"), (0.0000999999, "0.0000999999"),  # just past the range, not its edge
+     (0.0999999 / 1000, "0.0000999999")],  # 0.0999999 g as converted
 )  # fmt: skip
 def test_a_weight_beyond_any_patient_names_the_likely_slip_in_words(kg, written):
     # 24500 "kg" is a 24.5 kg dog typed in grams with kg chosen: the message says so in

@@ -440,7 +440,11 @@ class CourseView(QWidget):
 
     def replan(self) -> None:
         try:
-            self.session.replan_request()  # what stops a re-plan is said before any question
+            if self.session.replan_request() is None:  # said before any question
+                self.message.setText(
+                    "⚠ There is no plan to re-plan from: correct the inputs first."
+                )
+                return
             if self._before_replan is not None and not self._before_replan():
                 return
             self.session.replan()

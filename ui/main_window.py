@@ -481,7 +481,10 @@ class MainWindow(QMainWindow):
         if self.records is None:  # the window was closed while the question was open
             return False
         if answer != QMessageBox.StandardButton.Yes:
-            self.records.clear_draft()
+            try:
+                self.records.clear_draft()
+            except RecordsError as exc:  # declined all the same: offered again next start
+                self.statusBar().showMessage(f"The draft could not be cleared: {exc.one_line()}")
             return False
         try:  # no plan: observations recorded before any plan could be built
             request = None if draft["request"] is None else request_from_dict(draft["request"])

@@ -66,7 +66,7 @@ def require_patient_weight(weight_kg: object, field: str = "weight_kg") -> float
     if not low <= number <= high:
         shown = _plain(number)
         if low <= float(shown) <= high:  # rounded onto the range's edge: every figure it has
-            shown = format(Decimal(repr(number)), "f")
+            shown = format(Decimal(f"{number:.12g}"), "f")  # past the edge, no conversion noise
         raise InputError(
             f"a weight of {shown} kg is beyond any patient vetfluid plans for "
             f"({low * 1000:g} g to {high:g} kg)",

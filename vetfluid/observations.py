@@ -389,8 +389,9 @@ def measured_outputs(
     latest = max((o.hour for o in urine_seen), default=0.0)
     complete = max(int(np.floor(latest / period_h + 1e-9)), len(earlier))
     starts = np.arange(complete) * period_h
-    urine = np.array([u for u, _ in earlier] + [0.0] * (complete - len(earlier)))
-    other = np.array([o for _, o in earlier] + [0.0] * (complete - len(earlier)))
+    pad = [0.0] * (complete - len(earlier))  # float even when a file gave whole numbers
+    urine = np.array([u for u, _ in earlier] + pad, dtype=float)
+    other = np.array([o for _, o in earlier] + pad, dtype=float)
     for o in urine_seen:
         a, b = o.hour - o.urine_period_h, o.hour
         overlap = np.clip(np.minimum(starts + period_h, b) - np.maximum(starts, a), 0.0, None)
