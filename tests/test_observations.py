@@ -3,13 +3,17 @@
 from __future__ import annotations
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
+from vetfluid.demos import DEMOS
 from vetfluid.errors import InputError
 from vetfluid.ins_and_outs import ins_and_outs
 from vetfluid.observations import (
     Observation,
     alerts,
     check_observation,
+    outputs_agree,
     predicted_weight_kg,
     replan_request,
     weight_is_plausible,
@@ -239,7 +243,79 @@ def test_a_reopened_plan_with_outputs_from_earlier_periods_counts_each_loss_once
     reopened = measured_outputs(
         observed, period_h=4, earlier=outputs_not_observed(saved, observed, period_h=4)
     )
-    assert reopened == saved  # reopened untouched, the plan replaces the same volumes
+    assert outputs_agree(reopened, saved)  # reopened untouched: the same volumes replaced
+
+
+def test_outputs_agree_within_a_nanolitre_and_never_across_periods():
+    assert outputs_agree(((46.666666666666664, 0.0),), ((46.66666666666667, 0.0),))
+    assert not outputs_agree(((46.6667, 0.0),), ((46.6666, 0.0),))  # a real 0.1 µL apart
+    assert not outputs_agree(((70.0, 0.0),), ((70.0, 0.0), (0.0, 0.0)))  # a period more
+    assert outputs_agree((), ())
+
+
+_urine = st.builds(
+    Observation,
+    hour=st.floats(0.25, 30.0).map(lambda h: round(h, 2)),
+    urine_ml=st.floats(1.0, 300.0),
+    urine_period_h=st.sampled_from([1.0, 2.0, 3.0, 4.0, 5.0, 7.0]),
+)
+_loss = st.builds(
+    Observation,
+    hour=st.floats(0.0, 30.0).map(lambda h: round(h, 1)),
+    other_losses_ml=st.floats(1.0, 100.0),
+)
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    observed=st.lists(st.one_of(_urine, _loss), min_size=1, max_size=6),
+    older=st.lists(st.tuples(st.floats(0.0, 80.0), st.sampled_from([0.0, 5.5])), max_size=3),
+    period=st.sampled_from([1.0, 2.0, 3.0, 4.0, 6.0, 8.0]),
+)
+def test_any_reopened_plan_replaces_the_volumes_it_was_saved_with(observed, older, period):
+    """Saved outputs taken apart and added up again (what reopening a version does) give
+    the saved volumes back, whatever was measured: fractional volumes, urine collected
+    across periods, losses past the latest urine measurement."""
+    from vetfluid.observations import measured_outputs, outputs_not_observed
+
+    saved = measured_outputs(observed, period_h=period, earlier=tuple(older))
+    earlier = outputs_not_observed(saved, observed, period_h=period)
+    assert outputs_agree(measured_outputs(observed, period_h=period, earlier=earlier), saved)
+
+
+def _io_request(outputs=((70.0, 0.0),)):
+    from dataclasses import replace
+
+    return replace(DEMOS["renal_cat"].request, ins_and_outs_period_h=4.0, measured_outputs=outputs)
+
+
+def test_a_saved_ins_and_outs_plan_still_follows_after_a_new_urine_measurement():
+    """The outputs of an ins-and-outs plan come from the urine measured: a measurement
+    recorded on a saved version leaves the plan that version (reopening it with that
+    measurement builds the same plan); a change of any input, or a saved measurement
+    removed, does not."""
+    from dataclasses import replace
+
+    from vetfluid.observations import follows_saved_request, measured_outputs
+
+    first = Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0)
+    second = Observation(hour=8.0, urine_ml=40.0, urine_period_h=4.0)
+    saved = _io_request(measured_outputs([first], period_h=4.0))
+    assert follows_saved_request(saved, saved, [first])
+    now = _io_request(measured_outputs([first, second], period_h=4.0))
+    assert now.measured_outputs == ((70.0, 0.0), (40.0, 0.0))
+    assert follows_saved_request(now, saved, [first, second])
+    # the same outputs with an input changed: another plan
+    assert not follows_saved_request(replace(now, weight_kg=4.5), saved, [first, second])
+    # outputs that the observations do not account for (a measurement removed, typed over)
+    assert not follows_saved_request(_io_request(((40.0, 0.0),)), saved, [second])
+    assert not follows_saved_request(
+        _io_request(((70.0, 0.0), (45.0, 0.0))), saved, [first, second]
+    )
+    # a plan that does not follow its outputs is compared input for input
+    plain = DEMOS["renal_cat"].request
+    assert follows_saved_request(plain, plain, [first])
+    assert not follows_saved_request(replace(plain, weight_kg=4.5), plain, [])
 
 
 def test_whole_numbers_from_a_plan_file_take_the_next_measurement():

@@ -671,3 +671,68 @@ def test_closing_when_the_work_cannot_be_written_asks_first(qtbot, planner, answ
     assert window.close()
     assert window.records is None
     disk.undo()
+
+
+# ---- the fifth review's cases ----------------------------------------------------------------
+def _ins_and_outs_file(tmp_path, outputs):
+    import dataclasses
+
+    from vetfluid.request_file import write_request_file
+
+    request = dataclasses.replace(
+        DEMOS["renal_cat"].request, ins_and_outs_period_h=4.0, measured_outputs=outputs
+    )
+    return write_request_file(tmp_path / "cat", request, {})
+
+
+def test_a_reopened_version_with_fractional_outputs_is_unchanged(qtbot, planner, answer, tmp_path):
+    """Outputs taken apart and added up again differ in the 15th figure; the version
+    reopened untouched is still that version (nothing to ask about on leaving)."""
+    from vetfluid.observations import Observation
+
+    window = planner
+    # 70 mL collected over 6 h, filed with 4-hour periods: 46.666666666666664 mL
+    assert window.read_request(_ins_and_outs_file(tmp_path, ((70 * 4 / 6, 0.0),)))
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.add_observation(Observation(hour=8.0, urine_ml=40.0, urine_period_h=4.0))
+    qtbot.waitUntil(lambda: len(window.session.plan.request.measured_outputs) == 2)
+    assert window.save_version(name="Tom", author="AB") == 1
+    saved = window.session.plan.request
+    window.new_patient()  # saved: nothing asked
+    window.load_version(window.records.find_patients("Tom")[0].id, 1)
+    qtbot.wait(50)  # the rebuild that follows the restored observations
+    assert window.session.plan.request == saved  # the very outputs saved, not 46.666666667
+    assert not window._has_unsaved_work()
+    window.new_patient()  # nothing asked (an unanswered question fails the test)
+
+
+def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
+    qtbot, planner, answer
+):
+    """The measurement changes the plan's outputs, as the version says it should: the plan
+    is still that version, the measurement is written to it, and a re-plan saves no copy."""
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.session.replace_request(DEMOS["renal_cat"].request)
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.set_ins_and_outs(4.0)
+    qtbot.waitUntil(lambda: window.session.plan.request.ins_and_outs_period_h == 4.0)
+    window.save_version(name="Tom", author="AB")
+    version = window.records.versions(window.current_patient)[0]
+    window.session.add_observation(Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0))
+    window.session.add_observation(Observation(hour=4.0, weight_kg=4.1))
+    qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
+    assert window._on_saved_version()
+    window._save_draft()
+    assert len(window.records.observations(version.id)) == 2
+    assert window.records.draft() is None or not window._draft_is_ours()
+    window.details.setCurrentWidget(window.course_holder)
+    window.course_view.replan()  # asks nothing: the plan replaced is version 1 as it stands
+    assert len(window.session.versions) == 1
+    assert [v.version for v in window.records.versions(window.current_patient)] == [1]
+    # reopened, version 1 builds the plan that was on screen
+    answer({LEAVE: QMessageBox.StandardButton.No})
+    window.load_version(window.current_patient, 1)
+    qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
+    assert window._on_saved_version()

@@ -347,14 +347,17 @@ class MainWindow(QMainWindow):
             self._last_valid = (self.session.plan.request, self._on_saved_version())
 
     def _on_saved_version(self) -> bool:
-        """Whether the plan on screen is a saved version, unchanged since it was saved
-        (the same inputs and the same reasons)."""
+        """Whether the plan on screen is a saved version, unchanged since it was saved: the
+        same inputs and reasons, its measured outputs following from the observations
+        recorded on it (what reopening it would build)."""
+        from vetfluid.observations import follows_saved_request
+
         plan, saved = self.session.plan, self._saved_version
         return (
             saved is not None
             and plan is not None
-            and plan.request == saved.request
             and self.session.acknowledged == saved.acknowledged
+            and follows_saved_request(plan.request, saved.request, self.session.observations)
         )
 
     def _has_unsaved_work(self) -> bool:

@@ -253,7 +253,7 @@ class PlanSession(QObject):
 
     def set_ins_and_outs(self, period_h: float | None) -> None:
         """Plan by ins and outs every ``period_h`` hours from what was measured, or stop."""
-        from vetfluid.observations import measured_outputs
+        from vetfluid.observations import measured_outputs, outputs_agree
 
         saved_period, saved = self._saved_outputs
         earlier = saved if saved_period == period_h else ()  # other periods cannot be reused
@@ -262,6 +262,9 @@ class PlanSession(QObject):
             if period_h is None
             else measured_outputs(self.observations, period_h=period_h, earlier=earlier)
         )
+        shown = self._inputs.get("measured_outputs") or ()
+        if outputs_agree(measured, shown):
+            measured = shown  # a reopened plan, added up again: the very plan that was saved
         self.update(ins_and_outs_period_h=period_h, measured_outputs=measured)
 
     def _observed(self) -> None:

@@ -27,7 +27,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import asdict, dataclass, fields
+from dataclasses import asdict, dataclass, fields, replace
 from datetime import date, datetime, timedelta
 
 import numpy as np
@@ -40,7 +40,7 @@ from vetfluid.formatting import format_quantity as q
 from vetfluid.hydration import overload_weight_kg
 from vetfluid.ins_and_outs import InsAndOutsRow, ins_and_outs
 from vetfluid.limits import limit
-from vetfluid.plan import Plan
+from vetfluid.plan import Plan, PlanRequest
 from vetfluid.species import SpeciesTable, load_table
 from vetfluid.units import preferred_weight_unit, weight_in_unit
 
@@ -54,6 +54,8 @@ DEFICIT_CLOSING_FRACTION = 0.5  # our rule of thumb, no source
 # AAHA Fluid Therapy Guidelines), so a real change within a plan stays well inside it,
 # while a g/kg slip (1000), lb/kg (2.2) or a misplaced decimal point (10) lies outside.
 WEIGHT_PLAUSIBLE_FACTOR = 1.5
+# Measured outputs this close (mL) are the same measurement (:func:`outputs_agree`).
+OUTPUTS_SAME_WITHIN_ML = 1e-6
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -325,8 +327,6 @@ def replan_request(plan: Plan, observations: list[Observation] | tuple[Observati
     (entered weight + deficit, 1 L ≈ 1 kg) less that weight, as a % of it to 0.1 %. Labs: the
     latest Na and K. Everything else (fluid, route, flags) carries over.
     """
-    from dataclasses import replace
-
     ordered = sorted(observations, key=lambda o: o.hour)
     weights = [o for o in ordered if o.weight_kg is not None]
     if not weights:
@@ -421,11 +421,49 @@ def outputs_not_observed(
     own = measured_outputs(observations, period_h=period_h, earlier=((0.0, 0.0),) * len(saved))
     return tuple(
         (
-            round(max(0.0, urine - (own[i][0] if i < len(own) else 0.0)), 9),
-            round(max(0.0, other - (own[i][1] if i < len(own) else 0.0)), 9),
+            max(0.0, urine - (own[i][0] if i < len(own) else 0.0)),
+            max(0.0, other - (own[i][1] if i < len(own) else 0.0)),
         )
         for i, (urine, other) in enumerate(saved)
     )
+
+
+def outputs_agree(
+    first: tuple[tuple[float, float], ...], second: tuple[tuple[float, float], ...]
+) -> bool:
+    """Whether two output tables hold the same measurements: as many periods, and each
+    volume the same to within a nanolitre. Taking a reopened plan's outputs apart and
+    adding them up again (:func:`outputs_not_observed`, :func:`measured_outputs`) leaves
+    rounding noise of about 1e-14 mL, which is not a change to the plan."""
+    return len(first) == len(second) and all(
+        abs(a - b) <= OUTPUTS_SAME_WITHIN_ML
+        for pair_a, pair_b in zip(first, second, strict=True)
+        for a, b in zip(pair_a, pair_b, strict=True)
+    )
+
+
+def follows_saved_request(
+    current: PlanRequest,
+    saved: PlanRequest,
+    observations: list[Observation] | tuple[Observation, ...],
+) -> bool:
+    """Whether ``current`` is the plan that reopening ``saved`` with ``observations`` builds.
+
+    The inputs must be the same. For an ins-and-outs plan, the measured outputs may differ
+    from the saved ones by exactly what the observations measured since. That is, they must
+    equal the saved outputs not taken from ``observations`` (:func:`outputs_not_observed`)
+    plus what ``observations`` measure (:func:`measured_outputs`). A urine measurement
+    recorded on a saved version therefore leaves it the saved version; the measurement is
+    kept with that version's observations. Removing a measurement that was saved with the
+    version does not: reopening would still count its urine among the saved outputs."""
+    if current == saved:
+        return True
+    period = saved.ins_and_outs_period_h
+    if period is None or replace(current, measured_outputs=saved.measured_outputs) != saved:
+        return False
+    earlier = outputs_not_observed(saved.measured_outputs, observations, period_h=period)
+    reopened = measured_outputs(observations, period_h=period, earlier=earlier)
+    return outputs_agree(current.measured_outputs, reopened)
 
 
 def ins_and_outs_from_observations(
