@@ -736,3 +736,98 @@ def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
     window.load_version(window.current_patient, 1)
     qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
     assert window._on_saved_version()
+
+
+def _version_writes_fail(window):
+    """The saved version refuses the observations (locked); the draft can still be written."""
+    import pytest
+
+    from vetfluid.records import RecordsError
+
+    def locked(*_, **__):
+        raise RecordsError("database is locked")
+
+    disk = pytest.MonkeyPatch()
+    disk.setattr(window.records, "keep_observations", locked)
+    return disk
+
+
+def test_observations_the_version_refuses_are_kept_in_the_draft_and_leaving_says_so(
+    qtbot, planner, answer
+):
+    """Written to the draft instead of the saved version: not lost. Leaving (No) keeps them
+    in the draft and goes on; closing asks nothing; the next start offers them back."""
+    from vetfluid.observations import Observation
+
+    window = planner
+    _saved_dog(qtbot, window)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    disk = _version_writes_fail(window)
+    window._draft_timer.stop()
+    window._save_draft()
+    assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
+    assert "kept in the draft" in window.statusBar().currentMessage()
+    assert window._draft_timer.isActive()  # the version is tried again
+    assert window._has_unsaved_work()  # not in the version yet: leaving asks
+    asked = []
+    answer({LEAVE: lambda: asked.append(1) or QMessageBox.StandardButton.No})
+    window.new_patient()
+    assert asked and window.session.request is None  # left: the draft holds them
+    draft = window.records.draft()
+    assert draft["closed"] and draft["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
+    assert window.close()  # nothing would be lost: no question
+    disk.undo()
+    with Records.open() as records:
+        assert records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
+
+
+def test_closing_while_the_version_refuses_observations_asks_nothing(qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
+    window = planner
+    saved = _saved_dog(qtbot, window)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    disk = _version_writes_fail(window)
+    assert window.close()  # the draft takes them: no "lose it?" question
+    disk.undo()
+    with Records.open() as records:
+        assert records.observations(saved.id) == []
+        assert records.draft()["closed"]
+        assert records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
+
+
+def test_once_the_version_takes_the_observations_the_draft_is_cleared(qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
+    window = planner
+    saved = _saved_dog(qtbot, window)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    disk = _version_writes_fail(window)
+    window._save_draft()
+    assert window.records.draft() is not None
+    disk.undo()
+    window._draft_timer.stop()
+    window._save_draft()  # the retry
+    assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 24.2}]
+    assert window.records.draft() is None and not window._has_unsaved_work()
+    window.new_patient()  # nothing asked
+
+
+def test_no_retry_writes_while_the_close_question_is_open(qtbot, planner, answer, monkeypatch):
+    """Closing when nothing can be written: while the user reads the question, no retry
+    may mark the draft as left by a crash."""
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    disk = _failing_writes(window)
+    timer_running = []
+    answer(
+        {"Close anyway and lose it": lambda: timer_running.append(window._draft_timer.isActive())}
+    )
+    assert not window.close()  # a callable answer is no Yes: kept open
+    assert timer_running == [False]
+    assert window._draft_timer.isActive()  # and trying again once the question is answered
+    disk.undo()

@@ -299,7 +299,9 @@ class MainWindow(QMainWindow):
         self._opened_unsaved = False  # the plan opened is saved nowhere until saved as a version
         self._opened_request = None  # what was opened: the draft's plan while none can be built
         self._last_valid: tuple[object, bool] | None = None  # request, on the saved version
-        self._write_error = ""  # why the last write failed; empty once one succeeds
+        self._write_error = ""  # why the work is written nowhere; empty once a write succeeds
+        # why the observations are not yet in the saved version (the draft holds them)
+        self._version_behind = ""
         self._plan_tag = ""  # marks the drafts this plan wrote
         self._plans_opened = 0
         self.session.inputsReplaced.connect(self._plan_replaced)
@@ -327,6 +329,7 @@ class MainWindow(QMainWindow):
         """A new patient, a demo, a file, a version or a re-plan: a saved version is named
         again by whoever opened it; the plan built next is the yardstick for unsaved work."""
         self._saved_version = None
+        self._version_behind = ""  # the draft holds what that version lacks
         self._last_valid = None
         self._opening = True
         self._opened_request = _request
@@ -366,7 +369,7 @@ class MainWindow(QMainWindow):
         failed."""
         if self.records is None:
             return False
-        if self._write_error:
+        if self._write_error or self._version_behind:
             return True
         last = self._last_valid
         if last is not None and last[1]:  # the saved version, unchanged: written to it
@@ -429,13 +432,7 @@ class MainWindow(QMainWindow):
         request, on_saved = self._last_valid or (self._opened_request, False)
         try:
             if on_saved:
-                if self.records.keep_observations(
-                    version_id=self._saved_version.row_id,
-                    observations=self._observation_records(),
-                ):
-                    self.statusBar().showMessage("Observations saved with the plan version.")
-                if self._draft_is_ours():
-                    self.records.clear_draft()  # its edits were undone: nothing is unsaved
+                self._write_to_version(request, closed=closed)
             elif self._has_unsaved_work():
                 self.records.save_draft(self._draft(request, closed=closed))
             elif self._draft_is_ours():
@@ -445,11 +442,31 @@ class MainWindow(QMainWindow):
             self._write_error = exc.one_line()
             self.statusBar().showMessage(f"Not saved (trying again): {exc.one_line()}")
             self._draft_timer.start()
-            if on_saved:  # the draft keeps them meanwhile
-                try:
-                    self.records.save_draft(self._draft(request, closed=closed))
-                except RecordsError:
-                    pass  # the message above already says nothing was saved
+
+    def _write_to_version(self, request, *, closed: bool) -> None:  # noqa: ANN001 — PlanRequest
+        """Observations recorded on the saved version go into it. While they cannot, the
+        draft keeps them and the write is tried again; raises RecordsError when neither
+        the version nor the draft can be written."""
+        from vetfluid.records import RecordsError
+
+        try:
+            written = self.records.keep_observations(
+                version_id=self._saved_version.row_id, observations=self._observation_records()
+            )
+        except RecordsError as exc:
+            self._version_behind = exc.one_line()
+            self.records.save_draft(self._draft(request, closed=closed))
+            self.statusBar().showMessage(
+                "Observations kept in the draft; not yet in the saved version (trying again): "
+                + exc.one_line()
+            )  # fmt: skip
+            self._draft_timer.start()
+            return
+        self._version_behind = ""
+        if written:
+            self.statusBar().showMessage("Observations saved with the plan version.")
+        if self._draft_is_ours():
+            self.records.clear_draft()  # its edits were undone, or it held what is written now
 
     def _draft(self, request, *, closed: bool) -> dict:  # noqa: ANN001 — PlanRequest
         from vetfluid.serialize import request_to_dict
@@ -549,7 +566,7 @@ class MainWindow(QMainWindow):
             QMessageBox.warning(self, "vetfluid", f"Not saved: {exc}")
             return None
         self._draft_timer.stop()  # what was being edited is now saved, observations and all
-        self._write_error = ""
+        self._write_error = self._version_behind = ""
         self._opened_unsaved = False
         saved = next(v for v in self.records.versions(self.current_patient) if v.version == number)
         self._saved_version = SavedVersion(
@@ -612,11 +629,12 @@ class MainWindow(QMainWindow):
             )  # fmt: skip
             if answer != QMessageBox.StandardButton.Save or self.save_version() is None:
                 return False
-        elif self._write_error:
+        elif self._version_behind or self._write_error:
             QMessageBox.warning(
                 self, "vetfluid",
                 "The observations could not be written to the saved version: "
-                f"{self._write_error}\n\nvetfluid keeps trying; re-plan once they are saved.",
+                f"{self._version_behind or self._write_error}\n\nvetfluid keeps trying; "
+                "re-plan once they are saved.",
             )  # fmt: skip
             return False
         self._next_is_unsaved = True  # the re-plan itself is saved nowhere yet
@@ -904,6 +922,8 @@ class MainWindow(QMainWindow):
             self.resize(1360, 860)
 
     def _close_losing_work(self) -> bool:
+        """Asked when closing and the work can be written nowhere; True closes anyway."""
+        self._draft_timer.stop()  # no retry while asking: one would mark the draft a crash
         answer = QMessageBox.question(
             self, "vetfluid",
             f"What is not saved as a version could not be written: {self._write_error}\n\n"
@@ -911,7 +931,10 @@ class MainWindow(QMainWindow):
             QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No,
             QMessageBox.StandardButton.No,
         )  # fmt: skip
-        return answer == QMessageBox.StandardButton.Yes
+        if answer == QMessageBox.StandardButton.Yes:
+            return True
+        self._draft_timer.start()  # kept open: keep trying
+        return False
 
     def closeEvent(self, event: QCloseEvent) -> None:  # noqa: N802 (Qt override)
         settings = self._settings()
