@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import pytest
 from PySide6.QtWidgets import QMessageBox
 
 from vetfluid.demos import DEMOS
@@ -831,3 +832,58 @@ def test_no_retry_writes_while_the_close_question_is_open(qtbot, planner, answer
     assert timer_running == [False]
     assert window._draft_timer.isActive()  # and trying again once the question is answered
     disk.undo()
+
+
+# ---- with the records file unusable, nothing recorded is dropped without a word -----------
+@pytest.fixture()
+def broken_records(vetfluid_home):
+    (vetfluid_home / "records.sqlite").write_bytes(b"not a database at all" * 100)
+
+
+def test_with_no_records_leaving_observations_asks_first(broken_records, qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
+    window = planner
+    assert window.records is None
+    window.open_demo("dehydrated_dog")  # untouched: nothing to ask about
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.new_patient()
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.4))
+    asked = []
+    answer({"cannot be kept": lambda: asked.append(1) or QMessageBox.StandardButton.Cancel})
+    window.new_patient()
+    assert asked and window.session.observations  # cancelled: the weight stays
+    answer({"cannot be kept": QMessageBox.StandardButton.Discard})
+    window.new_patient()
+    assert window.session.request is None and window.session.observations == []
+
+
+def test_with_no_records_closing_with_unkept_work_asks_first(
+    broken_records, qtbot, planner, answer
+):
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=9.0)  # changed since opened
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 9.0)
+    answer({"Close and lose them": QMessageBox.StandardButton.Cancel})
+    assert not window.close() and window.isVisible()
+    answer({"Close and lose them": QMessageBox.StandardButton.Discard})
+    assert window.close()
+
+
+def test_with_no_records_a_replan_is_unkept_work(broken_records, qtbot, planner, answer):
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.details.setCurrentWidget(window.course_holder)
+    window.session.add_observation(Observation(hour=4.0, weight_kg=24.6))
+    window.course_view.replan()  # nothing to save it in: re-planned, the earlier one in memory
+    assert len(window.session.versions) == 1 and window.session.observations == []
+    assert window._has_unsaved_work()
+    answer({"Close and lose them": QMessageBox.StandardButton.Discard})
+    assert window.close()

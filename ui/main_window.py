@@ -308,10 +308,12 @@ class MainWindow(QMainWindow):
         self.session.planChanged.connect(self._plan_opened)
         for changed in (self.session.planChanged, self.session.readinessChanged):
             changed.connect(self._remember_valid)
+        self._records_problem = ""  # why the records cannot be used, when they cannot
         try:
             self.records = Records.open()
         except RecordsError as exc:
             self.records = None
+            self._records_problem = exc.one_line()
             self.statusBar().showMessage(f"Records unavailable: {exc.one_line()}")
             return
         self._draft_timer = QTimer(self)
@@ -366,9 +368,7 @@ class MainWindow(QMainWindow):
     def _has_unsaved_work(self) -> bool:
         """Observations, or a plan changed since it was opened, not in a saved version; a
         plan opened from a draft or made by a re-plan, until it is saved; a write that
-        failed."""
-        if self.records is None:
-            return False
+        failed. With no records file, whatever would have been saved."""
         if self._write_error or self._version_behind:
             return True
         last = self._last_valid
@@ -384,6 +384,8 @@ class MainWindow(QMainWindow):
         or the command is cancelled. False when the work could not be kept either way."""
         if not self._has_unsaved_work():
             return True
+        if self.records is None:
+            return self._lose_unkept_work("Leave it")
         answer = QMessageBox.question(
             self, "vetfluid",
             "This plan, or what was recorded on it, is not saved as a version. Save it "
@@ -617,8 +619,11 @@ class MainWindow(QMainWindow):
         """The plan being replaced is in the records first, with its observations, so the
         patient's record shows what was given: saved now if it is not a saved version.
         False (nothing re-planned) when it is not saved."""
-        if self.records is None or self.session.plan is None:
-            return True  # no records to keep it in: the status bar says so
+        if self.session.plan is None:
+            return True  # nothing to re-plan from: the Course tab says so
+        if self.records is None:
+            self._next_is_unsaved = True  # kept nowhere: leaving it asks first
+            return True
         self._keep_edits()
         if not self._on_saved_version():
             answer = QMessageBox.question(
@@ -921,6 +926,19 @@ class MainWindow(QMainWindow):
         elif geometry is None:
             self.resize(1360, 860)
 
+    def _lose_unkept_work(self, action: str) -> bool:
+        """With no records file nothing can be kept: True when the user lets it go."""
+        answer = QMessageBox.warning(
+            self, "vetfluid",
+            "The records file cannot be used, so this plan and what was recorded on it "
+            f"cannot be kept: {self._records_problem}.\n\n{action} and lose them? To keep "
+            "them, choose Cancel: File ▸ Save plan request keeps the plan; File ▸ Export ▸ "
+            "Observations as CSV keeps the observations.",
+            QMessageBox.StandardButton.Discard | QMessageBox.StandardButton.Cancel,
+            QMessageBox.StandardButton.Cancel,
+        )  # fmt: skip
+        return answer == QMessageBox.StandardButton.Discard
+
     def _close_losing_work(self) -> bool:
         """Asked when closing and the work can be written nowhere; True closes anyway."""
         self._draft_timer.stop()  # no retry while asking: one would mark the draft a crash
@@ -942,7 +960,11 @@ class MainWindow(QMainWindow):
         settings.setValue("size", self.size())
         if self.session is not None:
             settings.setValue("splitter", self.splitter.saveState())
-            if self.records is not None:
+            if self._records_problem and self._has_unsaved_work():
+                if not self._lose_unkept_work("Close"):
+                    event.ignore()
+                    return
+            elif self.records is not None:
                 self._draft_timer.stop()
                 self._save_draft(closed=True)  # unsaved work is offered back at the next start
                 if self._write_error and not self._close_losing_work():
