@@ -92,6 +92,7 @@ TRIMMED_PROBE = textwrap.dedent(
     for source in Path("ui").glob("*.py"):
         used |= set(re.findall(r"\\bpg\\.(\\w+)", source.read_text(encoding="utf-8")))
     loaded = [n for n in loader._UNUSED_PARTS if n in sys.modules]
+    opengl_loaded = [n for n in loader._OPENGL if n in sys.modules]
     names_read = loader._trimmed_names.cache_info().currsize  # before the probing below
     image_item = "ImageItem" in vars(pg)
     opengl_real = all(
@@ -108,12 +109,39 @@ TRIMMED_PROBE = textwrap.dedent(
         pg.ImageView.__module__ == "pyqtgraph.imageview.ImageView",
         not hasattr(pg, "NoSuchItem"),
     ]
+    # the trimmed parts reached any other way work too, and OpenGL once it is switched on
+    import pyqtgraph.graphicsItems as items
+    from pyqtgraph.graphicsItems import GradientEditorItem as gradients
+    curve = pg.PlotCurveItem(x=[0, 1, 2], y=[0, 1, 0])
+    table = pg.CheckTable(["a", "b"])
+    table.updateRows(["r1"])  # builds a VerticalLabel, another trimmed part
+    parts_whole = [
+        pg.imageview.ImageView.__module__ == "pyqtgraph.imageview.ImageView",
+        gradients.GradientEditorItem is pg.GradientEditorItem,
+        items.LinearRegionItem.LinearRegionItem is pg.LinearRegionItem,
+        type(pg.CurveArrow(curve)).__name__ == "CurveArrow",  # CurvePoint's own ArrowItem
+        len(table.rowWidgets) == 1,
+        not hasattr(items, "NoSuchPart"),
+    ]
+    gl = importlib.import_module("PySide6.QtOpenGL")
+    gl_widgets = importlib.import_module("PySide6.QtOpenGLWidgets")
+    view = pg.GraphicsLayoutWidget()
+    view.useOpenGL(True)
+    opengl_on = [
+        isinstance(view.viewport(), gl_widgets.QOpenGLWidget),
+        pg.Qt.QtWidgets.QOpenGLWidget is gl_widgets.QOpenGLWidget,
+        pg.Qt.QtOpenGLWidgets is gl_widgets,
+        sys.modules["pyqtgraph.graphicsItems.PlotCurveItem"].QtOpenGL is gl,
+    ]
     print(json.dumps({
         "drawn": drawn,
         "used": sorted(used),
         "missing": sorted(n for n in used if not hasattr(pg, n)),
         "window_uses": loader.WINDOW_USES,
         "parts_loaded": loaded,
+        "opengl_loaded": opengl_loaded,
+        "parts_whole": parts_whole,
+        "opengl_on": opengl_on,
         "names_read": names_read,
         "image_item": image_item,
         "opengl_real_later": opengl_real,
@@ -154,10 +182,13 @@ def test_the_window_loads_pyqtgraph_without_the_parts_it_never_uses():
     assert set(probe["used"]) <= set(probe["window_uses"]), "the loader checks all of them"
     # nothing of the trimmed parts was loaded or even looked up while the window worked
     assert probe["parts_loaded"] == [] and not probe["image_item"]
-    assert probe["names_read"] == 0
+    assert probe["opengl_loaded"] == [] and probe["names_read"] == 0
     # afterwards the real modules import, and pg gives their names on first use
     assert probe["opengl_real_later"] and probe["roi_real_later"]
     assert all(probe["real_on_first_use"]), probe["real_on_first_use"]
+    # every way of reaching a part gets the real one; OpenGL, switched on, is the real one
+    assert all(probe["parts_whole"]), probe["parts_whole"]
+    assert all(probe["opengl_on"]), probe["opengl_on"]
 
 
 def test_a_pyqtgraph_that_needs_a_trimmed_part_is_loaded_whole():
@@ -168,6 +199,7 @@ def test_a_pyqtgraph_that_needs_a_trimmed_part_is_loaded_whole():
     assert probe["image_item"], "loaded whole: the image item is there from the start"
     assert probe["opengl_real_later"] and probe["roi_real_later"]
     assert all(probe["real_on_first_use"]), probe["real_on_first_use"]
+    assert all(probe["parts_whole"]) and all(probe["opengl_on"])
 
 
 def test_layout_widgets_report_the_rectangle_pyqtgraph_would(qtbot):

@@ -18,10 +18,19 @@ colour bars, tree and table widgets, a remote-process view, and PySide6's OpenGL
 for a viewport the window never turns on, about 10 MiB of the window's memory. While it
 loads, the parts named in ``_UNUSED_PARTS`` are empty modules, and PySide6's two OpenGL
 modules are stand-ins (a ``QOpenGLWidget`` class no widget is an instance of, which is
-all pyqtgraph asks of them unless OpenGL is switched on). Afterwards every one of them
-can be imported for real. Should a pyqtgraph release need one of those parts to load,
-pyqtgraph is loaded whole instead: more memory, nothing missing
-(``tests/test_pyqtgraph_loader.py`` checks that the window's pyqtgraph is the trimmed one).
+all pyqtgraph asks of them unless OpenGL is switched on). Afterwards:
+
+* the empty parts are gone from pyqtgraph, and each part is imported for real the first
+  time it or one of its names is asked for (``pyqtgraph.ImageItem``, ``pyqtgraph.imageview``,
+  ``from pyqtgraph.graphicsItems import ROI``);
+* the first view that turns OpenGL on swaps the stand-ins, wherever pyqtgraph holds
+  them, for PySide6's real modules, and imports pyqtgraph's OpenGL helpers again on top
+  of them (:func:`_opengl_when_switched_on`).
+
+Should a pyqtgraph release need one of those parts to load, or keep one anywhere but in
+its package, pyqtgraph is loaded whole instead: more memory, nothing missing
+(``tests/test_pyqtgraph_loader.py`` checks that the window's pyqtgraph is the trimmed one,
+and that the trimmed parts and OpenGL work when asked for).
 
 Import ``pg`` from here, never ``pyqtgraph`` itself, so this runs first.
 """
@@ -102,7 +111,7 @@ def _nothing_to_list() -> list[str]:
 
 class _Placeholder:
     """What a trimmed part gives a name imported from it while pyqtgraph loads; it must end
-    up only in pyqtgraph's own namespace, where it is removed (:func:`_import_trimmed`)."""
+    up only in pyqtgraph's own namespace, where it is removed (:func:`_let_go_of_parts`)."""
 
     def __init__(self, part: str, name: str) -> None:
         self.part, self.name = part, name
@@ -142,11 +151,21 @@ class _EmptyParts(importlib.abc.MetaPathFinder, importlib.abc.Loader):
 
 def _opengl_stand_ins() -> dict[str, types.ModuleType]:
     """PySide6's OpenGL modules as pyqtgraph sees them with OpenGL off: one widget class,
-    never instantiated, that pyqtgraph subclasses and tests drawing widgets against."""
-    widgets = types.ModuleType(_OPENGL[1], "stands in while pyqtgraph loads (OpenGL is off)")
-    widgets.QOpenGLWidget = type("QOpenGLWidget", (QtWidgets.QWidget,), {})
-    opengl = types.ModuleType(_OPENGL[0], "stands in while pyqtgraph loads (OpenGL is off)")
-    return {_OPENGL[0]: opengl, _OPENGL[1]: widgets}
+    never instantiated, that pyqtgraph subclasses and tests drawing widgets against. Any
+    other name is the real module's, imported when first asked for."""
+    stand_ins = {}
+    for name in _OPENGL:
+        stand_in = types.ModuleType(name, "stands in for PySide6's own until OpenGL is on")
+        stand_in.__getattr__ = functools.partial(_real_attribute, name)
+        stand_ins[name] = stand_in
+    stand_ins[_OPENGL[1]].QOpenGLWidget = type("QOpenGLWidget", (QtWidgets.QWidget,), {})
+    return stand_ins
+
+
+def _real_attribute(module: str, name: str) -> object:
+    if name.startswith("__"):  # the import system's own questions get no answer
+        raise AttributeError(name)
+    return getattr(importlib.import_module(module), name)
 
 
 def _import_trimmed() -> types.ModuleType:
@@ -159,16 +178,14 @@ def _import_trimmed() -> types.ModuleType:
     sys.meta_path.insert(0, parts)
     try:
         pyqtgraph = importlib.import_module("pyqtgraph")
-        for module in [m for n, m in sys.modules.items() if n.startswith("pyqtgraph.")]:
-            taken = [v for v in vars(module).values() if isinstance(v, _Placeholder)]
-            if taken:
-                raise ImportError(f"{module.__name__} takes {taken[0]!r}")
-        for name in [n for n, v in vars(pyqtgraph).items() if isinstance(v, _Placeholder)]:
-            delattr(pyqtgraph, name)  # loaded on first use, like the star-imported parts
+        _let_go_of_parts(parts.made)
         lacking = [name for name in WINDOW_USES if not hasattr(pyqtgraph, name)]
         if lacking:
             raise ImportError(f"trimmed pyqtgraph lacks {', '.join(lacking)}")
         pyqtgraph.__getattr__ = _load_on_first_use
+        for package in {part.rpartition(".")[0] for part in parts.made} - {"pyqtgraph"}:
+            sys.modules[package].__getattr__ = _parts_on_first_use(package)
+        _opengl_when_switched_on(pyqtgraph.GraphicsView, stand_ins)
         return pyqtgraph
     except Exception:
         for name in [n for n in sys.modules if n == "pyqtgraph" or n.startswith("pyqtgraph.")]:
@@ -184,9 +201,45 @@ def _import_trimmed() -> types.ModuleType:
                 del sys.modules[name]
 
 
+def _pyqtgraph_modules() -> list[types.ModuleType]:
+    return [m for n, m in sys.modules.items() if n.partition(".")[0] == "pyqtgraph" and m]
+
+
+def _let_go_of_parts(made: list[str]) -> None:
+    """Take the empty parts out of pyqtgraph: each is deleted from its package, where the
+    import system bound it, and a name taken from one is deleted from pyqtgraph's own
+    namespace, so that the next use of either imports the real part. Raises ImportError
+    when any other pyqtgraph module holds an empty part or one of its names."""
+    empty = {id(sys.modules[name]): name for name in made}
+    for module in _pyqtgraph_modules():
+        for attribute, value in list(vars(module).items()):
+            part = empty.get(id(value))
+            if part == f"{module.__name__}.{attribute}" or (
+                isinstance(value, _Placeholder) and module.__name__ == "pyqtgraph"
+            ):
+                delattr(module, attribute)
+            elif part is not None or isinstance(value, _Placeholder):
+                raise ImportError(f"{module.__name__}.{attribute} is taken from a trimmed part")
+
+
+def _parts_on_first_use(package: str):  # noqa: ANN202 — a module's __getattr__
+    """A package's ``__getattr__``: a trimmed part of it is imported when first asked for,
+    as ``pyqtgraph.graphicsItems.ROI`` is in the whole pyqtgraph."""
+
+    def __getattr__(name: str) -> types.ModuleType:  # noqa: N807 (the module hook's name)
+        if f"{package}.{name}" not in _UNUSED_PARTS:
+            raise AttributeError(f"module {package!r} has no attribute {name!r}")
+        return importlib.import_module(f"{package}.{name}")  # also binds it in the package
+
+    return __getattr__
+
+
 def _load_on_first_use(name: str) -> object:
-    """Any name of a trimmed part (``ImageItem``, ``ROI`` …): the part is imported for real
-    the first time one of its names is asked for, and the name kept in pyqtgraph."""
+    """Any name of a trimmed part (``ImageItem``, ``ROI`` …), or a trimmed part itself
+    (``imageview``): the part is imported for real the first time it or one of its names
+    is asked for, and the name kept in pyqtgraph."""
+    if f"pyqtgraph.{name}" in _UNUSED_PARTS:
+        return importlib.import_module(f"pyqtgraph.{name}")
     part = _trimmed_names().get(name)
     if part is None:  # not ours: ``from pyqtgraph import submodule`` goes on to import it
         raise AttributeError(f"module 'pyqtgraph' has no attribute {name!r}")
@@ -226,6 +279,41 @@ def _exported(tree: ast.Module) -> list[str]:
         elif isinstance(node, ast.Import | ast.ImportFrom):
             defined += [(a.asname or a.name).split(".")[0] for a in node.names]
     return [name for name in defined if not name.startswith("_") and name != "*"]
+
+
+def _opengl_when_switched_on(view: type, stand_ins: dict[str, types.ModuleType]) -> None:
+    """The first ``view.useOpenGL(True)`` (pyqtgraph's one switch, which its
+    ``useOpenGL`` option also goes through) first puts PySide6's real OpenGL modules and
+    widget class wherever pyqtgraph holds a stand-in, and imports pyqtgraph's OpenGL
+    helpers again, so that its OpenGL viewport is built on the real widget."""
+    if not stand_ins:
+        return
+    switch = view.useOpenGL
+
+    @functools.wraps(switch)
+    def use_opengl(self: object, b: bool = True) -> None:  # noqa: FBT001, FBT002 (pyqtgraph's)
+        if b and view.useOpenGL is use_opengl:
+            view.useOpenGL = switch
+            real = {name: importlib.import_module(name) for name in stand_ins}
+            swaps = {id(stand_ins[name]): module for name, module in real.items()}
+            if _OPENGL[1] in stand_ins:
+                swaps[id(stand_ins[_OPENGL[1]].QOpenGLWidget)] = real[_OPENGL[1]].QOpenGLWidget
+            _rebind(swaps)
+            helpers = sys.modules.pop("pyqtgraph.Qt.OpenGLHelpers", None)
+            if helpers is not None:
+                _rebind({id(helpers): importlib.import_module("pyqtgraph.Qt.OpenGLHelpers")})
+        return switch(self, b)
+
+    view.useOpenGL = use_opengl
+
+
+def _rebind(swaps: dict[int, object]) -> None:
+    """Every name in pyqtgraph's modules bound to an object whose id is in ``swaps`` is
+    bound to its replacement instead."""
+    for module in _pyqtgraph_modules():
+        for attribute, value in list(vars(module).items()):
+            if id(value) in swaps:
+                setattr(module, attribute, swaps[id(value)])
 
 
 def load_pyqtgraph() -> types.ModuleType:
