@@ -262,3 +262,18 @@ def test_compare_gives_divided_doses_as_drawn_up():
             shown = rows[f"Phase {i + 1}"][side]
             assert f": {dose} mL every {p['interval_h']:g} h" in shown
             assert shown.endswith(f"{sites} sites of {per_site} mL")
+
+
+@pytest.mark.parametrize("stored", ['{"request": {"species_id": "dog"', "[1, 2]", "null"])
+def test_a_draft_that_cannot_be_read_is_set_aside_in_a_file_not_lost(tmp_path, stored):
+    """Cut short, or not a draft at all: never offered, never overwritten unseen; the text
+    is kept in an owner-only file beside the records, and the error says where."""
+    with Records.open(tmp_path / "records.sqlite") as records:
+        records._write("INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
+                       (stored, "2026-12-04T06:00:00+00:00"))  # fmt: skip
+        with pytest.raises(RecordsError, match="set aside as") as raised:
+            records.draft()
+        [kept] = tmp_path.glob("records-unreadable-draft-*.txt")
+        assert str(kept) in str(raised.value)
+        assert kept.read_text() == stored and kept.stat().st_mode & 0o777 == 0o600
+        assert records.draft() is None  # the next autosave writes over nothing unseen

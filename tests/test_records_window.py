@@ -887,3 +887,22 @@ def test_with_no_records_a_replan_is_unkept_work(broken_records, qtbot, planner,
     assert window._has_unsaved_work()
     answer({"Close and lose them": QMessageBox.StandardButton.Discard})
     assert window.close()
+
+
+def test_a_draft_that_cannot_be_read_is_set_aside_and_said_so(qtbot, planner, answer):
+    from ui.main_window import MainWindow
+
+    window = planner
+    window.records._write(
+        "INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
+        ('{"request": {"species_id": "do', "2026-12-04T06:00:00+00:00"),
+    )  # cut short by a full disk, say
+    told = []
+    answer({"set aside as": lambda: told.append(1)})
+    again = MainWindow()
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: bool(told))  # said at start, not a traceback
+    assert window.records.draft() is None
+    [kept] = window.records.path.parent.glob("records-unreadable-draft-*.txt")
+    assert kept.read_text() == '{"request": {"species_id": "do'

@@ -488,7 +488,11 @@ class MainWindow(QMainWindow):
         from vetfluid.records import RecordsError
         from vetfluid.serialize import request_from_dict
 
-        draft = self.records.draft() if self.records is not None else None
+        try:
+            draft = self.records.draft() if self.records is not None else None
+        except RecordsError as exc:  # unreadable: set aside in a file, nothing to restore
+            QMessageBox.warning(self, "vetfluid", f"The plan last worked on: {exc.one_line()}.")
+            return False
         if not draft:
             return False
         self._keep_edits()

@@ -405,8 +405,34 @@ class Records:
         )
 
     def draft(self) -> dict | None:
+        """The plan last being edited, or None. A stored draft that cannot be read as one
+        is set aside in a file beside the records, never offered and never overwritten
+        unseen; RecordsError says where it went."""
         row = self._db.execute("SELECT content_json FROM draft WHERE id = 1").fetchone()
-        return json.loads(row[0]) if row else None
+        if row is None:
+            return None
+        try:
+            content = json.loads(row[0])
+        except ValueError:
+            content = None
+        if isinstance(content, dict):
+            return content
+        stamp = datetime.now(UTC).strftime("%Y%m%dT%H%M%S")
+        kept = self.path.with_name(f"{self.path.stem}-unreadable-draft-{stamp}.txt")
+        try:
+            with os.fdopen(os.open(kept, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600), "w") as out:
+                out.write(str(row[0]))
+        except OSError as exc:
+            raise RecordsError(
+                f"the draft in {self.path.name} cannot be read, nor copied to {kept.name}: "
+                f"{exc.strerror}",
+                fix="free some disk space; the draft stays in the records until then",
+            ) from exc
+        self.clear_draft()
+        raise RecordsError(
+            f"the draft in {self.path.name} could not be read; it was set aside as {kept}",
+            fix="nothing was restored from it; the file holds what was stored",
+        )
 
     def clear_draft(self) -> None:
         self._write("DELETE FROM draft WHERE id = ?", (1,))
