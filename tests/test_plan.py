@@ -446,3 +446,21 @@ def test_added_potassium_on_a_gravity_drip_is_a_warning():
     assert "KCL_ON_GRAVITY_DRIP" not in codes(plan_for(species_id="cat", weight_kg=4, serum_k=3.0))
     no_kcl = plan_for(species_id="cat", weight_kg=4, device="gravity", drop_factor=60)
     assert "KCL_ON_GRAVITY_DRIP" not in codes(no_kcl)  # no serum K, nothing added
+
+
+@pytest.mark.parametrize(
+    ("replace_hours", "dehydration", "flagged"),
+    [(4, 8, True), (5.9, 8, True), (6, 8, False), (12, 8, False), (4, 0, False)],
+)
+def test_a_deficit_replaced_faster_than_the_guidelines_is_a_soft_limit(
+    replace_hours, dehydration, flagged
+):
+    """Davis 2013 (AAHA/AAFP): the deficit over 6–8 h once shock is stabilised at the
+    fastest; Pardo 2024 (AAHA): rehydration over 12–24 h. No deficit, nothing to flag."""
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=dehydration,
+                    replace_hours=replace_hours)  # fmt: skip
+    assert ("DEFICIT_REPLACED_FAST" in codes(plan)) is flagged
+    if flagged:
+        finding = next(f for f in plan.findings if f.code == "DEFICIT_REPLACED_FAST")
+        assert finding.severity == "soft" and finding.source_id == "davis2013"
+        assert f"{replace_hours:g} h" in finding.message and "1600 mL" in finding.message

@@ -459,6 +459,24 @@ def check_budget_against_maintenance(
     )
 
 
+def check_replacement_speed(ledger: Ledger, *, deficit_ml: float, replace_hours: float) -> None:
+    """A deficit replaced faster than the guidelines go: Davis 2013 replaces it over 6–8 h
+    once shock is stabilised at the fastest; Pardo 2024 rehydrates over 12–24 h. Shock is
+    treated with boluses (the resuscitation phase), not by replacing the deficit faster."""
+    floor = limit("deficit_min_replace_hours")
+    if deficit_ml <= 0 or replace_hours >= floor.value:
+        return
+    ledger.add(
+        floor.severity,
+        "DEFICIT_REPLACED_FAST",
+        f"The deficit of {q(deficit_ml, 'mL')} is replaced over {replace_hours:g} h: faster "
+        f"than the guidelines, which take {floor.value:g} h at the fastest once shock is "
+        "stabilised (Davis 2013) and usually 12–24 h (Pardo 2024).",
+        "Treat shock with boluses and reassess; replace the deficit over 12–24 h.",
+        floor.source_id,
+    )
+
+
 def check_overload(
     ledger: Ledger,
     *,
