@@ -142,6 +142,22 @@ def test_search_finds_common_scientific_and_group_names(table):
     assert len(table.search("chelonian")) == 2
 
 
+def test_species_are_found_by_the_words_clinicians_use_for_their_groups(table):
+    """The group rows' common names: "turtle" finds the chelonians, "lizard" the squamates,
+    "reptile" every reptile (turtles included), "mammal" rodents and marsupials too."""
+    reptiles = {"bearded_dragon", "leopard_gecko", "green_iguana", "ball_python", "corn_snake",
+                "red_eared_slider", "hermanns_tortoise"}  # fmt: skip
+    assert {s.id for s in table.search("turtle")} == {"red_eared_slider", "hermanns_tortoise"}
+    assert "bearded_dragon" in {s.id for s in table.search("lizard")}
+    assert {s.id for s in table.search("reptile")} == reptiles
+    assert {"mongolian_gerbil", "sugar_glider", "dog"} <= {s.id for s in table.search("mammal")}
+    assert table.choice_label("red_eared_slider") == (
+        "Red-eared slider — Trachemys scripta elegans · turtles and tortoises, reptiles"
+    )
+    assert table.group_names("canary") == ["passerine birds"]  # "birds" is in it already
+    assert table.group_names("dog") == ["placental mammals"]
+
+
 # ---- broken files: errors name the file and line ---------------------------------------------
 @pytest.fixture()
 def data_copy(tmp_path):

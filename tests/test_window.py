@@ -76,6 +76,19 @@ def test_plan_a_gerbil_from_an_empty_form(qtbot, window):
     assert curves is not None
 
 
+def test_typing_a_group_word_offers_its_species(qtbot, window):
+    """A clinician types "turtle", not "chelonian": the suggestions are the two chelonians."""
+    line = window.patient.species_box.lineEdit()
+    qtbot.keyClicks(line, "turtle")
+    completer = window.patient.species_box.completer()
+    qtbot.waitUntil(completer.popup().isVisible)
+    offered = [
+        completer.completionModel().index(row, 0).data()
+        for row in range(completer.completionModel().rowCount())
+    ]
+    assert [name.split(" — ")[0] for name in offered] == ["Red-eared slider", "Hermann's tortoise"]
+
+
 def test_enter_or_tab_takes_the_one_species_the_text_names(qtbot, window):
     patient = window.patient
     line = patient.species_box.lineEdit()

@@ -140,10 +140,7 @@ class PatientView(QWidget):
         self.species_box.setToolTip("Type part of a common name, scientific name or group")
         self.species_box.lineEdit().setPlaceholderText("type to search, e.g. gerbil")
         for sid in session.table.species_ids():
-            sp = session.table.species(sid)
-            self.species_box.addItem(
-                f"{sp.common_name} — {sp.scientific_name} · {sp.taxon_group}", sid
-            )
+            self.species_box.addItem(session.table.choice_label(sid), sid)
         completer = QCompleter(self.species_box.model(), self.species_box)
         completer.setFilterMode(Qt.MatchFlag.MatchContains)
         completer.setCaseSensitivity(Qt.CaseSensitivity.CaseInsensitive)

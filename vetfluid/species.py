@@ -196,6 +196,24 @@ class SpeciesTable:
             current = self.species_by_id[current].parent
         return chain
 
+    def group_names(self, species_id: str) -> list[str]:
+        """The common names of the groups a species belongs to, nearest first, in lower
+        case ("lizards and snakes", "reptiles"); a name already within a nearer one is
+        left out ("passerine birds" holds "birds")."""
+        names: list[str] = []
+        for group in self.lineage(species_id)[1:]:
+            name = self.species_by_id[group].common_name.lower()
+            if not any(name in nearer for nearer in names):
+                names.append(name)
+        return names
+
+    def choice_label(self, species_id: str) -> str:
+        """How a species is offered for choosing: common name, scientific name and its
+        groups in words a clinician searches by ("Red-eared slider — Trachemys scripta
+        elegans · turtles and tortoises, reptiles")."""
+        sp = self.species(species_id)
+        return f"{sp.common_name} — {sp.scientific_name} · {', '.join(self.group_names(sp.id))}"
+
     # ---- values ---------------------------------------------------------------
     def get(self, species_id: str, parameter: str) -> SpeciesValue | None:
         """The effective value, or None when neither the species nor a group has it."""
@@ -267,16 +285,14 @@ class SpeciesTable:
             yield from self.effective(species_id).values()
 
     def search(self, text: str) -> list[Species]:
-        """Species whose common name, scientific name, group or id contains ``text``."""
+        """Species whose id, common or scientific name, taxon group or the name of a group
+        it belongs to (:meth:`choice_label`) contains ``text``."""
         needle = text.strip().lower()
         return [
             s
             for s in self.species_by_id.values()
             if s.rank == "species"
-            and any(
-                needle in hay.lower()
-                for hay in (s.id, s.common_name, s.scientific_name, s.taxon_group)
-            )
+            and any(needle in hay.lower() for hay in (s.id, s.taxon_group, self.choice_label(s.id)))
         ]
 
 
