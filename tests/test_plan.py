@@ -464,3 +464,17 @@ def test_a_deficit_replaced_faster_than_the_guidelines_is_a_soft_limit(
         finding = next(f for f in plan.findings if f.code == "DEFICIT_REPLACED_FAST")
         assert finding.severity == "soft" and finding.source_id == "davis2013"
         assert f"{replace_hours:g} h" in finding.message and "1600 mL" in finding.message
+
+
+def test_a_findings_estimate_outside_dogs_and_cats_says_what_it_rests_on():
+    """DiBartola 2012 Table 14-4 is a small-animal (dog and cat) table: for a bearded dragon
+    the estimate says so; for a dog it does not."""
+    findings = ("skin_return_delayed",)
+    dragon = plan_for(species_id="bearded_dragon", weight_kg=0.4, dehydration_findings=findings)
+    dog = plan_for(species_id="dog", weight_kg=20, dehydration_findings=findings)
+    said = {p.request.species_id: next(f.message for f in p.findings
+                                       if f.code == "DEHYDRATION_FROM_FINDINGS")
+            for p in (dragon, dog)}  # fmt: skip
+    assert "written for dogs and cats" in said["bearded_dragon"]
+    assert "bearded dragon" in said["bearded_dragon"]
+    assert "written for dogs and cats" not in said["dog"]

@@ -632,3 +632,16 @@ def test_module_sources_read_while_building_are_not_kept(tmp_path, monkeypatch):
         assert linecache.getline(str(module), 1) == "VALUE = 1\n"  # tracebacks still read it
     assert linecache.cache is original
     assert str(module) not in linecache.cache
+
+
+def test_the_findings_estimate_says_when_its_bands_are_not_for_this_species(qtbot, window):
+    patient = window.patient
+    patient.species_box.lineEdit().setText("Bearded dragon")
+    patient._species_typed()
+    patient.finding_boxes["skin_return_delayed"].setChecked(True)
+    assert "written for dogs and cats" in patient.estimate_label.text()
+    assert "bearded dragon" in patient.estimate_label.text()
+    patient.species_box.lineEdit().setText("Dog")
+    patient._species_typed()
+    assert "6–8 %" in patient.estimate_label.text()
+    assert "written for dogs and cats" not in patient.estimate_label.text()

@@ -30,7 +30,7 @@ from PySide6.QtWidgets import (
 from ui.session import PlanSession
 from vetfluid.errors import InputError
 from vetfluid.formatting import format_number, format_quantity
-from vetfluid.hydration import estimate_dehydration, load_findings
+from vetfluid.hydration import estimate_dehydration, findings_caveat, load_findings
 from vetfluid.units import (
     WEIGHT_UNITS,
     parse_weight_kg,
@@ -146,6 +146,14 @@ class PatientView(QWidget):
         completer.setCaseSensitivity(Qt.CaseSensitivity.CaseInsensitive)
         completer.setCompletionMode(QCompleter.CompletionMode.PopupCompletion)
         self.species_box.setCompleter(completer)
+        # the suggestions as wide as the longest choice: its group words must not be cut off
+        widest = max(
+            (self.species_box.fontMetrics().horizontalAdvance(self.species_box.itemText(i))
+             for i in range(self.species_box.count())),
+            default=0,
+        ) + 4 * self.species_box.fontMetrics().averageCharWidth()  # fmt: skip
+        completer.popup().setMinimumWidth(widest)
+        self.species_box.view().setMinimumWidth(widest)
         completer.activated[str].connect(self._species_text_chosen)
         self.species_box.activated.connect(self._species_index_chosen)
         # Enter or Tab after typing part of a name takes the species it names, if only one
@@ -408,6 +416,7 @@ class PatientView(QWidget):
             with QSignalBlocker(self.weight_edit):
                 self.weight_edit.setText(format_number(weight_in_unit(weight, unit), decimals=4))
         self.session.update(species_id=sid)
+        self._show_estimate(self._chosen_findings())  # its caveat depends on the species
 
     def _weight_changed(self, *_: object) -> None:
         text = self.weight_edit.text().strip()
@@ -448,10 +457,16 @@ class PatientView(QWidget):
         self.dehydration_field.setPlaceholderText(
             f"{estimate.suggested_percent:g} from findings — not confirmed"
         )
+        sid = self.session.inputs.get("species_id")
+        caveat = (
+            findings_caveat(sid, self.session.table.species(sid).common_name)
+            if sid in self.session.table.species_by_id
+            else ""
+        )
         self.estimate_label.setText(
             f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % "
             f"(DiBartola 2012, Table 14-4). The plan uses {estimate.suggested_percent:g}\u00a0% "
-            "until you confirm it: click the button or type the % above."
+            f"until you confirm it: click the button or type the % above. {caveat}".rstrip()
         )
         self.use_estimate.setText(f"Use {estimate.suggested_percent:g} %")
         self.use_estimate.setEnabled(True)

@@ -22,6 +22,21 @@ from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.paths import resource_dir
 
+# The findings table comes from a text on dogs and cats (DiBartola 2012); vetfluid ships
+# no bands for other species.
+FINDINGS_WRITTEN_FOR = ("dog", "cat")
+
+
+def findings_caveat(species_id: str, common_name: str) -> str:
+    """What an estimate from the findings rests on, for a species the table was not written
+    for; empty for dogs and cats."""
+    if species_id in FINDINGS_WRITTEN_FOR:
+        return ""
+    return (
+        "These bands were written for dogs and cats (DiBartola 2012); vetfluid has none for "
+        f"the {common_name.lower()}, so take the estimate as a rough guide."
+    )
+
 
 @dataclass(frozen=True, kw_only=True)
 class ClinicalFinding:

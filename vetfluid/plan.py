@@ -361,7 +361,7 @@ def _bag(request: PlanRequest, kcl_mmol_per_l: float) -> fluids.Fluid:
 
 
 def _dehydration(
-    ledger: Ledger, request: PlanRequest
+    ledger: Ledger, request: PlanRequest, *, species_name: str
 ) -> tuple[float, hydration.DehydrationEstimate | None]:
     """The % used: entered, else the low end of the findings band, else 0.
 
@@ -381,7 +381,8 @@ def _dehydration(
         "soft",
         "DEHYDRATION_FROM_FINDINGS",
         f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % dehydration; "
-        f"the plan uses {estimate.suggested_percent:g} %, not yet confirmed.",
+        f"the plan uses {estimate.suggested_percent:g} %, not yet confirmed. "
+        + hydration.findings_caveat(request.species_id, species_name),
         f"Enter the dehydration % yourself to confirm it ({estimate.suggested_percent:g} % or "
         "another), or acknowledge why the estimate stands.",
         estimate.source_id,
@@ -592,7 +593,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     )  # fmt: skip
     ledger.use(*maint.provenance)
     safety.check_temperature(ledger, request.body_temp_c, maint)
-    percent, estimate = _dehydration(ledger, request)
+    species_name = table.species(request.species_id).common_name
+    percent, estimate = _dehydration(ledger, request, species_name=species_name)
     deficit = hydration.deficit_ml(w, percent)
     background = maint.ml_per_h + request.losses_ml_per_day / 24.0
 
