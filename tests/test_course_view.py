@@ -390,3 +390,20 @@ def test_replan_with_no_plan_says_so_and_makes_no_version(qtbot, window):
     window.course_view.replan()
     assert "no plan to re-plan from" in window.course_view.message.text()
     assert window.session.versions == []
+
+
+def test_an_observation_dated_in_the_future_is_refused_and_says_why(qtbot, window):
+    """The plan is on the calendar: an hour that has not come yet cannot hold a measurement."""
+    import dataclasses
+    from datetime import datetime, timedelta
+
+    tomorrow = datetime.now() + timedelta(days=1)  # noqa: DTZ005 — as the window reads it
+    request = dataclasses.replace(
+        window.session.plan.request, start_date=tomorrow.date(), start_time=tomorrow.time()
+    )
+    window.session.replace_request(request)
+    qtbot.waitUntil(lambda: window.session.plan.request.start_date == tomorrow.date())
+    view = window.course_view
+    record(view, 2.0, "heart_rate_per_min", 120)
+    assert "still to come" in view.message.text() and "set the time" in view.message.text()
+    assert window.session.observations == []

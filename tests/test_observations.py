@@ -324,3 +324,24 @@ def test_whole_numbers_from_a_plan_file_take_the_next_measurement():
 
     observed = [Observation(hour=8.0, urine_ml=30.0, urine_period_h=4.0)]
     assert measured_outputs(observed, period_h=4, earlier=((70, 0),)) == ((70.0, 0.0), (30.0, 0.0))
+
+
+def test_an_observation_dated_after_now_is_refused_when_the_plan_is_on_the_calendar():
+    """A measurement cannot have been made yet (our rule, no source; 10 min of clock slack)."""
+    from dataclasses import replace
+    from datetime import date, datetime, time
+
+    from vetfluid.observations import CLOCK_SLACK
+
+    request = replace(DEMOS["dehydrated_dog"].request, start_date=date(2026, 12, 4),
+                      start_time=time(8, 0))  # fmt: skip
+    plan = build_plan(request)
+    now = datetime(2026, 12, 4, 11, 0)
+    check_observation(plan, Observation(hour=3.0, heart_rate_per_min=120), now=now)
+    slack_h = CLOCK_SLACK.total_seconds() / 3600
+    check_observation(plan, Observation(hour=3.0 + slack_h, heart_rate_per_min=120), now=now)
+    with pytest.raises(InputError, match="2026-12-04 12:00, still to come"):
+        check_observation(plan, Observation(hour=4.0, heart_rate_per_min=120), now=now)
+    # a plan with a clock but no date cannot tell: accepted
+    undated = build_plan(replace(request, start_date=None))
+    check_observation(undated, Observation(hour=40.0, heart_rate_per_min=120), now=now)

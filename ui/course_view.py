@@ -10,6 +10,7 @@ it is recorded. Everything else (alerts, curves) is recomputed by the core.
 from __future__ import annotations
 
 from collections.abc import Callable
+from datetime import datetime
 
 from PySide6.QtCore import QDateTime, QEvent, QSignalBlocker, Qt
 from PySide6.QtWidgets import (
@@ -387,7 +388,10 @@ class CourseView(QWidget):
             extra = {"urine_period_h": self.period.value()} if key == "urine_ml" else {}
             observation = Observation(hour=self.hour.value(), **{key: value}, **extra)
             if plan is not None:
-                check_observation(plan, observation, weight_unit=self.weight_unit.currentText())
+                check_observation(
+                    plan, observation, weight_unit=self.weight_unit.currentText(),
+                    now=datetime.now(),  # noqa: DTZ005 — the plan's times are the ward's local times
+                )  # fmt: skip
         except ValueError:
             self.message.setText(f"⚠ {text!r} is not a number — type digits, e.g. 21.4")
             return

@@ -54,6 +54,9 @@ DEFICIT_CLOSING_FRACTION = 0.5  # our rule of thumb, no source
 # AAHA Fluid Therapy Guidelines), so a real change within a plan stays well inside it,
 # while a g/kg slip (1000), lb/kg (2.2) or a misplaced decimal point (10) lies outside.
 WEIGHT_PLAUSIBLE_FACTOR = 1.5
+# How far past the workstation's clock an observation may be dated: clocks on the ward and
+# the workstation differ by a few minutes. Our choice, no source.
+CLOCK_SLACK = timedelta(minutes=10)
 # Measured outputs this close (mL) are the same measurement (:func:`outputs_agree`).
 OUTPUTS_SAME_WITHIN_ML = 1e-6
 
@@ -188,13 +191,27 @@ def _implausible_weight(
     )
 
 
-def check_observation(plan: Plan, observation: Observation, *, weight_unit: str = "kg") -> None:
+def check_observation(
+    plan: Plan, observation: Observation, *, weight_unit: str = "kg", now: datetime | None = None
+) -> None:
     """Refuse an observation that cannot be this patient's before it is recorded.
 
     A measured weight beyond :data:`WEIGHT_PLAUSIBLE_FACTOR` of the plan's entered weight
     (either way) raises :class:`InputError` naming both weights, in ``weight_unit`` (the
-    unit it was typed in), and what to fix. Other quantities are checked by
+    unit it was typed in), and what to fix. So does an observation dated after ``now``
+    (by more than :data:`CLOCK_SLACK`), when the plan is on the calendar: it records a
+    measurement, which cannot have been made yet. Other quantities are checked by
     :class:`Observation` itself."""
+    moment = plan.moment_at(observation.hour)
+    if now is not None and moment is not None and moment > now + CLOCK_SLACK:
+        raise InputError(
+            f"hour {observation.hour:g} of the plan is {moment:%Y-%m-%d %H:%M}, still to come "
+            f"(it is now {now:%Y-%m-%d %H:%M}); an observation records what was measured, so "
+            "it was not recorded",
+            field="hour",
+            value=observation.hour,
+            fix="set the time the measurement was taken",
+        )
     weight = observation.weight_kg
     if weight is None or weight_is_plausible(measured_kg=weight, entered_kg=plan.request.weight_kg):
         return
