@@ -478,3 +478,22 @@ def test_a_findings_estimate_outside_dogs_and_cats_says_what_it_rests_on():
     assert "written for dogs and cats" in said["bearded_dragon"]
     assert "bearded dragon" in said["bearded_dragon"]
     assert "written for dogs and cats" not in said["dog"]
+
+
+@pytest.mark.parametrize(
+    ("species_id", "weight_kg", "device", "suggested"),
+    [("ferret", 1.0, None, True), ("ferret", 1.0, "gravity", True),
+     ("ferret", 1.0, "syringe", False), ("dog", 20, None, False)],
+)  # fmt: skip
+def test_a_line_slower_than_a_few_mL_an_hour_suggests_a_syringe_pump(
+    species_id, weight_kg, device, suggested
+):
+    """Common practice, no source: below 5 mL/h (safety_limits.csv) a syringe pump."""
+    extra = {"drop_factor": 60} if device == "gravity" else {}
+    plan = plan_for(species_id=species_id, weight_kg=weight_kg, device=device, **extra)
+    assert ("SYRINGE_PUMP_SUGGESTED" in codes(plan)) is suggested
+    if suggested:
+        finding = next(f for f in plan.findings if f.code == "SYRINGE_PUMP_SUGGESTED")
+        slowest = min(p.rate_ml_per_h for p in plan.phases if p.rate_ml_per_h)
+        assert slowest < 5 and finding.severity == "info"
+        assert "common practice, no source" in finding.message

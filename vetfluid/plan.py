@@ -685,6 +685,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         ledger, budget=budget, maintenance_ml_per_day=maint.ml_per_day
     )
     safety.check_replacement_speed(ledger, deficit_ml=deficit, replace_hours=request.replace_hours)
+    safety.suggest_syringe_pump(ledger, device=device, phases=tuple(fluid_phases))
     safety.check_overload(
         ledger, cardiac=request.cardiac_disease, renal=request.renal_disease, weight_kg=w,
         deficit_ml=deficit, replace_hours=request.replace_hours,

@@ -459,6 +459,25 @@ def check_budget_against_maintenance(
     )
 
 
+def suggest_syringe_pump(ledger: Ledger, *, device: str, phases: tuple[Phase, ...]) -> None:
+    """A line run slower than ``syringe_pump_below_ml_per_h`` by a volumetric pump or a drip:
+    suggest a syringe pump (common practice, no source)."""
+    below = limit("syringe_pump_below_ml_per_h")
+    rates = [p.rate_ml_per_h for p in phases if p.mode == "continuous" and p.rate_ml_per_h]
+    if device not in ("pump", "gravity") or not rates or min(rates) >= below.value:
+        return
+    how = "an infusion pump" if device == "pump" else "a gravity drip"
+    ledger.add(
+        below.severity,
+        "SYRINGE_PUMP_SUGGESTED",
+        f"The plan runs as slowly as {q(min(rates), 'mL/h')} by {how}; below "
+        f"{q(below.value, 'mL/h')} a syringe pump is usually used (common practice, no "
+        "source).",
+        "Use a syringe pump (device: syringe pump) if one is available.",
+        below.source_id,
+    )
+
+
 def check_replacement_speed(ledger: Ledger, *, deficit_ml: float, replace_hours: float) -> None:
     """A deficit replaced faster than the guidelines go: Davis 2013 replaces it over 6–8 h
     once shock is stabilised at the fastest; Pardo 2024 rehydrates over 12–24 h. Shock is
