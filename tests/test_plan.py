@@ -497,3 +497,16 @@ def test_a_line_slower_than_a_few_mL_an_hour_suggests_a_syringe_pump(
         slowest = min(p.rate_ml_per_h for p in plan.phases if p.rate_ml_per_h)
         assert slowest < 5 and finding.severity == "info"
         assert "common practice, no source" in finding.message
+
+
+@pytest.mark.parametrize(
+    ("weight_kg", "neonate", "expected"),
+    [(0.15, False, "hard"), (0.15, True, "soft"), (500, True, "hard"), (20, True, None)],
+)
+def test_a_neonate_below_the_adult_range_is_not_taken_for_a_unit_slip(weight_kg, neonate, expected):
+    """The dog range is the adults' (1–90 kg): a 150 g newborn puppy is far below it, which
+    for an adult means a g/kg slip (hard), for a neonate a weight to confirm (soft)."""
+    plan = plan_for(species_id="dog", weight_kg=weight_kg, neonate=neonate)
+    found = codes(plan)
+    severity = found.get("WEIGHT_UNIT_SLIP") or found.get("WEIGHT_OUTSIDE_RANGE")
+    assert severity == expected

@@ -585,7 +585,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         )
     ledger = Ledger(table, request.species_id, weight_kg=request.weight_kg)
     w = request.weight_kg
-    safety.check_weight(ledger, w)
+    safety.check_weight(ledger, w, neonate=request.neonate)
 
     maint = maintenance.maintenance(
         table, request.species_id, w, method=request.maintenance_method,

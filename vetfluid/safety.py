@@ -24,14 +24,24 @@ LINE_ROUTES = RESUSCITATION_ROUTES  # a continuous line: IV or IO
 NEAR_PLASMA_FACTOR = 1.2  # urine within 20% of plasma counts as "close to plasma" for the note
 
 
-def check_weight(ledger: Ledger, weight_kg: float) -> None:
-    """Soft outside the species' usual range, hard far outside it (the g/kg slip)."""
+def check_weight(ledger: Ledger, weight_kg: float, *, neonate: bool = False) -> None:
+    """Soft outside the species' usual range, hard far outside it (the g/kg slip). The
+    range is the adults': a neonate far below it is only soft (a newborn may weigh a
+    tenth of an adult or less), far above it still hard."""
     weight = ledger.value("body_weight_kg")
     low = weight.low if weight.low is not None else weight.number
     high = weight.high if weight.high is not None else weight.number
     factor = limit("weight_far_outside_factor")
     usual = f"{q(low, 'kg')}–{q(high, 'kg')}"
-    if weight_kg > high * factor.value or weight_kg < low / factor.value:
+    if neonate and weight_kg < low:
+        ledger.add(
+            "soft",
+            "WEIGHT_OUTSIDE_RANGE",
+            f"{q(weight_kg, 'kg')} is below the usual adult {usual} for this species, as a "
+            "neonate's weight may be.",
+            "Confirm the weight and unit (g or kg); acknowledge with a reason if it is right.",
+        )
+    elif weight_kg > high * factor.value or weight_kg < low / factor.value:
         ledger.add(
             "hard",
             "WEIGHT_UNIT_SLIP",
