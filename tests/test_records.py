@@ -277,3 +277,47 @@ def test_a_draft_that_cannot_be_read_is_set_aside_in_a_file_not_lost(tmp_path, s
         assert str(kept) in str(raised.value)
         assert kept.read_text() == stored and kept.stat().st_mode & 0o777 == 0o600
         assert records.draft() is None  # the next autosave writes over nothing unseen
+
+
+def test_a_draft_that_is_not_utf8_is_set_aside_byte_for_byte(tmp_path):
+    with Records.open(tmp_path / "records.sqlite") as records:
+        records._db.execute(
+            "INSERT INTO draft (id, content_json, saved_at) "
+            "VALUES (1, CAST(X'7B227265717565737422FF' AS TEXT), 'x')"
+        )
+        with pytest.raises(RecordsError, match="set aside as"):
+            records.draft()
+        [kept] = tmp_path.glob("records-unreadable-draft-*.txt")
+        assert kept.read_bytes() == b'{"request"\xff'
+
+
+def test_a_draft_that_cannot_be_set_aside_stays_and_is_not_overwritten(tmp_path, monkeypatch):
+    """No room for the copy: the draft stays where it is, saving a new draft is refused,
+    and once the copy can be written it is set aside as usual."""
+    import errno
+    import os
+
+    import vetfluid.records as records_module
+
+    real_open = os.open
+
+    def no_space(path, *args, **kwargs):
+        if "unreadable-draft" in str(path):
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(path))
+        return real_open(path, *args, **kwargs)
+
+    with Records.open(tmp_path / "records.sqlite") as records:
+        records._write("INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
+                       ("[cut", "2026-12-04T06:00:00+00:00"))  # fmt: skip
+        monkeypatch.setattr(records_module.os, "open", no_space)
+        with pytest.raises(RecordsError, match="nor copied"):
+            records.draft()
+        with pytest.raises(RecordsError, match="not replaced"):
+            records.save_draft({"request": None})
+        stored = records._db.execute("SELECT content_json FROM draft").fetchone()[0]
+        assert stored == "[cut"
+        monkeypatch.undo()
+        with pytest.raises(RecordsError, match="set aside as"):
+            records.draft()
+        records.save_draft({"request": None})  # the copy is safe: drafts are saved again
+        assert records.draft() == {"request": None}

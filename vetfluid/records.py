@@ -137,6 +137,7 @@ class Records:
     def __init__(self, connection: sqlite3.Connection, path: Path) -> None:
         self._db = connection
         self.path = path
+        self._unreadable_draft = False  # the stored draft could be neither read nor set aside
 
     # ---- opening ---------------------------------------------------------------------------
     @classmethod
@@ -397,6 +398,14 @@ class Records:
 
     # ---- the draft being edited ------------------------------------------------------------
     def save_draft(self, content: dict) -> None:
+        """Replace the draft; refused while the stored one can be neither read nor set
+        aside (:meth:`draft`), so that it is never overwritten unseen."""
+        if self._unreadable_draft:
+            raise RecordsError(
+                f"the draft in {self.path.name} can be neither read nor set aside, so it is "
+                "not replaced",
+                fix="free some disk space; vetfluid tries again",
+            )
         self._write(
             "INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)"
             " ON CONFLICT(id) DO UPDATE SET content_json = excluded.content_json,"
@@ -406,33 +415,58 @@ class Records:
 
     def draft(self) -> dict | None:
         """The plan last being edited, or None. A stored draft that cannot be read as one
-        is set aside in a file beside the records, never offered and never overwritten
-        unseen; RecordsError says where it went."""
-        row = self._db.execute("SELECT content_json FROM draft WHERE id = 1").fetchone()
+        (cut short, not UTF-8, not an object) is set aside in a file beside the records,
+        never offered and never overwritten unseen; RecordsError says where it went. While
+        it cannot be set aside it stays, and :meth:`save_draft` refuses to replace it."""
+        try:
+            row = self._db.execute(
+                "SELECT CAST(content_json AS BLOB) FROM draft WHERE id = 1"
+            ).fetchone()
+        except sqlite3.DatabaseError as exc:
+            raise RecordsError(
+                f"the draft in {self.path.name} cannot be read: {exc}",
+                fix="nothing was restored from it",
+            ) from exc
         if row is None:
             return None
+        stored = bytes(row[0])
         try:
-            content = json.loads(row[0])
-        except ValueError:
+            content = json.loads(stored.decode("utf-8"))
+        except ValueError:  # cut short, or not UTF-8 at all
             content = None
         if isinstance(content, dict):
             return content
-        stamp = datetime.now(UTC).strftime("%Y%m%dT%H%M%S")
-        kept = self.path.with_name(f"{self.path.stem}-unreadable-draft-{stamp}.txt")
-        try:
-            with os.fdopen(os.open(kept, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600), "w") as out:
-                out.write(str(row[0]))
-        except OSError as exc:
-            raise RecordsError(
-                f"the draft in {self.path.name} cannot be read, nor copied to {kept.name}: "
-                f"{exc.strerror}",
-                fix="free some disk space; the draft stays in the records until then",
-            ) from exc
+        kept = self._set_aside(stored)
+        self._unreadable_draft = False
         self.clear_draft()
         raise RecordsError(
             f"the draft in {self.path.name} could not be read; it was set aside as {kept}",
             fix="nothing was restored from it; the file holds what was stored",
         )
+
+    def _set_aside(self, stored: bytes) -> Path:
+        """Write an unreadable draft, byte for byte, to a new owner-only file beside the
+        records; RecordsError (and the draft kept in place) when it cannot be written."""
+        stamp = datetime.now(UTC).strftime("%Y%m%dT%H%M%S")
+        for attempt in range(100):
+            suffix = f"-{attempt}" if attempt else ""
+            kept = self.path.with_name(f"{self.path.stem}-unreadable-draft-{stamp}{suffix}.txt")
+            try:
+                handle = os.open(kept, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600)
+            except FileExistsError:
+                continue
+            except OSError as exc:
+                self._unreadable_draft = True
+                raise RecordsError(
+                    f"the draft in {self.path.name} cannot be read, nor copied to {kept.name}: "
+                    f"{exc.strerror}",
+                    fix="free some disk space; the draft stays in the records until then",
+                ) from exc
+            with os.fdopen(handle, "wb") as out:
+                out.write(stored)
+            return kept
+        self._unreadable_draft = True
+        raise RecordsError(f"the draft in {self.path.name} cannot be read, nor copied aside")
 
     def clear_draft(self) -> None:
         self._write("DELETE FROM draft WHERE id = ?", (1,))
