@@ -711,7 +711,9 @@ def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
     qtbot, planner, answer
 ):
     """The measurement changes the plan's outputs, as the version says it should: the plan
-    is still that version, the measurement is written to it, and a re-plan saves no copy."""
+    is still that version, the measurement is written to it, and reopening the version
+    builds the plan on screen. A re-plan first saves the plan as it has moved on (the
+    records hold version 1 as it was saved)."""
     from vetfluid.observations import Observation
 
     window = planner
@@ -728,15 +730,21 @@ def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
     window._save_draft()
     assert len(window.records.observations(version.id)) == 2
     assert window.records.draft() is None or not window._draft_is_ours()
-    window.details.setCurrentWidget(window.course_holder)
-    window.course_view.replan()  # asks nothing: the plan replaced is version 1 as it stands
-    assert len(window.session.versions) == 1
-    assert [v.version for v in window.records.versions(window.current_patient)] == [1]
-    # reopened, version 1 builds the plan that was on screen
-    answer({LEAVE: QMessageBox.StandardButton.No})
+    assert not window._has_unsaved_work()  # leaving asks nothing: version 1 rebuilds it
+    shown = window.session.plan.request
     window.load_version(window.current_patient, 1)
     qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
-    assert window._on_saved_version()
+    assert window.session.plan.request == shown and window._on_saved_version()
+    # a re-plan keeps the plan as it now stands: saved as version 2 first
+    window.details.setCurrentWidget(window.course_holder)
+    asked = []
+    answer({"moved on from its saved version": lambda: asked.append(1)
+            or QMessageBox.StandardButton.Save})  # fmt: skip
+    window.course_view.replan()
+    assert asked and len(window.session.versions) == 1
+    versions = window.records.versions(window.current_patient)
+    assert [v.version for v in versions] == [1, 2]
+    assert versions[1].request["measured_outputs"] == [[70.0, 0.0]]
 
 
 def _version_writes_fail(window):
@@ -874,7 +882,9 @@ def test_with_no_records_closing_with_unkept_work_asks_first(
     assert window.close()
 
 
-def test_with_no_records_a_replan_is_unkept_work(broken_records, qtbot, planner, answer):
+def test_with_no_records_a_replan_is_refused(broken_records, qtbot, planner, answer):
+    """A re-plan keeps the plan it replaces in the records: with none, its observations
+    would live only in memory, beyond what a plan file or an export keeps."""
     from vetfluid.observations import Observation
 
     window = planner
@@ -882,9 +892,33 @@ def test_with_no_records_a_replan_is_unkept_work(broken_records, qtbot, planner,
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.details.setCurrentWidget(window.course_holder)
     window.session.add_observation(Observation(hour=4.0, weight_kg=24.6))
-    window.course_view.replan()  # nothing to save it in: re-planned, the earlier one in memory
-    assert len(window.session.versions) == 1 and window.session.observations == []
+    told = []
+    answer({"Nothing was re-planned": lambda: told.append(1)})
+    window.course_view.replan()
+    assert told and window.session.versions == []
+    assert window.session.observations == [Observation(hour=4.0, weight_kg=24.6)]
+    answer({"Close and lose them": QMessageBox.StandardButton.Discard})
+    assert window.close()
+
+
+def test_with_no_records_a_plan_file_and_an_export_keep_the_work(
+    broken_records, qtbot, planner, answer, tmp_path
+):
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=9.0)
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 9.0)
+    assert window.write_request(tmp_path / "rex")
+    assert not window._has_unsaved_work()  # the file holds the plan as it is
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.4))
     assert window._has_unsaved_work()
+    assert window.export_csv("observations", tmp_path / "rex.csv")
+    assert not window._has_unsaved_work()  # the CSV holds them
+    window.session.add_observation(Observation(hour=3.0, weight_kg=24.5))
+    assert window._has_unsaved_work()  # one more, not exported
     answer({"Close and lose them": QMessageBox.StandardButton.Discard})
     assert window.close()
 
@@ -906,3 +940,62 @@ def test_a_draft_that_cannot_be_read_is_set_aside_and_said_so(qtbot, planner, an
     assert window.records.draft() is None
     [kept] = window.records.path.parent.glob("records-unreadable-draft-*.txt")
     assert kept.read_text() == '{"request": {"species_id": "do'
+
+
+def test_a_version_that_no_longer_builds_is_still_compared_with_what_it_stores(
+    qtbot, planner, answer
+):
+    """Reopened when a clinic override keeps it from building, then mended by the user: the
+    window compares the plan with the stored version, and raises nothing."""
+    import dataclasses
+
+    from vetfluid.overrides import set_override
+
+    window = planner
+    window.session.replace_request(
+        dataclasses.replace(DEMOS["small_gerbil"].request, device="divided")
+    )
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    assert window.save_version(name="Gerry", author="AB") == 1
+    patient = window.current_patient
+    window.new_patient()
+    # the clinic lowers the line weight: 65 g now gets a line by default
+    set_override(species_id="mongolian_gerbil", parameter="continuous_line_min_kg", value=0.05)
+    window.session.reload_table()
+    window.load_version(patient, 1)
+    assert window.session.plan is None  # divided boluses on an IV line: cannot be built
+    assert window._saved_version.request is not None
+    window.session.update(route="sc")  # the user picks the route: the plan builds
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    assert not window._on_saved_version()  # another route: not version 1
+    answer({LEAVE: QMessageBox.StandardButton.No})
+    assert window.close()
+
+
+def test_removing_a_saved_measurement_while_the_weight_is_retyped_leaves_the_version_alone(
+    qtbot, planner, answer
+):
+    """Version 1 counts 70 mL of urine in its outputs; removing that measurement while the
+    plan cannot be built makes another plan, so the version keeps its measurement and the
+    draft holds the change."""
+    import dataclasses
+
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.session.replace_request(
+        dataclasses.replace(DEMOS["renal_cat"].request, ins_and_outs_period_h=4.0)
+    )
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.add_observation(Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0))
+    qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
+    assert window.save_version(name="Tom", author="AB") == 1
+    version = window.records.versions(window.current_patient)[0]
+    window.session.update(weight_kg=None)  # the weight being retyped
+    qtbot.waitUntil(lambda: window.session.plan is None)
+    window.session.remove_observation(0)
+    window._draft_timer.stop()
+    window._save_draft()  # the autosave
+    assert len(window.records.observations(version.id)) == 1
+    assert window.records.draft()["observations"] == []
+    assert window._has_unsaved_work()

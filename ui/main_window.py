@@ -300,6 +300,7 @@ class MainWindow(QMainWindow):
         self._opened_request = None  # what was opened: the draft's plan while none can be built
         self._last_valid: tuple[object, bool] | None = None  # request, on the saved version
         self._write_error = ""  # why the work is written nowhere; empty once a write succeeds
+        self._observations_exported: tuple = ()  # with no records file: exported as CSV
         # why the observations are not yet in the saved version (the draft holds them)
         self._version_behind = ""
         self._plan_tag = ""  # marks the drafts this plan wrote
@@ -332,6 +333,7 @@ class MainWindow(QMainWindow):
         again by whoever opened it; the plan built next is the yardstick for unsaved work."""
         self._saved_version = None
         self._version_behind = ""  # the draft holds what that version lacks
+        self._observations_exported = ()  # with no records file: what was exported as CSV
         self._last_valid = None
         self._opening = True
         self._opened_request = _request
@@ -347,9 +349,35 @@ class MainWindow(QMainWindow):
 
     def _remember_valid(self, *_: object) -> None:
         """The last valid plan and whether it was the saved version: where observations
-        go while the plan cannot be built (a weight being retyped)."""
+        go while the plan cannot be built (a weight being retyped). Meanwhile a measurement
+        removed or added changes its outputs: it stays the saved version only while they
+        still follow from what is recorded."""
         if self.session.plan is not None:
             self._last_valid = (self.session.plan.request, self._on_saved_version())
+        elif self._last_valid is not None and self._last_valid[1]:
+            request = self._last_valid[0]
+            self._last_valid = (request, self._outputs_still_follow(request))
+
+    def _outputs_still_follow(self, request) -> bool:  # noqa: ANN001 — PlanRequest
+        """Whether ``request`` with the ins-and-outs outputs as they now stand is still what
+        reopening the saved version builds."""
+        from dataclasses import replace
+
+        from vetfluid.observations import follows_saved_request
+
+        inputs = self.session.inputs
+        try:
+            now = replace(
+                request,
+                ins_and_outs_period_h=inputs.get("ins_and_outs_period_h"),
+                measured_outputs=tuple(inputs.get("measured_outputs") or ()),
+            )
+        except VetfluidError:
+            return False
+        saved = self._saved_version
+        return saved is not None and follows_saved_request(
+            now, saved.request, self.session.observations
+        )
 
     def _on_saved_version(self) -> bool:
         """Whether the plan on screen is a saved version, unchanged since it was saved: the
@@ -368,13 +396,17 @@ class MainWindow(QMainWindow):
     def _has_unsaved_work(self) -> bool:
         """Observations, or a plan changed since it was opened, not in a saved version; a
         plan opened from a draft or made by a re-plan, until it is saved; a write that
-        failed. With no records file, whatever would have been saved."""
+        failed. With no records file, whatever is not in a plan file or an export."""
         if self._write_error or self._version_behind:
             return True
+        self._remember_valid()
         last = self._last_valid
         if last is not None and last[1]:  # the saved version, unchanged: written to it
             return False
-        if self.session.observations or self._opened_unsaved:
+        observed = tuple(self.session.observations)
+        if self.records is None and observed == self._observations_exported:
+            observed = ()  # exported as CSV: kept outside vetfluid
+        if observed or self._opened_unsaved:
             return True
         return last is not None and (last[0], self.session.acknowledged) != self._opened
 
@@ -607,11 +639,11 @@ class MainWindow(QMainWindow):
         # what each warning said when the version was saved: its reason covers that only
         said = {f.get("code"): f.get("message") for f in chosen.plan.get("findings", ())}
         wording = {code: said[code] for code in chosen.acknowledged if code in said}
-        self.session.replace_request(
-            request_from_dict(chosen.request), chosen.acknowledged, wording
-        )
+        stored = request_from_dict(chosen.request)
+        self.session.replace_request(stored, chosen.acknowledged, wording)
+        # what the version stores, even when it no longer builds (a clinic override since)
         self._saved_version = SavedVersion(
-            row_id=chosen.id, request=self.session.request, acknowledged=self.session.acknowledged
+            row_id=chosen.id, request=stored, acknowledged=self.session.acknowledged
         )
         self._remember_valid()
         unreadable = self._restore_observations(self.records.observations(chosen.id))
@@ -626,14 +658,29 @@ class MainWindow(QMainWindow):
         if self.session.plan is None:
             return True  # nothing to re-plan from: the Course tab says so
         if self.records is None:
-            self._next_is_unsaved = True  # kept nowhere: leaving it asks first
-            return True
+            QMessageBox.warning(
+                self, "vetfluid",
+                "A re-plan keeps the plan it replaces, with its observations, in the "
+                f"patient's record, and the records file cannot be used: "
+                f"{self._records_problem}.\n\nNothing was re-planned.",
+            )  # fmt: skip
+            return False
         self._keep_edits()
-        if not self._on_saved_version():
+        on_saved = self._on_saved_version()
+        # an ins-and-outs version whose outputs have moved on with the measurements: the
+        # records hold it as saved, so the plan as it now stands is saved before it goes
+        moved = on_saved and self.session.plan.request != self._saved_version.request
+        if not on_saved or moved:
+            why = (
+                "The plan being replaced has moved on from its saved version with the outputs "
+                "measured since."
+                if moved
+                else "The plan being replaced has not been saved as a version."
+            )
             answer = QMessageBox.question(
                 self, "vetfluid",
-                "The plan being replaced has not been saved as a version. A re-plan keeps it "
-                "in the patient's record, with its observations. Save it now?",
+                f"{why} A re-plan keeps it in the patient's record as it stands, with its "
+                "observations. Save it now?",
                 QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Cancel,
             )  # fmt: skip
             if answer != QMessageBox.StandardButton.Save or self.save_version() is None:
@@ -821,6 +868,8 @@ class MainWindow(QMainWindow):
         except OSError as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not save {path.name}:\n{exc}")
             return False
+        if self.records is None:  # kept in the file: no longer a plan that would be lost
+            self._opened = (plan.request, self.session.acknowledged)
         self.statusBar().showMessage(f"Saved {written}")
         return True
 
@@ -899,6 +948,8 @@ class MainWindow(QMainWindow):
         except OSError as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not write {path.name}:\n{exc}")
             return False
+        if what == "observations":
+            self._observations_exported = tuple(self.session.observations)
         self.statusBar().showMessage(f"Exported the {what} to {path}")
         return True
 
