@@ -123,8 +123,19 @@ TRIMMED_PROBE = textwrap.dedent(
         len(table.rowWidgets) == 1,
         not hasattr(items, "NoSuchPart"),
     ]
+    from pyqtgraph.Qt import QtWidgets as pg_widgets
+
+    class OnPyqtgraphsName(pg_widgets.QOpenGLWidget):  # as pyqtgraph.opengl's 3D view is
+        pass
+
     gl = importlib.import_module("PySide6.QtOpenGL")
     gl_widgets = importlib.import_module("PySide6.QtOpenGLWidgets")
+    opengl_names = [  # before OpenGL is switched on
+        isinstance(OnPyqtgraphsName(), gl_widgets.QOpenGLWidget),
+        isinstance(gl_widgets.QOpenGLWidget(), pg_widgets.QOpenGLWidget),
+        isinstance(pg_widgets.QOpenGLWidget(), gl_widgets.QOpenGLWidget),
+        not isinstance(pg.QtWidgets.QWidget(), pg_widgets.QOpenGLWidget),
+    ]
     view = pg.GraphicsLayoutWidget()
     view.useOpenGL(True)
     opengl_on = [
@@ -142,6 +153,7 @@ TRIMMED_PROBE = textwrap.dedent(
         "opengl_loaded": opengl_loaded,
         "parts_whole": parts_whole,
         "opengl_on": opengl_on,
+        "opengl_names": opengl_names,
         "names_read": names_read,
         "image_item": image_item,
         "opengl_real_later": opengl_real,
@@ -189,6 +201,7 @@ def test_the_window_loads_pyqtgraph_without_the_parts_it_never_uses():
     # every way of reaching a part gets the real one; OpenGL, switched on, is the real one
     assert all(probe["parts_whole"]), probe["parts_whole"]
     assert all(probe["opengl_on"]), probe["opengl_on"]
+    assert all(probe["opengl_names"]), probe["opengl_names"]
 
 
 def test_a_pyqtgraph_that_needs_a_trimmed_part_is_loaded_whole():
@@ -199,7 +212,7 @@ def test_a_pyqtgraph_that_needs_a_trimmed_part_is_loaded_whole():
     assert probe["image_item"], "loaded whole: the image item is there from the start"
     assert probe["opengl_real_later"] and probe["roi_real_later"]
     assert all(probe["real_on_first_use"]), probe["real_on_first_use"]
-    assert all(probe["parts_whole"]) and all(probe["opengl_on"])
+    assert all(probe["parts_whole"]) and all(probe["opengl_on"]) and all(probe["opengl_names"])
 
 
 def test_layout_widgets_report_the_rectangle_pyqtgraph_would(qtbot):

@@ -23,6 +23,9 @@ all pyqtgraph asks of them unless OpenGL is switched on). Afterwards:
 * the empty parts are gone from pyqtgraph, and each part is imported for real the first
   time it or one of its names is asked for (``pyqtgraph.ImageItem``, ``pyqtgraph.imageview``,
   ``from pyqtgraph.graphicsItems import ROI``);
+* pyqtgraph's names for the OpenGL widget class stand for the real one: a class built on
+  them, or a widget made from them, is PySide6's own; they recognise real OpenGL widgets
+  once PySide6 has loaded them (:class:`_RealClassOnUse`);
 * the first view that turns OpenGL on swaps the stand-ins, wherever pyqtgraph holds
   them, for PySide6's real modules, and imports pyqtgraph's OpenGL helpers again on top
   of them (:func:`_opengl_when_switched_on`).
@@ -162,6 +165,45 @@ def _opengl_stand_ins() -> dict[str, types.ModuleType]:
     return stand_ins
 
 
+class _RealClassOnUse:
+    """Stands for a PySide6 class in pyqtgraph's namespaces once pyqtgraph has loaded.
+    Nothing is an instance of it until PySide6 has loaded that class's module, so the
+    checks pyqtgraph makes as it paints cost nothing. Subclassing it, calling it or asking
+    it for an attribute imports the real class and uses that."""
+
+    def __init__(self, module: str, name: str) -> None:
+        self._module, self._name = module, name
+
+    def _real(self) -> type:
+        return getattr(importlib.import_module(self._module), self._name)
+
+    def _loaded(self) -> type | None:
+        module = sys.modules.get(self._module)
+        return getattr(module, self._name) if module is not None else None
+
+    def __instancecheck__(self, instance: object) -> bool:
+        real = self._loaded()
+        return real is not None and isinstance(instance, real)
+
+    def __subclasscheck__(self, subclass: type) -> bool:
+        real = self._loaded()
+        return real is not None and issubclass(subclass, real)
+
+    def __mro_entries__(self, bases: tuple) -> tuple[type]:
+        return (self._real(),)
+
+    def __call__(self, *args: object, **kwargs: object) -> object:
+        return self._real()(*args, **kwargs)
+
+    def __getattr__(self, name: str) -> object:
+        if name.startswith("__"):
+            raise AttributeError(name)
+        return getattr(self._real(), name)
+
+    def __repr__(self) -> str:
+        return f"<{self._module}.{self._name}, imported on first use>"
+
+
 def _real_attribute(module: str, name: str) -> object:
     if name.startswith("__"):  # the import system's own questions get no answer
         raise AttributeError(name)
@@ -185,6 +227,11 @@ def _import_trimmed() -> types.ModuleType:
         pyqtgraph.__getattr__ = _load_on_first_use
         for package in {part.rpartition(".")[0] for part in parts.made} - {"pyqtgraph"}:
             sys.modules[package].__getattr__ = _parts_on_first_use(package)
+        if _OPENGL[1] in stand_ins:  # pyqtgraph's names for the widget class: the real one
+            widgets = stand_ins[_OPENGL[1]]
+            real_on_use = _RealClassOnUse(_OPENGL[1], "QOpenGLWidget")
+            _rebind({id(widgets.QOpenGLWidget): real_on_use})
+            widgets.QOpenGLWidget = real_on_use
         _opengl_when_switched_on(pyqtgraph.GraphicsView, stand_ins)
         return pyqtgraph
     except Exception:
