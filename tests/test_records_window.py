@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+
 import pytest
 from PySide6.QtWidgets import QMessageBox
 
@@ -999,3 +1001,72 @@ def test_removing_a_saved_measurement_while_the_weight_is_retyped_leaves_the_ver
     assert len(window.records.observations(version.id)) == 1
     assert window.records.draft()["observations"] == []
     assert window._has_unsaved_work()
+
+
+def test_observations_a_version_refused_are_offered_back_into_that_version(qtbot, planner, answer):
+    """The draft kept them while the version was locked; at the next start they are
+    offered for that version, by its number and patient, and written into it."""
+    from ui.main_window import MainWindow
+    from vetfluid.observations import Observation
+
+    window = planner
+    saved = _saved_dog(qtbot, window)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    disk = _version_writes_fail(window)
+    assert window.close()  # the draft holds the weight: nothing asked
+    disk.undo()
+    asked = []
+    answer({"version 1 of Rex": lambda: asked.append(1) or QMessageBox.StandardButton.Yes})
+    again = MainWindow()
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: bool(asked) and again.session.plan is not None)
+    qtbot.waitUntil(lambda: again.records.observations(saved.id) != [])
+    assert again.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 24.2}]
+    assert again.records.draft() is None and again._on_saved_version()
+    assert [v.version for v in again.records.versions(again.current_patient)] == [1]
+
+
+@pytest.mark.parametrize(
+    "draft",
+    [
+        {"request": {"species_id": "dog", "weight_kg": "heavy"}, "observations": []},
+        {"request": None, "observations": {"hour": 2}},
+        {"observations": []},  # no request at all
+    ],
+)
+def test_a_draft_that_reads_but_cannot_be_restored_is_set_aside(qtbot, planner, answer, draft):
+    from ui.main_window import MainWindow
+
+    window = planner
+    window.records.save_draft(draft)
+    told = []
+    answer({"could not be restored": lambda: told.append(1)})
+    again = MainWindow()
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: bool(told))
+    assert again.records.draft() is None
+    [kept] = again.records.path.parent.glob("records-unreadable-draft-*.txt")
+    assert json.loads(kept.read_text()) == draft
+
+
+def test_a_retry_while_the_close_question_is_open_writes_the_draft_as_closed(
+    qtbot, planner, answer
+):
+    from vetfluid.observations import Observation
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    disk = _failing_writes(window)
+
+    def meanwhile():  # the disk frees up and a retry (an edit restarted it) runs
+        disk.undo()
+        window._save_draft()
+        return QMessageBox.StandardButton.No
+
+    answer({"Close anyway and lose it": meanwhile})
+    assert not window.close()
+    assert window.records.draft()["closed"]  # offered as left, not as a crash

@@ -304,6 +304,7 @@ class MainWindow(QMainWindow):
         # why the observations are not yet in the saved version (the draft holds them)
         self._version_behind = ""
         self._plan_tag = ""  # marks the drafts this plan wrote
+        self._closing = False  # asking whether to close: drafts written meanwhile are closed
         self._plans_opened = 0
         self.session.inputsReplaced.connect(self._plan_replaced)
         self.session.planChanged.connect(self._plan_opened)
@@ -461,6 +462,7 @@ class MainWindow(QMainWindow):
 
         if self.records is None:
             return
+        closed = closed or self._closing
         self._remember_valid()
         # while no plan has been built, what was opened (or, for a new patient, nothing)
         request, on_saved = self._last_valid or (self._opened_request, False)
@@ -489,7 +491,9 @@ class MainWindow(QMainWindow):
             )
         except RecordsError as exc:
             self._version_behind = exc.one_line()
-            self.records.save_draft(self._draft(request, closed=closed))
+            self.records.save_draft(
+                self._draft(request, closed=closed, for_version=self._saved_version.row_id)
+            )
             self.statusBar().showMessage(
                 "Observations kept in the draft; not yet in the saved version (trying again): "
                 + exc.one_line()
@@ -502,10 +506,13 @@ class MainWindow(QMainWindow):
         if self._draft_is_ours():
             self.records.clear_draft()  # its edits were undone, or it held what is written now
 
-    def _draft(self, request, *, closed: bool) -> dict:  # noqa: ANN001 — PlanRequest
+    def _draft(self, request, *, closed: bool, for_version: int | None = None) -> dict:  # noqa: ANN001
+        """What the draft keeps; ``for_version``: the saved version (its row) that could not
+        take the observations, offered back as such."""
         from vetfluid.serialize import request_to_dict
 
         return {
+            "for_version": for_version,
             "request": request_to_dict(request) if request is not None else None,
             "acknowledged": self.session.acknowledged,
             "acknowledged_for": self.session.acknowledged_for,
@@ -516,9 +523,10 @@ class MainWindow(QMainWindow):
         }
 
     def offer_draft(self) -> bool:
-        """Offer back the plan that was being edited when vetfluid last stopped."""
+        """Offer back the plan that was being edited when vetfluid last stopped, or the
+        observations a saved version could not take. A draft that cannot be restored is
+        set aside in a file, never dropped."""
         from vetfluid.records import RecordsError
-        from vetfluid.serialize import request_from_dict
 
         try:
             draft = self.records.draft() if self.records is not None else None
@@ -528,13 +536,28 @@ class MainWindow(QMainWindow):
         if not draft:
             return False
         self._keep_edits()
-        question = (
-            "The plan last worked on was left, or vetfluid was closed, before it was saved "
-            "as a version. Restore it?"
-            if draft.get("closed")
-            else "vetfluid stopped unexpectedly while a plan was being edited. Restore it? "
-            "The last few seconds of typing may be missing."
-        )
+        try:
+            request, observations = self._draft_contents(draft)
+        except (VetfluidError, KeyError, TypeError, ValueError) as exc:
+            self._set_draft_aside(f"could not be restored ({exc})")
+            return False
+        version = self._version_behind_in(draft)
+        if version is not None:
+            question = (
+                f"Observations recorded on version {version[1]} of {version[2]} could not be "
+                "written to it when vetfluid last ran; the draft kept them. Write them to "
+                "that version now? No discards them."
+            )
+        elif draft.get("closed"):
+            question = (
+                "The plan last worked on was left, or vetfluid was closed, before it was saved "
+                "as a version. Restore it?"
+            )
+        else:
+            question = (
+                "vetfluid stopped unexpectedly while a plan was being edited. Restore it? "
+                "The last few seconds of typing may be missing."
+            )
         answer = QMessageBox.question(self, "vetfluid", question)
         if self.records is None:  # the window was closed while the question was open
             return False
@@ -544,26 +567,69 @@ class MainWindow(QMainWindow):
             except RecordsError as exc:  # declined all the same: offered again next start
                 self.statusBar().showMessage(f"The draft could not be cleared: {exc.one_line()}")
             return False
-        try:  # no plan: observations recorded before any plan could be built
-            request = None if draft["request"] is None else request_from_dict(draft["request"])
-        except (VetfluidError, KeyError, TypeError) as exc:
-            self.statusBar().showMessage(f"The draft could not be restored: {exc}")
-            return False
-        wording = draft.get("acknowledged_for")
-        self._next_is_unsaved = True  # a draft is unsaved work until it is saved
-        self.session.replace_request(
-            request,
-            draft.get("acknowledged") or {},
-            wording if isinstance(wording, dict) else None,  # older drafts have none
-        )
-        self.current_patient = draft.get("patient_id")
-        unreadable = self._restore_observations(draft.get("observations") or [])
+        if version is not None:
+            self.load_version(version[0], version[1])
+        else:
+            wording = draft.get("acknowledged_for")
+            self._next_is_unsaved = True  # a draft is unsaved work until it is saved
+            self.session.replace_request(
+                request,
+                draft.get("acknowledged") or {},
+                wording if isinstance(wording, dict) else None,  # older drafts have none
+            )
+            self.current_patient = draft.get("patient_id")
+        unreadable = self._restore_observations(observations)
         try:  # the restored plan owns the draft now: saving it as a version clears it
             self.records.save_draft({**draft, "tag": self._plan_tag})
         except RecordsError:
             pass  # the draft stays as it was, offered again at the next start
-        self.statusBar().showMessage("Restored the plan that was being edited." + unreadable)
+        if version is not None:
+            self._draft_timer.stop()
+            self._save_draft()  # into the version now, and the draft cleared
+        self.statusBar().showMessage("Restored what was being edited." + unreadable)
         return True
+
+    @staticmethod
+    def _draft_contents(draft: dict) -> tuple[PlanRequest | None, list]:
+        """The draft's request (None: observations recorded before any plan) and its
+        observations; raises when they are not what a draft holds."""
+        from vetfluid.serialize import request_from_dict
+
+        request = None if draft["request"] is None else request_from_dict(draft["request"])
+        observations = draft.get("observations") or []
+        if not isinstance(observations, list):
+            raise TypeError("its observations are not a list")
+        return request, observations
+
+    def _version_behind_in(self, draft: dict) -> tuple[int, int, str] | None:
+        """(patient id, version number, patient name) when the draft holds observations
+        that version could not take, and the version is still in the records."""
+        from vetfluid.records import RecordsError
+
+        row_id, patient_id = draft.get("for_version"), draft.get("patient_id")
+        if not isinstance(row_id, int) or not isinstance(patient_id, int):
+            return None
+        try:
+            version = next((v for v in self.records.versions(patient_id) if v.id == row_id), None)
+            name = self.records.patient(patient_id).name if version else ""
+        except (RecordsError, LookupError):
+            return None
+        return None if version is None else (patient_id, version.version, name)
+
+    def _set_draft_aside(self, why: str) -> None:
+        from vetfluid.records import RecordsError
+
+        try:
+            kept = self.records.set_aside_draft()
+        except RecordsError as exc:
+            QMessageBox.warning(
+                self, "vetfluid", f"The plan last worked on {why}: {exc.one_line()}."
+            )
+            return
+        QMessageBox.warning(
+            self, "vetfluid",
+            f"The plan last worked on {why}; it was set aside as {kept}. Nothing was restored.",
+        )  # fmt: skip
 
     def save_version(
         self, *, name: str | None = None, client_ref: str = "", author: str = ""
@@ -996,7 +1062,8 @@ class MainWindow(QMainWindow):
 
     def _close_losing_work(self) -> bool:
         """Asked when closing and the work can be written nowhere; True closes anyway."""
-        self._draft_timer.stop()  # no retry while asking: one would mark the draft a crash
+        self._draft_timer.stop()
+        self._closing = True  # a retry while asking (an edit restarts it) writes it as closed
         answer = QMessageBox.question(
             self, "vetfluid",
             f"What is not saved as a version could not be written: {self._write_error}\n\n"
@@ -1004,6 +1071,7 @@ class MainWindow(QMainWindow):
             QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No,
             QMessageBox.StandardButton.No,
         )  # fmt: skip
+        self._closing = False
         if answer == QMessageBox.StandardButton.Yes:
             return True
         self._draft_timer.start()  # kept open: keep trying

@@ -436,13 +436,25 @@ class Records:
             content = None
         if isinstance(content, dict):
             return content
-        kept = self._set_aside(stored)
-        self._unreadable_draft = False
-        self.clear_draft()
+        kept = self._move_aside(stored)
         raise RecordsError(
             f"the draft in {self.path.name} could not be read; it was set aside as {kept}",
             fix="nothing was restored from it; the file holds what was stored",
         )
+
+    def set_aside_draft(self) -> Path | None:
+        """Move the stored draft, byte for byte, into a new file beside the records: one
+        that reads but cannot be restored. None when there is no draft."""
+        row = self._db.execute(
+            "SELECT CAST(content_json AS BLOB) FROM draft WHERE id = 1"
+        ).fetchone()
+        return None if row is None else self._move_aside(bytes(row[0]))
+
+    def _move_aside(self, stored: bytes) -> Path:
+        kept = self._set_aside(stored)
+        self._unreadable_draft = False
+        self.clear_draft()
+        return kept
 
     def _set_aside(self, stored: bytes) -> Path:
         """Write an unreadable draft, byte for byte, to a new owner-only file beside the
