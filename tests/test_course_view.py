@@ -407,3 +407,20 @@ def test_an_observation_dated_in_the_future_is_refused_and_says_why(qtbot, windo
     record(view, 2.0, "heart_rate_per_min", 120)
     assert "still to come" in view.message.text() and "set the time" in view.message.text()
     assert window.session.observations == []
+
+
+def test_the_course_tab_counts_the_alerts_wherever_the_user_is(qtbot, window):
+    """Recorded on the Course tab, seen from the Plan tab: the tab names how many alerts
+    wait and the worst by icon; a plan edit that clears them clears the label."""
+    view = window.course_view
+    course_tab = window.details.indexOf(window.course_holder)
+    assert window.details.tabText(course_tab) == "Co&urse"
+    record(view, 4, "urine_ml", 60, period=4)  # 0.6 mL/kg/h: below the dog's 1 mL/kg/h
+    window.details.setCurrentIndex(0)  # away from the Course tab
+    record(view, 8, "urine_ml", 60, period=4)
+    assert window.details.tabText(course_tab) == "Co&urse — 2 alerts"
+    assert not window.details.tabIcon(course_tab).isNull()
+    window.session.update(weight_kg=2.4)  # 15 mL/h is no oliguria at 2.4 kg
+    qtbot.waitUntil(lambda: window.session.plan.request.weight_kg == 2.4)
+    assert window.details.tabText(course_tab) == "Co&urse"
+    assert window.details.tabIcon(course_tab).isNull()

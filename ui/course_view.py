@@ -47,13 +47,12 @@ from ui.timeline_view import (
     pin_legend,
     show_grid,
 )
-from vetfluid.course import MAX_HORIZON_H, course
+from vetfluid.course import observed_course
 from vetfluid.errors import VetfluidError
 from vetfluid.findings import SEVERITIES
 from vetfluid.formatting import format_quantity as q
 from vetfluid.observations import (
     Observation,
-    alerts,
     check_observation,
     ins_and_outs_from_observations,
     observed_series,
@@ -484,9 +483,12 @@ class CourseView(QWidget):
             self._count_alerts([])
             return
         self._hour_changed(self.hour.value())  # the date and time follow the plan's start
-        # the plan and every observation, within the model's 14 days
-        horizon = min(max([plan.end_h] + [o.hour for o in observations]), MAX_HORIZON_H)
-        result = course(plan, horizon_h=horizon, step_minutes=5, table=self.session.table)
+        # the plan and every observation, within the model's 14 days; an oliguria threshold
+        # of 0 shows as the species' default
+        threshold = self.oliguria.value() or None
+        result, found = observed_course(
+            plan, observations, oliguria_ml_per_kg_h=threshold, table=self.session.table
+        )
         self._show_observations(observations, result, plan)
         h = result.hours
         change = result.change_from_start()
@@ -518,11 +520,6 @@ class CourseView(QWidget):
         hours, weights_kg = observed_series(observations, "weight_kg")
         self.weight_points.setData(hours, weights_kg * per_kg)
         rows = []
-        threshold = self.oliguria.value() or None  # 0 shows as the species' default
-        found = alerts(
-            plan, observations, oliguria_ml_per_kg_h=threshold, table=self.session.table,
-            predicted_weight=lambda hour: result.predicted("weight_kg", hour),
-        )  # fmt: skip
         for finding in found:
             rows.append(
                 [

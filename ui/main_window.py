@@ -209,6 +209,8 @@ class MainWindow(QMainWindow):
             self.demo_menu.addAction(action)
         self.session.planChanged.connect(self._plan_changed)
         self.session.readinessChanged.connect(self._update_check_tab)
+        for changed in (self.session.planChanged, self.session.observationsChanged):
+            changed.connect(self._update_course_tab)
         self._open_records()
         self.session.recompute()
         self._page_opened(self.pages.currentIndex())
@@ -798,6 +800,7 @@ class MainWindow(QMainWindow):
 
             self.course_view = CourseView(self.session, before_replan=self._before_replan)
             self._swap(self.course_holder, self.course_view)
+            self.course_view.oliguria.valueChanged.connect(self._update_course_tab)
 
     @sources_not_kept()
     def _page_opened(self, index: int) -> None:
@@ -868,6 +871,36 @@ class MainWindow(QMainWindow):
             return  # relabelling a tab relays out the whole window: only when it changes
         self._check_tab_state = (label, severity)
         index = self.details.indexOf(self.findings)
+        self.details.setTabText(index, label)
+        self.details.setTabIcon(index, icon(f"severity-{severity}") if severity else QIcon())
+
+    def _update_course_tab(self, *_: object) -> None:
+        """The Course tab says how many alerts the observations raise, in words and by
+        icon, whether or not it has been opened (the model takes well under a millisecond;
+        with nothing observed there is nothing to work out)."""
+        from vetfluid.findings import SEVERITIES
+
+        plan, observed = self.session.plan, self.session.observations
+        found = []
+        if plan is not None and observed:
+            from vetfluid.course import observed_course
+
+            view = self.course_view
+            threshold = (view.oliguria.value() or None) if view is not None else None
+            try:
+                _, found = observed_course(
+                    plan, observed, oliguria_ml_per_kg_h=threshold, table=self.session.table
+                )
+            except VetfluidError:
+                found = []  # the Course view says what is wrong when it is opened
+        label, severity = "Co&urse", None
+        if found:
+            label += f" — {len(found)} alert{'s' if len(found) > 1 else ''}"
+            severity = next(s for s in reversed(SEVERITIES) if any(f.severity == s for f in found))
+        if (label, severity) == getattr(self, "_course_tab_state", None):
+            return  # relabelling a tab relays out the whole window: only when it changes
+        self._course_tab_state = (label, severity)
+        index = self.details.indexOf(self.course_holder)
         self.details.setTabText(index, label)
         self.details.setTabIcon(index, icon(f"severity-{severity}") if severity else QIcon())
 

@@ -43,7 +43,9 @@ import numpy as np
 from vetfluid import fluids
 from vetfluid.checks import require_number
 from vetfluid.errors import InputError
+from vetfluid.findings import Finding
 from vetfluid.limits import limit
+from vetfluid.observations import Observation, alerts
 from vetfluid.plan import Plan
 from vetfluid.safety import LINE_ROUTES
 from vetfluid.schedule import Phase
@@ -432,3 +434,22 @@ def course(
         provenance=provenance,
         elimination_left_out=left_out,
     )
+
+
+def observed_course(
+    plan: Plan,
+    observations: list[Observation] | tuple[Observation, ...],
+    *,
+    oliguria_ml_per_kg_h: float | None = None,
+    table: SpeciesTable | None = None,
+) -> tuple[Course, list[Finding]]:
+    """The course over the plan and every observation (up to :data:`MAX_HORIZON_H`), at
+    5-minute steps, and the alerts the observations raise against it
+    (:func:`vetfluid.observations.alerts`, with the weight this course predicts)."""
+    horizon = min(max([plan.end_h] + [o.hour for o in observations]), MAX_HORIZON_H)
+    result = course(plan, horizon_h=horizon, step_minutes=5, table=table)
+    found = alerts(
+        plan, observations, oliguria_ml_per_kg_h=oliguria_ml_per_kg_h, table=table,
+        predicted_weight=lambda hour: result.predicted("weight_kg", hour),
+    )  # fmt: skip
+    return result, found
