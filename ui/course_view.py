@@ -443,14 +443,15 @@ class CourseView(QWidget):
 
     def replan(self) -> None:
         try:
-            if self.session.replan_request() is None:  # said before any question
+            request = self.session.replan_request()  # what is wrong is said before any question
+            if request is None:
                 self.message.setText(
                     "⚠ There is no plan to re-plan from: correct the inputs first."
                 )
                 return
             if self._before_replan is not None and not self._before_replan():
                 return
-            self.session.replan()
+            self.session.replan(request)
         except VetfluidError as exc:
             self.message.setText(f"⚠ {exc.one_line()}")
             return

@@ -280,9 +280,10 @@ class PlanSession(QObject):
 
         return replan_request(self.plan, self.observations) if self.plan else None
 
-    def replan(self) -> None:
-        """Start a new plan version from the patient's current state; keep the earlier one."""
-        request = self.replan_request()
+    def replan(self, request: PlanRequest | None = None) -> None:
+        """Start a new plan version from the patient's current state (``request``, when the
+        caller has already worked it out with :meth:`replan_request`); keep the earlier one."""
+        request = request or self.replan_request()
         if request is None:
             return
         versions = [*self.versions, (self.plan.request, tuple(self.observations))]
