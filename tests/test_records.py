@@ -312,12 +312,40 @@ def test_a_draft_that_cannot_be_set_aside_stays_and_is_not_overwritten(tmp_path,
         monkeypatch.setattr(records_module.os, "open", no_space)
         with pytest.raises(RecordsError, match="nor copied"):
             records.draft()
-        with pytest.raises(RecordsError, match="not replaced"):
-            records.save_draft({"request": None})
+        with pytest.raises(RecordsError, match="nor copied"):
+            records.save_draft({"request": None})  # tries the copy again, refused
         stored = records._db.execute("SELECT content_json FROM draft").fetchone()[0]
         assert stored == "[cut"
         monkeypatch.undo()
-        with pytest.raises(RecordsError, match="set aside as"):
-            records.draft()
-        records.save_draft({"request": None})  # the copy is safe: drafts are saved again
+        records.save_draft({"request": None})  # the copy is made first, then the draft saved
+        assert records.last_set_aside.read_text() == "[cut"
         assert records.draft() == {"request": None}
+
+
+def test_a_set_aside_copy_that_cannot_be_written_leaves_no_half_file(tmp_path, monkeypatch):
+    """The file is created but the disk fills while writing: no empty copy is left, the
+    draft stays, and the error is a RecordsError (not an OSError out of a Qt slot)."""
+    import errno
+    import os
+
+    import vetfluid.records as records_module
+
+    real_fdopen = os.fdopen
+
+    def full_disk(handle, *args, **kwargs):
+        out = real_fdopen(handle, *args, **kwargs)
+
+        def write(_data):
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+        out.write = write
+        return out
+
+    with Records.open(tmp_path / "records.sqlite") as records:
+        records._write("INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
+                       ("[cut", "2026-12-04T06:00:00+00:00"))  # fmt: skip
+        monkeypatch.setattr(records_module.os, "fdopen", full_disk)
+        with pytest.raises(RecordsError, match="nor copied"):
+            records.draft()
+        assert list(tmp_path.glob("records-unreadable-draft-*")) == []
+        assert records._db.execute("SELECT content_json FROM draft").fetchone()[0] == "[cut"

@@ -1070,3 +1070,48 @@ def test_a_retry_while_the_close_question_is_open_writes_the_draft_as_closed(
     answer({"Close anyway and lose it": meanwhile})
     assert not window.close()
     assert window.records.draft()["closed"]  # offered as left, not as a crash
+
+
+def test_an_unreadable_draft_that_cannot_be_set_aside_blocks_nothing(
+    qtbot, vetfluid_home, answer, monkeypatch
+):
+    """No room for the copy: the window says so at start, then opens plans as usual; the
+    first draft saved once there is room sets the old one aside first, and says where."""
+    import errno
+    import os
+
+    import vetfluid.records as records_module
+    from ui.main_window import MainWindow
+    from vetfluid.observations import Observation
+
+    with Records.open() as records:
+        records._write("INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
+                       ("[cut", "2026-12-04T06:00:00+00:00"))  # fmt: skip
+    real_open = os.open
+
+    def no_space(path, *args, **kwargs):
+        if "unreadable-draft" in str(path):
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(path))
+        return real_open(path, *args, **kwargs)
+
+    monkeypatch.setattr(records_module.os, "open", no_space)
+    told = []
+    answer({"nor copied": lambda: told.append(1)})
+    window = MainWindow()
+    qtbot.addWidget(window)
+    window.show()
+    qtbot.waitUntil(lambda: bool(told) and window.session is not None)
+    window._save_draft()  # the autosave, nothing edited
+    assert not window._has_unsaved_work()
+    window.open_demo("dehydrated_dog")  # nothing asked
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    window._save_draft()  # no room yet: not written, and the old draft untouched
+    assert window._has_unsaved_work() and "Not saved" in window.statusBar().currentMessage()
+    monkeypatch.setattr(records_module.os, "open", real_open)  # room again
+    window._draft_timer.stop()
+    window._save_draft()
+    assert "set aside as" in window.statusBar().currentMessage()
+    assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
+    [kept] = window.records.path.parent.glob("records-unreadable-draft-*.txt")
+    assert kept.read_text() == "[cut"

@@ -450,7 +450,14 @@ class MainWindow(QMainWindow):
             self._save_draft()
 
     def _draft_is_ours(self) -> bool:
-        draft = self.records.draft()
+        """Whether the stored draft is this plan's; one that cannot be read is nobody's (it
+        is set aside when a draft is next saved, :meth:`Records.save_draft`)."""
+        from vetfluid.records import RecordsError
+
+        try:
+            draft = self.records.draft()
+        except RecordsError:
+            return False
         return bool(draft) and draft.get("tag") == self._plan_tag
 
     def _save_draft(self, *, closed: bool = False) -> None:
@@ -476,6 +483,12 @@ class MainWindow(QMainWindow):
             elif self._draft_is_ours():
                 self.records.clear_draft()
             self._write_error = ""
+            if self.records.last_set_aside is not None:
+                self.statusBar().showMessage(
+                    "The draft left last time could not be read; it was set aside as "
+                    f"{self.records.last_set_aside}."
+                )
+                self.records.last_set_aside = None
         except RecordsError as exc:
             self._write_error = exc.one_line()
             self.statusBar().showMessage(f"Not saved (trying again): {exc.one_line()}")

@@ -138,6 +138,7 @@ class Records:
         self._db = connection
         self.path = path
         self._unreadable_draft = False  # the stored draft could be neither read nor set aside
+        self.last_set_aside: Path | None = None  # where save_draft moved such a draft at last
 
     # ---- opening ---------------------------------------------------------------------------
     @classmethod
@@ -400,12 +401,8 @@ class Records:
     def save_draft(self, content: dict) -> None:
         """Replace the draft; refused while the stored one can be neither read nor set
         aside (:meth:`draft`), so that it is never overwritten unseen."""
-        if self._unreadable_draft:
-            raise RecordsError(
-                f"the draft in {self.path.name} can be neither read nor set aside, so it is "
-                "not replaced",
-                fix="free some disk space; vetfluid tries again",
-            )
+        if self._unreadable_draft:  # try the copy again first; still refused if it fails
+            self.last_set_aside = self.set_aside_draft()
         self._write(
             "INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)"
             " ON CONFLICT(id) DO UPDATE SET content_json = excluded.content_json,"
@@ -468,17 +465,24 @@ class Records:
             except FileExistsError:
                 continue
             except OSError as exc:
-                self._unreadable_draft = True
-                raise RecordsError(
-                    f"the draft in {self.path.name} cannot be read, nor copied to {kept.name}: "
-                    f"{exc.strerror}",
-                    fix="free some disk space; the draft stays in the records until then",
-                ) from exc
-            with os.fdopen(handle, "wb") as out:
-                out.write(stored)
+                raise self._not_set_aside(kept, exc) from exc
+            try:
+                with os.fdopen(handle, "wb") as out:
+                    out.write(stored)
+            except OSError as exc:  # created but not written (a full disk): no half copy
+                kept.unlink(missing_ok=True)
+                raise self._not_set_aside(kept, exc) from exc
             return kept
         self._unreadable_draft = True
         raise RecordsError(f"the draft in {self.path.name} cannot be read, nor copied aside")
+
+    def _not_set_aside(self, kept: Path, exc: OSError) -> RecordsError:
+        self._unreadable_draft = True
+        return RecordsError(
+            f"the draft in {self.path.name} cannot be read, nor copied to {kept.name}: "
+            f"{exc.strerror}",
+            fix="free some disk space; the draft stays in the records until then",
+        )
 
     def clear_draft(self) -> None:
         self._write("DELETE FROM draft WHERE id = ?", (1,))
