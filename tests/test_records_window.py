@@ -1115,3 +1115,35 @@ def test_an_unreadable_draft_that_cannot_be_set_aside_blocks_nothing(
     assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
     [kept] = window.records.path.parent.glob("records-unreadable-draft-*.txt")
     assert kept.read_text() == "[cut"
+
+
+def test_observations_go_back_into_their_version_even_when_it_no_longer_builds(
+    qtbot, planner, answer
+):
+    import dataclasses
+
+    from ui.main_window import MainWindow
+    from vetfluid.observations import Observation
+    from vetfluid.overrides import set_override
+
+    window = planner
+    window.session.replace_request(
+        dataclasses.replace(DEMOS["small_gerbil"].request, device="divided")
+    )
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.save_version(name="Gerry", author="AB")
+    saved = window.records.versions(window.current_patient)[0]
+    window.session.add_observation(Observation(hour=2.0, weight_kg=0.066))
+    disk = _version_writes_fail(window)
+    assert window.close()
+    disk.undo()
+    # since then the clinic lowered the line weight: the version's divided plan no longer builds
+    set_override(species_id="mongolian_gerbil", parameter="continuous_line_min_kg", value=0.05)
+    answer({"version 1 of Gerry": QMessageBox.StandardButton.Yes})
+    again = MainWindow()
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: again.session is not None and again.records.draft() is None)
+    assert again.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 0.066}]
+    assert again.records.draft() is None and again.session.plan is None
+    assert "Wrote 1 observation(s) to version 1 of Gerry" in again.statusBar().currentMessage()

@@ -63,3 +63,17 @@ def test_unexpected_errors_are_logged_and_shown(qtbot, monkeypatch, vetfluid_hom
     assert "boom" in shown[0] and "check it before use" in shown[0]
     logged = (vetfluid_home / "vetfluid.log").read_text(encoding="utf-8")
     assert "RuntimeError: boom" in logged and "Traceback" in logged
+
+
+def test_a_window_closed_before_its_planner_is_built_builds_none(qtbot, vetfluid_home):
+    """Closed at once (the planner waits for the first paint's next turn): no planner is
+    built afterwards, so no records file is left open behind a closed window."""
+    from ui.main_window import MainWindow
+
+    window = MainWindow()
+    qtbot.addWidget(window)
+    window.show()
+    assert window.close() and window.session is None
+    qtbot.wait(50)  # the turn the planner would have been built on
+    window.build_planner()  # and asked for directly
+    assert window.session is None and not hasattr(window, "records")

@@ -121,6 +121,7 @@ class MainWindow(QMainWindow):
         self.statusBar().showMessage("Choose a species and enter a weight to start.")
         self._restore_geometry()
         self._painted = False
+        self._closed = False
         self.installEventFilter(self)
 
     def eventFilter(self, watched, event) -> bool:  # noqa: N802,ANN001 (Qt override)
@@ -133,8 +134,9 @@ class MainWindow(QMainWindow):
 
     @sources_not_kept()
     def build_planner(self) -> None:
-        """The planner page: inputs on the left, results on the right (idempotent)."""
-        if self.session is not None:
+        """The planner page: inputs on the left, results on the right (idempotent; not
+        once the window is closed, which may come before the first paint's turn)."""
+        if self.session is not None or self._closed:
             return
         # Qt's namespace of enums takes PySide6 30–45 ms to build: after the first paint.
         from PySide6.QtCore import Qt
@@ -583,25 +585,45 @@ class MainWindow(QMainWindow):
                 self.statusBar().showMessage(f"The draft could not be cleared: {exc.one_line()}")
             return False
         if version is not None:
-            self.load_version(version[0], version[1])
-        else:
-            wording = draft.get("acknowledged_for")
-            self._next_is_unsaved = True  # a draft is unsaved work until it is saved
-            self.session.replace_request(
-                request,
-                draft.get("acknowledged") or {},
-                wording if isinstance(wording, dict) else None,  # older drafts have none
-            )
-            self.current_patient = draft.get("patient_id")
+            return self._into_version(draft, version, observations)
+        wording = draft.get("acknowledged_for")
+        self._next_is_unsaved = True  # a draft is unsaved work until it is saved
+        self.session.replace_request(
+            request,
+            draft.get("acknowledged") or {},
+            wording if isinstance(wording, dict) else None,  # older drafts have none
+        )
+        self.current_patient = draft.get("patient_id")
         unreadable = self._restore_observations(observations)
         try:  # the restored plan owns the draft now: saving it as a version clears it
             self.records.save_draft({**draft, "tag": self._plan_tag})
         except RecordsError:
             pass  # the draft stays as it was, offered again at the next start
-        if version is not None:
-            self._draft_timer.stop()
-            self._save_draft()  # into the version now, and the draft cleared
-        self.statusBar().showMessage("Restored what was being edited." + unreadable)
+        self.statusBar().showMessage("Restored the plan that was being edited." + unreadable)
+        return True
+
+    def _into_version(self, draft: dict, version: tuple[int, int, str], observations: list) -> bool:
+        """Write the observations a saved version could not take into it, straight away
+        (whether or not it still builds), then open it; the draft stays when they cannot
+        be written."""
+        from vetfluid.records import RecordsError
+
+        row_id = draft["for_version"]
+        try:
+            self.records.keep_observations(version_id=row_id, observations=observations)
+            self.records.clear_draft()
+        except RecordsError as exc:
+            QMessageBox.warning(
+                self, "vetfluid",
+                f"The observations could not be written to version {version[1]}: "
+                f"{exc.one_line()}\n\nThe draft keeps them; they are offered again at the "
+                "next start.",
+            )  # fmt: skip
+            return False
+        self.load_version(version[0], version[1])
+        self.statusBar().showMessage(
+            f"Wrote {len(observations)} observation(s) to version {version[1]} of {version[2]}."
+        )
         return True
 
     @staticmethod
@@ -1143,4 +1165,5 @@ class MainWindow(QMainWindow):
                 self.records.close()
                 self.records = None
         settings.sync()
+        self._closed = True
         super().closeEvent(event)
