@@ -597,18 +597,47 @@ def test_a_bad_reptile_temperature_does_not_follow_the_patient_to_a_dog(qtbot, w
     assert plan.request.body_temp_c is None
 
 
-def test_a_plan_without_a_start_date_says_todays_is_assumed(qtbot, planner):
+@pytest.mark.parametrize(
+    ("now", "start", "day", "said"),
+    [
+        ((2026, 12, 5, 10, 0), (8, 0), (2026, 12, 5), "today's"),
+        # a drip started at 22:00, opened at 00:30: it began yesterday, and hour 2 is past
+        ((2026, 12, 5, 0, 30), (22, 0), (2026, 12, 4), "yesterday's"),
+    ],
+)
+def test_a_plan_without_a_start_date_goes_on_the_last_day_its_time_came(
+    qtbot, planner, monkeypatch, now, start, day, said
+):
     from dataclasses import replace
-    from datetime import date
+    from datetime import date, datetime, time
 
+    import ui.course_view
+    import ui.plan_view
     from vetfluid.demos import DEMOS
 
-    request = replace(DEMOS["dehydrated_dog"].request, start_date=None)
+    class Clock(datetime):
+        @classmethod
+        def now(cls, tz=None):  # noqa: ARG003
+            return datetime(*now)
+
+    for module in (ui.plan_view, ui.course_view):
+        monkeypatch.setattr(module, "datetime", Clock)
+    request = replace(DEMOS["dehydrated_dog"].request, start_date=None, start_time=time(*start))
     planner.session.replace_request(request)
     qtbot.waitUntil(lambda: planner.session.plan is not None)
     settings = planner.settings_box
-    assert settings.start_note.isVisible() and "no start date" in settings.start_note.text()
-    assert planner.session.plan.request.start_date == date.today()
+    assert (
+        settings.start_note.isVisible() and f"no start date; {said}" in settings.start_note.text()
+    )
+    assert planner.session.plan.request.start_date == date(*day)
+    planner.details.setCurrentWidget(planner.course_holder)
+    view = planner.course_view
+    view.hour.setValue(2.0)  # two hours after the start: past in both cases
+    view.quantity.setCurrentIndex(view.quantity.findData("heart_rate_per_min"))
+    view.value.setText("120")
+    view.record()
+    assert len(planner.session.observations) == 1, view.message.text()
+    planner.session.remove_observation(0)
     planner.open_demo("small_gerbil")  # a demo has its date: no note
     qtbot.waitUntil(lambda: planner.session.plan.request.species_id == "mongolian_gerbil")
     assert not settings.start_note.isVisible()

@@ -4,7 +4,7 @@
 
 from __future__ import annotations
 
-from datetime import datetime, time
+from datetime import datetime, time, timedelta
 
 from PySide6.QtCore import QDateTime, QSignalBlocker, Qt, QTimer
 from PySide6.QtWidgets import (
@@ -226,14 +226,19 @@ class PlanSettings(QGroupBox):
         self.max_na.show_value(inputs["max_na_change_per_h"])
         start, day = inputs["start_time"], inputs["start_date"]
         # a plan opened with a clock time but no date (saved before plans had dates) is put
-        # on today's date: said beside the field, not done silently
-        self.start_note.setText("⚠ This plan had no start date; today's is assumed — check it.")
+        # on the last day that time came, today or yesterday (a drip started at 22:00 and
+        # opened at 00:30 began yesterday): said beside the field, not done silently
         self.start_note.setVisible(start is not None and day is None)
         if start is None or day is None:
             # a plan in the window always sits on the calendar; shown, so the user sees it
-            now = datetime.now()
+            now = datetime.now()  # noqa: DTZ005 — the ward's local time
             start = start or time(now.hour, now.minute - now.minute % 5)
-            day = day or now.date()
+            if day is None:
+                day = now.date() if start <= now.time() else now.date() - timedelta(days=1)
+                which = "today's" if day == now.date() else "yesterday's"
+                self.start_note.setText(
+                    f"⚠ This plan had no start date; {which} is assumed — check it."
+                )
             self.session.update(start_time=start, start_date=day)
         with QSignalBlocker(self.start):
             self.start.setDateTime(to_qt(datetime.combine(day, start)))
