@@ -305,12 +305,12 @@ def test_replanning_an_unsaved_plan_saves_it_first(qtbot, planner, monkeypatch, 
     assert window.session.versions == [] and window.session.observations == [observed]
 
     answer({"being replaced": QMessageBox.StandardButton.Save})
-    monkeypatch.setattr(window, "save_version", lambda: None)  # the patient dialog cancelled
+    monkeypatch.setattr(window, "save_version", lambda **_: None)  # the patient dialog cancelled
     window.course_view.replan()
     assert window.session.versions == [], "not saved, so not re-planned"
 
     monkeypatch.setattr(
-        window, "save_version", lambda: window.__class__.save_version(window, name="Rex")
+        window, "save_version", lambda **kw: window.__class__.save_version(window, name="Rex", **kw)
     )
     window.course_view.replan()
     assert len(window.session.versions) == 1  # re-planned after the save
@@ -430,7 +430,7 @@ def test_leaving_unsaved_work_asks_first(qtbot, planner, answer):
     assert window.session.plan is not None and len(window.session.observations) == 1
     answer({question: QMessageBox.StandardButton.Yes})
     saved = []
-    window.save_version = lambda: saved.append(1) or 1  # the dialog's part: a version saved
+    window.save_version = lambda **_: saved.append(1) or 1  # the dialog's part: a version saved
     window.new_patient()
     assert saved == [1] and window.session.plan is None
 
@@ -747,6 +747,9 @@ def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
     versions = window.records.versions(window.current_patient)
     assert [v.version for v in versions] == [1, 2]
     assert versions[1].request["measured_outputs"] == [[70.0, 0.0]]
+    # the observations stay with version 1, where they were recorded: never stored twice
+    assert len(window.records.observations(versions[0].id)) == 2
+    assert window.records.observations(versions[1].id) == []
 
 
 def _version_writes_fail(window):

@@ -669,9 +669,15 @@ class MainWindow(QMainWindow):
         )  # fmt: skip
 
     def save_version(
-        self, *, name: str | None = None, client_ref: str = "", author: str = ""
+        self,
+        *,
+        name: str | None = None,
+        client_ref: str = "",
+        author: str = "",
+        with_observations: bool = True,
     ) -> int | None:
-        """Save the plan as the patient's next version (asks for the patient the first time)."""
+        """Save the plan as the patient's next version (asks for the patient the first time),
+        with the observations on it unless they are kept with another version already."""
         from ui.records_view import NewPatientDialog
         from vetfluid.records import RecordsError
 
@@ -701,7 +707,7 @@ class MainWindow(QMainWindow):
             number = self.records.save_version(
                 patient_id=self.current_patient, plan=plan,
                 acknowledged=self.session.acknowledged, author=author,
-                observations=self._observation_records(),
+                observations=self._observation_records() if with_observations else [],
             )  # fmt: skip
         except (RecordsError, VetfluidError) as exc:
             QMessageBox.warning(self, "vetfluid", f"Not saved: {exc}")
@@ -773,22 +779,7 @@ class MainWindow(QMainWindow):
         # an ins-and-outs version whose outputs have moved on with the measurements: the
         # records hold it as saved, so the plan as it now stands is saved before it goes
         moved = on_saved and self.session.plan.request != self._saved_version.request
-        if not on_saved or moved:
-            why = (
-                "The plan being replaced has moved on from its saved version with the outputs "
-                "measured since."
-                if moved
-                else "The plan being replaced has not been saved as a version."
-            )
-            answer = QMessageBox.question(
-                self, "vetfluid",
-                f"{why} A re-plan keeps it in the patient's record as it stands, with its "
-                "observations. Save it now?",
-                QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Cancel,
-            )  # fmt: skip
-            if answer != QMessageBox.StandardButton.Save or self.save_version() is None:
-                return False
-        elif self._version_behind or self._write_error:
+        if on_saved and (self._version_behind or self._write_error):
             QMessageBox.warning(
                 self, "vetfluid",
                 "The observations could not be written to the saved version: "
@@ -796,6 +787,24 @@ class MainWindow(QMainWindow):
                 "re-plan once they are saved.",
             )  # fmt: skip
             return False
+        if not on_saved or moved:
+            why = (
+                "The plan being replaced has moved on from its saved version with the outputs "
+                "measured since. A re-plan keeps it in the patient's record as it stands (its "
+                "observations stay with the version they were recorded on)."
+                if moved
+                else "The plan being replaced has not been saved as a version. A re-plan keeps "
+                "it in the patient's record, with its observations."
+            )
+            answer = QMessageBox.question(
+                self, "vetfluid", f"{why} Save it now?",
+                QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Cancel,
+            )  # fmt: skip
+            if (
+                answer != QMessageBox.StandardButton.Save
+                or self.save_version(with_observations=not moved) is None
+            ):
+                return False
         self._next_is_unsaved = True  # the re-plan itself is saved nowhere yet
         return True
 
