@@ -7,7 +7,7 @@ import pytest
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QApplication
 
-from vetfluid.course import course
+from vetfluid.course import SHOWN_STEP_MINUTES, course
 from vetfluid.formatting import format_quantity
 
 
@@ -20,7 +20,9 @@ def replan_saves_first(planner, answer):
     from ui.main_window import MainWindow
 
     answer({"being replaced": QMessageBox.StandardButton.Save})
-    planner.save_version = lambda: MainWindow.save_version(planner, name="Course test dog")
+    planner.save_version = lambda **kw: MainWindow.save_version(
+        planner, name="Course test dog", **kw
+    )
 
 
 @pytest.fixture()
@@ -59,7 +61,7 @@ def alerts_tab_text(view):
 
 def test_curves_show_the_core_course(window):
     view = window.course_view
-    expected = course(window.session.plan, step_minutes=5)
+    expected = course(window.session.plan, step_minutes=SHOWN_STEP_MINUTES)
     x, y = view.weight_curve.getData()
     assert np.allclose(y, expected.weight_kg[: len(y)])
     x, y = view.plasma_curve.getData()
@@ -222,7 +224,9 @@ def test_moving_the_start_says_the_observation_times_moved(qtbot, window):
 def test_each_measurement_stands_beside_its_prediction(window):
     view = window.course_view
     record(view, 6, "weight_kg", 24.1)
-    expected = course(window.session.plan, step_minutes=5).predicted("weight_kg", 6)
+    expected = course(window.session.plan, step_minutes=SHOWN_STEP_MINUTES).predicted(
+        "weight_kg", 6
+    )
     assert view.observations_model.text(0, 3) == format_quantity(expected, "kg")
     record(view, 7, "heart_rate_per_min", 120)
     assert view.observations_model.text(1, 3) == "—"  # the model does not predict it
@@ -232,7 +236,9 @@ def test_the_deficit_alert_and_the_predicted_column_use_one_model(window):
     # the course model's weight, not the plan's fluid balance alone, in both places
     view = window.course_view
     record(view, 8, "weight_kg", 24.2)
-    predicted = course(window.session.plan, step_minutes=5).predicted("weight_kg", 8)
+    predicted = course(window.session.plan, step_minutes=SHOWN_STEP_MINUTES).predicted(
+        "weight_kg", 8
+    )
     model = view.alerts_model
     alert = next(
         model.text(r, 1) for r in range(model.rowCount()) if "predicted" in model.text(r, 1)
@@ -266,7 +272,7 @@ def test_a_weight_is_recorded_in_the_unit_chosen_beside_it(qtbot, dragon):
     x, y = view.weight_points.getData()
     assert list(x) == [2] and list(y) == [pytest.approx(352)]
     x, y = view.weight_curve.getData()
-    expected = course(dragon.session.plan, step_minutes=5)
+    expected = course(dragon.session.plan, step_minutes=SHOWN_STEP_MINUTES)
     assert np.allclose(y, expected.weight_kg[: len(y)] * 1000)
 
 

@@ -362,6 +362,23 @@ def test_every_number_matches_the_cli(qtbot, window, demo_id):
 
 
 @pytest.mark.parametrize("demo_id", list(DEMOS))
+def test_the_course_tab_models_what_the_cli_models(qtbot, window, demo_id):
+    """The Course tab and ``vetfluid-cli course`` run the model at one step size: the same
+    predicted weight, plasma and remaining deficit at each hour asked for."""
+    from vetfluid.course import observed_course
+
+    window.open_demo(demo_id)
+    plan = wait_for_plan(qtbot, window, lambda p: p.request == DEMOS[demo_id].request)
+    result = subprocess.run([CLI, "course", "--demo", demo_id, "--at", "3,12", "--json"],
+                            capture_output=True, text=True)  # fmt: skip
+    assert result.returncode in (0, 3), result.stderr
+    shown, _ = observed_course(plan, [], table=window.session.table)  # as the Course tab draws
+    for row in json.loads(result.stdout)["rows"]:
+        for key in ("weight_kg", "plasma_ml", "remaining_deficit_ml"):
+            assert shown.at(row["hour"])[key] == pytest.approx(row[key], rel=1e-9), key
+
+
+@pytest.mark.parametrize("demo_id", list(DEMOS))
 def test_each_view_renders_to_a_picture(qtbot, window, tmp_path, demo_id):
     window.open_demo(demo_id)
     wait_for_plan(qtbot, window, lambda p: p.request == DEMOS[demo_id].request)

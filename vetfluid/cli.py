@@ -514,7 +514,7 @@ COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
 
 
 def cmd_course(args: argparse.Namespace) -> int:
-    from vetfluid.course import bolus_input, course
+    from vetfluid.course import SHOWN_STEP_MINUTES, bolus_input, course
     from vetfluid.plan import build_plan
     from vetfluid.units import weight_text
 
@@ -527,7 +527,9 @@ def cmd_course(args: argparse.Namespace) -> int:
                         weight_kg=plan.request.weight_kg, minutes=args.bolus_minutes),
         )  # fmt: skip
     horizon = args.horizon_h or max(max(hours), plan.end_h)
-    result = course(plan, horizon_h=horizon, extra_boluses=extra)
+    result = course(  # at the window's step: the same figures as the Course tab
+        plan, horizon_h=horizon, extra_boluses=extra, step_minutes=SHOWN_STEP_MINUTES
+    )
     rows = [result.at(h) for h in hours]
     data = {
         "species_id": plan.request.species_id,

@@ -52,6 +52,9 @@ from vetfluid.schedule import Phase
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
 
 MAX_HORIZON_H = 14 * 24.0
+# The step the window and the CLI both model a course at: the renal elimination is worked
+# out step by step, so one step size keeps every figure the same wherever it is shown.
+SHOWN_STEP_MINUTES = 5.0
 PREDICTED_OBSERVABLES = ("weight_kg", "serum_na", "pcv_percent", "total_solids_g_per_dl")
 
 
@@ -444,10 +447,10 @@ def observed_course(
     table: SpeciesTable | None = None,
 ) -> tuple[Course, list[Finding]]:
     """The course over the plan and every observation (up to :data:`MAX_HORIZON_H`), at
-    5-minute steps, and the alerts the observations raise against it
+    :data:`SHOWN_STEP_MINUTES`, and the alerts the observations raise against it
     (:func:`vetfluid.observations.alerts`, with the weight this course predicts)."""
     horizon = min(max([plan.end_h] + [o.hour for o in observations]), MAX_HORIZON_H)
-    result = course(plan, horizon_h=horizon, step_minutes=5, table=table)
+    result = course(plan, horizon_h=horizon, step_minutes=SHOWN_STEP_MINUTES, table=table)
     found = alerts(
         plan, observations, oliguria_ml_per_kg_h=oliguria_ml_per_kg_h, table=table,
         predicted_weight=lambda hour: result.predicted("weight_kg", hour),
