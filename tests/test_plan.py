@@ -476,7 +476,7 @@ def test_a_findings_estimate_outside_dogs_and_cats_says_what_it_rests_on():
                                        if f.code == "DEHYDRATION_FROM_FINDINGS")
             for p in (dragon, dog)}  # fmt: skip
     assert "written for dogs and cats" in said["bearded_dragon"]
-    assert "bearded dragon" in said["bearded_dragon"]
+    assert "this species (Bearded dragon)" in said["bearded_dragon"]
     assert "written for dogs and cats" not in said["dog"]
 
 

@@ -686,7 +686,7 @@ def test_the_findings_estimate_says_when_its_bands_are_not_for_this_species(qtbo
     patient._species_typed()
     patient.finding_boxes["skin_return_delayed"].setChecked(True)
     assert "written for dogs and cats" in patient.estimate_label.text()
-    assert "bearded dragon" in patient.estimate_label.text()
+    assert "(Bearded dragon)" in patient.estimate_label.text()
     patient.species_box.lineEdit().setText("Dog")
     patient._species_typed()
     assert "6–8 %" in patient.estimate_label.text()

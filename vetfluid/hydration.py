@@ -34,7 +34,7 @@ def findings_caveat(species_id: str, common_name: str) -> str:
         return ""
     return (
         "These bands were written for dogs and cats (DiBartola 2012); vetfluid has none for "
-        f"the {common_name.lower()}, so take the estimate as a rough guide."
+        f"this species ({common_name}), so take the estimate as a rough guide."
     )
 
 
