@@ -349,3 +349,36 @@ def test_a_set_aside_copy_that_cannot_be_written_leaves_no_half_file(tmp_path, m
             records.draft()
         assert list(tmp_path.glob("records-unreadable-draft-*")) == []
         assert records._db.execute("SELECT content_json FROM draft").fetchone()[0] == "[cut"
+
+
+def test_merging_kept_observations_adds_what_is_missing_and_applies_the_users_removals(
+    tmp_path,
+):
+    """Kept in a draft while the version was locked: A was there, the user removed X and
+    recorded B; meanwhile C reached the version. Merged: A, C and B; X gone; an
+    unreadable stored row untouched."""
+    a, x = {"hour": 1.0, "weight_kg": 24.0}, {"hour": 1.5, "weight_kg": 42.0}
+    b, c = {"hour": 2.0, "weight_kg": 24.2}, {"hour": 3.0, "heart_rate_per_min": 120}
+    with Records.open(tmp_path / "records.sqlite") as records:
+        version = _version_of_a_dog(records)
+        records.keep_observations(version_id=version, observations=[a, x, c])
+        records._write(
+            "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
+            " VALUES (?, ?, ?)",
+            (version, "{cut", "2026-12-04T06:00:00+00:00"),
+        )
+        added = records.merge_observations(version_id=version, observations=[a, b],
+                                           based_on=[a, x])  # fmt: skip
+        assert added == 1
+        stored = records.observations(version)
+        assert sorted(map(str, stored)) == sorted(map(str, [a, c, b, "{cut"]))
+        # with nothing known of what it held, nothing is removed
+        assert records.merge_observations(version_id=version, observations=[x]) == 1
+        assert x in records.observations(version)
+
+
+def _version_of_a_dog(records) -> int:
+    pid = records.add_patient(name="Rex", species_id="dog")
+    records.save_version(patient_id=pid, plan=build_plan(DEMOS["dehydrated_dog"].request),
+                         acknowledged={})  # fmt: skip
+    return records.versions(pid)[0].id

@@ -1113,8 +1113,10 @@ def test_an_unreadable_draft_that_cannot_be_set_aside_blocks_nothing(
     assert window._has_unsaved_work() and "Not saved" in window.statusBar().currentMessage()
     monkeypatch.setattr(records_module.os, "open", real_open)  # room again
     window._draft_timer.stop()
+    told.clear()
+    answer({"set aside as": lambda: told.append(1)})
     window._save_draft()
-    assert "set aside as" in window.statusBar().currentMessage()
+    assert told == [1]  # said where it went, once
     assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
     [kept] = window.records.path.parent.glob("records-unreadable-draft-*.txt")
     assert kept.read_text() == "[cut"
@@ -1150,3 +1152,70 @@ def test_observations_go_back_into_their_version_even_when_it_no_longer_builds(
     assert again.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 0.066}]
     assert again.records.draft() is None and again.session.plan is None
     assert "Wrote 1 observation(s) to version 1 of Gerry" in again.statusBar().currentMessage()
+
+
+def test_writing_kept_observations_back_keeps_what_the_version_took_since(qtbot, planner, answer):
+    """B is refused by version 1 and kept in the draft; the user leaves, later reopens
+    version 1 and records C, which it takes. At the next start B is written back and C
+    stays; the note on an unreadable stored row is still given."""
+    from ui.main_window import MainWindow
+    from vetfluid.observations import Observation
+
+    window = planner
+    saved = _saved_dog(qtbot, window)
+    window.records._write(
+        "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
+        " VALUES (?, ?, ?)",
+        (saved.id, "{cut", "2026-12-04T06:00:00+00:00"),
+    )
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))  # B
+    disk = _version_writes_fail(window)
+    window._draft_timer.stop()
+    window._save_draft()
+    answer({LEAVE: QMessageBox.StandardButton.No})
+    window.new_patient()
+    disk.undo()
+    window.load_version(saved.patient_id, saved.version)
+    window.session.add_observation(Observation(hour=3.0, heart_rate_per_min=120))  # C
+    window._draft_timer.stop()
+    window._save_draft()
+    assert window.records.draft()["for_version"] == saved.id  # B still waits in the draft
+    assert window.close()
+    answer({"version 1 of Rex": QMessageBox.StandardButton.Yes})
+    again = MainWindow()
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: again.session is not None and again.records.draft() is None)
+    stored = again.records.observations(saved.id)
+    assert {"hour": 2.0, "weight_kg": 24.2} in stored
+    assert {"hour": 3.0, "heart_rate_per_min": 120} in stored and "{cut" in stored
+    said = again.statusBar().currentMessage()
+    assert "Wrote 1 observation(s) to version 1 of Rex" in said and "could not be read" in said
+
+
+def test_a_version_that_does_not_build_takes_its_observations_and_leaves_no_draft(
+    qtbot, planner, answer
+):
+    import dataclasses
+
+    from vetfluid.observations import Observation
+    from vetfluid.overrides import set_override
+
+    window = planner
+    window.session.replace_request(
+        dataclasses.replace(DEMOS["small_gerbil"].request, device="divided")
+    )
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.save_version(name="Gerry", author="AB")
+    saved = window.records.versions(window.current_patient)[0]
+    window.new_patient()
+    set_override(species_id="mongolian_gerbil", parameter="continuous_line_min_kg", value=0.05)
+    window.session.reload_table()
+    window.load_version(saved.patient_id, 1)
+    assert window.session.plan is None
+    window.session.add_observation(Observation(hour=2.0, weight_kg=0.066))
+    window._draft_timer.stop()
+    window._save_draft()
+    assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 0.066}]
+    assert not window._has_unsaved_work() and window.records.draft() is None
+    window.new_patient()  # nothing asked

@@ -453,12 +453,16 @@ class MainWindow(QMainWindow):
 
     def _draft_is_ours(self) -> bool:
         """Whether the stored draft is this plan's; one that cannot be read is nobody's (it
-        is set aside when a draft is next saved, :meth:`Records.save_draft`)."""
-        from vetfluid.records import RecordsError
+        is set aside here, or when a draft is next saved, :meth:`Records.save_draft`)."""
+        from vetfluid.records import DraftSetAside, RecordsError
 
         try:
             draft = self.records.draft()
-        except RecordsError:
+        except DraftSetAside as exc:
+            self._say_set_aside(exc.path)
+            return False
+        except RecordsError as exc:  # stays where it is: said, and tried again later
+            self.statusBar().showMessage(f"The draft left last time: {exc.one_line()}")
             return False
         return bool(draft) and draft.get("tag") == self._plan_tag
 
@@ -486,11 +490,8 @@ class MainWindow(QMainWindow):
                 self.records.clear_draft()
             self._write_error = ""
             if self.records.last_set_aside is not None:
-                self.statusBar().showMessage(
-                    "The draft left last time could not be read; it was set aside as "
-                    f"{self.records.last_set_aside}."
-                )
-                self.records.last_set_aside = None
+                kept, self.records.last_set_aside = self.records.last_set_aside, None
+                self._say_set_aside(kept)
         except RecordsError as exc:
             self._write_error = exc.one_line()
             self.statusBar().showMessage(f"Not saved (trying again): {exc.one_line()}")
@@ -508,8 +509,13 @@ class MainWindow(QMainWindow):
             )
         except RecordsError as exc:
             self._version_behind = exc.one_line()
+            row_id = self._saved_version.row_id
+            try:  # what it holds: the user's removals can then be told from later additions
+                held = self.records.observations(row_id)
+            except RecordsError:
+                held = None
             self.records.save_draft(
-                self._draft(request, closed=closed, for_version=self._saved_version.row_id)
+                {**self._draft(request, closed=closed, for_version=row_id), "version_had": held}
             )
             self.statusBar().showMessage(
                 "Observations kept in the draft; not yet in the saved version (trying again): "
@@ -608,9 +614,12 @@ class MainWindow(QMainWindow):
         be written."""
         from vetfluid.records import RecordsError
 
-        row_id = draft["for_version"]
+        row_id, held = draft["for_version"], draft.get("version_had")
         try:
-            self.records.keep_observations(version_id=row_id, observations=observations)
+            added = self.records.merge_observations(
+                version_id=row_id, observations=observations,
+                based_on=held if isinstance(held, list) else None,
+            )  # fmt: skip
             self.records.clear_draft()
         except RecordsError as exc:
             QMessageBox.warning(
@@ -620,9 +629,9 @@ class MainWindow(QMainWindow):
                 "next start.",
             )  # fmt: skip
             return False
-        self.load_version(version[0], version[1])
+        unreadable = self.load_version(version[0], version[1]) or ""
         self.statusBar().showMessage(
-            f"Wrote {len(observations)} observation(s) to version {version[1]} of {version[2]}."
+            f"Wrote {added} observation(s) to version {version[1]} of {version[2]}.{unreadable}"
         )
         return True
 
@@ -652,6 +661,13 @@ class MainWindow(QMainWindow):
         except (RecordsError, LookupError):
             return None
         return None if version is None else (patient_id, version.version, name)
+
+    def _say_set_aside(self, kept: Path) -> None:
+        QMessageBox.warning(
+            self, "vetfluid",
+            f"The draft left last time could not be read; it was set aside as {kept}. "
+            "Nothing was restored from it.",
+        )  # fmt: skip
 
     def _set_draft_aside(self, why: str) -> None:
         from vetfluid.records import RecordsError
@@ -739,11 +755,13 @@ class MainWindow(QMainWindow):
         if dialog.exec() and dialog.chosen():
             self.load_version(*dialog.chosen())
 
-    def load_version(self, patient_id: int, version: int) -> None:
+    def load_version(self, patient_id: int, version: int) -> str | None:
+        """Open a saved version with its observations; returns the note on any stored
+        observation that could not be read ("" when none), None when the user stayed."""
         from vetfluid.serialize import request_from_dict
 
         if not self._leave_plan():
-            return
+            return None
         chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
         # what each warning said when the version was saved: its reason covers that only
         said = {f.get("code"): f.get("message") for f in chosen.plan.get("findings", ())}
@@ -755,10 +773,13 @@ class MainWindow(QMainWindow):
             row_id=chosen.id, request=stored, acknowledged=self.session.acknowledged
         )
         self._remember_valid()
+        if self._last_valid is None:  # it does not build now: still the version it was
+            self._last_valid = (stored, True)
         unreadable = self._restore_observations(self.records.observations(chosen.id))
         self.current_patient = patient_id
         patient = self.records.patient(patient_id)
         self.statusBar().showMessage(f"Opened {patient.name}, version {version}.{unreadable}")
+        return unreadable
 
     def _before_replan(self) -> bool:
         """The plan being replaced is in the records first, with its observations, so the

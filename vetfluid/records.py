@@ -81,6 +81,14 @@ class RecordsError(VetfluidError):
     """The records database cannot be used as asked (the message says why and what to do)."""
 
 
+class DraftSetAside(RecordsError):
+    """The stored draft could not be read and was moved, as stored, to ``path``."""
+
+    def __init__(self, message: str, *, path: Path, fix: str) -> None:
+        super().__init__(message, fix=fix)
+        self.path = path
+
+
 def _json_or_text(text: str) -> object:
     try:
         return json.loads(text)
@@ -358,6 +366,34 @@ class Records:
         ).fetchall()
         return [_json_or_text(r[0]) for r in rows]
 
+    def merge_observations(
+        self, *, version_id: int, observations: list, based_on: list | None = None
+    ) -> int:
+        """Bring into a version the observations kept for it (in a draft) while it could not
+        take them: those it lacks are added; those in ``based_on`` (what it held then) that
+        are no longer among ``observations`` were removed by the user and are removed; what
+        was recorded on it since stays. Without ``based_on`` nothing is removed. Returns
+        how many were added."""
+        from collections import Counter
+
+        def counted(records: list) -> Counter:
+            return Counter(k for r in records if (k := _observation_key(r)) is not None)
+
+        current = [r for r in self.observations(version_id) if _observation_key(r) is not None]
+        removed = counted(based_on) - counted(observations) if based_on is not None else Counter()
+        added = counted(observations) - counted(current)
+        given = {_observation_key(r): r for r in observations}
+        kept = []
+        for record in current:
+            key = _observation_key(record)
+            if removed[key]:
+                removed[key] -= 1
+            else:
+                kept.append(record)
+        kept += [given[k] for k in added.elements()]
+        self.keep_observations(version_id=version_id, observations=kept)
+        return sum(added.values())
+
     def keep_observations(self, *, version_id: int, observations: list[dict]) -> bool:
         """Make the version's stored observations the ones given (one transaction).
 
@@ -434,17 +470,21 @@ class Records:
         if isinstance(content, dict):
             return content
         kept = self._move_aside(stored)
-        raise RecordsError(
+        raise DraftSetAside(
             f"the draft in {self.path.name} could not be read; it was set aside as {kept}",
+            path=kept,
             fix="nothing was restored from it; the file holds what was stored",
         )
 
     def set_aside_draft(self) -> Path | None:
         """Move the stored draft, byte for byte, into a new file beside the records: one
         that reads but cannot be restored. None when there is no draft."""
-        row = self._db.execute(
-            "SELECT CAST(content_json AS BLOB) FROM draft WHERE id = 1"
-        ).fetchone()
+        try:
+            row = self._db.execute(
+                "SELECT CAST(content_json AS BLOB) FROM draft WHERE id = 1"
+            ).fetchone()
+        except sqlite3.DatabaseError as exc:
+            raise RecordsError(f"the draft in {self.path.name} cannot be read: {exc}") from exc
         return None if row is None else self._move_aside(bytes(row[0]))
 
     def _move_aside(self, stored: bytes) -> Path:
