@@ -125,8 +125,8 @@ TRIMMED_PROBE = textwrap.dedent(
     ]
     from pyqtgraph.Qt import QtWidgets as pg_widgets
 
-    class OnPyqtgraphsName(pg_widgets.QOpenGLWidget):  # as pyqtgraph.opengl's 3D view is
-        pass
+    class OnPyqtgraphsName(pg_widgets.QOpenGLWidget):
+        built_as = "pyqtgraph.opengl builds its 3D view: on pyqtgraph's name for the class"
 
     gl = importlib.import_module("PySide6.QtOpenGL")
     gl_widgets = importlib.import_module("PySide6.QtOpenGLWidgets")

@@ -122,6 +122,7 @@ class MainWindow(QMainWindow):
         self._restore_geometry()
         self._painted = False
         self._closed = False
+        self._tab_labels: dict[QWidget, tuple[str, str | None]] = {}  # page: (words, severity)
         self.installEventFilter(self)
 
     def eventFilter(self, watched, event) -> bool:  # noqa: N802,ANN001 (Qt override)
@@ -932,12 +933,7 @@ class MainWindow(QMainWindow):
             elif self.session.ready:
                 label += " — ready"
             severity = "hard" if hard else ("soft" if soft else "info")
-        if (label, severity) == getattr(self, "_check_tab_state", None):
-            return  # relabelling a tab relays out the whole window: only when it changes
-        self._check_tab_state = (label, severity)
-        index = self.details.indexOf(self.findings)
-        self.details.setTabText(index, label)
-        self.details.setTabIcon(index, icon(f"severity-{severity}") if severity else QIcon())
+        self._label_tab(self.findings, label, severity)
 
     def _update_course_tab(self, *_: object) -> None:
         """The Course tab says how many alerts the observations raise, in words and by
@@ -962,10 +958,15 @@ class MainWindow(QMainWindow):
         if found:
             label += f" — {len(found)} alert{'s' if len(found) > 1 else ''}"
             severity = next(s for s in reversed(SEVERITIES) if any(f.severity == s for f in found))
-        if (label, severity) == getattr(self, "_course_tab_state", None):
-            return  # relabelling a tab relays out the whole window: only when it changes
-        self._course_tab_state = (label, severity)
-        index = self.details.indexOf(self.course_holder)
+        self._label_tab(self.course_holder, label, severity)
+
+    def _label_tab(self, page: QWidget, label: str, severity: str | None) -> None:
+        """A details tab's words and severity icon, set only when they change: relabelling
+        a tab relays out the whole window."""
+        if self._tab_labels.get(page) == (label, severity):
+            return
+        self._tab_labels[page] = (label, severity)
+        index = self.details.indexOf(page)
         self.details.setTabText(index, label)
         self.details.setTabIcon(index, icon(f"severity-{severity}") if severity else QIcon())
 
