@@ -752,6 +752,19 @@ def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
     assert window.records.observations(versions[1].id) == []
 
 
+def _saved_divided_gerbil(qtbot, window):
+    """Version 1 of Gerry, 65 g, on divided boluses: a plan that stops building once a
+    clinic override lowers the gerbil's line weight below 65 g."""
+    import dataclasses
+
+    window.session.replace_request(
+        dataclasses.replace(DEMOS["small_gerbil"].request, device="divided")
+    )
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.save_version(name="Gerry", author="AB")
+    return window.records.versions(window.current_patient)[0]
+
+
 def _version_writes_fail(window):
     """The saved version refuses the observations (locked); the draft can still be written."""
     import pytest
@@ -1125,19 +1138,13 @@ def test_an_unreadable_draft_that_cannot_be_set_aside_blocks_nothing(
 def test_observations_go_back_into_their_version_even_when_it_no_longer_builds(
     qtbot, planner, answer
 ):
-    import dataclasses
 
     from ui.main_window import MainWindow
     from vetfluid.observations import Observation
     from vetfluid.overrides import set_override
 
     window = planner
-    window.session.replace_request(
-        dataclasses.replace(DEMOS["small_gerbil"].request, device="divided")
-    )
-    qtbot.waitUntil(lambda: window.session.plan is not None)
-    window.save_version(name="Gerry", author="AB")
-    saved = window.records.versions(window.current_patient)[0]
+    saved = _saved_divided_gerbil(qtbot, window)
     window.session.add_observation(Observation(hour=2.0, weight_kg=0.066))
     disk = _version_writes_fail(window)
     assert window.close()
@@ -1196,18 +1203,12 @@ def test_writing_kept_observations_back_keeps_what_the_version_took_since(qtbot,
 def test_a_version_that_does_not_build_takes_its_observations_and_leaves_no_draft(
     qtbot, planner, answer
 ):
-    import dataclasses
 
     from vetfluid.observations import Observation
     from vetfluid.overrides import set_override
 
     window = planner
-    window.session.replace_request(
-        dataclasses.replace(DEMOS["small_gerbil"].request, device="divided")
-    )
-    qtbot.waitUntil(lambda: window.session.plan is not None)
-    window.save_version(name="Gerry", author="AB")
-    saved = window.records.versions(window.current_patient)[0]
+    saved = _saved_divided_gerbil(qtbot, window)
     window.new_patient()
     set_override(species_id="mongolian_gerbil", parameter="continuous_line_min_kg", value=0.05)
     window.session.reload_table()
