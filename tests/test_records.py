@@ -382,3 +382,28 @@ def _version_of_a_dog(records) -> int:
     records.save_version(patient_id=pid, plan=build_plan(DEMOS["dehydrated_dog"].request),
                          acknowledged={})  # fmt: skip
     return records.versions(pid)[0].id
+
+
+def test_merging_leaves_a_removal_made_on_the_version_since(tmp_path):
+    """A on the version, B kept in the draft ([A, B], held [A]); A then removed from the
+    reopened version: B arrives, A stays removed; B typed again meanwhile is not doubled;
+    an unreadable item among the kept ones is stored as it is."""
+    a, b = {"hour": 1.0, "weight_kg": 24.0}, {"hour": 2.0, "weight_kg": 24.2}
+    with Records.open(tmp_path / "records.sqlite") as records:
+        version = _version_of_a_dog(records)
+        records.keep_observations(version_id=version, observations=[])  # A removed since
+        assert records.merge_observations(version_id=version, observations=[a, b],
+                                          based_on=[a]) == 1  # fmt: skip
+        assert records.observations(version) == [b]
+        assert records.merge_observations(version_id=version, observations=[a, b],
+                                          based_on=[a]) == 0  # fmt: skip
+        records.merge_observations(version_id=version, observations=["{newer", b], based_on=[])
+        assert records.observations(version) == [b, "{newer"]
+
+
+def test_a_failed_read_of_observations_is_a_records_error(tmp_path):
+    with Records.open(tmp_path / "records.sqlite") as records:
+        version = _version_of_a_dog(records)
+        records._db.execute("DROP TABLE observations")  # as a damaged file would read
+        with pytest.raises(RecordsError, match="could not read the observations"):
+            records.observations(version)

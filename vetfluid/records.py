@@ -360,28 +360,39 @@ class Records:
     def observations(self, version_id: int) -> list:
         """The observations recorded on a version, oldest first. A row whose text is not
         readable is returned as that text, for the caller to count as unreadable."""
-        rows = self._db.execute(
-            "SELECT observation_json FROM observations WHERE plan_version_id = ? ORDER BY id",
-            (version_id,),
-        ).fetchall()
+        try:
+            rows = self._db.execute(
+                "SELECT observation_json FROM observations WHERE plan_version_id = ? ORDER BY id",
+                (version_id,),
+            ).fetchall()
+        except sqlite3.DatabaseError as exc:
+            raise RecordsError(
+                f"could not read the observations in {self.path.name}: {exc}"
+            ) from exc
         return [_json_or_text(r[0]) for r in rows]
 
     def merge_observations(
         self, *, version_id: int, observations: list, based_on: list | None = None
     ) -> int:
         """Bring into a version the observations kept for it (in a draft) while it could not
-        take them: those it lacks are added; those in ``based_on`` (what it held then) that
-        are no longer among ``observations`` were removed by the user and are removed; what
-        was recorded on it since stays. Without ``based_on`` nothing is removed. Returns
-        how many were added."""
+        take them. With ``based_on`` (what it held when they were kept): those added since
+        then that it still lacks are added, and those removed since then are removed, so
+        what was recorded on it or removed from it meanwhile stands. Without ``based_on``:
+        those it lacks are added and nothing is removed. An item that cannot be read is
+        stored as it is, for the reader to count. Returns how many were added."""
         from collections import Counter
 
         def counted(records: list) -> Counter:
             return Counter(k for r in records if (k := _observation_key(r)) is not None)
 
         current = [r for r in self.observations(version_id) if _observation_key(r) is not None]
-        removed = counted(based_on) - counted(observations) if based_on is not None else Counter()
-        added = counted(observations) - counted(current)
+        ours, now = counted(observations), counted(current)
+        if based_on is None:
+            removed, added = Counter(), ours - now
+        else:
+            before = counted(based_on)
+            removed = before - ours
+            added = Counter({k: n - max(before[k], now[k]) for k, n in ours.items()}) + Counter()
         given = {_observation_key(r): r for r in observations}
         kept = []
         for record in current:
@@ -391,7 +402,8 @@ class Records:
             else:
                 kept.append(record)
         kept += [given[k] for k in added.elements()]
-        self.keep_observations(version_id=version_id, observations=kept)
+        unreadable = [r for r in observations if _observation_key(r) is None]
+        self.keep_observations(version_id=version_id, observations=kept + unreadable)
         return sum(added.values())
 
     def keep_observations(self, *, version_id: int, observations: list[dict]) -> bool:
