@@ -264,13 +264,21 @@ def test_compare_gives_divided_doses_as_drawn_up():
             assert shown.endswith(f"{sites} sites of {per_site} mL")
 
 
+def _store_draft_text(records, text: str) -> None:
+    """A draft row holding ``text`` as it is, as a disk cut short or another program
+    might leave it."""
+    records._write(
+        "INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
+        (text, "2026-12-04T06:00:00+00:00"),
+    )
+
+
 @pytest.mark.parametrize("stored", ['{"request": {"species_id": "dog"', "[1, 2]", "null"])
 def test_a_draft_that_cannot_be_read_is_set_aside_in_a_file_not_lost(tmp_path, stored):
     """Cut short, or not a draft at all: never offered, never overwritten unseen; the text
     is kept in an owner-only file beside the records, and the error says where."""
     with Records.open(tmp_path / "records.sqlite") as records:
-        records._write("INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
-                       (stored, "2026-12-04T06:00:00+00:00"))  # fmt: skip
+        _store_draft_text(records, stored)
         with pytest.raises(RecordsError, match="set aside as") as raised:
             records.draft()
         [kept] = tmp_path.glob("records-unreadable-draft-*.txt")
@@ -307,8 +315,7 @@ def test_a_draft_that_cannot_be_set_aside_stays_and_is_not_overwritten(tmp_path,
         return real_open(path, *args, **kwargs)
 
     with Records.open(tmp_path / "records.sqlite") as records:
-        records._write("INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
-                       ("[cut", "2026-12-04T06:00:00+00:00"))  # fmt: skip
+        _store_draft_text(records, "[cut")
         monkeypatch.setattr(records_module.os, "open", no_space)
         with pytest.raises(RecordsError, match="nor copied"):
             records.draft()
@@ -342,8 +349,7 @@ def test_a_set_aside_copy_that_cannot_be_written_leaves_no_half_file(tmp_path, m
         return out
 
     with Records.open(tmp_path / "records.sqlite") as records:
-        records._write("INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
-                       ("[cut", "2026-12-04T06:00:00+00:00"))  # fmt: skip
+        _store_draft_text(records, "[cut")
         monkeypatch.setattr(records_module.os, "fdopen", full_disk)
         with pytest.raises(RecordsError, match="nor copied"):
             records.draft()

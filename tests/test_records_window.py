@@ -765,6 +765,16 @@ def _saved_divided_gerbil(qtbot, window):
     return window.records.versions(window.current_patient)[0]
 
 
+def _weight_the_version_refuses(qtbot, window):
+    """Version 1 of Rex with a weight recorded on it (24.2 kg at hour 2) that the version
+    refuses to take; returns the version and the lock (``.undo()`` lifts it)."""
+    from vetfluid.observations import Observation
+
+    saved = _saved_dog(qtbot, window)
+    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    return saved, _version_writes_fail(window)
+
+
 def _version_writes_fail(window):
     """The saved version refuses the observations (locked); the draft can still be written."""
     import pytest
@@ -784,12 +794,9 @@ def test_observations_the_version_refuses_are_kept_in_the_draft_and_leaving_says
 ):
     """Written to the draft instead of the saved version: not lost. Leaving (No) keeps them
     in the draft and goes on; closing asks nothing; the next start offers them back."""
-    from vetfluid.observations import Observation
 
     window = planner
-    _saved_dog(qtbot, window)
-    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-    disk = _version_writes_fail(window)
+    _, disk = _weight_the_version_refuses(qtbot, window)
     window._draft_timer.stop()
     window._save_draft()
     assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
@@ -809,12 +816,9 @@ def test_observations_the_version_refuses_are_kept_in_the_draft_and_leaving_says
 
 
 def test_closing_while_the_version_refuses_observations_asks_nothing(qtbot, planner, answer):
-    from vetfluid.observations import Observation
 
     window = planner
-    saved = _saved_dog(qtbot, window)
-    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-    disk = _version_writes_fail(window)
+    saved, disk = _weight_the_version_refuses(qtbot, window)
     assert window.close()  # the draft takes them: no "lose it?" question
     disk.undo()
     with Records.open() as records:
@@ -824,12 +828,9 @@ def test_closing_while_the_version_refuses_observations_asks_nothing(qtbot, plan
 
 
 def test_once_the_version_takes_the_observations_the_draft_is_cleared(qtbot, planner, answer):
-    from vetfluid.observations import Observation
 
     window = planner
-    saved = _saved_dog(qtbot, window)
-    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-    disk = _version_writes_fail(window)
+    saved, disk = _weight_the_version_refuses(qtbot, window)
     window._save_draft()
     assert window.records.draft() is not None
     disk.undo()
@@ -1023,12 +1024,9 @@ def test_observations_a_version_refused_are_offered_back_into_that_version(qtbot
     """The draft kept them while the version was locked; at the next start they are
     offered for that version, by its number and patient, and written into it."""
     from ui.main_window import MainWindow
-    from vetfluid.observations import Observation
 
     window = planner
-    saved = _saved_dog(qtbot, window)
-    window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-    disk = _version_writes_fail(window)
+    saved, disk = _weight_the_version_refuses(qtbot, window)
     assert window.close()  # the draft holds the weight: nothing asked
     disk.undo()
     asked = []
