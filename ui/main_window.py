@@ -12,7 +12,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, NamedTuple
 
 from PySide6.QtCore import QDateTime, QEvent, QSettings, QTimer
 from PySide6.QtGui import QAction, QIcon, QKeySequence
@@ -39,6 +39,14 @@ if TYPE_CHECKING:
     from vetfluid.plan import PlanRequest
 
 FILE_FILTER = "vetfluid plan request (*.vfplan.json)"
+
+
+class VersionBehind(NamedTuple):
+    """The saved version a draft holds observations for, which it could not take."""
+
+    patient_id: int
+    number: int
+    patient_name: str
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -550,11 +558,14 @@ class MainWindow(QMainWindow):
         """Offer back the plan that was being edited when vetfluid last stopped, or the
         observations a saved version could not take. A draft that cannot be restored is
         set aside in a file, never dropped."""
-        from vetfluid.records import RecordsError
+        from vetfluid.records import DraftSetAside, RecordsError
 
         try:
             draft = self.records.draft() if self.records is not None else None
-        except RecordsError as exc:  # unreadable: set aside in a file, nothing to restore
+        except DraftSetAside as exc:  # unreadable: in a file now, nothing to restore
+            self._say_set_aside(exc.path)
+            return False
+        except RecordsError as exc:  # unreadable and still in place
             QMessageBox.warning(self, "vetfluid", f"The plan last worked on: {exc.one_line()}.")
             return False
         if not draft:
@@ -568,9 +579,9 @@ class MainWindow(QMainWindow):
         version = self._version_behind_in(draft)
         if version is not None:
             question = (
-                f"Observations recorded on version {version[1]} of {version[2]} could not be "
-                "written to it when vetfluid last ran; the draft kept them. Write them to "
-                "that version now? No discards them."
+                f"Observations recorded on version {version.number} of {version.patient_name} "
+                "could not be written to it when vetfluid last ran; the draft kept them. Write "
+                "them to that version now? No discards them."
             )
         elif draft.get("closed"):
             question = (
@@ -609,7 +620,7 @@ class MainWindow(QMainWindow):
         self.statusBar().showMessage("Restored the plan that was being edited." + unreadable)
         return True
 
-    def _into_version(self, draft: dict, version: tuple[int, int, str], observations: list) -> bool:
+    def _into_version(self, draft: dict, version: VersionBehind, observations: list) -> bool:
         """Write the observations a saved version could not take into it, straight away
         (whether or not it still builds), then open it; the draft stays when they cannot
         be written."""
@@ -625,14 +636,15 @@ class MainWindow(QMainWindow):
         except RecordsError as exc:
             QMessageBox.warning(
                 self, "vetfluid",
-                f"The observations could not be written to version {version[1]}: "
+                f"The observations could not be written to version {version.number}: "
                 f"{exc.one_line()}\n\nThe draft keeps them; they are offered again at the "
                 "next start.",
             )  # fmt: skip
             return False
-        unreadable = self.load_version(version[0], version[1]) or ""
+        unreadable = self.load_version(version.patient_id, version.number) or ""
         self.statusBar().showMessage(
-            f"Wrote {added} observation(s) to version {version[1]} of {version[2]}.{unreadable}"
+            f"Wrote {added} observation(s) to version {version.number} of "
+            f"{version.patient_name}.{unreadable}"
         )
         return True
 
@@ -648,9 +660,9 @@ class MainWindow(QMainWindow):
             raise TypeError("its observations are not a list")
         return request, observations
 
-    def _version_behind_in(self, draft: dict) -> tuple[int, int, str] | None:
-        """(patient id, version number, patient name) when the draft holds observations
-        that version could not take, and the version is still in the records."""
+    def _version_behind_in(self, draft: dict) -> VersionBehind | None:
+        """The saved version the draft holds observations for, which it could not take,
+        while that version is still in the records."""
         from vetfluid.records import RecordsError
 
         row_id, patient_id = draft.get("for_version"), draft.get("patient_id")
@@ -661,7 +673,7 @@ class MainWindow(QMainWindow):
             name = self.records.patient(patient_id).name if version else ""
         except (RecordsError, LookupError):
             return None
-        return None if version is None else (patient_id, version.version, name)
+        return None if version is None else VersionBehind(patient_id, version.version, name)
 
     def _say_set_aside(self, kept: Path) -> None:
         QMessageBox.warning(
