@@ -392,7 +392,8 @@ class Records:
         else:
             before = counted(based_on)
             removed = before - ours
-            added = Counter({k: n - max(before[k], now[k]) for k, n in ours.items()}) + Counter()
+            wanted = Counter({k: n - max(before[k], now[k]) for k, n in ours.items()})
+            added = +wanted  # the unary plus keeps the positive counts only
         given = {_observation_key(r): r for r in observations}
         kept = []
         for record in current:
