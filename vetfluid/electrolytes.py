@@ -4,10 +4,16 @@
   for each band — Côté E (ed.), Clinical Veterinary Advisor: Dogs and Cats, 4th
   ed., 2020 (after Greene 1975), shipped as ``species_data/potassium_scale.csv``.
   Ceiling 0.5 mmol/kg/h (Côté 2020) — mEq and mmol are equal for K⁺.
-* Sodium: Adrogué HJ, Madias NE. Hypernatremia. N Engl J Med 2000;342:1493–1499:
-  change in serum Na after one litre of infusate =
-  (infusate Na + infusate K − serum Na) / (TBW + 1), TBW in litres. Exact only for
-  one litre; rates are derived by scaling that change per litre.
+* Sodium: Adrogué HJ, Madias NE. Hypernatremia. N Engl J Med 2000;342:1493–1499,
+  in its general form for a volume V (Chen et al., Kidney360 2021):
+  ΔNa = V·(infusate Na + infusate K − serum Na) / (TBW + V), TBW and V in litres;
+  the familiar per-litre figure is V = 1 L. Rates come from the general form, never
+  by scaling the one-litre change: for a 35 g bird TBW is 0.02 L, and one litre would
+  be fifty times its body water. The plan's own Na path (:func:`serum_na_path`) is the
+  same balance the course steps through (Edelman 1958): Na = (Na + K)ₑ / TBW.
+* Potassium for other species: the scale was written for dogs and cats; for any
+  other species serum K is banded by how far it lies below that species' own
+  reference low (:func:`potassium_band_for_species`; derived here, no source).
 """
 
 from __future__ import annotations
@@ -15,6 +21,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
+
+import numpy as np
 
 from vetfluid.checks import require_number, require_patient_weight
 from vetfluid.csvfiles import parse_number, read_rows
@@ -71,6 +79,51 @@ def potassium_band(serum_k: float) -> PotassiumBand | None:
     return None
 
 
+# The dog/cat scale's own reference low: its maintenance band begins above 3.5 mmol/L.
+SCALE_REFERENCE_LOW_MMOL_PER_L = 3.5
+SCALE_SPECIES = ("dog", "cat")
+
+
+@dataclass(frozen=True, kw_only=True)
+class SpeciesPotassiumBand:
+    """The scale's band for a patient, with how it was found for its species."""
+
+    band: PotassiumBand | None  # None: at or above the species' high (no KCl)
+    scale_written_for_species: bool
+    compared_at_mmol_per_l: float  # the serum K the scale was read at
+    species_low: float
+    species_high: float
+    above_range: bool
+
+
+def potassium_band_for_species(
+    serum_k: float, *, species_id: str, species_low: float, species_high: float
+) -> SpeciesPotassiumBand:
+    """The KCl band for a serum K judged against the species' own reference interval.
+
+    Dogs and cats: the published scale as it stands (Côté 2020), except that a K above
+    the species' reference high gets no KCl. Every other species (derived here, no
+    source): within its own range it gets the scale's maintenance band; below it, the
+    scale is read at 3.5 − (species low − serum K), i.e. by how far the patient lies
+    below its own reference low, as a dog's K lies below the scale's 3.5. The caller
+    says that the scale was written for dogs and cats.
+    """
+    _finite("serum_k", serum_k, 0.5, 12, "mmol/L")
+    own = species_id in SCALE_SPECIES
+    above = serum_k > species_high
+    if own:
+        at = serum_k
+    elif serum_k >= species_low:
+        at = load_potassium_scale()[-1].serum_k_max  # within its own range: maintenance
+    else:
+        at = max(0.5, SCALE_REFERENCE_LOW_MMOL_PER_L - (species_low - serum_k))
+    band = None if above else potassium_band(at)
+    return SpeciesPotassiumBand(
+        band=band, scale_written_for_species=own, compared_at_mmol_per_l=at,
+        species_low=species_low, species_high=species_high, above_range=above,
+    )  # fmt: skip
+
+
 def potassium_mmol_per_kg_h(
     *, k_mmol_per_l: float, rate_ml_per_h: float, weight_kg: float
 ) -> float:
@@ -88,27 +141,75 @@ def max_rate_for_potassium(
     return ceiling * weight_kg * 1000.0 / k_mmol_per_l
 
 
-def sodium_change_per_litre(
-    *, serum_na: float, infusate_na: float, infusate_k: float, tbw_l: float
+def sodium_change_for_volume(
+    *, serum_na: float, infusate_na: float, infusate_k: float, tbw_l: float, volume_l: float
 ) -> float:
-    """Adrogué–Madias: ΔNa (mmol/L) after 1 L = (Na_inf + K_inf − Na_serum) / (TBW + 1)."""
+    """Adrogué–Madias in its general form (Adrogué & Madias 2000; Chen et al., Kidney360
+    2021): ΔNa (mmol/L) after ``volume_l`` litres = V·(Na_inf + K_inf − Na)/(TBW + V)."""
     _finite("serum_na", serum_na, 80, 230, "mmol/L")
     _finite("infusate_na", infusate_na, 0, 2000, "mmol/L")
     _finite("infusate_k", infusate_k, 0, 2000, "mmol/L")
     _finite("tbw_l", tbw_l, 1e-4, 2000, "L")
-    return (infusate_na + infusate_k - serum_na) / (tbw_l + 1.0)
+    _finite("volume_l", volume_l, 0, 1e4, "L")
+    return volume_l * (infusate_na + infusate_k - serum_na) / (tbw_l + volume_l)
 
 
-def max_rate_for_sodium(*, change_per_litre: float, max_change_per_h: float) -> float | None:
-    """Fastest rate (mL/h) that keeps the predicted Na change within ``max_change_per_h``.
+def sodium_change_per_litre(
+    *, serum_na: float, infusate_na: float, infusate_k: float, tbw_l: float
+) -> float:
+    """Adrogué–Madias: ΔNa (mmol/L) after 1 L = (Na_inf + K_inf − Na_serum) / (TBW + 1).
+    A figure for comparison only; rates use :func:`sodium_change_for_volume`."""
+    return sodium_change_for_volume(
+        serum_na=serum_na, infusate_na=infusate_na, infusate_k=infusate_k, tbw_l=tbw_l,
+        volume_l=1.0,
+    )  # fmt: skip
 
-    Rate (L/h) = limit (mmol/L/h) ÷ |ΔNa per litre|; None when the fluid does not
-    move sodium (no limit from this rule).
+
+def max_rate_for_sodium(
+    *, serum_na: float, infusate_na_k: float, tbw_l: float, max_change_per_h: float
+) -> float | None:
+    """Fastest rate (mL/h) whose first hour moves serum Na by at most ``max_change_per_h``.
+
+    From the general form: |V·d|/(TBW + V) ≤ m with d = Na_inf + K_inf − Na gives
+    V ≤ m·TBW/(|d| − m) litres per hour. None when |d| ≤ m: then no rate of this fluid
+    can move Na that fast (it barely moves Na; no limit from this rule).
     """
     _finite("max_change_per_h", max_change_per_h, 0.01, 5, "mmol/L/h")
-    if abs(change_per_litre) < 1e-9:
+    _finite("tbw_l", tbw_l, 1e-4, 2000, "L")
+    gap = abs(infusate_na_k - serum_na)
+    if gap <= max_change_per_h:
         return None
-    return max_change_per_h / abs(change_per_litre) * 1000.0
+    return max_change_per_h * tbw_l / (gap - max_change_per_h) * 1000.0
+
+
+def serum_na_path(
+    *,
+    serum_na: float,
+    tbw_ml: float,
+    given_ml: np.ndarray,
+    na_k_given_mmol: np.ndarray,
+    lost_ml: np.ndarray,
+) -> np.ndarray:
+    """Serum Na at each moment from the exchangeable Na + K balance (Edelman IS et al.,
+    J Clin Invest 1958; stepped as Adrogué & Madias 2000): Na = (Na₀·TBW₀ + Na+K given −
+    Na₀·lost) / (TBW₀ + given − lost), the losses leaving at the starting Na — the same
+    balance :func:`vetfluid.course.course` steps through, so plan and course agree."""
+    exchangeable = serum_na * tbw_ml / 1000.0 + na_k_given_mmol - serum_na * lost_ml / 1000.0
+    water = np.maximum(tbw_ml + given_ml - lost_ml, 1e-9)
+    return exchangeable * 1000.0 / water
+
+
+def largest_hourly_change(hours: np.ndarray, serum_na: np.ndarray) -> tuple[float, float]:
+    """The largest change of serum Na over any one hour on a grid that holds each
+    ``hours[i] + 1`` too, signed, and the hour it starts."""
+    ends = np.searchsorted(hours, hours + 1.0 - 1e-9)
+    valid = ends < len(hours)
+    if not valid.any():
+        return 0.0, 0.0
+    starts = np.nonzero(valid)[0]
+    changes = serum_na[ends[valid]] - serum_na[starts]
+    i = int(np.argmax(np.abs(changes)))
+    return float(changes[i]), float(hours[starts[i]])
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -134,10 +235,13 @@ class SodiumSummary:
 
     serum_na: float
     tbw_l: float
-    delta_na_per_l: float
-    predicted_change_per_h: float
+    delta_na_per_l: float  # after one litre, for comparison with the textbook figure
+    predicted_change_per_h: float  # in the first hour at the main rate (general form)
     max_change_per_h: float
-    max_rate_ml_per_h: float | None
+    max_rate_ml_per_h: float | None  # fastest main rate within the limit, first hour
+    peak_change_per_h: float = 0.0  # the plan's largest change over any hour, signed
+    peak_hour: float = 0.0  # where that hour starts
+    peak_phase: str = ""  # the phase it starts in
     source_id: str = "adrogue2000"
 
 
@@ -149,18 +253,32 @@ def sodium_summary(
     tbw_l: float,
     rate_ml_per_h: float,
     max_change_per_h: float,
+    peak_change_per_h: float = 0.0,
+    peak_hour: float = 0.0,
+    peak_phase: str = "",
 ) -> SodiumSummary:
-    """ΔNa per litre, the change per hour at ``rate_ml_per_h`` and the fastest safe rate."""
-    change = sodium_change_per_litre(
-        serum_na=serum_na, infusate_na=infusate_na, infusate_k=infusate_k, tbw_l=tbw_l
-    )
+    """ΔNa per litre (for comparison), the change in the first hour at ``rate_ml_per_h``
+    and the fastest rate within the limit, both by the general form; the plan's peak
+    hourly change comes from :func:`serum_na_path` over every phase."""
+    per_volume = {
+        "serum_na": serum_na, "infusate_na": infusate_na, "infusate_k": infusate_k,
+        "tbw_l": tbw_l,
+    }  # fmt: skip
     return SodiumSummary(
         serum_na=serum_na,
         tbw_l=tbw_l,
-        delta_na_per_l=change,
-        predicted_change_per_h=change * rate_ml_per_h / 1000.0,
+        delta_na_per_l=sodium_change_per_litre(**per_volume),
+        predicted_change_per_h=sodium_change_for_volume(
+            **per_volume, volume_l=rate_ml_per_h / 1000.0
+        ),
         max_change_per_h=max_change_per_h,
         max_rate_ml_per_h=max_rate_for_sodium(
-            change_per_litre=change, max_change_per_h=max_change_per_h
-        ),
+            serum_na=serum_na,
+            infusate_na_k=infusate_na + infusate_k,
+            tbw_l=tbw_l,
+            max_change_per_h=max_change_per_h,
+        ),  # fmt: skip
+        peak_change_per_h=peak_change_per_h,
+        peak_hour=peak_hour,
+        peak_phase=peak_phase,
     )

@@ -11,6 +11,8 @@ import math
 from dataclasses import dataclass
 from datetime import datetime, time, timedelta
 
+import numpy as np
+
 from vetfluid import delivery
 from vetfluid.errors import InputError
 from vetfluid.formatting import format_quantity
@@ -60,6 +62,13 @@ class Phase:
         if self.mode != "intermittent" or self.doses is None or self.interval_h is None:
             return []
         return [self.start_h + i * self.interval_h for i in range(self.doses)]
+
+    def given_by(self, hours: np.ndarray) -> np.ndarray:
+        """Volume this phase has delivered by each hour (a dose counts from its hour on)."""
+        if self.mode == "continuous":
+            return (self.rate_ml_per_h or 0.0) * np.clip(hours - self.start_h, 0.0, self.hours)
+        doses = np.asarray(self.dose_hours(), dtype=float)
+        return (self.dose_ml or 0.0) * np.searchsorted(doses, hours, side="right")
 
     def volume_between(self, start_h: float, end_h: float) -> float:
         """Volume this phase delivers within [start_h, end_h)."""

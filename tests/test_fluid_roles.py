@@ -1,0 +1,207 @@
+"""Fluids in the roles and routes they have (issue 16, hazards 1, 2, 3 and 9).
+
+Each test names where its limit comes from. A plan blocked means a hard finding: the
+CLI then exits 3, the window disables 'ready' and the sheet says not to give it.
+"""
+
+import numpy as np
+import pytest
+
+from vetfluid import electrolytes, fluid_roles, fluids
+from vetfluid.course import course
+from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.species import load_table
+
+
+def plan_for(**kw):
+    return build_plan(PlanRequest(**kw))
+
+
+def severities(plan):
+    found = {}
+    for f in plan.findings:
+        found.setdefault(f.code, f.severity)
+    return found
+
+
+# ---- the roles table ----------------------------------------------------------------------
+def test_every_library_fluid_has_roles_and_concentrates_are_additives_only():
+    # USP monographs: KCl for injection concentrate and 50% dextrose are diluted before use.
+    library = fluids.load_fluids()
+    roles = fluid_roles.load_fluid_roles()
+    assert set(library) == set(roles)
+    for fluid_id, fluid in library.items():
+        if fluid.kind == "additive_concentrate":
+            assert roles[fluid_id].additive_only, fluid_id
+
+
+def test_fluids_that_leave_the_circulation_are_never_resuscitation_fluids():
+    # Free water spreads through all body water; only isotonic replacement fluids, colloids
+    # and hypertonic saline expand the plasma (Davis 2013; DiBartola 2012).
+    roles = fluid_roles.load_fluid_roles()
+    for fluid_id in ("dextrose_5", "nacl_0_45", "nacl_0_45_dextrose_2_5"):
+        assert not roles[fluid_id].resuscitation
+    for fluid_id in ("lactated_ringers", "nacl_0_9"):
+        assert roles[fluid_id].resuscitation and roles[fluid_id].carrier
+
+
+def test_hypertonic_saline_is_a_small_single_dose_only():
+    # About 4 mL/kg over at least 5 min (veterinary fluid-therapy chapter, recalled; Ajito 1999)
+    saline = fluid_roles.roles("nacl_7_2")
+    assert not saline.carrier and saline.resuscitation
+    assert saline.bolus_max_ml_per_kg == 4 and saline.bolus_min_minutes == 5
+
+
+# ---- hazard 1: wrong fluid in the wrong role ------------------------------------------
+@pytest.mark.parametrize("fluid_id", ["kcl_2_meq_per_ml", "dextrose_50", "nacl_7_2"])
+def test_a_concentrate_or_hypertonic_saline_as_the_bag_is_blocked(fluid_id):
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=8, fluid_id=fluid_id)
+    assert severities(plan)["FLUID_NOT_A_CARRIER"] == "hard"
+    assert plan.has_hard_limit
+
+
+def test_kcl_concentrate_as_the_bag_is_also_caught_by_the_potassium_ceiling():
+    # 2 mmol/mL K at 119 mL/h for 20 kg ≈ 11.9 mmol/kg/h against 0.5 (Côté 2020)
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=8,
+                    fluid_id="kcl_2_meq_per_ml")  # fmt: skip
+    assert severities(plan)["POTASSIUM_ABOVE_CEILING"] == "hard"
+
+
+def test_hypertonic_saline_is_not_called_a_replacement_fluid():
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=8, fluid_id="nacl_7_2")
+    assert "ISOTONIC_FOR_MAINTENANCE" not in severities(plan) or plan.has_hard_limit
+
+
+@pytest.mark.parametrize("fluid_id", ["dextrose_5", "kcl_2_meq_per_ml", "nacl_0_45"])
+def test_a_bolus_of_a_fluid_without_the_resuscitation_role_is_blocked(fluid_id):
+    plan = plan_for(species_id="dog", weight_kg=20, resuscitation_boluses=2,
+                    bolus_fluid_id=fluid_id)  # fmt: skip
+    assert severities(plan)["FLUID_NOT_FOR_RESUSCITATION"] == "hard"
+
+
+def test_one_hypertonic_saline_bolus_is_sized_by_its_own_dose_and_two_are_blocked():
+    one = plan_for(species_id="dog", weight_kg=20, resuscitation_boluses=1,
+                   bolus_fluid_id="nacl_7_2")  # fmt: skip
+    bolus = one.phases[0]
+    assert bolus.kind == "resuscitation"
+    assert bolus.volume_ml == pytest.approx(4 * 20)  # 4 mL/kg
+    assert bolus.hours * 60 >= 5  # never faster than 5 min
+    assert not one.has_hard_limit
+    assert one.bolus_fluid.fluid_id == "nacl_7_2" and one.bag.fluid_id == "lactated_ringers"
+    two = plan_for(species_id="dog", weight_kg=20, resuscitation_boluses=2,
+                   bolus_fluid_id="nacl_7_2")  # fmt: skip
+    assert severities(two)["FLUID_DOSE_ABOVE_MAX"] == "hard"
+
+
+# ---- routes ---------------------------------------------------------------------------------
+def test_sc_potassium_above_35_is_blocked_and_below_it_is_not():
+    # DiBartola 4th ed. p. 342: 30–35 mEq/L is the most K a subcutaneous fluid should hold.
+    high = plan_for(species_id="dog", weight_kg=20, route="sc", device="divided",
+                    kcl_mmol_per_l=80)  # fmt: skip
+    assert severities(high)["ROUTE_POTASSIUM_LIMIT"] == "hard"
+    low = plan_for(species_id="dog", weight_kg=20, route="sc", device="divided",
+                   kcl_mmol_per_l=20)  # fmt: skip
+    assert "ROUTE_POTASSIUM_LIMIT" not in severities(low)
+
+
+def test_a_central_line_takes_what_a_peripheral_vein_does_not():
+    # lactated Ringer's + 9% dextrose + 80 mmol/L KCl is about 795 mOsm/L: above the 600
+    # a peripheral vein is usually given (common practice, no source); with 200 mmol/L
+    # KCl above the 900 mOsm/L peripheral ceiling (recalled, people). Both go centrally.
+    request = dict(species_id="dog", weight_kg=20, dehydration_percent=5,
+                   dextrose_percent=9, replace_hours=24)  # fmt: skip
+    soft = plan_for(route="iv", kcl_mmol_per_l=80, **request)
+    assert 600 < fluids.composition(soft.bag).osmolarity_mosm_per_l < 900
+    assert severities(soft)["ROUTE_OSMOLARITY_LIMIT"] == "soft"
+    hard = plan_for(route="iv", kcl_mmol_per_l=200, **request)
+    assert fluids.composition(hard.bag).osmolarity_mosm_per_l > 900
+    assert severities(hard)["ROUTE_OSMOLARITY_LIMIT"] == "hard"
+    central = plan_for(route="cvc", kcl_mmol_per_l=200, **request)
+    assert "ROUTE_OSMOLARITY_LIMIT" not in severities(central)
+    assert "KCL_PERIPHERAL_CONCENTRATION" not in severities(central)
+
+
+# ---- hazard 2: sodium by the general form, every phase ------------------------------------
+def test_cat_at_175_on_5_percent_dextrose_is_flagged():
+    # The course falls about 0.69 mmol/L/h; the one-litre change scaled by the rate said 0.48.
+    plan = plan_for(species_id="cat", weight_kg=4, serum_na=175, fluid_id="dextrose_5")
+    assert plan.sodium.peak_change_per_h == pytest.approx(-0.69, abs=0.02)
+    assert severities(plan)["SODIUM_CHANGE_TOO_FAST"] in ("soft", "hard")
+
+
+@pytest.mark.parametrize(
+    ("species_id", "weight_kg", "route"),
+    [("cat", 4, "iv"), ("dog", 20, "iv"), ("budgerigar", 0.035, "io"),
+     ("bearded_dragon", 0.35, "io")],
+)  # fmt: skip
+def test_the_plans_sodium_peak_agrees_with_the_course(species_id, weight_kg, route):
+    plan = plan_for(species_id=species_id, weight_kg=weight_kg, serum_na=170, route=route,
+                    dehydration_percent=6, fluid_id="dextrose_5",
+                    replace_hours=24)  # fmt: skip
+    modelled = course(plan, step_minutes=1.0)
+    hours, na = modelled.hours, modelled.serum_na
+    per_hour = int(round(1.0 / (hours[1] - hours[0])))
+    changes = na[per_hour:] - na[:-per_hour]
+    worst = changes[np.argmax(np.abs(changes))]
+    assert plan.sodium.peak_change_per_h == pytest.approx(worst, rel=0.05, abs=0.02)
+
+
+def test_a_budgerigar_on_5_percent_dextrose_at_a_replacement_rate_is_blocked():
+    # 35 g, 10 % dehydrated over 1 h: several mL in an hour into 21 mL of body water moves
+    # Na by tens of mmol/L — far past twice the 0.5 mmol/L/h limit.
+    plan = plan_for(species_id="budgerigar", weight_kg=0.035, serum_na=150, route="io",
+                    device="syringe", dehydration_percent=10, replace_hours=1,
+                    fluid_id="dextrose_5")  # fmt: skip
+    assert abs(plan.sodium.peak_change_per_h) > 10
+    assert severities(plan)["SODIUM_CHANGE_TOO_FAST"] == "hard"
+
+
+# ---- hazard 3: potassium against the species' own range -------------------------------------
+def test_a_bearded_dragon_within_its_own_k_range_gets_maintenance_potassium_only():
+    plan = plan_for(species_id="bearded_dragon", weight_kg=0.35, serum_k=2.8,
+                    dehydration_percent=5)  # fmt: skip
+    normal = load_table().value("bearded_dragon", "serum_k_mmol_per_l")
+    assert normal.low <= 2.8 <= normal.high
+    assert plan.potassium.kcl_mmol_per_l == pytest.approx(20)  # the scale's maintenance band
+    assert "POTASSIUM_SCALE_FROM_DOGS_AND_CATS" in severities(plan)
+
+
+def test_the_dog_scale_is_unchanged_for_dogs():
+    # Côté 2020: serum K 2.6–3.0 → 40 mEq/L
+    plan = plan_for(species_id="dog", weight_kg=20, serum_k=2.8, dehydration_percent=5)
+    assert plan.potassium.kcl_mmol_per_l == 40
+    assert "POTASSIUM_SCALE_FROM_DOGS_AND_CATS" not in severities(plan)
+
+
+def test_hyperkalaemia_is_flagged_and_kcl_then_blocked():
+    plan = plan_for(species_id="cat", weight_kg=4, serum_k=8.5, dehydration_percent=5)
+    assert severities(plan)["HYPERKALAEMIA"] == "soft"
+    assert plan.potassium.kcl_mmol_per_l == 0
+    added = plan_for(species_id="cat", weight_kg=4, serum_k=8.5, kcl_mmol_per_l=20)
+    assert severities(added)["KCL_WITH_HIGH_SERUM_K"] == "hard"
+
+
+def test_species_band_reads_the_scale_by_distance_below_the_species_low():
+    band = electrolytes.potassium_band_for_species(
+        2.0, species_id="bearded_dragon", species_low=2.5, species_high=6.0
+    )
+    # 0.5 below its own low reads as 3.0 on the dog/cat scale: the 2.6–3.0 band, 40 mEq/L
+    assert band.compared_at_mmol_per_l == pytest.approx(3.0)
+    assert band.band.kcl_mmol_per_l == 40
+
+
+# ---- hazard 9: every delivery mode against the hourly ceiling and site counts -----------
+def test_divided_doses_in_one_hour_are_blocked_as_a_pump_would_be():
+    # A 4 kg cat, 12 %, replaced over 1 h: 489 mL in an hour against a 55 mL/kg shock dose
+    # (Davis 2013) — hard by pump, and hard by divided SC doses too.
+    request = dict(species_id="cat", weight_kg=4, dehydration_percent=12, replace_hours=1)
+    pump = plan_for(**request)
+    divided = plan_for(route="sc", device="divided", **request)
+    assert pump.has_hard_limit and divided.has_hard_limit
+    assert severities(divided)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"
+
+
+def test_an_absurd_divided_volume_for_a_mouse_is_blocked():
+    plan = plan_for(species_id="mouse", weight_kg=0.03, losses_ml_per_day=1_000_000)
+    assert severities(plan)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"
+    assert severities(plan)["DIVIDED_SITES_IMPOSSIBLE"] == "hard"
