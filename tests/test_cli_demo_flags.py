@@ -29,7 +29,7 @@ def run(capsys, *args):
         (["--replace-hours", "24"], ["--replace-hours"]),  # the default value, typed: still refused
         (["--boluses=0"], ["--boluses"]),
         (["--drop", "20"], ["--drop-factor"]),  # argparse takes --drop for --drop-factor
-        (["--cardiac", "--finding", "membranes_dry"], ["--cardiac", "--finding"]),
+        (["--cardiac", "--finding", "membranes_possibly_dry"], ["--cardiac", "--finding"]),
         (["--start", "09:00", "--start-date", "2026-12-02"], ["--start", "--start-date"]),
         (["--fluid", "nacl_0_9"], ["--fluid"]),
     ],

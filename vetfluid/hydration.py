@@ -1,9 +1,11 @@
 """Hydration: dehydration estimate from findings, deficit, free-water deficit.
 
 * Findings table: DiBartola SP (ed.), Fluid, Electrolyte, and Acid-Base
-  Disorders in Small Animal Practice, 4th ed., 2012, Table 14-4 (after Muir &
+  Disorders in Small Animal Practice, 4th ed., 2012, Table 14-4 (p. 335, after Muir &
   DiBartola 1983), shipped as ``species_data/dehydration_findings.csv``. It is a
-  display aid: the clinician confirms the percentage.
+  display aid: the clinician confirms the percentage. The table has eyes *possibly*
+  sunken and membranes *possibly* dry at 6–8 %, sunken eyes and dry membranes at
+  10–12 %; the findings are split the same way.
 * Deficit: body weight (kg) × fraction dehydrated = litres (1 kg lost ≈ 1 L);
   Davis H et al., 2013 AAHA/AAFP Fluid Therapy Guidelines; DiBartola 2012.
 * Free-water deficit: TBW × (Na_patient / Na_normal − 1), TBW = fraction × BW
@@ -21,10 +23,20 @@ from vetfluid.checks import require_number
 from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.paths import resource_dir
+from vetfluid.species import SpeciesTable, SpeciesValue
 
 # The findings table comes from a text on dogs and cats (DiBartola 2012); vetfluid ships
 # no bands for other species.
 FINDINGS_WRITTEN_FOR = ("dog", "cat")
+
+# Findings of earlier versions that covered two rows of Table 14-4 (banded 6–8 % whether
+# the sign was doubtful or plain). Which row a patient showed only the examiner knows, so
+# a request naming one is refused with both choices, never mapped by guess:
+# old id → (what it read, the ids it became).
+RETIRED_FINDINGS: dict[str, tuple[str, tuple[str, ...]]] = {
+    "eyes_sunken": ("Eyes sunken in orbits", ("eyes_possibly_sunken", "eyes_clearly_sunken")),
+    "membranes_dry": ("Dry mucous membranes", ("membranes_possibly_dry", "membranes_clearly_dry")),
+}
 
 
 def findings_caveat(species_id: str, common_name: str) -> str:
@@ -91,9 +103,13 @@ def estimate_dehydration(finding_ids: tuple[str, ...] | list[str]) -> Dehydratio
     """% dehydration band from clinical findings: the most severe finding sets the band.
 
     Method: DiBartola 2012, Table 14-4. An empty list means nothing was
-    detectable (< 5%).
+    detectable (< 5%). A finding the table split (``RETIRED_FINDINGS``) is refused with
+    both choices named: plan files, drafts and the CLI say so rather than drop it.
     """
     table = load_findings()
+    retired = [f for f in finding_ids if f in RETIRED_FINDINGS and f not in table]
+    if retired:
+        raise _retired_error(retired, table)
     unknown = [f for f in finding_ids if f not in table]
     if unknown:
         raise InputError(
@@ -109,6 +125,27 @@ def estimate_dehydration(finding_ids: tuple[str, ...] | list[str]) -> Dehydratio
         percent_high=worst.percent_high,
         findings=tuple(f.finding_id for f in chosen),
         source_id=worst.source_id,
+    )
+
+
+def _retired_error(retired: list[str], table: dict[str, ClinicalFinding]) -> InputError:
+    """The refusal of findings the table split in two, naming both choices with their bands."""
+
+    def choice(finding_id: str) -> str:
+        finding = table[finding_id]
+        band = f"{finding.percent_low:g}–{finding.percent_high:g} %"
+        return f"{finding_id} ({finding.label.lower()}, {band})"
+
+    parts = [
+        f"{old_id} ({RETIRED_FINDINGS[old_id][0].lower()}) is now two findings, as in "
+        f"DiBartola's table: {' or '.join(choice(new) for new in RETIRED_FINDINGS[old_id][1])}"
+        for old_id in retired
+    ]
+    return InputError(
+        "; ".join(parts),
+        field="findings",
+        value=retired,
+        fix="re-examine the patient and name the one that fits",
     )
 
 
@@ -157,6 +194,18 @@ def euhydrated_weight_kg(*, weight_kg: float, deficit_ml: float) -> float:
     _check_weight(weight_kg)
     require_number(deficit_ml, "deficit_ml", low=0)
     return weight_kg + deficit_ml / 1000.0
+
+
+def body_water_fraction(table: SpeciesTable, species_id: str, *, neonate: bool) -> SpeciesValue:
+    """Total body water as a fraction of body weight: the adults' value, or for a neonate
+    the neonatal value where the species or its group has one (dogs and cats: up to 0.8 of
+    body weight against 0.6 in adults, Odunayo 2018). Neonates of other taxa keep the
+    adult value; the plan says so."""
+    if neonate:
+        young = table.get(species_id, "neonate_total_body_water_fraction")
+        if young is not None:
+            return young
+    return table.value(species_id, "total_body_water_fraction")
 
 
 def overload_weight_kg(*, weight_kg: float, deficit_ml: float, gain_fraction: float) -> float:
