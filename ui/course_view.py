@@ -524,7 +524,7 @@ class CourseView(QWidget):
         for finding in found:
             rows.append(
                 [
-                    Cell(SEVERITY_WORDS[finding.severity], finding.code,
+                    Cell(SEVERITY_WORDS[finding.severity], "",
                          icon(SEVERITY_ICONS[finding.severity])),
                     Cell(finding.message),
                     Cell(finding.action),

@@ -19,6 +19,7 @@ from ui.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
 from ui.session import PlanSession
 from ui.shown_plan import ShownPlan
 from vetfluid.findings import Finding
+from vetfluid.species import SpeciesTable
 
 COLUMNS = ("Severity", "Finding", "What to do", "Reason (warnings)")
 REASON_COLUMN = 3
@@ -67,7 +68,7 @@ class FindingsModel(QAbstractTableModel):
             if column == 0:
                 return SEVERITY_WORDS[f.severity]
             if column == 1:
-                return f"{f.message}\n[{f.code}]"
+                return f.message  # the code is for files and logs, never for reading
             if column == 2:
                 return f.action
             if f.severity == "soft":
@@ -86,7 +87,8 @@ class FindingsModel(QAbstractTableModel):
         if role == Qt.ItemDataRole.DecorationRole and column == 0:
             return icon(SEVERITY_ICONS[f.severity])
         if role == Qt.ItemDataRole.ToolTipRole:
-            source = f"\nSource: {f.source_id}" if f.source_id else ""
+            source = citation(self.session.table, f.source_id) if f.source_id else ""
+            source = f"\nSource: {source}" if source else ""
             text = f"{SEVERITY_WORDS[f.severity]}: {f.message}\n{f.action}{source}"
             if f.code in self.session.lapsed:
                 reason, given_for = self.session.lapsed[f.code]
@@ -186,6 +188,12 @@ class FindingsView(QWidget):
         else:
             text = "Nothing blocks this plan."
         self.status.setText(text)
+
+
+def citation(table: SpeciesTable, source_id: str) -> str:
+    """The publication a source id stands for, as people cite it."""
+    source = table.sources.get(source_id)
+    return source.citation if source is not None else "not in the list of sources"
 
 
 def _in_words(finding: Finding) -> str:

@@ -155,6 +155,7 @@ class MainWindow(QMainWindow):
         from ui.plan_view import PlanSettings, PlanSummary
         from ui.provenance_view import ProvenanceView
         from ui.session import PlanSession
+        from ui.wheel_guard import guard_wheel
         from vetfluid.demos import DEMOS
 
         self.session = PlanSession(parent=self)
@@ -170,6 +171,7 @@ class MainWindow(QMainWindow):
         inputs_layout.addWidget(self.settings_box)
         inputs_layout.addWidget(self.labs)
         inputs_layout.addStretch(1)
+        guard_wheel(inputs)  # scrolling the panel must not change the inputs it passes over
         scroll = QScrollArea()
         scroll.setWidget(inputs)
         scroll.setWidgetResizable(True)
@@ -875,8 +877,10 @@ class MainWindow(QMainWindow):
 
         if self.details.widget(index) is self.course_holder and self.course_view is None:
             from ui.course_view import CourseView
+            from ui.wheel_guard import guard_wheel
 
             self.course_view = CourseView(self.session, before_replan=self._before_replan)
+            guard_wheel(self.course_view)
             self._swap(self.course_holder, self.course_view)
             self.course_view.oliguria.valueChanged.connect(self._update_course_tab)
 
@@ -885,8 +889,10 @@ class MainWindow(QMainWindow):
         """The species table is built the first time its page is opened."""
         if self.pages.widget(index) is self.species_holder and self.species_view is None:
             from ui.species_view import SpeciesTableView
+            from ui.wheel_guard import guard_wheel
 
             self.species_view = SpeciesTableView()
+            guard_wheel(self.species_view)
             self._swap(self.species_holder, self.species_view)
             self.species_view.tableChanged.connect(self.session.reload_table)
             self.edit_menu.insertActions(
@@ -1132,10 +1138,13 @@ class MainWindow(QMainWindow):
 
     def show_chart(self) -> None:
         from ui.chart_view import ChartDialog
+        from ui.wheel_guard import guard_wheel
 
         self.build_planner()
         species = self.session.inputs.get("species_id") or "dog"
-        ChartDialog(self.session.table, species, self).exec()
+        dialog = ChartDialog(self.session.table, species, self)
+        guard_wheel(dialog)
+        dialog.exec()
 
     def show_help(self, *_: object) -> None:
         from ui.help_dialog import HelpDialog

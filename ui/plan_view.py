@@ -29,17 +29,20 @@ from ui.qt_dates import from_qt, to_qt
 from ui.rows_model import Cell, RowsModel
 from ui.session import PlanSession
 from ui.shown_plan import ShownPlan
-from vetfluid import fluids
+from vetfluid import fluid_roles, fluids
 from vetfluid.delivery import STANDARD_DROP_FACTORS
+from vetfluid.electrolytes import sodium_text
 from vetfluid.formatting import format_quantity as q
 from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
-from vetfluid.schedule import rate_or_dose_text
+from vetfluid.schedule import rate_or_dose_text, route_text
 from vetfluid.serialize import fluid_dict
+from vetfluid.sheet import DEVICE_WORDS
 
 ROUTE_CHOICES = (
     (None, "Automatic (by weight)"),
-    ("iv", "IV"),
+    ("iv", "IV, peripheral vein"),
+    ("cvc", "IV, central line"),
     ("io", "IO"),
     ("sc", "SC"),
     ("icoel", "Intracoelomic"),
@@ -57,12 +60,6 @@ METHOD_CHOICES = (
     ("allometric", "Allometric (a·BW^b)"),
     ("energy", "Energy-based (K·BW^b kcal)"),
 )
-DEVICE_WORDS = {
-    "pump": "infusion pump",
-    "gravity": "gravity drip",
-    "syringe": "syringe pump",
-    "divided": "divided boluses",
-}
 
 
 def _choice_box(choices: tuple, name: str, tooltip: str) -> QComboBox:
@@ -131,6 +128,21 @@ class PlanSettings(QGroupBox):
         self.boluses.valueChanged.connect(lambda v: session.update(resuscitation_boluses=v))
         form.addRow("Resuscitation &boluses", self.boluses)
 
+        self.shock_fluid = QComboBox()
+        self.shock_fluid.setAccessibleName("Bolus fluid")
+        self.shock_fluid.setToolTip(
+            "The fluid of the resuscitation boluses: the plan's fluid, or a resuscitation "
+            "fluid of its own (7.2% sodium chloride is one small dose only)"
+        )
+        compact(self.shock_fluid, 18)
+        self.shock_fluid.addItem("Same as the fluid", None)
+        for fluid_id in fluid_roles.resuscitation_fluids():
+            self.shock_fluid.addItem(fluids.fluid(fluid_id).name, fluid_id)
+        self.shock_fluid.activated.connect(
+            lambda _: session.update(bolus_fluid_id=self.shock_fluid.currentData())
+        )
+        form.addRow("Bolus f&luid", self.shock_fluid)
+
         self.method = _choice_box(
             METHOD_CHOICES, "Maintenance method", "How maintenance is estimated"
         )
@@ -142,9 +154,8 @@ class PlanSettings(QGroupBox):
         self.fluid = QComboBox()
         self.fluid.setAccessibleName("Fluid")
         compact(self.fluid, 18)
-        for fluid in fluids.load_fluids().values():
-            if fluid.kind in fluids.INFUSIBLE_KINDS:
-                self.fluid.addItem(fluid.name, fluid.fluid_id)
+        for fluid_id in fluid_roles.carriers():  # concentrates and hypertonic saline never
+            self.fluid.addItem(fluids.fluid(fluid_id).name, fluid_id)
         self.fluid.activated.connect(lambda _: session.update(fluid_id=self.fluid.currentData()))
         form.addRow("&Fluid", self.fluid)
 
@@ -213,6 +224,7 @@ class PlanSettings(QGroupBox):
             self.boluses.setValue(inputs["resuscitation_boluses"])
         _select(self.method, inputs["maintenance_method"])
         _select(self.fluid, inputs["fluid_id"])
+        _select(self.shock_fluid, inputs["bolus_fluid_id"])
         _select(self.route, inputs["route"])
         _select(self.device, inputs["device"])
         with QSignalBlocker(self.drop_factor):
@@ -432,7 +444,7 @@ class PlanSummary(QWidget):
             f"{plan.fluid_name} — Na {q(plan.fluid_na_mmol_per_l, 'mmol/L')}, "
             f"K {q(plan.fluid_k_mmol_per_l, 'mmol/L')}; {plan.tonicity.effective_class} in the body"
         )
-        self.values["route"].setText(f"{plan.route.upper()}, {DEVICE_WORDS[plan.device]}")
+        self.values["route"].setText(f"{route_text(plan.route)}, {DEVICE_WORDS[plan.device]}")
         k = plan.potassium
         self.values["potassium"].setText(
             f"{q(k.kcl_mmol_per_l, 'mmol/L')} KCl added ({k.added_by}); "
@@ -442,13 +454,7 @@ class PlanSummary(QWidget):
             else "no serum K entered, no KCl added"
         )
         na = plan.sodium
-        self.values["sodium"].setText(
-            f"ΔNa {q(na.delta_na_per_l, 'mmol/L')} per litre; fastest rate within "
-            f"{q(na.max_change_per_h, 'mmol/L/h')}: "
-            + (q(na.max_rate_ml_per_h, "mL/h") if na.max_rate_ml_per_h else "no limit")
-            if na
-            else "no serum Na entered"
-        )
+        self.values["sodium"].setText(sodium_text(na) if na else "no serum Na entered")
         boluses = 0
         rows = []
         for phase in plan.phases:
@@ -480,5 +486,5 @@ def _phase_row(p, *, conditional: bool = False) -> list[Cell]:  # noqa: ANN001 �
         Cell(f"{p.start_h:g}–{p.end_h:g}"),
         Cell(rate_or_dose_text(p)),
         Cell(q(p.volume_ml, "mL")),
-        Cell(p.route.upper()),
+        Cell(route_text(p.route)),
     ]

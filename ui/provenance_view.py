@@ -39,18 +39,38 @@ def shown_value(value: SpeciesValue) -> str:
     return str(value.value)
 
 
+def group_words(table: SpeciesTable, group_id: str) -> str:
+    """A taxon group as people name it: ``the lizards and snakes group`` (its id, e.g.
+    ``group_squamate``, is for the data files only)."""
+    group = table.species_by_id.get(group_id)
+    return f"the {group.common_name.lower()} group" if group is not None else "a taxon group"
+
+
+def origin_words(value: SpeciesValue, table: SpeciesTable) -> str:
+    """Where the value comes from, in words: shipped, clinic override or the group it is
+    inherited from."""
+    if value.origin == "inherited":
+        return f"inherited from {group_words(table, value.defined_on)}"
+    return {"shipped": "shipped with vetfluid", "override": "clinic override"}[value.origin]
+
+
+def origin_short(value: SpeciesValue, table: SpeciesTable) -> str:
+    """The Origin column: ``shipped``, ``clinic override`` or ``from Lizards and snakes``
+    (the tooltip says it in full)."""
+    if value.origin == "inherited":
+        group = table.species_by_id.get(value.defined_on)
+        return f"from {group.common_name}" if group is not None else "from a taxon group"
+    return {"shipped": "shipped", "override": "clinic override"}[value.origin]
+
+
 def provenance_tooltip(value: SpeciesValue, table: SpeciesTable) -> str:
-    origin = {
-        "shipped": "shipped with vetfluid",
-        "inherited": f"inherited from {value.defined_on}",
-        "override": "clinic override",
-    }[value.origin]
+    origin = origin_words(value, table)
     if value.source_id and value.source_id in table.sources:
         source = table.sources[value.source_id].citation
     else:
         source = "no source on record"
     lines = [
-        f"{value.label or value.parameter} ({value.parameter}): {shown_value(value)} {value.unit}",
+        f"{value.label or value.parameter}: {shown_value(value)} {value.unit}",
         f"Origin: {origin}",
     ]
     if value.unverified:
@@ -102,10 +122,7 @@ class ProvenanceView(QWidget):
                     Cell(shown_value(value), tip),
                     Cell(value.unit, tip),
                     Cell(BASIS_WORDS[key], tip, icon(BASIS_ICONS[key])),
-                    Cell(
-                        value.origin if value.origin != "inherited" else f"from {value.defined_on}",
-                        tip,
-                    ),
+                    Cell(origin_short(value, table), tip),
                     Cell(value.source_id or "—", tip),
                 ]
             )

@@ -22,10 +22,44 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from ui.icons import SEVERITY_WORDS
 from ui.rows_model import Cell, RowsModel
 from vetfluid.errors import VetfluidError
 from vetfluid.formatting import format_quantity as q
 from vetfluid.records import Records, VersionRow, compare_versions
+from vetfluid.sheet import route_and_device_text
+from vetfluid.species import load_table
+
+
+def species_words(species_id: str) -> str:
+    """A species as people name it ("Bearded dragon"); its id only when this species table
+    no longer has it (a record saved with a clinic's own species, since removed)."""
+    species = load_table().species_by_id.get(species_id)
+    return species.common_name if species is not None else species_id
+
+
+def _findings_words(plan: dict) -> str:
+    """A saved plan's findings by what they say, worst first (their codes are for files)."""
+    order = {"hard": 0, "soft": 1, "info": 2}
+    found = sorted(plan.get("findings") or (), key=lambda f: order.get(f.get("severity"), 3))
+    return (
+        "\n".join(
+            f"{SEVERITY_WORDS.get(f.get('severity'), '')}: {f.get('message', '')}" for f in found
+        )
+        or "—"
+    )
+
+
+def _in_words(row: tuple[str, str, str, bool], first: dict, second: dict) -> tuple:
+    """The comparison rows that carry ids or codes, in words. Findings differ when their
+    words do: a warning with the same code may give another rate."""
+    what, a, b, differs = row
+    if what == "Findings":
+        left, right = _findings_words(first), _findings_words(second)
+        return what, left, right, differs or left != right
+    if what == "Route":
+        return what, route_and_device_text(first), route_and_device_text(second), differs
+    return row
 
 
 class OpenPatientDialog(QDialog):
@@ -67,7 +101,7 @@ class OpenPatientDialog(QDialog):
     def _find(self, text: str) -> None:
         self.patients.clear()
         for patient in self.records.find_patients(text):
-            label = f"{patient.name} — {patient.species_id}"
+            label = f"{patient.name} — {species_words(patient.species_id)}"
             if patient.client_ref:
                 label += f" · {patient.client_ref}"
             item = QListWidgetItem(label)
@@ -131,7 +165,7 @@ class NewPatientDialog(QDialog):
         self.initials = QLineEdit()
         self.initials.setAccessibleName("Your initials")
         self.initials.setMaxLength(6)
-        form.addRow("Species", QLabel(species_id))
+        form.addRow("Species", QLabel(species_words(species_id)))
         form.addRow("Patient &name", self.name)
         form.addRow("&Client reference", self.client)
         form.addRow("Your &initials", self.initials)
@@ -149,7 +183,8 @@ class CompareDialog(QDialog):
         self.setWindowTitle(f"vetfluid — version {first.version} and version {second.version}")
         layout = QVBoxLayout(self)
         self.model = RowsModel(["", "", f"Version {first.version}", f"Version {second.version}"])
-        rows = compare_versions(first.plan, second.plan)
+        rows = [_in_words(r, first.plan, second.plan)
+                for r in compare_versions(first.plan, second.plan)]  # fmt: skip
         self.model.set_rows(
             [[Cell(what), Cell("≠ differs" if differs else "same"), Cell(a), Cell(b)]
              for what, a, b, differs in rows]

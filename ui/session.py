@@ -8,6 +8,7 @@ happens here: the plan comes from :func:`vetfluid.plan.build_plan`.
 
 from __future__ import annotations
 
+import re
 from dataclasses import MISSING, fields
 from typing import Any
 
@@ -24,6 +25,23 @@ BLANK_INPUTS: dict[str, Any] = {
     f.name: (None if f.default is MISSING else f.default) for f in fields(PlanRequest)
 }
 
+
+# The request's fields as the form names them, for messages (the ids are for files and logs)
+FIELD_WORDS = {
+    "species_id": "Species", "species": "Species", "weight_kg": "Weight", "weight": "Weight",
+    "dehydration_percent": "Dehydration", "dehydration": "Dehydration",
+    "dehydration_findings": "Examination findings", "replace_hours": "Replace deficit over",
+    "losses_ml_per_day": "Ongoing losses", "maintenance_method": "Maintenance method",
+    "fluid_id": "Fluid", "fluid": "Fluid", "bolus_fluid_id": "Bolus fluid", "route": "Route",
+    "device": "Delivery", "drop_factor": "Drop factor",
+    "resuscitation_boluses": "Resuscitation boluses", "body_temp_c": "Body temperature",
+    "serum_na": "Serum Na", "serum_k": "Serum K", "usg": "USG",
+    "urine_osmolality": "Urine osmolality", "kcl_mmol_per_l": "KCl added",
+    "dextrose_percent": "Dextrose added", "start_time": "Start time", "start_date": "Start date",
+    "max_na_change_per_h": "Max Na change", "syringe_size_ml": "Syringe size",
+    "pcv_percent": "PCV", "total_solids_g_per_dl": "Total solids",
+    "ins_and_outs_period_h": "Ins-and-outs period", "measured_outputs": "Measured outputs",
+}  # fmt: skip
 
 # what a reason opened from a file was given for, when its warning was not in the plan
 WORDING_NOT_KNOWN = "(not among the warnings when this plan was opened)"
@@ -147,9 +165,24 @@ class PlanSession(QObject):
             request = PlanRequest(**self._inputs)
             plan = build_plan(request, self.table)
         except VetfluidError as exc:
-            self._publish(None, exc.one_line())
+            self._publish(None, self.in_words(exc))
             return
         self._publish(plan, "")
+
+    def in_words(self, error: VetfluidError) -> str:
+        """An error for the status line, its field named as the form names it
+        ("Replace deficit over must be between 1 and 96 h", not ``replace_hours``)."""
+        field = error.field
+        if not field:
+            return error.one_line()
+        definition = self.table.definitions.get(field)
+        words = FIELD_WORDS.get(field) or (definition.label if definition else "")
+        words = words or field.replace("_", " ")
+        message = error.message
+        if "_" in field:  # an id, never a word of the sentence ("unknown species …" stays)
+            message = re.sub(rf"\b{re.escape(field)}\b", words, message)
+        text = message if words.lower() in message.lower() else f"{words}: {message}"
+        return text + (f" — {error.fix}" if error.fix else "")
 
     def _publish(self, plan: Plan | None, problem: str) -> None:
         self.plan = plan

@@ -364,10 +364,8 @@ class SpeciesTableModel(QAbstractTableModel):
             return f"clinic override ({value.location})"
         if value.origin == "inherited":
             group = self._table.species(value.defined_on)
-            return (
-                f"inherited from {group.common_name} "
-                f"({value.defined_on}; species_data/{value.location})"
-            )
+            # the file and line find the row; the group's id is for the data files only
+            return f"inherited from {group.common_name} (species_data/{value.location})"
         return f"shipped with vetfluid (species_data/{value.location})"
 
     def _tooltip(self, species_id: str, parameter: str, value: SpeciesValue | None) -> str:
@@ -426,7 +424,7 @@ class SpeciesTableModel(QAbstractTableModel):
         if value.origin == "override":
             words.append("clinic override")
         elif value.origin == "inherited":
-            words.append(f"inherited from {value.defined_on}")
+            words.append(f"inherited from {self._table.species(value.defined_on).common_name}")
         return ", ".join(words)
 
     # ---- editing --------------------------------------------------------------
