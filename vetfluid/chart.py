@@ -95,7 +95,8 @@ def maintenance_ml_per_day(
     else:
         k = value("energy_k_kcal_per_day").number
         b = value("energy_exponent").number
-        result = k * weights**b * value("water_ml_per_kcal").number
+        multiple = value("maintenance_energy_multiple").number  # maintenance, not basal
+        result = multiple * k * weights**b * value("water_ml_per_kcal").number
         if table.species(species_id).is_ectotherm:
             q10 = value("q10").number
             reference = value("energy_reference_temp_c").number

@@ -6,9 +6,14 @@ their basis):
 * linear — rate (mL/kg/day) × BW; e.g. 60 mL/kg/day (DiBartola 2012, Table 14-9).
 * allometric — a · BW^b mL/day; the 2013 AAHA/AAFP guideline formulas
   132 · BW^0.75 (dogs) and 80 · BW^0.75 (cats) (Davis H et al. 2013).
-* energy — K · BW^b kcal/day (Kleiber-style scaling; Kleiber 1961 70 · W^0.75
-  for placental mammals; Lasiewski & Dawson 1967 for birds; Andrews & Pough 1985
-  exponent for squamates), water ≈ 1 mL per kcal.
+* energy — maintenance energy = multiple × basal K · BW^b kcal/day, water ≈ 1 mL
+  per kcal. K · BW^b is basal (standard) metabolism (Kleiber 1961 70 · W^0.75 for
+  placental mammals; Lasiewski & Dawson 1967 for birds; Andrews & Pough 1985
+  exponent for squamates); "1 mL per kcal" applies to the maintenance energy
+  requirement, about twice basal in housed eutherians (National Research Council,
+  Nutrient Requirements of Nonhuman Primates, 2nd rev. ed. 2003, p. 47) and
+  1.5 × basal in caged birds (Duerr & Gage, Hand-Rearing Birds, 2nd ed., Table B.1).
+  The multiple is the species parameter ``maintenance_energy_multiple``.
 * ectotherms — rates scale with body temperature by Q10 (Bennett & Dawson 1976):
   factor = Q10^((T − T_ref)/10). The energy constant is quoted at
   ``energy_reference_temp_c``; the linear reptile rate is taken to apply at the
@@ -18,11 +23,19 @@ their basis):
 Water budget: insensible + faecal + urine water. The obligatory urine water is
 the osmotic solute load divided by the concentrating ceiling (the species'
 maximum urine osmolality, U/P × plasma, or a ceiling from the patient's USG or
-urine osmolality). A patient whose ceiling has fallen to plasma (isosthenuria)
-needs more water for the same load. Reptiles and birds concentrate weakly yet
-need *less* water per kg: their solute load is small because their metabolism
-is low (reptiles) and nitrogen leaves as precipitated urate, not dissolved urea;
-cloaca, colon and bladder then reclaim water after the kidney.
+urine osmolality, never above what the species can make). A patient whose
+ceiling has fallen to plasma (isosthenuria) needs more water for the same load.
+
+Birds and reptiles concentrate weakly, yet that is no reason to give them more
+water: their nitrogen leaves as precipitated urate, which carries no osmotic water,
+so only the dissolved solute counts (``urine_solute_mosm_per_kcal`` holds that
+part for them), and cloaca, colon and bladder take water back after the kidney.
+The bird U/P ceilings were measured on the urine of the droppings, after the
+cloaca (Skadhauge 1974), so they already include what the cloaca did; the budgerigar
+and the zebra finch live on dry seed without drinking (Skadhauge 1976). For reptiles
+the water taken back after the kidney is not on record, so their urine water here is
+the kidney's, an upper estimate. ``WaterBudget.nitrogen_as_urate`` tells the checks
+not to turn a weak species ceiling into advice to give more water.
 """
 
 from __future__ import annotations
@@ -38,6 +51,12 @@ from vetfluid.species import MAINTENANCE_METHODS, SpeciesTable, SpeciesValue
 # J Vet Diagn Invest 2020); 30 000 puts isosthenuria (USG 1.010) at plasma
 # (≈ 300 mOsm/kg). Common practice, no source — shown as memory wherever used.
 USG_TO_MOSM_FACTOR = 30_000.0
+# An entered urine (osmolality, or USG converted) counts as above what the species can
+# make only past its recorded ceiling by more than this: plasma osmolality, and the urine
+# ceiling with it, rises 7–13 % in dehydrated birds (Skadhauge 1976), and published maxima
+# are means of individual maxima (dog 2289 mOsm/kg, Hardy & Osborne 1979, against 2610 in
+# an older table: 14 % more). The recorded high end of the maximum counts where larger.
+ENTERED_CEILING_TOLERANCE = 1.15
 
 
 def _positive(name: str, value: float) -> float:
@@ -138,10 +157,15 @@ def maintenance(
     else:
         k = table.value(species_id, "energy_k_kcal_per_day")
         b = table.value(species_id, "energy_exponent")
+        multiple = table.value(species_id, "maintenance_energy_multiple")
         water = table.value(species_id, "water_ml_per_kcal")
-        base = energy_kcal_per_day(weight_kg, k.number, b.number) * water.number
-        formula = f"{k.number:g} × {weight_kg:.4g}^{b.number:g} kcal/day × {water.number:g} mL/kcal"
-        used += [k, b, water]
+        basal = energy_kcal_per_day(weight_kg, k.number, b.number)
+        base = basal * _positive("maintenance_energy_multiple", multiple.number) * water.number
+        formula = (
+            f"{multiple.number:g} × {k.number:g} × {weight_kg:.4g}^{b.number:g} kcal/day "
+            f"(maintenance = {multiple.number:g} × basal) × {water.number:g} mL/kcal"
+        )
+        used += [k, b, multiple, water]
         reference = table.get(species_id, "energy_reference_temp_c")
     factor, temp = 1.0, None
     if reference is not None and table.species(species_id).is_ectotherm:
@@ -167,9 +191,15 @@ class WaterBudget:
     ``obligatory_urine_ml`` is the least urine that can carry the solute load at
     the ceiling; ``isosthenuric_urine_ml`` is the same load at plasma osmolality,
     to show what a patient who has lost concentrating ability needs.
+    ``energy_kcal_per_day`` is maintenance energy (``energy_multiple`` × basal).
+    ``entered_mosm_per_kg`` is the patient's urine as entered (osmolality, or USG
+    converted); the ceiling used never exceeds ``species_ceiling_mosm_per_kg``, and
+    ``entered_above_species`` says the entry is past what the species can make
+    (beyond ``entered_limit_mosm_per_kg``): a likely mis-entry or contaminated sample.
     """
 
     energy_kcal_per_day: float
+    energy_multiple: float
     solute_mosm_per_day: float
     ceiling_mosm_per_kg: float
     ceiling_from: str  # species maximum | U/P × plasma | USG | urine osmolality
@@ -179,6 +209,11 @@ class WaterBudget:
     insensible_ml: float | None
     faecal_ml: float | None
     provenance: tuple[SpeciesValue, ...]
+    species_ceiling_mosm_per_kg: float | None = None
+    entered_mosm_per_kg: float | None = None
+    entered_from: str | None = None  # USG | urine osmolality
+    entered_limit_mosm_per_kg: float | None = None
+    nitrogen_as_urate: bool = False
 
     @property
     def minimum_ml(self) -> float:
@@ -188,6 +223,23 @@ class WaterBudget:
     @property
     def extra_if_isosthenuric_ml(self) -> float:
         return self.isosthenuric_urine_ml - self.obligatory_urine_ml
+
+    @property
+    def entered_above_species(self) -> bool:
+        """The entered urine is more concentrated than the species can make."""
+        return (
+            self.entered_mosm_per_kg is not None
+            and self.entered_limit_mosm_per_kg is not None
+            and self.entered_mosm_per_kg > self.entered_limit_mosm_per_kg
+        )
+
+    @property
+    def at_species_ceiling(self) -> bool:
+        """The ceiling used is the species' own (nothing the patient's urine lowered)."""
+        return (
+            self.species_ceiling_mosm_per_kg is not None
+            and self.ceiling_mosm_per_kg >= self.species_ceiling_mosm_per_kg
+        )
 
 
 def obligatory_urine_ml(solute_mosm: float, ceiling_mosm_per_kg: float) -> float:
@@ -223,6 +275,20 @@ def concentrating_ceiling(
     )
 
 
+def entered_urine_limit(table: SpeciesTable, species_id: str) -> float | None:
+    """The most concentrated urine an entry may show before it counts as beyond the species:
+    the larger of the recorded high end of the maximum and the ceiling × the tolerance
+    (``ENTERED_CEILING_TOLERANCE``, reasons above). None when no ceiling is on record."""
+    try:
+        ceiling, _, values = concentrating_ceiling(table, species_id)
+    except InputError:
+        return None
+    recorded_high = values[0].high if values[0].high is not None else values[0].number
+    if values[0].parameter == "max_urine_plasma_ratio":
+        recorded_high *= values[1].number
+    return max(recorded_high, ceiling * ENTERED_CEILING_TOLERANCE)
+
+
 def water_budget(
     table: SpeciesTable,
     species_id: str,
@@ -234,32 +300,44 @@ def water_budget(
 ) -> WaterBudget:
     """Daily water budget: insensible + faecal + obligatory urine water.
 
-    Solute load = energy expenditure (K · BW^b, Q10-scaled for ectotherms) ×
-    urine solute per kcal. The ceiling is the patient's measured urine
-    osmolality, else USG converted, else the species' maximum.
+    Solute load = maintenance energy (multiple × K · BW^b, Q10-scaled for
+    ectotherms) × urine solute per kcal (for urate excretors the dissolved part
+    only). The ceiling is the patient's measured urine osmolality, else USG
+    converted, else the species' maximum; a patient's urine counts only between
+    plasma (a dilute sample shows what the kidney does now, not the most it can
+    do) and the species' ceiling (more is a mis-entry or contamination).
     """
     energy = maintenance(table, species_id, weight_kg, method="energy", body_temp_c=body_temp_c)
     water = table.value(species_id, "water_ml_per_kcal")
+    multiple = table.value(species_id, "maintenance_energy_multiple")
     kcal = energy.ml_per_day / water.number
     solute_rate = table.value(species_id, "urine_solute_mosm_per_kcal")
     plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
     used = [*energy.provenance, solute_rate, plasma]
-    # A dilute sample shows what the kidney is doing now, not the most it can do: a
-    # measured ceiling is never taken below isosthenuria (plasma osmolality).
+    try:
+        species_ceiling, species_source, ceiling_values = concentrating_ceiling(table, species_id)
+    except InputError:
+        if urine_osmolality is None and usg is None:
+            raise
+        species_ceiling, species_source, ceiling_values = None, None, []
+    entered, entered_from = None, None
     if urine_osmolality is not None:
-        ceiling = max(_positive("urine_osmolality", urine_osmolality), plasma.number)
-        source = "urine osmolality"
+        entered, entered_from = _positive("urine_osmolality", urine_osmolality), "urine osmolality"
     elif usg is not None:
-        ceiling, source = max(usg_to_osmolality(usg), plasma.number), "USG"
-    else:
-        ceiling, source, ceiling_values = concentrating_ceiling(table, species_id)
+        entered, entered_from = usg_to_osmolality(usg), "USG"
+    if entered is None or (species_ceiling is not None and entered >= species_ceiling):
+        # the species' own ceiling: nothing entered, or an entry at or above it
+        ceiling, source = float(species_ceiling), str(species_source)
         used += [v for v in ceiling_values if v not in used]
+    else:
+        ceiling, source = max(entered, plasma.number), str(entered_from)
     solute = kcal * solute_rate.number
     insensible = table.get(species_id, "insensible_loss_ml_per_kg_day")
     faecal = table.get(species_id, "faecal_water_ml_per_kg_day")
     used += [v for v in (insensible, faecal) if v is not None]
     return WaterBudget(
         energy_kcal_per_day=kcal,
+        energy_multiple=multiple.number,
         solute_mosm_per_day=solute,
         ceiling_mosm_per_kg=ceiling,
         ceiling_from=source,
@@ -269,4 +347,9 @@ def water_budget(
         insensible_ml=insensible.number * weight_kg if insensible else None,
         faecal_ml=faecal.number * weight_kg if faecal else None,
         provenance=tuple(used),
+        species_ceiling_mosm_per_kg=species_ceiling,
+        entered_mosm_per_kg=entered,
+        entered_from=entered_from,
+        entered_limit_mosm_per_kg=entered_urine_limit(table, species_id) if entered else None,
+        nitrogen_as_urate=table.species(species_id).nitrogen_excretion == "uric acid",
     )
