@@ -163,7 +163,8 @@ def test_sodium_json(capsys):
     assert code == 0
     assert data["tbw_l"] == pytest.approx(6)
     assert data["delta_na_per_l"] == pytest.approx((77 - 165) / 7, abs=0.1)
-    assert data["max_rate_ml_per_h"] == pytest.approx(0.5 / (88 / 7) * 1000, rel=0.01)
+    # general form (Chen et al., Kidney360 2021): V ≤ 0.5·6/(|77 − 165| − 0.5) L/h = 34.3 mL/h
+    assert data["max_rate_ml_per_h"] == pytest.approx(0.5 * 6 / 87.5 * 1000, rel=0.001)
 
 
 def test_text_plan_is_readable_and_carries_cautions(capsys):

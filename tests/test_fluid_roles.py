@@ -205,3 +205,22 @@ def test_an_absurd_divided_volume_for_a_mouse_is_blocked():
     plan = plan_for(species_id="mouse", weight_kg=0.03, losses_ml_per_day=1_000_000)
     assert severities(plan)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"
     assert severities(plan)["DIVIDED_SITES_IMPOSSIBLE"] == "hard"
+
+
+# ---- neonates (issue 16, item 11) -------------------------------------------------------
+def test_a_neonate_puppy_uses_neonatal_body_water_in_the_sodium_check():
+    # Odunayo 2018: TBW 60 % of body weight in adults, up to 80 % in neonates.
+    adult = plan_for(species_id="dog", weight_kg=20, serum_na=165, fluid_id="nacl_0_45")
+    pup = plan_for(species_id="dog", weight_kg=20, serum_na=165, fluid_id="nacl_0_45",
+                   neonate=True)  # fmt: skip
+    assert adult.sodium.tbw_l == pytest.approx(12)
+    assert pup.sodium.tbw_l == pytest.approx(16)
+    assert course(pup).intracellular_ml[0] + course(pup).interstitial_ml[0] + course(
+        pup
+    ).plasma_ml[0] == pytest.approx(16000)
+
+
+def test_a_neonate_of_a_taxon_without_a_neonatal_value_is_told_the_adult_value_is_used():
+    plan = plan_for(species_id="bearded_dragon", weight_kg=0.05, neonate=True)
+    neonate = next(f for f in plan.findings if f.code == "NEONATE")
+    assert "adult value is used" in neonate.message

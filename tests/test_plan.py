@@ -112,8 +112,12 @@ def test_sodium_falling_too_fast_is_soft_and_free_water_deficit_is_given():
     plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=7, replace_hours=12,
                     serum_na=170, fluid_id="dextrose_5")  # fmt: skip
     assert plan.sodium.delta_na_per_l == pytest.approx(-170 / 13)
-    assert plan.sodium.max_rate_ml_per_h == pytest.approx(0.5 / (170 / 13) * 1000)
-    assert codes(plan)["SODIUM_CHANGE_TOO_FAST"] == "soft"
+    # fastest rate by the general form (Chen et al., Kidney360 2021): 0.5·12/(170 − 0.5) L/h
+    assert plan.sodium.max_rate_ml_per_h == pytest.approx(0.5 * 12 / 169.5 * 1000)
+    # 7 % of 20 kg over 12 h + maintenance ≈ 169 mL/h moves Na about 2.3 mmol/L in an hour:
+    # more than twice the 0.5 limit in the replacement phase, so the plan is blocked
+    assert plan.sodium.peak_change_per_h < -1.0
+    assert codes(plan)["SODIUM_CHANGE_TOO_FAST"] == "hard"
     # free-water deficit 0.6 × 20 × (170/145 − 1) L, dog normal Na 145 (memory)
     assert plan.free_water_deficit_ml == pytest.approx(0.6 * 20 * (170 / 145 - 1) * 1000)
 
@@ -123,7 +127,7 @@ def test_cardiac_disease_suggests_a_lower_rate():
                     cardiac_disease=True)  # fmt: skip
     finding = next(f for f in plan.findings if f.code == "OVERLOAD_RISK")
     assert finding.severity == "soft"
-    slower = 240 / 24 + plan.maintenance.ml_per_h
+    slower = 240 / 48 + plan.maintenance.ml_per_h  # fixed target: 2 × the usual 24 h
     assert f"{slower:.1f} mL/h" in finding.message
     assert slower < plan.main_phase.rate_ml_per_h
 

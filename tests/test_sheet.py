@@ -250,16 +250,16 @@ def test_the_patient_inputs_block_lists_flags_temperature_dehydration_and_the_la
 
 def test_an_estimate_from_findings_is_marked_not_confirmed_and_a_temperature_is_shown():
     plan = build_plan(PlanRequest(species_id="bearded_dragon", weight_kg=0.38, body_temp_c=24,
-                                  dehydration_findings=("membranes_dry",)))  # fmt: skip
+                                  dehydration_findings=("membranes_possibly_dry",)))  # fmt: skip
     data = plan_dict(plan)
     block = _inputs_block(sheet_html(data))
     estimate = data["dehydration_estimate"]
-    assert "NOT CONFIRMED" in block and "membranes_dry" in block
+    assert "NOT CONFIRMED" in block and "membranes_possibly_dry" in block
     assert f"{estimate['percent_low']:g}–{estimate['percent_high']:g} %" in block
     assert "24 °C" in block
     confirmed = plan_dict(build_plan(PlanRequest(
         species_id="bearded_dragon", weight_kg=0.38, dehydration_percent=5,
-        dehydration_findings=("membranes_dry",),
+        dehydration_findings=("membranes_possibly_dry",),
     )))  # fmt: skip
     block = _inputs_block(sheet_html(confirmed))
     assert "5 %, entered" in block and "NOT CONFIRMED" not in block

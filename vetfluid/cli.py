@@ -24,12 +24,6 @@ if TYPE_CHECKING:
     from vetfluid.schedule import Phase
 
 EXIT_OK, EXIT_INPUT, EXIT_HARD_LIMIT = 0, 2, 3
-DEVICE_WORDS = {
-    "pump": "infusion pump",
-    "gravity": "gravity drip",
-    "syringe": "syringe pump",
-    "divided": "divided boluses",
-}
 
 
 class _Parser(argparse.ArgumentParser):
@@ -101,7 +95,11 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
     add("--losses-ml-per-day", type=float, default=0.0, help="ongoing losses (mL/day)")
     add("--maintenance-method", choices=("linear", "allometric", "energy"))
     add("--fluid", default="lactated_ringers", help="fluid id (see `vetfluid-cli fluids`)")
-    add("--route", choices=("iv", "io", "sc", "icoel"))
+    add(
+        "--shock-fluid", dest="shock_fluid",
+        help="fluid id of the resuscitation boluses, when not the plan's fluid",
+    )  # fmt: skip
+    add("--route", choices=("iv", "cvc", "io", "sc", "icoel"), help="cvc: a central line")
     add("--device", choices=("pump", "gravity", "syringe", "divided"))
     add("--drop-factor", type=float, help="giving set drops/mL (implies a gravity drip)")
     add("--boluses", type=int, default=0, help="resuscitation boluses to plan first")
@@ -218,10 +216,26 @@ def _range(v: dict) -> str:
     return f" ({v['low']:g}–{v['high']:g})"
 
 
-def _value_line(name: str, v: dict) -> str:
+def _origin_words(v: dict, group_names: dict[str, str]) -> str:
+    """Where a value comes from, in words: a group by its name ("inherited from the
+    reptiles group"), never its id (``group_reptile`` is for the data files)."""
+    if v["origin"] != "inherited":
+        return v["origin"]
+    group = group_names.get(v["defined_on"])
+    return f"inherited from the {group.lower()} group" if group else "inherited from a group"
+
+
+def _group_names() -> dict[str, str]:
+    """Row id → common name of every species and taxon group in the table."""
+    from vetfluid.species import load_table
+
+    return {sid: row.common_name for sid, row in load_table().species_by_id.items()}
+
+
+def _value_line(name: str, v: dict, group_names: dict[str, str]) -> str:
     """One species value for a person: value, range, unit, basis, source and origin."""
     mark = f" {_basis_mark(v['basis'])}" if v["basis"] != "published" else ""
-    origin = v["origin"] + (f" from {v['defined_on']}" if v["origin"] == "inherited" else "")
+    origin = _origin_words(v, group_names)
     source = v["source_id"] or "—"
     return (
         f"  {name:34} {_shown(v['value'])}{_range(v)} {v['unit']}  {v['basis']}{mark}"
@@ -241,10 +255,13 @@ def cmd_species(args: argparse.Namespace) -> int:
     if args.json:
         _emit(data)
         return EXIT_OK
+    names = {sid: row.common_name for sid, row in table.species_by_id.items()}
     for sp in data["species"]:
-        print(f"\n{sp['common_name']} ({sp['scientific_name']}) — {sp['taxon_group']} [{sp['id']}]")
+        # the id only as what to type: the option that plans this species
+        print(f"\n{sp['common_name']} ({sp['scientific_name']}) — {sp['taxon_group']}; "
+              f"plan it with --species {sp['id']}")  # fmt: skip
         for name, v in sp["values"].items():
-            print(_value_line(name, v))
+            print(_value_line(name, v, names))
     print("\nSources:")
     for s in data["sources"]:
         print(f"  {s['source_id']:22} {s['citation']}")
@@ -266,14 +283,20 @@ def cmd_fluids(args: argparse.Namespace) -> int:
         _emit({"fluids": data, "cautions": list(CAUTIONS)})
         return EXIT_OK
     header = "".join(f" {title:>{width}}" for title, _, width, _ in FLUID_COLUMNS)
-    print(f"{'fluid':28}{header}  basis")
+    name_width = max(len(f["name"]) for f in data)
+    print(f"{'fluid':{name_width}}{header}  basis")
     for f in data:
         cells = "".join(f" {f[key]:{width}.{places}f}" for _, key, width, places in FLUID_COLUMNS)
-        print(f"{f['fluid_id']:28}{cells}  {f['basis']} {_basis_mark(f['basis'])}".rstrip())
+        print(f"{f['name']:{name_width}}{cells}  {f['basis']} {_basis_mark(f['basis'])}".rstrip())
     print(
         "(ions in mmol/L, computed from g/L with the molar masses in solutes.csv, "
         "from IUPAC standard atomic weights)\n"
     )
+    # the ids only as what to type: the option that chooses each fluid
+    print("To plan with a fluid, give its --fluid value:")
+    for f in data:
+        print(f"  {f['name']:{name_width}}  --fluid {f['fluid_id']}")
+    print()
     print(_cautions_text())
     return EXIT_OK
 
@@ -300,6 +323,7 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         losses_ml_per_day=args.losses_ml_per_day,
         maintenance_method=args.maintenance_method,
         fluid_id=args.fluid,
+        bolus_fluid_id=args.shock_fluid,
         route=args.route,
         device=device,
         drop_factor=args.drop_factor,
@@ -343,6 +367,7 @@ def _phase_line(phase: Phase) -> str:
 
 def print_plan(plan: Plan) -> None:
     """The plan as a readable sheet for a person at a terminal."""
+    from vetfluid.electrolytes import sodium_text
     from vetfluid.serialize import plan_dict
     from vetfluid.sheet import (
         first_24h_text,
@@ -350,6 +375,7 @@ def print_plan(plan: Plan) -> None:
         maintenance_text,
         patient_weight_text,
         potassium_text,
+        route_and_device_text,
     )
 
     data = plan_dict(plan)
@@ -362,15 +388,13 @@ def print_plan(plan: Plan) -> None:
          if data["free_water_deficit_ml"] is not None else None),
         ("Fluid", f"{fl['name']} ({fl['tonicity']} in the body; Na "
                   f"{_q(fl['na_mmol_per_l'], 'mmol/L')}, K {_q(fl['k_mmol_per_l'], 'mmol/L')})"),
-        ("Route", f"{data['route'].upper()}, {DEVICE_WORDS[data['device']]}"),
+        ("Route", route_and_device_text(data)),
         ("First 24 h", first_24h_text(data)),
     ]  # fmt: skip
     if "potassium" in data:
         rows.append(("Potassium", potassium_text(data)))
-    if "sodium" in data:
-        s = data["sodium"]
-        rows.append(("Sodium", f"ΔNa {_q(s['delta_na_per_l'], 'mmol/L')} per litre; fastest rate "
-                     f"{_q(s['max_rate_ml_per_h'], 'mL/h')}"))  # fmt: skip
+    if plan.sodium is not None:
+        rows.append(("Sodium", sodium_text(plan.sodium)))
     print(f"Fluid plan — {data['species_name']}, {patient_weight_text(data)}")
     for label, text in rows:
         if text is not None:
@@ -391,16 +415,26 @@ def print_plan(plan: Plan) -> None:
         when = e["clock"] or f"h {e['hour']:g}"
         print(f"  {when:>12}  {e['action']}")
     print("\nFindings")
-    for f in data["findings"]:
-        print(f"  [{f['severity'].upper():4}] {f['code']}: {f['message']} {f['action']}".rstrip())
-    if not data["findings"]:
-        print("  none")
+    _print_findings(data["findings"])
     memory = [v for v in data["provenance"] if v["basis"] == "memory"]
     print(f"\nSpecies values used ({len(memory)} recalled from memory, marked *):")
+    names = _group_names()
     for v in data["provenance"]:
         star = "*" if v["basis"] == "memory" else " "
-        print(f"  {star}{_value_line(v['parameter'], v)[1:]}")
+        print(f"  {star}{_value_line(v['parameter'], v, names)[1:]}")
     print("\n" + _cautions_text())
+
+
+def _print_findings(findings: list[dict]) -> None:
+    """Each finding in words, worst first: its severity, what it says and what to do. The
+    code is for the JSON output and the logs, never for reading."""
+    from vetfluid.sheet import SEVERITY_WORDS
+
+    order = {"hard": 0, "soft": 1, "info": 2}
+    for f in sorted(findings, key=lambda f: order.get(f["severity"], 3)):
+        print(f"  {SEVERITY_WORDS[f['severity']]}: {f['message']} {f['action']}".rstrip())
+    if not findings:
+        print("  none")
 
 
 def cmd_plan(args: argparse.Namespace) -> int:
@@ -479,9 +513,11 @@ def cmd_sodium(args: argparse.Namespace) -> int:
         "delta_na_per_l": change,
         "max_change_per_h": max_change,
         "max_rate_ml_per_h": electrolytes.max_rate_for_sodium(
-            change_per_litre=change, max_change_per_h=max_change
-        ),
-        "method": "Adrogué–Madias: (infusate Na + K − serum Na) / (TBW + 1)",
+            serum_na=args.serum_na, infusate_na_k=comp.na_mmol_per_l + comp.k_mmol_per_l,
+            tbw_l=tbw.number * weight, max_change_per_h=max_change,
+        ),  # fmt: skip
+        "method": "Adrogué–Madias, general form: ΔNa = V·(infusate Na + K − serum Na) / "
+        "(TBW + V); per litre V = 1 L; the fastest rate moves Na by the limit in one hour",
         "source_id": "adrogue2000",
         "cautions": list(CAUTIONS),
     }
@@ -489,7 +525,7 @@ def cmd_sodium(args: argparse.Namespace) -> int:
         _emit(data)
         return EXIT_OK
     print(f"TBW {_q(data['tbw_l'], 'L')} ({tbw.number:g} × BW, {tbw.basis})")
-    print(f"ΔNa after 1 L of {args.fluid}: {_q(change, 'mmol/L')}")
+    print(f"ΔNa after 1 L of {fluids.fluid(args.fluid).name}: {_q(change, 'mmol/L')}")
     print(
         f"Fastest rate within {_q(max_change, 'mmol/L/h')}: {_q(data['max_rate_ml_per_h'], 'mL/h')}"
     )
@@ -511,6 +547,9 @@ def _hours(text: str) -> list[float]:
 
 COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
                "remaining_deficit_ml", "given_ml", "eliminated_ml", "serum_na")  # fmt: skip
+# the column headings people read (the JSON keeps the keys above)
+COURSE_HEADINGS = ("plasma mL", "interstitial mL", "intracellular mL", "weight kg",
+                   "deficit left mL", "given mL", "eliminated mL", "serum Na mmol/L")  # fmt: skip
 
 
 def cmd_course(args: argparse.Namespace) -> int:
@@ -547,13 +586,15 @@ def cmd_course(args: argparse.Namespace) -> int:
     else:
         weight = weight_text(plan.request.weight_kg, plan.weight_unit)
         print(f"Course — {plan.species_name}, {weight}")
-        print(f"{'hour':>6} " + " ".join(f"{k:>20}" for k in COURSE_KEYS))
+        print(f"{'hour':>6} " + " ".join(f"{k:>20}" for k in COURSE_HEADINGS))
         for row in rows:
             cells = " ".join(f"{'—' if row[k] is None else format(row[k], '.6g'):>20}"
                              for k in COURSE_KEYS)  # fmt: skip
             print(f"{row['hour']:>6g} {cells}")
         if result.elimination_left_out:
             print(f"Renal elimination of excess fluid left out: {result.elimination_left_out}.")
+        print("\nFindings of the plan")
+        _print_findings(data["findings"])
         print("\n" + _cautions_text())
     return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK
 

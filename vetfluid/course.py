@@ -44,6 +44,7 @@ from vetfluid import fluids
 from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.findings import Finding
+from vetfluid.hydration import body_water_fraction
 from vetfluid.limits import limit
 from vetfluid.observations import Observation, alerts
 from vetfluid.plan import Plan
@@ -340,9 +341,10 @@ def course(
     )  # fmt: skip
     sid, w = plan.request.species_id, plan.request.weight_kg
     values = {
+        "total_body_water_fraction": body_water_fraction(table, sid, neonate=plan.request.neonate),
+    } | {
         name: table.value(sid, name)
         for name in (
-            "total_body_water_fraction",
             "ecf_fraction",
             "plasma_fraction",
             "plasma_osmolality_mosm_per_kg",

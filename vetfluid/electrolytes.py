@@ -27,6 +27,7 @@ import numpy as np
 from vetfluid.checks import require_number, require_patient_weight
 from vetfluid.csvfiles import parse_number, read_rows
 from vetfluid.errors import SpeciesDataError
+from vetfluid.formatting import format_quantity as q
 from vetfluid.paths import resource_dir
 
 
@@ -243,6 +244,18 @@ class SodiumSummary:
     peak_hour: float = 0.0  # where that hour starts
     peak_phase: str = ""  # the phase it starts in
     source_id: str = "adrogue2000"
+
+
+def sodium_text(na: SodiumSummary) -> str:
+    """The sodium line of the window, the CLI and the sheet: the plan's largest change in
+    any hour, the textbook per-litre figure and the fastest main rate within the limit."""
+    fastest = q(na.max_rate_ml_per_h, "mL/h") if na.max_rate_ml_per_h else "no limit"
+    sign = "+" if na.peak_change_per_h > 0 else ""
+    return (
+        f"largest change in any hour {sign}{q(na.peak_change_per_h, 'mmol/L')} "
+        f"(from hour {na.peak_hour:g}); ΔNa {q(na.delta_na_per_l, 'mmol/L')} per litre; "
+        f"fastest rate within {q(na.max_change_per_h, 'mmol/L/h')}: {fastest}"
+    )
 
 
 def sodium_summary(

@@ -42,7 +42,6 @@ from vetfluid.formatting import format_quantity
 from vetfluid.species import BASES
 
 KINDS = ("crystalloid", "colloid", "additive_concentrate")
-INFUSIBLE_KINDS = ("crystalloid", "colloid")  # what can be given as the plan's fluid
 METABOLISED = ("no", "yes", "anion_to_bicarbonate")
 TONICITY_CLASSES = ("hypotonic", "isotonic", "hypertonic")
 

@@ -19,6 +19,7 @@ import numpy as np
 from vetfluid import (
     delivery,
     electrolytes,
+    fluid_roles,
     fluids,
     hydration,
     maintenance,
@@ -37,7 +38,7 @@ from vetfluid.schedule import Phase, ScheduleEntry
 from vetfluid.species import SpeciesTable, SpeciesValue, load_table
 from vetfluid.units import preferred_weight_unit, weight_text
 
-ROUTES = ("iv", "io", "sc", "icoel")
+ROUTES = ("iv", "cvc", "io", "sc", "icoel")  # cvc: a central venous catheter
 DEVICES = ("pump", "gravity", "syringe", "divided")
 LINE_ROUTES = safety.LINE_ROUTES
 # Per-site limit parameter for each bolus route.
@@ -61,6 +62,7 @@ class PlanRequest:
     losses_ml_per_day: float = 0.0
     maintenance_method: str | None = None
     fluid_id: str = "lactated_ringers"
+    bolus_fluid_id: str | None = None  # the resuscitation bolus fluid; None: the plan's fluid
     route: str | None = None
     device: str | None = None
     drop_factor: float | None = None
@@ -149,6 +151,14 @@ class PlanRequest:
             maintenance.usg_to_osmolality(self.usg)
         if self.dehydration_findings:
             hydration.estimate_dehydration(self.dehydration_findings)
+        fluids.fluid(self.fluid_id)  # an unknown fluid is refused by name
+        if self.bolus_fluid_id is not None:
+            fluids.fluid(self.bolus_fluid_id)
+
+    @property
+    def resuscitation_fluid_id(self) -> str:
+        """The fluid the resuscitation boluses are given as."""
+        return self.bolus_fluid_id or self.fluid_id
 
 
 def _weight_text(weight_kg: float, ledger: Ledger) -> str:
@@ -291,7 +301,7 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
     device = request.device or ("pump" if route in LINE_ROUTES else "divided")
     if route not in LINE_ROUTES and device != "divided":
         raise InputError(
-            f"{route.upper()} fluids are given as divided boluses, not by {device}",
+            f"{schedule.route_text(route)} fluids are given as divided boluses, not by {device}",
             field="device",
             value=device,
             fix="choose divided boluses, or an IV/IO route",
@@ -323,13 +333,29 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
     return route, device
 
 
-def _potassium_to_add(request: PlanRequest) -> float:
+def _species_potassium_band(
+    ledger: Ledger, request: PlanRequest
+) -> electrolytes.SpeciesPotassiumBand | None:
+    """The serum-K scale's band for this patient, judged against its species' own
+    reference interval (:func:`electrolytes.potassium_band_for_species`)."""
+    if request.serum_k is None:
+        return None
+    normal = ledger.value("serum_k_mmol_per_l")
+    return electrolytes.potassium_band_for_species(
+        request.serum_k, species_id=request.species_id,
+        species_low=normal.low if normal.low is not None else normal.number,
+        species_high=normal.high if normal.high is not None else normal.number,
+    )  # fmt: skip
+
+
+def _potassium_to_add(
+    request: PlanRequest, band: electrolytes.SpeciesPotassiumBand | None
+) -> float:
     """KCl (mmol) to add per litre: by hand, else from the serum-K scale, else none."""
     if request.kcl_mmol_per_l is not None:
         return request.kcl_mmol_per_l
-    if request.serum_k is not None:
-        band = electrolytes.potassium_band(request.serum_k)
-        return band.kcl_mmol_per_l if band else 0.0
+    if band is not None and band.band is not None:
+        return band.band.kcl_mmol_per_l
     return 0.0
 
 
@@ -400,13 +426,17 @@ def _resuscitation_phases(
         ledger.add(
             "hard",
             "RESUSCITATION_NEEDS_LINE",
-            f"Resuscitation boluses cannot be given {route.upper()}.",
+            f"Resuscitation boluses cannot be given {schedule.route_text(route)}.",
             "Place an IV or IO line for shock.",
         )
         return [], None
+    bolus_fluid = fluids.fluid(request.resuscitation_fluid_id)
+    roles = fluid_roles.roles(bolus_fluid.fluid_id)
     res = resuscitation.resuscitation(
-        ledger.table, request.species_id, request.weight_kg, route=route
-    )
+        ledger.table, request.species_id, request.weight_kg, route=route,
+        fluid_dose_ml_per_kg=roles.bolus_max_ml_per_kg if roles.resuscitation else None,
+        fluid_min_minutes=roles.bolus_min_minutes,
+    )  # fmt: skip
     ledger.use(*res.provenance)
     phases = []
     hour = 0.0
@@ -422,13 +452,15 @@ def _resuscitation_phases(
                 route=route,
                 drop_factor=drop_factor,
                 kcl_mmol_per_l=0.0,
-                fluid_name=f"{fluids.fluid(request.fluid_id).name} with nothing added",
+                fluid_name=f"{bolus_fluid.name} with nothing added",
                 note=f"bolus {number} of {count}; reassess before the next; no KCl or "
                 "dextrose in a resuscitation bolus",
             )
         )
         hour = end
-    safety.check_boluses(ledger, res, count)
+    safety.check_bolus_fluid(ledger, bolus_fluid, roles, res, count)
+    if roles.bolus_max_ml_per_kg is None:
+        safety.check_boluses(ledger, res, count)
     return phases, res
 
 
@@ -542,13 +574,19 @@ def _fluid_phases(
 
 
 def _potassium(
-    request: PlanRequest, *, kcl: float, bag_k: float, phases: tuple[Phase, ...], main: Phase
+    request: PlanRequest,
+    *,
+    kcl: float,
+    bag_k: float,
+    phases: tuple[Phase, ...],
+    main: Phase,
+    k_band: electrolytes.SpeciesPotassiumBand | None,
 ) -> electrolytes.PotassiumSummary | None:
     if kcl <= 0 and request.serum_k is None:
         return None
     w = request.weight_kg
     ceiling = limit("potassium_max_mmol_per_kg_h")
-    band = electrolytes.potassium_band(request.serum_k) if request.serum_k is not None else None
+    band = k_band.band if k_band is not None else None
     peak = max(p.average_ml_per_h for p in phases if p.kind != "resuscitation")
 
     def per_kg_h(rate: float) -> float:
@@ -599,7 +637,9 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     background = maint.ml_per_h + request.losses_ml_per_day / 24.0
 
     plasma = ledger.value("plasma_osmolality_mosm_per_kg")
-    kcl = _potassium_to_add(request)
+    k_band = _species_potassium_band(ledger, request)
+    kcl = _potassium_to_add(request, k_band)
+    safety.note_potassium_band(ledger, k_band, by_hand=request.kcl_mmol_per_l is not None)
     bag = _bag(request, kcl)
     bag_comp = fluids.composition(bag)
     base = fluids.fluid(request.fluid_id)
@@ -610,10 +650,12 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     )
     route, device = _route_and_device(ledger, request)
     drop_factor = request.drop_factor if device == "gravity" else None
+    safety.check_carrier(ledger, base, fluid_roles.roles(base.fluid_id))
     safety.check_fluid_for_route(
         ledger, route=route, fluid_name=bag.name, tonicity=tone,
         dextrose_g_per_l=bag_comp.dextrose_g_per_l, colloid=bag.colloid is not None,
     )  # fmt: skip
+    safety.check_route_limits(ledger, route=route, bag=bag, composition=bag_comp)
     safety.check_reptile_dextrose(ledger, request.dextrose_percent)
 
     bolus_phases, res = _resuscitation_phases(ledger, request, route=route, drop_factor=drop_factor)
@@ -637,6 +679,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     phases = (*bolus_phases, *fluid_phases)
     main = fluid_phases[0]
     safety.check_rates_against_shock_dose(ledger, phases, w)
+    safety.check_volume_per_hour(ledger, phases, w)
     safety.check_colloid(ledger, bag, phases, w)
     safety.check_divided_sites(
         ledger, phases,
@@ -651,20 +694,34 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         weight_kg=w, deficit_ml=deficit,
     )  # fmt: skip
 
-    potassium = _potassium(request, kcl=kcl, bag_k=bag_comp.k_mmol_per_l, phases=phases, main=main)
+    potassium = _potassium(
+        request, kcl=kcl, bag_k=bag_comp.k_mmol_per_l, phases=phases, main=main, k_band=k_band
+    )
     if potassium is not None:
         safety.check_potassium(ledger, potassium, weight_kg=w, route=route, device=device)
+    safety.check_potassium_delivery(
+        ledger, phases, weight_kg=w, bag_k=bag_comp.k_mmol_per_l,
+        bolus_k=fluids.composition(fluids.fluid(request.resuscitation_fluid_id)).k_mmol_per_l,
+    )  # fmt: skip
 
     sodium, free_water = None, None
     if request.serum_na is not None:
-        tbw = ledger.value("total_body_water_fraction")
+        tbw = hydration.body_water_fraction(table, request.species_id, neonate=request.neonate)
+        ledger.use(tbw)
         max_change = (
             request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
         )
+        peak, peak_h = _sodium_peak(
+            phases, serum_na=request.serum_na, tbw_ml=tbw.number * w * 1000.0,
+            bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
+            bolus_na_k=_na_k(fluids.fluid(request.resuscitation_fluid_id)),
+            consumed=lambda hours: consumed_ml(outflow, end_h, hours),
+        )  # fmt: skip
         sodium = electrolytes.sodium_summary(
             serum_na=request.serum_na, infusate_na=bag_comp.na_mmol_per_l,
             infusate_k=bag_comp.k_mmol_per_l, tbw_l=tbw.number * w,
             rate_ml_per_h=main.average_ml_per_h, max_change_per_h=max_change,
+            peak_change_per_h=peak, peak_hour=peak_h, peak_phase=_phase_at(phases, peak_h).kind,
         )  # fmt: skip
         safety.check_sodium(ledger, sodium, main.average_ml_per_h)
         normal = ledger.value("serum_na_mmol_per_l")
@@ -680,9 +737,14 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             )  # fmt: skip
 
     budget = _water_budget(ledger, request)
-    safety.check_urine(ledger, usg=request.usg, budget=budget)
+    heart_or_kidney = request.cardiac_disease or request.renal_disease
+    safety.check_urine(ledger, usg=request.usg, budget=budget, overload_risk=heart_or_kidney)
     safety.check_budget_against_maintenance(
-        ledger, budget=budget, maintenance_ml_per_day=maint.ml_per_day
+        ledger, budget=budget, maintenance_ml_per_day=maint.ml_per_day,
+        overload_risk=heart_or_kidney,
+    )  # fmt: skip
+    safety.check_maintenance_covers_insensible(
+        ledger, maintenance_ml_per_day=maint.ml_per_day, given_ml_per_day=outflow[-1][1] * 24.0
     )
     safety.check_replacement_speed(ledger, deficit_ml=deficit, replace_hours=request.replace_hours)
     safety.suggest_syringe_pump(ledger, device=device, phases=tuple(fluid_phases))
@@ -694,7 +756,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     if request.anaesthesia:
         safety.check_anaesthesia(ledger, main, w)
     if request.neonate:
-        safety.note_neonate(ledger)
+        young = table.get(request.species_id, "neonate_total_body_water_fraction")
+        safety.note_neonate(ledger, neonatal_water=young)
     tail = fluid_phases[-1]
     safety.check_isotonic_maintenance(
         ledger, fluid_name=base.name, fluid_na=bag_comp.na_mmol_per_l,
@@ -732,11 +795,53 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         findings=tuple(ledger.findings),
         provenance=tuple(ledger.values.values()),
         bag=bag,
-        bolus_fluid=base,
+        bolus_fluid=fluids.fluid(request.resuscitation_fluid_id),
         citations=ledger.table.citations(ledger.values.values()),
         outflow=outflow,
         ins_and_outs=period_table,
     )
+
+
+def _na_k(fluid: fluids.Fluid) -> float:
+    comp = fluids.composition(fluid)
+    return comp.na_mmol_per_l + comp.k_mmol_per_l
+
+
+def _phase_at(phases: tuple[Phase, ...], hour: float) -> Phase:
+    """The phase running at an hour (the last one after the plan ends)."""
+    return next((p for p in phases if p.start_h <= hour < p.end_h), phases[-1])
+
+
+SODIUM_GRID_H = 0.25  # the Na path is followed every quarter hour, and at every turning point
+
+
+def _sodium_peak(
+    phases: tuple[Phase, ...],
+    *,
+    serum_na: float,
+    tbw_ml: float,
+    bag_na_k: float,
+    bolus_na_k: float,
+    consumed,  # noqa: ANN001 — hours array in, mL array out
+) -> tuple[float, float]:
+    """The plan's largest change of serum Na over any hour, signed, and when it starts:
+    the exchangeable Na + K balance of every phase (boluses as their own fluid) against
+    what leaves (:func:`electrolytes.serum_na_path`, the course's own balance)."""
+    end = max(p.end_h for p in phases)
+    moments = {p.start_h for p in phases} | {h for p in phases for h in p.dose_hours()}
+    starts = np.union1d(np.arange(0.0, end + 1e-9, SODIUM_GRID_H), sorted(moments))
+    hours = np.union1d(starts, starts + 1.0)
+    given = np.zeros_like(hours)
+    na_k = np.zeros_like(hours)
+    for phase in phases:
+        by = phase.given_by(hours)
+        given += by
+        na_k += by * (bolus_na_k if phase.kind == "resuscitation" else bag_na_k) / 1000.0
+    path = electrolytes.serum_na_path(
+        serum_na=serum_na, tbw_ml=tbw_ml, given_ml=given, na_k_given_mmol=na_k,
+        lost_ml=consumed(hours),
+    )  # fmt: skip
+    return electrolytes.largest_hourly_change(hours, path)
 
 
 def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:

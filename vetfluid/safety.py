@@ -9,16 +9,17 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-from vetfluid import delivery, fluids
+from vetfluid import delivery, fluid_roles, fluids
 from vetfluid.delivery import DIVIDED_INTERVALS_H
-from vetfluid.electrolytes import PotassiumSummary, SodiumSummary
+from vetfluid.electrolytes import PotassiumSummary, SodiumSummary, SpeciesPotassiumBand
 from vetfluid.formatting import format_quantity as q
 from vetfluid.hydration import overload_weight_kg
 from vetfluid.ledger import Ledger
 from vetfluid.limits import limit
 from vetfluid.maintenance import Maintenance, WaterBudget
 from vetfluid.resuscitation import RESUSCITATION_ROUTES, Resuscitation
-from vetfluid.schedule import Phase
+from vetfluid.schedule import Phase, route_text
+from vetfluid.species import SpeciesValue
 
 LINE_ROUTES = RESUSCITATION_ROUTES  # a continuous line: IV or IO
 NEAR_PLASMA_FACTOR = 1.2  # urine within 20% of plasma counts as "close to plasma" for the note
@@ -101,10 +102,113 @@ def check_fluid_for_route(
         ledger.add(
             "hard",
             "FLUID_NOT_FOR_SC",
-            f"{fluid_name} is not suitable {route.upper()}: no hypertonic, colloid or "
+            f"{fluid_name} is not suitable {route_text(route)}: no hypertonic, colloid or "
             "dextrose-containing fluids outside a vein.",
             "Choose an isotonic crystalloid for SC or intracoelomic use.",
             "vcna2017_sc",
+        )
+
+
+_ROUTE_WORDS = {
+    "iv": "into a peripheral vein",
+    "cvc": "through a central line",
+    "io": "intraosseously",
+    "sc": "under the skin",
+    "icoel": "into the coelom",
+}
+
+
+def check_carrier(ledger: Ledger, fluid: fluids.Fluid, roles: fluid_roles.FluidRoles) -> None:
+    """The plan's bag must be a fluid with the carrier role (fluid_roles.csv): a
+    concentrate is an additive only, hypertonic saline a single small bolus (hard)."""
+    if roles.carrier:
+        return
+    what = (
+        "is a concentrate, an additive only: it is diluted into a bag, never given as one"
+        if roles.additive_only
+        else "is a small resuscitation dose only, never replacement or maintenance"
+    )
+    ledger.add(
+        "hard",
+        "FLUID_NOT_A_CARRIER",
+        f"{fluid.name} {what}.",
+        "Choose a replacement or maintenance crystalloid as the plan's fluid"
+        + ("; add the concentrate to it as an additive." if roles.additive_only else "."),
+        roles.source_id,
+    )
+
+
+def check_bolus_fluid(
+    ledger: Ledger,
+    fluid: fluids.Fluid,
+    roles: fluid_roles.FluidRoles,
+    res: Resuscitation,
+    boluses: int,
+) -> None:
+    """A resuscitation bolus must be a fluid with that role (hard): one that stays in
+    the extracellular fluid; a fluid with its own dose (hypertonic saline) once only."""
+    if not roles.resuscitation:
+        ledger.add(
+            "hard",
+            "FLUID_NOT_FOR_RESUSCITATION",
+            f"{fluid.name} is not a resuscitation fluid: "
+            + (
+                "a concentrate is an additive only."
+                if roles.additive_only
+                else "it does not stay in the circulation (it spreads into the cells as free "
+                "water), so it does not restore perfusion."
+            ),
+            "Give resuscitation boluses of an isotonic replacement crystalloid (lactated "
+            "Ringer's, 0.9% sodium chloride).",
+            roles.source_id,
+        )
+        return
+    if roles.bolus_max_ml_per_kg is not None and boluses * res.bolus_ml_per_kg > (
+        roles.bolus_max_ml_per_kg * (1 + 1e-9)
+    ):
+        ledger.add(
+            "hard",
+            "FLUID_DOSE_ABOVE_MAX",
+            f"{boluses} boluses of {fluid.name} give "
+            f"{q(boluses * res.bolus_ml_per_kg, 'mL/kg')}, above its single dose of "
+            f"{q(roles.bolus_max_ml_per_kg, 'mL/kg')}.",
+            "Give it once, then continue with an isotonic crystalloid.",
+            roles.source_id,
+        )
+
+
+def check_route_limits(
+    ledger: Ledger, *, route: str, bag: fluids.Fluid, composition: fluids.Composition
+) -> None:
+    """What the bag may hold for its route (route_limits.csv): osmolarity for a peripheral
+    vein or the marrow, potassium and dextrose under the skin or into the coelom. The
+    first limit passed of each kind is reported (hard ones are checked first)."""
+    measured = {
+        "max_osmolarity_mosm_per_l": (composition.osmolarity_mosm_per_l, "mOsm/L", "osmolarity"),
+        "max_k_mmol_per_l": (composition.k_mmol_per_l, "mmol/L", "potassium"),
+        "max_dextrose_g_per_l": (composition.dextrose_hydrous_g_per_l, "g/L", "dextrose"),
+    }
+    reported: set[str] = set()
+    for rule in fluid_roles.route_limits(route):
+        value, unit, what = measured[rule.limit]
+        if rule.limit in reported or value <= rule.value + 1e-9:
+            continue
+        reported.add(rule.limit)
+        unverified = " (recalled — unverified)" if rule.basis == "memory" else ""
+        fix = {
+            "max_osmolarity_mosm_per_l": "Use a central line, or a less concentrated bag.",
+            "max_k_mmol_per_l": "Add less potassium, or give it IV where the rate can be set.",
+            "max_dextrose_g_per_l": "Give dextrose IV or IO only; use a crystalloid without "
+            "dextrose here.",
+        }[rule.limit]
+        ledger.add(
+            rule.severity,
+            f"ROUTE_{what.upper()}_LIMIT",
+            f"The bag ({bag.name}) holds {q(value, unit)} {what}, above the "
+            f"{q(rule.value, unit)} a fluid given {_ROUTE_WORDS.get(route, route)} may "
+            f"hold{unverified}.",
+            fix,
+            rule.source_id,
         )
 
 
@@ -168,11 +272,21 @@ def _turning_points(phases: tuple[Phase, ...]) -> set[float]:
 
 
 def _largest_24_h(phases: tuple[Phase, ...]) -> tuple[float, float]:
-    """The most given in any 24 h and where that window starts. Volume given is piecewise
-    linear in time, so the largest window starts or ends at a phase boundary or dose."""
+    """The most given in any 24 h and where that window starts."""
+    return largest_in_window(phases, 24.0)
+
+
+def largest_in_window(phases: tuple[Phase, ...], window_h: float) -> tuple[float, float]:
+    """The most given in any ``window_h`` hours, whatever the delivery, and where that
+    window starts. Volume given is piecewise linear in time (a dose is a step), so the
+    largest window starts or ends at a phase boundary or a dose."""
     moments = _turning_points(phases)
-    starts = {max(0.0, m) for m in moments} | {max(0.0, m - 24.0) for m in moments}
-    return max((sum(p.volume_between(a, a + 24.0) for p in phases), a) for a in sorted(starts))
+    starts = {max(0.0, m) for m in moments} | {max(0.0, m - window_h) for m in moments}
+    # the largest volume, the earliest window among equals
+    most, negative_start = max(
+        (sum(p.volume_between(a - 1e-9, a + window_h - 1e-9) for p in phases), -a) for a in starts
+    )
+    return most, -negative_start
 
 
 def check_reptile_dextrose(ledger: Ledger, dextrose_percent: float) -> None:
@@ -221,6 +335,32 @@ def check_rates_against_shock_dose(
                 cap.source_id,
             )
             return
+
+
+def check_volume_per_hour(ledger: Ledger, phases: tuple[Phase, ...], weight_kg: float) -> None:
+    """The most given in any one hour, by any delivery (pump, drip, syringe or divided
+    doses), against one shock dose (or blood volume) per hour: hard. A divided dose is
+    given within minutes, so a dose larger than the hourly ceiling is caught here even
+    though no rate is set."""
+    cap = ledger.get("shock_dose_ml_per_kg") or ledger.value("blood_volume_ml_per_kg")
+    per_hour = cap.number * weight_kg
+    most, start = largest_in_window(phases, 1.0)
+    if most <= per_hour * (1 + 1e-9):
+        return
+    if any(
+        p.mode == "continuous" and (p.rate_ml_per_h or 0.0) > per_hour * (1 + 1e-9) for p in phases
+    ):
+        return  # RATE_ABOVE_SHOCK_DOSE already says so, with the rate
+    what = "shock dose" if cap.parameter == "shock_dose_ml_per_kg" else "blood volume"
+    ledger.add(
+        "hard",
+        "VOLUME_PER_HOUR_ABOVE_CEILING",
+        f"The plan gives {q(most, 'mL')} ({q(most / weight_kg, 'mL/kg')}) within the hour "
+        f"from hour {start:g}, more than one {what} per hour ({q(per_hour, 'mL')}).",
+        "Check the weight, deficit and ongoing losses; replace the deficit over a longer "
+        "period, or place a line and give it at a set rate.",
+        cap.source_id,
+    )
 
 
 def check_dose_spacing(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
@@ -306,6 +446,20 @@ def check_divided_sites(
                 "place an IO/IV line.",
             )
             break
+    most_sites = limit("divided_sites_max_per_dose")
+    for phase in phases:
+        if phase.mode == "intermittent" and (phase.sites_per_dose or 0) > most_sites.value:
+            ledger.add(
+                most_sites.severity,
+                "DIVIDED_SITES_IMPOSSIBLE",
+                f"Each {route_text(phase.route)} {phase.kind} dose would need "
+                f"{phase.sites_per_dose:,} injection sites, more than "
+                f"{most_sites.value:g} (common practice, no source).",
+                "Check the weight, deficit and losses; this volume needs a line (IV or IO) "
+                "or far longer replacement.",
+                most_sites.source_id,
+            )
+            return
     for phase in phases:
         if phase.mode == "intermittent" and not phase.fits_sites:
             # the figures the schedule gives: as drawn up, so the two never disagree
@@ -315,7 +469,7 @@ def check_divided_sites(
             ledger.add(
                 "soft",
                 "DIVIDED_TOO_MANY_SITES",
-                f"Each {phase.route.upper()} {phase.kind} dose of "
+                f"Each {route_text(phase.route)} {phase.kind} dose of "
                 f"{q(drawn.dose_ml, 'mL', decimals=2)} needs {drawn.sites} sites at "
                 f"{q(drawn.ml_per_site, 'mL', decimals=2)} per site.",
                 "Replace the deficit over a longer period, or place an IO/IV line.",
@@ -389,20 +543,92 @@ def check_potassium(
         )
 
 
-def check_sodium(ledger: Ledger, na: SodiumSummary, rate_ml_per_h: float) -> None:
-    """Serum Na predicted to move faster than the correction limit (soft)."""
-    if na.max_rate_ml_per_h is not None and rate_ml_per_h > na.max_rate_ml_per_h:
-        direction = "fall" if na.delta_na_per_l < 0 else "rise"
+def note_potassium_band(
+    ledger: Ledger, band: SpeciesPotassiumBand | None, *, by_hand: bool
+) -> None:
+    """Serum K above the species' reference interval (soft: no KCl is added by the scale,
+    look for the cause), and the scale's origin when the patient is not a dog or cat."""
+    if band is None:
+        return
+    if band.above_range:
         ledger.add(
             "soft",
-            "SODIUM_CHANGE_TOO_FAST",
-            f"At {q(rate_ml_per_h, 'mL/h')} serum Na is predicted to {direction} "
-            f"{q(abs(na.predicted_change_per_h), 'mmol/L/h')}, faster than "
-            f"{q(na.max_change_per_h, 'mmol/L/h')}.",
-            f"Keep the rate at or below {q(na.max_rate_ml_per_h, 'mL/h')} or choose a fluid "
-            "closer to the patient's Na; recheck Na every 4–6 h.",
-            na.source_id,
+            "HYPERKALAEMIA",
+            f"Serum K is above this species' reference high of {q(band.species_high, 'mmol/L')}"
+            " (hyperkalaemia): the serum-K scale adds no KCl.",
+            "Recheck serum K, look for the cause (urinary obstruction, kidney injury, "
+            "hypoadrenocorticism) and treat it; monitor the ECG; add no potassium.",
+            "cote2020",
         )
+    if not band.scale_written_for_species and not by_hand:
+        ledger.add(
+            "info",
+            "POTASSIUM_SCALE_FROM_DOGS_AND_CATS",
+            "The serum-K scale was written for dogs and cats (Côté 2020); for this species "
+            f"serum K is read against its own reference interval "
+            f"({q(band.species_low, 'mmol/L')}–{q(band.species_high, 'mmol/L')}), as if at "
+            f"{q(band.compared_at_mmol_per_l, 'mmol/L')} on the scale (derived, no source).",
+            "Confirm the KCl against your species references and recheck serum K in 4–6 h.",
+            "cote2020",
+        )
+
+
+def check_potassium_delivery(
+    ledger: Ledger, phases: tuple[Phase, ...], *, weight_kg: float, bag_k: float, bolus_k: float
+) -> None:
+    """Potassium delivered by every continuous phase, boluses included, whatever put it in
+    the bag, against the 0.5 mmol/kg/h ceiling (Côté 2020): hard. Runs for every plan, so
+    a bag that is mostly potassium is caught though no KCl was 'added'."""
+    ceiling = limit("potassium_max_mmol_per_kg_h")
+    if any(f.code == "POTASSIUM_ABOVE_CEILING" for f in ledger.findings):
+        return  # the potassium summary said so already, with its safe rate
+    for phase in phases:
+        k = bolus_k if phase.kind == "resuscitation" else bag_k
+        rate = phase.rate_ml_per_h if phase.mode == "continuous" else None
+        if not rate or k <= 0:
+            continue
+        per_kg_h = k * rate / 1000.0 / weight_kg
+        if per_kg_h > ceiling.value * (1 + 1e-9):
+            ledger.add(
+                "hard",
+                "POTASSIUM_ABOVE_CEILING",
+                f"The {phase.kind} phase would give potassium at "
+                f"{q(per_kg_h, 'mmol/kg/h')}, above the {q(ceiling.value, 'mmol/kg/h')} "
+                "ceiling.",
+                f"Lower the rate to at most {q(ceiling.value * weight_kg * 1000.0 / k, 'mL/h')} "
+                "or use a fluid with less potassium.",
+                ceiling.source_id,
+            )
+            return
+
+
+def check_sodium(ledger: Ledger, na: SodiumSummary, rate_ml_per_h: float) -> None:
+    """Serum Na predicted to move faster than the correction limit over any hour of the
+    plan (Adrogué & Madias 2000, general form, every phase): soft; at
+    ``sodium_hard_factor`` × the limit or more in a replacement or maintenance phase,
+    hard. A resuscitation bolus stays soft: shock comes first, and the clinician says why."""
+    peak = abs(na.peak_change_per_h)
+    if peak <= na.max_change_per_h * (1 + 1e-9):
+        return
+    direction = "fall" if na.peak_change_per_h < 0 else "rise"
+    factor = limit("sodium_hard_factor")
+    hard = peak >= factor.value * na.max_change_per_h and na.peak_phase != "resuscitation"
+    rate = (
+        f"keep the {na.peak_phase} rate at or below {q(na.max_rate_ml_per_h, 'mL/h')}"
+        if na.max_rate_ml_per_h is not None and na.peak_phase != "resuscitation"
+        else "slow the rate"
+    )
+    ledger.add(
+        "hard" if hard else "soft",
+        "SODIUM_CHANGE_TOO_FAST",
+        f"Serum Na {q(na.serum_na, 'mmol/L')} is predicted to {direction} "
+        f"{q(peak, 'mmol/L')} in the hour from hour {na.peak_hour:g} ({na.peak_phase}), "
+        f"faster than {q(na.max_change_per_h, 'mmol/L/h')}"
+        + (" (twice that or more blocks the plan)." if hard else "."),
+        f"To correct within the limit, {rate} or choose a fluid closer to the patient's Na; "
+        "recheck Na every 4–6 h.",
+        na.source_id,
+    )
 
 
 def note_free_water(
@@ -422,8 +648,19 @@ def note_free_water(
     )
 
 
-def check_urine(ledger: Ledger, *, usg: float | None, budget: WaterBudget | None) -> None:
-    """USG where the taxon cannot use it; urine close to plasma (low concentrating ceiling)."""
+def check_urine(
+    ledger: Ledger,
+    *,
+    usg: float | None,
+    budget: WaterBudget | None,
+    overload_risk: bool = False,
+) -> None:
+    """USG where the taxon cannot use it; an entered urine more concentrated than the species
+    can make (a mis-entry or contaminated sample: the budget keeps the species' ceiling);
+    urine close to plasma in a species that normally concentrates (low ceiling). Urine near
+    plasma is no finding where that is the species' own ceiling (reptiles: Holz; Braun 1985).
+    With heart or kidney disease the advice to expect more urine says the overload caution
+    comes first."""
     usg_ok = ledger.value("usg_interpretable")
     if usg is not None and not usg_ok.value:
         ledger.add(
@@ -434,30 +671,47 @@ def check_urine(ledger: Ledger, *, usg: float | None, budget: WaterBudget | None
             "Judge hydration by weight, examination, PCV/TS and uric acid or urea.",
             usg_ok.source_id,
         )
+    if budget is not None and budget.entered_above_species:
+        note_urine_above_species(ledger, usg=usg, budget=budget)
+    near_plasma = NEAR_PLASMA_FACTOR * (budget.plasma_mosm_per_kg if budget else 0.0)
     if (
         budget is not None
         and budget.ceiling_from in ("USG", "urine osmolality")
-        and budget.ceiling_mosm_per_kg <= NEAR_PLASMA_FACTOR * budget.plasma_mosm_per_kg
+        and budget.ceiling_mosm_per_kg <= near_plasma
+        # urine at plasma is normal where plasma is the species' own ceiling
+        and (budget.species_ceiling_mosm_per_kg or float("inf")) > near_plasma
     ):
         ledger.add(
             "info",
             "LOW_CONCENTRATING_CEILING",
             f"Urine at {q(budget.ceiling_mosm_per_kg, 'mOsm/kg')} is close to plasma: the kidney "
             f"needs {q(budget.obligatory_urine_ml, 'mL/day')} of urine for its solute load.",
-            "Expect higher urine losses; measure urine output and add it as ongoing losses.",
+            overload_comes_first()
+            if overload_risk
+            else "Expect higher urine losses; measure urine output and add it as ongoing losses.",
         )
 
 
 def check_budget_against_maintenance(
-    ledger: Ledger, *, budget: WaterBudget | None, maintenance_ml_per_day: float
+    ledger: Ledger,
+    *,
+    budget: WaterBudget | None,
+    maintenance_ml_per_day: float,
+    overload_risk: bool = False,
 ) -> None:
     """Say so when the species' maintenance rate is below the water the budget says is needed.
 
     This happens when the kidney's ceiling has fallen (isosthenuria: the same solute
     load needs more urine) or when a per-kg maintenance rate does not fit a very
-    small, fast-metabolising patient.
+    small, fast-metabolising mammal. Never for a bird or reptile at its own species
+    ceiling: a weak ceiling is normal for urate excretors, whose nitrogen leaves as a
+    precipitate and whose cloaca takes water back (budgerigar and zebra finch live on
+    dry seed without drinking: Skadhauge 1976). With heart or kidney disease the advice
+    says the overload caution comes first.
     """
     if budget is None or budget.minimum_ml <= maintenance_ml_per_day:
+        return
+    if budget.nitrogen_as_urate and budget.at_species_ceiling:
         return
     ledger.add(
         "info",
@@ -465,7 +719,9 @@ def check_budget_against_maintenance(
         f"Maintenance {q(maintenance_ml_per_day, 'mL/day')} is below the estimated minimum "
         f"water need of {q(budget.minimum_ml, 'mL/day')} (urine water at "
         f"{q(budget.ceiling_mosm_per_kg, 'mOsm/kg')}: {q(budget.obligatory_urine_ml, 'mL/day')}).",
-        "Measure urine output and add it as ongoing losses; weigh often.",
+        overload_comes_first()
+        if overload_risk
+        else "Measure urine output and add it as ongoing losses; weigh often.",
     )
 
 
@@ -516,22 +772,46 @@ def check_overload(
     replace_hours: float,
     background_ml_per_h: float,
 ) -> None:
-    """Cardiac or renal disease: a soft caution with a slower suggested rate."""
+    """Cardiac or renal disease (Pardo 2024: they raise the risk of overload).
+
+    A deficit replaced faster than a fixed slower target (``heart_kidney_replace_hours``)
+    is a soft caution whose fix names that target; a plan at or beyond it, or with no
+    deficit, gets only an information reminder to weigh. The target is fixed, so
+    following the advice clears it (it used to double whatever period was entered)."""
     if not (cardiac or renal):
         return
-    factor = limit("heart_kidney_slowdown_factor")
-    slower_h = max(24.0, replace_hours * factor.value)
-    suggested = (deficit_ml / slower_h if deficit_ml else 0.0) + background_ml_per_h
     which = " and ".join(n for n, on in (("cardiac", cardiac), ("renal", renal)) if on)
     gain = limit("overload_weight_gain_fraction")
     line = overload_weight_kg(weight_kg=weight_kg, deficit_ml=deficit_ml, gain_fraction=gain.value)
-    ledger.add(
-        "soft",
-        "OVERLOAD_RISK",
-        f"With {which} disease fluid overload is more likely; suggested rate "
-        f"{q(suggested, 'mL/h')} (deficit over {slower_h:g} h).",
+    weigh = (
         f"Weigh every 6–12 h; stop and reassess at {q(line, 'kg')} ({gain.value:.0%} over "
-        f"the euhydrated {q(weight_kg + deficit_ml / 1000.0, 'kg')}).",
+        f"the euhydrated {q(weight_kg + deficit_ml / 1000.0, 'kg')})."
+    )
+    target_h = heart_kidney_replace_hours()
+    if deficit_ml > 0 and replace_hours < target_h:
+        factor = limit("heart_kidney_slowdown_factor")
+        suggested = deficit_ml / target_h + background_ml_per_h
+        ledger.add(
+            "soft",
+            "OVERLOAD_RISK",
+            f"With {which} disease fluid overload is more likely, and the deficit of "
+            f"{q(deficit_ml, 'mL')} is replaced over {replace_hours:g} h. Over {target_h:g} h "
+            f"({factor.value:g} × the usual 24 h, a recalled convention) the rate would be "
+            f"{q(suggested, 'mL/h')}.",
+            f"Replace the deficit over {target_h:g} h. {weigh}",
+            gain.source_id,
+        )
+        return
+    ledger.add(
+        "info",
+        "OVERLOAD_WEIGH",
+        f"With {which} disease fluid overload is more likely; "
+        + (
+            f"the deficit is replaced over {replace_hours:g} h, as slowly as advised."
+            if deficit_ml > 0
+            else "this plan gives no deficit, only maintenance and losses."
+        ),
+        weigh,
         gain.source_id,
     )
 
@@ -552,12 +832,20 @@ def check_anaesthesia(ledger: Ledger, main: Phase, weight_kg: float) -> None:
         )
 
 
-def note_neonate(ledger: Ledger) -> None:
+def note_neonate(ledger: Ledger, *, neonatal_water: SpeciesValue | None) -> None:
+    """Neonates: more body water (dogs and cats up to 80 %, Odunayo 2018), poor tolerance
+    of fasting. Where no neonatal body water is on record the adult value is used: said."""
+    water = (
+        f"the plan takes their body water as {neonatal_water.number:.0%} of body weight"
+        if neonatal_water is not None
+        else "no neonatal body-water value is on record for this species, so the adult "
+        "value is used and sodium changes may be overstated"
+    )
     ledger.add(
         "info",
         "NEONATE",
-        "Neonates hold more body water (up to 80% of body weight) and tolerate fasting poorly.",
-        "Check glucose; weigh on a gram scale; reassess often.",
+        f"Neonates hold more body water than adults and tolerate fasting poorly; {water}.",
+        "Check blood glucose and consider dextrose; weigh on a gram scale; reassess often.",
         "odunayo2018",
     )
 
@@ -600,3 +888,79 @@ def note_unverified(ledger: Ledger) -> None:
             f"checked against a publication: {', '.join(unverified)}.",
             "Check them against your references before relying on them.",
         )
+
+
+# ---- advice that can be followed (issue 16, items 6–8) -------------------------------------------
+def heart_kidney_replace_hours() -> float:
+    """The period over which a heart or kidney patient's deficit is replaced: the slowdown
+    factor (``heart_kidney_slowdown_factor``: twice, a recalled convention) × the longest
+    usual rehydration period, 24 h (Pardo 2024: 12–24 h). Fixed, so it can be reached."""
+    return limit("heart_kidney_slowdown_factor").value * 24.0
+
+
+def overload_comes_first() -> str:
+    """What a water-need finding says when an overload caution stands beside it: which
+    advice wins, and why."""
+    return (
+        "With heart or kidney disease the overload caution comes first: keep the slower plan "
+        "and do not raise the rate on this estimate, which may be wrong, while overload harms "
+        "at once. Measure urine output and replace what is measured (ins and outs); weigh "
+        "every 6–12 h."
+    )
+
+
+def note_urine_above_species(ledger: Ledger, *, usg: float | None, budget: WaterBudget) -> None:
+    """An entered urine more concentrated than the species can make (beyond its ceiling and
+    the tolerance in ``maintenance.ENTERED_CEILING_TOLERANCE``): most likely a mis-entry or a
+    contaminated sample. The budget has kept the species' ceiling."""
+    entered = budget.entered_mosm_per_kg or 0.0
+    species_top = budget.species_ceiling_mosm_per_kg or budget.ceiling_mosm_per_kg
+    what = (
+        f"urine osmolality of {q(entered, 'mOsm/kg')}"
+        if budget.entered_from == "urine osmolality"
+        else f"USG of {usg:.3f} (≈ {q(entered, 'mOsm/kg')})"
+    )
+    why = (
+        "its urine is never more concentrated than plasma"
+        if species_top <= NEAR_PLASMA_FACTOR * budget.plasma_mosm_per_kg
+        else f"its kidney makes at most about {q(species_top, 'mOsm/kg')}"
+    )
+    ledger.add(
+        "soft",
+        "URINE_ABOVE_SPECIES_CEILING",
+        f"The {what} entered is more than a {ledger.species.common_name} can make ({why}): "
+        "most likely a mis-entry, or a sample contaminated with faeces, urates or another "
+        f"solute. The water budget uses {q(budget.ceiling_mosm_per_kg, 'mOsm/kg')} instead.",
+        "Check the entry; re-measure on a clean, fresh sample, or leave it blank.",
+    )
+
+
+def check_maintenance_covers_insensible(
+    ledger: Ledger, *, maintenance_ml_per_day: float, given_ml_per_day: float
+) -> None:
+    """Soft when what the plan gives beyond the deficit (maintenance and losses) is below the
+    patient's insensible loss alone (Côté 2020: 20 mL/kg/day in dogs and cats): the
+    patient would dry out even passing no urine. The fix names the volume to add."""
+    insensible = ledger.get("insensible_loss_ml_per_kg_day")
+    if insensible is None:
+        return
+    floor = insensible.number * ledger.weight_kg
+    if given_ml_per_day >= floor:
+        return
+    add_ml = int(-((given_ml_per_day - floor) // 1))  # whole mL, rounded up: the fix clears it
+    ledger.add(
+        "soft",
+        "MAINTENANCE_BELOW_INSENSIBLE_LOSS",
+        f"Maintenance {q(maintenance_ml_per_day, 'mL/day')}"
+        + (
+            f" (with the losses entered, {q(given_ml_per_day, 'mL/day')})"
+            if given_ml_per_day > maintenance_ml_per_day
+            else ""
+        )
+        + " is below this patient's insensible loss alone, "
+        f"{q(floor, 'mL/day')} ({insensible.number:g} mL/kg/day): it would dry out even "
+        "passing no urine.",
+        f"Choose another maintenance method, or add {add_ml} mL/day as ongoing losses; "
+        "then measure urine output and add that too.",
+        insensible.source_id,
+    )

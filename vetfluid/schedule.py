@@ -216,6 +216,17 @@ class ScheduleEntry:
     action: str
 
 
+# Routes in the words a nurse reads (never the id ``icoel``).
+ROUTE_WORDS = {
+    "iv": "IV", "cvc": "IV (central line)", "io": "IO", "sc": "SC", "icoel": "intracoelomic",
+}  # fmt: skip
+
+
+def route_text(route: str) -> str:
+    """A route in words: ``IV``, ``SC``, ``intracoelomic``."""
+    return ROUTE_WORDS.get(route, route.upper())
+
+
 def clock_time(start: time | None, hour: float) -> str | None:
     """``HH:MM`` of an hour offset from the start time, with ``(+N d)`` past midnight."""
     if start is None:
@@ -299,7 +310,7 @@ def _continuous_action(phase: Phase, *, bolus_number: int = 1) -> str:
         fluid = f" of {phase.fluid_name}" if phase.fluid_name else ""
         drip = f" = {drops}, {how}" if drops else (f", {how}" if how else "")
         bolus = (
-            f"{_ml(phase.volume_ml)}{fluid} {phase.route.upper()} over {minutes:.0f} min "
+            f"{_ml(phase.volume_ml)}{fluid} {route_text(phase.route)} over {minutes:.0f} min "
             f"({rate}{drip}); then reassess"
         )
         if bolus_number == 1:
@@ -324,7 +335,7 @@ def divided_dose_text(*, ml_per_site: float, sites: int, route: str) -> str:
     drawn = delivery.drawn_up_dose(ml_per_site=ml_per_site, sites=sites)
     dose = format_quantity(drawn.dose_ml, "mL", decimals=2)
     per_site = format_quantity(drawn.ml_per_site, "mL", decimals=2)
-    return f"Give {dose} {route.upper()} in {sites_text(sites)}, {per_site} per site"
+    return f"Give {dose} {route_text(route)} in {sites_text(sites)}, {per_site} per site"
 
 
 def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[ScheduleEntry, ...]:

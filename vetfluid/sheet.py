@@ -18,16 +18,24 @@ from html import escape
 
 from vetfluid.cautions import CAUTIONS
 from vetfluid.delivery import DrawnUpDose, drawn_up_dose
+from vetfluid.electrolytes import SodiumSummary, sodium_text
 from vetfluid.errors import InputError
 from vetfluid.formatting import entered_number, format_number
 from vetfluid.formatting import format_quantity as q
 from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
-from vetfluid.schedule import clock_time, sites_text
+from vetfluid.schedule import clock_time, route_text, sites_text
 from vetfluid.serialize import plan_dict
 from vetfluid.units import preferred_weight_unit, weight_text
 
 SEVERITY_WORDS = {"info": "Note", "soft": "Warning", "hard": "HARD LIMIT"}
+# Routes and devices as the trade writes them (the plan's JSON keeps its short ids).
+DEVICE_WORDS = {
+    "pump": "infusion pump",
+    "gravity": "gravity drip",
+    "syringe": "syringe pump",
+    "divided": "divided boluses",
+}
 NURSE_COLUMNS = ("Rate set", "Volume given", "Weight", "HR", "RR", "MM / CRT", "Urine", "Initials")
 # Discard a spiked bag or filled syringe after 24 h: common practice, no source.
 DISCARD_AFTER_H = 24.0
@@ -36,6 +44,11 @@ STYLE = (
     "body { font-family: sans-serif; font-size: 9pt; } "
     "table { border-collapse: collapse; } td, th { border: 1px solid black; padding: 2px; }"
 )
+
+
+def route_and_device_text(data: dict) -> str:
+    """How the plan is given, as the window says it: ``IV, infusion pump``."""
+    return f"{route_text(data['route'])}, {DEVICE_WORDS.get(data['device'], data['device'])}"
 
 
 def patient_weight_text(data: dict) -> str:
@@ -325,6 +338,12 @@ def patient_inputs_rows(data: dict) -> list[list[str]]:
     return rows
 
 
+def sodium_line(data: dict) -> str:
+    """The sodium line of a plan's JSON, as the window and the CLI give it."""
+    sodium = data.get("sodium")
+    return sodium_text(SodiumSummary(**sodium)) if sodium else "no serum Na entered"
+
+
 def potassium_text(data: dict) -> str:
     """The potassium line of a plan's JSON, as the window gives it: KCl added and how it
     was chosen, the K in the bag, and mmol/kg/h at the fastest rate against its ceiling."""
@@ -401,7 +420,8 @@ def sheet_html(
                 ],
                 ["Fluid", data["fluid"]["name"]],
                 ["Potassium", potassium_text(data)],
-                ["Route", f"{data['route'].upper()} ({data['device']})"],
+                ["Sodium", sodium_line(data)],
+                ["Route", route_and_device_text(data)],
                 ["First 24 h", first_24h_text(data)],
             ]
             + [
@@ -571,7 +591,7 @@ def _labels(data: dict, name: str, clock: Callable[[float], str]) -> str:
                     f"{data['species_name']}, {weight}",
                     fluid,
                     *additive_lines(data, p),
-                    f"{p['kind']}: {rate} {p['route'].upper()}",
+                    f"{p['kind']}: {rate} {route_text(p['route'])}",
                     *(
                         [f"bolus {numbers[index]}: {CONDITIONAL.upper()}"]
                         if numbers.get(index, 1) > 1
