@@ -1218,3 +1218,32 @@ def test_a_version_that_does_not_build_takes_its_observations_and_leaves_no_draf
     assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 0.066}]
     assert not window._has_unsaved_work() and window.records.draft() is None
     window.new_patient()  # nothing asked
+
+
+def test_a_version_saved_with_a_retired_finding_is_refused_in_words_and_changes_nothing(
+    qtbot, planner, answer, vetfluid_home
+):
+    # DiBartola 2012, Table 14-4 split "eyes sunken" into possibly (6–8 %) and clearly
+    # (10–12 %); a version saved before names the old id, which no longer says which.
+    import sqlite3
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.save_version(name="Rex", author="AB")
+    patient = window.records.find_patients("Rex")[0]
+    with sqlite3.connect(vetfluid_home / "records.sqlite") as db:
+        (text,) = db.execute("SELECT request_json FROM plan_versions").fetchone()
+        request = json.loads(text)
+        request["dehydration_findings"] = ["eyes_sunken"]
+        # as a version saved by an older vetfluid reads today (versions are immutable: the
+        # trigger is lifted here only to write the old wording in)
+        db.execute("DROP TRIGGER plan_versions_no_update")
+        db.execute("UPDATE plan_versions SET request_json = ?", (json.dumps(request),))
+    window.open_demo("cold_bearded_dragon")
+    qtbot.waitUntil(lambda: window.session.plan.request.species_id == "bearded_dragon")
+    shown = []
+    answer({"cannot be opened as it was saved": lambda: shown.append(1)})
+    assert window.load_version(patient.id, 1) is None
+    assert shown == [1]
+    assert window.session.plan.request.species_id == "bearded_dragon"  # nothing changed

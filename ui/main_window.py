@@ -773,11 +773,22 @@ class MainWindow(QMainWindow):
     def load_version(self, patient_id: int, version: int) -> str | None:
         """Open a saved version with its observations; returns the note on any stored
         observation that could not be read ("" when none), None when the user stayed."""
+        from vetfluid.errors import InputError
         from vetfluid.serialize import request_from_dict
 
+        chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
+        try:  # before leaving the plan on screen: a version that cannot be read changes nothing
+            request_from_dict(chosen.request)
+        except InputError as exc:
+            QMessageBox.warning(
+                self, "vetfluid",
+                f"Version {version} cannot be opened as it was saved: {exc.one_line()}.\n\n"
+                "It stays in the records unchanged; start a new version from the patient's "
+                "current findings.",
+            )  # fmt: skip
+            return None
         if not self._leave_plan():
             return None
-        chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
         # what each warning said when the version was saved: its reason covers that only
         said = {f.get("code"): f.get("message") for f in chosen.plan.get("findings", ())}
         wording = {code: said[code] for code in chosen.acknowledged if code in said}
