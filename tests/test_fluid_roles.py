@@ -224,3 +224,46 @@ def test_a_neonate_of_a_taxon_without_a_neonatal_value_is_told_the_adult_value_i
     plan = plan_for(species_id="bearded_dragon", weight_kg=0.05, neonate=True)
     neonate = next(f for f in plan.findings if f.code == "NEONATE")
     assert "adult value is used" in neonate.message
+
+
+# ---- found by the safety oracle -------------------------------------------------------------
+def test_a_starch_given_as_boluses_counts_against_the_daily_colloid_limit():
+    # 2 × 15 mL/kg of hydroxyethyl starch is 30 mL/kg, above about 20 mL/kg/day (recalled)
+    plan = plan_for(species_id="dog", weight_kg=20, resuscitation_boluses=2,
+                    bolus_fluid_id="hes_130_0_4_6")  # fmt: skip
+    assert severities(plan)["COLLOID_DAILY_LIMIT"] == "hard"
+    assert "COLLOID_CHOSEN" not in severities(plan)  # the bag is a crystalloid
+
+
+def test_crystalloid_boluses_do_not_count_against_a_colloid_bags_daily_limit():
+    # A 15 mL/kg lactated Ringer's bolus first adds no starch: the starch in the worst 24 h
+    # is no more than without the bolus (counted, it would be 15 mL/kg more).
+    def colloid_ml_per_kg(**extra):
+        plan = plan_for(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6", **extra)
+        found = next(f for f in plan.findings if f.code == "COLLOID_DAILY_LIMIT")
+        return float(found.message.split("The plan gives ")[1].split(" mL/kg")[0])
+
+    alone = colloid_ml_per_kg()
+    after_bolus = colloid_ml_per_kg(resuscitation_boluses=1, bolus_fluid_id="lactated_ringers")
+    assert after_bolus <= alone < after_bolus + 15
+
+
+@pytest.mark.parametrize(("species_id", "weight_kg"), [("rabbit", 3), ("cat", 4)])
+def test_5_percent_dextrose_alone_is_flagged_though_no_sodium_was_measured(species_id, weight_kg):
+    # From a normal Na, 5% dextrose at maintenance moves Na by more than 0.5 mmol/L in an
+    # hour (Adrogué & Madias 2000, general form): measure Na.
+    plan = plan_for(species_id=species_id, weight_kg=weight_kg, fluid_id="dextrose_5")
+    found = next(f for f in plan.findings if f.code == "SODIUM_CHANGE_TOO_FAST")
+    assert "No serum Na was entered" in found.message
+    assert plan.sodium is None  # nothing measured, nothing shown as measured
+
+
+def test_lactated_ringers_for_a_normonatraemic_dog_raises_no_sodium_finding():
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=8)
+    assert "SODIUM_CHANGE_TOO_FAST" not in severities(plan)
+
+
+def test_a_pump_asked_for_a_bird_below_line_weight_plans_an_intraosseous_line():
+    plan = plan_for(species_id="budgerigar", weight_kg=0.035, device="syringe")
+    assert (plan.route, plan.device) == ("io", "syringe")
+    assert "LINE_ASSUMED_IO" in severities(plan)

@@ -200,11 +200,14 @@ def serum_na_path(
     return exchangeable * 1000.0 / water
 
 
-def largest_hourly_change(hours: np.ndarray, serum_na: np.ndarray) -> tuple[float, float]:
-    """The largest change of serum Na over any one hour on a grid that holds each
-    ``hours[i] + 1`` too, signed, and the hour it starts."""
+def largest_hourly_change(
+    hours: np.ndarray, serum_na: np.ndarray, *, from_hour: float = 0.0
+) -> tuple[float, float]:
+    """The largest change of serum Na over any one hour starting at or after
+    ``from_hour``, on a grid that holds each ``hours[i] + 1`` too; signed, and the hour it
+    starts."""
     ends = np.searchsorted(hours, hours + 1.0 - 1e-9)
-    valid = ends < len(hours)
+    valid = (ends < len(hours)) & (hours >= from_hour - 1e-9)
     if not valid.any():
         return 0.0, 0.0
     starts = np.nonzero(valid)[0]

@@ -296,7 +296,11 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
     line_min = ledger.value("continuous_line_min_kg")
     small = request.weight_kg < line_min.number
     chelonian = ledger.species.taxon_group == "chelonian"
-    default_route = "iv" if not small else ("icoel" if chelonian else "sc")
+    line_asked = request.device in ("pump", "gravity", "syringe")
+    if small and line_asked:
+        default_route = "io"  # a line asked for in a small patient: the marrow, not a vein
+    else:
+        default_route = "iv" if not small else ("icoel" if chelonian else "sc")
     route = request.route or default_route
     device = request.device or ("pump" if route in LINE_ROUTES else "divided")
     if route not in LINE_ROUTES and device != "divided":
@@ -320,7 +324,16 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
             value=None,
             fix="enter the drops/mL printed on the set (10, 15, 20 or 60)",
         )
-    if small and request.route is None:
+    if small and request.route is None and line_asked:
+        ledger.add(
+            "info",
+            "LINE_ASSUMED_IO",
+            f"At {_weight_text(request.weight_kg, ledger)} a line is planned as intraosseous, "
+            "the usual line in a patient this small.",
+            "Choose IV instead if a vein is catheterised.",
+            line_min.source_id,
+        )
+    elif small and request.route is None:
         ledger.add(
             "info",
             "DIVIDED_BOLUSES",
@@ -680,7 +693,10 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     main = fluid_phases[0]
     safety.check_rates_against_shock_dose(ledger, phases, w)
     safety.check_volume_per_hour(ledger, phases, w)
-    safety.check_colloid(ledger, bag, phases, w)
+    safety.check_colloid(
+        ledger, bag=bag, bolus_fluid=fluids.fluid(request.resuscitation_fluid_id), phases=phases,
+        weight_kg=w,
+    )  # fmt: skip
     safety.check_divided_sites(
         ledger, phases,
         site_limit_ml=(
@@ -705,18 +721,29 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     )  # fmt: skip
 
     sodium, free_water = None, None
-    if request.serum_na is not None:
-        tbw = hydration.body_water_fraction(table, request.species_id, neonate=request.neonate)
-        ledger.use(tbw)
-        max_change = (
-            request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
-        )
-        peak, peak_h = _sodium_peak(
-            phases, serum_na=request.serum_na, tbw_ml=tbw.number * w * 1000.0,
+    tbw = hydration.body_water_fraction(table, request.species_id, neonate=request.neonate)
+    max_change = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
+
+    def sodium_peak(serum_na: float, *, from_hour: float = 0.0) -> tuple[float, float]:
+        return _sodium_peak(
+            phases, serum_na=serum_na, tbw_ml=tbw.number * w * 1000.0,
             bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
             bolus_na_k=_na_k(fluids.fluid(request.resuscitation_fluid_id)),
-            consumed=lambda hours: consumed_ml(outflow, end_h, hours),
+            consumed=lambda hours: consumed_ml(outflow, end_h, hours), from_hour=from_hour,
         )  # fmt: skip
+
+    if request.serum_na is None:
+        # no Na measured: the plan is followed from the species' normal Na, replacement
+        # and maintenance only (a shock bolus in an unmeasured patient is reassessed)
+        normal = ledger.value("serum_na_mmol_per_l")
+        peak, peak_h = sodium_peak(normal.number, from_hour=start_h)
+        safety.check_sodium_unmeasured(
+            ledger, normal_na=normal, peak_change_per_h=peak, peak_hour=peak_h,
+            phase=_phase_at(phases, peak_h).kind, max_change_per_h=max_change,
+        )  # fmt: skip
+    else:
+        ledger.use(tbw)
+        peak, peak_h = sodium_peak(request.serum_na)
         sodium = electrolytes.sodium_summary(
             serum_na=request.serum_na, infusate_na=bag_comp.na_mmol_per_l,
             infusate_k=bag_comp.k_mmol_per_l, tbw_l=tbw.number * w,
@@ -823,6 +850,7 @@ def _sodium_peak(
     bag_na_k: float,
     bolus_na_k: float,
     consumed,  # noqa: ANN001 — hours array in, mL array out
+    from_hour: float = 0.0,
 ) -> tuple[float, float]:
     """The plan's largest change of serum Na over any hour, signed, and when it starts:
     the exchangeable Na + K balance of every phase (boluses as their own fluid) against
@@ -841,7 +869,7 @@ def _sodium_peak(
         serum_na=serum_na, tbw_ml=tbw_ml, given_ml=given, na_k_given_mmol=na_k,
         lost_ml=consumed(hours),
     )  # fmt: skip
-    return electrolytes.largest_hourly_change(hours, path)
+    return electrolytes.largest_hourly_change(hours, path, from_hour=from_hour)
 
 
 def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:

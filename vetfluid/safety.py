@@ -232,37 +232,55 @@ def note_ins_and_outs(ledger: Ledger, *, measured_periods: int) -> None:
 
 
 def check_colloid(
-    ledger: Ledger, fluid: fluids.Fluid, phases: tuple[Phase, ...], weight_kg: float
+    ledger: Ledger,
+    *,
+    bag: fluids.Fluid,
+    bolus_fluid: fluids.Fluid,
+    phases: tuple[Phase, ...],
+    weight_kg: float,
 ) -> None:
-    """A colloid as the plan's fluid: it restores plasma volume, not an interstitial
-    deficit, and its dose over any 24 h is limited (safety_limits.csv). Each recalled
-    value says so, read from its basis."""
-    if fluid.colloid is None:
+    """A colloid restores plasma volume, not an interstitial deficit (said when it is the
+    plan's fluid), and its dose over any 24 h is limited (safety_limits.csv), counting
+    every phase given as a colloid — boluses of a colloid bolus fluid included. Each
+    recalled value says so, read from its basis."""
+    given_as = [
+        (p, bolus_fluid if p.kind == "resuscitation" else bag)
+        for p in phases
+        if (bolus_fluid if p.kind == "resuscitation" else bag).colloid is not None
+    ]
+    if not given_as:
         return
-    half_life = "recalled (memory — unverified)" if fluid.colloid.basis == "memory" else "on record"
-    ledger.add(
-        "soft",
-        "COLLOID_CHOSEN",
-        f"{fluid.name} holds its volume in the plasma: it does not rehydrate the interstitium "
-        "and adds no maintenance water. Starches have been restricted in critically ill "
-        "people for kidney injury and bleeding (recalled — unverified); its volume half-life "
-        f"of {fluid.colloid.volume_half_life_h:g} h is {half_life}.",
-        "Use a crystalloid for rehydration and maintenance; give a colloid only as your "
-        "practice protocol allows, and record why.",
-    )
+    if bag.colloid is not None:
+        _note_colloid_chosen(ledger, bag.name, bag.colloid)
+    colloid_phases = tuple(p for p, _ in given_as)
+    names = " and ".join(dict.fromkeys(f.name for _, f in given_as))
     most = limit("colloid_max_ml_per_kg_day")
-    worst_ml, worst_start = _largest_24_h(phases)
+    worst_ml, worst_start = _largest_24_h(colloid_phases)
     if worst_ml / weight_kg > most.value:
         basis = " (recalled — unverified)" if most.basis == "memory" else ""
         ledger.add(
             most.severity,
             "COLLOID_DAILY_LIMIT",
-            f"The plan gives {q(worst_ml / weight_kg, 'mL/kg')} of {fluid.name} in the 24 h "
+            f"The plan gives {q(worst_ml / weight_kg, 'mL/kg')} of {names} in the 24 h "
             f"from hour {worst_start:g}, above {q(most.value, 'mL/kg/day')}{basis}.",
             "Give the deficit and maintenance as a crystalloid; keep the colloid to small "
             "boluses within the daily limit your protocol sets.",
             most.source_id,
         )
+
+
+def _note_colloid_chosen(ledger: Ledger, name: str, colloid: fluids.Colloid) -> None:
+    half_life = "recalled (memory — unverified)" if colloid.basis == "memory" else "on record"
+    ledger.add(
+        "soft",
+        "COLLOID_CHOSEN",
+        f"{name} holds its volume in the plasma: it does not rehydrate the interstitium "
+        "and adds no maintenance water. Starches have been restricted in critically ill "
+        "people for kidney injury and bleeding (recalled — unverified); its volume half-life "
+        f"of {colloid.volume_half_life_h:g} h is {half_life}.",
+        "Use a crystalloid for rehydration and maintenance; give a colloid only as your "
+        "practice protocol allows, and record why.",
+    )
 
 
 def _turning_points(phases: tuple[Phase, ...]) -> set[float]:
@@ -600,6 +618,36 @@ def check_potassium_delivery(
                 ceiling.source_id,
             )
             return
+
+
+def check_sodium_unmeasured(
+    ledger: Ledger,
+    *,
+    normal_na: SpeciesValue,
+    peak_change_per_h: float,
+    peak_hour: float,
+    phase: str,
+    max_change_per_h: float,
+) -> None:
+    """No serum Na entered: the plan's replacement and maintenance followed from the
+    species' normal Na by the same balance (Adrogué & Madias 2000, general form). A fluid
+    that would move a normal Na faster than the limit (5 % dextrose as the only fluid) is
+    soft, at twice the limit hard — and either way the fix is to measure Na."""
+    peak = abs(peak_change_per_h)
+    if peak <= max_change_per_h * (1 + 1e-9):
+        return
+    hard = peak >= limit("sodium_hard_factor").value * max_change_per_h
+    direction = "fall" if peak_change_per_h < 0 else "rise"
+    ledger.add(
+        "hard" if hard else "soft",
+        "SODIUM_CHANGE_TOO_FAST",
+        f"No serum Na was entered; from a normal {q(normal_na.number, 'mmol/L')} this plan "
+        f"would make it {direction} {q(peak, 'mmol/L')} in the hour from hour {peak_hour:g} "
+        f"({phase}), faster than {q(max_change_per_h, 'mmol/L/h')}.",
+        "Measure serum Na and enter it; choose a fluid nearer plasma in sodium (a "
+        "replacement or maintenance crystalloid), or slow the rate.",
+        "adrogue2000",
+    )
 
 
 def check_sodium(ledger: Ledger, na: SodiumSummary, rate_ml_per_h: float) -> None:
