@@ -267,3 +267,60 @@ def test_a_pump_asked_for_a_bird_below_line_weight_plans_an_intraosseous_line():
     plan = plan_for(species_id="budgerigar", weight_kg=0.035, device="syringe")
     assert (plan.route, plan.device) == ("io", "syringe")
     assert "LINE_ASSUMED_IO" in severities(plan)
+
+
+def test_routine_sc_lactated_ringers_raises_no_sodium_alarm():
+    # SC fluid is absorbed over 6–8 h (Vet Clin North Am 2017): a dose does not reach the
+    # plasma at once, so lactated Ringer's SC in a normonatraemic cat or gerbil moves Na far
+    # less than 0.5 mmol/L in any hour.
+    for species_id, weight_kg in (("cat", 4), ("mongolian_gerbil", 0.065), ("dog", 20)):
+        plan = plan_for(species_id=species_id, weight_kg=weight_kg, dehydration_percent=5,
+                        route="sc", device="divided")  # fmt: skip
+        assert "SODIUM_CHANGE_TOO_FAST" not in severities(plan), species_id
+
+
+def test_a_divided_dose_is_absorbed_over_six_hours():
+    plan = plan_for(species_id="mongolian_gerbil", weight_kg=0.065, dehydration_percent=5)
+    phase = next(p for p in plan.phases if p.mode == "intermittent")
+    hours = np.array([phase.start_h, phase.start_h + 3.0, phase.start_h + 6.0])
+    assert phase.absorbed_by(hours) == pytest.approx(
+        [0.0, phase.dose_ml / 2, phase.dose_ml], rel=1e-9
+    )
+
+
+# ---- the sodium rules (safety.check_sodium): none may hide another ---------------------------
+def test_a_shock_bolus_does_not_hide_the_bags_sodium_change():
+    # A cat at 175 on 5% dextrose is blocked (the bag moves Na > 2 × 0.5 mmol/L/h, Adrogué &
+    # Madias 2000); one lactated Ringer's bolus first must not turn that into a warning.
+    request = dict(species_id="cat", weight_kg=4, dehydration_percent=5, serum_na=175,
+                   fluid_id="dextrose_5")  # fmt: skip
+    alone = plan_for(**request)
+    with_bolus = plan_for(resuscitation_boluses=1, bolus_fluid_id="lactated_ringers", **request)
+    assert severities(alone)["SODIUM_CHANGE_TOO_FAST"] == "hard"
+    assert severities(with_bolus)["SODIUM_CHANGE_TOO_FAST"] == "hard"
+
+
+def test_a_fluid_that_moves_sodium_further_from_normal_is_flagged():
+    # A hyponatraemic cat (120 against 147–162) on a hypotonic maintenance fluid: Na falls on
+    # slowly, under the rate limit, but in the wrong direction.
+    plan = plan_for(species_id="cat", weight_kg=4, dehydration_percent=5, serum_na=120,
+                    fluid_id="nacl_0_45_dextrose_2_5")  # fmt: skip
+    assert severities(plan)["SODIUM_AWAY_FROM_NORMAL"] == "soft"
+    fixed = plan_for(species_id="cat", weight_kg=4, dehydration_percent=5, serum_na=120,
+                     fluid_id="nacl_0_9", max_na_change_per_h=0.5)  # fmt: skip
+    assert "SODIUM_AWAY_FROM_NORMAL" not in severities(fixed)  # following the advice clears it
+
+
+def test_hypertonic_saline_in_a_hypernatraemic_dog_is_flagged():
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=8, serum_na=180,
+                    resuscitation_boluses=1, bolus_fluid_id="nacl_7_2",
+                    fluid_id="nacl_0_9")  # fmt: skip
+    assert severities(plan)["SODIUM_BOLUS_CHANGE"] == "soft"
+    assert severities(plan)["SODIUM_AWAY_FROM_NORMAL"] == "soft"
+
+
+def test_a_correction_limit_above_the_usual_is_flagged():
+    # 0.5 mmol/L/h is the usual limit (safety_limits.csv); 5 is for acute changes only
+    plan = plan_for(species_id="cat", weight_kg=4, dehydration_percent=5, serum_na=175,
+                    fluid_id="dextrose_5", max_na_change_per_h=5, replace_hours=6)  # fmt: skip
+    assert severities(plan)["SODIUM_LIMIT_RAISED"] == "soft"

@@ -32,6 +32,9 @@ SMALL_SYRINGE_STEP_ML = 0.01
 # Dosing intervals tried for divided boluses, longest first: fewer handlings
 # stress a small patient less; never shorter than the 6 h SC absorption time.
 DIVIDED_INTERVALS_H = (12.0, 8.0, 6.0)
+# SC fluid is absorbed over 6–8 h (Vet Clin North Am Small Anim Pract 2017;47:505–519);
+# the shorter end is used wherever absorption speed matters for safety (faster = harsher).
+SC_ABSORPTION_H = 6.0
 MAX_SITES_PER_DOSE = 4  # common practice, no source: more sites per handling is impractical
 # Fastest drip whose drops a nurse can count by eye: two drops a second (common
 # practice, no source). Faster drops blur together and are miscounted.

@@ -201,13 +201,17 @@ def serum_na_path(
 
 
 def largest_hourly_change(
-    hours: np.ndarray, serum_na: np.ndarray, *, from_hour: float = 0.0
+    hours: np.ndarray,
+    serum_na: np.ndarray,
+    *,
+    from_hour: float = 0.0,
+    until_hour: float = np.inf,
 ) -> tuple[float, float]:
     """The largest change of serum Na over any one hour starting at or after
-    ``from_hour``, on a grid that holds each ``hours[i] + 1`` too; signed, and the hour it
-    starts."""
+    ``from_hour`` and before ``until_hour``, on a grid that holds each ``hours[i] + 1``
+    too; signed, and the hour it starts."""
     ends = np.searchsorted(hours, hours + 1.0 - 1e-9)
-    valid = (ends < len(hours)) & (hours >= from_hour - 1e-9)
+    valid = (ends < len(hours)) & (hours >= from_hour - 1e-9) & (hours < until_hour - 1e-9)
     if not valid.any():
         return 0.0, 0.0
     starts = np.nonzero(valid)[0]
@@ -247,6 +251,40 @@ class SodiumSummary:
     peak_hour: float = 0.0  # where that hour starts
     peak_phase: str = ""  # the phase it starts in
     source_id: str = "adrogue2000"
+
+
+@dataclass(frozen=True, kw_only=True)
+class SodiumCourse:
+    """Serum Na through a plan (:func:`serum_na_path`), read the ways the checks need it:
+    the largest change in any hour of the boluses and, apart, of the replacement and
+    maintenance after them (a bolus must never hide the bag), and where Na ends up."""
+
+    start_na: float
+    measured: bool  # False: followed from the species' normal Na
+    carrier_change_per_h: float  # signed; windows starting after the boluses
+    carrier_hour: float
+    bolus_change_per_h: float  # signed; windows starting during the boluses
+    bolus_hour: float
+    plan_change: float  # Na when the plan ends minus Na at its start
+    boluses_change: float  # Na when the boluses end minus Na at the start
+
+
+def sodium_course(
+    hours: np.ndarray, path: np.ndarray, *, start_na: float, measured: bool, boluses_end_h: float
+) -> SodiumCourse:
+    """Read a Na path (on a grid holding each ``hours[i] + 1``) into a :class:`SodiumCourse`."""
+    carrier, carrier_h = largest_hourly_change(hours, path, from_hour=boluses_end_h)
+    bolus, bolus_h = (
+        largest_hourly_change(hours, path, until_hour=boluses_end_h)
+        if boluses_end_h > 0
+        else (0.0, 0.0)
+    )
+    return SodiumCourse(
+        start_na=start_na, measured=measured, carrier_change_per_h=carrier,
+        carrier_hour=carrier_h, bolus_change_per_h=bolus, bolus_hour=bolus_h,
+        plan_change=float(path[-1] - path[0]),
+        boluses_change=float(np.interp(boluses_end_h, hours, path) - path[0]),
+    )  # fmt: skip
 
 
 def sodium_text(na: SodiumSummary) -> str:

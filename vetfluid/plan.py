@@ -724,34 +724,38 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     tbw = hydration.body_water_fraction(table, request.species_id, neonate=request.neonate)
     max_change = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
 
-    def sodium_peak(serum_na: float, *, from_hour: float = 0.0) -> tuple[float, float]:
-        return _sodium_peak(
-            phases, serum_na=serum_na, tbw_ml=tbw.number * w * 1000.0,
-            bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
-            bolus_na_k=_na_k(fluids.fluid(request.resuscitation_fluid_id)),
-            consumed=lambda hours: consumed_ml(outflow, end_h, hours), from_hour=from_hour,
-        )  # fmt: skip
-
-    if request.serum_na is None:
-        # no Na measured: the plan is followed from the species' normal Na, replacement
-        # and maintenance only (a shock bolus in an unmeasured patient is reassessed)
-        normal = ledger.value("serum_na_mmol_per_l")
-        peak, peak_h = sodium_peak(normal.number, from_hour=start_h)
-        safety.check_sodium_unmeasured(
-            ledger, normal_na=normal, peak_change_per_h=peak, peak_hour=peak_h,
-            phase=_phase_at(phases, peak_h).kind, max_change_per_h=max_change,
-        )  # fmt: skip
-    else:
+    normal = ledger.value("serum_na_mmol_per_l")
+    # no Na measured: the plan is followed from the species' normal Na
+    start_na = request.serum_na if request.serum_na is not None else normal.number
+    hours, path = _sodium_path(
+        phases, serum_na=start_na, tbw_ml=tbw.number * w * 1000.0,
+        bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
+        bolus_na_k=_na_k(fluids.fluid(request.resuscitation_fluid_id)),
+        consumed=lambda hours: consumed_ml(outflow, end_h, hours),
+    )  # fmt: skip
+    na_course = electrolytes.sodium_course(
+        hours, path, start_na=start_na, measured=request.serum_na is not None,
+        boluses_end_h=start_h,
+    )  # fmt: skip
+    fastest = electrolytes.max_rate_for_sodium(
+        serum_na=start_na, infusate_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
+        tbw_l=tbw.number * w, max_change_per_h=max_change,
+    )  # fmt: skip
+    safety.check_sodium(
+        ledger, na_course, normal=normal, max_change_per_h=max_change,
+        carrier_phase=_phase_at(phases, na_course.carrier_hour).kind,
+        fastest_carrier_ml_per_h=fastest,
+    )  # fmt: skip
+    if request.serum_na is not None:
         ledger.use(tbw)
-        peak, peak_h = sodium_peak(request.serum_na)
         sodium = electrolytes.sodium_summary(
             serum_na=request.serum_na, infusate_na=bag_comp.na_mmol_per_l,
             infusate_k=bag_comp.k_mmol_per_l, tbw_l=tbw.number * w,
             rate_ml_per_h=main.average_ml_per_h, max_change_per_h=max_change,
-            peak_change_per_h=peak, peak_hour=peak_h, peak_phase=_phase_at(phases, peak_h).kind,
+            peak_change_per_h=na_course.carrier_change_per_h,
+            peak_hour=na_course.carrier_hour,
+            peak_phase=_phase_at(phases, na_course.carrier_hour).kind,
         )  # fmt: skip
-        safety.check_sodium(ledger, sodium, main.average_ml_per_h)
-        normal = ledger.value("serum_na_mmol_per_l")
         reference_high = normal.high if normal.high is not None else normal.number
         if request.serum_na > reference_high:
             free_water = hydration.free_water_deficit_ml(
@@ -842,7 +846,7 @@ def _phase_at(phases: tuple[Phase, ...], hour: float) -> Phase:
 SODIUM_GRID_H = 0.25  # the Na path is followed every quarter hour, and at every turning point
 
 
-def _sodium_peak(
+def _sodium_path(
     phases: tuple[Phase, ...],
     *,
     serum_na: float,
@@ -850,26 +854,28 @@ def _sodium_peak(
     bag_na_k: float,
     bolus_na_k: float,
     consumed,  # noqa: ANN001 — hours array in, mL array out
-    from_hour: float = 0.0,
-) -> tuple[float, float]:
-    """The plan's largest change of serum Na over any hour, signed, and when it starts:
-    the exchangeable Na + K balance of every phase (boluses as their own fluid) against
-    what leaves (:func:`electrolytes.serum_na_path`, the course's own balance)."""
+) -> tuple[np.ndarray, np.ndarray]:
+    """Serum Na through the plan on a grid that holds each moment and the hour after it:
+    the exchangeable Na + K balance of every phase (boluses as their own fluid, divided
+    doses as they are absorbed) against what leaves (:func:`electrolytes.serum_na_path`,
+    the course's own balance)."""
     end = max(p.end_h for p in phases)
     moments = {p.start_h for p in phases} | {h for p in phases for h in p.dose_hours()}
-    starts = np.union1d(np.arange(0.0, end + 1e-9, SODIUM_GRID_H), sorted(moments))
+    # divided doses are still being absorbed for a while after the last one
+    tail = delivery.SC_ABSORPTION_H if any(p.mode == "intermittent" for p in phases) else 0.0
+    starts = np.union1d(np.arange(0.0, end + tail + 1e-9, SODIUM_GRID_H), sorted(moments))
     hours = np.union1d(starts, starts + 1.0)
     given = np.zeros_like(hours)
     na_k = np.zeros_like(hours)
     for phase in phases:
-        by = phase.given_by(hours)
+        by = phase.absorbed_by(hours)  # a divided dose reaches the plasma over hours
         given += by
         na_k += by * (bolus_na_k if phase.kind == "resuscitation" else bag_na_k) / 1000.0
     path = electrolytes.serum_na_path(
         serum_na=serum_na, tbw_ml=tbw_ml, given_ml=given, na_k_given_mmol=na_k,
         lost_ml=consumed(hours),
     )  # fmt: skip
-    return electrolytes.largest_hourly_change(hours, path, from_hour=from_hour)
+    return hours, path
 
 
 def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:

@@ -11,7 +11,7 @@ from collections.abc import Callable
 
 from vetfluid import delivery, fluid_roles, fluids
 from vetfluid.delivery import DIVIDED_INTERVALS_H
-from vetfluid.electrolytes import PotassiumSummary, SodiumSummary, SpeciesPotassiumBand
+from vetfluid.electrolytes import PotassiumSummary, SodiumCourse, SpeciesPotassiumBand
 from vetfluid.formatting import format_quantity as q
 from vetfluid.hydration import overload_weight_kg
 from vetfluid.ledger import Ledger
@@ -620,63 +620,103 @@ def check_potassium_delivery(
             return
 
 
-def check_sodium_unmeasured(
+def check_sodium(
     ledger: Ledger,
+    course: SodiumCourse,
     *,
-    normal_na: SpeciesValue,
-    peak_change_per_h: float,
-    peak_hour: float,
-    phase: str,
+    normal: SpeciesValue,
     max_change_per_h: float,
+    carrier_phase: str,
+    fastest_carrier_ml_per_h: float | None,
 ) -> None:
-    """No serum Na entered: the plan's replacement and maintenance followed from the
-    species' normal Na by the same balance (Adrogué & Madias 2000, general form). A fluid
-    that would move a normal Na faster than the limit (5 % dextrose as the only fluid) is
-    soft, at twice the limit hard — and either way the fix is to measure Na."""
-    peak = abs(peak_change_per_h)
-    if peak <= max_change_per_h * (1 + 1e-9):
-        return
-    hard = peak >= limit("sodium_hard_factor").value * max_change_per_h
-    direction = "fall" if peak_change_per_h < 0 else "rise"
-    ledger.add(
-        "hard" if hard else "soft",
-        "SODIUM_CHANGE_TOO_FAST",
-        f"No serum Na was entered; from a normal {q(normal_na.number, 'mmol/L')} this plan "
-        f"would make it {direction} {q(peak, 'mmol/L')} in the hour from hour {peak_hour:g} "
-        f"({phase}), faster than {q(max_change_per_h, 'mmol/L/h')}.",
-        "Measure serum Na and enter it; choose a fluid nearer plasma in sodium (a "
-        "replacement or maintenance crystalloid), or slow the rate.",
-        "adrogue2000",
+    """Serum Na through the plan (Adrogué & Madias 2000, general form, every phase), held
+    to the correction limit by four rules, each its own finding so none hides another:
+
+    ========================  ==============================================  ==========
+    finding                   when                                            severity
+    ========================  ==============================================  ==========
+    SODIUM_CHANGE_TOO_FAST    replacement/maintenance moves Na > limit in an  soft; hard
+                              hour (from a normal Na when none was measured)  at 2×
+    SODIUM_BOLUS_CHANGE       a resuscitation bolus moves Na > limit in an    soft
+                              hour (shock first; the reason is written)
+    SODIUM_AWAY_FROM_NORMAL   a measured Na outside the species' range moves  soft
+                              further out over the plan
+    SODIUM_LIMIT_RAISED       the plan's limit is above the shipped one       soft
+    ========================  ==============================================  ==========
+    """
+    sourced = limit("sodium_max_correction_mmol_per_l_h")
+    hard_factor = limit("sodium_hard_factor").value
+    subject = (
+        f"Serum Na {q(course.start_na, 'mmol/L')} would"
+        if course.measured
+        else f"No serum Na was entered; from a normal {q(normal.number, 'mmol/L')} it would"
     )
+    carrier = abs(course.carrier_change_per_h)
+    if carrier > max_change_per_h * (1 + 1e-9):
+        hard = carrier >= hard_factor * max_change_per_h
+        fix = (
+            f"keep the {carrier_phase} rate at or below {q(fastest_carrier_ml_per_h, 'mL/h')}"
+            if fastest_carrier_ml_per_h is not None
+            else "slow the rate"
+        )
+        ledger.add(
+            "hard" if hard else "soft",
+            "SODIUM_CHANGE_TOO_FAST",
+            f"{subject} {_direction(course.carrier_change_per_h)} {q(carrier, 'mmol/L')} in "
+            f"the hour from hour {course.carrier_hour:g} ({carrier_phase}), faster than "
+            f"{q(max_change_per_h, 'mmol/L/h')}"
+            + (f" ({hard_factor:g}× that or more blocks the plan)." if hard else "."),
+            ("Measure serum Na and enter it; " if not course.measured else "")
+            + f"{fix[0].upper() if course.measured else fix[0]}{fix[1:]}, or choose a fluid "
+            "closer to the patient's Na; recheck Na every 4–6 h.",
+            sourced.source_id,
+        )
+    bolus = abs(course.bolus_change_per_h)
+    if bolus > max_change_per_h * (1 + 1e-9):
+        ledger.add(
+            "soft",
+            "SODIUM_BOLUS_CHANGE",
+            f"{subject} {_direction(course.bolus_change_per_h)} {q(bolus, 'mmol/L')} in the "
+            f"hour from hour {course.bolus_hour:g}, while the resuscitation boluses run: "
+            f"faster than {q(max_change_per_h, 'mmol/L/h')}.",
+            "Give the boluses only while perfusion needs them, reassess after each and "
+            "measure Na before the fluids that follow.",
+            sourced.source_id,
+        )
+    low = normal.low if normal.low is not None else normal.number
+    high = normal.high if normal.high is not None else normal.number
+    below, above = course.start_na < low, course.start_na > high
+    # how far the plan takes Na the wrong way: by the boluses' end or by the plan's end
+    changes = (course.boluses_change, course.plan_change)
+    moved = min(changes) if below else max(changes)
+    if course.measured and ((below and moved < -0.5) or (above and moved > 0.5)):
+        when = "while the boluses run" if moved == course.boluses_change else "by its end"
+        ledger.add(
+            "soft",
+            "SODIUM_AWAY_FROM_NORMAL",
+            f"Serum Na {q(course.start_na, 'mmol/L')} is {'below' if below else 'above'} this "
+            f"species' {q(low, 'mmol/L')}–{q(high, 'mmol/L')}, and the plan moves it further "
+            f"{'down' if below else 'up'}, by {q(abs(moved), 'mmol/L')} {when}.",
+            "Choose a fluid whose Na + K is "
+            + ("above" if below else "below")
+            + " the patient's Na, and recheck Na every 4–6 h.",
+            sourced.source_id,
+        )
+    if max_change_per_h > sourced.value * (1 + 1e-9):
+        ledger.add(
+            "soft",
+            "SODIUM_LIMIT_RAISED",
+            f"The plan allows serum Na to change {q(max_change_per_h, 'mmol/L/h')}, above the "
+            f"usual {q(sourced.value, 'mmol/L/h')}"
+            + (" (recalled — unverified)" if sourced.basis == "memory" else "")
+            + "; faster correction is for acute changes (under about 12 h) only.",
+            "Keep the usual limit unless the change is known to be acute; recheck Na every 2–4 h.",
+            sourced.source_id,
+        )
 
 
-def check_sodium(ledger: Ledger, na: SodiumSummary, rate_ml_per_h: float) -> None:
-    """Serum Na predicted to move faster than the correction limit over any hour of the
-    plan (Adrogué & Madias 2000, general form, every phase): soft; at
-    ``sodium_hard_factor`` × the limit or more in a replacement or maintenance phase,
-    hard. A resuscitation bolus stays soft: shock comes first, and the clinician says why."""
-    peak = abs(na.peak_change_per_h)
-    if peak <= na.max_change_per_h * (1 + 1e-9):
-        return
-    direction = "fall" if na.peak_change_per_h < 0 else "rise"
-    factor = limit("sodium_hard_factor")
-    hard = peak >= factor.value * na.max_change_per_h and na.peak_phase != "resuscitation"
-    rate = (
-        f"keep the {na.peak_phase} rate at or below {q(na.max_rate_ml_per_h, 'mL/h')}"
-        if na.max_rate_ml_per_h is not None and na.peak_phase != "resuscitation"
-        else "slow the rate"
-    )
-    ledger.add(
-        "hard" if hard else "soft",
-        "SODIUM_CHANGE_TOO_FAST",
-        f"Serum Na {q(na.serum_na, 'mmol/L')} is predicted to {direction} "
-        f"{q(peak, 'mmol/L')} in the hour from hour {na.peak_hour:g} ({na.peak_phase}), "
-        f"faster than {q(na.max_change_per_h, 'mmol/L/h')}"
-        + (" (twice that or more blocks the plan)." if hard else "."),
-        f"To correct within the limit, {rate} or choose a fluid closer to the patient's Na; "
-        "recheck Na every 4–6 h.",
-        na.source_id,
-    )
+def _direction(change: float) -> str:
+    return "fall" if change < 0 else "rise"
 
 
 def note_free_water(
