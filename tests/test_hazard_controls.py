@@ -101,3 +101,100 @@ def test_the_window_offers_only_fluids_that_may_take_each_role(qtbot, planner):
     assert not {"kcl_2_meq_per_ml", "dextrose_50", "nacl_7_2"} & set(offered(settings.fluid))
     assert offered(settings.shock_fluid) == [None, *fluid_roles.resuscitation_fluids()]
     assert not {"dextrose_5", "nacl_0_45", "kcl_2_meq_per_ml"} & set(offered(settings.shock_fluid))
+
+
+def test_a_syringe_pump_rate_for_a_finch_is_set_in_hundredths_not_rounded_to_nothing():
+    # 75 mL/kg/day (species table) × 13 g = 0.041 mL/h: a syringe pump set in 0.1 mL/h
+    # steps would run 0 mL/h; in 0.01 mL/h steps (common practice, no source) it runs 0.04.
+    plan = plan_for(species_id="zebra_finch", weight_kg=0.013, route="io", device="syringe",
+                    dehydration_percent=8)  # fmt: skip
+    maintenance = next(p for p in plan.phases if p.kind == "maintenance")
+    assert maintenance.rate_ml_per_h == pytest.approx(0.04)
+    assert all(load > 0 for _, load in maintenance.syringe_fills)
+    assert "set 0.04 mL/h" in " ".join(e.action for e in plan.schedule)
+    assert severity_of(plan, "RATE_TOO_SMALL_TO_SET") is None
+
+
+def test_a_rate_no_pump_can_set_is_blocked():
+    # A 1 g hatchling: 0.003 mL/h rounds to 0 on a syringe pump — it would give nothing.
+    plan = plan_for(species_id="zebra_finch", weight_kg=0.001, route="io", device="syringe",
+                    neonate=True)  # fmt: skip
+    assert severity_of(plan, "RATE_TOO_SMALL_TO_SET") == "hard"
+
+
+# ---- found by the adversarial review ----------------------------------------------------
+def test_an_implausible_urine_measurement_is_questioned_before_it_is_given_back():
+    # 800 mL in 4 h from a 4 kg cat is 50 mL/kg/h, against a normal 1–2 (Foster 2018)
+    plan = plan_for(species_id="cat", weight_kg=4, ins_and_outs_period_h=4,
+                    measured_outputs=((800.0, 0.0),), renal_disease=True)  # fmt: skip
+    assert severity_of(plan, "MEASURED_URINE_IMPLAUSIBLE") == "soft"
+    usual = plan_for(species_id="cat", weight_kg=4, ins_and_outs_period_h=4,
+                     measured_outputs=((20.0, 0.0),), renal_disease=True)  # fmt: skip
+    assert severity_of(usual, "MEASURED_URINE_IMPLAUSIBLE") is None
+
+
+def test_anaesthesia_rate_is_checked_in_every_period_not_only_the_first():
+    # < 10 mL/kg/h under anaesthesia (Davis 2013): the second ins-and-outs period gives
+    # back 150 mL of urine in 4 h, 10.2 mL/kg/h in a 4 kg cat
+    plan = plan_for(species_id="cat", weight_kg=4, ins_and_outs_period_h=4,
+                    measured_outputs=((150.0, 0.0),), anaesthesia=True)  # fmt: skip
+    assert severity_of(plan, "ANAESTHESIA_RATE") == "soft"
+
+
+def test_an_intracoelomic_dose_beyond_what_the_coelom_holds_is_blocked():
+    # 12 % of a 1 kg slider over 12 h in 6-hourly doses: 65 mL/kg at a time into one
+    # cavity, above the 5–20 mL/kg intracoelomic range (recalled)
+    plan = plan_for(species_id="red_eared_slider", weight_kg=1, dehydration_percent=12,
+                    route="icoel", replace_hours=12)  # fmt: skip
+    assert severity_of(plan, "ICOEL_DOSE_TOO_LARGE") == "hard"
+
+
+def test_a_gravity_drip_for_a_mouse_is_a_warning_not_a_note():
+    plan = plan_for(species_id="mouse", weight_kg=0.03, dehydration_percent=8, route="io",
+                    device="gravity", drop_factor=60)  # fmt: skip
+    assert severity_of(plan, "SYRINGE_PUMP_SUGGESTED") == "soft"
+
+
+def test_boluses_beyond_one_blood_volume_are_blocked():
+    # 10 × 15 mL/kg in a rabbit is 150 mL/kg against a blood volume of 55–65 mL/kg
+    plan = plan_for(species_id="rabbit", weight_kg=2, resuscitation_boluses=10)
+    assert severity_of(plan, "BOLUSES_ABOVE_BLOOD_VOLUME") == "hard"
+
+
+def test_a_dehydration_typed_as_a_fraction_is_questioned():
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=0.08)
+    assert severity_of(plan, "DEHYDRATION_UNDER_ONE_PERCENT") == "soft"
+
+
+def test_the_sodium_command_refuses_a_concentrate_as_an_infusion():
+    import subprocess
+    import sys
+
+    done = subprocess.run(
+        [sys.executable, "-m", "vetfluid.cli", "sodium", "--species", "cat", "--weight", "4 kg",
+         "--serum-na", "140", "--fluid", "kcl_2_meq_per_ml"],
+        capture_output=True, text=True, check=False,
+    )  # fmt: skip
+    assert done.returncode == 2
+    assert "not infused as the bag" in done.stderr and "Traceback" not in done.stderr
+
+
+@pytest.mark.parametrize(
+    ("fluid_id", "ml_per_kg", "minutes", "words"),
+    [("kcl_2_meq_per_ml", 5, 15, "not given as a bolus"),
+     ("dextrose_5", 10, 15, "not given as a bolus"),
+     ("nacl_7_2", 100, 15, "at most 4 mL/kg"),
+     ("nacl_7_2", 4, 1, "at least 5 min")],
+)  # fmt: skip
+def test_the_courses_extra_bolus_is_held_to_the_fluids_roles(fluid_id, ml_per_kg, minutes, words):
+    from vetfluid.course import bolus_input
+
+    with pytest.raises(InputError, match=words):
+        bolus_input(fluid_id=fluid_id, ml_per_kg=ml_per_kg, weight_kg=4, minutes=minutes)
+
+
+def test_a_rate_the_pump_rounds_far_from_the_need_is_a_warning():
+    # A 4 g hatchling: 75 mL/kg/day is 0.0125 mL/h, set as 0.01 mL/h — 20 % less
+    plan = plan_for(species_id="zebra_finch", weight_kg=0.004, route="io", device="syringe",
+                    neonate=True)  # fmt: skip
+    assert severity_of(plan, "RATE_ROUNDED_FAR") == "soft"

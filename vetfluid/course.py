@@ -40,7 +40,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vetfluid import fluids
+from vetfluid import fluid_roles, fluids
 from vetfluid.checks import require_number
 from vetfluid.errors import InputError
 from vetfluid.findings import Finding
@@ -170,9 +170,28 @@ def _phase_inputs(phase: Phase, common: dict) -> list[_Input]:
 def bolus_input(
     *, fluid_id: str, ml_per_kg: float, weight_kg: float, minutes: float, start_h: float = 0.0
 ) -> _Input:
-    """An extra IV bolus of any library fluid (e.g. 4 mL/kg of 7.2% NaCl over 5 min)."""
+    """An extra IV bolus of a resuscitation fluid (e.g. 4 mL/kg of 7.2% NaCl over 5 min):
+    a fluid without the resuscitation role (fluid_roles.csv: a concentrate, free water) is
+    refused, and one with a dose of its own is held to it and to its shortest time."""
     require_number(ml_per_kg, "bolus_ml_per_kg", positive=True, high=100, unit="mL/kg")
     require_number(minutes, "bolus_minutes", positive=True, high=24 * 60, unit="min")
+    fluid = fluids.fluid(fluid_id)
+    roles = fluid_roles.roles(fluid_id)
+    if not roles.resuscitation:
+        raise InputError(
+            f"{fluid.name} is not given as a bolus", field="bolus_fluid", value=fluid_id,
+            fix="choose a resuscitation fluid: " + ", ".join(fluid_roles.resuscitation_fluids()),
+        )  # fmt: skip
+    if roles.bolus_max_ml_per_kg is not None and ml_per_kg > roles.bolus_max_ml_per_kg:
+        raise InputError(
+            f"{fluid.name} is given at most {roles.bolus_max_ml_per_kg:g} mL/kg",
+            field="bolus_ml_per_kg", value=ml_per_kg, fix="give it once, at its own dose",
+        )  # fmt: skip
+    if roles.bolus_min_minutes is not None and minutes < roles.bolus_min_minutes:
+        raise InputError(
+            f"{fluid.name} runs over at least {roles.bolus_min_minutes:g} min",
+            field="bolus_minutes", value=minutes, fix="give it more slowly",
+        )  # fmt: skip
     return _Input(
         start_h,
         start_h + minutes / 60.0,

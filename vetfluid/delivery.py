@@ -84,6 +84,26 @@ def countable(drops_per_min: float) -> bool:
     return drops_per_min <= COUNTABLE_DROPS_PER_MIN
 
 
+# A syringe pump is set in 0.01 mL/h steps below 10 mL/h and 0.1 mL/h above (common
+# practice, no source: the usual resolution of veterinary and neonatal syringe drivers).
+SYRINGE_PUMP_FINE_BELOW_ML_PER_H = 10.0
+
+
+def syringe_pump_ml_per_h(rate_ml_per_h: float) -> float:
+    """The rate a syringe pump is set to: 0.01 mL/h steps below 10 mL/h, else 0.1 mL/h
+    (common practice, no source). A rate under half a step rounds to 0: the plan then
+    says it cannot be set."""
+    rate = _rate(rate_ml_per_h)
+    return round(rate, 2 if rate < SYRINGE_PUMP_FINE_BELOW_ML_PER_H else 1)
+
+
+def syringe_load_ml(volume_ml: float) -> float:
+    """What to load into a syringe to run ``volume_ml``: up to the next 0.1 mL mark, so a
+    syringe never holds less than it is to give (a 0.04 mL run is loaded as 0.1 mL)."""
+    require_number(volume_ml, "volume_ml", low=0, unit="mL")
+    return math.ceil(round(volume_ml / SYRINGE_STEP_ML, 9)) * SYRINGE_STEP_ML
+
+
 def syringe_ml(volume_ml: float) -> float:
     """A volume rounded to the 0.1 mL a syringe pump is set to."""
     require_number(volume_ml, "volume_ml", low=0, unit="mL")

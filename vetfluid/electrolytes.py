@@ -150,7 +150,7 @@ def sodium_change_for_volume(
     _finite("serum_na", serum_na, 80, 230, "mmol/L")
     _finite("infusate_na", infusate_na, 0, 2000, "mmol/L")
     _finite("infusate_k", infusate_k, 0, 2000, "mmol/L")
-    _finite("tbw_l", tbw_l, 1e-4, 2000, "L")
+    _finite("tbw_l", tbw_l, 1e-6, 1e5, "L")
     _finite("volume_l", volume_l, 0, 1e4, "L")
     return volume_l * (infusate_na + infusate_k - serum_na) / (tbw_l + volume_l)
 
@@ -176,7 +176,7 @@ def max_rate_for_sodium(
     can move Na that fast (it barely moves Na; no limit from this rule).
     """
     _finite("max_change_per_h", max_change_per_h, 0.01, 5, "mmol/L/h")
-    _finite("tbw_l", tbw_l, 1e-4, 2000, "L")
+    _finite("tbw_l", tbw_l, 1e-6, 1e5, "L")
     gap = abs(infusate_na_k - serum_na)
     if gap <= max_change_per_h:
         return None

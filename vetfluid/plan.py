@@ -646,6 +646,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     safety.check_temperature(ledger, request.body_temp_c, maint)
     species_name = table.species(request.species_id).common_name
     percent, estimate = _dehydration(ledger, request, species_name=species_name)
+    safety.check_dehydration_entry(ledger, percent=percent)
     deficit = hydration.deficit_ml(w, percent)
     background = maint.ml_per_h + request.losses_ml_per_day / 24.0
 
@@ -685,12 +686,18 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             ledger, request, start_h=start_h, deficit_ml=deficit
         )
         safety.note_ins_and_outs(ledger, measured_periods=len(period_table))
+        safety.check_measured_urine(
+            ledger, request.measured_outputs, period_h=request.ins_and_outs_period_h,
+            weight_kg=w,
+        )  # fmt: skip
     fluid_phases = _fluid_phases(
         ledger, segments, route=route, device=device, drop_factor=drop_factor,
         kcl_mmol_per_l=kcl, fluid_name=bag.name, syringe_size_ml=request.syringe_size_ml,
     )  # fmt: skip
     phases = (*bolus_phases, *fluid_phases)
     main = fluid_phases[0]
+    safety.check_set_rates(ledger, [rate for *_, rate in segments], tuple(fluid_phases),
+                           device=device)  # fmt: skip
     safety.check_rates_against_shock_dose(ledger, phases, w)
     safety.check_volume_per_hour(ledger, phases, w)
     safety.check_colloid(
@@ -785,7 +792,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         background_ml_per_h=outflow[-1][1],  # maintenance and losses, or the measured outputs
     )  # fmt: skip
     if request.anaesthesia:
-        safety.check_anaesthesia(ledger, main, w)
+        safety.check_anaesthesia(ledger, phases, w)
     if request.neonate:
         young = table.get(request.species_id, "neonate_total_body_water_fraction")
         safety.note_neonate(ledger, neonatal_water=young)

@@ -321,10 +321,23 @@ def check_reptile_dextrose(ledger: Ledger, dextrose_percent: float) -> None:
 
 
 def check_boluses(ledger: Ledger, res: Resuscitation, boluses: int) -> None:
-    """Cumulative boluses beyond the shock dose (or one blood volume) are a soft finding."""
+    """Cumulative boluses beyond the shock dose (or one blood volume) are a soft finding;
+    beyond one blood volume, whatever the shock dose, hard (more crystalloid than the
+    animal has blood, before reassessment has shown it is needed)."""
     given = res.bolus_ml_per_kg * boluses
-    if given > res.cap_ml_per_kg * (1 + 1e-9):
-        cap = ledger.get("shock_dose_ml_per_kg") or ledger.value("blood_volume_ml_per_kg")
+    blood = ledger.value("blood_volume_ml_per_kg")
+    if given > blood.number * (1 + 1e-9) and given > res.cap_ml_per_kg * (1 + 1e-9):
+        ledger.add(
+            "hard",
+            "BOLUSES_ABOVE_BLOOD_VOLUME",
+            f"{boluses} boluses give {q(given, 'mL/kg')}, more than the patient's blood "
+            f"volume of {q(blood.number, 'mL/kg')}.",
+            "Plan fewer boluses, reassess after each, and look for other causes of poor "
+            "perfusion (bleeding, sepsis, heart failure).",
+            blood.source_id,
+        )
+    elif given > res.cap_ml_per_kg * (1 + 1e-9):
+        cap = ledger.get("shock_dose_ml_per_kg") or blood
         ledger.add(
             "soft",
             "BOLUSES_ABOVE_SHOCK_DOSE",
@@ -379,6 +392,39 @@ def check_volume_per_hour(ledger: Ledger, phases: tuple[Phase, ...], weight_kg: 
         "period, or place a line and give it at a set rate.",
         cap.source_id,
     )
+
+
+def check_set_rates(
+    ledger: Ledger, needed_ml_per_h: list[float], phases: tuple[Phase, ...], *, device: str
+) -> None:
+    """A rate the device cannot be set to: a need that rounds to 0 mL/h on the pump or
+    drip (the patient would get nothing: hard), or one that rounds more than 10 % away
+    from the need (common practice, no source: soft)."""
+    for need, phase in zip(needed_ml_per_h, phases, strict=True):
+        if phase.mode != "continuous" or need <= 0:
+            continue
+        set_rate = phase.rate_ml_per_h or 0.0
+        how = {"syringe": "a syringe pump", "gravity": "a gravity drip"}.get(device, "the pump")
+        if set_rate <= 0:
+            ledger.add(
+                "hard",
+                "RATE_TOO_SMALL_TO_SET",
+                f"The {phase.kind} needs {q(need, 'mL/h', decimals=3)}, which {how} cannot be "
+                "set: it would run at 0 mL/h and give nothing.",
+                "Give it as divided doses, or by a pump set in finer steps; check the weight.",
+            )
+            return
+        if abs(set_rate - need) > 0.1 * need:
+            ledger.add(
+                "soft",
+                "RATE_ROUNDED_FAR",
+                f"The {phase.kind} needs {q(need, 'mL/h', decimals=3)}; {how} is set to "
+                f"{q(set_rate, 'mL/h')}, {abs(set_rate - need) / need:.0%} "
+                f"{'more' if set_rate > need else 'less'} (common practice, no source: "
+                "within 10 %).",
+                "Use a pump set in finer steps, or divided doses, and weigh often.",
+            )
+            return
 
 
 def check_dose_spacing(ledger: Ledger, phases: tuple[Phase, ...]) -> None:
@@ -452,6 +498,28 @@ def check_divided_sites(
             "is more than it holds.",
             "Check the weight and its unit; a patient this small cannot be dosed by syringe.",
         )
+    icoel = ledger.get("max_site_volume_icoel_ml_per_kg")
+    # The coelom is one space: punctures do not divide what it holds. A dose above the top
+    # of the species' intracoelomic range (or twice its value, without a range) is blocked.
+    most_icoel = None if icoel is None else (icoel.high or 2 * icoel.number)
+    for phase in phases:
+        dose_per_kg = (phase.dose_ml or 0.0) / ledger.weight_kg
+        if (
+            phase.mode == "intermittent"
+            and phase.route == "icoel"
+            and most_icoel is not None
+            and dose_per_kg > most_icoel * (1 + 1e-9)
+        ):
+            ledger.add(
+                "hard",
+                "ICOEL_DOSE_TOO_LARGE",
+                f"Each intracoelomic {phase.kind} dose is {q(dose_per_kg, 'mL/kg')} "
+                f"({q(phase.dose_ml or 0.0, 'mL')}) into one body cavity, above the "
+                f"{q(most_icoel, 'mL/kg')} it holds (recalled — unverified).",
+                "Replace the deficit over a longer period, or place an IO or IV line.",
+                icoel.source_id if icoel else None,
+            )
+            break
     for phase in phases:
         if phase.mode == "intermittent" and phase.route == "icoel" and phase.sites_per_dose > 1:
             ledger.add(
@@ -637,8 +705,8 @@ def check_sodium(
     ========================  ==============================================  ==========
     SODIUM_CHANGE_TOO_FAST    replacement/maintenance moves Na > limit in an  soft; hard
                               hour (from a normal Na when none was measured)  at 2×
-    SODIUM_BOLUS_CHANGE       a resuscitation bolus moves Na > limit in an    soft
-                              hour (shock first; the reason is written)
+    SODIUM_BOLUS_CHANGE       a resuscitation bolus moves a measured Na >     soft
+                              limit in an hour (shock first; reason written)
     SODIUM_AWAY_FROM_NORMAL   a measured Na outside the species' range moves  soft
                               further out over the plan
     SODIUM_LIMIT_RAISED       the plan's limit is above the shipped one       soft
@@ -672,7 +740,8 @@ def check_sodium(
             sourced.source_id,
         )
     bolus = abs(course.bolus_change_per_h)
-    if bolus > max_change_per_h * (1 + 1e-9):
+    # an unmeasured Na is not judged during shock boluses: perfusion first, Na measured after
+    if course.measured and bolus > max_change_per_h * (1 + 1e-9):
         ledger.add(
             "soft",
             "SODIUM_BOLUS_CHANGE",
@@ -821,8 +890,10 @@ def suggest_syringe_pump(ledger: Ledger, *, device: str, phases: tuple[Phase, ..
     if device not in ("pump", "gravity") or not rates or min(rates) >= below.value:
         return
     how = "an infusion pump" if device == "pump" else "a gravity drip"
+    # a drip this slow cannot be counted, and a bag far larger than the patient can free-flow
+    # unseen (common practice, no source): a warning, not a note
     ledger.add(
-        below.severity,
+        "soft" if device == "gravity" else below.severity,
         "SYRINGE_PUMP_SUGGESTED",
         f"The plan runs as slowly as {q(min(rates), 'mL/h')} by {how}; below "
         f"{q(below.value, 'mL/h')} a syringe pump is usually used (common practice, no "
@@ -830,6 +901,20 @@ def suggest_syringe_pump(ledger: Ledger, *, device: str, phases: tuple[Phase, ..
         "Use a syringe pump (device: syringe pump) if one is available.",
         below.source_id,
     )
+
+
+def check_dehydration_entry(ledger: Ledger, *, percent: float) -> None:
+    """A dehydration under 1 % is almost always a fraction typed for a percentage (0.08
+    for 8 %): clinical dehydration is not detectable below 5 % (DiBartola 2012)."""
+    if 0 < percent < 1:
+        ledger.add(
+            "soft",
+            "DEHYDRATION_UNDER_ONE_PERCENT",
+            f"Dehydration is entered as {percent:g} %: less than 1 %, which examination cannot "
+            f"detect. Was {percent * 100:g} % meant (a fraction typed for a percentage)?",
+            "Enter the dehydration as a percentage (8 for 8 %).",
+            "dibartola2012",
+        )
 
 
 def check_replacement_speed(ledger: Ledger, *, deficit_ml: float, replace_hours: float) -> None:
@@ -904,20 +989,53 @@ def check_overload(
     )
 
 
-def check_anaesthesia(ledger: Ledger, main: Phase, weight_kg: float) -> None:
-    """Under anaesthesia: below 10 mL/kg/h (Davis 2013)."""
+def check_anaesthesia(ledger: Ledger, phases: tuple[Phase, ...], weight_kg: float) -> None:
+    """Under anaesthesia: below 10 mL/kg/h (Davis 2013) in every phase after the boluses —
+    an ins-and-outs period later in the plan as much as the first."""
     ceiling = limit("anaesthesia_max_ml_per_kg_h")
     start = ledger.get("anaesthesia_rate_ml_per_kg_h")
-    if main.average_ml_per_h > ceiling.value * weight_kg:
+    carried = [p for p in phases if p.kind != "resuscitation"]
+    fastest = max(carried, key=lambda p: p.average_ml_per_h)
+    if fastest.average_ml_per_h > ceiling.value * weight_kg:
         begin = q(start.number, "mL/kg/h") if start else "a lower rate"
         ledger.add(
             "soft",
             "ANAESTHESIA_RATE",
-            f"{q(main.average_ml_per_h, 'mL/h')} is above {q(ceiling.value, 'mL/kg/h')} "
+            f"{q(fastest.average_ml_per_h, 'mL/h')} ({fastest.kind}, from hour "
+            f"{fastest.start_h:g}) is above {q(ceiling.value, 'mL/kg/h')} "
             f"({q(ceiling.value * weight_kg, 'mL/h')}) for an anaesthetised patient.",
             f"Start at {begin} and reduce by 25% per hour as tolerated.",
             ceiling.source_id,
         )
+
+
+def check_measured_urine(
+    ledger: Ledger,
+    measured: tuple[tuple[float, float], ...],
+    *,
+    period_h: float,
+    weight_kg: float,
+) -> None:
+    """Urine recorded in an ins-and-outs period far above what a kidney makes: the next
+    period gives it all back, so a slip (mL typed for a total, a second patient's jug) is
+    planned as fluid. Above 10× the species' normal output is soft (common practice, no
+    source; normal 1–2 mL/kg/h, Foster 2018)."""
+    normal = ledger.value("urine_output_ml_per_kg_h")
+    high = normal.high if normal.high is not None else normal.number
+    for number, (urine, _) in enumerate(measured, start=1):
+        per_kg_h = urine / period_h / weight_kg
+        if per_kg_h > 10 * high:
+            ledger.add(
+                "soft",
+                "MEASURED_URINE_IMPLAUSIBLE",
+                f"Period {number} records {q(urine, 'mL')} of urine, "
+                f"{q(per_kg_h, 'mL/kg/h')}: more than ten times the normal "
+                f"{q(high, 'mL/kg/h')}, and the next period gives it all back.",
+                "Check the measurement and its unit (a total, or another patient's?); "
+                "correct it before the next period runs.",
+                normal.source_id,
+            )
+            return
 
 
 def note_neonate(ledger: Ledger, *, neonatal_water: SpeciesValue | None) -> None:

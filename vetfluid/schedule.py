@@ -106,7 +106,8 @@ def continuous_phase(
 
     A gravity drip runs the rate to the figures it is shown with
     (:func:`vetfluid.delivery.drip_ml_per_h`), so its drops/min match the rate shown.
-    For a syringe pump the rate is set to 0.1 mL/h and the phase is split into syringe
+    For a syringe pump the rate is set in the pump's steps
+    (:func:`vetfluid.delivery.syringe_pump_ml_per_h`) and the phase is split into syringe
     fills of at most ``syringe_size_ml`` (volumes to 0.1 mL), each with the hour it
     goes in, so syringe changes stand on the clock.
     """
@@ -114,7 +115,7 @@ def continuous_phase(
     if drop_factor:
         rate_ml_per_h = delivery.drip_ml_per_h(rate_ml_per_h)
     if syringe_size_ml is not None:
-        rate_ml_per_h = round(rate_ml_per_h, 1)
+        rate_ml_per_h = delivery.syringe_pump_ml_per_h(rate_ml_per_h)
         fills = syringe_fills(
             start_h=start_h, end_h=end_h, rate_ml_per_h=rate_ml_per_h, size_ml=syringe_size_ml
         )
@@ -214,7 +215,7 @@ def syringe_fills(
     given = 0.0
     while given < total - 1e-9:
         volume = min(size_ml, total - given)
-        fills.append((start_h + given / rate_ml_per_h, delivery.syringe_ml(volume)))
+        fills.append((start_h + given / rate_ml_per_h, delivery.syringe_load_ml(volume)))
         given += volume
     return tuple(fills)
 
@@ -358,7 +359,10 @@ def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[Sch
     boluses = 0
     for phase in phases:
         if phase.syringe_fills:
-            rate = format_quantity(phase.rate_ml_per_h or 0.0, "mL/h", decimals=1)
+            set_rate = phase.rate_ml_per_h or 0.0
+            # the pump's own step: 0.01 mL/h below 10 mL/h (delivery.syringe_pump_ml_per_h)
+            fine = set_rate < delivery.SYRINGE_PUMP_FINE_BELOW_ML_PER_H
+            rate = format_quantity(set_rate, "mL/h", decimals=2 if fine else 1)
             for number, (hour, volume) in enumerate(phase.syringe_fills):
                 load = format_quantity(volume, "mL", decimals=1)
                 action = (
