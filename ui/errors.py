@@ -7,6 +7,7 @@ wrong instead of a window that silently stops updating.
 
 from __future__ import annotations
 
+import os
 import sys
 import traceback
 from pathlib import Path
@@ -21,12 +22,19 @@ def log_path() -> Path:
     return user_data_dir() / LOG_NAME
 
 
+def write_log(text: str) -> None:
+    """Append to the log, created readable by its owner only (0600) from its first byte:
+    a traceback can hold what was on screen, a patient's name among it."""
+    handle = os.open(log_path(), os.O_WRONLY | os.O_APPEND | os.O_CREAT, 0o600)
+    with os.fdopen(handle, "a", encoding="utf-8") as log:
+        log.write(text)
+
+
 def report_unexpected(kind: type[BaseException], value: BaseException, tb: TracebackType | None):
     """Log the error with its traceback and tell the user in a dialog."""
     text = "".join(traceback.format_exception(kind, value, tb))
     try:
-        with log_path().open("a", encoding="utf-8") as handle:
-            handle.write(text + "\n")
+        write_log(text + "\n")
     except OSError:
         sys.stderr.write(text)
     from PySide6.QtWidgets import QApplication, QMessageBox

@@ -52,7 +52,10 @@ def user_data_dir() -> Path:
     """The folder for everything vetfluid writes (overrides, records, settings).
 
     ``VETFLUID_HOME`` replaces it when set (tests always set it to a temporary
-    folder); otherwise the platform's user data folder from platformdirs.
+    folder); otherwise the platform's user data folder from platformdirs. It holds
+    patient records, so it is created readable by its owner only (0700; the folders
+    above it, if missing, as the system makes any folder). A folder that already exists
+    is left as its owner set it.
     """
     override = os.environ.get(HOME_VARIABLE)
     if override:
@@ -61,5 +64,5 @@ def user_data_dir() -> Path:
         from platformdirs import user_data_path
 
         path = user_data_path("vetfluid", appauthor=False)
-    path.mkdir(parents=True, exist_ok=True)
+    path.mkdir(mode=0o700, parents=True, exist_ok=True)
     return path

@@ -2,23 +2,38 @@
 
 * WAL journal, foreign keys on, ``synchronous=FULL``, one transaction per save, so a
   crash or power cut loses at most the save in progress, never an earlier one.
-* A schema version in ``meta`` with forward migrations; a file from a newer
-  vetfluid, or one that is not a vetfluid database or is damaged, is refused with a
-  clear message and left untouched.
+* Created in one transaction: a file with no tables at all (an empty file, or the one
+  page ``PRAGMA journal_mode = WAL`` writes first, as a kill during creation leaves it)
+  holds nothing of the user's and is finished as a new file, never refused for good.
+* A schema version in ``meta`` with forward migrations (new files are built as schema 1
+  and migrated in the same transaction, so every file has one layout); a file from a
+  newer vetfluid, one whose schema version is missing or not a version, one that is not
+  a vetfluid database or is damaged, is refused with a clear message and left untouched.
+* Opening stays fast at a clinic's size (50,000 patients, 500,000 versions,
+  ``scripts/make_clinic_records.py``, ``tests/test_records_scale_benchmark.py``): it
+  checks the small tables read at once (``meta``, ``patients``, ``draft``) with
+  ``PRAGMA quick_check``; the plan versions, gigabytes by then, are checked by SQLite
+  as each is read (a damaged page is a RecordsError then), in full by :meth:`restore`.
 * Plans are immutable versions (triggers refuse UPDATE and DELETE); saving always
   adds a version with the request, the computed plan, the findings, the reasons
   given for acknowledged warnings, the author's initials, a timestamp and the
   program version.
-* The file is created readable by its owner only. Only parameterised SQL.
-* Backup and restore through SQLite's online backup; one patient with every
-  version exports to and imports from plain JSON.
+* The file is created readable by its owner only, before SQLite writes its first byte
+  (SQLite gives its ``-wal`` and ``-shm`` files the same mode); so are backups and
+  restored files. Only parameterised SQL.
+* Backup and restore through SQLite's online backup (a backup is written beside its
+  target and renamed onto it when whole; a restore is one transaction in the target);
+  one patient with every version exports to and imports from plain JSON.
 """
 
 from __future__ import annotations
 
 import json
 import os
+import re
 import sqlite3
+import tempfile
+from contextlib import closing
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
@@ -28,7 +43,6 @@ from vetfluid.errors import InputError, VetfluidError
 from vetfluid.paths import user_data_dir
 
 DATABASE_NAME = "records.sqlite"
-SCHEMA_VERSION = 1
 EXPORT_FORMAT = "vetfluid-patient"
 
 _SCHEMA_1 = """
@@ -73,8 +87,21 @@ CREATE TABLE draft (
 );
 CREATE INDEX patients_name ON patients(name);
 """
-# Forward migrations: MIGRATIONS[n] takes a database from version n to n + 1.
-MIGRATIONS: dict[int, str] = {}
+# Forward migrations: MIGRATIONS[n] takes a database from version n to n + 1; its
+# statements run in one transaction with the new version number.
+MIGRATIONS: dict[int, tuple[str, ...]] = {
+    # 2: opening a version reads its observations by version, and without an index that
+    # read scanned every observation in the file (33 ms with 500,000 versions, growing).
+    1: ("CREATE INDEX observations_version ON observations(plan_version_id)",),
+}
+SCHEMA_VERSION = 1 + len(MIGRATIONS)
+# How every vetfluid has written its schema version: a whole number from 1, in ASCII
+# digits (a few more than any real version, so a newer vetfluid's is still read as newer).
+_VERSION_TEXT = re.compile(r"[1-9][0-9]{0,8}")
+# The tables of schema 1 (later schemas add to them): a file lacking one is damaged.
+_TABLES = ("meta", "patients", "plan_versions", "observations", "draft")
+# The small tables read as soon as the file opens, checked then (the others at reading).
+_CHECKED_AT_OPEN = ("meta", "patients", "draft")
 
 
 class RecordsError(VetfluidError):
@@ -111,6 +138,83 @@ def _observation_key(record: object) -> str | None:
 
 def _now() -> str:
     return datetime.now(UTC).isoformat(timespec="seconds")
+
+
+def _statements(script: str) -> list[str]:
+    """The statements of a schema script, one by one (a trigger's body stays whole)."""
+    statements, pending = [], ""
+    for line in script.splitlines(keepends=True):
+        pending += line
+        if sqlite3.complete_statement(pending):
+            statements.append(pending.strip())
+            pending = ""
+    return statements
+
+
+def _fsync(path: Path) -> None:
+    """Make a written file, or a rename in a folder, durable (folders: not on Windows)."""
+    if path.is_dir() and os.name != "posix":
+        return
+    descriptor = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(descriptor)
+    finally:
+        os.close(descriptor)
+
+
+def _private(path: Path) -> None:
+    """Make ``path`` (created empty if missing) and its SQLite side files owner-only
+    before anything is written into them: a file an older vetfluid left readable to all
+    is narrowed before more patient data goes in."""
+    try:
+        os.close(os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600))
+    except FileExistsError:
+        pass
+    for side in ("", "-wal", "-shm", "-journal"):
+        kept = path.with_name(path.name + side)
+        if kept.exists() and kept.stat().st_mode & 0o077:
+            os.chmod(kept, 0o600)
+
+
+def _blank(db: sqlite3.Connection) -> bool:
+    """No table, index or trigger at all: a new file, or a first creation cut short.
+    Nothing the user entered can be in it."""
+    return db.execute("SELECT count(*) FROM sqlite_master").fetchone()[0] == 0
+
+
+def _stored_schema_version(db: sqlite3.Connection, name: str) -> int:
+    """The schema version a vetfluid records file says it holds. Missing, not a whole
+    number from 1, or newer than this vetfluid reads: RecordsError saying so. No
+    ``meta`` table: sqlite3.DatabaseError (not a vetfluid file at all)."""
+    try:
+        row = db.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
+    except sqlite3.OperationalError as exc:
+        if "no such table" in str(exc):
+            raise sqlite3.DatabaseError("no vetfluid schema") from None
+        raise
+    fix = "restore a backup of the records, or open another records file"
+    if row is None:
+        raise RecordsError(
+            f"{name} does not give its schema version (the layout of the records it holds): "
+            "its meta table has no schema_version; it was left untouched",
+            fix=fix,
+        )
+    stored = row[0]
+    if not (isinstance(stored, str) and _VERSION_TEXT.fullmatch(stored)):
+        shown = repr(stored) if len(repr(stored)) <= 24 else repr(stored)[:20] + "…"
+        raise RecordsError(
+            f"{name} gives its schema version (the layout of the records it holds) as "
+            f"{shown}, which no vetfluid writes (a whole number from 1); it was left untouched",
+            fix=fix,
+        )
+    version = int(stored)
+    if version > SCHEMA_VERSION:
+        raise RecordsError(
+            f"{name} was written by a newer vetfluid (schema {version}; this one reads up to "
+            f"{SCHEMA_VERSION}); it was left untouched",
+            fix="update vetfluid, or open another records file",
+        )
+    return version
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -153,63 +257,89 @@ class Records:
     def open(cls, path: Path | None = None) -> Records:
         """Open (or create) the database; a newer, foreign or damaged file is refused."""
         path = Path(path) if path is not None else user_data_dir() / DATABASE_NAME
-        new = not path.exists() or path.stat().st_size == 0  # empty: a create cut short
         if not path.exists():
             try:
                 # created owner-only before SQLite writes anything into it
                 os.close(os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600))
+            except FileExistsError:
+                pass  # another vetfluid created it meanwhile: opened as it finds it
             except OSError as exc:
                 raise RecordsError(
                     f"cannot create the records file {path}: {exc.strerror}",
                     fix="choose a folder you can write to, or free some disk space",
                 ) from exc
+        connection = None
         try:
             connection = sqlite3.connect(path, timeout=10, isolation_level=None)
             connection.execute("PRAGMA foreign_keys = ON")
-            if new:
-                connection.execute("PRAGMA journal_mode = WAL")
             connection.execute("PRAGMA synchronous = FULL")
             records = cls(connection, path)
-            records._prepare(new)
+            records._prepare()
         except sqlite3.DatabaseError as exc:
+            if connection is not None:
+                connection.close()
             raise RecordsError(
                 f"{path.name} is not a usable vetfluid records file ({exc}); it was left untouched",
                 fix="open another file or restore a backup",
             ) from exc
+        except RecordsError:
+            connection.close()
+            raise
         return records
 
-    def _prepare(self, new: bool) -> None:
-        if new:
-            # one script, one transaction: a crash here leaves an empty file, never half a schema
-            self._db.executescript(
-                "BEGIN IMMEDIATE;"
-                + _SCHEMA_1
-                + f"INSERT INTO meta (key, value) VALUES ('schema_version', '{SCHEMA_VERSION}');"
-                + "COMMIT;"
-            )
+    def _prepare(self) -> None:
+        """Finish a file with no tables, refuse one that is not ours or is damaged, bring
+        an older schema up to date."""
+        if _blank(self._db) and self._create():
             return
-        check = self._db.execute("PRAGMA quick_check").fetchone()[0]
-        if check != "ok":
-            raise sqlite3.DatabaseError(f"integrity check failed: {check}")
-        try:
-            row = self._db.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
-        except sqlite3.OperationalError:
-            raise sqlite3.DatabaseError("no vetfluid schema") from None
-        version = int(row[0]) if row else 0
-        if version > SCHEMA_VERSION:
-            self._db.close()
-            raise RecordsError(
-                f"{self.path.name} was written by a newer vetfluid (schema {version}; this one "
-                f"reads up to {SCHEMA_VERSION}); it was left untouched",
-                fix="update vetfluid, or open another records file",
-            )
+        version = _stored_schema_version(self._db, self.path.name)
+        tables = {r[0] for r in self._db.execute("SELECT name FROM sqlite_master")}
+        missing = [t for t in _TABLES if t not in tables]
+        if missing:
+            raise sqlite3.DatabaseError(f"its table {', '.join(missing)} is missing")
+        for table in _CHECKED_AT_OPEN:  # never an unknown name: that would check everything
+            check = self._db.execute(f"PRAGMA quick_check({table})").fetchone()[0]
+            if check != "ok":
+                raise sqlite3.DatabaseError(f"integrity check failed: {check}")
         while version < SCHEMA_VERSION:
-            with self._transaction():
-                self._db.execute(MIGRATIONS[version])
-                version += 1
-                self._db.execute(
-                    "UPDATE meta SET value = ? WHERE key = 'schema_version'", (str(version),)
-                )
+            try:
+                with self._transaction():
+                    # read again under the write lock: another vetfluid may have done it
+                    version = _stored_schema_version(self._db, self.path.name)
+                    if version < SCHEMA_VERSION:
+                        version = self._migrate(version)
+            except sqlite3.OperationalError as exc:
+                raise RecordsError(
+                    f"{self.path.name} holds records in an older layout (schema {version}) "
+                    f"that could not be brought up to date ({exc}); it was left as it was",
+                    fix="check that the file and its folder are writable and the disk has "
+                    "space, then start vetfluid again",
+                ) from exc
+
+    def _create(self) -> bool:
+        """Build the whole schema in one transaction: killed before it commits, the file
+        is left with no tables and finished at the next start. False when another
+        vetfluid built it meanwhile."""
+        self._db.execute("PRAGMA journal_mode = WAL")  # only ever on a file with no tables
+        with self._transaction():
+            if not _blank(self._db):
+                return False
+            for statement in _statements(_SCHEMA_1):
+                self._db.execute(statement)
+            self._db.execute("INSERT INTO meta (key, value) VALUES ('schema_version', '1')")
+            version = 1
+            while version < SCHEMA_VERSION:
+                version = self._migrate(version)
+        return True
+
+    def _migrate(self, version: int) -> int:
+        """One step forward, inside the caller's transaction; returns the new version."""
+        for statement in MIGRATIONS[version]:
+            self._db.execute(statement)
+        self._db.execute(
+            "UPDATE meta SET value = ? WHERE key = 'schema_version'", (str(version + 1),)
+        )
+        return version + 1
 
     def close(self) -> None:
         self._db.close()
@@ -280,13 +410,22 @@ class Records:
         return PatientRow(**dict(zip(PatientRow.__dataclass_fields__, row, strict=True)))
 
     def find_patients(self, text: str = "", *, limit: int = 50) -> list[PatientRow]:
-        """Recent patients whose name, species or client reference contains ``text``."""
-        like = f"%{text.strip()}%"
+        """Recent patients whose name, species or client reference contains ``text``. The
+        species matches by the words people use, as the species search does
+        (:meth:`vetfluid.species.SpeciesTable.search`: common or scientific name, the groups
+        it belongs to: "bearded dragon", "reptile"), or by its id (a clinic's species since
+        removed from the table)."""
+        from vetfluid.species import load_table
+
+        words = text.strip()
+        like = f"%{words}%"
+        species = [s.id for s in load_table().search(words)] if words else []
+        named = f" OR species_id IN ({', '.join('?' * len(species))})" if species else ""
         rows = self._db.execute(
             "SELECT id, name, species_id, sex, birth_date, age_text, client_ref, notes, created_at"
             " FROM patients WHERE name LIKE ? OR species_id LIKE ? OR client_ref LIKE ?"
-            " ORDER BY id DESC LIMIT ?",
-            (like, like, like, limit),
+            f"{named} ORDER BY id DESC LIMIT ?",
+            (like, like, like, *species, limit),
         ).fetchall()
         return [
             PatientRow(**dict(zip(PatientRow.__dataclass_fields__, r, strict=True))) for r in rows
@@ -338,11 +477,21 @@ class Records:
         return number
 
     def versions(self, patient_id: int) -> list[VersionRow]:
-        rows = self._db.execute(
-            "SELECT id, patient_id, version, request_json, plan_json, acknowledged_json, author,"
-            " created_at, program_version FROM plan_versions WHERE patient_id = ? ORDER BY version",
-            (patient_id,),
-        ).fetchall()
+        """The patient's versions, oldest first. A damaged page among them (the versions
+        are not checked when the file opens: gigabytes at a clinic's size) is a
+        RecordsError."""
+        try:
+            rows = self._db.execute(
+                "SELECT id, patient_id, version, request_json, plan_json, acknowledged_json,"
+                " author, created_at, program_version FROM plan_versions WHERE patient_id = ?"
+                " ORDER BY version",
+                (patient_id,),
+            ).fetchall()
+        except sqlite3.DatabaseError as exc:
+            raise RecordsError(
+                f"could not read the plan versions in {self.path.name}: {exc}",
+                fix="restore a backup; the versions of other patients may still be read",
+            ) from exc
         return [
             VersionRow(id=r[0], patient_id=r[1], version=r[2], request=json.loads(r[3]),
                        plan=json.loads(r[4]), acknowledged=json.loads(r[5]), author=r[6],
@@ -542,21 +691,69 @@ class Records:
 
     # ---- backup, export ----------------------------------------------------------------------
     def backup(self, target: Path) -> Path:
-        """A consistent copy through SQLite's online backup (safe while the file is in use)."""
+        """A consistent copy through SQLite's online backup (safe while the file is in use).
+
+        It is written into a new owner-only file beside ``target`` and renamed onto it
+        once whole and on disk, so ``target`` holds the previous copy or the whole new
+        one, never part of one (a file SQLite finds cut short reads as empty)."""
         target = Path(target)
-        with sqlite3.connect(target) as copy:
-            self._db.backup(copy)
-        os.chmod(target, 0o600)
+        try:
+            handle, name = tempfile.mkstemp(  # owner-only (0600) from its first byte
+                dir=target.parent, prefix=f".{target.name}.", suffix=".partial"
+            )
+        except OSError as exc:
+            raise RecordsError(
+                f"cannot write a backup in {target.parent}: {exc.strerror}",
+                fix="choose a folder you can write to; the records are unchanged",
+            ) from exc
+        os.close(handle)
+        staging = Path(name)
+        try:
+            with closing(sqlite3.connect(staging)) as copy:
+                self._db.backup(copy)
+            _fsync(staging)
+            os.replace(staging, target)
+            _fsync(target.parent)
+        except (OSError, sqlite3.Error) as exc:
+            raise RecordsError(
+                f"could not write the backup {target.name}: {exc}",
+                fix="check the disk has space and the folder is writable; the records are "
+                "unchanged",
+            ) from exc
+        finally:
+            staging.unlink(missing_ok=True)
         return target
 
     @staticmethod
     def restore(backup: Path, target: Path) -> None:
-        """Copy a backup over ``target`` (online backup; the backup is checked first)."""
-        with sqlite3.connect(Path(backup)) as source:
-            if source.execute("PRAGMA integrity_check").fetchone()[0] != "ok":
-                raise RecordsError(f"{Path(backup).name} is damaged; nothing was restored")
-            with sqlite3.connect(Path(target)) as copy:
-                source.backup(copy)
+        """Copy a backup over ``target`` through SQLite's online backup: one transaction in
+        the target, so it holds what it held or the whole backup, even if cut short.
+
+        The backup is checked first (whole file, and a vetfluid records file this
+        vetfluid reads); ``target`` is owner-only before anything is written into it."""
+        backup, target = Path(backup), Path(target)
+        if not backup.is_file():  # SQLite would create it, and restore an empty file
+            raise RecordsError(f"there is no backup {backup}; nothing was restored")
+        uri = f"{backup.resolve().as_uri()}?mode=ro"
+        try:
+            with closing(sqlite3.connect(uri, uri=True)) as source:
+                if source.execute("PRAGMA integrity_check").fetchone()[0] != "ok":
+                    raise RecordsError(f"{backup.name} is damaged; nothing was restored")
+                try:
+                    _stored_schema_version(source, backup.name)
+                except RecordsError as exc:
+                    raise RecordsError(
+                        f"{exc.message}; nothing was restored", fix="choose another backup"
+                    ) from exc
+                _private(target)
+                with closing(sqlite3.connect(target, timeout=10)) as copy:
+                    source.backup(copy)
+        except (OSError, sqlite3.Error) as exc:
+            raise RecordsError(
+                f"could not restore {backup.name} to {target.name}: {exc}",
+                fix="check that the backup is a vetfluid records file and the folder is "
+                f"writable; {target.name} holds what it held",
+            ) from exc
 
     def export_patient(self, patient_id: int) -> dict:
         patient = self.patient(patient_id)

@@ -4,14 +4,15 @@ Our own small JSON format: ``{"format": "vetfluid-plan-request", "version": 1,
 "request": {...}, "acknowledged": {code: reason}, "acknowledged_for": {code: wording}}``
 where ``acknowledged_for`` holds what each warning said when its reason was given (files
 written before it was kept have none). Writes are atomic (temporary
-file, fsync, rename), so a crash never leaves half a file; reads check every part
-and say what is wrong.
+file, fsync, rename), so a crash never leaves half a file, and owner-only (0600) from the
+first byte, as a patient's data is; reads check every part and say what is wrong.
 """
 
 from __future__ import annotations
 
 import json
 import os
+import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -52,9 +53,11 @@ def write_request_file(
     }
     if acknowledged_for is not None:
         data["acknowledged_for"] = dict(acknowledged_for)
-    temp = path.with_name(path.name + ".tmp")
+    # a new, owner-only file beside the target (a stale one a crash left is not reused)
+    descriptor, name = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    temp = Path(name)
     try:
-        with temp.open("w", encoding="utf-8") as handle:
+        with os.fdopen(descriptor, "w", encoding="utf-8") as handle:
             json.dump(data, handle, indent=2, ensure_ascii=False)
             handle.flush()
             os.fsync(handle.fileno())
