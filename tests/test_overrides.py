@@ -185,14 +185,47 @@ def test_bad_values_are_refused_with_the_fix_and_leave_the_files_untouched(chang
     assert load_table() is table_before
 
 
-def test_a_hand_broken_file_is_named_and_not_overwritten():
+def test_a_hand_broken_row_is_named_kept_as_typed_and_blocks_no_other_edit():
     set_override(species_id="dog", parameter="body_weight_kg", value=25)
     with overrides_file().open("a", encoding="utf-8", newline="") as handle:
         handle.write("cat,body_weight_kg,4,,,lb,,memory,typed by hand\n")
+    [notice] = load_table().notices
+    assert notice.location == "overrides/parameters.csv:3" and "unit 'lb'" in notice.one_line()
+    set_override(species_id="rabbit", parameter="body_weight_kg", value=2)
+    assert "cat,body_weight_kg,4,,,lb,,memory,typed by hand" in overrides_file().read_text()
+    table = load_table()
+    assert table.value("rabbit", "body_weight_kg").value == 2
+    assert [n.location for n in table.notices] == ["overrides/parameters.csv:3"]
+    # the broken row can be reset like any other
+    remove_override(species_id="cat", parameter="body_weight_kg")
+    assert load_table().notices == ()
+
+
+def test_an_edit_that_would_break_a_rule_is_refused_even_with_a_broken_row_present():
+    overrides_file().parent.mkdir(parents=True)
+    overrides_file().write_text(
+        ",".join(PARAMETER_COLUMNS) + "\ncat,body_weight_kg,4,,,lb,,memory,\n", encoding="utf-8"
+    )
     before = _snapshot()
-    with pytest.raises(SpeciesDataError, match=r"overrides/parameters\.csv:3.*unit 'lb'"):
-        set_override(species_id="rabbit", parameter="body_weight_kg", value=2)
+    with pytest.raises(SpeciesDataError, match="Plasma volume"):
+        set_override(species_id="dog", parameter="ecf_fraction", value=0.05)
     assert _snapshot() == before
+
+
+def test_a_row_that_does_not_parse_is_left_out_of_reading_but_kept_in_the_file():
+    overrides_file().parent.mkdir(parents=True)
+    overrides_file().write_text(
+        ",".join(PARAMETER_COLUMNS) + "\n"
+        "cat,no_such_parameter,4,,,kg,,memory,\n"
+        "dog,body_weight_kg,twenty,,,kg,,memory,\n"
+        "rabbit,body_weight_kg,2,,,kg,,memory,\n",
+        encoding="utf-8",
+    )
+    assert [(r.species_id, r.value) for r in read_overrides()] == [("rabbit", 2.0)]
+    assert len(load_table().notices) == 2
+    set_override(species_id="dog", parameter="body_weight_kg", value=21)
+    assert load_table().value("dog", "body_weight_kg").value == 21
+    assert "cat,no_such_parameter" in overrides_file().read_text()
 
 
 def test_extra_columns_written_by_hand_survive_a_rewrite():
@@ -287,3 +320,22 @@ def test_export_neutralises_a_formula_in_a_clinic_note(tmp_path):
     ferret = next(r for r in rows if r["species_id"] == "ferret"
                   and r["parameter"] == "blood_volume_ml_per_kg")  # fmt: skip
     assert ferret["note"].startswith("'=")
+
+
+def test_export_keeps_a_note_with_a_line_break_in_its_row(tmp_path):
+    import io
+
+    import pandas as pd
+
+    set_override(species_id="ferret", parameter="blood_volume_ml_per_kg", value=75,
+                 note="x\r=cmd|' /C calc'!A0")  # fmt: skip
+    out = tmp_path / "table.csv"
+    count = export_effective_table(out)
+    text = out.read_bytes().decode("utf-8")
+    rows = list(csv.DictReader(io.StringIO(text, newline="")))
+    frame = pd.read_csv(io.StringIO(text), keep_default_na=False, dtype=str)
+    assert len(rows) == len(frame) == count
+    ferret = frame[(frame.species_id == "ferret") & (frame.parameter == "blood_volume_ml_per_kg")]
+    assert list(ferret.note) == ["x\r'=cmd|' /C calc'!A0"]
+    for cell in frame.to_numpy().ravel():
+        assert not any(line.startswith(("=", "+", "-", "@", "\t")) for line in cell.splitlines())

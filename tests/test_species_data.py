@@ -195,6 +195,35 @@ def test_broken_rows_name_file_and_line(data_copy, tmp_path, row, message):
     assert f"parameters.csv:{line}" in str(caught.value)
 
 
+@pytest.mark.parametrize(
+    ("row", "message"),
+    [
+        ("ferret,bolus_minutes,0,,,min,,memory,", "plausible range 1–240 min"),
+        ("ferret,bolus_minutes,15,0.5,30,min,,memory,", "low 0.5 min lies outside"),
+        ("ferret,total_body_water_fraction,1e308,,,fraction of BW,,memory,", "plausible"),
+    ],
+)
+def test_a_shipped_value_outside_its_plausible_range_stops_loading(data_copy, tmp_path, row,
+                                                                    message):  # fmt: skip
+    line = _append(data_copy / "parameters.csv", row)
+    with pytest.raises(SpeciesDataError, match=message) as caught:
+        load_table(data_copy, overrides=tmp_path / "none")
+    assert f"parameters.csv:{line}" in str(caught.value)
+
+
+def test_shipped_values_that_break_a_rule_across_parameters_stop_loading(data_copy, tmp_path):
+    _append(data_copy / "parameters.csv", "ferret,ecf_fraction,0.05,,,fraction of BW,,memory,")
+    with pytest.raises(SpeciesDataError, match="Plasma volume .* Extracellular fluid"):
+        load_table(data_copy, overrides=tmp_path / "none")
+
+
+def test_a_shipped_file_that_is_a_folder_is_named(data_copy, tmp_path):
+    (data_copy / "sources.csv").unlink()
+    (data_copy / "sources.csv").mkdir()
+    with pytest.raises(SpeciesDataError, match="sources.csv.*folder"):
+        load_table(data_copy, overrides=tmp_path / "none")
+
+
 def test_missing_required_parameter_after_inheritance_is_reported(data_copy, tmp_path):
     path = data_copy / "parameters.csv"
     kept = [ln for ln in path.read_text(encoding="utf-8").splitlines()
@@ -230,7 +259,7 @@ def test_clinic_override_merges_on_top_and_says_so(tmp_path):
     assert table.value("dog", "blood_volume_ml_per_kg").origin == "shipped"
 
 
-def test_broken_override_names_the_override_file(tmp_path):
+def test_broken_override_is_named_with_its_line_and_ignored(tmp_path):
     overrides = tmp_path / "overrides"
     overrides.mkdir()
     (overrides / "parameters.csv").write_text(
@@ -238,8 +267,10 @@ def test_broken_override_names_the_override_file(tmp_path):
         "ferret,blood_volume_ml_per_kg,-5,,,mL/kg,,memory,\n",
         encoding="utf-8",
     )
-    with pytest.raises(SpeciesDataError, match="overrides/parameters.csv:2"):
-        load_table(overrides=overrides)
+    table = load_table(overrides=overrides)
+    [notice] = table.notices
+    assert notice.location == "overrides/parameters.csv:2"
+    assert table.value("ferret", "blood_volume_ml_per_kg").origin == "shipped"
 
 
 def test_every_parameter_is_documented_in_the_data_readme(table):
@@ -259,3 +290,85 @@ def test_every_parameter_has_a_label_people_read():
     note = next(f for f in plan.findings if f.code == "UNVERIFIED_VALUES")
     assert "Lightest weight for a continuous line" in note.message
     assert "continuous_line_min_kg" not in note.message
+
+
+# ---- plausible ranges ----------------------------------------------------------------------
+def test_every_number_parameter_has_a_plausible_range_and_other_types_none(table):
+    rows = _rows("parameter_definitions.csv")
+    assert rows and {"min", "max"} <= set(rows[0])
+    for row in rows:
+        if row["type"] == "number":
+            assert float(row["min"]) < float(row["max"]), row["parameter"]
+            assert float(row["min"]) >= 0, row["parameter"]  # no value is negative
+        else:
+            assert row["min"] == row["max"] == "", row["parameter"]
+    dog_bolus = table.definitions["bolus_minutes"]
+    assert (dog_bolus.minimum, dog_bolus.maximum) == (1, 240)
+
+
+def test_every_shipped_value_low_and_high_lies_in_its_plausible_range():
+    """Read from the CSV files themselves, not through the loader that enforces it."""
+    ranges = {
+        r["parameter"]: r for r in _rows("parameter_definitions.csv") if r["type"] == "number"
+    }
+    checked = 0
+    for line, row in enumerate(_rows("parameters.csv"), start=2):
+        bounds = ranges.get(row["parameter"])
+        if bounds is None:
+            continue
+        for column in ("value", "low", "high"):
+            if row[column]:
+                assert float(bounds["min"]) <= float(row[column]) <= float(bounds["max"]), (
+                    f"parameters.csv:{line} {row['parameter']} {column} {row[column]}"
+                )
+                checked += 1
+    assert checked > 300
+
+
+def test_body_weight_range_is_the_patient_weight_range():
+    from vetfluid.checks import PATIENT_WEIGHT_KG
+
+    row = next(r for r in _rows("parameter_definitions.csv") if r["parameter"] == "body_weight_kg")
+    assert (float(row["min"]), float(row["max"])) == PATIENT_WEIGHT_KG
+
+
+def test_every_species_keeps_the_rules_across_parameters(table):
+    """Plasma is part of the ECF, the ECF part of the body's water (adult and neonate)
+    and plasma part of the blood; a single bolus is no larger than the shock dose that
+    caps all boluses (Davis et al. 2013: shock dose in fractions, i.e. boluses within it)."""
+    for sid in table.species_ids():
+
+        def number(name, sid=sid):
+            found = table.get(sid, name)
+            return None if found is None else found.number
+
+        plasma, ecf, tbw = (number(n) for n in ("plasma_fraction", "ecf_fraction",
+                                                 "total_body_water_fraction"))  # fmt: skip
+        assert 0 < plasma < ecf < tbw < 1, sid
+        neonate = number("neonate_total_body_water_fraction")
+        assert neonate is None or ecf < neonate < 1, sid
+        assert plasma * 1000 < number("blood_volume_ml_per_kg"), sid
+        bolus, shock = number("bolus_ml_per_kg"), number("shock_dose_ml_per_kg")
+        if bolus is not None and shock is not None:
+            assert bolus <= shock, sid
+        for value in table.effective(sid).values():
+            if value.low is not None and value.high is not None:
+                assert value.low <= value.high, (sid, value.parameter)
+
+
+def test_the_readme_gives_every_plausible_range_with_a_reason():
+    readme = (DATA / "README.md").read_text(encoding="utf-8")
+    section = readme.split("### Plausible ranges", 1)[1].split("\n## ", 1)[0]
+    documented = {}
+    for line in section.splitlines():
+        cells = [c.strip() for c in line.strip().strip("|").split("|")]
+        if len(cells) == 4 and cells[0].startswith("`"):
+            documented[cells[0].strip("`")] = cells[1:]
+    for row in _rows("parameter_definitions.csv"):
+        if row["type"] != "number":
+            continue
+        name = row["parameter"]
+        assert name in documented, name
+        low, high, why = documented[name]
+        assert (float(low), float(high)) == (float(row["min"]), float(row["max"])), name
+        assert len(why) > 15, name

@@ -159,6 +159,14 @@ class MainWindow(QMainWindow):
         from vetfluid.demos import DEMOS
 
         self.session = PlanSession(parent=self)
+        # clinic overrides the core left out (file:line, what applies): under the cautions
+        self.table_notice = QLabel()
+        self.table_notice.setTextFormat(Qt.TextFormat.PlainText)  # the text comes from a file
+        self.table_notice.setWordWrap(True)
+        self.table_notice.setAccessibleName("Clinic overrides not used")
+        self.centralWidget().layout().insertWidget(1, self.table_notice)
+        self.session.tableNoticeChanged.connect(self._show_table_notice)
+        self._show_table_notice(self.session.table_notice)
         self.patient = PatientView(self.session)
         self.settings_box = PlanSettings(self.session)
         # the optional labs last, after how the fluid is given (built in this order, so
@@ -227,6 +235,11 @@ class MainWindow(QMainWindow):
         self._open_records()
         self.session.recompute()
         self._page_opened(self.pages.currentIndex())
+
+    def _show_table_notice(self, text: str) -> None:
+        """Say which clinic overrides are not used, or nothing when all are."""
+        self.table_notice.setText(f"⚠ Clinic overrides not used:\n{text}" if text else "")
+        self.table_notice.setVisible(bool(text))
 
     # ---- building -------------------------------------------------------------------------
     def _action(self, text: str, slot, shortcut=None, tip: str = "") -> QAction:  # noqa: ANN001

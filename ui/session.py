@@ -60,6 +60,8 @@ class PlanSession(QObject):
     readinessChanged = Signal()
     #: observations were recorded or removed, or a new plan version began
     observationsChanged = Signal()
+    #: the clinic overrides left out of the species table, one line each ("" when none)
+    tableNoticeChanged = Signal(str)
 
     def __init__(self, request: PlanRequest | None = None, parent: QObject | None = None):
         super().__init__(parent)
@@ -142,7 +144,18 @@ class PlanSession(QObject):
     def reload_table(self) -> None:
         """The species table changed (a clinic override): rebuild with the new values."""
         self.table = load_table()
+        self.tableNoticeChanged.emit(self.table_notice)
         self._schedule()
+
+    @property
+    def table_notice(self) -> str:
+        """Each clinic override the core left out (file:line, why, what applies instead);
+        past five, how many more (`vetfluid-cli species` lists them all)."""
+        notices = self.table.notices
+        lines = [notice.one_line() for notice in notices[:5]]
+        if len(notices) > 5:
+            lines.append(f"… and {len(notices) - 5} more (`vetfluid-cli species` lists them all)")
+        return "\n".join(lines)
 
     def _schedule(self) -> None:
         self._timer.start()

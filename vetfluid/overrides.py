@@ -7,9 +7,13 @@ the shipped rows and marks each such value ``origin="override"``.
 
 Writing is safe by construction:
 
+* a value, low or high outside the parameter's plausible range
+  (``parameter_definitions.csv``) is refused with an :class:`InputError`;
 * the candidate file is validated first by building the whole table from it
-  (:func:`load_table` on a staging folder), so a bad value raises
-  :class:`InputError` or :class:`SpeciesDataError` and the file on disk is untouched;
+  (:func:`load_table` on a staging folder): a row the loader would leave out that it
+  does not leave out now (a rule across parameters, an unknown source) raises
+  :class:`SpeciesDataError` and the file on disk is untouched. A row typed by hand that
+  the loader already leaves out blocks no other edit; it stays as typed, still reported;
 * the new file replaces the old one atomically (staging file in the same folder,
   flushed to disk, then ``os.replace``), and the previous file is kept as
   ``parameters.csv.bak``;
@@ -41,11 +45,13 @@ from vetfluid.species import (
     BASES,
     MAINTENANCE_METHODS,
     PARAMETER_COLUMNS,
+    ParameterDefinition,
     SpeciesTable,
     SpeciesValue,
     Value,
     load_table,
     overrides_dir,
+    parameter_definitions,
 )
 
 OVERRIDE_FILE = "parameters.csv"
@@ -154,13 +160,9 @@ def _optional_number(value: object, *, name: str, unit: str) -> float | None:
 
 
 # ---- shipped definitions (independent of the override file) --------------------------
-def _definitions() -> dict[str, tuple[str, str]]:
-    """parameter → (unit, type), read from the shipped definitions."""
-    path = resource_dir("species_data") / "parameter_definitions.csv"
-    return {
-        row["parameter"]: (row["unit"], row["type"])
-        for _, row in read_rows(path, ("parameter", "unit", "type"))
-    }
+def _definitions() -> dict[str, ParameterDefinition]:
+    """The shipped definitions: unit, type and plausible range of each parameter."""
+    return parameter_definitions()
 
 
 def _species_ids() -> list[str]:
@@ -194,9 +196,9 @@ def _raw() -> tuple[list[str], list[dict[str, str]]]:
     path = overrides_file()
     if not path.exists():
         return list(PARAMETER_COLUMNS), []
+    rows = [row for _, row in read_rows(path, PARAMETER_COLUMNS)]  # names a bad file first
     with path.open(newline="", encoding="utf-8-sig") as handle:
         header = next(csv.reader(handle), [])
-    rows = [row for _, row in read_rows(path, PARAMETER_COLUMNS)]
     extras = [name.strip() for name in header if name.strip() not in PARAMETER_COLUMNS]
     return list(PARAMETER_COLUMNS) + extras, rows
 
@@ -205,24 +207,22 @@ def read_overrides() -> list[OverrideRow]:
     """Every clinic override in file order; no file means no overrides.
 
     A row the loader would reject still reads here if its cells parse, so a
-    broken file can be inspected; :func:`vetfluid.species.load_table` names the problem.
+    broken file can be inspected; a row whose parameter is unknown or whose cells do not
+    parse is left out (:attr:`vetfluid.species.SpeciesTable.notices` names it, and
+    :func:`set_override` / :func:`remove_override` still replace or remove it).
     """
     path = overrides_file()
     if not path.exists():
         return []
     definitions = _definitions()
     rows = []
-    for location, raw in read_rows(path, PARAMETER_COLUMNS):
+    for location, raw in read_rows(path, PARAMETER_COLUMNS, problems=[]):
         location = f"overrides/{location}"
         if raw["parameter"] not in definitions:
-            raise SpeciesDataError(
-                f"unknown parameter {raw['parameter']!r}",
-                location=location,
-                fix="see species_data/parameter_definitions.csv",
-            )
-        _, kind = definitions[raw["parameter"]]
-        rows.append(
-            OverrideRow(
+            continue
+        kind = definitions[raw["parameter"]].type
+        try:
+            row = OverrideRow(
                 species_id=raw["species_id"],
                 parameter=raw["parameter"],
                 value=_typed(raw["value"], kind, location=location, column="value"),
@@ -233,7 +233,9 @@ def read_overrides() -> list[OverrideRow]:
                 basis=raw["basis"],
                 note=raw["note"],
             )
-        )
+        except SpeciesDataError:
+            continue
+        rows.append(row)
     return rows
 
 
@@ -278,10 +280,14 @@ def set_override(
     species_ids = _species_ids()
     if species_id not in species_ids:
         raise _unknown("species.csv", species_id, species_ids)
-    unit, kind = definitions[parameter]
+    definition = definitions[parameter]
+    unit, kind = definition.unit, definition.type
     text = _value_text(value, parameter=parameter, unit=unit, kind=kind)
     low_number = _optional_number(low, name="low", unit=unit)
     high_number = _optional_number(high, name="high", unit=unit)
+    if kind == "number":
+        for name, number in (("value", float(text)), ("low", low_number), ("high", high_number)):
+            _check_plausible(number, name=name, definition=definition)
     if low_number is not None and high_number is not None and low_number > high_number:
         raise InputError(
             f"low {stored_text(low_number)} is above high {stored_text(high_number)} {unit}",
@@ -389,6 +395,19 @@ def _value_text(value: Value, *, parameter: str, unit: str, kind: str) -> str:
     return text
 
 
+def _check_plausible(number: float | None, *, name: str, definition: ParameterDefinition) -> None:
+    """A number within the parameter's plausible range (species_data/README.md)."""
+    if number is None or definition.plausible(number):
+        return
+    raise InputError(
+        f"{name} {stored_text(number)} {definition.unit} lies outside the plausible range "
+        f"{definition.range_words} for {definition.label}",
+        field=definition.name,
+        value=number,
+        fix="check the number and its unit",
+    )
+
+
 def _check_range(
     number: float, *, parameter: str, unit: str, low: float | None, high: float | None
 ) -> None:
@@ -404,7 +423,10 @@ def _check_range(
 
 
 def _write_csv(path: Path, header: list[str], rows: list[dict[str, str]]) -> None:
-    with path.open("w", newline="", encoding="utf-8") as handle:
+    """Write the rows, flushed to disk; a new file is the owner's only (0600) from its
+    first byte, like everything in the user data folder."""
+    descriptor = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
+    with os.fdopen(descriptor, "w", newline="", encoding="utf-8") as handle:
         writer = csv.DictWriter(handle, fieldnames=header, extrasaction="ignore", restval="")
         writer.writeheader()
         writer.writerows(rows)
@@ -415,7 +437,7 @@ def _write_csv(path: Path, header: list[str], rows: list[dict[str, str]]) -> Non
 def _commit(header: list[str], rows: list[dict[str, str]]) -> None:
     """Validate the candidate rows as a whole table, keep a backup, then replace atomically."""
     folder = overrides_dir()
-    folder.mkdir(parents=True, exist_ok=True)
+    folder.mkdir(mode=0o700, parents=True, exist_ok=True)
     target = folder / OVERRIDE_FILE
     sources = folder / "sources.csv"
     with tempfile.TemporaryDirectory(dir=folder, prefix=".candidate-") as staging_name:
@@ -424,11 +446,11 @@ def _commit(header: list[str], rows: list[dict[str, str]]) -> None:
         _write_csv(candidate, header, rows)
         if sources.exists():
             shutil.copy2(sources, staging / "sources.csv")
-        load_table(overrides=staging)  # raises, naming the row, if the table would not load
+        _refuse_new_problems(load_table(overrides=staging))
         previous = target.stat() if target.exists() else None
         if previous is not None:
             spare = staging / "previous.csv"
-            shutil.copy2(target, spare)
+            _copy_private(target, spare)
             os.replace(spare, folder / (OVERRIDE_FILE + BACKUP_SUFFIX))
         os.replace(candidate, target)
     if previous is not None:
@@ -436,6 +458,28 @@ def _commit(header: list[str], rows: list[dict[str, str]]) -> None:
         if written.st_mtime_ns <= previous.st_mtime_ns:
             os.utime(target, ns=(written.st_atime_ns, previous.st_mtime_ns + 1))
     _fsync_folder(folder)
+
+
+def _copy_private(source: Path, copy: Path) -> None:
+    """Copy a file into a new owner-only one (``shutil.copy2`` would copy its mode too,
+    and an older vetfluid's file was readable to all), keeping its times."""
+    descriptor = os.open(copy, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+    with open(source, "rb") as original, os.fdopen(descriptor, "wb") as out:
+        shutil.copyfileobj(original, out)
+        out.flush()
+        os.fsync(out.fileno())
+    times = source.stat()
+    os.utime(copy, ns=(times.st_atime_ns, times.st_mtime_ns))
+
+
+def _refuse_new_problems(candidate: SpeciesTable) -> None:
+    """Refuse a write after which a row would be ignored that is not ignored now (the row
+    written, or one that depended on the row removed); a row already ignored (typed by
+    hand) is no reason to refuse an edit elsewhere, and stays as typed, still reported."""
+    before = {notice.key for notice in load_table().notices}
+    for notice in candidate.notices:
+        if notice.key not in before:
+            raise SpeciesDataError(notice.problem, location=notice.location)
 
 
 def _fsync_folder(folder: Path) -> None:

@@ -14,6 +14,14 @@ Clinic overrides live in the user data folder (``overrides/parameters.csv`` and 
 optional ``overrides/sources.csv``, same columns) and are merged on top; every
 effective value says where it came from (shipped, inherited, clinic override).
 
+Every number parameter has a plausible range (``min``/``max`` in
+``parameter_definitions.csv``, reasons in ``species_data/README.md``) and a few values
+must agree with each other (:data:`RULES`: plasma < ECF < total body water, …). A
+shipped value that breaks either stops loading (a test keeps the data clean); a clinic
+override that breaks either, or any other row of the override files that cannot be used,
+is left out and reported in :attr:`SpeciesTable.notices` with its ``file:line`` and the
+value that applies instead, never fatal: a clinic's typing slip must not stop planning.
+
 The loader uses the ``csv`` module, not pandas: the CLI must start fast.
 """
 
@@ -25,7 +33,7 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
 
-from vetfluid.csvfiles import parse_number, read_rows, require_choice
+from vetfluid.csvfiles import parse_number, quoted, read_rows, require_choice
 from vetfluid.errors import InputError, SpeciesDataError
 from vetfluid.paths import resource_dir, user_data_dir
 
@@ -64,6 +72,20 @@ class ParameterDefinition:
     type: str  # number | text | flag
     required: str  # all | ectotherm | none
     description: str
+    # plausible range of a number (value, low and high alike); None for text and flags
+    minimum: float | None = None
+    maximum: float | None = None
+
+    def plausible(self, number: float) -> bool:
+        """Whether a number lies within the parameter's plausible range (inclusive)."""
+        return (self.minimum is None or number >= self.minimum) and (
+            self.maximum is None or number <= self.maximum
+        )
+
+    @property
+    def range_words(self) -> str:
+        """The plausible range as people read it: "1–240 min"."""
+        return f"{self.minimum:g}–{self.maximum:g} {self.unit}"
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -138,6 +160,62 @@ class SpeciesValue:
 
 
 @dataclass(frozen=True, kw_only=True)
+class OverrideNotice:
+    """A row of the clinic override files (or the whole file) that was left out.
+
+    ``location`` is ``file:line`` (``overrides/parameters.csv:3``; no line when the
+    whole file could not be read); ``applies`` says what is used instead.
+    """
+
+    location: str
+    problem: str  # what is wrong, in words, with the fix
+    applies: str
+    species_id: str | None = None
+    parameter: str | None = None
+
+    def one_line(self) -> str:
+        """The notice for stderr, a status line or a banner: one line."""
+        return f"{self.location}: {self.problem} — ignored; {self.applies}"
+
+    @property
+    def key(self) -> tuple[str, str | None, str | None, str]:
+        """The notice without its line number (rows move when the file is rewritten)."""
+        return (self.location.split(":")[0], self.species_id, self.parameter, self.problem)
+
+
+@dataclass(frozen=True, kw_only=True)
+class Rule:
+    """Two parameters of one species that must agree: ``smaller`` × ``scale`` lies
+    below ``larger`` (or at most equals it when not ``strict``)."""
+
+    smaller: str
+    larger: str
+    why: str
+    scale: float = 1.0  # converts the smaller's unit into the larger's
+    strict: bool = True
+
+    def holds(self, smaller: float, larger: float) -> bool:
+        scaled = smaller * self.scale
+        return scaled < larger if self.strict else scaled <= larger
+
+
+# Physical and definitional relations, no source needed: a compartment is part of the
+# one that holds it; a single bolus lies within the shock dose that caps all boluses.
+RULES = (
+    Rule(smaller="plasma_fraction", larger="ecf_fraction",
+         why="plasma is part of the extracellular fluid"),
+    Rule(smaller="ecf_fraction", larger="total_body_water_fraction",
+         why="the extracellular fluid is part of the body's water"),
+    Rule(smaller="ecf_fraction", larger="neonate_total_body_water_fraction",
+         why="the extracellular fluid is part of the body's water"),
+    Rule(smaller="plasma_fraction", larger="blood_volume_ml_per_kg", scale=1000.0,
+         why="plasma is part of the blood (1 L/kg is 1000 mL/kg)"),
+    Rule(smaller="bolus_ml_per_kg", larger="shock_dose_ml_per_kg", strict=False,
+         why="one bolus cannot be more than the shock dose that caps all boluses"),
+)  # fmt: skip
+
+
+@dataclass(frozen=True, kw_only=True)
 class _Row:
     species_id: str
     parameter: str
@@ -160,6 +238,8 @@ class SpeciesTable:
     definitions: Mapping[str, ParameterDefinition]
     sources: Mapping[str, Source]
     _rows: Mapping[tuple[str, str], _Row] = field(repr=False)
+    #: clinic override rows (or files) left out, in file and line order
+    notices: tuple[OverrideNotice, ...] = ()
     # Effective values, resolved once on load: species id → parameter → value.
     _resolved: dict[str, dict[str, SpeciesValue]] = field(default_factory=dict, repr=False)
 
@@ -260,7 +340,8 @@ class SpeciesTable:
                     fix="see species_data/parameter_definitions.csv",
                 )
             raise InputError(
-                f"the species table has no {parameter} for {species_id}",
+                f"the species table has no “{self.definitions[parameter].label}” for "
+                f"{self.species(species_id).common_name}",
                 field=parameter,
                 value=None,
                 fix="add a row to species_data/parameters.csv or a clinic override",
@@ -297,31 +378,60 @@ class SpeciesTable:
 
 
 # ---- loading ------------------------------------------------------------------
-def _load_sources(path: Path) -> dict[str, Source]:
+def _load_sources(
+    path: Path,
+    *,
+    taken: Mapping[str, Source] | None = None,
+    problems: list[SpeciesDataError] | None = None,
+) -> dict[str, Source]:
+    """The sources of one file. For the clinic's file, ``taken`` holds the shipped ones
+    (an id may not repeat them) and bad rows go into ``problems``, left out."""
     sources: dict[str, Source] = {}
-    for location, row in read_rows(path, ("source_id", "citation", "year", "kind")):
-        sid = row["source_id"]
-        if not sid:
-            raise SpeciesDataError("empty source_id", location=location)
-        if sid in sources:
-            raise SpeciesDataError(f"duplicate source_id {sid!r}", location=location)
-        if not row["citation"]:
-            raise SpeciesDataError(
-                f"source {sid!r} has no citation", location=location, fix="authors, title, year"
-            )
-        year = parse_number(row["year"], location=location, column="year")
-        sources[sid] = Source(
-            source_id=sid,
-            citation=row["citation"],
-            year=int(year) if year is not None else None,
-            kind=row["kind"],
-        )
+    rows = read_rows(path, ("source_id", "citation", "year", "kind"), problems=problems)
+    for location, row in rows:
+        try:
+            source = _parse_source(location, row, seen=sources, taken=taken or {})
+        except SpeciesDataError as exc:
+            if problems is None:
+                raise
+            problems.append(exc)
+            continue
+        sources[source.source_id] = source
     return sources
+
+
+def _parse_source(
+    location: str, row: dict[str, str], *, seen: Mapping[str, Source], taken: Mapping[str, Source]
+) -> Source:
+    sid = row["source_id"]
+    if not sid:
+        raise SpeciesDataError("empty source_id", location=location)
+    if sid in seen:
+        raise SpeciesDataError(f"duplicate source_id {quoted(sid)}", location=location)
+    if sid in taken:
+        raise SpeciesDataError(
+            f"source {quoted(sid)} repeats a shipped source id",
+            location=location,
+            fix="pick a new id",
+        )
+    if not row["citation"]:
+        raise SpeciesDataError(
+            f"source {quoted(sid)} has no citation", location=location, fix="authors, title, year"
+        )
+    year = parse_number(row["year"], location=location, column="year")
+    if year is not None and not 0 < year < 10_000:
+        raise SpeciesDataError(f"year {year:g} is no year", location=location)
+    return Source(
+        source_id=sid,
+        citation=row["citation"],
+        year=int(year) if year is not None else None,
+        kind=row["kind"],
+    )
 
 
 def _load_definitions(path: Path) -> dict[str, ParameterDefinition]:
     definitions: dict[str, ParameterDefinition] = {}
-    columns = ("parameter", "label", "unit", "type", "required", "description")
+    columns = ("parameter", "label", "unit", "type", "required", "description", "min", "max")
     for location, row in read_rows(path, columns):
         name = row["parameter"]
         if name in definitions:
@@ -334,6 +444,19 @@ def _load_definitions(path: Path) -> dict[str, ParameterDefinition]:
         require_choice(
             row["required"], ("all", "ectotherm", "none"), column="required", location=location
         )
+        minimum = parse_number(row["min"], location=location, column="min")
+        maximum = parse_number(row["max"], location=location, column="max")
+        if row["type"] == "number":
+            if minimum is None or maximum is None or not minimum < maximum:
+                raise SpeciesDataError(
+                    f"{name} needs a plausible range with min below max",
+                    location=location,
+                    fix="give min and max; say why in species_data/README.md",
+                )
+        elif minimum is not None or maximum is not None:
+            raise SpeciesDataError(
+                f"{name} is not a number: leave min and max empty", location=location
+            )
         definitions[name] = ParameterDefinition(
             name=name,
             label=row["label"].strip(),
@@ -341,8 +464,20 @@ def _load_definitions(path: Path) -> dict[str, ParameterDefinition]:
             type=row["type"],
             required=row["required"],
             description=row["description"],
+            minimum=minimum,
+            maximum=maximum,
         )
     return definitions
+
+
+def parameter_definitions(data_dir: Path | None = None) -> dict[str, ParameterDefinition]:
+    """The shipped parameter definitions (unit, type, plausible range), by name."""
+    return dict(_definitions_cached(data_dir or resource_dir("species_data")))
+
+
+@lru_cache(maxsize=2)
+def _definitions_cached(directory: Path) -> dict[str, ParameterDefinition]:
+    return _load_definitions(directory / "parameter_definitions.csv")
 
 
 def _load_species(path: Path) -> dict[str, Species]:
@@ -416,14 +551,14 @@ def _parse_row(
     if sid not in species:
         close = difflib.get_close_matches(sid, list(species), n=3)
         raise SpeciesDataError(
-            f"unknown species id {sid!r}",
+            f"unknown species id {quoted(sid)}",
             location=location,
             fix=f"did you mean {', '.join(close)}?" if close else "add it to species.csv first",
         )
     if name not in definitions:
         close = difflib.get_close_matches(name, list(definitions), n=3)
         raise SpeciesDataError(
-            f"unknown parameter {name!r}",
+            f"unknown parameter {quoted(name)}",
             location=location,
             fix=f"did you mean {', '.join(close)}?"
             if close
@@ -432,13 +567,16 @@ def _parse_row(
     definition = definitions[name]
     if row["unit"] != definition.unit:
         raise SpeciesDataError(
-            f"unit {row['unit']!r} for {name} should be {definition.unit!r}", location=location
+            f"unit {quoted(row['unit'])} for {name} should be {definition.unit!r}",
+            location=location,
         )
     basis = require_choice(row["basis"], BASES, column="basis", location=location)
     source_id = row["source_id"] or None
     if source_id is not None and source_id not in sources:
         raise SpeciesDataError(
-            f"unknown source_id {source_id!r}", location=location, fix="add it to sources.csv"
+            f"unknown source_id {quoted(source_id)}",
+            location=location,
+            fix="add it to sources.csv",
         )
     if basis == "published" and source_id is None:
         raise SpeciesDataError(
@@ -457,9 +595,17 @@ def _parse_row(
         number = parse_number(row["value"], location=location, column="value")
         if number is None:
             raise SpeciesDataError(f"{name} has no value", location=location)
+        for column, figure in (("", number), ("low ", low), ("high ", high)):
+            if figure is not None and not definition.plausible(figure):
+                raise SpeciesDataError(
+                    f"{definition.label}: {column}{figure:g} {definition.unit} lies outside "
+                    f"the plausible range {definition.range_words}",
+                    location=location,
+                    fix="check the number and its unit",
+                )
         if (low is not None and number < low) or (high is not None and number > high):
             raise SpeciesDataError(
-                f"value {number:g} lies outside low–high ({row['low']}–{row['high']})",
+                f"value {number:g} lies outside low–high ({_g(low)}–{_g(high)})",
                 location=location,
                 fix="low ≤ value ≤ high",
             )
@@ -474,7 +620,7 @@ def _parse_row(
         value = row["value"]
         if name == "maintenance_method" and value not in MAINTENANCE_METHODS:
             raise SpeciesDataError(
-                f"maintenance_method {value!r} unknown",
+                f"maintenance_method {quoted(value)} unknown",
                 location=location,
                 fix=", ".join(MAINTENANCE_METHODS),
             )
@@ -506,8 +652,23 @@ PARAMETER_COLUMNS = (
 )
 
 
-def _check_complete(table: SpeciesTable) -> None:
-    """Every species has every required parameter after inheritance."""
+def _g(number: float | None) -> str:
+    return "" if number is None else f"{number:g}"
+
+
+@dataclass(frozen=True, kw_only=True)
+class _Fault:
+    """What a table breaks as a whole (a gap, a rule), with the rows that hold the values."""
+
+    message: str
+    location: str
+    rows: tuple[_Row, ...]
+
+
+def _faults(table: SpeciesTable) -> list[_Fault]:
+    """Every species has every parameter it needs after inheritance (the required ones
+    and its maintenance method's), and its values keep :data:`RULES`."""
+    faults = []
     for sid in table.species_ids():
         sp = table.species_by_id[sid]
         missing = [
@@ -522,11 +683,30 @@ def _check_complete(table: SpeciesTable) -> None:
                 p for p in METHOD_PARAMETERS[str(method.value)] if table.get(sid, p) is None
             ]
         if missing:
-            raise SpeciesDataError(
-                f"species {sid!r} lacks {', '.join(sorted(set(missing)))} after inheritance",
-                location="parameters.csv",
-                fix="add the rows to the species or to its group",
+            faults.append(
+                _Fault(
+                    message=f"species {sid!r} lacks {', '.join(sorted(set(missing)))} after "
+                    f"inheritance (maintenance method {method.value if method else 'none'})",
+                    location=method.location if method is not None else "parameters.csv",
+                    rows=(table._rows[(method.defined_on, method.parameter)],) if method else (),
+                )
             )
+        for rule in RULES:
+            small, large = table.get(sid, rule.smaller), table.get(sid, rule.larger)
+            if small is None or large is None or rule.holds(small.number, large.number):
+                continue
+            relation = "below" if rule.strict else "at most"
+            own = small if small.defined_on == sid else large
+            faults.append(
+                _Fault(
+                    message=f"{small.label} {small.number:g} {small.unit} must be {relation} "
+                    f"{large.label} {large.number:g} {large.unit} for {sp.common_name}: "
+                    f"{rule.why}",
+                    location=own.location,
+                    rows=tuple(table._rows[(v.defined_on, v.parameter)] for v in (small, large)),
+                )
+            )
+    return faults
 
 
 def overrides_dir() -> Path:
@@ -545,29 +725,30 @@ def load_table(data_dir: Path | None = None, *, overrides: Path | None = None) -
     return _load_cached(directory, override_dir, _stamp(override_dir))
 
 
+def _present(path: Path) -> bool:
+    """Whether something is at ``path`` (a dangling link or an unreadable entry counts,
+    so that reading it reports the problem rather than skipping the file unseen)."""
+    try:
+        return path.exists() or path.is_symlink()
+    except OSError:
+        return True
+
+
 def _stamp(override_dir: Path) -> tuple[tuple[int, int], ...]:
     """Change stamps (mtime in ns, size) of the override files, so a saved override reloads."""
     stamps = []
     for name in ("parameters.csv", "sources.csv"):
-        path = override_dir / name
-        stat = path.stat() if path.exists() else None
-        stamps.append((stat.st_mtime_ns, stat.st_size) if stat else (0, 0))
+        try:
+            stat = (override_dir / name).stat()
+            stamps.append((stat.st_mtime_ns, stat.st_size))
+        except OSError:
+            stamps.append((0, 0))
     return tuple(stamps)
 
 
 @lru_cache(maxsize=8)  # bounded: each saved override makes a new stamp
 def _load_cached(directory: Path, override_dir: Path, _stamp: tuple) -> SpeciesTable:
     sources = _load_sources(directory / "sources.csv")
-    override_sources = override_dir / "sources.csv"
-    if override_sources.exists():
-        for sid, src in _load_sources(override_sources).items():
-            if sid in sources:
-                raise SpeciesDataError(
-                    f"override source {sid!r} repeats a shipped source id",
-                    location=f"{override_sources.name}",
-                    fix="pick a new id",
-                )
-            sources[sid] = src
     definitions = _load_definitions(directory / "parameter_definitions.csv")
     species = _load_species(directory / "species.csv")
     rows: dict[tuple[str, str], _Row] = {}
@@ -582,25 +763,173 @@ def _load_cached(directory: Path, override_dir: Path, _stamp: tuple) -> SpeciesT
                 location=location,
             )
         rows[key] = parsed
-    override_file = override_dir / "parameters.csv"
-    if override_file.exists():
-        seen: set[tuple[str, str]] = set()
-        for location, raw in read_rows(override_file, PARAMETER_COLUMNS):
-            parsed = _parse_row(
-                f"overrides/{location}",
-                raw,
-                species=species,
-                definitions=definitions,
-                sources=sources,
-                override=True,
-            )
-            key = (parsed.species_id, parsed.parameter)
-            if key in seen:
-                raise SpeciesDataError(
-                    f"duplicate override for {key[0]} / {key[1]}", location=f"overrides/{location}"
+    shipped = SpeciesTable(species, definitions, sources, rows)
+    for fault in _faults(shipped):
+        raise SpeciesDataError(
+            fault.message, location=fault.location, fix="correct the shipped rows"
+        )
+    if not (_present(override_dir / "parameters.csv") or _present(override_dir / "sources.csv")):
+        return shipped
+    return _with_overrides(shipped, override_dir)
+
+
+_OVERRIDE_FILES = ("sources.csv", "parameters.csv")  # read in this order, reported in it
+# A clinic's file holds at most one row per (species or group, parameter); this many rows
+# that cannot be used mean some other file, and naming each would take seconds.
+MOST_BAD_OVERRIDE_ROWS = 100
+
+
+@dataclass(frozen=True, kw_only=True)
+class _Problem:
+    location: str  # file:line inside the overrides folder
+    problem: str
+    species_id: str | None = None
+    parameter: str | None = None
+    whole_file: bool = False  # the file could not be read: none of it is used
+
+
+def _problem(
+    error: SpeciesDataError, row: Mapping[str, str] | None = None, *, whole_file: bool = False
+) -> _Problem:
+    location = error.location.removeprefix("overrides/")
+    text = error.message.removeprefix(f"{error.location}: ")
+    return _Problem(
+        location=location,
+        problem=text + (f" ({error.fix})" if error.fix else ""),
+        species_id=row.get("species_id") if row else None,
+        parameter=row.get("parameter") if row else None,
+        whole_file=whole_file,
+    )
+
+
+def _with_overrides(shipped: SpeciesTable, override_dir: Path) -> SpeciesTable:
+    """The shipped table with the clinic's rows on top; every row that cannot be used is
+    left out and becomes a notice (see the module docstring)."""
+    problems: list[_Problem] = []
+    sources = dict(shipped.sources)
+    source_file = override_dir / "sources.csv"
+    if _present(source_file):
+        found: list[SpeciesDataError] = []
+        try:
+            clinic_sources = _load_sources(source_file, taken=shipped.sources, problems=found)
+            source_problems = [_problem(e) for e in found]
+        except SpeciesDataError as exc:
+            clinic_sources, source_problems = {}, [_problem(exc, whole_file=True)]
+        if len(source_problems) <= MOST_BAD_OVERRIDE_ROWS:
+            sources |= clinic_sources
+        problems += _capped("sources.csv", source_problems)
+    rows = dict(shipped._rows)
+    active: list[_Row] = []
+    parameter_file = override_dir / "parameters.csv"
+    if _present(parameter_file):
+        found = []
+        try:
+            raw_rows = read_rows(parameter_file, PARAMETER_COLUMNS, problems=found)
+            row_problems = [_problem(e) for e in found]
+        except SpeciesDataError as exc:
+            raw_rows, row_problems = [], [_problem(exc, whole_file=True)]
+        seen: dict[tuple[str, str], str] = {}
+        for location, raw in raw_rows:
+            if len(row_problems) > MOST_BAD_OVERRIDE_ROWS:
+                break
+            try:
+                parsed = _parse_row(
+                    f"overrides/{location}",
+                    raw,
+                    species=shipped.species_by_id,
+                    definitions=shipped.definitions,
+                    sources=sources,
+                    override=True,
                 )
-            seen.add(key)
-            rows[key] = parsed
-    table = SpeciesTable(species, definitions, sources, rows)
-    _check_complete(table)
-    return table
+                key = (parsed.species_id, parsed.parameter)
+                if key in seen:
+                    raise SpeciesDataError(
+                        f"a second override for {key[0]} / {key[1]} (the first is at {seen[key]})",
+                        location=parsed.location,
+                        fix="keep one row per species and parameter",
+                    )
+            except SpeciesDataError as exc:
+                row_problems.append(_problem(exc, raw))
+                continue
+            seen[key] = parsed.location
+            active.append(parsed)
+        problems += _capped("parameters.csv", row_problems)
+        if len(row_problems) > MOST_BAD_OVERRIDE_ROWS:
+            active = []
+    while True:  # leave out the rows that break the table as a whole, until none does
+        merged = rows | {(r.species_id, r.parameter): r for r in active}
+        table = SpeciesTable(shipped.species_by_id, shipped.definitions, sources, merged)
+        left_out = False
+        for fault in _faults(table):
+            for row in fault.rows:
+                if row.override and row in active:
+                    active.remove(row)
+                    left_out = True
+                    problems.append(
+                        _Problem(
+                            location=row.location.removeprefix("overrides/"),
+                            problem=fault.message,
+                            species_id=row.species_id,
+                            parameter=row.parameter,
+                        )
+                    )
+        if not left_out:
+            break
+    notices = tuple(
+        OverrideNotice(
+            location=f"overrides/{p.location}",
+            problem=p.problem,
+            applies=_what_applies(table, p),
+            species_id=p.species_id,
+            parameter=p.parameter,
+        )
+        for p in sorted(problems, key=_file_order)
+    )
+    return SpeciesTable(shipped.species_by_id, shipped.definitions, sources, merged, notices)
+
+
+def _capped(name: str, problems: list[_Problem]) -> list[_Problem]:
+    """The problems of one override file, or one for the whole file when there are too many."""
+    if len(problems) <= MOST_BAD_OVERRIDE_ROWS:
+        return problems
+    return [
+        _Problem(
+            location=name,
+            problem=f"more than {MOST_BAD_OVERRIDE_ROWS} rows cannot be used "
+            "(is it a clinic override file?)",
+            whole_file=True,
+        )
+    ]
+
+
+def _file_order(problem: _Problem) -> tuple[int, int]:
+    name, _, line = problem.location.partition(":")
+    return (_OVERRIDE_FILES.index(name) if name in _OVERRIDE_FILES else 0, int(line or 0))
+
+
+def _what_applies(table: SpeciesTable, problem: _Problem) -> str:
+    """What is used instead of a left-out override, in words."""
+    if problem.location.startswith("sources.csv"):
+        if problem.whole_file:
+            return "none of its sources is used; an override citing one is left out too"
+        return "an override citing it is left out too"
+    if problem.whole_file:
+        return "no clinic override is used: every value is the one vetfluid ships"
+    sid, name = problem.species_id, problem.parameter
+    if sid not in table.species_by_id or name not in table.definitions:
+        return "the shipped values apply"
+    value = table.get(sid, name)
+    if value is None:
+        return f"vetfluid ships no {table.definitions[name].label} for it, so none applies"
+    if isinstance(value.value, bool):
+        shown = "yes" if value.value else "no"
+    elif isinstance(value.value, float):
+        shown = f"{value.value:g} {value.unit}"
+    else:
+        shown = value.value
+    if value.origin == "override":
+        return f"the override at {value.location}, {shown}, applies"
+    if value.origin == "inherited":
+        group = table.species_by_id[value.defined_on].common_name
+        return f"the value inherited from {group}, {shown}, applies"
+    return f"the shipped value {shown} applies"
