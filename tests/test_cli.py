@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -191,6 +192,38 @@ def test_course_prints_the_compartments_at_the_requested_hours(capsys):
     assert rows[1]["plasma_ml"] > rows[0]["plasma_ml"]  # the bolus expands the plasma
     assert rows[2]["remaining_deficit_ml"] == pytest.approx(0, abs=1)
     assert rows[2]["weight_kg"] > rows[1]["weight_kg"]
+
+
+def _course_table(out: str) -> list[list[str]]:
+    """The cells of the course's text table (columns are two or more spaces apart): the
+    lines under the headings that start with an hour."""
+    lines = out.split("\n\n", 1)[0].splitlines()[2:]
+    return [re.split(r"\s{2,}", line.strip()) for line in lines if re.match(r"\s*\d", line)]
+
+
+def test_the_course_table_prints_safe_numbers_with_units(capsys):
+    """Safe-number rules (ISMP error-prone dose designations): a leading zero, no trailing
+    zero, a unit on every figure; a computed 5.7e-14 mL left of the deficit is 0 mL, never
+    5.68434e-14 or -0 (the renal cat at 24 h left exactly that before)."""
+    _, out, _ = run(capsys, "course", "--demo", "renal_cat", "--at", "0,1,12,24")
+    rows = _course_table(out)
+    assert [row[0] for row in rows] == ["0", "1", "12", "24"]
+    units = ["mL", "mL", "mL", "kg", "mL", "mL", "mL", "mmol/L"]
+    for row in rows:
+        assert len(row) == 9
+        for cell, unit in zip(row[1:], units, strict=True):
+            if cell == "—":
+                continue
+            number, shown_unit = cell.split(" ")
+            assert shown_unit == unit, cell
+            assert re.fullmatch(r"\d+(\.\d*[1-9])?", number), cell  # no -0, .5, 5.0, 5e-14
+    assert rows[3][5] == "0 mL"  # deficit left at 24 h
+
+
+def test_the_course_gives_a_small_patients_weight_in_grams(capsys):
+    _, out, _ = run(capsys, "course", "--demo", "small_gerbil", "--at", "0,24")
+    rows = _course_table(out)
+    assert all(row[4].endswith(" g") for row in rows), rows
 
 
 def test_course_rejects_bad_hours(capsys):

@@ -254,7 +254,9 @@ def test_an_estimate_from_findings_is_marked_not_confirmed_and_a_temperature_is_
     data = plan_dict(plan)
     block = _inputs_block(sheet_html(data))
     estimate = data["dehydration_estimate"]
-    assert "NOT CONFIRMED" in block and "membranes_possibly_dry" in block
+    # the finding as DiBartola's Table 14-4 words it (dehydration_findings.csv), not its id
+    assert "NOT CONFIRMED" in block and "Mucous membranes possibly dry" in block
+    assert "membranes_possibly_dry" not in block
     assert f"{estimate['percent_low']:g}–{estimate['percent_high']:g} %" in block
     assert "24 °C" in block
     confirmed = plan_dict(build_plan(PlanRequest(
@@ -263,6 +265,21 @@ def test_an_estimate_from_findings_is_marked_not_confirmed_and_a_temperature_is_
     )))  # fmt: skip
     block = _inputs_block(sheet_html(confirmed))
     assert "5 %, entered" in block and "NOT CONFIRMED" not in block
+
+
+def test_findings_a_saved_plan_names_are_printed_in_words_even_when_retired_or_unknown():
+    """A plan saved by an earlier vetfluid may name a finding since split (``membranes_dry``,
+    hydration.RETIRED_FINDINGS) or one this version does not know: the first prints as it
+    read then, the second is said to be unknown, and neither stops the sheet."""
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20,
+                                  dehydration_findings=("eyes_possibly_sunken",)))  # fmt: skip
+    data = plan_dict(plan)
+    data["dehydration_estimate"]["findings"] = ["eyes_possibly_sunken", "membranes_dry", "wobbly"]
+    block = _inputs_block(sheet_html(data))
+    assert "Eyes possibly sunken in orbits" in block
+    assert "Dry mucous membranes" in block  # DiBartola 2012, Table 14-4, as it was worded then
+    assert "a finding this vetfluid does not know (“wobbly”)" in block
+    assert "eyes_possibly_sunken" not in block and "membranes_dry" not in block
 
 
 def test_the_potassium_line_and_the_labels_give_the_strength_in_the_bag():

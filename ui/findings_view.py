@@ -177,13 +177,15 @@ class FindingsView(QWidget):
         elif blockers:
             hard = [f for f in blockers if f.severity == "hard"]
             soft = [f for f in blockers if f.severity == "soft"]
+            # each by its title (the message's first sentence; the table gives the rest),
+            # one to a line: a title may hold a semicolon of its own
             parts = []
             if hard:
-                parts.append(f"✖ {len(hard)} hard limit(s) block this plan: "
-                             + "; ".join(_in_words(f) for f in hard))  # fmt: skip
+                parts.append(f"✖ {len(hard)} hard limit(s) block this plan:")
+                parts += [f"   • {f.title}" for f in hard]
             if soft:
-                parts.append(f"⚠ {len(soft)} warning(s) need a reason: "
-                             + "; ".join(_in_words(f) for f in soft))  # fmt: skip
+                parts.append(f"⚠ {len(soft)} warning(s) need a reason:")
+                parts += [f"   • {f.title}" for f in soft]
             text = "\n".join(parts)
         else:
             text = "Nothing blocks this plan."
@@ -194,9 +196,3 @@ def citation(table: SpeciesTable, source_id: str) -> str:
     """The publication a source id stands for, as people cite it."""
     source = table.sources.get(source_id)
     return source.citation if source is not None else "not in the list of sources"
-
-
-def _in_words(finding: Finding) -> str:
-    """A finding's code as words for a sentence: ``WEIGHT_OUTSIDE_RANGE`` → weight outside
-    range (the table beside it gives the full message)."""
-    return finding.code.replace("_", " ").lower()

@@ -27,7 +27,7 @@ from ui.rows_model import Cell, RowsModel
 from vetfluid.errors import VetfluidError
 from vetfluid.formatting import format_quantity as q
 from vetfluid.records import Records, VersionRow, compare_versions
-from vetfluid.sheet import route_and_device_text
+from vetfluid.sheet import patient_weight_text, route_and_device_text
 from vetfluid.species import load_table
 
 
@@ -59,6 +59,9 @@ def _in_words(row: tuple[str, str, str, bool], first: dict, second: dict) -> tup
         return what, left, right, differs or left != right
     if what == "Route":
         return what, route_and_device_text(first), route_and_device_text(second), differs
+    if what == "Weight":  # in the species' own unit, every figure: 380 g and 380.4 g differ
+        left, right = patient_weight_text(first), patient_weight_text(second)
+        return what, left, right, differs or left != right
     return row
 
 
@@ -118,7 +121,7 @@ class OpenPatientDialog(QDialog):
             plan = version.plan
             text = (
                 f"v{version.version} · {version.created_at} · {version.author or 'no initials'} · "
-                f"{q(plan['weight_kg'], 'kg')} · {plan['dehydration_percent']:g} % · "
+                f"{patient_weight_text(plan)} · {plan['dehydration_percent']:g} % · "
                 f"first 24 h {q(plan['total_ml_first_24h'], 'mL')}"
             )
             entry = QListWidgetItem(text)

@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING, NoReturn
 
 from vetfluid.cautions import CAUTIONS, SHORT_CAUTION
 from vetfluid.errors import InputError, VetfluidError
-from vetfluid.formatting import format_quantity
+from vetfluid.formatting import format_number, format_quantity
 
 if TYPE_CHECKING:
     from vetfluid.plan import Plan
@@ -488,7 +488,7 @@ def cmd_chart(args: argparse.Namespace) -> int:
 
 
 def cmd_sodium(args: argparse.Namespace) -> int:
-    from vetfluid import electrolytes, fluids
+    from vetfluid import electrolytes, fluid_roles, fluids
     from vetfluid.limits import limit
     from vetfluid.species import load_table
     from vetfluid.units import parse_weight_kg
@@ -496,6 +496,12 @@ def cmd_sodium(args: argparse.Namespace) -> int:
     table = load_table()
     weight = parse_weight_kg(args.weight)
     tbw = table.value(args.species, "total_body_water_fraction")
+    if not fluid_roles.roles(args.fluid).carrier:  # the rate found is an infusion's
+        raise InputError(
+            f"{fluids.fluid(args.fluid).name} is not infused as the bag",
+            field="--fluid", value=args.fluid,
+            fix="choose a fluid that may run as the bag: " + ", ".join(fluid_roles.carriers()),
+        )  # fmt: skip
     comp = fluids.composition(fluids.fluid(args.fluid))
     change = electrolytes.sodium_change_per_litre(
         serum_na=args.serum_na, infusate_na=comp.na_mmol_per_l,
@@ -547,9 +553,29 @@ def _hours(text: str) -> list[float]:
 
 COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
                "remaining_deficit_ml", "given_ml", "eliminated_ml", "serum_na")  # fmt: skip
-# the column headings people read (the JSON keeps the keys above)
-COURSE_HEADINGS = ("plasma mL", "interstitial mL", "intracellular mL", "weight kg",
-                   "deficit left mL", "given mL", "eliminated mL", "serum Na mmol/L")  # fmt: skip
+# the column headings people read (the JSON keeps the keys above); each figure has its unit
+COURSE_HEADINGS = ("plasma", "interstitial", "intracellular", "weight",
+                   "deficit left", "given", "eliminated", "serum Na")  # fmt: skip
+# Most decimals a figure of the course is printed with (a display choice, not a clinical
+# value): finer than this is the integrator's rounding (5.7e-14 mL), not fluid.
+COURSE_MOST_DECIMALS = {"serum_na": 1}
+COURSE_MOST_DECIMALS_OTHERWISE = 2
+
+
+def _course_cell(row: dict, key: str, weight_unit: str) -> str:
+    """One figure of the course table the safe way (:mod:`vetfluid.formatting`), with its
+    unit; the weight in the species' own unit (a lizard in g), as the Course tab plots it."""
+    from vetfluid.formatting import default_decimals
+    from vetfluid.units import weight_in_unit
+
+    value = row[key]
+    if value is None:
+        return "—"
+    unit = {"weight_kg": weight_unit, "serum_na": "mmol/L"}.get(key, "mL")
+    if key == "weight_kg":
+        value = weight_in_unit(value, weight_unit)
+    most = COURSE_MOST_DECIMALS.get(key, COURSE_MOST_DECIMALS_OTHERWISE)
+    return format_quantity(value, unit, decimals=min(default_decimals(value), most))
 
 
 def cmd_course(args: argparse.Namespace) -> int:
@@ -588,9 +614,8 @@ def cmd_course(args: argparse.Namespace) -> int:
         print(f"Course — {plan.species_name}, {weight}")
         print(f"{'hour':>6} " + " ".join(f"{k:>20}" for k in COURSE_HEADINGS))
         for row in rows:
-            cells = " ".join(f"{'—' if row[k] is None else format(row[k], '.6g'):>20}"
-                             for k in COURSE_KEYS)  # fmt: skip
-            print(f"{row['hour']:>6g} {cells}")
+            cells = " ".join(f"{_course_cell(row, k, plan.weight_unit):>20}" for k in COURSE_KEYS)
+            print(f"{format_number(row['hour'], decimals=2):>6} {cells}")
         if result.elimination_left_out:
             print(f"Renal elimination of excess fluid left out: {result.elimination_left_out}.")
         print("\nFindings of the plan")
@@ -632,10 +657,22 @@ def _demo_conflicts(args: argparse.Namespace, argv: Sequence[str] | None) -> Non
         )  # fmt: skip
 
 
+def _report_ignored_overrides(command: str) -> None:
+    """Each clinic override left out (file:line, why, what applies), one line on stderr:
+    the answer on stdout uses the shipped values instead."""
+    if command == "fluids":  # the only command that reads no species value
+        return
+    from vetfluid.species import load_table
+
+    for notice in load_table().notices:
+        sys.stderr.write(f"vetfluid-cli: clinic override {notice.one_line()}\n")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     try:
         _demo_conflicts(args, argv)
+        _report_ignored_overrides(args.command)
         return COMMANDS[args.command](args)
     except InputError as exc:
         sys.stderr.write(f"vetfluid-cli: invalid input — {exc.one_line()}\n")

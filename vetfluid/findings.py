@@ -25,6 +25,27 @@ class Finding:
         if self.severity not in SEVERITIES:
             raise ValueError(f"severity must be one of {SEVERITIES}, not {self.severity!r}")
 
+    @property
+    def title(self) -> str:
+        """The finding in a line, for a summary: its message's first sentence, without the
+        full stop ("Potassium would run at 0.77 mmol/kg/h, above the 0.5 mmol/kg/h
+        ceiling"). Derived from the message, so it cannot drift from it. Not its first
+        clause: messages state the fact before the problem ("No serum Na was entered; …
+        faster than 0.5 mmol/L/h", "The deficit … is replaced over 4 h: faster than the
+        guidelines"), and a title that stopped at the fact would hide the problem. A full
+        stop ends the sentence only outside brackets and before a space or the end, so a
+        decimal point (0.5) does not."""
+        text = self.message.strip()
+        depth = 0
+        for i, char in enumerate(text):
+            if char in "([":
+                depth += 1
+            elif char in ")]":
+                depth = max(depth - 1, 0)
+            elif depth == 0 and char == "." and (i + 1 == len(text) or text[i + 1].isspace()):
+                return text[:i].rstrip() or text
+        return text
+
     def as_dict(self) -> dict[str, object]:
         return {
             "severity": self.severity,

@@ -682,7 +682,9 @@ def _find(fluid_id: str, folder: Path | str | None) -> Fluid:
             f"unknown fluid {fluid_id!r}",
             field="fluid",
             value=fluid_id,
-            fix=f"known fluids: {', '.join(sorted(library))}",
+            # the ids are what one types (CLI, plan files); each beside the name on its bag
+            fix="fluid ids you can type: "
+            + ", ".join(f"{i} ({library[i].name})" for i in sorted(library)),
         )
     return library[fluid_id]
 

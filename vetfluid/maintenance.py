@@ -268,10 +268,12 @@ def concentrating_ceiling(
     if ratio is not None:
         return ratio.number * plasma.number, "U/P × plasma", [ratio, plasma]
     raise InputError(
-        f"no urine-concentrating ceiling on record for {species_id};",
+        "No urine-concentrating ceiling (maximum urine osmolality or urine-to-plasma ratio) "
+        f"is on record for this species ({table.species(species_id).common_name}), so the "
+        "minimum water need cannot be estimated.",
         field="max_urine_osmolality_mosm_per_kg",
         value=None,
-        fix="enter the patient's USG or urine osmolality, or add the value to the species table",
+        fix="Enter the patient's USG or urine osmolality, or add the value to the species table.",
     )
 
 

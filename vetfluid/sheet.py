@@ -22,6 +22,7 @@ from vetfluid.electrolytes import SodiumSummary, sodium_text
 from vetfluid.errors import InputError
 from vetfluid.formatting import entered_number, format_number
 from vetfluid.formatting import format_quantity as q
+from vetfluid.hydration import RETIRED_FINDINGS, load_findings
 from vetfluid.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time, route_text, sites_text
@@ -284,13 +285,27 @@ FLAG_WORDS = (
 )
 
 
+def finding_words(finding_id: str) -> str:
+    """A clinical finding as the findings table words it ("Mucous membranes possibly dry",
+    ``hydration.load_findings``); one an earlier vetfluid split, as it read then
+    (``hydration.RETIRED_FINDINGS``); one this vetfluid does not know, said to be unknown
+    (a plan file from elsewhere still prints)."""
+    known = load_findings().get(finding_id)
+    if known is not None:
+        return known.label
+    if finding_id in RETIRED_FINDINGS:
+        return RETIRED_FINDINGS[finding_id][0]
+    return f"a finding this vetfluid does not know (“{finding_id}”)"
+
+
 def _dehydration_input(data: dict, request: dict) -> str:
-    """The dehydration %, and whether it was entered or is an unconfirmed estimate."""
+    """The dehydration %, and whether it was entered or is an unconfirmed estimate; the
+    findings in words (their ids are for files)."""
     percent = data["dehydration_percent"]
     estimate = data.get("dehydration_estimate")
     band = (
         f"{estimate['percent_low']:g}–{estimate['percent_high']:g} % from findings "
-        f"({', '.join(estimate['findings'])})"
+        f"({'; '.join(finding_words(str(f)) for f in estimate['findings'])})"
         if estimate
         else ""
     )
