@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from vetfluid.course import bolus_input, course
+from vetfluid.course import course, infused_input
 from vetfluid.electrolytes import sodium_change_per_litre
 from vetfluid.errors import InputError
 from vetfluid.fluids import composition, fluid
@@ -31,7 +31,7 @@ def dog_no_excretion():
 def effect(plan, fluid_id, ml_per_kg, minutes, hour):
     """What an extra bolus adds to each compartment at ``hour``, as fractions of its volume."""
     base = course(plan, horizon_h=6)
-    extra = bolus_input(fluid_id=fluid_id, ml_per_kg=ml_per_kg, weight_kg=20, minutes=minutes)
+    extra = infused_input(fluid_id=fluid_id, ml_per_kg=ml_per_kg, weight_kg=20, minutes=minutes)
     with_bolus = course(plan, horizon_h=6, extra_boluses=(extra,))
     i = int(round(hour * 60))
     volume = ml_per_kg * 20
@@ -127,7 +127,7 @@ def test_sodium_step_by_step_equals_adrogue_madias_for_one_litre(dog_no_excretio
     # Adrogué & Madias 2000: ΔNa = (Na_inf + K_inf − Na) / (TBW + 1) for one litre. The
     # course model's losses leave at the starting Na, so over a short 1 L infusion the
     # step-by-step Na equals the closed form on the TBW left after those losses.
-    extra = bolus_input(fluid_id="nacl_0_45", ml_per_kg=50, weight_kg=20, minutes=10)
+    extra = infused_input(fluid_id="nacl_0_45", ml_per_kg=50, weight_kg=20, minutes=10)
     dog = dog_no_excretion  # the formula knows no urine
     c = course(dog, horizon_h=1, extra_boluses=(extra,))
     i = 10  # minutes: end of the litre
@@ -187,14 +187,14 @@ def test_renal_elimination_is_left_out_where_it_cannot_be_trusted(request_change
 
     weight = load_table().value(species, "body_weight_kg").number
     plan = build_plan(PlanRequest(species_id=species, weight_kg=weight, **request_changes))
-    c = course(plan, horizon_h=2, extra_boluses=(
-        bolus_input(fluid_id="nacl_0_9", ml_per_kg=20, weight_kg=weight, minutes=15),))  # fmt: skip
+    saline = infused_input(fluid_id="nacl_0_9", ml_per_kg=20, weight_kg=weight, minutes=15)
+    c = course(plan, horizon_h=2, extra_boluses=(saline,))
     assert c.elimination_left_out == reason
     assert (c.eliminated_ml[-1] > 0) == (reason is None)
 
 
 def test_volume_given_is_kept_by_fluid_and_adds_up(dog):
-    extra = bolus_input(fluid_id="hes_130_0_4_6", ml_per_kg=5, weight_kg=20, minutes=15)
+    extra = infused_input(fluid_id="hes_130_0_4_6", ml_per_kg=5, weight_kg=20, minutes=15)
     c = course(dog, horizon_h=2, extra_boluses=(extra,))
     by_fluid = c.given_by_fluid_ml
     assert set(by_fluid) == {dog.bag.name, fluid("hes_130_0_4_6").name}
@@ -255,7 +255,7 @@ def test_pcv_and_total_solids_follow_the_plasma_dilution(dog_no_excretion):
     from dataclasses import replace
 
     plan = build_plan(replace(dog_no_excretion.request, pcv_percent=45, total_solids_g_per_dl=6))
-    extra = bolus_input(fluid_id="lactated_ringers", ml_per_kg=20, weight_kg=20, minutes=15)
+    extra = infused_input(fluid_id="lactated_ringers", ml_per_kg=20, weight_kg=20, minutes=15)
     c = course(plan, horizon_h=3, extra_boluses=(extra,))
     end, later = 15, 120
     assert c.pcv_percent[0] == pytest.approx(45) and c.total_solids_g_per_dl[0] == pytest.approx(6)

@@ -167,20 +167,36 @@ def _phase_inputs(phase: Phase, common: dict) -> list[_Input]:
     return [_Input(h, h, phase.dose_ml or 0.0, **common) for h in phase.dose_hours()]
 
 
+def infused_input(
+    *, fluid_id: str, ml_per_kg: float, weight_kg: float, minutes: float, start_h: float = 0.0
+) -> _Input:
+    """Any library fluid run into the plasma over ``minutes``, with no judgement of whether
+    it should be (the model's physics: how 5% dextrose spreads, how 0.45% NaCl moves Na).
+    What a user asks for goes through :func:`bolus_input`."""
+    require_number(ml_per_kg, "bolus_ml_per_kg", positive=True, high=100, unit="mL/kg")
+    require_number(minutes, "bolus_minutes", positive=True, high=24 * 60, unit="min")
+    return _Input(
+        start_h,
+        start_h + minutes / 60.0,
+        ml_per_kg * weight_kg,
+        **_fluid_terms(fluids.fluid(fluid_id), into_plasma=True),
+    )
+
+
 def bolus_input(
     *, fluid_id: str, ml_per_kg: float, weight_kg: float, minutes: float, start_h: float = 0.0
 ) -> _Input:
     """An extra IV bolus of a resuscitation fluid (e.g. 4 mL/kg of 7.2% NaCl over 5 min):
     a fluid without the resuscitation role (fluid_roles.csv: a concentrate, free water) is
     refused, and one with a dose of its own is held to it and to its shortest time."""
-    require_number(ml_per_kg, "bolus_ml_per_kg", positive=True, high=100, unit="mL/kg")
-    require_number(minutes, "bolus_minutes", positive=True, high=24 * 60, unit="min")
     fluid = fluids.fluid(fluid_id)
     roles = fluid_roles.roles(fluid_id)
     if not roles.resuscitation:
         raise InputError(
             f"{fluid.name} is not given as a bolus", field="bolus_fluid", value=fluid_id,
-            fix="choose a resuscitation fluid: " + ", ".join(fluid_roles.resuscitation_fluids()),
+            fix="choose a resuscitation fluid: " + ", ".join(
+                f"{f} ({fluids.fluid(f).name})" for f in fluid_roles.resuscitation_fluids()
+            ),
         )  # fmt: skip
     if roles.bolus_max_ml_per_kg is not None and ml_per_kg > roles.bolus_max_ml_per_kg:
         raise InputError(
@@ -192,12 +208,10 @@ def bolus_input(
             f"{fluid.name} runs over at least {roles.bolus_min_minutes:g} min",
             field="bolus_minutes", value=minutes, fix="give it more slowly",
         )  # fmt: skip
-    return _Input(
-        start_h,
-        start_h + minutes / 60.0,
-        ml_per_kg * weight_kg,
-        **_fluid_terms(fluids.fluid(fluid_id), into_plasma=True),
-    )
+    return infused_input(
+        fluid_id=fluid_id, ml_per_kg=ml_per_kg, weight_kg=weight_kg, minutes=minutes,
+        start_h=start_h,
+    )  # fmt: skip
 
 
 def _add_cumulative(total: np.ndarray, hours: np.ndarray, item: _Input, scale: float) -> None:
