@@ -4,9 +4,10 @@ The oracle never asks the plan builder's checks (``vetfluid/safety.py``) what is
 dangerous. From the plan's phases (what runs when, at what rate or dose), the library
 fluid the request names, the additives the phases carry and the species table's values,
 it works out with its own arithmetic what reaches the patient, and lists every bound the
-plan passes (:func:`breaches`). The tests then ask only whether the plan carries a
-finding of the severity each breach needs (:func:`flagged`): a hard finding blocks the
-plan, a soft one must be acknowledged with a written reason.
+plan passes (:func:`breaches`). The tests then ask whether the plan carries one of the
+findings that bound names (:data:`RULES`), at least as severe as the bound needs
+(:func:`answered`): a hard finding blocks the plan, a soft one must be acknowledged with a
+written reason. A finding about something else does not answer a bound, however severe.
 
 What is read from the core, and why that keeps the oracle independent:
 
@@ -92,15 +93,116 @@ KCL_CONCENTRATE = "kcl_2_meq_per_ml"
 DEXTROSE_CONCENTRATE = "dextrose_50"
 # Floating-point slack only: a figure equal to its bound is not past it.
 SLACK = 1e-9
+# The oracle steps Na from turning point to turning point and lets nothing leave; the core
+# follows it every quarter hour with maintenance losses leaving at the starting Na. The two
+# agree to about 1 %: a plan within 2 % of the limit is the models' resolution, not a
+# hazard either could see.
+SODIUM_MODEL_SLACK = 0.02
+DOSE_SETTING_SLACK = 0.05
+# The findings about divided doses and their sites: the site limit below the syringe's
+# smallest mark, more sites than a dose fits or than can be used at all, and the coelom,
+# one space, given more than one injection holds.
+SITE_CODES = (
+    "SITE_BELOW_SMALLEST_MARK",
+    "DIVIDED_TOO_MANY_SITES",
+    "DIVIDED_SITES_IMPOSSIBLE",
+    "ICOEL_DOSE_TOO_LARGE",
+    "ICOEL_MORE_THAN_ONE_INJECTION",
+)
+
+
+@dataclass(frozen=True)
+class Bound:
+    """What answers one bound: the least severity, and the finding codes that say it."""
+
+    needs: str  # "hard" or "soft"
+    codes: tuple[str, ...]
+
+
+# Each bound and the findings of the plan builder that answer it. Only the codes and what
+# each means are taken from vetfluid/safety.py and vetfluid/plan.py; whether a plan passes a
+# bound is the oracle's own arithmetic below. A refused request (InputError, LimitExceeded)
+# answers every bound: no plan exists.
+SODIUM_ANSWERS = ("SODIUM_CHANGE_TOO_FAST", "FLUID_NOT_FOR_RESUSCITATION", "FLUID_DOSE_ABOVE_MAX")
+RULES: dict[str, Bound] = {
+    "weight_unit_slip": Bound("hard", ("WEIGHT_UNIT_SLIP",)),
+    "weight_outside_range": Bound("soft", ("WEIGHT_OUTSIDE_RANGE",)),
+    # the carrier check, or the vein's hard osmolarity ceiling, whose fix (a less
+    # concentrated bag) puts the same thing right
+    "concentrate_as_bag": Bound("hard", ("FLUID_NOT_A_CARRIER", "ROUTE_OSMOLARITY_LIMIT")),
+    "hypertonic_as_bag": Bound("hard", ("FLUID_NOT_A_CARRIER", "ROUTE_OSMOLARITY_LIMIT")),
+    "concentrate_as_bolus": Bound("hard", ("FLUID_NOT_FOR_RESUSCITATION",)),
+    "bolus_leaves_ecf": Bound("hard", ("FLUID_NOT_FOR_RESUSCITATION",)),
+    "hypertonic_bolus_dose": Bound("hard", ("FLUID_DOSE_ABOVE_MAX",)),
+    # no finding says it: the builder runs each bolus over at least the fluid's shortest
+    # time (resuscitation.resuscitation), so a faster one is a fault nothing answers
+    "hypertonic_bolus_fast": Bound("hard", ()),
+    "potassium_rate": Bound("hard", ("POTASSIUM_ABOVE_CEILING",)),
+    "sc_potassium": Bound("hard", ("ROUTE_POTASSIUM_LIMIT",)),
+    "kcl_with_high_serum_k": Bound("hard", ("KCL_WITH_HIGH_SERUM_K",)),
+    # a measured Na, in an hour from the end of the boluses on: the carrier's finding. A
+    # concentrate given as a bolus (FLUID_NOT_FOR_RESUSCITATION, hard), or hypertonic saline
+    # beyond its single dose (FLUID_DOSE_ABOVE_MAX, hard), answers too: the Na those leave
+    # behind is no state to plan from, and the plan is blocked until the boluses are put right.
+    "sodium_change": Bound("soft", SODIUM_ANSWERS),
+    # a measured Na, in an hour that starts while the boluses run: the boluses' finding
+    # (shock first; soft, a reason written)
+    "sodium_change_during_boluses": Bound(
+        "soft", ("SODIUM_BOLUS_CHANGE", "FLUID_NOT_FOR_RESUSCITATION", "FLUID_DOSE_ABOVE_MAX")
+    ),
+    # no Na measured: boluses are left out (see _sodium), so the carrier's finding
+    "sodium_change_assumed_normal": Bound("soft", SODIUM_ANSWERS),
+    "hourly_volume": Bound("hard", ("RATE_ABOVE_SHOCK_DOSE", "VOLUME_PER_HOUR_ABOVE_CEILING")),
+    # the library fluid (FLUID_NOT_FOR_SC), its dextrose, or the bag made too strong by its
+    # additives (the route's osmolarity limit)
+    "not_for_extravascular": Bound(
+        "hard", ("FLUID_NOT_FOR_SC", "ROUTE_DEXTROSE_LIMIT", "ROUTE_OSMOLARITY_LIMIT")
+    ),
+    # the bag (the core's route limits judge the bag as mixed)
+    "peripheral_osmolarity": Bound(
+        "soft", ("ROUTE_OSMOLARITY_LIMIT", "KCL_PERIPHERAL_CONCENTRATION")
+    ),
+    # a resuscitation bolus, given with nothing added: the fluid may not be a bolus at all,
+    # and its fix (an isotonic crystalloid, about 300 mOsm/L) puts the osmolarity right
+    "peripheral_osmolarity_bolus": Bound("soft", ("FLUID_NOT_FOR_RESUSCITATION",)),
+    "site_volume": Bound("soft", SITE_CODES),
+    "dose_volume": Bound("soft", SITE_CODES),
+    "absurd_sites": Bound("hard", ("DIVIDED_SITES_IMPOSSIBLE",)),
+    # no finding says it: the builder refuses divided doses for a species without a site
+    # limit (InputError from the species table), so a built plan without one is a fault
+    "site_limit_unknown": Bound("soft", ()),
+    "colloid_daily": Bound("hard", ("COLLOID_DAILY_LIMIT",)),
+    "anaesthesia_rate": Bound("soft", ("ANAESTHESIA_RATE",)),
+}
+# Blocks that answer every bound. Keep this short: each must make every other figure of the
+# plan meaningless, so that the plan is built again, and checked again, once put right.
+ANSWERS_EVERY_RULE = (
+    # the g/kg slip (hard): every per-kg figure (K, Na, volumes, sites) rests on a weight
+    # far off (a thousandfold for g typed as kg); the plan is blocked until the patient is
+    # re-weighed, and the plan built for the true weight is checked afresh
+    "WEIGHT_UNIT_SLIP",
+)
 
 
 @dataclass(frozen=True, kw_only=True)
 class Breach:
-    """One bound a plan passes: which, the least severity that must flag it, the figures."""
+    """One bound a plan passes: which (a key of :data:`RULES`) and the figures."""
 
     rule: str
-    needs: str  # "hard" or "soft"
     detail: str
+
+    def __post_init__(self) -> None:
+        if self.rule not in RULES:
+            raise KeyError(f"the bound {self.rule!r} is not in RULES: name what answers it")
+
+    @property
+    def needs(self) -> str:
+        return RULES[self.rule].needs
+
+    @property
+    def codes(self) -> tuple[str, ...]:
+        """The findings that answer this bound, the blocks that answer every bound included."""
+        return (*RULES[self.rule].codes, *ANSWERS_EVERY_RULE)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -238,10 +340,11 @@ def peak_rate(flows: list[Piece], per_ml: Callable[[Piece], float]) -> tuple[flo
     return peak, at
 
 
-def flagged(plan: Plan, needs: str) -> bool:
-    """Whether the plan carries a finding at least as severe as ``needs``."""
-    allowed = ("hard",) if needs == "hard" else ("soft", "hard")
-    return any(f.severity in allowed for f in plan.findings)
+def answered(plan: Plan, breach: Breach) -> bool:
+    """Whether the plan carries one of the findings that answer ``breach``, at least as
+    severe as it needs."""
+    allowed = ("hard",) if breach.needs == "hard" else ("soft", "hard")
+    return any(f.code in breach.codes and f.severity in allowed for f in plan.findings)
 
 
 def _range(table: SpeciesTable, species_id: str, parameter: str) -> tuple[float, float]:
@@ -286,6 +389,11 @@ def breaches(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Brea
     return found
 
 
+def unanswered(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breach]:
+    """Every bound the plan passes that none of its findings answers."""
+    return [b for b in breaches(request, plan, table) if not answered(plan, b)]
+
+
 def _weight(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breach]:
     """Beyond the usual adult range: soft; more than 5× beyond it: hard (the g/kg slip),
     except a neonate below it (a newborn weighs a fraction of an adult), which stays soft.
@@ -294,11 +402,11 @@ def _weight(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breac
     w = request.weight_kg
     text = f"{_q(w)} kg against the usual {_q(low)}–{_q(high)} kg"
     if request.neonate and w < low:
-        return [Breach(rule="weight_outside_range", needs="soft", detail=text + " (neonate)")]
+        return [Breach(rule="weight_outside_range", detail=text + " (neonate)")]
     if w > high * WEIGHT_SLIP_FACTOR or w < low / WEIGHT_SLIP_FACTOR:
-        return [Breach(rule="weight_unit_slip", needs="hard", detail=text)]
+        return [Breach(rule="weight_unit_slip", detail=text)]
     if not low <= w <= high:
-        return [Breach(rule="weight_outside_range", needs="soft", detail=text)]
+        return [Breach(rule="weight_outside_range", detail=text)]
     return []
 
 
@@ -317,7 +425,6 @@ def _carrier_fluid(request: PlanRequest, plan: Plan, table: SpeciesTable) -> lis
         found.append(
             Breach(
                 rule="concentrate_as_bag",
-                needs="hard",
                 detail=f"{request.fluid_id} runs as the {carriers[0].kind} bag",
             )
         )
@@ -328,7 +435,6 @@ def _carrier_fluid(request: PlanRequest, plan: Plan, table: SpeciesTable) -> lis
         found.append(
             Breach(
                 rule="hypertonic_as_bag",
-                needs="hard",
                 detail=f"{request.fluid_id} at {_q(ratio)} × plasma runs as the "
                 f"{carriers[0].kind} bag",
             )
@@ -351,7 +457,6 @@ def _bolus_fluid(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[
         found.append(
             Breach(
                 rule="concentrate_as_bolus",
-                needs="hard",
                 detail=f"{fluid_id} given as a resuscitation bolus",
             )
         )
@@ -359,7 +464,6 @@ def _bolus_fluid(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[
         found.append(
             Breach(
                 rule="bolus_leaves_ecf",
-                needs="hard",
                 detail=f"{fluid_id} (effective {_q(ratio)} × plasma) as a resuscitation bolus",
             )
         )
@@ -368,11 +472,12 @@ def _bolus_fluid(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[
         na_given = sum(p.volume_ml for p in boluses) / 1000 * comp.na_mmol_per_l / w
         dose = HYPERTONIC_DOSE_ML_PER_KG.get(request.species_id, HYPERTONIC_DOSE_DEFAULT_ML_PER_KG)
         most = dose * _composition(HYPERTONIC_REFERENCE_FLUID).na_mmol_per_l / 1000
-        if na_given > most * (1 + SLACK):
+        # a drip is set to the figures it is shown with, up to 5 % off below 1 mL/h
+        # (vetfluid.delivery.drip_ml_per_h): the dose "about 4 mL/kg" is held to that
+        if na_given > most * (1 + DOSE_SETTING_SLACK):
             found.append(
                 Breach(
                     rule="hypertonic_bolus_dose",
-                    needs="hard",
                     detail=f"{_q(na_given)} mmol/kg Na as {fluid_id}, above "
                     f"{_q(most)} ({_q(dose)} mL/kg of 7.2 %)",
                 )
@@ -382,7 +487,6 @@ def _bolus_fluid(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[
             found.append(
                 Breach(
                     rule="hypertonic_bolus_fast",
-                    needs="hard",
                     detail=f"{fluid_id} bolus over {_q(fastest)} min",
                 )
             )
@@ -399,7 +503,6 @@ def _potassium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Br
         found.append(
             Breach(
                 rule="potassium_rate",
-                needs="hard",
                 detail=f"{_q(peak)} mmol/kg/h of K from hour {_q(at)}",
             )
         )
@@ -409,7 +512,6 @@ def _potassium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Br
             found.append(
                 Breach(
                     rule="sc_potassium",
-                    needs="hard",
                     detail=f"{_q(k)} mmol/L K given SC ({phase.kind})",
                 )
             )
@@ -420,7 +522,6 @@ def _potassium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Br
         found.append(
             Breach(
                 rule="kcl_with_high_serum_k",
-                needs="hard",
                 detail=f"KCl added at serum K {_q(request.serum_k)}, above the "
                 f"species' {_q(k_high)}",
             )
@@ -438,6 +539,11 @@ def sodium_change(
     return litres * (infusate_na_plus_k - serum_na) / (tbw_l + litres)
 
 
+def _is_hypertonic_saline(request: PlanRequest) -> bool:
+    """Whether the boluses are the hypertonic saline of the library (7.2 % NaCl)."""
+    return (request.bolus_fluid_id or request.fluid_id) == HYPERTONIC_REFERENCE_FLUID
+
+
 def body_water_fraction(table: SpeciesTable, request: PlanRequest) -> float:
     """Total body water as a fraction of weight, from the table: a neonate's where the
     table has one for the species or its group (neonates hold more water, up to 0.8 of
@@ -453,7 +559,9 @@ def _sodium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breac
     turning point of the inflow, on the hour, and an hour before each turning point, so
     the worst hour is among them). The patient's Na is followed window by window with the
     same formula; without a measured Na the species' normal Na is assumed (a separate rule,
-    so a plan for a patient whose Na was never measured is seen apart)."""
+    so a plan for a patient whose Na was never measured is seen apart). Hours that start
+    while the resuscitation boluses run are a rule of their own: a finding about the
+    boluses does not answer the fluids that follow them, nor the other way round."""
     measured = request.serum_na is not None
     na = (
         request.serum_na
@@ -484,18 +592,23 @@ def _sodium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breac
     # resuscitated first and reassessed (Davis 2013), Na measured before the fluids that
     # follow; the replacement and maintenance that follow are held to the limit.
     first_carrier = min(
-        (p.start_h for p in plan.phases if p.kind != "resuscitation"), default=0.0
+        (p.start_h for p in plan.phases if p.kind != "resuscitation"), default=math.inf
     )
-    # the patient's Na at each window start, stepped along the starts
-    worst, worst_at, now = 0.0, 0.0, 0.0
+    # the patient's Na at each window start, stepped along the starts; the worst hour that
+    # starts while the boluses run and the worst that starts after them, apart (each has its
+    # own finding)
+    worst = {True: (0.0, 0.0), False: (0.0, 0.0)}  # during boluses? → (change, start)
+    now = 0.0
     for start in starts:
-        if not measured and start < first_carrier - 1e-9:
+        during_boluses = start < first_carrier - 1e-9
+        if not measured and during_boluses:
             continue
         litres, cations = given(now, start)
         if litres > 0:
             na += sodium_change(
                 serum_na=na, litres=litres, infusate_na_plus_k=cations / litres, tbw_l=tbw
             )
+            tbw += litres  # the water given is body water now (the general form's TBW + V)
         now = start
         litres, cations = given(start, start + 1.0)
         if litres <= 0:
@@ -503,19 +616,24 @@ def _sodium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breac
         change = sodium_change(
             serum_na=na, litres=litres, infusate_na_plus_k=cations / litres, tbw_l=tbw
         )
-        if abs(change) > abs(worst):
-            worst, worst_at = change, start
-    if abs(worst) <= limit * (1 + SLACK):
-        return []
-    rule = "sodium_change" if measured else "sodium_change_assumed_normal"
-    return [
-        Breach(
-            rule=rule,
-            needs="soft",
-            detail=f"serum Na {_q(worst)} mmol/L in the hour from hour {_q(worst_at)} "
-            f"(limit {_q(limit)}; TBW {_q(tbw)} L)",
+        if abs(change) > abs(worst[during_boluses][0]):
+            worst[during_boluses] = (change, start)
+    found = []
+    for during_boluses, (change, start) in worst.items():
+        if abs(change) <= limit * (1 + SODIUM_MODEL_SLACK):
+            continue
+        if during_boluses:
+            rule = "sodium_change_during_boluses"
+        else:
+            rule = "sodium_change" if measured else "sodium_change_assumed_normal"
+        found.append(
+            Breach(
+                rule=rule,
+                detail=f"serum Na {_q(change)} mmol/L in the hour from hour {_q(start)} "
+                f"(limit {_q(limit)}; TBW {_q(tbw)} L)",
+            )
         )
-    ]
+    return found
 
 
 def _hourly_volume(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breach]:
@@ -538,7 +656,6 @@ def _hourly_volume(request: PlanRequest, plan: Plan, table: SpeciesTable) -> lis
         return [
             Breach(
                 rule="hourly_volume",
-                needs="hard",
                 detail=f"{_q(worst)} mL/kg/h ({where}) above one {what} "
                 f"({_q(ceiling)} mL/kg) per hour",
             )
@@ -562,7 +679,6 @@ def _osmolarity_for_route(request: PlanRequest, plan: Plan, table: SpeciesTable)
                     "not_for_extravascular",
                     Breach(
                         rule="not_for_extravascular",
-                        needs="hard",
                         detail=f"{phase.route.upper()} {phase.kind}: "
                         f"{_q(mix.osmolarity_mosm_per_l)} mOsm/L (plasma {_q(plasma)}), "
                         f"dextrose {_q(mix.dextrose_g_per_l)} g/L, "
@@ -572,12 +688,19 @@ def _osmolarity_for_route(request: PlanRequest, plan: Plan, table: SpeciesTable)
         elif (
             phase.route == "iv"
             and mix.osmolarity_mosm_per_l > PERIPHERAL_MAX_OSMOLARITY_MOSM_PER_L * (1 + SLACK)
+            # hypertonic saline's single small dose is given into a peripheral vein
+            # (veterinary fluid-therapy texts; its dose and time are bounds of their own)
+            and not (phase.kind == "resuscitation" and _is_hypertonic_saline(request))
         ):
+            rule = (
+                "peripheral_osmolarity_bolus"
+                if phase.kind == "resuscitation"
+                else "peripheral_osmolarity"
+            )
             found.setdefault(
-                "peripheral_osmolarity",
+                rule,
                 Breach(
-                    rule="peripheral_osmolarity",
-                    needs="soft",
+                    rule=rule,
                     detail=f"IV {phase.kind}: {_q(mix.osmolarity_mosm_per_l)} mOsm/L",
                 ),
             )
@@ -599,16 +722,13 @@ def _sites(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breach
         if sites > MAX_SITES_PER_DOSE:
             found.setdefault(
                 "absurd_sites",
-                Breach(
-                    rule="absurd_sites", needs="hard", detail=f"{sites} sites per {phase.kind} dose"
-                ),
+                Breach(rule="absurd_sites", detail=f"{sites} sites per {phase.kind} dose"),
             )
         if value is None:
             found.setdefault(
                 "site_limit_unknown",
                 Breach(
                     rule="site_limit_unknown",
-                    needs="soft",
                     detail=f"no {parameter} for {request.species_id}",
                 ),
             )
@@ -620,7 +740,6 @@ def _sites(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breach
                 "site_volume",
                 Breach(
                     rule="site_volume",
-                    needs="soft",
                     detail=f"{_q(phase.ml_per_site or 0.0)} mL per site, limit {_q(site_ml)} mL",
                 ),
             )
@@ -630,7 +749,6 @@ def _sites(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breach
                 "dose_volume",
                 Breach(
                     rule="dose_volume",
-                    needs="soft",
                     detail=f"{phase.route.upper()} {phase.kind} dose {_q(dose)} mL in "
                     f"{sites} site(s) of at most {_q(site_ml)} mL",
                 ),
@@ -648,11 +766,7 @@ def _colloid(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Brea
     most = max(sum(f.ml_between(a, a + 24.0) for f in flows) for a in starts)
     per_kg = most / request.weight_kg
     if per_kg > COLLOID_MAX_ML_PER_KG_DAY * (1 + SLACK):
-        return [
-            Breach(
-                rule="colloid_daily", needs="hard", detail=f"{_q(per_kg)} mL/kg of colloid in 24 h"
-            )
-        ]
+        return [Breach(rule="colloid_daily", detail=f"{_q(per_kg)} mL/kg of colloid in 24 h")]
     return []
 
 
@@ -667,7 +781,6 @@ def _anaesthesia(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[
         return [
             Breach(
                 rule="anaesthesia_rate",
-                needs="soft",
                 detail=f"{_q(fastest)} mL/kg/h under anaesthesia from hour {_q(at)}",
             )
         ]

@@ -198,3 +198,29 @@ def test_a_rate_the_pump_rounds_far_from_the_need_is_a_warning():
     plan = plan_for(species_id="zebra_finch", weight_kg=0.004, route="io", device="syringe",
                     neonate=True)  # fmt: skip
     assert severity_of(plan, "RATE_ROUNDED_FAR") == "soft"
+
+
+# ---- found by the oracle naming its answers -------------------------------------------------
+def test_potassium_from_overlapping_sc_doses_is_held_to_the_ceiling():
+    # SC fluid is absorbed over 6–8 h (Vet Clin North Am 2017): doses every 4 h overlap, and
+    # what reaches the rat in the hour from hour 4 is 0.63 mmol/kg/h of K, past Côté 2020's 0.5
+    plan = plan_for(species_id="rat", weight_kg=0.3, dehydration_percent=8, replace_hours=8,
+                    kcl_mmol_per_l=30, route="sc", device="divided")  # fmt: skip
+    assert severity_of(plan, "POTASSIUM_ABOVE_CEILING") == "hard"
+
+
+def test_overlapping_sc_doses_count_under_anaesthesia():
+    plan = plan_for(species_id="mouse", weight_kg=0.03, dehydration_percent=1, replace_hours=4,
+                    route="sc", device="divided", anaesthesia=True)  # fmt: skip
+    assert severity_of(plan, "ANAESTHESIA_RATE") == "soft"
+
+
+def test_an_sc_bag_made_hypertonic_by_its_additives_is_blocked():
+    # lactated Ringer's + 80 mmol/L KCl is about 416 mOsm/L: beyond the 0.9 % NaCl + 35 mEq/L
+    # KCl (about 378 mOsm/L) usually given under the skin (DiBartola 2012, recalled)
+    plan = plan_for(species_id="cat", weight_kg=4, dehydration_percent=5, route="sc",
+                    device="divided", kcl_mmol_per_l=80)  # fmt: skip
+    assert severity_of(plan, "ROUTE_OSMOLARITY_LIMIT") == "hard"
+    usual = plan_for(species_id="cat", weight_kg=4, dehydration_percent=5, route="sc",
+                     device="divided", fluid_id="nacl_0_9", kcl_mmol_per_l=35)  # fmt: skip
+    assert severity_of(usual, "ROUTE_OSMOLARITY_LIMIT") is None

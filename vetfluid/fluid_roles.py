@@ -36,7 +36,12 @@ ROLE_COLUMNS = (
     "source_id", "basis", "note",
 )  # fmt: skip
 ROUTE_LIMIT_COLUMNS = ("route", "limit", "value", "unit", "severity", "source_id", "basis", "note")
-ROUTE_LIMIT_KINDS = ("max_osmolarity_mosm_per_l", "max_k_mmol_per_l", "max_dextrose_g_per_l")
+ROUTE_LIMIT_KINDS = (
+    "max_osmolarity_mosm_per_l",  # in mOsm/L
+    "max_osmolarity_ratio_to_plasma",  # × the patient's species' plasma osmolality
+    "max_k_mmol_per_l",
+    "max_dextrose_g_per_l",
+)
 _YES_NO = {"yes": True, "no": False}
 
 

@@ -669,7 +669,9 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         ledger, route=route, fluid_name=bag.name, tonicity=tone,
         dextrose_g_per_l=bag_comp.dextrose_g_per_l, colloid=bag.colloid is not None,
     )  # fmt: skip
-    safety.check_route_limits(ledger, route=route, bag=bag, composition=bag_comp)
+    safety.check_route_limits(
+        ledger, route=route, bag=bag, composition=bag_comp, plasma_mosm_per_kg=plasma.number
+    )
     safety.check_reptile_dextrose(ledger, request.dextrose_percent)
 
     bolus_phases, res = _resuscitation_phases(ledger, request, route=route, drop_factor=drop_factor)

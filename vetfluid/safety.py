@@ -178,13 +178,23 @@ def check_bolus_fluid(
 
 
 def check_route_limits(
-    ledger: Ledger, *, route: str, bag: fluids.Fluid, composition: fluids.Composition
+    ledger: Ledger,
+    *,
+    route: str,
+    bag: fluids.Fluid,
+    composition: fluids.Composition,
+    plasma_mosm_per_kg: float,
 ) -> None:
     """What the bag may hold for its route (route_limits.csv): osmolarity for a peripheral
     vein or the marrow, potassium and dextrose under the skin or into the coelom. The
     first limit passed of each kind is reported (hard ones are checked first)."""
     measured = {
         "max_osmolarity_mosm_per_l": (composition.osmolarity_mosm_per_l, "mOsm/L", "osmolarity"),
+        "max_osmolarity_ratio_to_plasma": (
+            composition.osmolarity_mosm_per_l / plasma_mosm_per_kg,
+            "× plasma",
+            "osmolarity",
+        ),
         "max_k_mmol_per_l": (composition.k_mmol_per_l, "mmol/L", "potassium"),
         "max_dextrose_g_per_l": (composition.dextrose_hydrous_g_per_l, "g/L", "dextrose"),
     }
@@ -200,13 +210,21 @@ def check_route_limits(
             "max_k_mmol_per_l": "Add less potassium, or give it IV where the rate can be set.",
             "max_dextrose_g_per_l": "Give dextrose IV or IO only; use a crystalloid without "
             "dextrose here.",
+            "max_osmolarity_ratio_to_plasma": "Add less to the bag, or give it IV or IO.",
         }[rule.limit]
+        if unit == "× plasma":
+            held = (
+                f"{q(composition.osmolarity_mosm_per_l, 'mOsm/L')} ({value:.2f} × this "
+                "species' plasma osmolality)"
+            )
+            most = f"{rule.value:g} × plasma"
+        else:
+            held, most = f"{q(value, unit)} {what}", q(rule.value, unit)
         ledger.add(
             rule.severity,
             f"ROUTE_{what.upper()}_LIMIT",
-            f"The bag ({bag.name}) holds {q(value, unit)} {what}, above the "
-            f"{q(rule.value, unit)} a fluid given {_ROUTE_WORDS.get(route, route)} may "
-            f"hold{unverified}.",
+            f"The bag ({bag.name}) holds {held}, above the {most} a fluid given "
+            f"{_ROUTE_WORDS.get(route, route)} may hold{unverified}.",
             fix,
             rule.source_id,
         )
@@ -668,24 +686,60 @@ def check_potassium_delivery(
     ceiling = limit("potassium_max_mmol_per_kg_h")
     if any(f.code == "POTASSIUM_ABOVE_CEILING" for f in ledger.findings):
         return  # the potassium summary said so already, with its safe rate
-    for phase in phases:
-        k = bolus_k if phase.kind == "resuscitation" else bag_k
-        rate = phase.rate_ml_per_h if phase.mode == "continuous" else None
-        if not rate or k <= 0:
+    mmol_per_h, start = peak_uptake_rate(
+        phases, per_ml=lambda p: (bolus_k if p.kind == "resuscitation" else bag_k) / 1000.0
+    )
+    per_kg_h = mmol_per_h / weight_kg
+    if per_kg_h > ceiling.value * (1 + 1e-9):
+        k = max(bag_k, bolus_k)
+        ledger.add(
+            "hard",
+            "POTASSIUM_ABOVE_CEILING",
+            f"The plan would give potassium at {q(per_kg_h, 'mmol/kg/h')} from hour "
+            f"{start:g}, above the {q(ceiling.value, 'mmol/kg/h')} ceiling"
+            + (
+                " (divided doses still being absorbed overlap)."
+                if any(p.mode == "intermittent" for p in phases)
+                else "."
+            ),
+            f"Keep what reaches the patient to at most "
+            f"{q(ceiling.value * weight_kg * 1000.0 / k, 'mL/h')} of this bag, or use a fluid "
+            "with less potassium.",
+            ceiling.source_id,
+        )
+
+
+def peak_uptake_rate(
+    phases: tuple[Phase, ...], *, per_ml: Callable[[Phase], float]
+) -> tuple[float, float]:
+    """The fastest rate at which something (``per_ml`` of it in each mL of a phase's
+    fluid) reaches the circulation, per hour, and when: a line's fluid at its rate, a
+    divided dose taken up evenly over the SC absorption time (Vet Clin North Am 2017), so
+    doses that overlap add up. The rate is constant between the moments where a phase or
+    an absorption starts or ends, so it is read once between each pair of them."""
+    moments = set(_turning_points(phases))
+    moments |= {h + delivery.SC_ABSORPTION_H for p in phases for h in p.dose_hours()}
+    edges = sorted(moments)
+    best, when = 0.0, 0.0
+    for a, b in zip(edges, edges[1:], strict=False):
+        if b - a < 1e-9:
             continue
-        per_kg_h = k * rate / 1000.0 / weight_kg
-        if per_kg_h > ceiling.value * (1 + 1e-9):
-            ledger.add(
-                "hard",
-                "POTASSIUM_ABOVE_CEILING",
-                f"The {phase.kind} phase would give potassium at "
-                f"{q(per_kg_h, 'mmol/kg/h')}, above the {q(ceiling.value, 'mmol/kg/h')} "
-                "ceiling.",
-                f"Lower the rate to at most {q(ceiling.value * weight_kg * 1000.0 / k, 'mL/h')} "
-                "or use a fluid with less potassium.",
-                ceiling.source_id,
-            )
-            return
+        mid = (a + b) / 2.0
+        rate = 0.0
+        for phase in phases:
+            if phase.mode == "continuous":
+                running = phase.start_h <= mid < phase.end_h
+                rate += per_ml(phase) * (phase.rate_ml_per_h or 0.0) * running
+            else:
+                taking_up = sum(
+                    1 for h in phase.dose_hours() if h <= mid < h + delivery.SC_ABSORPTION_H
+                )
+                rate += (
+                    per_ml(phase) * (phase.dose_ml or 0.0) / delivery.SC_ABSORPTION_H * taking_up
+                )
+        if rate > best:
+            best, when = rate, a
+    return best, when
 
 
 def check_sodium(
@@ -994,16 +1048,18 @@ def check_anaesthesia(ledger: Ledger, phases: tuple[Phase, ...], weight_kg: floa
     an ins-and-outs period later in the plan as much as the first."""
     ceiling = limit("anaesthesia_max_ml_per_kg_h")
     start = ledger.get("anaesthesia_rate_ml_per_kg_h")
-    carried = [p for p in phases if p.kind != "resuscitation"]
-    fastest = max(carried, key=lambda p: p.average_ml_per_h)
-    if fastest.average_ml_per_h > ceiling.value * weight_kg:
+    # what reaches the circulation: divided doses as absorbed, overlapping ones added
+    most, hour = peak_uptake_rate(
+        phases, per_ml=lambda p: 0.0 if p.kind == "resuscitation" else 1.0
+    )
+    if most > ceiling.value * weight_kg * (1 + 1e-9):
         begin = q(start.number, "mL/kg/h") if start else "a lower rate"
         ledger.add(
             "soft",
             "ANAESTHESIA_RATE",
-            f"{q(fastest.average_ml_per_h, 'mL/h')} ({fastest.kind}, from hour "
-            f"{fastest.start_h:g}) is above {q(ceiling.value, 'mL/kg/h')} "
-            f"({q(ceiling.value * weight_kg, 'mL/h')}) for an anaesthetised patient.",
+            f"{q(most, 'mL/h')} from hour {hour:g} is above "
+            f"{q(ceiling.value, 'mL/kg/h')} ({q(ceiling.value * weight_kg, 'mL/h')}) for an "
+            "anaesthetised patient.",
             f"Start at {begin} and reduce by 25% per hour as tolerated.",
             ceiling.source_id,
         )
