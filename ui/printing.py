@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 from PySide6.QtCore import QRectF, QSizeF, Qt
 from PySide6.QtGui import QPainter, QTextDocument
 
 from vetfluid.cautions import SHORT_CAUTION
+from vetfluid.paths import owner_only_file
 
 FOOTER_LINES = 2
 
@@ -83,6 +86,7 @@ def print_sheet_to_pdf(html: str, path, *, page: str = "a4", mark: str = "") -> 
         raise ValueError(f"page must be one of {', '.join(PAGE_SIZES)}")
     printer = QPrinter(QPrinter.PrinterMode.HighResolution)
     printer.setOutputFormat(QPrinter.OutputFormat.PdfFormat)
+    owner_only_file(Path(path))  # a patient's sheet: owner-only before Qt writes into it
     printer.setOutputFileName(str(path))
     size = QPageSize.PageSizeId.A4 if page == "a4" else QPageSize.PageSizeId.Letter
     printer.setPageSize(QPageSize(size))

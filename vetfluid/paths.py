@@ -66,3 +66,22 @@ def user_data_dir() -> Path:
         path = user_data_path("vetfluid", appauthor=False)
     path.mkdir(mode=0o700, parents=True, exist_ok=True)
     return path
+
+
+def owner_only_file(path: Path) -> Path:
+    """Make ``path`` exist as a file only its owner can read and write (0600), before any
+    patient data goes in: a new file is created so, an existing one narrowed. Whatever then
+    writes into it (Python, or Qt's PDF writer, which keeps an existing file's mode) keeps
+    patient data private from the first byte (issue 17: 0600 files, 0700 folders)."""
+    descriptor = os.open(path, os.O_WRONLY | os.O_CREAT, 0o600)
+    os.close(descriptor)
+    if os.name == "posix":
+        os.chmod(path, 0o600)
+    return path
+
+
+def write_owner_only_text(path: Path, text: str) -> None:
+    """Write text into ``path`` as an owner-only file (see :func:`owner_only_file`)."""
+    owner_only_file(path)
+    with open(path, "w", encoding="utf-8") as handle:
+        handle.write(text)
