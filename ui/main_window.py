@@ -31,7 +31,7 @@ from PySide6.QtWidgets import (
 from ui.icons import icon
 from vetfluid.cautions import SHORT_CAUTION
 from vetfluid.errors import VetfluidError
-from vetfluid.paths import user_data_dir
+from vetfluid.paths import user_data_dir, write_owner_only_text
 
 if TYPE_CHECKING:
     from PySide6.QtGui import QCloseEvent
@@ -1151,7 +1151,7 @@ class MainWindow(QMainWindow):
             else observations_csv(self.session.observations, self.session.plan.start_moment)
         )
         try:
-            path.write_text(text, encoding="utf-8")
+            write_owner_only_text(path, text)  # patient data: owner-only from the first byte
         except OSError as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not write {path.name}:\n{exc}")
             return False
