@@ -98,6 +98,8 @@ SLACK = 1e-9
 # agree to about 1 %: a plan within 2 % of the limit is the models' resolution, not a
 # hazard either could see.
 SODIUM_MODEL_SLACK = 0.02
+RANGE_SLACK_MMOL_PER_L = 0.2
+OVERLAP_RESOLUTION_H = 1.0 / 3600.0  # likewise for where Na ends up against its reference interval
 DOSE_SETTING_SLACK = 0.05
 # The findings about divided doses and their sites: the site limit below the syringe's
 # smallest mark, more sites than a dose fits or than can be used at all, and the coelom,
@@ -331,10 +333,16 @@ def pieces(request: PlanRequest, plan: Plan) -> list[Piece]:
 
 def peak_rate(flows: list[Piece], per_ml: Callable[[Piece], float]) -> tuple[float, float]:
     """The highest running total of ``ml_per_h × per_ml(piece)`` over pieces running at once,
-    and when it starts (totals change only where a piece starts)."""
+    and when it starts (totals change only where a piece starts). Pieces that overlap by
+    less than a second (a dose interval of 5.9999999999999964 h, 12 h / 2 in floating point)
+    are not running together: no rate is sustained over no time."""
     peak, at = 0.0, 0.0
     for moment in sorted({f.start_h for f in flows}):
-        running = sum(f.ml_per_h * per_ml(f) for f in flows if f.start_h <= moment < f.end_h)
+        running = sum(
+            f.ml_per_h * per_ml(f)
+            for f in flows
+            if f.start_h <= moment < f.end_h - OVERLAP_RESOLUTION_H
+        )
         if running > peak:
             peak, at = running, moment
     return peak, at
@@ -598,6 +606,7 @@ def _sodium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breac
     # starts while the boluses run and the worst that starts after them, apart (each has its
     # own finding)
     worst = {True: (0.0, 0.0), False: (0.0, 0.0)}  # during boluses? → (change, start)
+    lowest = highest = na  # where Na goes anywhere along the plan
     now = 0.0
     for start in starts:
         during_boluses = start < first_carrier - 1e-9
@@ -609,6 +618,7 @@ def _sodium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breac
                 serum_na=na, litres=litres, infusate_na_plus_k=cations / litres, tbw_l=tbw
             )
             tbw += litres  # the water given is body water now (the general form's TBW + V)
+            lowest, highest = min(lowest, na), max(highest, na)
         now = start
         litres, cations = given(start, start + 1.0)
         if litres <= 0:
@@ -616,8 +626,17 @@ def _sodium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breac
         change = sodium_change(
             serum_na=na, litres=litres, infusate_na_plus_k=cations / litres, tbw_l=tbw
         )
+        lowest, highest = min(lowest, na + change), max(highest, na + change)
         if abs(change) > abs(worst[during_boluses][0]):
             worst[during_boluses] = (change, start)
+    # The correction limit guards a brain adapted to an abnormal Na (Adrogué & Madias 2000):
+    # a plan that keeps Na inside the species' reference interval corrects nothing, so the
+    # bound applies only when Na leaves it (by more than the two models' resolution).
+    normal = table.value(request.species_id, "serum_na_mmol_per_l")
+    low = normal.low if normal.low is not None else normal.number
+    high = normal.high if normal.high is not None else normal.number
+    if lowest >= low - RANGE_SLACK_MMOL_PER_L and highest <= high + RANGE_SLACK_MMOL_PER_L:
+        return []
     found = []
     for during_boluses, (change, start) in worst.items():
         if abs(change) <= limit * (1 + SODIUM_MODEL_SLACK):

@@ -209,15 +209,19 @@ def test_an_absurd_divided_volume_for_a_mouse_is_blocked():
 
 # ---- neonates (issue 16, item 11) -------------------------------------------------------
 def test_a_neonate_puppy_uses_neonatal_body_water_in_the_sodium_check():
-    # Odunayo 2018: TBW 60 % of body weight in adults, up to 80 % in neonates.
-    adult = plan_for(species_id="dog", weight_kg=20, serum_na=165, fluid_id="nacl_0_45")
-    pup = plan_for(species_id="dog", weight_kg=20, serum_na=165, fluid_id="nacl_0_45",
+    # Odunayo 2018: TBW 60 % of body weight in adults, up to 80 % in neonates. A 0.5 kg
+    # puppy is below the adult range; a 20 kg "neonate" is not, and keeps adult water (a
+    # flag left ticked must not make sodium changes look smaller).
+    pup = plan_for(species_id="dog", weight_kg=0.5, serum_na=165, fluid_id="nacl_0_45",
                    neonate=True)  # fmt: skip
-    assert adult.sodium.tbw_l == pytest.approx(12)
-    assert pup.sodium.tbw_l == pytest.approx(16)
-    assert course(pup).intracellular_ml[0] + course(pup).interstitial_ml[0] + course(
-        pup
-    ).plasma_ml[0] == pytest.approx(16000)
+    assert pup.sodium.tbw_l == pytest.approx(0.4)
+    modelled = course(pup)
+    body_water = modelled.intracellular_ml[0] + modelled.interstitial_ml[0] + modelled.plasma_ml[0]
+    assert body_water == pytest.approx(400)
+    grown = plan_for(species_id="dog", weight_kg=20, serum_na=165, fluid_id="nacl_0_45",
+                     neonate=True)  # fmt: skip
+    assert grown.sodium.tbw_l == pytest.approx(12)
+    assert severities(grown)["NEONATE_AT_ADULT_WEIGHT"] == "soft"
 
 
 def test_a_neonate_of_a_taxon_without_a_neonatal_value_is_told_the_adult_value_is_used():

@@ -224,3 +224,62 @@ def test_an_sc_bag_made_hypertonic_by_its_additives_is_blocked():
     usual = plan_for(species_id="cat", weight_kg=4, dehydration_percent=5, route="sc",
                      device="divided", fluid_id="nacl_0_9", kcl_mmol_per_l=35)  # fmt: skip
     assert severity_of(usual, "ROUTE_OSMOLARITY_LIMIT") is None
+
+
+# ---- found by the second adversarial review ----------------------------------------------
+def test_a_typed_sodium_limit_never_lifts_the_block():
+    # 5% dextrose for a cat at 175 over 6 h moves Na about 4.5 mmol/L/h: blocked at twice
+    # the shipped 0.5 (Adrogué & Madias 2000) whatever limit is typed
+    plan = plan_for(species_id="cat", weight_kg=4, dehydration_percent=8, serum_na=175,
+                    fluid_id="dextrose_5", replace_hours=6, max_na_change_per_h=5)  # fmt: skip
+    assert severity_of(plan, "SODIUM_CHANGE_TOO_FAST") == "hard"
+    assert severity_of(plan, "SODIUM_LIMIT_RAISED") == "soft"
+
+
+def test_sodium_moving_within_the_reference_interval_is_not_a_correction():
+    # A cat's Na stays within 147–162 on lactated Ringer's over 6 h: no sodium finding
+    plan = plan_for(species_id="cat", weight_kg=4, dehydration_percent=10, replace_hours=6)
+    assert severity_of(plan, "SODIUM_CHANGE_TOO_FAST") is None
+    assert severity_of(plan, "SODIUM_BOLUS_CHANGE") is None
+
+
+def test_hypertonic_saline_for_a_hypernatraemic_patient_is_blocked():
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=8, serum_na=165,
+                    resuscitation_boluses=1, bolus_fluid_id="nacl_7_2")  # fmt: skip
+    assert severity_of(plan, "HYPERTONIC_SALINE_IN_HYPERNATRAEMIA") == "hard"
+
+
+def test_a_neonate_flag_on_an_adult_weight_keeps_adult_body_water_and_the_block():
+    request = dict(species_id="dog", weight_kg=30, dehydration_percent=10,
+                   fluid_id="nacl_0_9", serum_na=118, replace_hours=5)  # fmt: skip
+    adult = plan_for(**request)
+    flagged = plan_for(neonate=True, **request)
+    assert severity_of(adult, "SODIUM_CHANGE_TOO_FAST") == "hard"
+    assert severity_of(flagged, "SODIUM_CHANGE_TOO_FAST") == "hard"
+    assert severity_of(flagged, "NEONATE_AT_ADULT_WEIGHT") == "soft"
+
+
+def test_intracoelomic_doses_are_scheduled_to_fit_one_injection():
+    # The coelom is one cavity: a chelonian at maintenance gets doses that fit one injection
+    # (5–20 mL/kg, recalled) rather than "punctures"
+    plan = plan_for(species_id="hermanns_tortoise", weight_kg=0.8, body_temp_c=28)
+    assert all(p.sites_per_dose == 1 for p in plan.phases if p.mode == "intermittent")
+    assert severity_of(plan, "ICOEL_MORE_THAN_ONE_INJECTION") is None
+
+
+def test_divided_doses_are_never_closer_than_their_interval():
+    # SC fluid is absorbed over 6–8 h (Vet Clin North Am 2017); 20 h is not a whole number
+    # of 6 h intervals, so the doses are spread a little wider, never closer
+    plan = plan_for(species_id="rabbit", weight_kg=2.5, dehydration_percent=5, route="sc",
+                    device="divided", replace_hours=20)  # fmt: skip
+    assert all(p.interval_h >= 6 for p in plan.phases if p.mode == "intermittent")
+    assert severity_of(plan, "DOSES_CLOSER_THAN_ABSORPTION") is None
+
+
+def test_the_serum_k_scale_stops_at_what_the_route_takes():
+    # Côté 2020 scale: K 2.8 → 40 mmol/L KCl; SC fluid at most 35 mmol/L K (DiBartola 2012)
+    plan = plan_for(species_id="cat", weight_kg=4, dehydration_percent=6, route="sc",
+                    device="divided", serum_k=2.8)  # fmt: skip
+    assert plan.potassium.bag_k_mmol_per_l == pytest.approx(35, abs=0.01)
+    assert severity_of(plan, "ROUTE_POTASSIUM_LIMIT") is None
+    assert severity_of(plan, "KCL_HELD_TO_ROUTE") == "info"

@@ -374,7 +374,9 @@ def course(
     )  # fmt: skip
     sid, w = plan.request.species_id, plan.request.weight_kg
     values = {
-        "total_body_water_fraction": body_water_fraction(table, sid, neonate=plan.request.neonate),
+        "total_body_water_fraction": body_water_fraction(
+            table, sid, neonate=plan.request.neonate, weight_kg=w
+        ),
     } | {
         name: table.value(sid, name)
         for name in (

@@ -172,9 +172,12 @@ class DividedBoluses:
 def divided_boluses(
     *, need_ml_per_h: float, per_site_limit_ml: float, route: str
 ) -> DividedBoluses:
-    """Split an hourly need into doses: the longest interval whose dose fits few enough sites."""
+    """Split an hourly need into doses: the longest interval whose dose fits few enough sites
+    — under the skin up to :data:`MAX_SITES_PER_DOSE`, into the coelom one injection (one
+    cavity: more punctures do not make room)."""
     need = _rate(need_ml_per_h)
     require_number(per_site_limit_ml, "per_site_limit_ml", positive=True, unit="mL")
+    most_sites = 1 if route == "icoel" else MAX_SITES_PER_DOSE
     for interval in DIVIDED_INTERVALS_H:
         dose = need * interval
         sites = max(1, math.ceil(round(dose / per_site_limit_ml, 9)))
@@ -186,7 +189,7 @@ def divided_boluses(
             sites_per_dose=sites,
             ml_per_site=dose / sites,
             per_site_limit_ml=per_site_limit_ml,
-            fits=sites <= MAX_SITES_PER_DOSE,
+            fits=sites <= most_sites,
         )
         if schedule.fits:
             break

@@ -267,6 +267,8 @@ class SodiumCourse:
     bolus_hour: float
     plan_change: float  # Na when the plan ends minus Na at its start
     boluses_change: float  # Na when the boluses end minus Na at the start
+    lowest: float  # the lowest and highest Na anywhere along the plan
+    highest: float
 
 
 def sodium_course(
@@ -284,6 +286,8 @@ def sodium_course(
         carrier_hour=carrier_h, bolus_change_per_h=bolus, bolus_hour=bolus_h,
         plan_change=float(path[-1] - path[0]),
         boluses_change=float(np.interp(boluses_end_h, hours, path) - path[0]),
+        lowest=float(path.min()),
+        highest=float(path.max()),
     )  # fmt: skip
 
 

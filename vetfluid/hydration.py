@@ -196,12 +196,18 @@ def euhydrated_weight_kg(*, weight_kg: float, deficit_ml: float) -> float:
     return weight_kg + deficit_ml / 1000.0
 
 
-def body_water_fraction(table: SpeciesTable, species_id: str, *, neonate: bool) -> SpeciesValue:
+def body_water_fraction(
+    table: SpeciesTable, species_id: str, *, neonate: bool, weight_kg: float
+) -> SpeciesValue:
     """Total body water as a fraction of body weight: the adults' value, or for a neonate
     the neonatal value where the species or its group has one (dogs and cats: up to 0.8 of
     body weight against 0.6 in adults, Odunayo 2018). Neonates of other taxa keep the
-    adult value; the plan says so."""
-    if neonate:
+    adult value; the plan says so. A "neonate" already within the adults' weight range
+    keeps the adult value too: more body water would make every sodium change look
+    smaller, and a flag left ticked must never soften a limit."""
+    adult_low = table.value(species_id, "body_weight_kg")
+    grown = weight_kg >= (adult_low.low if adult_low.low is not None else adult_low.number)
+    if neonate and not grown:
         young = table.get(species_id, "neonate_total_body_water_fraction")
         if young is not None:
             return young

@@ -105,6 +105,7 @@ class PlanRequest:
                 field="measured_outputs", fix="give the ins-and-outs period too",
             )  # fmt: skip
         _check_measured(self.measured_outputs)
+        _check_ins_and_outs_size(self.ins_and_outs_period_h, self.measured_outputs)
         if self.start_date is not None and self.start_time is None:
             raise InputError(
                 "a start date needs a start time", field="start_time", value=None,
@@ -139,7 +140,7 @@ class PlanRequest:
             ("serum_k", 0.5, 12, "mmol/L"),
             ("urine_osmolality", 20, 12000, "mOsm/kg"),
             ("kcl_mmol_per_l", 0, 200, "mmol/L"),
-            ("max_na_change_per_h", 0.05, 5, "mmol/L/h"),
+            ("max_na_change_per_h", *MAX_NA_CHANGE_RANGE_MMOL_PER_L_H, "mmol/L/h"),
             ("body_temp_c", -5, 50, "°C"),
             ("pcv_percent", 3, 90, "%"),
             ("total_solids_g_per_dl", 1, 15, "g/dL"),
@@ -183,6 +184,42 @@ def consumed_ml(outflow: tuple[tuple[float, float], ...], end_h: float, hours): 
         # minimum(maximum()) rather than clip: the same, without clip's per-call overhead
         total = total + rate * np.minimum(np.maximum(t - start, 0.0), end - start)
     return total if total.ndim else float(total)
+
+
+# Software bounds, checked before any work (issue 17: plan time grew with the periods),
+# not clinical values (common practice, no source): hourly ins-and-outs for three weeks is
+# 504 periods, and no stay measured period by period lasts 60 days without the plan being
+# started afresh.
+MAX_INS_AND_OUTS_PERIODS = 500
+# The Na correction limit a clinician may set (plan and `vetfluid-cli sodium` alike): the
+# shipped 0.5 mmol/L/h (Adrogué & Madias 2000) lies well inside; the ends are plausibility
+# bounds (common practice, no source).
+MAX_NA_CHANGE_RANGE_MMOL_PER_L_H = (0.05, 5.0)
+MAX_PLAN_HORIZON_H = 60 * 24.0
+
+
+def _check_ins_and_outs_size(
+    period_h: float | None, measured: tuple[tuple[float, float], ...]
+) -> None:
+    """Refuse more measured periods, or a longer plan, than a clinic could need."""
+    if period_h is None:
+        return
+    if len(measured) > MAX_INS_AND_OUTS_PERIODS:
+        raise InputError(
+            f"{len(measured)} measured ins-and-outs periods is more than the "
+            f"{MAX_INS_AND_OUTS_PERIODS} periods one plan holds",
+            field="measured_outputs", value=len(measured),
+            fix="start a new plan from today's weight and measurements",
+        )  # fmt: skip
+    horizon_h = (len(measured) + 1) * float(period_h)
+    if horizon_h > MAX_PLAN_HORIZON_H:
+        raise InputError(
+            f"{len(measured)} measured periods of {float(period_h):g} h run the plan to "
+            f"{horizon_h:g} hours, longer than the {MAX_PLAN_HORIZON_H:g} hours (60 days) one "
+            "plan covers",
+            field="measured_outputs", value=len(measured),
+            fix="start a new plan from today's weight and measurements",
+        )  # fmt: skip
 
 
 def _check_measured(measured: object) -> None:
@@ -372,6 +409,30 @@ def _potassium_to_add(
     return 0.0
 
 
+def _kcl_within_route(ledger: Ledger, request: PlanRequest, *, kcl: float, route: str) -> float:
+    """The scale's KCl, lowered so the bag holds no more potassium than its route allows
+    (route_limits.csv: 35 mmol/L under the skin, DiBartola 2012), with a note saying so."""
+    limits = [r for r in fluid_roles.route_limits(route) if r.limit == "max_k_mmol_per_l"]
+    if kcl <= 0 or not limits:
+        return kcl
+    most = min(r.value for r in limits)
+    own_k = fluids.composition(fluids.fluid(request.fluid_id)).k_mmol_per_l
+    # added KCl is diluted by its own volume (2 mmol/mL): k_bag = (own·1000 + x)/(1000 + x/2)
+    room = max(0.0, (most - own_k) * 1000.0 / (1000.0 - most / 2.0))
+    if kcl <= room + 1e-9:
+        return kcl
+    ledger.add(
+        "info",
+        "KCL_HELD_TO_ROUTE",
+        f"The serum-K scale asks for {format_quantity(kcl, 'mmol/L')} KCl; "
+        f"{schedule.route_text(route)} fluid may hold at most {format_quantity(most, 'mmol/L')}"
+        f" potassium, so {format_quantity(room, 'mmol/L', decimals=1)} is added.",
+        "Recheck serum K in 4–6 h; for more potassium give it IV where the rate can be set.",
+        limits[0].source_id,
+    )
+    return room
+
+
 def _bag(request: PlanRequest, kcl_mmol_per_l: float) -> fluids.Fluid:
     """The chosen fluid with KCl and dextrose added to each litre."""
     bag = fluids.fluid(request.fluid_id)
@@ -472,6 +533,10 @@ def _resuscitation_phases(
         )
         hour = end
     safety.check_bolus_fluid(ledger, bolus_fluid, roles, res, count)
+    safety.check_hypertonic_in_hypernatraemia(
+        ledger, bolus_fluid=bolus_fluid, serum_na=request.serum_na,
+        normal=ledger.value("serum_na_mmol_per_l"),
+    )  # fmt: skip
     if roles.bolus_max_ml_per_kg is None:
         safety.check_boluses(ledger, res, count)
     return phases, res
@@ -651,9 +716,12 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     background = maint.ml_per_h + request.losses_ml_per_day / 24.0
 
     plasma = ledger.value("plasma_osmolality_mosm_per_kg")
+    route, device = _route_and_device(ledger, request)
     k_band = _species_potassium_band(ledger, request)
     kcl = _potassium_to_add(request, k_band)
     safety.note_potassium_band(ledger, k_band, by_hand=request.kcl_mmol_per_l is not None)
+    if request.kcl_mmol_per_l is None:  # the scale never chooses more than the route takes
+        kcl = _kcl_within_route(ledger, request, kcl=kcl, route=route)
     bag = _bag(request, kcl)
     bag_comp = fluids.composition(bag)
     base = fluids.fluid(request.fluid_id)
@@ -662,7 +730,6 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         plasma_osmolality_mosm_per_kg=plasma.number,
         band_fraction=limit("tonicity_band_fraction").value,
     )
-    route, device = _route_and_device(ledger, request)
     drop_factor = request.drop_factor if device == "gravity" else None
     safety.check_carrier(ledger, base, fluid_roles.roles(base.fluid_id))
     safety.check_fluid_for_route(
@@ -730,7 +797,9 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     )  # fmt: skip
 
     sodium, free_water = None, None
-    tbw = hydration.body_water_fraction(table, request.species_id, neonate=request.neonate)
+    tbw = hydration.body_water_fraction(
+        table, request.species_id, neonate=request.neonate, weight_kg=w
+    )
     max_change = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
 
     normal = ledger.value("serum_na_mmol_per_l")
@@ -874,12 +943,25 @@ def _sodium_path(
     tail = delivery.SC_ABSORPTION_H if any(p.mode == "intermittent" for p in phases) else 0.0
     starts = np.union1d(np.arange(0.0, end + tail + 1e-9, SODIUM_GRID_H), sorted(moments))
     hours = np.union1d(starts, starts + 1.0)
-    given = np.zeros_like(hours)
-    na_k = np.zeros_like(hours)
+    # what each phase has put into the plasma by each hour (Phase.absorbed_by): a line's
+    # rate from its start to its end, a divided dose evenly over the absorption time; read
+    # from running sums over those corners (n log n, never phases × hours)
+    knots, slopes, na_k_per_ml = [], [], []
     for phase in phases:
-        by = phase.absorbed_by(hours)  # a divided dose reaches the plasma over hours
-        given += by
-        na_k += by * (bolus_na_k if phase.kind == "resuscitation" else bag_na_k) / 1000.0
+        per_ml = (bolus_na_k if phase.kind == "resuscitation" else bag_na_k) / 1000.0
+        if phase.mode == "continuous":
+            rate = phase.rate_ml_per_h or 0.0
+            corners = [(phase.start_h, rate), (phase.end_h, -rate)]
+        else:
+            rate = (phase.dose_ml or 0.0) / delivery.SC_ABSORPTION_H
+            corners = [(h, rate) for h in phase.dose_hours()]
+            corners += [(h + delivery.SC_ABSORPTION_H, -rate) for h in phase.dose_hours()]
+        knots += [h for h, _ in corners]
+        slopes += [w for _, w in corners]
+        na_k_per_ml += [per_ml] * len(corners)
+    knots_h, slope_ml = np.asarray(knots, dtype=float), np.asarray(slopes, dtype=float)
+    given = safety.ramps_total(knots_h, slope_ml, hours)
+    na_k = safety.ramps_total(knots_h, slope_ml * np.asarray(na_k_per_ml, dtype=float), hours)
     path = electrolytes.serum_na_path(
         serum_na=serum_na, tbw_ml=tbw_ml, given_ml=given, na_k_given_mmol=na_k,
         lost_ml=consumed(hours),

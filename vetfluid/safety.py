@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
+import numpy as np
+
 from vetfluid import delivery, fluid_roles, fluids
 from vetfluid.delivery import DIVIDED_INTERVALS_H
 from vetfluid.electrolytes import PotassiumSummary, SodiumCourse, SpeciesPotassiumBand
@@ -34,6 +36,14 @@ def check_weight(ledger: Ledger, weight_kg: float, *, neonate: bool = False) -> 
     high = weight.high if weight.high is not None else weight.number
     factor = limit("weight_far_outside_factor")
     usual = f"{q(low, 'kg')}–{q(high, 'kg')}"
+    if neonate and weight_kg >= low:
+        ledger.add(
+            "soft",
+            "NEONATE_AT_ADULT_WEIGHT",
+            f"A neonate is ticked, but {q(weight_kg, 'kg')} is within or above the adult "
+            f"{usual} for this species; the plan keeps adult body water.",
+            "Untick neonate unless this really is a newborn; check the weight.",
+        )
     if neonate and weight_kg < low:
         ledger.add(
             "soft",
@@ -177,6 +187,28 @@ def check_bolus_fluid(
         )
 
 
+def check_hypertonic_in_hypernatraemia(
+    ledger: Ledger, *, bolus_fluid: fluids.Fluid, serum_na: float | None, normal: SpeciesValue
+) -> None:
+    """Hypertonic saline (a resuscitation fluid with a dose of its own) for a patient whose
+    measured Na is already above its species' reference interval: hard — it raises Na by
+    several mmol/L within minutes in a patient who needs it lowered (common practice, no
+    source)."""
+    roles = fluid_roles.roles(bolus_fluid.fluid_id)
+    high = normal.high if normal.high is not None else normal.number
+    salt = fluids.composition(bolus_fluid).na_mmol_per_l
+    if roles.bolus_max_ml_per_kg is None or serum_na is None or serum_na <= high or salt <= high:
+        return
+    ledger.add(
+        "hard",
+        "HYPERTONIC_SALINE_IN_HYPERNATRAEMIA",
+        f"{bolus_fluid.name} is planned for a patient whose serum Na "
+        f"{q(serum_na, 'mmol/L')} is already above this species' {q(high, 'mmol/L')}.",
+        "Resuscitate with an isotonic crystalloid; lower Na slowly once perfusion is restored.",
+        roles.source_id,
+    )
+
+
 def check_route_limits(
     ledger: Ledger,
     *,
@@ -315,14 +347,64 @@ def _largest_24_h(phases: tuple[Phase, ...]) -> tuple[float, float]:
 def largest_in_window(phases: tuple[Phase, ...], window_h: float) -> tuple[float, float]:
     """The most given in any ``window_h`` hours, whatever the delivery, and where that
     window starts. Volume given is piecewise linear in time (a dose is a step), so the
-    largest window starts or ends at a phase boundary or a dose."""
-    moments = _turning_points(phases)
-    starts = {max(0.0, m) for m in moments} | {max(0.0, m - window_h) for m in moments}
-    # the largest volume, the earliest window among equals
-    most, negative_start = max(
-        (sum(p.volume_between(a - 1e-9, a + window_h - 1e-9) for p in phases), -a) for a in starts
-    )
-    return most, -negative_start
+    largest window starts or ends at a phase boundary or a dose. Read from the running
+    total at every candidate start and end, so the work grows as n log n in the phases."""
+    moments = np.fromiter(_turning_points(phases), dtype=float)
+    starts = np.unique(np.maximum(0.0, np.concatenate([moments, moments - window_h])))
+    # volume in [a - 1e-9, a + window_h - 1e-9): doses at the window's end are outside it
+    within = _given_before(phases, starts + window_h - 1e-9) - _given_before(phases, starts - 1e-9)
+    # the largest volume, the earliest window among equals (to rounding)
+    best = _first_largest(within)
+    return float(within[best]), float(starts[best])
+
+
+def _first_largest(values: np.ndarray) -> int:
+    """Where the largest value first comes. Sums read from running totals differ from
+    phase-by-phase sums in the last digits, so values within 1e-12 of the largest (relative)
+    are equal, and the earliest is named."""
+    top = float(values.max())
+    return int(np.flatnonzero(values >= top - 1e-12 * abs(top))[0])
+
+
+def ramps_total(knots: np.ndarray, slopes: np.ndarray, hours: np.ndarray) -> np.ndarray:
+    """Σ slopes·max(0, hour − knot) at each hour, from running sums over the sorted knots
+    (n log n, never knots × hours)."""
+    order = np.argsort(knots, kind="stable")
+    k, w = knots[order], slopes[order]
+    slope_sum = np.concatenate([[0.0], np.cumsum(w)])
+    intercept = np.concatenate([[0.0], np.cumsum(w * k)])
+    i = np.searchsorted(k, hours, side="left")
+    return hours * slope_sum[i] - intercept[i]
+
+
+def _steps(edges: np.ndarray, heights: np.ndarray, hours: np.ndarray, *, side: str) -> np.ndarray:
+    """Σ heights over the edges before each hour (``side="left"``: edge < hour; ``"right"``:
+    edge ≤ hour), from a running sum over the sorted edges."""
+    order = np.argsort(edges, kind="stable")
+    total = np.concatenate([[0.0], np.cumsum(heights[order])])
+    return total[np.searchsorted(edges[order], hours, side=side)]
+
+
+def _lines(phases: tuple[Phase, ...]) -> list[Phase]:
+    return [p for p in phases if p.mode == "continuous"]
+
+
+def _doses(phases: tuple[Phase, ...], weight: Callable[[Phase], float]) -> tuple[np.ndarray, ...]:
+    """Every divided dose's hour and ``weight(phase)`` (its mL, or what it carries)."""
+    hours = [h for p in phases for h in p.dose_hours()]
+    heights = [weight(p) for p in phases for _ in p.dose_hours()]
+    return np.asarray(hours, dtype=float), np.asarray(heights, dtype=float)
+
+
+def _given_before(phases: tuple[Phase, ...], hours: np.ndarray) -> np.ndarray:
+    """Volume all phases have given before each hour (a dose at that very hour not yet),
+    as :meth:`Phase.volume_between` from hour 0 adds it up, for every hour at once."""
+    lines = _lines(phases)
+    knots = np.array([p.start_h for p in lines] + [p.end_h for p in lines], dtype=float)
+    rates = np.array([p.rate_ml_per_h or 0.0 for p in lines], dtype=float)
+    dose_h, dose_ml = _doses(phases, lambda p: p.dose_ml or 0.0)
+    ramps = ramps_total(knots, np.concatenate([rates, -rates]), hours)
+    return ramps + _steps(dose_h, dose_ml, hours, side="left")
 
 
 def check_reptile_dextrose(ledger: Ledger, dextrose_percent: float) -> None:
@@ -466,25 +548,25 @@ def check_predicted_gain(
     ledger: Ledger,
     phases: tuple[Phase, ...],
     *,
-    consumed: Callable[[float], float],
+    consumed: Callable[[np.ndarray], np.ndarray],
     weight_kg: float,
     deficit_ml: float,
 ) -> None:
     """Predicted weight (1 mL ≈ 1 g) above the overload line (Pardo 2024: ≥ 10 % gain).
 
     The line is 10 % over the euhydrated weight (:func:`hydration.overload_weight_kg`).
-    Given minus consumed (``consumed(hour)``, mL) is piecewise linear, with its peaks at
-    phase boundaries and just after doses; those are the only points checked.
+    Given minus consumed (``consumed(hours)``, mL by each hour) is piecewise linear, with
+    its peaks at phase boundaries and just after doses; those are the only points checked,
+    all at once from running totals (n log n in the phases).
     """
     gain = limit("overload_weight_gain_fraction")
     line = overload_weight_kg(weight_kg=weight_kg, deficit_ml=deficit_ml, gain_fraction=gain.value)
-    moments = sorted(_turning_points(phases))
+    moments = np.array(sorted(_turning_points(phases)), dtype=float)
+    net = _given_before(phases, moments + 1e-9) - np.asarray(consumed(moments), dtype=float)
     peak_ml, peak_h = 0.0, 0.0
-    for hour in moments:
-        given = sum(p.volume_between(0.0, hour + 1e-9) for p in phases)
-        net = given - consumed(hour)
-        if net > peak_ml:
-            peak_ml, peak_h = net, hour
+    if net.size and net.max() > 0.0:
+        first = _first_largest(net)
+        peak_ml, peak_h = float(net[first]), float(moments[first])
     peak_kg = weight_kg + peak_ml / 1000.0
     if peak_kg > line:
         ledger.add(
@@ -719,27 +801,28 @@ def peak_uptake_rate(
     an absorption starts or ends, so it is read once between each pair of them."""
     moments = set(_turning_points(phases))
     moments |= {h + delivery.SC_ABSORPTION_H for p in phases for h in p.dose_hours()}
-    edges = sorted(moments)
-    best, when = 0.0, 0.0
-    for a, b in zip(edges, edges[1:], strict=False):
-        if b - a < 1e-9:
-            continue
-        mid = (a + b) / 2.0
-        rate = 0.0
-        for phase in phases:
-            if phase.mode == "continuous":
-                running = phase.start_h <= mid < phase.end_h
-                rate += per_ml(phase) * (phase.rate_ml_per_h or 0.0) * running
-            else:
-                taking_up = sum(
-                    1 for h in phase.dose_hours() if h <= mid < h + delivery.SC_ABSORPTION_H
-                )
-                rate += (
-                    per_ml(phase) * (phase.dose_ml or 0.0) / delivery.SC_ABSORPTION_H * taking_up
-                )
-        if rate > best:
-            best, when = rate, a
-    return best, when
+    edges = np.array(sorted(moments), dtype=float)
+    keep = np.flatnonzero(np.diff(edges) >= 1e-9)
+    if not keep.size:
+        return 0.0, 0.0
+    starts, mids = edges[keep], (edges[keep] + edges[keep + 1]) / 2.0
+    # a line adds its rate from its start to its end; a dose its share per hour over the
+    # absorption time: a step up and a step down, summed in order over all of them
+    lines = _lines(phases)
+    line_rate = np.array([per_ml(p) * (p.rate_ml_per_h or 0.0) for p in lines], dtype=float)
+    dose_h, dose_rate = _doses(
+        phases, lambda p: per_ml(p) * (p.dose_ml or 0.0) / delivery.SC_ABSORPTION_H
+    )
+    edges_up_down = np.concatenate([
+        [p.start_h for p in lines], [p.end_h for p in lines],
+        dose_h, dose_h + delivery.SC_ABSORPTION_H,
+    ])  # fmt: skip
+    heights = np.concatenate([line_rate, -line_rate, dose_rate, -dose_rate])
+    rate = _steps(edges_up_down, heights, mids, side="right")
+    if rate.max() <= 1e-12 * np.abs(heights).max(initial=0.0):
+        return 0.0, 0.0  # nothing (only rounding left by the running sum) reaches the plasma
+    first = _first_largest(rate)
+    return float(rate[first]), float(starts[first])
 
 
 def check_sodium(
@@ -758,9 +841,12 @@ def check_sodium(
     finding                   when                                            severity
     ========================  ==============================================  ==========
     SODIUM_CHANGE_TOO_FAST    replacement/maintenance moves Na > limit in an  soft; hard
-                              hour (from a normal Na when none was measured)  at 2×
+                              hour (from a normal Na when none was measured)  at 2× the
+                              and Na leaves the species' reference interval   shipped
+                              (within it a change is not a correction)        limit
     SODIUM_BOLUS_CHANGE       a resuscitation bolus moves a measured Na >     soft
-                              limit in an hour (shock first; reason written)
+                              limit in an hour and Na leaves the interval
+                              (shock first; reason written)
     SODIUM_AWAY_FROM_NORMAL   a measured Na outside the species' range moves  soft
                               further out over the plan
     SODIUM_LIMIT_RAISED       the plan's limit is above the shipped one       soft
@@ -773,9 +859,17 @@ def check_sodium(
         if course.measured
         else f"No serum Na was entered; from a normal {q(normal.number, 'mmol/L')} it would"
     )
+    low = normal.low if normal.low is not None else normal.number
+    high = normal.high if normal.high is not None else normal.number
+    # The correction limit is about a brain adapted to an abnormal Na; a plan that keeps Na
+    # inside the species' reference interval throughout corrects nothing.
+    leaves_range = course.lowest < low - 1e-9 or course.highest > high + 1e-9
+    # Hard at twice the shipped limit (or the typed one, if stricter): typing a higher limit
+    # may soften a warning, never lift a block.
+    hard_at = hard_factor * min(max_change_per_h, sourced.value)
     carrier = abs(course.carrier_change_per_h)
-    if carrier > max_change_per_h * (1 + 1e-9):
-        hard = carrier >= hard_factor * max_change_per_h
+    if leaves_range and (carrier > max_change_per_h * (1 + 1e-9) or carrier >= hard_at):
+        hard = carrier >= hard_at
         fix = (
             f"keep the {carrier_phase} rate at or below {q(fastest_carrier_ml_per_h, 'mL/h')}"
             if fastest_carrier_ml_per_h is not None
@@ -786,8 +880,12 @@ def check_sodium(
             "SODIUM_CHANGE_TOO_FAST",
             f"{subject} {_direction(course.carrier_change_per_h)} {q(carrier, 'mmol/L')} in "
             f"the hour from hour {course.carrier_hour:g} ({carrier_phase}), faster than "
-            f"{q(max_change_per_h, 'mmol/L/h')}"
-            + (f" ({hard_factor:g}× that or more blocks the plan)." if hard else "."),
+            + (
+                q(max_change_per_h, "mmol/L/h")
+                if carrier > max_change_per_h
+                else f"twice the usual {q(sourced.value, 'mmol/L/h')}"
+            )
+            + (f" (at {q(hard_at, 'mmol/L/h')} or more the plan is blocked)." if hard else "."),
             ("Measure serum Na and enter it; " if not course.measured else "")
             + f"{fix[0].upper() if course.measured else fix[0]}{fix[1:]}, or choose a fluid "
             "closer to the patient's Na; recheck Na every 4–6 h.",
@@ -795,7 +893,7 @@ def check_sodium(
         )
     bolus = abs(course.bolus_change_per_h)
     # an unmeasured Na is not judged during shock boluses: perfusion first, Na measured after
-    if course.measured and bolus > max_change_per_h * (1 + 1e-9):
+    if course.measured and leaves_range and bolus > max_change_per_h * (1 + 1e-9):
         ledger.add(
             "soft",
             "SODIUM_BOLUS_CHANGE",
@@ -806,8 +904,6 @@ def check_sodium(
             "measure Na before the fluids that follow.",
             sourced.source_id,
         )
-    low = normal.low if normal.low is not None else normal.number
-    high = normal.high if normal.high is not None else normal.number
     below, above = course.start_na < low, course.start_na > high
     # how far the plan takes Na the wrong way: by the boluses' end or by the plan's end
     changes = (course.boluses_change, course.plan_change)

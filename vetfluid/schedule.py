@@ -159,14 +159,17 @@ def intermittent_phase(
     every figure shown is one that is given; it differs from the exact need by at most
     half a syringe mark per site, or by less than a mark where the site's limit forces
     each site a mark down (then one more SC site is taken when that lands closer). When
-    the phase is not a whole number of intervals the spacing shrinks below the
-    interval; the plan reports that as a finding.
+    the phase is not a whole number of intervals the doses are spread a little wider
+    (never closer than the interval, so each is absorbed before the next); a phase
+    shorter than one interval is one dose, which the plan reports as a finding.
     """
     split = delivery.divided_boluses(
         need_ml_per_h=need_ml_per_h, per_site_limit_ml=per_site_limit_ml, route=route
     )
     hours = end_h - start_h
-    doses = max(1, math.ceil(round(hours / split.interval_h, 9)))
+    # whole intervals only (rounded down): doses never come closer than the interval, so SC
+    # fluid is absorbed before the next (6–8 h, Vet Clin North Am 2017)
+    doses = max(1, math.floor(round(hours / split.interval_h, 9)))
     spacing = hours / doses
     need = need_ml_per_h * spacing
     sites = max(1, math.ceil(round(need / per_site_limit_ml, 9)))
