@@ -69,3 +69,95 @@ def test_a_failed_write_leaves_the_old_file_intact(tmp_path, monkeypatch):
         write_request_file(path, DEMOS["small_gerbil"].request, {})
     assert path.read_text(encoding="utf-8") == before
     assert not list(tmp_path.glob("*.tmp"))
+
+
+# ---- malformed files (issue 17, item 5): every one refused in words, naming the key ---------
+# Each case reproduces a crash or a silent misreading found by hostile testing; the rule
+# checked is the file format this module's docstring declares (JSON true/false for the
+# flags, whole numbers for counts, finite numbers for measurements).
+def _file(tmp_path, request: object = None, *, raw: str | None = None, **top: object):
+    data = {"format": "vetfluid-plan-request", "version": 1, "request": request, **top}
+    path = tmp_path / "malformed.vfplan.json"
+    path.write_text(json.dumps(data) if raw is None else raw, encoding="utf-8")
+    return path
+
+
+DOG = {"species_id": "dog", "weight_kg": 20}
+HUGE = int("9" * 400)  # beyond any float: int → float raised OverflowError
+
+
+@pytest.mark.parametrize(
+    ("change", "key"),
+    [
+        ({"weight_kg": HUGE}, "weight_kg"),
+        ({"replace_hours": HUGE}, "replace_hours"),
+        ({"kcl_mmol_per_l": HUGE}, "kcl_mmol_per_l"),
+        ({"species_id": 5}, "species_id"),
+        ({"species_id": []}, "species_id"),
+        ({"species_id": None}, "species_id"),
+        ({"fluid_id": {}}, "fluid_id"),
+        ({"cardiac_disease": "false"}, "cardiac_disease"),  # read as true before
+        ({"renal_disease": "no"}, "renal_disease"),  # read as true before
+        ({"neonate": 2}, "neonate"),
+        ({"resuscitation_boluses": True}, "resuscitation_boluses"),
+        ({"resuscitation_boluses": 2.0}, "resuscitation_boluses"),
+        ({"weight_kg": True}, "weight_kg"),
+        ({"weight_kg": "20"}, "weight_kg"),
+        ({"serum_na": None, "serum_k": [4]}, "serum_k"),
+        ({"measured_outputs": [[1, 2, 3]]}, "measured_outputs"),
+        ({"measured_outputs": [["1", 2]]}, "measured_outputs"),
+        ({"dehydration_findings": [1]}, "dehydration_findings"),
+        ({"maintenance_method": 3}, "maintenance_method"),
+    ],
+)
+def test_a_value_of_the_wrong_type_is_refused_by_its_key(tmp_path, change, key):
+    with pytest.raises(InputError) as caught:
+        read_request_file(_file(tmp_path, {**DOG, **change}))
+    assert caught.value.field == key and key in caught.value.one_line()
+
+
+@pytest.mark.parametrize("missing", ["species_id", "weight_kg"])
+def test_a_missing_required_key_is_named(tmp_path, missing):
+    request = {k: v for k, v in DOG.items() if k != missing}
+    with pytest.raises(InputError, match=f"{missing}.*required"):
+        read_request_file(_file(tmp_path, request))
+
+
+def test_nan_and_infinity_are_refused(tmp_path):
+    for word in ("NaN", "Infinity", "-Infinity"):
+        raw = ('{"format": "vetfluid-plan-request", "version": 1, "request": '
+               f'{{"species_id": "dog", "weight_kg": 20, "serum_na": {word}}}}}')  # fmt: skip
+        with pytest.raises(InputError, match="serum_na"):
+            read_request_file(_file(tmp_path, raw=raw))
+
+
+def test_version_true_is_not_version_1(tmp_path):
+    with pytest.raises(InputError, match="version"):
+        read_request_file(_file(tmp_path, DOG, version=True))
+
+
+@pytest.mark.parametrize(
+    "raw",
+    [
+        "[" * 100_000 + "]" * 100_000,  # RecursionError in json before
+        '{"format": "vetfluid-plan-request", "version": 1, "request": {"species_id": "dog", '
+        '"weight_kg": ' + "9" * 5000 + "}}",  # ValueError: beyond 4300 digits before
+    ],
+    ids=["deep nesting", "5000 digits"],
+)
+def test_deep_nesting_and_endless_digits_are_refused_in_words(tmp_path, raw):
+    with pytest.raises(InputError, match="malformed.vfplan.json"):
+        read_request_file(_file(tmp_path, raw=raw))
+
+
+def test_a_file_too_large_to_be_a_plan_request_is_not_read(tmp_path):
+    raw = json.dumps({"format": "vetfluid-plan-request", "version": 1, "request": DOG,
+                      "acknowledged": {"X": "y" * 5_000_000}})  # fmt: skip
+    with pytest.raises(InputError, match="too large"):
+        read_request_file(_file(tmp_path, raw=raw))
+
+
+def test_acknowledgements_that_are_not_a_mapping_are_refused_even_when_empty(tmp_path):
+    for value in (False, "", 0, []):
+        with pytest.raises(InputError, match="acknowledge"):
+            read_request_file(_file(tmp_path, DOG, acknowledged=value))

@@ -12,7 +12,7 @@ import pytest
 from vetfluid.demos import DEMOS
 from vetfluid.plan import PlanRequest, build_plan
 from vetfluid.serialize import plan_dict
-from vetfluid.sheet import NURSE_COLUMNS, sheet_html
+from vetfluid.sheet import MAX_PHASES, NURSE_COLUMNS, sheet_html
 
 VETFLUID = str(Path(sys.executable).with_name("vetfluid"))
 
@@ -396,3 +396,114 @@ def test_species_values_print_the_safe_way_without_trailing_zeros():
         assert f"<td>{int(v['value'])} {v['unit']}</td>" in sources
         assert f"{v['value']} {v['unit']}" not in sources
     assert "True" not in sources  # a yes/no value says yes or no
+
+
+# ---- `vetfluid sheet` on malformed plan files (issue 17, item 6) ------------------------------
+# Each case reproduces a traceback, a runaway or a "nan" printed with exit 0 found by hostile
+# testing; the rule checked is the command's own contract (vetfluid.cli: exit 2 is invalid
+# input, one line on stderr naming the field).
+def _sheet(capsys, tmp_path, data: object = None, *, raw: str | None = None, out=None):
+    from ui.app import sheet_command
+
+    plan = tmp_path / "plan.json"
+    plan.write_text(json.dumps(data) if raw is None else raw, encoding="utf-8")
+    code = sheet_command([str(plan), "-o", str(out or tmp_path / "sheet.pdf")])
+    return code, capsys.readouterr()
+
+
+def _changed(change) -> dict:
+    data = dog_data()
+    change(data)
+    return data
+
+
+HUGE = int("9" * 400)  # beyond any float
+
+
+@pytest.mark.parametrize(
+    ("change", "key"),
+    [
+        pytest.param(lambda d: d.update(weight_kg=HUGE), "weight_kg", id="weight 400 digits"),
+        pytest.param(lambda d: d.update(deficit_ml=HUGE), "deficit_ml", id="deficit 400 digits"),
+        pytest.param(lambda d: d["phases"][0].update(start_h=1e308), "start_h", id="start_h"),
+        pytest.param(lambda d: d["phases"][0].update(end_h=1e308), "end_h", id="end_h runaway"),
+        pytest.param(lambda d: d["schedule"][0].update(hour=1e308), "hour", id="hour 1e308"),
+        pytest.param(lambda d: d.update(dehydration_percent=float("nan")), "dehydration_percent",
+                     id="dehydration NaN printed as nan"),
+        pytest.param(lambda d: d.update(phases=(d["phases"] * 700)[: MAX_PHASES + 1]), "phases",
+                     id="more phases than any plan"),
+        pytest.param(lambda d: d["phases"][0].update(mode="intermittent", doses=10**12,
+                                                     interval_h=1e-9, ml_per_site=1,
+                                                     sites_per_dose=1),
+                     "doses", id="a trillion doses"),
+        pytest.param(lambda d: d.update(species_name=["Dog"]), "species_name", id="name a list"),
+        pytest.param(lambda d: d["findings"].append({"severity": "odd", "message": "m",
+                                                     "action": "a", "code": "C"}),
+                     "severity", id="unknown severity"),
+    ],
+)  # fmt: skip
+def test_a_malformed_plan_file_is_refused_in_one_line(capsys, tmp_path, change, key):
+    code, out = _sheet(capsys, tmp_path, _changed(change))
+    assert code == 2, out
+    assert "Traceback" not in out.err and len(out.err.splitlines()) == 1 and key in out.err
+    assert not (tmp_path / "sheet.pdf").exists()
+
+
+def test_deep_nesting_is_refused_in_one_line(capsys, tmp_path):
+    code, out = _sheet(capsys, tmp_path, raw="[" * 100_000 + "]" * 100_000)
+    assert code == 2 and len(out.err.splitlines()) == 1 and "nested too deeply" in out.err
+
+
+def test_the_sheet_never_overwrites_its_own_input(capsys, tmp_path):
+    plan = tmp_path / "plan.json"
+    for out in (plan, tmp_path / "." / "plan.json"):
+        code, got = _sheet(capsys, tmp_path, dog_data(), out=out)
+        assert code == 2 and "would overwrite" in got.err
+        json.loads(plan.read_text(encoding="utf-8"))  # still the plan, not a PDF
+
+
+def test_the_windows_own_plan_file_prints_its_plan(capsys, tmp_path, pdf_text):
+    """A saved ``*.vfplan.json`` holds the request: the sheet builds its plan and prints
+    it with the reasons given, the same figures the CLI's plan JSON gives."""
+    from ui.app import sheet_command
+    from vetfluid.formatting import format_quantity as q
+    from vetfluid.request_file import write_request_file
+
+    request = DEMOS["dehydrated_dog"].request
+    path = write_request_file(tmp_path / "rex", request, {})
+    out = tmp_path / "sheet.pdf"
+    assert sheet_command([str(path), "-o", str(out)]) == 0, capsys.readouterr().err
+    text = pdf_text(out)
+    data = plan_dict(build_plan(request))
+    assert q(data["total_ml_first_24h"], "mL") in text
+    assert q(data["phases"][0]["rate_ml_per_h"], "mL/h") in text
+
+
+def test_a_broken_plan_request_file_names_its_key(capsys, tmp_path):
+    raw = json.dumps(
+        {
+            "format": "vetfluid-plan-request",
+            "version": 1,
+            "request": {"species_id": "dog", "weight_kg": 20, "renal_disease": "no"},
+        }
+    )
+    code, out = _sheet(capsys, tmp_path, raw=raw)
+    assert code == 2 and len(out.err.splitlines()) == 1 and "renal_disease" in out.err
+
+
+def test_a_plan_files_reasons_print_only_for_the_warnings_as_they_were_given(tmp_path):
+    """As in the window (ui/session.py): a reason covers a warning as it read when the
+    reason was given; one given for other words has lapsed and is not printed."""
+    from ui.app import _plan_to_print
+    from vetfluid.request_file import write_request_file
+
+    request = DEMOS["renal_cat"].request
+    soft = next(f for f in build_plan(request).findings if f.severity == "soft")
+    reason = {soft.code: "weighed 6-hourly"}
+    for wording, printed in (
+        ({soft.code: soft.message}, reason),  # given for these very words
+        (None, reason),  # an older file without the wording: the first plan's words
+        ({soft.code: "another dose than this one"}, {}),  # lapsed
+    ):
+        path = write_request_file(tmp_path / "cat", request, reason, acknowledged_for=wording)
+        assert _plan_to_print(path)[1] == printed

@@ -6,8 +6,11 @@ stable and documented in README.md.
 
 from __future__ import annotations
 
-from dataclasses import asdict, fields
-from datetime import date, datetime
+import math
+from dataclasses import MISSING, asdict, fields
+from datetime import date, datetime, time
+from types import UnionType
+from typing import Union, get_args, get_origin, get_type_hints
 
 from vetfluid import delivery, fluids
 from vetfluid.cautions import CAUTIONS
@@ -232,49 +235,113 @@ def request_to_dict(request: PlanRequest) -> dict[str, object]:
     return data
 
 
+# Bounds of a request's text and lists, against files edited by hand or damaged: an id or
+# a clock time is short; a list of findings or measured periods is far shorter than this.
+# Parsing cost bounds, set by us (no clinical source); PlanRequest's own ranges apply after.
+MAX_TEXT_CHARS = 200
+MAX_LIST_ITEMS = 10_000
+
+
+LISTS = {
+    "dehydration_findings": "a list of finding ids",
+    "measured_outputs": "a list of [urine mL, other losses mL], one per period",
+}
+
+
+def _shown(name: object) -> str:
+    """A key as a message may show it: quoted, escaped, cut short (one line, no markup)."""
+    text = repr(name)
+    return text if len(text) <= 40 else text[:39] + "…"
+
+
+def _wrong(name: str, what: str, value: object, fix: str | None = None) -> InputError:
+    return InputError(f"{name} must be {what}", field=name, value=value, fix=fix)
+
+
+def _read_value(name: str, hint: object, value: object) -> object:
+    """``value`` checked against the PlanRequest field type ``hint`` (JSON kinds only:
+    true/false for a flag, a whole number for a count, a finite number for a measure)."""
+    args = get_args(hint)
+    if get_origin(hint) in (Union, UnionType) and type(None) in args:
+        if value is None:
+            return None
+        (hint,) = [a for a in args if a is not type(None)]
+        args = get_args(hint)
+    if hint is bool:
+        if not isinstance(value, bool):
+            raise _wrong(name, "true or false", value, "write JSON true or false, no quotes")
+        return value
+    if hint is int:
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise _wrong(name, "a whole number", value)
+        return value
+    if hint is float:
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            raise _wrong(name, "a number", value)
+        try:
+            number = float(value)
+        except OverflowError:  # an integer with hundreds of digits
+            number = math.inf
+        if not math.isfinite(number):
+            raise _wrong(name, "a finite number", None)
+        return number
+    if hint is str:
+        if not isinstance(value, str) or not value or len(value) > MAX_TEXT_CHARS:
+            raise _wrong(name, f"text of 1 to {MAX_TEXT_CHARS} characters", None)
+        if not value.isprintable():  # a line break or escape would reach a terminal raw
+            raise _wrong(name, "printable text, without line breaks or control characters", None)
+        return value
+    if hint is time:
+        if isinstance(value, str) and len(value) == 5:
+            try:
+                return datetime.strptime(value, "%H:%M").time()
+            except ValueError:
+                pass
+        raise InputError("start time must be HH:MM", field=name, value=None)
+    if hint is date:
+        if isinstance(value, str) and len(value) == 10:
+            try:
+                return date.fromisoformat(value)
+            except ValueError:
+                pass
+        raise InputError("start date must be YYYY-MM-DD", field=name, value=None)
+    if get_origin(hint) is tuple:
+        if not isinstance(value, list | tuple) or len(value) > MAX_LIST_ITEMS:
+            raise _wrong(name, f"{LISTS.get(name, 'a list')} (at most {MAX_LIST_ITEMS})", None)
+        if len(args) == 2 and args[1] is Ellipsis:
+            return tuple(_read_value(name, args[0], item) for item in value)
+        if len(value) != len(args):
+            raise _wrong(name, f"a list of {len(args)} items per entry", None)
+        return tuple(_read_value(name, a, item) for a, item in zip(args, value, strict=True))
+    raise TypeError(f"PlanRequest field {name} has a type this reader does not know: {hint}")
+
+
 def request_from_dict(data: dict[str, object]) -> PlanRequest:
-    """Rebuild a request; unknown keys and bad values raise InputError naming them."""
+    """Rebuild a request from plain data (a plan file, a stored version, a draft).
+
+    Every key is checked against the declared type of its PlanRequest field before the
+    request is built (which then applies its ranges): unknown and missing keys, and
+    values of the wrong kind, raise InputError naming the key."""
     if not isinstance(data, dict):
-        raise InputError("a plan request must be a mapping", field="request", value=data)
-    known = {f.name for f in fields(PlanRequest)}
-    unknown = sorted(set(data) - known)
+        raise InputError("a plan request must be a mapping", field="request", value=None)
+    hints = get_type_hints(PlanRequest)
+    declared = {f.name: f for f in fields(PlanRequest)}
+    unknown = sorted((k for k in data if k not in declared), key=str)
     if unknown:
+        shown = ", ".join(_shown(k) for k in unknown[:5]) + (", …" if len(unknown) > 5 else "")
         raise InputError(
-            f"unknown field(s) {', '.join(unknown)}", field="request", value=unknown,
-            fix=f"known fields: {', '.join(sorted(known))}",
+            f"unknown field(s) {shown}", field="request", value=None,
+            fix=f"known fields: {', '.join(declared)}",
         )  # fmt: skip
-    values = dict(data)
-    start = values.get("start_time")
-    if isinstance(start, str):
-        try:
-            values["start_time"] = datetime.strptime(start, "%H:%M").time()
-        except ValueError:
-            raise InputError("start time must be HH:MM", field="start_time", value=start) from None
-    elif start is not None:
-        raise InputError("start time must be HH:MM", field="start_time", value=start)
-    day = values.get("start_date")
-    if day is not None:
-        try:
-            values["start_date"] = date.fromisoformat(day) if isinstance(day, str) else None
-        except ValueError:
-            values["start_date"] = None
-        if values["start_date"] is None:
-            raise InputError("start date must be YYYY-MM-DD", field="start_date", value=day)
-    measured = values.get("measured_outputs")
-    if isinstance(measured, list | tuple):
-        values["measured_outputs"] = tuple(
-            tuple(m) if isinstance(m, list | tuple) else m for m in measured
-        )
-    if "dehydration_findings" in values:
-        findings = values["dehydration_findings"] or ()
-        if not isinstance(findings, list | tuple) or not all(isinstance(f, str) for f in findings):
-            raise InputError(
-                "dehydration findings must be a list of finding ids",
-                field="dehydration_findings",
-                value=findings,
-            )
-        values["dehydration_findings"] = tuple(findings)
+    for name, spec in declared.items():
+        if name not in data and spec.default is MISSING and spec.default_factory is MISSING:
+            raise InputError(f"{name} is required", field=name, value=None)
+    values = {
+        name: () if name == "dehydration_findings" and value is None  # as older files wrote
+        else _read_value(name, hints[name], value)
+        for name, value in data.items()
+    }  # fmt: skip
     try:
         return PlanRequest(**values)
-    except TypeError as exc:  # a missing species_id or weight_kg
-        raise InputError(str(exc), field="request", value=sorted(values)) from None
+    except TypeError as exc:  # not expected after the checks above; refused all the same
+        raise InputError(str(exc), field="request", value=None) from None

@@ -631,3 +631,217 @@ def plan_sheet_html(
 ) -> str:  # fmt: skip
     """The sheet for a plan object (the window's path to :func:`sheet_html`)."""
     return sheet_html(plan_dict(plan), patient=patient, acknowledged=acknowledged, ready=ready)
+
+
+# ---- checking a plan's JSON before printing it (``vetfluid sheet PLAN.json``) -----------------
+# A plan file may be edited by hand or damaged; the sheet prints one row per hour and one
+# entry per dose, so its size follows these figures. Bounds set by us (no clinical source):
+# the longest plan the core builds (60 days, plan.MAX_PLAN_HORIZON_H; 30 pages, about 4 s
+# to print) and counts above any plan it builds (at most 500 ins-and-outs periods).
+MAX_SHEET_H = 60 * 24.0
+MAX_PHASES = 600
+MAX_ENTRIES = 5_000  # schedule rows, findings, values used, periods
+MAX_DOSES = 2_000  # divided doses over all phases
+MAX_TEXT = 5_000  # characters of one text
+MAX_DEPTH = 12  # a plan's JSON nests 5 deep
+
+NUMBER, HOUR, TEXT, WHOLE, FLAG, ANY = "number", "hour", "text", "whole", "flag", "any"
+
+
+def _opt(spec: object) -> tuple:
+    return ("optional", spec)
+
+
+def _list(spec: object, most: int = MAX_ENTRIES) -> tuple:
+    return ("list", spec, most)
+
+
+def _one_of(*words: str) -> tuple:
+    return ("one of", words)
+
+
+TEXT_MAP = ("text map",)
+PERIOD_NUMBERS = ("urine_ml", "other_losses_ml", "insensible_ml", "next_rate_ml_per_h")
+PERIOD = {k: NUMBER for k in PERIOD_NUMBERS} | {"start_h": HOUR, "end_h": HOUR}
+# The keys the sheet reads, with what each must be; other keys (a later vetfluid's) are
+# left alone but every number anywhere must be finite.
+PLAN_SCHEMA: dict[str, object] = {
+    "species_name": TEXT,
+    "weight_kg": NUMBER,
+    "weight_unit": _opt(TEXT),
+    "maintenance": {"ml_per_day": NUMBER, "ml_per_h": NUMBER, "method": TEXT, "formula": TEXT,
+                    "temperature_factor": _opt(NUMBER)},
+    "dehydration_percent": NUMBER,
+    "dehydration_estimate": _opt({"percent_low": NUMBER, "percent_high": NUMBER,
+                                  "findings": _list(TEXT)}),
+    "deficit_ml": NUMBER,
+    "fluid": {"name": TEXT, "k_mmol_per_l": NUMBER, "dextrose_g_per_l": _opt(NUMBER)},
+    "route": TEXT,
+    "device": TEXT,
+    "phases": _list(
+        {"kind": TEXT, "mode": _one_of("continuous", "intermittent"), "route": TEXT,
+         "start_h": HOUR, "end_h": HOUR, "volume_ml": NUMBER, "fluid": _opt(TEXT),
+         "kcl_mmol_per_l": _opt(NUMBER), "rate_ml_per_h": _opt(NUMBER),
+         "interval_h": _opt(NUMBER), "doses": _opt(WHOLE), "ml_per_site": _opt(NUMBER),
+         "sites_per_dose": _opt(WHOLE)},
+        MAX_PHASES,
+    ),
+    "total_ml_first_24h": NUMBER,
+    "schedule": _list({"hour": HOUR, "clock": _opt(TEXT), "phase": TEXT, "action": TEXT}),
+    "findings": _list({"severity": _one_of(*SEVERITY_WORDS), "message": TEXT, "action": TEXT,
+                       "code": TEXT}),
+    "hard_limit": _opt(FLAG),
+    "provenance": _list({"parameter": TEXT, "value": ANY, "unit": _opt(TEXT), "basis": TEXT,
+                         "source_id": _opt(TEXT), "label": _opt(TEXT)}),
+    "sources": _opt(TEXT_MAP),
+    "potassium": _opt({"kcl_mmol_per_l": NUMBER, "added_by": TEXT, "bag_k_mmol_per_l": NUMBER,
+                       "peak_mmol_per_kg_per_h": NUMBER, "peak_rate_ml_per_h": NUMBER,
+                       "ceiling_mmol_per_kg_per_h": NUMBER}),
+    "sodium": _opt({"serum_na": NUMBER, "tbw_l": NUMBER, "delta_na_per_l": NUMBER,
+                    "predicted_change_per_h": NUMBER, "max_change_per_h": NUMBER,
+                    "max_rate_ml_per_h": _opt(NUMBER), "peak_change_per_h": _opt(NUMBER),
+                    "peak_hour": _opt(NUMBER), "peak_phase": _opt(TEXT),
+                    "source_id": _opt(TEXT)}),
+    "ins_and_outs": _opt({"period_h": NUMBER, "periods": _list(PERIOD, MAX_PHASES)}),
+    "request": _opt(
+        {key: _opt(FLAG) for key, _ in FLAG_WORDS}
+        | {key: _opt(NUMBER) for key in ("dehydration_percent", "body_temp_c",
+                                          "losses_ml_per_day", "serum_na", "serum_k", "usg",
+                                          "urine_osmolality", "pcv_percent",
+                                          "total_solids_g_per_dl", "dextrose_percent")}
+        | {"start_time": _opt(TEXT), "start_date": _opt(TEXT)}
+    ),
+}  # fmt: skip
+CLOSED = ("sodium",)  # read as a whole (SodiumSummary): no other keys
+
+
+def _refuse(path: str, what: str) -> InputError:
+    return InputError(f"must be {what}", field=path, value=None)
+
+
+def _key(key: str) -> str:
+    """A JSON key as a message shows it: a plain name as it is, any other quoted, escaped
+    and cut short (one line)."""
+    return key if key.isidentifier() and len(key) <= 40 else repr(key)[:40]
+
+
+def _finite_everywhere(data: object) -> None:
+    """Every number in the JSON finite (NaN printed "nan" on a sheet) and no nesting
+    deeper than a plan's; walked without recursion."""
+    stack: list[tuple[str, object, int]] = [("", data, 0)]
+    while stack:
+        path, value, depth = stack.pop()
+        if depth > MAX_DEPTH:
+            raise _refuse(path, f"nested at most {MAX_DEPTH} deep, as a plan is")
+        if isinstance(value, dict):
+            stack += [
+                (f"{path}.{_key(k)}" if path else _key(k), v, depth + 1) for k, v in value.items()
+            ]
+        elif isinstance(value, list):
+            stack += [(f"{path}[{i}]", v, depth + 1) for i, v in enumerate(value)]
+        elif isinstance(value, int | float) and not isinstance(value, bool):
+            try:
+                finite = math.isfinite(value)
+            except OverflowError:  # an integer with hundreds of digits
+                finite = False
+            if not finite:
+                raise InputError(
+                    "is not finite (NaN, Infinity or a number of hundreds of digits)",
+                    field=path, value=None,
+                )  # fmt: skip
+
+
+def _check(path: str, value: object, spec: object) -> None:
+    if isinstance(spec, tuple) and spec[0] == "optional":
+        if value is not None:
+            _check(path, value, spec[1])
+    elif spec in (NUMBER, HOUR):
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            raise _refuse(path, "a number")
+        if spec == HOUR and not 0 <= value <= MAX_SHEET_H:
+            raise _refuse(path, f"an hour from 0 to {MAX_SHEET_H:g} (the longest plan printed)")
+        if abs(value) > 1e12:  # finite, but past any volume, rate or weight a sheet prints
+            raise _refuse(path, "a number of at most 1e12")
+    elif spec == TEXT:
+        if not isinstance(value, str) or len(value) > MAX_TEXT:
+            raise _refuse(path, f"text of at most {MAX_TEXT} characters")
+    elif spec == WHOLE:
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise _refuse(path, "a whole number")
+    elif spec == FLAG:
+        if not isinstance(value, bool):
+            raise _refuse(path, "true or false")
+    elif spec == ANY:
+        if not (value is None or isinstance(value, bool | int | float | str)):
+            raise _refuse(path, "a number, true or false, or text")
+    elif spec == TEXT_MAP:
+        if (
+            not isinstance(value, dict)
+            or len(value) > MAX_ENTRIES
+            or not all(isinstance(v, str) and len(v) <= MAX_TEXT for v in value.values())
+        ):
+            raise _refuse(path, "a mapping of source ids to citations")
+    elif isinstance(spec, tuple) and spec[0] == "one of":
+        if value not in spec[1]:
+            raise _refuse(path, "one of " + ", ".join(spec[1]))
+    elif isinstance(spec, tuple) and spec[0] == "list":
+        if not isinstance(value, list) or len(value) > spec[2]:
+            raise _refuse(path, f"a list of at most {spec[2]} entries")
+        for index, item in enumerate(value):
+            _check(f"{path}[{index}]", item, spec[1])
+    elif isinstance(spec, dict):
+        if not isinstance(value, dict):
+            raise _refuse(path, "a mapping")
+        for key, inner in spec.items():
+            given = value.get(key)
+            if given is None and not (isinstance(inner, tuple) and inner[0] == "optional"):
+                raise _refuse(f"{path}.{key}", "given")
+            _check(f"{path}.{key}", given, inner)
+    else:  # pragma: no cover — a schema entry this checker does not know
+        raise TypeError(f"unknown schema entry {spec!r}")
+
+
+def check_plan_json(data: object) -> dict:
+    """A plan's JSON checked before printing (``vetfluid sheet``): the keys the sheet
+    reads with the right kinds (:data:`PLAN_SCHEMA`), every number finite, hours within
+    :data:`MAX_SHEET_H`, phases, entries and doses counted within bounds, so a damaged
+    or hand-edited file is refused in one line naming the key instead of printing "nan",
+    failing half-way or running away. Returns the data."""
+    if not isinstance(data, dict):
+        kind = {list: "list", str: "text"}.get(type(data), "value")
+        raise InputError(f"it holds a JSON {kind}, not a plan", field=None, value=None)
+    _finite_everywhere(data)
+    for key, spec in PLAN_SCHEMA.items():
+        given = data.get(key)
+        if given is None and key not in ("weight_unit", "dehydration_estimate", "hard_limit",
+                                          "sources", "potassium", "sodium", "ins_and_outs",
+                                          "request"):  # fmt: skip
+            raise _refuse(key, "given")
+        _check(key, given, spec)
+    for key in CLOSED:
+        known = PLAN_SCHEMA[key][1]  # type: ignore[index]
+        extra = [k for k in data.get(key) or {} if k not in known]
+        if extra:
+            raise _refuse(f"{key}.{str(extra[0])[:40]}", "left out (not a key of a plan)")
+    if not data["phases"]:
+        raise _refuse("phases", "at least one phase")
+    doses = 0
+    for index, phase in enumerate(data["phases"]):
+        where = f"phases[{index}]"
+        if phase["end_h"] < phase["start_h"]:
+            raise _refuse(f"{where}.end_h", "at or after its start_h")
+        if phase["mode"] == "continuous":
+            _check(f"{where}.rate_ml_per_h", phase.get("rate_ml_per_h"), NUMBER)
+            continue
+        for key, spec in (("interval_h", NUMBER), ("doses", WHOLE), ("ml_per_site", NUMBER),
+                          ("sites_per_dose", WHOLE)):  # fmt: skip
+            _check(f"{where}.{key}", phase.get(key), spec)
+        if not 0 < phase["interval_h"] <= MAX_SHEET_H:
+            raise _refuse(f"{where}.interval_h", f"more than 0 and at most {MAX_SHEET_H:g} h")
+        doses += phase["doses"]
+        if not 0 <= phase["doses"] or doses > MAX_DOSES:
+            raise _refuse(f"{where}.doses", f"from 0 to {MAX_DOSES} over all phases")
+    io = data.get("ins_and_outs")
+    if io and not 0 < io["period_h"] <= MAX_SHEET_H:
+        raise _refuse("ins_and_outs.period_h", f"more than 0 and at most {MAX_SHEET_H:g} h")
+    return data
