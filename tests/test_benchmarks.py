@@ -65,3 +65,15 @@ def test_cli_plan_process_against_importing_pandas(benchmark):
     pandas_s = _median_seconds(pandas_cmd)
     benchmark.extra_info.update(import_pandas_median_s=pandas_s, ratio=cli_s / pandas_s)
     assert cli_s <= 1.5 * pandas_s, f"cli {cli_s:.3f}s vs import pandas {pandas_s:.3f}s"
+
+
+def test_build_plan_with_500_ins_and_outs_periods(benchmark):
+    # issue 17: plan time grew with the square of the periods; 500 hourly periods (three
+    # weeks measured hour by hour) must build in well under a second.
+    request = PlanRequest(
+        species_id="dog", weight_kg=20, dehydration_percent=7, ins_and_outs_period_h=1,
+        measured_outputs=((20.0, 5.0),) * 500,
+    )  # fmt: skip
+    plan = benchmark.pedantic(build_plan, args=(request, load_table()), rounds=5, iterations=1)
+    assert len(plan.phases) == 501
+    assert benchmark.stats["median"] < 0.5

@@ -332,3 +332,83 @@ def test_the_potassium_line_is_the_sheets_at_the_fastest_rate(capsys):
     data = plan_dict(build_plan(DEMOS["dehydrated_dog"].request))
     assert f"Potassium     {potassium_text(data)}" in out
     assert "at the fastest rate" in out
+
+
+# Issue 17, terminal output: text the user typed is echoed escaped, so a newline or an ANSI
+# escape in it cannot split the message or recolour the terminal.
+def test_user_text_is_echoed_escaped_in_one_line(capsys):
+    code, out, err = run(capsys, "plan", "--species", "dog", "--weight", "20 kg",
+                         "--finding", "x\n\x1b[31mFAKE")  # fmt: skip
+    assert code == 2 and out == ""
+    assert err.count("\n") == 1 and err.endswith("\n")
+    assert "\x1b" not in err and "\\x1b[31mFAKE" in err and "x\\n" in err
+
+
+def test_a_species_with_a_control_character_is_echoed_escaped(capsys):
+    code, _, err = run(capsys, "plan", "--species", "dog\r\x07", "--weight", "20 kg")
+    assert code == 2 and err.count("\n") == 1
+    assert "\r" not in err and "\x07" not in err
+
+
+# Issue 17, quiet misreadings: each is refused, not replaced by a default.
+@pytest.mark.parametrize("value", ["0", "0.03", "6", "-1"])
+def test_sodium_refuses_a_limit_outside_the_plans_range(capsys, value):
+    code, out, err = run(capsys, "sodium", "--species", "dog", "--weight", "10 kg",
+                         "--serum-na", "165", "--fluid", "nacl_0_45",
+                         "--max-na-change", value)  # fmt: skip
+    assert code == 2 and out == "" and "max" in err.lower()
+    plan_code, _, _ = run(capsys, "plan", "--species", "dog", "--weight", "10 kg",
+                          "--max-na-change", value)  # fmt: skip
+    assert plan_code == 2  # the same range in both commands
+
+
+def test_sodium_and_plan_accept_the_same_smallest_limit(capsys):
+    code, data = run_json(capsys, "sodium", "--species", "dog", "--weight", "10 kg",
+                          "--serum-na", "165", "--fluid", "nacl_0_45",
+                          "--max-na-change", "0.05")  # fmt: skip
+    assert code == 0 and data["max_change_per_h"] == 0.05
+    code, _, _ = run(capsys, "plan", "--species", "dog", "--weight", "10 kg",
+                     "--max-na-change", "0.05")  # fmt: skip
+    assert code == 0
+
+
+def test_course_refuses_a_horizon_of_zero(capsys):
+    code, _, err = run(capsys, "course", "--species", "dog", "--weight", "20 kg",
+                       "--horizon-h", "0")  # fmt: skip
+    assert code == 2 and "horizon" in err
+
+
+def test_course_refuses_hours_beyond_the_horizon_naming_them(capsys):
+    code, out, err = run(capsys, "course", "--species", "dog", "--weight", "20 kg",
+                         "--at", "0,5,24", "--horizon-h", "2")  # fmt: skip
+    assert code == 2 and out == ""
+    assert "5" in err and "24" in err and "horizon" in err
+
+
+def test_sodium_says_in_words_when_the_fluid_barely_moves_na(capsys):
+    # Adrogué–Madias 2000: lactated Ringer's (Na + K ≈ 134.3 mmol/L) into a Na of 134.5
+    # moves it by less than 0.5 mmol/L/h at any rate: no rate limit follows.
+    code, out, _ = run(capsys, "sodium", "--species", "dog", "--weight", "10 kg",
+                       "--serum-na", "134.5", "--fluid", "lactated_ringers")  # fmt: skip
+    assert code == 0
+    line = next(line for line in out.splitlines() if line.startswith("Fastest rate"))
+    assert "barely moves" in line and "mL/h" not in line
+    code, data = run_json(capsys, "sodium", "--species", "dog", "--weight", "10 kg",
+                          "--serum-na", "134.5", "--fluid", "lactated_ringers")  # fmt: skip
+    assert data["max_rate_ml_per_h"] is None
+
+
+@pytest.mark.parametrize(
+    "args",
+    [("plan", "--species", "dog", "--weight", "20 kg", "--serum-na", "١٦٥"),
+     ("plan", "--species", "dog", "--weight", "20 kg", "--boluses", "٣"),
+     ("plan", "--species", "dog", "--weight", "٢٠ kg"),
+     ("course", "--species", "dog", "--weight", "20 kg", "--at", "0,٥")],
+)  # fmt: skip
+def test_digits_other_than_0_to_9_are_refused_in_every_option(capsys, args):
+    try:
+        code = cli.main(list(args))
+    except SystemExit as exit_:  # refused while the options are read
+        code = exit_.code
+    out, err = capsys.readouterr()
+    assert code == 2 and out == "" and "0–9" in err and err.count("\n") == 1

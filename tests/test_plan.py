@@ -515,3 +515,22 @@ def test_a_neonate_below_the_adult_range_is_not_taken_for_a_unit_slip(weight_kg,
     found = codes(plan)
     severity = found.get("WEIGHT_UNIT_SLIP") or found.get("WEIGHT_OUTSIDE_RANGE")
     assert severity == expected
+
+
+# Ins-and-outs bounds (issue 17): a plan is refused before any work when it would run past
+# the longest horizon or hold more periods than a clinic records; these are software
+# bounds, not clinical values (common practice, no source).
+def test_500_ins_and_outs_periods_build():
+    plan = plan_for(species_id="dog", weight_kg=20, ins_and_outs_period_h=1,
+                    measured_outputs=((20.0, 5.0),) * 500)  # fmt: skip
+    assert sum(p.kind == "ins and outs" for p in plan.phases) == 501
+
+
+@pytest.mark.parametrize(
+    ("period_h", "periods", "words"),
+    [(1, 501, "periods"), (4, 400, "hours")],  # 501 periods; 401 × 4 h = 1604 h > 60 days
+)
+def test_too_many_ins_and_outs_periods_or_too_long_a_plan_is_refused(period_h, periods, words):
+    with pytest.raises(InputError, match=words):
+        PlanRequest(species_id="dog", weight_kg=20, ins_and_outs_period_h=period_h,
+                    measured_outputs=((20.0, 5.0),) * periods)  # fmt: skip

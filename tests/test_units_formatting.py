@@ -475,3 +475,18 @@ def test_read_decimal_refuses_what_is_not_a_number(text):
     with pytest.raises(InputError) as err:
         read_decimal(text)
     assert err.value.fix
+
+
+# Issue 17: "1e٣ g" was read as 1 kg while "٢٠ kg" was refused. One rule: a number is typed
+# with the digits 0–9 only; any other script's digits (Arabic-Indic, Devanagari, fullwidth)
+# are refused with a message saying so, in weights and in every other number alike.
+@pytest.mark.parametrize("text", ["1e٣ g", "٢٠ kg", "2० kg", "２０ kg", "1e\u0663 kg"])
+def test_a_weight_with_digits_other_than_0_to_9_is_refused(text):
+    with pytest.raises(InputError, match="0–9"):
+        parse_weight_kg(text)
+
+
+@pytest.mark.parametrize("text", ["٢٠", "7,٥", "１２", "1e٣", "1_000"])
+def test_a_number_with_digits_other_than_0_to_9_is_refused(text):
+    with pytest.raises(InputError, match="0–9"):
+        read_decimal(text)

@@ -12,12 +12,13 @@ import sys
 def sheet_command(argv: list[str]) -> int:
     """``vetfluid sheet PLAN.json -o sheet.pdf``: the treatment sheet, rendered offscreen."""
     import argparse
-    import json
     import os
     from pathlib import Path
 
     parser = argparse.ArgumentParser(prog="vetfluid sheet", description="Print a treatment sheet.")
-    parser.add_argument("plan", help="a plan as printed by `vetfluid-cli plan --json`")
+    parser.add_argument(
+        "plan", help="a plan as `vetfluid-cli plan --json` prints it, or a saved *.vfplan.json"
+    )
     parser.add_argument("-o", "--output", required=True, help="the PDF to write")
     parser.add_argument("--page", choices=("a4", "letter"), default="a4")
     parser.add_argument("--patient-name", default="")
@@ -26,21 +27,78 @@ def sheet_command(argv: list[str]) -> int:
     from vetfluid.errors import VetfluidError
     from vetfluid.sheet import page_mark, sheet_html
 
-    fix = "give the JSON that `vetfluid-cli plan --json` prints"
+    fix = (
+        "give the JSON that `vetfluid-cli plan --json` prints, or a plan file the window "
+        "saved (*.vfplan.json)"
+    )
+    if _same_file(Path(args.plan), Path(args.output)):
+        sys.stderr.write(
+            f"vetfluid sheet: the PDF would overwrite the plan it prints ({args.plan}) — "
+            "give another name after -o\n"
+        )
+        return 2
     try:
-        data = json.loads(Path(args.plan).read_text(encoding="utf-8"))
-        if not isinstance(data, dict):
-            raise ValueError(f"it holds a JSON {type(data).__name__}, not a plan")
-        html = sheet_html(data, patient={"name": args.patient_name} if args.patient_name else None)
+        data, acknowledged = _plan_to_print(Path(args.plan))
+    except VetfluidError as exc:  # a file that is not a plan, or a key of the wrong kind
+        sys.stderr.write(f"vetfluid sheet: cannot read {args.plan}: {exc.one_line()} — {fix}\n")
+        return 2
+    except OSError as exc:  # missing, or not ours to read
+        sys.stderr.write(f"vetfluid sheet: cannot read {args.plan}: {exc.strerror} — {fix}\n")
+        return 2
+    try:
+        html = sheet_html(
+            data,
+            patient={"name": args.patient_name} if args.patient_name else None,
+            acknowledged=acknowledged,
+        )
         mark = page_mark(data)
     except VetfluidError as exc:  # a figure the core refuses, e.g. a weight that is NaN
         sys.stderr.write(f"vetfluid sheet: cannot print {args.plan}: {exc.one_line()} — {fix}\n")
         return 2
     except (OSError, ValueError, KeyError, TypeError, AttributeError, IndexError) as exc:
-        # a file that is missing, not JSON, or JSON of another shape than a plan's
-        sys.stderr.write(f"vetfluid sheet: cannot read {args.plan}: {exc} — {fix}\n")
+        # a file that is missing, or JSON of another shape than a plan's
+        reason = " ".join(str(exc).split())[:200]
+        sys.stderr.write(f"vetfluid sheet: cannot read {args.plan}: {reason} — {fix}\n")
         return 2
     return _write_pdf(html, args.output, args.page, mark=mark)
+
+
+def _same_file(plan: object, output: object) -> bool:
+    """Whether writing ``output`` would overwrite ``plan`` (the same path however spelt,
+    or a link to it)."""
+    import os
+
+    try:
+        return plan.resolve() == output.resolve() or (  # type: ignore[attr-defined]
+            output.exists() and os.path.samefile(plan, output)  # type: ignore[attr-defined]
+        )
+    except OSError:
+        return False
+
+
+def _plan_to_print(path: object) -> tuple[dict, dict[str, str]]:
+    """The plan JSON to print and the reasons given: a plan as `vetfluid-cli plan --json`
+    prints it (checked, :func:`vetfluid.sheet.check_plan_json`), or a plan file the window
+    saved (``*.vfplan.json``), whose plan is built from its request, with the reasons that
+    still cover its warnings as they read now."""
+    from vetfluid.plan import build_plan
+    from vetfluid.request_file import read_json_file, request_file_from_data
+    from vetfluid.serialize import REQUEST_FORMAT, plan_dict
+    from vetfluid.sheet import check_plan_json
+
+    data = read_json_file(path, what="a vetfluid plan", max_bytes=1_000_000)  # type: ignore[arg-type]
+    if not (isinstance(data, dict) and data.get("format") == REQUEST_FORMAT):
+        return check_plan_json(data), {}
+    opened = request_file_from_data(data, name=path.name)  # type: ignore[attr-defined]
+    plan = build_plan(opened.request)
+    said = {f.code: f.message for f in plan.findings}
+    wording = opened.acknowledged_for
+    acknowledged = {
+        code: reason
+        for code, reason in opened.acknowledged.items()
+        if wording is None or (code in said and wording.get(code) == said[code])
+    }  # a reason given for other words of a warning does not cover it (ui/session.py)
+    return check_plan_json(plan_dict(plan)), acknowledged
 
 
 def chart_command(argv: list[str]) -> int:
@@ -85,11 +143,33 @@ def _write_pdf(html: str, output: str, page: str, *, mark: str = "") -> int:
     return 0
 
 
+USAGE = """\
+usage: vetfluid                       open the planning window
+       vetfluid sheet PLAN.json -o sheet.pdf [--page a4|letter] [--patient-name NAME]
+                                      print a plan's treatment sheet (no window needed)
+       vetfluid chart --species ID -o chart.pdf [--drop-factor N] [--page a4|letter]
+                                      print a species' weight-band chart (no window needed)
+       vetfluid --version             print the version
+       vetfluid --help                print this help
+
+Without a display, use `vetfluid sheet`, `vetfluid chart` or vetfluid-cli, or set
+QT_QPA_PLATFORM=offscreen. `vetfluid sheet --help` and `vetfluid chart --help` say more.
+"""
+
+
 def main(argv: list[str] | None = None) -> int:
     arguments = sys.argv[1:] if argv is None else argv[1:]
     commands = {"sheet": sheet_command, "chart": chart_command}
     if arguments and arguments[0] in commands:
         return commands[arguments[0]](arguments[1:])
+    if arguments and arguments[0] in ("-h", "--help"):
+        sys.stdout.write(USAGE)  # before Qt: help never opens a window
+        return 0
+    if arguments and arguments[0] == "--version":
+        from vetfluid import __version__
+
+        sys.stdout.write(f"vetfluid {__version__}\n")
+        return 0
     from ui.platform_check import display_problem
 
     problem = display_problem()

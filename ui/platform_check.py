@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import ctypes
 import os
+import re
+import socket
 import sys
 
 # shared library → Debian/Ubuntu package (Qt 6 xcb platform plugin)
@@ -52,15 +54,61 @@ def missing_packages(platform: str | None = None) -> list[str]:
     return sorted(set(missing))
 
 
+HEADLESS = (
+    "to work without a window, print with `vetfluid sheet` or `vetfluid chart` (or use "
+    "vetfluid-cli), or set QT_QPA_PLATFORM=offscreen"
+)
+X_PROBE_TIMEOUT_S = 0.5  # a remote X server that takes longer than this to accept is not used
+_DISPLAY_NAME = re.compile(r"^(?P<host>[^:]*):(?P<number>\d+)(?:\.\d+)?$")
+
+
+def x_server_answers(display: str) -> bool:
+    """Whether an X server accepts a connection at ``display`` (``:0``, ``unix:0``,
+    ``host:10.0``): the socket Xlib itself would use (the local one, abstract name first,
+    or TCP port 6000 + number), only connected to, so the check costs a millisecond.
+    Qt's xcb plugin aborts the process when this fails; asking first lets us say why."""
+    match = _DISPLAY_NAME.match(display)
+    if not match:
+        return False
+    number = int(match["number"])
+    host = match["host"]
+    if host in ("", "unix") or host.endswith("/unix"):
+        path = f"/tmp/.X11-unix/X{number}"
+        for address in ("\0" + path, path):
+            with socket.socket(socket.AF_UNIX, socket.SOCK_STREAM) as probe:
+                probe.settimeout(X_PROBE_TIMEOUT_S)
+                try:
+                    probe.connect(address)
+                    return True
+                except OSError:
+                    continue
+        if host:  # "unix:0" is the local socket only
+            return False
+        host = "localhost"  # ":0" falls back to TCP as Xlib does
+    try:
+        with socket.create_connection((host, 6000 + number), timeout=X_PROBE_TIMEOUT_S):
+            return True
+    except OSError:
+        return False
+
+
 def display_problem() -> str | None:
     """A message for the user when the window cannot open here, else None."""
     if not sys.platform.startswith("linux"):
         return None
     platform = os.environ.get("QT_QPA_PLATFORM", "")
-    if not platform and not (os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY")):
+    display = os.environ.get("DISPLAY", "")
+    if not platform and not (display or os.environ.get("WAYLAND_DISPLAY")):
         return (
             "vetfluid: no display found (neither DISPLAY nor WAYLAND_DISPLAY is set). "
             "Start it from a desktop session, or set QT_QPA_PLATFORM=offscreen for headless use."
+        )
+    # Qt picks X11 by itself here; a platform chosen by hand is left to the one who chose it
+    x11 = not platform and not os.environ.get("WAYLAND_DISPLAY")
+    if x11 and not x_server_answers(display):
+        return (
+            f"vetfluid: no display could be opened at DISPLAY={display!r} (no X server answers "
+            f"there); {HEADLESS}."
         )
     packages = missing_packages(platform or "xcb")
     if packages:

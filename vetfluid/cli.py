@@ -16,7 +16,7 @@ from datetime import date, datetime, time
 from typing import TYPE_CHECKING, NoReturn
 
 from vetfluid.cautions import CAUTIONS, SHORT_CAUTION
-from vetfluid.errors import InputError, VetfluidError
+from vetfluid.errors import InputError, VetfluidError, printable
 from vetfluid.formatting import format_number, format_quantity
 
 if TYPE_CHECKING:
@@ -32,8 +32,30 @@ class _Parser(argparse.ArgumentParser):
     def error(self, message: str) -> NoReturn:
         self.exit(
             EXIT_INPUT,
-            f"vetfluid-cli: {message} — see `vetfluid-cli {self.prog.split()[-1]} --help`\n",
+            f"vetfluid-cli: {printable(message)} — see `vetfluid-cli {self.prog.split()[-1]} "
+            "--help`\n",
         )
+
+
+def _number(text: str) -> float:
+    """An option's number, read as every number the user types is
+    (:func:`vetfluid.units.read_number`: digits 0–9, decimal point or comma)."""
+    from vetfluid.units import read_number
+
+    try:
+        return read_number(text, field="number")
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(f"{exc.message} ({text!r}) — {exc.fix}") from None
+
+
+def _whole(text: str) -> int:
+    """An option's whole number (:func:`vetfluid.units.read_whole_number`)."""
+    from vetfluid.units import read_whole_number
+
+    try:
+        return read_whole_number(text, field="number")
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(f"{exc.message} ({text!r}) — {exc.fix}") from None
 
 
 def _start_time(text: str) -> time:
@@ -44,11 +66,13 @@ def _start_time(text: str) -> time:
 
 
 def _volumes(text: str) -> tuple[float, ...]:
+    from vetfluid.units import read_number
+
     try:
-        return tuple(float(part) for part in text.split(",") if part.strip())
-    except ValueError:
+        return tuple(read_number(part) for part in text.split(",") if part.strip())
+    except InputError as exc:
         raise argparse.ArgumentTypeError(
-            f"{text!r} must be volumes in mL separated by commas, e.g. 60,45"
+            f"{text!r} must be volumes in mL separated by commas, e.g. 60,45 ({exc.message})"
         ) from None
 
 
@@ -89,10 +113,10 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
 
     add("--species", help="species id (see `vetfluid-cli species`)")
     add("--weight", help='body weight with unit, e.g. "20 kg" or "350 g"')
-    add("--dehydration", type=float, help="estimated dehydration, %% of body weight")
+    add("--dehydration", type=_number, help="estimated dehydration, %% of body weight")
     add("--finding", action="append", default=[], help="clinical finding id (repeatable)")
-    add("--replace-hours", type=float, default=24.0, help="period to replace the deficit (h)")
-    add("--losses-ml-per-day", type=float, default=0.0, help="ongoing losses (mL/day)")
+    add("--replace-hours", type=_number, default=24.0, help="period to replace the deficit (h)")
+    add("--losses-ml-per-day", type=_number, default=0.0, help="ongoing losses (mL/day)")
     add("--maintenance-method", choices=("linear", "allometric", "energy"))
     add("--fluid", default="lactated_ringers", help="fluid id (see `vetfluid-cli fluids`)")
     add(
@@ -101,20 +125,20 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
     )  # fmt: skip
     add("--route", choices=("iv", "cvc", "io", "sc", "icoel"), help="cvc: a central line")
     add("--device", choices=("pump", "gravity", "syringe", "divided"))
-    add("--drop-factor", type=float, help="giving set drops/mL (implies a gravity drip)")
-    add("--boluses", type=int, default=0, help="resuscitation boluses to plan first")
-    add("--body-temp-c", type=float, help="body temperature (ectotherms)")
-    add("--serum-na", type=float, help="serum sodium, mmol/L")
-    add("--serum-k", type=float, help="serum potassium, mmol/L")
-    add("--usg", type=float, help="urine specific gravity")
-    add("--urine-osm", type=float, help="urine osmolality, mOsm/kg")
-    add("--kcl-mmol-per-l", type=float, help="KCl to add per litre, by hand")
-    add("--dextrose-percent", type=float, default=0.0, help="dextrose to add, %% w/v")
+    add("--drop-factor", type=_number, help="giving set drops/mL (implies a gravity drip)")
+    add("--boluses", type=_whole, default=0, help="resuscitation boluses to plan first")
+    add("--body-temp-c", type=_number, help="body temperature (ectotherms)")
+    add("--serum-na", type=_number, help="serum sodium, mmol/L")
+    add("--serum-k", type=_number, help="serum potassium, mmol/L")
+    add("--usg", type=_number, help="urine specific gravity")
+    add("--urine-osm", type=_number, help="urine osmolality, mOsm/kg")
+    add("--kcl-mmol-per-l", type=_number, help="KCl to add per litre, by hand")
+    add("--dextrose-percent", type=_number, default=0.0, help="dextrose to add, %% w/v")
     add("--start", type=_start_time, help="clock time of hour 0, HH:MM")
     add("--start-date", type=_start_date, help="date of hour 0, YYYY-MM-DD")
     add(
         "--ins-and-outs-period",
-        type=float,
+        type=_number,
         metavar="H",
         help="plan by ins and outs in periods of H hours (oliguric patients)",
     )
@@ -132,10 +156,10 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
         metavar="V1,V2,…",
         help="other measured losses (vomit, diarrhoea, drains) per period, mL",
     )
-    add("--max-na-change", type=float, help="maximum Na change, mmol/L/h")
-    add("--syringe-ml", type=float, default=60.0, help="syringe size, mL")
-    add("--pcv", type=float, help="packed cell volume, %% (recorded with the plan)")
-    add("--ts", type=float, help="total solids, g/dL (recorded with the plan)")
+    add("--max-na-change", type=_number, help="maximum Na change, mmol/L/h")
+    add("--syringe-ml", type=_number, default=60.0, help="syringe size, mL")
+    add("--pcv", type=_number, help="packed cell volume, %% (recorded with the plan)")
+    add("--ts", type=_number, help="total solids, g/dL (recorded with the plan)")
     for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
         add(f"--{flag}", action="store_true", help=f"patient flag: {flag}")
     parser.add_argument("--json", action="store_true")
@@ -164,16 +188,18 @@ def _parser(*, only_given: bool = False) -> argparse.ArgumentParser:
 
     course = sub.add_parser("course", help="body water, weight and Na over the course of a plan")
     _add_plan_arguments(course, only_given=only_given)
-    course.add_argument("--bolus-ml-per-kg", type=float, help="an extra IV bolus at hour 0, mL/kg")
+    course.add_argument(
+        "--bolus-ml-per-kg", type=_number, help="an extra IV bolus at hour 0, mL/kg"
+    )
     course.add_argument("--bolus-fluid", default="nacl_0_9", help="fluid id of the extra bolus")
-    course.add_argument("--bolus-minutes", type=float, default=15.0, help="bolus duration, min")
+    course.add_argument("--bolus-minutes", type=_number, default=15.0, help="bolus duration, min")
     course.add_argument("--at", default="0,1,4,12,24", help="hours to report, e.g. 0,0.5,2,24")
-    course.add_argument("--horizon-h", type=float, help="hours to simulate (up to 336)")
+    course.add_argument("--horizon-h", type=_number, help="hours to simulate (up to 336)")
 
     chart = sub.add_parser("chart", help="weight-band quick-reference chart for a species")
     chart.add_argument("--species", required=True)
-    chart.add_argument("--drop-factor", type=float, default=20.0)
-    chart.add_argument("--bands", type=int, default=10)
+    chart.add_argument("--drop-factor", type=_number, default=20.0)
+    chart.add_argument("--bands", type=_whole, default=10)
     chart_format = chart.add_mutually_exclusive_group()
     chart_format.add_argument("--json", action="store_true")
     chart_format.add_argument("--csv", action="store_true")
@@ -181,10 +207,10 @@ def _parser(*, only_given: bool = False) -> argparse.ArgumentParser:
     sodium = sub.add_parser("sodium", help="predicted serum Na change per litre (Adrogué–Madias)")
     sodium.add_argument("--species", required=True)
     sodium.add_argument("--weight", required=True)
-    sodium.add_argument("--serum-na", required=True, type=float)
+    sodium.add_argument("--serum-na", required=True, type=_number)
     sodium.add_argument("--fluid", required=True)
     sodium.add_argument(
-        "--max-na-change", type=float, help="mmol/L/h (default from the limits table)"
+        "--max-na-change", type=_number, help="mmol/L/h (default from the limits table)"
     )
     sodium.add_argument("--json", action="store_true")
     return parser
@@ -489,7 +515,9 @@ def cmd_chart(args: argparse.Namespace) -> int:
 
 def cmd_sodium(args: argparse.Namespace) -> int:
     from vetfluid import electrolytes, fluid_roles, fluids
+    from vetfluid.checks import require_number
     from vetfluid.limits import limit
+    from vetfluid.plan import MAX_NA_CHANGE_RANGE_MMOL_PER_L_H
     from vetfluid.species import load_table
     from vetfluid.units import parse_weight_kg
 
@@ -507,7 +535,12 @@ def cmd_sodium(args: argparse.Namespace) -> int:
         serum_na=args.serum_na, infusate_na=comp.na_mmol_per_l,
         infusate_k=comp.k_mmol_per_l, tbw_l=tbw.number * weight,
     )  # fmt: skip
-    max_change = args.max_na_change or limit("sodium_max_correction_mmol_per_l_h").value
+    max_change = limit("sodium_max_correction_mmol_per_l_h").value
+    if args.max_na_change is not None:  # the plan's own range (PlanRequest), never a default
+        low, high = MAX_NA_CHANGE_RANGE_MMOL_PER_L_H
+        max_change = require_number(
+            args.max_na_change, "--max-na-change", low=low, high=high, unit="mmol/L/h"
+        )
     data = {
         "species_id": args.species,
         "weight_kg": weight,
@@ -532,20 +565,30 @@ def cmd_sodium(args: argparse.Namespace) -> int:
         return EXIT_OK
     print(f"TBW {_q(data['tbw_l'], 'L')} ({tbw.number:g} × BW, {tbw.basis})")
     print(f"ΔNa after 1 L of {fluids.fluid(args.fluid).name}: {_q(change, 'mmol/L')}")
+    fastest = data["max_rate_ml_per_h"]
     print(
-        f"Fastest rate within {_q(max_change, 'mmol/L/h')}: {_q(data['max_rate_ml_per_h'], 'mL/h')}"
+        f"Fastest rate within {_q(max_change, 'mmol/L/h')}: {_q(fastest, 'mL/h')}"
+        if fastest is not None
+        # Na + K of the fluid within the limit of the patient's Na: no rate moves Na faster
+        else f"Fastest rate within {_q(max_change, 'mmol/L/h')}: none from this rule — "
+        f"{fluids.fluid(args.fluid).name} barely moves a Na of "
+        f"{format_quantity(args.serum_na, 'mmol/L', decimals=1)}, so no rate limit follows "
+        "from it (set the rate by the volume the patient needs)"
     )
     print("\n" + _cautions_text())
     return EXIT_OK
 
 
 def _hours(text: str) -> list[float]:
+    from vetfluid.units import read_number
+
     try:
-        hours = [float(part) for part in text.split(",") if part.strip()]
-    except ValueError:
+        hours = [read_number(part, field="--at") for part in text.split(",") if part.strip()]
+    except InputError as exc:
         raise InputError(
-            "--at must list hours separated by commas", field="--at", value=text, fix="e.g. 0,1,24"
-        ) from None
+            f"--at must list hours separated by commas ({exc.message})", field="--at",
+            value=text, fix="e.g. 0,1,24",
+        ) from None  # fmt: skip
     if not hours or any(h < 0 for h in hours):
         raise InputError("--at needs hours of 0 or more", field="--at", value=text)
     return hours
@@ -579,19 +622,30 @@ def _course_cell(row: dict, key: str, weight_unit: str) -> str:
 
 
 def cmd_course(args: argparse.Namespace) -> int:
-    from vetfluid.course import SHOWN_STEP_MINUTES, bolus_input, course
+    from vetfluid.checks import require_number
+    from vetfluid.course import MAX_HORIZON_H, SHOWN_STEP_MINUTES, bolus_input, course
     from vetfluid.plan import build_plan
     from vetfluid.units import weight_text
 
-    plan = build_plan(_request(args))
     hours = _hours(args.at)
+    if args.horizon_h is not None:
+        require_number(args.horizon_h, "--horizon-h", positive=True, high=MAX_HORIZON_H, unit="h")
+        beyond = [h for h in hours if h > args.horizon_h]
+        if beyond:  # never reported at the horizon's last hour in their place
+            raise InputError(
+                f"hours {', '.join(f'{h:g}' for h in beyond)} are beyond the horizon of "
+                f"{args.horizon_h:g} h",
+                field="--at", value=args.at,
+                fix="leave those hours out, or give a --horizon-h that reaches them",
+            )  # fmt: skip
+    plan = build_plan(_request(args))
     extra = ()
     if args.bolus_ml_per_kg:
         extra = (
             bolus_input(fluid_id=args.bolus_fluid, ml_per_kg=args.bolus_ml_per_kg,
                         weight_kg=plan.request.weight_kg, minutes=args.bolus_minutes),
         )  # fmt: skip
-    horizon = args.horizon_h or max(max(hours), plan.end_h)
+    horizon = args.horizon_h if args.horizon_h is not None else max(max(hours), plan.end_h)
     result = course(  # at the window's step: the same figures as the Course tab
         plan, horizon_h=horizon, extra_boluses=extra, step_minutes=SHOWN_STEP_MINUTES
     )

@@ -6,7 +6,18 @@ line and the window can show the message where the user acted.
 
 from __future__ import annotations
 
+import unicodedata
 from typing import Any
+
+
+def printable(text: object) -> str:
+    """Text safe to echo on one line of a terminal or a status bar: control and format
+    characters (newline, ESC of an ANSI colour, bidirectional overrides) shown as the
+    escapes ``repr`` uses (``\\n``, ``\\x1b``, ``\\u202e``), everything else as typed."""
+    return "".join(
+        repr(ch)[1:-1] if unicodedata.category(ch) in ("Cc", "Cf", "Zl", "Zp") else ch
+        for ch in str(text)
+    )
 
 
 class VetfluidError(Exception):
@@ -22,14 +33,15 @@ class VetfluidError(Exception):
         super().__init__(self.one_line())
 
     def one_line(self) -> str:
-        """The message, the field and the fix on one line (for stderr and status bars)."""
+        """The message, the field and the fix on one line (for stderr and status bars);
+        what the user typed and is echoed in them is escaped (:func:`printable`)."""
         parts = []
         if self.field:
             parts.append(f"{self.field}: ")
         parts.append(self.message)
         if self.fix:
             parts.append(f" — {self.fix}")
-        return "".join(parts)
+        return printable("".join(parts))
 
 
 class InputError(VetfluidError):

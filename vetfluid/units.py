@@ -20,7 +20,7 @@ from vetfluid.formatting import entered_number
 
 KG_PER_LB = 0.45359237
 _WEIGHT_UNITS = {"g": 1e-3, "kg": 1.0, "lb": KG_PER_LB, "lbs": KG_PER_LB, "mg": 1e-6}
-_WEIGHT_PATTERN = re.compile(r"^\s*([0-9]*[.,]?[0-9]+(?:[eE][-+]?\d+)?)\s*([a-zA-Z]*)\s*$")
+_WEIGHT_PATTERN = re.compile(r"^\s*([0-9]*[.,]?[0-9]+(?:[eE][-+]?[0-9]+)?)\s*([a-zA-Z]*)\s*$")
 
 
 _THOUSANDS_OR_DECIMAL = re.compile(r"[-+]?[1-9]\d{0,2},\d{3}")  # "0,500" is 0.5: no group starts 0
@@ -38,12 +38,42 @@ def _not_ambiguous(digits: str, text: object, field: str, unit: str = "") -> Non
         )
 
 
+def _plain_digits(text: object, field: str) -> None:
+    """Numbers are typed with the digits 0–9 only. Python reads other scripts' digits
+    (``٢٠``, ``２０``) and ``1_000`` as numbers; a clinic keyboard seldom types them, so one
+    that arrives is a paste or a slip, refused everywhere rather than read in some places."""
+    if any(ch == "_" or (ch.isdigit() and ch not in "0123456789") for ch in str(text)):
+        raise InputError(
+            "a number must be written with the digits 0–9",
+            field=field, value=text, fix="retype it with the digits 0–9 and a decimal point",
+        )  # fmt: skip
+
+
+def read_number(text: str, *, field: str = "value") -> float:
+    """A number that must be given (:func:`read_decimal`, never empty): for the command
+    line's options, so every typed number follows the same rules."""
+    number = read_decimal(text, field=field)
+    if number is None:
+        raise InputError("a number is needed here", field=field, value=text, fix="e.g. 7.5")
+    return number
+
+
+def read_whole_number(text: str, *, field: str = "value") -> int:
+    """A whole number typed with the digits 0–9 (``3``; never ``3.5`` or ``٣``)."""
+    _plain_digits(text, field)
+    cleaned = str(text).strip()
+    if not re.fullmatch(r"[-+]?[0-9]+", cleaned):
+        raise InputError("not a whole number", field=field, value=text, fix="e.g. 3")
+    return int(cleaned)
+
+
 def read_decimal(text: str, *, field: str = "value") -> float | None:
     """The number typed in a field (a decimal comma is accepted: ``7,5`` is 7.5), None
     when empty. ``1,500`` is refused as ambiguous (thousands or decimal?), never guessed."""
     cleaned = str(text).strip()
     if not cleaned:
         return None
+    _plain_digits(text, field)
     _not_ambiguous(cleaned, text, field)
     try:
         number = float(cleaned.replace(",", "."))
@@ -71,6 +101,7 @@ def parse_weight_kg(text: str | float | int, *, default_unit: str | None = None)
                 fix='write e.g. "350 g" or "20 kg"',
             )
         text = f"{text} {default_unit}"
+    _plain_digits(text, "weight")
     match = _WEIGHT_PATTERN.match(str(text))
     if not match:
         raise InputError(
