@@ -218,14 +218,11 @@ def test_a_bad_override_source_is_reported_and_rows_citing_it_are_ignored():
 @pytest.mark.parametrize(
     "bad", ["dgo{n},body_weght,{n},,,kg,,memory,", "dog,body_weight_kg,{n},,,kg,too,many,fields,x"]
 )
-def test_a_file_of_thousands_of_bad_rows_is_one_notice_and_quick(bad):
-    import time
-
+def test_a_file_of_thousands_of_bad_rows_is_one_notice(bad):
+    # (its speed is not timed here: the reading stops at the 101st bad row by design)
     rows = (bad.format(n=n) for n in range(50_000))
     _write("dog,blood_volume_ml_per_kg,85,,,mL/kg,,memory,", *rows)
-    started = time.perf_counter()
     table = load_table()
-    assert time.perf_counter() - started < 3
     [notice] = table.notices
     assert notice.location == "overrides/parameters.csv" and "more than 100 rows" in notice.problem
     # a file this far off is not the clinic's: none of it is used
