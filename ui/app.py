@@ -24,8 +24,10 @@ def sheet_command(argv: list[str]) -> int:
     parser.add_argument("--patient-name", default="")
     args = parser.parse_args(argv)
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # no window is shown
-    from vetfluid.errors import VetfluidError
+    from vetfluid.errors import VetfluidError, printable
     from vetfluid.sheet import page_mark, sheet_html
+
+    shown = printable(args.plan)[:200]  # a file name echoed escaped, one line
 
     fix = (
         "give the JSON that `vetfluid-cli plan --json` prints, or a plan file the window "
@@ -33,17 +35,18 @@ def sheet_command(argv: list[str]) -> int:
     )
     if _same_file(Path(args.plan), Path(args.output)):
         sys.stderr.write(
-            f"vetfluid sheet: the PDF would overwrite the plan it prints ({args.plan}) — "
+            f"vetfluid sheet: the PDF would overwrite the plan it prints ({shown}) — "
             "give another name after -o\n"
         )
         return 2
     try:
         data, acknowledged = _plan_to_print(Path(args.plan))
     except VetfluidError as exc:  # a file that is not a plan, or a key of the wrong kind
-        sys.stderr.write(f"vetfluid sheet: cannot read {args.plan}: {exc.one_line()} — {fix}\n")
+        why = exc.one_line()[:400]
+        sys.stderr.write(f"vetfluid sheet: cannot read {shown}: {why} — {fix}\n")
         return 2
     except OSError as exc:  # missing, or not ours to read
-        sys.stderr.write(f"vetfluid sheet: cannot read {args.plan}: {exc.strerror} — {fix}\n")
+        sys.stderr.write(f"vetfluid sheet: cannot read {shown}: {exc.strerror} — {fix}\n")
         return 2
     try:
         html = sheet_html(
@@ -53,12 +56,13 @@ def sheet_command(argv: list[str]) -> int:
         )
         mark = page_mark(data)
     except VetfluidError as exc:  # a figure the core refuses, e.g. a weight that is NaN
-        sys.stderr.write(f"vetfluid sheet: cannot print {args.plan}: {exc.one_line()} — {fix}\n")
+        why = exc.one_line()[:400]
+        sys.stderr.write(f"vetfluid sheet: cannot print {shown}: {why} — {fix}\n")
         return 2
     except (OSError, ValueError, KeyError, TypeError, AttributeError, IndexError) as exc:
         # a file that is missing, or JSON of another shape than a plan's
-        reason = " ".join(str(exc).split())[:200]
-        sys.stderr.write(f"vetfluid sheet: cannot read {args.plan}: {reason} — {fix}\n")
+        reason = printable(" ".join(str(exc).split()))[:200]
+        sys.stderr.write(f"vetfluid sheet: cannot read {shown}: {reason} — {fix}\n")
         return 2
     return _write_pdf(html, args.output, args.page, mark=mark)
 
@@ -83,12 +87,17 @@ def _plan_to_print(path: object) -> tuple[dict, dict[str, str]]:
     still cover its warnings as they read now."""
     from vetfluid.plan import build_plan
     from vetfluid.request_file import read_json_file, request_file_from_data
-    from vetfluid.serialize import REQUEST_FORMAT, plan_dict
+    from vetfluid.serialize import REQUEST_FORMAT, plan_dict, request_from_dict
     from vetfluid.sheet import check_plan_json
 
     data = read_json_file(path, what="a vetfluid plan", max_bytes=1_000_000)  # type: ignore[arg-type]
     if not (isinstance(data, dict) and data.get("format") == REQUEST_FORMAT):
-        return check_plan_json(data), {}
+        checked = check_plan_json(data)
+        if isinstance(data.get("request"), dict):
+            # print what the core plans for this request, never figures edited in the file:
+            # the sheet, the window and the CLI must agree
+            return check_plan_json(plan_dict(build_plan(request_from_dict(data["request"])))), {}
+        return checked, {}
     opened = request_file_from_data(data, name=path.name)  # type: ignore[attr-defined]
     plan = build_plan(opened.request)
     said = {f.code: f.message for f in plan.findings}
@@ -110,7 +119,7 @@ def chart_command(argv: list[str]) -> int:
         prog="vetfluid chart", description="Print a species' weight-band chart."
     )
     parser.add_argument("--species", required=True, help="a species id (vetfluid-cli species)")
-    parser.add_argument("--drop-factor", type=float, default=20, help="drops/mL of the drip set")
+    parser.add_argument("--drop-factor", default="20", help="drops/mL of the drip set")
     parser.add_argument("-o", "--output", required=True, help="the PDF to write")
     parser.add_argument("--page", choices=("a4", "letter"), default="a4")
     args = parser.parse_args(argv)
@@ -118,9 +127,11 @@ def chart_command(argv: list[str]) -> int:
     from vetfluid.chart import chart
     from vetfluid.chart_sheet import chart_sheet_html
     from vetfluid.errors import VetfluidError
+    from vetfluid.units import read_number
 
     try:
-        html = chart_sheet_html(chart(args.species, drop_factor=args.drop_factor))
+        drop_factor = read_number(args.drop_factor, field="--drop-factor")  # digits 0–9 only
+        html = chart_sheet_html(chart(args.species, drop_factor=drop_factor))
     except VetfluidError as exc:
         sys.stderr.write(f"vetfluid chart: {exc.one_line()}\n")
         return 2
@@ -132,14 +143,15 @@ def _write_pdf(html: str, output: str, page: str, *, mark: str = "") -> int:
     from PySide6.QtWidgets import QApplication
 
     from ui.printing import print_sheet_to_pdf
+    from vetfluid.errors import printable
 
     app = QApplication.instance() or QApplication(["vetfluid"])  # noqa: F841 (Qt needs one)
     try:
         pages = print_sheet_to_pdf(html, output, page=page, mark=mark)
     except OSError as exc:
-        sys.stderr.write(f"vetfluid: cannot write {output}: {exc}\n")
+        sys.stderr.write(f"vetfluid: cannot write {printable(output)[:200]}: {exc.strerror}\n")
         return 2
-    sys.stdout.write(f"wrote {output} ({pages} page{'s' if pages != 1 else ''})\n")
+    sys.stdout.write(f"wrote {printable(output)} ({pages} page{'s' if pages != 1 else ''})\n")
     return 0
 
 

@@ -8,6 +8,7 @@ message stays one line.
 from __future__ import annotations
 
 import csv
+import re
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -141,10 +142,16 @@ def unique_rows(
         raise SpeciesDataError("no rows", location=f"{path.name}:1", fix="add at least one row")
 
 
+_PLAIN_NUMBER = re.compile(r"[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?|[+-]?(inf|nan)")
+
+
 def parse_number(text: str, *, location: str, column: str) -> float | None:
     if text == "":
         return None
     try:
+        # digits 0–9 only, as everywhere a number is read (float() would take ٢٥ or 2_5)
+        if not _PLAIN_NUMBER.fullmatch(text.strip()):
+            raise ValueError(text)
         number = float(text)
     except ValueError:
         raise SpeciesDataError(

@@ -172,13 +172,14 @@ def max_rate_for_sodium(
     """Fastest rate (mL/h) whose first hour moves serum Na by at most ``max_change_per_h``.
 
     From the general form: |V·d|/(TBW + V) ≤ m with d = Na_inf + K_inf − Na gives
-    V ≤ m·TBW/(|d| − m) litres per hour. None when |d| ≤ m: then no rate of this fluid
-    can move Na that fast (it barely moves Na; no limit from this rule).
+    V ≤ m·TBW/(|d| − m) litres per hour. None when |d| ≤ 2m: then only a rate of more than
+    the patient's whole body water an hour could move Na that fast — the fluid barely
+    moves Na and no rate limit follows from this rule (never a runaway figure).
     """
     _finite("max_change_per_h", max_change_per_h, 0.01, 5, "mmol/L/h")
     _finite("tbw_l", tbw_l, 1e-6, 1e5, "L")
     gap = abs(infusate_na_k - serum_na)
-    if gap <= max_change_per_h:
+    if gap <= 2 * max_change_per_h:
         return None
     return max_change_per_h * tbw_l / (gap - max_change_per_h) * 1000.0
 
