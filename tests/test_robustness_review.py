@@ -75,3 +75,19 @@ def test_a_sheet_prints_what_the_core_plans_not_figures_edited_in_the_file(tmp_p
     printed, _ = _plan_to_print(edited)
     assert printed["phases"][0]["rate_ml_per_h"] != 5000.0
     assert printed["phases"][0]["volume_ml"] < 10000
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="POSIX file modes")
+def test_a_log_an_older_version_left_readable_is_narrowed_when_written(tmp_path, monkeypatch):
+    import os
+    import stat
+
+    from ui import errors
+
+    log = tmp_path / "vetfluid.log"
+    log.write_text("old\n")
+    os.chmod(log, 0o644)
+    monkeypatch.setattr(errors, "log_path", lambda: log)
+    errors.write_log("new\n")
+    assert stat.S_IMODE(log.stat().st_mode) == 0o600
+    assert log.read_text() == "old\nnew\n"

@@ -13,7 +13,7 @@ import traceback
 from pathlib import Path
 from types import TracebackType
 
-from vetfluid.paths import user_data_dir
+from vetfluid.paths import owner_only_file, user_data_dir
 
 LOG_NAME = "vetfluid.log"
 
@@ -25,7 +25,9 @@ def log_path() -> Path:
 def write_log(text: str) -> None:
     """Append to the log, created readable by its owner only (0600) from its first byte:
     a traceback can hold what was on screen, a patient's name among it."""
-    handle = os.open(log_path(), os.O_WRONLY | os.O_APPEND | os.O_CREAT, 0o600)
+    path = log_path()
+    owner_only_file(path)  # a log an older vetfluid left readable to all is narrowed first
+    handle = os.open(path, os.O_WRONLY | os.O_APPEND | os.O_CREAT, 0o600)
     with os.fdopen(handle, "a", encoding="utf-8") as log:
         log.write(text)
 
