@@ -28,6 +28,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import re
@@ -166,10 +167,8 @@ def _private(path: Path) -> None:
     """Make ``path`` (created empty if missing) and its SQLite side files owner-only
     before anything is written into them: a file an older vetfluid left readable to all
     is narrowed before more patient data goes in."""
-    try:
+    with contextlib.suppress(FileExistsError):  # an existing file is narrowed below
         os.close(os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600))
-    except FileExistsError:
-        pass
     for side in ("", "-wal", "-shm", "-journal"):
         kept = path.with_name(path.name + side)
         if kept.exists() and kept.stat().st_mode & 0o077:

@@ -6,6 +6,7 @@ stable and documented in README.md.
 
 from __future__ import annotations
 
+import contextlib
 import math
 from dataclasses import MISSING, asdict, fields
 from datetime import date, datetime, time
@@ -293,17 +294,13 @@ def _read_value(name: str, hint: object, value: object) -> object:
         return value
     if hint is time:
         if isinstance(value, str) and len(value) == 5:
-            try:
+            with contextlib.suppress(ValueError):  # not a clock time: refused below
                 return datetime.strptime(value, "%H:%M").time()
-            except ValueError:
-                pass
         raise InputError("start time must be HH:MM", field=name, value=None)
     if hint is date:
         if isinstance(value, str) and len(value) == 10:
-            try:
+            with contextlib.suppress(ValueError):  # not a date: refused below
                 return date.fromisoformat(value)
-            except ValueError:
-                pass
         raise InputError("start date must be YYYY-MM-DD", field=name, value=None)
     if get_origin(hint) is tuple:
         if not isinstance(value, list | tuple) or len(value) > MAX_LIST_ITEMS:
