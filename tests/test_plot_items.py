@@ -174,10 +174,10 @@ def test_a_shaded_trace_closes_down_to_zero(qtbot):
 
 
 def test_tick_grid_draws_at_the_axis_ticks_in_the_text_colour(qtbot):
+    import pyqtgraph as pg
     from PySide6.QtGui import QColor
 
     from ui.plot_items import TickGrid
-    from ui.pyqtgraph_loader import pg
 
     widget = pg.PlotWidget()
     qtbot.addWidget(widget)
@@ -209,8 +209,9 @@ def test_tick_grid_draws_at_the_axis_ticks_in_the_text_colour(qtbot):
 
 
 def test_tick_grid_works_its_lines_out_again_when_the_range_moves(qtbot):
+    import pyqtgraph as pg
+
     from ui.plot_items import TickGrid
-    from ui.pyqtgraph_loader import pg
 
     widget = pg.PlotWidget()
     qtbot.addWidget(widget)
@@ -230,10 +231,10 @@ def test_tick_grid_works_its_lines_out_again_when_the_range_moves(qtbot):
 
 
 def test_plot_label_sits_above_left_of_its_point_at_a_fixed_pixel_size(qtbot):
+    import pyqtgraph as pg
     from PySide6.QtWidgets import QApplication
 
     from ui.plot_items import PlotLabel
-    from ui.pyqtgraph_loader import pg
 
     widget = pg.PlotWidget()
     qtbot.addWidget(widget)
@@ -270,8 +271,9 @@ def test_plot_label_sits_above_left_of_its_point_at_a_fixed_pixel_size(qtbot):
 
 
 def test_plot_axis_bounds_follow_its_geometry_and_tick_style(qtbot):
+    import pyqtgraph as pg
+
     from ui.plot_items import PlotAxis
-    from ui.pyqtgraph_loader import pg
 
     widget = pg.PlotWidget(axisItems={"left": PlotAxis("left")})
     qtbot.addWidget(widget)

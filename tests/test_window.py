@@ -663,26 +663,6 @@ def test_a_plan_without_a_start_date_goes_on_the_last_day_its_time_came(
     assert not settings.start_note.isVisible()
 
 
-def test_module_sources_read_while_building_are_not_kept(tmp_path, monkeypatch):
-    """PySide6's import hook reads each new module's source; while the window builds its
-    heavy parts, linecache must not keep it (numpy's and pyqtgraph's: MiB at the peak)."""
-    import linecache
-
-    from ui.main_window import sources_not_kept
-
-    module = tmp_path / "vetfluid_probe_module.py"
-    module.write_text("VALUE = 1\n", encoding="utf-8")
-    monkeypatch.syspath_prepend(str(tmp_path))
-    monkeypatch.delitem(sys.modules, "vetfluid_probe_module", raising=False)
-    original = linecache.cache
-    with sources_not_kept():
-        import vetfluid_probe_module  # noqa: F401  (read by PySide6's hook as it loads)
-
-        assert linecache.getline(str(module), 1) == "VALUE = 1\n"  # tracebacks still read it
-    assert linecache.cache is original
-    assert str(module) not in linecache.cache
-
-
 def test_the_findings_estimate_says_when_its_bands_are_not_for_this_species(qtbot, window):
     patient = window.patient
     patient.species_box.lineEdit().setText("Bearded dragon")

@@ -53,7 +53,8 @@ def test_cold_start_and_memory_against_a_bare_window(benchmark):
 
     results = benchmark.pedantic(measure, args=(5,), rounds=1, iterations=1)
     benchmark.extra_info.update(results)
-    assert results["start_ratio"] <= 1.5, results
-    assert results["memory_ratio"] <= 2.0, results
-    assert results["memory_ratio_with_plots"] <= 2.0, results  # the peak, plots open
-    assert results["memory_ratio_all_views"] <= 2.0, results  # every view built
+    # targets: first paint within 1.3× a bare window, peak memory within 2.5×
+    assert results["start_ratio"] <= 1.3, results
+    assert results["memory_ratio"] <= 2.5, results
+    assert results["memory_ratio_with_plots"] <= 2.5, results  # the peak, plots open
+    assert results["memory_ratio_all_views"] <= 2.5, results  # every view built

@@ -12,6 +12,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from datetime import datetime
 
+import pyqtgraph as pg
 from PySide6.QtCore import QDateTime, QEvent, QSignalBlocker, Qt
 from PySide6.QtWidgets import (
     QAbstractItemView,
@@ -34,7 +35,6 @@ from PySide6.QtWidgets import (
 )
 
 from ui.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
-from ui.pyqtgraph_loader import pg
 from ui.qt_dates import from_qt, to_qt
 from ui.rows_model import Cell, RowsModel
 from ui.session import PlanSession

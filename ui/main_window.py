@@ -7,9 +7,6 @@ appears quickly.
 
 from __future__ import annotations
 
-import linecache
-from collections.abc import Iterator
-from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, NamedTuple
@@ -65,29 +62,6 @@ def _placeholder(text: str) -> QWidget:
     return holder
 
 
-class _ForgetfulLineCache(dict):
-    """A ``linecache`` store that keeps nothing: every read goes back to the file."""
-
-    def __setitem__(self, key: str, value: tuple) -> None:
-        """Keep nothing: ``linecache`` returns what it read without storing it."""
-
-
-@contextmanager
-def sources_not_kept() -> Iterator[None]:
-    """While the window imports its heavy parts, ``linecache`` keeps no module source.
-
-    PySide6 reads the source of every module imported after it, to see whether the module
-    uses PySide (its ``__feature__`` import hook), and ``linecache`` would keep all of it:
-    numpy's and pyqtgraph's sources, about 5 MiB at the peak, that nothing needs. A
-    traceback still reads the files, from disk. Used as a decorator on the builders."""
-    kept = linecache.cache
-    linecache.cache = _ForgetfulLineCache()
-    try:
-        yield
-    finally:
-        linecache.cache = kept
-
-
 class MainWindow(QMainWindow):
     """Built in three steps so it appears at once: the frame (cautions, menus) paints
     first; the planner follows on the next event-loop turn; the plots (pyqtgraph) and
@@ -141,7 +115,6 @@ class MainWindow(QMainWindow):
             QTimer.singleShot(0, self.build_planner)
         return super().eventFilter(watched, event)
 
-    @sources_not_kept()
     def build_planner(self) -> None:
         """The planner page: inputs on the left, results on the right (idempotent; not
         once the window is closed, which may come before the first paint's turn)."""
@@ -887,7 +860,6 @@ class MainWindow(QMainWindow):
         self.session.restore_observations(kept)
         return f" {unreadable} stored observation(s) could not be read." if unreadable else ""
 
-    @sources_not_kept()
     def _detail_opened(self, index: int) -> None:
         """The plots are built the first time the Timeline tab is opened (pyqtgraph is big)."""
         if self.details.widget(index) is self.timeline_holder and self.timeline_view is None:
@@ -908,7 +880,6 @@ class MainWindow(QMainWindow):
             self._swap(self.course_holder, self.course_view)
             self.course_view.oliguria.valueChanged.connect(self._update_course_tab)
 
-    @sources_not_kept()
     def _page_opened(self, index: int) -> None:
         """The species table is built the first time its page is opened."""
         if self.pages.widget(index) is self.species_holder and self.species_view is None:

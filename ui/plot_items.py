@@ -24,10 +24,9 @@ import math
 from itertools import pairwise
 
 import numpy as np
+import pyqtgraph as pg
 from PySide6.QtCore import QLineF, QPointF, QRect, QRectF, Qt
 from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPen, QPolygonF, QStaticText, QTransform
-
-from ui.pyqtgraph_loader import pg
 
 EDGE_PX = 3.0  # a line's half-width and its antialiased edge, kept inside the bounds
 

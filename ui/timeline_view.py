@@ -17,12 +17,12 @@ from __future__ import annotations
 
 import math
 
+import pyqtgraph as pg
 from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
 from ui.plot_items import PlotAxis, PlotLabel, TickGrid, Trace, turning_mask
-from ui.pyqtgraph_loader import pg
 from vetfluid.formatting import format_number, format_quantity
 from vetfluid.plan import Plan
 from vetfluid.schedule import clock_time
