@@ -3,7 +3,7 @@
 Every patient is invented, not a real animal: names are drawn from a list of pet names,
 each patient's notes say "generated demo data", client references start with ``GEN-``,
 and the file's ``meta`` table holds ``generated_by``. The plans are the demo patients'
-plans (:mod:`vetfluid.demos`) built again for other species of the table and other
+plans (:mod:`vetfluid.planning.demos`) built again for other species of the table and other
 weights, so each stored request and plan is one vetfluid really built, at its real size.
 
     .venv/bin/python scripts/make_clinic_records.py OUT.sqlite [--patients 50000]
@@ -11,7 +11,7 @@ weights, so each stored request and plan is one vetfluid really built, at its re
 
 The default is a busy hospital after some years: 50,000 patients, 500,000 plan versions
 (1 to 250 per patient, most only a few), a third of the versions with 1 to 4
-observations. The schema is created by :meth:`vetfluid.records.Records.open`, so the
+observations. The schema is created by :meth:`vetfluid.records.store.Records.open`, so the
 file is exactly what vetfluid writes; rows then go in with ``executemany`` in large
 transactions (a few minutes for the default size). An existing file is never touched.
 """
@@ -33,12 +33,12 @@ if str(ROOT) not in sys.path:  # run from a checkout without installing
     sys.path.insert(0, str(ROOT))
 
 from vetfluid import __version__  # noqa: E402
-from vetfluid.demos import DEMOS  # noqa: E402
-from vetfluid.errors import VetfluidError  # noqa: E402
-from vetfluid.plan import build_plan  # noqa: E402
-from vetfluid.records import SCHEMA_VERSION, Records  # noqa: E402
-from vetfluid.serialize import plan_dict, request_to_dict  # noqa: E402
-from vetfluid.species import load_table  # noqa: E402
+from vetfluid.common.errors import VetfluidError  # noqa: E402
+from vetfluid.planning.demos import DEMOS  # noqa: E402
+from vetfluid.planning.plan import build_plan  # noqa: E402
+from vetfluid.records.serialize import plan_dict, request_to_dict  # noqa: E402
+from vetfluid.records.store import SCHEMA_VERSION, Records  # noqa: E402
+from vetfluid.tables.species import load_table  # noqa: E402
 
 MARK = (
     "Generated demo data (scripts/make_clinic_records.py): an invented patient, not a real animal."

@@ -34,7 +34,7 @@ def render(demo_id: str, out: Path) -> list[Path]:
     path = out / f"{demo_id}-species-table.png"
     window.grab().save(str(path))
     saved.append(path)
-    from ui.chart_view import ChartDialog
+    from ui.printouts.chart_view import ChartDialog
 
     chart = ChartDialog(window.session.table, window.session.plan.request.species_id, window)
     chart.show()

@@ -1,6 +1,6 @@
 """An independent safety oracle: physiological bounds checked on a built plan.
 
-The oracle never asks the plan builder's checks (``vetfluid/safety.py``) what is
+The oracle never asks the plan builder's checks (``vetfluid/planning/safety.py``) what is
 dangerous. From the plan's phases (what runs when, at what rate or dose), the library
 fluid the request names, the additives the phases carry and the species table's values,
 it works out with its own arithmetic what reaches the patient, and lists every bound the
@@ -27,10 +27,10 @@ import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from vetfluid import fluids
-from vetfluid.plan import Plan, PlanRequest
-from vetfluid.schedule import Phase
-from vetfluid.species import SpeciesTable
+from vetfluid.planning.plan import Plan, PlanRequest
+from vetfluid.planning.schedule import Phase
+from vetfluid.tables import fluids
+from vetfluid.tables.species import SpeciesTable
 
 # ---- bounds ----------------------------------------------------------------------------------
 # Potassium infusion ceiling, 0.5 mmol (mEq)/kg/h (Côté E (ed.), Clinical Veterinary Advisor:
@@ -122,9 +122,9 @@ class Bound:
 
 
 # Each bound and the findings of the plan builder that answer it. Only the codes and what
-# each means are taken from vetfluid/safety.py and vetfluid/plan.py; whether a plan passes a
-# bound is the oracle's own arithmetic below. A refused request (InputError, LimitExceeded)
-# answers every bound: no plan exists.
+# each means are taken from vetfluid/planning/safety.py and vetfluid/planning/plan.py;
+# whether a plan passes a bound is the oracle's own arithmetic below. A refused request
+# (InputError, LimitExceeded) answers every bound: no plan exists.
 SODIUM_ANSWERS = ("SODIUM_CHANGE_TOO_FAST", "FLUID_NOT_FOR_RESUSCITATION", "FLUID_DOSE_ABOVE_MAX")
 RULES: dict[str, Bound] = {
     "weight_unit_slip": Bound("hard", ("WEIGHT_UNIT_SLIP",)),
@@ -481,7 +481,7 @@ def _bolus_fluid(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[
         dose = HYPERTONIC_DOSE_ML_PER_KG.get(request.species_id, HYPERTONIC_DOSE_DEFAULT_ML_PER_KG)
         most = dose * _composition(HYPERTONIC_REFERENCE_FLUID).na_mmol_per_l / 1000
         # a drip is set to the figures it is shown with, up to 5 % off below 1 mL/h
-        # (vetfluid.delivery.drip_ml_per_h): the dose "about 4 mL/kg" is held to that
+        # (vetfluid.physiology.delivery.drip_ml_per_h): the dose "about 4 mL/kg" is held to that
         if na_given > most * (1 + DOSE_SETTING_SLACK):
             found.append(
                 Breach(

@@ -16,10 +16,10 @@ import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from vetfluid.errors import VetfluidError
-from vetfluid.limits import limit
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.species import load_table
+from vetfluid.common.errors import VetfluidError
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables.limits import limit
+from vetfluid.tables.species import load_table
 
 # The words a water-need finding uses when it meets an overload caution: it must say
 # which advice wins, and why.

@@ -11,8 +11,8 @@ from pathlib import Path
 
 import pytest
 
-from ui import platform_check
-from ui.platform_check import display_problem
+from ui.common import platform_check
+from ui.common.platform_check import display_problem
 
 VETFLUID = str(Path(sys.executable).with_name("vetfluid"))
 NO_SERVER = ":87"  # no X server listens on display 87 here (checked below)

@@ -15,8 +15,8 @@ from pathlib import Path
 
 import pytest
 
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.species import load_table
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables.species import load_table
 
 pytestmark = pytest.mark.benchmark
 CLI = str(Path(sys.executable).with_name("vetfluid-cli"))

@@ -16,9 +16,9 @@ import pytest
 from hypothesis import assume, given
 from hypothesis import strategies as st
 
-from vetfluid import delivery, electrolytes, hydration, maintenance, resuscitation
-from vetfluid.errors import InputError
-from vetfluid.species import METHOD_PARAMETERS, SpeciesTable, load_table
+from vetfluid.common.errors import InputError
+from vetfluid.physiology import delivery, electrolytes, hydration, maintenance, resuscitation
+from vetfluid.tables.species import METHOD_PARAMETERS, SpeciesTable, load_table
 
 reference = pytest.mark.reference
 
@@ -654,9 +654,12 @@ def test_general_form_is_not_the_one_litre_change_scaled_for_a_small_bird():
 
 def test_max_rate_for_sodium_none_when_fluid_barely_moves_sodium():
     # |Na_inf + K_inf − Na| ≤ limit: no rate of this fluid can move Na that fast
-    assert electrolytes.max_rate_for_sodium(
-        serum_na=140, infusate_na_k=140.3, tbw_l=12, max_change_per_h=0.5
-    ) is None
+    assert (
+        electrolytes.max_rate_for_sodium(
+            serum_na=140, infusate_na_k=140.3, tbw_l=12, max_change_per_h=0.5
+        )
+        is None
+    )
 
 
 @pytest.mark.parametrize("bad", [0, 10, float("nan")])

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from vetfluid.chart import chart
-from vetfluid.species import load_table
+from vetfluid.printouts.chart import chart
+from vetfluid.tables.species import load_table
 
 pytestmark = pytest.mark.benchmark
 

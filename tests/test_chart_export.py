@@ -9,11 +9,11 @@ import numpy as np
 import pytest
 
 from vetfluid import cli
-from vetfluid.chart import chart
-from vetfluid.delivery import COUNTABLE_DROPS_PER_MIN, drip_ml_per_h, drops_per_min
-from vetfluid.export import csv_text, safe_cell
-from vetfluid.maintenance import maintenance
-from vetfluid.species import load_table
+from vetfluid.common.csvcells import csv_text, safe_cell
+from vetfluid.physiology.delivery import COUNTABLE_DROPS_PER_MIN, drip_ml_per_h, drops_per_min
+from vetfluid.physiology.maintenance import maintenance
+from vetfluid.printouts.chart import chart
+from vetfluid.tables.species import load_table
 
 
 @pytest.mark.parametrize("species", ["dog", "cat", "bearded_dragon", "mongolian_gerbil",
@@ -25,7 +25,7 @@ def test_chart_agrees_with_the_scalar_calculators(species):
         assert ml_day == pytest.approx(maintenance(table, species, float(w)).ml_per_day)
     assert np.allclose(result.deficit_ml_per_5_percent, result.weight_kg * 50)  # Davis 2013
     # a gravity drip runs its rate to the figures shown and drops come from that rate
-    # (the schedule's rule, vetfluid/delivery.py)
+    # (the schedule's rule, vetfluid/physiology/delivery.py)
     for rate, drops in zip(result.maintenance_ml_per_h, result.drops_per_min, strict=True):
         assert drops == drops_per_min(drip_ml_per_h(float(rate)), 20)
     weight = table.value(species, "body_weight_kg")
@@ -54,8 +54,8 @@ def test_drops_come_from_the_rate_as_shown():
 
 
 def test_a_drip_too_fast_to_count_is_worded_as_the_schedule_words_it(capsys):
-    from vetfluid.chart_sheet import chart_cells
-    from vetfluid.formatting import format_quantity as q
+    from vetfluid.common.formatting import format_quantity as q
+    from vetfluid.printouts.chart_sheet import chart_cells
 
     result = chart("dog", drop_factor=60)  # a micro-drip set: 1 drop/min per mL/h
     texts = result.drip_texts()
@@ -117,11 +117,11 @@ def test_cli_chart_csv_and_json(capsys):
 
 
 def test_schedule_and_observations_export_safely():
-    from vetfluid.demos import DEMOS
-    from vetfluid.export import observations_csv, schedule_csv
-    from vetfluid.observations import Observation
-    from vetfluid.plan import build_plan
-    from vetfluid.serialize import plan_dict
+    from vetfluid.course.observations import Observation
+    from vetfluid.planning.demos import DEMOS
+    from vetfluid.planning.plan import build_plan
+    from vetfluid.printouts.export import observations_csv, schedule_csv
+    from vetfluid.records.serialize import plan_dict
 
     data = plan_dict(build_plan(DEMOS["dehydrated_dog"].request))
     rows = list(csv.reader(io.StringIO(schedule_csv(data))))

@@ -11,10 +11,10 @@ from pathlib import Path
 
 import pytest
 
-from vetfluid.cautions import CAUTIONS
-from vetfluid.chart import chart
-from vetfluid.chart_sheet import NO_LINE, chart_cells, chart_note, chart_sheet_html
-from vetfluid.formatting import format_quantity as q
+from vetfluid.common.cautions import CAUTIONS
+from vetfluid.common.formatting import format_quantity as q
+from vetfluid.printouts.chart import chart
+from vetfluid.printouts.chart_sheet import NO_LINE, chart_cells, chart_note, chart_sheet_html
 
 VETFLUID = str(Path(sys.executable).with_name("vetfluid"))
 
@@ -78,8 +78,8 @@ def test_headless_chart_command_refuses_bad_input(tmp_path, arguments, message):
 
 # ---- `vetfluid sheet` (ui/app.py, beside `vetfluid chart`): refusals and the hard-limit mark ---
 def _dog_plan_json(**request) -> dict:
-    from vetfluid.plan import PlanRequest, build_plan
-    from vetfluid.serialize import plan_dict
+    from vetfluid.planning.plan import PlanRequest, build_plan
+    from vetfluid.records.serialize import plan_dict
 
     return plan_dict(build_plan(PlanRequest(species_id="dog", **request)))
 
@@ -114,7 +114,7 @@ def test_headless_sheet_command_refuses_a_broken_plan_in_one_line(tmp_path, brok
 
 
 def test_headless_sheet_of_a_hard_limit_plan_is_marked_on_every_page(tmp_path):
-    from vetfluid.sheet import BLOCKED_MARK
+    from vetfluid.printouts.sheet import BLOCKED_MARK
 
     data = _dog_plan_json(weight_kg=0.02)  # 20 g for a dog: the gram/kilogram slip
     assert data["hard_limit"]

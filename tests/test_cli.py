@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 from vetfluid import cli
-from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.planning.plan import PlanRequest, build_plan
 
 CLI = [str(Path(sys.executable).with_name("vetfluid-cli"))]
 
@@ -236,7 +236,7 @@ def test_a_plan_on_the_calendar_keeps_its_date(capsys):
                        "--start", "22:00", "--start-date", "2026-12-31", "--json")  # fmt: skip
     request = json.loads(out)["request"]
     assert code == 0 and request["start_date"] == "2026-12-31" and request["start_time"] == "22:00"
-    from vetfluid.serialize import request_from_dict
+    from vetfluid.records.serialize import request_from_dict
 
     assert request_from_dict(request).start_date.isoformat() == "2026-12-31"
     with pytest.raises(Exception, match="YYYY-MM-DD"):
@@ -254,8 +254,8 @@ def _phase_lines(out: str) -> list[str]:
 
 
 def test_a_drip_too_fast_to_count_gives_no_drops_in_the_phase_list(capsys):
-    from vetfluid.delivery import COUNTABLE_DROPS_PER_MIN, drip_ml_per_h, drops_per_min
-    from vetfluid.formatting import format_quantity as q
+    from vetfluid.common.formatting import format_quantity as q
+    from vetfluid.physiology.delivery import COUNTABLE_DROPS_PER_MIN, drip_ml_per_h, drops_per_min
 
     code, out, _ = run(capsys, *GRAVITY_DOG)
     _, data = run_json(capsys, *GRAVITY_DOG)
@@ -290,7 +290,7 @@ def test_divided_doses_read_as_drawn_up_in_the_phase_list_and_the_json(capsys):
     assert intermittent
     for line, phase in intermittent:
         drawn = phase["drawn_up"]
-        # by hand from the rule in vetfluid/delivery.py: each site to the 0.01 mL marks
+        # by hand from the rule in vetfluid/physiology/delivery.py: each site to the 0.01 mL marks
         # of a 1 mL syringe (common practice, no source), the dose = sites × per site
         assert phase["ml_per_site"] < 1
         per_site = round(phase["ml_per_site"], 2)
@@ -324,9 +324,9 @@ def test_the_patient_is_weighed_in_the_unit_of_its_species(capsys):
 
 
 def test_the_potassium_line_is_the_sheets_at_the_fastest_rate(capsys):
-    from vetfluid.demos import DEMOS
-    from vetfluid.serialize import plan_dict
-    from vetfluid.sheet import potassium_text
+    from vetfluid.planning.demos import DEMOS
+    from vetfluid.printouts.sheet import potassium_text
+    from vetfluid.records.serialize import plan_dict
 
     _, out, _ = run(capsys, "plan", "--demo", "dehydrated_dog")  # serum K 3.3: KCl added
     data = plan_dict(build_plan(DEMOS["dehydrated_dog"].request))

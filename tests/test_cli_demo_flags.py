@@ -8,9 +8,9 @@ import json
 import pytest
 
 from vetfluid import cli
-from vetfluid.demos import DEMOS
-from vetfluid.plan import build_plan
-from vetfluid.serialize import plan_dict
+from vetfluid.planning.demos import DEMOS
+from vetfluid.planning.plan import build_plan
+from vetfluid.records.serialize import plan_dict
 
 
 def run(capsys, *args):

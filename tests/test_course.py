@@ -5,11 +5,11 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from vetfluid.course import course, infused_input
-from vetfluid.electrolytes import sodium_change_per_litre
-from vetfluid.errors import InputError
-from vetfluid.fluids import composition, fluid
-from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.common.errors import InputError
+from vetfluid.course.model import course, infused_input
+from vetfluid.physiology.electrolytes import sodium_change_per_litre
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables.fluids import composition, fluid
 
 reference = pytest.mark.reference
 
@@ -183,7 +183,7 @@ def test_after_the_plan_ends_the_state_it_left_holds():
 )
 def test_renal_elimination_is_left_out_where_it_cannot_be_trusted(request_changes, species,
                                                                   reason):  # fmt: skip
-    from vetfluid.species import load_table
+    from vetfluid.tables.species import load_table
 
     weight = load_table().value(species, "body_weight_kg").number
     plan = build_plan(PlanRequest(species_id=species, weight_kg=weight, **request_changes))
@@ -236,7 +236,7 @@ def test_a_bolus_then_replacement_fades_in_the_plasma_while_the_weight_climbs():
 
 
 def test_the_closed_form_tail_of_elimination_equals_stepping_it():
-    from vetfluid.course import _renal_elimination
+    from vetfluid.course.model import _renal_elimination
 
     rng = np.random.default_rng(7)
     excess = np.concatenate([np.cumsum(rng.uniform(-2, 5, 300)), np.full(700, 150.0)])

@@ -5,9 +5,9 @@ from __future__ import annotations
 
 import pytest
 
-from vetfluid.course import course
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.species import load_table
+from vetfluid.course.model import course
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables.species import load_table
 
 pytestmark = pytest.mark.benchmark
 

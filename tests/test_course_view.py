@@ -7,8 +7,8 @@ import pytest
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QApplication
 
-from vetfluid.course import SHOWN_STEP_MINUTES, course
-from vetfluid.formatting import format_quantity
+from vetfluid.common.formatting import format_quantity
+from vetfluid.course.model import SHOWN_STEP_MINUTES, course
 
 
 @pytest.fixture(autouse=True)
@@ -143,7 +143,7 @@ def test_planning_by_ins_and_outs_follows_each_measurement(qtbot, window):
     assert first.rate_ml_per_h == pytest.approx((20 * 24 + 240) / 24 + deficit)
     assert view.ins_outs_model.text(0, 2) == "20 mL"  # the plan's own period table
     # the cli gives the same plan for the same request
-    from vetfluid.plan import build_plan
+    from vetfluid.planning.plan import build_plan
 
     assert build_plan(plan.request).phases == plan.phases
     view.ins_outs_mode.setChecked(False)
@@ -167,7 +167,7 @@ def test_versions_table_compares_plans(qtbot, window):
 def test_date_and_time_set_the_hour_and_back(window):
     from PySide6.QtCore import QDate, QDateTime, QTime
 
-    from vetfluid.demos import DEMO_DAY
+    from vetfluid.planning.demos import DEMO_DAY
 
     view = window.course_view  # the demo dog starts at 08:00 on the scenario's day
     day = QDate(DEMO_DAY.year, DEMO_DAY.month, DEMO_DAY.day)

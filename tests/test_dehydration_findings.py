@@ -14,10 +14,11 @@ import json
 
 import pytest
 
-from vetfluid import cli, hydration
-from vetfluid.errors import InputError
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.request_file import read_request_file
+from vetfluid import cli
+from vetfluid.common.errors import InputError
+from vetfluid.physiology import hydration
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.records.request_file import read_request_file
 
 reference = pytest.mark.reference
 

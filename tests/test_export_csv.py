@@ -14,8 +14,9 @@ import re
 import pandas as pd
 import pytest
 
-from vetfluid.export import csv_text, observations_csv, safe_cell
-from vetfluid.observations import Observation
+from vetfluid.common.csvcells import csv_text, safe_cell
+from vetfluid.course.observations import Observation
+from vetfluid.printouts.export import observations_csv
 
 # Python's csv reader and pandas both end a record at an unquoted CR or LF.
 LINE_BREAK = re.compile(r"\r\n|\r|\n|\x0b|\x0c|\x1c|\x1d|\x1e|\x85|\u2028|\u2029")

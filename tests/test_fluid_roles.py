@@ -7,10 +7,11 @@ CLI then exits 3, the window disables 'ready' and the sheet says not to give it.
 import numpy as np
 import pytest
 
-from vetfluid import electrolytes, fluid_roles, fluids
-from vetfluid.course import course
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.species import load_table
+from vetfluid.course.model import course
+from vetfluid.physiology import electrolytes
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables import fluid_roles, fluids
+from vetfluid.tables.species import load_table
 
 
 def plan_for(**kw):

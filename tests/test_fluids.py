@@ -16,10 +16,10 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from vetfluid import fluids as fl
-from vetfluid import paths
-from vetfluid.errors import InputError, SpeciesDataError
-from vetfluid.fluids import (
+from vetfluid.common import paths
+from vetfluid.common.errors import InputError, SpeciesDataError
+from vetfluid.tables import fluids as fl
+from vetfluid.tables.fluids import (
     Composition,
     Fluid,
     SoluteAmount,
@@ -157,7 +157,7 @@ def test_molar_mass_matches_periodictable(solute_id):
     [(fl.GLUCOSE_FORMULA, "C6H12O6"), (fl.DEXTROSE_HYDROUS_FORMULA, "C6H12O6(H2O)")],
 )
 def test_dextrose_formulas_match_periodictable(formula, other):
-    from vetfluid.units import molar_mass_g_per_mol
+    from vetfluid.common.units import molar_mass_g_per_mol
 
     assert molar_mass_g_per_mol(formula) == pytest.approx(
         periodictable.formula(other).mass, abs=0.01
@@ -340,7 +340,7 @@ def test_unknown_ion_key_is_an_input_error():
 
 def test_loading_the_library_needs_neither_pandas_nor_qt():
     code = (
-        "import sys, vetfluid.fluids as f; f.load_fluids(); "
+        "import sys, vetfluid.tables.fluids as f; f.load_fluids(); "
         "bad = [m for m in ('pandas', 'PySide6', 'pyqtgraph', 'ui') if m in sys.modules]; "
         "sys.exit(', '.join(bad) or None)"
     )
@@ -563,7 +563,7 @@ def test_bad_colloid_rows_are_refused(tmp_path, colloids, words):
 
 
 def test_colloid_plans_are_flagged_and_never_given_under_the_skin():
-    from vetfluid.plan import PlanRequest, build_plan
+    from vetfluid.planning.plan import PlanRequest, build_plan
 
     iv = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6"))
     assert "COLLOID_CHOSEN" in {f.code for f in iv.findings}
@@ -577,7 +577,7 @@ def test_colloid_plans_are_flagged_and_never_given_under_the_skin():
 
 
 def test_a_whole_plan_of_colloid_is_a_hard_limit():
-    from vetfluid.plan import PlanRequest, build_plan
+    from vetfluid.planning.plan import PlanRequest, build_plan
 
     # 20 mL/kg/day (recalled, safety_limits.csv): a day of starch for a dog is far above it
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6",
@@ -589,7 +589,7 @@ def test_a_whole_plan_of_colloid_is_a_hard_limit():
 
 
 def test_the_colloid_limit_holds_for_every_24_hours_not_only_the_first():
-    from vetfluid.plan import PlanRequest, build_plan
+    from vetfluid.planning.plan import PlanRequest, build_plan
 
     def codes(**changes):
         plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, fluid_id="hes_130_0_4_6",

@@ -31,12 +31,12 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from vetfluid import cli
-from vetfluid.errors import VetfluidError
-from vetfluid.overrides import overrides_file
-from vetfluid.plan import build_plan
-from vetfluid.request_file import read_request_file
-from vetfluid.serialize import plan_dict
-from vetfluid.species import PARAMETER_COLUMNS, parameter_definitions
+from vetfluid.common.errors import VetfluidError
+from vetfluid.planning.plan import build_plan
+from vetfluid.records.request_file import read_request_file
+from vetfluid.records.serialize import plan_dict
+from vetfluid.tables.overrides import overrides_file
+from vetfluid.tables.species import PARAMETER_COLUMNS, parameter_definitions
 
 FAST = 100  # examples per test in the ordinary suite
 LONG = 3_000  # examples per test in the marked run
@@ -249,8 +249,8 @@ def test_a_plan_file_is_read_or_refused_in_words_long_run(request):
 # ---- 3. plan JSON for `vetfluid sheet` ---------------------------------------------------------
 @cache
 def _plans() -> tuple[str, ...]:
-    from vetfluid.demos import DEMOS
-    from vetfluid.plan import PlanRequest
+    from vetfluid.planning.demos import DEMOS
+    from vetfluid.planning.plan import PlanRequest
 
     requests = [d.request for d in DEMOS.values()] + [
         PlanRequest(species_id="dog", weight_kg=20, renal_disease=True, ins_and_outs_period_h=6,

@@ -5,8 +5,8 @@ Each test names its source; rules of thumb say "common practice, no source".
 
 import pytest
 
-from vetfluid.errors import InputError
-from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.common.errors import InputError
+from vetfluid.planning.plan import PlanRequest, build_plan
 
 
 def plan_for(**kw):
@@ -90,7 +90,7 @@ def test_a_lab_or_additive_in_the_wrong_field_or_unit_is_refused(field, value):
 
 def test_the_window_offers_only_fluids_that_may_take_each_role(qtbot, planner):
     # fluid_roles.csv: concentrates are additives only; 7.2 % NaCl is one small bolus only
-    from vetfluid import fluid_roles
+    from vetfluid.tables import fluid_roles
 
     settings = planner.settings_box
 
@@ -187,7 +187,7 @@ def test_the_sodium_command_refuses_a_concentrate_as_an_infusion():
      ("nacl_7_2", 4, 1, "at least 5 min")],
 )  # fmt: skip
 def test_the_courses_extra_bolus_is_held_to_the_fluids_roles(fluid_id, ml_per_kg, minutes, words):
-    from vetfluid.course import bolus_input
+    from vetfluid.course.model import bolus_input
 
     with pytest.raises(InputError, match=words):
         bolus_input(fluid_id=fluid_id, ml_per_kg=ml_per_kg, weight_kg=4, minutes=minutes)

@@ -246,13 +246,23 @@ def _defines(body: list[ast.stmt], name: str) -> ast.stmt | None:
     return None
 
 
+def _module_files(dotted: str) -> list[tuple[Path, list[str]]]:
+    """Where ``module.name`` may live: ``module`` is a module's name in any layer of vetfluid/
+    or ui/ (``safety``), or its path below the layer (``course.model``)."""
+    parts = dotted.split(".")
+    found = []
+    for package in ("vetfluid", "ui"):
+        for cut in range(len(parts) - 1, 0, -1):
+            tail = Path(*parts[:cut]).with_suffix(".py")
+            for path in (ROOT / package).rglob(tail.name):
+                if path.as_posix().endswith("/" + tail.as_posix()):
+                    found.append((path, parts[cut:]))
+    return found
+
+
 def name_exists(dotted: str) -> bool:
     """``module.name`` (or ``module.Class.member``) defined in vetfluid/ or ui/."""
-    module, *names = dotted.split(".")
-    for package in ("vetfluid", "ui"):
-        path = ROOT / package / f"{module}.py"
-        if not path.exists():
-            continue
+    for path, names in _module_files(dotted):
         body: list[ast.stmt] = ast.parse(path.read_text(encoding="utf-8")).body
         for name in names:
             node = _defines(body, name)

@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 
 from vetfluid import cli
-from vetfluid.course import course
-from vetfluid.errors import InputError
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.serialize import plan_dict, request_from_dict, request_to_dict
+from vetfluid.common.errors import InputError
+from vetfluid.course.model import course
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.records.serialize import plan_dict, request_from_dict, request_to_dict
 
 reference = pytest.mark.reference
 INSENSIBLE_ML_PER_H = 20 * 20 / 24  # Côté 2020: 20 mL/kg/day, a 20 kg dog
@@ -120,8 +120,8 @@ def test_boluses_longer_than_the_first_periods_leave_the_period_after_them():
 
 def test_boluses_whose_minutes_do_not_add_up_exactly_still_leave_a_period():
     # a clinic's 20 min boluses: 6 × 20 min sums to 1.9999999999999998 h in floating point
-    from vetfluid.overrides import set_override
-    from vetfluid.species import load_table
+    from vetfluid.tables.overrides import set_override
+    from vetfluid.tables.species import load_table
 
     set_override(species_id="dog", parameter="bolus_minutes", value=20, low=15, high=30,
                  note="clinic protocol")  # fmt: skip

@@ -124,8 +124,7 @@ def test_the_static_check_sees_a_patch(tmp_path):
     """The check above is not blind: it finds the two shapes a patch takes."""
     probe = tmp_path / "probe.py"
     probe.write_text(
-        "import linecache\nimport pyqtgraph as pg\nlinecache.cache = {}\n"
-        "pg.ViewBox.shape = None\n",
+        "import linecache\nimport pyqtgraph as pg\nlinecache.cache = {}\npg.ViewBox.shape = None\n",
         encoding="utf-8",
     )
     found = _assignments_into_other_packages(probe)

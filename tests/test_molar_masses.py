@@ -21,17 +21,17 @@ import molmass
 import periodictable
 import pytest
 
-from vetfluid import chemistry
-from vetfluid import fluids as fl
-from vetfluid.chemistry import (
+from vetfluid.common import chemistry
+from vetfluid.common.chemistry import (
     ELEMENT_SYMBOLS,
     formula_atoms,
     load_molar_masses,
     molar_mass_g_per_mol,
 )
-from vetfluid.errors import InputError, SpeciesDataError
-from vetfluid.fluids import Solute, load_solutes
-from vetfluid.paths import resource_dir
+from vetfluid.common.errors import InputError, SpeciesDataError
+from vetfluid.common.paths import resource_dir
+from vetfluid.tables import fluids as fl
+from vetfluid.tables.fluids import Solute, load_solutes
 
 ROOT = Path(__file__).resolve().parents[1]
 DATA = resource_dir("species_data")
@@ -112,7 +112,7 @@ def test_a_formula_in_both_files_has_one_mass():
 
 
 def test_lab_conversions_use_the_recorded_mass():
-    from vetfluid.units import mmol_per_l_to_mg_per_dl
+    from vetfluid.common.units import mmol_per_l_to_mg_per_dl
 
     # 10 mmol/L × M g/mol = 10·M mg/L = M mg/dL
     for analyte, formula in (("glucose", "C6H12O6"), ("creatinine", "C4H7N3O")):
@@ -238,17 +238,18 @@ def test_the_core_imports_no_chemistry_library():
     script = textwrap.dedent(
         """
         import contextlib, importlib, io, pkgutil, sys
-        import vetfluid.plan, vetfluid.fluids, vetfluid.units, vetfluid.cli
+        import vetfluid.planning.plan, vetfluid.tables.fluids, vetfluid.common.units, vetfluid.cli
         import vetfluid
         for module in pkgutil.walk_packages(vetfluid.__path__, "vetfluid."):
             importlib.import_module(module.name)
-        from vetfluid import fluids, units
-        from vetfluid.demos import DEMOS
+        from vetfluid.tables import fluids
+        from vetfluid.common import units
+        from vetfluid.planning.demos import DEMOS
         for item in fluids.load_fluids().values():
             fluids.composition(item).dextrose_hydrous_g_per_l
         for analyte in ("glucose", "urea", "bun", "creatinine"):
             units.mg_per_dl_to_umol_per_l(units.mmol_per_l_to_mg_per_dl(5, analyte), analyte)
-        vetfluid.plan.build_plan(next(iter(DEMOS.values())).request)
+        vetfluid.planning.plan.build_plan(next(iter(DEMOS.values())).request)
         with contextlib.redirect_stdout(io.StringIO()):
             vetfluid.cli.main(["fluids"])
             vetfluid.cli.main(["plan", "--species", "dog", "--weight", "20 kg", "--json"])

@@ -20,14 +20,15 @@ from collections.abc import Iterable
 
 import pytest
 
-from vetfluid import cli, fluids
-from vetfluid.chart import chart
-from vetfluid.chart_sheet import chart_sheet_html
-from vetfluid.demos import DEMOS
-from vetfluid.plan import Plan, PlanRequest, build_plan
-from vetfluid.serialize import plan_dict
-from vetfluid.sheet import sheet_html
-from vetfluid.species import load_table
+from vetfluid import cli
+from vetfluid.planning.demos import DEMOS
+from vetfluid.planning.plan import Plan, PlanRequest, build_plan
+from vetfluid.printouts.chart import chart
+from vetfluid.printouts.chart_sheet import chart_sheet_html
+from vetfluid.printouts.sheet import sheet_html
+from vetfluid.records.serialize import plan_dict
+from vetfluid.tables import fluids
+from vetfluid.tables.species import load_table
 
 DEMO_IDS = ("dehydrated_dog", "cold_bearded_dragon", "small_gerbil", "renal_cat")
 BRACKETED_CODE = re.compile(r"\[[A-Z][A-Z0-9_]{3,}\]")  # "[ISOTONIC_FOR_MAINTENANCE]"
@@ -212,7 +213,7 @@ def window_text(win, *, skip=None) -> list[str]:  # noqa: ANN001 — MainWindow,
 
 
 def visit_every_tab(qtbot, win) -> None:  # noqa: ANN001
-    """Views behind a tab show the plan once opened (ui/shown_plan.py): open them all."""
+    """Views behind a tab show the plan once opened (ui/planning/shown_plan.py): open them all."""
     for index in range(win.details.count()):
         win.details.setCurrentIndex(index)
         qtbot.wait(1)
@@ -275,7 +276,7 @@ def test_an_input_error_names_the_field_as_the_form_does(qtbot, planner):
 
 
 def test_the_records_dialogs_give_words(qtbot, planner):
-    from ui.records_view import OpenPatientDialog
+    from ui.records.records_view import OpenPatientDialog
 
     win = planner
     win.open_demo("renal_cat")
@@ -306,7 +307,7 @@ def test_the_records_dialogs_give_words(qtbot, planner):
 def test_the_open_dialog_gives_a_lizards_weight_in_grams(qtbot, planner):
     """A 380 g dragon's saved version is listed as 380 g, as its plan gives it (the species
     is weighed in g: units.preferred_weight_unit), never as 0.38 kg; so is the comparison."""
-    from ui.records_view import OpenPatientDialog
+    from ui.records.records_view import OpenPatientDialog
 
     win = planner
     win.open_demo("cold_bearded_dragon")
@@ -352,7 +353,7 @@ def test_the_open_dialog_gives_a_lizards_weight_in_grams(qtbot, planner):
     ],
 )  # fmt: skip
 def test_a_findings_title_is_its_messages_first_sentence(message, title):
-    from vetfluid.findings import Finding
+    from vetfluid.common.findings import Finding
 
     finding = Finding(severity="soft", code="SOME_CODE", message=message)
     assert finding.title == title
@@ -393,7 +394,7 @@ def test_a_species_with_no_concentrating_ceiling_is_named_in_words(capsys):
 
 
 def test_a_missing_species_value_is_named_by_its_label_and_the_species_name():
-    from vetfluid.errors import InputError
+    from vetfluid.common.errors import InputError
 
     table = load_table()
     assert table.get("guinea_pig", "max_urine_plasma_ratio") is None  # the case in question
@@ -407,7 +408,7 @@ def test_a_missing_species_value_is_named_by_its_label_and_the_species_name():
 
 
 def test_an_unknown_fluid_lists_the_ids_to_type_with_their_names():
-    from vetfluid.errors import InputError
+    from vetfluid.common.errors import InputError
 
     with pytest.raises(InputError) as raised:
         fluids.fluid("ringers_lactate")
@@ -424,7 +425,7 @@ def test_a_plan_file_with_an_unknown_fluid_is_refused_in_readable_words(
 
     from PySide6.QtWidgets import QMessageBox
 
-    from vetfluid.request_file import write_request_file
+    from vetfluid.records.request_file import write_request_file
 
     path = write_request_file(tmp_path / "pip", DEMOS["dehydrated_dog"].request, {})
     data = json.loads(path.read_text(encoding="utf-8"))

@@ -6,10 +6,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from vetfluid.demos import DEMOS
-from vetfluid.errors import InputError
-from vetfluid.ins_and_outs import ins_and_outs
-from vetfluid.observations import (
+from vetfluid.common.errors import InputError
+from vetfluid.course.observations import (
     Observation,
     alerts,
     check_observation,
@@ -18,7 +16,9 @@ from vetfluid.observations import (
     replan_request,
     weight_is_plausible,
 )
-from vetfluid.plan import PlanRequest, build_plan
+from vetfluid.physiology.ins_and_outs import ins_and_outs
+from vetfluid.planning.demos import DEMOS
+from vetfluid.planning.plan import PlanRequest, build_plan
 
 
 @pytest.fixture(scope="module")
@@ -113,7 +113,7 @@ def test_replan_needs_a_weight(dog):
 
 def test_ins_and_outs_table_follows_the_recorded_urine():
     # Côté 2020: each period's urine and other losses plus insensible loss, given next period.
-    from vetfluid.observations import ins_and_outs_from_observations
+    from vetfluid.course.observations import ins_and_outs_from_observations
 
     recorded = [Observation(hour=4, urine_ml=20, urine_period_h=4),
                 Observation(hour=6, other_losses_ml=15),
@@ -127,7 +127,7 @@ def test_ins_and_outs_table_follows_the_recorded_urine():
 
 
 def test_only_complete_periods_count_and_urine_is_spread_over_its_collection():
-    from vetfluid.observations import measured_outputs
+    from vetfluid.course.observations import measured_outputs
 
     # 3 h into a 6 h period nothing is complete yet: the plan stays in the first period
     assert measured_outputs([Observation(hour=3, urine_ml=9, urine_period_h=3)], period_h=6) == ()
@@ -215,7 +215,7 @@ def test_a_small_patients_overload_alert_speaks_in_grams(lizard):
 
 
 def test_outputs_saved_with_their_observations_are_not_counted_again():
-    from vetfluid.observations import measured_outputs, outputs_not_observed
+    from vetfluid.course.observations import measured_outputs, outputs_not_observed
 
     observed = [Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0)]
     saved = measured_outputs(observed, period_h=4)  # what the saved request holds
@@ -233,7 +233,7 @@ def test_outputs_saved_with_their_observations_are_not_counted_again():
 def test_a_reopened_plan_with_outputs_from_earlier_periods_counts_each_loss_once(older):
     """Saved outputs that reach past the latest urine measurement: a loss recorded in such
     a period is in the saved outputs and among the observations, and counts once."""
-    from vetfluid.observations import measured_outputs, outputs_not_observed
+    from vetfluid.course.observations import measured_outputs, outputs_not_observed
 
     observed = [
         Observation(hour=4.0, urine_ml=40.0, urine_period_h=4.0),
@@ -276,7 +276,7 @@ def test_any_reopened_plan_replaces_the_volumes_it_was_saved_with(observed, olde
     """Saved outputs taken apart and added up again (what reopening a version does) give
     the saved volumes back, whatever was measured: fractional volumes, urine collected
     across periods, losses past the latest urine measurement."""
-    from vetfluid.observations import measured_outputs, outputs_not_observed
+    from vetfluid.course.observations import measured_outputs, outputs_not_observed
 
     saved = measured_outputs(observed, period_h=period, earlier=tuple(older))
     earlier = outputs_not_observed(saved, observed, period_h=period)
@@ -296,7 +296,7 @@ def test_a_saved_ins_and_outs_plan_still_follows_after_a_new_urine_measurement()
     removed, does not."""
     from dataclasses import replace
 
-    from vetfluid.observations import follows_saved_request, measured_outputs
+    from vetfluid.course.observations import follows_saved_request, measured_outputs
 
     first = Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0)
     second = Observation(hour=8.0, urine_ml=40.0, urine_period_h=4.0)
@@ -320,7 +320,7 @@ def test_a_saved_ins_and_outs_plan_still_follows_after_a_new_urine_measurement()
 
 def test_whole_numbers_from_a_plan_file_take_the_next_measurement():
     """A hand-edited file may give outputs as whole numbers; the next urine adds to them."""
-    from vetfluid.observations import measured_outputs
+    from vetfluid.course.observations import measured_outputs
 
     observed = [Observation(hour=8.0, urine_ml=30.0, urine_period_h=4.0)]
     assert measured_outputs(observed, period_h=4, earlier=((70, 0),)) == ((70.0, 0.0), (30.0, 0.0))
@@ -331,7 +331,7 @@ def test_an_observation_dated_after_now_is_refused_when_the_plan_is_on_the_calen
     from dataclasses import replace
     from datetime import date, datetime, time
 
-    from vetfluid.observations import CLOCK_SLACK
+    from vetfluid.course.observations import CLOCK_SLACK
 
     request = replace(DEMOS["dehydrated_dog"].request, start_date=date(2026, 12, 4),
                       start_time=time(8, 0))  # fmt: skip

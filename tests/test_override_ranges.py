@@ -15,10 +15,10 @@ import os
 import pytest
 
 from vetfluid import cli
-from vetfluid.errors import InputError, SpeciesDataError
-from vetfluid.overrides import overrides_file, set_override, shipped_value
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.species import METHOD_PARAMETERS, PARAMETER_COLUMNS, load_table
+from vetfluid.common.errors import InputError, SpeciesDataError
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables.overrides import overrides_file, set_override, shipped_value
+from vetfluid.tables.species import METHOD_PARAMETERS, PARAMETER_COLUMNS, load_table
 
 HEADER = ",".join(PARAMETER_COLUMNS)
 PLAN = ["plan", "--species", "dog", "--weight", "20 kg", "--dehydration", "5", "--boluses", "1"]
@@ -340,9 +340,9 @@ def test_generated_override_files_never_stop_a_plan(tmp_path):
     so nothing divides by zero or overflows downstream."""
     from hypothesis import HealthCheck, given, settings
 
-    from vetfluid.chart import chart
-    from vetfluid.course import course
-    from vetfluid.serialize import plan_dict
+    from vetfluid.course.model import course
+    from vetfluid.printouts.chart import chart
+    from vetfluid.records.serialize import plan_dict
 
     made = iter(range(10**6))
     method_fields = {"maintenance_method", *(p for ps in METHOD_PARAMETERS.values() for p in ps)}

@@ -10,9 +10,9 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from vetfluid import overrides
-from vetfluid.errors import InputError, SpeciesDataError
-from vetfluid.overrides import (
+from vetfluid.common.errors import InputError, SpeciesDataError
+from vetfluid.tables import overrides
+from vetfluid.tables.overrides import (
     OverrideRow,
     backup_file,
     export_effective_table,
@@ -24,7 +24,7 @@ from vetfluid.overrides import (
     shipped_value,
     stored_text,
 )
-from vetfluid.species import PARAMETER_COLUMNS, load_table
+from vetfluid.tables.species import PARAMETER_COLUMNS, load_table
 
 
 def _snapshot():
@@ -310,7 +310,7 @@ def test_export_into_a_missing_folder_is_refused(tmp_path):
 def test_export_neutralises_a_formula_in_a_clinic_note(tmp_path):
     import csv as csv_module
 
-    from vetfluid.overrides import export_effective_table, set_override
+    from vetfluid.tables.overrides import export_effective_table, set_override
 
     set_override(species_id="ferret", parameter="blood_volume_ml_per_kg", value=75,
                  note="=HYPERLINK(\"http://x\")")  # fmt: skip

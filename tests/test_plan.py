@@ -9,9 +9,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from vetfluid.errors import InputError
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.species import load_table
+from vetfluid.common.errors import InputError
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables.species import load_table
 
 
 def codes(plan):
@@ -391,7 +391,7 @@ def test_syringe_pump_phases_are_split_into_fills_on_the_clock():
 def test_hours_since_start_across_midnight_and_months():
     from datetime import date, datetime
 
-    from vetfluid.schedule import clock_time, hours_since
+    from vetfluid.planning.schedule import clock_time, hours_since
 
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, start_time=time(22, 0),
                                   start_date=date(2026, 11, 30)))  # fmt: skip

@@ -7,7 +7,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from ui.plot_items import Trace, step_changes, step_points, turning_mask
+from ui.course.plot_items import Trace, step_changes, step_points, turning_mask
 
 
 def turning_points(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -177,7 +177,7 @@ def test_tick_grid_draws_at_the_axis_ticks_in_the_text_colour(qtbot):
     import pyqtgraph as pg
     from PySide6.QtGui import QColor
 
-    from ui.plot_items import TickGrid
+    from ui.course.plot_items import TickGrid
 
     widget = pg.PlotWidget()
     qtbot.addWidget(widget)
@@ -211,7 +211,7 @@ def test_tick_grid_draws_at_the_axis_ticks_in_the_text_colour(qtbot):
 def test_tick_grid_works_its_lines_out_again_when_the_range_moves(qtbot):
     import pyqtgraph as pg
 
-    from ui.plot_items import TickGrid
+    from ui.course.plot_items import TickGrid
 
     widget = pg.PlotWidget()
     qtbot.addWidget(widget)
@@ -234,7 +234,7 @@ def test_plot_label_sits_above_left_of_its_point_at_a_fixed_pixel_size(qtbot):
     import pyqtgraph as pg
     from PySide6.QtWidgets import QApplication
 
-    from ui.plot_items import PlotLabel
+    from ui.course.plot_items import PlotLabel
 
     widget = pg.PlotWidget()
     qtbot.addWidget(widget)
@@ -273,7 +273,7 @@ def test_plot_label_sits_above_left_of_its_point_at_a_fixed_pixel_size(qtbot):
 def test_plot_axis_bounds_follow_its_geometry_and_tick_style(qtbot):
     import pyqtgraph as pg
 
-    from ui.plot_items import PlotAxis
+    from ui.course.plot_items import PlotAxis
 
     widget = pg.PlotWidget(axisItems={"left": PlotAxis("left")})
     qtbot.addWidget(widget)

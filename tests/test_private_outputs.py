@@ -6,7 +6,7 @@ import stat
 
 import pytest
 
-from vetfluid.paths import owner_only_file, write_owner_only_text
+from vetfluid.common.paths import owner_only_file, write_owner_only_text
 
 pytestmark = pytest.mark.skipif(os.name != "posix", reason="POSIX file modes")
 
@@ -32,7 +32,7 @@ def test_text_written_owner_only_even_with_a_permissive_umask(tmp_path):
 
 
 def test_a_printed_sheet_pdf_is_owner_only(qtbot, tmp_path):
-    from ui.printing import print_sheet_to_pdf
+    from ui.printouts.printing import print_sheet_to_pdf
 
     old = os.umask(0)
     try:

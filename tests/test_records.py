@@ -11,10 +11,10 @@ from pathlib import Path
 
 import pytest
 
-from vetfluid.demos import DEMOS
-from vetfluid.errors import InputError
-from vetfluid.plan import build_plan
-from vetfluid.records import Records, RecordsError
+from vetfluid.common.errors import InputError
+from vetfluid.planning.demos import DEMOS
+from vetfluid.planning.plan import build_plan
+from vetfluid.records.store import Records, RecordsError
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -172,12 +172,12 @@ def test_a_corrupted_or_foreign_file_is_refused_and_left_untouched(tmp_path):
 def test_a_read_only_folder_is_a_clear_message(tmp_path, monkeypatch):
     import errno
 
-    import vetfluid.records
+    import vetfluid.records.store
 
     def refuse(*args, **kwargs):
         raise PermissionError(errno.EACCES, "Permission denied")
 
-    monkeypatch.setattr(vetfluid.records.os, "open", refuse)  # as a read-only folder answers
+    monkeypatch.setattr(vetfluid.records.store.os, "open", refuse)  # as a read-only folder answers
     with pytest.raises(RecordsError, match="cannot create.*Permission denied"):
         Records.open(tmp_path / "records.sqlite")
     assert not (tmp_path / "records.sqlite").exists()
@@ -198,8 +198,8 @@ def test_a_full_disk_is_a_clear_message_and_keeps_what_was_saved(records):
 
 
 def test_compare_two_versions():
-    from vetfluid.records import compare_versions
-    from vetfluid.serialize import plan_dict
+    from vetfluid.records.serialize import plan_dict
+    from vetfluid.records.store import compare_versions
 
     first = plan_dict(build_plan(DEMOS["dehydrated_dog"].request))
     from dataclasses import replace
@@ -216,8 +216,8 @@ def test_compare_gives_divided_doses_as_drawn_up():
     import re
     from dataclasses import replace
 
-    from vetfluid.records import compare_versions
-    from vetfluid.serialize import plan_dict
+    from vetfluid.records.serialize import plan_dict
+    from vetfluid.records.store import compare_versions
 
     request = DEMOS["small_gerbil"].request
     first = plan_dict(build_plan(request))
@@ -277,7 +277,7 @@ def test_a_draft_that_cannot_be_set_aside_stays_and_is_not_overwritten(tmp_path,
     import errno
     import os
 
-    import vetfluid.records as records_module
+    import vetfluid.records.store as records_module
 
     real_open = os.open
 
@@ -307,7 +307,7 @@ def test_a_set_aside_copy_that_cannot_be_written_leaves_no_half_file(tmp_path, m
     import errno
     import os
 
-    import vetfluid.records as records_module
+    import vetfluid.records.store as records_module
 
     real_fdopen = os.fdopen
 
@@ -457,10 +457,10 @@ def test_a_missing_or_malformed_schema_version_is_refused_clearly(tmp_path, stor
 def _schema_1_file(path: Path) -> None:
     """A records file exactly as vetfluid wrote schema 1, with one patient, one version
     and one observation in it."""
-    from vetfluid.records import _SCHEMA_1
+    from vetfluid.records.store import _SCHEMA_1
 
     plan = build_plan(DEMOS["renal_cat"].request)
-    from vetfluid.serialize import plan_dict, request_to_dict
+    from vetfluid.records.serialize import plan_dict, request_to_dict
 
     raw = sqlite3.connect(path, isolation_level=None)
     raw.execute("PRAGMA journal_mode = WAL")
@@ -489,7 +489,7 @@ def test_a_schema_1_file_is_migrated_keeping_everything_and_lookups_use_indexes(
     """Opening a version reads its observations by version; without an index on
     ``observations.plan_version_id`` that read scans every observation of every patient
     (seconds at a clinic's size). The migration adds it and keeps every row."""
-    from vetfluid.records import SCHEMA_VERSION
+    from vetfluid.records.store import SCHEMA_VERSION
 
     path = tmp_path / "records.sqlite"
     _schema_1_file(path)
@@ -590,7 +590,7 @@ def test_restore_leaves_its_target_owner_only(records, tmp_path, no_umask, conne
 
 
 def test_clinic_overrides_are_the_owners_only(no_umask):
-    from vetfluid.overrides import backup_file, overrides_file, set_override
+    from vetfluid.tables.overrides import backup_file, overrides_file, set_override
 
     set_override(species_id="rabbit", parameter="bolus_ml_per_kg", value="12.5")
     set_override(species_id="rabbit", parameter="bolus_ml_per_kg", value="12")  # keeps a .bak
@@ -599,7 +599,7 @@ def test_clinic_overrides_are_the_owners_only(no_umask):
 
 
 def test_saved_plan_files_are_the_owners_only(tmp_path, no_umask):
-    from vetfluid.request_file import write_request_file
+    from vetfluid.records.request_file import write_request_file
 
     folder = tmp_path / "plans"
     folder.mkdir()
@@ -609,7 +609,7 @@ def test_saved_plan_files_are_the_owners_only(tmp_path, no_umask):
 
 
 def test_the_log_is_the_owners_only(no_umask):
-    from ui.errors import log_path, write_log
+    from ui.common.errors import log_path, write_log
 
     write_log("Traceback: an unexpected error while Rex's plan was open\n")
     write_log("a second one\n")

@@ -22,9 +22,9 @@ from pathlib import Path
 
 import pytest
 
-from vetfluid.demos import DEMOS
-from vetfluid.plan import build_plan
-from vetfluid.records import Records
+from vetfluid.planning.demos import DEMOS
+from vetfluid.planning.plan import build_plan
+from vetfluid.records.store import Records
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -69,7 +69,7 @@ def _patient_with_versions(path: Path, count: int) -> None:
 CREATOR = """
     import sys
     from pathlib import Path
-    from vetfluid.records import Records
+    from vetfluid.records.store import Records
 
     folder, first = Path(sys.argv[1]), int(sys.argv[2])
     print("ready", flush=True)
@@ -107,9 +107,9 @@ def test_kill_during_first_creation_never_leaves_a_file_that_is_refused(tmp_path
 
 SAVER = """
     import sys
-    from vetfluid.demos import DEMOS
-    from vetfluid.plan import build_plan
-    from vetfluid.records import Records
+    from vetfluid.planning.demos import DEMOS
+    from vetfluid.planning.plan import build_plan
+    from vetfluid.records.store import Records
 
     db = Records.open(sys.argv[1])
     pid = db.find_patients("Kill")[0].id if db.find_patients("Kill") else db.add_patient(
@@ -139,7 +139,7 @@ def test_kill_during_saves_never_loses_a_returned_version(tmp_path):
 
 DRAFTER = """
     import sys
-    from vetfluid.records import Records
+    from vetfluid.records.store import Records
 
     db = Records.open(sys.argv[1])
     first = int(sys.argv[2])
@@ -181,7 +181,7 @@ def test_kill_during_draft_writes_leaves_the_last_confirmed_draft_or_the_next(tm
 BACKER = """
     import sys
     from pathlib import Path
-    from vetfluid.records import Records
+    from vetfluid.records.store import Records
 
     db = Records.open(sys.argv[1])
     folder, first = Path(sys.argv[2]), int(sys.argv[3])
@@ -220,7 +220,7 @@ def test_kill_during_backups_never_leaves_a_partial_backup(tmp_path):
 
 RESTORER = """
     import sys
-    from vetfluid.records import Records
+    from vetfluid.records.store import Records
 
     older, newer, target = sys.argv[1:4]
     print("ready", flush=True)

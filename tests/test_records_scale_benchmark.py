@@ -19,8 +19,8 @@ from pathlib import Path
 
 import pytest
 
-from vetfluid.records import Records
-from vetfluid.species import load_table
+from vetfluid.records.store import Records
+from vetfluid.tables.species import load_table
 
 pytestmark = pytest.mark.benchmark
 ROOT = Path(__file__).resolve().parents[1]

@@ -7,8 +7,8 @@ import json
 import pytest
 from PySide6.QtWidgets import QMessageBox
 
-from vetfluid.demos import DEMOS
-from vetfluid.records import Records
+from vetfluid.planning.demos import DEMOS
+from vetfluid.records.store import Records
 
 
 def test_save_versions_and_open_them_again(qtbot, planner, vetfluid_home):
@@ -120,7 +120,7 @@ def test_declining_the_draft_clears_it(qtbot, planner, monkeypatch):
 def test_export_schedule_and_observations_from_the_window(qtbot, planner, tmp_path):
     import csv
 
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -138,9 +138,9 @@ def test_export_schedule_and_observations_from_the_window(qtbot, planner, tmp_pa
 
 
 def test_chart_dialog_shows_the_core_chart(qtbot, planner, tmp_path, pdf_text):
-    from ui.chart_view import ChartDialog
-    from vetfluid.chart import chart
-    from vetfluid.formatting import format_quantity
+    from ui.printouts.chart_view import ChartDialog
+    from vetfluid.common.formatting import format_quantity
+    from vetfluid.printouts.chart import chart
 
     dialog = ChartDialog(planner.session.table, "cat")
     qtbot.addWidget(dialog)
@@ -163,7 +163,7 @@ def test_chart_dialog_shows_the_core_chart(qtbot, planner, tmp_path, pdf_text):
 
 
 def test_compare_two_saved_versions(qtbot, planner):
-    from ui.records_view import OpenPatientDialog
+    from ui.records.records_view import OpenPatientDialog
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -213,7 +213,7 @@ def test_a_reason_comes_back_from_a_draft_or_version_for_the_words_it_was_given_
 def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_with(
     qtbot, planner, monkeypatch, answer
 ):
-    from vetfluid.serialize import request_to_dict
+    from vetfluid.records.serialize import request_to_dict
 
     window, code = planner, "DIVIDED_TOO_MANY_SITES"
     window.open_demo("small_gerbil")
@@ -241,7 +241,7 @@ def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_wi
 def test_observations_are_kept_with_the_draft_and_the_saved_version(
     qtbot, planner, monkeypatch, answer
 ):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -272,7 +272,7 @@ def test_observations_are_kept_with_the_draft_and_the_saved_version(
 
 
 def test_opening_a_saved_version_leaves_no_draft_and_edits_to_it_are_drafted(qtbot, planner):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -292,7 +292,7 @@ def test_opening_a_saved_version_leaves_no_draft_and_edits_to_it_are_drafted(qtb
 
 
 def test_replanning_an_unsaved_plan_saves_it_first(qtbot, planner, monkeypatch, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -323,7 +323,7 @@ def test_replanning_an_unsaved_plan_saves_it_first(qtbot, planner, monkeypatch, 
 def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
     qtbot, planner, monkeypatch, answer
 ):
-    from vetfluid.serialize import request_to_dict
+    from vetfluid.records.serialize import request_to_dict
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -346,7 +346,7 @@ def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
 def test_versions_whose_stored_plan_cannot_be_read_give_a_message_not_a_crash(
     qtbot, planner, monkeypatch
 ):
-    from ui.records_view import OpenPatientDialog
+    from ui.records.records_view import OpenPatientDialog
 
     window = planner
     window.open_demo("small_gerbil")
@@ -355,14 +355,14 @@ def test_versions_whose_stored_plan_cannot_be_read_give_a_message_not_a_crash(
     window.save_version(author="AB")
     # a version stored by an older vetfluid, its divided dose without a per-site volume
     # (versions are immutable in the file, so the stored plan is altered on its way out)
-    import ui.records_view
-    from vetfluid.records import compare_versions
+    import ui.records.records_view
+    from vetfluid.records.store import compare_versions
 
     def older(first, second):
         phases = [dict(first["phases"][0], ml_per_site=None), *first["phases"][1:]]
         return compare_versions(dict(first, phases=phases), second)
 
-    monkeypatch.setattr(ui.records_view, "compare_versions", older)
+    monkeypatch.setattr(ui.records.records_view, "compare_versions", older)
     shown = []
     monkeypatch.setattr(QMessageBox, "warning", lambda *a: shown.append(a[2]))
     dialog = OpenPatientDialog(window.records)
@@ -383,7 +383,7 @@ def _saved_dog(qtbot, window, **changes):
 
 
 def test_a_replan_that_matches_the_saved_version_never_writes_into_it(qtbot, planner, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.details.setCurrentWidget(window.course_holder)
@@ -416,7 +416,7 @@ def test_rows_that_could_not_be_read_stay_in_the_version(qtbot, planner):
 def test_leaving_unsaved_work_asks_first(qtbot, planner, answer):
     from PySide6.QtWidgets import QMessageBox
 
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")  # opened and untouched: nothing to ask
@@ -449,7 +449,7 @@ def test_a_reason_given_on_an_opened_version_is_kept_on_close(qtbot, planner):
 
 
 def test_an_observation_recorded_while_the_weight_is_retyped_is_still_saved(qtbot, planner):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     saved = _saved_dog(qtbot, window)
@@ -462,7 +462,7 @@ def test_an_observation_recorded_while_the_weight_is_retyped_is_still_saved(qtbo
 
 
 def test_a_reopened_ins_and_outs_plan_counts_each_measurement_once(qtbot, planner, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.session.replace_request(DEMOS["renal_cat"].request)
@@ -484,7 +484,7 @@ LEAVE = "This plan, or what was recorded"
 
 
 def test_an_observation_after_editing_a_version_never_goes_into_that_version(qtbot, planner):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     saved = _saved_dog(qtbot, window)
@@ -501,7 +501,7 @@ def test_an_observation_after_editing_a_version_never_goes_into_that_version(qtb
 
 
 def test_a_note_recorded_before_the_first_autosave_with_no_valid_plan_is_kept(qtbot, planner):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("small_gerbil")
@@ -517,7 +517,7 @@ def test_a_note_recorded_before_the_first_autosave_with_no_valid_plan_is_kept(qt
 
 
 def test_a_restored_draft_and_a_replan_are_unsaved_work_until_saved(qtbot, planner, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("renal_cat")
@@ -543,7 +543,7 @@ def test_a_restored_draft_and_a_replan_are_unsaved_work_until_saved(qtbot, plann
 
 
 def test_a_restored_draft_that_no_longer_builds_is_still_unsaved_work(qtbot, planner, answer):
-    from vetfluid.serialize import request_to_dict
+    from vetfluid.records.serialize import request_to_dict
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -560,7 +560,7 @@ def test_a_restored_draft_that_no_longer_builds_is_still_unsaved_work(qtbot, pla
 
 def test_observations_recorded_before_any_plan_are_kept(qtbot, planner, answer):
     from ui.main_window import MainWindow
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.new_patient()  # nothing typed: no plan can be built
@@ -595,7 +595,7 @@ def _failing_writes(window):
     """The disk refuses every write to the records until ``.undo()`` is called."""
     import pytest
 
-    from vetfluid.records import RecordsError
+    from vetfluid.records.store import RecordsError
 
     def full_disk(*_, **__):
         raise RecordsError("disk full")
@@ -607,7 +607,7 @@ def _failing_writes(window):
 
 
 def test_a_failed_write_is_unsaved_work_and_is_tried_again(qtbot, planner, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     _saved_dog(qtbot, window)
@@ -626,7 +626,7 @@ def test_a_failed_write_is_unsaved_work_and_is_tried_again(qtbot, planner, answe
 
 
 def test_after_a_failed_write_a_saved_version_is_saved_work(qtbot, planner, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     _saved_dog(qtbot, window)
@@ -641,7 +641,7 @@ def test_after_a_failed_write_a_saved_version_is_saved_work(qtbot, planner, answ
 
 
 def test_a_replan_waits_for_observations_that_could_not_be_written(qtbot, planner, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     saved = _saved_dog(qtbot, window)
@@ -660,7 +660,7 @@ def test_a_replan_waits_for_observations_that_could_not_be_written(qtbot, planne
 
 
 def test_closing_when_the_work_cannot_be_written_asks_first(qtbot, planner, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -680,7 +680,7 @@ def test_closing_when_the_work_cannot_be_written_asks_first(qtbot, planner, answ
 def _ins_and_outs_file(tmp_path, outputs):
     import dataclasses
 
-    from vetfluid.request_file import write_request_file
+    from vetfluid.records.request_file import write_request_file
 
     request = dataclasses.replace(
         DEMOS["renal_cat"].request, ins_and_outs_period_h=4.0, measured_outputs=outputs
@@ -691,7 +691,7 @@ def _ins_and_outs_file(tmp_path, outputs):
 def test_a_reopened_version_with_fractional_outputs_is_unchanged(qtbot, planner, answer, tmp_path):
     """Outputs taken apart and added up again differ in the 15th figure; the version
     reopened untouched is still that version (nothing to ask about on leaving)."""
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     # 70 mL collected over 6 h, filed with 4-hour periods: 46.666666666666664 mL
@@ -716,7 +716,7 @@ def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
     is still that version, the measurement is written to it, and reopening the version
     builds the plan on screen. A re-plan first saves the plan as it has moved on (the
     records hold version 1 as it was saved)."""
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.session.replace_request(DEMOS["renal_cat"].request)
@@ -768,7 +768,7 @@ def _saved_divided_gerbil(qtbot, window):
 def _weight_the_version_refuses(qtbot, window):
     """Version 1 of Rex with a weight recorded on it (24.2 kg at hour 2) that the version
     refuses to take; returns the version and the lock (``.undo()`` lifts it)."""
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     saved = _saved_dog(qtbot, window)
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
@@ -779,7 +779,7 @@ def _version_writes_fail(window):
     """The saved version refuses the observations (locked); the draft can still be written."""
     import pytest
 
-    from vetfluid.records import RecordsError
+    from vetfluid.records.store import RecordsError
 
     def locked(*_, **__):
         raise RecordsError("database is locked")
@@ -844,7 +844,7 @@ def test_once_the_version_takes_the_observations_the_draft_is_cleared(qtbot, pla
 def test_no_retry_writes_while_the_close_question_is_open(qtbot, planner, answer, monkeypatch):
     """Closing when nothing can be written: while the user reads the question, no retry
     may mark the draft as left by a crash."""
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -868,7 +868,7 @@ def broken_records(vetfluid_home):
 
 
 def test_with_no_records_leaving_observations_asks_first(broken_records, qtbot, planner, answer):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     assert window.records is None
@@ -904,7 +904,7 @@ def test_with_no_records_closing_with_unkept_work_asks_first(
 def test_with_no_records_a_replan_is_refused(broken_records, qtbot, planner, answer):
     """A re-plan keeps the plan it replaces in the records: with none, its observations
     would live only in memory, beyond what a plan file or an export keeps."""
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -923,7 +923,7 @@ def test_with_no_records_a_replan_is_refused(broken_records, qtbot, planner, ans
 def test_with_no_records_a_plan_file_and_an_export_keep_the_work(
     broken_records, qtbot, planner, answer, tmp_path
 ):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -968,7 +968,7 @@ def test_a_version_that_no_longer_builds_is_still_compared_with_what_it_stores(
     window compares the plan with the stored version, and raises nothing."""
     import dataclasses
 
-    from vetfluid.overrides import set_override
+    from vetfluid.tables.overrides import set_override
 
     window = planner
     window.session.replace_request(
@@ -999,7 +999,7 @@ def test_removing_a_saved_measurement_while_the_weight_is_retyped_leaves_the_ver
     draft holds the change."""
     import dataclasses
 
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.session.replace_request(
@@ -1068,7 +1068,7 @@ def test_a_draft_that_reads_but_cannot_be_restored_is_set_aside(qtbot, planner, 
 def test_a_retry_while_the_close_question_is_open_writes_the_draft_as_closed(
     qtbot, planner, answer
 ):
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     window.open_demo("dehydrated_dog")
@@ -1094,9 +1094,9 @@ def test_an_unreadable_draft_that_cannot_be_set_aside_blocks_nothing(
     import errno
     import os
 
-    import vetfluid.records as records_module
+    import vetfluid.records.store as records_module
     from ui.main_window import MainWindow
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     with Records.open() as records:
         records._write("INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
@@ -1138,8 +1138,8 @@ def test_observations_go_back_into_their_version_even_when_it_no_longer_builds(
 ):
 
     from ui.main_window import MainWindow
-    from vetfluid.observations import Observation
-    from vetfluid.overrides import set_override
+    from vetfluid.course.observations import Observation
+    from vetfluid.tables.overrides import set_override
 
     window = planner
     saved = _saved_divided_gerbil(qtbot, window)
@@ -1164,7 +1164,7 @@ def test_writing_kept_observations_back_keeps_what_the_version_took_since(qtbot,
     version 1 and records C, which it takes. At the next start B is written back and C
     stays; the note on an unreadable stored row is still given."""
     from ui.main_window import MainWindow
-    from vetfluid.observations import Observation
+    from vetfluid.course.observations import Observation
 
     window = planner
     saved = _saved_dog(qtbot, window)
@@ -1202,8 +1202,8 @@ def test_a_version_that_does_not_build_takes_its_observations_and_leaves_no_draf
     qtbot, planner, answer
 ):
 
-    from vetfluid.observations import Observation
-    from vetfluid.overrides import set_override
+    from vetfluid.course.observations import Observation
+    from vetfluid.tables.overrides import set_override
 
     window = planner
     saved = _saved_divided_gerbil(qtbot, window)

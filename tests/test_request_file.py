@@ -6,9 +6,9 @@ import json
 
 import pytest
 
-from vetfluid.demos import DEMOS
-from vetfluid.errors import InputError
-from vetfluid.request_file import read_request_file, write_request_file
+from vetfluid.common.errors import InputError
+from vetfluid.planning.demos import DEMOS
+from vetfluid.records.request_file import read_request_file, write_request_file
 
 
 def test_round_trip_keeps_request_and_reasons(tmp_path):

@@ -32,7 +32,8 @@ def test_wheel_carries_the_data_and_finds_it_when_installed(tmp_path):
     )  # fmt: skip
     probe = (
         f"import sys; sys.path.insert(0, {str(target)!r}); "
-        "from vetfluid.paths import resource_dir; from vetfluid.species import load_table; "
+        "from vetfluid.common.paths import resource_dir; "
+        "from vetfluid.tables.species import load_table; "
         "print(resource_dir('species_data')); print(len(load_table().species_ids()))"
     )
     result = subprocess.run(
@@ -44,7 +45,7 @@ def test_wheel_carries_the_data_and_finds_it_when_installed(tmp_path):
 
 
 def test_checkout_locator_finds_the_top_level_folders():
-    from vetfluid.paths import resource_dir
+    from vetfluid.common.paths import resource_dir
 
     assert resource_dir("species_data") == ROOT / "species_data"
     assert resource_dir("icons") == ROOT / "icons"
@@ -53,8 +54,8 @@ def test_checkout_locator_finds_the_top_level_folders():
 def test_unknown_resources_list_the_known_ones():
     import pytest
 
-    from vetfluid.errors import InputError
-    from vetfluid.paths import resource_dir, resource_file
+    from vetfluid.common.errors import InputError
+    from vetfluid.common.paths import resource_dir, resource_file
 
     with pytest.raises(InputError, match="species_data, icons"):
         resource_dir("sounds")
@@ -63,8 +64,8 @@ def test_unknown_resources_list_the_known_ones():
 
 
 def test_vetfluid_home_replaces_the_user_data_folder(tmp_path, monkeypatch):
-    from vetfluid.paths import user_data_dir
-    from vetfluid.species import overrides_dir
+    from vetfluid.common.paths import user_data_dir
+    from vetfluid.tables.species import overrides_dir
 
     monkeypatch.setenv("VETFLUID_HOME", str(tmp_path / "clinic"))
     assert user_data_dir() == tmp_path / "clinic"

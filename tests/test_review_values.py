@@ -22,10 +22,11 @@ from pathlib import Path
 
 import pytest
 
-from vetfluid import fluids, resuscitation
-from vetfluid.limits import limit
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.species import load_table
+from vetfluid.physiology import resuscitation
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables import fluids
+from vetfluid.tables.limits import limit
+from vetfluid.tables.species import load_table
 
 reference = pytest.mark.reference
 

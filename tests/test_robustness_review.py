@@ -6,9 +6,9 @@ import sys
 
 import pytest
 
-from vetfluid import electrolytes
-from vetfluid.csvfiles import parse_number
-from vetfluid.errors import SpeciesDataError
+from vetfluid.common.csvfiles import parse_number
+from vetfluid.common.errors import SpeciesDataError
+from vetfluid.physiology import electrolytes
 
 ESCAPE = "x\n\x1b[31mFAKE"
 
@@ -45,13 +45,19 @@ def test_an_override_number_in_other_digits_is_refused(text):
 def test_a_fluid_near_the_patients_na_gives_no_runaway_rate():
     # 0.9 % NaCl (Na 154) at serum Na 154.501: |d| = 0.5 ≤ 2 × 0.5, so only more than a
     # whole body water an hour could move Na by the limit: no rate from this rule
-    assert electrolytes.max_rate_for_sodium(
-        serum_na=154.501, infusate_na_k=154, tbw_l=24, max_change_per_h=0.5
-    ) is None
+    assert (
+        electrolytes.max_rate_for_sodium(
+            serum_na=154.501, infusate_na_k=154, tbw_l=24, max_change_per_h=0.5
+        )
+        is None
+    )
     # lactated Ringer's (Na + K 134) at 135: the same
-    assert electrolytes.max_rate_for_sodium(
-        serum_na=135, infusate_na_k=134, tbw_l=12, max_change_per_h=0.5
-    ) is None
+    assert (
+        electrolytes.max_rate_for_sodium(
+            serum_na=135, infusate_na_k=134, tbw_l=12, max_change_per_h=0.5
+        )
+        is None
+    )
     fine = electrolytes.max_rate_for_sodium(
         serum_na=140, infusate_na_k=130, tbw_l=12, max_change_per_h=0.5
     )
@@ -82,7 +88,7 @@ def test_a_log_an_older_version_left_readable_is_narrowed_when_written(tmp_path,
     import os
     import stat
 
-    from ui import errors
+    from ui.common import errors
 
     log = tmp_path / "vetfluid.log"
     log.write_text("old\n")

@@ -27,12 +27,12 @@ from hypothesis import HealthCheck, assume, event, given, settings
 from hypothesis import strategies as st
 from test_hazard_log import code_in_core
 
-from vetfluid import fluids
-from vetfluid.errors import InputError, LimitExceeded
-from vetfluid.findings import Finding
-from vetfluid.plan import DEVICES, ROUTES, PlanRequest, build_plan
-from vetfluid.schedule import Phase
-from vetfluid.species import MAINTENANCE_METHODS, load_table
+from vetfluid.common.errors import InputError, LimitExceeded
+from vetfluid.common.findings import Finding
+from vetfluid.planning.plan import DEVICES, ROUTES, PlanRequest, build_plan
+from vetfluid.planning.schedule import Phase
+from vetfluid.tables import fluids
+from vetfluid.tables.species import MAINTENANCE_METHODS, load_table
 
 TABLE = load_table()
 SPECIES = sorted(s for s in TABLE.species_ids() if TABLE.species(s).rank == "species")

@@ -4,7 +4,7 @@ shown, divided doses as drawn up, and the treatment sheet agreeing with the sche
 Check values are worked by hand with the standard infusion arithmetic (drops/min =
 mL/h × drop factor ÷ 60; seconds per drop = 60 ÷ drops/min), the 0.01 mL marks of a
 1 mL syringe (common practice, no source) and the two-drops-a-second counting limit
-(:data:`vetfluid.delivery.COUNTABLE_DROPS_PER_MIN`, common practice, no source).
+(:data:`vetfluid.physiology.delivery.COUNTABLE_DROPS_PER_MIN`, common practice, no source).
 """
 
 from __future__ import annotations
@@ -14,18 +14,18 @@ import re
 
 import pytest
 
-from vetfluid import delivery
-from vetfluid.demos import DEMOS
-from vetfluid.errors import InputError
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.schedule import (
+from vetfluid.common.errors import InputError
+from vetfluid.physiology import delivery
+from vetfluid.planning.demos import DEMOS
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.planning.schedule import (
     continuous_phase,
     intermittent_phase,
     rate_or_dose_text,
     schedule_entries,
 )
-from vetfluid.serialize import plan_dict
-from vetfluid.sheet import sheet_html
+from vetfluid.printouts.sheet import sheet_html
+from vetfluid.records.serialize import plan_dict
 
 CONDITION = "If still poorly perfused at reassessment: bolus "
 
@@ -140,7 +140,7 @@ def test_drops_per_min_are_those_of_the_rate_shown():
     [(229.64, 230), (69.637, 69.6), (4.567, 4.57), (0.384, 0.38), (1440, 1440)],
 )
 def test_a_drip_runs_the_rate_to_the_figures_shown(rate, shown):
-    # three significant figures from 1 mL/h, two below (vetfluid.formatting)
+    # three significant figures from 1 mL/h, two below (vetfluid.common.formatting)
     assert delivery.drip_ml_per_h(rate) == pytest.approx(shown)
 
 

@@ -9,10 +9,10 @@ from pathlib import Path
 
 import pytest
 
-from vetfluid.demos import DEMOS
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.serialize import plan_dict
-from vetfluid.sheet import MAX_PHASES, NURSE_COLUMNS, sheet_html
+from vetfluid.planning.demos import DEMOS
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.printouts.sheet import MAX_PHASES, NURSE_COLUMNS, sheet_html
+from vetfluid.records.serialize import plan_dict
 
 VETFLUID = str(Path(sys.executable).with_name("vetfluid"))
 
@@ -34,7 +34,7 @@ def test_sheet_has_the_nurse_columns_labels_cautions_and_sources():
 def test_sheet_numbers_match_the_plan():
     data = dog_data()
     html = sheet_html(data)
-    from vetfluid.formatting import format_quantity as q
+    from vetfluid.common.formatting import format_quantity as q
 
     assert q(data["total_ml_first_24h"], "mL") in html
     assert q(data["phases"][0]["rate_ml_per_h"], "mL/h") in html
@@ -55,7 +55,7 @@ def test_headless_sheet_command_writes_a_pdf(tmp_path, pdf_text):
     assert result.returncode == 0, result.stderr
     assert "page" in result.stdout
     text = pdf_text(out)
-    from vetfluid.formatting import format_quantity as q
+    from vetfluid.common.formatting import format_quantity as q
 
     for phase in data["phases"]:
         if phase["mode"] == "continuous":
@@ -124,7 +124,7 @@ def test_an_older_plan_file_without_the_unit_still_prints_the_weight_unrounded()
 
 
 def test_weights_keep_their_figures():
-    from vetfluid.units import weight_text
+    from vetfluid.common.units import weight_text
 
     assert weight_text(0.065, "g") == "65 g"  # 0.065 × 1000 is 65.00000000000001
     assert weight_text(0.0654, "g") == "65.4 g"
@@ -133,7 +133,7 @@ def test_weights_keep_their_figures():
 
 
 def test_a_plan_file_with_an_unknown_weight_unit_is_refused():
-    from vetfluid.errors import InputError
+    from vetfluid.common.errors import InputError
 
     data = gerbil_data()
     data["weight_unit"] = "stone"
@@ -153,7 +153,7 @@ def _hard_limit_data():
 
 
 def test_a_hard_finding_marks_the_sheet_even_without_the_hard_limit_flag():
-    from vetfluid.sheet import BLOCKED_MARK, page_mark
+    from vetfluid.printouts.sheet import BLOCKED_MARK, page_mark
 
     data = _hard_limit_data()
     del data["hard_limit"]  # a hand-edited or older plan JSON
@@ -163,7 +163,7 @@ def test_a_hard_finding_marks_the_sheet_even_without_the_hard_limit_flag():
 
 
 def test_the_hard_limit_flag_alone_marks_the_sheet():
-    from vetfluid.sheet import BLOCKED_MARK, page_mark
+    from vetfluid.printouts.sheet import BLOCKED_MARK, page_mark
 
     data = dog_data()
     assert page_mark(data) == "" and BLOCKED_MARK not in sheet_html(data)
@@ -173,11 +173,11 @@ def test_the_hard_limit_flag_alone_marks_the_sheet():
 
 # ---- what a nurse needs on the sheet: the date, the inputs, potassium, the additives -----------
 def test_the_date_of_hour_0_heads_the_sheet_and_later_days_carry_their_date():
-    """The demo dog starts on DEMO_DAY at 08:00 (vetfluid/demos.py)."""
+    """The demo dog starts on DEMO_DAY at 08:00 (vetfluid/planning/demos.py)."""
     from datetime import date, datetime, timedelta
 
-    from vetfluid.demos import DEMO_DAY
-    from vetfluid.sheet import date_text
+    from vetfluid.planning.demos import DEMO_DAY
+    from vetfluid.printouts.sheet import date_text
 
     data = dog_data()
     html = sheet_html(data)
@@ -199,7 +199,7 @@ def test_a_later_days_schedule_entry_carries_its_date():
     23:15, maintenance 24 h later on Monday 2 March."""
     from datetime import date, time
 
-    from vetfluid.sheet import date_text
+    from vetfluid.printouts.sheet import date_text
 
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=24, resuscitation_boluses=3,
                                   dehydration_percent=5, start_time=time(22, 30),
@@ -221,7 +221,7 @@ def test_without_a_date_or_a_time_the_sheet_leaves_a_blank_to_write_it_in():
 
 
 def test_a_start_date_that_is_not_a_date_is_refused():
-    from vetfluid.errors import InputError
+    from vetfluid.common.errors import InputError
 
     data = dog_data()
     data["request"]["start_date"] = "1/12/2026"
@@ -283,7 +283,7 @@ def test_findings_a_saved_plan_names_are_printed_in_words_even_when_retired_or_u
 
 
 def test_the_potassium_line_and_the_labels_give_the_strength_in_the_bag():
-    from vetfluid.formatting import format_quantity as q
+    from vetfluid.common.formatting import format_quantity as q
 
     data = dog_data()  # serum K 3.3: KCl from the scale (Côté 2020)
     k = data["potassium"]
@@ -300,7 +300,7 @@ def test_the_potassium_line_and_the_labels_give_the_strength_in_the_bag():
 
 
 def test_a_bolus_bag_has_nothing_added_and_dextrose_is_given_by_its_strength():
-    from vetfluid.formatting import format_quantity as q
+    from vetfluid.common.formatting import format_quantity as q
 
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, resuscitation_boluses=1,
                                   kcl_mmol_per_l=20, dextrose_percent=2.5))  # fmt: skip
@@ -308,7 +308,7 @@ def test_a_bolus_bag_has_nothing_added_and_dextrose_is_given_by_its_strength():
     labels = sheet_html(data).split("<h3>Labels</h3>", 1)[1].split("</table>", 1)[0]
     cells = labels.split("<td>")[1:]
     assert "with nothing added" in cells[0] and "in the bag" not in cells[0]
-    from vetfluid import fluids
+    from vetfluid.tables import fluids
 
     dextrose = fluids.composition(plan.bag).dextrose_hydrous_g_per_l / 10  # g/L → % w/v
     assert all(f"dextrose {q(dextrose, '%')} in the bag" in c for c in cells[1:])
@@ -323,7 +323,7 @@ def _three_boluses():
 
 
 def test_later_boluses_are_marked_conditional_wherever_the_sheet_lists_them():
-    from vetfluid.sheet import CONDITIONAL
+    from vetfluid.printouts.sheet import CONDITIONAL
 
     data = _three_boluses()
     schedule = [e["action"] for e in data["schedule"] if e["phase"] == "resuscitation"]
@@ -338,7 +338,7 @@ def test_later_boluses_are_marked_conditional_wherever_the_sheet_lists_them():
     assert "bolus 1 (" not in first_hour
     # the rate that follows the boluses in that hour is listed too, from its start
     replacement = next(p for p in data["phases"] if p["kind"] == "replacement")
-    from vetfluid.formatting import format_quantity as q
+    from vetfluid.common.formatting import format_quantity as q
 
     assert f"from 08:45: {q(replacement['rate_ml_per_h'], 'mL/h')}" in first_hour
     labels = html.split("<h3>Labels</h3>", 1)[1].split("<h3>", 1)[0]
@@ -351,7 +351,7 @@ def test_later_boluses_are_marked_conditional_wherever_the_sheet_lists_them():
 def test_a_bolus_running_into_the_next_hour_is_listed_once_and_then_said_to_run_on():
     from datetime import time
 
-    from vetfluid.sheet import CONDITIONAL, _planned_at
+    from vetfluid.printouts.sheet import CONDITIONAL, _planned_at
 
     # a 60 min bolus from h 0.5 (a shape the hourly rows must handle even if no species
     # default gives it today): due at 08:30, still running in the 09:00 row
@@ -372,8 +372,8 @@ def test_a_bolus_running_into_the_next_hour_is_listed_once_and_then_said_to_run_
 
 
 def test_the_first_24_h_total_says_how_much_is_conditional():
-    from vetfluid.formatting import format_quantity as q
-    from vetfluid.sheet import first_24h_text
+    from vetfluid.common.formatting import format_quantity as q
+    from vetfluid.printouts.sheet import first_24h_text
 
     data = _three_boluses()
     later = [p for p in data["phases"] if p["kind"] == "resuscitation"][1:]
@@ -386,7 +386,7 @@ def test_the_first_24_h_total_says_how_much_is_conditional():
 
 
 def test_species_values_print_the_safe_way_without_trailing_zeros():
-    """The safe-number rule (vetfluid/formatting.py): 20 kg, never 20.0 kg."""
+    """The safe-number rule (vetfluid/common/formatting.py): 20 kg, never 20.0 kg."""
     data = dog_data()
     sources = sheet_html(data).split("Sources of the species values used", 1)[1]
     whole = [v for v in data["provenance"] if isinstance(v["value"], float)
@@ -466,8 +466,8 @@ def test_the_windows_own_plan_file_prints_its_plan(capsys, tmp_path, pdf_text):
     """A saved ``*.vfplan.json`` holds the request: the sheet builds its plan and prints
     it with the reasons given, the same figures the CLI's plan JSON gives."""
     from ui.app import sheet_command
-    from vetfluid.formatting import format_quantity as q
-    from vetfluid.request_file import write_request_file
+    from vetfluid.common.formatting import format_quantity as q
+    from vetfluid.records.request_file import write_request_file
 
     request = DEMOS["dehydrated_dog"].request
     path = write_request_file(tmp_path / "rex", request, {})
@@ -492,10 +492,10 @@ def test_a_broken_plan_request_file_names_its_key(capsys, tmp_path):
 
 
 def test_a_plan_files_reasons_print_only_for_the_warnings_as_they_were_given(tmp_path):
-    """As in the window (ui/session.py): a reason covers a warning as it read when the
+    """As in the window (ui/planning/session.py): a reason covers a warning as it read when the
     reason was given; one given for other words has lapsed and is not printed."""
     from ui.app import _plan_to_print
-    from vetfluid.request_file import write_request_file
+    from vetfluid.records.request_file import write_request_file
 
     request = DEMOS["renal_cat"].request
     soft = next(f for f in build_plan(request).findings if f.severity == "soft")

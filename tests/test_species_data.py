@@ -8,10 +8,10 @@ from pathlib import Path
 
 import pytest
 
-from vetfluid.errors import InputError, SpeciesDataError
-from vetfluid.maintenance import concentrating_ceiling
-from vetfluid.paths import resource_dir
-from vetfluid.species import BASES, load_table
+from vetfluid.common.errors import InputError, SpeciesDataError
+from vetfluid.common.paths import resource_dir
+from vetfluid.physiology.maintenance import concentrating_ceiling
+from vetfluid.tables.species import BASES, load_table
 
 DATA = resource_dir("species_data")
 REQUIRED_SPECIES = [
@@ -56,7 +56,7 @@ def test_every_source_has_a_citation_and_is_cited_somewhere(table):
                   "dehydration_findings.csv", "fluid_roles.csv", "route_limits.csv")  # fmt: skip
     used = {r["source_id"] for name in data_files for r in _rows(name)}
     code = " ".join(
-        p.read_text(encoding="utf-8") for p in Path(DATA.parent, "vetfluid").glob("*.py")
+        p.read_text(encoding="utf-8") for p in Path(DATA.parent, "vetfluid").rglob("*.py")
     )
     for source in table.sources.values():
         assert len(source.citation) > 20, source.source_id
@@ -280,8 +280,8 @@ def test_every_parameter_is_documented_in_the_data_readme(table):
 
 
 def test_every_parameter_has_a_label_people_read():
-    from vetfluid.plan import PlanRequest, build_plan
-    from vetfluid.species import load_table
+    from vetfluid.planning.plan import PlanRequest, build_plan
+    from vetfluid.tables.species import load_table
 
     table = load_table()
     labels = [d.label for d in table.definitions.values()]
@@ -326,7 +326,7 @@ def test_every_shipped_value_low_and_high_lies_in_its_plausible_range():
 
 
 def test_body_weight_range_is_the_patient_weight_range():
-    from vetfluid.checks import PATIENT_WEIGHT_KG
+    from vetfluid.common.checks import PATIENT_WEIGHT_KG
 
     row = next(r for r in _rows("parameter_definitions.csv") if r["parameter"] == "body_weight_kg")
     assert (float(row["min"]), float(row["max"])) == PATIENT_WEIGHT_KG

@@ -10,7 +10,7 @@ from PySide6.QtCore import QItemSelectionModel, Qt
 from PySide6.QtGui import QFontMetrics
 from PySide6.QtWidgets import QAbstractButton, QComboBox, QLabel, QLineEdit, QTableView
 
-from ui.species_view import (
+from ui.tables.species_view import (
     BASIS_ROLE,
     MARKER_DERIVED,
     MARKER_MEMORY,
@@ -21,9 +21,9 @@ from ui.species_view import (
     SpeciesTableView,
     column_label,
 )
-from vetfluid import overrides
-from vetfluid.formatting import format_number
-from vetfluid.species import load_table
+from vetfluid.common.formatting import format_number
+from vetfluid.tables import overrides
+from vetfluid.tables.species import load_table
 
 ROOT = Path(__file__).resolve().parents[1]
 DISPLAY = Qt.ItemDataRole.DisplayRole

@@ -16,9 +16,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from vetfluid.errors import InputError
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.timeline import (
+from vetfluid.common.errors import InputError
+from vetfluid.course.timeline import (
     SERIES,
     clock_labels,
     nearest_index,
@@ -26,6 +25,7 @@ from vetfluid.timeline import (
     timeline,
     values_at,
 )
+from vetfluid.planning.plan import PlanRequest, build_plan
 
 reference = pytest.mark.reference
 STEP_MIN = 5.0

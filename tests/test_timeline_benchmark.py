@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import pytest
 
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.timeline import timeline, values_at
+from vetfluid.course.timeline import timeline, values_at
+from vetfluid.planning.plan import PlanRequest, build_plan
 
 pytestmark = pytest.mark.benchmark
 

@@ -11,10 +11,10 @@ import pytest
 from PySide6.QtCore import QPointF, Qt
 from PySide6.QtGui import QColor, QPalette
 
-from ui.timeline_view import TimelineView
-from vetfluid.formatting import format_quantity
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.timeline import timeline, values_at
+from ui.course.timeline_view import TimelineView
+from vetfluid.common.formatting import format_quantity
+from vetfluid.course.timeline import timeline, values_at
+from vetfluid.planning.plan import PlanRequest, build_plan
 
 ROOT = Path(__file__).resolve().parents[1]
 DOG = PlanRequest(

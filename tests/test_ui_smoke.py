@@ -4,13 +4,13 @@ from __future__ import annotations
 
 from html import escape
 
-from ui.platform_check import display_problem, missing_packages
+from ui.common.platform_check import display_problem, missing_packages
 
 
 def test_cautions_banner_and_help_carry_every_caution(qtbot):
-    from ui.help_dialog import help_html
+    from ui.common.help_dialog import help_html
     from ui.main_window import MainWindow
-    from vetfluid.cautions import CAUTIONS, SHORT_CAUTION
+    from vetfluid.common.cautions import CAUTIONS, SHORT_CAUTION
 
     window = MainWindow()
     qtbot.addWidget(window)
@@ -52,7 +52,7 @@ def test_missing_xcb_libraries_name_their_packages(monkeypatch):
 def test_unexpected_errors_are_logged_and_shown(qtbot, monkeypatch, vetfluid_home):
     from PySide6.QtWidgets import QMessageBox
 
-    from ui import errors
+    from ui.common import errors
 
     shown = []
     monkeypatch.setattr(QMessageBox, "critical", lambda *args: shown.append(args[2]))

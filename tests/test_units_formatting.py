@@ -16,9 +16,9 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from vetfluid.errors import InputError
-from vetfluid.formatting import default_decimals, format_number, format_quantity
-from vetfluid.units import (
+from vetfluid.common.errors import InputError
+from vetfluid.common.formatting import default_decimals, format_number, format_quantity
+from vetfluid.common.units import (
     mg_per_dl_to_mmol_per_l,
     mg_per_dl_to_umol_per_l,
     mmol_per_l_to_mg_per_dl,

@@ -24,9 +24,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from vetfluid import maintenance
-from vetfluid.plan import PlanRequest, build_plan
-from vetfluid.species import SpeciesTable, load_table
+from vetfluid.physiology import maintenance
+from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.tables.species import SpeciesTable, load_table
 
 reference = pytest.mark.reference
 

@@ -20,7 +20,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from vetfluid.demos import DEMOS
+from vetfluid.planning.demos import DEMOS
 
 DOWN, UP = -120, 120  # one notch of a mouse wheel, in eighths of a degree (Qt's unit)
 
@@ -172,7 +172,7 @@ def test_no_input_in_the_window_changes_from_the_wheel_unless_focused(qtbot, sho
 
 def test_the_chart_dialogs_boxes_are_guarded_too(qtbot, short_window, monkeypatch):
     """The weight-band chart is a dialog of its own, built when asked for."""
-    from ui.chart_view import ChartDialog
+    from ui.printouts.chart_view import ChartDialog
 
     shown: list[ChartDialog] = []
     # a test stand-in for the modal loop (the dialog would wait for a click)

@@ -12,8 +12,8 @@ import pytest
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QApplication
 
-from vetfluid.demos import DEMOS
-from vetfluid.formatting import format_quantity as q
+from vetfluid.common.formatting import format_quantity as q
+from vetfluid.planning.demos import DEMOS
 
 CLI = str(Path(sys.executable).with_name("vetfluid-cli"))
 
@@ -368,7 +368,7 @@ def test_every_number_matches_the_cli(qtbot, window, demo_id):
 def test_the_course_tab_models_what_the_cli_models(qtbot, window, demo_id):
     """The Course tab and ``vetfluid-cli course`` run the model at one step size: the same
     predicted weight, plasma and remaining deficit at each hour asked for."""
-    from vetfluid.course import observed_course
+    from vetfluid.course.model import observed_course
 
     window.open_demo(demo_id)
     plan = wait_for_plan(qtbot, window, lambda p: p.request == DEMOS[demo_id].request)
@@ -435,7 +435,7 @@ def test_a_plan_file_keeps_the_words_each_reason_was_given_for(qtbot, window, tm
 
 
 def test_a_reason_without_its_words_does_not_cover_a_plan_built_after_a_failed_one(qtbot, window):
-    from ui.session import WORDING_NOT_KNOWN
+    from ui.planning.session import WORDING_NOT_KNOWN
 
     unknown = dataclasses.replace(DEMOS["renal_cat"].request, species_id="unicorn")
     window.session.replace_request(unknown, {"OVERLOAD_RISK": "weighing every 6 h"})
@@ -477,9 +477,9 @@ def test_every_printed_page_carries_the_cautions(qtbot, tmp_path, monkeypatch):
     from PySide6.QtGui import QPainter
     from PySide6.QtPrintSupport import QPrinter
 
-    import ui.printing
-    from vetfluid.cautions import SHORT_CAUTION
-    from vetfluid.sheet import BLOCKED_MARK
+    import ui.printouts.printing
+    from vetfluid.common.cautions import SHORT_CAUTION
+    from vetfluid.printouts.sheet import BLOCKED_MARK
 
     footers = []
 
@@ -488,12 +488,12 @@ def test_every_printed_page_carries_the_cautions(qtbot, tmp_path, monkeypatch):
             footers.append(args[-1])
             return super().drawText(*args)
 
-    monkeypatch.setattr(ui.printing, "QPainter", RecordingPainter)
+    monkeypatch.setattr(ui.printouts.printing, "QPainter", RecordingPainter)
     printer = QPrinter()
     printer.setOutputFormat(QPrinter.OutputFormat.PdfFormat)
     printer.setOutputFileName(str(tmp_path / "long.pdf"))
     long_sheet = "<html><body>" + "<p>row</p>" * 400 + "</body></html>"
-    pages = ui.printing.print_sheet(long_sheet, printer)
+    pages = ui.printouts.printing.print_sheet(long_sheet, printer)
     assert pages > 1
     assert len(footers) == pages
     assert all(SHORT_CAUTION in text for text in footers)
@@ -501,12 +501,12 @@ def test_every_printed_page_carries_the_cautions(qtbot, tmp_path, monkeypatch):
 
     # a plan with a hard limit says so at the foot of every page, pages get separated
     footers.clear()
-    pages = ui.printing.print_sheet(long_sheet, printer, mark=BLOCKED_MARK)
+    pages = ui.printouts.printing.print_sheet(long_sheet, printer, mark=BLOCKED_MARK)
     assert len(footers) == pages and all(t.startswith(f"✖ {BLOCKED_MARK}") for t in footers)
 
 
 def test_a_blocked_plan_prints_as_not_to_be_given(qtbot, window):
-    from vetfluid.sheet import BLOCKED_MARK, plan_sheet_html
+    from vetfluid.printouts.sheet import BLOCKED_MARK, plan_sheet_html
 
     window.open_demo("cold_bearded_dragon")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "bearded_dragon")
@@ -555,7 +555,7 @@ def test_window_remembers_its_size(qtbot, window, vetfluid_home):
 
 
 def test_help_lists_cautions_and_sources(qtbot, window):
-    from ui.help_dialog import help_html
+    from ui.common.help_dialog import help_html
 
     html = help_html(window.session.table)
     assert "Verify every volume" in html and "Hardy RM, Osborne CA" in html
@@ -563,7 +563,7 @@ def test_help_lists_cautions_and_sources(qtbot, window):
     from PySide6.QtCore import QUrl
     from PySide6.QtGui import QTextDocument
 
-    from ui.help_dialog import HelpDialog
+    from ui.common.help_dialog import HelpDialog
 
     dialog = HelpDialog(window.session.table, window)
     qtbot.addWidget(dialog)
@@ -631,16 +631,16 @@ def test_a_plan_without_a_start_date_goes_on_the_last_day_its_time_came(
     from dataclasses import replace
     from datetime import date, datetime, time
 
-    import ui.course_view
-    import ui.plan_view
-    from vetfluid.demos import DEMOS
+    import ui.course.course_view
+    import ui.planning.plan_view
+    from vetfluid.planning.demos import DEMOS
 
     class Clock(datetime):
         @classmethod
         def now(cls, tz=None):  # noqa: ARG003
             return datetime(*now)
 
-    for module in (ui.plan_view, ui.course_view):
+    for module in (ui.planning.plan_view, ui.course.course_view):
         monkeypatch.setattr(module, "datetime", Clock)
     request = replace(DEMOS["dehydrated_dog"].request, start_date=None, start_time=time(*start))
     planner.session.replace_request(request)

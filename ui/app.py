@@ -24,8 +24,8 @@ def sheet_command(argv: list[str]) -> int:
     parser.add_argument("--patient-name", default="")
     args = parser.parse_args(argv)
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # no window is shown
-    from vetfluid.errors import VetfluidError, printable
-    from vetfluid.sheet import page_mark, sheet_html
+    from vetfluid.common.errors import VetfluidError, printable
+    from vetfluid.printouts.sheet import page_mark, sheet_html
 
     shown = printable(args.plan)[:200]  # a file name echoed escaped, one line
 
@@ -82,13 +82,13 @@ def _same_file(plan: object, output: object) -> bool:
 
 def _plan_to_print(path: object) -> tuple[dict, dict[str, str]]:
     """The plan JSON to print and the reasons given: a plan as `vetfluid-cli plan --json`
-    prints it (checked, :func:`vetfluid.sheet.check_plan_json`), or a plan file the window
+    prints it (checked, :func:`vetfluid.printouts.sheet.check_plan_json`), or a plan file the window
     saved (``*.vfplan.json``), whose plan is built from its request, with the reasons that
     still cover its warnings as they read now."""
-    from vetfluid.plan import build_plan
-    from vetfluid.request_file import read_json_file, request_file_from_data
-    from vetfluid.serialize import REQUEST_FORMAT, plan_dict, request_from_dict
-    from vetfluid.sheet import check_plan_json
+    from vetfluid.planning.plan import build_plan
+    from vetfluid.printouts.sheet import check_plan_json
+    from vetfluid.records.request_file import read_json_file, request_file_from_data
+    from vetfluid.records.serialize import REQUEST_FORMAT, plan_dict, request_from_dict
 
     data = read_json_file(path, what="a vetfluid plan", max_bytes=1_000_000)  # type: ignore[arg-type]
     if not (isinstance(data, dict) and data.get("format") == REQUEST_FORMAT):
@@ -106,7 +106,7 @@ def _plan_to_print(path: object) -> tuple[dict, dict[str, str]]:
         code: reason
         for code, reason in opened.acknowledged.items()
         if wording is None or (code in said and wording.get(code) == said[code])
-    }  # a reason given for other words of a warning does not cover it (ui/session.py)
+    }  # a reason given for other words of a warning does not cover it (ui/planning/session.py)
     return check_plan_json(plan_dict(plan)), acknowledged
 
 
@@ -124,10 +124,10 @@ def chart_command(argv: list[str]) -> int:
     parser.add_argument("--page", choices=("a4", "letter"), default="a4")
     args = parser.parse_args(argv)
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    from vetfluid.chart import chart
-    from vetfluid.chart_sheet import chart_sheet_html
-    from vetfluid.errors import VetfluidError
-    from vetfluid.units import read_number
+    from vetfluid.common.errors import VetfluidError
+    from vetfluid.common.units import read_number
+    from vetfluid.printouts.chart import chart
+    from vetfluid.printouts.chart_sheet import chart_sheet_html
 
     try:
         drop_factor = read_number(args.drop_factor, field="--drop-factor")  # digits 0–9 only
@@ -142,8 +142,8 @@ def _write_pdf(html: str, output: str, page: str, *, mark: str = "") -> int:
     """Write the PDF; ``mark`` heads every page (a plan with a hard limit)."""
     from PySide6.QtWidgets import QApplication
 
-    from ui.printing import print_sheet_to_pdf
-    from vetfluid.errors import printable
+    from ui.printouts.printing import print_sheet_to_pdf
+    from vetfluid.common.errors import printable
 
     app = QApplication.instance() or QApplication(["vetfluid"])  # noqa: F841 (Qt needs one)
     try:
@@ -182,7 +182,7 @@ def main(argv: list[str] | None = None) -> int:
 
         sys.stdout.write(f"vetfluid {__version__}\n")
         return 0
-    from ui.platform_check import display_problem
+    from ui.common.platform_check import display_problem
 
     problem = display_problem()
     if problem:
@@ -190,7 +190,7 @@ def main(argv: list[str] | None = None) -> int:
         return 1
     from PySide6.QtWidgets import QApplication
 
-    from ui import errors
+    from ui.common import errors
     from ui.main_window import MainWindow
 
     errors.install()

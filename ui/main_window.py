@@ -25,15 +25,15 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from ui.icons import icon
-from vetfluid.cautions import SHORT_CAUTION
-from vetfluid.errors import VetfluidError
-from vetfluid.paths import user_data_dir, write_owner_only_text
+from ui.common.icons import icon
+from vetfluid.common.cautions import SHORT_CAUTION
+from vetfluid.common.errors import VetfluidError
+from vetfluid.common.paths import user_data_dir, write_owner_only_text
 
 if TYPE_CHECKING:
     from PySide6.QtGui import QCloseEvent
 
-    from vetfluid.plan import PlanRequest
+    from vetfluid.planning.plan import PlanRequest
 
 FILE_FILTER = "vetfluid plan request (*.vfplan.json)"
 
@@ -123,13 +123,13 @@ class MainWindow(QMainWindow):
         # Qt's namespace of enums takes PySide6 30–45 ms to build: after the first paint.
         from PySide6.QtCore import Qt
 
-        from ui.findings_view import FindingsView
-        from ui.patient_view import LabsView, PatientView
-        from ui.plan_view import PlanSettings, PlanSummary
-        from ui.provenance_view import ProvenanceView
-        from ui.session import PlanSession
-        from ui.wheel_guard import guard_wheel
-        from vetfluid.demos import DEMOS
+        from ui.common.wheel_guard import guard_wheel
+        from ui.planning.findings_view import FindingsView
+        from ui.planning.patient_view import LabsView, PatientView
+        from ui.planning.plan_view import PlanSettings, PlanSummary
+        from ui.planning.provenance_view import ProvenanceView
+        from ui.planning.session import PlanSession
+        from vetfluid.planning.demos import DEMOS
 
         self.session = PlanSession(parent=self)
         # clinic overrides the core left out (file:line, what applies): under the cautions
@@ -290,7 +290,7 @@ class MainWindow(QMainWindow):
     # ---- records ----------------------------------------------------------------------------
     def _open_records(self) -> None:
         """Open the records database; if it cannot be used the planner still works."""
-        from vetfluid.records import Records, RecordsError
+        from vetfluid.records.store import Records, RecordsError
 
         self.current_patient: int | None = None
         self._saved_version: SavedVersion | None = None
@@ -365,7 +365,7 @@ class MainWindow(QMainWindow):
         reopening the saved version builds."""
         from dataclasses import replace
 
-        from vetfluid.observations import follows_saved_request
+        from vetfluid.course.observations import follows_saved_request
 
         inputs = self.session.inputs
         try:
@@ -385,7 +385,7 @@ class MainWindow(QMainWindow):
         """Whether the plan on screen is a saved version, unchanged since it was saved: the
         same inputs and reasons, its measured outputs following from the observations
         recorded on it (what reopening it would build)."""
-        from vetfluid.observations import follows_saved_request
+        from vetfluid.course.observations import follows_saved_request
 
         plan, saved = self.session.plan, self._saved_version
         return (
@@ -451,7 +451,7 @@ class MainWindow(QMainWindow):
     def _draft_is_ours(self) -> bool:
         """Whether the stored draft is this plan's; one that cannot be read is nobody's (it
         is set aside here, or when a draft is next saved, :meth:`Records.save_draft`)."""
-        from vetfluid.records import DraftSetAside, RecordsError
+        from vetfluid.records.store import DraftSetAside, RecordsError
 
         try:
             draft = self.records.draft()
@@ -470,7 +470,7 @@ class MainWindow(QMainWindow):
         unsaved work goes into the draft, with the last valid plan while the plan cannot
         be built. A draft another plan left is replaced only by unsaved work; a write
         that fails is tried again and counts as unsaved work until it succeeds."""
-        from vetfluid.records import RecordsError
+        from vetfluid.records.store import RecordsError
 
         if self.records is None:
             return
@@ -498,7 +498,7 @@ class MainWindow(QMainWindow):
         """Observations recorded on the saved version go into it. While they cannot, the
         draft keeps them and the write is tried again; raises RecordsError when neither
         the version nor the draft can be written."""
-        from vetfluid.records import RecordsError
+        from vetfluid.records.store import RecordsError
 
         try:
             written = self.records.keep_observations(
@@ -529,7 +529,7 @@ class MainWindow(QMainWindow):
     def _draft(self, request, *, closed: bool, for_version: int | None = None) -> dict:  # noqa: ANN001
         """What the draft keeps; ``for_version``: the saved version (its row) that could not
         take the observations, offered back as such."""
-        from vetfluid.serialize import request_to_dict
+        from vetfluid.records.serialize import request_to_dict
 
         return {
             "for_version": for_version,
@@ -546,7 +546,7 @@ class MainWindow(QMainWindow):
         """Offer back the plan that was being edited when vetfluid last stopped, or the
         observations a saved version could not take. A draft that cannot be restored is
         set aside in a file, never dropped."""
-        from vetfluid.records import DraftSetAside, RecordsError
+        from vetfluid.records.store import DraftSetAside, RecordsError
 
         try:
             draft = self.records.draft() if self.records is not None else None
@@ -612,7 +612,7 @@ class MainWindow(QMainWindow):
         """Write the observations a saved version could not take into it, straight away
         (whether or not it still builds), then open it; the draft stays when they cannot
         be written."""
-        from vetfluid.records import RecordsError
+        from vetfluid.records.store import RecordsError
 
         row_id, held = draft["for_version"], draft.get("version_had")
         try:
@@ -640,7 +640,7 @@ class MainWindow(QMainWindow):
     def _draft_contents(draft: dict) -> tuple[PlanRequest | None, list]:
         """The draft's request (None: observations recorded before any plan) and its
         observations; raises when they are not what a draft holds."""
-        from vetfluid.serialize import request_from_dict
+        from vetfluid.records.serialize import request_from_dict
 
         request = None if draft["request"] is None else request_from_dict(draft["request"])
         observations = draft.get("observations") or []
@@ -651,7 +651,7 @@ class MainWindow(QMainWindow):
     def _version_behind_in(self, draft: dict) -> VersionBehind | None:
         """The saved version the draft holds observations for, which it could not take,
         while that version is still in the records."""
-        from vetfluid.records import RecordsError
+        from vetfluid.records.store import RecordsError
 
         row_id, patient_id = draft.get("for_version"), draft.get("patient_id")
         if not isinstance(row_id, int) or not isinstance(patient_id, int):
@@ -671,7 +671,7 @@ class MainWindow(QMainWindow):
         )  # fmt: skip
 
     def _set_draft_aside(self, why: str) -> None:
-        from vetfluid.records import RecordsError
+        from vetfluid.records.store import RecordsError
 
         try:
             kept = self.records.set_aside_draft()
@@ -695,8 +695,8 @@ class MainWindow(QMainWindow):
     ) -> int | None:
         """Save the plan as the patient's next version (asks for the patient the first time),
         with the observations on it unless they are kept with another version already."""
-        from ui.records_view import NewPatientDialog
-        from vetfluid.records import RecordsError
+        from ui.records.records_view import NewPatientDialog
+        from vetfluid.records.store import RecordsError
 
         self.build_planner()
         plan = self.session.plan
@@ -746,7 +746,7 @@ class MainWindow(QMainWindow):
         return number
 
     def open_patient(self) -> None:
-        from ui.records_view import OpenPatientDialog
+        from ui.records.records_view import OpenPatientDialog
 
         self.build_planner()
         if self.records is None:
@@ -759,8 +759,8 @@ class MainWindow(QMainWindow):
     def load_version(self, patient_id: int, version: int) -> str | None:
         """Open a saved version with its observations; returns the note on any stored
         observation that could not be read ("" when none), None when the user stayed."""
-        from vetfluid.errors import InputError
-        from vetfluid.serialize import request_from_dict
+        from vetfluid.common.errors import InputError
+        from vetfluid.records.serialize import request_from_dict
 
         chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
         try:  # before leaving the plan on screen: a version that cannot be read changes nothing
@@ -842,14 +842,14 @@ class MainWindow(QMainWindow):
         return True
 
     def _observation_records(self) -> list[dict]:
-        from vetfluid.observations import observation_record
+        from vetfluid.course.observations import observation_record
 
         return [observation_record(o) for o in self.session.observations]
 
     def _restore_observations(self, records: list) -> str:
         """Put stored observations back on the Course tab; one that cannot be read is
         left out and counted in the returned note (the rest are kept)."""
-        from vetfluid.observations import observation_from_record
+        from vetfluid.course.observations import observation_from_record
 
         kept, unreadable = [], 0
         for record in records:
@@ -863,8 +863,8 @@ class MainWindow(QMainWindow):
     def _detail_opened(self, index: int) -> None:
         """The plots are built the first time the Timeline tab is opened (pyqtgraph is big)."""
         if self.details.widget(index) is self.timeline_holder and self.timeline_view is None:
-            from ui.shown_plan import ShownPlan
-            from ui.timeline_view import TimelineView
+            from ui.course.timeline_view import TimelineView
+            from ui.planning.shown_plan import ShownPlan
 
             self.timeline_view = TimelineView()
             self._swap(self.timeline_holder, self.timeline_view)
@@ -872,8 +872,8 @@ class MainWindow(QMainWindow):
             self._plot(self.session.plan)
 
         if self.details.widget(index) is self.course_holder and self.course_view is None:
-            from ui.course_view import CourseView
-            from ui.wheel_guard import guard_wheel
+            from ui.common.wheel_guard import guard_wheel
+            from ui.course.course_view import CourseView
 
             self.course_view = CourseView(self.session, before_replan=self._before_replan)
             guard_wheel(self.course_view)
@@ -883,8 +883,8 @@ class MainWindow(QMainWindow):
     def _page_opened(self, index: int) -> None:
         """The species table is built the first time its page is opened."""
         if self.pages.widget(index) is self.species_holder and self.species_view is None:
-            from ui.species_view import SpeciesTableView
-            from ui.wheel_guard import guard_wheel
+            from ui.common.wheel_guard import guard_wheel
+            from ui.tables.species_view import SpeciesTableView
 
             self.species_view = SpeciesTableView()
             guard_wheel(self.species_view)
@@ -919,9 +919,9 @@ class MainWindow(QMainWindow):
             self.setWindowTitle("vetfluid")
             self.statusBar().showMessage(self.session.problem or "No plan yet.")
         else:
-            from vetfluid.formatting import format_quantity
-            from vetfluid.ins_and_outs import planned_so_far
-            from vetfluid.units import weight_text
+            from vetfluid.common.formatting import format_quantity
+            from vetfluid.common.units import weight_text
+            from vetfluid.physiology.ins_and_outs import planned_so_far
 
             weight = weight_text(plan.request.weight_kg, plan.weight_unit)  # 65 g, not 0.065 kg
             self.setWindowTitle(f"vetfluid — {plan.species_name}, {weight}")
@@ -952,12 +952,12 @@ class MainWindow(QMainWindow):
         """The Course tab says how many alerts the observations raise, in words and by
         icon, whether or not it has been opened (the model takes well under a millisecond;
         with nothing observed there is nothing to work out)."""
-        from vetfluid.findings import SEVERITIES
+        from vetfluid.common.findings import SEVERITIES
 
         plan, observed = self.session.plan, self.session.observations
         found = []
         if plan is not None and observed:
-            from vetfluid.course import observed_course
+            from vetfluid.course.model import observed_course
 
             view = self.course_view
             threshold = (view.oliguria.value() or None) if view is not None else None
@@ -1001,7 +1001,7 @@ class MainWindow(QMainWindow):
         self.patient.species_box.setFocus()
 
     def open_demo(self, demo_id: str) -> None:
-        from vetfluid.demos import demo
+        from vetfluid.planning.demos import demo
 
         self.build_planner()
         chosen = demo(demo_id)
@@ -1033,7 +1033,7 @@ class MainWindow(QMainWindow):
 
     def write_request(self, path: Path) -> bool:
         """Save the inputs and acknowledgements; a failure is a message, never a crash."""
-        from vetfluid.request_file import write_request_file
+        from vetfluid.records.request_file import write_request_file
 
         plan = self.session.plan
         if plan is None:
@@ -1059,7 +1059,7 @@ class MainWindow(QMainWindow):
             self.read_request(Path(name))
 
     def read_request(self, path: Path) -> bool:
-        from vetfluid.request_file import read_request_file
+        from vetfluid.records.request_file import read_request_file
 
         self.build_planner()
         try:
@@ -1081,14 +1081,14 @@ class MainWindow(QMainWindow):
         return True
 
     def print_plan(self) -> None:
-        from ui.printing import choose_printer_and_print
+        from ui.printouts.printing import choose_printer_and_print
 
         if self._printable():
             choose_printer_and_print(self, self.print_to)
 
     def print_to(self, printer) -> None:  # noqa: ANN001 — QPrinter
-        from ui.printing import print_sheet
-        from vetfluid.sheet import BLOCKED_MARK, plan_sheet_html
+        from ui.printouts.printing import print_sheet
+        from vetfluid.printouts.sheet import BLOCKED_MARK, plan_sheet_html
 
         plan = self.session.plan
         html = plan_sheet_html(
@@ -1097,15 +1097,15 @@ class MainWindow(QMainWindow):
         print_sheet(html, printer, mark=BLOCKED_MARK if plan.has_hard_limit else "")
 
     def print_preview(self) -> None:
-        from ui.printing import show_print_preview
+        from ui.printouts.printing import show_print_preview
 
         if self._printable():
             show_print_preview(self, self.print_to)
 
     def export_csv(self, what: str, path: Path | None = None) -> bool:
         """Write the schedule or the observations as formula-safe CSV."""
-        from vetfluid.export import observations_csv, schedule_csv
-        from vetfluid.serialize import plan_dict
+        from vetfluid.printouts.export import observations_csv, schedule_csv
+        from vetfluid.records.serialize import plan_dict
 
         self.build_planner()
         if self.session.plan is None:
@@ -1132,8 +1132,8 @@ class MainWindow(QMainWindow):
         return True
 
     def show_chart(self) -> None:
-        from ui.chart_view import ChartDialog
-        from ui.wheel_guard import guard_wheel
+        from ui.common.wheel_guard import guard_wheel
+        from ui.printouts.chart_view import ChartDialog
 
         self.build_planner()
         species = self.session.inputs.get("species_id") or "dog"
@@ -1142,7 +1142,7 @@ class MainWindow(QMainWindow):
         dialog.exec()
 
     def show_help(self, *_: object) -> None:
-        from ui.help_dialog import HelpDialog
+        from ui.common.help_dialog import HelpDialog
 
         self.build_planner()
         HelpDialog(self.session.table, self).exec()

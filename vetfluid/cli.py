@@ -15,13 +15,13 @@ from collections.abc import Sequence
 from datetime import date, datetime, time
 from typing import TYPE_CHECKING, NoReturn
 
-from vetfluid.cautions import CAUTIONS, SHORT_CAUTION
-from vetfluid.errors import InputError, VetfluidError, printable
-from vetfluid.formatting import format_number, format_quantity
+from vetfluid.common.cautions import CAUTIONS, SHORT_CAUTION
+from vetfluid.common.errors import InputError, VetfluidError, printable
+from vetfluid.common.formatting import format_number, format_quantity
 
 if TYPE_CHECKING:
-    from vetfluid.plan import Plan
-    from vetfluid.schedule import Phase
+    from vetfluid.planning.plan import Plan
+    from vetfluid.planning.schedule import Phase
 
 EXIT_OK, EXIT_INPUT, EXIT_HARD_LIMIT = 0, 2, 3
 
@@ -39,8 +39,8 @@ class _Parser(argparse.ArgumentParser):
 
 def _number(text: str) -> float:
     """An option's number, read as every number the user types is
-    (:func:`vetfluid.units.read_number`: digits 0–9, decimal point or comma)."""
-    from vetfluid.units import read_number
+    (:func:`vetfluid.common.units.read_number`: digits 0–9, decimal point or comma)."""
+    from vetfluid.common.units import read_number
 
     try:
         return read_number(text, field="number")
@@ -49,8 +49,8 @@ def _number(text: str) -> float:
 
 
 def _whole(text: str) -> int:
-    """An option's whole number (:func:`vetfluid.units.read_whole_number`)."""
-    from vetfluid.units import read_whole_number
+    """An option's whole number (:func:`vetfluid.common.units.read_whole_number`)."""
+    from vetfluid.common.units import read_whole_number
 
     try:
         return read_whole_number(text, field="number")
@@ -66,7 +66,7 @@ def _start_time(text: str) -> time:
 
 
 def _volumes(text: str) -> tuple[float, ...]:
-    from vetfluid.units import read_number
+    from vetfluid.common.units import read_number
 
     try:
         return tuple(read_number(part) for part in text.split(",") if part.strip())
@@ -253,7 +253,7 @@ def _origin_words(v: dict, group_names: dict[str, str]) -> str:
 
 def _group_names() -> dict[str, str]:
     """Row id → common name of every species and taxon group in the table."""
-    from vetfluid.species import load_table
+    from vetfluid.tables.species import load_table
 
     return {sid: row.common_name for sid, row in load_table().species_by_id.items()}
 
@@ -270,8 +270,8 @@ def _value_line(name: str, v: dict, group_names: dict[str, str]) -> str:
 
 
 def cmd_species(args: argparse.Namespace) -> int:
-    from vetfluid.serialize import species_dict
-    from vetfluid.species import load_table
+    from vetfluid.records.serialize import species_dict
+    from vetfluid.tables.species import load_table
 
     table = load_table()
     data = species_dict(table)
@@ -301,8 +301,8 @@ FLUID_COLUMNS = (("Na", "na", 6, 0), ("K", "k", 7, 1), ("Cl", "cl", 6, 0), ("Ca"
 
 
 def cmd_fluids(args: argparse.Namespace) -> int:
-    from vetfluid.fluids import load_fluids
-    from vetfluid.serialize import fluid_dict
+    from vetfluid.records.serialize import fluid_dict
+    from vetfluid.tables.fluids import load_fluids
 
     data = [fluid_dict(f) for f in load_fluids().values()]
     if args.json:
@@ -328,11 +328,11 @@ def cmd_fluids(args: argparse.Namespace) -> int:
 
 
 def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, imported lazily
-    from vetfluid.plan import PlanRequest
-    from vetfluid.units import parse_weight_kg
+    from vetfluid.common.units import parse_weight_kg
+    from vetfluid.planning.plan import PlanRequest
 
     if args.demo:
-        from vetfluid.demos import demo
+        from vetfluid.planning.demos import demo
 
         return demo(args.demo).request
     for flag, value in (("--species", args.species), ("--weight", args.weight)):
@@ -382,9 +382,9 @@ def _q(value: float | None, unit: str) -> str:
 
 def _phase_line(phase: Phase) -> str:
     """One phase in the figures the schedule and the window give
-    (:func:`vetfluid.schedule.rate_or_dose_text`): a gravity drip in drops/min only when
+    (:func:`vetfluid.planning.schedule.rate_or_dose_text`): a gravity drip in drops/min only when
     they can be counted, a divided dose as drawn up (sites × the volume per site)."""
-    from vetfluid.schedule import rate_or_dose_text
+    from vetfluid.planning.schedule import rate_or_dose_text
 
     span = f"h {phase.start_h:g}–{phase.end_h:g}"
     total = f"total {_q(phase.volume_ml, 'mL')}"
@@ -393,9 +393,8 @@ def _phase_line(phase: Phase) -> str:
 
 def print_plan(plan: Plan) -> None:
     """The plan as a readable sheet for a person at a terminal."""
-    from vetfluid.electrolytes import sodium_text
-    from vetfluid.serialize import plan_dict
-    from vetfluid.sheet import (
+    from vetfluid.physiology.electrolytes import sodium_text
+    from vetfluid.printouts.sheet import (
         first_24h_text,
         ins_and_outs_rows,
         maintenance_text,
@@ -403,6 +402,7 @@ def print_plan(plan: Plan) -> None:
         potassium_text,
         route_and_device_text,
     )
+    from vetfluid.records.serialize import plan_dict
 
     data = plan_dict(plan)
     fl = data["fluid"]
@@ -454,7 +454,7 @@ def print_plan(plan: Plan) -> None:
 def _print_findings(findings: list[dict]) -> None:
     """Each finding in words, worst first: its severity, what it says and what to do. The
     code is for the JSON output and the logs, never for reading."""
-    from vetfluid.sheet import SEVERITY_WORDS
+    from vetfluid.printouts.sheet import SEVERITY_WORDS
 
     order = {"hard": 0, "soft": 1, "info": 2}
     for f in sorted(findings, key=lambda f: order.get(f["severity"], 3)):
@@ -464,8 +464,8 @@ def _print_findings(findings: list[dict]) -> None:
 
 
 def cmd_plan(args: argparse.Namespace) -> int:
-    from vetfluid.plan import build_plan
-    from vetfluid.serialize import plan_dict
+    from vetfluid.planning.plan import build_plan
+    from vetfluid.records.serialize import plan_dict
 
     plan = build_plan(_request(args))
     if args.json:
@@ -476,11 +476,11 @@ def cmd_plan(args: argparse.Namespace) -> int:
 
 
 def cmd_chart(args: argparse.Namespace) -> int:
-    from vetfluid.chart import Chart, chart
-    from vetfluid.chart_sheet import chart_note
-    from vetfluid.export import csv_text
-    from vetfluid.serialize import value_dict
-    from vetfluid.species import load_table
+    from vetfluid.common.csvcells import csv_text
+    from vetfluid.printouts.chart import Chart, chart
+    from vetfluid.printouts.chart_sheet import chart_note
+    from vetfluid.records.serialize import value_dict
+    from vetfluid.tables.species import load_table
 
     table = load_table()
     result = chart(args.species, drop_factor=args.drop_factor, bands=args.bands, table=table)
@@ -514,12 +514,13 @@ def cmd_chart(args: argparse.Namespace) -> int:
 
 
 def cmd_sodium(args: argparse.Namespace) -> int:
-    from vetfluid import electrolytes, fluid_roles, fluids
-    from vetfluid.checks import require_number
-    from vetfluid.limits import limit
-    from vetfluid.plan import MAX_NA_CHANGE_RANGE_MMOL_PER_L_H
-    from vetfluid.species import load_table
-    from vetfluid.units import parse_weight_kg
+    from vetfluid.common.checks import require_number
+    from vetfluid.common.units import parse_weight_kg
+    from vetfluid.physiology import electrolytes
+    from vetfluid.planning.plan import MAX_NA_CHANGE_RANGE_MMOL_PER_L_H
+    from vetfluid.tables import fluid_roles, fluids
+    from vetfluid.tables.limits import limit
+    from vetfluid.tables.species import load_table
 
     table = load_table()
     weight = parse_weight_kg(args.weight)
@@ -552,8 +553,10 @@ def cmd_sodium(args: argparse.Namespace) -> int:
         "delta_na_per_l": change,
         "max_change_per_h": max_change,
         "max_rate_ml_per_h": electrolytes.max_rate_for_sodium(
-            serum_na=args.serum_na, infusate_na_k=comp.na_mmol_per_l + comp.k_mmol_per_l,
-            tbw_l=tbw.number * weight, max_change_per_h=max_change,
+            serum_na=args.serum_na,
+            infusate_na_k=comp.na_mmol_per_l + comp.k_mmol_per_l,
+            tbw_l=tbw.number * weight,
+            max_change_per_h=max_change,
         ),  # fmt: skip
         "method": "Adrogué–Madias, general form: ΔNa = V·(infusate Na + K − serum Na) / "
         "(TBW + V); per litre V = 1 L; the fastest rate moves Na by the limit in one hour",
@@ -580,7 +583,7 @@ def cmd_sodium(args: argparse.Namespace) -> int:
 
 
 def _hours(text: str) -> list[float]:
-    from vetfluid.units import read_number
+    from vetfluid.common.units import read_number
 
     try:
         hours = [read_number(part, field="--at") for part in text.split(",") if part.strip()]
@@ -606,10 +609,10 @@ COURSE_MOST_DECIMALS_OTHERWISE = 2
 
 
 def _course_cell(row: dict, key: str, weight_unit: str) -> str:
-    """One figure of the course table the safe way (:mod:`vetfluid.formatting`), with its
+    """One figure of the course table the safe way (:mod:`vetfluid.common.formatting`), with its
     unit; the weight in the species' own unit (a lizard in g), as the Course tab plots it."""
-    from vetfluid.formatting import default_decimals
-    from vetfluid.units import weight_in_unit
+    from vetfluid.common.formatting import default_decimals
+    from vetfluid.common.units import weight_in_unit
 
     value = row[key]
     if value is None:
@@ -622,10 +625,10 @@ def _course_cell(row: dict, key: str, weight_unit: str) -> str:
 
 
 def cmd_course(args: argparse.Namespace) -> int:
-    from vetfluid.checks import require_number
-    from vetfluid.course import MAX_HORIZON_H, SHOWN_STEP_MINUTES, bolus_input, course
-    from vetfluid.plan import build_plan
-    from vetfluid.units import weight_text
+    from vetfluid.common.checks import require_number
+    from vetfluid.common.units import weight_text
+    from vetfluid.course.model import MAX_HORIZON_H, SHOWN_STEP_MINUTES, bolus_input, course
+    from vetfluid.planning.plan import build_plan
 
     hours = _hours(args.at)
     if args.horizon_h is not None:
@@ -716,7 +719,7 @@ def _report_ignored_overrides(command: str) -> None:
     the answer on stdout uses the shipped values instead."""
     if command == "fluids":  # the only command that reads no species value
         return
-    from vetfluid.species import load_table
+    from vetfluid.tables.species import load_table
 
     for notice in load_table().notices:
         sys.stderr.write(f"vetfluid-cli: clinic override {notice.one_line()}\n")

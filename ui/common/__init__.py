@@ -1,0 +1,2 @@
+"""Qt helpers every view uses: error handling, icons, dates, table models, wheel guard,
+platform check, help."""

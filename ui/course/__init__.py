@@ -1,0 +1,1 @@
+"""The timeline and course views with their plot items (vetfluid.course)."""

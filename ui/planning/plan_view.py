@@ -1,0 +1,490 @@
+"""The plan: its settings (phases, fluid, route, delivery, additives, start) and its results
+(totals, phases, the schedule on the clock). Every number shown comes from the core plan.
+"""
+
+from __future__ import annotations
+
+from datetime import datetime, time, timedelta
+
+from PySide6.QtCore import QDateTime, QSignalBlocker, Qt, QTimer
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QComboBox,
+    QDateTimeEdit,
+    QDoubleSpinBox,
+    QFormLayout,
+    QGridLayout,
+    QGroupBox,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QSpinBox,
+    QTableView,
+    QVBoxLayout,
+    QWidget,
+)
+
+from ui.common.qt_dates import from_qt, to_qt
+from ui.common.rows_model import Cell, RowsModel
+from ui.planning.patient_view import NumberField, buddy_label, compact
+from ui.planning.session import PlanSession
+from ui.planning.shown_plan import ShownPlan
+from vetfluid.common.formatting import format_quantity as q
+from vetfluid.physiology.delivery import STANDARD_DROP_FACTORS
+from vetfluid.physiology.electrolytes import sodium_text
+from vetfluid.physiology.ins_and_outs import maintenance_not_given, planned_so_far
+from vetfluid.planning.plan import Plan
+from vetfluid.planning.schedule import rate_or_dose_text, route_text
+from vetfluid.printouts.sheet import DEVICE_WORDS
+from vetfluid.records.serialize import fluid_dict
+from vetfluid.tables import fluid_roles, fluids
+
+ROUTE_CHOICES = (
+    (None, "Automatic (by weight)"),
+    ("iv", "IV, peripheral vein"),
+    ("cvc", "IV, central line"),
+    ("io", "IO"),
+    ("sc", "SC"),
+    ("icoel", "Intracoelomic"),
+)
+DEVICE_CHOICES = (
+    (None, "Automatic"),
+    ("pump", "Infusion pump"),
+    ("gravity", "Gravity drip"),
+    ("syringe", "Syringe pump"),
+    ("divided", "Divided boluses"),
+)
+METHOD_CHOICES = (
+    (None, "Species default"),
+    ("linear", "Linear (mL/kg/day)"),
+    ("allometric", "Allometric (a·BW^b)"),
+    ("energy", "Energy-based (K·BW^b kcal)"),
+)
+
+
+def _choice_box(choices: tuple, name: str, tooltip: str) -> QComboBox:
+    box = QComboBox()
+    for value, label in choices:
+        box.addItem(label, value)
+    box.setAccessibleName(name)
+    box.setToolTip(tooltip)
+    compact(box, 14)
+    return box
+
+
+def _select(box: QComboBox, value: object) -> None:
+    with QSignalBlocker(box):
+        box.setCurrentIndex(max(0, box.findData(value)))
+
+
+def fluid_tooltip(fluid_id: str, plan: Plan | None) -> str:
+    """Composition of a fluid and, with a plan, its tonicity against this patient's plasma."""
+    data = fluid_dict(fluids.fluid(fluid_id))
+    ions = ", ".join(
+        f"{key.capitalize()} {q(data[key], 'mmol/L')}"
+        for key in ("na", "k", "cl", "ca", "mg", "lactate", "acetate", "gluconate")
+        if data[key]
+    )
+    lines = [data["name"], ions or "no electrolytes"]
+    if data["dextrose_g_per_l"]:
+        lines.append(f"dextrose {q(data['dextrose_g_per_l'], 'g/L')}")
+    lines.append(f"calculated {q(data['osmolarity_mosm_per_l'], 'mOsm/L')}")
+    if data["basis"] == "memory":
+        lines.append("formula recalled from memory — unverified")
+    if plan is not None:
+        tone = fluids.tonicity(
+            fluids.fluid(fluid_id),
+            plasma_osmolality_mosm_per_kg=plan.tonicity.plasma_osmolality_mosm_per_kg,
+            band_fraction=plan.tonicity.band_fraction,
+        )
+        lines.append(
+            f"against this patient's plasma ({q(tone.plasma_osmolality_mosm_per_kg, 'mOsm/kg')}): "
+            f"{tone.in_vitro_class} in the bag, {tone.effective_class} in the body"
+        )
+    return "\n".join(lines)
+
+
+class PlanSettings(QGroupBox):
+    """How the plan is given: durations, fluid, route, delivery, additives, start time."""
+
+    def __init__(self, session: PlanSession, parent: QWidget | None = None):
+        super().__init__("How to give it", parent)
+        self.session = session
+        form = QFormLayout(self)
+
+        self.replace_hours = QDoubleSpinBox()
+        self.replace_hours.setRange(1, 96)
+        self.replace_hours.setDecimals(1)
+        self.replace_hours.setSuffix(" h")
+        self.replace_hours.setAccessibleName("Replace the deficit over")
+        self.replace_hours.setToolTip("Period over which the deficit is replaced (usually 12–24 h)")
+        self.replace_hours.valueChanged.connect(lambda v: session.update(replace_hours=v))
+        form.addRow("&Replace deficit over", self.replace_hours)
+
+        self.boluses = QSpinBox()
+        self.boluses.setRange(0, 10)
+        self.boluses.setAccessibleName("Resuscitation boluses")
+        self.boluses.setToolTip("Boluses to give first, each followed by reassessment")
+        self.boluses.valueChanged.connect(lambda v: session.update(resuscitation_boluses=v))
+        form.addRow("Resuscitation &boluses", self.boluses)
+
+        self.shock_fluid = QComboBox()
+        self.shock_fluid.setAccessibleName("Bolus fluid")
+        self.shock_fluid.setToolTip(
+            "The fluid of the resuscitation boluses: the plan's fluid, or a resuscitation "
+            "fluid of its own (7.2% sodium chloride is one small dose only)"
+        )
+        compact(self.shock_fluid, 18)
+        self.shock_fluid.addItem("Same as the fluid", None)
+        for fluid_id in fluid_roles.resuscitation_fluids():
+            self.shock_fluid.addItem(fluids.fluid(fluid_id).name, fluid_id)
+        self.shock_fluid.activated.connect(
+            lambda _: session.update(bolus_fluid_id=self.shock_fluid.currentData())
+        )
+        form.addRow("Bolus f&luid", self.shock_fluid)
+
+        self.method = _choice_box(
+            METHOD_CHOICES, "Maintenance method", "How maintenance is estimated"
+        )
+        self.method.activated.connect(
+            lambda _: session.update(maintenance_method=self.method.currentData())
+        )
+        form.addRow("&Maintenance method", self.method)
+
+        self.fluid = QComboBox()
+        self.fluid.setAccessibleName("Fluid")
+        compact(self.fluid, 18)
+        for fluid_id in fluid_roles.carriers():  # concentrates and hypertonic saline never
+            self.fluid.addItem(fluids.fluid(fluid_id).name, fluid_id)
+        self.fluid.activated.connect(lambda _: session.update(fluid_id=self.fluid.currentData()))
+        form.addRow("&Fluid", self.fluid)
+
+        self.route = _choice_box(ROUTE_CHOICES, "Route", "Automatic: a line above the species' "
+                                 "line weight, divided boluses below it")  # fmt: skip
+        self.route.activated.connect(lambda _: session.update(route=self.route.currentData()))
+        form.addRow("R&oute", self.route)
+
+        self.device = _choice_box(DEVICE_CHOICES, "Delivery", "How the fluid is delivered")
+        self.device.activated.connect(self._device_changed)
+        self.drop_factor = QComboBox()
+        self.drop_factor.setEditable(True)
+        self.drop_factor.addItems([str(n) for n in STANDARD_DROP_FACTORS])
+        self.drop_factor.setAccessibleName("Drop factor, drops per mL")
+        self.drop_factor.setToolTip("Drops per mL of the giving set (printed on its packet)")
+        self.drop_factor.currentTextChanged.connect(self._drop_factor_changed)
+        row = QHBoxLayout()
+        row.addWidget(self.device, 2)
+        row.addWidget(QLabel("drops/mL"))
+        row.addWidget(self.drop_factor, 1)
+        form.addRow(buddy_label("&Delivery", self.device), row)
+
+        self.kcl_mode = _choice_box(
+            ((None, "From the serum-K scale"), ("hand", "By hand")),
+            "Potassium chloride",
+            "KCl per litre from the published serum-K scale, or entered by hand",
+        )
+        self.kcl_mode.activated.connect(self._kcl_mode_changed)
+        session.planChanged.connect(self._show_scale_kcl)
+        self.kcl = NumberField(session, "kcl_mmol_per_l", "mmol/L", "KCl to add per litre, mmol/L")
+        row = QHBoxLayout()
+        row.addWidget(self.kcl_mode, 2)
+        row.addWidget(self.kcl, 1)
+        form.addRow(buddy_label("&KCl added", self.kcl_mode), row)
+        self.dextrose = NumberField(
+            session, "dextrose_percent", "0", "Dextrose to add, % w/v", empty=0.0
+        )
+        form.addRow("De&xtrose added (%)", self.dextrose)
+        self.max_na = NumberField(
+            session, "max_na_change_per_h", "0.5 (default)", "Maximum serum Na change, mmol/L/h"
+        )
+        form.addRow("Max Na change (mmol/L/h)", self.max_na)
+
+        self.start = QDateTimeEdit()
+        self.start.setDisplayFormat("yyyy-MM-dd HH:mm")
+        self.start.setCalendarPopup(True)
+        self.start.setAccessibleName("Start date and time")
+        self.start.setToolTip("Date and clock time of hour 0 of the plan")
+        self.start.dateTimeChanged.connect(self._start_changed)
+        form.addRow("&Start at", self.start)
+        self.start_note = QLabel()
+        self.start_note.setWordWrap(True)
+        self.start_note.setAccessibleName("Start note")
+        self.start_note.hide()
+        form.addRow("", self.start_note)
+
+        session.inputsReplaced.connect(self.load_inputs)
+        session.planChanged.connect(self._plan_changed)
+        self.load_inputs()
+
+    def load_inputs(self, *_: object) -> None:
+        inputs = self.session.inputs
+        with QSignalBlocker(self.replace_hours):
+            self.replace_hours.setValue(inputs["replace_hours"])
+        with QSignalBlocker(self.boluses):
+            self.boluses.setValue(inputs["resuscitation_boluses"])
+        _select(self.method, inputs["maintenance_method"])
+        _select(self.fluid, inputs["fluid_id"])
+        _select(self.shock_fluid, inputs["bolus_fluid_id"])
+        _select(self.route, inputs["route"])
+        _select(self.device, inputs["device"])
+        with QSignalBlocker(self.drop_factor):
+            self.drop_factor.setCurrentText(format_drop(inputs["drop_factor"]))
+        self.drop_factor.setEnabled(inputs["device"] == "gravity")
+        by_hand = inputs["kcl_mmol_per_l"] is not None
+        _select(self.kcl_mode, "hand" if by_hand else None)
+        self.kcl.show_value(inputs["kcl_mmol_per_l"])
+        self.kcl.setEnabled(by_hand)
+        self.dextrose.show_value(inputs["dextrose_percent"] or None)
+        self.max_na.show_value(inputs["max_na_change_per_h"])
+        start, day = inputs["start_time"], inputs["start_date"]
+        # a plan opened with a clock time but no date (saved before plans had dates) is put
+        # on the last day that time came, today or yesterday (a drip started at 22:00 and
+        # opened at 00:30 began yesterday): said beside the field, not done silently
+        self.start_note.setVisible(start is not None and day is None)
+        if start is None or day is None:
+            # a plan in the window always sits on the calendar; shown, so the user sees it
+            now = datetime.now()  # noqa: DTZ005 — the ward's local time
+            start = start or time(now.hour, now.minute - now.minute % 5)
+            if day is None:
+                day = now.date() if start <= now.time() else now.date() - timedelta(days=1)
+                which = "today's" if day == now.date() else "yesterday's"
+                self.start_note.setText(
+                    f"⚠ This plan had no start date; {which} is assumed — check it."
+                )
+            self.session.update(start_time=start, start_date=day)
+        with QSignalBlocker(self.start):
+            self.start.setDateTime(to_qt(datetime.combine(day, start)))
+
+    def _device_changed(self, _: int) -> None:
+        device = self.device.currentData()
+        self.drop_factor.setEnabled(device == "gravity")
+        changes = {"device": device}
+        if device == "gravity":
+            changes["drop_factor"] = float(self.drop_factor.currentText() or 20)
+        self.session.update(**changes)
+
+    def _drop_factor_changed(self, text: str) -> None:
+        try:
+            value = float(text)
+        except ValueError:
+            self.session.set_field_error("drop_factor", f"Drop factor {text!r} is not a number")
+            return
+        self.session.update(drop_factor=value)
+
+    def _show_scale_kcl(self, plan: Plan | None) -> None:
+        """With KCl from the scale the box is disabled: its grey text says what was chosen."""
+        potassium = plan.potassium if plan is not None else None
+        text = (
+            f"{q(potassium.kcl_mmol_per_l, 'mmol/L')} from the scale"
+            if potassium is not None and plan.request.kcl_mmol_per_l is None
+            else "mmol/L"
+        )
+        if self.kcl.placeholderText() != text:
+            self.kcl.setPlaceholderText(text)
+
+    def _kcl_mode_changed(self, _: int) -> None:
+        by_hand = self.kcl_mode.currentData() == "hand"
+        self.kcl.setEnabled(by_hand)
+        if by_hand:
+            self.kcl.setFocus()
+            self.kcl.commit()
+        else:
+            self.kcl.show_value(None)
+            self.session.update(kcl_mmol_per_l=None)
+
+    def _start_changed(self, value: QDateTime) -> None:
+        self.start_note.hide()  # the user has set it
+        moment = from_qt(value)
+        self.session.update(start_time=moment.time(), start_date=moment.date())
+
+    def _plan_changed(self, plan: Plan | None) -> None:
+        # the tooltips depend only on the patient's plasma and the chosen fluid; touching
+        # the combo's items on every edit would relay out the window
+        key = (
+            plan.tonicity.plasma_osmolality_mosm_per_kg if plan else None,
+            self.fluid.currentData(),
+        )
+        if key == getattr(self, "_tooltip_key", None):
+            return
+        self._tooltip_key = key
+        for i in range(self.fluid.count()):
+            self.fluid.setItemData(
+                i, fluid_tooltip(self.fluid.itemData(i), plan), Qt.ItemDataRole.ToolTipRole
+            )
+        self.fluid.setToolTip(fluid_tooltip(self.fluid.currentData(), plan))
+
+
+def format_drop(value: float | None) -> str:
+    return "20" if value is None else f"{value:g}"
+
+
+class PlanSummary(QWidget):
+    """Totals, phases and the schedule of the current plan."""
+
+    def __init__(self, session: PlanSession, parent: QWidget | None = None):
+        super().__init__(parent)
+        self.session = session
+        layout = QVBoxLayout(self)
+        self.problem = QLabel()
+        self.problem.setObjectName("problem")
+        self.problem.setWordWrap(True)
+        self.problem.setAccessibleName("Input problem")
+        layout.addWidget(self.problem)
+        # A plan with a hard limit still shows its numbers (to see what to change), so it
+        # must not look like one to give: a banner above them says so in words.
+        self.blocked = QLabel()
+        self.blocked.setObjectName("blocked")
+        self.blocked.setWordWrap(True)
+        self.blocked.setAccessibleName("Plan blocked")
+        self.blocked.setStyleSheet(
+            "QLabel#blocked { border: 2px solid palette(text); padding: 6px; font-weight: 600; }"
+        )
+        self.blocked.hide()
+        layout.addWidget(self.blocked)
+
+        totals = QGroupBox("Totals")
+        self.grid = QGridLayout(totals)
+        self.values: dict[str, QLabel] = {}
+        for row, (key, label) in enumerate(
+            (
+                ("maintenance", "Maintenance"),
+                ("deficit", "Deficit"),
+                ("first24", "First 24 h"),
+                ("fluid", "Fluid"),
+                ("route", "Route"),
+                ("potassium", "Potassium"),
+                ("sodium", "Sodium"),
+            )
+        ):
+            name = QLabel(f"<b>{label}</b>")
+            value = QLabel("—")
+            value.setWordWrap(True)
+            value.setAccessibleName(label)
+            value.setObjectName(f"total_{key}")
+            self.grid.addWidget(name, row, 0)
+            self.grid.addWidget(value, row, 1)
+            self.values[key] = value
+        self.grid.setColumnStretch(1, 1)
+        layout.addWidget(totals)
+
+        self.phases_model = RowsModel(["Phase", "Hours", "Rate or dose", "Volume", "Route"])
+        self.phases_view = self._table(self.phases_model, "Phases")
+        layout.addWidget(QLabel("<b>Phases</b>"))
+        layout.addWidget(self.phases_view, 1)
+        self.schedule_model = RowsModel(["Clock", "Hour", "Phase", "What to do"])
+        self.schedule_view = self._table(self.schedule_model, "Schedule")
+        layout.addWidget(QLabel("<b>Schedule</b>"))
+        layout.addWidget(self.schedule_view, 2)
+
+        self.shown = ShownPlan(self, session, self.show_plan)
+        session.problemChanged.connect(self._show_problem)
+        self._show_problem(session.problem)
+
+    @staticmethod
+    def _table(model: RowsModel, name: str) -> QTableView:
+        view = QTableView()
+        view.setModel(model)
+        view.setAccessibleName(name)
+        view.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        view.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        view.setWordWrap(True)
+        view.verticalHeader().setVisible(False)
+        view.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        view.horizontalHeader().setStretchLastSection(True)
+        # rows measured before the columns had their final widths stay too tall (or cut
+        # wrapped text): measure again once the widths settle, once per turn of the loop
+        refit = QTimer(view, singleShot=True, interval=0)
+        refit.timeout.connect(view.resizeRowsToContents)
+        view.horizontalHeader().sectionResized.connect(refit.start)
+        return view
+
+    def _show_problem(self, problem: str) -> None:
+        self.problem.setText(f"⚠ {problem}" if problem else "")
+        self.problem.setVisible(bool(problem))
+
+    def _show_blocked(self, plan: Plan | None) -> None:
+        hard = [f for f in plan.findings if f.severity == "hard"] if plan else []
+        if hard:
+            more = f" (and {len(hard) - 1} more)" if len(hard) > 1 else ""
+            self.blocked.setText(
+                f"✖ Hard limit — do not give this plan as it stands: {hard[0].message}{more} "
+                "Change the inputs; the Checks tab says what to do."
+            )
+        if self.blocked.isHidden() == bool(hard):
+            self.blocked.setVisible(bool(hard))
+
+    def show_plan(self, plan: Plan | None) -> None:
+        self._show_blocked(plan)
+        if plan is None:
+            for label in self.values.values():
+                label.setText("—")
+            self.phases_model.set_rows([])
+            self.schedule_model.set_rows([])
+            return
+        m = plan.maintenance
+        maintenance = (
+            f"{q(m.ml_per_day, 'mL/day')} ({q(m.ml_per_h, 'mL/h')}) — {m.method}: {m.formula}"
+        )
+        period = plan.request.ins_and_outs_period_h
+        if period is not None:
+            maintenance += f"; {maintenance_not_given(period)} — Course tab"
+        self.values["maintenance"].setText(maintenance)
+        deficit = f"{plan.dehydration_percent:g} % → {q(plan.deficit_ml, 'mL')}"
+        if plan.request.dehydration_percent is None and plan.dehydration_estimate is not None:
+            deficit += " (estimated from findings, not confirmed)"
+        if plan.free_water_deficit_ml is not None:
+            deficit += f"; free-water deficit {q(plan.free_water_deficit_ml, 'mL')}"
+        self.values["deficit"].setText(deficit)
+        first24 = q(plan.total_ml_first_24h, "mL")
+        covers = planned_so_far(plan.end_h, period)
+        if covers:
+            first24 += f" ({covers})"
+        self.values["first24"].setText(first24)
+        self.values["fluid"].setText(
+            f"{plan.fluid_name} — Na {q(plan.fluid_na_mmol_per_l, 'mmol/L')}, "
+            f"K {q(plan.fluid_k_mmol_per_l, 'mmol/L')}; {plan.tonicity.effective_class} in the body"
+        )
+        self.values["route"].setText(f"{route_text(plan.route)}, {DEVICE_WORDS[plan.device]}")
+        k = plan.potassium
+        self.values["potassium"].setText(
+            f"{q(k.kcl_mmol_per_l, 'mmol/L')} KCl added ({k.added_by}); "
+            f"{q(k.peak_mmol_per_kg_per_h, 'mmol/kg/h')} at the fastest rate "
+            f"(ceiling {q(k.ceiling_mmol_per_kg_per_h, 'mmol/kg/h')})"
+            if k
+            else "no serum K entered, no KCl added"
+        )
+        na = plan.sodium
+        self.values["sodium"].setText(sodium_text(na) if na else "no serum Na entered")
+        boluses = 0
+        rows = []
+        for phase in plan.phases:
+            boluses += phase.kind == "resuscitation"
+            # a bolus after the first is given only if the patient still needs it
+            rows.append(
+                _phase_row(phase, conditional=phase.kind == "resuscitation" and boluses > 1)
+            )
+        self.phases_model.set_rows(rows)
+        self.phases_view.resizeRowsToContents()  # a few rows: cheap
+        self.schedule_model.set_rows(
+            [
+                [Cell(e.clock or "—"), Cell(f"{e.hour:g}"), Cell(e.phase), Cell(e.action)]
+                for e in plan.schedule
+            ]
+        )
+        if self.isVisible():  # measuring wrapped rows is costly: only when on screen
+            self.schedule_view.resizeRowsToContents()
+
+    def showEvent(self, event) -> None:  # noqa: N802,ANN001 (Qt override)
+        self.schedule_view.resizeRowsToContents()
+        super().showEvent(event)
+
+
+def _phase_row(p, *, conditional: bool = False) -> list[Cell]:  # noqa: ANN001 — Phase
+    kind = f"{p.kind} (only if still poorly perfused)" if conditional else p.kind
+    return [
+        Cell(kind, p.note),
+        Cell(f"{p.start_h:g}–{p.end_h:g}"),
+        Cell(rate_or_dose_text(p)),
+        Cell(q(p.volume_ml, "mL")),
+        Cell(route_text(p.route)),
+    ]

@@ -1,0 +1,1 @@
+"""Printing and the weight-band chart dialog (vetfluid.printouts)."""

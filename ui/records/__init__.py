@@ -1,0 +1,1 @@
+"""Patient records dialogs (vetfluid.records)."""

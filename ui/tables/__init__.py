@@ -1,0 +1,1 @@
+"""The species table view (vetfluid.tables)."""

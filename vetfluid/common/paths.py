@@ -1,0 +1,87 @@
+"""Where things are: shipped resources and the user's data folder.
+
+Resources (``species_data/``, ``icons/``) are found the same way from a checkout,
+an editable install and a built wheel (hatchling's ``force-include`` maps the
+folders to ``vetfluid/_resources/`` inside the wheel).
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from vetfluid.common.errors import InputError
+
+HOME_VARIABLE = "VETFLUID_HOME"
+RESOURCE_FOLDERS = ("species_data", "icons")
+
+_PACKAGE_DIR = Path(__file__).resolve().parents[1]  # vetfluid/, above common/
+
+
+def resource_dir(name: str) -> Path:
+    """The folder of a shipped resource kind (``species_data`` or ``icons``)."""
+    if name not in RESOURCE_FOLDERS:
+        raise InputError(
+            f"unknown resource folder {name!r}",
+            field="resource",
+            value=name,
+            fix=f"use one of: {', '.join(RESOURCE_FOLDERS)}",
+        )
+    for candidate in (_PACKAGE_DIR / "_resources" / name, _PACKAGE_DIR.parent / name):
+        if candidate.is_dir():
+            return candidate
+    raise FileNotFoundError(f"vetfluid's {name}/ folder is missing from this installation")
+
+
+def resource_file(folder: str, filename: str) -> Path:
+    """A shipped file; an unknown name raises an error listing the known ones."""
+    directory = resource_dir(folder)
+    path = directory / filename
+    if not path.is_file():
+        known = sorted(p.name for p in directory.iterdir() if p.is_file())
+        raise InputError(
+            f"no file {filename!r} in {folder}/",
+            field="resource",
+            value=filename,
+            fix=f"known files: {', '.join(known)}",
+        )
+    return path
+
+
+def user_data_dir() -> Path:
+    """The folder for everything vetfluid writes (overrides, records, settings).
+
+    ``VETFLUID_HOME`` replaces it when set (tests always set it to a temporary
+    folder); otherwise the platform's user data folder from platformdirs. It holds
+    patient records, so it is created readable by its owner only (0700; the folders
+    above it, if missing, as the system makes any folder). A folder that already exists
+    is left as its owner set it.
+    """
+    override = os.environ.get(HOME_VARIABLE)
+    if override:
+        path = Path(override).expanduser()
+    else:
+        from platformdirs import user_data_path
+
+        path = user_data_path("vetfluid", appauthor=False)
+    path.mkdir(mode=0o700, parents=True, exist_ok=True)
+    return path
+
+
+def owner_only_file(path: Path) -> Path:
+    """Make ``path`` exist as a file only its owner can read and write (0600), before any
+    patient data goes in: a new file is created so, an existing one narrowed. Whatever then
+    writes into it (Python, or Qt's PDF writer, which keeps an existing file's mode) keeps
+    patient data private from the first byte (issue 17: 0600 files, 0700 folders)."""
+    descriptor = os.open(path, os.O_WRONLY | os.O_CREAT, 0o600)
+    os.close(descriptor)
+    if os.name == "posix":
+        os.chmod(path, 0o600)
+    return path
+
+
+def write_owner_only_text(path: Path, text: str) -> None:
+    """Write text into ``path`` as an owner-only file (see :func:`owner_only_file`)."""
+    owner_only_file(path)
+    with open(path, "w", encoding="utf-8") as handle:
+        handle.write(text)

@@ -1,0 +1,226 @@
+"""Hydration: dehydration estimate from findings, deficit, free-water deficit.
+
+* Findings table: DiBartola SP (ed.), Fluid, Electrolyte, and Acid-Base
+  Disorders in Small Animal Practice, 4th ed., 2012, Table 14-4 (p. 335, after Muir &
+  DiBartola 1983), shipped as ``species_data/dehydration_findings.csv``. It is a
+  display aid: the clinician confirms the percentage. The table has eyes *possibly*
+  sunken and membranes *possibly* dry at 6–8 %, sunken eyes and dry membranes at
+  10–12 %; the findings are split the same way.
+* Deficit: body weight (kg) × fraction dehydrated = litres (1 kg lost ≈ 1 L);
+  Davis H et al., 2013 AAHA/AAFP Fluid Therapy Guidelines; DiBartola 2012.
+* Free-water deficit: TBW × (Na_patient / Na_normal − 1), TBW = fraction × BW
+  (0.6 in adult dogs and cats); the standard formula as in veterinary case
+  commentaries, with the species' own body-water fraction and normal Na.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cache
+from pathlib import Path
+
+from vetfluid.common.checks import require_number
+from vetfluid.common.csvfiles import parse_number, read_rows
+from vetfluid.common.errors import InputError, SpeciesDataError
+from vetfluid.common.paths import resource_dir
+from vetfluid.tables.species import SpeciesTable, SpeciesValue
+
+# The findings table comes from a text on dogs and cats (DiBartola 2012); vetfluid ships
+# no bands for other species.
+FINDINGS_WRITTEN_FOR = ("dog", "cat")
+
+# Findings of earlier versions that covered two rows of Table 14-4 (banded 6–8 % whether
+# the sign was doubtful or plain). Which row a patient showed only the examiner knows, so
+# a request naming one is refused with both choices, never mapped by guess:
+# old id → (what it read, the ids it became).
+RETIRED_FINDINGS: dict[str, tuple[str, tuple[str, ...]]] = {
+    "eyes_sunken": ("Eyes sunken in orbits", ("eyes_possibly_sunken", "eyes_clearly_sunken")),
+    "membranes_dry": ("Dry mucous membranes", ("membranes_possibly_dry", "membranes_clearly_dry")),
+}
+
+
+def findings_caveat(species_id: str, common_name: str) -> str:
+    """What an estimate from the findings rests on, for a species the table was not written
+    for; empty for dogs and cats."""
+    if species_id in FINDINGS_WRITTEN_FOR:
+        return ""
+    return (
+        "These bands were written for dogs and cats (DiBartola 2012); vetfluid has none for "
+        f"this species ({common_name}), so take the estimate as a rough guide."
+    )
+
+
+@dataclass(frozen=True, kw_only=True)
+class ClinicalFinding:
+    finding_id: str
+    label: str
+    percent_low: float
+    percent_high: float
+    source_id: str
+    basis: str
+
+
+@dataclass(frozen=True, kw_only=True)
+class DehydrationEstimate:
+    """The band the entered findings point to; the clinician confirms a value in it."""
+
+    percent_low: float
+    percent_high: float
+    findings: tuple[str, ...]
+    source_id: str
+
+    @property
+    def suggested_percent(self) -> float:
+        """The low end of the band: the cautious starting point, to be confirmed."""
+        return self.percent_low
+
+
+@cache
+def load_findings(data_dir: Path | None = None) -> dict[str, ClinicalFinding]:
+    """The findings table, keyed by finding id."""
+    path = (data_dir or resource_dir("species_data")) / "dehydration_findings.csv"
+    table: dict[str, ClinicalFinding] = {}
+    columns = ("finding_id", "label", "percent_low", "percent_high", "source_id", "basis")
+    for location, row in read_rows(path, columns):
+        low = parse_number(row["percent_low"], location=location, column="percent_low")
+        high = parse_number(row["percent_high"], location=location, column="percent_high")
+        if low is None or high is None or not 0 <= low <= high <= 100:
+            raise SpeciesDataError("percent_low ≤ percent_high within 0–100", location=location)
+        if row["finding_id"] in table:
+            raise SpeciesDataError(f"duplicate finding {row['finding_id']!r}", location=location)
+        table[row["finding_id"]] = ClinicalFinding(
+            finding_id=row["finding_id"],
+            label=row["label"],
+            percent_low=low,
+            percent_high=high,
+            source_id=row["source_id"],
+            basis=row["basis"],
+        )
+    return table
+
+
+def estimate_dehydration(finding_ids: tuple[str, ...] | list[str]) -> DehydrationEstimate:
+    """% dehydration band from clinical findings: the most severe finding sets the band.
+
+    Method: DiBartola 2012, Table 14-4. An empty list means nothing was
+    detectable (< 5%). A finding the table split (``RETIRED_FINDINGS``) is refused with
+    both choices named: plan files, drafts and the CLI say so rather than drop it.
+    """
+    table = load_findings()
+    retired = [f for f in finding_ids if f in RETIRED_FINDINGS and f not in table]
+    if retired:
+        raise _retired_error(retired, table)
+    unknown = [f for f in finding_ids if f not in table]
+    if unknown:
+        raise InputError(
+            f"unknown finding(s) {', '.join(unknown)}",
+            field="findings",
+            value=unknown,
+            fix=f"use: {', '.join(table)}",
+        )
+    chosen = [table[f] for f in finding_ids] or [table["none_detectable"]]
+    worst = max(chosen, key=lambda f: (f.percent_low, f.percent_high))
+    return DehydrationEstimate(
+        percent_low=worst.percent_low,
+        percent_high=worst.percent_high,
+        findings=tuple(f.finding_id for f in chosen),
+        source_id=worst.source_id,
+    )
+
+
+def _retired_error(retired: list[str], table: dict[str, ClinicalFinding]) -> InputError:
+    """The refusal of findings the table split in two, naming both choices with their bands."""
+
+    def choice(finding_id: str) -> str:
+        finding = table[finding_id]
+        band = f"{finding.percent_low:g}–{finding.percent_high:g} %"
+        return f"{finding_id} ({finding.label.lower()}, {band})"
+
+    parts = [
+        f"{old_id} ({RETIRED_FINDINGS[old_id][0].lower()}) is now two findings, as in "
+        f"DiBartola's table: {' or '.join(choice(new) for new in RETIRED_FINDINGS[old_id][1])}"
+        for old_id in retired
+    ]
+    return InputError(
+        "; ".join(parts),
+        field="findings",
+        value=retired,
+        fix="re-examine the patient and name the one that fits",
+    )
+
+
+def _check_weight(weight_kg: float) -> None:
+    require_number(weight_kg, "weight_kg", positive=True, unit="kg")
+
+
+def check_percent(percent: float) -> float:
+    """A dehydration percentage in 0–20 (above 15% death is imminent; DiBartola 2012)."""
+    return require_number(
+        percent,
+        "dehydration",
+        low=0,
+        high=20,
+        unit="%",
+        fix="enter the estimated percentage, e.g. 7",
+    )
+
+
+def deficit_ml(weight_kg: float, dehydration_percent: float) -> float:
+    """Fluid deficit in mL: BW (kg) × fraction dehydrated × 1000 (Davis 2013; DiBartola 2012)."""
+    _check_weight(weight_kg)
+    return weight_kg * check_percent(dehydration_percent) / 100.0 * 1000.0
+
+
+def free_water_deficit_ml(
+    *, weight_kg: float, serum_na: float, normal_na: float, tbw_fraction: float
+) -> float:
+    """Free-water deficit in mL: TBW × (Na / Na_normal − 1) × 1000; 0 when Na ≤ normal.
+
+    TBW (L) = ``tbw_fraction`` × BW (kg). Standard formula (0.6 × BW in adult
+    dogs and cats).
+    """
+    _check_weight(weight_kg)
+    for name, value in (("serum_na", serum_na), ("normal_na", normal_na)):
+        require_number(value, name, low=80, high=230, unit="mmol/L")
+    require_number(tbw_fraction, "tbw_fraction", low=0.01, high=0.99)
+    if serum_na <= normal_na:
+        return 0.0
+    return tbw_fraction * weight_kg * (serum_na / normal_na - 1.0) * 1000.0
+
+
+def euhydrated_weight_kg(*, weight_kg: float, deficit_ml: float) -> float:
+    """The weight once the deficit is replaced: entered weight + deficit (1 L ≈ 1 kg,
+    Davis 2013)."""
+    _check_weight(weight_kg)
+    require_number(deficit_ml, "deficit_ml", low=0)
+    return weight_kg + deficit_ml / 1000.0
+
+
+def body_water_fraction(
+    table: SpeciesTable, species_id: str, *, neonate: bool, weight_kg: float
+) -> SpeciesValue:
+    """Total body water as a fraction of body weight: the adults' value, or for a neonate
+    the neonatal value where the species or its group has one (dogs and cats: up to 0.8 of
+    body weight against 0.6 in adults, Odunayo 2018). Neonates of other taxa keep the
+    adult value; the plan says so. A "neonate" already within the adults' weight range
+    keeps the adult value too: more body water would make every sodium change look
+    smaller, and a flag left ticked must never soften a limit."""
+    adult_low = table.value(species_id, "body_weight_kg")
+    grown = weight_kg >= (adult_low.low if adult_low.low is not None else adult_low.number)
+    if neonate and not grown:
+        young = table.get(species_id, "neonate_total_body_water_fraction")
+        if young is not None:
+            return young
+    return table.value(species_id, "total_body_water_fraction")
+
+
+def overload_weight_kg(*, weight_kg: float, deficit_ml: float, gain_fraction: float) -> float:
+    """The weight that marks overhydration: the euhydrated weight plus ``gain_fraction``.
+
+    A gain of 10 % or more over baseline marks overhydration (Pardo M et al., 2024 AAHA
+    guidelines). For a dehydrated patient the baseline is taken as the euhydrated weight,
+    entered weight + deficit (1 L ≈ 1 kg, Davis 2013), so replacing the deficit itself is
+    never read as overload.
+    """
+    require_number(gain_fraction, "gain_fraction", positive=True, high=1)
+    return euhydrated_weight_kg(weight_kg=weight_kg, deficit_ml=deficit_ml) * (1.0 + gain_fraction)

@@ -1,0 +1,976 @@
+"""The plan builder: one patient request in, a checked, timed fluid plan out.
+
+Phases follow the trade's three-phase frame (Pardo M et al., 2024 AAHA Fluid
+Therapy Guidelines): resuscitation when asked for (boluses with reassessment),
+replacement of the deficit over the chosen period plus maintenance plus ongoing
+losses, then maintenance. Every species value used is carried in
+``Plan.provenance`` with its basis, and every safety check becomes a
+:class:`~vetfluid.common.findings.Finding`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from datetime import date, datetime, time, timedelta
+
+import numpy as np
+
+from vetfluid.common.checks import require_number, require_patient_weight
+from vetfluid.common.errors import InputError
+from vetfluid.common.findings import Finding, worst
+from vetfluid.common.formatting import format_quantity
+from vetfluid.common.units import preferred_weight_unit, weight_text
+from vetfluid.physiology import delivery, electrolytes, hydration, maintenance, resuscitation
+from vetfluid.physiology.ins_and_outs import InsAndOutsRow, ins_and_outs
+from vetfluid.planning import safety, schedule
+from vetfluid.planning.ledger import Ledger
+from vetfluid.planning.schedule import Phase, ScheduleEntry
+from vetfluid.tables import fluid_roles, fluids
+from vetfluid.tables.limits import limit
+from vetfluid.tables.species import SpeciesTable, SpeciesValue, load_table
+
+ROUTES = ("iv", "cvc", "io", "sc", "icoel")  # cvc: a central venous catheter
+DEVICES = ("pump", "gravity", "syringe", "divided")
+LINE_ROUTES = safety.LINE_ROUTES
+# Per-site limit parameter for each bolus route.
+SITE_LIMIT_PARAMETER = {
+    "sc": "max_site_volume_sc_ml_per_kg",
+    "icoel": "max_site_volume_icoel_ml_per_kg",
+}
+MAINTENANCE_TAIL_H = 12.0  # maintenance runs to hour 24, and at least 12 h after replacement
+DEXTROSE_CONCENTRATE_ID = "dextrose_50"
+
+
+@dataclass(frozen=True, kw_only=True)
+class PlanRequest:
+    """Everything the clinician entered. Values are validated on construction."""
+
+    species_id: str
+    weight_kg: float
+    dehydration_percent: float | None = None
+    dehydration_findings: tuple[str, ...] = ()
+    replace_hours: float = 24.0
+    losses_ml_per_day: float = 0.0
+    maintenance_method: str | None = None
+    fluid_id: str = "lactated_ringers"
+    bolus_fluid_id: str | None = None  # the resuscitation bolus fluid; None: the plan's fluid
+    route: str | None = None
+    device: str | None = None
+    drop_factor: float | None = None
+    resuscitation_boluses: int = 0
+    body_temp_c: float | None = None
+    serum_na: float | None = None
+    serum_k: float | None = None
+    usg: float | None = None
+    urine_osmolality: float | None = None
+    kcl_mmol_per_l: float | None = None
+    dextrose_percent: float = 0.0
+    start_time: time | None = None
+    start_date: date | None = None  # with start_time, puts the plan on the calendar
+    cardiac_disease: bool = False
+    renal_disease: bool = False
+    anaesthesia: bool = False
+    neonate: bool = False
+    max_na_change_per_h: float | None = None
+    syringe_size_ml: float = 60.0  # the syringe the pump takes
+    pcv_percent: float | None = None  # recorded with the plan; followed over the course
+    total_solids_g_per_dl: float | None = None
+    # Ins-and-outs mode (oliguric or anuric patients): fluid by periods of this many hours,
+    # each giving insensible loss + what was measured over the period before it.
+    ins_and_outs_period_h: float | None = None
+    measured_outputs: tuple[tuple[float, float], ...] = ()  # (urine mL, other mL) per period
+
+    def __post_init__(self) -> None:
+        require_patient_weight(self.weight_kg)
+        if self.dehydration_percent is not None:
+            hydration.check_percent(self.dehydration_percent)
+        _require(self.replace_hours, "replace_hours", 1, 96, "h")
+        _require(self.losses_ml_per_day, "losses_ml_per_day", 0, 1e6, "mL/day")
+        _require(self.dextrose_percent, "dextrose_percent", 0, 10, "%")
+        _require(self.syringe_size_ml, "syringe_size_ml", 1, 100, "mL")
+        if self.ins_and_outs_period_h is not None:
+            _require(self.ins_and_outs_period_h, "ins_and_outs_period_h", 1, 24, "h")
+        elif self.measured_outputs:
+            raise InputError(
+                "measured outputs belong to an ins-and-outs plan",
+                field="measured_outputs", fix="give the ins-and-outs period too",
+            )  # fmt: skip
+        _check_measured(self.measured_outputs)
+        _check_ins_and_outs_size(self.ins_and_outs_period_h, self.measured_outputs)
+        if self.start_date is not None and self.start_time is None:
+            raise InputError(
+                "a start date needs a start time", field="start_time", value=None,
+                fix="give the clock time of hour 0 too",
+            )  # fmt: skip
+        if self.route is not None and self.route not in ROUTES:
+            raise InputError(
+                f"unknown route {self.route!r}",
+                field="route",
+                value=self.route,
+                fix=", ".join(ROUTES),
+            )
+        if self.device is not None and self.device not in DEVICES:
+            raise InputError(
+                f"unknown delivery {self.device!r}",
+                field="device",
+                value=self.device,
+                fix=", ".join(DEVICES),
+            )
+        if self.drop_factor is not None:
+            delivery.check_drop_factor(self.drop_factor)
+        if not (
+            isinstance(self.resuscitation_boluses, int) and 0 <= self.resuscitation_boluses <= 10
+        ):
+            raise InputError(
+                "resuscitation boluses must be a whole number from 0 to 10",
+                field="resuscitation_boluses",
+                value=self.resuscitation_boluses,
+            )
+        for name, low, high, unit in (
+            ("serum_na", 80, 230, "mmol/L"),
+            ("serum_k", 0.5, 12, "mmol/L"),
+            ("urine_osmolality", 20, 12000, "mOsm/kg"),
+            ("kcl_mmol_per_l", 0, 200, "mmol/L"),
+            ("max_na_change_per_h", *MAX_NA_CHANGE_RANGE_MMOL_PER_L_H, "mmol/L/h"),
+            ("body_temp_c", -5, 50, "°C"),
+            ("pcv_percent", 3, 90, "%"),
+            ("total_solids_g_per_dl", 1, 15, "g/dL"),
+        ):
+            value = getattr(self, name)
+            if value is not None:
+                _require(value, name, low, high, unit)
+        if self.usg is not None:
+            maintenance.usg_to_osmolality(self.usg)
+        if self.dehydration_findings:
+            hydration.estimate_dehydration(self.dehydration_findings)
+        fluids.fluid(self.fluid_id)  # an unknown fluid is refused by name
+        if self.bolus_fluid_id is not None:
+            fluids.fluid(self.bolus_fluid_id)
+
+    @property
+    def resuscitation_fluid_id(self) -> str:
+        """The fluid the resuscitation boluses are given as."""
+        return self.bolus_fluid_id or self.fluid_id
+
+
+def _weight_text(weight_kg: float, ledger: Ledger) -> str:
+    """The patient's weight in the unit its species' weight is usually given in, with all
+    its figures (65 g, 117.5 g), as Plan.weight_unit chooses it."""
+    return weight_text(weight_kg, preferred_weight_unit(ledger.value("body_weight_kg").number))
+
+
+def _require(value: object, name: str, low: float, high: float, unit: str) -> None:
+    require_number(value, name, low=low, high=high, unit=unit)
+
+
+def consumed_ml(outflow: tuple[tuple[float, float], ...], end_h: float, hours):  # noqa: ANN001, ANN201
+    """Volume that has left the patient by each hour: piecewise constant rates
+    ``(from hour, mL/h)``. After the plan's last phase (``end_h``) the patient's own
+    intake is taken to match its losses, so nothing more is counted."""
+    t = np.minimum(np.asarray(hours, dtype=float), end_h)
+    starts = [start for start, _ in outflow]
+    ends = [*starts[1:], np.inf]
+    total = np.zeros_like(t)
+    for start, end, (_, rate) in zip(starts, ends, outflow, strict=True):
+        # minimum(maximum()) rather than clip: the same, without clip's per-call overhead
+        total = total + rate * np.minimum(np.maximum(t - start, 0.0), end - start)
+    return total if total.ndim else float(total)
+
+
+# Software bounds, checked before any work (issue 17: plan time grew with the periods),
+# not clinical values (common practice, no source): hourly ins-and-outs for three weeks is
+# 504 periods, and no stay measured period by period lasts 60 days without the plan being
+# started afresh.
+MAX_INS_AND_OUTS_PERIODS = 500
+# The Na correction limit a clinician may set (plan and `vetfluid-cli sodium` alike): the
+# shipped 0.5 mmol/L/h (Adrogué & Madias 2000) lies well inside; the ends are plausibility
+# bounds (common practice, no source).
+MAX_NA_CHANGE_RANGE_MMOL_PER_L_H = (0.05, 5.0)
+MAX_PLAN_HORIZON_H = 60 * 24.0
+
+
+def _check_ins_and_outs_size(
+    period_h: float | None, measured: tuple[tuple[float, float], ...]
+) -> None:
+    """Refuse more measured periods, or a longer plan, than a clinic could need."""
+    if period_h is None:
+        return
+    if len(measured) > MAX_INS_AND_OUTS_PERIODS:
+        raise InputError(
+            f"{len(measured)} measured ins-and-outs periods is more than the "
+            f"{MAX_INS_AND_OUTS_PERIODS} periods one plan holds",
+            field="measured_outputs", value=len(measured),
+            fix="start a new plan from today's weight and measurements",
+        )  # fmt: skip
+    horizon_h = (len(measured) + 1) * float(period_h)
+    if horizon_h > MAX_PLAN_HORIZON_H:
+        raise InputError(
+            f"{len(measured)} measured periods of {float(period_h):g} h run the plan to "
+            f"{horizon_h:g} hours, longer than the {MAX_PLAN_HORIZON_H:g} hours (60 days) one "
+            "plan covers",
+            field="measured_outputs", value=len(measured),
+            fix="start a new plan from today's weight and measurements",
+        )  # fmt: skip
+
+
+def _check_measured(measured: object) -> None:
+    if not isinstance(measured, tuple) or not all(
+        isinstance(m, tuple) and len(m) == 2 for m in measured
+    ):
+        raise InputError(
+            "measured outputs must be (urine mL, other losses mL) per period",
+            field="measured_outputs", value=measured,
+        )  # fmt: skip
+    for urine, other in measured:
+        require_number(urine, "measured urine", low=0, high=1e6, unit="mL")
+        require_number(other, "measured other losses", low=0, high=1e6, unit="mL")
+
+
+@dataclass(frozen=True, kw_only=True)
+class Plan:
+    """A checked, timed fluid plan; every number traceable to the request and the table."""
+
+    request: PlanRequest
+    species_name: str
+    maintenance: maintenance.Maintenance
+    dehydration_percent: float
+    dehydration_estimate: hydration.DehydrationEstimate | None
+    deficit_ml: float
+    free_water_deficit_ml: float | None
+    phases: tuple[Phase, ...]
+    schedule: tuple[ScheduleEntry, ...]
+    fluid_name: str
+    fluid_na_mmol_per_l: float
+    fluid_k_mmol_per_l: float
+    tonicity: fluids.Tonicity
+    route: str
+    device: str
+    resuscitation: resuscitation.Resuscitation | None
+    potassium: electrolytes.PotassiumSummary | None
+    sodium: electrolytes.SodiumSummary | None
+    water_budget: maintenance.WaterBudget | None
+    findings: tuple[Finding, ...]
+    provenance: tuple[SpeciesValue, ...] = field(repr=False)
+    bag: fluids.Fluid = field(repr=False)  # the fluid with its additives
+    bolus_fluid: fluids.Fluid = field(repr=False)  # the plain fluid, for boluses
+    citations: dict[str, str] = field(default_factory=dict, repr=False)  # source id → citation
+    # What leaves the patient: (from hour, mL/h), each rate until the next; maintenance and
+    # losses, or in ins-and-outs mode insensible loss + what was measured.
+    outflow: tuple[tuple[float, float], ...] = ((0.0, 0.0),)
+    ins_and_outs: tuple[InsAndOutsRow, ...] = ()  # the period table, in ins-and-outs mode
+
+    @property
+    def end_h(self) -> float:
+        return max(p.end_h for p in self.phases)
+
+    @property
+    def start_moment(self) -> datetime | None:
+        """Hour 0 on the calendar, when the plan has a start date and time."""
+        r = self.request
+        if r.start_date is None or r.start_time is None:
+            return None
+        return datetime.combine(r.start_date, r.start_time)
+
+    def moment_at(self, hour: float) -> datetime | None:
+        """The date and time of an hour of the plan, when it is on the calendar."""
+        start = self.start_moment
+        return None if start is None else start + timedelta(hours=hour)
+
+    def consumed_ml(self, hours):  # noqa: ANN001, ANN201 — float or array in, same out
+        """Volume that has left the patient by each hour, as the plan assumes it
+        (:func:`consumed_ml`)."""
+        return consumed_ml(self.outflow, self.end_h, hours)
+
+    @property
+    def total_ml_first_24h(self) -> float:
+        return sum(p.volume_between(0.0, 24.0) for p in self.phases)
+
+    @property
+    def weight_unit(self) -> str:
+        """g or kg: the unit this species' weight is usually given in (a 65 g gerbil,
+        not 0.065 kg), as the patient form chooses it (units.preferred_weight_unit)."""
+        typical = next(
+            (v.number for v in self.provenance if v.parameter == "body_weight_kg"),
+            self.request.weight_kg,
+        )
+        return preferred_weight_unit(typical)
+
+    @property
+    def has_hard_limit(self) -> bool:
+        return worst(self.findings) == "hard"
+
+    def unacknowledged(self, acknowledged: dict[str, str]) -> list[Finding]:
+        """What blocks 'ready': every hard finding, and soft ones without a written reason."""
+        return [
+            f
+            for f in self.findings
+            if f.severity == "hard"
+            or (f.severity == "soft" and not acknowledged.get(f.code, "").strip())
+        ]
+
+    @property
+    def main_phase(self) -> Phase:
+        """The first phase after resuscitation (replacement, else maintenance)."""
+        return next(p for p in self.phases if p.kind != "resuscitation")
+
+    @property
+    def unverified_values(self) -> list[SpeciesValue]:
+        return [v for v in self.provenance if v.unverified]
+
+
+# ---- building ----------------------------------------------------------------------------------
+def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
+    """A line when the patient is big enough, divided boluses otherwise."""
+    line_min = ledger.value("continuous_line_min_kg")
+    small = request.weight_kg < line_min.number
+    chelonian = ledger.species.taxon_group == "chelonian"
+    line_asked = request.device in ("pump", "gravity", "syringe")
+    if small and line_asked:
+        default_route = "io"  # a line asked for in a small patient: the marrow, not a vein
+    else:
+        default_route = "iv" if not small else ("icoel" if chelonian else "sc")
+    route = request.route or default_route
+    device = request.device or ("pump" if route in LINE_ROUTES else "divided")
+    if route not in LINE_ROUTES and device != "divided":
+        raise InputError(
+            f"{schedule.route_text(route)} fluids are given as divided boluses, not by {device}",
+            field="device",
+            value=device,
+            fix="choose divided boluses, or an IV/IO route",
+        )
+    if route in LINE_ROUTES and device == "divided":
+        raise InputError(
+            "divided boluses are planned for SC or intracoelomic routes",
+            field="device",
+            value=device,
+            fix="choose a pump, syringe pump or gravity drip for a line",
+        )
+    if device == "gravity" and request.drop_factor is None:
+        raise InputError(
+            "a gravity drip needs the giving set's drop factor",
+            field="drop_factor",
+            value=None,
+            fix="enter the drops/mL printed on the set (10, 15, 20 or 60)",
+        )
+    if small and request.route is None and line_asked:
+        ledger.add(
+            "info",
+            "LINE_ASSUMED_IO",
+            f"At {_weight_text(request.weight_kg, ledger)} a line is planned as intraosseous, "
+            "the usual line in a patient this small.",
+            "Choose IV instead if a vein is catheterised.",
+            line_min.source_id,
+        )
+    elif small and request.route is None:
+        ledger.add(
+            "info",
+            "DIVIDED_BOLUSES",
+            f"At {_weight_text(request.weight_kg, ledger)} this patient is below the "
+            f"{format_quantity(line_min.number, 'kg')} at which a continuous line is practical; "
+            "fluids are planned as divided boluses.",
+            "Choose an IV or IO route instead if a line is in place.",
+            line_min.source_id,
+        )
+    return route, device
+
+
+def _species_potassium_band(
+    ledger: Ledger, request: PlanRequest
+) -> electrolytes.SpeciesPotassiumBand | None:
+    """The serum-K scale's band for this patient, judged against its species' own
+    reference interval (:func:`electrolytes.potassium_band_for_species`)."""
+    if request.serum_k is None:
+        return None
+    normal = ledger.value("serum_k_mmol_per_l")
+    return electrolytes.potassium_band_for_species(
+        request.serum_k, species_id=request.species_id,
+        species_low=normal.low if normal.low is not None else normal.number,
+        species_high=normal.high if normal.high is not None else normal.number,
+    )  # fmt: skip
+
+
+def _potassium_to_add(
+    request: PlanRequest, band: electrolytes.SpeciesPotassiumBand | None
+) -> float:
+    """KCl (mmol) to add per litre: by hand, else from the serum-K scale, else none."""
+    if request.kcl_mmol_per_l is not None:
+        return request.kcl_mmol_per_l
+    if band is not None and band.band is not None:
+        return band.band.kcl_mmol_per_l
+    return 0.0
+
+
+def _kcl_within_route(ledger: Ledger, request: PlanRequest, *, kcl: float, route: str) -> float:
+    """The scale's KCl, lowered so the bag holds no more potassium than its route allows
+    (route_limits.csv: 35 mmol/L under the skin, DiBartola 2012), with a note saying so."""
+    limits = [r for r in fluid_roles.route_limits(route) if r.limit == "max_k_mmol_per_l"]
+    if kcl <= 0 or not limits:
+        return kcl
+    most = min(r.value for r in limits)
+    own_k = fluids.composition(fluids.fluid(request.fluid_id)).k_mmol_per_l
+    # added KCl is diluted by its own volume (2 mmol/mL): k_bag = (own·1000 + x)/(1000 + x/2)
+    room = max(0.0, (most - own_k) * 1000.0 / (1000.0 - most / 2.0))
+    if kcl <= room + 1e-9:
+        return kcl
+    ledger.add(
+        "info",
+        "KCL_HELD_TO_ROUTE",
+        f"The serum-K scale asks for {format_quantity(kcl, 'mmol/L')} KCl; "
+        f"{schedule.route_text(route)} fluid may hold at most {format_quantity(most, 'mmol/L')}"
+        f" potassium, so {format_quantity(room, 'mmol/L', decimals=1)} is added.",
+        "Recheck serum K in 4–6 h; for more potassium give it IV where the rate can be set.",
+        limits[0].source_id,
+    )
+    return room
+
+
+def _bag(request: PlanRequest, kcl_mmol_per_l: float) -> fluids.Fluid:
+    """The chosen fluid with KCl and dextrose added to each litre."""
+    bag = fluids.fluid(request.fluid_id)
+    if kcl_mmol_per_l > 0:
+        concentrate = fluids.fluid(fluids.KCL_CONCENTRATE_ID)
+        k_per_ml = fluids.composition(concentrate).k_mmol_per_l / 1000.0
+        bag = fluids.with_additive(
+            bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=kcl_mmol_per_l / k_per_ml
+        ).fluid
+    if request.dextrose_percent > 0:
+        concentrate = fluids.fluid(DEXTROSE_CONCENTRATE_ID)
+        strength = fluids.composition(concentrate).dextrose_hydrous_g_per_l / 10.0  # % w/v
+        wanted = request.dextrose_percent
+        if wanted >= strength:
+            raise InputError(
+                f"dextrose must be below the concentrate's {strength:g} %",
+                field="dextrose_percent",
+                value=wanted,
+            )
+        # x mL of concentrate in 1000 mL: strength·x / (1000 + x) = wanted
+        added_ml = 1000.0 * wanted / (strength - wanted)
+        bag = fluids.with_additive(
+            bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=added_ml
+        ).fluid
+    return bag
+
+
+def _dehydration(
+    ledger: Ledger, request: PlanRequest, *, species_name: str
+) -> tuple[float, hydration.DehydrationEstimate | None]:
+    """The % used: entered, else the low end of the findings band, else 0.
+
+    The band is an estimate the clinician confirms (DiBartola 2012 gives a band, not a
+    number): used unconfirmed, it is a soft limit, so a plan is not ready on it unless
+    someone enters the % or says why the estimate stands."""
+    estimate = (
+        hydration.estimate_dehydration(request.dehydration_findings)
+        if request.dehydration_findings
+        else None
+    )
+    if request.dehydration_percent is not None:
+        return request.dehydration_percent, estimate
+    if estimate is None:
+        return 0.0, None
+    ledger.add(
+        "soft",
+        "DEHYDRATION_FROM_FINDINGS",
+        f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % dehydration; "
+        f"the plan uses {estimate.suggested_percent:g} %, not yet confirmed. "
+        + hydration.findings_caveat(request.species_id, species_name),
+        f"Enter the dehydration % yourself to confirm it ({estimate.suggested_percent:g} % or "
+        "another), or acknowledge why the estimate stands.",
+        estimate.source_id,
+    )
+    return estimate.suggested_percent, estimate
+
+
+def _resuscitation_phases(
+    ledger: Ledger, request: PlanRequest, *, route: str, drop_factor: float | None
+) -> tuple[list[Phase], resuscitation.Resuscitation | None]:
+    """Boluses one after another, each followed by reassessment; never with KCl."""
+    if not request.resuscitation_boluses:
+        return [], None
+    if route not in LINE_ROUTES:
+        ledger.add(
+            "hard",
+            "RESUSCITATION_NEEDS_LINE",
+            f"Resuscitation boluses cannot be given {schedule.route_text(route)}.",
+            "Place an IV or IO line for shock.",
+        )
+        return [], None
+    bolus_fluid = fluids.fluid(request.resuscitation_fluid_id)
+    roles = fluid_roles.roles(bolus_fluid.fluid_id)
+    res = resuscitation.resuscitation(
+        ledger.table, request.species_id, request.weight_kg, route=route,
+        fluid_dose_ml_per_kg=roles.bolus_max_ml_per_kg if roles.resuscitation else None,
+        fluid_min_minutes=roles.bolus_min_minutes,
+    )  # fmt: skip
+    ledger.use(*res.provenance)
+    phases = []
+    hour = 0.0
+    count = request.resuscitation_boluses
+    for number in range(1, count + 1):
+        end = hour + res.minutes / 60.0
+        phases.append(
+            schedule.continuous_phase(
+                kind="resuscitation",
+                start_h=hour,
+                end_h=end,
+                rate_ml_per_h=res.rate_ml_per_h,
+                route=route,
+                drop_factor=drop_factor,
+                kcl_mmol_per_l=0.0,
+                fluid_name=f"{bolus_fluid.name} with nothing added",
+                note=f"bolus {number} of {count}; reassess before the next; no KCl or "
+                "dextrose in a resuscitation bolus",
+            )
+        )
+        hour = end
+    safety.check_bolus_fluid(ledger, bolus_fluid, roles, res, count)
+    safety.check_hypertonic_in_hypernatraemia(
+        ledger, bolus_fluid=bolus_fluid, serum_na=request.serum_na,
+        normal=ledger.value("serum_na_mmol_per_l"),
+    )  # fmt: skip
+    if roles.bolus_max_ml_per_kg is None:
+        safety.check_boluses(ledger, res, count)
+    return phases, res
+
+
+Segment = tuple[str, float, float, float]  # kind, start h, end h, mL/h
+
+
+def _standard_segments(
+    *, start_h: float, deficit_ml: float, replace_hours: float, background_ml_per_h: float
+) -> list[Segment]:
+    """Replacement (deficit + maintenance + losses), then maintenance to hour 24 or later."""
+    segments = []
+    hour = start_h
+    if deficit_ml > 0:
+        end = hour + replace_hours
+        segments.append(
+            ("replacement", hour, end, deficit_ml / replace_hours + background_ml_per_h)
+        )
+        hour = end
+    segments.append(
+        ("maintenance", hour, max(24.0, hour + MAINTENANCE_TAIL_H), background_ml_per_h)
+    )
+    return segments
+
+
+def _ins_and_outs_segments(
+    ledger: Ledger, request: PlanRequest, *, start_h: float, deficit_ml: float
+) -> tuple[list[Segment], tuple[InsAndOutsRow, ...], tuple[tuple[float, float], ...]]:
+    """Ins-and-outs periods from hour 0: each gives insensible loss + the urine and other
+    losses measured over the period before it (before the first: the losses entered), plus
+    its share of the deficit over ``replace_hours``. The plan runs to the end of the
+    period after the last one measured; it is recalculated as each period is measured.
+    Returns the segments, the period table and the outflow (measured, then assumed)."""
+    period = float(request.ins_and_outs_period_h or 0.0)
+    insensible = ledger.value("insensible_loss_ml_per_kg_day")
+    per_day = insensible.number * request.weight_kg
+    rows = tuple(
+        ins_and_outs(
+            weight_kg=request.weight_kg, insensible_ml_per_kg_day=insensible.number,
+            period_h=period, measured=list(request.measured_outputs),
+        )
+    )  # fmt: skip
+    replace_end = start_h + request.replace_hours
+    # nothing measured before the first period: insensible loss + the losses entered, and no
+    # urine (the safe guess for an oliguric patient)
+    first_guess = (per_day + request.losses_ml_per_day) / 24.0
+
+    def deficit_rate(a: float, b: float) -> float:
+        overlap = max(0.0, min(b, replace_end) - max(a, start_h))
+        return deficit_ml / request.replace_hours * overlap / (b - a) if deficit_ml > 0 else 0.0
+
+    def needs(number: int) -> float:  # what the period before it measured, or the best guess
+        if number == 0 or not rows:
+            return first_guess
+        return rows[min(number, len(rows)) - 1].next_rate_ml_per_h
+
+    segments: list[Segment] = []
+    # every period measured, the next one, and at least the period after the boluses
+    # (bolus ends are sums of minutes: 6 × 20 min can come to 1.9999999999999998 h)
+    for number in range(max(len(rows) + 1, math.floor(start_h / period + 1e-9) + 1)):
+        a, b = max(number * period, start_h), (number + 1) * period
+        if b - a > 1e-6:  # periods taken up by resuscitation boluses are skipped
+            segments.append(("ins and outs", a, b, needs(number) + deficit_rate(a, b)))
+    # what leaves: the measured periods, then insensible loss + the last period measured
+    outflow = tuple((r.start_h, r.replace_ml / period) for r in rows) + (
+        (len(rows) * period, rows[-1].replace_ml / period if rows else first_guess),
+    )
+    return segments, rows, outflow
+
+
+def _fluid_phases(
+    ledger: Ledger,
+    segments: list[Segment],
+    *,
+    route: str,
+    device: str,
+    drop_factor: float | None,
+    kcl_mmol_per_l: float,
+    fluid_name: str,
+    syringe_size_ml: float,
+) -> list[Phase]:
+    """The segments as phases for the chosen delivery (continuous or divided boluses)."""
+    if device == "divided":
+        site_limit = ledger.value(SITE_LIMIT_PARAMETER[route])
+        return [
+            schedule.intermittent_phase(
+                kind=kind,
+                start_h=start,
+                end_h=end,
+                need_ml_per_h=rate,
+                route=route,
+                per_site_limit_ml=site_limit.number * ledger.weight_kg,
+                kcl_mmol_per_l=kcl_mmol_per_l,
+                fluid_name=fluid_name,
+            )
+            for kind, start, end, rate in segments
+        ]
+    return [
+        schedule.continuous_phase(
+            kind=kind,
+            start_h=start,
+            end_h=end,
+            rate_ml_per_h=rate,
+            route=route,
+            drop_factor=drop_factor,
+            kcl_mmol_per_l=kcl_mmol_per_l,
+            fluid_name=fluid_name,
+            syringe_size_ml=syringe_size_ml if device == "syringe" else None,
+        )
+        for kind, start, end, rate in segments
+    ]
+
+
+def _potassium(
+    request: PlanRequest,
+    *,
+    kcl: float,
+    bag_k: float,
+    phases: tuple[Phase, ...],
+    main: Phase,
+    k_band: electrolytes.SpeciesPotassiumBand | None,
+) -> electrolytes.PotassiumSummary | None:
+    if kcl <= 0 and request.serum_k is None:
+        return None
+    w = request.weight_kg
+    ceiling = limit("potassium_max_mmol_per_kg_h")
+    band = k_band.band if k_band is not None else None
+    peak = max(p.average_ml_per_h for p in phases if p.kind != "resuscitation")
+
+    def per_kg_h(rate: float) -> float:
+        return electrolytes.potassium_mmol_per_kg_h(
+            k_mmol_per_l=bag_k, rate_ml_per_h=rate, weight_kg=w
+        )
+
+    return electrolytes.PotassiumSummary(
+        serum_k=request.serum_k,
+        kcl_mmol_per_l=kcl,
+        added_by="entered by hand" if request.kcl_mmol_per_l is not None else "serum-K scale",
+        bag_k_mmol_per_l=bag_k,
+        mmol_per_kg_per_h=per_kg_h(main.average_ml_per_h),
+        peak_rate_ml_per_h=peak,
+        peak_mmol_per_kg_per_h=per_kg_h(peak),
+        ceiling_mmol_per_kg_per_h=ceiling.value,
+        max_rate_ml_per_h=electrolytes.max_rate_for_potassium(
+            k_mmol_per_l=bag_k, weight_kg=w, ceiling=ceiling.value
+        ),
+        band_max_rate_ml_per_kg_h=band.max_rate_ml_per_kg_h if band else None,
+        source_id=ceiling.source_id,
+    )
+
+
+def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
+    """Build the plan for a request (pure: same request and table, same plan)."""
+    table = table or load_table()
+    if table.species(request.species_id).rank != "species":
+        raise InputError(
+            f"{request.species_id!r} is a taxon group, not a species",
+            field="species",
+            value=request.species_id,
+            fix="pick a species; groups only hold shared defaults",
+        )
+    ledger = Ledger(table, request.species_id, weight_kg=request.weight_kg)
+    w = request.weight_kg
+    safety.check_weight(ledger, w, neonate=request.neonate)
+
+    maint = maintenance.maintenance(
+        table, request.species_id, w, method=request.maintenance_method,
+        body_temp_c=request.body_temp_c,
+    )  # fmt: skip
+    ledger.use(*maint.provenance)
+    safety.check_temperature(ledger, request.body_temp_c, maint)
+    species_name = table.species(request.species_id).common_name
+    percent, estimate = _dehydration(ledger, request, species_name=species_name)
+    safety.check_dehydration_entry(ledger, percent=percent)
+    deficit = hydration.deficit_ml(w, percent)
+    background = maint.ml_per_h + request.losses_ml_per_day / 24.0
+
+    plasma = ledger.value("plasma_osmolality_mosm_per_kg")
+    route, device = _route_and_device(ledger, request)
+    k_band = _species_potassium_band(ledger, request)
+    kcl = _potassium_to_add(request, k_band)
+    safety.note_potassium_band(ledger, k_band, by_hand=request.kcl_mmol_per_l is not None)
+    if request.kcl_mmol_per_l is None:  # the scale never chooses more than the route takes
+        kcl = _kcl_within_route(ledger, request, kcl=kcl, route=route)
+    bag = _bag(request, kcl)
+    bag_comp = fluids.composition(bag)
+    base = fluids.fluid(request.fluid_id)
+    tone = fluids.tonicity(
+        base,
+        plasma_osmolality_mosm_per_kg=plasma.number,
+        band_fraction=limit("tonicity_band_fraction").value,
+    )
+    drop_factor = request.drop_factor if device == "gravity" else None
+    safety.check_carrier(ledger, base, fluid_roles.roles(base.fluid_id))
+    safety.check_fluid_for_route(
+        ledger, route=route, fluid_name=bag.name, tonicity=tone,
+        dextrose_g_per_l=bag_comp.dextrose_g_per_l, colloid=bag.colloid is not None,
+    )  # fmt: skip
+    safety.check_route_limits(
+        ledger, route=route, bag=bag, composition=bag_comp, plasma_mosm_per_kg=plasma.number
+    )
+    safety.check_reptile_dextrose(ledger, request.dextrose_percent)
+
+    bolus_phases, res = _resuscitation_phases(ledger, request, route=route, drop_factor=drop_factor)
+    start_h = bolus_phases[-1].end_h if bolus_phases else 0.0
+    period_table: tuple[InsAndOutsRow, ...] = ()
+    outflow: tuple[tuple[float, float], ...] = ((0.0, background),)
+    if request.ins_and_outs_period_h is None:
+        segments = _standard_segments(
+            start_h=start_h, deficit_ml=deficit, replace_hours=request.replace_hours,
+            background_ml_per_h=background,
+        )  # fmt: skip
+    else:
+        segments, period_table, outflow = _ins_and_outs_segments(
+            ledger, request, start_h=start_h, deficit_ml=deficit
+        )
+        safety.note_ins_and_outs(ledger, measured_periods=len(period_table))
+        safety.check_measured_urine(
+            ledger, request.measured_outputs, period_h=request.ins_and_outs_period_h,
+            weight_kg=w,
+        )  # fmt: skip
+    fluid_phases = _fluid_phases(
+        ledger, segments, route=route, device=device, drop_factor=drop_factor,
+        kcl_mmol_per_l=kcl, fluid_name=bag.name, syringe_size_ml=request.syringe_size_ml,
+    )  # fmt: skip
+    phases = (*bolus_phases, *fluid_phases)
+    main = fluid_phases[0]
+    safety.check_set_rates(ledger, [rate for *_, rate in segments], tuple(fluid_phases),
+                           device=device)  # fmt: skip
+    safety.check_rates_against_shock_dose(ledger, phases, w)
+    safety.check_volume_per_hour(ledger, phases, w)
+    safety.check_colloid(
+        ledger, bag=bag, bolus_fluid=fluids.fluid(request.resuscitation_fluid_id), phases=phases,
+        weight_kg=w,
+    )  # fmt: skip
+    safety.check_divided_sites(
+        ledger, phases,
+        site_limit_ml=(
+            ledger.value(SITE_LIMIT_PARAMETER[route]).number * w if device == "divided" else None
+        ),
+    )  # fmt: skip
+    safety.check_dose_spacing(ledger, phases)
+    end_h = max(ph.end_h for ph in phases)
+    safety.check_predicted_gain(
+        ledger, phases, consumed=lambda hour: consumed_ml(outflow, end_h, hour),
+        weight_kg=w, deficit_ml=deficit,
+    )  # fmt: skip
+
+    potassium = _potassium(
+        request, kcl=kcl, bag_k=bag_comp.k_mmol_per_l, phases=phases, main=main, k_band=k_band
+    )
+    if potassium is not None:
+        safety.check_potassium(ledger, potassium, weight_kg=w, route=route, device=device)
+    safety.check_potassium_delivery(
+        ledger, phases, weight_kg=w, bag_k=bag_comp.k_mmol_per_l,
+        bolus_k=fluids.composition(fluids.fluid(request.resuscitation_fluid_id)).k_mmol_per_l,
+    )  # fmt: skip
+
+    sodium, free_water = None, None
+    tbw = hydration.body_water_fraction(
+        table, request.species_id, neonate=request.neonate, weight_kg=w
+    )
+    max_change = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
+
+    normal = ledger.value("serum_na_mmol_per_l")
+    # no Na measured: the plan is followed from the species' normal Na
+    start_na = request.serum_na if request.serum_na is not None else normal.number
+    hours, path = _sodium_path(
+        phases, serum_na=start_na, tbw_ml=tbw.number * w * 1000.0,
+        bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
+        bolus_na_k=_na_k(fluids.fluid(request.resuscitation_fluid_id)),
+        consumed=lambda hours: consumed_ml(outflow, end_h, hours),
+    )  # fmt: skip
+    na_course = electrolytes.sodium_course(
+        hours, path, start_na=start_na, measured=request.serum_na is not None,
+        boluses_end_h=start_h,
+    )  # fmt: skip
+    fastest = electrolytes.max_rate_for_sodium(
+        serum_na=start_na, infusate_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
+        tbw_l=tbw.number * w, max_change_per_h=max_change,
+    )  # fmt: skip
+    safety.check_sodium(
+        ledger, na_course, normal=normal, max_change_per_h=max_change,
+        carrier_phase=_phase_at(phases, na_course.carrier_hour).kind,
+        fastest_carrier_ml_per_h=fastest,
+    )  # fmt: skip
+    if request.serum_na is not None:
+        ledger.use(tbw)
+        sodium = electrolytes.sodium_summary(
+            serum_na=request.serum_na, infusate_na=bag_comp.na_mmol_per_l,
+            infusate_k=bag_comp.k_mmol_per_l, tbw_l=tbw.number * w,
+            rate_ml_per_h=main.average_ml_per_h, max_change_per_h=max_change,
+            peak_change_per_h=na_course.carrier_change_per_h,
+            peak_hour=na_course.carrier_hour,
+            peak_phase=_phase_at(phases, na_course.carrier_hour).kind,
+        )  # fmt: skip
+        reference_high = normal.high if normal.high is not None else normal.number
+        if request.serum_na > reference_high:
+            free_water = hydration.free_water_deficit_ml(
+                weight_kg=w, serum_na=request.serum_na, normal_na=normal.number,
+                tbw_fraction=tbw.number,
+            )  # fmt: skip
+            safety.note_free_water(
+                ledger, serum_na=request.serum_na, reference_high=reference_high,
+                free_water_ml=free_water, max_change=max_change,
+            )  # fmt: skip
+
+    budget = _water_budget(ledger, request)
+    heart_or_kidney = request.cardiac_disease or request.renal_disease
+    safety.check_urine(ledger, usg=request.usg, budget=budget, overload_risk=heart_or_kidney)
+    safety.check_budget_against_maintenance(
+        ledger, budget=budget, maintenance_ml_per_day=maint.ml_per_day,
+        overload_risk=heart_or_kidney,
+    )  # fmt: skip
+    safety.check_maintenance_covers_insensible(
+        ledger, maintenance_ml_per_day=maint.ml_per_day, given_ml_per_day=outflow[-1][1] * 24.0
+    )
+    safety.check_replacement_speed(ledger, deficit_ml=deficit, replace_hours=request.replace_hours)
+    safety.suggest_syringe_pump(ledger, device=device, phases=tuple(fluid_phases))
+    safety.check_overload(
+        ledger, cardiac=request.cardiac_disease, renal=request.renal_disease, weight_kg=w,
+        deficit_ml=deficit, replace_hours=request.replace_hours,
+        background_ml_per_h=outflow[-1][1],  # maintenance and losses, or the measured outputs
+    )  # fmt: skip
+    if request.anaesthesia:
+        safety.check_anaesthesia(ledger, phases, w)
+    if request.neonate:
+        young = table.get(request.species_id, "neonate_total_body_water_fraction")
+        safety.note_neonate(ledger, neonatal_water=young)
+    tail = fluid_phases[-1]
+    safety.check_isotonic_maintenance(
+        ledger, fluid_name=base.name, fluid_na=bag_comp.na_mmol_per_l,
+        running_h=tail.end_h - main.start_h, maintenance_h=tail.hours,
+    )  # fmt: skip
+    if deficit > 0 and res is not None:
+        ledger.add(
+            "info",
+            "BOLUS_NOT_SUBTRACTED",
+            "Resuscitation volume is not subtracted from the deficit.",
+            "Reassess hydration after resuscitation and re-plan.",
+        )
+    safety.note_unverified(ledger)
+
+    return Plan(
+        request=request,
+        species_name=ledger.species.common_name,
+        maintenance=maint,
+        dehydration_percent=percent,
+        dehydration_estimate=estimate,
+        deficit_ml=deficit,
+        free_water_deficit_ml=free_water,
+        phases=phases,
+        schedule=schedule.schedule_entries(phases, request.start_time),
+        fluid_name=bag.name,
+        fluid_na_mmol_per_l=bag_comp.na_mmol_per_l,
+        fluid_k_mmol_per_l=bag_comp.k_mmol_per_l,
+        tonicity=tone,
+        route=route,
+        device=device,
+        resuscitation=res,
+        potassium=potassium,
+        sodium=sodium,
+        water_budget=budget,
+        findings=tuple(ledger.findings),
+        provenance=tuple(ledger.values.values()),
+        bag=bag,
+        bolus_fluid=fluids.fluid(request.resuscitation_fluid_id),
+        citations=ledger.table.citations(ledger.values.values()),
+        outflow=outflow,
+        ins_and_outs=period_table,
+    )
+
+
+def _na_k(fluid: fluids.Fluid) -> float:
+    comp = fluids.composition(fluid)
+    return comp.na_mmol_per_l + comp.k_mmol_per_l
+
+
+def _phase_at(phases: tuple[Phase, ...], hour: float) -> Phase:
+    """The phase running at an hour (the last one after the plan ends)."""
+    return next((p for p in phases if p.start_h <= hour < p.end_h), phases[-1])
+
+
+SODIUM_GRID_H = 0.25  # the Na path is followed every quarter hour, and at every turning point
+
+
+def _sodium_path(
+    phases: tuple[Phase, ...],
+    *,
+    serum_na: float,
+    tbw_ml: float,
+    bag_na_k: float,
+    bolus_na_k: float,
+    consumed,  # noqa: ANN001 — hours array in, mL array out
+) -> tuple[np.ndarray, np.ndarray]:
+    """Serum Na through the plan on a grid that holds each moment and the hour after it:
+    the exchangeable Na + K balance of every phase (boluses as their own fluid, divided
+    doses as they are absorbed) against what leaves (:func:`electrolytes.serum_na_path`,
+    the course's own balance)."""
+    end = max(p.end_h for p in phases)
+    moments = {p.start_h for p in phases} | {h for p in phases for h in p.dose_hours()}
+    # divided doses are still being absorbed for a while after the last one
+    tail = delivery.SC_ABSORPTION_H if any(p.mode == "intermittent" for p in phases) else 0.0
+    starts = np.union1d(np.arange(0.0, end + tail + 1e-9, SODIUM_GRID_H), sorted(moments))
+    hours = np.union1d(starts, starts + 1.0)
+    # what each phase has put into the plasma by each hour (Phase.absorbed_by): a line's
+    # rate from its start to its end, a divided dose evenly over the absorption time; read
+    # from running sums over those corners (n log n, never phases × hours)
+    knots, slopes, na_k_per_ml = [], [], []
+    for phase in phases:
+        per_ml = (bolus_na_k if phase.kind == "resuscitation" else bag_na_k) / 1000.0
+        if phase.mode == "continuous":
+            rate = phase.rate_ml_per_h or 0.0
+            corners = [(phase.start_h, rate), (phase.end_h, -rate)]
+        else:
+            rate = (phase.dose_ml or 0.0) / delivery.SC_ABSORPTION_H
+            corners = [(h, rate) for h in phase.dose_hours()]
+            corners += [(h + delivery.SC_ABSORPTION_H, -rate) for h in phase.dose_hours()]
+        knots += [h for h, _ in corners]
+        slopes += [w for _, w in corners]
+        na_k_per_ml += [per_ml] * len(corners)
+    knots_h, slope_ml = np.asarray(knots, dtype=float), np.asarray(slopes, dtype=float)
+    given = safety.ramps_total(knots_h, slope_ml, hours)
+    na_k = safety.ramps_total(knots_h, slope_ml * np.asarray(na_k_per_ml, dtype=float), hours)
+    path = electrolytes.serum_na_path(
+        serum_na=serum_na, tbw_ml=tbw_ml, given_ml=given, na_k_given_mmol=na_k,
+        lost_ml=consumed(hours),
+    )  # fmt: skip
+    return hours, path
+
+
+def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:
+    """The budget with the patient's own urine data where the taxon can use them."""
+    usg_ok = ledger.value("usg_interpretable")
+    try:
+        budget = maintenance.water_budget(
+            ledger.table, request.species_id, request.weight_kg, body_temp_c=request.body_temp_c,
+            usg=request.usg if usg_ok.value else None, urine_osmolality=request.urine_osmolality,
+        )  # fmt: skip
+    except InputError as exc:
+        ledger.add("info", "NO_CONCENTRATING_CEILING", exc.message, exc.fix or "")
+        return None
+    ledger.use(*budget.provenance)
+    return budget

@@ -1,0 +1,153 @@
+"""Plan-request files (``*.vfplan.json``): a patient's inputs and acknowledgements.
+
+Our own small JSON format: ``{"format": "vetfluid-plan-request", "version": 1,
+"request": {...}, "acknowledged": {code: reason}, "acknowledged_for": {code: wording}}``
+where ``acknowledged_for`` holds what each warning said when its reason was given (files
+written before it was kept have none). Writes are atomic (temporary
+file, fsync, rename), so a crash never leaves half a file, and owner-only (0600) from the
+first byte, as a patient's data is; reads check every part and say what is wrong.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import stat
+import tempfile
+from dataclasses import dataclass
+from pathlib import Path
+
+from vetfluid.common.errors import InputError
+from vetfluid.planning.plan import PlanRequest
+from vetfluid.records.serialize import (
+    REQUEST_FORMAT,
+    REQUEST_VERSION,
+    request_from_dict,
+    request_to_dict,
+)
+
+SUFFIX = ".vfplan.json"
+
+
+def with_suffix(path: Path) -> Path:
+    return path if path.name.endswith(SUFFIX) else path.with_name(path.name + SUFFIX)
+
+
+@dataclass(frozen=True, kw_only=True)
+class RequestFile:
+    """What a plan-request file holds."""
+
+    request: PlanRequest
+    acknowledged: dict[str, str]
+    acknowledged_for: dict[str, str] | None  # None: written before the wording was kept
+
+
+def write_request_file(
+    path: Path,
+    request: PlanRequest,
+    acknowledged: dict[str, str],
+    *,
+    acknowledged_for: dict[str, str] | None = None,
+) -> Path:
+    """Write the file atomically; returns the path written (the suffix added if missing)."""
+    path = with_suffix(Path(path))
+    data = {
+        "format": REQUEST_FORMAT,
+        "version": REQUEST_VERSION,
+        "request": request_to_dict(request),
+        "acknowledged": dict(acknowledged),
+    }
+    if acknowledged_for is not None:
+        data["acknowledged_for"] = dict(acknowledged_for)
+    # a new, owner-only file beside the target (a stale one a crash left is not reused)
+    descriptor, name = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    temp = Path(name)
+    try:
+        with os.fdopen(descriptor, "w", encoding="utf-8") as handle:
+            json.dump(data, handle, indent=2, ensure_ascii=False)
+            handle.flush()
+            os.fsync(handle.fileno())
+        temp.replace(path)
+    finally:
+        temp.unlink(missing_ok=True)
+    return path
+
+
+# A plan request is a few kilobytes (a long ins-and-outs course, tens); a file larger than
+# this is not one, and is not read into memory. Set by us, no clinical source.
+MAX_FILE_BYTES = 2_000_000
+
+
+def read_json_file(path: Path, *, what: str, max_bytes: int = MAX_FILE_BYTES) -> object:
+    """A JSON file's content, read with guards: a regular file of at most ``max_bytes``,
+    UTF-8, JSON (NaN and Infinity are read, for the caller's checks to refuse by key),
+    nested and with numbers no deeper or longer than Python's reader can take. Anything
+    else is an InputError saying in words what is wrong. ``what``: what the file should be
+    ("a vetfluid plan request"). A missing or unreadable file raises OSError."""
+    path = Path(path)
+    info = path.stat()
+    if not stat.S_ISREG(info.st_mode):  # a folder, or a pipe that would never end
+        raise InputError(f"{path.name} is not a file", field="file", value=None, fix=what)
+    if info.st_size > max_bytes:
+        raise InputError(
+            f"{path.name} is too large to be {what} ({info.st_size:,} bytes; at most "
+            f"{max_bytes:,})", field="file", value=None,
+        )  # fmt: skip
+    with path.open("rb") as handle:
+        raw = handle.read(max_bytes + 1)
+    if len(raw) > max_bytes:  # grew while being read
+        raise InputError(f"{path.name} is too large to be {what}", field="file", value=None)
+    try:
+        return json.loads(raw.decode("utf-8"))
+    except UnicodeDecodeError:
+        reason = "it is not UTF-8 text"
+    except RecursionError:
+        reason = "it is nested too deeply"
+    except json.JSONDecodeError as exc:
+        reason = f"{exc.msg} at line {exc.lineno}, column {exc.colno}"
+    except ValueError:  # Python's integer reader refuses a number of thousands of digits
+        reason = "it holds a number with too many digits"
+    raise InputError(f"{path.name} is not readable JSON ({reason})", field="file", value=None)
+
+
+def read_request_file(path: Path) -> RequestFile:
+    """The request and acknowledgements in a file; anything malformed is an InputError
+    naming the key (the request's keys are checked by :func:`request_from_dict`)."""
+    path = Path(path)
+    data = read_json_file(path, what="a vetfluid plan request")
+    if not isinstance(data, dict) or data.get("format") != REQUEST_FORMAT:
+        raise InputError(f"{path.name} is not a vetfluid plan request", field="file")
+    return request_file_from_data(data, name=path.name)
+
+
+def request_file_from_data(data: dict, *, name: str) -> RequestFile:
+    """A plan-request file's content (already JSON-decoded, its format checked)."""
+    version = data.get("version")
+    if isinstance(version, bool) or version != REQUEST_VERSION:  # true == 1 in Python
+        shown = repr(version) if isinstance(version, int | float | str | bool) else "not a number"
+        raise InputError(
+            f"{name} is version {shown[:40]}; this vetfluid reads version {REQUEST_VERSION}",
+            field="version",
+        )
+    if "request" not in data:
+        raise InputError(f"{name} holds no request", field="request")
+    acknowledged = data.get("acknowledged")
+    acknowledged = {} if acknowledged is None else acknowledged
+    if not _codes_to_text(acknowledged):
+        raise InputError("acknowledgements must map finding codes to reasons", field="acknowledged")
+    wording = data.get("acknowledged_for")
+    if wording is not None and not _codes_to_text(wording):
+        raise InputError(
+            "acknowledged_for must map finding codes to what each warning said",
+            field="acknowledged_for",
+        )
+    return RequestFile(
+        request=request_from_dict(data["request"]), acknowledged=acknowledged,
+        acknowledged_for=wording,
+    )  # fmt: skip
+
+
+def _codes_to_text(value: object) -> bool:
+    return isinstance(value, dict) and all(
+        isinstance(k, str) and isinstance(v, str) for k, v in value.items()
+    )
