@@ -5,9 +5,13 @@
     python3 dev.py test    # set up (first time) and run the whole test suite
     python3 dev.py cli ... # set up and run vetfluid-cli with the given arguments
     python3 dev.py bench   # set up and run the benchmarks
+    python3 dev.py lock    # refresh requirements.lock to the newest releases pyproject allows
 
-The virtual environment is rebuilt when pyproject.toml changes (a hash is kept
-in .venv/vetfluid-setup.stamp), so a fresh clone and an old checkout behave alike.
+Every install comes from requirements.lock: exact versions with their hashes, for every
+platform (made with uv's universal resolver), so a fresh machine gets exactly the versions
+the tests passed with. The virtual environment is brought up to date when pyproject.toml
+or the lock changes (a hash of both is kept in .venv/vetfluid-setup.stamp), so a fresh
+clone and an old checkout behave alike. After `lock`, run the tests before committing it.
 """
 
 from __future__ import annotations
@@ -16,22 +20,24 @@ import hashlib
 import os
 import subprocess
 import sys
+import tempfile
 import venv
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent
 VENV = ROOT / ".venv"
 STAMP = VENV / "vetfluid-setup.stamp"
+LOCK = ROOT / "requirements.lock"
 BIN = VENV / ("Scripts" if os.name == "nt" else "bin")
 PYTHON = BIN / ("python.exe" if os.name == "nt" else "python")
 
 
 def _wanted_stamp() -> str:
-    return hashlib.sha256((ROOT / "pyproject.toml").read_bytes()).hexdigest()
+    return hashlib.sha256((ROOT / "pyproject.toml").read_bytes() + LOCK.read_bytes()).hexdigest()
 
 
 def ensure_environment() -> None:
-    """Create .venv and install vetfluid (editable, with test extras) if needed."""
+    """Create .venv and install the locked dependencies, then vetfluid itself (editable)."""
     if sys.version_info < (3, 11):
         sys.exit(f"vetfluid needs Python 3.11 or newer; this is {sys.version.split()[0]}")
     wanted = _wanted_stamp()
@@ -40,18 +46,42 @@ def ensure_environment() -> None:
     if not PYTHON.exists():
         print("dev.py: creating .venv …", flush=True)
         venv.EnvBuilder(with_pip=True).create(VENV)
-    print("dev.py: installing vetfluid and its dependencies into .venv …", flush=True)
-    subprocess.run(
-        [str(PYTHON), "-m", "pip", "install", "--quiet", "-e", f"{ROOT}[test]"], check=True
-    )
+    print("dev.py: installing the locked dependencies into .venv …", flush=True)
+    pip = [str(PYTHON), "-m", "pip", "install", "--quiet"]
+    subprocess.run([*pip, "--require-hashes", "-r", str(LOCK)], check=True)
+    # the project itself, built by the locked hatchling (no download, nothing unlocked)
+    subprocess.run([*pip, "--no-deps", "--no-build-isolation", "-e", str(ROOT)], check=True)
     STAMP.write_text(wanted)
+
+
+def refresh_lock() -> int:
+    """Resolve pyproject.toml afresh (newest allowed releases) into requirements.lock, with
+    uv in a throwaway environment so .venv keeps only what the lock names."""
+    with tempfile.TemporaryDirectory(prefix="vetfluid-lock-") as folder:
+        tool = Path(folder) / "venv"
+        venv.EnvBuilder(with_pip=True).create(tool)
+        tool_bin = tool / BIN.name
+        subprocess.run(
+            [str(tool_bin / PYTHON.name), "-m", "pip", "install", "--quiet", "uv"], check=True
+        )
+        return subprocess.call(
+            [
+                str(tool_bin / ("uv.exe" if os.name == "nt" else "uv")),
+                "pip", "compile", "pyproject.toml", "--extra", "test", "--universal",
+                "--generate-hashes", "--python-version", "3.11", "--upgrade",
+                "--custom-compile-command", "python3 dev.py lock", "-o", str(LOCK),
+            ],
+            cwd=ROOT,
+        )  # fmt: skip
 
 
 def main(argv: list[str]) -> int:
     command, rest = (argv[0], argv[1:]) if argv else ("app", [])
-    if command not in {"app", "test", "cli", "bench"}:
+    if command not in {"app", "test", "cli", "bench", "lock"}:
         print(__doc__)
         return 2
+    if command == "lock":
+        return refresh_lock()
     ensure_environment()
     env = dict(os.environ)
     if command == "app":
