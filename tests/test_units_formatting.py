@@ -490,3 +490,24 @@ def test_a_weight_with_digits_other_than_0_to_9_is_refused(text):
 def test_a_number_with_digits_other_than_0_to_9_is_refused(text):
     with pytest.raises(InputError, match="0–9"):
         read_decimal(text)
+
+
+def test_distinct_sorted_matches_numpys_unique_without_importing_masked_arrays():
+    """Checked against numpy's own ``np.unique`` (the reference), in a process where the
+    helper runs first: numpy's masked arrays stay unloaded."""
+    import subprocess
+    import sys
+
+    import numpy as np
+
+    from vetfluid.common.arrays import distinct_sorted
+
+    rng = np.random.default_rng(7)
+    for values in (np.array([]), np.array([3.0, 1.0, 3.0]), rng.integers(0, 9, 50) / 4.0):
+        assert np.array_equal(distinct_sorted(values), np.unique(values))
+    probe = (
+        "import sys, numpy as np; from vetfluid.common.arrays import distinct_sorted; "
+        "distinct_sorted(np.array([2.0, 1.0, 2.0])); print('numpy.ma' in sys.modules)"
+    )
+    out = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True)
+    assert out.stdout.strip() == "False", out.stderr

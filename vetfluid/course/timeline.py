@@ -37,6 +37,7 @@ from datetime import time
 
 import numpy as np
 
+from vetfluid.common.arrays import distinct_sorted
 from vetfluid.common.checks import require_number
 from vetfluid.common.errors import InputError
 from vetfluid.common.formatting import format_quantity
@@ -129,13 +130,6 @@ def _frozen(array: np.ndarray) -> np.ndarray:
     return array
 
 
-def _distinct(values: np.ndarray) -> np.ndarray:
-    """The distinct values, sorted. Not ``np.unique``: its first call imports numpy's masked
-    arrays (≈2 MiB in the window) for what a sort does."""
-    ordered = np.sort(values)
-    return ordered[np.concatenate(([True], np.diff(ordered) != 0))] if len(ordered) else ordered
-
-
 def _grid(step_h: float, end_h: float, breaks: np.ndarray) -> np.ndarray:
     """Every ``step_h`` from 0 to ``end_h``, with the plan's own steps (``breaks``) exact."""
     count = int(np.floor(end_h / step_h + 1e-9))
@@ -172,7 +166,7 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
     dose_hours = np.array([h for p in phases for h in p.dose_hours()], dtype=float)
     dose_ml = np.array([p.dose_ml or 0.0 for p in phases for _ in p.dose_hours()], dtype=float)
     end_h = float(ends.max())
-    breaks = _distinct(np.concatenate(([0.0, end_h], starts, ends, dose_hours)))
+    breaks = distinct_sorted(np.concatenate(([0.0, end_h], starts, ends, dose_hours)))
     hours = _grid(step / 60.0, end_h, breaks)
 
     # the planned rate: the phase whose [start, end) holds each point, else 0

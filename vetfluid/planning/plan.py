@@ -16,6 +16,7 @@ from datetime import date, datetime, time, timedelta
 
 import numpy as np
 
+from vetfluid.common.arrays import distinct_sorted
 from vetfluid.common.checks import require_number, require_patient_weight
 from vetfluid.common.errors import InputError
 from vetfluid.common.findings import Finding, worst
@@ -933,8 +934,10 @@ def _sodium_path(
     moments = {p.start_h for p in phases} | {h for p in phases for h in p.dose_hours()}
     # divided doses are still being absorbed for a while after the last one
     tail = delivery.SC_ABSORPTION_H if any(p.mode == "intermittent" for p in phases) else 0.0
-    starts = np.union1d(np.arange(0.0, end + tail + 1e-9, SODIUM_GRID_H), sorted(moments))
-    hours = np.union1d(starts, starts + 1.0)
+    starts = distinct_sorted(
+        np.concatenate((np.arange(0.0, end + tail + 1e-9, SODIUM_GRID_H), sorted(moments)))
+    )
+    hours = distinct_sorted(np.concatenate((starts, starts + 1.0)))
     # what each phase has put into the plasma by each hour (Phase.absorbed_by): a line's
     # rate from its start to its end, a divided dose evenly over the absorption time; read
     # from running sums over those corners (n log n, never phases × hours)

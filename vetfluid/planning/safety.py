@@ -11,6 +11,7 @@ from collections.abc import Callable
 
 import numpy as np
 
+from vetfluid.common.arrays import distinct_sorted
 from vetfluid.common.formatting import format_quantity as q
 from vetfluid.physiology import delivery
 from vetfluid.physiology.delivery import DIVIDED_INTERVALS_H
@@ -351,7 +352,7 @@ def largest_in_window(phases: tuple[Phase, ...], window_h: float) -> tuple[float
     largest window starts or ends at a phase boundary or a dose. Read from the running
     total at every candidate start and end, so the work grows as n log n in the phases."""
     moments = np.fromiter(_turning_points(phases), dtype=float)
-    starts = np.unique(np.maximum(0.0, np.concatenate([moments, moments - window_h])))
+    starts = distinct_sorted(np.maximum(0.0, np.concatenate([moments, moments - window_h])))
     # volume in [a - 1e-9, a + window_h - 1e-9): doses at the window's end are outside it
     within = _given_before(phases, starts + window_h - 1e-9) - _given_before(phases, starts - 1e-9)
     # the largest volume, the earliest window among equals (to rounding)
