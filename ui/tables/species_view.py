@@ -6,7 +6,8 @@ parameter. Nothing here computes a clinical value: the cells show what
 :func:`vetfluid.tables.species.load_table` resolved, formatted by
 :func:`vetfluid.common.formatting.format_number`; edits go to
 :func:`vetfluid.tables.overrides.set_override` / :func:`~vetfluid.tables.overrides.remove_override`
-through a :class:`QUndoStack`, and the table is reloaded from disk afterwards.
+through a :class:`QUndoStack` (undo and redo write the row back with
+:func:`~vetfluid.tables.overrides.write_override`), and the table is reloaded from disk afterwards.
 
 Markers (text, so they survive printing, screen readers and colour blindness):
 ``*`` recalled from memory (unverified), ``∴`` derived from other values,
@@ -184,8 +185,8 @@ class OverrideCommand(QUndoCommand):
         *,
         species_id: str,
         parameter: str,
-        before: overrides.OverrideRow | None,
-        after: overrides.OverrideRow | None,
+        before: SpeciesValue | None,
+        after: SpeciesValue | None,
         text: str,
     ) -> None:
         super().__init__(text)
@@ -537,7 +538,7 @@ class SpeciesTableModel(QAbstractTableModel):
         self,
         species_id: str,
         parameter: str,
-        row: overrides.OverrideRow | None,
+        row: SpeciesValue | None,
         *,
         undoing: bool,
     ) -> None:
@@ -549,16 +550,7 @@ class SpeciesTableModel(QAbstractTableModel):
                 if overrides.get_override(species_id=species_id, parameter=parameter):
                     overrides.remove_override(species_id=species_id, parameter=parameter)
             else:
-                overrides.set_override(
-                    species_id=row.species_id,
-                    parameter=row.parameter,
-                    value=row.value,
-                    low=row.low,
-                    high=row.high,
-                    note=row.note,
-                    basis=row.basis,
-                    source_id=row.source_id,
-                )
+                overrides.write_override(row)
         except (VetfluidError, OSError) as exc:
             self.messageChanged.emit(f"⚠ {verb} failed, nothing changed: {name} · {_reason(exc)}")
             return

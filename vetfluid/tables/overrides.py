@@ -3,7 +3,9 @@
 The file is ``overrides_dir()/parameters.csv`` in the long format of
 ``species_data/parameters.csv`` (``species_id, parameter, value, low, high, unit,
 source_id, basis, note``). :func:`vetfluid.tables.species.load_table` merges it on top of
-the shipped rows and marks each such value ``origin="override"``.
+the shipped rows and marks each such value ``origin="override"``. A row read from the
+file is a :class:`~vetfluid.tables.species.SpeciesValue` like any loaded value (origin
+``override``, ``location`` its ``file:line``), and :func:`write_override` writes one back.
 
 Writing is safe by construction:
 
@@ -34,7 +36,6 @@ import math
 import os
 import shutil
 import tempfile
-from dataclasses import dataclass
 from pathlib import Path
 
 from vetfluid.common.csvcells import safe_cell
@@ -74,21 +75,6 @@ EXPORT_COLUMNS = (
 _NO_OVERRIDES = Path(__file__).resolve() / "no-overrides"
 
 
-@dataclass(frozen=True, kw_only=True)
-class OverrideRow:
-    """One clinic override as written in the file; ``value`` is typed by its definition."""
-
-    species_id: str
-    parameter: str
-    value: Value
-    low: float | None
-    high: float | None
-    unit: str
-    source_id: str | None
-    basis: str
-    note: str
-
-
 # ---- paths ------------------------------------------------------------------------
 def overrides_file() -> Path:
     """The clinic override file (it may not exist yet)."""
@@ -115,6 +101,22 @@ def stored_text(value: Value | None) -> str:
         text = repr(float(value))
         return text[:-2] if text.endswith(".0") else text
     return str(value)
+
+
+def _stored_cells(row: SpeciesValue) -> dict[str, str]:
+    """The row as ``parameters.csv`` holds it (:data:`PARAMETER_COLUMNS`), numbers in
+    their exact stored form."""
+    return {
+        "species_id": row.species_id,
+        "parameter": row.parameter,
+        "value": stored_text(row.value),
+        "low": stored_text(row.low),
+        "high": stored_text(row.high),
+        "unit": row.unit,
+        "source_id": row.source_id or "",
+        "basis": row.basis,
+        "note": row.note,
+    }
 
 
 def _number(value: object, *, field: str, what: str, unit: str, fix: str) -> float:
@@ -203,7 +205,7 @@ def _raw() -> tuple[list[str], list[dict[str, str]]]:
     return list(PARAMETER_COLUMNS) + extras, rows
 
 
-def read_overrides() -> list[OverrideRow]:
+def read_overrides() -> list[SpeciesValue]:
     """Every clinic override in file order; no file means no overrides.
 
     A row the loader would reject still reads here if its cells parse, so a
@@ -222,7 +224,7 @@ def read_overrides() -> list[OverrideRow]:
             continue
         kind = definitions[raw["parameter"]].type
         try:
-            row = OverrideRow(
+            row = SpeciesValue(
                 species_id=raw["species_id"],
                 parameter=raw["parameter"],
                 value=_typed(raw["value"], kind, location=location, column="value"),
@@ -232,6 +234,10 @@ def read_overrides() -> list[OverrideRow]:
                 source_id=raw["source_id"] or None,
                 basis=raw["basis"],
                 note=raw["note"],
+                origin="override",
+                defined_on=raw["species_id"],
+                location=location,
+                label=definitions[raw["parameter"]].label,
             )
         except SpeciesDataError:
             continue
@@ -239,7 +245,7 @@ def read_overrides() -> list[OverrideRow]:
     return rows
 
 
-def get_override(*, species_id: str, parameter: str) -> OverrideRow | None:
+def get_override(*, species_id: str, parameter: str) -> SpeciesValue | None:
     """The clinic override for one (species, parameter), or None."""
     for row in read_overrides():
         if row.species_id == species_id and row.parameter == parameter:
@@ -336,6 +342,34 @@ def set_override(
     else:
         rows.append(new)
     _commit(header, rows)
+
+
+def write_override(row: SpeciesValue) -> None:
+    """Write ``row`` as the clinic override for its (species, parameter): what
+    :func:`read_overrides` gave back (undo, redo) or any value of the table.
+
+    Only the stored columns are written; origin, holder, line and label are the loader's
+    to work out. Checked and refused like :func:`set_override`, and a row whose unit is not
+    the parameter's own is refused too (the file keeps every value in that unit).
+    """
+    definition = _definitions().get(row.parameter)
+    if definition is not None and row.unit != definition.unit:
+        raise InputError(
+            f"unit {row.unit!r} for {row.parameter} should be {definition.unit!r}",
+            field="unit",
+            value=row.unit,
+            fix=f"give the value in {definition.unit}",
+        )
+    set_override(
+        species_id=row.species_id,
+        parameter=row.parameter,
+        value=row.value,
+        low=row.low,
+        high=row.high,
+        note=row.note,
+        basis=row.basis,
+        source_id=row.source_id,
+    )
 
 
 def remove_override(*, species_id: str, parameter: str) -> None:
@@ -506,19 +540,9 @@ def export_effective_table(path: Path, *, table: SpeciesTable | None = None) -> 
     rows = [
         {
             key: safe_cell(text)  # a clinic note starting with "=" must stay text
-            for key, text in {
-                "species_id": v.species_id,
-                "parameter": v.parameter,
-                "value": stored_text(v.value),
-                "low": stored_text(v.low),
-                "high": stored_text(v.high),
-                "unit": v.unit,
-                "basis": v.basis,
-                "origin": v.origin,
-                "defined_on": v.defined_on,
-                "source_id": v.source_id or "",
-                "note": v.note,
-            }.items()
+            for key, text in (
+                _stored_cells(v) | {"origin": v.origin, "defined_on": v.defined_on}
+            ).items()
         }
         for v in table
     ]

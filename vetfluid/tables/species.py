@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import difflib
 from collections.abc import Iterable, Iterator, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import lru_cache
 from pathlib import Path
 
@@ -108,11 +108,22 @@ class Species:
 
 @dataclass(frozen=True, kw_only=True)
 class SpeciesValue:
-    """One effective value for one species, with everything needed to trust it.
+    """One value of the species table with everything needed to trust it: the one row
+    type the loader stores, the override file reads and writes, and exports show.
 
-    ``defined_on`` is the row (species or group) that holds the value; ``origin``
-    is ``shipped`` (on the species itself), ``inherited`` (from a group row) or
-    ``override`` (a clinic override). ``location`` is ``file:line``.
+    The first nine fields are the columns of ``parameters.csv`` (:data:`PARAMETER_COLUMNS`);
+    the rest say where the value comes from:
+
+    * ``origin``: ``shipped`` (a row of ``species_data/parameters.csv`` that the species
+      holds itself), ``inherited`` (a shipped row of a group the species belongs to) or
+      ``override`` (a row of the clinic's override file). A row as stored in a file is
+      ``shipped`` or ``override``; only a value resolved for a species is ``inherited``.
+    * ``defined_on``: the row (species or group) the file gives the value for; it is
+      ``species_id`` except for an inherited value, whose ``species_id`` is the species
+      asked about.
+    * ``location``: ``file:line`` of that row (``overrides/parameters.csv:3`` for a
+      clinic override).
+    * ``label``: the parameter's name people read (``parameter_definitions.csv``).
     """
 
     species_id: str
@@ -127,7 +138,7 @@ class SpeciesValue:
     origin: str
     defined_on: str
     location: str
-    label: str = ""  # from parameter_definitions.csv; the parameter id when empty
+    label: str  # from parameter_definitions.csv; the parameter id is shown when empty
 
     @property
     def unverified(self) -> bool:
@@ -215,21 +226,6 @@ RULES = (
 )  # fmt: skip
 
 
-@dataclass(frozen=True, kw_only=True)
-class _Row:
-    species_id: str
-    parameter: str
-    value: Value
-    low: float | None
-    high: float | None
-    unit: str
-    source_id: str | None
-    basis: str
-    note: str
-    location: str
-    override: bool
-
-
 @dataclass(frozen=True)
 class SpeciesTable:
     """The loaded, validated table. Build it with :func:`load_table`."""
@@ -237,7 +233,8 @@ class SpeciesTable:
     species_by_id: Mapping[str, Species]
     definitions: Mapping[str, ParameterDefinition]
     sources: Mapping[str, Source]
-    _rows: Mapping[tuple[str, str], _Row] = field(repr=False)
+    # The rows as the files give them (origin shipped or override): (holder, parameter) → row.
+    _rows: Mapping[tuple[str, str], SpeciesValue] = field(repr=False)
     #: clinic override rows (or files) left out, in file and line order
     notices: tuple[OverrideNotice, ...] = ()
     # Effective values, resolved once on load: species id → parameter → value.
@@ -307,25 +304,11 @@ class SpeciesTable:
         for depth, holder in enumerate(self.lineage(species_id)):
             row = self._rows.get((holder, parameter))
             if row is not None:
-                if row.override:
-                    origin = "override"
-                else:
-                    origin = "shipped" if depth == 0 else "inherited"
-                return SpeciesValue(
-                    species_id=species_id,
-                    parameter=parameter,
-                    value=row.value,
-                    low=row.low,
-                    high=row.high,
-                    unit=row.unit,
-                    source_id=row.source_id,
-                    basis=row.basis,
-                    note=row.note,
-                    origin=origin,
-                    defined_on=holder,
-                    location=row.location,
-                    label=self.definitions[parameter].label,
-                )
+                if depth == 0:
+                    return row
+                # a group's row seen from one of its species; a clinic's stays an override
+                origin = "override" if row.origin == "override" else "inherited"
+                return replace(row, species_id=species_id, origin=origin)
         return None
 
     def value(self, species_id: str, parameter: str) -> SpeciesValue:
@@ -546,7 +529,8 @@ def _parse_row(
     definitions: Mapping[str, ParameterDefinition],
     sources: Mapping[str, Source],
     override: bool,
-) -> _Row:
+) -> SpeciesValue:
+    """One row of a parameters file, checked; ``override`` marks the clinic's file."""
     sid, name = row["species_id"], row["parameter"]
     if sid not in species:
         close = difflib.get_close_matches(sid, list(species), n=3)
@@ -624,7 +608,7 @@ def _parse_row(
                 location=location,
                 fix=", ".join(MAINTENANCE_METHODS),
             )
-    return _Row(
+    return SpeciesValue(
         species_id=sid,
         parameter=name,
         value=value,
@@ -634,8 +618,10 @@ def _parse_row(
         source_id=source_id,
         basis=basis,
         note=row["note"],
+        origin="override" if override else "shipped",
+        defined_on=sid,
         location=location,
-        override=override,
+        label=definition.label,
     )
 
 
@@ -662,7 +648,7 @@ class _Fault:
 
     message: str
     location: str
-    rows: tuple[_Row, ...]
+    rows: tuple[SpeciesValue, ...]  # as stored (see SpeciesTable._rows)
 
 
 def _faults(table: SpeciesTable) -> list[_Fault]:
@@ -751,7 +737,7 @@ def _load_cached(directory: Path, override_dir: Path, _stamp: tuple) -> SpeciesT
     sources = _load_sources(directory / "sources.csv")
     definitions = _load_definitions(directory / "parameter_definitions.csv")
     species = _load_species(directory / "species.csv")
-    rows: dict[tuple[str, str], _Row] = {}
+    rows: dict[tuple[str, str], SpeciesValue] = {}
     for location, raw in read_rows(directory / "parameters.csv", PARAMETER_COLUMNS):
         parsed = _parse_row(
             location, raw, species=species, definitions=definitions, sources=sources, override=False
@@ -819,7 +805,7 @@ def _with_overrides(shipped: SpeciesTable, override_dir: Path) -> SpeciesTable:
             sources |= clinic_sources
         problems += _capped("sources.csv", source_problems)
     rows = dict(shipped._rows)
-    active: list[_Row] = []
+    active: list[SpeciesValue] = []
     parameter_file = override_dir / "parameters.csv"
     if _present(parameter_file):
         found = []
@@ -862,7 +848,7 @@ def _with_overrides(shipped: SpeciesTable, override_dir: Path) -> SpeciesTable:
         left_out = False
         for fault in _faults(table):
             for row in fault.rows:
-                if row.override and row in active:
+                if row.origin == "override" and row in active:
                     active.remove(row)
                     left_out = True
                     problems.append(
