@@ -18,9 +18,11 @@ from __future__ import annotations
 
 import hashlib
 import os
+import re
 import subprocess
 import sys
 import tempfile
+import tomllib
 import venv
 from pathlib import Path
 
@@ -36,6 +38,20 @@ def _wanted_stamp() -> str:
     return hashlib.sha256((ROOT / "pyproject.toml").read_bytes() + LOCK.read_bytes()).hexdigest()
 
 
+def _name(requirement: str) -> str:
+    """A requirement's project name, normalised as PyPI compares them (PEP 503)."""
+    found = re.match(r"\s*([A-Za-z0-9][A-Za-z0-9._-]*)", requirement)
+    return re.sub(r"[-_.]+", "-", found[1]).lower() if found else requirement
+
+
+def _unlocked() -> list[str]:
+    """What pyproject.toml asks for that requirements.lock does not pin."""
+    project = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))["project"]
+    wanted = [*project["dependencies"], *project["optional-dependencies"]["test"]]
+    pinned = {_name(line) for line in LOCK.read_text(encoding="utf-8").splitlines() if "==" in line}
+    return [r for r in wanted if _name(r) not in pinned]
+
+
 def ensure_environment() -> None:
     """Create .venv and install the locked dependencies, then vetfluid itself (editable)."""
     if sys.version_info < (3, 11):
@@ -43,6 +59,11 @@ def ensure_environment() -> None:
     wanted = _wanted_stamp()
     if PYTHON.exists() and STAMP.exists() and STAMP.read_text() == wanted:
         return
+    if missing := _unlocked():
+        sys.exit(
+            f"dev.py: pyproject.toml asks for {', '.join(missing)}, which requirements.lock "
+            "does not pin: run `python3 dev.py lock`, then the tests, and commit both files"
+        )
     if not PYTHON.exists():
         print("dev.py: creating .venv …", flush=True)
         venv.EnvBuilder(with_pip=True).create(VENV)

@@ -304,7 +304,7 @@ def test_dog_max_urine_osmolality_is_hardy_osborne_1979(table):
 
 
 def test_isosthenuric_dog_needs_more_water_than_at_species_maximum(table):
-    # DESIGN.md: a patient whose ceiling has fallen (USG ~1.010) needs more water for the
+    # The design brief: a patient whose ceiling has fallen (USG ~1.010) needs more water for the
     # same solute load, in the ratio of the two ceilings.
     normal = maintenance.water_budget(table, "dog", 20)
     iso = maintenance.water_budget(table, "dog", 20, usg=1.010)
@@ -350,7 +350,7 @@ def test_reptile_ceiling_equals_plasma(table):
 
 
 def test_reptile_needs_less_urine_water_per_kg_than_a_dog(table):
-    # DESIGN.md: reptiles concentrate no higher than plasma, yet need far less water
+    # The design brief: reptiles concentrate no higher than plasma, yet need far less water
     # per kg than mammals. The model must not get this backwards. Compared with a dog
     # at its species maximum (each at the table's typical weight):
     dog_kg = table.value("dog", "body_weight_kg").number
@@ -361,7 +361,7 @@ def test_reptile_needs_less_urine_water_per_kg_than_a_dog(table):
 
 def test_reptile_needs_far_less_urine_water_than_a_dog_at_the_same_ceiling(table):
     # Like for like: a dog whose ceiling has also fallen to plasma (isosthenuric) versus
-    # the bearded dragon, whose ceiling is always plasma (DESIGN.md). The reptile's low
+    # the bearded dragon, whose ceiling is always plasma (the design brief). The reptile's low
     # metabolism and urate excretion leave it far less solute to carry: under a fifth.
     dog_kg = table.value("dog", "body_weight_kg").number
     dog = maintenance.water_budget(table, "dog", dog_kg)

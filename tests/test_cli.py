@@ -412,3 +412,17 @@ def test_digits_other_than_0_to_9_are_refused_in_every_option(capsys, args):
         code = exit_.code
     out, err = capsys.readouterr()
     assert code == 2 and out == "" and "0–9" in err and err.count("\n") == 1
+
+
+@pytest.mark.parametrize(
+    ("args", "hint"),
+    [
+        ([], "see `vetfluid-cli --help`"),
+        (["plan", "--species"], "see `vetfluid-cli plan --help`"),
+    ],
+)
+def test_a_usage_error_names_the_help_to_read_once(args, hint):
+    """The hint names the program once, and the command when the error is the command's."""
+    out = subprocess.run([*CLI, *args], capture_output=True, text=True)
+    assert out.returncode == 2
+    assert out.stderr.strip().endswith(hint), out.stderr

@@ -1,4 +1,4 @@
-"""The layer rule: the core never imports Qt or the front end (DESIGN.md)."""
+"""The layer rule: the core never imports Qt or the front end (DEVELOPERS.md, "The map")."""
 
 from __future__ import annotations
 

@@ -111,17 +111,41 @@ def test_a_row_read_written_back_and_loaded_is_one_type_and_round_trips():
     assert load_table().value("cat", "body_weight_kg") == read
 
 
-def test_writing_back_a_row_in_another_unit_is_refused_and_writes_nothing():
-    """The override file keeps every value in the parameter's own unit
-    (parameter_definitions.csv: body weight in kg); a row in pounds is no typo to
-    convert silently."""
+def test_writing_back_a_row_in_another_unit_puts_it_back_as_it_was_still_ignored():
+    """Undo over a row an older file holds in another unit (minutes for bolus_minutes, whose
+    unit is min): the row goes back verbatim, the loader ignores it again and the shipped
+    value applies, as before the edit."""
+    shipped = load_table().get("dog", "bolus_minutes")
+    overrides_file().parent.mkdir(parents=True, exist_ok=True)
+    overrides_file().write_text(
+        ",".join(PARAMETER_COLUMNS) + "\ndog,bolus_minutes,20,,,minutes,,memory,old file\n",
+        encoding="utf-8",
+    )
+    [old] = read_overrides()
+    assert load_table().get("dog", "bolus_minutes").value == shipped.value  # ignored
+    set_override(species_id="dog", parameter="bolus_minutes", value=25)
+    assert load_table().get("dog", "bolus_minutes").value == 25.0
+    overrides.write_override(old)  # what undo does
+    assert read_overrides() == [old]
+    table = load_table()
+    assert table.get("dog", "bolus_minutes").value == shipped.value
+    assert [(n.species_id, n.parameter) for n in table.notices] == [("dog", "bolus_minutes")]
+
+
+def test_a_row_written_back_that_breaks_a_rule_is_kept_but_never_used():
+    """Write-back stores what undo hands it; the loader still decides what is used. Plasma
+    cannot exceed the blood volume (species.py RULES): such a row is reported and ignored,
+    and the shipped plasma fraction applies."""
     set_override(species_id="cat", parameter="body_weight_kg", value=4)
     [read] = read_overrides()
-    before = _snapshot()
-    with pytest.raises(InputError, match="unit 'lb' for body_weight_kg should be 'kg'") as info:
-        overrides.write_override(replace(read, value=9.0, unit="lb"))
-    assert info.value.field == "unit" and info.value.fix
-    assert _snapshot() == before
+    shipped = load_table().get("cat", "plasma_fraction")
+    blood = load_table().get("cat", "blood_volume_ml_per_kg").number
+    too_much = replace(read, parameter="plasma_fraction", value=blood / 1000 * 2)
+    overrides.write_override(replace(too_much, unit="fraction of BW"))
+    table = load_table()
+    assert table.get("cat", "plasma_fraction") == shipped
+    assert ("cat", "plasma_fraction") in {(n.species_id, n.parameter) for n in table.notices}
+    assert table.get("cat", "body_weight_kg").value == 4.0  # the other row untouched
 
 
 def test_the_export_writes_an_override_as_the_override_file_holds_it(tmp_path):

@@ -189,6 +189,27 @@ def test_reset_selected_removes_the_override_and_is_undoable(view, qtbot):
     assert overrides.read_overrides() == []
 
 
+def test_reset_on_a_species_cell_removes_its_groups_override_and_says_so(view, qtbot):
+    """A clinic value on the rodent group shows in the rat's cell; resetting it there
+    removes the group's row (the one that is in the file) and says the whole group is back
+    on its shipped value."""
+    overrides.set_override(species_id="group_rodent", parameter="bolus_minutes", value=20)
+    view.model.reload()
+    model = view.model
+    assert _cell(model, "rat", "bolus_minutes", ORIGIN_ROLE) == "override"
+    selection = view.table_view.selectionModel()
+    source = model.index_of("rat", "bolus_minutes")
+    selection.select(view.proxy.mapFromSource(source), QItemSelectionModel.SelectionFlag.Select)
+    with qtbot.waitSignal(view.tableChanged):
+        view.reset_action.trigger()
+    assert overrides.read_overrides() == []
+    assert "every species in it is back on its shipped value" in view.message.text()
+    view.undo_action.trigger()
+    assert [(r.species_id, r.value) for r in overrides.read_overrides()] == [
+        ("group_rodent", 20.0)
+    ]
+
+
 def test_reset_without_an_override_says_so(view):
     selection = view.table_view.selectionModel()
     source = view.model.index_of("dog", "body_weight_kg")

@@ -78,7 +78,7 @@ def test_one_pound_is_exact():
 
 
 def test_bare_number_needs_a_unit():
-    # DESIGN.md: a bare number is an error, never a silent guess (gram/kilogram slip).
+    # The design brief: a bare number is an error, never a silent guess (gram/kilogram slip).
     with pytest.raises(InputError) as err:
         parse_weight_kg("350")
     assert err.value.field == "weight"
@@ -146,7 +146,7 @@ def test_unknown_unit_error_lists_the_known_units():
 
 
 def test_thousands_separator_is_never_read_as_a_decimal_comma():
-    # Safety (DESIGN.md: the gram/kilogram slip is the classic dosing error). "1,500 g"
+    # Safety (the design brief: the gram/kilogram slip is the classic dosing error). "1,500 g"
     # written with an English thousands separator means 1500 g. Reading it as a
     # decimal comma gives 1.5 g, a thousandfold error. The string is ambiguous, so
     # the parser may refuse it (InputError) or read 1.5 kg. It must never return
@@ -503,8 +503,13 @@ def test_distinct_sorted_matches_numpys_unique_without_importing_masked_arrays()
     from vetfluid.common.arrays import distinct_sorted
 
     rng = np.random.default_rng(7)
-    for values in (np.array([]), np.array([3.0, 1.0, 3.0]), rng.integers(0, 9, 50) / 4.0):
+    cases = (np.array([]), np.array([3.0, 1.0, 3.0]), rng.integers(0, 9, 50) / 4.0,
+             np.array([-0.0, 0.0, 1e-300]), rng.integers(0, 5, (4, 3)).astype(float))  # fmt: skip
+    for values in cases:
         assert np.array_equal(distinct_sorted(values), np.unique(values))
+    for broken in (np.array([1.0, np.nan]), np.array([np.inf, 1.0])):
+        with pytest.raises(InputError, match="not a finite number"):
+            distinct_sorted(broken)
     probe = (
         "import sys, numpy as np; from vetfluid.common.arrays import distinct_sorted; "
         "distinct_sorted(np.array([2.0, 1.0, 2.0])); print('numpy.ma' in sys.modules)"

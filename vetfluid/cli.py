@@ -30,11 +30,8 @@ class _Parser(argparse.ArgumentParser):
     """argparse that reports bad input as one line and exit code 2."""
 
     def error(self, message: str) -> NoReturn:
-        self.exit(
-            EXIT_INPUT,
-            f"vetfluid-cli: {printable(message)} — see `vetfluid-cli {self.prog.split()[-1]} "
-            "--help`\n",
-        )
+        # self.prog is "vetfluid-cli" for the top level, "vetfluid-cli plan" for a command
+        self.exit(EXIT_INPUT, f"vetfluid-cli: {printable(message)} — see `{self.prog} --help`\n")
 
 
 def _number(text: str) -> float:

@@ -494,7 +494,8 @@ class SpeciesTableModel(QAbstractTableModel):
         for index in indexes:
             value = self.value_at(QModelIndex(index))
             if value is not None and value.origin == "override":
-                key = (value.species_id, value.parameter)
+                # the override may sit on the species' group: that row is the one removed
+                key = (value.defined_on, value.parameter)
                 if key not in keys:
                     keys.append(key)
         if not keys:
@@ -529,8 +530,20 @@ class SpeciesTableModel(QAbstractTableModel):
             self.undo_stack.endMacro()
         if done:
             self.reload()
+            groups = sorted(
+                self._table.species(holder).common_name
+                for holder, _ in keys[:done]
+                if self._table.species(holder).rank != "species"
+            )
+            whole_group = (
+                f" The clinic value was the group's ({', '.join(groups)}): every species in "
+                "it is back on its shipped value."
+                if groups
+                else ""
+            )
             self.messageChanged.emit(
-                f"✓ Reset {done} value(s) to the shipped value. Undo puts the clinic value back."
+                f"✓ Reset {done} value(s) to the shipped value.{whole_group} "
+                "Undo puts the clinic value back."
             )
         return done
 

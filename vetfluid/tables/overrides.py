@@ -345,31 +345,22 @@ def set_override(
 
 
 def write_override(row: SpeciesValue) -> None:
-    """Write ``row`` as the clinic override for its (species, parameter): what
-    :func:`read_overrides` gave back (undo, redo) or any value of the table.
+    """Put ``row`` back into the override file as it was read (undo, redo): its stored
+    columns verbatim, in place of the row for its (species, parameter), or added.
 
-    Only the stored columns are written; origin, holder, line and label are the loader's
-    to work out. Checked and refused like :func:`set_override`, and a row whose unit is not
-    the parameter's own is refused too (the file keeps every value in that unit).
+    A row the loader ignores (typed by hand in another unit, say) goes back as it was and
+    is ignored again, reported among the table's notices as before the edit being undone;
+    any other row the table would no longer load with is refused, and nothing is written.
     """
-    definition = _definitions().get(row.parameter)
-    if definition is not None and row.unit != definition.unit:
-        raise InputError(
-            f"unit {row.unit!r} for {row.parameter} should be {definition.unit!r}",
-            field="unit",
-            value=row.unit,
-            fix=f"give the value in {definition.unit}",
-        )
-    set_override(
-        species_id=row.species_id,
-        parameter=row.parameter,
-        value=row.value,
-        low=row.low,
-        high=row.high,
-        note=row.note,
-        basis=row.basis,
-        source_id=row.source_id,
-    )
+    header, rows = _raw()
+    cells = _stored_cells(row)
+    for position, stored in enumerate(rows):
+        if (stored["species_id"], stored["parameter"]) == (row.species_id, row.parameter):
+            rows[position] = {**stored, **cells}
+            break
+    else:
+        rows.append(cells)
+    _commit(header, rows, restoring=(row.species_id, row.parameter))
 
 
 def remove_override(*, species_id: str, parameter: str) -> None:
@@ -452,7 +443,10 @@ def _check_range(
             f"value {stored_text(number)} {unit} lies outside the range {bounds}",
             field=parameter,
             value=number,
-            fix=f"type a value within {bounds}, or widen the range (low/high) first",
+            fix=(
+                f"type a value within {bounds}; the range itself is the low and high columns "
+                f"of the clinic override file ({overrides_file()})"
+            ),
         )
 
 
@@ -468,8 +462,12 @@ def _write_csv(path: Path, header: list[str], rows: list[dict[str, str]]) -> Non
         os.fsync(handle.fileno())
 
 
-def _commit(header: list[str], rows: list[dict[str, str]]) -> None:
-    """Validate the candidate rows as a whole table, keep a backup, then replace atomically."""
+def _commit(
+    header: list[str], rows: list[dict[str, str]], *, restoring: tuple[str, str] | None = None
+) -> None:
+    """Validate the candidate rows as a whole table, keep a backup, then replace atomically.
+    ``restoring`` names the (species, parameter) whose row is put back as it was read: a
+    notice about that row alone does not refuse the write."""
     folder = overrides_dir()
     folder.mkdir(mode=0o700, parents=True, exist_ok=True)
     target = folder / OVERRIDE_FILE
@@ -480,7 +478,7 @@ def _commit(header: list[str], rows: list[dict[str, str]]) -> None:
         _write_csv(candidate, header, rows)
         if sources.exists():
             shutil.copy2(sources, staging / "sources.csv")
-        _refuse_new_problems(load_table(overrides=staging))
+        _refuse_new_problems(load_table(overrides=staging), restoring=restoring)
         previous = target.stat() if target.exists() else None
         if previous is not None:
             spare = staging / "previous.csv"
@@ -506,13 +504,15 @@ def _copy_private(source: Path, copy: Path) -> None:
     os.utime(copy, ns=(times.st_atime_ns, times.st_mtime_ns))
 
 
-def _refuse_new_problems(candidate: SpeciesTable) -> None:
+def _refuse_new_problems(
+    candidate: SpeciesTable, *, restoring: tuple[str, str] | None = None
+) -> None:
     """Refuse a write after which a row would be ignored that is not ignored now (the row
     written, or one that depended on the row removed); a row already ignored (typed by
     hand) is no reason to refuse an edit elsewhere, and stays as typed, still reported."""
     before = {notice.key for notice in load_table().notices}
     for notice in candidate.notices:
-        if notice.key not in before:
+        if notice.key not in before and (notice.species_id, notice.parameter) != restoring:
             raise SpeciesDataError(notice.problem, location=notice.location)
 
 
