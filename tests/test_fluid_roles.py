@@ -144,7 +144,14 @@ def test_the_plans_sodium_peak_agrees_with_the_course(species_id, weight_kg, rou
     per_hour = int(round(1.0 / (hours[1] - hours[0])))
     changes = na[per_hour:] - na[:-per_hour]
     worst = changes[np.argmax(np.abs(changes))]
-    assert plan.sodium.peak_change_per_h == pytest.approx(worst, rel=0.05, abs=0.02)
+    # Issue 19: the course now has a kidney and solute-free insensible loss, which concentrate
+    # the body water; the plan's check still lets every output leave at the starting Na
+    # (Adrogué & Madias 2000, the textbook balance), so it states the fall a little larger.
+    # The two agree in direction, the plan never states a smaller change (the check stays on
+    # the cautious side), and they differ by under a third.
+    assert np.sign(plan.sodium.peak_change_per_h) == np.sign(worst)
+    assert abs(plan.sodium.peak_change_per_h) >= abs(worst) - 0.02
+    assert plan.sodium.peak_change_per_h == pytest.approx(worst, rel=0.3)
 
 
 def test_a_budgerigar_on_5_percent_dextrose_at_a_replacement_rate_is_blocked():

@@ -1,42 +1,34 @@
-"""The course of a plan: body-water compartments, weight and serum Na over time.
+"""The course of a plan: body-water compartments, weight, urine, serum Na and K over time.
 
-Pure numpy on a regular grid (1-minute steps by default, up to 14 days). The
-equations, their sources and their simplifications are written out in
+On a regular grid (1-minute steps by default, 5 in the window and the CLI; up to 14 days).
+The equations, their sources and their simplifications are written out in
 ``docs/model.md``; in short:
 
-* **Water and osmoles (Darrow–Yannet reasoning).** ECF and ICF are in osmotic
-  equilibrium. ICF osmoles are fixed; infused fluid adds its water and its
-  *effective* osmoles (Na, K, Cl, lactate, … but not glucose, which is
-  metabolised) to the ECF. With π = (O_ecf + O_icf) / TBW, ECF = O_ecf / π and
-  ICF = O_icf / π. So an isotonic crystalloid stays extracellular, free water
-  (5% dextrose) spreads over total body water, and hypertonic saline draws water
-  out of the cells.
-* **Plasma and interstitium (two-compartment volume kinetics).** Fluid given IV
-  or IO enters the plasma, fluid given SC or intracoelomically the interstitium.
-  The excess of plasma over its equilibrium share of the ECF (plasma/ECF) decays
-  with the species' ``crystalloid_distribution_half_life_min`` (a first-order
-  form of Hahn's volume kinetics). A colloid holds its volume in the plasma and
-  lets it go with its own half-life (``colloids.csv``).
-* **Renal elimination.** With healthy kidneys, ECF above its euhydrated size is
-  excreted from the plasma with ``crystalloid_elimination_half_life_min``; left out
-  with renal disease, under anaesthesia, or where the species has no value.
-* **Serum Na (Adrogué–Madias, step by step).** Na × TBW is the exchangeable
-  Na + K; each step adds the infusate's Na + K and water. For one litre and no
-  losses this equals the closed form (Na_inf + K_inf − Na) / (TBW + 1).
-* **Losses.** The plan's outflow (maintenance and ongoing losses, or the measured
-  outputs in ins-and-outs mode) leaves the ECF as fluid isotonic at the patient's
-  starting osmolality and Na, so it changes volumes, not Na. It stops with the plan:
-  after its last phase the patient's own intake is taken to match its losses.
-* **Weight** = entered weight + net fluid balance (1 mL ≈ 1 g; Davis 2013).
+* **Water and solute (Edelman; electrolyte-free water balance).** Exchangeable Na + K and
+  body water are stepped by :func:`vetfluid.physiology.kidney.follow_balance`: each input
+  and output moves them by its own water and Na + K. ECF and ICF share the water in
+  osmotic equilibrium (Darrow–Yannet reasoning); K and its anion sit in the cells.
+* **What leaves.** Insensible water (solute-free), ongoing losses by type
+  (:data:`vetfluid.physiology.electrolytes.LOSS_TYPES`, isotonic when unknown) and urine
+  from the kidney: its osmolality asked for by tonicity and volume (ADH) within the
+  species' band, its Na from the ECF above its euhydrated size (the calibrated
+  ``crystalloid_elimination_half_life_min``), its K following intake. Outputs stop with
+  the plan (the patient's own intake then matches them); only an excess is still excreted.
+  In ins-and-outs mode the measured outputs leave instead and no kidney is modelled.
+* **Plasma and interstitium (two-compartment volume kinetics).** Fluid given IV or IO
+  enters the plasma, fluid given SC or intracoelomically the interstitium (a dose as it is
+  absorbed over ``delivery.SC_ABSORPTION_H``). The excess of plasma over its equilibrium
+  share of the ECF decays with ``crystalloid_distribution_half_life_min`` (Hahn); a colloid
+  holds its volume with its own half-life; what the kidney takes comes from the plasma.
+* **Weight** = entered weight + fluid given − what left (1 mL ≈ 1 g; Davis 2013).
 
-The starting compartments are the species' fractions of the entered (dehydrated)
-weight.
+The starting compartments are the species' fractions of the entered (dehydrated) weight.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -44,6 +36,7 @@ from vetfluid.common.checks import require_number
 from vetfluid.common.errors import InputError
 from vetfluid.common.findings import Finding
 from vetfluid.course.observations import Observation, alerts
+from vetfluid.physiology import delivery, electrolytes, kidney, maintenance
 from vetfluid.physiology.hydration import body_water_fraction
 from vetfluid.planning.plan import Plan
 from vetfluid.planning.safety import LINE_ROUTES
@@ -53,8 +46,8 @@ from vetfluid.tables.limits import limit
 from vetfluid.tables.species import SpeciesTable, SpeciesValue, load_table
 
 MAX_HORIZON_H = 14 * 24.0
-# The step the window and the CLI both model a course at: the renal elimination is worked
-# out step by step, so one step size keeps every figure the same wherever it is shown.
+# The step the window and the CLI both model a course at: the kidney is worked out step by
+# step, so one step size keeps every figure the same wherever it is shown.
 SHOWN_STEP_MINUTES = 5.0
 PREDICTED_OBSERVABLES = ("weight_kg", "serum_na", "pcv_percent", "total_solids_g_per_dl")
 
@@ -66,20 +59,24 @@ class Course:
     hours: np.ndarray
     given_ml: np.ndarray
     given_by_fluid_ml: dict[str, np.ndarray]  # fluid name → volume given of it
-    consumed_ml: np.ndarray
-    eliminated_ml: np.ndarray  # excreted by the kidneys above the plan's losses
+    consumed_ml: np.ndarray  # insensible water and ongoing losses (or measured outputs)
+    eliminated_ml: np.ndarray  # urine, cumulative (the name the CLI and JSON still use)
+    urine_ml: np.ndarray  # urine, cumulative (none modelled in ins-and-outs mode)
+    urine_osm_mosm_per_kg: np.ndarray | None  # the urine osmolality of each step
+    urine_band_mosm_per_kg: tuple[float, float] | None  # diluting floor, concentrating ceiling
     plasma_ml: np.ndarray
     interstitial_ml: np.ndarray
     intracellular_ml: np.ndarray
     osmolality_mosm_per_kg: np.ndarray
     serum_na: np.ndarray | None
+    serum_k: np.ndarray | None  # when a serum K was entered
     pcv_percent: np.ndarray | None  # by dilution of the starting PCV, when one was entered
     total_solids_g_per_dl: np.ndarray | None  # likewise for total solids
     na_max_change_per_h: float  # the correction limit the band is drawn with
     weight_kg: np.ndarray
     remaining_deficit_ml: np.ndarray
     provenance: tuple[SpeciesValue, ...]
-    elimination_left_out: str | None  # why renal elimination is not modelled, or None
+    elimination_left_out: str | None  # why the excretion of an excess is left out, or None
 
     def predicted(self, field: str, hour: float) -> float | None:
         """The model's value of an observable (weight_kg, serum_na, pcv_percent,
@@ -119,7 +116,12 @@ class Course:
             "given_ml": float(self.given_ml[i]),
             "given_by_fluid_ml": {name: float(v[i]) for name, v in self.given_by_fluid_ml.items()},
             "eliminated_ml": float(self.eliminated_ml[i]),
+            "urine_ml": float(self.urine_ml[i]),
+            "urine_osm_mosm_per_kg": None
+            if self.urine_osm_mosm_per_kg is None
+            else float(self.urine_osm_mosm_per_kg[i]),
             "serum_na": None if self.serum_na is None else float(self.serum_na[i]),
+            "serum_k": None if self.serum_k is None else float(self.serum_k[i]),
             "pcv_percent": None if self.pcv_percent is None else float(self.pcv_percent[i]),
             "total_solids_g_per_dl": None
             if self.total_solids_g_per_dl is None
@@ -135,10 +137,19 @@ class _Input:
     end_h: float  # equals start_h for a dose
     ml: float
     effective_mosm_per_l: float
-    na_k_mmol_per_l: float
+    na_mmol_per_l: float
+    k_mmol_per_l: float
     into_plasma: bool
     colloid_half_life_h: float | None = None  # a colloid holds its volume in the plasma
     fluid_name: str = ""
+    absorbed_over_h: float = 0.0  # an SC or intracoelomic dose reaches the body over this
+
+    def absorbed(self) -> _Input:
+        """The input as it reaches the body water: a dose under the skin or into the
+        coelom evenly over its absorption time (delivery.SC_ABSORPTION_H)."""
+        if self.absorbed_over_h <= 0 or self.end_h > self.start_h:
+            return self
+        return replace(self, end_h=self.start_h + self.absorbed_over_h, absorbed_over_h=0.0)
 
 
 def _fluid_terms(fluid: fluids.Fluid, *, into_plasma: bool) -> dict:
@@ -146,7 +157,8 @@ def _fluid_terms(fluid: fluids.Fluid, *, into_plasma: bool) -> dict:
     return {
         "fluid_name": fluid.name,
         "effective_mosm_per_l": comp.effective_osmolarity_mosm_per_l,
-        "na_k_mmol_per_l": comp.na_mmol_per_l + comp.k_mmol_per_l,
+        "na_mmol_per_l": comp.na_mmol_per_l,
+        "k_mmol_per_l": comp.k_mmol_per_l,
         "into_plasma": into_plasma,
         "colloid_half_life_h": fluid.colloid.volume_half_life_h if fluid.colloid else None,
     }
@@ -164,7 +176,13 @@ def _inputs(plan: Plan, extra: list[_Input]) -> list[_Input]:
 def _phase_inputs(phase: Phase, common: dict) -> list[_Input]:
     if phase.mode == "continuous":
         return [_Input(phase.start_h, phase.end_h, phase.volume_ml, **common)]
-    return [_Input(h, h, phase.dose_ml or 0.0, **common) for h in phase.dose_hours()]
+    # a dose under the skin or into the coelom is absorbed over hours (6–8 h in dogs and
+    # cats, the shorter end: delivery.SC_ABSORPTION_H); a dose into a line is there at once
+    absorb = 0.0 if common["into_plasma"] else delivery.SC_ABSORPTION_H
+    return [
+        _Input(h, h, phase.dose_ml or 0.0, **common, absorbed_over_h=absorb)
+        for h in phase.dose_hours()
+    ]
 
 
 def infused_input(
@@ -256,7 +274,7 @@ def _excess_plasma(hours: np.ndarray, inputs: list[_Input], share: float, k_per_
     cost follows the plan, not the horizon.
     """
     excess = np.zeros_like(hours)
-    for item in inputs:
+    for item in (entry.absorbed() for entry in inputs):
         span = item.end_h - item.start_h
         first = int(np.searchsorted(hours, item.start_h - 1e-9))
         for c, rate in _response_terms(item, share, k_per_h):
@@ -269,58 +287,6 @@ def _excess_plasma(hours: np.ndarray, inputs: list[_Input], share: float, k_per_
             level = (u / rate) * -np.expm1(-rate * np.minimum(t, span))
             excess[first:last] += level * np.exp(-rate * np.maximum(t - span, 0.0))
     return excess
-
-
-def _renal_elimination(
-    ecf_excess: np.ndarray, *, k_e_per_step: float, k_per_step: float, steady_from: int
-) -> tuple[np.ndarray, np.ndarray]:
-    """Cumulative volume the kidneys remove, E, and its undistributed part in the plasma, F.
-
-    e = k_e · max(ECF − ECF_ref, 0), taken from the plasma; F follows e and decays at the
-    distribution rate k (the interstitium refills the plasma). Stepped exactly for the
-    first-order removal over each step, over the span where the ECF is above its
-    reference (elimination can only lower it). From ``steady_from`` on nothing goes in or
-    out, so the surplus S decays geometrically and the steps have a closed form:
-    E_n = E_0 + S_0(1 − r^n), F_n = F_0·q^n + S_0·take·(q^n − r^n)/(q − r), with
-    r = 1 − take and q the distribution decay per step.
-    """
-    size = len(ecf_excess)
-    eliminated = np.zeros(size)
-    in_plasma = np.zeros(size)
-    above = np.flatnonzero(ecf_excess > 0)
-    if above.size == 0:
-        return eliminated, in_plasma
-    first = int(above[0])
-    stop = max(first, min(int(above[-1]) + 1, steady_from))
-    take = -math.expm1(-k_e_per_step)  # the fraction of the surplus removed in one step
-    keep = math.exp(-k_per_step)
-    total = removed = 0.0
-    totals, undistributed = [], []
-    for excess in ecf_excess[first:stop].tolist():
-        surplus = excess - total
-        step = surplus * take if surplus > 0 else 0.0
-        total += step
-        removed = removed * keep + step
-        totals.append(total)
-        undistributed.append(removed)
-    eliminated[first:stop] = totals
-    in_plasma[first:stop] = undistributed
-    n = np.arange(1, size - stop + 1, dtype=float)
-    kept = np.exp(n * -k_per_step)  # q^n
-    surplus = float(ecf_excess[stop]) - total if stop < size else 0.0
-    if stop < steady_from or surplus <= 0:  # nothing above the reference any more
-        eliminated[stop:] = total
-        in_plasma[stop:] = removed * kept
-        return eliminated, in_plasma
-    rest = 1.0 - take
-    left = np.exp(n * -k_e_per_step)  # r^n, since r = e^(−k_e·Δt)
-    eliminated[stop:] = total + surplus * (1.0 - left)
-    if math.isclose(keep, rest):
-        tail = surplus * take * n * kept / keep  # the limit q → r
-    else:
-        tail = surplus * take * (kept - left) / (keep - rest)
-    in_plasma[stop:] = removed * kept + tail
-    return eliminated, in_plasma
 
 
 def _dilution(
@@ -340,21 +306,71 @@ def _dilution(
     return pcv, solids
 
 
-def elimination_applies(plan: Plan) -> str | None:
-    """Why renal elimination of the excess is left out of this course, or None if it is in.
+RENAL_OUTPUTS = ("oliguric", "polyuric")
 
-    Left out in ins-and-outs mode (what the kidneys make is measured and already leaves
-    as the plan's outflow), with renal disease (the kidneys may not excrete it) and under
-    anaesthesia (volume-kinetic studies find elimination much reduced; Hahn 2020): the
-    prediction then errs towards overload, the safer side.
-    """
-    if plan.request.ins_and_outs_period_h is not None:
-        return "ins and outs (urine is measured)"
-    if plan.request.renal_disease:
-        return "renal disease"
-    if plan.request.anaesthesia:
-        return "anaesthesia"
-    return None
+
+def _kidney_settings(
+    plan: Plan, table: SpeciesTable, *, na0: float, renal_output: str | None
+) -> tuple[kidney.KidneySettings | None, str | None, list[SpeciesValue]]:
+    """The patient's kidney for the course, why the volume-driven natriuresis is left out
+    (or None), and the species values used. No kidney in ins-and-outs mode: the urine is
+    measured and leaves as the plan's outflow."""
+    request, sid, w = plan.request, plan.request.species_id, plan.request.weight_kg
+    if request.ins_and_outs_period_h is not None:
+        return None, "ins and outs (urine is measured)", []
+    entered = request.urine_osmolality
+    if entered is None and request.usg is not None and table.value(sid, "usg_interpretable").value:
+        entered = maintenance.usg_to_osmolality(request.usg)
+    try:
+        band = kidney.urine_band(table, sid, renal_disease=request.renal_disease,
+                                 entered_mosm_per_kg=entered)  # fmt: skip
+    except InputError:
+        return None, "no concentrating ceiling for the species", []
+    names = ("adh_response_span_mosm_per_kg", "adh_volume_deficit_fraction",
+             "urine_k_min_mmol_per_kg_day", "urine_k_adaptation_h", "serum_na_mmol_per_l",
+             "urine_solute_mosm_per_kcal", "water_ml_per_kcal")  # fmt: skip
+    v = {name: table.value(sid, name) for name in names}
+    used = [*band.provenance, *v.values()]
+    elimination = table.get(sid, "crystalloid_elimination_half_life_min")
+    left_out = None
+    if elimination is None:
+        left_out = "no value for the species"
+    elif request.renal_disease and renal_output != "polyuric":
+        left_out = "renal disease"
+    natriuresis = 0.0
+    if left_out is None and elimination is not None:
+        used.append(elimination)
+        natriuresis = math.log(2) / (elimination.number / 60.0)
+        if request.anaesthesia:
+            natriuresis *= kidney.ANAESTHESIA_EXCRETION_FRACTION
+    normal = v["serum_na_mmol_per_l"]
+    low = normal.low if normal.low is not None else normal.number
+    high = normal.high if normal.high is not None else normal.number
+    energy = maintenance.maintenance(table, sid, w, method="energy",
+                                     body_temp_c=request.body_temp_c)  # fmt: skip
+    kcal = energy.ml_per_day / v["water_ml_per_kcal"].number
+    other = kidney.solute_load_mosm_per_day(kcal, v["urine_solute_mosm_per_kcal"].number)
+    maintenance_k = electrolytes.load_potassium_scale()[-1].kcl_mmol_per_l  # Côté 2020
+    cap = None
+    if request.renal_disease and renal_output == "oliguric":
+        threshold = table.value(sid, "urine_output_ml_per_kg_h")
+        used.append(threshold)
+        cap = (threshold.low if threshold.low is not None else threshold.number) * w
+    settings = kidney.KidneySettings(
+        floor_mosm_per_kg=band.floor_mosm_per_kg, ceiling_mosm_per_kg=band.ceiling_mosm_per_kg,
+        span_mosm_per_kg=v["adh_response_span_mosm_per_kg"].number,
+        volume_deficit_for_full=v["adh_volume_deficit_fraction"].number,
+        set_na_mmol_per_l=min(max(na0, low), high),
+        natriuresis_per_h=natriuresis, other_solute_mosm_per_h=other / 24.0,
+        k_start_mmol_per_h=maintenance_k * plan.maintenance.ml_per_h / 1000.0,
+        k_min_mmol_per_h=v["urine_k_min_mmol_per_kg_day"].number * w / 24.0,
+        k_time_constant_h=v["urine_k_adaptation_h"].number, urine_cap_ml_per_h=cap,
+    )  # fmt: skip
+    return settings, left_out, used
+
+
+def _increments(cumulative: np.ndarray) -> list[float]:
+    return np.diff(cumulative, prepend=0.0).tolist()
 
 
 def course(
@@ -364,18 +380,31 @@ def course(
     horizon_h: float | None = None,
     extra_boluses: tuple[_Input, ...] = (),
     table: SpeciesTable | None = None,
+    loss_type: str = electrolytes.DEFAULT_LOSS_TYPE,
+    renal_output: str | None = None,
 ) -> Course:
-    """Simulate a plan (plus optional extra boluses) on a regular grid; see module docstring."""
+    """Simulate a plan (plus optional extra boluses) on a regular grid; see module docstring.
+
+    ``loss_type`` gives the plan's ongoing losses their typical composition
+    (:data:`vetfluid.physiology.electrolytes.LOSS_TYPES`; isotonic when unknown).
+    ``renal_output`` says how a diseased kidney behaves: "oliguric" (urine held under the
+    species' oliguria threshold), "polyuric" (it still excretes an excess), or None (the
+    excretion of an excess is left out, erring towards overload)."""
     table = table or load_table()
     require_number(step_minutes, "step_minutes", positive=True, high=60, unit="min")
+    losses = electrolytes.loss_composition(loss_type)
+    if renal_output is not None and renal_output not in RENAL_OUTPUTS:
+        raise InputError(f"unknown renal output {renal_output!r}", field="renal_output",
+                         value=renal_output, fix=", ".join(RENAL_OUTPUTS))  # fmt: skip
     end = plan.end_h
     horizon = end if horizon_h is None else require_number(
         horizon_h, "horizon_h", positive=True, high=MAX_HORIZON_H, unit="h"
     )  # fmt: skip
-    sid, w = plan.request.species_id, plan.request.weight_kg
+    request = plan.request
+    sid, w = request.species_id, request.weight_kg
     values = {
         "total_body_water_fraction": body_water_fraction(
-            table, sid, neonate=plan.request.neonate, weight_kg=w
+            table, sid, neonate=request.neonate, weight_kg=w
         ),
     } | {
         name: table.value(sid, name)
@@ -384,12 +413,10 @@ def course(
             "plasma_fraction",
             "plasma_osmolality_mosm_per_kg",
             "crystalloid_distribution_half_life_min",
+            "serum_na_mmol_per_l",
+            "serum_k_mmol_per_l",
         )
     }
-    elimination = table.get(sid, "crystalloid_elimination_half_life_min")
-    left_out = elimination_applies(plan) if elimination is not None else "no value for the species"
-    if elimination is not None:
-        values["crystalloid_elimination_half_life_min"] = elimination
     tbw0 = values["total_body_water_fraction"].number * w * 1000.0  # mL
     ecf0 = values["ecf_fraction"].number * w * 1000.0
     plasma0 = values["plasma_fraction"].number * w * 1000.0
@@ -398,82 +425,126 @@ def course(
     osm0 = values["plasma_osmolality_mosm_per_kg"].number
     share = plasma0 / ecf0
     k_per_h = math.log(2) / (values["crystalloid_distribution_half_life_min"].number / 60.0)
+    # no Na or K measured: followed internally from the species' normal values
+    na0 = request.serum_na if request.serum_na is not None else values["serum_na_mmol_per_l"].number
+    k0 = request.serum_k if request.serum_k is not None else values["serum_k_mmol_per_l"].number
+    phi = osm0 / (2.0 * na0)
 
-    hours = np.arange(0.0, horizon + 1e-9, step_minutes / 60.0)
+    step_h = step_minutes / 60.0
+    hours = np.arange(0.0, horizon + 1e-9, step_h)
     inputs = _inputs(plan, list(extra_boluses))
     given = np.zeros_like(hours)
     by_fluid: dict[str, np.ndarray] = {}
-    osmoles_in = np.zeros_like(hours)  # effective mOsm added to the ECF
-    na_k_in = np.zeros_like(hours)  # mmol of Na + K added
+    water_in = np.zeros_like(hours)  # what has reached the body water (SC: as absorbed)
+    ecf_osm_in = np.zeros_like(hours)  # effective mOsm entering the ECF (K's go to the ICF)
+    na_in, k_in = np.zeros_like(hours), np.zeros_like(hours)
     for item in inputs:
         if item.fluid_name not in by_fluid:
             by_fluid[item.fluid_name] = np.zeros_like(hours)
         _add_cumulative(by_fluid[item.fluid_name], hours, item, 1.0)
-        _add_cumulative(osmoles_in, hours, item, item.effective_mosm_per_l / 1000.0)
-        _add_cumulative(na_k_in, hours, item, item.na_k_mmol_per_l / 1000.0)
+        body = item.absorbed()
+        _add_cumulative(water_in, hours, body, 1.0)
+        _add_cumulative(na_in, hours, body, item.na_mmol_per_l / 1000.0)
+        _add_cumulative(k_in, hours, body, item.k_mmol_per_l / 1000.0)
+        ecf_share = item.effective_mosm_per_l - 2.0 * phi * item.k_mmol_per_l
+        _add_cumulative(ecf_osm_in, hours, body, ecf_share / 1000.0)
     for delivered in by_fluid.values():
         given += delivered
-    # maintenance and losses (or measured outputs), none after the plan's last phase:
-    # the model does not drain an animal that is drinking and eating again
-    consumed = plan.consumed_ml(hours)
 
-    # Osmotic equilibrium between ECF and ICF (losses isotonic at the starting osmolality)
-    icf_osmoles = osm0 * (tbw0 - ecf0) / 1000.0
-    ecf_osmoles = osm0 * ecf0 / 1000.0 + osmoles_in - osm0 * consumed / 1000.0
-    tbw = tbw0 + given - consumed
-    osmolality = (ecf_osmoles + icf_osmoles) * 1000.0 / tbw
-    ecf = ecf_osmoles * 1000.0 / osmolality
-    excess = _excess_plasma(hours, inputs, share, k_per_h)
-    na0 = plan.request.serum_na
-    # exchangeable Na + K (mmol); losses leave at the starting Na
-    sodium = None if na0 is None else na0 * tbw0 / 1000.0 + na_k_in - na0 * consumed / 1000.0
+    settings, left_out, kidney_values = _kidney_settings(plan, table, na0=na0,
+                                                         renal_output=renal_output)  # fmt: skip
+    t = np.minimum(hours, end)  # outputs stop with the plan: its own intake then matches them
+    if settings is None:
+        free_water = np.zeros_like(hours)
+        lost = plan.consumed_ml(hours)  # measured outputs (or nothing known): isotonic
+        loss_na_k = loss_k = None
+    else:
+        insensible = table.get(sid, "insensible_loss_ml_per_kg_day")
+        faecal = table.get(sid, "faecal_water_ml_per_kg_day")
+        kidney_values += [v for v in (insensible, faecal) if v is not None]
+        per_day = (insensible.number if insensible else 0.0) * w
+        free_water = per_day * plan.maintenance.temperature_factor / 24.0 * t
+        faecal_per_day = faecal.number * w if faecal else 0.0
+        lost = (request.losses_ml_per_day + faecal_per_day) / 24.0 * t
+        loss_na_k = loss_k = None
+        if losses.na_mmol_per_l is not None and losses.k_mmol_per_l is not None:
+            loss_na_k = (losses.na_mmol_per_l + losses.k_mmol_per_l) / 1000.0
+            loss_k = losses.k_mmol_per_l / 1000.0
+    balance = kidney.follow_balance(
+        step_h=step_h, water_in_ml=_increments(water_in), na_in_mmol=_increments(na_in),
+        k_in_mmol=_increments(k_in), ecf_osm_in=_increments(ecf_osm_in),
+        free_water_out_ml=_increments(free_water), loss_out_ml=_increments(lost),
+        loss_na_k_mmol_per_ml=loss_na_k, loss_k_mmol_per_ml=loss_k, tbw0_ml=tbw0,
+        ecf0_ml=ecf0, ecf_ref_ml=ecf0 + plan.deficit_ml, osmolality0=osm0, na0=na0, k0=k0,
+        kidney=settings, basal_steps=int(np.searchsorted(hours, end - 1e-9)),
+    )  # fmt: skip
+    tbw = np.asarray(balance.tbw_ml)
+    ecf_osm, icf_osm = np.asarray(balance.ecf_osm), np.asarray(balance.icf_osm)
+    osmolality = (ecf_osm + icf_osm) * 1000.0 / tbw
+    ecf = tbw * ecf_osm / (ecf_osm + icf_osm)
+    # what the kidney took left the plasma; the interstitium refills it at the distribution rate
+    undistributed = _decaying_sum(balance.urine_ecf_ml, math.exp(-k_per_h * step_h))
+    plasma = (
+        share * ecf
+        + _excess_plasma(hours, inputs, share, k_per_h)
+        - (1.0 - share) * (undistributed)
+    )
+    urine = np.asarray(balance.urine_ml)
+    consumed = free_water + lost
+    serum_na = None
+    if request.serum_na is not None:
+        serum_na = np.asarray(balance.na_k_mmol) * 1000.0 / tbw
+    serum_k = None
+    if request.serum_k is not None:
+        k_pool = np.asarray(balance.k_mmol)
+        serum_k = k0 * k_pool / k_pool[0]
+    pcv, solids = _dilution(plasma, request.pcv_percent, request.total_solids_g_per_dl)
 
-    eliminated = np.zeros_like(hours)
-    if left_out is None:
-        # The kidneys excrete the ECF above its euhydrated size (the deficit restored)
-        # as fluid of the moment's osmolality and Na, taken from the plasma.
-        step_h = step_minutes / 60.0
-        k_e = math.log(2) / (elimination.number / 60.0)
-        settled_h = max([plan.end_h, *(item.end_h for item in inputs)])
-        eliminated, undistributed = _renal_elimination(
-            ecf - (ecf0 + plan.deficit_ml), k_e_per_step=k_e * step_h, k_per_step=k_per_h * step_h,
-            steady_from=int(np.searchsorted(hours, settled_h + 1e-9)),
-        )  # fmt: skip
-        removed = np.diff(eliminated, prepend=0.0)
-        ecf_osmoles = ecf_osmoles - np.cumsum(removed * osmolality) / 1000.0
-        if sodium is not None:
-            sodium = sodium - np.cumsum(removed * sodium * 1000.0 / tbw) / 1000.0
-        tbw = tbw - eliminated
-        osmolality = (ecf_osmoles + icf_osmoles) * 1000.0 / tbw
-        ecf = ecf_osmoles * 1000.0 / osmolality
-        excess = excess - (1.0 - share) * undistributed
-    icf = tbw - ecf
-    plasma = share * ecf + excess
-    serum_na = None if sodium is None else sodium * 1000.0 / tbw
-    pcv, solids = _dilution(plasma, plan.request.pcv_percent, plan.request.total_solids_g_per_dl)
-
-    net = given - consumed - eliminated
-    provenance = tuple(values.values())
+    net = given - consumed - urine
+    provenance = tuple(dict.fromkeys([*values.values(), *kidney_values]))
+    band = None if settings is None else (settings.floor_mosm_per_kg, settings.ceiling_mosm_per_kg)
     return Course(
         hours=hours,
         given_ml=given,
         given_by_fluid_ml=by_fluid,
         consumed_ml=consumed,
-        eliminated_ml=eliminated,
+        eliminated_ml=urine,
+        urine_ml=urine,
+        urine_osm_mosm_per_kg=None
+        if settings is None
+        else np.asarray(balance.urine_osm_mosm_per_kg),
+        urine_band_mosm_per_kg=band,
         plasma_ml=plasma,
         interstitial_ml=ecf - plasma,
-        intracellular_ml=icf,
+        intracellular_ml=tbw - ecf,
         osmolality_mosm_per_kg=osmolality,
         serum_na=serum_na,
+        serum_k=serum_k,
         pcv_percent=pcv,
         total_solids_g_per_dl=solids,
-        na_max_change_per_h=plan.request.max_na_change_per_h
+        na_max_change_per_h=request.max_na_change_per_h
         or limit("sodium_max_correction_mmol_per_l_h").value,
         weight_kg=w + net / 1000.0,
         remaining_deficit_ml=np.maximum(plan.deficit_ml - net, 0.0),
         provenance=provenance,
         elimination_left_out=left_out,
     )
+
+
+def _decaying_sum(added: list[float], keep: float) -> np.ndarray:
+    """F_n = F_(n−1)·keep + added_n, stepped while anything is added, then in closed form."""
+    size = len(added)
+    last = max((i for i, a in enumerate(added) if a), default=-1)
+    out = np.zeros(size)
+    total = 0.0
+    values = []
+    for a in added[: last + 1]:
+        total = total * keep + a
+        values.append(total)
+    out[: last + 1] = values
+    if last + 1 < size:
+        out[last + 1 :] = total * keep ** np.arange(1, size - last)
+    return out
 
 
 def observed_course(

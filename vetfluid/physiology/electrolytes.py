@@ -10,7 +10,7 @@
   the familiar per-litre figure is V = 1 L. Rates come from the general form, never
   by scaling the one-litre change: for a 35 g bird TBW is 0.02 L, and one litre would
   be fifty times its body water. The plan's own Na path (:func:`serum_na_path`) is the
-  same balance the course steps through (Edelman 1958): Na = (Na + K)ₑ / TBW.
+  Edelman balance (1958), Na = (Na + K)ₑ / TBW, with every output at the starting Na.
 * Potassium for other species: the scale was written for dogs and cats; for any
   other species serum K is banded by how far it lies below that species' own
   reference low (:func:`potassium_band_for_species`; derived here, no source).
@@ -26,7 +26,7 @@ import numpy as np
 
 from vetfluid.common.checks import require_number, require_patient_weight
 from vetfluid.common.csvfiles import parse_number, read_rows
-from vetfluid.common.errors import SpeciesDataError
+from vetfluid.common.errors import InputError, SpeciesDataError
 from vetfluid.common.formatting import format_quantity as q
 from vetfluid.common.paths import resource_dir
 
@@ -194,8 +194,10 @@ def serum_na_path(
 ) -> np.ndarray:
     """Serum Na at each moment from the exchangeable Na + K balance (Edelman IS et al.,
     J Clin Invest 1958; stepped as Adrogué & Madias 2000): Na = (Na₀·TBW₀ + Na+K given −
-    Na₀·lost) / (TBW₀ + given − lost), the losses leaving at the starting Na — the same
-    balance :func:`vetfluid.course.model.course` steps through, so plan and course agree."""
+    Na₀·lost) / (TBW₀ + given − lost), the losses leaving at the starting Na. The course
+    (:func:`vetfluid.physiology.kidney.follow_balance`) adds the kidney and solute-free
+    insensible water, which concentrate the body water: this balance states a fall in Na
+    somewhat larger, never smaller (docs/model.md)."""
     exchangeable = serum_na * tbw_ml / 1000.0 + na_k_given_mmol - serum_na * lost_ml / 1000.0
     water = np.maximum(tbw_ml + given_ml - lost_ml, 1e-9)
     return exchangeable * 1000.0 / water
@@ -341,3 +343,56 @@ def sodium_summary(
         peak_hour=peak_hour,
         peak_phase=peak_phase,
     )
+
+
+# ---- ongoing losses by type ------------------------------------------------------------------
+@dataclass(frozen=True, kw_only=True)
+class LossComposition:
+    """Typical Na and K of an ongoing loss (mmol/L); None: isotonic, at the patient's own
+    Na and K of the moment (what is used when the composition is unknown)."""
+
+    loss_type: str
+    label: str
+    na_mmol_per_l: float | None
+    k_mmol_per_l: float | None
+    source_id: str | None
+    basis: str
+    note: str
+
+
+# Human figures (no veterinary table is on record): gastric juice Na 20–60, K ≈ 14; diarrhoea
+# Na 30–140, K 30–70 mmol/L (Empendium table of losses, "empendium_losses"); the middle of
+# each range is used. Polyuric urine "varies greatly; measure it" (same table) and drain or
+# third-space fluid is a plasma ultrafiltrate (Starling; recalled): both are taken as
+# isotonic until measured.
+LOSS_TYPES: dict[str, LossComposition] = {
+    loss.loss_type: loss
+    for loss in (
+        LossComposition(loss_type="isotonic", label="unknown (isotonic)", na_mmol_per_l=None,
+                        k_mmol_per_l=None, source_id=None, basis="memory",
+                        note="taken at the patient's own Na and K"),
+        LossComposition(loss_type="vomitus", label="vomitus (gastric)", na_mmol_per_l=40.0,
+                        k_mmol_per_l=14.0, source_id="empendium_losses", basis="derived",
+                        note="middle of the human gastric range Na 20–60; K ≈ 14"),
+        LossComposition(loss_type="diarrhoea", label="diarrhoea", na_mmol_per_l=85.0,
+                        k_mmol_per_l=50.0, source_id="empendium_losses", basis="derived",
+                        note="middle of the human ranges Na 30–140, K 30–70"),
+        LossComposition(loss_type="polyuria", label="polyuric urine", na_mmol_per_l=None,
+                        k_mmol_per_l=None, source_id="empendium_losses", basis="published",
+                        note="varies greatly: measure it; isotonic until measured"),
+        LossComposition(loss_type="drain", label="drain or third-space fluid",
+                        na_mmol_per_l=None, k_mmol_per_l=None, source_id=None, basis="memory",
+                        note="a plasma ultrafiltrate: isotonic"),
+    )
+}  # fmt: skip
+DEFAULT_LOSS_TYPE = "isotonic"
+
+
+def loss_composition(loss_type: str) -> LossComposition:
+    """The typical composition of an ongoing loss by its type (:data:`LOSS_TYPES`)."""
+    if loss_type not in LOSS_TYPES:
+        raise InputError(
+            f"unknown loss type {loss_type!r}", field="loss_type", value=loss_type,
+            fix=", ".join(LOSS_TYPES),
+        )  # fmt: skip
+    return LOSS_TYPES[loss_type]

@@ -44,6 +44,7 @@ from dataclasses import dataclass
 
 from vetfluid.common.checks import require_number
 from vetfluid.common.errors import InputError
+from vetfluid.physiology import kidney
 from vetfluid.tables.species import MAINTENANCE_METHODS, SpeciesTable, SpeciesValue
 
 # Urine osmolality from USG: mOsm/kg ≈ (USG − 1) × this factor. There is no agreed
@@ -243,8 +244,11 @@ class WaterBudget:
 
 
 def obligatory_urine_ml(solute_mosm: float, ceiling_mosm_per_kg: float) -> float:
-    """Obligatory urine water (mL) = solute load (mOsm) ÷ ceiling (mOsm/kg) × 1000."""
-    return _positive("solute_mosm", solute_mosm) / _positive("ceiling", ceiling_mosm_per_kg) * 1000
+    """Obligatory urine water (mL) = solute load (mOsm) ÷ ceiling (mOsm/kg) × 1000: the
+    kidney's urine volume at its ceiling (:func:`kidney.urine_volume_ml`, the one function
+    the course uses too)."""
+    _positive("solute_mosm", solute_mosm)
+    return kidney.urine_volume_ml(solute_mosm, _positive("ceiling", ceiling_mosm_per_kg))
 
 
 def usg_to_osmolality(usg: float) -> float:
@@ -256,25 +260,7 @@ def usg_to_osmolality(usg: float) -> float:
     return max((usg - 1.0) * USG_TO_MOSM_FACTOR, 1.0)
 
 
-def concentrating_ceiling(
-    table: SpeciesTable, species_id: str
-) -> tuple[float, str, list[SpeciesValue]]:
-    """The species' maximum urine osmolality: measured, or U/P ratio × plasma osmolality."""
-    plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
-    direct = table.get(species_id, "max_urine_osmolality_mosm_per_kg")
-    if direct is not None:
-        return direct.number, "species maximum", [direct]
-    ratio = table.get(species_id, "max_urine_plasma_ratio")
-    if ratio is not None:
-        return ratio.number * plasma.number, "U/P × plasma", [ratio, plasma]
-    raise InputError(
-        "No urine-concentrating ceiling (maximum urine osmolality or urine-to-plasma ratio) "
-        f"is on record for this species ({table.species(species_id).common_name}), so the "
-        "minimum water need cannot be estimated.",
-        field="max_urine_osmolality_mosm_per_kg",
-        value=None,
-        fix="Enter the patient's USG or urine osmolality, or add the value to the species table.",
-    )
+concentrating_ceiling = kidney.concentrating_ceiling  # the species' ceiling lives with the kidney
 
 
 def entered_urine_limit(table: SpeciesTable, species_id: str) -> float | None:
@@ -333,7 +319,7 @@ def water_budget(
         used += [v for v in ceiling_values if v not in used]
     else:
         ceiling, source = max(entered, plasma.number), str(entered_from)
-    solute = kcal * solute_rate.number
+    solute = kidney.solute_load_mosm_per_day(kcal, solute_rate.number)
     insensible = table.get(species_id, "insensible_loss_ml_per_kg_day")
     faecal = table.get(species_id, "faecal_water_ml_per_kg_day")
     used += [v for v in (insensible, faecal) if v is not None]
