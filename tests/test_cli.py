@@ -208,9 +208,9 @@ def test_the_course_table_prints_safe_numbers_with_units(capsys):
     _, out, _ = run(capsys, "course", "--demo", "renal_cat", "--at", "0,1,12,24")
     rows = _course_table(out)
     assert [row[0] for row in rows] == ["0", "1", "12", "24"]
-    units = ["mL", "mL", "mL", "kg", "mL", "mL", "mL", "mmol/L"]
+    units = ["mL", "mL", "mL", "kg", "mL", "mL", "mL", "mL/h", "mOsm/kg", "mmol/L", "mmol/L"]
     for row in rows:
-        assert len(row) == 9
+        assert len(row) == 12
         for cell, unit in zip(row[1:], units, strict=True):
             if cell == "—":
                 continue

@@ -111,7 +111,7 @@ def test_weight_change_equals_net_fluid_balance():
     # Davis 2013: 1 kg lost ≈ 1 L.
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=7))
     c = course(plan)
-    assert np.allclose((c.weight_kg - 20) * 1000, c.given_ml - c.consumed_ml - c.eliminated_ml)
+    assert np.allclose((c.weight_kg - 20) * 1000, c.given_ml - c.consumed_ml - c.urine_ml)
     # and each side: every phase's volume given; insensible water (Côté 2020: 20 mL/kg/day)
     # consumed for as long as the plan runs; the rest leaves as urine (the kidney)
     assert c.given_ml[-1] == pytest.approx(sum(p.volume_ml for p in plan.phases))
@@ -191,7 +191,7 @@ def test_an_excess_is_not_excreted_where_that_cannot_be_trusted(request_changes,
     saline = infused_input(fluid_id="nacl_0_9", ml_per_kg=20, weight_kg=weight, minutes=15)
     c = course(plan, horizon_h=4, extra_boluses=(saline,))
     without = course(plan, horizon_h=4)
-    assert c.elimination_left_out == reason
+    assert c.excess_excretion_left_out == reason
     extra_urine = c.urine_ml[-1] - without.urine_ml[-1]
     assert (extra_urine > 0.1 * 20 * weight) == (reason is None)
 
@@ -207,7 +207,7 @@ def test_anaesthesia_cuts_the_excretion_of_a_load():
 
     awake, asleep = extra_urine(False), extra_urine(True)
     assert course(build_plan(PlanRequest(species_id="dog", weight_kg=20, anaesthesia=True))
-                  ).elimination_left_out is None  # fmt: skip
+                  ).excess_excretion_left_out is None  # fmt: skip
     assert 0 < asleep < 0.3 * awake
 
 

@@ -72,7 +72,7 @@ def test_no_urine_is_assumed_on_top_of_what_was_measured():
                                   measured_outputs=((0.0, 0.0),),
                                   resuscitation_boluses=2))  # fmt: skip
     c = course(plan)
-    assert c.elimination_left_out and np.all(c.eliminated_ml == 0)
+    assert c.excess_excretion_left_out and np.all(c.urine_ml == 0)
     end = int(plan.end_h * 60)
     assert c.weight_kg[end] == pytest.approx(20 + (c.given_ml[end] - c.consumed_ml[end]) / 1000)
 

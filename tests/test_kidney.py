@@ -208,3 +208,23 @@ def test_losses_by_type_move_na_as_their_composition_says():
     assert vomitus.serum_na[-1] > isotonic.serum_na[-1]
     with pytest.raises(Exception, match="loss type"):
         course(plan, loss_type="sweat")
+
+
+def test_the_cli_course_rows_carry_urine_and_stop_predicting_it_after_the_plan(capsys):
+    """Issue 19's CLI keys: urine so far, its flow and osmolality on every row while the plan
+    runs; after the plan's end the patient's own intake is taken to match its losses, so
+    flow and osmolality are null rather than a figure that would read as anuria."""
+    import json
+
+    from vetfluid import cli
+
+    code = cli.main(["course", "--demo", "dehydrated_dog", "--at", "1,24,48", "--json"])
+    data = json.loads(capsys.readouterr().out)
+    assert code == 0 and data["urine_predicted_until_h"] == 24
+    during, end, after = data["rows"]
+    floor, ceiling = data["urine_band_mosm_per_kg"]
+    for row in (during, end):
+        assert row["urine_ml_per_h"] > 0 and floor <= row["urine_osm_mosm_per_kg"] <= ceiling
+    assert after["urine_ml_per_h"] is None and after["urine_osm_mosm_per_kg"] is None
+    assert during["urine_ml"] < end["urine_ml"] <= after["urine_ml"]  # cumulative
+    assert during["serum_na"] is not None and during["serum_k"] is not None  # entered

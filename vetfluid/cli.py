@@ -595,13 +595,17 @@ def _hours(text: str) -> list[float]:
 
 
 COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
-               "remaining_deficit_ml", "given_ml", "eliminated_ml", "serum_na")  # fmt: skip
+               "remaining_deficit_ml", "given_ml", "urine_ml", "urine_ml_per_h",
+               "urine_osm_mosm_per_kg", "serum_na", "serum_k")  # fmt: skip
 # the column headings people read (the JSON keeps the keys above); each figure has its unit
 COURSE_HEADINGS = ("plasma", "interstitial", "intracellular", "weight",
-                   "deficit left", "given", "eliminated", "serum Na")  # fmt: skip
+                   "deficit left", "given", "urine so far", "urine flow",
+                   "urine osmolality", "serum Na", "serum K")  # fmt: skip
+COURSE_UNITS = {"serum_na": "mmol/L", "serum_k": "mmol/L", "urine_ml_per_h": "mL/h",
+                "urine_osm_mosm_per_kg": "mOsm/kg"}  # fmt: skip
 # Most decimals a figure of the course is printed with (a display choice, not a clinical
 # value): finer than this is the integrator's rounding (5.7e-14 mL), not fluid.
-COURSE_MOST_DECIMALS = {"serum_na": 1}
+COURSE_MOST_DECIMALS = {"serum_na": 1, "serum_k": 1, "urine_osm_mosm_per_kg": 0}
 COURSE_MOST_DECIMALS_OTHERWISE = 2
 
 
@@ -614,7 +618,7 @@ def _course_cell(row: dict, key: str, weight_unit: str) -> str:
     value = row[key]
     if value is None:
         return "—"
-    unit = {"weight_kg": weight_unit, "serum_na": "mmol/L"}.get(key, "mL")
+    unit = weight_unit if key == "weight_kg" else COURSE_UNITS.get(key, "mL")
     if key == "weight_kg":
         value = weight_in_unit(value, weight_unit)
     most = COURSE_MOST_DECIMALS.get(key, COURSE_MOST_DECIMALS_OTHERWISE)
@@ -655,8 +659,10 @@ def cmd_course(args: argparse.Namespace) -> int:
         "weight_kg": plan.request.weight_kg,
         "rows": rows,
         "model": "docs/model.md",
-        "renal_elimination": result.elimination_left_out is None,
-        "renal_elimination_left_out_for": result.elimination_left_out,
+        "urine_band_mosm_per_kg": result.urine_band_mosm_per_kg,
+        "urine_predicted_until_h": result.outputs_end_h,
+        "excess_excretion_modelled": result.excess_excretion_left_out is None,
+        "excess_excretion_left_out_for": result.excess_excretion_left_out,
         "provenance": [v.provenance() for v in result.provenance],
         "findings": [f.as_dict() for f in plan.findings],
         "cautions": list(CAUTIONS),
@@ -666,12 +672,23 @@ def cmd_course(args: argparse.Namespace) -> int:
     else:
         weight = weight_text(plan.request.weight_kg, plan.weight_unit)
         print(f"Course — {plan.species_name}, {weight}")
-        print(f"{'hour':>6} " + " ".join(f"{k:>20}" for k in COURSE_HEADINGS))
+        print(f"{'hour':>6} " + " ".join(f"{k:>17}" for k in COURSE_HEADINGS))
         for row in rows:
-            cells = " ".join(f"{_course_cell(row, k, plan.weight_unit):>20}" for k in COURSE_KEYS)
+            cells = " ".join(f"{_course_cell(row, k, plan.weight_unit):>17}" for k in COURSE_KEYS)
             print(f"{format_number(row['hour'], decimals=2):>6} {cells}")
-        if result.elimination_left_out:
-            print(f"Renal elimination of excess fluid left out: {result.elimination_left_out}.")
+        if result.urine_band_mosm_per_kg:
+            floor, ceiling = result.urine_band_mosm_per_kg
+            print(
+                f"Urine osmolality kept within {format_quantity(floor, 'mOsm/kg')} (most "
+                f"dilute) and {format_quantity(ceiling, 'mOsm/kg')} (most concentrated)."
+            )
+        if any(row["hour"] > result.outputs_end_h for row in rows):
+            print(f"After the plan ends (hour {format_number(result.outputs_end_h)}) the "
+                  "patient's own intake is taken to match its losses: urine flow and "
+                  "osmolality are not predicted beyond it (—).")  # fmt: skip
+        if result.excess_excretion_left_out:
+            print("The kidneys' excretion of a fluid excess is left out: "
+                  f"{result.excess_excretion_left_out}.")  # fmt: skip
         print("\nFindings of the plan")
         _print_findings(data["findings"])
         print("\n" + _cautions_text())

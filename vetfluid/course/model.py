@@ -60,7 +60,6 @@ class Course:
     given_ml: np.ndarray
     given_by_fluid_ml: dict[str, np.ndarray]  # fluid name → volume given of it
     consumed_ml: np.ndarray  # insensible water and ongoing losses (or measured outputs)
-    eliminated_ml: np.ndarray  # urine, cumulative (the name the CLI and JSON still use)
     urine_ml: np.ndarray  # urine, cumulative (none modelled in ins-and-outs mode)
     urine_osm_mosm_per_kg: np.ndarray | None  # the urine osmolality of each step
     urine_band_mosm_per_kg: tuple[float, float] | None  # diluting floor, concentrating ceiling
@@ -76,7 +75,10 @@ class Course:
     weight_kg: np.ndarray
     remaining_deficit_ml: np.ndarray
     provenance: tuple[SpeciesValue, ...]
-    elimination_left_out: str | None  # why the excretion of an excess is left out, or None
+    excess_excretion_left_out: str | None  # why excreting an ECF excess is left out, or None
+    # after the plan's last phase the patient's own intake is taken to match its losses, so
+    # urine flow and osmolality are predicted only up to this hour
+    outputs_end_h: float
 
     def predicted(self, field: str, hour: float) -> float | None:
         """The model's value of an observable (weight_kg, serum_na, pcv_percent,
@@ -101,11 +103,20 @@ class Course:
             for name in ("plasma", "interstitial", "intracellular")
         }
 
+    def _urine_rate_ml_per_h(self, i: int) -> float:
+        """Urine flow over the step that ends at grid point ``i`` (the first step's at 0)."""
+        j = max(i, 1)
+        if len(self.hours) < 2:
+            return 0.0
+        flow = (self.urine_ml[j] - self.urine_ml[j - 1]) / (self.hours[j] - self.hours[j - 1])
+        return float(flow)
+
     def at(self, hour: float) -> dict[str, float | None]:
         """Values at the grid point nearest ``hour``."""
         i = int(np.clip(np.searchsorted(self.hours, hour), 0, len(self.hours) - 1))
         if i > 0 and abs(self.hours[i - 1] - hour) < abs(self.hours[i] - hour):
             i -= 1
+        predicted = self.hours[i] <= self.outputs_end_h + 1e-9
         return {
             "hour": float(self.hours[i]),
             "plasma_ml": float(self.plasma_ml[i]),
@@ -115,10 +126,10 @@ class Course:
             "remaining_deficit_ml": float(self.remaining_deficit_ml[i]),
             "given_ml": float(self.given_ml[i]),
             "given_by_fluid_ml": {name: float(v[i]) for name, v in self.given_by_fluid_ml.items()},
-            "eliminated_ml": float(self.eliminated_ml[i]),
             "urine_ml": float(self.urine_ml[i]),
+            "urine_ml_per_h": self._urine_rate_ml_per_h(i) if predicted else None,
             "urine_osm_mosm_per_kg": None
-            if self.urine_osm_mosm_per_kg is None
+            if self.urine_osm_mosm_per_kg is None or not predicted
             else float(self.urine_osm_mosm_per_kg[i]),
             "serum_na": None if self.serum_na is None else float(self.serum_na[i]),
             "serum_k": None if self.serum_k is None else float(self.serum_k[i]),
@@ -508,7 +519,6 @@ def course(
         given_ml=given,
         given_by_fluid_ml=by_fluid,
         consumed_ml=consumed,
-        eliminated_ml=urine,
         urine_ml=urine,
         urine_osm_mosm_per_kg=None
         if settings is None
@@ -527,7 +537,8 @@ def course(
         weight_kg=w + net / 1000.0,
         remaining_deficit_ml=np.maximum(plan.deficit_ml - net, 0.0),
         provenance=provenance,
-        elimination_left_out=left_out,
+        excess_excretion_left_out=left_out,
+        outputs_end_h=end,
     )
 
 
