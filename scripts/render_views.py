@@ -11,6 +11,13 @@ from pathlib import Path
 from PySide6.QtWidgets import QApplication
 
 
+def settle() -> None:
+    """Let the shown tab finish its layout, as it has by the time anyone looks: a plot
+    view lays out on the turn after it is shown, and its plots again once they have data."""
+    for _ in range(4):
+        QApplication.processEvents()
+
+
 def render(demo_id: str, out: Path) -> list[Path]:
     from ui.main_window import MainWindow
 
@@ -24,7 +31,7 @@ def render(demo_id: str, out: Path) -> list[Path]:
     saved = []
     for index in range(window.details.count()):
         window.details.setCurrentIndex(index)
-        QApplication.processEvents()
+        settle()
         tab = window.details.tabText(index).replace("&", "").split(" ")[0].lower()
         path = out / f"{demo_id}-{index}-{tab}.png"
         window.grab().save(str(path))

@@ -291,3 +291,88 @@ def test_plot_axis_bounds_follow_its_geometry_and_tick_style(qtbot):
     assert axis.boundingRect() == pyqtgraphs_own()  # a new size, new bounds
     axis.setStyle(tickLength=-12)  # ticks pointing out widen the rectangle
     assert axis.boundingRect() == pyqtgraphs_own()
+
+
+def test_plot_label_below_sits_under_left_of_its_point(qtbot):
+    """A floor line's label goes under it, clear of the band above."""
+    import pyqtgraph as pg
+    from PySide6.QtWidgets import QApplication
+
+    from ui.course.plot_items import PlotLabel
+
+    widget = pg.PlotWidget()
+    qtbot.addWidget(widget)
+    widget.resize(600, 300)
+    plot = widget.getPlotItem()
+    plot.setXRange(0, 24, padding=0)
+    plot.setYRange(0, 10, padding=0)
+    label = PlotLabel("#808080", below=True)
+    plot.addItem(label, ignoreBounds=True)
+    label.setText("diluting floor 50 mOsm/kg")
+    label.setPos(20, 5)
+    widget.show()
+    qtbot.waitExposed(widget)
+    QApplication.processEvents()
+    rect = label.deviceTransform(widget.viewportTransform()).mapRect(label.boundingRect())
+    point = widget.viewportTransform().map(plot.vb.mapViewToScene(pg.Point(20, 5)))
+    assert rect.right() == pytest.approx(point.x(), abs=1)
+    assert rect.top() == pytest.approx(point.y(), abs=1)  # hangs under the point
+
+
+def test_markers_keep_their_points_and_spans_and_draw_them(qtbot):
+    """Measured values: a symbol at each point, and a measured period as a line back to its
+    start (45 mL collected over 4 h to hour 8 is a mean over hours 4–8)."""
+    from PySide6.QtGui import QColor, QImage, QPainter, QTransform
+
+    from ui.course.plot_items import Markers
+
+    marks = Markers(name="Measured", colour="#000000", symbol="o", size=10)
+    assert marks.opts["symbol"] == "o" and marks.name() == "Measured"
+    marks.setData([8.0, 12.0], [0.5, 2.0], starts=[4.0, 8.0])
+    x, y = marks.getData()
+    assert list(x) == [8.0, 12.0] and list(y) == [0.5, 2.0]
+    assert marks.dataBounds(0) == (4.0, 12.0)  # the spans count in the bounds
+    assert marks.dataBounds(1) == (0.5, 2.0)
+
+    def ink(transform: QTransform) -> np.ndarray:
+        image = QImage(200, 100, QImage.Format.Format_ARGB32_Premultiplied)
+        image.fill(QColor("white"))
+        painter = QPainter(image)
+        painter.setTransform(transform)
+        marks.paint(painter)
+        painter.end()
+        pixels = np.frombuffer(image.constBits(), np.uint8).reshape(100, 200, 4)
+        return pixels[..., :3].mean(axis=2) < 128
+
+    # 10 px per hour, y upwards from pixel row 80, 20 px per unit
+    drawn = ink(QTransform(10, 0, 0, -20, 0, 80))
+    assert drawn[70, 80] and drawn[40, 120]  # each symbol at its point
+    assert drawn[70, 50] and not drawn[70, 30]  # the first period's line runs back to hour 4
+    assert drawn[70 - 5, 80] and not drawn[70 - 8, 80]  # 10 px symbol: 5 px either side
+    marks.setData([], [])
+    assert marks.dataBounds(0) == (None, None)
+    assert not ink(QTransform(10, 0, 0, -20, 0, 80)).any()
+
+
+def test_thinning_keeps_the_sharp_corners_and_the_shape_of_a_smooth_line():
+    """A 14-day course at 5-minute steps is 4033 points on a plot a few hundred pixels
+    wide: thinned to about ``points`` of them, every bend sharper than ``sharp`` kept
+    (a bolus, a phase change) and the curve within a fraction of a pixel of the original."""
+    from ui.course.plot_items import thin
+
+    hours = np.arange(0, 14 * 24 + 1e-9, 5 / 60)
+    smooth = 145 + 5 * np.sin(hours / 30)  # a slow drift
+    jump = np.where(hours < 100, 10.0, 20.0) + hours / 100  # a step at hour 100
+    keep = turning_mask(hours, smooth, jump)
+    assert keep.sum() > 4000  # the smooth line turns at every point
+    kept = thin(hours, keep, smooth, jump, points=150, sharp=0.1)
+    assert kept[0] and kept[-1]
+    assert 150 <= kept.sum() <= 160
+    step = int(np.flatnonzero(hours >= 100)[0])
+    assert kept[step - 1] and kept[step]  # both ends of the jump
+    redrawn = np.interp(hours, hours[kept], smooth[kept])
+    assert np.max(np.abs(redrawn - smooth)) <= 0.002 * np.ptp(smooth)  # < 1 px in 500
+    # the stepped line is straight either side of its jump: redrawn exactly
+    np.testing.assert_allclose(np.interp(hours, hours[kept], jump[kept]), jump)
+    few = turning_mask(hours[:50], smooth[:50])
+    assert (thin(hours[:50], few, smooth[:50], points=150) == few).all()  # few: all kept

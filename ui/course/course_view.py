@@ -1,5 +1,13 @@
-"""The course view: body-water compartments, serum Na and weight predicted by the core
-(`vetfluid/course/model.py`), the observations recorded against them, and re-planning.
+"""The course view: what the core predicts (`vetfluid/course/model.py`) and what was
+recorded against it, and re-planning.
+
+Six plots sharing the hour axis: on the left body water, serum Na (with its correction
+limit) and weight; on the right the kidney's urine output in mL/kg/h against the
+oliguria line, urine osmolality between the species' diluting floor and concentrating
+ceiling, and serum K (when a K was entered) against the species' reference interval.
+Urine is predicted only while the plan runs (`Course.outputs_end_h`); its per-kg flow,
+the oliguria line and the measured flows come from `vetfluid/course/urine.py`. Items are
+created once and updated with ``setData`` (see DEVELOPERS.md, "The window").
 
 Entering an observation takes a date and time (or the hour of the plan), a quantity
 and a value; a weight also takes its unit (g, kg or lb, by default the one the species'
@@ -9,17 +17,21 @@ it is recorded. Everything else (alerts, curves) is recomputed by the core.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from datetime import datetime
 
+import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QDateTime, QEvent, QSignalBlocker, Qt
+from PySide6.QtGui import QPalette
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QCheckBox,
     QComboBox,
     QDateTimeEdit,
     QDoubleSpinBox,
+    QGraphicsItem,
     QHBoxLayout,
     QHeaderView,
     QLabel,
@@ -37,11 +49,16 @@ from PySide6.QtWidgets import (
 from ui.common.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
 from ui.common.qt_dates import from_qt, to_qt
 from ui.common.rows_model import Cell, RowsModel
+from ui.course.plot_items import Markers, PlotLabel, thin, turning_mask
 from ui.course.timeline_view import (
+    HourClockAxis,
+    LineSample,
     SafeNumberAxis,
     _pen,
     apply_palette,
     configure_pyqtgraph,
+    curve,
+    nice_ceiling,
     pin_legend,
     show_grid,
 )
@@ -49,6 +66,7 @@ from ui.planning.session import PlanSession
 from ui.planning.shown_plan import ShownPlan
 from vetfluid.common.errors import VetfluidError
 from vetfluid.common.findings import SEVERITIES
+from vetfluid.common.formatting import format_number
 from vetfluid.common.formatting import format_quantity as q
 from vetfluid.common.units import WEIGHT_UNITS, parse_weight_kg, read_decimal, weight_in_unit
 from vetfluid.course.model import observed_course
@@ -57,6 +75,13 @@ from vetfluid.course.observations import (
     check_observation,
     ins_and_outs_from_observations,
     observed_series,
+)
+from vetfluid.course.urine import (
+    band_unverified,
+    measured_flow,
+    oliguria_line,
+    predicted_flow,
+    predicted_osmolality,
 )
 from vetfluid.planning.schedule import hours_since
 
@@ -78,6 +103,20 @@ QUANTITIES = {
 # the Alerts tab says in text, not colour alone, how many alerts wait and how severe
 SEVERITY_MARKS = {"hard": "✖", "soft": "⚠", "info": "ℹ"}
 PLASMA, INTERSTITIAL, CELLS, NA, WEIGHT = "#1f77b4", "#2ca02c", "#9467bd", "#d62728", "#8c564b"
+URINE, OSMOLALITY, POTASSIUM = "#b7790f", "#9c4f96", "#16878a"  # amber, plum, teal
+OLIGURIA, NEUTRAL = "#cf3f38", "#8c8c8c"  # brick red (as the overload line), grey
+LEFT_AXIS_PX = 62  # the same on every plot, so the hour axes of a column line up
+LEGEND_PX = 142  # legends beside their plots, never over the curves
+X_MARGIN_FRACTION = 0.01
+UNVERIFIED = " (unverified)"  # a recalled value (basis memory), short enough for a line
+NA_TITLE, K_TITLE = "Serum Na", "Serum K"
+URINE_TITLE, OSMOLALITY_TITLE = "Urine output", "Urine osmolality"
+
+
+def _corners(hours, *lines):  # noqa: ANN001, ANN202 — arrays
+    """The points to draw the lines on ``hours`` through: their corners, thinned to about
+    one every two pixels of a plot (:func:`ui.course.plot_items.thin`)."""
+    return thin(hours, turning_mask(hours, *lines), *lines, points=100)
 
 
 class CourseView(QWidget):
@@ -157,39 +196,84 @@ class CourseView(QWidget):
         self.message.setAccessibleName("Course message")
         layout.addWidget(self.message)
 
-        # -- plots -----------------------------------------------------------------------------
+        # -- plots: water, Na and weight on the left; the kidney's urine and K on the right --
         split = QSplitter(Qt.Orientation.Vertical)
         self.graphics = pg.GraphicsLayoutWidget()
         self.graphics.setAccessibleName("Course plots")
-        self.volume_plot = self._plot(0, "Body water: change from the start", "Change (mL)")
-        self.na_plot = self._plot(1, "Serum sodium", "Na (mmol/L)")
-        self.weight_plot = self._plot(2, "Body weight", "Weight (kg)", hours=True)
+        for column in (1, 3):
+            self.graphics.ci.layout.setColumnFixedWidth(column, LEGEND_PX)
+        for column in (0, 2):
+            # the two columns of plots equally wide, whatever their titles: Qt shrinks each
+            # from the same (unreachable) preferred width by the same fraction
+            self.graphics.ci.layout.setColumnPreferredWidth(column, 10_000)
+        self.volume_plot = self._plot(0, 0, "Body water: change from the start", "Change (mL)")
+        self.na_plot = self._plot(1, 0, NA_TITLE, "Na (mmol/L)")
+        self.weight_plot = self._plot(2, 0, "Body weight", "Weight (kg)", bottom=True)
+        self.urine_plot = self._plot(0, 2, URINE_TITLE, "Urine (mL/kg/h)")
+        self.osm_plot = self._plot(1, 2, OSMOLALITY_TITLE, "Osmolality (mOsm/kg)")
+        self.k_plot = self._plot(2, 2, K_TITLE, "K (mmol/L)", bottom=True)
         self._plotted_weight_unit = "kg"
-        for plot in (self.na_plot, self.weight_plot):
+        self.plots = (self.volume_plot, self.na_plot, self.weight_plot,
+                      self.urine_plot, self.osm_plot, self.k_plot)  # fmt: skip
+        for plot in self.plots[1:]:
             plot.setXLink(self.volume_plot)
-        dash = Qt.PenStyle.DashLine
-        self.plasma_curve = self.volume_plot.plot(name="Plasma", pen=_pen(PLASMA, width=2.5))
-        self.interstitial_curve = self.volume_plot.plot(
-            name="Interstitium", pen=_pen(INTERSTITIAL, width=2.0, style=dash)
+        dash, dot = Qt.PenStyle.DashLine, Qt.PenStyle.DotLine
+        self.plasma_curve = curve(self.volume_plot, name="Plasma", pen=_pen(PLASMA, width=2.5))
+        self.interstitial_curve = curve(
+            self.volume_plot, name="Interstitium", pen=_pen(INTERSTITIAL, width=2.0, style=dash)
         )
-        self.cells_curve = self.volume_plot.plot(
-            name="Cells", pen=_pen(CELLS, width=2.0, style=Qt.PenStyle.DotLine)
-        )
-        self.na_curve = self.na_plot.plot(name="Predicted Na", pen=_pen(NA, width=2.5))
-        self.na_points = self.na_plot.plot(
-            name="Measured Na", pen=None, symbol="o", symbolBrush=NA, symbolSize=9
-        )
+        self.cells_curve = curve(self.volume_plot, name="Cells",
+                                 pen=_pen(CELLS, width=2.0, style=dot))  # fmt: skip
+        self.na_curve = curve(self.na_plot, name="Predicted", pen=_pen(NA, width=2.5))
         # the correction limit: where Na may be without changing faster than allowed
-        band_pen = _pen(NA, width=1.2, style=Qt.PenStyle.DashLine)
-        self.na_band_low = self.na_plot.plot(name="Correction limit", pen=band_pen)
-        self.na_band_high = self.na_plot.plot(pen=band_pen)
-        self.weight_curve = self.weight_plot.plot(
-            name="Predicted weight", pen=_pen(WEIGHT, width=2.5)
-        )
-        self.weight_points = self.weight_plot.plot(
-            name="Measured weight", pen=None, symbol="s", symbolBrush=WEIGHT, symbolSize=9
-        )
-        self.plots = (self.volume_plot, self.na_plot, self.weight_plot)
+        band_pen = _pen(NA, width=1.2, style=dash)
+        self.na_band_low = curve(self.na_plot, name="Limit", pen=band_pen)
+        self.na_band_high = curve(self.na_plot, pen=band_pen)
+        reference_pen = _pen(NEUTRAL, width=1.5, style=dash)  # the species' normal range
+        self.na_low = curve(self.na_plot, name="Reference", pen=reference_pen)
+        self.na_high = curve(self.na_plot, pen=reference_pen)
+        self.na_points = self._markers(self.na_plot, NA)
+        self.weight_curve = curve(self.weight_plot, name="Predicted", pen=_pen(WEIGHT, width=2.5))
+        self.weight_points = self._markers(self.weight_plot, WEIGHT, symbol="s")
+        self.urine_curve = curve(self.urine_plot, name="Predicted", pen=_pen(URINE, width=2.5))
+        self.oliguria_curve = curve(
+            self.urine_plot, name="Oliguria line",
+            pen=_pen(OLIGURIA, width=2.0, style=Qt.PenStyle.DashDotLine),
+        )  # fmt: skip
+        self.urine_points = self._markers(self.urine_plot, URINE)  # a mean over its collection
+        self.osm_curve = curve(self.osm_plot, name="Urine", pen=_pen(OSMOLALITY, width=2.5))
+        self.plasma_osm_curve = curve(self.osm_plot, name="Plasma",
+                                      pen=_pen(NEUTRAL, width=1.5, style=dot))  # fmt: skip
+        edge_pen = _pen(OSMOLALITY, width=1.5, style=dash)
+        self.ceiling_curve = curve(self.osm_plot, name="Floor, ceiling", pen=edge_pen)
+        self.floor_curve = curve(self.osm_plot, pen=edge_pen)
+        self.k_curve = curve(self.k_plot, name="Predicted", pen=_pen(POTASSIUM, width=2.5))
+        self.k_low = curve(self.k_plot, name="Reference", pen=reference_pen)
+        self.k_high = curve(self.k_plot, pen=reference_pen)
+        self.k_points = self._markers(self.k_plot, POTASSIUM)
+        self.data_items = (
+            self.plasma_curve, self.interstitial_curve, self.cells_curve, self.na_curve,
+            self.na_band_low, self.na_band_high, self.na_low, self.na_high, self.na_points,
+            self.weight_curve,
+            self.weight_points, self.urine_curve, self.oliguria_curve, self.urine_points,
+            self.osm_curve, self.plasma_osm_curve, self.ceiling_curve, self.floor_curve,
+            self.k_curve, self.k_low, self.k_high, self.k_points,
+        )  # fmt: skip
+        # the lines' values in words, at their right-hand ends
+        self.oliguria_text = self._label(self.urine_plot, OLIGURIA)
+        self.urine_end_text = self._label(self.urine_plot, NEUTRAL)
+        self.urine_note = self._label(self.urine_plot, NEUTRAL, below=True)  # top right
+        self.ceiling_text = self._label(self.osm_plot, OSMOLALITY)
+        self.floor_text = self._label(self.osm_plot, OSMOLALITY)
+        self.floor_text_below = self._label(self.osm_plot, OSMOLALITY, below=True)
+        self.osm_end_text = self._label(self.osm_plot, NEUTRAL)
+        self.k_text = self._label(self.k_plot, NEUTRAL)
+        self.na_text = self._label(self.na_plot, NEUTRAL)
+        self.labels = (self.oliguria_text, self.urine_end_text, self.urine_note, self.ceiling_text,
+                       self.floor_text, self.floor_text_below, self.osm_end_text,
+                       self.k_text, self.na_text)  # fmt: skip
+        self._y_ranges: dict[int, tuple[float, float]] = {}  # what each value axis shows
+        self._x_end: float | None = None
         for plot in self.plots:
             pin_legend(self.graphics, plot.legend)
         apply_palette(self.palette(), self.graphics, self.plots)
@@ -248,30 +332,47 @@ class CourseView(QWidget):
         layout.addWidget(split, 1)
 
         self._earlier_plans: dict = {}  # PlanRequest → Plan of earlier versions
+        self._shown_rows: dict[int, list[list[Cell]]] = {}  # each table's rows on screen
         self._observation_rows: list[int] = []  # table row → index in session.observations
         self._quantity_changed()
         self.shown = ShownPlan(self, session, self.refresh)
         session.observationsChanged.connect(lambda: self.refresh(session.plan))
 
-    def _plot(self, row: int, title: str, label: str, *, hours: bool = False):
-        plot = self.graphics.addPlot(
-            row=row, col=0, title=title, axisItems={"left": SafeNumberAxis("left")},
-            enableMenu=False,
-        )  # fmt: skip
+    def _plot(self, row: int, col: int, title: str, label: str, *, bottom: bool = False):
+        axes = {"left": SafeNumberAxis("left"), "bottom": HourClockAxis()}  # ticks "6 h"
+        plot = self.graphics.addPlot(row=row, col=col, title=title, axisItems=axes,
+                                     enableMenu=False)  # fmt: skip
         plot.setLabel("left", label)
-        if hours:
-            plot.setLabel("bottom", "Time from start (h)")
-        else:
-            plot.getAxis("bottom").setStyle(showValues=False)
-        for name in ("left", "bottom", "top", "right"):  # see timeline_view._add_plot
+        if bottom:
+            plot.setLabel("bottom", "Time from the plan's start")
+        # no "(x0.001)" on a value axis; the hidden top and right axes would otherwise
+        # re-typeset their empty label on every range change
+        for name in ("left", "bottom", "top", "right"):
             plot.getAxis(name).enableAutoSIPrefix(False)
+        plot.getAxis("left").setWidth(LEFT_AXIS_PX)
         show_grid(plot)
+        plot.setMouseEnabled(x=True, y=False)
         plot.setMenuEnabled(False)
         plot.hideButtons()
-        # the default sample draws symbols too (measured points); no filled curves here
-        plot.legend = pg.LegendItem(labelTextSize="9pt", frame=False)
-        self.graphics.addItem(plot.legend, row=row, col=1)
+        for name in ("left", "bottom"):  # each axis a pixmap, redrawn when its range moves
+            plot.getAxis(name).setCacheMode(QGraphicsItem.CacheMode.DeviceCoordinateCache)
+        plot.legend = pg.LegendItem(labelTextSize="9pt", sampleType=LineSample, frame=False)
+        self.graphics.addItem(plot.legend, row=row, col=col + 1)
+        for container in (plot.vb, plot.legend):  # neither draws anything itself
+            container.setFlag(QGraphicsItem.GraphicsItemFlag.ItemHasNoContents)
         return plot
+
+    @staticmethod
+    def _markers(plot, colour: str, *, symbol: str = "o") -> Markers:  # noqa: ANN001
+        item = Markers(name="Measured", colour=colour, symbol=symbol, size=9)
+        plot.addItem(item)
+        return item
+
+    @staticmethod
+    def _label(plot, colour: str, *, below: bool = False) -> PlotLabel:  # noqa: ANN001
+        item = PlotLabel(colour, below=below)
+        plot.addItem(item, ignoreBounds=True)
+        return item
 
     def changeEvent(self, event) -> None:  # noqa: N802,ANN001 (Qt override)
         if event.type() == QEvent.Type.PaletteChange:
@@ -468,19 +569,11 @@ class CourseView(QWidget):
         self._follow_species(plan)
         if plan is None:
             self._show_observations(observations, None, None)
-            for curve in (
-                self.plasma_curve,
-                self.interstitial_curve,
-                self.cells_curve,
-                self.na_curve,
-                self.na_points,
-                self.na_band_low,
-                self.na_band_high,
-                self.weight_curve,
-                self.weight_points,
-            ):
-                curve.setData([], [])  # fmt: skip
-            self.alerts_model.set_rows([])
+            for item in self.data_items:
+                item.setData([], [])
+            for label in self.labels:
+                label.setText("")
+            self._show_rows(self.alerts_model, [])
             self._count_alerts([])
             return
         self._hour_changed(self.hour.value())  # the date and time follow the plan's start
@@ -491,35 +584,14 @@ class CourseView(QWidget):
             plan, observations, oliguria_ml_per_kg_h=threshold, table=self.session.table
         )
         self._show_observations(observations, result, plan)
-        h = result.hours
-        change = result.change_from_start()
-        self.plasma_curve.setData(h, change["plasma"])
-        self.interstitial_curve.setData(h, change["interstitial"])
-        self.cells_curve.setData(h, change["intracellular"])
-        band = result.na_band()
-        if result.serum_na is not None and band is not None:
-            self.na_curve.setData(h, result.serum_na)
-            self.na_band_low.setData(h, band[0])
-            self.na_band_high.setData(h, band[1])
-        else:
-            for curve in (self.na_curve, self.na_band_low, self.na_band_high):
-                curve.setData([], [])
-        title = "Serum sodium" + (
-            f" (dashed: ±{result.na_max_change_per_h:g} mmol/L per hour from the start)"
-            if result.serum_na is not None
-            else " — enter a serum Na to predict it"
-        )
-        if self.na_plot.titleLabel.text != title:  # setting a title relays out the plot
-            self.na_plot.setTitle(title)
-        self.na_points.setData(*observed_series(observations, "serum_na"))
-        # weights drawn in the species' own unit (a lizard in g), as in the table below
-        if plan.weight_unit != self._plotted_weight_unit:
-            self._plotted_weight_unit = plan.weight_unit
-            self.weight_plot.setLabel("left", f"Weight ({plan.weight_unit})")
-        per_kg = weight_in_unit(1.0, plan.weight_unit)
-        self.weight_curve.setData(h, result.weight_kg * per_kg)
-        hours, weights_kg = observed_series(observations, "weight_kg")
-        self.weight_points.setData(hours, weights_kg * per_kg)
+        self._set_x_range(float(result.hours[-1]))
+        full = [result.plasma_ml, result.interstitial_ml, result.intracellular_ml,
+                result.weight_kg, result.osmolality_mosm_per_kg, result.serum_na,
+                result.serum_k]  # fmt: skip
+        corners = _corners(result.hours, *[a for a in full if a is not None])  # one pass
+        self._draw_water(result, observations, plan, corners)
+        self._draw_urine(result, observations, plan, threshold, corners)
+        self._draw_potassium(result, observations, plan, corners)
         rows = []
         for finding in found:
             rows.append(
@@ -530,10 +602,208 @@ class CourseView(QWidget):
                     Cell(finding.action),
                 ]
             )  # fmt: skip
-        self.alerts_model.set_rows(rows)
+        self._show_rows(self.alerts_model, rows)
         self._count_alerts(found)
         self._show_ins_and_outs(plan, observations)
         self._show_versions(plan)
+
+    # ---- the plots ---------------------------------------------------------------------------
+    def _draw_water(self, result, observations, plan, corners) -> None:  # noqa: ANN001
+        """Body water, serum Na against its correction limit and the species' reference
+        interval, weight (in the species' unit). ``corners``: the grid points to draw."""
+        h = result.hours
+        change = result.change_from_start()
+        per_kg = weight_in_unit(1.0, plan.weight_unit)  # a lizard in g, as in the table below
+        weight = result.weight_kg * per_kg
+        lines = [change["plasma"], change["interstitial"], change["intracellular"], weight]
+        for item, values in zip(
+            (self.plasma_curve, self.interstitial_curve, self.cells_curve, self.weight_curve),
+            lines, strict=True,
+        ):  # fmt: skip
+            item.setData(h, values, corners)
+        self._fit_y(self.volume_plot, lines[:3], headroom=0.1)
+        band = result.na_band()
+        na_h, na_values = observed_series(observations, "serum_na")
+        self.na_points.setData(na_h, na_values)
+        if result.serum_na is not None and band is not None:
+            self.na_curve.setData(h, result.serum_na, corners)
+            ends = [h[0], h[-1]]  # the limits are straight: their two ends draw them
+            self.na_band_low.setData(ends, [band[0][0], band[0][-1]])
+            self.na_band_high.setData(ends, [band[1][0], band[1][-1]])
+            limit = format_number(result.na_max_change_per_h)
+            title = f"{NA_TITLE} (limit ±{limit} mmol/L/h)"
+        else:
+            for item in (self.na_curve, self.na_band_low, self.na_band_high):
+                item.setData([], [])
+            title = f"{NA_TITLE}: enter a Na to predict it"
+        self._set_title(self.na_plot, title)
+        reference = self._draw_reference(
+            "serum_na_mmol_per_l", plan, float(h[-1]), self.na_low, self.na_high, self.na_text
+        )
+        # the limit runs far off over days: the axis follows the Na, the lines leave it
+        shown = [a for a in (result.serum_na, na_values, reference) if a is not None]
+        self._fit_y(self.na_plot, shown, minimum_span=10.0, headroom=0.25)
+        if plan.weight_unit != self._plotted_weight_unit:
+            self._plotted_weight_unit = plan.weight_unit
+            self.weight_plot.setLabel("left", f"Weight ({plan.weight_unit})")
+            self._y_ranges.pop(id(self.weight_plot), None)  # the old range is in the old unit
+        hours, weights_kg = observed_series(observations, "weight_kg")
+        self.weight_points.setData(hours, weights_kg * per_kg)
+        self._fit_y(self.weight_plot, [weight, weights_kg * per_kg],
+                    minimum_span=0.02 * float(weight[0]))  # fmt: skip
+
+    def _draw_urine(self, result, observations, plan, threshold, corners) -> None:  # noqa: ANN001
+        """Urine flow against the oliguria line, measured flows, and the osmolality in its
+        band; nothing predicted after the plan's end (the line stops, and says why)."""
+        weight_kg = plan.request.weight_kg
+        end_h = float(result.hours[-1])
+        flow_h, flow = predicted_flow(result, weight_kg=weight_kg)
+        self.urine_curve.setData(flow_h, flow, _corners(flow_h, flow))
+        starts, ends, measured = measured_flow(observations, plan_weight_kg=weight_kg)
+        self.urine_points.setData(ends, measured, starts=starts)
+        line = oliguria_line(self.session.table, plan.request.species_id,
+                             chosen_ml_per_kg_h=threshold)  # fmt: skip
+        self.urine_note.setText("" if line else "no oliguria threshold on record")
+        if line is None:
+            self.oliguria_curve.setData([], [])
+            self.oliguria_text.setText("")
+        else:
+            self.oliguria_curve.setData([0.0, end_h], [line.ml_per_kg_h] * 2)
+            said = " (chosen)" if line.chosen else (UNVERIFIED if line.value.unverified else "")
+            self.oliguria_text.setText(f"oliguria below {q(line.ml_per_kg_h, 'mL/kg/h')}{said}")
+            self.oliguria_text.setPos(end_h, line.ml_per_kg_h)
+        self._fit_y(self.urine_plot, [flow, measured, [line.ml_per_kg_h] if line else []],
+                    zero=True, headroom=0.3)  # fmt: skip
+        if line is None and id(self.urine_plot) in self._y_ranges:
+            self.urine_note.setPos(end_h, self._y_ranges[id(self.urine_plot)][1])
+        osm_h, osm = predicted_osmolality(result)
+        self.osm_curve.setData(osm_h, osm, _corners(osm_h, osm))
+        self.plasma_osm_curve.setData(result.hours, result.osmolality_mosm_per_kg, corners)
+        band = result.urine_band_mosm_per_kg
+        if band is None:
+            for item in (self.ceiling_curve, self.floor_curve):
+                item.setData([], [])
+            self.ceiling_text.setText("")
+            self.floor_text.setText("")
+            self.floor_text_below.setText("")
+        else:
+            floor, ceiling = band
+            self.floor_curve.setData([0.0, end_h], [floor, floor])
+            self.ceiling_curve.setData([0.0, end_h], [ceiling, ceiling])
+            floor_recalled, ceiling_recalled = band_unverified(result)
+            narrowed = plan.request.renal_disease  # the title says so; the ends are derived
+            self.ceiling_text.setText(
+                f"concentrating ceiling {q(ceiling, 'mOsm/kg')}"
+                + (UNVERIFIED if ceiling_recalled and not narrowed else "")
+            )
+            self.ceiling_text.setPos(end_h, ceiling)
+            # the floor's words above it, unless the band is narrow: then under it
+            floor_words = f"diluting floor {q(floor, 'mOsm/kg')}" + (
+                UNVERIFIED if floor_recalled and not narrowed else ""
+            )  # fmt: skip
+            under = floor > 0.2 * ceiling
+            self.floor_text.setText("" if under else floor_words)
+            self.floor_text_below.setText(floor_words if under else "")
+            (self.floor_text_below if under else self.floor_text).setPos(end_h, floor)
+        self._fit_y(self.osm_plot, [osm, result.osmolality_mosm_per_kg, band or []],
+                    zero=True, headroom=0.2)  # fmt: skip
+        # why the urine lines stop: outputs are predicted while the plan runs
+        stops = len(flow_h) > 0 and result.outputs_end_h < end_h - 1e-9
+        for label, hours, values in ((self.urine_end_text, flow_h, flow),
+                                     (self.osm_end_text, osm_h, osm)):  # fmt: skip
+            label.setText("plan ends: no urine predicted after" if stops else "")
+            if stops:
+                label.setPos(float(hours[-1]), float(values[-1]))
+        if len(flow_h) == 0:
+            why = "ins and outs" if plan.request.ins_and_outs_period_h is not None else (
+                "no kidney values"
+            )  # fmt: skip
+            self._set_title(self.urine_plot, f"{URINE_TITLE}: not predicted ({why})")
+            self._set_title(self.osm_plot, f"{OSMOLALITY_TITLE}: not predicted")
+        else:
+            self._set_title(self.urine_plot, URINE_TITLE)
+            self._set_title(
+                self.osm_plot,
+                f"{OSMOLALITY_TITLE}, band narrowed (renal)"
+                if plan.request.renal_disease and result.urine_band_mosm_per_kg is not None
+                else f"{OSMOLALITY_TITLE} in the species' band",
+            )
+
+    def _draw_potassium(self, result, observations, plan, corners) -> None:  # noqa: ANN001
+        """Serum K (when one was entered) against the species' reference interval."""
+        h = result.hours
+        if result.serum_k is not None:
+            self.k_curve.setData(h, result.serum_k, corners)
+            self._set_title(self.k_plot, K_TITLE)
+        else:
+            self.k_curve.setData([], [])
+            self._set_title(self.k_plot, f"{K_TITLE}: enter a K to predict it")
+        k_h, k_values = observed_series(observations, "serum_k")
+        self.k_points.setData(k_h, k_values)
+        reference = self._draw_reference(
+            "serum_k_mmol_per_l", plan, float(h[-1]), self.k_low, self.k_high, self.k_text
+        )
+        shown = [a for a in (result.serum_k, k_values, reference) if a is not None]
+        self._fit_y(self.k_plot, shown, minimum_span=2.0, headroom=0.25)
+
+    def _draw_reference(self, parameter, plan, end_h, low_line, high_line, label):  # noqa: ANN001, ANN202
+        """The species' reference interval of ``parameter`` as two lines, its range in
+        words over the upper one (unverified when recalled); the (low, high) drawn, or None."""
+        normal = self.session.table.get(plan.request.species_id, parameter)
+        if normal is None or normal.low is None or normal.high is None:
+            low_line.setData([], [])
+            high_line.setData([], [])
+            label.setText("")
+            return None
+        low, high = normal.low, normal.high
+        low_line.setData([0.0, end_h], [low, low])
+        high_line.setData([0.0, end_h], [high, high])
+        label.setText(  # the legend names the line "Reference"
+            f"{format_number(low)}–{q(high, normal.unit)}"
+            + (UNVERIFIED if normal.unverified else "")
+        )
+        label.setPos(end_h, high)
+        return (low, high)
+
+    def _set_title(self, plot, text: str) -> None:  # noqa: ANN001 — PlotItem
+        if plot.titleLabel.text != text:  # setting a title relays out the plot
+            colour = self.palette().color(QPalette.ColorRole.Text).name()
+            plot.setTitle(text, color=colour, size="9pt")
+
+    def _set_x_range(self, end_h: float) -> None:
+        if self._x_end != end_h:
+            self._x_end = end_h
+            margin = X_MARGIN_FRACTION * end_h
+            self.volume_plot.setLimits(xMin=-margin, xMax=end_h + margin)
+            self.volume_plot.setXRange(-margin, end_h + margin, padding=0.0)
+
+    def _fit_y(self, plot, series, *, zero: bool = False, headroom: float = 0.15,
+               minimum_span: float = 0.0) -> None:  # noqa: ANN001 — PlotItem, arrays  # fmt: skip
+        """Show every value of ``series`` on round bounds (from zero with ``zero``), with
+        ``headroom`` above for the labels. The axis holds still while the values stay
+        inside it and it is not more than twice as wide as a fresh fit: an edit typed digit
+        by digit does not make it jump, nor redraw its text, at every keystroke."""
+        values = [float(f(a)) for a in series if len(a) for f in (np.min, np.max)]
+        if not values:
+            return
+        low, high = (0.0 if zero else min(values)), max(values)
+        if high - low < minimum_span:
+            middle = (high + low) / 2
+            low, high = middle - minimum_span / 2, middle + minimum_span / 2
+        span = (high - low) or abs(high) or 1.0
+        step = nice_ceiling(span / 4)
+        top = math.ceil((high + headroom * span) / step) * step
+        bottom = -0.06 * top if zero else math.floor((low - 0.05 * span) / step) * step
+        shown = self._y_ranges.get(id(plot))
+        if (
+            shown is not None
+            and shown[0] <= min(bottom + step, low)
+            and shown[1] >= high + headroom * span
+            and shown[1] - shown[0] <= 2 * (top - bottom)
+        ):
+            return
+        self._y_ranges[id(plot)] = (bottom, top)
+        plot.setYRange(bottom, top, padding=0.0)
 
     def _count_alerts(self, found) -> None:  # noqa: ANN001 — Finding sequence
         """The Alerts tab's label: how many alerts wait, by severity, worst first."""
@@ -542,8 +812,17 @@ class CourseView(QWidget):
         marks = ", ".join(f"{n} {SEVERITY_MARKS[s]}" for s, n in present)
         words = ", ".join(f"{n} × {SEVERITY_WORDS[s].lower()}" for s, n in present)
         index = self.tables.indexOf(self.alerts_page)
-        self.tables.setTabText(index, f"&Alerts ({marks or 'none'})")
+        text = f"&Alerts ({marks or 'none'})"
+        if self.tables.tabText(index) != text:  # a new tab text lays the tab bar out again
+            self.tables.setTabText(index, text)
         self.tables.setTabToolTip(index, f"Alerts: {words}" if words else "No alerts")
+
+    def _show_rows(self, model: RowsModel, rows: list[list[Cell]]) -> None:
+        """New rows for a table, unless they are the rows it shows: resetting a model lays
+        its view out again (and drops the selection), which was half of an edit's redraw."""
+        if self._shown_rows.get(id(model)) != rows:
+            self._shown_rows[id(model)] = rows
+            model.set_rows(rows)
 
     def _show_ins_and_outs(self, plan, observations) -> None:  # noqa: ANN001
         period = plan.request.ins_and_outs_period_h
@@ -560,7 +839,7 @@ class CourseView(QWidget):
             plan.request.species_id, "insensible_loss_ml_per_kg_day"
         )
         if insensible is None:
-            self.ins_outs_model.set_rows(
+            self._show_rows(self.ins_outs_model,
                 [[Cell("—"), Cell("no insensible loss on record for this species")]
                  + [Cell("")] * 5]
             )  # fmt: skip
@@ -581,9 +860,9 @@ class CourseView(QWidget):
                 if urine_recorded
                 else "nothing measured yet: the first period gives insensible loss"
             )
-            self.ins_outs_model.set_rows([[Cell("—"), Cell(said)] + [Cell("")] * 5])
+            self._show_rows(self.ins_outs_model, [[Cell("—"), Cell(said)] + [Cell("")] * 5])
             return
-        self.ins_outs_model.set_rows(
+        self._show_rows(self.ins_outs_model,
             [
                 [Cell(str(r.period)), Cell(f"{r.start_h:g}–{r.end_h:g}"), Cell(q(r.urine_ml, "mL")),
                  Cell(q(r.other_losses_ml, "mL")), Cell(q(r.insensible_ml, "mL")),
@@ -603,7 +882,7 @@ class CourseView(QWidget):
             earlier = self._earlier_plans[request]
             rows.append(self._version_row(number, earlier, "earlier, kept"))
         rows.append(self._version_row(len(self.session.versions) + 1, plan, "current"))
-        self.versions_model.set_rows(rows)
+        self._show_rows(self.versions_model, rows)
 
     @staticmethod
     def _version_row(number: int, plan, status: str) -> list[Cell]:  # noqa: ANN001
@@ -658,5 +937,5 @@ class CourseView(QWidget):
                 expected = "—" if predicted is None else q(predicted, unit)
                 rows.append([Cell(self._when(obs.hour)), Cell(label), Cell(shown), Cell(expected)])
                 self._observation_rows.append(number)
-        self.observations_model.set_rows(rows)
+        self._show_rows(self.observations_model, rows)
         self._observation_selected()

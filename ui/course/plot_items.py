@@ -16,6 +16,9 @@ the axes stay small.
 pyqtgraph's text item is a whole text document, laid out again on every change and
 re-transformed on every repaint. A :class:`PlotLabel` is one line laid out once per
 change and drawn unscaled at its point.
+
+Measured values are :class:`Markers`: a handful of symbols (and the periods they were
+measured over) drawn in device pixels, with no scatter machinery behind them.
 """
 
 from __future__ import annotations
@@ -68,6 +71,37 @@ def turning_mask(x: np.ndarray, *lines: np.ndarray) -> np.ndarray:
     straight |= lengths == 0
     keep[1:-1] = ~straight.all(axis=0)
     return keep
+
+
+def thin(
+    x: np.ndarray, keep: np.ndarray, *lines: np.ndarray, points: int = 150, sharp: float = 0.1
+) -> np.ndarray:
+    """Of the points ``keep`` marks (:func:`turning_mask`), about ``points`` evenly spaced
+    by index, both ends, and each point where some line bends by more than ``sharp`` rad
+    (axes scaled to their range): a bolus or a phase change keeps its corner.
+
+    A smooth line turns a little at every point, so :func:`turning_mask` keeps them all:
+    a 36-hour course is 433 points, a 14-day one 4033, on a plot a few hundred pixels
+    wide, and drawing costs by the segment (a smooth line was most of a Course tab
+    redraw). Every second pixel or so is enough for a slow curve; the error of a chord
+    over a few pixels of a gentle bend is far below a pixel."""
+    kept = np.flatnonzero(keep)
+    if len(kept) <= points or not lines:
+        return keep
+    ys = np.array([line[kept] for line in lines], dtype=float)
+    spans = np.ptp(ys, axis=1)
+    spans[spans == 0] = 1.0
+    xs = x[kept]
+    dx = np.diff(xs) / ((xs[-1] - xs[0]) or 1.0)
+    angles = np.arctan2(np.diff(ys, axis=1) / spans[:, None], dx)
+    bend = np.abs((np.diff(angles, axis=1) + np.pi) % (2 * np.pi) - np.pi).max(axis=0)
+    chosen = np.zeros(len(kept), dtype=bool)
+    chosen[:: max(1, int(np.ceil(len(kept) / points)))] = True
+    chosen[[0, -1]] = True
+    chosen[1:-1] |= bend > sharp  # a jump bends at both its ends: both are kept
+    result = np.zeros_like(keep)
+    result[kept[chosen]] = True
+    return result
 
 
 def step_changes(y: np.ndarray) -> np.ndarray:
@@ -327,15 +361,16 @@ def _pixel_rect(line: QLineF) -> QRect:
 
 
 class PlotLabel(pg.GraphicsObject):
-    """One line of text above and left of its position (in data units), ``MARGIN_PX`` clear
-    of it so a line drawn through the position stays readable; drawn in pixels, so it
-    keeps its size however the plot is scaled."""
+    """One line of text above and left of its position (in data units), or below and left
+    with ``below=True``, ``MARGIN_PX`` clear of it so a line drawn through the position
+    stays readable; drawn in pixels, so it keeps its size however the plot is scaled."""
 
     MARGIN_PX = 4.0
 
-    def __init__(self, colour: str) -> None:
+    def __init__(self, colour: str, *, below: bool = False) -> None:
         super().__init__()
         self.setFlag(self.GraphicsItemFlag.ItemIgnoresTransformations)
+        self._below = below
         self._colour = QColor(colour)
         self._font = QFont()
         self._text = QStaticText()
@@ -354,7 +389,7 @@ class PlotLabel(pg.GraphicsObject):
         self._text.prepare(QTransform(), self._font)
         size = self._text.size()
         width, height = size.width() + self.MARGIN_PX, size.height() + self.MARGIN_PX
-        self._rect = QRectF(-width, -height, width, height)
+        self._rect = QRectF(-width, 0.0 if self._below else -height, width, height)
         self.update()
 
     def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
@@ -364,7 +399,121 @@ class PlotLabel(pg.GraphicsObject):
         if self._text.text():
             painter.setFont(self._font)
             painter.setPen(self._colour)
-            painter.drawStaticText(QPointF(self._rect.left(), self._rect.top()), self._text)
+            top = self._rect.top() + (self.MARGIN_PX if self._below else 0.0)
+            painter.drawStaticText(QPointF(self._rect.left(), top), self._text)
+
+
+class Markers(pg.GraphicsObject):
+    """Measured values: a filled symbol (``"o"`` circle, ``"s"`` square) of ``size`` pixels
+    at each (x, y) and, where ``starts`` are given, a line from each start to its x at its
+    y (a value measured over a period, such as urine collected over hours).
+
+    The points are few (what a nurse recorded), so they are drawn one by one in device
+    pixels, unscaled; the bounds are built in ``setData``. ``opts`` carries the symbol,
+    size, pen and brush under pyqtgraph's keys, which the legend samples read.
+    """
+
+    def __init__(
+        self, *, name: str | None, colour: str, symbol: str = "o", size: float = 9.0
+    ) -> None:
+        super().__init__()
+        if symbol not in ("o", "s"):
+            raise ValueError(f"unknown symbol {symbol!r}")
+        outline = QPen(QColor(colour).darker(140), 1.0)
+        outline.setCosmetic(True)
+        span = QPen(QColor(colour), 2.0)
+        span.setCosmetic(True)
+        span.setCapStyle(Qt.PenCapStyle.FlatCap)
+        self.opts = {"name": name, "pen": outline, "brush": QBrush(QColor(colour)),
+                     "symbol": symbol, "size": size, "span_pen": span}  # fmt: skip
+        self._x = np.zeros(0)
+        self._y = np.zeros(0)
+        self._starts = np.zeros(0)
+        self._points: list[QPointF] = []
+        self._spans = QPolygonF()  # point pairs: start, end
+        self._bounds = QRectF()
+        self._pad: tuple[float, float] | None = None
+
+    def implements(self, interface: str | None = None) -> bool | list[str]:
+        return ["plotData"] if interface is None else interface == "plotData"
+
+    def name(self) -> str | None:
+        return self.opts["name"]
+
+    def getData(self) -> tuple[np.ndarray, np.ndarray]:  # noqa: N802 (pyqtgraph's name)
+        return self._x, self._y
+
+    def spans(self) -> np.ndarray:
+        """The start of each point's period (its own x where none was given)."""
+        return self._starts
+
+    def setData(self, x, y, starts=None) -> None:  # noqa: N802, ANN001
+        self._x = np.asarray(x, dtype=float)
+        self._y = np.asarray(y, dtype=float)
+        self._starts = self._x if starts is None else np.asarray(starts, dtype=float)
+        xs, ys, ss = self._x.tolist(), self._y.tolist(), self._starts.tolist()
+        self._points = [QPointF(a, b) for a, b in zip(xs, ys, strict=True)]
+        self._spans = QPolygonF(
+            [p for s, a, b in zip(ss, xs, ys, strict=True) if s != a
+             for p in (QPointF(s, b), QPointF(a, b))]
+        )  # fmt: skip
+        self.prepareGeometryChange()
+        if xs:
+            left, bottom = min(ss + xs), min(ys)
+            self._bounds = QRectF(left, bottom, max(xs) - left, max(ys) - bottom)
+        else:
+            self._bounds = QRectF()
+        self._pad = None
+        self.update()
+
+    def dataBounds(self, ax: int, frac: float = 1.0, orthoRange=None):  # noqa: N802, ANN001
+        if len(self._x) == 0:
+            return None, None
+        if ax == 0:
+            return self._bounds.left(), self._bounds.right()
+        return self._bounds.top(), self._bounds.bottom()
+
+    def pixelPadding(self) -> float:  # noqa: N802 (pyqtgraph's name)
+        return self.opts["size"] / 2 + 1
+
+    def viewTransformChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
+        self.prepareGeometryChange()
+        self._pad = None
+
+    def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
+        if self._pad is None:
+            px, py = self.pixelVectors()
+            if px is None or py is None:
+                return self._bounds
+            edge = self.pixelPadding()
+            self._pad = (edge * abs(px.x()), edge * abs(py.y()))
+        dx, dy = self._pad
+        return self._bounds.adjusted(-dx, -dy, dx, dy)
+
+    @staticmethod
+    def draw_symbol(painter: QPainter, centre: QPointF, opts: dict) -> None:
+        """One symbol of ``opts`` centred on ``centre`` (device pixels); the legend's too."""
+        half = opts["size"] / 2
+        painter.setPen(opts["pen"])
+        painter.setBrush(opts["brush"])
+        if opts["symbol"] == "s":
+            painter.drawRect(QRectF(centre.x() - half, centre.y() - half, 2 * half, 2 * half))
+        else:
+            painter.drawEllipse(centre, half, half)
+
+    def paint(self, painter: QPainter, *_: object) -> None:
+        if not self._points:
+            return
+        transform = painter.transform()
+        painter.resetTransform()  # unscaled symbols, in device pixels
+        if not self._spans.isEmpty():
+            painter.setRenderHint(QPainter.RenderHint.Antialiasing, False)  # level lines
+            painter.setPen(self.opts["span_pen"])
+            painter.drawLines(transform.map(self._spans))
+        painter.setRenderHint(QPainter.RenderHint.Antialiasing, True)
+        for point in self._points:
+            self.draw_symbol(painter, transform.map(point), self.opts)
+        painter.setTransform(transform)
 
 
 class PlotAxis(pg.AxisItem):

@@ -22,7 +22,7 @@ from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
-from ui.course.plot_items import PlotAxis, PlotLabel, TickGrid, Trace, turning_mask
+from ui.course.plot_items import Markers, PlotAxis, PlotLabel, TickGrid, Trace, turning_mask
 from vetfluid.common.formatting import format_number, format_quantity
 from vetfluid.common.units import weight_in_unit
 from vetfluid.course.timeline import Timeline, tick_labels, timeline, values_at
@@ -197,7 +197,8 @@ class HourClockAxis(PlotAxis):
 
 
 class LineSample(pg.ItemSample):
-    """Legend sample showing a curve's line style (dash pattern) without its fill."""
+    """Legend sample showing a curve's line style (dash pattern) without its fill, or a
+    :class:`Markers` item's symbol on a short line (a value measured over a period)."""
 
     WIDTH = 34
 
@@ -213,7 +214,13 @@ class LineSample(pg.ItemSample):
             super().paint(p, *args)  # pyqtgraph's hidden-curve eye
             return
         p.setRenderHint(QPainter.RenderHint.Antialiasing)
-        p.setPen(pg.mkPen(self.item.opts["pen"]))
+        opts = self.item.opts
+        if isinstance(self.item, Markers):
+            p.setPen(opts["span_pen"])
+            p.drawLine(QPointF(6, 11), QPointF(self.WIDTH / 2, 11))
+            Markers.draw_symbol(p, QPointF(self.WIDTH / 2, 11), opts)
+            return
+        p.setPen(pg.mkPen(opts["pen"]))
         p.drawLine(QPointF(1, 11), QPointF(self.WIDTH - 1, 11))
 
 
