@@ -53,8 +53,12 @@ def test_every_value_has_a_valid_basis_and_published_values_cite_a_known_source(
 
 def test_every_source_has_a_citation_and_is_cited_somewhere(table):
     data_files = ("parameters.csv", "fluids.csv", "potassium_scale.csv", "safety_limits.csv",
-                  "dehydration_findings.csv", "fluid_roles.csv", "route_limits.csv")  # fmt: skip
-    used = {r["source_id"] for name in data_files for r in _rows(name)}
+                  "dehydration_findings.csv", "fluid_roles.csv", "route_limits.csv",
+                  "diuretics.csv")  # fmt: skip
+    used = {  # every column naming a source: source_id, dose_source_id, times_source_id
+        cell for name in data_files for r in _rows(name)
+        for column, cell in r.items() if column.endswith("source_id")
+    }  # fmt: skip
     code = " ".join(
         p.read_text(encoding="utf-8") for p in Path(DATA.parent, "vetfluid").rglob("*.py")
     )

@@ -84,6 +84,57 @@ def _measured(
     return tuple(zip(urine, other or (0.0,) * len(urine), strict=True))
 
 
+def _diuretic_hours(text: str) -> tuple[float, ...]:
+    from vetfluid.common.units import read_number
+
+    try:
+        hours = tuple(read_number(part) for part in text.split(",") if part.strip())
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(
+            f"{text!r} must be hours separated by commas, e.g. 0,8,16 ({exc.message})"
+        ) from None
+    if not hours:
+        raise argparse.ArgumentTypeError(f"{text!r} must be hours separated by commas, e.g. 0,8")
+    return hours
+
+
+def _diuretics(args: argparse.Namespace) -> tuple[tuple[str, float, str, float, float], ...]:
+    """The diuretic options as the request's doses: one dose at each hour of --diuretic-at,
+    or an infusion from its first to its second hour. The route of a dose is the table's
+    only one for the drug, else IV (a furosemide injection)."""
+    drug, dose, rate, hours = args.diuretic, args.diuretic_dose, args.diuretic_cri, args.diuretic_at
+    if drug is None:
+        typed = (("--diuretic-dose", dose), ("--diuretic-cri", rate), ("--diuretic-at", hours))
+        given = [flag for flag, value in typed if value is not None]
+        if given:
+            raise InputError(
+                f"{', '.join(given)} needs --diuretic ID", field="--diuretic", value=None,
+                fix="name the drug, e.g. --diuretic furosemide",
+            )  # fmt: skip
+        return ()
+    if (dose is None) == (rate is None):
+        raise InputError(
+            "give the dose each time (--diuretic-dose) or an infusion rate (--diuretic-cri)",
+            field="--diuretic-dose", value=None,
+            fix="e.g. --diuretic-dose 2 --diuretic-at 0,8 (mg/kg; mannitol g/kg)",
+        )  # fmt: skip
+    if hours is None:
+        raise InputError("give the hours it is given at", field="--diuretic-at", value=None,
+                         fix="e.g. --diuretic-at 0,8,16 (an infusion: START,END)")  # fmt: skip
+    if rate is not None:
+        if len(hours) != 2:
+            raise InputError(
+                "an infusion runs from one hour to another", field="--diuretic-at", value=None,
+                fix="give START,END with --diuretic-cri, e.g. --diuretic-at 2,10",
+            )  # fmt: skip
+        return ((drug, rate, "cri", hours[0], hours[1]),)
+    from vetfluid.tables.diuretics import drug as find_drug
+
+    routes = [r for r in find_drug(drug).routes if r != "cri"]
+    route = routes[0] if len(routes) == 1 else "iv"
+    return tuple((drug, dose, route, h, h) for h in hours)
+
+
 def _start_date(text: str) -> date:
     try:
         return date.fromisoformat(text)
@@ -152,6 +203,41 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
         default=(),
         metavar="V1,V2,…",
         help="other measured losses (vomit, diarrhoea, drains) per period, mL",
+    )
+    add(
+        "--loss-type",
+        help="what the ongoing losses are: isotonic (the default, when not "
+        "known), vomitus, diarrhoea, polyuria or drain",
+    )
+    add(
+        "--renal-output",
+        choices=("oliguric", "polyuric"),
+        help="with --renal: how the diseased kidney behaves in the course",
+    )
+    add(
+        "--diuretic",
+        metavar="ID",
+        help="a diuretic: furosemide, hydrochlorothiazide, "
+        "spironolactone, mannitol or acetazolamide (doses: species_data/diuretics.csv)",
+    )
+    add(
+        "--diuretic-dose",
+        type=_number,
+        metavar="X",
+        help="the diuretic's dose each time: mg/kg (mannitol: g/kg)",
+    )
+    add(
+        "--diuretic-at",
+        type=_diuretic_hours,
+        metavar="H1,H2,…",
+        help="hours on the plan's clock it is given at (with --diuretic-cri: START,END)",
+    )
+    add(
+        "--diuretic-cri",
+        type=_number,
+        metavar="RATE",
+        help="furosemide as a constant-rate infusion instead, mg/kg/h, from START to END "
+        "of --diuretic-at",
     )
     add("--max-na-change", type=_number, help="maximum Na change, mmol/L/h")
     add("--syringe-ml", type=_number, default=60.0, help="syringe size, mL")
@@ -370,6 +456,9 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         syringe_size_ml=args.syringe_ml,
         pcv_percent=args.pcv,
         total_solids_g_per_dl=args.ts,
+        diuretics=_diuretics(args),
+        loss_type=args.loss_type or "isotonic",
+        renal_output=args.renal_output,
     )
 
 
@@ -630,6 +719,7 @@ def cmd_course(args: argparse.Namespace) -> int:
     from vetfluid.common.units import weight_text
     from vetfluid.course.model import MAX_HORIZON_H, SHOWN_STEP_MINUTES, bolus_input, course
     from vetfluid.planning.plan import build_plan
+    from vetfluid.records.serialize import diuretic_dict
 
     hours = _hours(args.at)
     if args.horizon_h is not None:
@@ -663,6 +753,8 @@ def cmd_course(args: argparse.Namespace) -> int:
         "urine_predicted_until_h": result.outputs_end_h,
         "excess_excretion_modelled": result.excess_excretion_left_out is None,
         "excess_excretion_left_out_for": result.excess_excretion_left_out,
+        "diuretics": [diuretic_dict(d) for d in plan.diuretics],
+        "diuretics_not_modelled": list(result.diuretics_not_modelled),
         "provenance": [v.provenance() for v in result.provenance],
         "findings": [f.as_dict() for f in plan.findings],
         "cautions": list(CAUTIONS),
@@ -689,6 +781,11 @@ def cmd_course(args: argparse.Namespace) -> int:
         if result.excess_excretion_left_out:
             print("The kidneys' excretion of a fluid excess is left out: "
                   f"{result.excess_excretion_left_out}.")  # fmt: skip
+        for dose in plan.diuretics:
+            print(f"Diuretic at hour {format_number(dose.start_h)}: {diuretic_dict(dose)['text']}")
+        if result.diuretics_not_modelled:
+            print("Not shown in the course (no onset and duration on record): "
+                  f"{'; '.join(result.diuretics_not_modelled)}.")  # fmt: skip
         print("\nFindings of the plan")
         _print_findings(data["findings"])
         print("\n" + _cautions_text())

@@ -38,10 +38,10 @@ from vetfluid.common.findings import Finding
 from vetfluid.course.observations import Observation, alerts
 from vetfluid.physiology import delivery, electrolytes, kidney, maintenance
 from vetfluid.physiology.hydration import body_water_fraction
-from vetfluid.planning.plan import Plan
-from vetfluid.planning.safety import LINE_ROUTES
-from vetfluid.planning.schedule import Phase
-from vetfluid.tables import fluid_roles, fluids
+from vetfluid.planning.plan import RENAL_OUTPUTS, Plan
+from vetfluid.planning.safety import LINE_ROUTES, diuretic_effect_modelled
+from vetfluid.planning.schedule import DiureticDose, Phase
+from vetfluid.tables import diuretics, fluid_roles, fluids
 from vetfluid.tables.limits import limit
 from vetfluid.tables.species import SpeciesTable, SpeciesValue, load_table
 
@@ -79,6 +79,9 @@ class Course:
     # after the plan's last phase the patient's own intake is taken to match its losses, so
     # urine flow and osmolality are predicted only up to this hour
     outputs_end_h: float
+    na_excreted_mmol: np.ndarray | None = None  # urine Na, cumulative (None: no kidney)
+    k_excreted_mmol: np.ndarray | None = None  # urine K, cumulative
+    diuretics_not_modelled: tuple[str, ...] = ()  # doses whose effect the course leaves out
 
     def predicted(self, field: str, hour: float) -> float | None:
         """The model's value of an observable (weight_kg, serum_na, pcv_percent,
@@ -317,7 +320,78 @@ def _dilution(
     return pcv, solids
 
 
-RENAL_OUTPUTS = ("oliguric", "polyuric")
+MANNITOL_FLUID_NAME = "mannitol 20 %"
+
+
+def _profile_steps(row: diuretics.DiureticRow, step_h: float) -> np.ndarray:
+    """One dose's effect profile sampled on the grid's step (kidney.effect_profile)."""
+    count = math.ceil((row.duration_h or 0.0) / step_h) + 1
+    return np.asarray(
+        kidney.effect_profile(
+            onset_h=row.onset_h,
+            peak_h=row.peak_h or 0.0,
+            duration_h=row.duration_h or 0.0,
+            hours=[k * step_h for k in range(count)],
+        )  # fmt: skip
+    )
+
+
+def _diuretic_action(
+    plan: Plan, table: SpeciesTable, hours: np.ndarray, step_h: float
+) -> tuple[dict[str, np.ndarray], list[_Input], tuple[str, ...]]:
+    """Each class's intensity at each grid point, mannitol as the infusions it is given as,
+    and the doses whose effect is left out (no onset and duration on record).
+
+    A dose's exposure is its dose ÷ the reference dose (the low end of the range on record
+    for the route; an infusion's, an IV dose's) along its effect profile; an infusion is a
+    stream of IV doses, one per step. The exposures of a class add up, and the class acts
+    at :func:`kidney.intensity` of the sum (docs/model.md, "Diuretics")."""
+    sid, n = plan.request.species_id, len(hours)
+    impulses: dict[tuple, np.ndarray] = {}
+    rows_of: dict[tuple, diuretics.DiureticRow] = {}
+    mannitol: list[_Input] = []
+    left_out: list[str] = []
+    for dose in plan.diuretics:
+        if not diuretic_effect_modelled(table, sid, dose):
+            left_out.append(_dose_name(dose))
+            continue
+        if dose.drug_class == "osmotic":
+            mannitol.append(_mannitol_input(dose))
+            continue
+        route = "iv" if dose.infusion else dose.route
+        row = diuretics.timing(table, sid, dose.drug_id, route)
+        reference = min(r.dose_low for r in diuretics.rows_for(table, sid, dose.drug_id, route))
+        key = (dose.drug_class, row.onset_h, row.peak_h, row.duration_h)
+        rows_of[key] = row
+        impulse = impulses.setdefault(key, np.zeros(n))
+        first = int(np.searchsorted(hours, dose.start_h - 1e-9))
+        if dose.infusion:  # a stream of IV doses, one per step
+            last = int(np.searchsorted(hours, dose.end_h - 1e-9))
+            impulse[first:last] += dose.dose * step_h / reference
+        elif first < n:
+            impulse[first] += dose.dose / reference
+    exposure: dict[str, np.ndarray] = {}
+    for key, impulse in impulses.items():
+        acting = np.convolve(impulse, _profile_steps(rows_of[key], step_h))[:n]
+        exposure[key[0]] = exposure.get(key[0], np.zeros(n)) + acting
+    intensities = {name: kidney.intensity(e) for name, e in exposure.items()}
+    return intensities, mannitol, tuple(left_out)
+
+
+def _dose_name(dose: DiureticDose) -> str:
+    return f"{dose.name} {dose.dose:g} {dose.unit} at hour {dose.start_h:g}"
+
+
+def _mannitol_input(dose: DiureticDose) -> _Input:
+    """Mannitol as given: 20 % into the plasma over 20 min (kidney.MANNITOL_G_PER_L,
+    kidney.MANNITOL_MINUTES); its osmoles are effective in the ECF (it stays outside cells)."""
+    molar_mass = diuretics.drug(dose.drug_id).molar_mass_g_per_mol or math.nan
+    return _Input(
+        dose.start_h, dose.start_h + kidney.MANNITOL_MINUTES / 60.0,
+        dose.amount / kidney.MANNITOL_G_PER_L * 1000.0,  # the amount is in g
+        effective_mosm_per_l=kidney.MANNITOL_G_PER_L / molar_mass * 1000.0,
+        na_mmol_per_l=0.0, k_mmol_per_l=0.0, into_plasma=True, fluid_name=MANNITOL_FLUID_NAME,
+    )  # fmt: skip
 
 
 def _kidney_settings(
@@ -391,7 +465,7 @@ def course(
     horizon_h: float | None = None,
     extra_boluses: tuple[_Input, ...] = (),
     table: SpeciesTable | None = None,
-    loss_type: str = electrolytes.DEFAULT_LOSS_TYPE,
+    loss_type: str | None = None,
     renal_output: str | None = None,
 ) -> Course:
     """Simulate a plan (plus optional extra boluses) on a regular grid; see module docstring.
@@ -400,9 +474,13 @@ def course(
     (:data:`vetfluid.physiology.electrolytes.LOSS_TYPES`; isotonic when unknown).
     ``renal_output`` says how a diseased kidney behaves: "oliguric" (urine held under the
     species' oliguria threshold), "polyuric" (it still excretes an excess), or None (the
-    excretion of an excess is left out, erring towards overload)."""
+    excretion of an excess is left out, erring towards overload). Both are the request's
+    (``PlanRequest.loss_type``, ``PlanRequest.renal_output``) unless given here. The
+    request's diuretics act on the kidney (docs/model.md, "Diuretics")."""
     table = table or load_table()
     require_number(step_minutes, "step_minutes", positive=True, high=60, unit="min")
+    loss_type = plan.request.loss_type if loss_type is None else loss_type
+    renal_output = plan.request.renal_output if renal_output is None else renal_output
     losses = electrolytes.loss_composition(loss_type)
     if renal_output is not None and renal_output not in RENAL_OUTPUTS:
         raise InputError(f"unknown renal output {renal_output!r}", field="renal_output",
@@ -443,7 +521,12 @@ def course(
 
     step_h = step_minutes / 60.0
     hours = np.arange(0.0, horizon + 1e-9, step_h)
-    inputs = _inputs(plan, list(extra_boluses))
+    intensities, mannitol_inputs, left_out_doses = _diuretic_action(plan, table, hours, step_h)
+    if request.ins_and_outs_period_h is not None and plan.diuretics:
+        # no kidney is modelled (the urine is measured), so no diuretic acts in the course
+        left_out_doses = tuple(_dose_name(d) for d in plan.diuretics)
+        intensities, mannitol_inputs = {}, []
+    inputs = _inputs(plan, list(extra_boluses) + mannitol_inputs)
     given = np.zeros_like(hours)
     by_fluid: dict[str, np.ndarray] = {}
     water_in = np.zeros_like(hours)  # what has reached the body water (SC: as absorbed)
@@ -461,6 +544,11 @@ def course(
         _add_cumulative(ecf_osm_in, hours, body, ecf_share / 1000.0)
     for delivered in by_fluid.values():
         given += delivered
+    mannitol_in = None
+    if mannitol_inputs:
+        mannitol_in = np.zeros_like(hours)
+        for item in mannitol_inputs:
+            _add_cumulative(mannitol_in, hours, item.absorbed(), item.effective_mosm_per_l / 1000.0)
 
     settings, left_out, kidney_values = _kidney_settings(plan, table, na0=na0,
                                                          renal_output=renal_output)  # fmt: skip
@@ -488,6 +576,7 @@ def course(
         loss_na_k_mmol_per_ml=loss_na_k, loss_k_mmol_per_ml=loss_k, tbw0_ml=tbw0,
         ecf0_ml=ecf0, ecf_ref_ml=ecf0 + plan.deficit_ml, osmolality0=osm0, na0=na0, k0=k0,
         kidney=settings, basal_steps=int(np.searchsorted(hours, end - 1e-9)),
+        drugs=_drugs(intensities, mannitol_in, len(hours), step_h),
     )  # fmt: skip
     tbw = np.asarray(balance.tbw_ml)
     ecf_osm, icf_osm = np.asarray(balance.ecf_osm), np.asarray(balance.icf_osm)
@@ -505,6 +594,8 @@ def course(
     serum_na = None
     if request.serum_na is not None:
         serum_na = np.asarray(balance.na_k_mmol) * 1000.0 / tbw
+        if balance.mannitol_mosm is not None:  # the ECF's osmoles that are not Na salts
+            serum_na = serum_na * (ecf_osm - np.asarray(balance.mannitol_mosm)) / ecf_osm
     serum_k = None
     if request.serum_k is not None:
         k_pool = np.asarray(balance.k_mmol)
@@ -539,7 +630,22 @@ def course(
         provenance=provenance,
         excess_excretion_left_out=left_out,
         outputs_end_h=end,
+        na_excreted_mmol=None if settings is None else np.asarray(balance.na_excreted_mmol),
+        k_excreted_mmol=None if settings is None else np.asarray(balance.k_excreted_mmol),
+        diuretics_not_modelled=left_out_doses,
     )
+
+
+def _drugs(
+    intensities: dict[str, np.ndarray], mannitol_in: np.ndarray | None, steps: int, step_h: float
+) -> kidney.DiureticAction | None:
+    """The diuretics' action for the kidney's step loop, or None when none acts."""
+    if not intensities and mannitol_in is None:
+        return None
+    return kidney.DiureticAction.from_intensities(
+        intensities, steps=steps,
+        step_h=step_h, mannitol_in_mosm=None if mannitol_in is None else _increments(mannitol_in),
+    )  # fmt: skip
 
 
 def _decaying_sum(added: list[float], keep: float) -> np.ndarray:

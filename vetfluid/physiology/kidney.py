@@ -28,12 +28,21 @@ Pure functions and one step loop on plain floats; the equations and their source
   (:func:`solute_load_mosm_per_day`).
 * **Volume**: urine water = osmoles excreted ÷ urine osmolality (:func:`urine_volume_ml`,
   the one function the plan's water budget uses for obligatory urine water too).
+* **Diuretics** (:class:`DiureticAction`, :data:`CLASS_EFFECTS`). Each class acts where it
+  acts in the nephron, scaled by its intensity at each step: extra Na excretion (a share of
+  the ECF's Na per hour) with K alongside; a loop diuretic pulls both ends of the band to
+  plasma (no medullary gradient, no diluting segment); a thiazide raises the floor (the
+  cortical diluting segment); a potassium-sparing drug holds back a share of K excretion
+  (Jeunesse 2007); mannitol is an effective osmole in the ECF, excreted with its half-life,
+  and washes the band towards plasma by its share of the urine's solute.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+
+import numpy as np
 
 from vetfluid.common.checks import require_number
 from vetfluid.common.errors import InputError
@@ -47,6 +56,139 @@ ANAESTHESIA_EXCRETION_FRACTION = 0.15
 # euhydrated size.
 RENAL_SOURCES = ("hahn2010", "drobin1999")
 NEWTON_STEPS = 8  # the urine-osmolality equation converges from below in a few steps
+
+
+# ---- diuretics (docs/model.md, "Diuretics") ------------------------------------------------
+@dataclass(frozen=True, kw_only=True)
+class ClassEffect:
+    """What one class of diuretic does at intensity 1 (the low end of its dose range at its
+    peak; :func:`intensity`)."""
+
+    natriuresis_per_h: float  # share of the ECF's Na excreted per hour
+    k_per_na: float  # mmol K excreted with each mmol of that Na
+    floor_to_plasma: float  # share of the way the diluting floor is raised to plasma
+    ceiling_to_plasma: float  # share of the way the concentrating ceiling falls to plasma
+    k_spared: float  # share of K excretion held back
+
+
+# The loop's natriuresis is set so a 20 kg dog at intensity 1 excretes about 1 mmol/kg/h of
+# Na (our calibration, memory: several times the urine flow, as Harada 2015 saw, without a
+# measured figure); the other classes in proportion to the most Na each can make the kidney
+# excrete, as a share of the filtered load (loop 25 %, thiazide 5 %, carbonic-anhydrase
+# inhibitor 4 %, potassium-sparing 2 %: pharmacology textbooks, recalled, memory). K with
+# the Na: 0.2 (loop) and 0.3 (thiazide, acetazolamide) mmol per mmol (recalled, memory).
+# A loop diuretic abolishes both the medullary gradient and the diluting segment (the thick
+# ascending limb does both): the band goes to plasma. A thiazide blocks the cortical
+# diluting segment only: the floor rises half-way (our choice, no source). Spironolactone
+# holds back 20 % of K excretion at intensity 1, 24 % at the steady state of 2 mg/kg a day
+# (urine K −22 % at 2 mg/kg/day in healthy dogs, Jeunesse 2007, "jeunesse2007"), with a
+# small natriuresis (none was measurable in healthy dogs; the issue's "small").
+CLASS_EFFECTS = {
+    "loop": ClassEffect(natriuresis_per_h=0.035, k_per_na=0.2, floor_to_plasma=1.0,
+                        ceiling_to_plasma=1.0, k_spared=0.0),
+    "thiazide": ClassEffect(natriuresis_per_h=0.007, k_per_na=0.3, floor_to_plasma=0.5,
+                            ceiling_to_plasma=0.0, k_spared=0.0),
+    "carbonic_anhydrase_inhibitor": ClassEffect(natriuresis_per_h=0.0056, k_per_na=0.3,
+                                                floor_to_plasma=0.0, ceiling_to_plasma=0.0,
+                                                k_spared=0.0),
+    "potassium_sparing": ClassEffect(natriuresis_per_h=0.0028, k_per_na=0.0,
+                                     floor_to_plasma=0.0, ceiling_to_plasma=0.0, k_spared=0.2),
+}  # fmt: skip
+# Dose–response: intensity = ceiling × E / (ceiling − 1 + E) for an exposure E (dose ÷ the
+# reference dose, summed over the doses' profiles): 1 at the reference dose, rising towards
+# the ceiling with larger doses, an Emax curve as furosemide's in dogs (Emax models, J Vet
+# Pharmacol Ther 2016, PMID 27166146); the ceiling of 1.5 is our choice, no source.
+INTENSITY_CEILING = 1.5
+# A loop diuretic's urine stays near plasma even at modest doses, and an infusion's is
+# there throughout (Adin 2003 saw more diuresis from 0.66 mg/kg/h than from boluses): the
+# band's shift is complete from half the reference intensity on (our choice, no source).
+BAND_FULL_AT_INTENSITY = 0.5
+# Mannitol: given as 20 % (200 g/L) over 15–20 min (Kirk's ch. 191, "kirk_aki"; Plumb,
+# "plumb_vdh_older"), the longer end; excreted by filtration with a half-life of 2.2 h
+# (people with normal kidneys; recalled, memory).
+MANNITOL_G_PER_L = 200.0
+MANNITOL_MINUTES = 20.0
+MANNITOL_HALF_LIFE_H = 2.2
+# In an osmotic diuresis the urine comes close to plasma (textbook physiology, common
+# practice, no source): here the band reaches plasma once mannitol is this share of the
+# urine's solute, and in proportion below it (our choice, no source).
+MANNITOL_WASHOUT_SHARE = 0.25
+# Where the constants above come from (species_data/sources.csv).
+DIURETIC_SOURCES = ("jeunesse2007", "adin2003", "kirk_aki", "plumb_vdh_older")
+
+
+def intensity(exposure):  # noqa: ANN001, ANN201 — a float or an array of them (≥ 0)
+    """The Emax dose–response (:data:`INTENSITY_CEILING`): 0 → 0, 1 → 1, ∞ → the ceiling."""
+    top = INTENSITY_CEILING
+    return top * exposure / (top - 1.0 + exposure)
+
+
+def effect_profile(*, onset_h: float | None, peak_h: float, duration_h: float,
+                   hours: list[float]) -> list[float]:  # fmt: skip
+    """A dose's effect (0–1) at hours after it: none before the onset (from the dose when
+    none is on record), rising evenly to 1 at the peak, falling evenly to 0 at the end of
+    its duration (our modelling choice between the three times on record)."""
+    start = onset_h or 0.0
+    values = []
+    for t in hours:
+        if t < start or t >= duration_h:
+            values.append(0.0)
+        elif t <= peak_h:
+            values.append(1.0 if peak_h == start else (t - start) / (peak_h - start))
+        else:
+            values.append((duration_h - t) / (duration_h - peak_h))
+    return values
+
+
+@dataclass(frozen=True, kw_only=True)
+class DiureticAction:
+    """What the diuretics do at each step of the grid (lists of floats, one per step), for
+    :func:`follow_balance`; build it with :meth:`from_intensities`."""
+
+    na_share_per_h: list[float]  # share of the ECF's Na excreted per hour
+    k_share_per_h: list[float]  # K excreted per hour, as a share of the ECF's Na
+    floor_shift: list[float]  # 0–1 of the way from the floor to plasma
+    ceiling_shift: list[float]  # 0–1 of the way from the ceiling to plasma
+    k_kept: list[float]  # the share of K excretion that still happens
+    mannitol_in_mosm: list[float] | None  # mannitol's osmoles entering the ECF per step
+    mannitol_keep: float  # share of the mannitol left after one step
+    first_step: int
+    last_step: int  # nothing acts after this step (mannitol still leaves)
+
+    @classmethod
+    def from_intensities(
+        cls,
+        intensities: dict[str, np.ndarray],
+        *,
+        steps: int,
+        step_h: float,
+        mannitol_in_mosm: list[float] | None = None,
+    ) -> DiureticAction:
+        """Sum the classes' effects (:data:`CLASS_EFFECTS`) at each step's intensity."""
+        na, k = np.zeros(steps), np.zeros(steps)
+        floor, ceiling, kept = np.zeros(steps), np.zeros(steps), np.ones(steps)
+        acting = np.zeros(steps, dtype=bool)
+        if mannitol_in_mosm is not None:
+            acting |= np.asarray(mannitol_in_mosm) != 0
+        for name, values in intensities.items():
+            effect, level = CLASS_EFFECTS[name], np.asarray(values, dtype=float)
+            acting |= level != 0
+            na += effect.natriuresis_per_h * level
+            k += effect.natriuresis_per_h * effect.k_per_na * level
+            full = np.minimum(level / BAND_FULL_AT_INTENSITY, 1.0)
+            floor = np.maximum(floor, effect.floor_to_plasma * full)
+            ceiling = np.maximum(ceiling, effect.ceiling_to_plasma * full)
+            kept -= effect.k_spared * level
+        where = np.flatnonzero(acting)
+        na, k, floor, ceiling = na.tolist(), k.tolist(), floor.tolist(), ceiling.tolist()
+        kept = np.maximum(kept, 0.0).tolist()
+        return cls(
+            na_share_per_h=na, k_share_per_h=k, floor_shift=floor, ceiling_shift=ceiling,
+            k_kept=kept, mannitol_in_mosm=mannitol_in_mosm,
+            mannitol_keep=math.exp(-math.log(2) / MANNITOL_HALF_LIFE_H * step_h),
+            first_step=int(where[0]) if where.size else 0,
+            last_step=int(where[-1]) if where.size else -1,
+        )  # fmt: skip
 
 
 def _positive(name: str, value: float) -> float:
@@ -196,6 +338,7 @@ class Balance:
     urine_ecf_ml: list[float]  # per step: the ECF the kidney's excretion took (from plasma)
     na_excreted_mmol: list[float]  # cumulative urine Na, and K
     k_excreted_mmol: list[float]
+    mannitol_mosm: list[float] | None = None  # mannitol in the ECF, when any was given
 
 
 def _solve_urine_x(d0: float, k: float, b: float, span: float, log_ratio: float) -> float:
@@ -242,6 +385,7 @@ def follow_balance(
     k0: float,
     kidney: KidneySettings | None,
     basal_steps: int,
+    drugs: DiureticAction | None = None,
 ) -> Balance:
     """Step body water and solute through a grid: per step, what went in (water, Na, K,
     effective osmoles entering the ECF), solute-free water out (insensible), losses out
@@ -267,6 +411,13 @@ def follow_balance(
     urine = na_out = k_out = 0.0
     tbw, na_k, ks, oe, oi = [], [], [], [], []
     urine_total, urine_osm, urine_ecf, na_sum, k_sum = [], [], [], [], []
+    mannitol, mannitol_in = 0.0, None  # mannitol in the ECF (mOsm), and what enters it
+    mannitol_left: list[float] | None = None
+    if kidney is None:
+        drugs = None  # no kidney modelled: nothing for a diuretic to act on
+    if drugs is not None:
+        mannitol_in = drugs.mannitol_in_mosm
+        mannitol_left = [] if mannitol_in is not None else None
     if kidney is not None:
         floor, ceiling = kidney.floor_mosm_per_kg, kidney.ceiling_mosm_per_kg
         log_ratio = math.log(ceiling / floor) if ceiling > floor else 0.0
@@ -282,6 +433,8 @@ def follow_balance(
          or free_water_out_ml[i] or loss_out_ml[i]),
         default=0,
     )  # fmt: skip
+    if drugs is not None:
+        last_change = max(last_change, drugs.last_step)
     i = 0
     while i < n:
         # what goes in
@@ -291,6 +444,8 @@ def follow_balance(
         k_pool += k_step
         o_ecf += ecf_osm_in[i]
         o_icf += 2.0 * phi * k_step
+        if mannitol_in is not None:
+            mannitol += mannitol_in[i]  # its osmoles are in ecf_osm_in already
         # solute-free water out, then losses
         w -= free_water_out_ml[i]
         lost = loss_out_ml[i]
@@ -320,31 +475,42 @@ def follow_balance(
                 other = kidney.other_solute_mosm_per_h * step_h
             else:
                 e_k = other = 0.0
-            solute = 2.0 * (e_na + e_k) + other
+            low, ratio, e_m = floor, log_ratio, 0.0
+            if drugs is not None and drugs.first_step <= i:
+                e_na, e_k, e_m, low, ratio = _drug_step(
+                    drugs, i, step_h=step_h, e_na=e_na, e_k=e_k, other=other,
+                    mannitol=mannitol, ecf_na=ecf * na_now / 1000.0,
+                    plasma=total_osm / w * 1000.0, floor=floor, ceiling=ceiling,
+                )  # fmt: skip
+            solute = 2.0 * (e_na + e_k) + other + e_m
             pool_after = pool - e_na - e_k
             deficit = -above / ecf_ref_ml if above < 0.0 else 0.0
             d0 = 2.0 * (pool_after / w * 1000.0 - kidney.set_na_mmol_per_l)
             d0 += span * deficit / kidney.volume_deficit_for_full
+            if mannitol:
+                d0 += (mannitol - e_m) / w * 1000.0  # an effective osmole: ADH sees it
             # tonicity rises by 2·Na/W per mL of water taken (mOsm/kg per mL)
             x = _solve_urine_x(d0, 2.0 * pool_after * 1000.0 / (w * w),
-                               solute * 1000.0 / floor, span, log_ratio)  # fmt: skip
-            osm_now = floor * math.exp(log_ratio * x)
+                               solute * 1000.0 / low, span, ratio)  # fmt: skip
+            osm_now = low * math.exp(ratio * x)
             volume = solute / osm_now * 1000.0
             cap = kidney.urine_cap_ml_per_h
             if cap is not None and volume > cap * step_h:
                 scale = cap * step_h / volume  # solute that cannot leave stays in the body
-                volume, e_na, e_k, solute = (
+                volume, e_na, e_k, e_m, solute = (
                     volume * scale,
                     e_na * scale,
                     e_k * scale,
+                    e_m * scale,
                     solute * scale,
                 )
             if volume:
                 before = ecf
                 pool -= e_na + e_k
                 k_pool -= e_k
-                o_ecf -= 2.0 * phi * e_na
+                o_ecf -= 2.0 * phi * e_na + e_m
                 o_icf -= 2.0 * phi * e_k
+                mannitol -= e_m
                 w -= volume
                 urine += volume
                 na_out += e_na
@@ -360,16 +526,53 @@ def follow_balance(
         urine_ecf.append(ecf_taken)
         na_sum.append(na_out)
         k_sum.append(k_out)
+        if mannitol_left is not None:
+            mannitol_left.append(mannitol)
         i += 1
         if i > max(last_change, basal_steps) + 1 and volume < 1e-9:
             break  # nothing goes in or out any more: the state holds
     rest = n - len(tbw)
     if rest:
-        for values in (tbw, na_k, ks, oe, oi, urine_total, urine_osm, na_sum, k_sum):
+        for values in (tbw, na_k, ks, oe, oi, urine_total, urine_osm, na_sum, k_sum,
+                       *([mannitol_left] if mannitol_left is not None else [])):  # fmt: skip
             values.extend([values[-1]] * rest)
         urine_ecf.extend([0.0] * rest)
     return Balance(
         tbw_ml=tbw, na_k_mmol=na_k, k_mmol=ks, ecf_osm=oe, icf_osm=oi, urine_ml=urine_total,
         urine_osm_mosm_per_kg=urine_osm, urine_ecf_ml=urine_ecf, na_excreted_mmol=na_sum,
-        k_excreted_mmol=k_sum,
+        k_excreted_mmol=k_sum, mannitol_mosm=mannitol_left,
     )  # fmt: skip
+
+
+def _drug_step(
+    drugs: DiureticAction,
+    i: int,
+    *,
+    step_h: float,
+    e_na: float,
+    e_k: float,
+    other: float,
+    mannitol: float,
+    ecf_na: float,
+    plasma: float,
+    floor: float,
+    ceiling: float,
+) -> tuple[float, float, float, float, float]:
+    """One step of the diuretics: Na, K and mannitol excreted, and the band's floor and
+    log ratio as the drugs leave it (see :data:`CLASS_EFFECTS`)."""
+    e_m = mannitol * (1.0 - drugs.mannitol_keep) if mannitol > 0.0 else 0.0
+    if i <= drugs.last_step:
+        e_na += drugs.na_share_per_h[i] * step_h * ecf_na
+        e_k = (e_k + drugs.k_share_per_h[i] * step_h * ecf_na) * drugs.k_kept[i]
+        low_shift, high_shift = drugs.floor_shift[i], drugs.ceiling_shift[i]
+    else:
+        low_shift = high_shift = 0.0
+    if e_m:  # an osmotic diuresis washes the band towards plasma (MANNITOL_WASHOUT_SHARE)
+        share = e_m / (2.0 * (e_na + e_k) + other + e_m) / MANNITOL_WASHOUT_SHARE
+        low_shift, high_shift = max(low_shift, min(share, 1.0)), max(high_shift, min(share, 1.0))
+    if not (low_shift or high_shift):
+        return e_na, e_k, e_m, floor, math.log(ceiling / floor) if ceiling > floor else 0.0
+    low = floor + (plasma - floor) * low_shift if plasma > floor else floor
+    high = ceiling - (ceiling - plasma) * high_shift if ceiling > plasma else ceiling
+    high = max(high, low)
+    return e_na, e_k, e_m, low, math.log(high / low)

@@ -26,8 +26,8 @@ from vetfluid.physiology import delivery, electrolytes, hydration, maintenance, 
 from vetfluid.physiology.ins_and_outs import InsAndOutsRow, ins_and_outs
 from vetfluid.planning import safety, schedule
 from vetfluid.planning.ledger import Ledger
-from vetfluid.planning.schedule import Phase, ScheduleEntry
-from vetfluid.tables import fluid_roles, fluids
+from vetfluid.planning.schedule import DiureticDose, Phase, ScheduleEntry
+from vetfluid.tables import diuretics, fluid_roles, fluids
 from vetfluid.tables.limits import limit
 from vetfluid.tables.species import SpeciesTable, SpeciesValue, load_table
 
@@ -39,6 +39,18 @@ SITE_LIMIT_PARAMETER = {
     "sc": "max_site_volume_sc_ml_per_kg",
     "icoel": "max_site_volume_icoel_ml_per_kg",
 }
+# A diuretic as entered: drug id, dose in the table's unit (mg/kg, g/kg; mg/kg/h for an
+# infusion), route (iv, im, sc, po, or cri for an infusion), start hour and end hour on the
+# plan's clock (the same hour for a single dose).
+Diuretic = tuple[str, float, str, float, float]
+# How a diseased kidney behaves in the course (vetfluid.course.model): None when not stated.
+RENAL_OUTPUTS = ("oliguric", "polyuric")
+# A bound on the doses one plan lists, against damaged files (common practice, no source):
+# four doses a day for two months is 240.
+MAX_DIURETIC_DOSES = 500
+# Software bound on a dose in any of the table's units (common practice, no source): far
+# above every range on record (the largest, mannitol, 2 g/kg; furosemide 10 mg/kg).
+MAX_DIURETIC_DOSE = 1000.0
 MAINTENANCE_TAIL_H = 12.0  # maintenance runs to hour 24, and at least 12 h after replacement
 DEXTROSE_CONCENTRATE_ID = "dextrose_50"
 
@@ -81,6 +93,9 @@ class PlanRequest:
     # each giving insensible loss + what was measured over the period before it.
     ins_and_outs_period_h: float | None = None
     measured_outputs: tuple[tuple[float, float], ...] = ()  # (urine mL, other mL) per period
+    diuretics: tuple[Diuretic, ...] = ()  # on the schedule, the sheet and in the course
+    loss_type: str = electrolytes.DEFAULT_LOSS_TYPE  # what the ongoing losses are
+    renal_output: str | None = None  # with renal disease: "oliguric", "polyuric" or not stated
 
     def __post_init__(self) -> None:
         require_patient_weight(self.weight_kg)
@@ -143,6 +158,9 @@ class PlanRequest:
                 _require(value, name, low, high, unit)
         if self.usg is not None:
             maintenance.usg_to_osmolality(self.usg)
+        electrolytes.loss_composition(self.loss_type)  # an unknown type is refused by name
+        _check_renal_output(self.renal_output, renal_disease=self.renal_disease)
+        _check_diuretics(self.diuretics)
         if self.dehydration_findings:
             hydration.estimate_dehydration(self.dehydration_findings)
         fluids.fluid(self.fluid_id)  # an unknown fluid is refused by name
@@ -215,6 +233,60 @@ def _check_ins_and_outs_size(
         )  # fmt: skip
 
 
+def _check_renal_output(renal_output: object, *, renal_disease: bool) -> None:
+    if renal_output is None:
+        return
+    if renal_output not in RENAL_OUTPUTS:
+        raise InputError(f"unknown renal output {renal_output!r}", field="renal_output",
+                         value=renal_output, fix=", ".join(RENAL_OUTPUTS))  # fmt: skip
+    if not renal_disease:
+        raise InputError(
+            f"a renal output ({renal_output}) describes a diseased kidney",
+            field="renal_output", value=renal_output,
+            fix="tick renal disease, or leave the renal output out",
+        )  # fmt: skip
+
+
+def _check_diuretics(doses: object) -> None:
+    """Each diuretic: a drug on record, a route it is given by, a dose above 0, hours on
+    the plan's clock (an infusion from its start to a later end, a single dose at one)."""
+    if not isinstance(doses, tuple) or not all(isinstance(d, tuple) and len(d) == 5
+                                               for d in doses):  # fmt: skip
+        raise InputError(
+            "diuretics must be (drug, dose, route, start hour, end hour) per dose",
+            field="diuretics", value=None,
+        )  # fmt: skip
+    if len(doses) > MAX_DIURETIC_DOSES:
+        raise InputError(f"{len(doses)} diuretic doses is more than the {MAX_DIURETIC_DOSES} "
+                         "one plan holds", field="diuretics", value=len(doses))  # fmt: skip
+    for drug_id, dose, route, start_h, end_h in doses:
+        if not isinstance(drug_id, str) or not isinstance(route, str):
+            raise InputError("a diuretic's drug and route are ids", field="diuretics", value=None)
+        drug = diuretics.drug(drug_id)
+        if route not in drug.routes:
+            kind = "an infusion" if route == "cri" else f"by the route {route!r}"
+            raise InputError(
+                f"no {drug.name} dose given as {kind} is on record" if route == "cri"
+                else f"no {drug.name} dose {kind} is on record",
+                field="diuretic route", value=None, fix=", ".join(drug.routes),
+            )  # fmt: skip
+        unit = drug.dose_unit(route)
+        require_number(dose, f"{drug.name} dose", positive=True, high=MAX_DIURETIC_DOSE,
+                       unit=unit)  # fmt: skip
+        for hour in (start_h, end_h):
+            require_number(hour, f"{drug.name} hour", low=0, high=MAX_PLAN_HORIZON_H, unit="h")
+        if route == "cri" and not end_h > start_h:
+            raise InputError(
+                f"a {drug.name} infusion needs an end hour after its start", field="diuretics",
+                value=None, fix="give the hours it starts and ends, e.g. 2 and 10",
+            )  # fmt: skip
+        if route != "cri" and end_h != start_h:
+            raise InputError(
+                f"a single {drug.name} dose is given at one hour", field="diuretics",
+                value=None, fix="give the same start and end hour, or an infusion",
+            )  # fmt: skip
+
+
 def _check_measured(measured: object) -> None:
     if not isinstance(measured, tuple) or not all(
         isinstance(m, tuple) and len(m) == 2 for m in measured
@@ -260,6 +332,7 @@ class Plan:
     # losses, or in ins-and-outs mode insensible loss + what was measured.
     outflow: tuple[tuple[float, float], ...] = ((0.0, 0.0),)
     ins_and_outs: tuple[InsAndOutsRow, ...] = ()  # the period table, in ins-and-outs mode
+    diuretics: tuple[DiureticDose, ...] = ()  # the diuretics on the clock
 
     @property
     def end_h(self) -> float:
@@ -872,6 +945,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             "Resuscitation volume is not subtracted from the deficit.",
             "Reassess hydration after resuscitation and re-plan.",
         )
+    doses = _diuretic_doses(request)
+    safety.check_diuretics(ledger, doses)
     safety.note_unverified(ledger)
 
     return Plan(
@@ -883,7 +958,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         deficit_ml=deficit,
         free_water_deficit_ml=free_water,
         phases=phases,
-        schedule=schedule.schedule_entries(phases, request.start_time),
+        schedule=schedule.schedule_entries(phases, request.start_time, doses),
         fluid_name=bag.name,
         fluid_na_mmol_per_l=bag_comp.na_mmol_per_l,
         fluid_k_mmol_per_l=bag_comp.k_mmol_per_l,
@@ -901,7 +976,25 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         citations=ledger.table.citations(ledger.values.values()),
         outflow=outflow,
         ins_and_outs=period_table,
+        diuretics=doses,
     )
+
+
+def _diuretic_doses(request: PlanRequest) -> tuple[DiureticDose, ...]:
+    """The request's diuretics as doses on the clock, in order of the hour, each with what
+    it is for this patient (mg or g, mg/h for an infusion)."""
+    doses = []
+    for drug_id, dose, route, start_h, end_h in request.diuretics:
+        drug = diuretics.drug(drug_id)
+        unit = drug.dose_unit(route)
+        doses.append(
+            DiureticDose(
+                drug_id=drug_id, name=drug.name, drug_class=drug.drug_class, dose=dose,
+                unit=unit, route=route, start_h=start_h, end_h=end_h,
+                amount=dose * request.weight_kg, amount_unit=unit.replace("/kg", ""),
+            )
+        )  # fmt: skip
+    return tuple(sorted(doses, key=lambda d: d.start_h))
 
 
 def _na_k(fluid: fluids.Fluid) -> float:

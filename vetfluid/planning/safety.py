@@ -20,10 +20,10 @@ from vetfluid.physiology.hydration import overload_weight_kg
 from vetfluid.physiology.maintenance import Maintenance, WaterBudget
 from vetfluid.physiology.resuscitation import RESUSCITATION_ROUTES, Resuscitation
 from vetfluid.planning.ledger import Ledger
-from vetfluid.planning.schedule import Phase, route_text
-from vetfluid.tables import fluid_roles, fluids
+from vetfluid.planning.schedule import DIURETIC_ROUTE_WORDS, DiureticDose, Phase, route_text
+from vetfluid.tables import diuretics, fluid_roles, fluids
 from vetfluid.tables.limits import limit
-from vetfluid.tables.species import SpeciesValue
+from vetfluid.tables.species import SpeciesTable, SpeciesValue
 
 LINE_ROUTES = RESUSCITATION_ROUTES  # a continuous line: IV or IO
 NEAR_PLASMA_FACTOR = 1.2  # urine within 20% of plasma counts as "close to plasma" for the note
@@ -1247,6 +1247,80 @@ def note_unverified(ledger: Ledger) -> None:
             f"{len(unverified)} species value(s) used here were recalled from memory, not "
             f"checked against a publication: {', '.join(unverified)}.",
             "Check them against your references before relying on them.",
+        )
+
+
+def _dose_words(dose: DiureticDose) -> str:
+    """``furosemide 20 mg/kg IV`` (an infusion: ``furosemide 2 mg/kg/h by IV infusion``)."""
+    given = f"{dose.name} {dose.dose:g} {dose.unit}"
+    return f"{given} by IV infusion" if dose.infusion else (
+        f"{given} {DIURETIC_ROUTE_WORDS[dose.route]}"
+    )  # fmt: skip
+
+
+def diuretic_effect_modelled(table: SpeciesTable, species_id: str, dose: DiureticDose) -> bool:
+    """Whether the course can show this dose's effect: mannitol by its osmoles; any other
+    drug needs onset, peak and duration on record for the species (an infusion: those of
+    an IV dose)."""
+    if dose.drug_class == "osmotic":
+        return bool(diuretics.rows_for(table, species_id, dose.drug_id, dose.route))
+    route = "iv" if dose.infusion else dose.route
+    return diuretics.timing(table, species_id, dose.drug_id, route) is not None
+
+
+def _sentence(text: str) -> str:
+    return text[:1].upper() + text[1:] + "."
+
+
+def check_diuretics(ledger: Ledger, doses: tuple[DiureticDose, ...]) -> None:
+    """Each diuretic dose against the table's range for the species and route
+    (``species_data/diuretics.csv``): outside every range on record, or with no dose on
+    record for the species at all, a soft finding; a dose whose onset and duration are not
+    on record is a note that the course does not show its effect (never guessed)."""
+    outside, unknown, unmodelled = [], [], []
+    outside_source = None
+    species = ledger.species.common_name.lower()
+    for dose in dict.fromkeys(doses):  # the same dose at several hours is judged once
+        rows = diuretics.rows_for(ledger.table, ledger.species_id, dose.drug_id, dose.route)
+        if not rows:
+            unknown.append(_dose_words(dose))
+            continue
+        if not any(r.dose_low - 1e-9 <= dose.dose <= r.dose_high + 1e-9 for r in rows):
+            ranges = " or ".join(dict.fromkeys(r.range_text() for r in rows))
+            where = ledger.table.species(rows[0].species_id).common_name.lower()
+            recalled = (" (recalled, unverified)"
+                        if all(r.dose_basis == "memory" for r in rows) else "")  # fmt: skip
+            outside.append(
+                f"{_dose_words(dose)} is outside the {ranges} on record for the {where}{recalled}"
+            )
+            outside_source = outside_source or rows[0].dose_source_id
+        if not diuretic_effect_modelled(ledger.table, ledger.species_id, dose):
+            unmodelled.append(_dose_words(dose))
+    if outside:
+        ledger.add(
+            "soft",
+            "DIURETIC_DOSE_OUTSIDE_RANGE",
+            _sentence("; ".join(dict.fromkeys(outside))),
+            "Check the dose and its unit; give a reason if it is meant.",
+            outside_source,
+        )
+    if unknown:
+        ledger.add(
+            "soft",
+            "DIURETIC_NO_DOSE_ON_RECORD",
+            f"No dose for the {species} is on record for "
+            f"{', '.join(dict.fromkeys(unknown))}: the plan cannot check it, and the course "
+            "does not show its effect.",
+            "Check the dose in a formulary for this species; give a reason if it is meant.",
+        )
+    if unmodelled:
+        ledger.add(
+            "info",
+            "DIURETIC_EFFECT_NOT_MODELLED",
+            f"No onset and duration for the {species} are on record for "
+            f"{', '.join(dict.fromkeys(unmodelled))}: the course does not show its effect on "
+            "urine, sodium or potassium.",
+            "Measure urine output and recheck Na and K after it is given.",
         )
 
 

@@ -14,7 +14,7 @@ from datetime import datetime, time, timedelta
 import numpy as np
 
 from vetfluid.common.errors import InputError
-from vetfluid.common.formatting import format_quantity
+from vetfluid.common.formatting import entered_number, format_quantity
 from vetfluid.physiology import delivery
 
 # A drip too fast to count is checked against the bag's marks every 15 min (a bolus:
@@ -353,9 +353,67 @@ def divided_dose_text(*, ml_per_site: float, sites: int, route: str) -> str:
     return f"Give {dose} {route_text(route)} in {sites_text(sites)}, {per_site} per site"
 
 
-def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[ScheduleEntry, ...]:
+@dataclass(frozen=True, kw_only=True)
+class DiureticDose:
+    """A diuretic on the plan's clock: one dose at ``start_h``, or an infusion (route
+    ``cri``) from ``start_h`` to ``end_h``; the dose in the table's unit (mg/kg, g/kg, or
+    mg/kg/h for an infusion) and what that is for this patient (mg, g, or mg/h)."""
+
+    drug_id: str
+    name: str
+    drug_class: str
+    dose: float
+    unit: str
+    route: str
+    start_h: float
+    end_h: float
+    amount: float
+    amount_unit: str
+
+    @property
+    def infusion(self) -> bool:
+        return self.route == "cri"
+
+
+# Diuretic routes in words (the table's ``cri`` is a constant-rate infusion into a vein).
+DIURETIC_ROUTE_WORDS = {"iv": "IV", "im": "IM", "sc": "SC", "po": "PO", "cri": "IV"}
+
+
+def diuretic_text(dose: DiureticDose) -> str:
+    """``Furosemide 2 mg/kg IV = 40 mg``; an infusion ``Furosemide infusion 0.66 mg/kg/h
+    IV = 13.2 mg/h until hour 20``."""
+    name = dose.name[:1].upper() + dose.name[1:]
+    amount = format_quantity(dose.amount, dose.amount_unit, decimals=_decimals(dose.amount))
+    given = f"{entered_number(dose.dose)} {dose.unit} {DIURETIC_ROUTE_WORDS[dose.route]}"
+    if dose.infusion:
+        return f"{name} infusion {given} = {amount} until hour {dose.end_h:g}"
+    return f"{name} {given} = {amount}"
+
+
+def _decimals(amount: float) -> int:
+    """Decimals for a drug amount: 40 mg, 13.2 mg/h, 0.05 mg, 0.667 mg."""
+    if amount >= 100:
+        return 0
+    return 1 if amount >= 1 else 3
+
+
+def diuretic_entries(doses: tuple[DiureticDose, ...], start: time | None) -> list[ScheduleEntry]:
+    """Each diuretic dose, and each infusion's start, on the clock."""
+    return [
+        ScheduleEntry(hour=d.start_h, clock=clock_time(start, d.start_h), phase="diuretic",
+                      action=diuretic_text(d))
+        for d in doses
+    ]  # fmt: skip
+
+
+def schedule_entries(
+    phases: tuple[Phase, ...],
+    start: time | None,
+    diuretics: tuple[DiureticDose, ...] = (),
+) -> tuple[ScheduleEntry, ...]:
     """The plan on the clock: each phase start and each divided dose (volumes to the
-    syringe's marks, :func:`vetfluid.physiology.delivery.draw_up_ml`). The first resuscitation
+    syringe's marks, :func:`vetfluid.physiology.delivery.draw_up_ml`), and each diuretic
+    dose, in order of the hour (at the same hour the fluids first). The first resuscitation
     bolus is given; each later one only if the patient is still poorly perfused when
     reassessed (its time stays reserved on the clock)."""
     entries = []
@@ -398,4 +456,6 @@ def schedule_entries(phases: tuple[Phase, ...], start: time | None) -> tuple[Sch
                 ScheduleEntry(hour=hour, clock=clock_time(start, hour), phase=phase.kind,
                               action=action)
             )  # fmt: skip
+    if diuretics:  # a stable sort: the fluids' own order holds at each hour
+        entries = sorted([*entries, *diuretic_entries(diuretics, start)], key=lambda e: e.hour)
     return tuple(entries)

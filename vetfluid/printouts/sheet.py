@@ -208,6 +208,18 @@ def _planned_at(phases: list[dict], hour: float, start: time | None) -> str:
     return "; ".join(parts) or "—"
 
 
+def _diuretics_at(data: dict, hour: float) -> list[str]:
+    """The diuretic doses given in the hour starting at ``hour`` (an infusion where it
+    starts), in the schedule's words."""
+    return [d["text"] for d in data.get("diuretics") or [] if hour <= d["start_h"] < hour + 1]
+
+
+def diuretics_text(data: dict, clock: Callable[[float], str]) -> str | None:
+    """Every diuretic dose with its clock time, or None when there is none."""
+    doses = data.get("diuretics") or []
+    return "; ".join(f"{clock(d['start_h'])}: {d['text']}" for d in doses) or None
+
+
 def _hourly_rows(
     data: dict, hours: range, start: time | None, day: date | None
 ) -> list[list[str] | str]:
@@ -222,9 +234,11 @@ def _hourly_rows(
             if h == 0 or moment.hour == 0:
                 rows.append(f"{date_text(moment.date())}" + (f" (+{days} d)" if days else ""))
         clock = clock_time(start, h) or f"h {h}"
-        rows.append(
-            [clock, f"{h}", _planned_at(data["phases"], h, start)] + [""] * len(NURSE_COLUMNS)
+        fluids_planned = _planned_at(data["phases"], h, start)
+        planned = (
+            "; ".join([p for p in (fluids_planned,) if p != "—"] + _diuretics_at(data, h)) or "—"
         )
+        rows.append([clock, f"{h}", planned] + [""] * len(NURSE_COLUMNS))
     return rows
 
 
@@ -439,6 +453,7 @@ def sheet_html(
                 ["Route", route_and_device_text(data)],
                 ["First 24 h", first_24h_text(data)],
             ]
+            + ([["Diuretics", diuretics_text(data, clock)]] if data.get("diuretics") else [])
             + [
                 [
                     f"Phase: {p['kind']}",
@@ -688,6 +703,7 @@ PLAN_SCHEMA: dict[str, object] = {
     ),
     "total_ml_first_24h": NUMBER,
     "schedule": _list({"hour": HOUR, "clock": _opt(TEXT), "phase": TEXT, "action": TEXT}),
+    "diuretics": _opt(_list({"start_h": HOUR, "end_h": HOUR, "text": TEXT})),
     "findings": _list({"severity": _one_of(*SEVERITY_WORDS), "message": TEXT, "action": TEXT,
                        "code": TEXT}),
     "hard_limit": _opt(FLAG),

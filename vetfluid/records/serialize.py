@@ -17,7 +17,7 @@ from vetfluid.common.cautions import CAUTIONS
 from vetfluid.common.errors import InputError
 from vetfluid.physiology import delivery
 from vetfluid.planning.plan import Plan, PlanRequest
-from vetfluid.planning.schedule import Phase
+from vetfluid.planning.schedule import DiureticDose, Phase, diuretic_text
 from vetfluid.tables import fluids
 from vetfluid.tables.species import SpeciesTable, SpeciesValue
 
@@ -64,6 +64,16 @@ def phase_dict(phase: Phase) -> dict[str, object]:
     if phase.note:
         data["note"] = phase.note
     return data
+
+
+def diuretic_dict(dose: DiureticDose) -> dict[str, object]:
+    """One diuretic dose on the clock, with the words the schedule gives it."""
+    return {
+        "drug_id": dose.drug_id, "drug": dose.name, "class": dose.drug_class,
+        "dose": dose.dose, "unit": dose.unit, "route": dose.route, "start_h": dose.start_h,
+        "end_h": dose.end_h, "amount": dose.amount, "amount_unit": dose.amount_unit,
+        "text": diuretic_text(dose),
+    }  # fmt: skip
 
 
 def plan_dict(plan: Plan) -> dict[str, object]:
@@ -129,6 +139,7 @@ def plan_dict(plan: Plan) -> dict[str, object]:
             {"hour": e.hour, "clock": e.clock, "phase": e.phase, "action": e.action}
             for e in plan.schedule
         ],
+        "diuretics": [diuretic_dict(d) for d in plan.diuretics],
         "findings": [f.as_dict() for f in plan.findings],
         "hard_limit": plan.has_hard_limit,
         "provenance": [value_dict(v) for v in plan.provenance],
@@ -232,6 +243,7 @@ def request_to_dict(request: PlanRequest) -> dict[str, object]:
     data = {f.name: getattr(request, f.name) for f in fields(PlanRequest)}
     data["dehydration_findings"] = list(request.dehydration_findings)
     data["measured_outputs"] = [list(m) for m in request.measured_outputs]
+    data["diuretics"] = [list(d) for d in request.diuretics]
     data["start_time"] = request.start_time.strftime("%H:%M") if request.start_time else None
     data["start_date"] = request.start_date.isoformat() if request.start_date else None
     return data
@@ -247,6 +259,7 @@ MAX_LIST_ITEMS = 10_000
 LISTS = {
     "dehydration_findings": "a list of finding ids",
     "measured_outputs": "a list of [urine mL, other losses mL], one per period",
+    "diuretics": "a list of [drug, dose, route, start hour, end hour], one per dose",
 }
 
 
