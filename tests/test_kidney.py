@@ -228,3 +228,20 @@ def test_the_cli_course_rows_carry_urine_and_stop_predicting_it_after_the_plan(c
     assert after["urine_ml_per_h"] is None and after["urine_osm_mosm_per_kg"] is None
     assert during["urine_ml"] < end["urine_ml"] <= after["urine_ml"]  # cumulative
     assert during["serum_na"] is not None and during["serum_k"] is not None  # entered
+
+
+def test_an_ins_and_outs_course_gives_no_urine_figure_rather_than_zero(capsys):
+    """In ins-and-outs mode urine is measured, not modelled: the rows say nothing (null)
+    where a 0 would read as anuria; at hour 0 the urine shown is the first step's."""
+    import json
+
+    from vetfluid import cli
+
+    cli.main(["course", "--species", "dog", "--weight", "20 kg", "--ins-and-outs-period", "6",
+              "--measured-urine-ml", "60", "--at", "0,3", "--json"])  # fmt: skip
+    rows = json.loads(capsys.readouterr().out)["rows"]
+    assert all(row[k] is None for row in rows for k in ("urine_ml", "urine_ml_per_h",
+                                                         "urine_osm_mosm_per_kg"))  # fmt: skip
+    cli.main(["course", "--demo", "dehydrated_dog", "--at", "0,0.0833", "--json"])
+    start, first_step = json.loads(capsys.readouterr().out)["rows"]
+    assert start["urine_osm_mosm_per_kg"] == first_step["urine_osm_mosm_per_kg"]

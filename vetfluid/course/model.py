@@ -119,7 +119,9 @@ class Course:
         i = int(np.clip(np.searchsorted(self.hours, hour), 0, len(self.hours) - 1))
         if i > 0 and abs(self.hours[i - 1] - hour) < abs(self.hours[i] - hour):
             i -= 1
-        predicted = self.hours[i] <= self.outputs_end_h + 1e-9
+        # no kidney in ins-and-outs mode (urine is measured there): no urine figure, not 0
+        kidney = self.urine_osm_mosm_per_kg is not None
+        predicted = kidney and self.hours[i] <= self.outputs_end_h + 1e-9
         return {
             "hour": float(self.hours[i]),
             "plasma_ml": float(self.plasma_ml[i]),
@@ -129,11 +131,12 @@ class Course:
             "remaining_deficit_ml": float(self.remaining_deficit_ml[i]),
             "given_ml": float(self.given_ml[i]),
             "given_by_fluid_ml": {name: float(v[i]) for name, v in self.given_by_fluid_ml.items()},
-            "urine_ml": float(self.urine_ml[i]),
+            "urine_ml": float(self.urine_ml[i]) if kidney else None,
             "urine_ml_per_h": self._urine_rate_ml_per_h(i) if predicted else None,
-            "urine_osm_mosm_per_kg": None
-            if self.urine_osm_mosm_per_kg is None or not predicted
-            else float(self.urine_osm_mosm_per_kg[i]),
+            # at hour 0, the first step's urine (as the flow), not the state it starts from
+            "urine_osm_mosm_per_kg": float(self.urine_osm_mosm_per_kg[max(i, 1)])
+            if predicted and len(self.hours) > 1
+            else None,
             "serum_na": None if self.serum_na is None else float(self.serum_na[i]),
             "serum_k": None if self.serum_k is None else float(self.serum_k[i]),
             "pcv_percent": None if self.pcv_percent is None else float(self.pcv_percent[i]),
