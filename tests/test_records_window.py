@@ -37,7 +37,7 @@ def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, answer):
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.update(dehydration_percent=6.0)  # an edit: unsaved work
     qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
-    window._save_draft()  # what the autosave timer does a few seconds after each edit
+    window.keeper.autosave()  # what the autosave timer does a few seconds after each edit
     answer({"stopped unexpectedly": QMessageBox.StandardButton.Yes})
     again = MainWindow()  # the first window never closed: it crashed
     qtbot.addWidget(again)
@@ -52,13 +52,13 @@ def test_a_plan_left_unsaved_is_offered_back_as_left_not_as_a_crash(qtbot, plann
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.update(dehydration_percent=6.0)
     qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
-    window._save_draft()  # the autosave, as if vetfluid could crash now
+    window.keeper.autosave()  # the autosave, as if vetfluid could crash now
     answer({"This plan, or what was recorded": QMessageBox.StandardButton.No,
             "was left, or vetfluid was closed": QMessageBox.StandardButton.Yes})  # fmt: skip
     window.new_patient()  # left on purpose (No), then nothing else changed
     qtbot.waitUntil(lambda: window.session.plan is None)
     assert window.records.draft()["closed"]
-    assert window.offer_draft()  # asked with the words for a plan left, not a crash
+    assert window.keeper.offer_draft()  # asked with the words for a plan left, not a crash
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert window.session.plan.request.dehydration_percent == 6.0
 
@@ -69,7 +69,7 @@ def test_closing_with_unsaved_edits_keeps_them_and_says_so(qtbot, planner, monke
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.update(body_temp_c=29.0)  # warmed up: an edit
     qtbot.waitUntil(lambda: window.session.plan.request.body_temp_c == 29.0)
-    assert window._draft_timer.isActive()  # edited less than the autosave delay ago
+    assert window.keeper.timer.isActive()  # edited less than the autosave delay ago
     window.close()
     from ui.main_window import MainWindow
 
@@ -110,10 +110,10 @@ def test_declining_the_draft_clears_it(qtbot, planner, monkeypatch):
     window.open_demo("renal_cat")
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.acknowledge("OVERLOAD_RISK", "weighed 6-hourly")  # unsaved work
-    window._save_draft()
+    window.keeper.autosave()
     assert window.records.draft() is not None
     monkeypatch.setattr(QMessageBox, "question", lambda *a, **k: QMessageBox.StandardButton.No)
-    assert not window.offer_draft()
+    assert not window.keeper.offer_draft()
     assert window.records.draft() is None
 
 
@@ -194,11 +194,11 @@ def test_a_reason_comes_back_from_a_draft_or_version_for_the_words_it_was_given_
     window.save_version(name="Pip", author="AB")
     window.session.update(pcv_percent=45.0)  # an edit after the save, with the same words
     qtbot.waitUntil(lambda: window.session.plan.request.pcv_percent == 45.0)
-    window._save_draft()  # what the autosave does after an edit
+    window.keeper.autosave()  # what the autosave does after an edit
     answer({"Restore it": QMessageBox.StandardButton.Yes,
             "This plan, or what was recorded": QMessageBox.StandardButton.No})  # fmt: skip
     version = window.records.find_patients("Pip")[0].id
-    for reopen in (window.offer_draft, lambda: window.load_version(version, 1)):
+    for reopen in (window.keeper.offer_draft, lambda: window.load_version(version, 1)):
         window.new_patient()
         qtbot.waitUntil(lambda: window.session.plan is None)
         reopen()
@@ -232,7 +232,7 @@ def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_wi
          "acknowledged": {code: "owner declined IO"},
          "acknowledged_for": {code: said_at_24_h}, "closed": True}
     )  # fmt: skip
-    assert window.offer_draft()
+    assert window.keeper.offer_draft()
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert code in {f.code for f in window.session.blockers()}
     assert window.session.lapsed[code] == ("owner declined IO", said_at_24_h)
@@ -250,19 +250,19 @@ def test_observations_are_kept_with_the_draft_and_the_saved_version(
                                                                   urine_period_h=4.0)]  # fmt: skip
     for observation in recorded:
         window.session.add_observation(observation)
-    window._save_draft()  # a crash now must not lose what the nurse recorded
+    window.keeper.autosave()  # a crash now must not lose what the nurse recorded
     answer({"Restore it": QMessageBox.StandardButton.Yes,
             "This plan, or what was recorded": QMessageBox.StandardButton.No})  # fmt: skip
     window.new_patient()
     qtbot.waitUntil(lambda: window.session.plan is None)
-    assert window.offer_draft()
+    assert window.keeper.offer_draft()
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert window.session.observations == recorded
 
     window.save_version(name="Rex", author="AB")
     later = Observation(hour=6.0, weight_kg=24.9)
     window.session.add_observation(later)  # recorded on the saved version
-    assert window._draft_timer.isActive()
+    assert window.keeper.timer.isActive()
     window.new_patient()  # before the timer fires: written on the way out
     qtbot.waitUntil(lambda: window.session.plan is None)
     assert window.records.draft() is None  # nothing unsaved: no draft offered next time
@@ -280,14 +280,14 @@ def test_opening_a_saved_version_leaves_no_draft_and_edits_to_it_are_drafted(qtb
     window.save_version(name="Rex", author="AB")
     window.new_patient()
     window.load_version(window.records.find_patients("Rex")[0].id, 1)
-    window._save_draft()  # what the timer does two seconds after opening
+    window.keeper.autosave()  # what the timer does two seconds after opening
     assert window.records.draft() is None
     window.session.update(weight_kg=23.0)  # the plan now differs from the saved version
     qtbot.waitUntil(lambda: window.session.request.weight_kg == 23)
     window.session.add_observation(Observation(hour=1.0, weight_kg=24.1))
-    window._save_draft()
+    window.keeper.autosave()
     assert window.records.draft()["observations"] == [{"hour": 1.0, "weight_kg": 24.1}]
-    pid = window.current_patient
+    pid = window.keeper.work.patient_id
     assert window.records.observations(window.records.versions(pid)[0].id) == []
 
 
@@ -314,10 +314,10 @@ def test_replanning_an_unsaved_plan_saves_it_first(qtbot, planner, monkeypatch, 
     )
     window.course_view.replan()
     assert len(window.session.versions) == 1  # re-planned after the save
-    saved = window.records.versions(window.current_patient)
+    saved = window.records.versions(window.keeper.work.patient_id)
     assert [v.version for v in saved] == [1]
     assert window.records.observations(saved[0].id) == [{"hour": 4.0, "weight_kg": 24.6}]
-    assert window._has_unsaved_work(), "the re-plan itself is saved nowhere yet"
+    assert window.keeper.work.has_unsaved_work(), "the re-plan itself is saved nowhere yet"
 
 
 def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
@@ -328,7 +328,7 @@ def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
     window = planner
     window.open_demo("dehydrated_dog")
     qtbot.waitUntil(lambda: window.session.plan is not None)
-    window._draft_timer.stop()  # the draft below stands for a damaged one
+    window.keeper.timer.stop()  # the draft below stands for a damaged one
     window.records.save_draft(
         {"request": request_to_dict(window.session.plan.request), "closed": True,
          "observations": [{"hour": 1.0, "weight_kg": 24.2}, {"hour": 2.0, "weight_kg": "heavy"},
@@ -337,7 +337,7 @@ def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
     answer({"Restore it": QMessageBox.StandardButton.Yes,
             "This plan, or what was recorded": QMessageBox.StandardButton.No})  # fmt: skip
     window.new_patient()
-    assert window.offer_draft()
+    assert window.keeper.offer_draft()
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert [o.weight_kg for o in window.session.observations] == [24.2]
     assert "2 stored observation(s) could not be read" in window.statusBar().currentMessage()
@@ -379,7 +379,7 @@ def _saved_dog(qtbot, window, **changes):
     window.session.replace_request(dataclasses.replace(DEMOS["dehydrated_dog"].request, **changes))
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.save_version(name="Rex", author="AB")
-    return window.records.versions(window.current_patient)[-1]
+    return window.records.versions(window.keeper.work.patient_id)[-1]
 
 
 def test_a_replan_that_matches_the_saved_version_never_writes_into_it(qtbot, planner, answer):
@@ -392,10 +392,10 @@ def test_a_replan_that_matches_the_saved_version_never_writes_into_it(qtbot, pla
     window.session.add_observation(Observation(hour=0.0, weight_kg=24.0))
     window.course_view.replan()
     assert len(window.session.versions) == 1
-    window._save_draft()  # what the timer does next
+    window.keeper.autosave()  # what the timer does next
     assert window.records.observations(saved.id) == [{"hour": 0.0, "weight_kg": 24.0}]
     window.session.add_observation(Observation(hour=1.0, weight_kg=24.1))  # on the new plan
-    window._save_draft()
+    window.keeper.autosave()
     assert window.records.observations(saved.id) == [{"hour": 0.0, "weight_kg": 24.0}]
     assert window.records.draft()["observations"] == [{"hour": 1.0, "weight_kg": 24.1}]
 
@@ -407,9 +407,9 @@ def test_rows_that_could_not_be_read_stay_in_the_version(qtbot, planner):
         version_id=saved.id, observation={"hour": 1.0, "weight_kg": 24.2}
     )
     window.records.add_observation(version_id=saved.id, observation={"hour": 2.0, "weight_kg": "x"})
-    window.load_version(window.current_patient, saved.version)
+    window.load_version(window.keeper.work.patient_id, saved.version)
     assert "1 stored observation(s) could not be read" in window.statusBar().currentMessage()
-    window._save_draft()
+    window.keeper.autosave()
     assert len(window.records.observations(saved.id)) == 2  # the unreadable one is kept
 
 
@@ -440,9 +440,9 @@ def test_a_reason_given_on_an_opened_version_is_kept_on_close(qtbot, planner):
     window.session.replace_request(DEMOS["renal_cat"].request)
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.save_version(name="Tom", author="AB")
-    window.load_version(window.current_patient, 1)
+    window.load_version(window.keeper.work.patient_id, 1)
     window.session.acknowledge("OVERLOAD_RISK", "weighed 6-hourly")
-    assert window._draft_timer.isActive()
+    assert window.keeper.timer.isActive()
     window.close()  # asks nothing (the fixture fails a question nobody answers)
     with Records.open() as records:
         assert records.draft()["acknowledged"] == {"OVERLOAD_RISK": "weighed 6-hourly"}
@@ -472,11 +472,13 @@ def test_a_reopened_ins_and_outs_plan_counts_each_measurement_once(qtbot, planne
     qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
     window.save_version(name="Tom", author="AB")
     window.new_patient()
-    window.load_version(window.current_patient or window.records.find_patients("Tom")[0].id, 1)
+    window.load_version(
+        window.keeper.work.patient_id or window.records.find_patients("Tom")[0].id, 1
+    )
     qtbot.waitUntil(lambda: window.session.plan is not None)
     qtbot.wait(50)  # the rebuild that follows the restored observations
     assert window.session.plan.request.measured_outputs == ((70.0, 0.0),)  # not 140 mL
-    assert not window._has_unsaved_work()  # the reopened version is unchanged
+    assert not window.keeper.work.has_unsaved_work()  # the reopened version is unchanged
 
 
 # ---- the third review's cases ----------------------------------------------------------------
@@ -493,7 +495,7 @@ def test_an_observation_after_editing_a_version_never_goes_into_that_version(qtb
     window.session.update(weight_kg=None)  # and the weight is being retyped
     qtbot.waitUntil(lambda: window.session.plan is None)
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-    window._save_draft()
+    window.keeper.autosave()
     assert window.records.observations(saved.id) == []
     draft = window.records.draft()
     assert draft["request"]["dehydration_percent"] == 6.0  # the last plan that could be built
@@ -523,21 +525,21 @@ def test_a_restored_draft_and_a_replan_are_unsaved_work_until_saved(qtbot, plann
     window.open_demo("renal_cat")
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.acknowledge("OVERLOAD_RISK", "weighed 6-hourly")
-    window._save_draft()
+    window.keeper.autosave()
     answer({"Restore it": QMessageBox.StandardButton.Yes, LEAVE: QMessageBox.StandardButton.No})
-    assert window.offer_draft()  # restored, untouched since: still unsaved work
+    assert window.keeper.offer_draft()  # restored, untouched since: still unsaved work
     qtbot.waitUntil(lambda: window.session.plan is not None)
-    assert window._has_unsaved_work()
+    assert window.keeper.work.has_unsaved_work()
     answer({LEAVE: QMessageBox.StandardButton.Cancel})
     window.new_patient()
     assert window.session.plan is not None  # asked, and cancelled
 
     window.details.setCurrentWidget(window.course_holder)
     window.save_version(name="Tom", author="AB")
-    assert not window._has_unsaved_work()
+    assert not window.keeper.work.has_unsaved_work()
     window.session.add_observation(Observation(hour=6.0, weight_kg=4.1))
     window.course_view.replan()  # on the saved version: its observations went into it
-    assert len(window.session.versions) == 1 and window._has_unsaved_work()
+    assert len(window.session.versions) == 1 and window.keeper.work.has_unsaved_work()
     window.open_demo("small_gerbil")  # asked (Cancel): the re-plan is not dropped
     assert window.session.plan.request.species_id == "cat"
 
@@ -551,9 +553,9 @@ def test_a_restored_draft_that_no_longer_builds_is_still_unsaved_work(qtbot, pla
     broken = request_to_dict(window.session.plan.request) | {"species_id": "no_such_species"}
     window.records.save_draft({"request": broken, "closed": True, "observations": []})
     answer({"Restore it": QMessageBox.StandardButton.Yes, LEAVE: QMessageBox.StandardButton.Cancel})
-    assert window.offer_draft()
+    assert window.keeper.offer_draft()
     qtbot.wait(50)
-    assert window.session.plan is None and window._has_unsaved_work()
+    assert window.session.plan is None and window.keeper.work.has_unsaved_work()
     window.new_patient()  # asked, and cancelled: the draft is not overwritten
     assert window.records.draft()["request"]["species_id"] == "no_such_species"
 
@@ -565,7 +567,7 @@ def test_observations_recorded_before_any_plan_are_kept(qtbot, planner, answer):
     window = planner
     window.new_patient()  # nothing typed: no plan can be built
     window.session.add_observation(Observation(hour=0.5, note="arrived collapsed"))
-    assert window._has_unsaved_work()
+    assert window.keeper.work.has_unsaved_work()
     window.close()  # asks nothing: it goes into the draft
     answer({"was left, or vetfluid was closed": QMessageBox.StandardButton.Yes})
     again = MainWindow()
@@ -587,7 +589,7 @@ def test_saving_needs_a_plan_that_builds_and_says_what_is_wrong(qtbot, planner, 
     answer({LEAVE: QMessageBox.StandardButton.Yes,
             "cannot be saved until": lambda: shown.append(1)})  # fmt: skip
     window.new_patient()  # Yes, save first: it cannot be, so nothing is left
-    assert shown and window.session.request is None and window._has_unsaved_work()
+    assert shown and window.session.request is None and window.keeper.work.has_unsaved_work()
     assert window.session.inputs["species_id"] == "dog"
 
 
@@ -612,16 +614,16 @@ def test_a_failed_write_is_unsaved_work_and_is_tried_again(qtbot, planner, answe
     window = planner
     _saved_dog(qtbot, window)
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-    window._draft_timer.stop()
+    window.keeper.timer.stop()
     disk = _failing_writes(window)
-    window._save_draft()
+    window.keeper.autosave()
     assert "trying again" in window.statusBar().currentMessage()
-    assert window._draft_timer.isActive() and window._has_unsaved_work()
+    assert window.keeper.timer.isActive() and window.keeper.work.has_unsaved_work()
     disk.undo()
-    window._draft_timer.stop()
-    window._save_draft()  # the retry
-    assert not window._has_unsaved_work()
-    saved = window.records.versions(window.current_patient)[-1]
+    window.keeper.timer.stop()
+    window.keeper.autosave()  # the retry
+    assert not window.keeper.work.has_unsaved_work()
+    saved = window.records.versions(window.keeper.work.patient_id)[-1]
     assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 24.2}]
 
 
@@ -632,8 +634,8 @@ def test_after_a_failed_write_a_saved_version_is_saved_work(qtbot, planner, answ
     _saved_dog(qtbot, window)
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
     disk = _failing_writes(window)
-    window._save_draft()
-    assert window._has_unsaved_work()
+    window.keeper.autosave()
+    assert window.keeper.work.has_unsaved_work()
     disk.undo()
     assert window.save_version(author="AB") == 2  # the observations are in version 2
     window.new_patient()  # nothing unsaved: asks nothing (an unanswered question fails)
@@ -705,7 +707,7 @@ def test_a_reopened_version_with_fractional_outputs_is_unchanged(qtbot, planner,
     window.load_version(window.records.find_patients("Tom")[0].id, 1)
     qtbot.wait(50)  # the rebuild that follows the restored observations
     assert window.session.plan.request == saved  # the very outputs saved, not 46.666666667
-    assert not window._has_unsaved_work()
+    assert not window.keeper.work.has_unsaved_work()
     window.new_patient()  # nothing asked (an unanswered question fails the test)
 
 
@@ -724,19 +726,19 @@ def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
     window.session.set_ins_and_outs(4.0)
     qtbot.waitUntil(lambda: window.session.plan.request.ins_and_outs_period_h == 4.0)
     window.save_version(name="Tom", author="AB")
-    version = window.records.versions(window.current_patient)[0]
+    version = window.records.versions(window.keeper.work.patient_id)[0]
     window.session.add_observation(Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0))
     window.session.add_observation(Observation(hour=4.0, weight_kg=4.1))
     qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
-    assert window._on_saved_version()
-    window._save_draft()
+    assert window.keeper.work.on_saved_version()
+    window.keeper.autosave()
     assert len(window.records.observations(version.id)) == 2
-    assert window.records.draft() is None or not window._draft_is_ours()
-    assert not window._has_unsaved_work()  # leaving asks nothing: version 1 rebuilds it
+    assert window.records.draft() is None or not window.keeper.work.draft_is_ours()
+    assert not window.keeper.work.has_unsaved_work()  # leaving asks nothing: version 1 rebuilds it
     shown = window.session.plan.request
-    window.load_version(window.current_patient, 1)
+    window.load_version(window.keeper.work.patient_id, 1)
     qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
-    assert window.session.plan.request == shown and window._on_saved_version()
+    assert window.session.plan.request == shown and window.keeper.work.on_saved_version()
     # a re-plan keeps the plan as it now stands: saved as version 2 first
     window.details.setCurrentWidget(window.course_holder)
     asked = []
@@ -744,7 +746,7 @@ def test_a_urine_measurement_on_a_saved_ins_and_outs_version_is_kept_with_it(
             or QMessageBox.StandardButton.Save})  # fmt: skip
     window.course_view.replan()
     assert asked and len(window.session.versions) == 1
-    versions = window.records.versions(window.current_patient)
+    versions = window.records.versions(window.keeper.work.patient_id)
     assert [v.version for v in versions] == [1, 2]
     assert versions[1].request["measured_outputs"] == [[70.0, 0.0]]
     # the observations stay with version 1, where they were recorded: never stored twice
@@ -762,7 +764,7 @@ def _saved_divided_gerbil(qtbot, window):
     )
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.save_version(name="Gerry", author="AB")
-    return window.records.versions(window.current_patient)[0]
+    return window.records.versions(window.keeper.work.patient_id)[0]
 
 
 def _weight_the_version_refuses(qtbot, window):
@@ -797,12 +799,12 @@ def test_observations_the_version_refuses_are_kept_in_the_draft_and_leaving_says
 
     window = planner
     _, disk = _weight_the_version_refuses(qtbot, window)
-    window._draft_timer.stop()
-    window._save_draft()
+    window.keeper.timer.stop()
+    window.keeper.autosave()
     assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
     assert "kept in the draft" in window.statusBar().currentMessage()
-    assert window._draft_timer.isActive()  # the version is tried again
-    assert window._has_unsaved_work()  # not in the version yet: leaving asks
+    assert window.keeper.timer.isActive()  # the version is tried again
+    assert window.keeper.work.has_unsaved_work()  # not in the version yet: leaving asks
     asked = []
     answer({LEAVE: lambda: asked.append(1) or QMessageBox.StandardButton.No})
     window.new_patient()
@@ -831,13 +833,13 @@ def test_once_the_version_takes_the_observations_the_draft_is_cleared(qtbot, pla
 
     window = planner
     saved, disk = _weight_the_version_refuses(qtbot, window)
-    window._save_draft()
+    window.keeper.autosave()
     assert window.records.draft() is not None
     disk.undo()
-    window._draft_timer.stop()
-    window._save_draft()  # the retry
+    window.keeper.timer.stop()
+    window.keeper.autosave()  # the retry
     assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 24.2}]
-    assert window.records.draft() is None and not window._has_unsaved_work()
+    assert window.records.draft() is None and not window.keeper.work.has_unsaved_work()
     window.new_patient()  # nothing asked
 
 
@@ -853,11 +855,11 @@ def test_no_retry_writes_while_the_close_question_is_open(qtbot, planner, answer
     disk = _failing_writes(window)
     timer_running = []
     answer(
-        {"Close anyway and lose it": lambda: timer_running.append(window._draft_timer.isActive())}
+        {"Close anyway and lose it": lambda: timer_running.append(window.keeper.timer.isActive())}
     )
     assert not window.close()  # a callable answer is no Yes: kept open
     assert timer_running == [False]
-    assert window._draft_timer.isActive()  # and trying again once the question is answered
+    assert window.keeper.timer.isActive()  # and trying again once the question is answered
     disk.undo()
 
 
@@ -931,13 +933,13 @@ def test_with_no_records_a_plan_file_and_an_export_keep_the_work(
     window.session.update(dehydration_percent=9.0)
     qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 9.0)
     assert window.write_request(tmp_path / "rex")
-    assert not window._has_unsaved_work()  # the file holds the plan as it is
+    assert not window.keeper.work.has_unsaved_work()  # the file holds the plan as it is
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.4))
-    assert window._has_unsaved_work()
+    assert window.keeper.work.has_unsaved_work()
     assert window.export_csv("observations", tmp_path / "rex.csv")
-    assert not window._has_unsaved_work()  # the CSV holds them
+    assert not window.keeper.work.has_unsaved_work()  # the CSV holds them
     window.session.add_observation(Observation(hour=3.0, weight_kg=24.5))
-    assert window._has_unsaved_work()  # one more, not exported
+    assert window.keeper.work.has_unsaved_work()  # one more, not exported
     answer({"Close and lose them": QMessageBox.StandardButton.Discard})
     assert window.close()
 
@@ -976,17 +978,17 @@ def test_a_version_that_no_longer_builds_is_still_compared_with_what_it_stores(
     )
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert window.save_version(name="Gerry", author="AB") == 1
-    patient = window.current_patient
+    patient = window.keeper.work.patient_id
     window.new_patient()
     # the clinic lowers the line weight: 65 g now gets a line by default
     set_override(species_id="mongolian_gerbil", parameter="continuous_line_min_kg", value=0.05)
     window.session.reload_table()
     window.load_version(patient, 1)
     assert window.session.plan is None  # divided boluses on an IV line: cannot be built
-    assert window._saved_version.request is not None
+    assert window.keeper.work.saved.request is not None
     window.session.update(route="sc")  # the user picks the route: the plan builds
     qtbot.waitUntil(lambda: window.session.plan is not None)
-    assert not window._on_saved_version()  # another route: not version 1
+    assert not window.keeper.work.on_saved_version()  # another route: not version 1
     answer({LEAVE: QMessageBox.StandardButton.No})
     assert window.close()
 
@@ -1009,15 +1011,15 @@ def test_removing_a_saved_measurement_while_the_weight_is_retyped_leaves_the_ver
     window.session.add_observation(Observation(hour=4.0, urine_ml=70.0, urine_period_h=4.0))
     qtbot.waitUntil(lambda: window.session.plan.request.measured_outputs == ((70.0, 0.0),))
     assert window.save_version(name="Tom", author="AB") == 1
-    version = window.records.versions(window.current_patient)[0]
+    version = window.records.versions(window.keeper.work.patient_id)[0]
     window.session.update(weight_kg=None)  # the weight being retyped
     qtbot.waitUntil(lambda: window.session.plan is None)
     window.session.remove_observation(0)
-    window._draft_timer.stop()
-    window._save_draft()  # the autosave
+    window.keeper.timer.stop()
+    window.keeper.autosave()  # the autosave
     assert len(window.records.observations(version.id)) == 1
     assert window.records.draft()["observations"] == []
-    assert window._has_unsaved_work()
+    assert window.keeper.work.has_unsaved_work()
 
 
 def test_observations_a_version_refused_are_offered_back_into_that_version(qtbot, planner, answer):
@@ -1037,8 +1039,8 @@ def test_observations_a_version_refused_are_offered_back_into_that_version(qtbot
     qtbot.waitUntil(lambda: bool(asked) and again.session.plan is not None)
     qtbot.waitUntil(lambda: again.records.observations(saved.id) != [])
     assert again.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 24.2}]
-    assert again.records.draft() is None and again._on_saved_version()
-    assert [v.version for v in again.records.versions(again.current_patient)] == [1]
+    assert again.records.draft() is None and again.keeper.work.on_saved_version()
+    assert [v.version for v in again.records.versions(again.keeper.work.patient_id)] == [1]
 
 
 @pytest.mark.parametrize(
@@ -1078,7 +1080,7 @@ def test_a_retry_while_the_close_question_is_open_writes_the_draft_as_closed(
 
     def meanwhile():  # the disk frees up and a retry (an edit restarted it) runs
         disk.undo()
-        window._save_draft()
+        window.keeper.autosave()
         return QMessageBox.StandardButton.No
 
     answer({"Close anyway and lose it": meanwhile})
@@ -1115,18 +1117,20 @@ def test_an_unreadable_draft_that_cannot_be_set_aside_blocks_nothing(
     qtbot.addWidget(window)
     window.show()
     qtbot.waitUntil(lambda: bool(told) and window.session is not None)
-    window._save_draft()  # the autosave, nothing edited
-    assert not window._has_unsaved_work()
+    window.keeper.autosave()  # the autosave, nothing edited
+    assert not window.keeper.work.has_unsaved_work()
     window.open_demo("dehydrated_dog")  # nothing asked
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-    window._save_draft()  # no room yet: not written, and the old draft untouched
-    assert window._has_unsaved_work() and "Not saved" in window.statusBar().currentMessage()
+    window.keeper.autosave()  # no room yet: not written, and the old draft untouched
+    assert (
+        window.keeper.work.has_unsaved_work() and "Not saved" in window.statusBar().currentMessage()
+    )
     monkeypatch.setattr(records_module.os, "open", real_open)  # room again
-    window._draft_timer.stop()
+    window.keeper.timer.stop()
     told.clear()
     answer({"set aside as": lambda: told.append(1)})
-    window._save_draft()
+    window.keeper.autosave()
     assert told == [1]  # said where it went, once
     assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
     [kept] = window.records.path.parent.glob("records-unreadable-draft-*.txt")
@@ -1175,15 +1179,15 @@ def test_writing_kept_observations_back_keeps_what_the_version_took_since(qtbot,
     )
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))  # B
     disk = _version_writes_fail(window)
-    window._draft_timer.stop()
-    window._save_draft()
+    window.keeper.timer.stop()
+    window.keeper.autosave()
     answer({LEAVE: QMessageBox.StandardButton.No})
     window.new_patient()
     disk.undo()
     window.load_version(saved.patient_id, saved.version)
     window.session.add_observation(Observation(hour=3.0, heart_rate_per_min=120))  # C
-    window._draft_timer.stop()
-    window._save_draft()
+    window.keeper.timer.stop()
+    window.keeper.autosave()
     assert window.records.draft()["for_version"] == saved.id  # B still waits in the draft
     assert window.close()
     answer({"version 1 of Rex": QMessageBox.StandardButton.Yes})
@@ -1213,10 +1217,10 @@ def test_a_version_that_does_not_build_takes_its_observations_and_leaves_no_draf
     window.load_version(saved.patient_id, 1)
     assert window.session.plan is None
     window.session.add_observation(Observation(hour=2.0, weight_kg=0.066))
-    window._draft_timer.stop()
-    window._save_draft()
+    window.keeper.timer.stop()
+    window.keeper.autosave()
     assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 0.066}]
-    assert not window._has_unsaved_work() and window.records.draft() is None
+    assert not window.keeper.work.has_unsaved_work() and window.records.draft() is None
     window.new_patient()  # nothing asked
 
 

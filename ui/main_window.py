@@ -7,11 +7,10 @@ appears quickly.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, NamedTuple
+from typing import TYPE_CHECKING
 
-from PySide6.QtCore import QDateTime, QEvent, QSettings, QTimer
+from PySide6.QtCore import QEvent, QSettings, QTimer
 from PySide6.QtGui import QAction, QIcon, QKeySequence
 from PySide6.QtWidgets import (
     QFileDialog,
@@ -33,27 +32,10 @@ from vetfluid.common.paths import user_data_dir, write_owner_only_text
 if TYPE_CHECKING:
     from PySide6.QtGui import QCloseEvent
 
-    from vetfluid.planning.plan import PlanRequest
+    from vetfluid.records.store import Records
+    from vetfluid.records.work_session import Opening
 
 FILE_FILTER = "vetfluid plan request (*.vfplan.json)"
-
-
-class VersionBehind(NamedTuple):
-    """The saved version a draft holds observations for, which it could not take."""
-
-    patient_id: int
-    number: int
-    patient_name: str
-
-
-@dataclass(frozen=True, kw_only=True)
-class SavedVersion:
-    """The saved version on screen: while the plan keeps these inputs and reasons, what is
-    recorded on it is written to that version rather than to the draft."""
-
-    row_id: int
-    request: PlanRequest
-    acknowledged: dict[str, str]
 
 
 def _placeholder(text: str) -> QWidget:
@@ -70,6 +52,7 @@ class MainWindow(QMainWindow):
     def __init__(self) -> None:
         super().__init__()
         self.session = None  # created with the planner, right after the first paint
+        self.keeper = None  # keeps the work in the records; created with the planner
         self.timeline_view = None
         self.course_view = None
         self.species_view = None
@@ -129,6 +112,7 @@ class MainWindow(QMainWindow):
         from ui.planning.plan_view import PlanSettings, PlanSummary
         from ui.planning.provenance_view import ProvenanceView
         from ui.planning.session import PlanSession
+        from ui.records.work_keeper import WorkKeeper
         from vetfluid.planning.demos import DEMOS
 
         self.session = PlanSession(parent=self)
@@ -205,7 +189,11 @@ class MainWindow(QMainWindow):
         self.session.readinessChanged.connect(self._update_check_tab)
         for changed in (self.session.planChanged, self.session.observationsChanged):
             changed.connect(self._update_course_tab)
-        self._open_records()
+        # a question that asks to save first saves through this window's own command
+        self.keeper = WorkKeeper(
+            self.session, self, save_version=lambda **kw: self.save_version(**kw)
+        )
+        QTimer.singleShot(0, self.keeper.offer_draft)  # the draft left last time
         self.session.recompute()
         self._page_opened(self.pages.currentIndex())
 
@@ -288,402 +276,13 @@ class MainWindow(QMainWindow):
         )
 
     # ---- records ----------------------------------------------------------------------------
-    def _open_records(self) -> None:
-        """Open the records database; if it cannot be used the planner still works."""
-        from vetfluid.records.store import Records, RecordsError
-
-        self.current_patient: int | None = None
-        self._saved_version: SavedVersion | None = None
-        self._opened: tuple[object, dict[str, str]] = (None, {})  # request and reasons opened
-        self._opening = False  # the next plan built is the one opened
-        self._next_is_unsaved = False  # the next plan opened is saved nowhere (a draft, a re-plan)
-        self._opened_unsaved = False  # the plan opened is saved nowhere until saved as a version
-        self._opened_request = None  # what was opened: the draft's plan while none can be built
-        self._last_valid: tuple[object, bool] | None = None  # request, on the saved version
-        self._write_error = ""  # why the work is written nowhere; empty once a write succeeds
-        self._observations_exported: tuple = ()  # with no records file: exported as CSV
-        # why the observations are not yet in the saved version (the draft holds them)
-        self._version_behind = ""
-        self._plan_tag = ""  # marks the drafts this plan wrote
-        self._closing = False  # asking whether to close: drafts written meanwhile are closed
-        self._plans_opened = 0
-        self.session.inputsReplaced.connect(self._plan_replaced)
-        self.session.planChanged.connect(self._plan_opened)
-        for changed in (self.session.planChanged, self.session.readinessChanged):
-            changed.connect(self._remember_valid)
-        self._records_problem = ""  # why the records cannot be used, when they cannot
-        try:
-            self.records = Records.open()
-        except RecordsError as exc:
-            self.records = None
-            self._records_problem = exc.one_line()
-            self.statusBar().showMessage(f"Records unavailable: {exc.one_line()}")
-            return
-        self._draft_timer = QTimer(self)
-        self._draft_timer.setSingleShot(True)
-        self._draft_timer.setInterval(2000)  # a crash loses at most a few seconds of typing
-        self._draft_timer.timeout.connect(self._save_draft)
-        for changed in (  # the plan, what was recorded on it, the reasons given
-            self.session.planChanged, self.session.observationsChanged,
-            self.session.readinessChanged,
-        ):  # fmt: skip
-            changed.connect(self._draft_timer.start)
-        QTimer.singleShot(0, self.offer_draft)
-
-    def _plan_replaced(self, _request: object) -> None:
-        """A new patient, a demo, a file, a version or a re-plan: a saved version is named
-        again by whoever opened it; the plan built next is the yardstick for unsaved work."""
-        self._saved_version = None
-        self._version_behind = ""  # the draft holds what that version lacks
-        self._observations_exported = ()  # with no records file: what was exported as CSV
-        self._last_valid = None
-        self._opening = True
-        self._opened_request = _request
-        self._opened_unsaved, self._next_is_unsaved = self._next_is_unsaved, False
-        self._plans_opened += 1
-        self._plan_tag = f"{id(self):x}-{QDateTime.currentMSecsSinceEpoch()}-{self._plans_opened}"
-
-    def _plan_opened(self, plan) -> None:  # noqa: ANN001 — Plan | None
-        if self._opening:  # built from what was opened, reasons already checked against it
-            self._opening = False
-            opened = plan.request if plan and not self._opened_unsaved else None
-            self._opened = (opened, self.session.acknowledged if opened else {})
-
-    def _remember_valid(self, *_: object) -> None:
-        """The last valid plan and whether it was the saved version: where observations
-        go while the plan cannot be built (a weight being retyped). Meanwhile a measurement
-        removed or added changes its outputs: it stays the saved version only while they
-        still follow from what is recorded."""
-        if self.session.plan is not None:
-            self._last_valid = (self.session.plan.request, self._on_saved_version())
-        elif self._last_valid is not None and self._last_valid[1]:
-            request = self._last_valid[0]
-            self._last_valid = (request, self._outputs_still_follow(request))
-
-    def _outputs_still_follow(self, request) -> bool:  # noqa: ANN001 — PlanRequest
-        """Whether ``request`` with the ins-and-outs outputs as they now stand is still what
-        reopening the saved version builds."""
-        from dataclasses import replace
-
-        from vetfluid.course.observations import follows_saved_request
-
-        inputs = self.session.inputs
-        try:
-            now = replace(
-                request,
-                ins_and_outs_period_h=inputs.get("ins_and_outs_period_h"),
-                measured_outputs=tuple(inputs.get("measured_outputs") or ()),
-            )
-        except VetfluidError:
-            return False
-        saved = self._saved_version
-        return saved is not None and follows_saved_request(
-            now, saved.request, self.session.observations
-        )
-
-    def _on_saved_version(self) -> bool:
-        """Whether the plan on screen is a saved version, unchanged since it was saved: the
-        same inputs and reasons, its measured outputs following from the observations
-        recorded on it (what reopening it would build)."""
-        from vetfluid.course.observations import follows_saved_request
-
-        plan, saved = self.session.plan, self._saved_version
-        return (
-            saved is not None
-            and plan is not None
-            and self.session.acknowledged == saved.acknowledged
-            and follows_saved_request(plan.request, saved.request, self.session.observations)
-        )
-
-    def _has_unsaved_work(self) -> bool:
-        """Observations, or a plan changed since it was opened, not in a saved version; a
-        plan opened from a draft or made by a re-plan, until it is saved; a write that
-        failed. With no records file, whatever is not in a plan file or an export."""
-        if self._write_error or self._version_behind:
-            return True
-        self._remember_valid()
-        last = self._last_valid
-        if last is not None and last[1]:  # the saved version, unchanged: written to it
-            return False
-        observed = tuple(self.session.observations)
-        if self.records is None and observed == self._observations_exported:
-            observed = ()  # exported as CSV: kept outside vetfluid
-        if observed or self._opened_unsaved:
-            return True
-        return last is not None and (last[0], self.session.acknowledged) != self._opened
-
-    def _may_leave(self) -> bool:
-        """Before another plan replaces this one: unsaved work is saved as a version (Yes),
-        left in the draft (No: offered at the next start, until another plan is changed),
-        or the command is cancelled. False when the work could not be kept either way."""
-        if not self._has_unsaved_work():
-            return True
-        if self.records is None:
-            return self._lose_unkept_work("Leave it")
-        answer = QMessageBox.question(
-            self, "vetfluid",
-            "This plan, or what was recorded on it, is not saved as a version. Save it "
-            "first?\n\nNo leaves it in the draft, offered when vetfluid next starts, "
-            "until another plan is changed.",
-            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No
-            | QMessageBox.StandardButton.Cancel,
-        )  # fmt: skip
-        if answer == QMessageBox.StandardButton.Yes:
-            return self.save_version() is not None
-        if answer != QMessageBox.StandardButton.No:
-            return False
-        self._save_draft(closed=True)  # left on purpose: offered back as left, not crashed
-        if self._write_error:
-            QMessageBox.warning(
-                self, "vetfluid",
-                f"The plan could not be kept in the draft: {self._write_error}\n\nIt stays "
-                "open. Save it as a version, or try again once the problem is fixed.",
-            )  # fmt: skip
-            return False
-        return True
-
-    def _keep_edits(self) -> None:
-        """Write what is waiting for the draft timer now (before the screen is replaced)."""
-        if self.records is not None and self._draft_timer.isActive():
-            self._draft_timer.stop()
-            self._save_draft()
-
-    def _draft_is_ours(self) -> bool:
-        """Whether the stored draft is this plan's; one that cannot be read is nobody's (it
-        is set aside here, or when a draft is next saved, :meth:`Records.save_draft`)."""
-        from vetfluid.records.store import DraftSetAside, RecordsError
-
-        try:
-            draft = self.records.draft()
-        except DraftSetAside as exc:
-            self._say_set_aside(exc.path)
-            return False
-        except RecordsError as exc:  # stays where it is: said, and tried again later
-            self.statusBar().showMessage(f"The draft left last time: {exc.one_line()}")
-            return False
-        return bool(draft) and draft.get("tag") == self._plan_tag
-
-    def _save_draft(self, *, closed: bool = False) -> None:
-        """Keep what is being edited; ``closed`` marks a normal close rather than a crash.
-
-        Observations recorded on an unchanged saved version are written to that version;
-        unsaved work goes into the draft, with the last valid plan while the plan cannot
-        be built. A draft another plan left is replaced only by unsaved work; a write
-        that fails is tried again and counts as unsaved work until it succeeds."""
-        from vetfluid.records.store import RecordsError
-
-        if self.records is None:
-            return
-        closed = closed or self._closing
-        self._remember_valid()
-        # while no plan has been built, what was opened (or, for a new patient, nothing)
-        request, on_saved = self._last_valid or (self._opened_request, False)
-        try:
-            if on_saved:
-                self._write_to_version(request, closed=closed)
-            elif self._has_unsaved_work():
-                self.records.save_draft(self._draft(request, closed=closed))
-            elif self._draft_is_ours():
-                self.records.clear_draft()
-            self._write_error = ""
-            if self.records.last_set_aside is not None:
-                kept, self.records.last_set_aside = self.records.last_set_aside, None
-                self._say_set_aside(kept)
-        except RecordsError as exc:
-            self._write_error = exc.one_line()
-            self.statusBar().showMessage(f"Not saved (trying again): {exc.one_line()}")
-            self._draft_timer.start()
-
-    def _write_to_version(self, request, *, closed: bool) -> None:  # noqa: ANN001 — PlanRequest
-        """Observations recorded on the saved version go into it. While they cannot, the
-        draft keeps them and the write is tried again; raises RecordsError when neither
-        the version nor the draft can be written."""
-        from vetfluid.records.store import RecordsError
-
-        try:
-            written = self.records.keep_observations(
-                version_id=self._saved_version.row_id, observations=self._observation_records()
-            )
-        except RecordsError as exc:
-            self._version_behind = exc.one_line()
-            row_id = self._saved_version.row_id
-            try:  # what it holds: the user's removals can then be told from later additions
-                held = self.records.observations(row_id)
-            except RecordsError:
-                held = None
-            self.records.save_draft(
-                {**self._draft(request, closed=closed, for_version=row_id), "version_had": held}
-            )
-            self.statusBar().showMessage(
-                "Observations kept in the draft; not yet in the saved version (trying again): "
-                + exc.one_line()
-            )  # fmt: skip
-            self._draft_timer.start()
-            return
-        self._version_behind = ""
-        if written:
-            self.statusBar().showMessage("Observations saved with the plan version.")
-        if self._draft_is_ours():
-            self.records.clear_draft()  # its edits were undone, or it held what is written now
-
-    def _draft(self, request, *, closed: bool, for_version: int | None = None) -> dict:  # noqa: ANN001
-        """What the draft keeps; ``for_version``: the saved version (its row) that could not
-        take the observations, offered back as such."""
-        from vetfluid.records.serialize import request_to_dict
-
-        return {
-            "for_version": for_version,
-            "request": request_to_dict(request) if request is not None else None,
-            "acknowledged": self.session.acknowledged,
-            "acknowledged_for": self.session.acknowledged_for,
-            "observations": self._observation_records(),
-            "patient_id": self.current_patient,
-            "closed": closed,
-            "tag": self._plan_tag,
-        }
-
-    def offer_draft(self) -> bool:
-        """Offer back the plan that was being edited when vetfluid last stopped, or the
-        observations a saved version could not take. A draft that cannot be restored is
-        set aside in a file, never dropped."""
-        from vetfluid.records.store import DraftSetAside, RecordsError
-
-        try:
-            draft = self.records.draft() if self.records is not None else None
-        except DraftSetAside as exc:  # unreadable: in a file now, nothing to restore
-            self._say_set_aside(exc.path)
-            return False
-        except RecordsError as exc:  # unreadable and still in place
-            QMessageBox.warning(self, "vetfluid", f"The plan last worked on: {exc.one_line()}.")
-            return False
-        if not draft:
-            return False
-        self._keep_edits()
-        try:
-            request, observations = self._draft_contents(draft)
-        except (VetfluidError, KeyError, TypeError, ValueError) as exc:
-            self._set_draft_aside(f"could not be restored ({exc})")
-            return False
-        version = self._version_behind_in(draft)
-        if version is not None:
-            question = (
-                f"Observations recorded on version {version.number} of {version.patient_name} "
-                "could not be written to it when vetfluid last ran; the draft kept them. Write "
-                "them to that version now? No discards them."
-            )
-        elif draft.get("closed"):
-            question = (
-                "The plan last worked on was left, or vetfluid was closed, before it was saved "
-                "as a version. Restore it?"
-            )
-        else:
-            question = (
-                "vetfluid stopped unexpectedly while a plan was being edited. Restore it? "
-                "The last few seconds of typing may be missing."
-            )
-        answer = QMessageBox.question(self, "vetfluid", question)
-        if self.records is None:  # the window was closed while the question was open
-            return False
-        if answer != QMessageBox.StandardButton.Yes:
-            try:
-                self.records.clear_draft()
-            except RecordsError as exc:  # declined all the same: offered again next start
-                self.statusBar().showMessage(f"The draft could not be cleared: {exc.one_line()}")
-            return False
-        if version is not None:
-            return self._into_version(draft, version, observations)
-        wording = draft.get("acknowledged_for")
-        self._next_is_unsaved = True  # a draft is unsaved work until it is saved
-        self.session.replace_request(
-            request,
-            draft.get("acknowledged") or {},
-            wording if isinstance(wording, dict) else None,  # older drafts have none
-        )
-        self.current_patient = draft.get("patient_id")
-        unreadable = self._restore_observations(observations)
-        try:  # the restored plan owns the draft now: saving it as a version clears it
-            self.records.save_draft({**draft, "tag": self._plan_tag})
-        except RecordsError:
-            pass  # the draft stays as it was, offered again at the next start
-        self.statusBar().showMessage("Restored the plan that was being edited." + unreadable)
-        return True
-
-    def _into_version(self, draft: dict, version: VersionBehind, observations: list) -> bool:
-        """Write the observations a saved version could not take into it, straight away
-        (whether or not it still builds), then open it; the draft stays when they cannot
-        be written."""
-        from vetfluid.records.store import RecordsError
-
-        row_id, held = draft["for_version"], draft.get("version_had")
-        try:
-            added = self.records.merge_observations(
-                version_id=row_id, observations=observations,
-                based_on=held if isinstance(held, list) else None,
-            )  # fmt: skip
-            self.records.clear_draft()
-        except RecordsError as exc:
-            QMessageBox.warning(
-                self, "vetfluid",
-                f"The observations could not be written to version {version.number}: "
-                f"{exc.one_line()}\n\nThe draft keeps them; they are offered again at the "
-                "next start.",
-            )  # fmt: skip
-            return False
-        unreadable = self.load_version(version.patient_id, version.number) or ""
-        self.statusBar().showMessage(
-            f"Wrote {added} observation(s) to version {version.number} of "
-            f"{version.patient_name}.{unreadable}"
-        )
-        return True
-
-    @staticmethod
-    def _draft_contents(draft: dict) -> tuple[PlanRequest | None, list]:
-        """The draft's request (None: observations recorded before any plan) and its
-        observations; raises when they are not what a draft holds."""
-        from vetfluid.records.serialize import request_from_dict
-
-        request = None if draft["request"] is None else request_from_dict(draft["request"])
-        observations = draft.get("observations") or []
-        if not isinstance(observations, list):
-            raise TypeError("its observations are not a list")
-        return request, observations
-
-    def _version_behind_in(self, draft: dict) -> VersionBehind | None:
-        """The saved version the draft holds observations for, which it could not take,
-        while that version is still in the records."""
-        from vetfluid.records.store import RecordsError
-
-        row_id, patient_id = draft.get("for_version"), draft.get("patient_id")
-        if not isinstance(row_id, int) or not isinstance(patient_id, int):
-            return None
-        try:
-            version = next((v for v in self.records.versions(patient_id) if v.id == row_id), None)
-            name = self.records.patient(patient_id).name if version else ""
-        except (RecordsError, LookupError):
-            return None
-        return None if version is None else VersionBehind(patient_id, version.version, name)
-
-    def _say_set_aside(self, kept: Path) -> None:
-        QMessageBox.warning(
-            self, "vetfluid",
-            f"The draft left last time could not be read; it was set aside as {kept}. "
-            "Nothing was restored from it.",
-        )  # fmt: skip
-
-    def _set_draft_aside(self, why: str) -> None:
-        from vetfluid.records.store import RecordsError
-
-        try:
-            kept = self.records.set_aside_draft()
-        except RecordsError as exc:
-            QMessageBox.warning(
-                self, "vetfluid", f"The plan last worked on {why}: {exc.one_line()}."
-            )
-            return
-        QMessageBox.warning(
-            self, "vetfluid",
-            f"The plan last worked on {why}; it was set aside as {kept}. Nothing was restored.",
-        )  # fmt: skip
+    @property
+    def records(self) -> Records | None:
+        """The records file (None when it cannot be used, or once closed). Not an attribute
+        until the planner is built: a window closed before then opened none."""
+        if self.keeper is None:
+            raise AttributeError("records")
+        return self.keeper.records
 
     def save_version(
         self,
@@ -693,172 +292,22 @@ class MainWindow(QMainWindow):
         author: str = "",
         with_observations: bool = True,
     ) -> int | None:
-        """Save the plan as the patient's next version (asks for the patient the first time),
-        with the observations on it unless they are kept with another version already."""
-        from ui.records.records_view import NewPatientDialog
-        from vetfluid.records.store import RecordsError
-
+        """Save the plan as the patient's next version (asks for the patient the first time)."""
         self.build_planner()
-        plan = self.session.plan
-        if self.records is None:
-            QMessageBox.information(self, "vetfluid", "No records file is open.")
-            return None
-        if plan is None:
-            QMessageBox.information(
-                self, "vetfluid",
-                "The plan cannot be saved until it can be built: "
-                f"{self.session.problem or 'choose a species and a weight'}.",
-            )  # fmt: skip
-            return None
-        try:
-            if self.current_patient is None:
-                if name is None:
-                    dialog = NewPatientDialog(plan.request.species_id, self)
-                    if not dialog.exec() or not dialog.name.text().strip():
-                        return None
-                    name, client_ref = dialog.name.text(), dialog.client.text()
-                    author = dialog.initials.text()
-                self.current_patient = self.records.add_patient(
-                    name=name, species_id=plan.request.species_id, client_ref=client_ref
-                )
-            number = self.records.save_version(
-                patient_id=self.current_patient, plan=plan,
-                acknowledged=self.session.acknowledged, author=author,
-                observations=self._observation_records() if with_observations else [],
-            )  # fmt: skip
-        except (RecordsError, VetfluidError) as exc:
-            QMessageBox.warning(self, "vetfluid", f"Not saved: {exc}")
-            return None
-        self._draft_timer.stop()  # what was being edited is now saved, observations and all
-        self._write_error = self._version_behind = ""
-        self._opened_unsaved = False
-        saved = next(v for v in self.records.versions(self.current_patient) if v.version == number)
-        self._saved_version = SavedVersion(
-            row_id=saved.id, request=plan.request, acknowledged=self.session.acknowledged
+        return self.keeper.save_version(
+            name=name, client_ref=client_ref, author=author, with_observations=with_observations
         )
-        self._remember_valid()
-        try:
-            if self._draft_is_ours():  # now saved; a draft another plan left stays
-                self.records.clear_draft()
-        except RecordsError:
-            pass  # the saved version holds it all; the stale draft is offered at the next start
-        self.statusBar().showMessage(f"Saved as version {number}; earlier versions are kept.")
-        return number
 
     def open_patient(self) -> None:
-        from ui.records.records_view import OpenPatientDialog
-
+        """Find a patient in the records and open one of its saved versions."""
         self.build_planner()
-        if self.records is None:
-            QMessageBox.information(self, "vetfluid", "No records file is open.")
-            return
-        dialog = OpenPatientDialog(self.records, self)
-        if dialog.exec() and dialog.chosen():
-            self.load_version(*dialog.chosen())
+        self.keeper.open_patient()
 
     def load_version(self, patient_id: int, version: int) -> str | None:
-        """Open a saved version with its observations; returns the note on any stored
-        observation that could not be read ("" when none), None when the user stayed."""
-        from vetfluid.common.errors import InputError
-        from vetfluid.records.serialize import request_from_dict
-
-        chosen = next(v for v in self.records.versions(patient_id) if v.version == version)
-        try:  # before leaving the plan on screen: a version that cannot be read changes nothing
-            request_from_dict(chosen.request)
-        except InputError as exc:
-            QMessageBox.warning(
-                self, "vetfluid",
-                f"Version {version} cannot be opened as it was saved: {exc.one_line()}.\n\n"
-                "It stays in the records unchanged; start a new version from the patient's "
-                "current findings.",
-            )  # fmt: skip
-            return None
-        if not self._leave_plan():
-            return None
-        # what each warning said when the version was saved: its reason covers that only
-        said = {f.get("code"): f.get("message") for f in chosen.plan.get("findings", ())}
-        wording = {code: said[code] for code in chosen.acknowledged if code in said}
-        stored = request_from_dict(chosen.request)
-        self.session.replace_request(stored, chosen.acknowledged, wording)
-        # what the version stores, even when it no longer builds (a clinic override since)
-        self._saved_version = SavedVersion(
-            row_id=chosen.id, request=stored, acknowledged=self.session.acknowledged
-        )
-        self._remember_valid()
-        if self._last_valid is None:  # it does not build now: still the version it was
-            self._last_valid = (stored, True)
-        unreadable = self._restore_observations(self.records.observations(chosen.id))
-        self.current_patient = patient_id
-        patient = self.records.patient(patient_id)
-        self.statusBar().showMessage(f"Opened {patient.name}, version {version}.{unreadable}")
-        return unreadable
-
-    def _before_replan(self) -> bool:
-        """The plan being replaced is in the records first, with its observations, so the
-        patient's record shows what was given: saved now if it is not a saved version.
-        False (nothing re-planned) when it is not saved."""
-        if self.session.plan is None:
-            return True  # nothing to re-plan from: the Course tab says so
-        if self.records is None:
-            QMessageBox.warning(
-                self, "vetfluid",
-                "A re-plan keeps the plan it replaces, with its observations, in the "
-                f"patient's record, and the records file cannot be used: "
-                f"{self._records_problem}.\n\nNothing was re-planned.",
-            )  # fmt: skip
-            return False
-        self._keep_edits()
-        on_saved = self._on_saved_version()
-        # an ins-and-outs version whose outputs have moved on with the measurements: the
-        # records hold it as saved, so the plan as it now stands is saved before it goes
-        moved = on_saved and self.session.plan.request != self._saved_version.request
-        if on_saved and (self._version_behind or self._write_error):
-            QMessageBox.warning(
-                self, "vetfluid",
-                "The observations could not be written to the saved version: "
-                f"{self._version_behind or self._write_error}\n\nvetfluid keeps trying; "
-                "re-plan once they are saved.",
-            )  # fmt: skip
-            return False
-        if not on_saved or moved:
-            why = (
-                "The plan being replaced has moved on from its saved version with the outputs "
-                "measured since. A re-plan keeps it in the patient's record as it stands (its "
-                "observations stay with the version they were recorded on)."
-                if moved
-                else "The plan being replaced has not been saved as a version. A re-plan keeps "
-                "it in the patient's record, with its observations."
-            )
-            answer = QMessageBox.question(
-                self, "vetfluid", f"{why} Save it now?",
-                QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Cancel,
-            )  # fmt: skip
-            if (
-                answer != QMessageBox.StandardButton.Save
-                or self.save_version(with_observations=not moved) is None
-            ):
-                return False
-        self._next_is_unsaved = True  # the re-plan itself is saved nowhere yet
-        return True
-
-    def _observation_records(self) -> list[dict]:
-        from vetfluid.course.observations import observation_record
-
-        return [observation_record(o) for o in self.session.observations]
-
-    def _restore_observations(self, records: list) -> str:
-        """Put stored observations back on the Course tab; one that cannot be read is
-        left out and counted in the returned note (the rest are kept)."""
-        from vetfluid.course.observations import observation_from_record
-
-        kept, unreadable = [], 0
-        for record in records:
-            try:
-                kept.append(observation_from_record(record))
-            except VetfluidError:
-                unreadable += 1
-        self.session.restore_observations(kept)
-        return f" {unreadable} stored observation(s) could not be read." if unreadable else ""
+        """Open a saved version with its observations; its status line, or None when the
+        plan on screen stayed."""
+        self.build_planner()
+        return self.keeper.open_version(patient_id, version)
 
     def _detail_opened(self, index: int) -> None:
         """The plots are built the first time the Timeline tab is opened (pyqtgraph is big)."""
@@ -875,7 +324,7 @@ class MainWindow(QMainWindow):
             from ui.common.wheel_guard import guard_wheel
             from ui.course.course_view import CourseView
 
-            self.course_view = CourseView(self.session, before_replan=self._before_replan)
+            self.course_view = CourseView(self.session, before_replan=self.keeper.before_replan)
             guard_wheel(self.course_view)
             self._swap(self.course_holder, self.course_view)
             self.course_view.oliguria.valueChanged.connect(self._update_course_tab)
@@ -984,31 +433,26 @@ class MainWindow(QMainWindow):
         self.details.setTabIcon(index, icon(f"severity-{severity}") if severity else QIcon())
 
     # ---- commands ----------------------------------------------------------------------------
-    def _leave_plan(self) -> bool:
-        """Before another plan replaces this one: keep its edits, offer to save unsaved
-        work; False when the user cancels."""
-        self._keep_edits()
-        if not self._may_leave():
-            return False
-        self.current_patient = None
-        return True
+    def _leave_plan(self, opening: Opening) -> bool:
+        """Put ``opening`` on screen if the work kept for the plan now there allows it (the
+        keeper asks what the work session says to ask); False when the plan stays. A plan
+        other than a saved version or a re-plan forgets the records patient."""
+        return self.keeper.leave_for(opening)
 
     def new_patient(self) -> None:
+        from vetfluid.records.work_session import Opening
+
         self.build_planner()
-        if not self._leave_plan():
-            return
-        self.session.replace_request(None)
-        self.patient.species_box.setFocus()
+        if self._leave_plan(Opening()):
+            self.patient.species_box.setFocus()
 
     def open_demo(self, demo_id: str) -> None:
         from vetfluid.planning.demos import demo
+        from vetfluid.records.work_session import Opening
 
         self.build_planner()
         chosen = demo(demo_id)
-        if not self._leave_plan():
-            return
-        self.session.replace_request(chosen.request)
-        self.statusBar().showMessage(chosen.story)
+        self._leave_plan(Opening(request=chosen.request, status=chosen.story))
 
     def find_species(self) -> None:
         self.build_planner()
@@ -1046,8 +490,7 @@ class MainWindow(QMainWindow):
         except OSError as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not save {path.name}:\n{exc}")
             return False
-        if self.records is None:  # kept in the file: no longer a plan that would be lost
-            self._opened = (plan.request, self.session.acknowledged)
+        self.keeper.file_written()  # with no records file, the file keeps the plan
         self.statusBar().showMessage(f"Saved {written}")
         return True
 
@@ -1060,6 +503,7 @@ class MainWindow(QMainWindow):
 
     def read_request(self, path: Path) -> bool:
         from vetfluid.records.request_file import read_request_file
+        from vetfluid.records.work_session import Opening
 
         self.build_planner()
         try:
@@ -1067,11 +511,12 @@ class MainWindow(QMainWindow):
         except (OSError, VetfluidError) as exc:
             QMessageBox.warning(self, "vetfluid", f"Could not open {path.name}:\n{exc}")
             return False
-        if not self._leave_plan():
-            return False
-        self.session.replace_request(opened.request, opened.acknowledged, opened.acknowledged_for)
-        self.statusBar().showMessage(f"Opened {path}")
-        return True
+        return self._leave_plan(
+            Opening(
+                request=opened.request, acknowledged=opened.acknowledged,
+                acknowledged_for=opened.acknowledged_for, status=f"Opened {path}",
+            )
+        )  # fmt: skip
 
     def _printable(self) -> bool:
         self.build_planner()
@@ -1127,7 +572,7 @@ class MainWindow(QMainWindow):
             QMessageBox.warning(self, "vetfluid", f"Could not write {path.name}:\n{exc}")
             return False
         if what == "observations":
-            self._observations_exported = tuple(self.session.observations)
+            self.keeper.observations_exported()  # with no records file, the CSV keeps them
         self.statusBar().showMessage(f"Exported the {what} to {path}")
         return True
 
@@ -1162,55 +607,15 @@ class MainWindow(QMainWindow):
         elif geometry is None:
             self.resize(1360, 860)
 
-    def _lose_unkept_work(self, action: str) -> bool:
-        """With no records file nothing can be kept: True when the user lets it go."""
-        answer = QMessageBox.warning(
-            self, "vetfluid",
-            "The records file cannot be used, so this plan and what was recorded on it "
-            f"cannot be kept: {self._records_problem}.\n\n{action} and lose them? To keep "
-            "them, choose Cancel: File ▸ Save plan request keeps the plan; File ▸ Export ▸ "
-            "Observations as CSV keeps the observations.",
-            QMessageBox.StandardButton.Discard | QMessageBox.StandardButton.Cancel,
-            QMessageBox.StandardButton.Cancel,
-        )  # fmt: skip
-        return answer == QMessageBox.StandardButton.Discard
-
-    def _close_losing_work(self) -> bool:
-        """Asked when closing and the work can be written nowhere; True closes anyway."""
-        self._draft_timer.stop()
-        self._closing = True  # a retry while asking (an edit restarts it) writes it as closed
-        answer = QMessageBox.question(
-            self, "vetfluid",
-            f"What is not saved as a version could not be written: {self._write_error}\n\n"
-            "Close anyway and lose it? No keeps vetfluid open and keeps trying.",
-            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No,
-            QMessageBox.StandardButton.No,
-        )  # fmt: skip
-        self._closing = False
-        if answer == QMessageBox.StandardButton.Yes:
-            return True
-        self._draft_timer.start()  # kept open: keep trying
-        return False
-
     def closeEvent(self, event: QCloseEvent) -> None:  # noqa: N802 (Qt override)
         settings = self._settings()
         settings.setValue("geometry", self.saveGeometry())
         settings.setValue("size", self.size())
         if self.session is not None:
             settings.setValue("splitter", self.splitter.saveState())
-            if self._records_problem and self._has_unsaved_work():
-                if not self._lose_unkept_work("Close"):
-                    event.ignore()
-                    return
-            elif self.records is not None:
-                self._draft_timer.stop()
-                self._save_draft(closed=True)  # unsaved work is offered back at the next start
-                if self._write_error and not self._close_losing_work():
-                    event.ignore()
-                    return
-                self._draft_timer.stop()
-                self.records.close()
-                self.records = None
+            if not self.keeper.close():  # asked, and kept open: nothing is lost
+                event.ignore()
+                return
         settings.sync()
         self._closed = True
         super().closeEvent(event)

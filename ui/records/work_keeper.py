@@ -1,0 +1,199 @@
+"""The window's side of keeping the work: it tells the work session
+(:mod:`vetfluid.records.work_session`) what the plan session does, asks the questions the
+work session returns, shows its messages and runs its two-second autosave timer.
+
+No rule about drafts, versions or questions lives here: which question is asked, and
+when, is the work session's (docs/work_keeping.md). This module only turns its replies into
+message boxes, a timer, the new-patient dialog and the plan session's calls.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import TYPE_CHECKING
+
+from PySide6.QtCore import QObject, QTimer
+from PySide6.QtWidgets import QMainWindow, QMessageBox
+
+from vetfluid.records.work_session import (
+    NO_RECORDS_FILE,
+    Answer,
+    Autosave,
+    Message,
+    NewPatient,
+    Opening,
+    Question,
+    Reply,
+    WorkSession,
+)
+
+if TYPE_CHECKING:
+    from ui.planning.session import PlanSession
+    from vetfluid.records.store import Records
+
+AUTOSAVE_MS = 2000  # a crash loses at most a few seconds of typing
+
+_BUTTONS = {
+    Answer.YES: QMessageBox.StandardButton.Yes,
+    Answer.NO: QMessageBox.StandardButton.No,
+    Answer.SAVE: QMessageBox.StandardButton.Save,
+    Answer.CANCEL: QMessageBox.StandardButton.Cancel,
+    Answer.DISCARD: QMessageBox.StandardButton.Discard,
+}
+_ANSWERS = {button: answer for answer, button in _BUTTONS.items()}
+
+
+class WorkKeeper(QObject):
+    """Keeps the work of ``session`` in the records through a :class:`WorkSession`.
+
+    ``save_version`` is the window's own command (it asks for the patient the first time):
+    a question that asks to save first calls it, looked up at that moment."""
+
+    def __init__(
+        self,
+        session: PlanSession,
+        window: QMainWindow,
+        *,
+        save_version: Callable[..., int | None],
+    ) -> None:
+        super().__init__(window)
+        self.session = session
+        self.window = window
+        self._save_first = save_version
+        self.work = WorkSession.open(session)
+        self.timer = QTimer(self)
+        self.timer.setSingleShot(True)
+        self.timer.setInterval(AUTOSAVE_MS)
+        self.timer.timeout.connect(self.autosave)
+        session.inputsReplaced.connect(lambda request: self.follow(self.work.opened(request)))
+        session.planChanged.connect(lambda _plan: self.follow(self.work.built()))
+        for changed in (session.observationsChanged, session.readinessChanged):
+            changed.connect(lambda *_: self.follow(self.work.changed()))
+        if self.work.problem:
+            self._status(f"Records unavailable: {self.work.problem}")
+
+    @property
+    def records(self) -> Records | None:
+        return self.work.records
+
+    # ---- carrying out what the work session says ------------------------------------------
+    def follow(self, reply: Reply) -> Reply:
+        """Start or stop the autosave, show the messages and the status, save first or ask
+        as told (feeding back how it went), then open what the last reply says."""
+        while True:
+            if reply.autosave is Autosave.START:
+                self.timer.start()
+            elif reply.autosave is Autosave.STOP:
+                self.timer.stop()
+            for message in reply.messages:
+                self._show(message)
+            if reply.status:
+                self._status(reply.status)
+            if reply.save_first is not None:
+                number = self._save_first(with_observations=reply.save_first.with_observations)
+                reply = self.work.save_finished(saved=number is not None)
+                continue
+            if reply.question is None:
+                break
+            reply = self.work.answer(self.ask(reply.question))
+        if reply.open is not None:
+            self._open(reply.open)
+        return reply
+
+    def ask(self, question: Question) -> Answer:
+        """The question in a message box with its buttons; closed without a button, its
+        escape answer."""
+        show = QMessageBox.warning if question.warning else QMessageBox.question
+        shown = [self.window, "vetfluid", question.text]
+        if question.answers != (Answer.YES, Answer.NO) or question.default is not None:
+            buttons = QMessageBox.StandardButton.NoButton
+            for answer in question.answers:
+                buttons |= _BUTTONS[answer]
+            shown.append(buttons)
+            if question.default is not None:
+                shown.append(_BUTTONS[question.default])
+        return _ANSWERS.get(show(*shown), question.escape)
+
+    def _show(self, message: Message) -> None:
+        show = QMessageBox.warning if message.warning else QMessageBox.information
+        show(self.window, "vetfluid", message.text)
+
+    def _status(self, text: str) -> None:
+        self.window.statusBar().showMessage(text)
+
+    def _open(self, opening: Opening) -> None:
+        def plain(mapping: object) -> dict | None:
+            return None if mapping is None else dict(mapping)
+
+        self.session.replace_request(
+            opening.request, plain(opening.acknowledged), plain(opening.acknowledged_for)
+        )
+        if opening.observations is not None:
+            self.session.restore_observations(list(opening.observations))
+        if opening.status:
+            self._status(opening.status)
+
+    # ---- the commands -------------------------------------------------------------------------
+    def autosave(self) -> None:
+        self.follow(self.work.autosave())
+
+    def offer_draft(self) -> bool:
+        """Offer back what the records' draft holds; True when something was opened."""
+        return self.follow(self.work.look_at_draft()).go
+
+    def leave_for(self, opening: Opening) -> bool:
+        """Replace the plan with ``opening`` if the work session lets it (it asks first
+        what it must); False when the plan stays."""
+        return self.follow(self.work.leave(opening)).go
+
+    def open_version(self, patient_id: int, number: int) -> str | None:
+        """Open a saved version: its status line, or None when nothing was opened."""
+        reply = self.follow(self.work.open_version(patient_id, number))
+        return reply.open.status if reply.open is not None else None
+
+    def open_patient(self) -> None:
+        """The patient dialog: a version chosen is opened as :meth:`open_version` opens it."""
+        from ui.records.records_view import OpenPatientDialog
+
+        if self.records is None:
+            self._show(Message(text=NO_RECORDS_FILE, warning=False))
+            return
+        dialog = OpenPatientDialog(self.records, self.window)
+        if dialog.exec() and dialog.chosen():
+            self.open_version(*dialog.chosen())
+
+    def before_replan(self) -> bool:
+        """Whether a re-plan may go on (the plan it replaces is in the records first)."""
+        return self.follow(self.work.replan()).go
+
+    def save_version(
+        self, *, name: str | None, client_ref: str, author: str, with_observations: bool
+    ) -> int | None:
+        """Save the plan as its patient's next version, asking for the patient (the
+        new-patient dialog) when none is known and none is named."""
+        from ui.records.records_view import NewPatientDialog
+
+        patient = None if name is None else NewPatient(name=name, client_ref=client_ref)
+        reply = self.work.save_version(
+            patient=patient, author=author, with_observations=with_observations
+        )
+        if reply.ask_patient:
+            dialog = NewPatientDialog(self.session.plan.request.species_id, self.window)
+            if not dialog.exec() or not dialog.name.text().strip():
+                return None
+            reply = self.work.save_version(
+                patient=NewPatient(name=dialog.name.text(), client_ref=dialog.client.text()),
+                author=dialog.initials.text(), with_observations=with_observations,
+            )  # fmt: skip
+        self.follow(reply)
+        return reply.saved_number
+
+    def close(self) -> bool:
+        """Whether the window may close (asked first when work would be lost)."""
+        return self.follow(self.work.close()).go
+
+    def file_written(self) -> None:
+        self.follow(self.work.file_written())
+
+    def observations_exported(self) -> None:
+        self.follow(self.work.observations_exported())
