@@ -178,6 +178,7 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
     add("--body-temp-c", type=_number, help="body temperature (ectotherms)")
     add("--serum-na", type=_number, help="serum sodium, mmol/L")
     add("--serum-k", type=_number, help="serum potassium, mmol/L")
+    add("--serum-hco3", type=_number, help="serum bicarbonate, mmol/L (followed in the course)")
     add("--usg", type=_number, help="urine specific gravity")
     add("--urine-osm", type=_number, help="urine osmolality, mOsm/kg")
     add("--kcl-mmol-per-l", type=_number, help="KCl to add per litre, by hand")
@@ -440,6 +441,7 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         body_temp_c=args.body_temp_c,
         serum_na=args.serum_na,
         serum_k=args.serum_k,
+        serum_hco3=args.serum_hco3,
         usg=args.usg,
         urine_osmolality=args.urine_osm,
         kcl_mmol_per_l=args.kcl_mmol_per_l,
@@ -690,11 +692,14 @@ COURSE_KEYS = ("plasma_ml", "interstitial_ml", "intracellular_ml", "weight_kg",
 COURSE_HEADINGS = ("plasma", "interstitial", "intracellular", "weight",
                    "deficit left", "given", "urine so far", "urine flow",
                    "urine osmolality", "serum Na", "serum K")  # fmt: skip
-COURSE_UNITS = {"serum_na": "mmol/L", "serum_k": "mmol/L", "urine_ml_per_h": "mL/h",
-                "urine_osm_mosm_per_kg": "mOsm/kg"}  # fmt: skip
+# shown only when a serum bicarbonate was entered (its row key too)
+COURSE_HCO3_KEY, COURSE_HCO3_HEADING = "serum_hco3", "serum HCO3"
+COURSE_UNITS = {"serum_na": "mmol/L", "serum_k": "mmol/L", "serum_hco3": "mmol/L",
+                "urine_ml_per_h": "mL/h", "urine_osm_mosm_per_kg": "mOsm/kg"}  # fmt: skip
 # Most decimals a figure of the course is printed with (a display choice, not a clinical
 # value): finer than this is the integrator's rounding (5.7e-14 mL), not fluid.
-COURSE_MOST_DECIMALS = {"serum_na": 1, "serum_k": 1, "urine_osm_mosm_per_kg": 0}
+COURSE_MOST_DECIMALS = {"serum_na": 1, "serum_k": 1, "serum_hco3": 1,
+                        "urine_osm_mosm_per_kg": 0}  # fmt: skip
 COURSE_MOST_DECIMALS_OTHERWISE = 2
 
 
@@ -744,6 +749,12 @@ def cmd_course(args: argparse.Namespace) -> int:
         plan, horizon_h=horizon, extra_boluses=extra, step_minutes=SHOWN_STEP_MINUTES
     )
     rows = [result.at(h) for h in hours]
+    keys, headings = COURSE_KEYS, COURSE_HEADINGS
+    if result.serum_hco3 is None:  # not entered: not predicted, and no key for it
+        for row in rows:
+            del row[COURSE_HCO3_KEY]
+    else:
+        keys, headings = (*keys, COURSE_HCO3_KEY), (*headings, COURSE_HCO3_HEADING)
     data = {
         "species_id": plan.request.species_id,
         "weight_kg": plan.request.weight_kg,
@@ -764,9 +775,9 @@ def cmd_course(args: argparse.Namespace) -> int:
     else:
         weight = weight_text(plan.request.weight_kg, plan.weight_unit)
         print(f"Course — {plan.species_name}, {weight}")
-        print(f"{'hour':>6} " + " ".join(f"{k:>17}" for k in COURSE_HEADINGS))
+        print(f"{'hour':>6} " + " ".join(f"{k:>17}" for k in headings))
         for row in rows:
-            cells = " ".join(f"{_course_cell(row, k, plan.weight_unit):>17}" for k in COURSE_KEYS)
+            cells = " ".join(f"{_course_cell(row, k, plan.weight_unit):>17}" for k in keys)
             print(f"{format_number(row['hour'], decimals=2):>6} {cells}")
         if result.urine_band_mosm_per_kg:
             floor, ceiling = result.urine_band_mosm_per_kg

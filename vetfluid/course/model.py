@@ -21,6 +21,12 @@ The equations, their sources and their simplifications are written out in
   share of the ECF decays with ``crystalloid_distribution_half_life_min`` (Hahn); a colloid
   holds its volume with its own half-life; what the kidney takes comes from the plasma.
 * **Weight** = entered weight + fluid given − what left (1 mL ≈ 1 g; Davis 2013).
+* **Bicarbonate** (only when a serum HCO3 was entered; :func:`_follow_bicarbonate`): the
+  body's bicarbonate over its apparent space (the ECF and the other buffers,
+  ``bicarbonate_space_fraction``), raised by the fluids' lactate, acetate and gluconate as
+  they are metabolised (half-life :data:`BASE_PRECURSOR_HALF_LIFE_MIN`), diluted as the ECF
+  grows, moved by each loss type's HCO3 and H+, lowered by acetazolamide's bicarbonaturia and
+  brought back by a healthy kidney with ``hco3_renal_return_h``.
 
 The starting compartments are the species' fractions of the entered (dehydrated) weight.
 """
@@ -81,6 +87,7 @@ class Course:
     outputs_end_h: float
     na_excreted_mmol: np.ndarray | None = None  # urine Na, cumulative (None: no kidney)
     k_excreted_mmol: np.ndarray | None = None  # urine K, cumulative
+    serum_hco3: np.ndarray | None = None  # mmol/L, when a serum bicarbonate was entered
     diuretics_not_modelled: tuple[str, ...] = ()  # doses whose effect the course leaves out
 
     def predicted(self, field: str, hour: float) -> float | None:
@@ -139,6 +146,7 @@ class Course:
             else None,
             "serum_na": None if self.serum_na is None else float(self.serum_na[i]),
             "serum_k": None if self.serum_k is None else float(self.serum_k[i]),
+            "serum_hco3": None if self.serum_hco3 is None else float(self.serum_hco3[i]),
             "pcv_percent": None if self.pcv_percent is None else float(self.pcv_percent[i]),
             "total_solids_g_per_dl": None
             if self.total_solids_g_per_dl is None
@@ -160,6 +168,7 @@ class _Input:
     colloid_half_life_h: float | None = None  # a colloid holds its volume in the plasma
     fluid_name: str = ""
     absorbed_over_h: float = 0.0  # an SC or intracoelomic dose reaches the body over this
+    base_mmol_per_l: float = 0.0  # bicarbonate and what is metabolised to it
 
     def absorbed(self) -> _Input:
         """The input as it reaches the body water: a dose under the skin or into the
@@ -169,9 +178,17 @@ class _Input:
         return replace(self, end_h=self.start_h + self.absorbed_over_h, absorbed_over_h=0.0)
 
 
+def _base_mmol_per_l(comp: fluids.Composition) -> float:
+    """Buffer base a fluid brings per litre: its lactate, acetate and gluconate, each
+    metabolised to one bicarbonate (vetfluid/tables/fluids.py). No library fluid carries
+    bicarbonate itself (solutes.csv has no HCO3 ion)."""
+    return comp.lactate_mmol_per_l + comp.acetate_mmol_per_l + comp.gluconate_mmol_per_l
+
+
 def _fluid_terms(fluid: fluids.Fluid, *, into_plasma: bool) -> dict:
     comp = fluids.composition(fluid)
     return {
+        "base_mmol_per_l": _base_mmol_per_l(comp),
         "fluid_name": fluid.name,
         "effective_mosm_per_l": comp.effective_osmolarity_mosm_per_l,
         "na_mmol_per_l": comp.na_mmol_per_l,
@@ -535,6 +552,7 @@ def course(
     water_in = np.zeros_like(hours)  # what has reached the body water (SC: as absorbed)
     ecf_osm_in = np.zeros_like(hours)  # effective mOsm entering the ECF (K's go to the ICF)
     na_in, k_in = np.zeros_like(hours), np.zeros_like(hours)
+    base_in = np.zeros_like(hours) if request.serum_hco3 is not None else None
     for item in inputs:
         if item.fluid_name not in by_fluid:
             by_fluid[item.fluid_name] = np.zeros_like(hours)
@@ -543,6 +561,8 @@ def course(
         _add_cumulative(water_in, hours, body, 1.0)
         _add_cumulative(na_in, hours, body, item.na_mmol_per_l / 1000.0)
         _add_cumulative(k_in, hours, body, item.k_mmol_per_l / 1000.0)
+        if base_in is not None and item.base_mmol_per_l:
+            _add_cumulative(base_in, hours, body, item.base_mmol_per_l / 1000.0)
         ecf_share = item.effective_mosm_per_l - 2.0 * phi * item.k_mmol_per_l
         _add_cumulative(ecf_osm_in, hours, body, ecf_share / 1000.0)
     for delivered in by_fluid.values():
@@ -604,6 +624,15 @@ def course(
         k_pool = np.asarray(balance.k_mmol)
         serum_k = k0 * k_pool / k_pool[0]
     pcv, solids = _dilution(plasma, request.pcv_percent, request.total_solids_g_per_dl)
+    serum_hco3 = None
+    if base_in is not None and request.serum_hco3 is not None:
+        serum_hco3, hco3_values = _follow_bicarbonate(
+            table, plan, hco3_0=request.serum_hco3, ecf_ml=ecf, step_h=step_h,
+            base_in_mmol=base_in, lost_ml=lost,
+            losses=losses if settings is not None else None,
+            drug_hco3_mmol=balance.hco3_excreted_mmol, kidney_acts=settings is not None,
+        )  # fmt: skip
+        kidney_values += hco3_values
 
     net = given - consumed - urine
     provenance = tuple(dict.fromkeys([*values.values(), *kidney_values]))
@@ -636,6 +665,7 @@ def course(
         na_excreted_mmol=None if settings is None else np.asarray(balance.na_excreted_mmol),
         k_excreted_mmol=None if settings is None else np.asarray(balance.k_excreted_mmol),
         diuretics_not_modelled=left_out_doses,
+        serum_hco3=serum_hco3,
     )
 
 
@@ -649,6 +679,102 @@ def _drugs(
         intensities, steps=steps,
         step_h=step_h, mannitol_in_mosm=None if mannitol_in is None else _increments(mannitol_in),
     )  # fmt: skip
+
+
+# Lactate leaves the blood with a half-life of 14.7 min in healthy people (lactate
+# elimination in man, 1979, "lactate_elimination1979"; 18.8 min with cirrhosis); the same
+# half-life is used for acetate and gluconate (memory: acetate is recalled to be used
+# faster, and much gluconate to leave unchanged in the urine, so the acetate-gluconate
+# fluid's base is overstated).
+BASE_PRECURSOR_HALF_LIFE_MIN = 14.7
+# Where the bicarbonate figures and checks come from (species_data/sources.csv).
+BICARBONATE_SOURCES = ("lactate_elimination1979", "waddell2016", "plumb_vdh_bicarbonate",
+                       "empendium_losses", "zitek2018")  # fmt: skip
+
+
+def _follow_bicarbonate(
+    table: SpeciesTable,
+    plan: Plan,
+    *,
+    hco3_0: float,
+    ecf_ml: np.ndarray,
+    step_h: float,
+    base_in_mmol: np.ndarray,
+    lost_ml: np.ndarray,
+    losses: electrolytes.LossComposition | None,
+    drug_hco3_mmol: list[float] | None,
+    kidney_acts: bool,
+) -> tuple[np.ndarray, list[SpeciesValue]]:
+    """Serum bicarbonate (mmol/L) at each grid point, and the species values used.
+
+    The body's bicarbonate B (mmol) spreads over an apparent space V(t) = ECF(t) + S, S the
+    buffers outside the ECF (``bicarbonate_space_fraction`` × W − ECF₀, at least 0; the ECF
+    alone where the species has no value), and HCO3 = B / V. Per step:
+    B += base metabolised (the fluids' lactate, acetate and gluconate, first-order with
+    :data:`BASE_PRECURSOR_HALF_LIFE_MIN`) + loss × (H+ − HCO3 of its type) (a loss of
+    unknown type at the patient's own HCO3) − a drug's bicarbonaturia × HCO3 / set point;
+    then a healthy kidney brings HCO3 towards its set point (the entered HCO3 held within
+    the species' reference interval) with ``hco3_renal_return_h``:
+    B ← V·set + (B − V·set)·e^(−Δt/τ). Dilution needs no term: a bicarbonate-free fluid
+    enlarges V around the same B. The return is left out with renal disease, with no kidney
+    (ins and outs) and where the species has no normal or time constant on record."""
+    request, sid, w = plan.request, plan.request.species_id, plan.request.weight_kg
+    used: list[SpeciesValue] = []
+    space = table.get(sid, "bicarbonate_space_fraction")
+    outside = 0.0
+    if space is not None:
+        used.append(space)
+        outside = max(space.number * w * 1000.0 - float(ecf_ml[0]), 0.0)
+    normal = table.get(sid, "serum_hco3_mmol_per_l")
+    return_h = table.get(sid, "hco3_renal_return_h")
+    set_point, keep = hco3_0, 1.0
+    if normal is not None:
+        used.append(normal)
+        low = normal.low if normal.low is not None else normal.number
+        high = normal.high if normal.high is not None else normal.number
+        set_point = min(max(hco3_0, low), high)
+    if kidney_acts and not request.renal_disease and normal is not None and return_h is not None:
+        used.append(return_h)
+        keep = math.exp(-step_h / return_h.number)
+    volume = ecf_ml + outside
+    # what reaches the body from the precursors each step: they are metabolised first-order
+    kept = math.exp(-math.log(2) * step_h * 60.0 / BASE_PRECURSOR_HALF_LIFE_MIN)
+    precursors = _decaying_sum(_increments(base_in_mmol), kept)  # left after each step's dose
+    base = np.concatenate(([0.0], precursors[:-1])) * (1.0 - kept)
+    lost = np.diff(lost_ml, prepend=0.0)
+    own = losses is None or losses.hco3_mmol_per_l is None  # a loss at the patient's own HCO3
+    # each step is linear in B: B_i = a_i·B_(i−1) + b_i (loss, base, drug, then the kidney)
+    share_lost = lost[1:] / volume[:-1] if own else 0.0
+    added = base[1:] + (
+        0.0 if own else lost[1:] * (losses.h_mmol_per_l - losses.hco3_mmol_per_l) / 1000.0
+    )
+    drug = 0.0
+    if drug_hco3_mmol is not None:
+        drug = (
+            np.diff(np.asarray(drug_hco3_mmol))[: len(volume) - 1]
+            * 1000.0
+            / (volume[1:] * set_point)
+        )  # share of B the drug takes: HCO3/set point × its amount
+    a = keep * (1.0 - drug) * (1.0 - share_lost) * np.ones(len(volume) - 1)
+    b = keep * (1.0 - drug) * added + (1.0 - keep) * set_point * volume[1:] / 1000.0
+    return _linear_steps(hco3_0 * volume[0] / 1000.0, a, b) * 1000.0 / volume, used
+
+
+def _linear_steps(start: float, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """x_0 = start, x_i = a_i·x_(i−1) + b_i, never below 0: in closed form,
+    x_i = P_i·(x_0 + Σ b_j / P_j) with P_i = Π a_j, where that is safe (P stays far from
+    underflow and x from 0); else step by step, holding x at 0 (an amount cannot be
+    negative)."""
+    product = np.cumprod(a)
+    if product.size == 0 or (a > 0.0).all() and product[-1] > 1e-200:
+        x = product * (start + np.cumsum(b / product))
+        if (x >= 0.0).all():
+            return np.concatenate(([start], x))
+    values, x = [start], start
+    for ai, bi in zip(a.tolist(), b.tolist(), strict=True):
+        x = max(ai * x + bi, 0.0)
+        values.append(x)
+    return np.asarray(values)
 
 
 def _decaying_sum(added: list[float], keep: float) -> np.ndarray:

@@ -349,7 +349,10 @@ def sodium_summary(
 @dataclass(frozen=True, kw_only=True)
 class LossComposition:
     """Typical Na and K of an ongoing loss (mmol/L); None: isotonic, at the patient's own
-    Na and K of the moment (what is used when the composition is unknown)."""
+    Na and K of the moment (what is used when the composition is unknown). Its bicarbonate
+    (None: at the patient's own) and the acid (H+) it carries away, each H+ lost leaving one
+    bicarbonate behind in the body (the parietal cell returns one HCO3 to the blood for each
+    H+ it secretes; textbook physiology)."""
 
     loss_type: str
     label: str
@@ -358,13 +361,16 @@ class LossComposition:
     source_id: str | None
     basis: str
     note: str
+    hco3_mmol_per_l: float | None = None
+    h_mmol_per_l: float = 0.0
 
 
-# Human figures (no veterinary table is on record): gastric juice Na 20–60, K ≈ 14; diarrhoea
-# Na 30–140, K 30–70 mmol/L (Empendium table of losses, "empendium_losses"); the middle of
-# each range is used. Polyuric urine "varies greatly; measure it" (same table) and drain or
-# third-space fluid is a plasma ultrafiltrate (Starling; recalled): both are taken as
-# isotonic until measured.
+# Human figures (no veterinary table is on record): gastric juice Na 20–60, K ≈ 14, HCO3 0,
+# H+ 60–80; diarrhoea Na 30–140, K 30–70, HCO3 20–80 mmol/L (Empendium table of losses,
+# "empendium_losses"); the middle of each range is used. Polyuric urine "varies greatly;
+# measure it" (same table) and drain or third-space fluid is a plasma ultrafiltrate
+# (Starling; recalled): both are taken as isotonic (and at the patient's own HCO3) until
+# measured.
 LOSS_TYPES: dict[str, LossComposition] = {
     loss.loss_type: loss
     for loss in (
@@ -373,10 +379,13 @@ LOSS_TYPES: dict[str, LossComposition] = {
                         note="taken at the patient's own Na and K"),
         LossComposition(loss_type="vomitus", label="vomitus (gastric)", na_mmol_per_l=40.0,
                         k_mmol_per_l=14.0, source_id="empendium_losses", basis="derived",
-                        note="middle of the human gastric range Na 20–60; K ≈ 14"),
+                        note="middle of the human gastric ranges Na 20–60, H+ 60–80; K ≈ 14, "
+                             "no HCO3",
+                        hco3_mmol_per_l=0.0, h_mmol_per_l=70.0),
         LossComposition(loss_type="diarrhoea", label="diarrhoea", na_mmol_per_l=85.0,
                         k_mmol_per_l=50.0, source_id="empendium_losses", basis="derived",
-                        note="middle of the human ranges Na 30–140, K 30–70"),
+                        note="middle of the human ranges Na 30–140, K 30–70, HCO3 20–80",
+                        hco3_mmol_per_l=50.0),
         LossComposition(loss_type="polyuria", label="polyuric urine", na_mmol_per_l=None,
                         k_mmol_per_l=None, source_id="empendium_losses", basis="published",
                         note="varies greatly: measure it; isotonic until measured"),

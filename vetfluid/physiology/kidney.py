@@ -34,7 +34,9 @@ Pure functions and one step loop on plain floats; the equations and their source
   plasma (no medullary gradient, no diluting segment); a thiazide raises the floor (the
   cortical diluting segment); a potassium-sparing drug holds back a share of K excretion
   (Jeunesse 2007); mannitol is an effective osmole in the ECF, excreted with its half-life,
-  and washes the band towards plasma by its share of the urine's solute.
+  and washes the band towards plasma by its share of the urine's solute. A
+  carbonic-anhydrase inhibitor's Na leaves with bicarbonate (``Balance.hco3_excreted_mmol``,
+  for the course's bicarbonate; docs/model.md, "Bicarbonate").
 """
 
 from __future__ import annotations
@@ -69,6 +71,7 @@ class ClassEffect:
     floor_to_plasma: float  # share of the way the diluting floor is raised to plasma
     ceiling_to_plasma: float  # share of the way the concentrating ceiling falls to plasma
     k_spared: float  # share of K excretion held back
+    hco3_per_na: float = 0.0  # mmol HCO3 carried with each mmol of that Na (normal plasma)
 
 
 # The loop's natriuresis is set so a 20 kg dog at intensity 1 excretes about 1 mmol/kg/h of
@@ -83,6 +86,11 @@ class ClassEffect:
 # holds back 20 % of K excretion at intensity 1, 24 % at the steady state of 2 mg/kg a day
 # (urine K −22 % at 2 mg/kg/day in healthy dogs, Jeunesse 2007, "jeunesse2007"), with a
 # small natriuresis (none was measurable in healthy dogs; the issue's "small").
+# Bicarbonate: a carbonic-anhydrase inhibitor blocks proximal bicarbonate reabsorption, so
+# its Na (and K) leave as bicarbonate salts: 1 mmol HCO3 per mmol of its Na at a normal
+# plasma bicarbonate (recalled, memory; the course scales it with the filtered bicarbonate).
+# Loop and thiazide diuretics lose Na with Cl: none (the contraction of the ECF around its
+# bicarbonate follows in the course; their distal H+ loss is left out).
 CLASS_EFFECTS = {
     "loop": ClassEffect(natriuresis_per_h=0.035, k_per_na=0.2, floor_to_plasma=1.0,
                         ceiling_to_plasma=1.0, k_spared=0.0),
@@ -90,7 +98,7 @@ CLASS_EFFECTS = {
                             ceiling_to_plasma=0.0, k_spared=0.0),
     "carbonic_anhydrase_inhibitor": ClassEffect(natriuresis_per_h=0.0056, k_per_na=0.3,
                                                 floor_to_plasma=0.0, ceiling_to_plasma=0.0,
-                                                k_spared=0.0),
+                                                k_spared=0.0, hco3_per_na=1.0),
     "potassium_sparing": ClassEffect(natriuresis_per_h=0.0028, k_per_na=0.0,
                                      floor_to_plasma=0.0, ceiling_to_plasma=0.0, k_spared=0.2),
 }  # fmt: skip
@@ -150,6 +158,7 @@ class DiureticAction:
     floor_shift: list[float]  # 0–1 of the way from the floor to plasma
     ceiling_shift: list[float]  # 0–1 of the way from the ceiling to plasma
     k_kept: list[float]  # the share of K excretion that still happens
+    hco3_share_per_h: list[float] | None  # HCO3 excreted per hour, share of the ECF's Na
     mannitol_in_mosm: list[float] | None  # mannitol's osmoles entering the ECF per step
     mannitol_keep: float  # share of the mannitol left after one step
     first_step: int
@@ -167,6 +176,7 @@ class DiureticAction:
         """Sum the classes' effects (:data:`CLASS_EFFECTS`) at each step's intensity."""
         na, k = np.zeros(steps), np.zeros(steps)
         floor, ceiling, kept = np.zeros(steps), np.zeros(steps), np.ones(steps)
+        hco3 = np.zeros(steps)
         acting = np.zeros(steps, dtype=bool)
         if mannitol_in_mosm is not None:
             acting |= np.asarray(mannitol_in_mosm) != 0
@@ -175,6 +185,7 @@ class DiureticAction:
             acting |= level != 0
             na += effect.natriuresis_per_h * level
             k += effect.natriuresis_per_h * effect.k_per_na * level
+            hco3 += effect.natriuresis_per_h * effect.hco3_per_na * level
             full = np.minimum(level / BAND_FULL_AT_INTENSITY, 1.0)
             floor = np.maximum(floor, effect.floor_to_plasma * full)
             ceiling = np.maximum(ceiling, effect.ceiling_to_plasma * full)
@@ -184,7 +195,8 @@ class DiureticAction:
         kept = np.maximum(kept, 0.0).tolist()
         return cls(
             na_share_per_h=na, k_share_per_h=k, floor_shift=floor, ceiling_shift=ceiling,
-            k_kept=kept, mannitol_in_mosm=mannitol_in_mosm,
+            k_kept=kept, hco3_share_per_h=hco3.tolist() if hco3.any() else None,
+            mannitol_in_mosm=mannitol_in_mosm,
             mannitol_keep=math.exp(-math.log(2) / MANNITOL_HALF_LIFE_H * step_h),
             first_step=int(where[0]) if where.size else 0,
             last_step=int(where[-1]) if where.size else -1,
@@ -339,6 +351,9 @@ class Balance:
     na_excreted_mmol: list[float]  # cumulative urine Na, and K
     k_excreted_mmol: list[float]
     mannitol_mosm: list[float] | None = None  # mannitol in the ECF, when any was given
+    # HCO3 a carbonic-anhydrase inhibitor made the urine carry (cumulative, at a normal
+    # plasma bicarbonate), when one acted
+    hco3_excreted_mmol: list[float] | None = None
 
 
 def _solve_urine_x(d0: float, k: float, b: float, span: float, log_ratio: float) -> float:
@@ -413,11 +428,13 @@ def follow_balance(
     urine_total, urine_osm, urine_ecf, na_sum, k_sum = [], [], [], [], []
     mannitol, mannitol_in = 0.0, None  # mannitol in the ECF (mOsm), and what enters it
     mannitol_left: list[float] | None = None
+    hco3_out, hco3_sum = 0.0, None  # bicarbonate a drug made the urine carry
     if kidney is None:
         drugs = None  # no kidney modelled: nothing for a diuretic to act on
     if drugs is not None:
         mannitol_in = drugs.mannitol_in_mosm
         mannitol_left = [] if mannitol_in is not None else None
+        hco3_sum = [] if drugs.hco3_share_per_h is not None else None
     if kidney is not None:
         floor, ceiling = kidney.floor_mosm_per_kg, kidney.ceiling_mosm_per_kg
         log_ratio = math.log(ceiling / floor) if ceiling > floor else 0.0
@@ -475,9 +492,9 @@ def follow_balance(
                 other = kidney.other_solute_mosm_per_h * step_h
             else:
                 e_k = other = 0.0
-            low, ratio, e_m = floor, log_ratio, 0.0
+            low, ratio, e_m, e_h = floor, log_ratio, 0.0, 0.0
             if drugs is not None and drugs.first_step <= i:
-                e_na, e_k, e_m, low, ratio = _drug_step(
+                e_na, e_k, e_m, e_h, low, ratio = _drug_step(
                     drugs, i, step_h=step_h, e_na=e_na, e_k=e_k, other=other,
                     mannitol=mannitol, ecf_na=ecf * na_now / 1000.0,
                     plasma=total_osm / w * 1000.0, floor=floor, ceiling=ceiling,
@@ -497,11 +514,12 @@ def follow_balance(
             cap = kidney.urine_cap_ml_per_h
             if cap is not None and volume > cap * step_h:
                 scale = cap * step_h / volume  # solute that cannot leave stays in the body
-                volume, e_na, e_k, e_m, solute = (
+                volume, e_na, e_k, e_m, e_h, solute = (
                     volume * scale,
                     e_na * scale,
                     e_k * scale,
                     e_m * scale,
+                    e_h * scale,
                     solute * scale,
                 )
             if volume:
@@ -515,6 +533,7 @@ def follow_balance(
                 urine += volume
                 na_out += e_na
                 k_out += e_k
+                hco3_out += e_h
                 ecf_taken = before - w * o_ecf / (o_ecf + o_icf)
         tbw.append(w)
         na_k.append(pool)
@@ -528,19 +547,22 @@ def follow_balance(
         k_sum.append(k_out)
         if mannitol_left is not None:
             mannitol_left.append(mannitol)
+        if hco3_sum is not None:
+            hco3_sum.append(hco3_out)
         i += 1
         if i > max(last_change, basal_steps) + 1 and volume < 1e-9:
             break  # nothing goes in or out any more: the state holds
     rest = n - len(tbw)
     if rest:
         for values in (tbw, na_k, ks, oe, oi, urine_total, urine_osm, na_sum, k_sum,
-                       *([mannitol_left] if mannitol_left is not None else [])):  # fmt: skip
+                       *([mannitol_left] if mannitol_left is not None else []),
+                       *([hco3_sum] if hco3_sum is not None else [])):  # fmt: skip
             values.extend([values[-1]] * rest)
         urine_ecf.extend([0.0] * rest)
     return Balance(
         tbw_ml=tbw, na_k_mmol=na_k, k_mmol=ks, ecf_osm=oe, icf_osm=oi, urine_ml=urine_total,
         urine_osm_mosm_per_kg=urine_osm, urine_ecf_ml=urine_ecf, na_excreted_mmol=na_sum,
-        k_excreted_mmol=k_sum, mannitol_mosm=mannitol_left,
+        k_excreted_mmol=k_sum, mannitol_mosm=mannitol_left, hco3_excreted_mmol=hco3_sum,
     )  # fmt: skip
 
 
@@ -557,11 +579,14 @@ def _drug_step(
     plasma: float,
     floor: float,
     ceiling: float,
-) -> tuple[float, float, float, float, float]:
-    """One step of the diuretics: Na, K and mannitol excreted, and the band's floor and
-    log ratio as the drugs leave it (see :data:`CLASS_EFFECTS`)."""
+) -> tuple[float, float, float, float, float, float]:
+    """One step of the diuretics: Na, K, mannitol and bicarbonate excreted, and the band's
+    floor and log ratio as the drugs leave it (see :data:`CLASS_EFFECTS`)."""
     e_m = mannitol * (1.0 - drugs.mannitol_keep) if mannitol > 0.0 else 0.0
+    e_h = 0.0
     if i <= drugs.last_step:
+        if drugs.hco3_share_per_h is not None:
+            e_h = drugs.hco3_share_per_h[i] * step_h * ecf_na
         e_na += drugs.na_share_per_h[i] * step_h * ecf_na
         e_k = (e_k + drugs.k_share_per_h[i] * step_h * ecf_na) * drugs.k_kept[i]
         low_shift, high_shift = drugs.floor_shift[i], drugs.ceiling_shift[i]
@@ -571,8 +596,8 @@ def _drug_step(
         share = e_m / (2.0 * (e_na + e_k) + other + e_m) / MANNITOL_WASHOUT_SHARE
         low_shift, high_shift = max(low_shift, min(share, 1.0)), max(high_shift, min(share, 1.0))
     if not (low_shift or high_shift):
-        return e_na, e_k, e_m, floor, math.log(ceiling / floor) if ceiling > floor else 0.0
+        return e_na, e_k, e_m, e_h, floor, math.log(ceiling / floor) if ceiling > floor else 0.0
     low = floor + (plasma - floor) * low_shift if plasma > floor else floor
     high = ceiling - (ceiling - plasma) * high_shift if ceiling > plasma else ceiling
     high = max(high, low)
-    return e_na, e_k, e_m, low, math.log(high / low)
+    return e_na, e_k, e_m, e_h, low, math.log(high / low)

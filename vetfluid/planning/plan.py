@@ -75,6 +75,7 @@ class PlanRequest:
     body_temp_c: float | None = None
     serum_na: float | None = None
     serum_k: float | None = None
+    serum_hco3: float | None = None  # mmol/L; followed over the course when entered
     usg: float | None = None
     urine_osmolality: float | None = None
     kcl_mmol_per_l: float | None = None
@@ -158,6 +159,8 @@ class PlanRequest:
                 _require(value, name, low, high, unit)
         if self.usg is not None:
             maintenance.usg_to_osmolality(self.usg)
+        if self.serum_hco3 is not None:
+            _check_bicarbonate(self.serum_hco3)
         electrolytes.loss_composition(self.loss_type)  # an unknown type is refused by name
         _check_renal_output(self.renal_output, renal_disease=self.renal_disease)
         _check_diuretics(self.diuretics)
@@ -181,6 +184,25 @@ def _weight_text(weight_kg: float, ledger: Ledger) -> str:
 
 def _require(value: object, name: str, low: float, high: float, unit: str) -> None:
     require_number(value, name, low=low, high=high, unit=unit)
+
+
+# An entered serum bicarbonate outside these bounds is a slip, not a patient: a value typed
+# into the wrong box (a Na of 140, a Cl of 110), a base excess (−5) or a missing decimal
+# point. Plausibility bounds set by us, no source: life-threatening acidosis and alkalosis
+# lie inside (healthy dogs 20–24 mmol/L, Waddell 2016).
+SERUM_HCO3_RANGE_MMOL_PER_L = (3.0, 60.0)
+
+
+def _check_bicarbonate(value: object) -> None:
+    """An entered serum bicarbonate within :data:`SERUM_HCO3_RANGE_MMOL_PER_L`, refused in
+    words that name the likely slip."""
+    low, high = SERUM_HCO3_RANGE_MMOL_PER_L
+    require_number(
+        value, "serum_hco3", low=low, high=high, unit="mmol/L",
+        fix="serum bicarbonate (HCO3) is usually 15–30 mmol/L: check that a sodium (about "
+        "140) or a chloride (about 110) was not typed into the bicarbonate box, and that a "
+        "base excess was not typed instead",
+    )  # fmt: skip
 
 
 def consumed_ml(outflow: tuple[tuple[float, float], ...], end_h: float, hours):  # noqa: ANN001, ANN201
