@@ -241,3 +241,19 @@ def test_a_loss_beyond_the_bodys_bicarbonate_gives_zero_never_a_negative_or_nan(
                                   loss_type="diarrhoea"))  # fmt: skip
     values = course(plan, step_minutes=STEP).serum_hco3
     assert np.isfinite(values).all() and values.min() == 0.0
+
+
+# ---- a severely low bicarbonate is confirmed before it is planned around ------------------------
+@pytest.mark.parametrize(("typed", "flagged"), [(4.2, True), (7.35, True), (11.9, True),
+                                                (12.0, False), (22.0, False)])  # fmt: skip
+def test_a_severely_low_bicarbonate_asks_to_confirm_the_value(typed, flagged):
+    """Common practice, no source: a HCO3 under about 12 mmol/L is a severe metabolic
+    acidosis (the threshold in safety_limits.csv, basis memory). At 3 a.m. a K of 4.2 or a pH
+    of 7.35 typed into the bicarbonate box reads exactly that way, so the plan says so (soft,
+    a reason needed) rather than follow a number nobody meant."""
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20.0, serum_hco3=typed))
+    codes = {f.code: f for f in plan.findings}
+    assert ("SERUM_HCO3_SEVERELY_LOW" in codes) is flagged
+    if flagged:
+        finding = codes["SERUM_HCO3_SEVERELY_LOW"]
+        assert finding.severity == "soft" and "potassium" in finding.action.lower()

@@ -797,6 +797,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     )  # fmt: skip
     ledger.use(*maint.provenance)
     safety.check_temperature(ledger, request.body_temp_c, maint)
+    safety.check_bicarbonate(ledger, request.serum_hco3)
     species_name = table.species(request.species_id).common_name
     percent, estimate = _dehydration(ledger, request, species_name=species_name)
     safety.check_dehydration_entry(ledger, percent=percent)

@@ -71,6 +71,24 @@ def check_weight(ledger: Ledger, weight_kg: float, *, neonate: bool = False) -> 
         )
 
 
+def check_bicarbonate(ledger: Ledger, serum_hco3: float | None) -> None:
+    """A severely low serum HCO3 is confirmed before the course follows it (soft): a K of
+    4.2 or a pH of 7.35 typed into the bicarbonate field reads as exactly that. The
+    threshold is ``hco3_confirm_below_mmol_per_l`` (safety_limits.csv; common practice)."""
+    below = limit("hco3_confirm_below_mmol_per_l")
+    if serum_hco3 is None or serum_hco3 >= below.value:
+        return
+    ledger.add(
+        below.severity,
+        "SERUM_HCO3_SEVERELY_LOW",
+        f"Serum bicarbonate {q(serum_hco3, 'mmol/L')} is a severe metabolic acidosis "
+        f"(below {q(below.value, 'mmol/L')}).",
+        "Confirm the value on the analyser's report: a potassium, a pH or a base excess "
+        "typed into the bicarbonate field reads this way. Treat the cause and reassess.",
+        below.source_id,
+    )
+
+
 def check_temperature(ledger: Ledger, body_temp_c: float | None, maint: Maintenance) -> None:
     """Ectotherms: a temperature outside the preferred range makes maintenance unreliable."""
     if not ledger.species.is_ectotherm:
