@@ -1271,3 +1271,89 @@ KeepingWork.TestCase.settings = settings(
     suppress_health_check=[HealthCheck.too_slow],
 )
 test_random_sessions_never_lose_what_was_confirmed = KeepingWork.TestCase
+
+
+# ---- review round: a damaged version, a close during a question, the offer's escape ------------
+def _damage_another_version(folder: Path) -> None:
+    """A second version row of patient 1 whose JSON is cut short (a damaged page)."""
+    with sqlite3.connect(folder / "records.sqlite") as db:
+        row = db.execute("SELECT * FROM plan_versions ORDER BY id LIMIT 1").fetchone()
+        columns = [c[1] for c in db.execute("PRAGMA table_info(plan_versions)")]
+        values = dict(zip(columns, row, strict=True))
+        values.update(id=None, version=2, request_json='{"spec')
+        db.execute(
+            f"INSERT INTO plan_versions ({', '.join(columns)}) "
+            f"VALUES ({', '.join('?' for _ in columns)})",
+            [values[c] for c in columns],
+        )
+
+
+def test_a_damaged_version_never_lets_new_work_replace_observations_kept_for_another(folder):
+    """Observations version 1 refused sit in the draft; then another version row of the same
+    patient is found damaged. New work must not replace the draft (the observations would
+    be gone): it is not written, said so, and closing asks before losing it. At start the
+    draft is still offered (as a plan to restore), with the damage said, never a crash."""
+    first = start(folder)
+    row = saved_dog(first)
+    first.desk.add_observation(Observation(hour=2.0, weight_kg=24.2))
+    lock_versions(first.work.records)
+    first.follow(first.work.close())
+    _damage_another_version(folder)
+    desk = Desk()
+    desk.work = WorkSession.open(desk, folder / "records.sqlite")
+    desk.recompute()
+    again = Clerk(desk, {SAVE_OR_LEAVE: Answer.NO, Asked.CLOSE_LOSING_WORK: Answer.NO})
+    offer = desk.work.look_at_draft()
+    assert offer.question.asked is Asked.RESTORE_LEFT
+    assert any("cannot be read" in m.text for m in offer.messages)
+    desk.work.close()  # the offer lapses: the draft stays for the next start
+    desk = Desk()
+    desk.work = WorkSession.open(desk, folder / "records.sqlite")
+    desk.recompute()
+    again = Clerk(desk, {SAVE_OR_LEAVE: Answer.NO, Asked.CLOSE_LOSING_WORK: Answer.NO})
+    open_demo(again, CAT)
+    again.desk.update(dehydration_percent=7.0)
+    reply = again.follow(again.work.autosave())
+    assert again.work.state is State.NOT_WRITTEN and "Not saved" in reply.status
+    assert stored_draft(folder)["for_version"] == row  # the refused observations are kept
+    again.follow(again.work.close())
+    assert [q.asked for q in again.asked][-1] is Asked.CLOSE_LOSING_WORK
+
+
+@pytest.mark.parametrize("question", ["leave", "replan"])
+def test_closing_while_a_question_is_open_closes_and_keeps_the_work(folder, clerk, question):
+    """A logout reaches the window while its Leave or Re-plan question is open: the session
+    closes as from work (the draft written as left), and the late answer changes nothing."""
+    edited_dog(clerk)
+    reply = (clerk.work.leave(Opening(request=CAT)) if question == "leave"
+             else clerk.work.replan())  # fmt: skip
+    assert reply.question is not None
+    assert clerk.work.close().go and clerk.work.state is State.CLOSED
+    assert clerk.work.answer(Answer.NO) == Reply()
+    draft = stored_draft(folder)
+    assert draft["closed"] is True and draft["request"]["dehydration_percent"] == 6.0
+
+
+@pytest.mark.parametrize("asked", [Asked.RESTORE_CRASHED, Asked.RESTORE_LEFT, Asked.WRITE_BACK])
+def test_escape_on_the_offer_keeps_the_work_and_no_says_it_discards(folder, asked):
+    """At 3 a.m. Esc (or closing the box) must not throw the draft away: escape restores;
+    only an explicit No discards, and the question says so."""
+    first = start(folder)
+    if asked is Asked.WRITE_BACK:
+        saved_dog(first)
+        first.desk.add_observation(Observation(hour=2.0, weight_kg=24.2))
+        lock_versions(first.work.records)
+    else:
+        edited_dog(first)
+        first.follow(first.work.autosave())
+    if asked is Asked.RESTORE_CRASHED:
+        first.work.records.close()
+    else:
+        first.follow(first.work.close())
+    desk = Desk()
+    desk.work = WorkSession.open(desk, folder / "records.sqlite")
+    desk.recompute()
+    question = desk.work.look_at_draft().question
+    assert question.asked is asked
+    assert question.escape is Answer.YES
+    assert "No discards" in question.text

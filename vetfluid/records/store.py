@@ -491,12 +491,23 @@ class Records:
                 f"could not read the plan versions in {self.path.name}: {exc}",
                 fix="restore a backup; the versions of other patients may still be read",
             ) from exc
-        return [
-            VersionRow(id=r[0], patient_id=r[1], version=r[2], request=json.loads(r[3]),
-                       plan=json.loads(r[4]), acknowledged=json.loads(r[5]), author=r[6],
-                       created_at=r[7], program_version=r[8])
-            for r in rows
-        ]  # fmt: skip
+        versions = []
+        for r in rows:
+            try:
+                request, plan, acknowledged = (json.loads(r[3]), json.loads(r[4]),
+                                               json.loads(r[5]))  # fmt: skip
+            except (TypeError, ValueError) as exc:  # a damaged row: said, never a traceback
+                raise RecordsError(
+                    f"version {r[2]} of patient {patient_id} in {self.path.name} cannot be "
+                    f"read ({exc})",
+                    fix="restore a backup; the other patients' versions may still be read",
+                ) from exc
+            versions.append(
+                VersionRow(id=r[0], patient_id=r[1], version=r[2], request=request, plan=plan,
+                           acknowledged=acknowledged, author=r[6], created_at=r[7],
+                           program_version=r[8])
+            )  # fmt: skip
+        return versions
 
     def add_observation(self, *, version_id: int, observation: dict) -> int:
         return self._write(

@@ -103,10 +103,12 @@ The table, built from :data:`TABLE` (docs/work_keeping.md holds it as Markdown;
 - SAVING_TO_REPLAN + SAVE_DONE → back. Written: —. Window: goes on: the next plan is the
   re-plan.
 - SAVING_TO_REPLAN + SAVE_FAILED → back. Written: —. Window: —.
-- working, OFFERING + CLOSE [no records file, unsaved work] → ASKING_LOSE_ON_CLOSE. Written:
-  —. Window: asks Discard / Cancel.
-- working, OFFERING + CLOSE [no records file] → CLOSED. Written: —. Window: closes.
-- working, OFFERING + CLOSE → CLOSED or ASKING_CLOSE. Written: what waits, marked left; the
+- ASKING_CLOSE, ASKING_LOSE_ON_CLOSE + CLOSE → stays. Written: —. Window: the question about
+  closing stays open.
+- working, asking + CLOSE [no records file, unsaved work] → ASKING_LOSE_ON_CLOSE. Written:
+  —. Window: asks Discard / Cancel (an open question lapses).
+- working, asking + CLOSE [no records file] → CLOSED. Written: —. Window: closes.
+- working, asking + CLOSE → CLOSED or ASKING_CLOSE. Written: what waits, marked left; the
   records file closed. Window: closes (nothing could be written: autosave stopped, asks
   Close anyway? Yes / No).
 - ASKING_CLOSE + YES → CLOSED. Written: the records file closed. Window: closes.
@@ -829,7 +831,13 @@ class WorkSession:
             return  # unreadable and still in place: save_draft refuses to replace it
         if not stored or stored.get("tag") == self.tag:
             return
-        version = self._version_behind_in(stored)
+        try:
+            version = self._version_behind_in(stored)
+        except RecordsError as exc:
+            raise RecordsError(
+                "the draft keeps observations for a saved version that cannot be read now, "
+                f"so it is not replaced: {exc.one_line()}"
+            ) from exc
         observations = stored.get("observations")
         if version is None or not isinstance(observations, list):
             return
@@ -889,7 +897,9 @@ class WorkSession:
         try:
             version = next((v for v in self.records.versions(patient_id) if v.id == row_id), None)
             name = self.records.patient(patient_id).name if version else ""
-        except (RecordsError, LookupError, VetfluidError):
+        except RecordsError:
+            raise  # cannot tell (a damaged page): the caller keeps the draft as it is
+        except (LookupError, VetfluidError):
             return None
         return None if version is None else _VersionBehind(patient_id, version.version, name)
 
@@ -1062,8 +1072,7 @@ class WorkSession:
     # ---- actions: closing ------------------------------------------------------------------------
     def _close(self, out: _Out) -> State:
         """Write what waits, marked as left; ask only when nothing could take it."""
-        if self.state is State.OFFERING:  # closed while the offer was open: offered next start
-            self.state, self._offer = self._back, None
+        self._drop_question()
         out.autosave = Autosave.STOP
         outcome = self._write_work(out, closed=True)
         if outcome is not State.NOT_WRITTEN:
@@ -1084,7 +1093,15 @@ class WorkSession:
             asked=Asked.LOSE_UNKEPT_ON_CLOSE, text=self._lose_unkept("Close"),
             answers=(Answer.DISCARD, Answer.CANCEL), escape=Answer.CANCEL,
             default=Answer.CANCEL, warning=True, about=self.tag,
-        ), back=self._back if self.state is State.OFFERING else self.state)  # fmt: skip
+        ), back=self._drop_question())  # fmt: skip
+
+    def _drop_question(self) -> State:
+        """Closing while a question is open (a logout): the question lapses, its late
+        answer changes nothing, and an offer stays for the next start. Returns the state
+        the work stands in."""
+        if self.state in ASKING:
+            self.state, self._offer, self._next = self._back, None, None
+        return self.state
 
     def _shut(self, out: _Out) -> None:
         if self.records is not None:
@@ -1115,7 +1132,11 @@ class WorkSession:
         except (VetfluidError, KeyError, TypeError, ValueError) as exc:
             self._set_draft_aside(out, f"could not be restored ({exc})")
             return self.state
-        version = self._version_behind_in(draft)
+        try:
+            version = self._version_behind_in(draft)
+        except RecordsError as exc:  # offered as a plan to restore: nothing is dropped
+            version = None
+            out.message(f"The version the draft's observations belong to: {exc.one_line()}.")
         self._offer = _Offer(draft, request, observations, version)
         if version is not None:
             asked, text = (
@@ -1131,7 +1152,7 @@ class WorkSession:
                 Asked.RESTORE_LEFT,
                 (
                     "The plan last worked on was left, or vetfluid was closed, before it was "
-                    "saved as a version. Restore it?"
+                    "saved as a version. Restore it? No discards it."
                 ),
             )
         else:
@@ -1139,11 +1160,12 @@ class WorkSession:
                 Asked.RESTORE_CRASHED,
                 (
                     "vetfluid stopped unexpectedly while a plan was being edited. Restore it? "
-                    "The last few seconds of typing may be missing."
+                    "The last few seconds of typing may be missing. No discards it."
                 ),
             )
+        # Esc (or closing the box) restores: only an explicit No throws the work away
         self._ask(out, Question(
-            asked=asked, text=text, answers=(Answer.YES, Answer.NO), escape=Answer.NO,
+            asked=asked, text=text, answers=(Answer.YES, Answer.NO), escape=Answer.YES,
             about=str(draft.get("tag")),
         ), back=self.state)  # fmt: skip
         return State.OFFERING
@@ -1393,10 +1415,12 @@ TABLE: tuple[Row, ...] = (
          says="goes on: the next plan is the re-plan"),
     _row(S.SAVING_TO_REPLAN, E.SAVE_FAILED, N.BACK),
     # closing
-    _row(WORKING | {S.OFFERING}, E.CLOSE, S.ASKING_LOSE_ON_CLOSE, W._ask_to_lose_on_close,
-         UNSAVED_NO_RECORDS, says="asks Discard / Cancel"),
-    _row(WORKING | {S.OFFERING}, E.CLOSE, S.CLOSED, W._shut, NO_RECORDS, says="closes"),
-    _row(WORKING | {S.OFFERING}, E.CLOSE, (S.CLOSED, S.ASKING_CLOSE), W._close,
+    _row({S.ASKING_CLOSE, S.ASKING_LOSE_ON_CLOSE}, E.CLOSE, N.STAY,
+         says="the question about closing stays open"),
+    _row(WORKING | ASKING, E.CLOSE, S.ASKING_LOSE_ON_CLOSE, W._ask_to_lose_on_close,
+         UNSAVED_NO_RECORDS, says="asks Discard / Cancel (an open question lapses)"),
+    _row(WORKING | ASKING, E.CLOSE, S.CLOSED, W._shut, NO_RECORDS, says="closes"),
+    _row(WORKING | ASKING, E.CLOSE, (S.CLOSED, S.ASKING_CLOSE), W._close,
          written="what waits, marked left; the records file closed",
          says="closes (nothing could be written: autosave stopped, asks Close anyway? Yes / No)"),
     _row(S.ASKING_CLOSE, E.YES, S.CLOSED, W._shut, written="the records file closed",
