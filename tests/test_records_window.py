@@ -11,6 +11,12 @@ from vetfluid.planning.demos import DEMOS
 from vetfluid.records.store import Records
 
 
+def _hold_autosave(window) -> None:  # noqa: ANN001
+    """No autosave until the test says: both the two-second and the longest-wait timer."""
+    window.keeper.timer.stop()
+    window.keeper.longest_wait.stop()
+
+
 def test_save_versions_and_open_them_again(qtbot, planner, vetfluid_home):
     window = planner
     window.open_demo("dehydrated_dog")
@@ -328,7 +334,7 @@ def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
     window = planner
     window.open_demo("dehydrated_dog")
     qtbot.waitUntil(lambda: window.session.plan is not None)
-    window.keeper.timer.stop()  # the draft below stands for a damaged one
+    _hold_autosave(window)  # the draft below stands for a damaged one
     window.records.save_draft(
         {"request": request_to_dict(window.session.plan.request), "closed": True,
          "observations": [{"hour": 1.0, "weight_kg": 24.2}, {"hour": 2.0, "weight_kg": "heavy"},
@@ -614,13 +620,13 @@ def test_a_failed_write_is_unsaved_work_and_is_tried_again(qtbot, planner, answe
     window = planner
     _saved_dog(qtbot, window)
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     disk = _failing_writes(window)
     window.keeper.autosave()
     assert "trying again" in window.statusBar().currentMessage()
     assert window.keeper.timer.isActive() and window.keeper.work.has_unsaved_work()
     disk.undo()
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     window.keeper.autosave()  # the retry
     assert not window.keeper.work.has_unsaved_work()
     saved = window.records.versions(window.keeper.work.patient_id)[-1]
@@ -799,7 +805,7 @@ def test_observations_the_version_refuses_are_kept_in_the_draft_and_leaving_says
 
     window = planner
     _, disk = _weight_the_version_refuses(qtbot, window)
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     window.keeper.autosave()
     assert window.records.draft()["observations"] == [{"hour": 2.0, "weight_kg": 24.2}]
     assert "kept in the draft" in window.statusBar().currentMessage()
@@ -836,7 +842,7 @@ def test_once_the_version_takes_the_observations_the_draft_is_cleared(qtbot, pla
     window.keeper.autosave()
     assert window.records.draft() is not None
     disk.undo()
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     window.keeper.autosave()  # the retry
     assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 24.2}]
     assert window.records.draft() is None and not window.keeper.work.has_unsaved_work()
@@ -1015,7 +1021,7 @@ def test_removing_a_saved_measurement_while_the_weight_is_retyped_leaves_the_ver
     window.session.update(weight_kg=None)  # the weight being retyped
     qtbot.waitUntil(lambda: window.session.plan is None)
     window.session.remove_observation(0)
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     window.keeper.autosave()  # the autosave
     assert len(window.records.observations(version.id)) == 1
     assert window.records.draft()["observations"] == []
@@ -1127,7 +1133,7 @@ def test_an_unreadable_draft_that_cannot_be_set_aside_blocks_nothing(
         window.keeper.work.has_unsaved_work() and "Not saved" in window.statusBar().currentMessage()
     )
     monkeypatch.setattr(records_module.os, "open", real_open)  # room again
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     told.clear()
     answer({"set aside as": lambda: told.append(1)})
     window.keeper.autosave()
@@ -1179,14 +1185,14 @@ def test_writing_kept_observations_back_keeps_what_the_version_took_since(qtbot,
     )
     window.session.add_observation(Observation(hour=2.0, weight_kg=24.2))  # B
     disk = _version_writes_fail(window)
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     window.keeper.autosave()
     answer({LEAVE: QMessageBox.StandardButton.No})
     window.new_patient()
     disk.undo()
     window.load_version(saved.patient_id, saved.version)
     window.session.add_observation(Observation(hour=3.0, heart_rate_per_min=120))  # C
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     window.keeper.autosave()
     assert window.records.draft()["for_version"] == saved.id  # B still waits in the draft
     assert window.close()
@@ -1217,7 +1223,7 @@ def test_a_version_that_does_not_build_takes_its_observations_and_leaves_no_draf
     window.load_version(saved.patient_id, 1)
     assert window.session.plan is None
     window.session.add_observation(Observation(hour=2.0, weight_kg=0.066))
-    window.keeper.timer.stop()
+    _hold_autosave(window)
     window.keeper.autosave()
     assert window.records.observations(saved.id) == [{"hour": 2.0, "weight_kg": 0.066}]
     assert not window.keeper.work.has_unsaved_work() and window.records.draft() is None
@@ -1251,3 +1257,22 @@ def test_a_version_saved_with_a_retired_finding_is_refused_in_words_and_changes_
     assert window.load_version(patient.id, 1) is None
     assert shown == [1]
     assert window.session.plan.request.species_id == "bearded_dragon"  # nothing changed
+
+
+def test_steady_changes_do_not_postpone_the_autosave_past_its_longest_wait(qtbot, planner):
+    """An observation every 1.5 s restarts the two-second timer each time; the longest wait
+    still writes the draft, so a crash in a busy spell loses at most seconds, not all of it."""
+    from ui.records import work_keeper
+
+    window = planner
+    keeper = window.keeper
+    window.open_demo("dehydrated_dog")
+    window.session.update(dehydration_percent=6.0)
+    assert keeper.timer.isActive() and keeper.longest_wait.isActive()
+    first_deadline = keeper.longest_wait.remainingTime()
+    keeper.timer.start()  # a later change restarts the short timer only
+    assert keeper.longest_wait.remainingTime() <= first_deadline
+    assert keeper.longest_wait.interval() == work_keeper.AUTOSAVE_LONGEST_WAIT_MS
+    keeper.timer.stop()  # as if changes kept coming: only the longest wait is left
+    qtbot.waitUntil(lambda: keeper.records.draft() is not None, timeout=12_000)
+    assert not keeper.longest_wait.isActive()

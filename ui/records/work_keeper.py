@@ -31,7 +31,10 @@ if TYPE_CHECKING:
     from ui.planning.session import PlanSession
     from vetfluid.records.store import Records
 
-AUTOSAVE_MS = 2000  # a crash loses at most a few seconds of typing
+AUTOSAVE_MS = 2000  # two seconds after the last change
+# steady changes (an observation every second) would keep postponing it: at the latest this
+# long after the first change still unwritten, the autosave runs anyway
+AUTOSAVE_LONGEST_WAIT_MS = 10_000
 
 _BUTTONS = {
     Answer.YES: QMessageBox.StandardButton.Yes,
@@ -65,6 +68,10 @@ class WorkKeeper(QObject):
         self.timer.setSingleShot(True)
         self.timer.setInterval(AUTOSAVE_MS)
         self.timer.timeout.connect(self.autosave)
+        self.longest_wait = QTimer(self)
+        self.longest_wait.setSingleShot(True)
+        self.longest_wait.setInterval(AUTOSAVE_LONGEST_WAIT_MS)
+        self.longest_wait.timeout.connect(self.autosave)
         session.inputsReplaced.connect(lambda request: self.follow(self.work.opened(request)))
         session.planChanged.connect(lambda _plan: self.follow(self.work.built()))
         for changed in (session.observationsChanged, session.readinessChanged):
@@ -83,8 +90,11 @@ class WorkKeeper(QObject):
         while True:
             if reply.autosave is Autosave.START:
                 self.timer.start()
+                if not self.longest_wait.isActive():  # not postponed by later changes
+                    self.longest_wait.start()
             elif reply.autosave is Autosave.STOP:
                 self.timer.stop()
+                self.longest_wait.stop()
             for message in reply.messages:
                 self._show(message)
             if reply.status:
@@ -135,6 +145,8 @@ class WorkKeeper(QObject):
 
     # ---- the commands -------------------------------------------------------------------------
     def autosave(self) -> None:
+        self.timer.stop()
+        self.longest_wait.stop()
         self.follow(self.work.autosave())
 
     def offer_draft(self) -> bool:
