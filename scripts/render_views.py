@@ -1,11 +1,24 @@
 """Render the window and each view to PNG for a demo patient (for looking at them).
 
 QT_QPA_PLATFORM=offscreen .venv/bin/python scripts/render_views.py [demo_id] [out_dir]
+    [--diuretic DRUG:ROUTE:DOSE:HOURS]
+
+``--diuretic furosemide:iv:2:0,8`` enters a diuretic through the planner's Diuretics
+inputs, as a user would, before rendering (an infusion: ``furosemide:cri:0.66:2,10``, its
+rate from the first hour to the second); it may be given more than once.
+
+The window runs in a temporary data folder (``VETFLUID_HOME``), removed afterwards: an
+edited demo leaves a draft, which must not land in the clinic's records nor be offered
+back on the next run.
 """
 
 from __future__ import annotations
 
+import argparse
+import os
+import shutil
 import sys
+import tempfile
 from pathlib import Path
 
 from PySide6.QtWidgets import QApplication
@@ -18,7 +31,30 @@ def settle() -> None:
         QApplication.processEvents()
 
 
-def render(demo_id: str, out: Path) -> list[Path]:
+def add_diuretic(window, spec: str) -> None:  # noqa: ANN001 — MainWindow
+    """Type one ``DRUG:ROUTE:DOSE:HOURS`` into the Diuretics inputs and press Add."""
+    drug, route, dose, hours = spec.split(":")
+    view = window.settings_box.diuretics
+    for box, value in ((view.drug, drug), (view.route, route)):
+        index = box.findData(value)
+        if index < 0:
+            raise SystemExit(f"{value!r} is not offered for this patient")
+        box.setCurrentIndex(index)
+        box.activated.emit(index)
+    view.dose.setText(dose)
+    if route == "cri":
+        start, end = hours.split(",")
+        view.start.setText(start)
+        view.end.setText(end)
+    else:
+        view.hours.setText(hours.replace(",", ", "))  # "0,8" would be refused as ambiguous
+    view.add()
+    if view.message.text():
+        raise SystemExit(f"the dose was refused: {view.message.text()}")
+    settle()
+
+
+def render(demo_id: str, out: Path, diuretics: tuple[str, ...] = ()) -> list[Path]:
     from ui.main_window import MainWindow
 
     out.mkdir(parents=True, exist_ok=True)
@@ -28,6 +64,8 @@ def render(demo_id: str, out: Path) -> list[Path]:
     window.open_demo(demo_id)
     QApplication.processEvents()
     QApplication.processEvents()
+    for spec in diuretics:
+        add_diuretic(window, spec)
     saved = []
     for index in range(window.details.count()):
         window.details.setCurrentIndex(index)
@@ -36,6 +74,15 @@ def render(demo_id: str, out: Path) -> list[Path]:
         path = out / f"{demo_id}-{index}-{tab}.png"
         window.grab().save(str(path))
         saved.append(path)
+    # the inputs panel scrolled down to the diuretics, where the planner shows them
+    panel = window.settings_box.diuretics
+    scroll = window.splitter.widget(0)
+    scroll.ensureWidgetVisible(panel, 0, 0)
+    window.details.setCurrentIndex(0)
+    settle()
+    path = out / f"{demo_id}-inputs-diuretics.png"
+    window.grab().save(str(path))
+    saved.append(path)
     window.pages.setCurrentIndex(1)
     QApplication.processEvents()
     path = out / f"{demo_id}-species-table.png"
@@ -55,8 +102,17 @@ def render(demo_id: str, out: Path) -> list[Path]:
 
 
 if __name__ == "__main__":
-    app = QApplication.instance() or QApplication(sys.argv)
-    demo = sys.argv[1] if len(sys.argv) > 1 else "dehydrated_dog"
-    target = Path(sys.argv[2] if len(sys.argv) > 2 else "renders")
-    for p in render(demo, target):
-        print(p)
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("demo", nargs="?", default="dehydrated_dog")
+    parser.add_argument("out", nargs="?", default="renders", type=Path)
+    parser.add_argument("--diuretic", action="append", default=[],
+                        help="DRUG:ROUTE:DOSE:HOURS, e.g. furosemide:iv:2:0,8")  # fmt: skip
+    args = parser.parse_args()
+    home = tempfile.mkdtemp(prefix="vetfluid-render-")
+    os.environ["VETFLUID_HOME"] = home
+    try:
+        app = QApplication.instance() or QApplication(sys.argv)
+        for p in render(args.demo, args.out, tuple(args.diuretic)):
+            print(p)
+    finally:
+        shutil.rmtree(home, ignore_errors=True)

@@ -49,7 +49,7 @@ from PySide6.QtWidgets import (
 from ui.common.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
 from ui.common.qt_dates import from_qt, to_qt
 from ui.common.rows_model import Cell, RowsModel
-from ui.course.plot_items import Markers, PlotLabel, thin, turning_mask
+from ui.course.plot_items import DoseMarks, Markers, PlotLabel, thin, turning_mask
 from ui.course.timeline_view import (
     HourClockAxis,
     LineSample,
@@ -83,6 +83,7 @@ from vetfluid.course.urine import (
     predicted_flow,
     predicted_osmolality,
 )
+from vetfluid.planning.safety import diuretic_effect_modelled
 from vetfluid.planning.schedule import hours_since
 
 # What can be recorded: field → (label, unit); a weight is typed and shown in a chosen unit
@@ -272,11 +273,17 @@ class CourseView(QWidget):
         self.labels = (self.oliguria_text, self.urine_end_text, self.urine_note, self.ceiling_text,
                        self.floor_text, self.floor_text_below, self.osm_end_text,
                        self.k_text, self.na_text)  # fmt: skip
+        # the diuretic doses on the time axis of every plot (the drug's name at each)
+        self.dose_marks: dict[int, DoseMarks] = {}
+        for plot in self.plots:
+            marks = DoseMarks()
+            plot.addItem(marks, ignoreBounds=True)
+            self.dose_marks[id(plot)] = marks
         self._y_ranges: dict[int, tuple[float, float]] = {}  # what each value axis shows
         self._x_end: float | None = None
         for plot in self.plots:
             pin_legend(self.graphics, plot.legend)
-        apply_palette(self.palette(), self.graphics, self.plots)
+        self._apply_palette()
         split.addWidget(self.graphics)
 
         bottom = QTabWidget()
@@ -376,8 +383,16 @@ class CourseView(QWidget):
 
     def changeEvent(self, event) -> None:  # noqa: N802,ANN001 (Qt override)
         if event.type() == QEvent.Type.PaletteChange:
-            apply_palette(self.palette(), self.graphics, self.plots)
+            self._apply_palette()
         super().changeEvent(event)
+
+    def _apply_palette(self) -> None:
+        palette = self.palette()
+        apply_palette(palette, self.graphics, self.plots)
+        text, base = (palette.color(role) for role in (QPalette.ColorRole.Text,
+                                                        QPalette.ColorRole.Base))  # fmt: skip
+        for marks in self.dose_marks.values():
+            marks.set_colour(text, base)
 
     def _alert_controls(self) -> QHBoxLayout:
         row = QHBoxLayout()
@@ -573,6 +588,8 @@ class CourseView(QWidget):
                 item.setData([], [])
             for label in self.labels:
                 label.setText("")
+            for marks in self.dose_marks.values():
+                marks.setData([])
             self._show_rows(self.alerts_model, [])
             self._count_alerts([])
             return
@@ -592,6 +609,7 @@ class CourseView(QWidget):
         self._draw_water(result, observations, plan, corners)
         self._draw_urine(result, observations, plan, threshold, corners)
         self._draw_potassium(result, observations, plan, corners)
+        self._mark_doses(plan)
         rows = []
         for finding in found:
             rows.append(
@@ -728,6 +746,23 @@ class CourseView(QWidget):
                 if plan.request.renal_disease and result.urine_band_mosm_per_kg is not None
                 else f"{OSMOLALITY_TITLE} in the species' band",
             )
+
+    def _mark_doses(self, plan) -> None:  # noqa: ANN001 — Plan
+        """Each diuretic dose at its hour on every plot, by the drug's name; a dose whose
+        effect the course leaves out (no onset and duration on record, or an ins-and-outs
+        plan, where urine is measured) says so, so a flat urine line is not read as the
+        drug doing nothing."""
+        sid, table = plan.request.species_id, self.session.table
+        measured = plan.request.ins_and_outs_period_h is not None
+        doses = []
+        for dose in plan.diuretics:
+            name = dose.name[:1].upper() + dose.name[1:]
+            label = f"{name} infusion" if dose.infusion else name
+            if measured or not diuretic_effect_modelled(table, sid, dose):
+                label += " (effect not modelled)"
+            doses.append((dose.start_h, dose.end_h, label))
+        for marks in self.dose_marks.values():
+            marks.setData(doses)
 
     def _draw_potassium(self, result, observations, plan, corners) -> None:  # noqa: ANN001
         """Serum K (when one was entered) against the species' reference interval."""

@@ -19,6 +19,10 @@ change and drawn unscaled at its point.
 
 Measured values are :class:`Markers`: a handful of symbols (and the periods they were
 measured over) drawn in device pixels, with no scatter machinery behind them.
+
+Doses given on the clock (diuretics) are :class:`DoseMarks`: a tick across the plot at
+each dose, a band along its top for an infusion, each with the drug's name; laid out in
+device pixels when the view changes, not on every repaint.
 """
 
 from __future__ import annotations
@@ -29,7 +33,17 @@ from itertools import pairwise
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QLineF, QPointF, QRect, QRectF, Qt
-from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPen, QPolygonF, QStaticText, QTransform
+from PySide6.QtGui import (
+    QBrush,
+    QColor,
+    QFont,
+    QFontMetricsF,
+    QPainter,
+    QPen,
+    QPolygonF,
+    QStaticText,
+    QTransform,
+)
 
 EDGE_PX = 3.0  # a line's half-width and its antialiased edge, kept inside the bounds
 
@@ -528,3 +542,157 @@ class PlotAxis(pg.AxisItem):
             cached = (key, super().boundingRect())
             self._bounds_for = cached
         return QRectF(cached[1])
+
+
+class DoseMarks(pg.GraphicsObject):
+    """Doses on a plot's hour axis: each single dose a one-pixel line across the plot with a
+    small triangle at its top, each infusion a band along the top from its start to its
+    end (with a line at either end), and the drug's name beside each, in words.
+
+    ``setData`` takes ``(start hour, end hour, label)`` per dose (the same hour twice for a
+    single dose). The marks span the view whatever its value range, so they take no part
+    in the plot's bounds (add the item with ``ignoreBounds=True``). Lines and bands are
+    opaque rectangles pre-mixed with the background, as the grid's; a name that would run
+    into the one before it goes on a second row, and is left out (the tick stays) when
+    that is taken too."""
+
+    LINE_ALPHA = 150  # of 255, over the background
+    BAND_ALPHA = 80
+    BAND_PX = 6
+    HEAD_PX = 5  # half the triangle's width
+    GAP_PX = 3.0
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.setZValue(-500)  # over the grid (-1000), under the curves
+        self._doses: list[tuple[float, float, str]] = []
+        self._texts: list[QStaticText] = []
+        self._font = QFont()
+        self._font.setPointSizeF(8.0)
+        self.set_colour(QColor("#606060"), QColor("#ffffff"))
+        self._bounds: QRectF | None = None
+        self._device: tuple[QTransform, tuple] | None = None
+
+    def set_colour(self, colour: QColor, background: QColor) -> None:
+        """Names in ``colour``; lines and bands in it laid over ``background``."""
+        self._text_colour = QColor(colour)
+        self._line = TickGrid._shade(colour, background, self.LINE_ALPHA)
+        self._band = TickGrid._shade(colour, background, self.BAND_ALPHA)
+        self.update()
+
+    def doses(self) -> list[tuple[float, float, str]]:
+        """What is marked: (start hour, end hour, label) per dose."""
+        return list(self._doses)
+
+    def names_drawn(self) -> list[str]:
+        """The names as last laid out on screen (cut short, or left out, where crowded)."""
+        return [text.text() for _, text in self._device[1][3]] if self._device else []
+
+    def setData(self, doses) -> None:  # noqa: N802, ANN001 (the plot items' name)
+        """Mark ``doses``, (start hour, end hour, label) each; the names laid out here."""
+        doses = [(float(start), float(end), str(label)) for start, end, label in doses]
+        if doses == self._doses:
+            return
+        self._doses = doses
+        self._texts = []
+        for _, _, label in doses:
+            text = QStaticText(label)
+            text.setTextFormat(Qt.TextFormat.PlainText)
+            text.prepare(QTransform(), self._font)
+            self._texts.append(text)
+        self._device = None
+        self.update()
+
+    def viewRangeChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
+        self.prepareGeometryChange()
+        self._bounds = None
+        self._device = None
+
+    def viewTransformChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook: resized)
+        self.viewRangeChanged()
+
+    def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
+        """The view's range, kept until it changes (the marks run across it)."""
+        if self._bounds is None:
+            view = self.getViewBox()
+            if view is None:
+                return QRectF()
+            self._bounds = view.viewRect()
+        return self._bounds
+
+    def device_layout(self, transform: QTransform) -> tuple:
+        """Lines, bands, triangles and placed names in device pixels for ``transform``."""
+        if self._device is not None and self._device[0] == transform:
+            return self._device[1]
+        view = transform.mapRect(self.boundingRect())
+        top, height = math.floor(view.top()), max(1, math.floor(view.height()))
+        lines: list[QRect] = []
+        bands: list[QRect] = []
+        heads: list[QPolygonF] = []
+        names: list[tuple[QPointF, QStaticText]] = []
+        row_px = self._texts[0].size().height() if self._texts else 0.0
+        last_right = [-math.inf, -math.inf]  # where the names of each of two rows end
+        for (start, end, label), text in zip(self._doses, self._texts, strict=True):
+            x0 = math.floor(transform.map(QPointF(start, 0.0)).x())
+            x1 = math.floor(transform.map(QPointF(end, 0.0)).x())
+            if x1 > x0:  # an infusion: a band along the top between its two ends
+                bands.append(QRect(x0, top, x1 - x0, self.BAND_PX))
+                lines.extend(QRect(x, top, 1, height) for x in (x0, x1))
+            else:
+                lines.append(QRect(x0, top, 1, height))
+                middle, head = x0 + 0.5, self.HEAD_PX
+                heads.append(QPolygonF([QPointF(middle - head, top), QPointF(middle + head, top),
+                                        QPointF(middle, top + 1.5 * head)]))  # fmt: skip
+            # the name right of its mark, cut short with "…" at the plot's edge; a mark too
+            # near the edge for a few letters has its name on its left, pointing at it
+            left = x0 + self.GAP_PX + 1
+            room = view.right() - left - 1
+            if text.size().width() > room:
+                fitted = self._elided(label, room)
+                if fitted is not None:
+                    text = fitted
+                else:
+                    text = self._elided(f"{label} ▸", x0 - view.left()) or text
+                    left = x0 - self.GAP_PX - text.size().width()
+            width = text.size().width()
+            # on the first row if it is clear there, else on a second, else left out
+            row = next((r for r in (0, 1) if left >= last_right[r] + self.GAP_PX), None)
+            if row is not None:
+                names.append((QPointF(left, top + self.BAND_PX + 1 + row * row_px), text))
+                last_right[row] = left + width
+        laid = (lines, bands, heads, names)
+        self._device = (QTransform(transform), laid)
+        return laid
+
+    def _elided(self, label: str, room: float) -> QStaticText | None:
+        """``label`` cut short with "…" to ``room`` pixels, or None when not even four
+        letters and the "…" fit (then it is no use as a name)."""
+        metrics = QFontMetricsF(self._font)
+        shown = metrics.elidedText(label, Qt.TextElideMode.ElideRight, room)
+        if len(shown) < min(len(label), 5):
+            return None
+        text = QStaticText(shown)
+        text.setTextFormat(Qt.TextFormat.PlainText)
+        text.prepare(QTransform(), self._font)
+        return text
+
+    def paint(self, painter: QPainter, *_: object) -> None:
+        if not self._doses:
+            return
+        transform = painter.transform()
+        lines, bands, heads, names = self.device_layout(transform)
+        painter.resetTransform()  # device pixels; the clip is kept in them
+        painter.setRenderHint(QPainter.RenderHint.Antialiasing, False)
+        painter.setPen(Qt.PenStyle.NoPen)
+        if bands:
+            painter.setBrush(self._band)
+            painter.drawRects(bands)
+        painter.setBrush(self._line)
+        painter.drawRects(lines)
+        for head in heads:
+            painter.drawPolygon(head)
+        painter.setFont(self._font)
+        painter.setPen(self._text_colour)
+        for point, text in names:
+            painter.drawStaticText(point, text)
+        painter.setTransform(transform)

@@ -37,6 +37,7 @@ from vetfluid.common.units import (
     read_decimal,
     weight_in_unit,
 )
+from vetfluid.physiology.electrolytes import DEFAULT_LOSS_TYPE, LOSS_TYPES
 from vetfluid.physiology.hydration import estimate_dehydration, findings_caveat, load_findings
 
 # Optional numeric inputs: request field → (label, unit, placeholder, tooltip)
@@ -54,6 +55,8 @@ LAB_FIELDS = {
     "total_solids_g_per_dl": ("Total solids", "g/dL", "not measured", "Recorded with the plan"),
 }
 TYPED_UNIT = re.compile(r"[a-zA-Z]+$")  # the unit at the end of "350 g" or "20kg"
+# How a diseased kidney behaves (PlanRequest.renal_output): None when not stated
+RENAL_OUTPUT_CHOICES = ((None, "not known"), ("oliguric", "oliguric"), ("polyuric", "polyuric"))
 FLAG_FIELDS = {
     "neonate": "Neonate",
     "cardiac_disease": "Cardiac disease",
@@ -75,7 +78,7 @@ def buddy_label(text: str, buddy: QWidget) -> QLabel:
     return label
 
 
-def _mark(widget: QWidget, problem: str) -> None:
+def mark_field(widget: QWidget, problem: str) -> None:
     """Show a problem on a field in words (tooltip) and by a property the style marks."""
     widget.setProperty("problem", bool(problem))
     widget.setToolTip(problem or widget.property("helpText") or "")
@@ -109,17 +112,17 @@ class NumberField(QLineEdit):
         try:
             value = read_decimal(self.text(), field=self.name)
         except InputError as exc:
-            _mark(self, f"{exc.message} — {exc.fix}")
+            mark_field(self, f"{exc.message} — {exc.fix}")
             label = self.property("helpText")
             self.session.set_field_error(self.name, f"{label}: {self.text()!r} is {exc.message}")
             return
-        _mark(self, "")
+        mark_field(self, "")
         self.session.update(**{self.name: self.empty if value is None else value})
 
     def show_value(self, value: float | None) -> None:
         with QSignalBlocker(self):
             self.setText("" if value is None else format_number(value, decimals=4))
-        _mark(self, "")
+        mark_field(self, "")
 
 
 class PatientView(QWidget):
@@ -193,11 +196,29 @@ class PatientView(QWidget):
         for i, (name, label) in enumerate(FLAG_FIELDS.items()):
             box = QCheckBox(label)
             box.setAccessibleName(label)
-            box.toggled.connect(lambda on, n=name: self.session.update(**{n: on}))
+            if name != "renal_disease":  # renal disease also decides the urine output
+                box.toggled.connect(lambda on, n=name: self.session.update(**{n: on}))
             self.flag_boxes[name] = box
             (flags if i < 2 else flags_two).addWidget(box)
+        self.flag_boxes["renal_disease"].toggled.connect(self._renal_changed)
         form.addRow("Stage, flags", flags)
         form.addRow("", flags_two)
+        # how the diseased kidney behaves in the course: only said of a diseased kidney
+        self.renal_output = QComboBox()
+        for value, label in RENAL_OUTPUT_CHOICES:
+            self.renal_output.addItem(label, value)
+        self.renal_output.setAccessibleName("Urine output of the diseased kidney")
+        self.renal_output.setProperty(
+            "helpText",
+            "With renal disease: is the patient passing little urine (oliguric) or a lot "
+            "(polyuric)? The course models the kidney accordingly; tick Renal disease first.",
+        )
+        self.renal_output.setToolTip(self.renal_output.property("helpText"))
+        compact(self.renal_output, 10)
+        self.renal_output.activated.connect(
+            lambda _: self.session.update(renal_output=self.renal_output.currentData())
+        )
+        form.addRow(buddy_label("Ur&ine output", self.renal_output), self.renal_output)
 
         self.temp_field = NumberField(
             session, "body_temp_c", "not measured", "Body temperature (°C)"
@@ -239,7 +260,23 @@ class PatientView(QWidget):
             "Ongoing losses (vomiting, diarrhoea, polyuria), mL/day",
             empty=0.0,
         )
-        hform.addRow("Ongoing &losses (mL/day)", self.losses_field)
+        # what the losses are: their typical Na and K come from the core's list
+        self.loss_type = QComboBox()
+        for loss in LOSS_TYPES.values():
+            self.loss_type.addItem(loss.label[:1].upper() + loss.label[1:], loss.loss_type)
+            self.loss_type.setItemData(
+                self.loss_type.count() - 1, _loss_tooltip(loss), Qt.ItemDataRole.ToolTipRole
+            )
+        self.loss_type.setAccessibleName("Type of ongoing losses")
+        self.loss_type.setToolTip("What the ongoing losses are: sets their Na and K in the course")
+        compact(self.loss_type, 12)
+        self.loss_type.activated.connect(
+            lambda _: self.session.update(loss_type=self.loss_type.currentData())
+        )
+        row = QHBoxLayout()
+        row.addWidget(self.losses_field, 1)
+        row.addWidget(self.loss_type, 2)
+        hform.addRow(buddy_label("Ongoing &losses (mL/day)", self.losses_field), row)
         layout.addWidget(hyd)
         layout.setContentsMargins(0, 0, 0, 0)
 
@@ -275,6 +312,11 @@ class PatientView(QWidget):
         for name, box in self.flag_boxes.items():
             with QSignalBlocker(box):
                 box.setChecked(bool(inputs.get(name)))
+        self._show_renal_output(inputs.get("renal_output"), bool(inputs.get("renal_disease")))
+        with QSignalBlocker(self.loss_type):
+            self.loss_type.setCurrentIndex(
+                max(0, self.loss_type.findData(inputs.get("loss_type") or DEFAULT_LOSS_TYPE))
+            )
         self.temp_field.show_value(inputs.get("body_temp_c"))
         self.dehydration_field.show_value(inputs.get("dehydration_percent"))
         self.losses_field.show_value(inputs.get("losses_ml_per_day") or None)
@@ -321,7 +363,22 @@ class PatientView(QWidget):
         else:
             self.temp_label.setText("not needed for endotherms")
 
+    def _show_renal_output(self, renal_output: str | None, renal_disease: bool) -> None:
+        with QSignalBlocker(self.renal_output):
+            self.renal_output.setCurrentIndex(max(0, self.renal_output.findData(renal_output)))
+        self.renal_output.setEnabled(renal_disease)
+
     # ---- from the widgets into the session ---------------------------------------------------
+    def _renal_changed(self, on: bool) -> None:
+        """Renal disease on or off; off, the urine output of a diseased kidney goes with it
+        (the core refuses one without the other), and the box shows so."""
+        if on:
+            self.renal_output.setEnabled(True)
+            self.session.update(renal_disease=True)
+            return
+        self._show_renal_output(None, False)
+        self.session.update(renal_disease=False, renal_output=None)
+
     def _species_index_chosen(self, index: int) -> None:
         self._set_species(self.species_box.itemData(index))
 
@@ -375,7 +432,7 @@ class PatientView(QWidget):
             problem = (
                 f"no species matches {text!r}: try a common name, a scientific name or a group"
             )
-        _mark(self.species_box, problem)
+        mark_field(self.species_box, problem)
         self.session.set_field_error("species_id", f"Species: {problem}")
 
     def eventFilter(self, watched: QObject, event: QEvent) -> bool:  # noqa: N802 (Qt override)
@@ -404,7 +461,7 @@ class PatientView(QWidget):
     def _set_species(self, sid: str | None) -> None:
         if not sid:
             return
-        _mark(self.species_box, "")
+        mark_field(self.species_box, "")
         self.species_box.lineEdit().setCursorPosition(0)  # the start of the name, not its end
         self._show_species_context(sid)
         unit = preferred_weight_unit(self.session.table.value(sid, "body_weight_kg").number)
@@ -421,17 +478,17 @@ class PatientView(QWidget):
     def _weight_changed(self, *_: object) -> None:
         text = self.weight_edit.text().strip()
         if not text:
-            _mark(self.weight_edit, "")
+            mark_field(self.weight_edit, "")
             self.session.update(weight_kg=None)
             return
         try:
             # a unit typed with the number ("350 g") wins over the box, which then follows it
             kg = parse_weight_kg(text, default_unit=self.unit_box.currentText())
         except InputError as exc:
-            _mark(self.weight_edit, f"{exc.message} — {exc.fix or ''}")
+            mark_field(self.weight_edit, f"{exc.message} — {exc.fix or ''}")
             self.session.set_field_error("weight_kg", f"Weight {text!r}: {exc.message}")
             return
-        _mark(self.weight_edit, "")
+        mark_field(self.weight_edit, "")
         typed_unit = TYPED_UNIT.search(text)
         if typed_unit and typed_unit.group(0).lower() in WEIGHT_UNITS:
             with QSignalBlocker(self.unit_box):
@@ -475,6 +532,15 @@ class PatientView(QWidget):
     def _use_estimate(self) -> None:
         self.dehydration_field.show_value(self._estimate)
         self.session.update(dehydration_percent=self._estimate)
+
+
+def _loss_tooltip(loss) -> str:  # noqa: ANN001 — electrolytes.LossComposition
+    """A loss type's typical composition in words, as the core's list gives it."""
+    recalled = " (recalled, unverified)" if loss.basis == "memory" else ""
+    if loss.na_mmol_per_l is None:
+        return f"{loss.note}{recalled}"
+    return (f"Na {format_quantity(loss.na_mmol_per_l, 'mmol/L')}, "
+            f"K {format_quantity(loss.k_mmol_per_l, 'mmol/L')}: {loss.note}{recalled}")  # fmt: skip
 
 
 class LabsView(QGroupBox):

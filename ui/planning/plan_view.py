@@ -4,6 +4,7 @@
 
 from __future__ import annotations
 
+import re
 from datetime import datetime, time, timedelta
 
 from PySide6.QtCore import QDateTime, QSignalBlocker, Qt, QTimer
@@ -18,6 +19,8 @@ from PySide6.QtWidgets import (
     QHBoxLayout,
     QHeaderView,
     QLabel,
+    QLineEdit,
+    QPushButton,
     QSpinBox,
     QTableView,
     QVBoxLayout,
@@ -26,18 +29,20 @@ from PySide6.QtWidgets import (
 
 from ui.common.qt_dates import from_qt, to_qt
 from ui.common.rows_model import Cell, RowsModel
-from ui.planning.patient_view import NumberField, buddy_label, compact
+from ui.planning.patient_view import NumberField, buddy_label, compact, mark_field
 from ui.planning.session import PlanSession
 from ui.planning.shown_plan import ShownPlan
+from vetfluid.common.errors import InputError
 from vetfluid.common.formatting import format_quantity as q
+from vetfluid.common.units import read_decimal
 from vetfluid.physiology.delivery import STANDARD_DROP_FACTORS
 from vetfluid.physiology.electrolytes import sodium_text
 from vetfluid.physiology.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.planning.plan import Plan
-from vetfluid.planning.schedule import rate_or_dose_text, route_text
+from vetfluid.planning.schedule import clock_time, diuretic_text, rate_or_dose_text, route_text
 from vetfluid.printouts.sheet import DEVICE_WORDS
 from vetfluid.records.serialize import fluid_dict
-from vetfluid.tables import fluid_roles, fluids
+from vetfluid.tables import diuretics, fluid_roles, fluids
 
 ROUTE_CHOICES = (
     (None, "Automatic (by weight)"),
@@ -212,6 +217,10 @@ class PlanSettings(QGroupBox):
         self.start_note.hide()
         form.addRow("", self.start_note)
 
+        # diuretics last: given beside the fluid, on the same clock
+        self.diuretics = DiureticsView(session)
+        form.addRow(self.diuretics)
+
         session.inputsReplaced.connect(self.load_inputs)
         session.planChanged.connect(self._plan_changed)
         self.load_inputs()
@@ -312,6 +321,354 @@ class PlanSettings(QGroupBox):
                 i, fluid_tooltip(self.fluid.itemData(i), plan), Qt.ItemDataRole.ToolTipRole
             )
         self.fluid.setToolTip(fluid_tooltip(self.fluid.currentData(), plan))
+
+
+# hours typed as "1,5": two doses (hours 1 and 5) or one at 1.5? never guessed
+AMBIGUOUS_HOURS = re.compile(r"\s*(\d+),(\d+)\s*")
+HOURS_FIX = "type the hours of the plan's clock, e.g. 0, 8, 16 (half past: 0.5)"
+
+
+def _capital(text: str) -> str:
+    return text[:1].upper() + text[1:]
+
+
+def read_hours(text: str) -> tuple[float, ...]:
+    """The hours of single doses typed as ``0, 8, 16`` (commas, semicolons or spaces between
+    them), each read by the core's reader; ``1,5`` is refused as ambiguous."""
+    pair = AMBIGUOUS_HOURS.fullmatch(text)
+    if pair:
+        first, second = pair.groups()
+        raise InputError(
+            "these hours are ambiguous", field="hour", value=text,
+            fix=f"write {first}, {second} for two doses, or {first}.{second} for one",
+        )  # fmt: skip
+    parts = [part for part in re.split(r"[,;\s]+", text.strip()) if part]
+    if not parts:
+        raise InputError("no hour is given", field="hour", value=text, fix=HOURS_FIX)
+    hours = []
+    for part in parts:
+        try:
+            hour = read_decimal(part, field="hour")
+        except InputError as exc:
+            raise InputError(f"{part!r} is {exc.message}", field="hour", value=part,
+                             fix=HOURS_FIX) from None  # fmt: skip
+        hours.append(hour)
+    return tuple(hours)
+
+
+class DiureticsView(QGroupBox):
+    """Diuretic doses: the drug (those on record for the species, by name), its route, the
+    dose in the table's unit with the usual range on record, and the hours on the plan's
+    clock (an infusion: its rate, from an hour to an hour). The doses entered are listed
+    with what the core works out for this patient; one can be removed. Nothing is computed
+    here: the ranges are the table's, the amounts the plan's, every check the core's."""
+
+    def __init__(self, session: PlanSession, parent: QWidget | None = None):
+        super().__init__("Diuretics", parent)
+        self.session = session
+        self.setAccessibleName("Diuretics")
+        self._species: str | None = ""  # the species the drugs were listed for
+        self._shown: list[tuple[int, tuple[str, str]]] = []  # (dose index, (when, words))
+        self._clock_start: object = ""  # the start the clock hint was written for
+        form = QFormLayout(self)
+        self.note = QLabel()
+        self.note.setWordWrap(True)
+        self.note.setAccessibleName("Diuretics on record")
+        form.addRow(self.note)
+
+        self.drug = QComboBox()
+        self.drug.setAccessibleName("Diuretic drug")
+        self.drug.setToolTip("The diuretics with a dose on record for this species")
+        compact(self.drug, 12)
+        self.drug.activated.connect(self._drug_changed)
+        form.addRow(buddy_label("Dru&g", self.drug), self.drug)
+        self.route = QComboBox()
+        self.route.setAccessibleName("Diuretic route")
+        self.route.setToolTip("The routes with a dose on record for this drug and species")
+        compact(self.route, 10)
+        self.route.activated.connect(self._route_changed)
+        form.addRow("Route", self.route)
+
+        self.dose = QLineEdit()
+        self.dose.setAccessibleName("Diuretic dose")
+        self.dose.setPlaceholderText("dose")
+        self.dose.setProperty("helpText", "The dose each time, in the unit beside it")
+        self.dose.returnPressed.connect(self.add)
+        self.dose_unit = QLabel()
+        self.dose_unit.setAccessibleName("Unit of the diuretic dose")
+        row = QHBoxLayout()
+        row.addWidget(self.dose, 1)
+        row.addWidget(self.dose_unit, 1)
+        self.dose_label = buddy_label("Dose", self.dose)
+        form.addRow(self.dose_label, row)
+        self.usual = QLabel()
+        self.usual.setWordWrap(True)
+        self.usual.setAccessibleName("Usual diuretic dose")
+        form.addRow("", self.usual)
+
+        self.hours = QLineEdit()
+        self.hours.setAccessibleName("Hours of the diuretic doses")
+        self.hours.setPlaceholderText("e.g. 0, 8, 16")
+        self.hours.setProperty("helpText", "Hours from the plan's start, one dose at each: "
+                               "0, 8, 16 (half past: 0.5)")  # fmt: skip
+        self.hours.setToolTip(self.hours.property("helpText"))
+        self.hours.returnPressed.connect(self.add)
+        form.addRow(buddy_label("At &hour(s)", self.hours), self.hours)
+        self.start = QLineEdit()
+        self.start.setAccessibleName("Hour the diuretic infusion starts")
+        self.start.setPlaceholderText("e.g. 2")
+        self.end = QLineEdit()
+        self.end.setAccessibleName("Hour the diuretic infusion ends")
+        self.end.setPlaceholderText("e.g. 10")
+        for edit in (self.start, self.end):
+            edit.setProperty("helpText", "Hours from the plan's start")
+            edit.setToolTip(edit.property("helpText"))
+            edit.returnPressed.connect(self.add)
+        row = QHBoxLayout()
+        row.addWidget(self.start, 1)
+        row.addWidget(QLabel("to hour"))
+        row.addWidget(self.end, 1)
+        form.addRow(buddy_label("From &hour", self.start), row)
+        self._infusion_row = row
+        self.clock_hint = QLabel()
+        self.clock_hint.setAccessibleName("The plan's clock")
+        form.addRow("", self.clock_hint)
+
+        self.add_button = QPushButton("Add dose")
+        self.add_button.setToolTip("Put this diuretic on the plan, the schedule and the sheet")
+        self.add_button.clicked.connect(self.add)
+        form.addRow("", self.add_button)
+        self.message = QLabel()
+        self.message.setWordWrap(True)
+        self.message.setAccessibleName("Diuretic problem")
+        self.message.hide()
+        form.addRow(self.message)
+
+        self.doses_model = RowsModel(["When", "Diuretic"])
+        self.doses = PlanSummary._table(self.doses_model, "Diuretic doses entered")
+        self.doses.setSelectionMode(QAbstractItemView.SelectionMode.ExtendedSelection)
+        self.doses.selectionModel().selectionChanged.connect(self._selection_changed)
+        # wrapped rows change height as the columns settle: the table's height follows
+        refit = QTimer(self.doses, singleShot=True, interval=0)
+        refit.timeout.connect(self._fit_list)
+        self.doses.horizontalHeader().sectionResized.connect(refit.start)
+        self.remove_button = QPushButton("Remove selected dose")
+        self.remove_button.setToolTip("Take the selected diuretic dose(s) off the plan")
+        self.remove_button.setEnabled(False)
+        self.remove_button.clicked.connect(self.remove_selected)
+        form.addRow(self.doses)
+        form.addRow("", self.remove_button)
+        self._fit_list()
+
+        session.inputsReplaced.connect(self.load_inputs)
+        session.planChanged.connect(self._plan_changed)
+        self.load_inputs()
+
+    # ---- from the session into the widgets --------------------------------------------------
+    def load_inputs(self, *_: object) -> None:
+        self.say("")
+        self._follow_species()
+        self._show_doses(self.session.plan)
+
+    def _plan_changed(self, plan: Plan | None) -> None:
+        self._follow_species()
+        self._show_doses(plan)
+        start = plan.request.start_time if plan is not None else None
+        if start != self._clock_start:
+            self._clock_start = start
+            self.clock_hint.setText(
+                f"hour 0 is {start:%H:%M}, the plan's start" if start is not None else ""
+            )
+
+    def _follow_species(self) -> None:
+        """List the drugs with a dose on record for the species (again when it changes)."""
+        sid = self.session.inputs.get("species_id")
+        if sid == self._species:
+            return
+        self._species = sid
+        table = self.session.table
+        known = sid in table.species_by_id
+        self._routes: dict[str, tuple[str, ...]] = {}
+        if known:
+            for drug in diuretics.load_diuretics().values():
+                routes = tuple(r for r in drug.routes
+                               if diuretics.rows_for(table, sid, drug.drug_id, r))  # fmt: skip
+                if routes:
+                    self._routes[drug.drug_id] = routes
+        chosen = self.drug.currentData()
+        with QSignalBlocker(self.drug):
+            self.drug.clear()
+            for drug_id in self._routes:
+                self.drug.addItem(_capital(diuretics.drug(drug_id).name), drug_id)
+            self.drug.setCurrentIndex(max(0, self.drug.findData(chosen)))
+        if not known:
+            self.note.setText("Choose a species first.")
+        elif not self._routes:
+            name = table.species(sid).common_name
+            self.note.setText(
+                f"No diuretic dose is on record for the {name}: none can be entered here "
+                "(the plan could not check it)."
+            )
+        self.note.setVisible(not self._routes)
+        for widget in (self.drug, self.route, self.dose, self.hours, self.start, self.end,
+                       self.add_button):  # fmt: skip
+            widget.setEnabled(bool(self._routes))
+        self._drug_changed()
+
+    def _drug_changed(self, *_: object) -> None:
+        chosen = self.route.currentData()
+        with QSignalBlocker(self.route):
+            self.route.clear()
+            for route in self._routes.get(self.drug.currentData(), ()):
+                words = "IV infusion (a rate)" if route == "cri" else diuretics.ROUTE_WORDS[route]
+                self.route.addItem(words, route)
+            self.route.setCurrentIndex(max(0, self.route.findData(chosen)))
+        self._route_changed()
+
+    def _route_changed(self, *_: object) -> None:
+        """The unit, the usual dose and the hours as the drug's route takes them."""
+        drug_id, route = self.drug.currentData(), self.route.currentData()
+        infusion = route == "cri"
+        form: QFormLayout = self.layout()
+        form.setRowVisible(self.hours, not infusion)
+        form.setRowVisible(self._infusion_row, infusion)
+        self.dose_label.setText("Rat&e" if infusion else "Dos&e")
+        if drug_id is None or route is None:
+            self.dose_unit.setText("")
+            self.usual.setText("")
+            return
+        self.dose_unit.setText(diuretics.drug(drug_id).dose_unit(route))
+        rows = diuretics.rows_for(self.session.table, self._species, drug_id, route)
+        ranges = " or ".join(dict.fromkeys(r.range_text() for r in rows))
+        recalled = any(r.dose_basis == "memory" for r in rows)
+        self.usual.setText(f"usual {ranges}" + (" (recalled, unverified)" if recalled else ""))
+        self.usual.setToolTip("\n".join(dict.fromkeys(r.note for r in rows if r.note)))
+
+    def _show_doses(self, plan: Plan | None) -> None:
+        """The doses entered, in order of the hour, in the plan's words where it has them
+        (with the amount for this patient) and the clock time of each."""
+        doses = self.session.inputs.get("diuretics") or ()
+        worded = {}
+        if plan is not None:
+            for d in plan.diuretics:
+                clock = clock_time(plan.request.start_time, d.start_h)
+                worded[(d.drug_id, d.dose, d.route, d.start_h, d.end_h)] = (
+                    f"{clock} (hour {d.start_h:g})" if clock else f"hour {d.start_h:g}",
+                    diuretic_text(d),
+                )  # fmt: skip
+        shown = [
+            (index, worded.get(tuple(dose)) or _dose_words(dose))
+            for index, dose in sorted(enumerate(doses), key=lambda e: (e[1][3], e[0]))
+        ]
+        if shown == self._shown:
+            return
+        self._shown = shown
+        self.doses_model.set_rows([[Cell(when), Cell(words, words)] for _, (when, words) in shown])
+        self._fit_list()
+        self._selection_changed()
+
+    def _fit_list(self) -> None:
+        """The table as tall as its doses (one row at least, six at most, then it
+        scrolls): an empty one stays small, a wrapped dose is not hidden under the next."""
+        self.doses.resizeRowsToContents()
+        rows = min(self.doses_model.rowCount(), 6)
+        rows_px = (
+            sum(self.doses.rowHeight(r) for r in range(rows))
+            if rows
+            else self.doses.verticalHeader().defaultSectionSize()
+        )
+        header = self.doses.horizontalHeader().sizeHint().height()
+        self.doses.setFixedHeight(header + rows_px + 2 * self.doses.frameWidth() + 2)
+
+    def say(self, text: str) -> None:
+        """A problem with what was typed, beside the fields ("" clears it)."""
+        self.message.setText(f"⚠ {text}" if text else "")
+        self.message.setVisible(bool(text))
+
+    # ---- from the widgets into the session ---------------------------------------------------
+    def add(self) -> None:
+        """Read what was typed with the core's readers, let the core check the doses, and
+        enter them; anything wrong is said beside the fields and nothing is entered."""
+        drug_id, route = self.drug.currentData(), self.route.currentData()
+        if drug_id is None or route is None:
+            return
+        for edit in (self.dose, self.hours, self.start, self.end):
+            mark_field(edit, "")
+        unit = self.dose_unit.text()
+        try:
+            dose = read_decimal(self.dose.text(), field="dose")
+            if dose is None:
+                raise InputError("no dose is given", field="dose", value=None,
+                                 fix=f"type the dose in {unit}, e.g. 2")  # fmt: skip
+        except InputError as exc:
+            self._refuse(self.dose, f"Dose: {exc.message} — {exc.fix}")
+            return
+        try:
+            if route == "cri":
+                start = read_decimal(self.start.text(), field="hour")
+                end = read_decimal(self.end.text(), field="hour")
+                if start is None or end is None:
+                    raise InputError("an infusion needs the hour it starts and the hour it "
+                                     "ends", field="hour", value=None,
+                                     fix="e.g. from hour 2 to hour 10")  # fmt: skip
+                new = ((drug_id, dose, route, start, end),)
+            else:
+                new = tuple((drug_id, dose, route, h, h) for h in read_hours(self.hours.text()))
+        except InputError as exc:
+            hours = self.start if route == "cri" else self.hours
+            self._refuse(hours, f"Hour: {exc.message} — {exc.fix}")
+            return
+        entered = tuple(self.session.inputs.get("diuretics") or ())
+        twice = [d for d in new if any(e[0] == d[0] and e[3] == d[3] for e in entered)]
+        if twice or len(set(new)) < len(new):
+            at = twice[0][3] if twice else new[0][3]
+            self._refuse(self.hours if route != "cri" else self.start,
+                         f"{_capital(diuretics.drug(drug_id).name)} at hour {at:g} is already "
+                         "entered: remove it first to change it")  # fmt: skip
+            return
+        refused = self.session.diuretics_refused((*entered, *new))
+        if refused is not None:
+            field = (refused.field or "").lower()
+            where = self.dose if "dose" in field else (
+                self.start if route == "cri" else self.hours
+            )  # fmt: skip
+            self._refuse(where, self.session.in_words(refused))
+            return
+        self.say("")
+        self.hours.clear()
+        self.session.update(diuretics=(*entered, *new))
+        self._show_doses(self.session.plan)
+
+    def _refuse(self, widget: QWidget, text: str) -> None:
+        mark_field(widget, text)
+        self.say(text)
+
+    def _selection_changed(self, *_: object) -> None:
+        self.remove_button.setEnabled(bool(self.doses.selectionModel().selectedRows()))
+
+    def remove_selected(self) -> None:
+        rows = self.doses.selectionModel().selectedRows()
+        gone = {self._shown[index.row()][0] for index in rows if index.row() < len(self._shown)}
+        if not gone:
+            return
+        doses = self.session.inputs.get("diuretics") or ()
+        self.say("")
+        self.session.update(diuretics=tuple(d for i, d in enumerate(doses) if i not in gone))
+        self._show_doses(self.session.plan)
+
+
+def _dose_words(dose: tuple) -> tuple[str, str]:
+    """A dose the plan has not (yet) worded: ``hour 8``, ``Furosemide 2 mg/kg IV``."""
+    drug_id, amount, route, start_h, end_h = dose
+    try:
+        drug = diuretics.drug(drug_id)
+        name, unit = _capital(drug.name), drug.dose_unit(route)
+    except InputError:  # a dose from a file naming a drug or route not on record
+        name, unit = str(drug_id), ""
+    if route == "cri":
+        return f"hour {start_h:g}", f"{name} infusion {amount:g} {unit} until hour {end_h:g}"
+    words = diuretics.ROUTE_WORDS.get(route, route)
+    return f"hour {start_h:g}", f"{name} {amount:g} {unit} {words}"
 
 
 def format_drop(value: float | None) -> str:

@@ -9,12 +9,12 @@ happens here: the plan comes from :func:`vetfluid.planning.plan.build_plan`.
 from __future__ import annotations
 
 import re
-from dataclasses import MISSING, fields
+from dataclasses import MISSING, fields, replace
 from typing import Any
 
 from PySide6.QtCore import QObject, QTimer, Signal
 
-from vetfluid.common.errors import VetfluidError
+from vetfluid.common.errors import InputError, VetfluidError
 from vetfluid.common.findings import Finding
 from vetfluid.planning.plan import Plan, PlanRequest, build_plan
 from vetfluid.tables.species import SpeciesTable, load_table
@@ -41,6 +41,9 @@ FIELD_WORDS = {
     "max_na_change_per_h": "Max Na change", "syringe_size_ml": "Syringe size",
     "pcv_percent": "PCV", "total_solids_g_per_dl": "Total solids",
     "ins_and_outs_period_h": "Ins-and-outs period", "measured_outputs": "Measured outputs",
+    "diuretics": "Diuretic", "diuretic": "Diuretic", "diuretic route": "Diuretic route",
+    "loss_type": "Type of ongoing losses", "renal_output": "Urine output",
+    "serum_hco3": "Serum bicarbonate",
 }  # fmt: skip
 
 # what a reason opened from a file was given for, when its warning was not in the plan
@@ -103,6 +106,19 @@ class PlanSession(QObject):
             self._field_errors.pop(name, None)
         self._inputs.update(changes)
         self._schedule()
+
+    def diuretics_refused(self, doses: tuple) -> InputError | None:
+        """What the core says against the plan holding ``doses`` (the request's diuretics),
+        checked before they are entered; None when it takes them, or when there is no plan
+        to check them in yet (then the status line says what is wrong once they are)."""
+        request = self.request
+        if request is None:
+            return None
+        try:
+            replace(request, diuretics=tuple(doses))  # the request checks itself on creation
+        except InputError as exc:
+            return exc
+        return None
 
     def set_field_error(self, name: str, message: str) -> None:
         """A view could not read what the user typed; no plan until it is fixed."""
