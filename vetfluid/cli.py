@@ -768,6 +768,7 @@ def cmd_course(args: argparse.Namespace) -> int:
         "diuretics_not_modelled": list(result.diuretics_not_modelled),
         "provenance": [v.provenance() for v in result.provenance],
         "findings": [f.as_dict() for f in plan.findings],
+        "course_findings": [f.as_dict() for f in result.findings],
         "cautions": list(CAUTIONS),
     }
     if args.json:
@@ -797,6 +798,9 @@ def cmd_course(args: argparse.Namespace) -> int:
         if result.diuretics_not_modelled:
             print("Not shown in the course (no onset and duration on record): "
                   f"{'; '.join(result.diuretics_not_modelled)}.")  # fmt: skip
+        if data["course_findings"]:
+            print("\nPredicted by the course")
+            _print_findings(data["course_findings"])
         print("\nFindings of the plan")
         _print_findings(data["findings"])
         print("\n" + _cautions_text())

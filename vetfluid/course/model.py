@@ -41,6 +41,7 @@ import numpy as np
 from vetfluid.common.checks import require_number
 from vetfluid.common.errors import InputError
 from vetfluid.common.findings import Finding
+from vetfluid.common.formatting import format_number, format_quantity
 from vetfluid.course.observations import Observation, alerts
 from vetfluid.physiology import delivery, electrolytes, kidney, maintenance
 from vetfluid.physiology.hydration import body_water_fraction
@@ -85,6 +86,9 @@ class Course:
     # after the plan's last phase the patient's own intake is taken to match its losses, so
     # urine flow and osmolality are predicted only up to this hour
     outputs_end_h: float
+    # what the course predicts that the plan's checks, which leave the kidney out, cannot
+    # see (serum Na out of its interval faster than the limit, K below its interval)
+    findings: tuple[Finding, ...] = ()
     na_excreted_mmol: np.ndarray | None = None  # urine Na, cumulative (None: no kidney)
     k_excreted_mmol: np.ndarray | None = None  # urine K, cumulative
     serum_hco3: np.ndarray | None = None  # mmol/L, when a serum bicarbonate was entered
@@ -614,11 +618,11 @@ def course(
     )
     urine = np.asarray(balance.urine_ml)
     consumed = free_water + lost
-    serum_na = None
-    if request.serum_na is not None:
-        serum_na = np.asarray(balance.na_k_mmol) * 1000.0 / tbw
-        if balance.mannitol_mosm is not None:  # the ECF's osmoles that are not Na salts
-            serum_na = serum_na * (ecf_osm - np.asarray(balance.mannitol_mosm)) / ecf_osm
+    # followed from the species' normal when no Na was entered: said, not drawn
+    na_path = np.asarray(balance.na_k_mmol) * 1000.0 / tbw
+    if balance.mannitol_mosm is not None:  # the ECF's osmoles that are not Na salts
+        na_path = na_path * (ecf_osm - np.asarray(balance.mannitol_mosm)) / ecf_osm
+    serum_na = na_path if request.serum_na is not None else None
     serum_k = None
     if request.serum_k is not None:
         k_pool = np.asarray(balance.k_mmol)
@@ -635,6 +639,12 @@ def course(
         kidney_values += hco3_values
 
     net = given - consumed - urine
+    na_limit = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
+    predicted = _predicted_findings(
+        hours, na_path, na_entered=request.serum_na is not None, na_limit=na_limit,
+        na_normal=values["serum_na_mmol_per_l"], serum_k=serum_k,
+        k_normal=values["serum_k_mmol_per_l"], step_h=step_h,
+    ) if settings is not None else ()  # fmt: skip
     provenance = tuple(dict.fromkeys([*values.values(), *kidney_values]))
     band = None if settings is None else (settings.floor_mosm_per_kg, settings.ceiling_mosm_per_kg)
     return Course(
@@ -655,8 +665,8 @@ def course(
         serum_k=serum_k,
         pcv_percent=pcv,
         total_solids_g_per_dl=solids,
-        na_max_change_per_h=request.max_na_change_per_h
-        or limit("sodium_max_correction_mmol_per_l_h").value,
+        na_max_change_per_h=na_limit,
+        findings=predicted,
         weight_kg=w + net / 1000.0,
         remaining_deficit_ml=np.maximum(plan.deficit_ml - net, 0.0),
         provenance=provenance,
@@ -667,6 +677,67 @@ def course(
         diuretics_not_modelled=left_out_doses,
         serum_hco3=serum_hco3,
     )
+
+
+def _predicted_findings(
+    hours: np.ndarray,
+    na_path: np.ndarray,
+    *,
+    na_entered: bool,
+    na_limit: float,
+    na_normal: SpeciesValue,
+    serum_k: np.ndarray | None,
+    k_normal: SpeciesValue,
+    step_h: float,
+) -> tuple[Finding, ...]:
+    """Soft findings on what this course predicts (only where the kidney is modelled):
+
+    * serum Na leaving the species' reference interval while it changes faster than the
+      correction limit over some hour (the plan's rule, Adrogué & Madias 2000; the plan
+      checks it without the kidney or the diuretics, which may be what moves it here);
+    * serum K (when entered) falling below the species' interval (loop and thiazide
+      diuretics, K-free fluids; Gordon et al., Merck Veterinary Manual 2023).
+    """
+    found = []
+    low = na_normal.low if na_normal.low is not None else na_normal.number
+    high = na_normal.high if na_normal.high is not None else na_normal.number
+    per_hour = max(int(round(1.0 / step_h)), 1)
+    fastest = 0.0
+    if len(na_path) > per_hour:
+        fastest = float(np.max(np.abs(na_path[per_hour:] - na_path[:-per_hour])))
+    peak_i = int(np.argmax(np.maximum(na_path - high, low - na_path)))
+    peak = float(na_path[peak_i])
+    started_inside = low <= na_path[0] <= high
+    if started_inside and not low <= peak <= high and fastest > na_limit:
+        side = "above" if peak > high else "below"
+        start = "" if na_entered else " (no Na entered: followed from the species' normal)"
+        found.append(Finding(
+            severity="soft", code="PREDICTED_NA_OUTSIDE_RANGE",
+            message=f"The course predicts serum Na {format_quantity(peak, 'mmol/L')} at hour "
+                    f"{format_number(float(hours[peak_i]), decimals=1)}, {side} the "
+                    f"{format_quantity(low, 'mmol/L')}–{format_quantity(high, 'mmol/L')} "
+                    f"interval, changing up to {format_quantity(fastest, 'mmol/L')} in an "
+                    f"hour (limit {format_quantity(na_limit, 'mmol/L/h')}){start}. The plan's "
+                    "own sodium check leaves the kidney and any diuretic out.",
+            action="Measure serum Na within a few hours of starting and re-plan with it; "
+                   "replace free-water losses or reduce the diuretic.",
+            source_id=na_normal.source_id,
+        ))  # fmt: skip
+    if serum_k is not None:
+        k_low = k_normal.low if k_normal.low is not None else k_normal.number
+        lowest_i = int(np.argmin(serum_k))
+        if serum_k[0] >= k_low > serum_k[lowest_i]:
+            found.append(Finding(
+                severity="soft", code="PREDICTED_K_BELOW_RANGE",
+                message=f"The course predicts serum K "
+                        f"{format_quantity(float(serum_k[lowest_i]), 'mmol/L')} by hour "
+                        f"{format_number(float(hours[lowest_i]), decimals=1)}, below the "
+                        f"{format_quantity(k_low, 'mmol/L')} low end of the interval.",
+                action="Add potassium to the fluid (the serum-K scale) and measure K again "
+                       "within 12–24 h.",
+                source_id=k_normal.source_id,
+            ))  # fmt: skip
+    return tuple(found)
 
 
 def _drugs(
@@ -809,4 +880,4 @@ def observed_course(
         plan, observations, oliguria_ml_per_kg_h=oliguria_ml_per_kg_h, table=table,
         predicted_weight=lambda hour: result.predicted("weight_kg", hour),
     )  # fmt: skip
-    return result, found
+    return result, [*result.findings, *found]

@@ -1,0 +1,73 @@
+"""What the course itself predicts that the plan's own checks cannot see: the plan's sodium
+check leaves the kidney and the diuretics out (docs/model.md), so a course whose serum Na
+leaves the species' reference interval faster than the correction limit says so, in the
+Course tab's alerts and the CLI, in words (issue 19: the plan, the course and the sheet
+agree, and nothing the course shows goes unsaid)."""
+
+from __future__ import annotations
+
+import json
+
+from vetfluid import cli
+from vetfluid.course.model import SHOWN_STEP_MINUTES, course, observed_course
+from vetfluid.planning.demos import DEMOS
+from vetfluid.planning.plan import PlanRequest, build_plan
+
+FUROSEMIDE = (
+    *(("furosemide", 2.0, "iv", h, h) for h in (0.0, 8.0)),
+    ("furosemide", 0.66, "cri", 12.0, 20.0),
+)
+
+
+def _codes(findings) -> set[str]:  # noqa: ANN001
+    return {f.code for f in findings}
+
+
+def test_furosemide_that_drives_na_out_of_range_too_fast_is_said():
+    """The dehydrated dog demo with furosemide 2 mg/kg IV at hours 0 and 8, then 0.66 mg/kg/h
+    from hour 12 to 20 (Adin 2003): the course
+    predicts Na well above the dog's interval, faster than 0.5 mmol/L/h (the limit,
+    safety_limits.csv; Adrogué & Madias 2000), a consequence of free-water loss the plan's
+    check does not model."""
+    request = DEMOS["dehydrated_dog"].request
+    plan = build_plan(PlanRequest(**{**request.__dict__, "diuretics": FUROSEMIDE}))
+    result = course(plan, step_minutes=SHOWN_STEP_MINUTES)
+    found = {f.code: f for f in result.findings}
+    assert "PREDICTED_NA_OUTSIDE_RANGE" in found
+    finding = found["PREDICTED_NA_OUTSIDE_RANGE"]
+    assert finding.severity == "soft" and "mmol/L" in finding.message
+    assert "measure" in finding.action.lower()
+    _, alerts = observed_course(plan, [])
+    assert "PREDICTED_NA_OUTSIDE_RANGE" in _codes(alerts)  # the Course tab's alerts
+
+
+def test_a_plain_rehydration_predicts_nothing_to_say():
+    """The same dog without the diuretic: Na stays inside the interval (common practice, no
+    source: an isotonic replacement fluid moves Na little)."""
+    plan = build_plan(DEMOS["dehydrated_dog"].request)
+    assert _codes(course(plan, step_minutes=SHOWN_STEP_MINUTES).findings) == set()
+
+
+def test_unreplaced_potassium_loss_under_a_loop_diuretic_is_said():
+    """Furosemide every 8 h with no KCl in a dog whose K starts at the low end: the course
+    predicts K below the interval (Gordon et al., Merck Veterinary Manual 2023: loop
+    diuretics cause hypokalaemia)."""
+    doses = tuple(("furosemide", 4.0, "iv", h, h) for h in (0.0, 8.0, 16.0))
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=145, serum_k=3.6,
+                                  kcl_mmol_per_l=0, diuretics=doses))  # fmt: skip
+    found = course(plan, step_minutes=SHOWN_STEP_MINUTES).findings
+    assert "PREDICTED_K_BELOW_RANGE" in _codes(found)
+
+
+def test_the_cli_course_prints_and_returns_what_the_course_predicts(capsys):
+    base = ["course", "--species", "dog", "--weight", "20 kg", "--serum-na", "145",
+            "--serum-k", "3.6", "--kcl-mmol-per-l", "0", "--diuretic", "furosemide",
+            "--diuretic-dose", "4", "--diuretic-at", "0,8,16"]  # fmt: skip
+    assert cli.main([*base, "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert "PREDICTED_K_BELOW_RANGE" in {f["code"] for f in data["course_findings"]}
+    cli.main(base)
+    out = capsys.readouterr().out
+    assert "Predicted by the course" in out and "PREDICTED_" not in out  # words, not codes
+    cli.main(["course", "--species", "dog", "--weight", "20 kg", "--json"])
+    assert json.loads(capsys.readouterr().out)["course_findings"] == []
