@@ -375,3 +375,15 @@ def test_the_help_gives_the_dose_unit(capsys):
         cli.main(["course", "--help"])
     out = capsys.readouterr().out
     assert "mg/kg" in out and "g/kg" in out and "mg/kg/h" in out
+
+
+def test_the_same_drug_twice_at_one_hour_is_refused_as_a_slip(capsys):
+    """A doubled entry ("--diuretic-at 0,0", or the same row added twice) would double the
+    dose silently: refused in words, in the core, so the CLI and plan files agree with the
+    window (common practice, no source: one dose per drug per time on a treatment sheet)."""
+    with pytest.raises(InputError, match="entered twice at hour 0"):
+        PlanRequest(species_id="dog", weight_kg=20,
+                    diuretics=(("furosemide", 2.0, "iv", 0.0, 0.0),) * 2)  # fmt: skip
+    code = cli.main(["plan", "--species", "dog", "--weight", "20 kg", "--diuretic",
+                     "furosemide", "--diuretic-dose", "2", "--diuretic-at", "0,0"])  # fmt: skip
+    assert code == 2 and "twice" in capsys.readouterr().err

@@ -307,6 +307,17 @@ def _check_diuretics(doses: object) -> None:
                 f"a single {drug.name} dose is given at one hour", field="diuretics",
                 value=None, fix="give the same start and end hour, or an infusion",
             )  # fmt: skip
+    # the same drug twice at one hour is a slip (a doubled entry or "0,0"), never two doses
+    given_at = [(drug_id, float(start_h)) for drug_id, _, route, start_h, _ in doses
+                if route != "cri"]  # fmt: skip
+    twice = sorted({entry for entry in given_at if given_at.count(entry) > 1})
+    if twice:
+        drug_id, hour = twice[0]
+        raise InputError(
+            f"{diuretics.drug(drug_id).name} is entered twice at hour {hour:g}",
+            field="diuretics", value=None,
+            fix="enter each dose once; a larger dose is one dose of that size",
+        )  # fmt: skip
 
 
 def _check_measured(measured: object) -> None:
