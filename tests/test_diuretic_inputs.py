@@ -253,3 +253,16 @@ def test_a_mark_near_the_plot_end_names_its_drug_to_its_left(qtbot):
     plot.grab()
     lines, bands, heads, names = marks._device[1]
     assert len(bands) == 1 and len(lines) == 2 and not heads  # a band and its two ends
+
+
+def test_a_bicarbonate_typed_in_the_labs_reaches_the_plan_and_a_slip_is_flagged(qtbot, planner):
+    """The labs take a serum HCO3 (issue 19); a K of 4.2 typed there reads as a severe
+    acidosis and the Checks tab asks to confirm it (SERUM_HCO3_SEVERELY_LOW, common practice)."""
+    window = planner
+    window.open_demo("dehydrated_dog")
+    field = window.labs.fields["serum_hco3"]
+    field.setText("4.2")
+    field.editingFinished.emit()
+    qtbot.waitUntil(lambda: window.session.plan is not None
+                    and window.session.plan.request.serum_hco3 == 4.2)  # fmt: skip
+    assert "SERUM_HCO3_SEVERELY_LOW" in {f.code for f in window.session.plan.findings}

@@ -44,6 +44,12 @@ from vetfluid.physiology.hydration import estimate_dehydration, findings_caveat,
 LAB_FIELDS = {
     "serum_na": ("Serum Na", "mmol/L", "not measured", "Serum sodium; drives the sodium checks"),
     "serum_k": ("Serum K", "mmol/L", "not measured", "Serum potassium; picks KCl from the scale"),
+    "serum_hco3": (
+        "Serum HCO₃",
+        "mmol/L",
+        "not measured",
+        "Serum bicarbonate (total CO₂); the course follows it. Not the base excess, not the pH",
+    ),
     "usg": ("USG", "", "e.g. 1.012", "Urine specific gravity (mammals only)"),
     "urine_osmolality": (
         "Urine osmolality",
