@@ -285,10 +285,10 @@ def test_a_diuretic_with_no_onset_or_duration_on_record_is_said_not_to_act_in_th
 # ---- safety ------------------------------------------------------------------------------------
 def test_a_dose_outside_the_range_on_record_is_a_soft_finding_in_words():
     # Plumb's Veterinary Drug Handbook: dog furosemide 2–6 mg/kg
-    plan = dog(diuretics=(("furosemide", 20.0, "iv", 1.0, 1.0),))
+    plan = dog(diuretics=(("furosemide", 10.0, "iv", 1.0, 1.0),))
     [found] = [f for f in plan.findings if f.code == "DIURETIC_DOSE_OUTSIDE_RANGE"]
     assert found.severity == "soft"
-    assert "20 mg/kg" in found.message and "2–6 mg/kg" in found.message
+    assert "10 mg/kg" in found.message and "2–6 mg/kg" in found.message
     assert "DIURETIC" not in found.message + found.action and "_" not in found.message
     inside = dog(diuretics=(("furosemide", 2.0, "iv", 1.0, 1.0),))
     assert not [f for f in inside.findings if f.code.startswith("DIURETIC_DOSE")]
@@ -387,3 +387,22 @@ def test_the_same_drug_twice_at_one_hour_is_refused_as_a_slip(capsys):
     code = cli.main(["plan", "--species", "dog", "--weight", "20 kg", "--diuretic",
                      "furosemide", "--diuretic-dose", "2", "--diuretic-at", "0,0"])  # fmt: skip
     assert code == 2 and "twice" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize(
+    ("drug", "dose", "hard"),
+    [("mannitol", 500.0, True), ("mannitol", 3.0, False), ("furosemide", 40.0, True),
+     ("furosemide", 8.0, False)],
+)  # fmt: skip
+def test_a_dose_many_times_the_range_is_a_hard_block_not_a_warning(drug, dose, hard):
+    """Mannitol "500" typed meaning mg/kg is 500 g/kg: 10 kg of mannitol for a 20 kg dog. A
+    dose above 3× the top of every range on record (safety_limits.csv, common practice) is
+    a slip, blocked; between the range and 3× it stays soft, a reason needed."""
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20,
+                                  diuretics=((drug, dose, "iv", 0.0, 0.0),)))  # fmt: skip
+    found = {f.code: f.severity for f in plan.findings}
+    assert ("DIURETIC_DOSE_FAR_ABOVE_RANGE" in found) is hard
+    if hard:
+        assert found["DIURETIC_DOSE_FAR_ABOVE_RANGE"] == "hard" and plan.has_hard_limit
+    else:
+        assert found.get("DIURETIC_DOSE_OUTSIDE_RANGE") == "soft"

@@ -1295,8 +1295,9 @@ def check_diuretics(ledger: Ledger, doses: tuple[DiureticDose, ...]) -> None:
     (``species_data/diuretics.csv``): outside every range on record, or with no dose on
     record for the species at all, a soft finding; a dose whose onset and duration are not
     on record is a note that the course does not show its effect (never guessed)."""
-    outside, unknown, unmodelled = [], [], []
+    outside, far, unknown, unmodelled = [], [], [], []
     outside_source = None
+    far_factor = limit("diuretic_dose_hard_factor")
     species = ledger.species.common_name.lower()
     for dose in dict.fromkeys(doses):  # the same dose at several hours is judged once
         rows = diuretics.rows_for(ledger.table, ledger.species_id, dose.drug_id, dose.route)
@@ -1308,12 +1309,23 @@ def check_diuretics(ledger: Ledger, doses: tuple[DiureticDose, ...]) -> None:
             where = ledger.table.species(rows[0].species_id).common_name.lower()
             recalled = (" (recalled, unverified)"
                         if all(r.dose_basis == "memory" for r in rows) else "")  # fmt: skip
-            outside.append(
-                f"{_dose_words(dose)} is outside the {ranges} on record for the {where}{recalled}"
-            )
+            words = f"{_dose_words(dose)} is outside the {ranges} on record for the {where}"
+            if dose.dose > far_factor.value * max(r.dose_high for r in rows):
+                far.append(f"{words} (more than {far_factor.value:g}× its top)")
+            else:
+                outside.append(words + recalled)
             outside_source = outside_source or rows[0].dose_source_id
         if not diuretic_effect_modelled(ledger.table, ledger.species_id, dose):
             unmodelled.append(_dose_words(dose))
+    if far:
+        ledger.add(
+            far_factor.severity,
+            "DIURETIC_DOSE_FAR_ABOVE_RANGE",
+            _sentence("; ".join(dict.fromkeys(far))),
+            "Check the unit (mg/kg, or g/kg for mannitol) and the decimal point; this dose "
+            "is not given as entered.",
+            outside_source,
+        )
     if outside:
         ledger.add(
             "soft",
