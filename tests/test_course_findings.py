@@ -71,3 +71,35 @@ def test_the_cli_course_prints_and_returns_what_the_course_predicts(capsys):
     assert "Predicted by the course" in out and "PREDICTED_" not in out  # words, not codes
     cli.main(["course", "--species", "dog", "--weight", "20 kg", "--json"])
     assert json.loads(capsys.readouterr().out)["course_findings"] == []
+
+
+def test_a_hypernatraemic_patient_made_worse_is_said_too():
+    """Starting above the interval is no exemption: Na 158 in a dog given furosemide four
+    times climbs faster than the limit (review finding; Adrogué & Madias 2000: the limit
+    holds for any change), and the action does not advise a diuretic when none is given."""
+    doses = tuple(("furosemide", 6.0, "iv", h, h) for h in (0.0, 4.0, 8.0, 12.0))
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=8,
+                                  serum_na=158, serum_k=4.0, diuretics=doses))  # fmt: skip
+    found = {f.code: f for f in course(plan, step_minutes=SHOWN_STEP_MINUTES).findings}
+    assert "PREDICTED_NA_OUTSIDE_RANGE" in found
+    assert "rise" in found["PREDICTED_NA_OUTSIDE_RANGE"].message
+
+
+def test_potassium_climbing_in_an_oliguric_patient_given_kcl_is_said():
+    """An oliguric dog at K 5.4 given 40 mmol/L KCl: K climbs above the interval (oliguria
+    retains K; common practice, no source)."""
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=145, serum_k=5.4,
+                                  renal_disease=True, renal_output="oliguric",
+                                  kcl_mmol_per_l=40))  # fmt: skip
+    found = course(plan, step_minutes=SHOWN_STEP_MINUTES).findings
+    assert "PREDICTED_K_ABOVE_RANGE" in _codes(found)
+
+
+def test_a_course_the_body_cannot_hold_is_said_and_never_shown_as_numbers_to_trust():
+    """100 mL/day of diarrhoea in a 20 g mouse: more than its body water is lost; the course
+    says it cannot follow the plan past that hour (hard) instead of printing negative
+    weights as if they were a prediction."""
+    plan = build_plan(PlanRequest(species_id="mouse", weight_kg=0.02, losses_ml_per_day=100,
+                                  loss_type="diarrhoea", serum_na=145, serum_k=4.0))  # fmt: skip
+    found = {f.code: f for f in course(plan, step_minutes=SHOWN_STEP_MINUTES).findings}
+    assert found["COURSE_BEYOND_THE_MODEL"].severity == "hard"

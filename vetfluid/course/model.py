@@ -640,11 +640,14 @@ def course(
 
     net = given - consumed - urine
     na_limit = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
-    predicted = _predicted_findings(
+    beyond = _beyond_the_model(hours, plasma, ecf - plasma, tbw - ecf, na_path, serum_k,
+                               serum_hco3, w + net / 1000.0)  # fmt: skip
+    predicted = beyond or (_predicted_findings(
         hours, na_path, na_entered=request.serum_na is not None, na_limit=na_limit,
         na_normal=values["serum_na_mmol_per_l"], serum_k=serum_k,
         k_normal=values["serum_k_mmol_per_l"], step_h=step_h,
-    ) if settings is not None else ()  # fmt: skip
+        renal_disease=request.renal_disease,
+    ) if settings is not None else ())  # fmt: skip
     provenance = tuple(dict.fromkeys([*values.values(), *kidney_values]))
     band = None if settings is None else (settings.floor_mosm_per_kg, settings.ceiling_mosm_per_kg)
     return Course(
@@ -689,44 +692,52 @@ def _predicted_findings(
     serum_k: np.ndarray | None,
     k_normal: SpeciesValue,
     step_h: float,
+    renal_disease: bool,
 ) -> tuple[Finding, ...]:
     """Soft findings on what this course predicts (only where the kidney is modelled):
 
-    * serum Na leaving the species' reference interval while it changes faster than the
-      correction limit over some hour (the plan's rule, Adrogué & Madias 2000; the plan
-      checks it without the kidney or the diuretics, which may be what moves it here);
-    * serum K (when entered) falling below the species' interval (loop and thiazide
-      diuretics, K-free fluids; Gordon et al., Merck Veterinary Manual 2023).
+    * serum Na changing faster than the correction limit over some hour while it is, or
+      goes, outside the species' reference interval (the plan's rule, Adrogué & Madias
+      2000, which the plan checks without the kidney or the diuretics); a patient already
+      outside the interval is no exemption;
+    * serum K (when entered) falling below, or climbing above, the species' interval
+      (loop and thiazide diuretics, K-free fluids; oliguria retaining K).
     """
     found = []
-    low = na_normal.low if na_normal.low is not None else na_normal.number
-    high = na_normal.high if na_normal.high is not None else na_normal.number
+    low, high = _interval(na_normal)
     per_hour = max(int(round(1.0 / step_h)), 1)
     fastest = 0.0
     if len(na_path) > per_hour:
         fastest = float(np.max(np.abs(na_path[per_hour:] - na_path[:-per_hour])))
     peak_i = int(np.argmax(np.maximum(na_path - high, low - na_path)))
     peak = float(na_path[peak_i])
-    started_inside = low <= na_path[0] <= high
-    if started_inside and not low <= peak <= high and fastest > na_limit:
-        side = "above" if peak > high else "below"
+    if not low <= peak <= high and fastest > na_limit:
+        rising = peak > na_path[0]
         start = "" if na_entered else " (no Na entered: followed from the species' normal)"
+        why = ("free water leaving faster than it is given (a diuretic, hypotonic losses, a "
+               "kidney that cannot dilute)" if rising else
+               "free water given faster than it leaves (hypotonic fluid, mannitol drawing "
+               "water from the cells)")  # fmt: skip
+        caveat = (" With renal disease the model leaves out the diseased kidney's sodium "
+                  "losses, so a predicted rise may be overstated." if renal_disease and rising
+                  else "")  # fmt: skip
         found.append(Finding(
             severity="soft", code="PREDICTED_NA_OUTSIDE_RANGE",
-            message=f"The course predicts serum Na {format_quantity(peak, 'mmol/L')} at hour "
-                    f"{format_number(float(hours[peak_i]), decimals=1)}, {side} the "
+            message=f"The course predicts serum Na to {'rise' if rising else 'fall'} to "
+                    f"{format_quantity(peak, 'mmol/L')} by hour "
+                    f"{format_number(float(hours[peak_i]), decimals=1)}, outside the "
                     f"{format_quantity(low, 'mmol/L')}–{format_quantity(high, 'mmol/L')} "
                     f"interval, changing up to {format_quantity(fastest, 'mmol/L')} in an "
-                    f"hour (limit {format_quantity(na_limit, 'mmol/L/h')}){start}. The plan's "
-                    "own sodium check leaves the kidney and any diuretic out.",
-            action="Measure serum Na within a few hours of starting and re-plan with it; "
-                   "replace free-water losses or reduce the diuretic.",
+                    f"hour (limit {format_quantity(na_limit, 'mmol/L/h')}){start}: {why}. The "
+                    f"plan's own sodium check leaves the kidney and any diuretic out.{caveat}",
+            action="Measure serum Na within a few hours of starting and re-plan with the "
+                   "measured value before changing the fluid.",
             source_id=na_normal.source_id,
         ))  # fmt: skip
     if serum_k is not None:
-        k_low = k_normal.low if k_normal.low is not None else k_normal.number
-        lowest_i = int(np.argmin(serum_k))
-        if serum_k[0] >= k_low > serum_k[lowest_i]:
+        k_low, k_high = _interval(k_normal)
+        lowest_i, highest_i = int(np.argmin(serum_k)), int(np.argmax(serum_k))
+        if serum_k[lowest_i] < k_low and serum_k[lowest_i] < serum_k[0] - 0.05:
             found.append(Finding(
                 severity="soft", code="PREDICTED_K_BELOW_RANGE",
                 message=f"The course predicts serum K "
@@ -737,7 +748,46 @@ def _predicted_findings(
                        "within 12–24 h.",
                 source_id=k_normal.source_id,
             ))  # fmt: skip
+        if serum_k[highest_i] > k_high and serum_k[highest_i] > serum_k[0] + 0.05:
+            found.append(Finding(
+                severity="soft", code="PREDICTED_K_ABOVE_RANGE",
+                message=f"The course predicts serum K "
+                        f"{format_quantity(float(serum_k[highest_i]), 'mmol/L')} by hour "
+                        f"{format_number(float(hours[highest_i]), decimals=1)}, above the "
+                        f"{format_quantity(k_high, 'mmol/L')} high end of the interval (the "
+                        "model understates how far K climbs when it is retained).",
+                action="Give no potassium until K is measured again; measure K and urine "
+                       "output within a few hours.",
+                source_id=k_normal.source_id,
+            ))  # fmt: skip
     return tuple(found)
+
+
+def _interval(normal: SpeciesValue) -> tuple[float, float]:
+    low = normal.low if normal.low is not None else normal.number
+    high = normal.high if normal.high is not None else normal.number
+    return low, high
+
+
+def _beyond_the_model(hours: np.ndarray, *series: np.ndarray | None) -> tuple[Finding, ...]:
+    """A hard finding when a volume or a concentration the course follows reaches zero or
+    below, or stops being a number: more was lost or given than the body holds, and the
+    figures from that hour on are no prediction."""
+    broken = np.zeros(len(hours), dtype=bool)
+    for values in series:
+        if values is not None:
+            broken |= ~np.isfinite(values) | (values <= 0)
+    if not broken.any():
+        return ()
+    hour = float(hours[int(np.argmax(broken))])
+    return (Finding(
+        severity="hard", code="COURSE_BEYOND_THE_MODEL",
+        message=f"From hour {format_number(hour, decimals=1)} the course would need more water "
+                "or solute than the body holds (a volume or concentration at zero or below): "
+                "its figures from then on are not a prediction.",
+        action="Check the losses, doses and volumes entered and their units; this plan "
+               "cannot be followed as entered.",
+    ),)  # fmt: skip
 
 
 def _drugs(
