@@ -62,7 +62,8 @@ def test_unreplaced_potassium_loss_under_a_loop_diuretic_is_said():
 def test_the_cli_course_prints_and_returns_what_the_course_predicts(capsys):
     base = ["course", "--species", "dog", "--weight", "20 kg", "--serum-na", "145",
             "--serum-k", "3.6", "--kcl-mmol-per-l", "0", "--diuretic", "furosemide",
-            "--diuretic-dose", "4", "--diuretic-at", "0,8,16"]  # fmt: skip
+            "--diuretic-route", "iv", "--diuretic-dose", "4",
+            "--diuretic-at", "0,8,16"]  # fmt: skip
     assert cli.main([*base, "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert "PREDICTED_K_BELOW_RANGE" in {f["code"] for f in data["course_findings"]}

@@ -324,8 +324,8 @@ def test_the_doses_stand_on_the_schedule_and_the_sheet_with_their_clock_times():
 
 def test_the_cli_course_takes_a_diuretic_and_gives_its_effect(capsys):
     args = ["course", "--species", "dog", "--weight", "20 kg", "--serum-na", "145",
-            "--diuretic", "furosemide", "--diuretic-dose", "2", "--diuretic-at", "2",
-            "--at", "1,3", "--json"]  # fmt: skip
+            "--diuretic", "furosemide", "--diuretic-route", "iv", "--diuretic-dose", "2",
+            "--diuretic-at", "2", "--at", "1,3", "--json"]  # fmt: skip
     assert cli.main(args) == 0
     rows = json.loads(capsys.readouterr().out)["rows"]
     plain = ["course", "--species", "dog", "--weight", "20 kg", "--serum-na", "145",
@@ -385,7 +385,8 @@ def test_the_same_drug_twice_at_one_hour_is_refused_as_a_slip(capsys):
         PlanRequest(species_id="dog", weight_kg=20,
                     diuretics=(("furosemide", 2.0, "iv", 0.0, 0.0),) * 2)  # fmt: skip
     code = cli.main(["plan", "--species", "dog", "--weight", "20 kg", "--diuretic",
-                     "furosemide", "--diuretic-dose", "2", "--diuretic-at", "0,0"])  # fmt: skip
+                     "furosemide", "--diuretic-route", "iv", "--diuretic-dose", "2",
+                     "--diuretic-at", "0,0"])  # fmt: skip
     assert code == 2 and "twice" in capsys.readouterr().err
 
 
@@ -406,3 +407,16 @@ def test_a_dose_many_times_the_range_is_a_hard_block_not_a_warning(drug, dose, h
         assert found["DIURETIC_DOSE_FAR_ABOVE_RANGE"] == "hard" and plan.has_hard_limit
     else:
         assert found.get("DIURETIC_DOSE_OUTSIDE_RANGE") == "soft"
+
+
+def test_the_cli_takes_the_route_and_never_assumes_one_the_drug_has_several_of(capsys):
+    """A bearded dragon's furosemide is on record SC (Parkinson & Mans 2018): the CLI must not
+    turn it into IV silently. With several routes on record the route is asked for."""
+    base = ["plan", "--species", "bearded_dragon", "--weight", "350 g", "--diuretic",
+            "furosemide", "--diuretic-dose", "5", "--diuretic-at", "0,12", "--json"]  # fmt: skip
+    assert cli.main(base) == 2
+    assert "--diuretic-route" in capsys.readouterr().err
+    cli.main([*base, "--diuretic-route", "sc"])
+    data = json.loads(capsys.readouterr().out)
+    assert {d["route"] for d in data["diuretics"]} == {"sc"}
+    assert "DIURETIC_DOSE_OUTSIDE_RANGE" not in {f["code"] for f in data["findings"]}

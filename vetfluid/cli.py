@@ -100,11 +100,12 @@ def _diuretic_hours(text: str) -> tuple[float, ...]:
 
 def _diuretics(args: argparse.Namespace) -> tuple[tuple[str, float, str, float, float], ...]:
     """The diuretic options as the request's doses: one dose at each hour of --diuretic-at,
-    or an infusion from its first to its second hour. The route of a dose is the table's
-    only one for the drug, else IV (a furosemide injection)."""
+    or an infusion from its first to its second hour. The route of a dose is
+    --diuretic-route, or the table's only one for the drug; never assumed."""
     drug, dose, rate, hours = args.diuretic, args.diuretic_dose, args.diuretic_cri, args.diuretic_at
     if drug is None:
-        typed = (("--diuretic-dose", dose), ("--diuretic-cri", rate), ("--diuretic-at", hours))
+        typed = (("--diuretic-dose", dose), ("--diuretic-cri", rate), ("--diuretic-at", hours),
+                 ("--diuretic-route", args.diuretic_route))  # fmt: skip
         given = [flag for flag, value in typed if value is not None]
         if given:
             raise InputError(
@@ -131,7 +132,13 @@ def _diuretics(args: argparse.Namespace) -> tuple[tuple[str, float, str, float, 
     from vetfluid.tables.diuretics import drug as find_drug
 
     routes = [r for r in find_drug(drug).routes if r != "cri"]
-    route = routes[0] if len(routes) == 1 else "iv"
+    route = args.diuretic_route or (routes[0] if len(routes) == 1 else None)
+    if route is None:  # never a route assumed: a dragon's SC dose is not an IV one
+        raise InputError(
+            f"{drug} is on record by {', '.join(r.upper() for r in routes)}: say which",
+            field="--diuretic-route", value=None,
+            fix=f"add --diuretic-route {' or '.join(routes)}",
+        )  # fmt: skip
     return tuple((drug, dose, route, h, h) for h in hours)
 
 
@@ -232,6 +239,11 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
         type=_diuretic_hours,
         metavar="H1,H2,…",
         help="hours on the plan's clock it is given at (with --diuretic-cri: START,END)",
+    )
+    add(
+        "--diuretic-route",
+        choices=("iv", "im", "sc", "po"),
+        help="how each dose is given (needed when the drug is on record by several routes)",
     )
     add(
         "--diuretic-cri",
