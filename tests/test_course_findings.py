@@ -104,3 +104,19 @@ def test_a_course_the_body_cannot_hold_is_said_and_never_shown_as_numbers_to_tru
                                   loss_type="diarrhoea", serum_na=145, serum_k=4.0))  # fmt: skip
     found = {f.code: f for f in course(plan, step_minutes=SHOWN_STEP_MINUTES).findings}
     assert found["COURSE_BEYOND_THE_MODEL"].severity == "hard"
+
+
+def test_repeated_loop_diuretic_doses_that_contract_the_plasma_are_said():
+    """Furosemide 2 mg/kg every 8 h for 5 days with maintenance only: Na may stay inside its
+    interval while the plasma shrinks by a third (review finding). A fall of more than 20 %
+    from where it started is said (common practice, no source: a loss of a fifth or more of
+    the circulating volume is clinically significant hypovolaemia)."""
+    doses = tuple(("furosemide", 2.0, "iv", float(h), float(h)) for h in range(0, 120, 8))
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=145, serum_k=4.0,
+                                  diuretics=doses))  # fmt: skip
+    found = course(plan, horizon_h=120, step_minutes=SHOWN_STEP_MINUTES).findings
+    assert "PREDICTED_PLASMA_CONTRACTION" in _codes(found)
+    plain = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=145, serum_k=4.0))
+    assert "PREDICTED_PLASMA_CONTRACTION" not in _codes(
+        course(plain, horizon_h=120, step_minutes=SHOWN_STEP_MINUTES).findings
+    )

@@ -205,9 +205,7 @@ def test_reset_on_a_species_cell_removes_its_groups_override_and_says_so(view, q
     assert overrides.read_overrides() == []
     assert "every species in it is back on its shipped value" in view.message.text()
     view.undo_action.trigger()
-    assert [(r.species_id, r.value) for r in overrides.read_overrides()] == [
-        ("group_rodent", 20.0)
-    ]
+    assert [(r.species_id, r.value) for r in overrides.read_overrides()] == [("group_rodent", 20.0)]
 
 
 def test_reset_without_an_override_says_so(view):

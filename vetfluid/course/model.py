@@ -56,6 +56,9 @@ MAX_HORIZON_H = 14 * 24.0
 # The step the window and the CLI both model a course at: the kidney is worked out step by
 # step, so one step size keeps every figure the same wherever it is shown.
 SHOWN_STEP_MINUTES = 5.0
+# a plasma volume this far below its start is said (common practice, no source: losing a
+# fifth of the circulating volume is clinically significant hypovolaemia)
+PLASMA_CONTRACTION_SAID = 0.2
 PREDICTED_OBSERVABLES = ("weight_kg", "serum_na", "pcv_percent", "total_solids_g_per_dl")
 
 
@@ -646,7 +649,7 @@ def course(
         hours, na_path, na_entered=request.serum_na is not None, na_limit=na_limit,
         na_normal=values["serum_na_mmol_per_l"], serum_k=serum_k,
         k_normal=values["serum_k_mmol_per_l"], step_h=step_h,
-        renal_disease=request.renal_disease,
+        renal_disease=request.renal_disease, plasma_ml=plasma,
     ) if settings is not None else ())  # fmt: skip
     provenance = tuple(dict.fromkeys([*values.values(), *kidney_values]))
     band = None if settings is None else (settings.floor_mosm_per_kg, settings.ceiling_mosm_per_kg)
@@ -693,6 +696,7 @@ def _predicted_findings(
     k_normal: SpeciesValue,
     step_h: float,
     renal_disease: bool,
+    plasma_ml: np.ndarray,
 ) -> tuple[Finding, ...]:
     """Soft findings on what this course predicts (only where the kidney is modelled):
 
@@ -760,6 +764,19 @@ def _predicted_findings(
                        "output within a few hours.",
                 source_id=k_normal.source_id,
             ))  # fmt: skip
+    lowest_plasma = int(np.argmin(plasma_ml))
+    if plasma_ml[lowest_plasma] < (1.0 - PLASMA_CONTRACTION_SAID) * plasma_ml[0]:
+        fall = 1.0 - plasma_ml[lowest_plasma] / plasma_ml[0]
+        found.append(Finding(
+            severity="soft", code="PREDICTED_PLASMA_CONTRACTION",
+            message=f"The course predicts the plasma volume "
+                    f"{format_number(100 * fall, decimals=0)} % below where it started by hour "
+                    f"{format_number(float(hours[lowest_plasma]), decimals=1)} (more water and "
+                    "salt leaving than given: a diuretic, losses, or a kidney that cannot hold "
+                    "them).",
+            action="Reassess perfusion and weight within hours; give the losses back or "
+                   "reduce the diuretic before the patient becomes hypovolaemic.",
+        ))  # fmt: skip
     return tuple(found)
 
 
