@@ -420,3 +420,18 @@ def test_the_cli_takes_the_route_and_never_assumes_one_the_drug_has_several_of(c
     data = json.loads(capsys.readouterr().out)
     assert {d["route"] for d in data["diuretics"]} == {"sc"}
     assert "DIURETIC_DOSE_OUTSIDE_RANGE" not in {f["code"] for f in data["findings"]}
+
+
+@pytest.mark.parametrize(("drug", "dose"), [("furosemide", 4.0), ("mannitol", 1.0)])
+def test_a_diuretic_never_takes_the_urine_outside_a_diseased_kidneys_band(drug, dose):
+    """A narrowed band (renal disease: isosthenuric with no urine entered) is what that kidney
+    can make; a diuretic
+    washes the urine towards plasma within it, never past its ceiling (review finding; the
+    band is the model's bound, docs/model.md)."""
+    plan = build_plan(PlanRequest(species_id="cat", weight_kg=4, serum_na=155, serum_k=4.0,
+                                  renal_disease=True,
+                                  diuretics=((drug, dose, "iv", 0.0, 0.0),)))  # fmt: skip
+    c = course(plan, step_minutes=STEP)
+    floor, ceiling = c.urine_band_mosm_per_kg
+    shown = c.urine_osm_mosm_per_kg[1:]
+    assert shown.max() <= ceiling + 1e-6 and shown.min() >= floor - 1e-6

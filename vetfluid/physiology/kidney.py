@@ -599,5 +599,8 @@ def _drug_step(
         return e_na, e_k, e_m, e_h, floor, math.log(ceiling / floor) if ceiling > floor else 0.0
     low = floor + (plasma - floor) * low_shift if plasma > floor else floor
     high = ceiling - (ceiling - plasma) * high_shift if ceiling > plasma else ceiling
-    high = max(high, low)
+    # the drug moves the urine towards plasma within what this kidney can make, never past
+    # its band (a diseased kidney's narrowed ceiling included)
+    low = min(low, ceiling)
+    high = max(min(high, ceiling), low)
     return e_na, e_k, e_m, e_h, low, math.log(high / low)
