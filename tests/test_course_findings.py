@@ -120,3 +120,24 @@ def test_repeated_loop_diuretic_doses_that_contract_the_plasma_are_said():
     assert "PREDICTED_PLASMA_CONTRACTION" not in _codes(
         course(plain, horizon_h=120, step_minutes=SHOWN_STEP_MINUTES).findings
     )
+
+
+def test_bicarbonate_driven_out_of_its_interval_by_losses_is_said():
+    """Large diarrhoeal losses (bicarbonate-rich: DiBartola, Table 14-3) replaced with 0.9 %
+    NaCl (no buffer: dilutional) drive an entered HCO3 below the dog's interval; a budgerigar
+    has no interval on record, and falling under 12 mmol/L (safety_limits.csv, common
+    practice) is said for it. Lactated Ringer's at maintenance is not flagged."""
+    dog = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=145, serum_k=4.0,
+                                 serum_hco3=21, losses_ml_per_day=3000, fluid_id="nacl_0_9",
+                                 loss_type="diarrhoea"))  # fmt: skip
+    found = course(dog, horizon_h=48, step_minutes=SHOWN_STEP_MINUTES).findings
+    assert "PREDICTED_HCO3_OUTSIDE_RANGE" in _codes(found)
+    bird = build_plan(PlanRequest(species_id="budgerigar", weight_kg=0.03, serum_k=4.0,
+                                  serum_hco3=22, dehydration_percent=8, losses_ml_per_day=6,
+                                  loss_type="diarrhoea"))  # fmt: skip
+    found = course(bird, horizon_h=336, step_minutes=SHOWN_STEP_MINUTES).findings
+    assert "PREDICTED_HCO3_OUTSIDE_RANGE" in _codes(found)
+    calm = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_hco3=22))
+    assert "PREDICTED_HCO3_OUTSIDE_RANGE" not in _codes(
+        course(calm, step_minutes=SHOWN_STEP_MINUTES).findings
+    )

@@ -59,6 +59,9 @@ SHOWN_STEP_MINUTES = 5.0
 # a plasma volume this far below its start is said (common practice, no source: losing a
 # fifth of the circulating volume is clinically significant hypovolaemia)
 PLASMA_CONTRACTION_SAID = 0.2
+# a predicted bicarbonate is said once it is this far past its interval (common practice, no
+# source: a dog's 20–24 mmol/L interval is narrower than the model's certainty)
+HCO3_MARGIN_MMOL_PER_L = 2.0
 PREDICTED_OBSERVABLES = ("weight_kg", "serum_na", "pcv_percent", "total_solids_g_per_dl")
 
 
@@ -645,12 +648,17 @@ def course(
     na_limit = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
     beyond = _beyond_the_model(hours, plasma, ecf - plasma, tbw - ecf, na_path, serum_k,
                                serum_hco3, w + net / 1000.0)  # fmt: skip
-    predicted = beyond or (_predicted_findings(
-        hours, na_path, na_entered=request.serum_na is not None, na_limit=na_limit,
-        na_normal=values["serum_na_mmol_per_l"], serum_k=serum_k,
-        k_normal=values["serum_k_mmol_per_l"], step_h=step_h,
-        renal_disease=request.renal_disease, plasma_ml=plasma,
-    ) if settings is not None else ())  # fmt: skip
+    if beyond:  # the figures stop being a prediction: nothing more is read from them
+        predicted = beyond
+    else:
+        predicted = (_predicted_findings(
+            hours, na_path, na_entered=request.serum_na is not None, na_limit=na_limit,
+            na_normal=values["serum_na_mmol_per_l"], serum_k=serum_k,
+            k_normal=values["serum_k_mmol_per_l"], step_h=step_h,
+            renal_disease=request.renal_disease, plasma_ml=plasma,
+        ) if settings is not None else ()) + _bicarbonate_findings(
+            hours, serum_hco3, table.get(sid, "serum_hco3_mmol_per_l")
+        )  # fmt: skip
     provenance = tuple(dict.fromkeys([*values.values(), *kidney_values]))
     band = None if settings is None else (settings.floor_mosm_per_kg, settings.ceiling_mosm_per_kg)
     return Course(
@@ -778,6 +786,37 @@ def _predicted_findings(
                    "reduce the diuretic before the patient becomes hypovolaemic.",
         ))  # fmt: skip
     return tuple(found)
+
+
+def _bicarbonate_findings(
+    hours: np.ndarray, serum_hco3: np.ndarray | None, normal: SpeciesValue | None
+) -> tuple[Finding, ...]:
+    """A soft finding when an entered HCO3 is predicted more than
+    :data:`HCO3_MARGIN_MMOL_PER_L` past the species' interval, moving away from where it
+    started (losses by type, base in the fluids, acetazolamide); with no interval on record
+    (birds, reptiles) only a fall under ``hco3_confirm_below_mmol_per_l`` (safety_limits.csv,
+    common practice) is said."""
+    if serum_hco3 is None:
+        return ()
+    low, high = (_interval(normal) if normal is not None
+                 else (limit("hco3_confirm_below_mmol_per_l").value, math.inf))  # fmt: skip
+    outside = np.maximum(serum_hco3 - high, low - serum_hco3)
+    worst = int(np.argmax(outside))
+    value = float(serum_hco3[worst])
+    # a prediction a little past a narrow interval is no news (common practice, no source)
+    if outside[worst] <= HCO3_MARGIN_MMOL_PER_L or abs(value - serum_hco3[0]) <= 1.0:
+        return ()
+    side = "above" if value > high else "below"
+    bound = high if value > high else low
+    return (Finding(
+        severity="soft", code="PREDICTED_HCO3_OUTSIDE_RANGE",
+        message=f"The course predicts serum bicarbonate {format_quantity(value, 'mmol/L')} by "
+                f"hour {format_number(float(hours[worst]), decimals=1)}, {side} "
+                f"{format_quantity(bound, 'mmol/L')}.",
+        action="Measure the acid–base status again within 12–24 h; consider what the losses "
+               "and the fluid's buffer are doing.",
+        source_id=None if normal is None else normal.source_id,
+    ),)  # fmt: skip
 
 
 def _interval(normal: SpeciesValue) -> tuple[float, float]:
