@@ -262,7 +262,47 @@ class Trace(pg.GraphicsObject):
             painter.setTransform(transform)  # cheaper than a save and restore of all state
 
 
-class TickGrid(pg.GraphicsObject):
+def opaque_shade(colour: QColor, background: QColor, alpha: int) -> QColor:
+    """``colour`` laid at ``alpha`` (of 255) over ``background``, as one opaque colour: an
+    opaque line is drawn as is, a semi-transparent one blended pixel by pixel."""
+    mix = [
+        round((a * alpha + b * (255 - alpha)) / 255)
+        for a, b in zip(colour.getRgb()[:3], background.getRgb()[:3], strict=True)
+    ]
+    return QColor(*mix)
+
+
+class ViewSpanning(pg.GraphicsObject):
+    """An item drawn across its whole view (the grid, dose marks): its bounds are the view's
+    range, kept until pyqtgraph reports a change (Qt asks for them on every repaint), and
+    what it laid out in device pixels is dropped with them."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self._bounds: QRectF | None = None  # the view's range
+        self._device: tuple | None = None  # (transform, what was laid out for it)
+
+    def forget_layout(self) -> None:
+        self.prepareGeometryChange()
+        self._bounds = None
+        self._device = None
+
+    def viewRangeChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
+        self.forget_layout()
+
+    def viewTransformChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook: resized)
+        self.viewRangeChanged()
+
+    def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
+        if self._bounds is None:
+            view = self.getViewBox()
+            if view is None:
+                return QRectF()
+            self._bounds = view.viewRect()
+        return self._bounds
+
+
+class TickGrid(ViewSpanning):
     """Faint lines across a plot at its axes' ticks: every tick of ``x_axis`` (major lines
     darker than minor ones), and the major ticks of ``y_axis`` only (minor value lines would
     crowd a short plot). Drawn under the curves, in the axes' text colour faded into the
@@ -279,48 +319,23 @@ class TickGrid(pg.GraphicsObject):
         self.setZValue(-1000)
         self.set_colour(QColor("#808080"), QColor("#ffffff"))
         self._lines: tuple[list[QLineF], list[QLineF]] | None = None  # major, minor
-        self._device: tuple[QTransform, tuple[list[QRect], list[QRect]]] | None = None
-        self._bounds: QRectF | None = None  # the view's range
-
-    @staticmethod
-    def _shade(colour: QColor, background: QColor, alpha: int) -> QColor:
-        """``colour`` laid at ``alpha`` over ``background``, as one opaque colour."""
-        mix = [
-            round((a * alpha + b * (255 - alpha)) / 255)
-            for a, b in zip(colour.getRgb()[:3], background.getRgb()[:3], strict=True)
-        ]
-        return QColor(*mix)
 
     def set_colour(self, colour: QColor, background: QColor) -> None:
         """Lines in ``colour`` made faint against the plot's ``background``."""
         self._shades = (
-            self._shade(colour, background, self.MAJOR_ALPHA),
-            self._shade(colour, background, self.MINOR_ALPHA),
+            opaque_shade(colour, background, self.MAJOR_ALPHA),
+            opaque_shade(colour, background, self.MINOR_ALPHA),
         )
         self.update()
 
     def refresh(self) -> None:
         """Work the lines out again (the axes' ticks may have moved)."""
-        self.prepareGeometryChange()
+        self.forget_layout()
         self._lines = None
-        self._device = None
-        self._bounds = None
         self.update()
 
     def viewRangeChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
         self.refresh()
-
-    def viewTransformChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook: resized)
-        self.refresh()
-
-    def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
-        """The view's range, kept until it changes (Qt asks for it on every repaint)."""
-        if self._bounds is None:
-            view = self.getViewBox()
-            if view is None:
-                return QRectF()
-            self._bounds = view.viewRect()
-        return self._bounds
 
     def lines(self) -> tuple[list[QLineF], list[QLineF]]:
         """The major and the minor grid lines for the view's current range and size."""
@@ -544,7 +559,7 @@ class PlotAxis(pg.AxisItem):
         return QRectF(cached[1])
 
 
-class DoseMarks(pg.GraphicsObject):
+class DoseMarks(ViewSpanning):
     """Doses on a plot's hour axis: each single dose a one-pixel line across the plot with a
     small triangle at its top, each infusion a band along the top from its start to its
     end (with a line at either end), and the drug's name beside each, in words.
@@ -570,14 +585,12 @@ class DoseMarks(pg.GraphicsObject):
         self._font = QFont()
         self._font.setPointSizeF(8.0)
         self.set_colour(QColor("#606060"), QColor("#ffffff"))
-        self._bounds: QRectF | None = None
-        self._device: tuple[QTransform, tuple] | None = None
 
     def set_colour(self, colour: QColor, background: QColor) -> None:
         """Names in ``colour``; lines and bands in it laid over ``background``."""
         self._text_colour = QColor(colour)
-        self._line = TickGrid._shade(colour, background, self.LINE_ALPHA)
-        self._band = TickGrid._shade(colour, background, self.BAND_ALPHA)
+        self._line = opaque_shade(colour, background, self.LINE_ALPHA)
+        self._band = opaque_shade(colour, background, self.BAND_ALPHA)
         self.update()
 
     def doses(self) -> list[tuple[float, float, str]]:
@@ -602,23 +615,6 @@ class DoseMarks(pg.GraphicsObject):
             self._texts.append(text)
         self._device = None
         self.update()
-
-    def viewRangeChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook)
-        self.prepareGeometryChange()
-        self._bounds = None
-        self._device = None
-
-    def viewTransformChanged(self) -> None:  # noqa: N802 (pyqtgraph's hook: resized)
-        self.viewRangeChanged()
-
-    def boundingRect(self) -> QRectF:  # noqa: N802 (Qt override)
-        """The view's range, kept until it changes (the marks run across it)."""
-        if self._bounds is None:
-            view = self.getViewBox()
-            if view is None:
-                return QRectF()
-            self._bounds = view.viewRect()
-        return self._bounds
 
     def device_layout(self, transform: QTransform) -> tuple:
         """Lines, bands, triangles and placed names in device pixels for ``transform``."""
