@@ -48,6 +48,8 @@ def planner(qtbot, monkeypatch):
 
     for kind in ("question", "warning", "information"):
         monkeypatch.setattr(QMessageBox, kind, unexpected)
+    # a question whose buttons name their actions is a QMessageBox run with exec()
+    monkeypatch.setattr(QMessageBox, "exec", lambda box: unexpected(None, "", box.text()))
 
     win = MainWindow()
     qtbot.addWidget(win)
@@ -78,6 +80,18 @@ def answer(monkeypatch):
             "information",
         ):  # a message is answered by its words too
             monkeypatch.setattr(QMessageBox, kind, ask)
+
+        def press(box):  # noqa: ANN001, ANN202
+            """A box with buttons named for their actions ("Keep as draft"): answered by
+            the same words, with a standard button or the words on the button."""
+            button = ask(None, "", box.text())
+            if isinstance(button, str):
+                named = {b.text(): b for b in box.buttons()}
+                assert button in named, f"no button {button!r}: {sorted(named)}"
+                button = box.standardButton(named[button])
+            return QMessageBox.StandardButton(button).value
+
+        monkeypatch.setattr(QMessageBox, "exec", press)
 
     return set_answers
 

@@ -10,6 +10,42 @@ from PySide6.QtWidgets import QMessageBox
 from vetfluid.planning.demos import DEMOS
 from vetfluid.records.store import Records
 
+LEAVE = "This plan, or what was recorded"  # the question leaving unsaved work asks
+SAVE_AS_A_VERSION, KEEP_AS_DRAFT = "Save as a version…", "Keep as draft"  # its buttons' words
+
+
+@pytest.fixture(autouse=True)
+def _no_unanswered_buttons(monkeypatch):
+    """A question with buttons named for their actions that no test answered fails at once
+    (it would otherwise wait for a click until the timeout)."""
+
+    def unexpected(box):  # noqa: ANN001, ANN202
+        raise AssertionError(f"the window asked a question the test did not answer: {box.text()}")
+
+    monkeypatch.setattr(QMessageBox, "exec", unexpected)
+
+
+@pytest.fixture()
+def press(monkeypatch):
+    """Answer a question whose buttons name their actions by the words on the button, as a
+    user clicks it: ``press({LEAVE: "Keep as draft"})``; a callable is called first (it
+    notes the question was asked) and then returns the button's words."""
+
+    def set_presses(presses: dict) -> None:
+        def click(box):  # noqa: ANN001, ANN202
+            for words, label in presses.items():
+                if words in box.text():
+                    label = label() if callable(label) else label
+                    named = {b.text(): b for b in box.buttons()}
+                    assert label in named, f"no button {label!r}: {sorted(named)}"
+                    return box.standardButton(named[label]).value
+            raise AssertionError(f"the window asked a question the test did not answer: "
+                                 f"{box.text()}")  # fmt: skip
+
+        monkeypatch.setattr(QMessageBox, "exec", click)
+
+    return set_presses
+
 
 def _hold_autosave(window) -> None:  # noqa: ANN001
     """No autosave until the test says: both the two-second and the longest-wait timer."""
@@ -52,16 +88,16 @@ def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, answer):
     assert again.session.plan.request.dehydration_percent == 6.0
 
 
-def test_a_plan_left_unsaved_is_offered_back_as_left_not_as_a_crash(qtbot, planner, answer):
+def test_a_plan_left_unsaved_is_offered_back_as_left_not_as_a_crash(qtbot, planner, answer, press):
     window = planner
     window.open_demo("small_gerbil")
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.update(dehydration_percent=6.0)
     qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
     window.keeper.autosave()  # the autosave, as if vetfluid could crash now
-    answer({"This plan, or what was recorded": QMessageBox.StandardButton.No,
-            "was left, or vetfluid was closed": QMessageBox.StandardButton.Yes})  # fmt: skip
-    window.new_patient()  # left on purpose (No), then nothing else changed
+    answer({"was left, or vetfluid was closed": QMessageBox.StandardButton.Yes})
+    press({LEAVE: KEEP_AS_DRAFT})
+    window.new_patient()  # left on purpose (Keep as draft), then nothing else changed
     qtbot.waitUntil(lambda: window.session.plan is None)
     assert window.records.draft()["closed"]
     assert window.keeper.offer_draft()  # asked with the words for a plan left, not a crash
@@ -190,7 +226,7 @@ def test_compare_two_saved_versions(qtbot, planner):
 
 
 def test_a_reason_comes_back_from_a_draft_or_version_for_the_words_it_was_given_for(
-    qtbot, planner, monkeypatch, answer
+    qtbot, planner, monkeypatch, answer, press
 ):
     window, code = planner, "DIVIDED_TOO_MANY_SITES"
     window.open_demo("small_gerbil")
@@ -201,8 +237,8 @@ def test_a_reason_comes_back_from_a_draft_or_version_for_the_words_it_was_given_
     window.session.update(pcv_percent=45.0)  # an edit after the save, with the same words
     qtbot.waitUntil(lambda: window.session.plan.request.pcv_percent == 45.0)
     window.keeper.autosave()  # what the autosave does after an edit
-    answer({"Restore it": QMessageBox.StandardButton.Yes,
-            "This plan, or what was recorded": QMessageBox.StandardButton.No})  # fmt: skip
+    answer({"Restore it": QMessageBox.StandardButton.Yes})
+    press({LEAVE: KEEP_AS_DRAFT})
     version = window.records.find_patients("Pip")[0].id
     for reopen in (window.keeper.offer_draft, lambda: window.load_version(version, 1)):
         window.new_patient()
@@ -217,7 +253,7 @@ def test_a_reason_comes_back_from_a_draft_or_version_for_the_words_it_was_given_
 
 
 def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_with(
-    qtbot, planner, monkeypatch, answer
+    qtbot, planner, monkeypatch, answer, press
 ):
     from vetfluid.records.serialize import request_to_dict
 
@@ -229,8 +265,8 @@ def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_wi
     qtbot.waitUntil(lambda: window.session.plan.request.replace_hours == 12)
     assert next(f.message for f in window.session.plan.findings if f.code == code) != said_at_24_h
     at_12_h = window.session.plan.request
-    answer({"Restore it": QMessageBox.StandardButton.Yes,
-            "This plan, or what was recorded": QMessageBox.StandardButton.No})  # fmt: skip
+    answer({"Restore it": QMessageBox.StandardButton.Yes})
+    press({LEAVE: KEEP_AS_DRAFT})
     window.new_patient()
     qtbot.waitUntil(lambda: window.session.plan is None)
     window.records.save_draft(  # as an older vetfluid left it: a reason for the 24 h words
@@ -245,7 +281,7 @@ def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_wi
 
 
 def test_observations_are_kept_with_the_draft_and_the_saved_version(
-    qtbot, planner, monkeypatch, answer
+    qtbot, planner, monkeypatch, answer, press
 ):
     from vetfluid.course.observations import Observation
 
@@ -257,8 +293,8 @@ def test_observations_are_kept_with_the_draft_and_the_saved_version(
     for observation in recorded:
         window.session.add_observation(observation)
     window.keeper.autosave()  # a crash now must not lose what the nurse recorded
-    answer({"Restore it": QMessageBox.StandardButton.Yes,
-            "This plan, or what was recorded": QMessageBox.StandardButton.No})  # fmt: skip
+    answer({"Restore it": QMessageBox.StandardButton.Yes})
+    press({LEAVE: KEEP_AS_DRAFT})
     window.new_patient()
     qtbot.waitUntil(lambda: window.session.plan is None)
     assert window.keeper.offer_draft()
@@ -327,7 +363,7 @@ def test_replanning_an_unsaved_plan_saves_it_first(qtbot, planner, monkeypatch, 
 
 
 def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
-    qtbot, planner, monkeypatch, answer
+    qtbot, planner, monkeypatch, answer, press
 ):
     from vetfluid.records.serialize import request_to_dict
 
@@ -340,8 +376,8 @@ def test_a_stored_observation_that_cannot_be_read_is_left_out_and_counted(
          "observations": [{"hour": 1.0, "weight_kg": 24.2}, {"hour": 2.0, "weight_kg": "heavy"},
                           {"weight_kg": 24.0}]}
     )  # fmt: skip
-    answer({"Restore it": QMessageBox.StandardButton.Yes,
-            "This plan, or what was recorded": QMessageBox.StandardButton.No})  # fmt: skip
+    answer({"Restore it": QMessageBox.StandardButton.Yes})
+    press({LEAVE: KEEP_AS_DRAFT})
     window.new_patient()
     assert window.keeper.offer_draft()
     qtbot.waitUntil(lambda: window.session.plan is not None)
@@ -419,9 +455,7 @@ def test_rows_that_could_not_be_read_stay_in_the_version(qtbot, planner):
     assert len(window.records.observations(saved.id)) == 2  # the unreadable one is kept
 
 
-def test_leaving_unsaved_work_asks_first(qtbot, planner, answer):
-    from PySide6.QtWidgets import QMessageBox
-
+def test_leaving_unsaved_work_asks_first(qtbot, planner, press):
     from vetfluid.course.observations import Observation
 
     window = planner
@@ -430,11 +464,10 @@ def test_leaving_unsaved_work_asks_first(qtbot, planner, answer):
     window.open_demo("small_gerbil")
     qtbot.waitUntil(lambda: window.session.plan.request.species_id == "mongolian_gerbil")
     window.session.add_observation(Observation(hour=1.0, weight_kg=0.066))
-    question = "This plan, or what was recorded"
-    answer({question: QMessageBox.StandardButton.Cancel})
+    press({LEAVE: "Cancel"})
     window.new_patient()
     assert window.session.plan is not None and len(window.session.observations) == 1
-    answer({question: QMessageBox.StandardButton.Yes})
+    press({LEAVE: SAVE_AS_A_VERSION})
     saved = []
     window.save_version = lambda **_: saved.append(1) or 1  # the dialog's part: a version saved
     window.new_patient()
@@ -488,7 +521,6 @@ def test_a_reopened_ins_and_outs_plan_counts_each_measurement_once(qtbot, planne
 
 
 # ---- the third review's cases ----------------------------------------------------------------
-LEAVE = "This plan, or what was recorded"
 
 
 def test_an_observation_after_editing_a_version_never_goes_into_that_version(qtbot, planner):
@@ -524,7 +556,7 @@ def test_a_note_recorded_before_the_first_autosave_with_no_valid_plan_is_kept(qt
     assert draft["observations"] == [{"hour": 1.0, "note": "drank a little"}]
 
 
-def test_a_restored_draft_and_a_replan_are_unsaved_work_until_saved(qtbot, planner, answer):
+def test_a_restored_draft_and_a_replan_are_unsaved_work_until_saved(qtbot, planner, answer, press):
     from vetfluid.course.observations import Observation
 
     window = planner
@@ -532,11 +564,12 @@ def test_a_restored_draft_and_a_replan_are_unsaved_work_until_saved(qtbot, plann
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.acknowledge("OVERLOAD_RISK", "weighed 6-hourly")
     window.keeper.autosave()
-    answer({"Restore it": QMessageBox.StandardButton.Yes, LEAVE: QMessageBox.StandardButton.No})
+    answer({"Restore it": QMessageBox.StandardButton.Yes})
+    press({LEAVE: KEEP_AS_DRAFT})
     assert window.keeper.offer_draft()  # restored, untouched since: still unsaved work
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert window.keeper.work.has_unsaved_work()
-    answer({LEAVE: QMessageBox.StandardButton.Cancel})
+    press({LEAVE: "Cancel"})
     window.new_patient()
     assert window.session.plan is not None  # asked, and cancelled
 
@@ -550,7 +583,9 @@ def test_a_restored_draft_and_a_replan_are_unsaved_work_until_saved(qtbot, plann
     assert window.session.plan.request.species_id == "cat"
 
 
-def test_a_restored_draft_that_no_longer_builds_is_still_unsaved_work(qtbot, planner, answer):
+def test_a_restored_draft_that_no_longer_builds_is_still_unsaved_work(
+    qtbot, planner, answer, press
+):
     from vetfluid.records.serialize import request_to_dict
 
     window = planner
@@ -558,7 +593,8 @@ def test_a_restored_draft_that_no_longer_builds_is_still_unsaved_work(qtbot, pla
     qtbot.waitUntil(lambda: window.session.plan is not None)
     broken = request_to_dict(window.session.plan.request) | {"species_id": "no_such_species"}
     window.records.save_draft({"request": broken, "closed": True, "observations": []})
-    answer({"Restore it": QMessageBox.StandardButton.Yes, LEAVE: QMessageBox.StandardButton.Cancel})
+    answer({"Restore it": QMessageBox.StandardButton.Yes})
+    press({LEAVE: "Cancel"})
     assert window.keeper.offer_draft()
     qtbot.wait(50)
     assert window.session.plan is None and window.keeper.work.has_unsaved_work()
@@ -584,7 +620,7 @@ def test_observations_recorded_before_any_plan_are_kept(qtbot, planner, answer):
     assert again.session.plan is None
 
 
-def test_saving_needs_a_plan_that_builds_and_says_what_is_wrong(qtbot, planner, answer):
+def test_saving_needs_a_plan_that_builds_and_says_what_is_wrong(qtbot, planner, answer, press):
     window = planner
     _saved_dog(qtbot, window)
     window.session.update(dehydration_percent=6.0)
@@ -592,9 +628,9 @@ def test_saving_needs_a_plan_that_builds_and_says_what_is_wrong(qtbot, planner, 
     window.session.update(weight_kg=None)  # the weight being retyped
     qtbot.waitUntil(lambda: window.session.plan is None)
     shown = []
-    answer({LEAVE: QMessageBox.StandardButton.Yes,
-            "cannot be saved until": lambda: shown.append(1)})  # fmt: skip
-    window.new_patient()  # Yes, save first: it cannot be, so nothing is left
+    answer({"cannot be saved until": lambda: shown.append(1)})
+    press({LEAVE: SAVE_AS_A_VERSION})
+    window.new_patient()  # save first: it cannot be, so nothing is left
     assert shown and window.session.request is None and window.keeper.work.has_unsaved_work()
     assert window.session.inputs["species_id"] == "dog"
 
@@ -798,7 +834,7 @@ def _version_writes_fail(window):
 
 
 def test_observations_the_version_refuses_are_kept_in_the_draft_and_leaving_says_so(
-    qtbot, planner, answer
+    qtbot, planner, answer, press
 ):
     """Written to the draft instead of the saved version: not lost. Leaving (No) keeps them
     in the draft and goes on; closing asks nothing; the next start offers them back."""
@@ -812,7 +848,7 @@ def test_observations_the_version_refuses_are_kept_in_the_draft_and_leaving_says
     assert window.keeper.timer.isActive()  # the version is tried again
     assert window.keeper.work.has_unsaved_work()  # not in the version yet: leaving asks
     asked = []
-    answer({LEAVE: lambda: asked.append(1) or QMessageBox.StandardButton.No})
+    press({LEAVE: lambda: asked.append(1) or KEEP_AS_DRAFT})
     window.new_patient()
     assert asked and window.session.request is None  # left: the draft holds them
     draft = window.records.draft()
@@ -970,7 +1006,7 @@ def test_a_draft_that_cannot_be_read_is_set_aside_and_said_so(qtbot, planner, an
 
 
 def test_a_version_that_no_longer_builds_is_still_compared_with_what_it_stores(
-    qtbot, planner, answer
+    qtbot, planner, answer, press
 ):
     """Reopened when a clinic override keeps it from building, then mended by the user: the
     window compares the plan with the stored version, and raises nothing."""
@@ -995,7 +1031,7 @@ def test_a_version_that_no_longer_builds_is_still_compared_with_what_it_stores(
     window.session.update(route="sc")  # the user picks the route: the plan builds
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert not window.keeper.work.on_saved_version()  # another route: not version 1
-    answer({LEAVE: QMessageBox.StandardButton.No})
+    press({LEAVE: KEEP_AS_DRAFT})
     assert window.close()
 
 
@@ -1169,7 +1205,9 @@ def test_observations_go_back_into_their_version_even_when_it_no_longer_builds(
     assert "Wrote 1 observation(s) to version 1 of Gerry" in again.statusBar().currentMessage()
 
 
-def test_writing_kept_observations_back_keeps_what_the_version_took_since(qtbot, planner, answer):
+def test_writing_kept_observations_back_keeps_what_the_version_took_since(
+    qtbot, planner, answer, press
+):
     """B is refused by version 1 and kept in the draft; the user leaves, later reopens
     version 1 and records C, which it takes. At the next start B is written back and C
     stays; the note on an unreadable stored row is still given."""
@@ -1187,7 +1225,7 @@ def test_writing_kept_observations_back_keeps_what_the_version_took_since(qtbot,
     disk = _version_writes_fail(window)
     _hold_autosave(window)
     window.keeper.autosave()
-    answer({LEAVE: QMessageBox.StandardButton.No})
+    press({LEAVE: KEEP_AS_DRAFT})
     window.new_patient()
     disk.undo()
     window.load_version(saved.patient_id, saved.version)

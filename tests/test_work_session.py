@@ -530,6 +530,24 @@ def test_leaving_unsaved_work_asks_and_cancel_stays(folder, clerk):
     assert clerk.work.state is State.UNSAVED
 
 
+def test_the_leave_question_names_each_action_on_its_button_and_says_what_it_does(clerk):
+    # issue 20, item 3: "No leaves it in the draft, offered when vetfluid next starts, until
+    # another plan is changed" was hard to parse; each button now names what it does
+    edited_dog(clerk)
+    clerk.answers = {SAVE_OR_LEAVE: Answer.CANCEL}
+    open_demo(clerk, CAT)
+    question = clerk.asked[0]
+    words = dict(question.buttons)
+    assert set(words) == set(question.answers)  # every answer has its words
+    assert words[Answer.YES].startswith("Save as a version")
+    assert words[Answer.NO] == "Keep as draft"
+    assert words[Answer.CANCEL] == "Cancel"
+    for label in words.values():  # the text explains each button by the words on it
+        assert label.rstrip("…") in question.text
+    assert "No leaves" not in question.text and "next starts" in question.text
+    assert question.escape is Answer.CANCEL  # closing the box still stays put
+
+
 def test_leaving_it_in_the_draft_marks_the_draft_left(folder, clerk):
     edited_dog(clerk)
     clerk.answers = {SAVE_OR_LEAVE: Answer.NO}

@@ -274,6 +274,8 @@ class MainWindow(QMainWindow):
                 "&Cautions and sources", self.show_help, QKeySequence.StandardKey.HelpContents
             )
         )
+        help_menu.addAction(self._action("&How to plan a patient", lambda: self._guide("how_to")))
+        help_menu.addAction(self._action("&About vetfluid", lambda: self._guide("about")))
 
     # ---- records ----------------------------------------------------------------------------
     @property
@@ -444,7 +446,7 @@ class MainWindow(QMainWindow):
 
         self.build_planner()
         if self._leave_plan(Opening()):
-            self.patient.species_box.setFocus()
+            self.patient.focus_species()  # the panel scrolled to the top, the cursor there
 
     def open_demo(self, demo_id: str) -> None:
         from vetfluid.planning.demos import demo
@@ -461,8 +463,7 @@ class MainWindow(QMainWindow):
             self.species_view.filter_edit.selectAll()
             return
         self.pages.setCurrentIndex(0)
-        self.patient.species_box.setFocus()
-        self.patient.species_box.lineEdit().selectAll()
+        self.patient.focus_species()
 
     def save_file(self) -> None:
         self.build_planner()
@@ -591,6 +592,12 @@ class MainWindow(QMainWindow):
 
         self.build_planner()
         HelpDialog(self.session.table, self).exec()
+
+    def _guide(self, page: str) -> None:
+        from ui.common.guide_dialogs import show_guide
+
+        self.build_planner()
+        show_guide(page, self)
 
     # ---- window state ------------------------------------------------------------------------
     def _settings(self) -> QSettings:

@@ -23,6 +23,7 @@ from PySide6.QtWidgets import (
     QLabel,
     QLineEdit,
     QPushButton,
+    QScrollArea,
     QVBoxLayout,
     QWidget,
 )
@@ -177,6 +178,12 @@ class PatientView(QWidget):
         for watched in (self.species_box, self.species_box.lineEdit(), completer.popup()):
             watched.installEventFilter(self)
         form.addRow("&Species", self.species_box)
+        # the field shows the common and scientific name (the whole choice would be cut);
+        # the groups the search also matches are said in full beneath it
+        self.species_groups = QLabel()
+        self.species_groups.setWordWrap(True)
+        self.species_groups.setAccessibleName("Species groups")
+        form.addRow("", self.species_groups)
 
         self.weight_edit = QLineEdit()
         self.weight_edit.setPlaceholderText("weight")
@@ -298,8 +305,8 @@ class PatientView(QWidget):
             self.species_box.setCurrentIndex(index)
             if index < 0:  # none, or one this table lacks (the plan line names it)
                 self.species_box.setEditText(sid or "")
-            self.species_box.lineEdit().setCursorPosition(0)  # show the start of the name
         known = sid if index >= 0 else None
+        self._show_species_name(known)
         self._show_species_context(known)
         weight = inputs.get("weight_kg")
         if weight is not None:
@@ -331,6 +338,41 @@ class PatientView(QWidget):
             with QSignalBlocker(box):
                 box.setChecked(fid in chosen)
         self._show_estimate(tuple(chosen))
+
+    def focus_species(self) -> None:
+        """Bring the species field into view at the top of the input panel and put the
+        cursor in it, its text selected (New patient, Find species): focus alone does not
+        scroll the panel, and a panel left scrolled down hides the field."""
+        panel = self.parentWidget()
+        while panel is not None and not isinstance(panel, QScrollArea):
+            panel = panel.parentWidget()
+        if panel is not None:
+            panel.verticalScrollBar().setValue(0)
+        self.species_box.setFocus(Qt.FocusReason.ShortcutFocusReason)
+        self.species_box.lineEdit().selectAll()
+
+    def _species_name(self, sid: str | None) -> str:
+        """What the field shows of a chosen species: its common and scientific name."""
+        if sid not in self.session.table.species_by_id:
+            return ""
+        species = self.session.table.species(sid)
+        return f"{species.common_name} — {species.scientific_name}"
+
+    def _show_species_name(self, sid: str | None) -> None:
+        """The chosen species' names in the field (the start shown), its groups beneath it
+        and the whole choice on hover; nothing beneath while none is chosen."""
+        name = self._species_name(sid)
+        if name:
+            with QSignalBlocker(self.species_box):
+                self.species_box.setEditText(name)
+            groups = ", ".join(self.session.table.group_names(sid))
+            self.species_groups.setText(groups)
+            self.species_box.setToolTip(self.species_box.itemText(self.species_box.findData(sid)))
+        else:
+            self.species_groups.setText("")
+            self.species_box.setToolTip("Type part of a common name, scientific name or group")
+        self.species_groups.setVisible(bool(name))
+        self.species_box.lineEdit().setCursorPosition(0)  # the start of the name, not its end
 
     def _show_species_context(self, sid: str | None) -> None:
         """Usual weight range and, for ectotherms, the preferred temperature range."""
@@ -404,7 +446,7 @@ class PatientView(QWidget):
         chosen = self.species_box.findData(sid) if sid else -1
         if not text:
             return
-        if chosen >= 0 and self.species_box.itemText(chosen) == text:
+        if chosen >= 0 and text in (self.species_box.itemText(chosen), self._species_name(sid)):
             if self.species_box.property("problem"):
                 self._set_species(sid)  # clears a message left by earlier text
             return
@@ -468,7 +510,7 @@ class PatientView(QWidget):
         if not sid:
             return
         mark_field(self.species_box, "")
-        self.species_box.lineEdit().setCursorPosition(0)  # the start of the name, not its end
+        self._show_species_name(sid)
         self._show_species_context(sid)
         unit = preferred_weight_unit(self.session.table.value(sid, "body_weight_kg").number)
         weight = self.session.inputs.get("weight_kg")
@@ -513,7 +555,9 @@ class PatientView(QWidget):
         estimate = estimate_dehydration(chosen)
         if not chosen:
             self.estimate_label.setText("Tick what you find to see the estimated band.")
-            self.use_estimate.setEnabled(False)
+            # no findings, no figure to use: the button goes, not left greyed with an old one
+            self.use_estimate.setText("Use estimate")
+            self.use_estimate.hide()
             self.dehydration_field.setPlaceholderText("0")
             return
         # an empty field now means the estimate, not 0: say so where the number would be
@@ -532,7 +576,7 @@ class PatientView(QWidget):
             f"until you confirm it: click the button or type the % above. {caveat}".rstrip()
         )
         self.use_estimate.setText(f"Use {estimate.suggested_percent:g} %")
-        self.use_estimate.setEnabled(True)
+        self.use_estimate.show()
         self._estimate = estimate.suggested_percent
 
     def _use_estimate(self) -> None:

@@ -102,7 +102,11 @@ class ProvenanceView(QWidget):
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
-        header.setStretchLastSection(True)
+        # the value's name takes what room is left and wraps: the short columns (the
+        # source last) are always whole, however narrow the tab
+        header.setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        header.setStretchLastSection(False)
+        self.table.setWordWrap(True)
         layout.addWidget(self.table, 1)
         self.shown = ShownPlan(self, session, self.show_plan)
 
@@ -127,6 +131,7 @@ class ProvenanceView(QWidget):
                 ]
             )
         self.model.set_rows(rows)
+        self.table.resizeRowsToContents()  # a wrapped name gets its lines
         memory = len(plan.unverified_values)
         self.summary.setText(
             f"This plan uses {len(plan.provenance)} species values; {memory} of them were recalled "

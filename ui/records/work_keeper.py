@@ -113,6 +113,8 @@ class WorkKeeper(QObject):
     def ask(self, question: Question) -> Answer:
         """The question in a message box with its buttons; closed without a button, its
         escape answer."""
+        if question.buttons:
+            return self._ask_with_named_buttons(question)
         show = QMessageBox.warning if question.warning else QMessageBox.question
         shown = [self.window, "vetfluid", question.text]
         if question.answers != (Answer.YES, Answer.NO) or question.default is not None:
@@ -123,6 +125,19 @@ class WorkKeeper(QObject):
             if question.default is not None:
                 shown.append(_BUTTONS[question.default])
         return _ANSWERS.get(show(*shown), question.escape)
+
+    def _ask_with_named_buttons(self, question: Question) -> Answer:
+        """A question whose buttons say what each does ("Keep as draft", not "No"): the
+        standard buttons, relabelled, so Enter, Esc and the platform's order still apply."""
+        kind = QMessageBox.Icon.Warning if question.warning else QMessageBox.Icon.Question
+        box = QMessageBox(kind, "vetfluid", question.text, parent=self.window)
+        for answer, words in question.buttons:
+            box.addButton(_BUTTONS[answer]).setText(words)
+        if question.default is not None:
+            box.setDefaultButton(_BUTTONS[question.default])
+        box.setEscapeButton(_BUTTONS[question.escape])
+        pressed = QMessageBox.StandardButton(box.exec())
+        return _ANSWERS.get(pressed, question.escape)
 
     def _show(self, message: Message) -> None:
         show = QMessageBox.warning if message.warning else QMessageBox.information

@@ -19,10 +19,10 @@ draft, with the last plan that could be built while an input is retyped; a draft
 another plan left is replaced only by unsaved work, and observations it keeps for a saved
 version are written into that version first; observations a saved version refuses (a
 locked file) are kept in the draft for it, retried, and offered back into it at the next
-start. Leaving unsaved work asks Save / Leave in the draft / Cancel; a re-plan keeps the
-plan it replaces in the records (saved first); closing asks only when nothing could be
-written. With no usable records file, leaving or closing asks before dropping work no
-plan file or CSV export keeps, and a re-plan is refused.
+start. Leaving unsaved work asks Save as a version / Keep as draft / Cancel; a re-plan
+keeps the plan it replaces in the records (saved first); closing asks only when nothing
+could be written. With no usable records file, leaving or closing asks before dropping work
+no plan file or CSV export keeps, and a re-plan is refused.
 
 The states (``working`` below means AS_OPENED, ON_VERSION, UNSAVED, VERSION_REFUSED and
 NOT_WRITTEN; ``asking`` means OFFERING, ASKING_LEAVE, SAVING_TO_LEAVE, ASKING_REPLAN,
@@ -74,7 +74,7 @@ The table, built from :data:`TABLE` (docs/work_keeping.md holds it as Markdown;
 - working + LEAVE [nothing unsaved] → stays. Written: —. Window: goes on: opens it.
 - working + LEAVE [no records file] → ASKING_LOSE_ON_LEAVE. Written: —. Window: asks Discard
   / Cancel.
-- working + LEAVE → ASKING_LEAVE. Written: —. Window: asks Save first / Leave it in the
+- working + LEAVE → ASKING_LEAVE. Written: —. Window: asks Save as a version… / Keep as
   draft / Cancel.
 - ASKING_LEAVE + YES → SAVING_TO_LEAVE. Written: —. Window: save first (the window asks for
   the patient).
@@ -235,6 +235,8 @@ class Question:
     default: Answer | None = None  # the button Enter presses (None: the toolkit's own)
     warning: bool = False  # something may be lost: shown as a warning
     about: str = ""  # the pending thing it is about (a draft's or a plan's tag)
+    # the words on each answer's button, naming what it does (empty: the toolkit's own words)
+    buttons: tuple[tuple[Answer, str], ...] = ()
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -985,10 +987,16 @@ class WorkSession:
         self._leaving = opening
         self._ask(out, Question(
             asked=Asked.SAVE_OR_LEAVE,
-            text="This plan, or what was recorded on it, is not saved as a version. Save it "
-            "first?\n\nNo leaves it in the draft, offered when vetfluid next starts, until "
-            "another plan is changed.",
+            text="This plan, or what was recorded on it, is not saved as a version yet.\n\n"
+            "Save as a version: it goes into the patient's record (you name the patient "
+            "if it has none), then the other plan opens.\n\n"
+            "Keep as draft: the other plan opens now; this one waits as the draft, and "
+            "vetfluid offers it back when it next starts. Only one draft is kept: once you "
+            "change another plan without saving it, that plan becomes the draft.\n\n"
+            "Cancel: stay on this plan.",
             answers=(Answer.YES, Answer.NO, Answer.CANCEL), escape=Answer.CANCEL, about=self.tag,
+            buttons=((Answer.YES, "Save as a version…"), (Answer.NO, "Keep as draft"),
+                     (Answer.CANCEL, "Cancel")),
         ), back=self.state)  # fmt: skip
 
     def _lose_unkept(self, action: str) -> str:
@@ -1386,7 +1394,7 @@ TABLE: tuple[Row, ...] = (
     _row(WORKING, E.LEAVE, S.ASKING_LOSE_ON_LEAVE, W._ask_to_lose_on_leave, NO_RECORDS,
          says="asks Discard / Cancel"),
     _row(WORKING, E.LEAVE, S.ASKING_LEAVE, W._ask_to_leave,
-         says="asks Save first / Leave it in the draft / Cancel"),
+         says="asks Save as a version… / Keep as draft / Cancel"),
     _row(S.ASKING_LEAVE, E.YES, S.SAVING_TO_LEAVE, W._save_first_to_leave,
          says="save first (the window asks for the patient)"),
     _row(S.ASKING_LEAVE, E.NO, N.WRITTEN, W._leave_in_draft,
