@@ -325,14 +325,14 @@ def test_plans_never_hold_negative_or_nan_numbers(species, scale, percent, hours
 
 
 def test_replacement_fluid_for_long_maintenance_is_recognised_by_sodium():
-    # Pardo 2024: hypotonic fluids for maintenance. LRS counts as a replacement fluid even
-    # where a species' plasma (cat 310 mOsm/kg, memory) makes it read slightly hypotonic.
+    # Pardo 2024: hypotonic fluids for maintenance. LRS counts as a replacement fluid by its
+    # sodium; its tonicity is worded by the one rule (±20 % of the species' plasma, common
+    # practice, no source: fluids.tonicity_band_text), isotonic for the cat as for the dog.
     cat = plan_for(species_id="cat", weight_kg=4)
     assert "ISOTONIC_FOR_MAINTENANCE" in codes(cat)
-    # the finding must not call "isotonic" what the totals call hypotonic for this species
     said = next(f.message for f in cat.findings if f.code == "ISOTONIC_FOR_MAINTENANCE")
-    assert cat.tonicity.effective_class == "hypotonic"
-    assert "isotonic" not in said and "replacement fluid" in said
+    assert cat.tonicity.effective_class == "isotonic"
+    assert "isotonic against this patient's plasma" in said and "replacement fluid" in said
     half = plan_for(species_id="cat", weight_kg=4, fluid_id="nacl_0_45_dextrose_2_5")
     assert "ISOTONIC_FOR_MAINTENANCE" not in codes(half)
 

@@ -123,6 +123,21 @@ def test_dog_and_cat_guideline_values(table):
     assert table.value("cat", "shock_dose_ml_per_kg").low == 50
 
 
+def test_basic_dog_and_cat_values_cite_only_what_was_checked(table):
+    # Issue 20, item 7: a recalled value never names a source it was not checked
+    # against (house rule: `published` only what was seen; otherwise no citation). The
+    # basics a new user reads first: plasma osmolality, normal Na and K, bolus size.
+    basics = ("plasma_osmolality_mosm_per_kg", "serum_na_mmol_per_l", "serum_k_mmol_per_l",
+              "bolus_ml_per_kg")  # fmt: skip
+    for sid in ("dog", "cat"):
+        for parameter in basics:
+            value = table.value(sid, parameter)
+            if value.basis == "memory":
+                assert not value.source_id, (sid, parameter, value.source_id)
+            else:
+                assert value.source_id in table.sources, (sid, parameter)
+
+
 def test_usg_flag_follows_urine_concentration(table):
     for sid in table.species_ids():
         ceiling, _, _ = (

@@ -512,7 +512,7 @@ def print_plan(plan: Plan) -> None:
                         f"{_q(data['deficit_ml'], 'mL')}"),
         ("Free water", _q(data["free_water_deficit_ml"], "mL")
          if data["free_water_deficit_ml"] is not None else None),
-        ("Fluid", f"{fl['name']} ({fl['tonicity']} in the body; Na "
+        ("Fluid", f"{fl['name']} ({fl['tonicity_words']}; Na "
                   f"{_q(fl['na_mmol_per_l'], 'mmol/L')}, K {_q(fl['k_mmol_per_l'], 'mmol/L')})"),
         ("Route", route_and_device_text(data)),
         ("First 24 h", first_24h_text(data)),

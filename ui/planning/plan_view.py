@@ -102,10 +102,8 @@ def fluid_tooltip(fluid_id: str, plan: Plan | None) -> str:
             plasma_osmolality_mosm_per_kg=plan.tonicity.plasma_osmolality_mosm_per_kg,
             band_fraction=plan.tonicity.band_fraction,
         )
-        lines.append(
-            f"against this patient's plasma ({q(tone.plasma_osmolality_mosm_per_kg, 'mOsm/kg')}): "
-            f"{tone.in_vitro_class} in the bag, {tone.effective_class} in the body"
-        )
+        lines.append(f"against this patient's plasma: {fluids.tonicity_words(tone)}")
+        lines.append(fluids.tonicity_band_text(tone))
     return "\n".join(lines)
 
 
@@ -191,10 +189,10 @@ class PlanSettings(QGroupBox):
         self.kcl_mode.activated.connect(self._kcl_mode_changed)
         session.planChanged.connect(self._show_scale_kcl)
         self.kcl = NumberField(session, "kcl_mmol_per_l", "mmol/L", "KCl to add per litre, mmol/L")
-        row = QHBoxLayout()
-        row.addWidget(self.kcl_mode, 2)
-        row.addWidget(self.kcl, 1)
-        form.addRow(buddy_label("&KCl added", self.kcl_mode), row)
+        # one under the other: beside the choice, the box was too narrow for what the scale
+        # chose ("40 mmol/L from the scale" was cut)
+        form.addRow(buddy_label("&KCl added", self.kcl_mode), self.kcl_mode)
+        form.addRow("", self.kcl)
         self.dextrose = NumberField(
             session, "dextrose_percent", "0", "Dextrose to add, % w/v", empty=0.0
         )
@@ -283,13 +281,12 @@ class PlanSettings(QGroupBox):
     def _show_scale_kcl(self, plan: Plan | None) -> None:
         """With KCl from the scale the box is disabled: its grey text says what was chosen."""
         potassium = plan.potassium if plan is not None else None
-        text = (
-            f"{q(potassium.kcl_mmol_per_l, 'mmol/L')} from the scale"
-            if potassium is not None and plan.request.kcl_mmol_per_l is None
-            else "mmol/L"
-        )
+        from_scale = potassium is not None and plan.request.kcl_mmol_per_l is None
+        text = f"{q(potassium.kcl_mmol_per_l, 'mmol/L')} from the scale" if from_scale else "mmol/L"
         if self.kcl.placeholderText() != text:
             self.kcl.setPlaceholderText(text)
+            tip = self.kcl.property("helpText")
+            self.kcl.setToolTip(f"{text} (serum-K scale). {tip}" if from_scale else tip)
 
     def _kcl_mode_changed(self, _: int) -> None:
         by_hand = self.kcl_mode.currentData() == "hand"
@@ -726,6 +723,10 @@ class PlanSummary(QWidget):
 
         self.phases_model = RowsModel(["Phase", "Hours", "Rate or dose", "Volume", "Route"])
         self.phases_view = self._table(self.phases_model, "Phases")
+        # the room left goes to the rate or dose (what the nurse reads), not to the route
+        phases_header = self.phases_view.horizontalHeader()
+        phases_header.setStretchLastSection(False)
+        phases_header.setSectionResizeMode(2, QHeaderView.ResizeMode.Stretch)
         layout.addWidget(QLabel("<b>Phases</b>"))
         layout.addWidget(self.phases_view, 1)
         self.schedule_model = RowsModel(["Clock", "Hour", "Phase", "What to do"])
@@ -775,6 +776,7 @@ class PlanSummary(QWidget):
         if plan is None:
             for label in self.values.values():
                 label.setText("—")
+                label.setToolTip("")
             self.phases_model.set_rows([])
             self.schedule_model.set_rows([])
             return
@@ -799,8 +801,9 @@ class PlanSummary(QWidget):
         self.values["first24"].setText(first24)
         self.values["fluid"].setText(
             f"{plan.fluid_name} — Na {q(plan.fluid_na_mmol_per_l, 'mmol/L')}, "
-            f"K {q(plan.fluid_k_mmol_per_l, 'mmol/L')}; {plan.tonicity.effective_class} in the body"
+            f"K {q(plan.fluid_k_mmol_per_l, 'mmol/L')}; {fluids.tonicity_words(plan.tonicity)}"
         )
+        self.values["fluid"].setToolTip(fluids.tonicity_band_text(plan.tonicity))
         self.values["route"].setText(f"{route_text(plan.route)}, {DEVICE_WORDS[plan.device]}")
         k = plan.potassium
         self.values["potassium"].setText(

@@ -119,6 +119,8 @@ def plan_dict(plan: Plan) -> dict[str, object]:
             # dextrose monohydrate in the bag, additives included (g/L; ÷ 10 is % w/v)
             "dextrose_g_per_l": fluids.composition(plan.bag).dextrose_hydrous_g_per_l,
             "tonicity": plan.tonicity.effective_class,
+            "tonicity_words": fluids.tonicity_words(plan.tonicity),
+            "tonicity_band": fluids.tonicity_band_text(plan.tonicity),
             "tonicity_in_bag": plan.tonicity.in_vitro_class,
             "osmolarity_ratio_to_plasma": plan.tonicity.in_vitro_ratio,
         },

@@ -38,7 +38,8 @@ from vetfluid.common.checks import require_number
 from vetfluid.common.chemistry import formula_atoms, molar_mass_g_per_mol, parse_molar_mass
 from vetfluid.common.csvfiles import parse_number, read_rows, unique_rows
 from vetfluid.common.errors import InputError, SpeciesDataError
-from vetfluid.common.formatting import format_quantity
+from vetfluid.common.formatting import format_number, format_quantity
+from vetfluid.tables.limits import limit
 from vetfluid.tables.species import BASES
 
 KINDS = ("crystalloid", "colloid", "additive_concentrate")
@@ -390,7 +391,8 @@ class Tonicity:
     """A fluid's tonicity against the patient's plasma, in the bag and in the body.
 
     Ratios are fluid osmolarity ÷ plasma osmolality; a class is ``isotonic`` when
-    the ratio is within ``band_fraction`` of 1.
+    the ratio is within ``band_fraction`` of 1. Word it with :func:`tonicity_words` and
+    explain the band with :func:`tonicity_band_text`; nothing else words tonicity.
     """
 
     fluid_id: str
@@ -402,6 +404,15 @@ class Tonicity:
     effective_class: str
 
 
+# In the bag a fluid is only more or less concentrated than plasma (osmotic words); what
+# it does to cells once given is its tonicity (what the body cannot clear stays).
+_IN_THE_BAG_WORDS = {
+    "hypotonic": "hypo-osmotic",
+    "isotonic": "iso-osmotic",
+    "hypertonic": "hyperosmotic",
+}
+
+
 def _tonicity_class(ratio: float, band_fraction: float) -> str:
     if ratio < 1 - band_fraction:
         return "hypotonic"
@@ -411,7 +422,7 @@ def _tonicity_class(ratio: float, band_fraction: float) -> str:
 
 
 def tonicity(
-    fluid: Fluid, *, plasma_osmolality_mosm_per_kg: float, band_fraction: float = 0.1
+    fluid: Fluid, *, plasma_osmolality_mosm_per_kg: float, band_fraction: float | None = None
 ) -> Tonicity:
     """Classify a fluid as hypotonic, isotonic or hypertonic for this patient.
 
@@ -420,17 +431,30 @@ def tonicity(
     Method: the bedside convention of comparing calculated osmolarity (mOsm/L,
     ideal dissociation) with plasma osmolality (mOsm/kg); ideal dissociation
     overstates a salt's real osmolality, so treat results near a band edge as such.
+
+    The band is one rule for every species: ``tonicity_band_fraction`` in
+    ``species_data/safety_limits.csv`` (±20 %, common practice, no source) of the
+    species' own plasma osmolality, used unless ``band_fraction`` is given. It is the
+    narrowest round band in which the replacement crystalloids (lactated Ringer's
+    273, 0.9 % NaCl 308 mOsm/L) read isotonic against every plasma on record
+    (290–327 mOsm/kg) while 0.45 % NaCl (154) stays hypotonic. A published
+    classification against human plasma (280–295 mOsm/kg) draws its lines at
+    < 250 and ≥ 375 mOsm/L and calls 5 % dextrose isosmotic in the bag but hypotonic
+    once given ("IV Fluid Safety", Hospital Pharmacy Technician's Letter, Therapeutic
+    Research Center, 2016, updated 2025).
     """
     plasma = _check_number(
         plasma_osmolality_mosm_per_kg, "plasma_osmolality_mosm_per_kg", positive=True
     )
+    if band_fraction is None:  # the band is data, with its basis (safety_limits.csv)
+        band_fraction = limit("tonicity_band_fraction").value
     band = _check_number(band_fraction, "band_fraction", positive=True)
     if band >= 1:
         raise InputError(
             "band must be a fraction below 1",
             field="band_fraction",
             value=band_fraction,
-            fix="e.g. 0.1 for ±10%",
+            fix="e.g. 0.2 for ±20%",
         )
     result = composition(fluid)
     in_vitro = result.osmolarity_mosm_per_l / plasma
@@ -444,6 +468,58 @@ def tonicity(
         in_vitro_class=_tonicity_class(in_vitro, band),
         effective_class=_tonicity_class(effective, band),
     )
+
+
+def _check_tonicity(value: object) -> Tonicity:
+    if not isinstance(value, Tonicity):
+        raise InputError(
+            "expected a fluid's tonicity",
+            field="tonicity",
+            value=value,
+            fix="classify the fluid with fluids.tonicity(fluid, plasma_osmolality_mosm_per_kg=…)",
+        )
+    return value
+
+
+def _burnt_away(tone: Tonicity) -> bool:
+    """Whether part of the fluid stops counting once given (glucose taken up and burnt)."""
+    return not math.isclose(tone.in_vitro_ratio, tone.effective_ratio, rel_tol=1e-9)
+
+
+def tonicity_words(tone: Tonicity) -> str:
+    """The one wording of a fluid's tonicity, for the totals, the CLI, the sheet and notes.
+
+    A fluid that stays as given reads as its class ("isotonic"); one that loses solute
+    once given says both, in the bag by osmolality and in the body by tonicity
+    ("iso-osmotic in the bag, hypotonic in the body once its glucose is used").
+    """
+    tone = _check_tonicity(tone)
+    if not _burnt_away(tone):
+        return tone.effective_class
+    return (
+        f"{_IN_THE_BAG_WORDS[tone.in_vitro_class]} in the bag, "
+        f"{tone.effective_class} in the body once its glucose is used"
+    )
+
+
+def tonicity_band_text(tone: Tonicity) -> str:
+    """What the tonicity words mean for this patient, short enough to show on hover."""
+    tone = _check_tonicity(tone)
+    plasma = tone.plasma_osmolality_mosm_per_kg
+    low = format_number(plasma * (1 - tone.band_fraction))
+    high = format_number(plasma * (1 + tone.band_fraction))
+    text = (
+        f"Isotonic here means within ±{tone.band_fraction * 100:g} % of this patient's plasma "
+        f"osmolality ({format_quantity(plasma, 'mOsm/kg')}): {low}–{high} mOsm/L calculated "
+        "(every particle counted, fully dissociated); below is hypotonic, above hypertonic. "
+        "The band is common practice, no source."
+    )
+    if _burnt_away(tone):
+        text += (
+            " In the bag every particle counts; in the body glucose does not: cells take it up "
+            "and burn it, leaving free water."
+        )
+    return text
 
 
 # --- loading species_data/solutes.csv and fluids.csv ---------------------------------
