@@ -93,10 +93,10 @@ KCL_CONCENTRATE = "kcl_2_meq_per_ml"
 DEXTROSE_CONCENTRATE = "dextrose_50"
 # Floating-point slack only: a figure equal to its bound is not past it.
 SLACK = 1e-9
-# The oracle steps Na from turning point to turning point and lets nothing leave; the core
-# follows it every quarter hour with maintenance losses leaving at the starting Na. The two
-# agree to about 1 %: a plan within 2 % of the limit is the models' resolution, not a
-# hazard either could see.
+# The oracle steps Na from turning point to turning point with what the plan says leaves
+# (maintenance and losses) taken out of what is given, in the fluid's own proportion, so
+# only the surplus moves Na; the core follows the kidney every 5 minutes. A plan within 2 %
+# of the limit is the models' resolution, not a hazard either could see.
 SODIUM_MODEL_SLACK = 0.02
 RANGE_SLACK_MMOL_PER_L = 0.2
 OVERLAP_RESOLUTION_H = 1.0 / 3600.0  # likewise for where Na ends up against its reference interval
@@ -125,7 +125,15 @@ class Bound:
 # each means are taken from vetfluid/planning/safety.py and vetfluid/planning/plan.py;
 # whether a plan passes a bound is the oracle's own arithmetic below. A refused request
 # (InputError, LimitExceeded) answers every bound: no plan exists.
-SODIUM_ANSWERS = ("SODIUM_CHANGE_TOO_FAST", "FLUID_NOT_FOR_RESUSCITATION", "FLUID_DOSE_ABOVE_MAX")
+# Beside the rate rule, a fall is answered by the plan's rule for a kidney held from diluting
+# (SODIUM_FALL_IF_ADH_HELD) and for free water itself (FREE_WATER_WITHOUT_HIGH_SODIUM).
+SODIUM_ANSWERS = (
+    "SODIUM_CHANGE_TOO_FAST",
+    "FLUID_NOT_FOR_RESUSCITATION",
+    "FLUID_DOSE_ABOVE_MAX",
+    "SODIUM_FALL_IF_ADH_HELD",
+    "FREE_WATER_WITHOUT_HIGH_SODIUM",
+)
 RULES: dict[str, Bound] = {
     "weight_unit_slip": Bound("hard", ("WEIGHT_UNIT_SLIP",)),
     "weight_outside_range": Bound("soft", ("WEIGHT_OUTSIDE_RANGE",)),
@@ -183,6 +191,10 @@ ANSWERS_EVERY_RULE = (
     # far off (a thousandfold for g typed as kg); the plan is blocked until the patient is
     # re-weighed, and the plan built for the true weight is checked afresh
     "WEIGHT_UNIT_SLIP",
+    # more water or salt taken out than the body holds (hard): past that hour the body's
+    # figures, Na among them, are no numbers to check; the plan is blocked until the
+    # losses, outputs or doses are put right
+    "PLAN_BEYOND_THE_BODY",
 )
 
 
@@ -589,12 +601,29 @@ def _sodium(request: PlanRequest, plan: Plan, table: SpeciesTable) -> list[Breac
         | {float(h) for h in range(math.ceil(end))}
     )
 
+    # What leaves: the plan's outflow (from hour, mL/h), each rate until the next. The
+    # surplus given over it is what dilutes or concentrates the body water (the general
+    # form's V); what leaves is taken to match the fluid it replaces, so a maintenance
+    # fluid at the maintenance rate holds Na (a kidney's working range: the plan's own
+    # model answers the slow drift of a fluid's composition).
+    outflow = list(getattr(plan, "outflow", ((0.0, 0.0),)))
+
+    def left(a: float, b: float) -> float:  # litres out between hours a and b
+        total = 0.0
+        for i, (hour, rate) in enumerate(outflow):
+            until = outflow[i + 1][0] if i + 1 < len(outflow) else math.inf
+            total += rate * max(min(b, until) - max(a, hour), 0.0)
+        return total / 1000
+
     def given(a: float, b: float) -> tuple[float, float]:  # litres, mmol of Na + K
         litres = sum(f.ml_between(a, b) for f in flows) / 1000
         cations = sum(
             f.ml_between(a, b) / 1000 * (f.mix.na_mmol_per_l + f.mix.k_mmol_per_l) for f in flows
         )
-        return litres, cations
+        if litres <= 0:
+            return litres, cations
+        surplus = max(litres - left(a, b), 0.0)
+        return surplus, cations * surplus / litres
 
     # Without a measured Na, shock boluses are left out of this rule: a patient in shock is
     # resuscitated first and reassessed (Davis 2013), Na measured before the fluids that

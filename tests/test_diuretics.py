@@ -340,8 +340,13 @@ def test_the_cli_plan_takes_an_infusion_and_a_loss_type(capsys):
     args = ["plan", "--species", "dog", "--weight", "20 kg", "--diuretic", "furosemide",
             "--diuretic-cri", "0.66", "--diuretic-at", "2,10", "--loss-type", "vomitus",
             "--losses-ml-per-day", "200", "--json"]  # fmt: skip
-    assert cli.main(args) == 0
+    # 0.66 mg/kg/h for 8 h with its urine not given back: the plan's sodium check follows the
+    # diuretic (urine near plasma while a loop diuretic acts; common practice, no source) and
+    # blocks a rise of over 1 mmol/L/h, naming the remedy (the CLI exits 3 on a hard limit)
+    assert cli.main(args) == 3
     data = json.loads(capsys.readouterr().out)
+    found = next(f for f in data["findings"] if f["code"] == "SODIUM_CHANGE_TOO_FAST")
+    assert "give back the urine furosemide makes" in found["action"]
     assert data["request"]["diuretics"] == [["furosemide", 0.66, "cri", 2.0, 10.0]]
     assert data["request"]["loss_type"] == "vomitus"
 
@@ -435,3 +440,19 @@ def test_a_diuretic_never_takes_the_urine_outside_a_diseased_kidneys_band(drug, 
     floor, ceiling = c.urine_band_mosm_per_kg
     shown = c.urine_osm_mosm_per_kg[1:]
     assert shown.max() <= ceiling + 1e-6 and shown.min() >= floor - 1e-6
+
+
+def test_a_diuretic_after_the_plans_end_is_said():
+    # The body is followed with the plan's intake and outputs only while it runs
+    # (docs/model.md): a dose after the fluids stop is predicted by nothing, and says so.
+    late = (("furosemide", 2.0, "iv", 30.0, 30.0),)
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, diuretics=late))
+    assert plan.end_h == 24
+    found = {f.code: f for f in plan.findings}
+    assert found["DIURETIC_AFTER_PLAN_END"].severity == "soft"
+    inside = build_plan(
+        PlanRequest(
+            species_id="dog", weight_kg=20, diuretics=(("furosemide", 2.0, "iv", 3.0, 3.0),)
+        )
+    )
+    assert "DIURETIC_AFTER_PLAN_END" not in {f.code for f in inside.findings}

@@ -450,11 +450,12 @@ def test_potassium_ceiling():
             [_phase("maintenance", 0, 24, rate_ml_per_h=2.9)],
             "sodium_change",
         ),
-        # hazard 2: a 4 kg cat at Na 175 on 5 % dextrose whose Na falls 0.69 mmol/L/h
-        # (TBW 2.4 L: 9.5 mL/h gives 0.0095·175/2.4095)
+        # hazard 2: a 4 kg cat at Na 175 on 5 % dextrose whose Na falls 0.63 mmol/L/h
+        # (TBW 2.4 L; 12 mL/h in, 3.3 mL/h of insensible water out, 20 mL/kg/day, Côté
+        # 2020: 175·2.4/2.4087 − 175)
         (
             {**CAT, "fluid_id": "dextrose_5", "serum_na": 175},
-            [_phase("maintenance", 0, 24, rate_ml_per_h=9.5)],
+            [_phase("maintenance", 0, 24, rate_ml_per_h=12)],
             "sodium_change",
         ),
         # the g/kg slip: a 20 kg dog entered as 0.02 kg

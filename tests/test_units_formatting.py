@@ -516,3 +516,12 @@ def test_distinct_sorted_matches_numpys_unique_without_importing_masked_arrays()
     )
     out = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True)
     assert out.stdout.strip() == "False", out.stderr
+
+
+def test_an_hour_off_the_whole_is_said_to_the_minute():
+    from vetfluid.common.formatting import hour_text
+
+    assert hour_text(9.0) == "hour 9"
+    assert hour_text(9 + 35 / 60) == "hour 9 h 35 min"
+    assert hour_text(1 / 6) == "hour 0 h 10 min"
+    assert hour_text(23.9999) == "hour 24"  # to the minute, never "hour 23 h 60 min"

@@ -69,3 +69,11 @@ def entered_number(value: float) -> str:
         (d for d in range(most) if abs(round(value, d) - value) <= 1e-9 * abs(value)), most
     )
     return format_number(value, decimals=decimals)
+
+
+def hour_text(hour: float) -> str:
+    """An hour into a plan in words: "hour 9", or "hour 9 h 35 min" off the whole hour
+    (never "hour 9.58333"), to the minute."""
+    minutes = int(round(hour * 60.0))
+    whole, rest = divmod(minutes, 60)
+    return f"hour {whole}" if rest == 0 else f"hour {whole} h {rest:02d} min"

@@ -34,7 +34,7 @@ The starting compartments are the species' fractions of the entered (dehydrated)
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -43,19 +43,17 @@ from vetfluid.common.errors import InputError
 from vetfluid.common.findings import Finding
 from vetfluid.common.formatting import format_number, format_quantity
 from vetfluid.course.observations import Observation, alerts
-from vetfluid.physiology import delivery, electrolytes, kidney, maintenance
-from vetfluid.physiology.hydration import body_water_fraction
+from vetfluid.physiology import electrolytes
+from vetfluid.planning import body
+from vetfluid.planning.body import BodyInput
 from vetfluid.planning.plan import RENAL_OUTPUTS, Plan
-from vetfluid.planning.safety import LINE_ROUTES, diuretic_effect_modelled
-from vetfluid.planning.schedule import DiureticDose, Phase
-from vetfluid.tables import diuretics, fluid_roles, fluids
+from vetfluid.tables import fluid_roles, fluids
 from vetfluid.tables.limits import limit
 from vetfluid.tables.species import SpeciesTable, SpeciesValue, load_table
 
 MAX_HORIZON_H = 14 * 24.0
-# The step the window and the CLI both model a course at: the kidney is worked out step by
-# step, so one step size keeps every figure the same wherever it is shown.
-SHOWN_STEP_MINUTES = 5.0
+# The step the window and the CLI both model a course at: the plan's own sodium check's
+SHOWN_STEP_MINUTES = body.STEP_MINUTES
 # a plasma volume this far below its start is said (common practice, no source: losing a
 # fifth of the circulating volume is clinically significant hypovolaemia)
 PLASMA_CONTRACTION_SAID = 0.2
@@ -164,90 +162,25 @@ class Course:
         }
 
 
-@dataclass(frozen=True)
-class _Input:
-    """One way fluid goes in: a rate over a span, or a dose at an instant."""
-
-    start_h: float
-    end_h: float  # equals start_h for a dose
-    ml: float
-    effective_mosm_per_l: float
-    na_mmol_per_l: float
-    k_mmol_per_l: float
-    into_plasma: bool
-    colloid_half_life_h: float | None = None  # a colloid holds its volume in the plasma
-    fluid_name: str = ""
-    absorbed_over_h: float = 0.0  # an SC or intracoelomic dose reaches the body over this
-    base_mmol_per_l: float = 0.0  # bicarbonate and what is metabolised to it
-
-    def absorbed(self) -> _Input:
-        """The input as it reaches the body water: a dose under the skin or into the
-        coelom evenly over its absorption time (delivery.SC_ABSORPTION_H)."""
-        if self.absorbed_over_h <= 0 or self.end_h > self.start_h:
-            return self
-        return replace(self, end_h=self.start_h + self.absorbed_over_h, absorbed_over_h=0.0)
-
-
-def _base_mmol_per_l(comp: fluids.Composition) -> float:
-    """Buffer base a fluid brings per litre: its lactate, acetate and gluconate, each
-    metabolised to one bicarbonate (vetfluid/tables/fluids.py). No library fluid carries
-    bicarbonate itself (solutes.csv has no HCO3 ion)."""
-    return comp.lactate_mmol_per_l + comp.acetate_mmol_per_l + comp.gluconate_mmol_per_l
-
-
-def _fluid_terms(fluid: fluids.Fluid, *, into_plasma: bool) -> dict:
-    comp = fluids.composition(fluid)
-    return {
-        "base_mmol_per_l": _base_mmol_per_l(comp),
-        "fluid_name": fluid.name,
-        "effective_mosm_per_l": comp.effective_osmolarity_mosm_per_l,
-        "na_mmol_per_l": comp.na_mmol_per_l,
-        "k_mmol_per_l": comp.k_mmol_per_l,
-        "into_plasma": into_plasma,
-        "colloid_half_life_h": fluid.colloid.volume_half_life_h if fluid.colloid else None,
-    }
-
-
-def _inputs(plan: Plan, extra: list[_Input]) -> list[_Input]:
-    result = list(extra)
-    for phase in plan.phases:
-        fluid = plan.bolus_fluid if phase.kind == "resuscitation" else plan.bag
-        common = _fluid_terms(fluid, into_plasma=phase.route in LINE_ROUTES)
-        result.extend(_phase_inputs(phase, common))
-    return result
-
-
-def _phase_inputs(phase: Phase, common: dict) -> list[_Input]:
-    if phase.mode == "continuous":
-        return [_Input(phase.start_h, phase.end_h, phase.volume_ml, **common)]
-    # a dose under the skin or into the coelom is absorbed over hours (6–8 h in dogs and
-    # cats, the shorter end: delivery.SC_ABSORPTION_H); a dose into a line is there at once
-    absorb = 0.0 if common["into_plasma"] else delivery.SC_ABSORPTION_H
-    return [
-        _Input(h, h, phase.dose_ml or 0.0, **common, absorbed_over_h=absorb)
-        for h in phase.dose_hours()
-    ]
-
-
 def infused_input(
     *, fluid_id: str, ml_per_kg: float, weight_kg: float, minutes: float, start_h: float = 0.0
-) -> _Input:
+) -> BodyInput:
     """Any library fluid run into the plasma over ``minutes``, with no judgement of whether
     it should be (the model's physics: how 5% dextrose spreads, how 0.45% NaCl moves Na).
     What a user asks for goes through :func:`bolus_input`."""
     require_number(ml_per_kg, "bolus_ml_per_kg", positive=True, high=100, unit="mL/kg")
     require_number(minutes, "bolus_minutes", positive=True, high=24 * 60, unit="min")
-    return _Input(
+    return BodyInput(
         start_h,
         start_h + minutes / 60.0,
         ml_per_kg * weight_kg,
-        **_fluid_terms(fluids.fluid(fluid_id), into_plasma=True),
+        **body.fluid_terms(fluids.fluid(fluid_id), into_plasma=True),
     )
 
 
 def bolus_input(
     *, fluid_id: str, ml_per_kg: float, weight_kg: float, minutes: float, start_h: float = 0.0
-) -> _Input:
+) -> BodyInput:
     """An extra IV bolus of a resuscitation fluid (e.g. 4 mL/kg of 7.2% NaCl over 5 min):
     a fluid without the resuscitation role (fluid_roles.csv: a concentrate, free water) is
     refused, and one with a dose of its own is held to it and to its shortest time."""
@@ -276,18 +209,7 @@ def bolus_input(
     )  # fmt: skip
 
 
-def _add_cumulative(total: np.ndarray, hours: np.ndarray, item: _Input, scale: float) -> None:
-    """Add ``scale`` × the volume of one input delivered by each grid time (a ramp, or a
-    step for a dose) to ``total``, touching the ramp only where it changes."""
-    first = int(np.searchsorted(hours, item.start_h - 1e-9))
-    last = int(np.searchsorted(hours, item.end_h - 1e-9))
-    if last > first:
-        span = item.end_h - item.start_h
-        total[first:last] += scale * item.ml * (hours[first:last] - item.start_h) / span
-    total[max(first, last) :] += scale * item.ml
-
-
-def _response_terms(item: _Input, share: float, k: float) -> list[tuple[float, float]]:
+def _response_terms(item: BodyInput, share: float, k: float) -> list[tuple[float, float]]:
     """The excess X after 1 mL of this input at t = 0, as Σ c·e^(−λt): pairs (c, λ) per hour.
 
     A crystalloid into the plasma adds (1 − share) that decays at k; into the interstitium
@@ -308,7 +230,7 @@ def _response_terms(item: _Input, share: float, k: float) -> list[tuple[float, f
 NEGLIGIBLE_DECAY = 40.0  # e^(−40) ≈ 4e−18: past this many time constants a term is zero
 
 
-def _excess_plasma(hours: np.ndarray, inputs: list[_Input], share: float, k_per_h: float):
+def _excess_plasma(hours: np.ndarray, inputs: list[BodyInput], share: float, k_per_h: float):
     """X(t) = plasma − share × ECF: fed by what enters plasma (or interstitium), decaying.
 
     Each input is solved in closed form and the solutions are added (the equations are
@@ -350,150 +272,12 @@ def _dilution(
     return pcv, solids
 
 
-MANNITOL_FLUID_NAME = "mannitol 20 %"
-
-
-def _profile_steps(row: diuretics.DiureticRow, step_h: float) -> np.ndarray:
-    """One dose's effect profile sampled on the grid's step (kidney.effect_profile)."""
-    count = math.ceil((row.duration_h or 0.0) / step_h) + 1
-    return np.asarray(
-        kidney.effect_profile(
-            onset_h=row.onset_h,
-            peak_h=row.peak_h or 0.0,
-            duration_h=row.duration_h or 0.0,
-            hours=[k * step_h for k in range(count)],
-        )  # fmt: skip
-    )
-
-
-def _diuretic_action(
-    plan: Plan, table: SpeciesTable, hours: np.ndarray, step_h: float
-) -> tuple[dict[str, np.ndarray], list[_Input], tuple[str, ...]]:
-    """Each class's intensity at each grid point, mannitol as the infusions it is given as,
-    and the doses whose effect is left out (no onset and duration on record).
-
-    A dose's exposure is its dose ÷ the reference dose (the low end of the range on record
-    for the route; an infusion's, an IV dose's) along its effect profile; an infusion is a
-    stream of IV doses, one per step. The exposures of a class add up, and the class acts
-    at :func:`kidney.intensity` of the sum (docs/model.md, "Diuretics")."""
-    sid, n = plan.request.species_id, len(hours)
-    impulses: dict[tuple, np.ndarray] = {}
-    rows_of: dict[tuple, diuretics.DiureticRow] = {}
-    mannitol: list[_Input] = []
-    left_out: list[str] = []
-    for dose in plan.diuretics:
-        if not diuretic_effect_modelled(table, sid, dose):
-            left_out.append(_dose_name(dose))
-            continue
-        if dose.drug_class == "osmotic":
-            mannitol.append(_mannitol_input(dose))
-            continue
-        route = "iv" if dose.infusion else dose.route
-        row = diuretics.timing(table, sid, dose.drug_id, route)
-        reference = min(r.dose_low for r in diuretics.rows_for(table, sid, dose.drug_id, route))
-        key = (dose.drug_class, row.onset_h, row.peak_h, row.duration_h)
-        rows_of[key] = row
-        impulse = impulses.setdefault(key, np.zeros(n))
-        first = int(np.searchsorted(hours, dose.start_h - 1e-9))
-        if dose.infusion:  # a stream of IV doses, one per step
-            last = int(np.searchsorted(hours, dose.end_h - 1e-9))
-            impulse[first:last] += dose.dose * step_h / reference
-        elif first < n:
-            impulse[first] += dose.dose / reference
-    exposure: dict[str, np.ndarray] = {}
-    for key, impulse in impulses.items():
-        acting = np.convolve(impulse, _profile_steps(rows_of[key], step_h))[:n]
-        exposure[key[0]] = exposure.get(key[0], np.zeros(n)) + acting
-    intensities = {name: kidney.intensity(e) for name, e in exposure.items()}
-    return intensities, mannitol, tuple(left_out)
-
-
-def _dose_name(dose: DiureticDose) -> str:
-    return f"{dose.name} {dose.dose:g} {dose.unit} at hour {dose.start_h:g}"
-
-
-def _mannitol_input(dose: DiureticDose) -> _Input:
-    """Mannitol as given: 20 % into the plasma over 20 min (kidney.MANNITOL_G_PER_L,
-    kidney.MANNITOL_MINUTES); its osmoles are effective in the ECF (it stays outside cells)."""
-    molar_mass = diuretics.drug(dose.drug_id).molar_mass_g_per_mol or math.nan
-    return _Input(
-        dose.start_h, dose.start_h + kidney.MANNITOL_MINUTES / 60.0,
-        dose.amount / kidney.MANNITOL_G_PER_L * 1000.0,  # the amount is in g
-        effective_mosm_per_l=kidney.MANNITOL_G_PER_L / molar_mass * 1000.0,
-        na_mmol_per_l=0.0, k_mmol_per_l=0.0, into_plasma=True, fluid_name=MANNITOL_FLUID_NAME,
-    )  # fmt: skip
-
-
-def _kidney_settings(
-    plan: Plan, table: SpeciesTable, *, na0: float, renal_output: str | None
-) -> tuple[kidney.KidneySettings | None, str | None, list[SpeciesValue]]:
-    """The patient's kidney for the course, why the volume-driven natriuresis is left out
-    (or None), and the species values used. No kidney in ins-and-outs mode: the urine is
-    measured and leaves as the plan's outflow."""
-    request, sid, w = plan.request, plan.request.species_id, plan.request.weight_kg
-    if request.ins_and_outs_period_h is not None:
-        return None, "ins and outs (urine is measured)", []
-    entered = request.urine_osmolality
-    if entered is None and request.usg is not None and table.value(sid, "usg_interpretable").value:
-        entered = maintenance.usg_to_osmolality(request.usg)
-    try:
-        band = kidney.urine_band(table, sid, renal_disease=request.renal_disease,
-                                 entered_mosm_per_kg=entered)  # fmt: skip
-    except InputError:
-        return None, "no concentrating ceiling for the species", []
-    names = ("adh_response_span_mosm_per_kg", "adh_volume_deficit_fraction",
-             "urine_k_min_mmol_per_kg_day", "urine_k_adaptation_h", "serum_na_mmol_per_l",
-             "urine_solute_mosm_per_kcal", "water_ml_per_kcal")  # fmt: skip
-    v = {name: table.value(sid, name) for name in names}
-    used = [*band.provenance, *v.values()]
-    elimination = table.get(sid, "crystalloid_elimination_half_life_min")
-    left_out = None
-    if elimination is None:
-        left_out = "no value for the species"
-    elif request.renal_disease and renal_output != "polyuric":
-        left_out = "renal disease"
-    natriuresis = 0.0
-    if left_out is None and elimination is not None:
-        used.append(elimination)
-        natriuresis = math.log(2) / (elimination.number / 60.0)
-        if request.anaesthesia:
-            natriuresis *= kidney.ANAESTHESIA_EXCRETION_FRACTION
-    normal = v["serum_na_mmol_per_l"]
-    low = normal.low if normal.low is not None else normal.number
-    high = normal.high if normal.high is not None else normal.number
-    energy = maintenance.maintenance(table, sid, w, method="energy",
-                                     body_temp_c=request.body_temp_c)  # fmt: skip
-    kcal = energy.ml_per_day / v["water_ml_per_kcal"].number
-    other = kidney.solute_load_mosm_per_day(kcal, v["urine_solute_mosm_per_kcal"].number)
-    maintenance_k = electrolytes.load_potassium_scale()[-1].kcl_mmol_per_l  # Côté 2020
-    cap = None
-    if request.renal_disease and renal_output == "oliguric":
-        threshold = table.value(sid, "urine_output_ml_per_kg_h")
-        used.append(threshold)
-        cap = (threshold.low if threshold.low is not None else threshold.number) * w
-    settings = kidney.KidneySettings(
-        floor_mosm_per_kg=band.floor_mosm_per_kg, ceiling_mosm_per_kg=band.ceiling_mosm_per_kg,
-        span_mosm_per_kg=v["adh_response_span_mosm_per_kg"].number,
-        volume_deficit_for_full=v["adh_volume_deficit_fraction"].number,
-        set_na_mmol_per_l=min(max(na0, low), high),
-        natriuresis_per_h=natriuresis, other_solute_mosm_per_h=other / 24.0,
-        k_start_mmol_per_h=maintenance_k * plan.maintenance.ml_per_h / 1000.0,
-        k_min_mmol_per_h=v["urine_k_min_mmol_per_kg_day"].number * w / 24.0,
-        k_time_constant_h=v["urine_k_adaptation_h"].number, urine_cap_ml_per_h=cap,
-    )  # fmt: skip
-    return settings, left_out, used
-
-
-def _increments(cumulative: np.ndarray) -> list[float]:
-    return np.diff(cumulative, prepend=0.0).tolist()
-
-
 def course(
     plan: Plan,
     *,
     step_minutes: float = 1.0,
     horizon_h: float | None = None,
-    extra_boluses: tuple[_Input, ...] = (),
+    extra_boluses: tuple[BodyInput, ...] = (),
     table: SpeciesTable | None = None,
     loss_type: str | None = None,
     renal_output: str | None = None,
@@ -511,7 +295,6 @@ def course(
     require_number(step_minutes, "step_minutes", positive=True, high=60, unit="min")
     loss_type = plan.request.loss_type if loss_type is None else loss_type
     renal_output = plan.request.renal_output if renal_output is None else renal_output
-    losses = electrolytes.loss_composition(loss_type)
     if renal_output is not None and renal_output not in RENAL_OUTPUTS:
         raise InputError(f"unknown renal output {renal_output!r}", field="renal_output",
                          value=renal_output, fix=", ".join(RENAL_OUTPUTS))  # fmt: skip
@@ -522,124 +305,52 @@ def course(
     request = plan.request
     sid, w = request.species_id, request.weight_kg
     values = {
-        "total_body_water_fraction": body_water_fraction(
-            table, sid, neonate=request.neonate, weight_kg=w
-        ),
-    } | {
         name: table.value(sid, name)
         for name in (
-            "ecf_fraction",
             "plasma_fraction",
-            "plasma_osmolality_mosm_per_kg",
             "crystalloid_distribution_half_life_min",
             "serum_na_mmol_per_l",
             "serum_k_mmol_per_l",
         )
     }
-    tbw0 = values["total_body_water_fraction"].number * w * 1000.0  # mL
-    ecf0 = values["ecf_fraction"].number * w * 1000.0
-    plasma0 = values["plasma_fraction"].number * w * 1000.0
-    if not 0 < plasma0 < ecf0 < tbw0:
-        raise InputError("species fractions must satisfy plasma < ECF < TBW", field="species")
-    osm0 = values["plasma_osmolality_mosm_per_kg"].number
-    share = plasma0 / ecf0
-    k_per_h = math.log(2) / (values["crystalloid_distribution_half_life_min"].number / 60.0)
-    # no Na or K measured: followed internally from the species' normal values
-    na0 = request.serum_na if request.serum_na is not None else values["serum_na_mmol_per_l"].number
-    k0 = request.serum_k if request.serum_k is not None else values["serum_k_mmol_per_l"].number
-    phi = osm0 / (2.0 * na0)
-
     step_h = step_minutes / 60.0
-    hours = np.arange(0.0, horizon + 1e-9, step_h)
-    intensities, mannitol_inputs, left_out_doses = _diuretic_action(plan, table, hours, step_h)
-    if request.ins_and_outs_period_h is not None and plan.diuretics:
-        # no kidney is modelled (the urine is measured), so no diuretic acts in the course
-        left_out_doses = tuple(_dose_name(d) for d in plan.diuretics)
-        intensities, mannitol_inputs = {}, []
-    inputs = _inputs(plan, list(extra_boluses) + mannitol_inputs)
-    given = np.zeros_like(hours)
-    by_fluid: dict[str, np.ndarray] = {}
-    water_in = np.zeros_like(hours)  # what has reached the body water (SC: as absorbed)
-    ecf_osm_in = np.zeros_like(hours)  # effective mOsm entering the ECF (K's go to the ICF)
-    na_in, k_in = np.zeros_like(hours), np.zeros_like(hours)
-    base_in = np.zeros_like(hours) if request.serum_hco3 is not None else None
-    for item in inputs:
-        if item.fluid_name not in by_fluid:
-            by_fluid[item.fluid_name] = np.zeros_like(hours)
-        _add_cumulative(by_fluid[item.fluid_name], hours, item, 1.0)
-        body = item.absorbed()
-        _add_cumulative(water_in, hours, body, 1.0)
-        _add_cumulative(na_in, hours, body, item.na_mmol_per_l / 1000.0)
-        _add_cumulative(k_in, hours, body, item.k_mmol_per_l / 1000.0)
-        if base_in is not None and item.base_mmol_per_l:
-            _add_cumulative(base_in, hours, body, item.base_mmol_per_l / 1000.0)
-        ecf_share = item.effective_mosm_per_l - 2.0 * phi * item.k_mmol_per_l
-        _add_cumulative(ecf_osm_in, hours, body, ecf_share / 1000.0)
-    for delivered in by_fluid.values():
-        given += delivered
-    mannitol_in = None
-    if mannitol_inputs:
-        mannitol_in = np.zeros_like(hours)
-        for item in mannitol_inputs:
-            _add_cumulative(mannitol_in, hours, item.absorbed(), item.effective_mosm_per_l / 1000.0)
-
-    settings, left_out, kidney_values = _kidney_settings(plan, table, na0=na0,
-                                                         renal_output=renal_output)  # fmt: skip
-    t = np.minimum(hours, end)  # outputs stop with the plan: its own intake then matches them
-    if settings is None:
-        free_water = np.zeros_like(hours)
-        lost = plan.consumed_ml(hours)  # measured outputs (or nothing known): isotonic
-        loss_na_k = loss_k = None
-    else:
-        insensible = table.get(sid, "insensible_loss_ml_per_kg_day")
-        faecal = table.get(sid, "faecal_water_ml_per_kg_day")
-        kidney_values += [v for v in (insensible, faecal) if v is not None]
-        per_day = (insensible.number if insensible else 0.0) * w
-        free_water = per_day * plan.maintenance.temperature_factor / 24.0 * t
-        faecal_per_day = faecal.number * w if faecal else 0.0
-        lost = (request.losses_ml_per_day + faecal_per_day) / 24.0 * t
-        loss_na_k = loss_k = None
-        if losses.na_mmol_per_l is not None and losses.k_mmol_per_l is not None:
-            loss_na_k = (losses.na_mmol_per_l + losses.k_mmol_per_l) / 1000.0
-            loss_k = losses.k_mmol_per_l / 1000.0
-    balance = kidney.follow_balance(
-        step_h=step_h, water_in_ml=_increments(water_in), na_in_mmol=_increments(na_in),
-        k_in_mmol=_increments(k_in), ecf_osm_in=_increments(ecf_osm_in),
-        free_water_out_ml=_increments(free_water), loss_out_ml=_increments(lost),
-        loss_na_k_mmol_per_ml=loss_na_k, loss_k_mmol_per_ml=loss_k, tbw0_ml=tbw0,
-        ecf0_ml=ecf0, ecf_ref_ml=ecf0 + plan.deficit_ml, osmolality0=osm0, na0=na0, k0=k0,
-        kidney=settings, basal_steps=int(np.searchsorted(hours, end - 1e-9)),
-        drugs=_drugs(intensities, mannitol_in, len(hours), step_h),
+    hours = body.grid(horizon, step_h)
+    followed = body.follow_body(
+        plan.regimen, table, hours=hours, step_h=step_h, extra_inputs=tuple(extra_boluses),
+        loss_type=loss_type, renal_output=renal_output,
     )  # fmt: skip
-    tbw = np.asarray(balance.tbw_ml)
-    ecf_osm, icf_osm = np.asarray(balance.ecf_osm), np.asarray(balance.icf_osm)
-    osmolality = (ecf_osm + icf_osm) * 1000.0 / tbw
-    ecf = tbw * ecf_osm / (ecf_osm + icf_osm)
+    plasma0 = values["plasma_fraction"].number * w * 1000.0
+    if not 0 < plasma0 < followed.ecf0_ml < followed.tbw0_ml:
+        raise InputError("species fractions must satisfy plasma < ECF < TBW", field="species")
+    share = plasma0 / followed.ecf0_ml
+    k_per_h = math.log(2) / (values["crystalloid_distribution_half_life_min"].number / 60.0)
+    balance, settings = followed.balance, followed.settings
+    tbw, ecf = followed.tbw_ml, followed.ecf_ml
+    given, lost = followed.given_ml, followed.lost_ml
+    kidney_values = list(followed.provenance)
     # what the kidney took left the plasma; the interstitium refills it at the distribution rate
     undistributed = _decaying_sum(balance.urine_ecf_ml, math.exp(-k_per_h * step_h))
     plasma = (
         share * ecf
-        + _excess_plasma(hours, inputs, share, k_per_h)
+        + _excess_plasma(hours, list(followed.inputs), share, k_per_h)
         - (1.0 - share) * (undistributed)
     )
-    urine = np.asarray(balance.urine_ml)
-    consumed = free_water + lost
+    urine = followed.urine_ml
+    consumed = followed.free_water_out_ml + lost
     # followed from the species' normal when no Na was entered: said, not drawn
-    na_path = np.asarray(balance.na_k_mmol) * 1000.0 / tbw
-    if balance.mannitol_mosm is not None:  # the ECF's osmoles that are not Na salts
-        na_path = na_path * (ecf_osm - np.asarray(balance.mannitol_mosm)) / ecf_osm
+    na_path = followed.na_path
     serum_na = na_path if request.serum_na is not None else None
     serum_k = None
     if request.serum_k is not None:
         k_pool = np.asarray(balance.k_mmol)
-        serum_k = k0 * k_pool / k_pool[0]
+        serum_k = request.serum_k * k_pool / k_pool[0]
     pcv, solids = _dilution(plasma, request.pcv_percent, request.total_solids_g_per_dl)
     serum_hco3 = None
-    if base_in is not None and request.serum_hco3 is not None:
+    if followed.base_in_mmol is not None and request.serum_hco3 is not None:
         serum_hco3, hco3_values = _follow_bicarbonate(
             table, plan, hco3_0=request.serum_hco3, ecf_ml=ecf, step_h=step_h,
-            base_in_mmol=base_in, lost_ml=lost,
-            losses=losses if settings is not None else None,
+            base_in_mmol=followed.base_in_mmol, lost_ml=lost,
+            losses=followed.losses if settings is not None else None,
             drug_hco3_mmol=balance.hco3_excreted_mmol, kidney_acts=settings is not None,
         )  # fmt: skip
         kidney_values += hco3_values
@@ -656,15 +367,16 @@ def course(
             na_normal=values["serum_na_mmol_per_l"], serum_k=serum_k,
             k_normal=values["serum_k_mmol_per_l"], step_h=step_h,
             renal_disease=request.renal_disease, plasma_ml=plasma,
+            na_checked_until_h=body.checked_until_h(plan.regimen, table),
         ) if settings is not None else ()) + _bicarbonate_findings(
             hours, serum_hco3, table.get(sid, "serum_hco3_mmol_per_l")
         )  # fmt: skip
-    provenance = tuple(dict.fromkeys([*values.values(), *kidney_values]))
+    provenance = tuple(dict.fromkeys([*kidney_values, *values.values()]))
     band = None if settings is None else (settings.floor_mosm_per_kg, settings.ceiling_mosm_per_kg)
     return Course(
         hours=hours,
         given_ml=given,
-        given_by_fluid_ml=by_fluid,
+        given_by_fluid_ml=followed.given_by_fluid_ml,
         consumed_ml=consumed,
         urine_ml=urine,
         urine_osm_mosm_per_kg=None
@@ -674,7 +386,7 @@ def course(
         plasma_ml=plasma,
         interstitial_ml=ecf - plasma,
         intracellular_ml=tbw - ecf,
-        osmolality_mosm_per_kg=osmolality,
+        osmolality_mosm_per_kg=followed.osmolality_mosm_per_kg,
         serum_na=serum_na,
         serum_k=serum_k,
         pcv_percent=pcv,
@@ -684,11 +396,11 @@ def course(
         weight_kg=w + net / 1000.0,
         remaining_deficit_ml=np.maximum(plan.deficit_ml - net, 0.0),
         provenance=provenance,
-        excess_excretion_left_out=left_out,
+        excess_excretion_left_out=followed.excess_excretion_left_out,
         outputs_end_h=end,
         na_excreted_mmol=None if settings is None else np.asarray(balance.na_excreted_mmol),
         k_excreted_mmol=None if settings is None else np.asarray(balance.k_excreted_mmol),
-        diuretics_not_modelled=left_out_doses,
+        diuretics_not_modelled=followed.diuretics_not_modelled,
         serum_hco3=serum_hco3,
     )
 
@@ -705,13 +417,15 @@ def _predicted_findings(
     step_h: float,
     renal_disease: bool,
     plasma_ml: np.ndarray,
+    na_checked_until_h: float,
 ) -> tuple[Finding, ...]:
     """Soft findings on what this course predicts (only where the kidney is modelled):
 
-    * serum Na changing faster than the correction limit over some hour while it is, or
-      goes, outside the species' reference interval (the plan's rule, Adrogué & Madias
-      2000, which the plan checks without the kidney or the diuretics); a patient already
-      outside the interval is no exemption;
+    * serum Na changing faster than the correction limit over some hour that starts after
+      ``na_checked_until_h`` (the plan's own check follows this same body up to there; past
+      it, the course runs on for observations) while it is, or goes, outside the species'
+      reference interval (Adrogué & Madias 2000); a patient already outside the interval is
+      no exemption;
     * serum K (when entered) falling below, or climbing above, the species' interval
       (loop and thiazide diuretics, K-free fluids; oliguria retaining K).
     """
@@ -719,8 +433,10 @@ def _predicted_findings(
     low, high = _interval(na_normal)
     per_hour = max(int(round(1.0 / step_h)), 1)
     fastest = 0.0
-    if len(na_path) > per_hour:
-        fastest = float(np.max(np.abs(na_path[per_hour:] - na_path[:-per_hour])))
+    later = hours[:-per_hour] > na_checked_until_h + 1e-9 if len(na_path) > per_hour else []
+    if np.any(later):
+        changes = na_path[per_hour:] - na_path[:-per_hour]
+        fastest = float(np.max(np.abs(changes[later])))
     peak_i = int(np.argmax(np.maximum(na_path - high, low - na_path)))
     peak = float(na_path[peak_i])
     if not low <= peak <= high and fastest > na_limit:
@@ -740,8 +456,8 @@ def _predicted_findings(
                     f"{format_number(float(hours[peak_i]), decimals=1)}, outside the "
                     f"{format_quantity(low, 'mmol/L')}–{format_quantity(high, 'mmol/L')} "
                     f"interval, changing up to {format_quantity(fastest, 'mmol/L')} in an "
-                    f"hour (limit {format_quantity(na_limit, 'mmol/L/h')}){start}: {why}. The "
-                    f"plan's own sodium check leaves the kidney and any diuretic out.{caveat}",
+                    f"hour after the plan ends (limit {format_quantity(na_limit, 'mmol/L/h')})"
+                    f"{start}: {why}.{caveat}",
             action="Measure serum Na within a few hours of starting and re-plan with the "
                    "measured value before changing the fluid.",
             source_id=na_normal.source_id,
@@ -846,18 +562,6 @@ def _beyond_the_model(hours: np.ndarray, *series: np.ndarray | None) -> tuple[Fi
     ),)  # fmt: skip
 
 
-def _drugs(
-    intensities: dict[str, np.ndarray], mannitol_in: np.ndarray | None, steps: int, step_h: float
-) -> kidney.DiureticAction | None:
-    """The diuretics' action for the kidney's step loop, or None when none acts."""
-    if not intensities and mannitol_in is None:
-        return None
-    return kidney.DiureticAction.from_intensities(
-        intensities, steps=steps,
-        step_h=step_h, mannitol_in_mosm=None if mannitol_in is None else _increments(mannitol_in),
-    )  # fmt: skip
-
-
 # Lactate leaves the blood with a half-life of 14.7 min in healthy people (lactate
 # elimination in man, 1979, "lactate_elimination1979"; 18.8 min with cirrhosis); the same
 # half-life is used for acetate and gluconate (memory: acetate is recalled to be used
@@ -916,7 +620,7 @@ def _follow_bicarbonate(
     volume = ecf_ml + outside
     # what reaches the body from the precursors each step: they are metabolised first-order
     kept = math.exp(-math.log(2) * step_h * 60.0 / BASE_PRECURSOR_HALF_LIFE_MIN)
-    precursors = _decaying_sum(_increments(base_in_mmol), kept)  # left after each step's dose
+    precursors = _decaying_sum(body.increments(base_in_mmol), kept)  # left after each step's dose
     base = np.concatenate(([0.0], precursors[:-1])) * (1.0 - kept)
     lost = np.diff(lost_ml, prepend=0.0)
     own = losses is None or losses.hco3_mmol_per_l is None  # a loss at the patient's own HCO3

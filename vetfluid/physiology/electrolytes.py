@@ -9,8 +9,8 @@
   ΔNa = V·(infusate Na + infusate K − serum Na) / (TBW + V), TBW and V in litres;
   the familiar per-litre figure is V = 1 L. Rates come from the general form, never
   by scaling the one-litre change: for a 35 g bird TBW is 0.02 L, and one litre would
-  be fifty times its body water. The plan's own Na path (:func:`serum_na_path`) is the
-  Edelman balance (1958), Na = (Na + K)ₑ / TBW, with every output at the starting Na.
+  be fifty times its body water. The plan's own Na path is the course's
+  (:func:`vetfluid.planning.body.follow_body`: the Edelman balance, 1958, with the kidney).
 * Potassium for other species: the scale was written for dogs and cats; for any
   other species serum K is banded by how far it lies below that species' own
   reference low (:func:`potassium_band_for_species`; derived here, no source).
@@ -28,6 +28,7 @@ from vetfluid.common.checks import require_number, require_patient_weight
 from vetfluid.common.csvfiles import parse_number, read_rows
 from vetfluid.common.errors import InputError, SpeciesDataError
 from vetfluid.common.formatting import format_quantity as q
+from vetfluid.common.formatting import hour_text
 from vetfluid.common.paths import resource_dir
 
 
@@ -184,25 +185,6 @@ def max_rate_for_sodium(
     return max_change_per_h * tbw_l / (gap - max_change_per_h) * 1000.0
 
 
-def serum_na_path(
-    *,
-    serum_na: float,
-    tbw_ml: float,
-    given_ml: np.ndarray,
-    na_k_given_mmol: np.ndarray,
-    lost_ml: np.ndarray,
-) -> np.ndarray:
-    """Serum Na at each moment from the exchangeable Na + K balance (Edelman IS et al.,
-    J Clin Invest 1958; stepped as Adrogué & Madias 2000): Na = (Na₀·TBW₀ + Na+K given −
-    Na₀·lost) / (TBW₀ + given − lost), the losses leaving at the starting Na. The course
-    (:func:`vetfluid.physiology.kidney.follow_balance`) adds the kidney and solute-free
-    insensible water, which concentrate the body water: this balance states a fall in Na
-    somewhat larger, never smaller (docs/model.md)."""
-    exchangeable = serum_na * tbw_ml / 1000.0 + na_k_given_mmol - serum_na * lost_ml / 1000.0
-    water = np.maximum(tbw_ml + given_ml - lost_ml, 1e-9)
-    return exchangeable * 1000.0 / water
-
-
 def largest_hourly_change(
     hours: np.ndarray,
     serum_na: np.ndarray,
@@ -258,7 +240,7 @@ class SodiumSummary:
 
 @dataclass(frozen=True, kw_only=True)
 class SodiumCourse:
-    """Serum Na through a plan (:func:`serum_na_path`), read the ways the checks need it:
+    """Serum Na through a plan (``vetfluid.planning.body``), read the ways the checks need it:
     the largest change in any hour of the boluses and, apart, of the replacement and
     maintenance after them (a bolus must never hide the bag), and where Na ends up."""
 
@@ -301,7 +283,7 @@ def sodium_text(na: SodiumSummary) -> str:
     sign = "+" if na.peak_change_per_h > 0 else ""
     return (
         f"largest change in any hour {sign}{q(na.peak_change_per_h, 'mmol/L')} "
-        f"(from hour {na.peak_hour:g}); ΔNa {q(na.delta_na_per_l, 'mmol/L')} per litre; "
+        f"(from {hour_text(na.peak_hour)}); ΔNa {q(na.delta_na_per_l, 'mmol/L')} per litre; "
         f"fastest rate within {q(na.max_change_per_h, 'mmol/L/h')}: {fastest}"
     )
 
@@ -320,7 +302,7 @@ def sodium_summary(
 ) -> SodiumSummary:
     """ΔNa per litre (for comparison), the change in the first hour at ``rate_ml_per_h``
     and the fastest rate within the limit, both by the general form; the plan's peak
-    hourly change comes from :func:`serum_na_path` over every phase."""
+    hourly change comes from the plan's body path (``vetfluid.planning.body``)."""
     per_volume = {
         "serum_na": serum_na, "infusate_na": infusate_na, "infusate_k": infusate_k,
         "tbw_l": tbw_l,

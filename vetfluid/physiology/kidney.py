@@ -318,6 +318,23 @@ def solute_load_mosm_per_day(kcal_per_day: float, solute_mosm_per_kcal: float) -
                                                                solute_mosm_per_kcal)  # fmt: skip
 
 
+def rest_position(
+    *, solute_mosm_per_h: float, urine_ml_per_h: float, floor: float, ceiling: float
+) -> float:
+    """Where ADH stands in a patient in balance, as a position from the diluting floor (0) to
+    the concentrating ceiling (1) on the log scale the model moves along: the resting
+    solute carried in the water that maintenance leaves for urine, U₀ = solute ÷ water,
+    held inside the band (no urine water left: the ceiling). Our modelling choice: the
+    patient starts in balance, so the first hours show what the fluids do, not the model
+    settling (docs/model.md, "The urine asked for")."""
+    if ceiling <= floor:
+        return 0.5
+    if urine_ml_per_h <= 0.0:
+        return 1.0
+    osm = min(max(solute_mosm_per_h / urine_ml_per_h * 1000.0, floor), ceiling)
+    return math.log(osm / floor) / math.log(ceiling / floor)
+
+
 # ---- the step loop -------------------------------------------------------------------------
 @dataclass(frozen=True, kw_only=True)
 class KidneySettings:
@@ -334,6 +351,12 @@ class KidneySettings:
     k_min_mmol_per_h: float
     k_time_constant_h: float
     urine_cap_ml_per_h: float | None = None  # oliguric kidney: at most this much urine
+    # where ADH stands at the set point, 0 (the floor) to 1 (the ceiling): the urine of a
+    # patient in balance on its maintenance (:func:`rest_position`)
+    rest_position: float = 0.5
+    # the lowest ADH goes: 0 lets the urine dilute to the floor; the rest position holds ADH
+    # where it is (non-osmotic release in a sick patient: the plan's cautious path)
+    lowest_position: float = 0.0
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -442,7 +465,7 @@ def follow_balance(
         k_rate = kidney.k_start_mmol_per_h
         k_keep = math.exp(-step_h / kidney.k_time_constant_h)
         take = -math.expm1(-kidney.natriuresis_per_h * step_h)
-        osm_now = floor * math.exp(0.5 * log_ratio)
+        osm_now = floor * math.exp(kidney.rest_position * log_ratio)
     else:
         osm_now = math.nan
     last_change = max(
@@ -503,12 +526,13 @@ def follow_balance(
             pool_after = pool - e_na - e_k
             deficit = -above / ecf_ref_ml if above < 0.0 else 0.0
             d0 = 2.0 * (pool_after / w * 1000.0 - kidney.set_na_mmol_per_l)
-            d0 += span * deficit / kidney.volume_deficit_for_full
+            d0 += span * (deficit / kidney.volume_deficit_for_full + kidney.rest_position - 0.5)
             if mannitol:
                 d0 += (mannitol - e_m) / w * 1000.0  # an effective osmole: ADH sees it
             # tonicity rises by 2·Na/W per mL of water taken (mOsm/kg per mL)
             x = _solve_urine_x(d0, 2.0 * pool_after * 1000.0 / (w * w),
                                solute * 1000.0 / low, span, ratio)  # fmt: skip
+            x = max(x, kidney.lowest_position)
             osm_now = low * math.exp(ratio * x)
             volume = solute / osm_now * 1000.0
             cap = kidney.urine_cap_ml_per_h

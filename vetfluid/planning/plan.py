@@ -16,7 +16,6 @@ from datetime import date, datetime, time, timedelta
 
 import numpy as np
 
-from vetfluid.common.arrays import distinct_sorted
 from vetfluid.common.checks import require_number, require_patient_weight
 from vetfluid.common.errors import InputError
 from vetfluid.common.findings import Finding, worst
@@ -24,7 +23,7 @@ from vetfluid.common.formatting import format_quantity
 from vetfluid.common.units import preferred_weight_unit, weight_text
 from vetfluid.physiology import delivery, electrolytes, hydration, maintenance, resuscitation
 from vetfluid.physiology.ins_and_outs import InsAndOutsRow, ins_and_outs
-from vetfluid.planning import safety, schedule
+from vetfluid.planning import body, safety, schedule
 from vetfluid.planning.ledger import Ledger
 from vetfluid.planning.schedule import DiureticDose, Phase, ScheduleEntry
 from vetfluid.tables import diuretics, fluid_roles, fluids
@@ -388,6 +387,16 @@ class Plan:
         """Volume that has left the patient by each hour, as the plan assumes it
         (:func:`consumed_ml`)."""
         return consumed_ml(self.outflow, self.end_h, hours)
+
+    @property
+    def regimen(self) -> body.Regimen:
+        """What the body is given and loses under this plan (:mod:`vetfluid.planning.body`)."""
+        return body.Regimen(
+            request=self.request, phases=self.phases, bag=self.bag,
+            bolus_fluid=self.bolus_fluid, diuretics=self.diuretics,
+            maintenance=self.maintenance, deficit_ml=self.deficit_ml,
+            consumed_ml=self.consumed_ml,
+        )  # fmt: skip
 
     @property
     def total_ml_first_24h(self) -> float:
@@ -905,22 +914,32 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     normal = ledger.value("serum_na_mmol_per_l")
     # no Na measured: the plan is followed from the species' normal Na
     start_na = request.serum_na if request.serum_na is not None else normal.number
-    hours, path = _sodium_path(
-        phases, serum_na=start_na, tbw_ml=tbw.number * w * 1000.0,
-        bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
-        bolus_na_k=_na_k(fluids.fluid(request.resuscitation_fluid_id)),
-        consumed=lambda hours: consumed_ml(outflow, end_h, hours),
-    )  # fmt: skip
-    na_course = electrolytes.sodium_course(
-        hours, path, start_na=start_na, measured=request.serum_na is not None,
-        boluses_end_h=start_h,
-    )  # fmt: skip
+    doses = _diuretic_doses(request)
+    na_course, held = (
+        _sodium_course(
+            request,
+            table,
+            phases=phases,
+            bag=bag,
+            maint=maint,
+            deficit_ml=deficit,
+            doses=doses,
+            consumed=lambda hours: consumed_ml(outflow, end_h, hours),
+            ledger=ledger,
+            start_na=start_na,
+            boluses_end_h=start_h,
+            adh_held=adh_held,
+        )  # fmt: skip
+        for adh_held in (False, True)
+    )
     fastest = electrolytes.max_rate_for_sodium(
         serum_na=start_na, infusate_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
         tbw_l=tbw.number * w, max_change_per_h=max_change,
     )  # fmt: skip
     safety.check_sodium(
-        ledger, na_course, normal=normal, max_change_per_h=max_change,
+        ledger, na_course, held=held, normal=normal, max_change_per_h=max_change,
+        bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l, bag_name=bag.name,
+        diuretic_names=tuple(dict.fromkeys(d.name for d in doses)),
         carrier_phase=_phase_at(phases, na_course.carrier_hour).kind,
         fastest_carrier_ml_per_h=fastest,
     )  # fmt: skip
@@ -970,7 +989,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     tail = fluid_phases[-1]
     safety.check_isotonic_maintenance(
         ledger, fluid_name=base.name, fluid_na=bag_comp.na_mmol_per_l,
-        running_h=tail.end_h - main.start_h, maintenance_h=tail.hours,
+        running_h=tail.end_h - main.start_h, maintenance_h=tail.hours, tonicity=tone,
     )  # fmt: skip
     if deficit > 0 and res is not None:
         ledger.add(
@@ -979,8 +998,16 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             "Resuscitation volume is not subtracted from the deficit.",
             "Reassess hydration after resuscitation and re-plan.",
         )
-    doses = _diuretic_doses(request)
     safety.check_diuretics(ledger, doses)
+    late = [d for d in doses if d.start_h >= end_h - 1e-9]
+    if late:  # the body is followed with the plan's intake and outputs only while it runs
+        ledger.add(
+            "soft", "DIURETIC_AFTER_PLAN_END",
+            f"{late[0].name} at hour {late[0].start_h:g} is given after the plan's fluids end "
+            f"(hour {end_h:g}): neither the plan's checks nor the course predict its urine.",
+            "Extend the plan to cover the diuretic, or plan the diuretic on its own and measure "
+            "urine output, weight and Na.",
+        )  # fmt: skip
     safety.note_unverified(ledger)
 
     return Plan(
@@ -1031,64 +1058,58 @@ def _diuretic_doses(request: PlanRequest) -> tuple[DiureticDose, ...]:
     return tuple(sorted(doses, key=lambda d: d.start_h))
 
 
-def _na_k(fluid: fluids.Fluid) -> float:
-    comp = fluids.composition(fluid)
-    return comp.na_mmol_per_l + comp.k_mmol_per_l
-
-
 def _phase_at(phases: tuple[Phase, ...], hour: float) -> Phase:
     """The phase running at an hour (the last one after the plan ends)."""
     return next((p for p in phases if p.start_h <= hour < p.end_h), phases[-1])
 
 
-SODIUM_GRID_H = 0.25  # the Na path is followed every quarter hour, and at every turning point
-
-
-def _sodium_path(
-    phases: tuple[Phase, ...],
+def _sodium_course(
+    request: PlanRequest,
+    table: SpeciesTable,
     *,
-    serum_na: float,
-    tbw_ml: float,
-    bag_na_k: float,
-    bolus_na_k: float,
+    phases: tuple[Phase, ...],
+    bag: fluids.Fluid,
+    maint: maintenance.Maintenance,
+    deficit_ml: float,
+    doses: tuple[DiureticDose, ...],
     consumed,  # noqa: ANN001 — hours array in, mL array out
-) -> tuple[np.ndarray, np.ndarray]:
-    """Serum Na through the plan on a grid that holds each moment and the hour after it:
-    the exchangeable Na + K balance of every phase (boluses as their own fluid, divided
-    doses as they are absorbed) against what leaves (:func:`electrolytes.serum_na_path`,
-    the course's own balance)."""
-    end = max(p.end_h for p in phases)
-    moments = {p.start_h for p in phases} | {h for p in phases for h in p.dose_hours()}
-    # divided doses are still being absorbed for a while after the last one
-    tail = delivery.SC_ABSORPTION_H if any(p.mode == "intermittent" for p in phases) else 0.0
-    starts = distinct_sorted(
-        np.concatenate((np.arange(0.0, end + tail + 1e-9, SODIUM_GRID_H), sorted(moments)))
-    )
-    hours = distinct_sorted(np.concatenate((starts, starts + 1.0)))
-    # what each phase has put into the plasma by each hour (Phase.absorbed_by): a line's
-    # rate from its start to its end, a divided dose evenly over the absorption time; read
-    # from running sums over those corners (n log n, never phases × hours)
-    knots, slopes, na_k_per_ml = [], [], []
-    for phase in phases:
-        per_ml = (bolus_na_k if phase.kind == "resuscitation" else bag_na_k) / 1000.0
-        if phase.mode == "continuous":
-            rate = phase.rate_ml_per_h or 0.0
-            corners = [(phase.start_h, rate), (phase.end_h, -rate)]
-        else:
-            rate = (phase.dose_ml or 0.0) / delivery.SC_ABSORPTION_H
-            corners = [(h, rate) for h in phase.dose_hours()]
-            corners += [(h + delivery.SC_ABSORPTION_H, -rate) for h in phase.dose_hours()]
-        knots += [h for h, _ in corners]
-        slopes += [w for _, w in corners]
-        na_k_per_ml += [per_ml] * len(corners)
-    knots_h, slope_ml = np.asarray(knots, dtype=float), np.asarray(slopes, dtype=float)
-    given = safety.ramps_total(knots_h, slope_ml, hours)
-    na_k = safety.ramps_total(knots_h, slope_ml * np.asarray(na_k_per_ml, dtype=float), hours)
-    path = electrolytes.serum_na_path(
-        serum_na=serum_na, tbw_ml=tbw_ml, given_ml=given, na_k_given_mmol=na_k,
-        lost_ml=consumed(hours),
+    ledger: Ledger,
+    start_na: float,
+    boluses_end_h: float,
+    adh_held: bool,
+) -> electrolytes.SodiumCourse:
+    """Serum Na through the plan as the course follows it (:func:`body.follow_body`: the
+    kidney, insensible water, losses by type and the diuretics), on the course's grid, until
+    the last dose under the skin is absorbed and an hour after that, so every hour the plan
+    moves Na in is seen whole; ``adh_held``: with the urine kept from diluting."""
+    regimen = body.Regimen(
+        request=request, phases=phases, bag=bag,
+        bolus_fluid=fluids.fluid(request.resuscitation_fluid_id), diuretics=doses,
+        maintenance=maint, deficit_ml=deficit_ml, consumed_ml=consumed,
     )  # fmt: skip
-    return hours, path
+    step_h = body.STEP_MINUTES / 60.0
+    followed = body.follow_body(
+        regimen, table, hours=body.grid(body.checked_until_h(regimen, table) + 1.0, step_h),
+        step_h=step_h,
+        loss_type=request.loss_type, renal_output=request.renal_output, adh_held=adh_held,
+    )  # fmt: skip
+    ledger.use(*followed.provenance)
+    hours, path = followed.hours, followed.na_path
+    beyond = followed.beyond_h
+    if beyond is not None:  # Na is read only while the body still holds water
+        keep = max(int(np.searchsorted(hours, beyond - 1e-9)), 1)
+        hours, path = hours[:keep], path[:keep]
+        if not adh_held:
+            ledger.add(
+                "hard", "PLAN_BEYOND_THE_BODY",
+                f"By hour {beyond:g} this plan takes more water or salt out of the patient than "
+                "its body holds (losses, outputs or diuretics far above what is given).",
+                "Check the losses, outputs and doses entered and their units.",
+            )  # fmt: skip
+    return electrolytes.sodium_course(
+        hours, path, start_na=start_na, measured=request.serum_na is not None,
+        boluses_end_h=boluses_end_h,
+    )  # fmt: skip
 
 
 def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:

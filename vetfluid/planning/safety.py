@@ -13,6 +13,7 @@ import numpy as np
 
 from vetfluid.common.arrays import distinct_sorted
 from vetfluid.common.formatting import format_quantity as q
+from vetfluid.common.formatting import hour_text
 from vetfluid.physiology import delivery
 from vetfluid.physiology.delivery import DIVIDED_INTERVALS_H
 from vetfluid.physiology.electrolytes import PotassiumSummary, SodiumCourse, SpeciesPotassiumBand
@@ -849,13 +850,19 @@ def check_sodium(
     ledger: Ledger,
     course: SodiumCourse,
     *,
+    held: SodiumCourse | None = None,
+    bag_na_k: float | None = None,
+    bag_name: str = "",
+    diuretic_names: tuple[str, ...] = (),
     normal: SpeciesValue,
     max_change_per_h: float,
     carrier_phase: str,
     fastest_carrier_ml_per_h: float | None,
 ) -> None:
-    """Serum Na through the plan (Adrogué & Madias 2000, general form, every phase), held
-    to the correction limit by four rules, each its own finding so none hides another:
+    """Serum Na through the plan (``course``: the body as the Course tab follows it, kidney
+    and diuretics included; ``held``: the same with ADH held, the urine never diluting below
+    its resting osmolality), held to the correction limit (Adrogué & Madias 2000) by six
+    rules, each its own finding so none hides another:
 
     ========================  ==============================================  ==========
     finding                   when                                            severity
@@ -864,12 +871,21 @@ def check_sodium(
                               hour (from a normal Na when none was measured)  at 2× the
                               and Na leaves the species' reference interval   shipped
                               (within it a change is not a correction)        limit
+    SODIUM_FALL_IF_ADH_HELD   not that, but with ADH held (pain, nausea,      soft; hard
+                              hypovolaemia, drugs) Na would fall > limit in   likewise
+                              an hour and leave the interval
     SODIUM_BOLUS_CHANGE       a resuscitation bolus moves a measured Na >     soft
                               limit in an hour and Na leaves the interval
                               (shock first; reason written)
     SODIUM_AWAY_FROM_NORMAL   a measured Na outside the species' range moves  soft
-                              further out over the plan
+                              further out over the plan (either path)
     SODIUM_LIMIT_RAISED       the plan's limit is above the shipped one       soft
+    LOW_SODIUM_WATER_DIURESIS a measured Na below the interval: once the      info
+                              cause resolves a water diuresis can raise Na
+                              faster than the plan shows
+    FREE_WATER_WITHOUT_HIGH_  the bag is free water (Na + K under a quarter   soft
+    SODIUM                    of the patient's Na) and no Na above the
+                              interval was measured
     ========================  ==============================================  ==========
     """
     sourced = limit("sodium_max_correction_mmol_per_l_h")
@@ -895,11 +911,15 @@ def check_sodium(
             if fastest_carrier_ml_per_h is not None
             else "slow the rate"
         )
+        if diuretic_names and course.carrier_change_per_h > 0:
+            # the rise comes from the urine a diuretic makes, not from the bag
+            fix = (f"give back the urine {' and '.join(diuretic_names)} makes (measure it and "
+                   "plan by ins and outs), or lower the dose")  # fmt: skip
         ledger.add(
             "hard" if hard else "soft",
             "SODIUM_CHANGE_TOO_FAST",
             f"{subject} {_direction(course.carrier_change_per_h)} {q(carrier, 'mmol/L')} in "
-            f"the hour from hour {course.carrier_hour:g} ({carrier_phase}), faster than "
+            f"the hour from {hour_text(course.carrier_hour)} ({carrier_phase}), faster than "
             + (
                 q(max_change_per_h, "mmol/L/h")
                 if carrier > max_change_per_h
@@ -907,10 +927,33 @@ def check_sodium(
             )
             + (f" (at {q(hard_at, 'mmol/L/h')} or more the plan is blocked)." if hard else "."),
             ("Measure serum Na and enter it; " if not course.measured else "")
-            + f"{fix[0].upper() if course.measured else fix[0]}{fix[1:]}, or choose a fluid "
-            "closer to the patient's Na; recheck Na every 4–6 h.",
+            + f"{fix[0].upper() if course.measured else fix[0]}{fix[1:]}"
+            + (
+                ""
+                if diuretic_names and course.carrier_change_per_h > 0
+                else ", or choose a fluid closer to the patient's Na"
+            )
+            + "; recheck Na every 4–6 h.",
             sourced.source_id,
         )
+    fell = held is not None and held.carrier_change_per_h < 0 and held.lowest < low - 1e-9
+    fall = abs(held.carrier_change_per_h) if held is not None else 0.0
+    too_fast = leaves_range and (carrier > max_change_per_h * (1 + 1e-9) or carrier >= hard_at)
+    if fell and not too_fast and fall > max_change_per_h * (1 + 1e-9):
+        ledger.add(
+            "hard" if fall >= hard_at else "soft",
+            "SODIUM_FALL_IF_ADH_HELD",
+            f"{subject} change at most {q(carrier, 'mmol/L')} in an hour with a kidney free to "
+            f"dilute its urine; if ADH stays up (pain, nausea, hypovolaemia, drugs: common in "
+            f"sick animals) the water is kept and Na would fall {q(fall, 'mmol/L')} in the hour "
+            f"from {hour_text(held.carrier_hour)}, faster than {q(max_change_per_h, 'mmol/L/h')}"
+            + (f" (at {q(hard_at, 'mmol/L/h')} or more the plan is blocked)." if fall >= hard_at
+               else "."),
+            ("Measure serum Na and enter it; " if not course.measured else "Recheck Na within "
+             "4–6 h; ") + "give free water (5 % dextrose, 0.45 % NaCl) only for a measured "
+            "free-water deficit, or choose a fluid closer to the patient's Na.",
+            sourced.source_id,
+        )  # fmt: skip
     bolus = abs(course.bolus_change_per_h)
     # an unmeasured Na is not judged during shock boluses: perfusion first, Na measured after
     if course.measured and leaves_range and bolus > max_change_per_h * (1 + 1e-9):
@@ -918,7 +961,7 @@ def check_sodium(
             "soft",
             "SODIUM_BOLUS_CHANGE",
             f"{subject} {_direction(course.bolus_change_per_h)} {q(bolus, 'mmol/L')} in the "
-            f"hour from hour {course.bolus_hour:g}, while the resuscitation boluses run: "
+            f"hour from {hour_text(course.bolus_hour)}, while the resuscitation boluses run: "
             f"faster than {q(max_change_per_h, 'mmol/L/h')}.",
             "Give the boluses only while perfusion needs them, reassess after each and "
             "measure Na before the fluids that follow.",
@@ -926,10 +969,12 @@ def check_sodium(
         )
     below, above = course.start_na < low, course.start_na > high
     # how far the plan takes Na the wrong way: by the boluses' end or by the plan's end
-    changes = (course.boluses_change, course.plan_change)
+    paths = (course,) if held is None else (course, held)
+    changes = [change for c in paths for change in (c.boluses_change, c.plan_change)]
     moved = min(changes) if below else max(changes)
     if course.measured and ((below and moved < -0.5) or (above and moved > 0.5)):
-        when = "while the boluses run" if moved == course.boluses_change else "by its end"
+        when = ("while the boluses run" if any(moved == c.boluses_change for c in paths)
+                else "by its end")  # fmt: skip
         ledger.add(
             "soft",
             "SODIUM_AWAY_FROM_NORMAL",
@@ -939,6 +984,44 @@ def check_sodium(
             "Choose a fluid whose Na + K is "
             + ("above" if below else "below")
             + " the patient's Na, and recheck Na every 4–6 h.",
+            sourced.source_id,
+        )
+    # free water is for a measured free-water deficit (Adrogué & Madias 2000, hypernatraemia);
+    # "under a quarter of the patient's Na" marks it (our threshold, no source: 5 % dextrose
+    # has none, 0.45 % NaCl half)
+    if bag_na_k is not None and bag_na_k < 0.25 * course.start_na and not above:
+        fall = (
+            ""
+            if held is None
+            else (
+                f"; with ADH held (common in sick animals) Na would move "
+                f"{q(held.plan_change, 'mmol/L')} by the plan's end"
+            )
+        )
+        ledger.add(
+            "soft",
+            "FREE_WATER_WITHOUT_HIGH_SODIUM",
+            f"{bag_name or 'The fluid'} is free water (Na + K {q(bag_na_k, 'mmol/L')}), for a "
+            "measured free-water deficit; "
+            + ("no serum Na was entered" if not course.measured else
+               f"serum Na {q(course.start_na, 'mmol/L')} is not above the interval")
+            + f"{fall}.",
+            ("Measure serum Na; unless it is high, " if not course.measured else "")
+            + "choose a maintenance fluid with Na and K, or give free water only with a "
+            "replacement fluid alongside.",
+            "adrogue2000",
+        )  # fmt: skip
+    if course.measured and below:
+        ledger.add(
+            "info",
+            "LOW_SODIUM_WATER_DIURESIS",
+            f"Serum Na {q(course.start_na, 'mmol/L')} is below this species' "
+            f"{q(low, 'mmol/L')}–{q(high, 'mmol/L')}: the plan follows it with the patient's "
+            "ADH held where it is now. Once the cause resolves (volume restored, nausea or pain "
+            "controlled) the kidney can pass dilute urine fast and Na can rise much faster than "
+            "the plan shows.",
+            "Measure Na every 2–4 h in the first day and measure urine output; a sudden "
+            "rise in dilute urine means Na is about to climb.",
             sourced.source_id,
         )
     if max_change_per_h > sourced.value * (1 + 1e-9):
@@ -1229,21 +1312,32 @@ def note_neonate(ledger: Ledger, *, neonatal_water: SpeciesValue | None) -> None
 
 
 def check_isotonic_maintenance(
-    ledger: Ledger, *, fluid_name: str, fluid_na: float, running_h: float, maintenance_h: float
+    ledger: Ledger,
+    *,
+    fluid_name: str,
+    fluid_na: float,
+    running_h: float,
+    maintenance_h: float,
+    tonicity: fluids.Tonicity | None = None,
 ) -> None:
     """A sodium-rich replacement fluid kept on for long maintenance (Pardo 2024).
 
     A replacement fluid is recognised by its sodium (130–154 mmol/L), not by its
-    tonicity class, which shifts with each species' plasma osmolality.
+    tonicity class, which shifts with each species' plasma osmolality. Its tonicity is
+    worded only by the one rule (:func:`fluids.tonicity_words`, as in the Totals) and
+    only when the plan's classification is given.
     """
     replacement = fluid_na >= limit("replacement_fluid_min_na_mmol_per_l").value
     if replacement and running_h >= limit("isotonic_maintenance_hours").value:
+        tone = (
+            f", {fluids.tonicity_words(tonicity)} against this patient's plasma"
+            if tonicity is not None
+            else ""
+        )
         ledger.add(
             "info",
             "ISOTONIC_FOR_MAINTENANCE",
-            # "replacement fluid", not "isotonic": against this species' plasma the Totals
-            # may call the same fluid hypotonic in the body
-            f"{fluid_name} is a replacement fluid, near plasma in sodium (Na "
+            f"{fluid_name} is a replacement fluid{tone} (Na "
             f"{q(fluid_na, 'mmol/L')}); this plan runs it for {running_h:g} h, "
             + (
                 "all of it as maintenance."
