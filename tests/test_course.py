@@ -270,3 +270,28 @@ def test_pcv_and_total_solids_follow_the_plasma_dilution(dog_no_excretion):
     red_cells = c.plasma_ml[0] * 45 / 55
     assert c.pcv_percent[end] == pytest.approx(100 * red_cells / (red_cells + c.plasma_ml[end]))
     assert course(dog_no_excretion, horizon_h=1).pcv_percent is None  # no PCV entered
+
+
+def test_the_course_the_plan_already_followed_is_the_course_followed_afresh():
+    # The plan's sodium check followed the body on the course's grid (Plan.body); the course
+    # reuses it. A causal balance gives the same figures for a prefix of the grid: the reused
+    # course must equal one followed afresh, field by field, for a dog with a diuretic, an SC
+    # gerbil and a reptile.
+    from dataclasses import replace as with_
+
+    from vetfluid.course.model import SHOWN_STEP_MINUTES
+    from vetfluid.planning.demos import DEMOS
+
+    dog = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=150, serum_k=4,
+                                 diuretics=(("furosemide", 2.0, "iv", 2.0, 2.0),)))  # fmt: skip
+    plans = [dog, build_plan(DEMOS["small_gerbil"].request),
+             build_plan(DEMOS["cold_bearded_dragon"].request)]  # fmt: skip
+    for plan in plans:
+        assert plan.body is not None
+        reused = course(plan, step_minutes=SHOWN_STEP_MINUTES)
+        fresh = course(with_(plan, body=None), step_minutes=SHOWN_STEP_MINUTES)
+        for name in ("given_ml", "urine_ml", "plasma_ml", "intracellular_ml", "weight_kg"):
+            np.testing.assert_array_equal(getattr(reused, name), getattr(fresh, name))
+        if fresh.serum_na is not None:
+            np.testing.assert_array_equal(reused.serum_na, fresh.serum_na)
+        assert reused.findings == fresh.findings

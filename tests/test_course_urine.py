@@ -124,3 +124,34 @@ def test_the_band_says_which_of_its_values_are_recalled():
     )  # fmt: skip
     assert cat.urine_band_mosm_per_kg == (50.0, 3100.0)
     assert band_unverified(cat) == (True, True)
+
+
+def test_a_measured_urine_osmolality_or_usg_stands_beside_the_prediction():
+    """Issue 19: measured urine beside the predicted. A dog's USG becomes an osmolality by
+    (USG − 1) × 30 000 (maintenance.usg_to_osmolality, recalled: memory); a bird's USG is
+    not read (uric acid and mucus make it meaningless: the species' usg_interpretable), so it
+    is kept and counted but never drawn; an entered osmolality is drawn as it is."""
+    from vetfluid.course.observations import Observation
+    from vetfluid.course.urine import measured_osmolality
+    from vetfluid.tables.species import load_table
+
+    table = load_table()
+    seen = [Observation(hour=2, usg=1.020), Observation(hour=4, urine_osmolality=900.0)]
+    hours, osm, not_read = measured_osmolality(seen, table, "dog")
+    np.testing.assert_allclose(hours, [2, 4])
+    np.testing.assert_allclose(osm, [600.0, 900.0])
+    assert not_read == 0
+    hours, osm, not_read = measured_osmolality(seen, table, "budgerigar")
+    np.testing.assert_allclose(osm, [900.0])
+    assert not_read == 1
+    with pytest.raises(InputError):
+        Observation(hour=1, usg=1.2)  # past 1.080: a typing slip, refused
+    with pytest.raises(InputError):
+        Observation(hour=1, urine_osmolality=5.0)
+
+
+def test_the_course_gives_its_urine_osmolality_and_k_to_set_beside_a_measurement(dog_plan):
+    result = course(dog_plan, step_minutes=SHOWN_STEP_MINUTES)
+    assert result.predicted("urine_osmolality", 3.0) == pytest.approx(
+        result.at(3.0)["urine_osm_mosm_per_kg"])
+    assert result.predicted("usg", 3.0) is None  # an osmolality is predicted, not a USG

@@ -476,6 +476,26 @@ def test_measured_urine_stands_beside_the_prediction_as_a_marker(window):
     record(view, 9, "serum_k", 3.6)
     assert list(view.na_points.getData()[1]) == [150]
     assert list(view.k_points.getData()[1]) == [3.6]
+    # a USG of 1.020 is about 600 mOsm/kg ((USG − 1) × 30 000, recalled: memory), drawn on the
+    # urine osmolality plot beside the predicted urine; an osmolality is drawn as measured
+    record(view, 10, "usg", "1.020")
+    record(view, 11, "urine_osmolality", 1200)
+    hours, osm = view.osm_points.getData()
+    assert list(hours) == [10, 11] and list(osm) == [pytest.approx(600), 1200]
+    assert view.osm_unread_text.text() == ""
+
+
+def test_a_birds_usg_is_kept_but_not_drawn_and_says_why(qtbot, planner):
+    planner.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: planner.session.plan is not None)
+    planner.session.update(species_id="budgerigar", weight_kg=0.035)
+    planner.session.recompute()
+    qtbot.waitUntil(lambda: planner.session.plan.request.species_id == "budgerigar")
+    planner.details.setCurrentWidget(planner.course_holder)
+    view = planner.course_view
+    record(view, 2, "usg", "1.015")  # urates and mucus: a bird's USG is not read
+    assert len(view.osm_points.getData()[0]) == 0
+    assert "not read in this species" in view.osm_unread_text.text()
 
 
 @pytest.mark.parametrize(

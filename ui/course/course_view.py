@@ -79,6 +79,7 @@ from vetfluid.course.observations import (
 from vetfluid.course.urine import (
     band_unverified,
     measured_flow,
+    measured_osmolality,
     oliguria_line,
     predicted_flow,
     predicted_osmolality,
@@ -93,6 +94,8 @@ QUANTITIES = {
     "other_losses_ml": ("Other losses", "mL"),
     "serum_na": ("Serum Na", "mmol/L"),
     "serum_k": ("Serum K", "mmol/L"),
+    "usg": ("Urine specific gravity", ""),
+    "urine_osmolality": ("Urine osmolality", "mOsm/kg"),
     "pcv_percent": ("PCV", "%"),
     "total_solids_g_per_dl": ("Total solids", "g/dL"),
     "heart_rate_per_min": ("Heart rate", "/min"),
@@ -248,6 +251,7 @@ class CourseView(QWidget):
         edge_pen = _pen(OSMOLALITY, width=1.5, style=dash)
         self.ceiling_curve = curve(self.osm_plot, name="Floor, ceiling", pen=edge_pen)
         self.floor_curve = curve(self.osm_plot, pen=edge_pen)
+        self.osm_points = self._markers(self.osm_plot, OSMOLALITY)  # measured (USG converted)
         self.k_curve = curve(self.k_plot, name="Predicted", pen=_pen(POTASSIUM, width=2.5))
         self.k_low = curve(self.k_plot, name="Reference", pen=reference_pen)
         self.k_high = curve(self.k_plot, pen=reference_pen)
@@ -258,7 +262,7 @@ class CourseView(QWidget):
             self.weight_curve,
             self.weight_points, self.urine_curve, self.oliguria_curve, self.urine_points,
             self.osm_curve, self.plasma_osm_curve, self.ceiling_curve, self.floor_curve,
-            self.k_curve, self.k_low, self.k_high, self.k_points,
+            self.osm_points, self.k_curve, self.k_low, self.k_high, self.k_points,
         )  # fmt: skip
         # the lines' values in words, at their right-hand ends
         self.oliguria_text = self._label(self.urine_plot, OLIGURIA)
@@ -268,11 +272,12 @@ class CourseView(QWidget):
         self.floor_text = self._label(self.osm_plot, OSMOLALITY)
         self.floor_text_below = self._label(self.osm_plot, OSMOLALITY, below=True)
         self.osm_end_text = self._label(self.osm_plot, NEUTRAL)
+        self.osm_unread_text = self._label(self.osm_plot, NEUTRAL, below=True)  # top right
         self.k_text = self._label(self.k_plot, NEUTRAL)
         self.na_text = self._label(self.na_plot, NEUTRAL)
         self.labels = (self.oliguria_text, self.urine_end_text, self.urine_note, self.ceiling_text,
                        self.floor_text, self.floor_text_below, self.osm_end_text,
-                       self.k_text, self.na_text)  # fmt: skip
+                       self.osm_unread_text, self.k_text, self.na_text)  # fmt: skip
         # the diuretic doses on the time axis of every plot (the drug's name at each)
         self.dose_marks: dict[int, DoseMarks] = {}
         for plot in self.plots:
@@ -696,6 +701,10 @@ class CourseView(QWidget):
             self.urine_note.setPos(end_h, self._y_ranges[id(self.urine_plot)][1])
         osm_h, osm = predicted_osmolality(result)
         self.osm_curve.setData(osm_h, osm, _corners(osm_h, osm))
+        seen_h, seen, not_read = measured_osmolality(
+            observations, self.session.table, plan.request.species_id
+        )
+        self.osm_points.setData(seen_h, seen)
         self.plasma_osm_curve.setData(result.hours, result.osmolality_mosm_per_kg, corners)
         band = result.urine_band_mosm_per_kg
         if band is None:
@@ -723,8 +732,15 @@ class CourseView(QWidget):
             self.floor_text.setText("" if under else floor_words)
             self.floor_text_below.setText(floor_words if under else "")
             (self.floor_text_below if under else self.floor_text).setPos(end_h, floor)
-        self._fit_y(self.osm_plot, [osm, result.osmolality_mosm_per_kg, band or []],
+        self._fit_y(self.osm_plot, [osm, result.osmolality_mosm_per_kg, band or [], seen],
                     zero=True, headroom=0.2)  # fmt: skip
+        # a USG this species' urine does not allow reading is kept, never drawn: said
+        self.osm_unread_text.setText(
+            f"{not_read} USG not drawn: not read in this species (urates, mucus)" if not_read
+            else ""
+        )  # fmt: skip
+        if not_read and id(self.osm_plot) in self._y_ranges:
+            self.osm_unread_text.setPos(end_h, self._y_ranges[id(self.osm_plot)][1])
         # why the urine lines stop: outputs are predicted while the plan runs
         stops = len(flow_h) > 0 and result.outputs_end_h < end_h - 1e-9
         for label, hours, values in ((self.urine_end_text, flow_h, flow),

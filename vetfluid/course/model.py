@@ -60,7 +60,12 @@ PLASMA_CONTRACTION_SAID = 0.2
 # a predicted bicarbonate is said once it is this far past its interval (common practice, no
 # source: a dog's 20–24 mmol/L interval is narrower than the model's certainty)
 HCO3_MARGIN_MMOL_PER_L = 2.0
-PREDICTED_OBSERVABLES = ("weight_kg", "serum_na", "pcv_percent", "total_solids_g_per_dl")
+# an observation's field → the course's value set beside it (Course.at)
+PREDICTED_OBSERVABLES = {
+    "weight_kg": "weight_kg", "serum_na": "serum_na", "serum_k": "serum_k",
+    "pcv_percent": "pcv_percent", "total_solids_g_per_dl": "total_solids_g_per_dl",
+    "urine_osmolality": "urine_osm_mosm_per_kg",
+}  # fmt: skip
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -99,11 +104,12 @@ class Course:
     diuretics_not_modelled: tuple[str, ...] = ()  # doses whose effect the course leaves out
 
     def predicted(self, field: str, hour: float) -> float | None:
-        """The model's value of an observable (weight_kg, serum_na, pcv_percent,
-        total_solids_g_per_dl) at ``hour``, to set beside what was measured."""
+        """The model's value of an observable (:data:`PREDICTED_OBSERVABLES`) at ``hour``,
+        to set beside what was measured; None for anything else (a USG is measured, an
+        osmolality predicted)."""
         if field not in PREDICTED_OBSERVABLES:
             return None
-        value = self.at(hour)[field]
+        value = self.at(hour)[PREDICTED_OBSERVABLES[field]]
         return None if value is None else float(value)
 
     def na_band(self) -> tuple[np.ndarray, np.ndarray] | None:
@@ -315,10 +321,8 @@ def course(
     }
     step_h = step_minutes / 60.0
     hours = body.grid(horizon, step_h)
-    followed = body.follow_body(
-        plan.regimen, table, hours=hours, step_h=step_h, extra_inputs=tuple(extra_boluses),
-        loss_type=loss_type, renal_output=renal_output,
-    )  # fmt: skip
+    followed = _followed(plan, table, hours=hours, step_h=step_h, extra=tuple(extra_boluses),
+                         loss_type=loss_type, renal_output=renal_output)  # fmt: skip
     plasma0 = values["plasma_fraction"].number * w * 1000.0
     if not 0 < plasma0 < followed.ecf0_ml < followed.tbw0_ml:
         raise InputError("species fractions must satisfy plasma < ECF < TBW", field="species")
@@ -403,6 +407,32 @@ def course(
         diuretics_not_modelled=followed.diuretics_not_modelled,
         serum_hco3=serum_hco3,
     )
+
+
+def _followed(
+    plan: Plan,
+    table: SpeciesTable,
+    *,
+    hours: np.ndarray,
+    step_h: float,
+    extra: tuple[BodyInput, ...],
+    loss_type: str,
+    renal_output: str | None,
+) -> body.BodyCourse:
+    """The body through the plan: the plan's own (``Plan.body``, what its sodium check
+    followed) when this course asks for nothing else — the same step, no extra bolus, the
+    request's loss type and renal output, a horizon inside it — else followed afresh."""
+    request, own = plan.request, plan.body
+    same = (own is not None and not extra and math.isclose(step_h, own.step_h)
+            and loss_type == request.loss_type and renal_output == request.renal_output
+            and own.table is table)  # fmt: skip
+    kept = own.until(float(hours[-1])) if same else None
+    if kept is not None and len(kept.hours) == len(hours):
+        return kept
+    return body.follow_body(
+        plan.regimen, table, hours=hours, step_h=step_h, extra_inputs=extra,
+        loss_type=loss_type, renal_output=renal_output,
+    )  # fmt: skip
 
 
 def _predicted_findings(

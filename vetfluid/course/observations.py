@@ -40,6 +40,7 @@ from vetfluid.common.formatting import format_quantity as q
 from vetfluid.common.units import preferred_weight_unit, weight_in_unit
 from vetfluid.physiology.hydration import overload_weight_kg
 from vetfluid.physiology.ins_and_outs import InsAndOutsRow, ins_and_outs
+from vetfluid.physiology.maintenance import usg_to_osmolality
 from vetfluid.planning.plan import Plan, PlanRequest
 from vetfluid.tables.limits import limit
 from vetfluid.tables.species import SpeciesTable, load_table
@@ -74,6 +75,8 @@ class Observation:
     other_losses_ml: float | None = None  # vomit, diarrhoea, drains, measured
     serum_na: float | None = None
     serum_k: float | None = None
+    usg: float | None = None  # urine specific gravity, as read
+    urine_osmolality: float | None = None  # mOsm/kg, measured
     heart_rate_per_min: float | None = None
     respiratory_rate_per_min: float | None = None
     mucous_membranes: str | None = None
@@ -92,6 +95,7 @@ class Observation:
             ("other_losses_ml", 0, 1e6, "mL"),
             ("serum_na", 80, 230, "mmol/L"),
             ("serum_k", 0.5, 12, "mmol/L"),
+            ("urine_osmolality", 20, 12000, "mOsm/kg"),  # as the plan's own entry
             ("heart_rate_per_min", 5, 1000, "/min"),
             ("respiratory_rate_per_min", 1, 300, "/min"),
             ("crt_s", 0, 10, "s"),
@@ -99,6 +103,8 @@ class Observation:
             value = getattr(self, name)
             if value is not None:
                 require_number(value, name, low=low, high=high, unit=unit)
+        if self.usg is not None:
+            usg_to_osmolality(self.usg)  # 1.000–1.080, as the plan's own entry
         if (self.urine_ml is None) != (self.urine_period_h is None):
             raise InputError(
                 "urine output needs both a volume and the period it was collected over",

@@ -29,6 +29,7 @@ import numpy as np
 from vetfluid.common.checks import require_number
 from vetfluid.course.model import Course
 from vetfluid.course.observations import Observation, weight_is_plausible
+from vetfluid.physiology.maintenance import usg_to_osmolality
 from vetfluid.tables.species import SpeciesTable, SpeciesValue
 
 URINE_OUTPUT = "urine_output_ml_per_kg_h"
@@ -109,6 +110,29 @@ def measured_flow(
             ends.append(obs.hour)
             flows.append(rate)
     return np.array(starts, dtype=float), np.array(ends, dtype=float), np.array(flows, dtype=float)
+
+
+def measured_osmolality(
+    observations: Sequence[Observation], table: SpeciesTable, species_id: str
+) -> tuple[np.ndarray, np.ndarray, int]:
+    """(hours, mOsm/kg) of each measured urine, in order of hour, and how many USGs were not
+    read. An entered osmolality is taken as it is; a USG becomes (USG − 1) × 30 000
+    (:func:`vetfluid.physiology.maintenance.usg_to_osmolality`, recalled: memory) where the
+    species' USG can be read (``usg_interpretable``: not in birds and reptiles, whose urine
+    carries urates and mucus), else it is counted and not drawn. An observation with both
+    is drawn once, by its osmolality."""
+    readable = bool(table.value(species_id, "usg_interpretable").value)
+    points, not_read = [], 0
+    for obs in observations:
+        if obs.urine_osmolality is not None:
+            points.append((obs.hour, obs.urine_osmolality))
+        elif obs.usg is not None and readable:
+            points.append((obs.hour, usg_to_osmolality(obs.usg)))
+        elif obs.usg is not None:
+            not_read += 1
+    points.sort()
+    hours = np.array([h for h, _ in points], dtype=float)
+    return hours, np.array([v for _, v in points], dtype=float), not_read
 
 
 def band_unverified(result: Course) -> tuple[bool, bool]:

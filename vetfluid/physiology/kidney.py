@@ -377,28 +377,34 @@ class Balance:
     # HCO3 a carbonic-anhydrase inhibitor made the urine carry (cumulative, at a normal
     # plasma bicarbonate), when one acted
     hco3_excreted_mmol: list[float] | None = None
+    # the lowest position ADH asked for (before any hold; None: no kidney): with ADH held at
+    # a position at or below it, the hold changes nothing
+    lowest_position_asked: float | None = None
 
 
-def _solve_urine_x(d0: float, k: float, b: float, span: float, log_ratio: float) -> float:
+def _solve_urine_x(
+    d0: float, k: float, b: float, span: float, log_ratio: float, hint: float = 0.0
+) -> float:
     """x in [0, 1] with x = ½ + (d0 + k·b·e^(−L·x)) / span: the urine osmolality position
     after the water it carries has left (tonicity rises by k per mL). h(x) is increasing and
-    concave, so Newton from x = 0 climbs monotonically to the root."""
+    concave, so Newton from any point below the root climbs monotonically to it; from a point
+    above it, one Newton step lands below it (the tangent lies above a concave h). ``hint``
+    (the last step's x) saves most steps: the urine changes little from step to step."""
+    offset = 0.5 + d0 / span
     if b <= 0.0:
-        return min(max(0.5 + d0 / span, 0.0), 1.0)
+        return min(max(offset, 0.0), 1.0)
     c = k * b / span
-
-    def h(x: float) -> float:
-        return x - 0.5 - d0 / span - c * math.exp(-log_ratio * x)
-
-    if h(0.0) >= 0.0:
+    if 0.0 - offset - c >= 0.0:  # h(0) ≥ 0
         return 0.0
-    if h(1.0) <= 0.0:
+    if 1.0 - offset - c * math.exp(-log_ratio) <= 0.0:  # h(1) ≤ 0
         return 1.0
-    x = 0.0
+    x = min(max(hint, 0.0), 1.0)
     for _ in range(NEWTON_STEPS):
         e = c * math.exp(-log_ratio * x)
-        step = (x - 0.5 - d0 / span - e) / (1.0 + log_ratio * e)
+        step = (x - offset - e) / (1.0 + log_ratio * e)
         x -= step
+        if x < 0.0:
+            x = 0.0
         if abs(step) < 1e-12:
             break
     return min(x, 1.0)
@@ -466,6 +472,8 @@ def follow_balance(
         k_keep = math.exp(-step_h / kidney.k_time_constant_h)
         take = -math.expm1(-kidney.natriuresis_per_h * step_h)
         osm_now = floor * math.exp(kidney.rest_position * log_ratio)
+        x_last, lowest = kidney.rest_position, kidney.lowest_position
+        asked = math.inf
     else:
         osm_now = math.nan
     last_change = max(
@@ -531,8 +539,11 @@ def follow_balance(
                 d0 += (mannitol - e_m) / w * 1000.0  # an effective osmole: ADH sees it
             # tonicity rises by 2·Na/W per mL of water taken (mOsm/kg per mL)
             x = _solve_urine_x(d0, 2.0 * pool_after * 1000.0 / (w * w),
-                               solute * 1000.0 / low, span, ratio)  # fmt: skip
-            x = max(x, kidney.lowest_position)
+                               solute * 1000.0 / low, span, ratio, x_last)  # fmt: skip
+            x_last = x
+            if x < asked:
+                asked = x
+            x = max(x, lowest)
             osm_now = low * math.exp(ratio * x)
             volume = solute / osm_now * 1000.0
             cap = kidney.urine_cap_ml_per_h
@@ -587,6 +598,7 @@ def follow_balance(
         tbw_ml=tbw, na_k_mmol=na_k, k_mmol=ks, ecf_osm=oe, icf_osm=oi, urine_ml=urine_total,
         urine_osm_mosm_per_kg=urine_osm, urine_ecf_ml=urine_ecf, na_excreted_mmol=na_sum,
         k_excreted_mmol=k_sum, mannitol_mosm=mannitol_left, hco3_excreted_mmol=hco3_sum,
+        lowest_position_asked=None if kidney is None else asked,
     )  # fmt: skip
 
 

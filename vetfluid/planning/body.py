@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, fields, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -332,10 +332,32 @@ class BodyCourse:
     ecf0_ml: float
     diuretics_not_modelled: tuple[str, ...]
     provenance: tuple[SpeciesValue, ...]
+    table: SpeciesTable = field(repr=False, compare=False)  # the one it was followed with
 
     @property
     def urine_ml(self) -> np.ndarray:
         return np.asarray(self.balance.urine_ml)
+
+    def until(self, horizon_h: float) -> BodyCourse | None:
+        """The same course up to ``horizon_h`` (a prefix of this grid: the balance is causal,
+        so nothing before a point depends on what comes after it), or None past its end."""
+        if horizon_h > self.hours[-1] + 1e-9:
+            return None
+        n = int(np.searchsorted(self.hours, horizon_h + 1e-9))
+
+        def cut(value):  # noqa: ANN001, ANN202
+            return value[:n] if isinstance(value, (list, np.ndarray)) else value
+
+        balance = replace(self.balance, **{
+            f.name: cut(getattr(self.balance, f.name)) for f in fields(self.balance)
+        })  # fmt: skip
+        changed = {
+            f.name: cut(getattr(self, f.name))
+            for f in fields(self)
+            if f.name not in ("inputs", "balance", "table")
+        }
+        changed["given_by_fluid_ml"] = {k: v[:n] for k, v in self.given_by_fluid_ml.items()}
+        return replace(self, **changed, balance=balance)
 
     @property
     def beyond_h(self) -> float | None:
@@ -483,5 +505,5 @@ def follow_body(
         lost_ml=lost, losses=losses, settings=settings, excess_excretion_left_out=left_out,
         balance=balance, tbw_ml=tbw, ecf_ml=ecf, osmolality_mosm_per_kg=osmolality,
         na_path=na_path, tbw0_ml=tbw0, ecf0_ml=ecf0, diuretics_not_modelled=left_out_doses,
-        provenance=tuple(dict.fromkeys([*values, *used])),
+        provenance=tuple(dict.fromkeys([*values, *used])), table=table,
     )  # fmt: skip

@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from datetime import date, datetime, time, timedelta
+from functools import partial
 
 import numpy as np
 
@@ -52,6 +53,9 @@ MAX_DIURETIC_DOSES = 500
 MAX_DIURETIC_DOSE = 1000.0
 MAINTENANCE_TAIL_H = 12.0  # maintenance runs to hour 24, and at least 12 h after replacement
 DEXTROSE_CONCENTRATE_ID = "dextrose_50"
+# Bag sizes a clinician may choose: the 250, 500 and 1000 mL bags lactated Ringer's is sold
+# in (Fresenius Kabi NDC 63323-164; Baxter, DailyMed archive 14649).
+BAG_SIZES_ML = (250.0, 500.0, 1000.0)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -87,6 +91,7 @@ class PlanRequest:
     neonate: bool = False
     max_na_change_per_h: float | None = None
     syringe_size_ml: float = 60.0  # the syringe the pump takes
+    bag_size_ml: float | None = None  # one of BAG_SIZES_ML; None: by each phase's volume
     pcv_percent: float | None = None  # recorded with the plan; followed over the course
     total_solids_g_per_dl: float | None = None
     # Ins-and-outs mode (oliguric or anuric patients): fluid by periods of this many hours,
@@ -105,6 +110,11 @@ class PlanRequest:
         _require(self.losses_ml_per_day, "losses_ml_per_day", 0, 1e6, "mL/day")
         _require(self.dextrose_percent, "dextrose_percent", 0, 10, "%")
         _require(self.syringe_size_ml, "syringe_size_ml", 1, 100, "mL")
+        if self.bag_size_ml is not None and self.bag_size_ml not in BAG_SIZES_ML:
+            raise InputError(
+                "the bag size must be 250, 500 or 1000 mL", field="bag_size_ml",
+                value=self.bag_size_ml, fix="choose 250, 500 or 1000 mL, or leave it out",
+            )  # fmt: skip
         if self.ins_and_outs_period_h is not None:
             _require(self.ins_and_outs_period_h, "ins_and_outs_period_h", 1, 24, "h")
         elif self.measured_outputs:
@@ -365,6 +375,9 @@ class Plan:
     outflow: tuple[tuple[float, float], ...] = ((0.0, 0.0),)
     ins_and_outs: tuple[InsAndOutsRow, ...] = ()  # the period table, in ins-and-outs mode
     diuretics: tuple[DiureticDose, ...] = ()  # the diuretics on the clock
+    # the body as the plan's sodium check followed it (kidney free to dilute), on the
+    # course's grid: the course reuses it rather than follow the same body again
+    body: body.BodyCourse | None = field(default=None, repr=False, compare=False)
 
     @property
     def end_h(self) -> float:
@@ -915,23 +928,20 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     # no Na measured: the plan is followed from the species' normal Na
     start_na = request.serum_na if request.serum_na is not None else normal.number
     doses = _diuretic_doses(request)
-    na_course, held = (
-        _sodium_course(
-            request,
-            table,
-            phases=phases,
-            bag=bag,
-            maint=maint,
-            deficit_ml=deficit,
-            doses=doses,
-            consumed=lambda hours: consumed_ml(outflow, end_h, hours),
-            ledger=ledger,
-            start_na=start_na,
-            boluses_end_h=start_h,
-            adh_held=adh_held,
-        )  # fmt: skip
-        for adh_held in (False, True)
-    )
+    follow = partial(
+        _sodium_course, request, table, phases=phases, bag=bag, maint=maint,
+        deficit_ml=deficit, doses=doses, ledger=ledger, start_na=start_na,
+        consumed=lambda hours: consumed_ml(outflow, end_h, hours), boluses_end_h=start_h,
+    )  # fmt: skip
+    na_course, followed = follow(adh_held=False)
+    # with ADH held where it rests, a kidney that never asked to dilute below that is the same
+    # kidney: the second path is followed only when the hold can change it
+    asked = followed.balance.lowest_position_asked
+    holds = followed.settings is not None and asked is not None
+    if holds and asked < followed.settings.rest_position - 1e-12:
+        held, _ = follow(adh_held=True)
+    else:
+        held = na_course
     fastest = electrolytes.max_rate_for_sodium(
         serum_na=start_na, infusate_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
         tbw_l=tbw.number * w, max_change_per_h=max_change,
@@ -1038,6 +1048,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         outflow=outflow,
         ins_and_outs=period_table,
         diuretics=doses,
+        body=followed,
     )
 
 
@@ -1077,7 +1088,7 @@ def _sodium_course(
     start_na: float,
     boluses_end_h: float,
     adh_held: bool,
-) -> electrolytes.SodiumCourse:
+) -> tuple[electrolytes.SodiumCourse, body.BodyCourse]:
     """Serum Na through the plan as the course follows it (:func:`body.follow_body`: the
     kidney, insensible water, losses by type and the diuretics), on the course's grid, until
     the last dose under the skin is absorbed and an hour after that, so every hour the plan
@@ -1109,7 +1120,7 @@ def _sodium_course(
     return electrolytes.sodium_course(
         hours, path, start_na=start_na, measured=request.serum_na is not None,
         boluses_end_h=boluses_end_h,
-    )  # fmt: skip
+    ), followed  # fmt: skip
 
 
 def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:
