@@ -17,6 +17,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from vetfluid.common.errors import InputError
+from vetfluid.course.model import SHOWN_STEP_MINUTES, course
 from vetfluid.course.timeline import (
     SERIES,
     clock_labels,
@@ -138,11 +139,15 @@ def test_cat_need_after_24_h_from_the_formulas():
 @reference
 def test_dog_regains_the_deficit_as_weight(dog):
     # Davis 2013, "1 kg lost ≈ 1 L": replacing a 1.4 L deficit puts 1.4 kg back on a
-    # 20 kg dog, so it should weigh 21.4 kg once the deficit is in.
+    # 20 kg dog, so it should weigh about 21.4 kg once the deficit is in. The weight is the
+    # course's: a dehydrated dog's kidney holds water (ADH answers the volume deficit) while
+    # the deficit goes in, then passes the excess once the ECF is full (docs/model.md), so
+    # it runs a little over 21.4 kg at 12 h and comes back within 150 g of it by 24 h — and
+    # never near the 23.54 kg overload line.
     tl = timeline(dog)
     assert tl.weight_kg[0] == 20
-    assert tl.weight_kg[at(tl, 12)] == pytest.approx(21.4, abs=1e-9)
-    assert tl.weight_kg[-1] == pytest.approx(21.4, abs=1e-9)  # maintenance only keeps level
+    assert 21.4 <= tl.weight_kg[at(tl, 12)] < 21.4 * 1.03
+    assert tl.weight_kg[-1] == pytest.approx(21.4, abs=0.15)
 
 
 @reference
@@ -169,8 +174,9 @@ def test_resuscitation_bolus_is_a_high_short_step(dog_shock):
     assert tl.rate_ml_per_h[second] < tl.rate_ml_per_h[0] / 5
     assert tl.given_ml[first] == pytest.approx(300)
     assert tl.given_ml[second] == pytest.approx(600)
-    # the bolus shows in the weight at once (1 mL ≈ 1 g) less what was consumed meanwhile
-    assert tl.weight_kg[second] == pytest.approx(20 + (600 - 0.5 * 132 * pow075(20) / 24) / 1000)
+    # the bolus shows in the weight at once (1 mL ≈ 1 g) less the little that left meanwhile
+    # (a maintenance allowance would be 0.5 × 132 × 20^0.75 / 24 ≈ 26 mL in the half hour)
+    assert 20.6 - 0.1 < tl.weight_kg[second] <= 20.6
 
 
 # ---- identities ---------------------------------------------------------------------------------
@@ -183,13 +189,24 @@ def test_last_given_is_the_plan_volume(any_plan):
     assert np.all(np.diff(tl.given_ml) >= -1e-9)  # fluid given is never taken back
 
 
-def test_weight_change_is_net_fluid_balance_everywhere(any_plan):
+def test_the_timelines_weight_is_the_courses_everywhere(any_plan):
+    # Issue 20: one weight prediction. The Timeline shows the course's weight (given less
+    # insensible water, losses and the kidney's urine; 1 mL ≈ 1 g, Davis 2013) at every hour
+    # the two grids share.
     tl = timeline(any_plan)
-    net_ml = tl.given_ml - tl.consumed_ml
     # a standard plan's outflow: maintenance + losses every hour up to the plan's end
     rate = any_plan.maintenance.ml_per_h + any_plan.request.losses_ml_per_day / 24.0
     np.testing.assert_allclose(tl.consumed_ml, rate * np.minimum(tl.hours, any_plan.end_h))
-    np.testing.assert_allclose((tl.weight_kg - tl.baseline_weight_kg) * 1000, net_ml, atol=1e-9)
+    modelled = course(any_plan, step_minutes=SHOWN_STEP_MINUTES)
+    shared = np.isin(np.round(tl.hours, 9), np.round(modelled.hours, 9))
+    assert shared.sum() > 10
+    np.testing.assert_allclose(
+        tl.weight_kg[shared], np.interp(tl.hours[shared], modelled.hours, modelled.weight_kg),
+        rtol=1e-12,
+    )  # fmt: skip
+    # the deficit still to give is the plan's account, not a weight
+    net = tl.given_ml - tl.consumed_ml
+    np.testing.assert_allclose(tl.remaining_deficit_ml, np.maximum(any_plan.deficit_ml - net, 0))
 
 
 def test_remaining_deficit_never_negative_and_zero_when_replaced(any_plan):
@@ -308,8 +325,8 @@ def test_identities_hold_for_any_dog(weight, percent, hours, losses, boluses):
     assert tl.given_ml[-1] == pytest.approx(sum(p.volume_ml for p in plan.phases), rel=1e-9)
     assert np.all(tl.remaining_deficit_ml >= 0)
     assert np.all(np.diff(tl.hours) > 0)
-    net = tl.given_ml - tl.consumed_ml
-    np.testing.assert_allclose(tl.weight_kg, weight + net / 1000, rtol=1e-12)
+    # what stays is at most what was given (nothing comes from nowhere)
+    assert np.all((tl.weight_kg - weight) * 1000 <= tl.given_ml + 1e-6)
 
 
 # ---- hover read-out and clock ---------------------------------------------------------------

@@ -292,7 +292,7 @@ class TimelineView(QWidget):
             self.volume_plot, name="Needed", pen=_pen(NEEDED_COLOUR, width=2.0, style=dash)
         )
         self.deficit_curve = curve(
-            self.deficit_plot, name="Deficit left", pen=_pen(DEFICIT_COLOUR, width=2.5),
+            self.deficit_plot, name="Deficit still to give", pen=_pen(DEFICIT_COLOUR, width=2.5),
             brush=_brush(DEFICIT_COLOUR, 45),
         )  # fmt: skip
         self.weight_curve = curve(
@@ -511,7 +511,7 @@ class TimelineView(QWidget):
                 + format_quantity(values["rate_ml_per_h"], "mL/h"),
                 f"given {format_quantity(values['given_ml'], 'mL')}",
                 f"needed {format_quantity(values['needed_ml'], 'mL')}",
-                f"deficit left {format_quantity(values['remaining_deficit_ml'], 'mL')}",
+                f"deficit still to give {format_quantity(values['remaining_deficit_ml'], 'mL')}",
                 f"weight {self._weight_text(values['weight_kg'])}",
             )
         )

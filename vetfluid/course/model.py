@@ -359,7 +359,7 @@ def course(
         )  # fmt: skip
         kidney_values += hco3_values
 
-    net = given - consumed - urine
+    net = given - consumed - urine  # followed.weight_kg is the same balance, in kg
     na_limit = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
     beyond = _beyond_the_model(hours, plasma, ecf - plasma, tbw - ecf, na_path, serum_k,
                                serum_hco3, w + net / 1000.0)  # fmt: skip

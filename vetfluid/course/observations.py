@@ -41,6 +41,7 @@ from vetfluid.common.units import preferred_weight_unit, weight_in_unit
 from vetfluid.physiology.hydration import overload_weight_kg
 from vetfluid.physiology.ins_and_outs import InsAndOutsRow, ins_and_outs
 from vetfluid.physiology.maintenance import usg_to_osmolality
+from vetfluid.planning import body
 from vetfluid.planning.plan import Plan, PlanRequest
 from vetfluid.tables.limits import limit
 from vetfluid.tables.species import SpeciesTable, load_table
@@ -227,10 +228,10 @@ def check_observation(
 
 
 def predicted_weight_kg(plan: Plan, hour: float) -> float:
-    """Entered weight + net fluid balance by ``hour`` (1 mL ≈ 1 g; Davis 2013)."""
-    given = sum(p.volume_between(0.0, hour + 1e-9) for p in plan.phases)
-    consumed = plan.consumed_ml(hour)
-    return plan.request.weight_kg + (given - consumed) / 1000.0
+    """The course's weight at ``hour`` (the plan's body, :func:`body.of_plan`: entered weight
+    + given − insensible, losses and urine, 1 mL ≈ 1 g; Davis 2013), held at its last value
+    past the plan."""
+    return body.of_plan(plan, load_table()).weight_at(hour)
 
 
 def alerts(

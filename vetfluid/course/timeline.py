@@ -7,8 +7,10 @@ the last phase, as numpy arrays the plots draw directly:
 * ``given_ml`` — cumulative volume given;
 * ``needed_ml`` — cumulative need: the deficit (owed from hour 0) plus maintenance
   and ongoing losses as they accrue;
-* ``remaining_deficit_ml`` — the part of the deficit not yet made good;
-* ``weight_kg`` — predicted body weight from the net fluid balance.
+* ``remaining_deficit_ml`` — the part of the deficit still to give: the plan's account
+  (deficit − (given − consumed)), not a weight;
+* ``weight_kg`` — predicted body weight: the course's (the plan's body, with the kidney's
+  urine), the one weight prediction the Course tab shows too.
 
 Methods and sources:
 
@@ -19,7 +21,9 @@ Methods and sources:
   (J Am Anim Hosp Assoc 49:149–159) and Pardo M et al., 2024 AAHA Fluid Therapy
   Guidelines (J Am Anim Hosp Assoc 60:131–163).
 * Weight: 1 mL of fluid retained ≈ 1 g of body weight ("1 kg lost ≈ 1 L",
-  Davis 2013), so predicted weight = entered weight + net fluid balance.
+  Davis 2013), so predicted weight = entered weight + what was given − what left
+  (insensible water, losses and the urine of the course's kidney:
+  :attr:`vetfluid.planning.body.BodyCourse.weight_kg`).
 * Overload line: a gain of 10 % or more over baseline weight marks
   overhydration (Pardo 2024), read from the ``overload_weight_gain_fraction``
   safety limit.
@@ -43,9 +47,11 @@ from vetfluid.common.errors import InputError
 from vetfluid.common.formatting import format_quantity
 from vetfluid.physiology import hydration
 from vetfluid.physiology.hydration import overload_weight_kg
+from vetfluid.planning import body
 from vetfluid.planning.plan import Plan
 from vetfluid.planning.schedule import clock_time
 from vetfluid.tables.limits import limit
+from vetfluid.tables.species import load_table
 
 ML_PER_KG = 1000.0  # 1 mL of body fluid ≈ 1 g (Davis 2013: "1 kg lost ≈ 1 L")
 GRID_TOLERANCE_H = 1e-6  # a uniform grid point this close to a plan step gives way to it
@@ -150,9 +156,9 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
     mode the measured outputs, up to the plan's end). Then, in mL:
 
     * needed = deficit + consumed(t) (Davis 2013; Pardo 2024),
-    * net balance = given − consumed(t),
-    * remaining deficit = max(deficit − net balance, 0),
-    * weight (kg) = entered weight + net balance ÷ 1000 (1 mL ≈ 1 g, Davis 2013),
+    * weight (kg) = the course's: entered weight + (given − insensible − losses − urine) ÷
+      1000 (1 mL ≈ 1 g, Davis 2013; :attr:`vetfluid.planning.body.BodyCourse.weight_kg`),
+    * deficit still to give = max(deficit − (given − consumed(t)), 0): the plan's account,
     * overload weight = entered weight × (1 + 10 %) (Pardo 2024).
     """
     step = require_number(step_minutes, "step_minutes", low=0.1, high=60, unit="min")
@@ -185,7 +191,10 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
         given = given + cumulative[np.searchsorted(dose_hours[order], hours, side="right")]
 
     consumed = plan.consumed_ml(hours)
-    net = given - consumed
+    # the weight is the course's (the plan's body: the kidney's urine too), never a second
+    # prediction from given − consumed
+    followed = body.of_plan(plan, load_table())
+    weight = np.interp(hours, followed.hours, followed.weight_kg)
     deficit = float(plan.deficit_ml)
     baseline = float(plan.request.weight_kg)
     gain = limit("overload_weight_gain_fraction").value
@@ -194,8 +203,8 @@ def timeline(plan: Plan, *, step_minutes: float = 5.0) -> Timeline:
         rate_ml_per_h=_frozen(rate),
         given_ml=_frozen(given),
         needed_ml=_frozen(deficit + consumed),
-        remaining_deficit_ml=_frozen(np.maximum(deficit - net, 0.0)),
-        weight_kg=_frozen(baseline + net / ML_PER_KG),
+        remaining_deficit_ml=_frozen(np.maximum(deficit - (given - consumed), 0.0)),
+        weight_kg=_frozen(weight),
         baseline_weight_kg=baseline,
         overload_weight_kg=overload_weight_kg(
             weight_kg=baseline, deficit_ml=deficit, gain_fraction=gain

@@ -332,11 +332,24 @@ class BodyCourse:
     ecf0_ml: float
     diuretics_not_modelled: tuple[str, ...]
     provenance: tuple[SpeciesValue, ...]
+    start_weight_kg: float  # the entered weight
     table: SpeciesTable = field(repr=False, compare=False)  # the one it was followed with
 
     @property
     def urine_ml(self) -> np.ndarray:
         return np.asarray(self.balance.urine_ml)
+
+    @property
+    def weight_kg(self) -> np.ndarray:
+        """Entered weight + what was given − what left (insensible, losses, urine), 1 mL ≈ 1 g
+        (Davis 2013): the one weight prediction the Course and the Timeline both show."""
+        out = self.free_water_out_ml + self.lost_ml + self.urine_ml
+        return self.start_weight_kg + (self.given_ml - out) / 1000.0
+
+    def weight_at(self, hour: float) -> float:
+        """:attr:`weight_kg` at ``hour``, held at its last value past the grid's end (the
+        patient's own intake then matches its losses)."""
+        return float(np.interp(hour, self.hours, self.weight_kg))
 
     def until(self, horizon_h: float) -> BodyCourse | None:
         """The same course up to ``horizon_h`` (a prefix of this grid: the balance is causal,
@@ -354,7 +367,7 @@ class BodyCourse:
         changed = {
             f.name: cut(getattr(self, f.name))
             for f in fields(self)
-            if f.name not in ("inputs", "balance", "table")
+            if f.name not in ("inputs", "balance", "table", "start_weight_kg")
         }
         changed["given_by_fluid_ml"] = {k: v[:n] for k, v in self.given_by_fluid_ml.items()}
         return replace(self, **changed, balance=balance)
@@ -366,6 +379,19 @@ class BodyCourse:
         broken = ~np.isfinite(self.na_path) | ~(self.tbw_ml > 0) | ~(self.ecf_ml > 0)
         broken |= ~(self.na_path > 0)
         return float(self.hours[int(np.argmax(broken))]) if broken.any() else None
+
+
+def of_plan(plan: object, table: SpeciesTable) -> BodyCourse:
+    """The body a plan's sodium check followed (``Plan.body``), or, for a plan made without
+    one, the same body followed on the same grid."""
+    own = getattr(plan, "body", None)
+    if own is not None:
+        return own
+    regimen = plan.regimen
+    step_h = STEP_MINUTES / 60.0
+    return follow_body(
+        regimen, table, hours=grid(checked_until_h(regimen, table) + 1.0, step_h), step_h=step_h
+    )
 
 
 def checked_until_h(regimen: Regimen, table: SpeciesTable) -> float:
@@ -505,5 +531,5 @@ def follow_body(
         lost_ml=lost, losses=losses, settings=settings, excess_excretion_left_out=left_out,
         balance=balance, tbw_ml=tbw, ecf_ml=ecf, osmolality_mosm_per_kg=osmolality,
         na_path=na_path, tbw0_ml=tbw0, ecf0_ml=ecf0, diuretics_not_modelled=left_out_doses,
-        provenance=tuple(dict.fromkeys([*values, *used])), table=table,
+        provenance=tuple(dict.fromkeys([*values, *used])), table=table, start_weight_kg=w,
     )  # fmt: skip

@@ -573,7 +573,10 @@ def check_predicted_gain(
     weight_kg: float,
     deficit_ml: float,
 ) -> None:
-    """Predicted weight (1 mL ≈ 1 g) above the overload line (Pardo 2024: ≥ 10 % gain).
+    """What the plan gives beyond maintenance and losses, as weight if kept (1 mL ≈ 1 g),
+    above the overload line (Pardo 2024: ≥ 10 % gain). Deliberately not the course's
+    weight: a kidney passing the excess later does not undo a circulation overloaded now,
+    and heart disease keeps salt; the course's weight is shown in the Course and Timeline.
 
     The line is 10 % over the euhydrated weight (:func:`hydration.overload_weight_kg`).
     Given minus consumed (``consumed(hours)``, mL by each hour) is piecewise linear, with
@@ -593,9 +596,10 @@ def check_predicted_gain(
         ledger.add(
             "soft",
             "PREDICTED_OVERLOAD",
-            f"Predicted weight peaks at {q(peak_kg, 'kg')} at hour {peak_h:g}, above the "
+            f"By {hour_text(peak_h)} the plan gives {q(peak_ml, 'mL')} more than maintenance and "
+            f"losses take away: kept, it brings the weight to {q(peak_kg, 'kg')}, above the "
             f"overload line of {q(line, 'kg')} ({gain.value:.0%} over the euhydrated "
-            f"{q(weight_kg + deficit_ml / 1000.0, 'kg')}).",
+            f"{q(weight_kg + deficit_ml / 1000.0, 'kg')}), whatever the kidney passes later.",
             "Give smaller, more frequent doses or replace the deficit more slowly; weigh before "
             "each dose.",
             gain.source_id,
