@@ -212,3 +212,19 @@ def test_the_help_pages_open_as_dialogs(qtbot, planner, monkeypatch):
         if "How to" in action.text() or "About" in action.text():
             action.trigger()
     assert len(shown) == 2 and all("vetfluid" in title for title in shown)
+
+
+def test_there_is_one_save_and_a_plan_file_is_imported_or_exported(planner):
+    """Issue 20, item 1: one idea of saving — Save (Ctrl+S) makes the patient's next version;
+    writing or reading a plan file is Export / Import, never a second "save"."""
+    from PySide6.QtGui import QKeySequence
+
+    menu = next(a.menu() for a in planner.menuBar().actions() if a.text() == "&File")
+    entries = {a.text().replace("&", ""): a for a in menu.actions() if a.text()}
+    saves = [name for name in entries if "Save" in name]
+    assert saves == ["Save"]
+    save_keys = QKeySequence.keyBindings(QKeySequence.StandardKey.Save)
+    assert entries["Save"].shortcut() in save_keys
+    assert "Import plan file…" in entries
+    export = entries["Export"].menu()
+    assert "Plan file…" in [a.text().replace("&", "") for a in export.actions()]

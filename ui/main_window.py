@@ -221,19 +221,19 @@ class MainWindow(QMainWindow):
         file_menu.addAction(
             self._action("&New patient", self.new_patient, QKeySequence.StandardKey.New)
         )
+        # one save: a version in the patient's record; a plan file is imported or exported
         file_menu.addAction(
-            self._action("&Open plan request…", self.open_file, QKeySequence.StandardKey.Open)
-        )
-        file_menu.addAction(
-            self._action("&Save plan request…", self.save_file, QKeySequence.StandardKey.Save)
-        )
-        file_menu.addAction(
-            self._action("Open &patient…", self.open_patient, "Ctrl+Shift+O",
+            self._action("&Open patient…", self.open_patient, QKeySequence.StandardKey.Open,
                          tip="Find a patient in the records and open a plan version")
         )  # fmt: skip
         file_menu.addAction(
-            self._action("Save as new &version", lambda: self.save_version(), "Ctrl+Shift+S",
-                         tip="Save this plan as the patient's next version (never overwritten)")
+            self._action("&Save", lambda: self.save_version(), QKeySequence.StandardKey.Save,
+                         tip="Save this plan in the patient's record as its next version "
+                             "(earlier versions are never overwritten)")
+        )  # fmt: skip
+        file_menu.addAction(
+            self._action("&Import plan file…", self.open_file, "Ctrl+I",
+                         tip="Read a plan request from a file (from another workstation)")
         )  # fmt: skip
         self.demo_menu = file_menu.addMenu("&Demo patients")  # filled with the planner
         file_menu.addSeparator()
@@ -242,6 +242,8 @@ class MainWindow(QMainWindow):
         )
         file_menu.addAction(self._action("Print pre&view…", self.print_preview))
         export = file_menu.addMenu("&Export")
+        export.addAction(self._action("&Plan file…", self.save_file, "Ctrl+E",
+                                      tip="Write this plan's request to a file"))  # fmt: skip
         export.addAction(self._action("&Schedule as CSV…", lambda: self.export_csv("schedule")))
         export.addAction(
             self._action("&Observations as CSV…", lambda: self.export_csv("observations"))
@@ -470,7 +472,7 @@ class MainWindow(QMainWindow):
         if self.session.plan is None:
             QMessageBox.information(self, "vetfluid", "There is no valid plan to save yet.")
             return
-        dialog = QFileDialog(self, "Save plan request", str(user_data_dir()), FILE_FILTER)
+        dialog = QFileDialog(self, "Export plan file", str(user_data_dir()), FILE_FILTER)
         dialog.setAcceptMode(QFileDialog.AcceptMode.AcceptSave)
         dialog.setDefaultSuffix("vfplan.json")  # so the overwrite question sees the real name
         if dialog.exec() and dialog.selectedFiles():
@@ -497,7 +499,7 @@ class MainWindow(QMainWindow):
 
     def open_file(self) -> None:
         name, _ = QFileDialog.getOpenFileName(
-            self, "Open plan request", str(user_data_dir()), FILE_FILTER
+            self, "Import plan file", str(user_data_dir()), FILE_FILTER
         )
         if name:
             self.read_request(Path(name))

@@ -181,7 +181,7 @@ class Event(Enum):
     LOOK_AT_DRAFT = "at start: look at the draft left last time"
     LEAVE = "New patient, a demo, a plan file or a saved version asked for"
     REPLAN = "Re-plan"
-    SAVE = "Save as new version"
+    SAVE = "Save (the patient's next version)"
     SAVE_DONE = "the save a question asked for was made"
     SAVE_FAILED = "the save a question asked for was not made"
     CLOSE = "Quit"
@@ -1003,7 +1003,7 @@ class WorkSession:
         return (
             "The records file cannot be used, so this plan and what was recorded on it "
             f"cannot be kept: {self.problem}.\n\n{action} and lose them? To keep them, choose "
-            "Cancel: File ▸ Save plan request keeps the plan; File ▸ Export ▸ Observations "
+            "Cancel: File ▸ Export ▸ Plan file keeps the plan; File ▸ Export ▸ Observations "
             "as CSV keeps the observations."
         )
 
