@@ -709,11 +709,12 @@ def test_cat_cap_davis2013(table):
 
 
 @reference
-@pytest.mark.parametrize("species_id", ["rabbit", "ferret", "bearded_dragon", "guinea_pig"])
+@pytest.mark.parametrize("species_id", ["rabbit", "ferret", "guinea_pig"])
 def test_species_without_shock_dose_uses_blood_volume_in_quarter_steps(table, species_id):
     # Davis 2013: give the shock dose in 25% steps. Without a shock dose on record the
-    # cap is one blood volume and each bolus a quarter of it. (Birds are not among them:
-    # they carry an avian bolus of about 10 mL/kg, tests/test_review_values.py.)
+    # cap is one blood volume and each bolus a quarter of it. (Birds and reptiles are not
+    # among them: they carry a bolus of their own, tests/test_review_values.py and
+    # tests/test_exotic_routes.py.)
     assert table.get(species_id, "shock_dose_ml_per_kg") is None
     assert table.get(species_id, "bolus_ml_per_kg") is None
     blood = table.value(species_id, "blood_volume_ml_per_kg").number

@@ -22,11 +22,12 @@ def dog():
 
 @pytest.fixture(scope="module")
 def dog_no_excretion():
-    """The same dog with renal disease: isosthenuric, and the excretion of an excess is left
-    out, so the checks of distribution alone see every infused millilitre of an isotonic
-    fluid stay in the body (the kidney's own urine runs in both courses and cancels)."""
+    """The same dog with oliguric renal disease: the excretion of an excess is left out and
+    the urine capped, so the checks of distribution alone see every infused millilitre of an
+    isotonic fluid stay in the body (the kidney's own urine runs in both courses and
+    cancels)."""
     return build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=140,
-                                  renal_disease=True))  # fmt: skip
+                                  renal_disease=True, renal_output="oliguric"))  # fmt: skip
 
 
 def effect(plan, fluid_id, ml_per_kg, minutes, hour):
@@ -177,8 +178,8 @@ def test_after_the_plan_ends_the_state_it_left_holds():
 @pytest.mark.parametrize(
     ("request_changes", "species", "reason"),
     [
-        ({"renal_disease": True}, "dog", "renal disease"),
-        ({}, "african_grey", "no value for the species"),
+        ({"renal_disease": True, "renal_output": "oliguric"}, "dog", "oliguric renal disease"),
+        ({}, "ferret", "no concentrating ceiling for the species"),
         ({}, "dog", None),
     ],
 )

@@ -153,5 +153,6 @@ def test_a_measured_urine_osmolality_or_usg_stands_beside_the_prediction():
 def test_the_course_gives_its_urine_osmolality_and_k_to_set_beside_a_measurement(dog_plan):
     result = course(dog_plan, step_minutes=SHOWN_STEP_MINUTES)
     assert result.predicted("urine_osmolality", 3.0) == pytest.approx(
-        result.at(3.0)["urine_osm_mosm_per_kg"])
+        result.at(3.0)["urine_osm_mosm_per_kg"]
+    )
     assert result.predicted("usg", 3.0) is None  # an osmolality is predicted, not a USG

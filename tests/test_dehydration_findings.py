@@ -15,7 +15,8 @@ import json
 import pytest
 
 from vetfluid import cli
-from vetfluid.common.errors import InputError
+from vetfluid.common.errors import InputError, SpeciesDataError
+from vetfluid.common.paths import resource_dir
 from vetfluid.physiology import hydration
 from vetfluid.planning.plan import PlanRequest, build_plan
 from vetfluid.records.request_file import read_request_file
@@ -107,3 +108,77 @@ def test_the_cli_refuses_a_retired_finding_in_one_line(capsys):
     assert code == cli.EXIT_INPUT
     assert err.count("\n") == 1
     assert "eyes_possibly_sunken" in err and "eyes_clearly_sunken" in err
+
+
+# ---- issue 20: the examination follows the taxon -------------------------------------------
+def test_a_birds_findings_give_the_bird_bands_and_name_their_table():
+    # Wildpro, dehydration in cranes: tenting visible but not pronounced 7–9 %; dull,
+    # depressed, dry membranes, cool extremities 10–12 %.
+    from vetfluid.physiology.hydration import estimate_dehydration
+
+    estimate = estimate_dehydration(["bird_skin_tenting_visible"], taxon="bird")
+    assert (estimate.percent_low, estimate.percent_high) == (7, 9)
+    assert "cranes" in estimate.table_name
+    worse = estimate_dehydration(["bird_skin_tenting_visible", "bird_dull_dry_cool"], "bird")
+    assert (worse.percent_low, worse.percent_high) == (10, 12)
+    plan = build_plan(
+        PlanRequest(
+            species_id="budgerigar",
+            weight_kg=0.035,
+            dehydration_findings=("bird_skin_tenting_visible",),
+        )
+    )
+    found = next(f for f in plan.findings if f.code == "DEHYDRATION_FROM_FINDINGS")
+    assert "cranes" in found.message and plan.dehydration_percent == 7
+
+
+def test_a_dogs_examination_is_refused_for_a_bearded_dragon_in_words():
+    # capillary refill is no sign in a reptile (issue 20: the findings follow the taxon)
+    with pytest.raises(InputError) as err:
+        build_plan(
+            PlanRequest(
+                species_id="bearded_dragon", weight_kg=0.35, dehydration_findings=("crt_prolonged",)
+            )
+        )
+    assert "not part of a reptile's examination" in err.value.message
+    assert "reptile_eyes_sunken" in err.value.fix
+
+
+def test_a_reptiles_signs_have_no_band_so_the_percent_must_be_entered():
+    # Highfield (Tortoise Trust) describes the signs and gives no % bands; no source found
+    # does: the plan is blocked until the clinician enters a %, and then uses it.
+    signs = ("reptile_eyes_sunken", "reptile_mucus_viscous")
+    blocked = build_plan(
+        PlanRequest(species_id="bearded_dragon", weight_kg=0.35, dehydration_findings=signs)
+    )
+    found = {f.code: f for f in blocked.findings}
+    assert found["DEHYDRATION_PERCENT_NEEDED"].severity == "hard"
+    assert blocked.dehydration_percent == 0
+    entered = build_plan(
+        PlanRequest(
+            species_id="bearded_dragon",
+            weight_kg=0.35,
+            dehydration_findings=signs,
+            dehydration_percent=6,
+        )
+    )
+    assert "DEHYDRATION_PERCENT_NEEDED" not in {f.code for f in entered.findings}
+    assert entered.deficit_ml == pytest.approx(0.35 * 0.06 * 1000)
+
+
+def test_a_mammal_or_bird_finding_without_its_band_is_refused_by_the_loader(tmp_path):
+    import shutil
+
+    from vetfluid.physiology.hydration import load_findings
+
+    shutil.copytree(resource_dir("species_data"), tmp_path / "data")
+    path = tmp_path / "data" / "dehydration_findings.csv"
+    text = path.read_text().replace(
+        'bird_skin_tenting_visible,bird,"Loss of elasticity with tenting visible, not '
+        'pronounced",7,9',
+        "bird_skin_tenting_visible,bird,Loss,,",
+    )
+    assert ",bird,Loss,," in text
+    path.write_text(text)
+    with pytest.raises(SpeciesDataError):
+        load_findings(tmp_path / "data")

@@ -470,17 +470,18 @@ def test_a_deficit_replaced_faster_than_the_guidelines_is_a_soft_limit(
 
 
 def test_a_findings_estimate_outside_dogs_and_cats_says_what_it_rests_on():
-    """DiBartola 2012 Table 14-4 is a small-animal (dog and cat) table: for a bearded dragon
-    the estimate says so; for a dog it does not."""
+    """DiBartola 2012 Table 14-4 is a small-animal (dog and cat) table: for a rabbit the
+    estimate says so; for a dog it does not; each names the table it used (issue 20)."""
     findings = ("skin_return_delayed",)
-    dragon = plan_for(species_id="bearded_dragon", weight_kg=0.4, dehydration_findings=findings)
+    rabbit = plan_for(species_id="rabbit", weight_kg=2.5, dehydration_findings=findings)
     dog = plan_for(species_id="dog", weight_kg=20, dehydration_findings=findings)
     said = {p.request.species_id: next(f.message for f in p.findings
                                        if f.code == "DEHYDRATION_FROM_FINDINGS")
-            for p in (dragon, dog)}  # fmt: skip
-    assert "written for dogs and cats" in said["bearded_dragon"]
-    assert "this species (Bearded dragon)" in said["bearded_dragon"]
+            for p in (rabbit, dog)}  # fmt: skip
+    assert "written for dogs and cats" in said["rabbit"]
+    assert "this species (Domestic rabbit)" in said["rabbit"]
     assert "written for dogs and cats" not in said["dog"]
+    assert "DiBartola 2012, Table 14-4" in said["dog"]
 
 
 @pytest.mark.parametrize(

@@ -137,9 +137,11 @@ def test_the_phases_route_column_is_only_as_wide_as_its_words(qtbot, dragon):
         _column_whole(view, column)
 
 
-def test_unticking_the_findings_leaves_no_stale_use_button(qtbot, dragon):
-    patient = dragon.patient
-    box = next(iter(patient.finding_boxes.values()))
+def test_unticking_the_findings_leaves_no_stale_use_button(qtbot, planner):
+    planner.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: planner.session.plan is not None)
+    patient = planner.patient
+    box = patient.finding_boxes["skin_return_delayed"]
     box.setChecked(True)
     _settle(qtbot)
     assert patient.use_estimate.isVisible() and patient.use_estimate.isEnabled()

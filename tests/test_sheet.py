@@ -92,7 +92,7 @@ def gerbil_data(weight_kg: float = 0.117, **inputs):
 def _header_and_labels(html: str) -> str:
     """The header line and the labels, where the sheet names the patient's weight."""
     header = html.split("<p>", 1)[1].split("</p>", 1)[0]
-    labels = html.split("<h3>Labels</h3>", 1)[1].split("<h3>", 1)[0]
+    labels = html.split(">Labels</h3>", 1)[1].split("<h3>", 1)[0]
     return header + labels
 
 
@@ -102,7 +102,9 @@ def test_a_gerbil_is_weighed_in_grams_with_every_figure():
     assert data["weight_unit"] == "g" and data["weight_kg"] == 0.117
     shown = _header_and_labels(sheet_html(data))
     assert "Mongolian gerbil, 117 g" in shown
-    assert shown.count("117 g") == 1 + len(data["phases"])  # the header and every label
+    from vetfluid.printouts.labels import labels
+
+    assert shown.count("117 g") == 1 + len(labels(data))  # the header and every label
     assert " kg" not in shown
 
 
@@ -249,7 +251,7 @@ def test_the_patient_inputs_block_lists_flags_temperature_dehydration_and_the_la
 
 
 def test_an_estimate_from_findings_is_marked_not_confirmed_and_a_temperature_is_shown():
-    plan = build_plan(PlanRequest(species_id="bearded_dragon", weight_kg=0.38, body_temp_c=24,
+    plan = build_plan(PlanRequest(species_id="rabbit", weight_kg=2.5,
                                   dehydration_findings=("membranes_possibly_dry",)))  # fmt: skip
     data = plan_dict(plan)
     block = _inputs_block(sheet_html(data))
@@ -258,10 +260,17 @@ def test_an_estimate_from_findings_is_marked_not_confirmed_and_a_temperature_is_
     assert "NOT CONFIRMED" in block and "Mucous membranes possibly dry" in block
     assert "membranes_possibly_dry" not in block
     assert f"{estimate['percent_low']:g}–{estimate['percent_high']:g} %" in block
-    assert "24 °C" in block
+    # a reptile's signs have no % band: the sheet says the % must be entered, in words
+    dragon = plan_dict(build_plan(PlanRequest(
+        species_id="bearded_dragon", weight_kg=0.38, body_temp_c=24,
+        dehydration_findings=("reptile_eyes_sunken",),
+    )))  # fmt: skip
+    said = _inputs_block(sheet_html(dragon))
+    assert "NOT ENTERED" in said and "Eyes sunken" in said
+    assert "24 °C" in said
     confirmed = plan_dict(build_plan(PlanRequest(
         species_id="bearded_dragon", weight_kg=0.38, dehydration_percent=5,
-        dehydration_findings=("membranes_possibly_dry",),
+        dehydration_findings=("reptile_eyes_sunken",),
     )))  # fmt: skip
     block = _inputs_block(sheet_html(confirmed))
     assert "5 %, entered" in block and "NOT CONFIRMED" not in block
@@ -293,8 +302,11 @@ def test_the_potassium_line_and_the_labels_give_the_strength_in_the_bag():
             f"{q(k['peak_mmol_per_kg_per_h'], 'mmol/kg/h')} at the fastest rate")  # fmt: skip
     assert line in html
     label = f"K {q(data['fluid']['k_mmol_per_l'], 'mmol/L')} in the bag"
-    labels = html.split("<h3>Labels</h3>", 1)[1].split("<h3>", 1)[0]
-    assert labels.count(label) == len(data["phases"])  # every bag here carries the KCl
+    labels = html.split(">Labels</h3>", 1)[1].split("<h3>", 1)[0]
+    from vetfluid.printouts.labels import labels as containers
+
+    bags = [x for x in containers(data) if x.kind == "bag"]
+    assert len(bags) == 4 and labels.count(label) == len(bags)  # every bag carries the KCl
     none = sheet_html(plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=20))))
     assert "no serum K entered, no KCl added" in none and "in the bag" not in none
 
@@ -305,8 +317,8 @@ def test_a_bolus_bag_has_nothing_added_and_dextrose_is_given_by_its_strength():
     plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, resuscitation_boluses=1,
                                   kcl_mmol_per_l=20, dextrose_percent=2.5))  # fmt: skip
     data = plan_dict(plan)
-    labels = sheet_html(data).split("<h3>Labels</h3>", 1)[1].split("</table>", 1)[0]
-    cells = labels.split("<td>")[1:]
+    labels = sheet_html(data).split(">Labels</h3>", 1)[1].split("</table>", 1)[0]
+    cells = labels.split("<td")[1:]
     assert "with nothing added" in cells[0] and "in the bag" not in cells[0]
     from vetfluid.tables import fluids
 
@@ -341,7 +353,7 @@ def test_later_boluses_are_marked_conditional_wherever_the_sheet_lists_them():
     from vetfluid.common.formatting import format_quantity as q
 
     assert f"from 08:45: {q(replacement['rate_ml_per_h'], 'mL/h')}" in first_hour
-    labels = html.split("<h3>Labels</h3>", 1)[1].split("<h3>", 1)[0]
+    labels = html.split(">Labels</h3>", 1)[1].split("<h3>", 1)[0]
     assert labels.count(CONDITIONAL.upper()) == 2
     assert "bolus 2: " + CONDITIONAL.upper() in labels
     plan_rows = html.split("<h3>Plan</h3>", 1)[1].split("<h3>", 1)[0]

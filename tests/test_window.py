@@ -665,12 +665,22 @@ def test_a_plan_without_a_start_date_goes_on_the_last_day_its_time_came(
 
 def test_the_findings_estimate_says_when_its_bands_are_not_for_this_species(qtbot, window):
     patient = window.patient
-    patient.species_box.lineEdit().setText("Bearded dragon")
+    patient.species_box.lineEdit().setText("Domestic rabbit")
     patient._species_typed()
     patient.finding_boxes["skin_return_delayed"].setChecked(True)
     assert "written for dogs and cats" in patient.estimate_label.text()
-    assert "(Bearded dragon)" in patient.estimate_label.text()
+    assert "(Domestic rabbit)" in patient.estimate_label.text()
     patient.species_box.lineEdit().setText("Dog")
     patient._species_typed()
     assert "6–8 %" in patient.estimate_label.text()
     assert "written for dogs and cats" not in patient.estimate_label.text()
+    # a bearded dragon is examined for a reptile's signs: the dog's are not offered, and one
+    # ticked for the dog is unticked, never carried to the dragon (issue 20)
+    patient.species_box.lineEdit().setText("Bearded dragon")
+    patient._species_typed()
+    assert not patient.finding_boxes["skin_return_delayed"].isChecked()
+    assert patient.finding_boxes["skin_return_delayed"].isHidden()
+    assert not patient.finding_boxes["reptile_eyes_sunken"].isHidden()
+    patient.finding_boxes["reptile_eyes_sunken"].setChecked(True)
+    assert "no % bands published" in patient.estimate_label.text()
+    assert not patient.use_estimate.isVisible()

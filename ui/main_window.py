@@ -53,6 +53,7 @@ class MainWindow(QMainWindow):
         super().__init__()
         self.session = None  # created with the planner, right after the first paint
         self.keeper = None  # keeps the work in the records; created with the planner
+        self.print_patient: dict | None = None  # whose sheet is printed: saved, or asked
         self.timeline_view = None
         self.course_view = None
         self.species_view = None
@@ -526,22 +527,27 @@ class MainWindow(QMainWindow):
         if self.session.plan is None:
             QMessageBox.information(self, "vetfluid", "There is no valid plan to print yet.")
             return False
-        return True
+        from ui.printouts.printing import patient_to_print
+
+        self.print_patient = patient_to_print(self, self.keeper)  # None: cancelled
+        return self.print_patient is not None
 
     def print_plan(self) -> None:
-        from ui.printouts.printing import choose_printer_and_print
+        from ui.printouts.printing import choose_printer_and_print, proposed_sheet_path
 
         if self._printable():
-            choose_printer_and_print(self, self.print_to)
+            path = proposed_sheet_path(self.session.plan, self.print_patient)
+            choose_printer_and_print(self, self.print_to, file_path=path)
 
     def print_to(self, printer) -> None:  # noqa: ANN001 — QPrinter
-        from ui.printouts.printing import print_sheet
+        from ui.printouts.printing import print_sheet, saved_patient
         from vetfluid.printouts.sheet import BLOCKED_MARK, plan_sheet_html
 
         plan = self.session.plan
         html = plan_sheet_html(
-            plan, acknowledged=self.session.acknowledged, ready=self.session.ready
-        )
+            plan, acknowledged=self.session.acknowledged, ready=self.session.ready,
+            patient=self.print_patient or saved_patient(self.keeper),
+        )  # fmt: skip
         print_sheet(html, printer, mark=BLOCKED_MARK if plan.has_hard_limit else "")
 
     def print_preview(self) -> None:

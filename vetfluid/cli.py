@@ -178,9 +178,32 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
         "--shock-fluid", dest="shock_fluid",
         help="fluid id of the resuscitation boluses, when not the plan's fluid",
     )  # fmt: skip
-    add("--route", choices=("iv", "cvc", "io", "sc", "icoel"), help="cvc: a central line")
+    add(
+        "--route", choices=("iv", "cvc", "io", "sc", "icoel", "epicoel", "ip", "oral"),
+        help="cvc: a central line; icoel: intracoelomic; epicoel: epicoelomic (chelonians); "
+        "ip: intraperitoneal (small rodents); oral: by mouth, crop or stomach tube",
+    )  # fmt: skip
     add("--device", choices=("pump", "gravity", "syringe", "divided"))
     add("--drop-factor", type=_number, help="giving set drops/mL (implies a gravity drip)")
+    add(
+        "--dose-interval",
+        type=_number,
+        metavar="H",
+        help="divided doses every H hours: 6, 8, 12 or 24 (default: the plan chooses)",
+    )
+    add(
+        "--max-sites",
+        type=_whole,
+        metavar="N",
+        help="divided doses in at most N sites each (default: the route's usual most)",
+    )
+    add(
+        "--soaks",
+        type=_whole,
+        default=0,
+        metavar="N",
+        help="soaks a day in shallow warm water (chelonians, lizards): recorded, not counted",
+    )
     add("--boluses", type=_whole, default=0, help="resuscitation boluses to plan first")
     add("--body-temp-c", type=_number, help="body temperature (ectotherms)")
     add("--serum-na", type=_number, help="serum sodium, mmol/L")
@@ -254,6 +277,12 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
     )
     add("--max-na-change", type=_number, help="maximum Na change, mmol/L/h")
     add("--syringe-ml", type=_number, default=60.0, help="syringe size, mL")
+    add(
+        "--bag-size",
+        type=_number,
+        metavar="ML",
+        help="bag size, mL: 250, 500 or 1000 (default: by each phase's volume)",
+    )
     add("--pcv", type=_number, help="packed cell volume, %% (recorded with the plan)")
     add("--ts", type=_number, help="total solids, g/dL (recorded with the plan)")
     for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
@@ -468,6 +497,10 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         neonate=args.neonate,
         max_na_change_per_h=args.max_na_change,
         syringe_size_ml=args.syringe_ml,
+        dose_interval_h=args.dose_interval,
+        max_sites_per_dose=args.max_sites,
+        soaks_per_day=args.soaks,
+        bag_size_ml=args.bag_size,
         pcv_percent=args.pcv,
         total_solids_g_per_dl=args.ts,
         diuretics=_diuretics(args),

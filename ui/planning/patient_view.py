@@ -39,7 +39,12 @@ from vetfluid.common.units import (
     weight_in_unit,
 )
 from vetfluid.physiology.electrolytes import DEFAULT_LOSS_TYPE, LOSS_TYPES
-from vetfluid.physiology.hydration import estimate_dehydration, findings_caveat, load_findings
+from vetfluid.physiology.hydration import (
+    TABLE_NAMES,
+    estimate_dehydration,
+    findings_caveat,
+    load_findings,
+)
 
 # Optional numeric inputs: request field → (label, unit, placeholder, tooltip)
 LAB_FIELDS = {
@@ -250,14 +255,21 @@ class PatientView(QWidget):
         hform.addRow("&Dehydration (%)", self.dehydration_field)
         hform.addRow(QLabel("Or tick what you find on examination:"))
         self.finding_boxes: dict[str, QCheckBox] = {}
+        # every taxon's findings, each shown only for a patient of its taxon (a reptile is
+        # not examined for capillary refill); the band and the table in the tooltip
+        self.finding_taxon: dict[str, str] = {}
         for fid, finding in load_findings().items():
-            if fid == "none_detectable":
+            if finding.percent_low == 0:  # "nothing detectable" is the empty choice
                 continue
             box = QCheckBox(finding.label)
             box.setAccessibleName(finding.label)
-            box.setToolTip(f"{finding.percent_low:g}–{finding.percent_high:g} % (DiBartola 2012)")
+            band = (f"{finding.percent_low:g}–{finding.percent_high:g} %"
+                    if finding.percent_low is not None else "no % band published")  # fmt: skip
+            recalled = " (recalled, unverified)" if finding.basis == "memory" else ""
+            box.setToolTip(f"{band}: {TABLE_NAMES[finding.taxon]}{recalled}")
             box.toggled.connect(self._findings_changed)
             self.finding_boxes[fid] = box
+            self.finding_taxon[fid] = finding.taxon
             hform.addRow(box)
         self.estimate_label = QLabel()
         self.estimate_label.setWordWrap(True)
@@ -337,7 +349,8 @@ class PatientView(QWidget):
         for fid, box in self.finding_boxes.items():
             with QSignalBlocker(box):
                 box.setChecked(fid in chosen)
-        self._show_estimate(tuple(chosen))
+            box.setVisible(self.finding_taxon[fid] == self._taxon())
+        self._show_estimate(tuple(f for f in self.finding_boxes if f in chosen))
 
     def focus_species(self) -> None:
         """Bring the species field into view at the top of the input panel and put the
@@ -521,6 +534,7 @@ class PatientView(QWidget):
             with QSignalBlocker(self.weight_edit):
                 self.weight_edit.setText(format_number(weight_in_unit(weight, unit), decimals=4))
         self.session.update(species_id=sid)
+        self._show_findings_for_taxon()
         self._show_estimate(self._chosen_findings())  # its caveat depends on the species
 
     def _weight_changed(self, *_: object) -> None:
@@ -543,6 +557,26 @@ class PatientView(QWidget):
                 self.unit_box.setCurrentText(typed_unit.group(0).lower())
         self.session.update(weight_kg=kg)
 
+    def _taxon(self) -> str:
+        sid = self.session.inputs.get("species_id")
+        table = self.session.table
+        return table.taxon_class(sid) if sid in table.species_by_id else "mammal"
+
+    def _show_findings_for_taxon(self) -> None:
+        """Only the findings of the patient's taxon are offered; a ticked finding of another
+        taxon (the species changed) is unticked, never carried to the new patient."""
+        taxon = self._taxon()
+        dropped = False
+        for fid, box in self.finding_boxes.items():
+            mine = self.finding_taxon[fid] == taxon
+            box.setVisible(mine)
+            if not mine and box.isChecked():
+                with QSignalBlocker(box):
+                    box.setChecked(False)
+                dropped = True
+        if dropped:
+            self.session.update(dehydration_findings=self._chosen_findings())
+
     def _chosen_findings(self) -> tuple[str, ...]:
         return tuple(fid for fid, box in self.finding_boxes.items() if box.isChecked())
 
@@ -552,27 +586,39 @@ class PatientView(QWidget):
         self.session.update(dehydration_findings=chosen)
 
     def _show_estimate(self, chosen: tuple[str, ...]) -> None:
-        estimate = estimate_dehydration(chosen)
-        if not chosen:
+        taxon = self._taxon()
+        try:
+            estimate = estimate_dehydration(chosen, taxon=taxon)
+        except InputError:  # a finding of another taxon: the plan line says so in words
+            chosen = ()
+            estimate = None
+        if not chosen or estimate is None:
             self.estimate_label.setText("Tick what you find to see the estimated band.")
             # no findings, no figure to use: the button goes, not left greyed with an old one
             self.use_estimate.setText("Use estimate")
             self.use_estimate.hide()
             self.dehydration_field.setPlaceholderText("0")
             return
+        sid = self.session.inputs.get("species_id")
+        caveat = (
+            findings_caveat(sid, self.session.table.species(sid).common_name, taxon)
+            if sid in self.session.table.species_by_id
+            else ""
+        )
+        if estimate.suggested_percent is None:  # a reptile's signs: no published band
+            self.dehydration_field.setPlaceholderText("type the % you estimate")
+            self.estimate_label.setText(
+                f"Signs of dehydration recorded ({estimate.table_name}). {caveat}".rstrip()
+            )
+            self.use_estimate.hide()
+            return
         # an empty field now means the estimate, not 0: say so where the number would be
         self.dehydration_field.setPlaceholderText(
             f"{estimate.suggested_percent:g} from findings — not confirmed"
         )
-        sid = self.session.inputs.get("species_id")
-        caveat = (
-            findings_caveat(sid, self.session.table.species(sid).common_name)
-            if sid in self.session.table.species_by_id
-            else ""
-        )
         self.estimate_label.setText(
             f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % "
-            f"(DiBartola 2012, Table 14-4). The plan uses {estimate.suggested_percent:g}\u00a0% "
+            f"({estimate.table_name}). The plan uses {estimate.suggested_percent:g}\u00a0% "
             f"until you confirm it: click the button or type the % above. {caveat}".rstrip()
         )
         self.use_estimate.setText(f"Use {estimate.suggested_percent:g} %")

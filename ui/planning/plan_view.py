@@ -35,10 +35,15 @@ from ui.planning.shown_plan import ShownPlan
 from vetfluid.common.errors import InputError
 from vetfluid.common.formatting import format_quantity as q
 from vetfluid.common.units import read_decimal
-from vetfluid.physiology.delivery import STANDARD_DROP_FACTORS
+from vetfluid.physiology.delivery import (
+    CHOSEN_INTERVALS_H,
+    MOST_SITES_CHOSEN,
+    ONE_SITE_ROUTES,
+    STANDARD_DROP_FACTORS,
+)
 from vetfluid.physiology.electrolytes import sodium_text
 from vetfluid.physiology.ins_and_outs import maintenance_not_given, planned_so_far
-from vetfluid.planning.plan import Plan
+from vetfluid.planning.plan import BAG_SIZES_ML, LINE_ROUTES, MAX_SOAKS_PER_DAY, Plan
 from vetfluid.planning.schedule import clock_time, diuretic_text, rate_or_dose_text, route_text
 from vetfluid.printouts.sheet import DEVICE_WORDS
 from vetfluid.records.serialize import fluid_dict
@@ -51,7 +56,14 @@ ROUTE_CHOICES = (
     ("io", "IO"),
     ("sc", "SC"),
     ("icoel", "Intracoelomic"),
+    ("epicoel", "Epicoelomic (chelonians)"),
+    ("ip", "IP (small rodents)"),
+    ("oral", "Oral / gavage"),
 )
+# Divided doses as the clinician gives them (delivery.CHOSEN_INTERVALS_H, MOST_SITES_CHOSEN)
+INTERVAL_CHOICES = ((None, "Plan chooses"), *((h, f"every {h:g} h") for h in CHOSEN_INTERVALS_H))
+SITES_CHOICES = ((None, "Usual most"), *((n, str(n)) for n in range(1, MOST_SITES_CHOSEN + 1)))
+SOAK_CHOICES = ((0, "None"), *((n, f"{n} a day") for n in range(1, MAX_SOAKS_PER_DAY + 1)))
 DEVICE_CHOICES = (
     (None, "Automatic"),
     ("pump", "Infusion pump"),
@@ -164,7 +176,7 @@ class PlanSettings(QGroupBox):
 
         self.route = _choice_box(ROUTE_CHOICES, "Route", "Automatic: a line above the species' "
                                  "line weight, divided boluses below it")  # fmt: skip
-        self.route.activated.connect(lambda _: session.update(route=self.route.currentData()))
+        self.route.activated.connect(self._route_changed)
         form.addRow("R&oute", self.route)
 
         self.device = _choice_box(DEVICE_CHOICES, "Delivery", "How the fluid is delivered")
@@ -180,6 +192,44 @@ class PlanSettings(QGroupBox):
         row.addWidget(QLabel("drops/mL"))
         row.addWidget(self.drop_factor, 1)
         form.addRow(buddy_label("&Delivery", self.device), row)
+        # divided doses as given: the interval and the sites, shown only for divided doses
+        self.dose_interval = _choice_box(
+            INTERVAL_CHOICES, "Dose every",
+            "Divided doses every 6, 8, 12 or 24 h; a dose never holds more than its sites "
+            "allow, so the plan says how long replacement then takes",
+        )  # fmt: skip
+        self.dose_interval.activated.connect(
+            lambda _: session.update(dose_interval_h=self.dose_interval.currentData())
+        )
+        form.addRow("Dose e&very", self.dose_interval)
+        self.max_sites = _choice_box(
+            SITES_CHOICES, "Sites per dose at most",
+            "The most injection sites one dose may use (SC); into one cavity or by mouth it "
+            "is always one",
+        )  # fmt: skip
+        self.max_sites.activated.connect(
+            lambda _: session.update(max_sites_per_dose=self.max_sites.currentData())
+        )
+        form.addRow("Sites per dose at most", self.max_sites)
+        self.soaks = _choice_box(
+            SOAK_CHOICES, "Soaks a day",
+            "Shallow warm baths (chelonians and lizards): on the schedule, never counted as "
+            "fluid given",
+        )  # fmt: skip
+        self.soaks.activated.connect(
+            lambda _: session.update(soaks_per_day=self.soaks.currentData())
+        )
+        form.addRow("Soa&ks a day", self.soaks)
+        self._dosing_form = form
+        session.planChanged.connect(self._show_dosing)
+        self.bag_size = _choice_box(
+            ((None, "By each phase's volume"), *((size, f"{size:g} mL") for size in BAG_SIZES_ML)),
+            "Bag size", "The bag size the labels count bags of (250, 500 or 1000 mL)",
+        )  # fmt: skip
+        self.bag_size.activated.connect(
+            lambda _: session.update(bag_size_ml=self.bag_size.currentData())
+        )
+        form.addRow("Ba&g size", self.bag_size)
 
         self.kcl_mode = _choice_box(
             ((None, "From the serum-K scale"), ("hand", "By hand")),
@@ -234,6 +284,12 @@ class PlanSettings(QGroupBox):
         _select(self.shock_fluid, inputs["bolus_fluid_id"])
         _select(self.route, inputs["route"])
         _select(self.device, inputs["device"])
+        interval = inputs.get("dose_interval_h")
+        _select(self.dose_interval, None if interval is None else float(interval))
+        _select(self.max_sites, inputs.get("max_sites_per_dose"))
+        _select(self.soaks, inputs.get("soaks_per_day") or 0)
+        bag = inputs.get("bag_size_ml")
+        _select(self.bag_size, None if bag is None else float(bag))
         with QSignalBlocker(self.drop_factor):
             self.drop_factor.setCurrentText(format_drop(inputs["drop_factor"]))
         self.drop_factor.setEnabled(inputs["device"] == "gravity")
@@ -262,13 +318,45 @@ class PlanSettings(QGroupBox):
         with QSignalBlocker(self.start):
             self.start.setDateTime(to_qt(datetime.combine(day, start)))
 
+    def _route_changed(self, _: int) -> None:
+        route = self.route.currentData()
+        changes: dict[str, object] = {"route": route}
+        if route in LINE_ROUTES:  # a line: no dosing interval or sites
+            changes.update(dose_interval_h=None, max_sites_per_dose=None)
+        elif route in ONE_SITE_ROUTES:  # one injection or tube a dose
+            changes.update(max_sites_per_dose=None)
+        self.session.update(**changes)
+        _select(self.max_sites, self.session.inputs["max_sites_per_dose"])
+        _select(self.dose_interval, self.session.inputs["dose_interval_h"])
+
+    def _show_dosing(self, plan: Plan | None) -> None:
+        """The interval and sites only for divided doses (sites only where a dose may use
+        more than one); soaking only for a taxon with soaking on record. What is shown
+        follows the plan the core built; while an input is invalid nothing changes."""
+        if plan is None:
+            return
+        divided = plan.device == "divided"
+        soaking = self.session.table.get(plan.request.species_id, "soak_water_temp_c")
+        shown = {
+            self.dose_interval: divided,
+            self.max_sites: divided and plan.route not in ONE_SITE_ROUTES,
+            self.soaks: soaking is not None,
+        }
+        for widget, visible in shown.items():
+            if self._dosing_form.isRowVisible(widget) != visible:
+                self._dosing_form.setRowVisible(widget, visible)
+
     def _device_changed(self, _: int) -> None:
         device = self.device.currentData()
         self.drop_factor.setEnabled(device == "gravity")
         changes = {"device": device}
+        if device in ("pump", "gravity", "syringe"):  # a line: no dosing interval or sites
+            changes.update(dose_interval_h=None, max_sites_per_dose=None)
         if device == "gravity":
             changes["drop_factor"] = float(self.drop_factor.currentText() or 20)
         self.session.update(**changes)
+        _select(self.max_sites, self.session.inputs["max_sites_per_dose"])
+        _select(self.dose_interval, self.session.inputs["dose_interval_h"])
 
     def _drop_factor_changed(self, text: str) -> None:
         try:

@@ -14,6 +14,13 @@
   need × the dosing interval, split over as many sites as the route's per-site
   limit requires. SC fluids are absorbed over 6–8 h (Vet Clin North Am Small
   Anim Pract 2017;47:505–519), so doses are at least 6 h apart.
+* Dosing the way it is done: the clinician may choose the interval (every 6, 8, 12 or
+  24 h) and the most sites per dose. A dose then holds at most the sites × the route's
+  per-site limit (drawn to the syringe's marks, :func:`dose_ceiling`); when that is
+  less than the need, the deficit is replaced over as many whole intervals as the room
+  above maintenance takes (:func:`replacement_hours`), never in more sites.
+* Routes into one space (the coelom, the epicoelomic space, the peritoneum) and by mouth
+  or tube take one injection or one tube per dose (:data:`ONE_SITE_ROUTES`).
 """
 
 from __future__ import annotations
@@ -36,6 +43,15 @@ DIVIDED_INTERVALS_H = (12.0, 8.0, 6.0)
 # the shorter end is used wherever absorption speed matters for safety (faster = harsher).
 SC_ABSORPTION_H = 6.0
 MAX_SITES_PER_DOSE = 4  # common practice, no source: more sites per handling is impractical
+# One injection (or one tube) per dose: a cavity is one space, so more punctures do not make
+# room; a crop or stomach takes one tube at a time (common practice, no source).
+ONE_SITE_ROUTES = ("icoel", "epicoel", "ip", "oral")
+# The dosing intervals a clinician may choose for divided doses, in hours (issue 20: every
+# 6, 8, 12 or 24 h; reptiles are often dosed once a day). Common practice, no source.
+CHOSEN_INTERVALS_H = (6.0, 8.0, 12.0, 24.0)
+# Software bound on the sites a clinician may choose per dose: the hard limit in
+# safety_limits.csv (divided_sites_max_per_dose, 10; common practice, no source).
+MOST_SITES_CHOSEN = 10
 # Fastest drip whose drops a nurse can count by eye: two drops a second (common
 # practice, no source). Faster drops blur together and are miscounted.
 COUNTABLE_DROPS_PER_MIN = 120.0
@@ -169,16 +185,28 @@ class DividedBoluses:
     fits: bool  # False when even the shortest interval needs more than MAX_SITES_PER_DOSE
 
 
+def most_sites(route: str) -> int:
+    """The usual most sites per dose: one for a route into one space or by mouth
+    (:data:`ONE_SITE_ROUTES`), else :data:`MAX_SITES_PER_DOSE`."""
+    return 1 if route in ONE_SITE_ROUTES else MAX_SITES_PER_DOSE
+
+
 def divided_boluses(
-    *, need_ml_per_h: float, per_site_limit_ml: float, route: str
+    *,
+    need_ml_per_h: float,
+    per_site_limit_ml: float,
+    route: str,
+    sites_at_most: int | None = None,
+    interval_h: float | None = None,
 ) -> DividedBoluses:
     """Split an hourly need into doses: the longest interval whose dose fits few enough sites
-    — under the skin up to :data:`MAX_SITES_PER_DOSE`, into the coelom one injection (one
-    cavity: more punctures do not make room)."""
+    — under the skin up to :data:`MAX_SITES_PER_DOSE` (or ``sites_at_most``), into one space
+    or by mouth one (:func:`most_sites`). ``interval_h``: the clinician's interval, the only
+    one tried."""
     need = _rate(need_ml_per_h)
     require_number(per_site_limit_ml, "per_site_limit_ml", positive=True, unit="mL")
-    most_sites = 1 if route == "icoel" else MAX_SITES_PER_DOSE
-    for interval in DIVIDED_INTERVALS_H:
+    most = sites_at_most or most_sites(route)
+    for interval in (interval_h,) if interval_h else DIVIDED_INTERVALS_H:
         dose = need * interval
         sites = max(1, math.ceil(round(dose / per_site_limit_ml, 9)))
         schedule = DividedBoluses(
@@ -189,8 +217,54 @@ def divided_boluses(
             sites_per_dose=sites,
             ml_per_site=dose / sites,
             per_site_limit_ml=per_site_limit_ml,
-            fits=sites <= most_sites,
+            fits=sites <= most,
         )
         if schedule.fits:
             break
     return schedule
+
+
+@dataclass(frozen=True, kw_only=True)
+class DoseCeiling:
+    """The most one divided dose holds at the clinician's interval and sites: each site
+    drawn up to its limit (to the syringe's marks, never above it)."""
+
+    route: str
+    interval_h: float
+    sites: int
+    per_site_limit_ml: float
+    ml_per_site: float  # the limit as drawn up
+    dose_ml: float  # sites × ml_per_site
+
+    @property
+    def ml_per_h(self) -> float:
+        """What these doses give on average, mL/h."""
+        return self.dose_ml / self.interval_h
+
+
+def dose_ceiling(
+    *, route: str, interval_h: float, sites: int, per_site_limit_ml: float
+) -> DoseCeiling:
+    """The most a dose holds: ``sites`` sites each drawn up to the per-site limit
+    (:func:`drawn_up_dose` with ``at_most`` the limit)."""
+    require_number(interval_h, "interval_h", positive=True, unit="h")
+    require_number(per_site_limit_ml, "per_site_limit_ml", positive=True, unit="mL")
+    drawn = drawn_up_dose(ml_per_site=per_site_limit_ml, sites=sites, at_most=per_site_limit_ml)
+    return DoseCeiling(
+        route=route, interval_h=interval_h, sites=sites, per_site_limit_ml=per_site_limit_ml,
+        ml_per_site=drawn.ml_per_site, dose_ml=drawn.dose_ml,
+    )  # fmt: skip
+
+
+def replacement_hours(
+    *, deficit_ml: float, background_ml_per_h: float, ceiling: DoseCeiling
+) -> float | None:
+    """How long doses at ``ceiling`` take to replace a deficit on top of maintenance and
+    losses (``background_ml_per_h``): the deficit ÷ the room the doses leave above the
+    background, rounded up to whole intervals (a dose is given whole or not at all). None
+    when the doses give no more than the background: the deficit is never replaced."""
+    deficit = require_number(deficit_ml, "deficit_ml", low=0, unit="mL")
+    room = ceiling.ml_per_h - _rate(background_ml_per_h)
+    if room <= 1e-12:
+        return None
+    return math.ceil(round(deficit / room / ceiling.interval_h, 9)) * ceiling.interval_h

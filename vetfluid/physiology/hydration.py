@@ -1,11 +1,16 @@
 """Hydration: dehydration estimate from findings, deficit, free-water deficit.
 
-* Findings table: DiBartola SP (ed.), Fluid, Electrolyte, and Acid-Base
-  Disorders in Small Animal Practice, 4th ed., 2012, Table 14-4 (p. 335, after Muir &
-  DiBartola 1983), shipped as ``species_data/dehydration_findings.csv``. It is a
-  display aid: the clinician confirms the percentage. The table has eyes *possibly*
-  sunken and membranes *possibly* dry at 6–8 %, sunken eyes and dry membranes at
-  10–12 %; the findings are split the same way.
+* Findings, one table per taxon (``species_data/dehydration_findings.csv``, column
+  ``taxon``); each is a display aid, and the clinician confirms the percentage.
+  Mammals: DiBartola SP (ed.), Fluid, Electrolyte, and Acid-Base Disorders in Small
+  Animal Practice, 4th ed., 2012, Table 14-4 (p. 335, after Muir & DiBartola 1983),
+  written for dogs and cats; it has eyes *possibly* sunken and membranes *possibly* dry at
+  6–8 %, sunken eyes and dry membranes at 10–12 %, and the findings are split the same way.
+  Birds: the bands Wildpro gives for cranes after avian texts (bird skin is inelastic, so
+  tenting is read over the hocks); the ulnar-vein refill sign is recalled (memory).
+  Reptiles: the signs Highfield (Tortoise Trust) describes, with no % bands, because no
+  source found gives any: the clinician enters the % (:class:`DehydrationEstimate` then
+  has no band).
 * Deficit: body weight (kg) × fraction dehydrated = litres (1 kg lost ≈ 1 L);
   Davis H et al., 2013 AAHA/AAFP Fluid Therapy Guidelines; DiBartola 2012.
 * Free-water deficit: TBW × (Na_patient / Na_normal − 1), TBW = fraction × BW
@@ -25,9 +30,16 @@ from vetfluid.common.errors import InputError, SpeciesDataError
 from vetfluid.common.paths import resource_dir
 from vetfluid.tables.species import SpeciesTable, SpeciesValue
 
-# The findings table comes from a text on dogs and cats (DiBartola 2012); vetfluid ships
-# no bands for other species.
+# The mammal table comes from a text on dogs and cats (DiBartola 2012); other mammals use
+# it as a rough guide.
 FINDINGS_WRITTEN_FOR = ("dog", "cat")
+TAXA = ("mammal", "bird", "reptile")
+# what each taxon's table is, as the estimate names it
+TABLE_NAMES = {
+    "mammal": "DiBartola 2012, Table 14-4 (dogs and cats)",
+    "bird": "Wildpro, dehydration in cranes (bird bands)",
+    "reptile": "Highfield, Tortoise Trust (reptile signs; no % bands published)",
+}
 
 # Findings of earlier versions that covered two rows of Table 14-4 (banded 6–8 % whether
 # the sign was doubtful or plain). Which row a patient showed only the examiner knows, so
@@ -39,9 +51,19 @@ RETIRED_FINDINGS: dict[str, tuple[str, tuple[str, ...]]] = {
 }
 
 
-def findings_caveat(species_id: str, common_name: str) -> str:
-    """What an estimate from the findings rests on, for a species the table was not written
+def findings_caveat(species_id: str, common_name: str, taxon: str = "mammal") -> str:
+    """What an estimate from the findings rests on, for a species its table was not written
     for; empty for dogs and cats."""
+    if taxon == "bird":
+        return (
+            "These bands were described for cranes (Wildpro); bird skin is inelastic, so "
+            f"take the estimate for this {common_name.lower()} as a rough guide."
+        )
+    if taxon == "reptile":
+        return (
+            "No source found gives % bands for reptiles: the signs are recorded, and the % is "
+            "yours to enter."
+        )
     if species_id in FINDINGS_WRITTEN_FOR:
         return ""
     return (
@@ -53,43 +75,61 @@ def findings_caveat(species_id: str, common_name: str) -> str:
 @dataclass(frozen=True, kw_only=True)
 class ClinicalFinding:
     finding_id: str
+    taxon: str  # mammal | bird | reptile: whose examination it belongs to
     label: str
-    percent_low: float
-    percent_high: float
+    percent_low: float | None  # None: the sign has no published % band (reptiles)
+    percent_high: float | None
     source_id: str
     basis: str
 
 
 @dataclass(frozen=True, kw_only=True)
 class DehydrationEstimate:
-    """The band the entered findings point to; the clinician confirms a value in it."""
+    """The band the entered findings point to; the clinician confirms a value in it. A
+    reptile's signs have no band (``percent_low`` None): the % is the clinician's."""
 
-    percent_low: float
-    percent_high: float
+    percent_low: float | None
+    percent_high: float | None
     findings: tuple[str, ...]
     source_id: str
+    taxon: str = "mammal"
 
     @property
-    def suggested_percent(self) -> float:
+    def suggested_percent(self) -> float | None:
         """The low end of the band: the cautious starting point, to be confirmed."""
         return self.percent_low
+
+    @property
+    def table_name(self) -> str:
+        """Which table the estimate used, in words."""
+        return TABLE_NAMES[self.taxon]
 
 
 @cache
 def load_findings(data_dir: Path | None = None) -> dict[str, ClinicalFinding]:
-    """The findings table, keyed by finding id."""
+    """The findings tables of every taxon, keyed by finding id."""
     path = (data_dir or resource_dir("species_data")) / "dehydration_findings.csv"
     table: dict[str, ClinicalFinding] = {}
-    columns = ("finding_id", "label", "percent_low", "percent_high", "source_id", "basis")
+    columns = ("finding_id", "taxon", "label", "percent_low", "percent_high", "source_id",
+               "basis")  # fmt: skip
     for location, row in read_rows(path, columns):
         low = parse_number(row["percent_low"], location=location, column="percent_low")
         high = parse_number(row["percent_high"], location=location, column="percent_high")
-        if low is None or high is None or not 0 <= low <= high <= 100:
-            raise SpeciesDataError("percent_low ≤ percent_high within 0–100", location=location)
+        if row["taxon"] not in TAXA:
+            raise SpeciesDataError(f"taxon must be one of {', '.join(TAXA)}", location=location)
+        banded = low is not None and high is not None
+        if (low is None) != (high is None) or (banded and not 0 <= low <= high <= 100):
+            raise SpeciesDataError(
+                "percent_low ≤ percent_high within 0–100, or both empty (no band)",
+                location=location,
+            )
+        if row["taxon"] != "reptile" and not banded:
+            raise SpeciesDataError("a mammal's or bird's finding needs its band", location=location)
         if row["finding_id"] in table:
             raise SpeciesDataError(f"duplicate finding {row['finding_id']!r}", location=location)
         table[row["finding_id"]] = ClinicalFinding(
             finding_id=row["finding_id"],
+            taxon=row["taxon"],
             label=row["label"],
             percent_low=low,
             percent_high=high,
@@ -99,32 +139,74 @@ def load_findings(data_dir: Path | None = None) -> dict[str, ClinicalFinding]:
     return table
 
 
-def estimate_dehydration(finding_ids: tuple[str, ...] | list[str]) -> DehydrationEstimate:
-    """% dehydration band from clinical findings: the most severe finding sets the band.
-
-    Method: DiBartola 2012, Table 14-4. An empty list means nothing was
-    detectable (< 5%). A finding the table split (``RETIRED_FINDINGS``) is refused with
-    both choices named: plan files, drafts and the CLI say so rather than drop it.
-    """
+def check_finding_ids(finding_ids: tuple[str, ...] | list[str]) -> None:
+    """Refuse unknown findings, and retired ones with both choices named (the taxon is
+    checked when the species is known: :func:`estimate_dehydration`)."""
     table = load_findings()
     retired = [f for f in finding_ids if f in RETIRED_FINDINGS and f not in table]
     if retired:
         raise _retired_error(retired, table)
     unknown = [f for f in finding_ids if f not in table]
     if unknown:
+        raise InputError(f"unknown finding(s) {', '.join(unknown)}", field="findings",
+                         value=unknown, fix=f"use: {', '.join(table)}")  # fmt: skip
+
+
+def findings_for(taxon: str) -> dict[str, ClinicalFinding]:
+    """The findings a patient of this taxon is examined for, in file order."""
+    if taxon not in TAXA:
+        raise InputError(f"unknown taxon {taxon!r}", field="taxon", value=taxon,
+                         fix=", ".join(TAXA))  # fmt: skip
+    return {k: f for k, f in load_findings().items() if f.taxon == taxon}
+
+
+def estimate_dehydration(
+    finding_ids: tuple[str, ...] | list[str], taxon: str = "mammal"
+) -> DehydrationEstimate:
+    """% dehydration band from clinical findings of the patient's taxon: the most severe
+    finding sets the band (mammals: DiBartola 2012, Table 14-4; birds: Wildpro's crane
+    bands; reptiles: signs only, no band). An empty list means nothing was detectable.
+    A finding of another taxon's examination (capillary refill in a bearded dragon) is
+    refused in words; so is one the table split (``RETIRED_FINDINGS``), with both choices
+    named: plan files, drafts and the CLI say so rather than drop it.
+    """
+    table = load_findings()
+    retired = [f for f in finding_ids if f in RETIRED_FINDINGS and f not in table]
+    if retired:
+        raise _retired_error(retired, table)
+    own = findings_for(taxon)
+    unknown = [f for f in finding_ids if f not in table]
+    if unknown:
         raise InputError(
             f"unknown finding(s) {', '.join(unknown)}",
             field="findings",
             value=unknown,
-            fix=f"use: {', '.join(table)}",
+            fix=f"use: {', '.join(own)}",
         )
-    chosen = [table[f] for f in finding_ids] or [table["none_detectable"]]
+    foreign = [f for f in finding_ids if f not in own]
+    if foreign:
+        raise InputError(
+            f"{', '.join(table[f].label.lower() for f in foreign)}: not part of a {taxon}'s "
+            "examination",
+            field="findings",
+            value=foreign,
+            fix=f"use the {taxon} findings: {', '.join(own)}",
+        )
+    chosen = [table[f] for f in finding_ids]
+    if taxon == "reptile":
+        source = next((f.source_id for f in chosen if f.source_id), "highfield_dehydration")
+        return DehydrationEstimate(percent_low=None, percent_high=None, source_id=source,
+                                   findings=tuple(f.finding_id for f in chosen),
+                                   taxon=taxon)  # fmt: skip
+    if not chosen:
+        chosen = [next(f for f in own.values() if f.percent_low == 0)]
     worst = max(chosen, key=lambda f: (f.percent_low, f.percent_high))
     return DehydrationEstimate(
         percent_low=worst.percent_low,
         percent_high=worst.percent_high,
         findings=tuple(f.finding_id for f in chosen),
         source_id=worst.source_id,
+        taxon=taxon,
     )
 
 

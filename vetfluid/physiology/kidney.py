@@ -311,6 +311,12 @@ def urine_osmolality_asked(
 
 
 # ---- solute load (shared with the water budget) ------------------------------------------
+# Of the urine's solute load, the share that is not Na or K salts (urea, phosphate, …): the
+# model excretes Na and K itself, so only this share is "other" solute (recalled: about half
+# of a person's urine osmoles on a mixed diet are urea; memory, no veterinary figure).
+NON_ELECTROLYTE_SHARE = 0.5
+
+
 def solute_load_mosm_per_day(kcal_per_day: float, solute_mosm_per_kcal: float) -> float:
     """Osmotic solute the kidney excretes a day: maintenance energy × solute per kcal
     (``urine_solute_mosm_per_kcal``; for urate excretors the dissolved part only)."""
@@ -357,6 +363,10 @@ class KidneySettings:
     # the lowest ADH goes: 0 lets the urine dilute to the floor; the rest position holds ADH
     # where it is (non-osmotic release in a sick patient: the plan's cautious path)
     lowest_position: float = 0.0
+    # a diseased kidney that still makes urine cannot hold Na back: it excretes at least what
+    # is given, followed with the natriuresis time constant (a healthy kidney keeps the Na
+    # of a deficit's replacement until the ECF is full)
+    na_follows_intake: bool = False
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -473,6 +483,7 @@ def follow_balance(
         take = -math.expm1(-kidney.natriuresis_per_h * step_h)
         osm_now = floor * math.exp(kidney.rest_position * log_ratio)
         x_last, lowest = kidney.rest_position, kidney.lowest_position
+        na_rate = 0.0
         asked = math.inf
     else:
         osm_now = math.nan
@@ -516,6 +527,10 @@ def follow_balance(
             na_now = pool / w * 1000.0
             above = ecf - ecf_ref_ml
             e_na = take * above * na_now / 1000.0 if above > 0.0 else 0.0
+            if kidney.na_follows_intake and i <= basal_steps:
+                na_target = na_in_mmol[i] / step_h
+                na_rate = na_target + (na_rate - na_target) * (1.0 - take)
+                e_na = max(e_na, na_rate * step_h)
             if i <= basal_steps:
                 target = max(k_step / step_h, kidney.k_min_mmol_per_h)
                 k_rate = target + (k_rate - target) * k_keep

@@ -213,7 +213,15 @@ def kidney_settings(
 ) -> tuple[kidney.KidneySettings | None, str | None, list[SpeciesValue]]:
     """The patient's kidney for the course, why the volume-driven natriuresis is left out
     (or None), and the species values used. No kidney in ins-and-outs mode: the urine is
-    measured and leaves as the plan's outflow."""
+    measured and leaves as the plan's outflow.
+
+    ADH answers tonicity measured from the starting Na held inside the species' interval. A
+    patient below the interval is hyponatraemic because its ADH is held on (hypovolaemia,
+    nausea, pain, drugs) or its kidney cannot dilute: its urine is kept from diluting below
+    where it rests (``lowest_position``), so the model neither starts a water diuresis at
+    the kidney's limit in the first hour — which comes in life only once the cause resolves
+    (recalled from Adrogué & Madias, "Hyponatremia", N Engl J Med 2000: memory) — nor pulls
+    Na back down to where it started while Na-rich fluid runs."""
     request, sid, w = regimen.request, regimen.request.species_id, regimen.request.weight_kg
     if request.ins_and_outs_period_h is not None:
         return None, "ins and outs (urine is measured)", []
@@ -234,8 +242,11 @@ def kidney_settings(
     left_out = None
     if elimination is None:
         left_out = "no value for the species"
-    elif request.renal_disease and renal_output != "polyuric":
-        left_out = "renal disease"
+    elif request.renal_disease and renal_output == "oliguric":
+        # an oliguric kidney passes little of anything; a diseased kidney that still makes
+        # urine keeps the body's Na in balance (isosthenuric urine carries Na: without it
+        # the model's urine would take water and no salt, and Na would climb for no reason)
+        left_out = "oliguric renal disease"
     natriuresis = 0.0
     if left_out is None and elimination is not None:
         used.append(elimination)
@@ -248,7 +259,8 @@ def kidney_settings(
     energy = maintenance.maintenance(table, sid, w, method="energy",
                                      body_temp_c=request.body_temp_c)  # fmt: skip
     kcal = energy.ml_per_day / v["water_ml_per_kcal"].number
-    other = kidney.solute_load_mosm_per_day(kcal, v["urine_solute_mosm_per_kcal"].number)
+    load = kidney.solute_load_mosm_per_day(kcal, v["urine_solute_mosm_per_kcal"].number)
+    other = load * kidney.NON_ELECTROLYTE_SHARE  # the model excretes Na and K itself
     maintenance_k = electrolytes.load_potassium_scale()[-1].kcl_mmol_per_l  # Côté 2020
     cap = None
     if request.renal_disease and renal_output == "oliguric":
@@ -260,7 +272,7 @@ def kidney_settings(
                                            "faecal_water_ml_per_kg_day")]  # fmt: skip
     not_urine = sum(v.number for v in outside if v is not None) * w / 24.0
     rest = kidney.rest_position(
-        solute_mosm_per_h=other / 24.0 + 2.0 * k_start,
+        solute_mosm_per_h=other / 24.0 + 2.0 * k_start,  # what the loop excretes at rest
         urine_ml_per_h=regimen.maintenance.ml_per_h - not_urine,
         floor=band.floor_mosm_per_kg, ceiling=band.ceiling_mosm_per_kg,
     )  # fmt: skip
@@ -268,26 +280,15 @@ def kidney_settings(
         floor_mosm_per_kg=band.floor_mosm_per_kg, ceiling_mosm_per_kg=band.ceiling_mosm_per_kg,
         span_mosm_per_kg=v["adh_response_span_mosm_per_kg"].number,
         volume_deficit_for_full=v["adh_volume_deficit_fraction"].number,
-        set_na_mmol_per_l=adh_set_point(na0, low=low, high=high),
+        set_na_mmol_per_l=min(max(na0, low), high),
         natriuresis_per_h=natriuresis, other_solute_mosm_per_h=other / 24.0,
         k_start_mmol_per_h=k_start, rest_position=rest,
+        lowest_position=rest if na0 < low else 0.0,
+        na_follows_intake=bool(request.renal_disease) and renal_output != "oliguric",
         k_min_mmol_per_h=v["urine_k_min_mmol_per_kg_day"].number * w / 24.0,
         k_time_constant_h=v["urine_k_adaptation_h"].number, urine_cap_ml_per_h=cap,
     )  # fmt: skip
     return settings, left_out, used
-
-
-def adh_set_point(na0: float, *, low: float, high: float) -> float:
-    """The Na the patient's ADH answers from: the starting Na held at or below the high end of
-    the species' interval (a high Na asks for the most concentrated urine the kidney makes),
-    and a low Na kept where it is. A patient is hyponatraemic because its ADH is held on
-    (hypovolaemia, nausea, pain, drugs) or its kidney cannot dilute; were ADH to answer only to
-    tonicity, the model would excrete water at the kidney's limit from the first hour, a
-    water diuresis that comes only once the cause resolves (recalled from Adrogué & Madias,
-    "Hyponatremia", N Engl J Med 2000: memory; docs/model.md, "The urine asked for"). The
-    plan then sees what the fluids do; the finding on a low Na says what a water diuresis
-    would add."""
-    return min(na0, high) if na0 < low else min(max(na0, low), high)
 
 
 def increments(cumulative: np.ndarray) -> list[float]:
@@ -328,6 +329,10 @@ class BodyCourse:
     ecf_ml: np.ndarray
     osmolality_mosm_per_kg: np.ndarray
     na_path: np.ndarray  # serum Na, followed from the species' normal when none was entered
+    # the Na that sets tonicity, (Na + K)ₑ / TBW: with mannitol in the ECF the measured Na
+    # (na_path) is diluted by the water it draws from the cells while the osmolality rises,
+    # a translocation no brain must adapt to; the correction limit reads this one
+    tonicity_na: np.ndarray
     tbw0_ml: float
     ecf0_ml: float
     diuretics_not_modelled: tuple[str, ...]
@@ -397,13 +402,18 @@ def of_plan(plan: object, table: SpeciesTable) -> BodyCourse:
 def checked_until_h(regimen: Regimen, table: SpeciesTable) -> float:
     """The last hour at which the plan's own sodium check starts an hour: the plan's end, or
     later while a dose under the skin or into the coelom is still being absorbed or a
-    diuretic still acts (its duration on record for the species and route)."""
+    diuretic given during the plan still acts (its duration on record for the species and
+    route; an infusion counted to the plan's end). What runs past that is said, not followed."""
     under_skin = any(p.mode == "intermittent" for p in regimen.phases)
     until = regimen.end_h + (delivery.SC_ABSORPTION_H if under_skin else 0.0)
     sid = regimen.request.species_id
+    end = regimen.end_h
     for dose in regimen.diuretics:
+        if dose.start_h >= end - 1e-9:
+            continue  # after the plan's fluids: not followed (DIURETIC_AFTER_PLAN_END says so)
         row = diuretics.timing(table, sid, dose.drug_id, "iv" if dose.infusion else dose.route)
-        until = max(until, dose.end_h + (row.duration_h or 0.0 if row is not None else 0.0))
+        acts = row.duration_h or 0.0 if row is not None else 0.0
+        until = max(until, min(dose.end_h, end) + acts)  # an infusion, to the plan's end
     return until
 
 
@@ -520,7 +530,8 @@ def follow_body(
     # more water or solute out than the body holds gives no numbers past that hour: they are
     # read as such (BodyCourse.beyond_h), not warned about
     with np.errstate(all="ignore"):
-        na_path = np.asarray(balance.na_k_mmol) * 1000.0 / tbw
+        tonicity_na = np.asarray(balance.na_k_mmol) * 1000.0 / tbw
+        na_path = tonicity_na
         if balance.mannitol_mosm is not None:  # the ECF's osmoles that are not Na salts
             na_path = na_path * (ecf_osm - np.asarray(balance.mannitol_mosm)) / ecf_osm
         ecf = tbw * ecf_osm / (ecf_osm + icf_osm)
@@ -530,6 +541,7 @@ def follow_body(
         given_by_fluid_ml=by_fluid, base_in_mmol=base_in, free_water_out_ml=free_water,
         lost_ml=lost, losses=losses, settings=settings, excess_excretion_left_out=left_out,
         balance=balance, tbw_ml=tbw, ecf_ml=ecf, osmolality_mosm_per_kg=osmolality,
-        na_path=na_path, tbw0_ml=tbw0, ecf0_ml=ecf0, diuretics_not_modelled=left_out_doses,
+        na_path=na_path, tonicity_na=tonicity_na, tbw0_ml=tbw0, ecf0_ml=ecf0,
+        diuretics_not_modelled=left_out_doses,
         provenance=tuple(dict.fromkeys([*values, *used])), table=table, start_weight_kg=w,
     )  # fmt: skip

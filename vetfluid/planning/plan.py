@@ -20,7 +20,7 @@ import numpy as np
 from vetfluid.common.checks import require_number, require_patient_weight
 from vetfluid.common.errors import InputError
 from vetfluid.common.findings import Finding, worst
-from vetfluid.common.formatting import format_quantity
+from vetfluid.common.formatting import format_quantity, hour_text
 from vetfluid.common.units import preferred_weight_unit, weight_text
 from vetfluid.physiology import delivery, electrolytes, hydration, maintenance, resuscitation
 from vetfluid.physiology.ins_and_outs import InsAndOutsRow, ins_and_outs
@@ -31,14 +31,28 @@ from vetfluid.tables import diuretics, fluid_roles, fluids
 from vetfluid.tables.limits import limit
 from vetfluid.tables.species import SpeciesTable, SpeciesValue, load_table
 
-ROUTES = ("iv", "cvc", "io", "sc", "icoel")  # cvc: a central venous catheter
+# cvc: a central venous catheter; epicoel: epicoelomic (chelonians); ip: intraperitoneal
+# (small rodents); oral: by mouth, crop or stomach tube
+ROUTES = ("iv", "cvc", "io", "sc", "icoel", "epicoel", "ip", "oral")
 DEVICES = ("pump", "gravity", "syringe", "divided")
 LINE_ROUTES = safety.LINE_ROUTES
-# Per-site limit parameter for each bolus route.
+# Per-site limit parameter for each bolus route. A species without the route's value is not
+# planned that way (species_data/parameters.csv says which taxa have each route).
 SITE_LIMIT_PARAMETER = {
     "sc": "max_site_volume_sc_ml_per_kg",
     "icoel": "max_site_volume_icoel_ml_per_kg",
+    "epicoel": "max_site_volume_epicoel_ml_per_kg",
+    "ip": "max_site_volume_ip_ml_per_kg",
+    "oral": "max_site_volume_oral_ml_per_kg",
 }
+# Where each route is planned, for the message that refuses it elsewhere.
+ROUTE_TAXA = {
+    "sc": "most species", "icoel": "reptiles", "epicoel": "chelonians",
+    "ip": "small rodents", "oral": "birds, reptiles, small rodents and rabbits",
+}  # fmt: skip
+# Soaking (a shallow warm bath, chelonians and lizards): recorded, never counted as intake.
+# At most four a day (a software bound; lay sources give two to three, memory).
+MAX_SOAKS_PER_DAY = 4
 # A diuretic as entered: drug id, dose in the table's unit (mg/kg, g/kg; mg/kg/h for an
 # infusion), route (iv, im, sc, po, or cri for an infusion), start hour and end hour on the
 # plan's clock (the same hour for a single dose).
@@ -101,6 +115,11 @@ class PlanRequest:
     diuretics: tuple[Diuretic, ...] = ()  # on the schedule, the sheet and in the course
     loss_type: str = electrolytes.DEFAULT_LOSS_TYPE  # what the ongoing losses are
     renal_output: str | None = None  # with renal disease: "oliguric", "polyuric" or not stated
+    # Divided doses as the clinician gives them: every 6, 8, 12 or 24 h, in at most this many
+    # sites; None: the plan chooses (the longest interval whose dose fits the usual sites).
+    dose_interval_h: float | None = None
+    max_sites_per_dose: int | None = None
+    soaks_per_day: int = 0  # warm shallow baths (chelonians, lizards): recorded, not counted
 
     def __post_init__(self) -> None:
         require_patient_weight(self.weight_kg)
@@ -123,6 +142,7 @@ class PlanRequest:
                 field="measured_outputs", fix="give the ins-and-outs period too",
             )  # fmt: skip
         _check_measured(self.measured_outputs)
+        _check_dosing(self.dose_interval_h, self.max_sites_per_dose, self.soaks_per_day)
         _check_ins_and_outs_size(self.ins_and_outs_period_h, self.measured_outputs)
         if self.start_date is not None and self.start_time is None:
             raise InputError(
@@ -174,7 +194,7 @@ class PlanRequest:
         _check_renal_output(self.renal_output, renal_disease=self.renal_disease)
         _check_diuretics(self.diuretics)
         if self.dehydration_findings:
-            hydration.estimate_dehydration(self.dehydration_findings)
+            hydration.check_finding_ids(self.dehydration_findings)
         fluids.fluid(self.fluid_id)  # an unknown fluid is refused by name
         if self.bolus_fluid_id is not None:
             fluids.fluid(self.bolus_fluid_id)
@@ -329,6 +349,34 @@ def _check_diuretics(doses: object) -> None:
         )  # fmt: skip
 
 
+def _check_dosing(interval_h: object, sites: object, soaks: object) -> None:
+    """The clinician's interval (:data:`delivery.CHOSEN_INTERVALS_H`), most sites per dose
+    (1 to :data:`delivery.MOST_SITES_CHOSEN`) and soaks a day, refused in words."""
+    if interval_h is not None and (
+        isinstance(interval_h, bool) or not isinstance(interval_h, int | float)
+        or float(interval_h) not in delivery.CHOSEN_INTERVALS_H
+    ):  # fmt: skip
+        raise InputError(
+            f"a dosing interval of {interval_h!r} h is not one the plan gives",
+            field="dose_interval_h", value=interval_h,
+            fix="give divided doses every 6, 8, 12 or 24 h, or leave it to the plan",
+        )  # fmt: skip
+    most = delivery.MOST_SITES_CHOSEN
+    if sites is not None and (
+        isinstance(sites, bool) or not isinstance(sites, int) or not 1 <= sites <= most
+    ):
+        raise InputError(
+            f"the most sites per dose must be a whole number from 1 to {most}",
+            field="max_sites_per_dose", value=sites,
+            fix="give how many injection sites one dose may use, or leave it to the plan",
+        )  # fmt: skip
+    if isinstance(soaks, bool) or not isinstance(soaks, int) or not 0 <= soaks <= MAX_SOAKS_PER_DAY:
+        raise InputError(
+            f"soaks a day must be a whole number from 0 to {MAX_SOAKS_PER_DAY}",
+            field="soaks_per_day", value=soaks,
+        )  # fmt: skip
+
+
 def _check_measured(measured: object) -> None:
     if not isinstance(measured, tuple) or not all(
         isinstance(m, tuple) and len(m) == 2 for m in measured
@@ -470,11 +518,12 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
         )
     if route in LINE_ROUTES and device == "divided":
         raise InputError(
-            "divided boluses are planned for SC or intracoelomic routes",
+            "divided boluses are planned for SC, intracoelomic, epicoelomic, IP or oral routes",
             field="device",
             value=device,
             fix="choose a pump, syringe pump or gravity drip for a line",
         )
+    _check_route_for_species(ledger, request, route=route, device=device)
     if device == "gravity" and request.drop_factor is None:
         raise InputError(
             "a gravity drip needs the giving set's drop factor",
@@ -502,6 +551,42 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
             line_min.source_id,
         )
     return route, device
+
+
+def _check_route_for_species(
+    ledger: Ledger, request: PlanRequest, *, route: str, device: str
+) -> None:
+    """A divided route is planned only for a species with its volume limit on record (IP in
+    small rodents, epicoelomic in chelonians, …: species_data/parameters.csv); the
+    clinician's interval and sites belong to divided doses, and a route into one space or by
+    mouth takes one injection or tube per dose (delivery.ONE_SITE_ROUTES)."""
+    parameter = SITE_LIMIT_PARAMETER.get(route)
+    if parameter is not None and ledger.table.get(request.species_id, parameter) is None:
+        label = ledger.table.definitions[parameter].label
+        raise InputError(
+            f"{schedule.route_text(route)} fluids are not planned for "
+            f"{ledger.species.common_name}: no “{label}” is on record for it (this route is "
+            f"planned for {ROUTE_TAXA[route]})",
+            field="route", value=route,
+            fix="choose another route, or add the value with its source as a clinic override",
+        )  # fmt: skip
+    chosen = request.dose_interval_h is not None or request.max_sites_per_dose is not None
+    if chosen and device != "divided":
+        raise InputError(
+            f"a dosing interval and sites per dose are for divided doses, not a {device}",
+            field="dose_interval_h" if request.dose_interval_h is not None
+            else "max_sites_per_dose",
+            value=request.dose_interval_h or request.max_sites_per_dose,
+            fix="leave them out for a line, or choose divided boluses",
+        )  # fmt: skip
+    sites = request.max_sites_per_dose
+    if sites is not None and sites > 1 and route in delivery.ONE_SITE_ROUTES:
+        raise InputError(
+            f"{schedule.route_text(route)} fluids are one injection (or one tube) per dose, "
+            f"not {sites} sites",
+            field="max_sites_per_dose", value=sites,
+            fix="give 1 site, or leave it to the plan; more punctures do not make room",
+        )  # fmt: skip
 
 
 def _species_potassium_band(
@@ -589,8 +674,9 @@ def _dehydration(
     The band is an estimate the clinician confirms (DiBartola 2012 gives a band, not a
     number): used unconfirmed, it is a soft limit, so a plan is not ready on it unless
     someone enters the % or says why the estimate stands."""
+    taxon = ledger.table.taxon_class(request.species_id)
     estimate = (
-        hydration.estimate_dehydration(request.dehydration_findings)
+        hydration.estimate_dehydration(request.dehydration_findings, taxon=taxon)
         if request.dehydration_findings
         else None
     )
@@ -598,12 +684,23 @@ def _dehydration(
         return request.dehydration_percent, estimate
     if estimate is None:
         return 0.0, None
+    if estimate.suggested_percent is None:  # a reptile's signs: no published band
+        ledger.add(
+            "hard",
+            "DEHYDRATION_PERCENT_NEEDED",
+            "The signs recorded say this patient is dehydrated, but no published table gives "
+            f"a % for them ({estimate.table_name}): the plan has no deficit to replace.",
+            "Enter the dehydration % you estimate from the signs, the weight lost and the history.",
+            estimate.source_id or None,
+        )
+        return 0.0, estimate
     ledger.add(
         "soft",
         "DEHYDRATION_FROM_FINDINGS",
         f"Findings suggest {estimate.percent_low:g}–{estimate.percent_high:g} % dehydration; "
         f"the plan uses {estimate.suggested_percent:g} %, not yet confirmed. "
-        + hydration.findings_caveat(request.species_id, species_name),
+        + f"({estimate.table_name}) "
+        + hydration.findings_caveat(request.species_id, species_name, taxon),
         f"Enter the dehydration % yourself to confirm it ({estimate.suggested_percent:g} % or "
         "another), or acknowledge why the estimate stands.",
         estimate.source_id,
@@ -739,8 +836,10 @@ def _fluid_phases(
     kcl_mmol_per_l: float,
     fluid_name: str,
     syringe_size_ml: float,
+    ceiling: delivery.DoseCeiling | None = None,
 ) -> list[Phase]:
-    """The segments as phases for the chosen delivery (continuous or divided boluses)."""
+    """The segments as phases for the chosen delivery (continuous or divided boluses; with
+    the clinician's interval and sites, each dose at most ``ceiling``)."""
     if device == "divided":
         site_limit = ledger.value(SITE_LIMIT_PARAMETER[route])
         return [
@@ -753,6 +852,8 @@ def _fluid_phases(
                 per_site_limit_ml=site_limit.number * ledger.weight_kg,
                 kcl_mmol_per_l=kcl_mmol_per_l,
                 fluid_name=fluid_name,
+                interval_h=ceiling.interval_h if ceiling else None,
+                sites_at_most=ceiling.sites if ceiling else None,
             )
             for kind, start, end, rate in segments
         ]
@@ -770,6 +871,155 @@ def _fluid_phases(
         )
         for kind, start, end, rate in segments
     ]
+
+
+# The longest a replacement is stretched to fit the clinician's doses: a week. Beyond it the
+# plan keeps the period asked and says how long the doses would take (common practice, no
+# source: a plan is re-made daily, and a deficit left for longer is not a plan).
+MAX_REPLACEMENT_AT_DOSES_H = 7 * 24.0
+
+
+def _chosen_ceiling(
+    ledger: Ledger, request: PlanRequest, segments: list[Segment], *, route: str, device: str
+) -> delivery.DoseCeiling | None:
+    """The most one dose holds at the clinician's interval and sites (None when the plan
+    chooses them itself): sites not given are the route's usual most
+    (:func:`delivery.most_sites`); an interval not given is the longest whose first dose
+    fits those sites (:func:`delivery.divided_boluses`)."""
+    if device != "divided" or (
+        request.dose_interval_h is None and request.max_sites_per_dose is None
+    ):
+        return None
+    limit_ml = ledger.value(SITE_LIMIT_PARAMETER[route]).number * ledger.weight_kg
+    sites = request.max_sites_per_dose or delivery.most_sites(route)
+    interval = request.dose_interval_h or delivery.divided_boluses(
+        need_ml_per_h=segments[0][3], per_site_limit_ml=limit_ml, route=route,
+        sites_at_most=sites,
+    ).interval_h  # fmt: skip
+    return delivery.dose_ceiling(
+        route=route, interval_h=float(interval), sites=sites, per_site_limit_ml=limit_ml
+    )
+
+
+def _dose_words(ceiling: delivery.DoseCeiling) -> str:
+    """``every 8 h at most 1.4 mL SC (2 sites of 0.7 mL, 10 mL/kg per site)``."""
+    route = schedule.route_text(ceiling.route)
+    per_site = format_quantity(ceiling.ml_per_site, "mL", decimals=2)
+    sites = f"{schedule.sites_text(ceiling.sites)} of {per_site}"
+    if ceiling.route == "oral":
+        sites = "one go"
+    return (
+        f"every {ceiling.interval_h:g} h at most "
+        f"{format_quantity(ceiling.dose_ml, 'mL', decimals=2)} {route} ({sites})"
+    )
+
+
+def _duration(hours: float) -> str:
+    """``36 h``; from two days on with the days beside: ``72 h (3 days)``; past a week in
+    days only: ``about 128 days``."""
+    if hours > MAX_REPLACEMENT_AT_DOSES_H:
+        return f"about {hours / 24:.0f} days"
+    return f"{hours:g} h" if hours < 48 else f"{hours:g} h ({hours / 24:.3g} days)"
+
+
+def _what_would(
+    ledger: Ledger, request: PlanRequest, *, deficit_ml: float, background_ml_per_h: float
+) -> str:
+    """What would replace the deficit: each divided route the species has, every 6 h in its
+    usual most sites, with the time it takes; and a line, which gives the need at any rate."""
+    options = []
+    for route, parameter in SITE_LIMIT_PARAMETER.items():
+        value = ledger.table.get(request.species_id, parameter)
+        if value is None:
+            continue
+        best = delivery.dose_ceiling(
+            route=route, interval_h=min(delivery.DIVIDED_INTERVALS_H),
+            sites=delivery.most_sites(route), per_site_limit_ml=value.number * ledger.weight_kg,
+        )  # fmt: skip
+        if deficit_ml <= 0:  # maintenance alone: the routes whose doses give it
+            if best.ml_per_h >= background_ml_per_h:
+                options.append(f"{_dose_words(best)} gives it")
+            continue
+        hours = delivery.replacement_hours(
+            deficit_ml=deficit_ml, background_ml_per_h=background_ml_per_h, ceiling=best
+        )
+        if hours is not None and hours <= MAX_REPLACEMENT_AT_DOSES_H:
+            options.append(f"{_dose_words(best)} replaces it in {_duration(hours)}")
+    found = "; ".join(options) + "; " if options else ""
+    return found + "an IO or IV line gives the need at any rate."
+
+
+def _within_the_doses(
+    ledger: Ledger,
+    request: PlanRequest,
+    segments: list[Segment],
+    ceiling: delivery.DoseCeiling,
+    *,
+    deficit_ml: float,
+    background_ml_per_h: float,
+) -> list[Segment]:
+    """The segments as the clinician's doses give them: when replacement needs more a dose
+    than ``ceiling`` holds, it runs over as many whole intervals as the room above
+    maintenance and losses takes (:func:`delivery.replacement_hours`), never in more sites;
+    maintenance then runs whole intervals to hour 24 and at least 12 h on. When the doses
+    give no more than maintenance (or would take over a week), the period asked stays, each
+    dose holds the most it can, and the plan says so (soft). Ins-and-outs periods keep
+    their hours; a period needing more than the doses give is said the same way."""
+    interval = ceiling.interval_h
+    short = [s for s in segments if s[3] * interval > ceiling.dose_ml + 1e-9]
+    if not short:
+        if request.ins_and_outs_period_h is not None:
+            return segments
+    a_day = format_quantity(ceiling.ml_per_h * 24.0, "mL")
+    needs = format_quantity(background_ml_per_h * 24.0, "mL")
+    hours = (
+        delivery.replacement_hours(
+            deficit_ml=deficit_ml, background_ml_per_h=background_ml_per_h, ceiling=ceiling
+        )
+        if deficit_ml > 0 else 0.0
+    )  # fmt: skip
+    if (
+        short
+        and request.ins_and_outs_period_h is None
+        and deficit_ml > 0
+        and (hours is not None and hours <= MAX_REPLACEMENT_AT_DOSES_H)
+    ):
+        ledger.add(
+            "soft", "REPLACEMENT_SLOWED_TO_ROUTE",
+            f"Doses {_dose_words(ceiling)} replace the {format_quantity(deficit_ml, 'mL')} "
+            f"deficit in {_duration(hours)}, not the "
+            f"{request.replace_hours:g} h chosen: a dose holds no more than its sites.",
+            "Accept the slower replacement and weigh daily, or give more sites or a shorter "
+            "interval, or place an IO or IV line.",
+        )  # fmt: skip
+    elif short:
+        ledger.add(
+            "soft", "DOSES_FALL_SHORT",
+            f"Doses {_dose_words(ceiling)} give {a_day} a day against {needs} a day of "
+            "maintenance and losses"
+            + (
+                f" and the {format_quantity(deficit_ml, 'mL')} deficit: at this interval the "
+                + ("deficit is never replaced." if hours is None
+                   else f"deficit would take {_duration(hours)}.")
+                if deficit_ml > 0 else "."
+            ),
+            "To replace it: " + _what_would(ledger, request, deficit_ml=deficit_ml,
+                                            background_ml_per_h=background_ml_per_h),
+        )  # fmt: skip
+        hours = request.replace_hours
+    else:
+        hours = request.replace_hours
+    if request.ins_and_outs_period_h is not None:
+        return segments
+    rebuilt: list[Segment] = []
+    hour = segments[0][1]
+    if deficit_ml > 0:
+        rate = deficit_ml / hours + background_ml_per_h
+        rebuilt.append(("replacement", hour, hour + hours, rate))
+        hour += hours
+    tail = math.ceil(round(max(24.0 - hour, MAINTENANCE_TAIL_H) / interval, 9)) * interval
+    rebuilt.append(("maintenance", hour, hour + tail, background_ml_per_h))
+    return rebuilt
 
 
 def _potassium(
@@ -881,9 +1131,15 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             ledger, request.measured_outputs, period_h=request.ins_and_outs_period_h,
             weight_kg=w,
         )  # fmt: skip
+    ceiling = _chosen_ceiling(ledger, request, segments, route=route, device=device)
+    if ceiling is not None:
+        segments = _within_the_doses(
+            ledger, request, segments, ceiling, deficit_ml=deficit, background_ml_per_h=background
+        )
     fluid_phases = _fluid_phases(
         ledger, segments, route=route, device=device, drop_factor=drop_factor,
         kcl_mmol_per_l=kcl, fluid_name=bag.name, syringe_size_ml=request.syringe_size_ml,
+        ceiling=ceiling,
     )  # fmt: skip
     phases = (*bolus_phases, *fluid_phases)
     main = fluid_phases[0]
@@ -899,6 +1155,11 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         ledger, phases,
         site_limit_ml=(
             ledger.value(SITE_LIMIT_PARAMETER[route]).number * w if device == "divided" else None
+        ),
+        one_site_limit=(
+            ledger.value(SITE_LIMIT_PARAMETER[route])
+            if device == "divided" and route in delivery.ONE_SITE_ROUTES and route != "icoel"
+            else None
         ),
     )  # fmt: skip
     safety.check_dose_spacing(ledger, phases)
@@ -1009,15 +1270,18 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             "Reassess hydration after resuscitation and re-plan.",
         )
     safety.check_diuretics(ledger, doses)
-    late = [d for d in doses if d.start_h >= end_h - 1e-9]
+    late = [d for d in doses if d.end_h > end_h + 1e-9 or d.start_h >= end_h - 1e-9]
     if late:  # the body is followed with the plan's intake and outputs only while it runs
+        what = (f"{late[0].name} runs to {hour_text(late[0].end_h)}" if late[0].infusion
+                else f"{late[0].name} at {hour_text(late[0].start_h)} is given")  # fmt: skip
         ledger.add(
             "soft", "DIURETIC_AFTER_PLAN_END",
-            f"{late[0].name} at hour {late[0].start_h:g} is given after the plan's fluids end "
-            f"(hour {end_h:g}): neither the plan's checks nor the course predict its urine.",
+            f"{what}, after the plan's fluids end ({hour_text(end_h)}): its urine after that "
+            "is not followed by the plan's checks or the course.",
             "Extend the plan to cover the diuretic, or plan the diuretic on its own and measure "
             "urine output, weight and Na.",
         )  # fmt: skip
+    soaks = _soaks(ledger, request, end_h=end_h)
     safety.note_unverified(ledger)
 
     return Plan(
@@ -1029,7 +1293,12 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         deficit_ml=deficit,
         free_water_deficit_ml=free_water,
         phases=phases,
-        schedule=schedule.schedule_entries(phases, request.start_time, doses),
+        schedule=schedule.schedule_entries(
+            phases,
+            request.start_time,
+            doses,
+            soaks=soaks,
+        ),  # fmt: skip
         fluid_name=bag.name,
         fluid_na_mmol_per_l=bag_comp.na_mmol_per_l,
         fluid_k_mmol_per_l=bag_comp.k_mmol_per_l,
@@ -1050,6 +1319,41 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         diuretics=doses,
         body=followed,
     )
+
+
+def _soaks(ledger: Ledger, request: PlanRequest, *, end_h: float) -> tuple[ScheduleEntry, ...]:
+    """Soaks in a shallow warm bath, evenly through each day while the plan runs, for a
+    taxon with soaking on record (soak_water_temp_c: chelonians and lizards). Recorded on
+    the schedule, never counted as intake (what is drunk or taken in through the cloaca is
+    not measured), so the phases, the totals and the course do not include it."""
+    if not request.soaks_per_day:
+        return ()
+    water = ledger.table.get(request.species_id, "soak_water_temp_c")
+    if water is None:
+        raise InputError(
+            f"soaking is not planned for {ledger.species.common_name}: no soaking water "
+            "temperature is on record for it (soaking is planned for chelonians and lizards)",
+            field="soaks_per_day", value=request.soaks_per_day,
+            fix="leave soaking out, or add the value with its source as a clinic override",
+        )  # fmt: skip
+    ledger.use(water)
+    minutes = ledger.value("soak_minutes")
+    every = 24.0 / request.soaks_per_day
+    hours = tuple(i * every for i in range(math.ceil(round(end_h / every, 9))))
+    ledger.add(
+        "info", "SOAKING_NOT_COUNTED",
+        f"{len(hours)} soak(s) in shallow warm water are on the schedule "
+        f"({request.soaks_per_day} a day); what the patient drinks or takes in while soaking "
+        "is not measured, so it is not counted in the fluid given, the totals or the course.",
+        "Weigh before and after soaking days; watch throughout (a weak patient can drown).",
+        water.source_id,
+    )  # fmt: skip
+    return tuple(
+        schedule.soak_entries(
+            hours=hours, start=request.start_time, water_temp_c=water.number,
+            minutes=minutes.number,
+        )
+    )  # fmt: skip
 
 
 def _diuretic_doses(request: PlanRequest) -> tuple[DiureticDose, ...]:
@@ -1105,7 +1409,14 @@ def _sodium_course(
         loss_type=request.loss_type, renal_output=request.renal_output, adh_held=adh_held,
     )  # fmt: skip
     ledger.use(*followed.provenance)
-    hours, path = followed.hours, followed.na_path
+    valid = len(followed.hours)
+    if followed.beyond_h is not None:  # the body's figures stop being numbers there
+        valid = max(int(np.searchsorted(followed.hours, followed.beyond_h - 1e-9)), 1)
+    if not adh_held:
+        safety.check_ecf_contraction(ledger, followed.hours[:valid], followed.ecf_ml[:valid],
+                                     followed.ecf0_ml)  # fmt: skip
+    # the Na that sets tonicity: mannitol's dilution of the measured Na is no correction
+    hours, path = followed.hours, followed.tonicity_na
     beyond = followed.beyond_h
     if beyond is not None:  # Na is read only while the body still holds water
         keep = max(int(np.searchsorted(hours, beyond - 1e-9)), 1)
@@ -1113,8 +1424,8 @@ def _sodium_course(
         if not adh_held:
             ledger.add(
                 "hard", "PLAN_BEYOND_THE_BODY",
-                f"By hour {beyond:g} this plan takes more water or salt out of the patient than "
-                "its body holds (losses, outputs or diuretics far above what is given).",
+                f"By {hour_text(beyond)} this plan takes more water or salt out of the patient "
+                "than its body holds (losses, outputs or diuretics far above what is given).",
                 "Check the losses, outputs and doses entered and their units.",
             )  # fmt: skip
     return electrolytes.sodium_course(

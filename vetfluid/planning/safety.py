@@ -126,17 +126,25 @@ def check_fluid_for_route(
     colloid: bool = False,
 ) -> None:
     """No hypertonic, colloid or dextrose-containing fluid outside a vein
-    (Vet Clin North Am 2017)."""
+    (Vet Clin North Am 2017); intraperitoneally only isotonic crystalloids ("Only warm
+    isotonic crystalloids … should be used SC or IP", Clinician's Brief, pediatric critical
+    care; applied to small rodents). By mouth the same rule holds, as a restriction with no
+    source for other fluids by that route."""
     if route in LINE_ROUTES:
         return
-    if tonicity.in_vitro_class == "hypertonic" or dextrose_g_per_l > 0 or colloid:
+    not_isotonic = route == "ip" and tonicity.in_vitro_class != "isotonic"
+    if tonicity.in_vitro_class == "hypertonic" or dextrose_g_per_l > 0 or colloid or not_isotonic:
+        why = {
+            "ip": "only isotonic crystalloids without dextrose go into the peritoneum",
+            "oral": "by mouth or tube the plan takes only crystalloids without dextrose or "
+            "colloid (restricted: no source on record for other fluids by this route)",
+        }.get(route, "no hypertonic, colloid or dextrose-containing fluids outside a vein")
         ledger.add(
             "hard",
             "FLUID_NOT_FOR_SC",
-            f"{fluid_name} is not suitable {route_text(route)}: no hypertonic, colloid or "
-            "dextrose-containing fluids outside a vein.",
-            "Choose an isotonic crystalloid for SC or intracoelomic use.",
-            "vcna2017_sc",
+            f"{fluid_name} is not suitable {route_text(route)}: {why}.",
+            f"Choose an isotonic crystalloid without additives for {route_text(route)} use.",
+            "cb_pediatric_cc" if route == "ip" else "vcna2017_sc",
         )
 
 
@@ -146,6 +154,9 @@ _ROUTE_WORDS = {
     "io": "intraosseously",
     "sc": "under the skin",
     "icoel": "into the coelom",
+    "epicoel": "into the epicoelomic space",
+    "ip": "into the peritoneum",
+    "oral": "by mouth or tube",
 }
 
 
@@ -607,12 +618,20 @@ def check_predicted_gain(
 
 
 def check_divided_sites(
-    ledger: Ledger, phases: tuple[Phase, ...], *, site_limit_ml: float | None = None
+    ledger: Ledger,
+    phases: tuple[Phase, ...],
+    *,
+    site_limit_ml: float | None = None,
+    one_site_limit: SpeciesValue | None = None,
 ) -> None:
     """Doses that need more injection sites than is practical. Into the coelom, which is
     one space, a dose above the per-injection volume is more than one puncture: said
     on its own (the per-injection volume is the species' value). A site limit below the
-    smallest syringe mark cannot be kept by hand at all (hard)."""
+    smallest syringe mark cannot be kept by hand at all (hard). Into the peritoneum, the
+    epicoelomic space or by mouth (``one_site_limit``, the route's species value): a dose
+    above the top of its range (the value itself without one) is refused (hard), between
+    the value and the top it is more than one injection or tube (soft)."""
+    _check_one_site_doses(ledger, phases, one_site_limit)
     smallest = delivery.SMALL_SYRINGE_STEP_ML
     if site_limit_ml is not None and site_limit_ml < smallest - 1e-9:
         ledger.add(
@@ -685,6 +704,48 @@ def check_divided_sites(
                 f"{q(drawn.ml_per_site, 'mL', decimals=2)} per site.",
                 "Replace the deficit over a longer period, or place an IO/IV line.",
             )
+            return
+
+
+def _check_one_site_doses(
+    ledger: Ledger, phases: tuple[Phase, ...], limit_value: SpeciesValue | None
+) -> None:
+    """One injection or tube a dose (delivery.ONE_SITE_ROUTES): hard above the most the
+    space holds (the range's top, else the value: IP 10 mL/kg in rodents, recalled from lab
+    tables for healthy animals; 20 mL/kg in the mouse, University of Wyoming table), soft
+    above the usual value."""
+    if limit_value is None:
+        return
+    most = limit_value.high or limit_value.number
+    unverified = " (recalled — unverified)" if limit_value.unverified else ""
+    for phase in phases:
+        if phase.mode != "intermittent" or phase.route == "icoel":
+            continue
+        dose = phase.dose_ml or 0.0
+        per_kg = dose / ledger.weight_kg
+        where = _ROUTE_WORDS.get(phase.route, phase.route)
+        if per_kg > most * (1 + 1e-9):
+            ledger.add(
+                "hard", "ONE_SITE_DOSE_TOO_LARGE",
+                f"Each {route_text(phase.route)} {phase.kind} dose is {q(dose, 'mL')} "
+                f"({q(per_kg, 'mL/kg')}), above the {q(most * ledger.weight_kg, 'mL')} "
+                f"({q(most, 'mL/kg')}) one dose given {where} may hold{unverified}.",
+                "Choose the dosing interval so each dose stays within the limit (the plan then "
+                "says how long replacement takes), or use another route or a line.",
+                limit_value.source_id,
+            )  # fmt: skip
+            return
+        if per_kg > limit_value.number * (1 + 1e-9):
+            ledger.add(
+                "soft", "ONE_SITE_DOSE_ABOVE_USUAL",
+                f"Each {route_text(phase.route)} {phase.kind} dose is {q(dose, 'mL')} "
+                f"({q(per_kg, 'mL/kg')}), above the usual {q(limit_value.number, 'mL/kg')} "
+                f"given {where} at one time{unverified}.",
+                "Choose the dosing interval so each dose stays within the usual volume, or "
+                "give it in two goes some minutes apart and watch for regurgitation or "
+                "distress.",
+                limit_value.source_id,
+            )  # fmt: skip
             return
 
 
@@ -850,6 +911,41 @@ def peak_uptake_rate(
     return float(rate[first]), float(starts[first])
 
 
+# the ECF this far below where it started is said (soft), and past the second share the plan
+# is blocked (common practice, no source: losing a fifth of the extracellular fluid is
+# clinically significant hypovolaemia, as the course says of the plasma; under about half is
+# shock by any reckoning)
+ECF_CONTRACTION_SAID, ECF_CONTRACTION_BLOCKED = 0.2, 0.5
+LEAVES_RANGE_MARGIN_MMOL_PER_L = 3.0  # past the interval by more than this: said
+
+
+def check_ecf_contraction(
+    ledger: Ledger, hours: np.ndarray, ecf_ml: np.ndarray, ecf0_ml: float
+) -> None:
+    """The extracellular fluid the plan's own body balance follows, falling more than
+    :data:`ECF_CONTRACTION_SAID` below its start (soft) or more than
+    :data:`ECF_CONTRACTION_BLOCKED` (hard): more water and salt leaving than given (a
+    diuretic, losses, a kidney that cannot hold them)."""
+    finite = np.isfinite(ecf_ml)
+    if not finite.any() or ecf0_ml <= 0:
+        return
+    lowest = int(np.argmin(np.where(finite, ecf_ml, np.inf)))
+    fall = 1.0 - float(ecf_ml[lowest]) / ecf0_ml
+    if fall <= ECF_CONTRACTION_SAID:
+        return
+    hard = fall > ECF_CONTRACTION_BLOCKED
+    ledger.add(
+        "hard" if hard else "soft",
+        "ECF_CONTRACTION",
+        f"By {hour_text(float(hours[lowest]))} the plan leaves the extracellular fluid "
+        f"{fall:.0%} below where it started (more water and salt leaving than given: a "
+        "diuretic, losses, or a kidney that cannot hold them)"
+        + (", past half of it: shock." if hard else "."),
+        "Give the losses and the urine back (plan by ins and outs), reduce the diuretic, and "
+        "reassess perfusion and weight within hours.",
+    )
+
+
 def check_sodium(
     ledger: Ledger,
     course: SodiumCourse,
@@ -865,7 +961,7 @@ def check_sodium(
 ) -> None:
     """Serum Na through the plan (``course``: the body as the Course tab follows it, kidney
     and diuretics included; ``held``: the same with ADH held, the urine never diluting below
-    its resting osmolality), held to the correction limit (Adrogué & Madias 2000) by six
+    its resting osmolality), held to the correction limit (Adrogué & Madias 2000) by its
     rules, each its own finding so none hides another:
 
     ========================  ==============================================  ==========
@@ -884,6 +980,8 @@ def check_sodium(
     SODIUM_AWAY_FROM_NORMAL   a measured Na outside the species' range moves  soft
                               further out over the plan (either path)
     SODIUM_LIMIT_RAISED       the plan's limit is above the shipped one       soft
+    SODIUM_LEAVES_RANGE       a Na inside the interval leaves it by more      soft
+                              than 3 mmol/L over the plan, however slowly
     LOW_SODIUM_WATER_DIURESIS a measured Na below the interval: once the      info
                               cause resolves a water diuresis can raise Na
                               faster than the plan shows
@@ -915,10 +1013,16 @@ def check_sodium(
             if fastest_carrier_ml_per_h is not None
             else "slow the rate"
         )
-        if diuretic_names and course.carrier_change_per_h > 0:
+        rises = course.carrier_change_per_h > 0
+        if diuretic_names and rises:
             # the rise comes from the urine a diuretic makes, not from the bag
             fix = (f"give back the urine {' and '.join(diuretic_names)} makes (measure it and "
                    "plan by ins and outs), or lower the dose")  # fmt: skip
+        elif rises and bag_na_k is not None and bag_na_k <= course.start_na:
+            # a bag no saltier than the patient cannot raise Na: water is leaving faster than
+            # it is given (urine the kidney cannot concentrate, insensible loss)
+            fix = ("give more water, not less: raise the rate to cover the urine (measure it "
+                   "and plan by ins and outs)")  # fmt: skip
         ledger.add(
             "hard" if hard else "soft",
             "SODIUM_CHANGE_TOO_FAST",
@@ -934,7 +1038,8 @@ def check_sodium(
             + f"{fix[0].upper() if course.measured else fix[0]}{fix[1:]}"
             + (
                 ""
-                if diuretic_names and course.carrier_change_per_h > 0
+                if rises
+                and (diuretic_names or (bag_na_k is not None and bag_na_k <= course.start_na))
                 else ", or choose a fluid closer to the patient's Na"
             )
             + "; recheck Na every 4–6 h.",
@@ -972,24 +1077,43 @@ def check_sodium(
             sourced.source_id,
         )
     below, above = course.start_na < low, course.start_na > high
-    # how far the plan takes Na the wrong way: by the boluses' end or by the plan's end
+    # how far the plan takes Na the wrong way, at its furthest along either path
     paths = (course,) if held is None else (course, held)
-    changes = [change for c in paths for change in (c.boluses_change, c.plan_change)]
-    moved = min(changes) if below else max(changes)
+    moved = (min(c.lowest for c in paths) if below else max(c.highest for c in paths)) - (
+        course.start_na
+    )
     if course.measured and ((below and moved < -0.5) or (above and moved > 0.5)):
-        when = ("while the boluses run" if any(moved == c.boluses_change for c in paths)
-                else "by its end")  # fmt: skip
         ledger.add(
             "soft",
             "SODIUM_AWAY_FROM_NORMAL",
             f"Serum Na {q(course.start_na, 'mmol/L')} is {'below' if below else 'above'} this "
             f"species' {q(low, 'mmol/L')}–{q(high, 'mmol/L')}, and the plan moves it further "
-            f"{'down' if below else 'up'}, by {q(abs(moved), 'mmol/L')} {when}.",
+            f"{'down' if below else 'up'}, by {q(abs(moved), 'mmol/L')} at its furthest.",
             "Choose a fluid whose Na + K is "
             + ("above" if below else "below")
             + " the patient's Na, and recheck Na every 4–6 h.",
             sourced.source_id,
         )
+    # a Na inside the interval that the plan takes out of it, however slowly (a drift over
+    # days is no correction, but a patient made hypo- or hypernatraemic all the same); a few
+    # mmol/L is within what two analysers differ by (common practice, no source)
+    inside = not (below or above)
+    out = max(low - course.lowest, course.highest - high)
+    if inside and not too_fast and out > LEAVES_RANGE_MARGIN_MMOL_PER_L:
+        falls = low - course.lowest >= course.highest - high
+        reached = course.lowest if falls else course.highest
+        ledger.add(
+            "soft",
+            "SODIUM_LEAVES_RANGE",
+            f"{subject} {'fall' if falls else 'rise'} out of this species' "
+            f"{q(low, 'mmol/L')}–{q(high, 'mmol/L')}, to {q(reached, 'mmol/L')}, over the plan "
+            "(slowly: no hour past the correction limit).",
+            ("Measure serum Na and enter it; " if not course.measured else "Recheck Na every "
+             "12–24 h; ") + ("give a fluid closer to the patient's Na, or less free water."
+                             if falls else "give more water (the urine and insensible loss), "
+                             "or a fluid with less Na."),
+            sourced.source_id,
+        )  # fmt: skip
     # free water is for a measured free-water deficit (Adrogué & Madias 2000, hypernatraemia);
     # "under a quarter of the patient's Na" marks it (our threshold, no source: 5 % dextrose
     # has none, 0.45 % NaCl half)

@@ -148,8 +148,16 @@ def intermittent_phase(
     per_site_limit_ml: float,
     kcl_mmol_per_l: float,
     fluid_name: str = "",
+    interval_h: float | None = None,
+    sites_at_most: int | None = None,
 ) -> Phase:
     """A phase of divided boluses giving ``need_ml_per_h`` × its hours, as drawn up.
+
+    ``interval_h`` and ``sites_at_most``: the clinician's interval and most sites per dose.
+    With them a dose never holds more than those sites each drawn up to the site's limit
+    (:func:`vetfluid.physiology.delivery.dose_ceiling`): what the need asks beyond that is
+    not given (the plan replaces the deficit over longer, or says the doses fall short),
+    never put into more sites.
 
     The interval comes from :func:`vetfluid.physiology.delivery.divided_boluses`; the phase is
     split into that many evenly spaced doses (rounding up, so no dose grows beyond
@@ -164,8 +172,9 @@ def intermittent_phase(
     shorter than one interval is one dose, which the plan reports as a finding.
     """
     split = delivery.divided_boluses(
-        need_ml_per_h=need_ml_per_h, per_site_limit_ml=per_site_limit_ml, route=route
-    )
+        need_ml_per_h=need_ml_per_h, per_site_limit_ml=per_site_limit_ml, route=route,
+        sites_at_most=sites_at_most, interval_h=interval_h,
+    )  # fmt: skip
     hours = end_h - start_h
     # whole intervals only (rounded down): doses never come closer than the interval, so SC
     # fluid is absorbed before the next (6–8 h, Vet Clin North Am 2017)
@@ -173,12 +182,16 @@ def intermittent_phase(
     spacing = hours / doses
     need = need_ml_per_h * spacing
     sites = max(1, math.ceil(round(need / per_site_limit_ml, 9)))
+    if sites_at_most is not None and sites > sites_at_most:
+        # the clinician's sites, each to its limit: the most a dose holds, never more sites
+        sites = sites_at_most
+        need = sites * per_site_limit_ml
     drawn = delivery.drawn_up_dose(ml_per_site=need / sites, sites=sites, at_most=per_site_limit_ml)
-    if _site_forced_down(need / sites, per_site_limit_ml) and route != "icoel":
+    if _site_forced_down(need / sites, per_site_limit_ml) and route not in delivery.ONE_SITE_ROUTES:
         # the limit drew every site a mark down; one more site (under the usual site
-        # count; never a second puncture into the coelom) when that lands closer
+        # count or the clinician's; never a second puncture into one cavity) when closer
         more = sites + 1
-        if more <= delivery.MAX_SITES_PER_DOSE:
+        if more <= (sites_at_most or delivery.MAX_SITES_PER_DOSE):
             spread = delivery.drawn_up_dose(
                 ml_per_site=need / more, sites=more, at_most=per_site_limit_ml
             )
@@ -234,6 +247,7 @@ class ScheduleEntry:
 # Routes in the words a nurse reads (never the id ``icoel``).
 ROUTE_WORDS = {
     "iv": "IV", "cvc": "IV (central line)", "io": "IO", "sc": "SC", "icoel": "intracoelomic",
+    "epicoel": "epicoelomic", "ip": "IP", "oral": "by mouth",
 }  # fmt: skip
 
 
@@ -308,9 +322,11 @@ def rate_or_dose_text(phase: Phase) -> str:
             return f"{rate} = {drops}"
         return f"{rate} (too fast to count drops)" if how else rate
     drawn = delivery.drawn_up_dose(ml_per_site=phase.ml_per_site or 0.0, sites=phase.sites_per_dose)
+    every = f"{format_quantity(drawn.dose_ml, 'mL', decimals=2)} every {phase.interval_h:g} h "
+    if phase.route == "oral":
+        return every + f"× {phase.doses}, by mouth or tube"
     return (
-        f"{format_quantity(drawn.dose_ml, 'mL', decimals=2)} every {phase.interval_h:g} h "
-        f"× {phase.doses}, {sites_text(drawn.sites)} of "
+        every + f"× {phase.doses}, {sites_text(drawn.sites)} of "
         f"{format_quantity(drawn.ml_per_site, 'mL', decimals=2)}"
     )
 
@@ -350,7 +366,25 @@ def divided_dose_text(*, ml_per_site: float, sites: int, route: str) -> str:
     drawn = delivery.drawn_up_dose(ml_per_site=ml_per_site, sites=sites)
     dose = format_quantity(drawn.dose_ml, "mL", decimals=2)
     per_site = format_quantity(drawn.ml_per_site, "mL", decimals=2)
+    if route == "oral":  # one go by mouth, crop or stomach tube: no sites
+        return f"Give {dose} {route_text(route)} (syringe, crop or stomach tube) in one go"
     return f"Give {dose} {route_text(route)} in {sites_text(sites)}, {per_site} per site"
+
+
+def soak_entries(
+    *, hours: tuple[float, ...], start: time | None, water_temp_c: float, minutes: float
+) -> list[ScheduleEntry]:
+    """Each soak on the clock: an adjunct the plan records and never counts as intake
+    (what is drunk or taken in through the cloaca in a bath is not measured)."""
+    action = (
+        f"Soak in shallow warm water ({format_quantity(water_temp_c, '°C')}) for "
+        f"{minutes:g} min, head clear of the water, watched throughout; an adjunct, not "
+        "counted in the fluid given"
+    )
+    return [
+        ScheduleEntry(hour=h, clock=clock_time(start, h), phase="soak", action=action)
+        for h in hours
+    ]
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -410,10 +444,12 @@ def schedule_entries(
     phases: tuple[Phase, ...],
     start: time | None,
     diuretics: tuple[DiureticDose, ...] = (),
+    soaks: tuple[ScheduleEntry, ...] = (),
 ) -> tuple[ScheduleEntry, ...]:
     """The plan on the clock: each phase start and each divided dose (volumes to the
-    syringe's marks, :func:`vetfluid.physiology.delivery.draw_up_ml`), and each diuretic
-    dose, in order of the hour (at the same hour the fluids first). The first resuscitation
+    syringe's marks, :func:`vetfluid.physiology.delivery.draw_up_ml`), each diuretic
+    dose and each soak (:func:`soak_entries`), in order of the hour (at the same hour the
+    fluids first). The first resuscitation
     bolus is given; each later one only if the patient is still poorly perfused when
     reassessed (its time stays reserved on the clock)."""
     entries = []
@@ -456,6 +492,8 @@ def schedule_entries(
                 ScheduleEntry(hour=hour, clock=clock_time(start, hour), phase=phase.kind,
                               action=action)
             )  # fmt: skip
-    if diuretics:  # a stable sort: the fluids' own order holds at each hour
-        entries = sorted([*entries, *diuretic_entries(diuretics, start)], key=lambda e: e.hour)
+    if diuretics or soaks:  # a stable sort: the fluids' own order holds at each hour
+        entries = sorted(
+            [*entries, *diuretic_entries(diuretics, start), *soaks], key=lambda e: e.hour
+        )
     return tuple(entries)

@@ -1,17 +1,20 @@
 """The treatment sheet (HTML), built from the plan's JSON so the window, the CLI's JSON
 and ``vetfluid sheet PLAN.json`` print the same thing.
 
-Sections: patient header, cautions, plan summary, the hourly schedule on the clock
-with columns the nurse fills in, bag or syringe labels, findings with the reasons
-given, and footnotes naming the source of every species value used — values
-recalled from memory say "memory — unverified" in words, so the marking survives
-black-and-white print. Every text is escaped: a patient called "<b>Rex</b>" prints
-as those characters. Numbers are formatted the safe way.
+Sections: patient header, cautions, plan summary, the record on the clock with columns
+the nurse fills in (one row an hour, or one per dose for divided doses; what to watch by
+taxon), one label per bag or syringe used (:mod:`vetfluid.printouts.labels`), findings
+with the reasons given, and footnotes naming the source of every species value used. The
+title (patient or a line for the name, species, weight, date) heads every printed page.
+Values recalled from memory say "memory — unverified" in words, so the marking survives
+black-and-white print. Every text is escaped: a patient called "<b>Rex</b>" prints as
+those characters. Numbers are formatted the safe way.
 """
 
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Callable
 from datetime import date, datetime, time, timedelta
 from html import escape
@@ -26,8 +29,10 @@ from vetfluid.physiology.electrolytes import SodiumSummary, sodium_text
 from vetfluid.physiology.hydration import RETIRED_FINDINGS, load_findings
 from vetfluid.physiology.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.planning.plan import Plan
-from vetfluid.planning.schedule import clock_time, route_text, sites_text
+from vetfluid.planning.schedule import DIURETIC_ROUTE_WORDS, clock_time, route_text, sites_text
+from vetfluid.printouts import labels as containers
 from vetfluid.records.serialize import plan_dict
+from vetfluid.tables.species import load_table
 
 SEVERITY_WORDS = {"info": "Note", "soft": "Warning", "hard": "HARD LIMIT"}
 # Routes and devices as the trade writes them (the plan's JSON keeps its short ids).
@@ -37,10 +42,29 @@ DEVICE_WORDS = {
     "syringe": "syringe pump",
     "divided": "divided boluses",
 }
-NURSE_COLUMNS = ("Rate set", "Volume given", "Weight", "HR", "RR", "MM / CRT", "Urine", "Initials")
-# Discard a spiked bag or filled syringe after 24 h: common practice, no source.
-DISCARD_AFTER_H = 24.0
+# What the nurse fills in: how the fluid went in (a rate set and the volume given; a divided
+# dose's volume and the sites used), what to watch by taxon (the issue's columns for
+# reptiles and birds: common practice, no source), and who did it.
+DELIVERY_COLUMNS = {
+    "continuous": ("Rate set", "Volume given"),
+    "divided": ("Volume given", "Sites"),
+}
+TAXON_COLUMNS = {
+    "mammal": ("Weight", "HR", "RR", "MM / CRT", "Urine"),
+    "reptile": ("Body or encl. °C", "Weight", "Urates / faeces", "Demeanour"),
+    "bird": ("Weight", "Droppings", "Respiratory effort"),
+}
+NURSE_COLUMNS = (*DELIVERY_COLUMNS["continuous"], *TAXON_COLUMNS["mammal"], "Initials")
+# A line to write on where no name was given (never a placeholder that reads as a name).
+NAME_LINE = "Name: ______________________"
+DATE_LINE = "date: ____________"
 LABELS_PER_ROW = 3  # wide enough to read a fluid's name with its additives
+# Rows of labels per page (a row is at most about 11 lines of 9 pt: four fit an A4 or
+# Letter page); the labels start on a page of their own, so none is split by a page break.
+LABEL_ROWS_PER_PAGE = 4
+# 20 % w/v mannitol holds 0.2 g/mL (the strength species_data/diuretics.csv's dosing notes
+# give, kirk_aki): grams ÷ 0.2 = mL.
+MANNITOL_G_PER_ML = 0.2
 STYLE = (
     "body { font-family: sans-serif; font-size: 9pt; } "
     "table { border-collapse: collapse; } td, th { border: 1px solid black; padding: 2px; }"
@@ -188,11 +212,7 @@ def _planned_at(phases: list[dict], hour: float, start: time | None) -> str:
                     name = "bolus" if number == 1 else f"bolus {number} ({CONDITIONAL})"
                     parts.append(f"{name} still running until {until} ({rate})")
                     continue
-                minutes = (p["end_h"] - p["start_h"]) * 60
-                bolus = f"{q(p['volume_ml'], 'mL')} in {minutes:.0f} min ({rate})"
-                parts.append(
-                    f"bolus {bolus}" if number == 1 else f"bolus {number} ({CONDITIONAL}): {bolus}"
-                )
+                parts.append(_bolus_text(p, number))
                 continue
             if p["start_h"] > hour:
                 when = clock_time(start, p["start_h"])
@@ -208,38 +228,175 @@ def _planned_at(phases: list[dict], hour: float, start: time | None) -> str:
     return "; ".join(parts) or "—"
 
 
-def _diuretics_at(data: dict, hour: float) -> list[str]:
-    """The diuretic doses given in the hour starting at ``hour`` (an infusion where it
-    starts), in the schedule's words."""
-    return [d["text"] for d in data.get("diuretics") or [] if hour <= d["start_h"] < hour + 1]
+DOSE_WORDS = ("drug", "unit", "route", "amount_unit")
+DOSE_FIGURES = ("dose", "amount", "end_h")
+
+
+def diuretic_line(dose: dict, clock: Callable[[float], str]) -> str:
+    """One diuretic dose in words, its amount to two significant figures below 1 (0.035 mg,
+    0.00035 mg/h: never rounded to 0), an infusion's end on the clock (``until 14:30``),
+    mannitol with the mL of its 20 % solution beside the grams (10 g = 50 mL). A plan file
+    without the figures keeps the schedule's words."""
+    figures = [dose.get(k) for k in DOSE_FIGURES]
+    if not all(isinstance(dose.get(k), str) for k in DOSE_WORDS) or not all(
+        isinstance(f, int | float) and not isinstance(f, bool) and math.isfinite(f) for f in figures
+    ):
+        return str(dose["text"])
+    drug = str(dose["drug"])
+    name = drug[:1].upper() + drug[1:]
+    route = str(dose["route"])
+    given = (
+        f"{entered_number(dose['dose'])} {dose['unit']} "
+        f"{DIURETIC_ROUTE_WORDS.get(route, route.upper())}"
+    )
+    amount = q(dose["amount"], str(dose["amount_unit"]))
+    if route == "cri":
+        return f"{name} infusion {given} = {amount} until {clock(dose['end_h'])}"
+    if dose.get("drug_id") == "mannitol" and dose["amount_unit"] == "g":
+        amount += f" ({q(dose['amount'] / MANNITOL_G_PER_ML, 'mL')} of 20 % mannitol)"
+    return f"{name} {given} = {amount}"
+
+
+def _doses_in_order(data: dict) -> list[dict]:
+    """The diuretic doses by their hour, as the schedule lists them (a stable sort)."""
+    return sorted(data.get("diuretics") or [], key=lambda d: d["start_h"])
+
+
+def _bolus_text(p: dict, number: int) -> str:
+    """A bolus where it starts: ``bolus 360 mL in 15 min (1440 mL/h)``; a later one only if
+    still poorly perfused."""
+    minutes = (p["end_h"] - p["start_h"]) * 60
+    rate = q(p["rate_ml_per_h"], "mL/h")
+    bolus = f"{q(p['volume_ml'], 'mL')} in {minutes:.0f} min ({rate})"
+    return f"bolus {bolus}" if number == 1 else f"bolus {number} ({CONDITIONAL}): {bolus}"
+
+
+def _diuretics_at(
+    data: dict, hour: float, clock: Callable[[float], str], *, until: float | None = None
+) -> list[str]:
+    """The diuretic doses given from ``hour`` up to ``until`` (the next hour when not
+    given; an infusion where it starts), each with its own clock time, so a dose at half
+    past stands in its hour's row as ``09:30: Furosemide …``."""
+    end = hour + 1 if until is None else until
+    return [
+        f"{clock(d['start_h'])}: {diuretic_line(d, clock)}"
+        for d in _doses_in_order(data)
+        if hour <= d["start_h"] < end
+    ]
 
 
 def diuretics_text(data: dict, clock: Callable[[float], str]) -> str | None:
     """Every diuretic dose with its clock time, or None when there is none."""
-    doses = data.get("diuretics") or []
-    return "; ".join(f"{clock(d['start_h'])}: {d['text']}" for d in doses) or None
+    doses = _doses_in_order(data)
+    return "; ".join(f"{clock(d['start_h'])}: {diuretic_line(d, clock)}" for d in doses) or None
+
+
+def _schedule_rows(data: dict, clock: Callable[[float], str]) -> list[list[str]]:
+    """The schedule on the clock; its diuretic entries in the sheet's words
+    (:func:`diuretic_line`), in the order the schedule lists them."""
+    doses = iter(_doses_in_order(data))
+    rows = []
+    for e in data["schedule"]:
+        action = e["action"]
+        if e["phase"] == "diuretic":
+            dose = next(doses, None)
+            if dose is not None and dose["start_h"] == e["hour"]:
+                action = diuretic_line(dose, clock)
+        rows.append([clock(e["hour"]), e["phase"], action])
+    return rows
+
+
+def taxon(data: dict) -> str:
+    """ "bird", "reptile" or "mammal": the species' group in the species table (a species
+    this vetfluid does not know prints the mammal columns, as every sheet did before)."""
+    try:
+        lineage = load_table().lineage(str(data.get("species_id")))
+    except KeyError:
+        return "mammal"
+    return next((t for t in ("bird", "reptile") if f"group_{t}" in lineage), "mammal")
+
+
+def divided(data: dict) -> bool:
+    """Whether the plan is given as divided doses (rows per dose, not per hour)."""
+    return any(p["mode"] == "intermittent" for p in data["phases"])
+
+
+def nurse_columns(data: dict) -> tuple[str, ...]:
+    """The columns the nurse fills in, by how the plan is given and the patient's taxon."""
+    mode = "divided" if divided(data) else "continuous"
+    return (*DELIVERY_COLUMNS[mode], *TAXON_COLUMNS[taxon(data)], "Initials")
+
+
+def _day_heading(start: time | None, day: date | None, hour: float, last: date | None) -> str:
+    """A heading with the date where a new day begins ("" when the day is the same)."""
+    if start is None or day is None:
+        return ""
+    moment = datetime.combine(day, start) + timedelta(hours=hour)
+    if moment.date() == last:
+        return ""
+    days = (moment.date() - day).days
+    return f"{date_text(moment.date())}" + (f" (+{days} d)" if days else "")
+
+
+def _row_times(data: dict) -> list[float]:
+    """The times of a divided plan's rows: each dose, each continuous phase's start (a
+    bolus) and each diuretic dose."""
+    times = {h for p in data["phases"] if p["mode"] == "intermittent"
+             for h in containers.dose_hours(p)}  # fmt: skip
+    times |= {p["start_h"] for p in data["phases"] if p["mode"] == "continuous"}
+    times |= {d["start_h"] for d in data.get("diuretics") or []}
+    return sorted(times)
 
 
 def _hourly_rows(
     data: dict, hours: range, start: time | None, day: date | None
 ) -> list[list[str] | str]:
-    """The hourly record: clock (``00:30 (+1 d)`` as the window gives it), hour, what is
-    planned, blanks to fill in; when the date of hour 0 is known, a heading with the date
-    where each new day begins."""
+    """The record the nurse fills in: clock (``00:30 (+1 d)`` as the window gives it), hour,
+    what is planned, blanks; one row an hour, or for divided doses one row per dose time;
+    when the date of hour 0 is known, a heading with the date where each new day begins."""
+
+    def clock(hour: float) -> str:
+        return sheet_clock(start, day, hour)
+
+    times = _row_times(data) if divided(data) else [float(h) for h in hours]
+    blanks = [""] * len(nurse_columns(data))
     rows: list[list[str] | str] = []
-    for h in hours:
-        if start is not None and day is not None:
-            moment = datetime.combine(day, start) + timedelta(hours=h)
-            days = (moment.date() - day).days
-            if h == 0 or moment.hour == 0:
-                rows.append(f"{date_text(moment.date())}" + (f" (+{days} d)" if days else ""))
-        clock = clock_time(start, h) or f"h {h}"
-        fluids_planned = _planned_at(data["phases"], h, start)
-        planned = (
-            "; ".join([p for p in (fluids_planned,) if p != "—"] + _diuretics_at(data, h)) or "—"
-        )
-        rows.append([clock, f"{h}", planned] + [""] * len(NURSE_COLUMNS))
+    last: date | None = None
+    for h in times:
+        heading = _day_heading(start, day, h, last)
+        if heading:
+            rows.append(heading)
+            last = (datetime.combine(day, start) + timedelta(hours=h)).date()  # type: ignore[arg-type]
+        if divided(data):  # each dose time its own row: the doses given at that very time
+            fluids_planned = _planned_at_time(data["phases"], h)
+            given = _diuretics_at(data, h, clock, until=h + 1e-9)
+        else:
+            fluids_planned = _planned_at(data["phases"], h, start)
+            given = _diuretics_at(data, h, clock)
+        planned = "; ".join([p for p in (fluids_planned,) if p != "—"] + given) or "—"
+        rows.append([clock_time(start, h) or f"h {h:g}", f"{h:g}", planned, *blanks])
     return rows
+
+
+def _planned_at_time(phases: list[dict], hour: float) -> str:
+    """What a divided plan gives at ``hour``: each dose due then, as drawn up, and each
+    continuous phase (a bolus) that starts then."""
+    parts = []
+    for index, p in enumerate(phases):
+        if p["mode"] == "intermittent":
+            for due in containers.dose_hours(p):
+                if abs(due - hour) < 1e-9:
+                    drawn = _drawn(p)
+                    parts.append(
+                        f"dose {_dose_ml(p)} {route_text(p['route'])}: "
+                        f"{sites_text(drawn.sites)} × {q(drawn.ml_per_site, 'mL', decimals=2)}"
+                    )
+        elif abs(p["start_h"] - hour) < 1e-9:
+            number = bolus_numbers(phases).get(index)
+            parts.append(
+                _bolus_text(p, number) if number else f"set {q(p['rate_ml_per_h'], 'mL/h')}"
+            )
+    return "; ".join(parts) or "—"
 
 
 def _drawn(p: dict) -> DrawnUpDose:
@@ -317,16 +474,20 @@ def _dehydration_input(data: dict, request: dict) -> str:
     findings in words (their ids are for files)."""
     percent = data["dehydration_percent"]
     estimate = data.get("dehydration_estimate")
-    band = (
-        f"{estimate['percent_low']:g}–{estimate['percent_high']:g} % from findings "
-        f"({'; '.join(finding_words(str(f)) for f in estimate['findings'])})"
-        if estimate
-        else ""
-    )
+    words = "; ".join(finding_words(str(f)) for f in estimate["findings"]) if estimate else ""
+    band = ""
+    if estimate and estimate.get("percent_low") is not None:
+        band = f"{estimate['percent_low']:g}–{estimate['percent_high']:g} % from findings ({words})"
+    elif estimate:  # a reptile's signs: no published band
+        band = f"signs with no published % band ({words})"
     if "dehydration_percent" not in request:  # a file without the request
         return f"{percent:g} % (whether entered or estimated is not in this plan file)"
     if request["dehydration_percent"] is not None:
+        if estimate and estimate.get("percent_low") is None:
+            return f"{percent:g} %, entered (signs: {words})"
         return f"{percent:g} %, entered" + (f" (findings suggested {band})" if band else "")
+    if estimate and estimate.get("percent_low") is None:
+        return f"NOT ENTERED: {band}; the dehydration % must be entered"
     if estimate:
         return f"{percent:g} %, ESTIMATED {band}, NOT CONFIRMED by the clinician"
     return f"{percent:g} % (none entered and no findings given)"
@@ -424,9 +585,10 @@ def sheet_html(
 
     end = max(p["end_h"] for p in data["phases"])
     hours = range(int(math.ceil(end)))
-    name = patient.get("name") or "(patient name)"
+    name = str(patient.get("name") or "").strip() or NAME_LINE
     parts = [
-        f"<html><head><style>{STYLE}</style></head><body>",
+        f"<html><head><title>{escape(page_line(data, name))}</title>"
+        f"<style>{STYLE}</style></head><body>",
         f"<h2>Fluid treatment sheet — {escape(str(name))}</h2>",
         "<p>"
         + escape(
@@ -470,18 +632,15 @@ def sheet_html(
         ),  # fmt: skip
         _ins_and_outs_html(data),
         "<h3>Schedule</h3>",
-        table_html(
-            [[clock(e["hour"]), e["phase"], e["action"]] for e in data["schedule"]],
-            ["Clock", "Phase", "What to do"],
-        ),
-        "<h3>Hourly record (fill in)</h3>",
+        table_html(_schedule_rows(data, clock), ["Clock", "Phase", "What to do"]),
+        f"<h3>{'Record of each dose' if divided(data) else 'Hourly record'} (fill in)</h3>",
         table_html(
             _hourly_rows(data, hours, start, day),
-            ["Clock", "Hour", "Planned", *NURSE_COLUMNS],
+            ["Clock", "Hour", "Planned", *nurse_columns(data)],
             padding=6,  # room to write by hand
-            widths={"Clock": 13, "Planned": 24},
+            widths={"Clock": 13, "Planned": 22, "Demeanour": 11, "Initials": 8},
         ),
-        "<h3>Labels</h3>",
+        "<h3 style='page-break-before: always'>Labels</h3>",
         _labels(data, str(name), clock),
         "<h3>Findings</h3>",
         table_html(
@@ -500,6 +659,28 @@ def sheet_html(
         "</body></html>",
     ]
     return "".join(parts)
+
+
+def page_line(data: dict, name: str) -> str:
+    """What heads every printed page (the sheet's title): the patient's name (or a line to
+    write it on), species, weight and the date of hour 0 (or a line for it)."""
+    day = _start_date(data)
+    when = date_text(day) if day is not None else DATE_LINE
+    return f"{name or NAME_LINE} · {data['species_name']}, {patient_weight_text(data)} · {when}"
+
+
+# Characters no file name may hold on Windows, macOS or Linux, and control characters.
+UNSAFE_IN_FILE_NAMES = re.compile(r'[\\/:*?"<>|\x00-\x1f\x7f]')
+
+
+def sheet_file_name(data: dict, name: str) -> str:
+    """The file a printed sheet is proposed as: ``Rex 2026-12-01 fluid sheet.pdf`` (the
+    species where no name was given, no date where hour 0 has none); characters a file
+    name cannot hold become ``-``."""
+    who = UNSAFE_IN_FILE_NAMES.sub("-", " ".join(str(name).split()))[:60].strip(" .")
+    who = who or UNSAFE_IN_FILE_NAMES.sub("-", data["species_name"])
+    day = _start_date(data)
+    return f"{who} {day.isoformat()} fluid sheet.pdf" if day else f"{who} fluid sheet.pdf"
 
 
 def _amount(value: dict) -> str:
@@ -597,47 +778,118 @@ def _phase_text(p: dict) -> str:
     )
 
 
-def _labels(data: dict, name: str, clock: Callable[[float], str]) -> str:
-    """One label per bag or syringe: patient, fluid with additives and their strength in
-    the bag, rate, start and discard (``clock``: :func:`sheet_clock` of an hour)."""
-    cells = []
-    weight = patient_weight_text(data)
+def _rate_text(p: dict) -> str:
+    """A continuous phase's rate as it is set: a syringe pump's to 0.01 mL/h below 10 mL/h
+    (as the schedule gives it), any other to the safe figures."""
+    rate = p["rate_ml_per_h"]
+    if p.get("syringe_fills"):
+        return q(rate, "mL/h", decimals=2 if rate < 10 else 1)
+    return q(rate, "mL/h")
+
+
+def _label_lines(data: dict, label: containers.Label, clock: Callable[[float], str]) -> list[str]:
+    """What one container's label says, below the patient's name, species and weight."""
+    p = data["phases"][label.phase_index]
+    fluid = containers.base_fluid_name(p.get("fluid") or data["fluid"]["name"])
+    size = q(label.container_ml, "mL")
+    hang = f" ({q(containers.HANG_LIMIT_H, 'h')} hang limit)" if label.hang_limited else ""
+    if label.kind == "dose":
+        drawn = _drawn(p)
+        per_site = drawn.ml_per_site
+        syringe_ml = (data.get("request") or {}).get("syringe_size_ml") or 0
+        syringes = (
+            "1 mL syringe per site (0.01 mL marks)" if per_site < 1
+            else f"{math.ceil(per_site / syringe_ml - 1e-9)} syringes per site"
+            if syringe_ml and per_site > syringe_ml else "one syringe per site"
+        )  # fmt: skip
+        return [
+            fluid,
+            f"{p['kind']} · {route_text(p['route'])} dose {label.number} of {label.of}",
+            f"{sites_text(drawn.sites)} × {q(per_site, 'mL', decimals=2)} = {_dose_ml(p)} per dose",
+            syringes,
+            f"draw up at {clock(label.start_h)}; give at once, then discard the syringes",
+        ]
+    if label.kind == "stock bag":
+        return [
+            f"{fluid}, {size} bag",
+            *containers.additions(data, p, label.container_ml),
+            *additive_lines(data, p),
+            f"stock bag {label.number} of {label.of}: the divided doses are drawn from it "
+            f"({q(label.give_ml, 'mL', decimals=2)})",
+            f"opened {clock(label.start_h)} · discard by {clock(label.discard_h)}{hang}",
+        ]
     numbers = bolus_numbers(data["phases"])
-    for index, p in enumerate(data["phases"]):
-        fluid = p.get("fluid") or data["fluid"]["name"]
-        rate = (
-            q(p["rate_ml_per_h"], "mL/h")
-            if p["mode"] == "continuous"
-            else f"{_dose_ml(p)} per dose"
-        )
-        begin = clock(p["start_h"])
-        discard = clock(p["start_h"] + DISCARD_AFTER_H)
-        cells.append(
-            "<td>"
-            + "<br>".join(
-                escape(text)
-                for text in (
-                    name,
-                    f"{data['species_name']}, {weight}",
-                    fluid,
-                    *additive_lines(data, p),
-                    f"{p['kind']}: {rate} {route_text(p['route'])}",
-                    *(
-                        [f"bolus {numbers[index]}: {CONDITIONAL.upper()}"]
-                        if numbers.get(index, 1) > 1
-                        else []
-                    ),
-                    f"start {begin} · discard by {discard}",
-                )
-            )
-            + "</td>"
-        )
-    rows = [cells[i : i + LABELS_PER_ROW] for i in range(0, len(cells), LABELS_PER_ROW)]
-    return (
-        "<table cellspacing='4'>"
-        + "".join("<tr>" + "".join(row) + "</tr>" for row in rows)
-        + "</table>"
+    conditional = (
+        [f"bolus {numbers[label.phase_index]}: {CONDITIONAL.upper()}"]
+        if numbers.get(label.phase_index, 1) > 1
+        else []
     )
+    if label.kind == "syringe":
+        return [
+            fluid,
+            *additive_lines(data, p),
+            f"{p['kind']} · syringe {label.number} of {label.of}: load {q(label.give_ml, 'mL')}",
+            f"{_rate_text(p)} {route_text(p['route'])}, syringe pump",
+            f"start {clock(label.start_h)} · discard by {clock(label.discard_h)}{hang}",
+        ]
+    whole = label.give_ml >= label.container_ml - 0.05
+    give = f"give {size}" if whole else f"give {q(label.give_ml, 'mL')} of the {size}"
+    return [
+        f"{fluid}, {size} bag",
+        *containers.additions(data, p, label.container_ml),
+        *additive_lines(data, p),
+        f"{p['kind']} · bag {label.number} of {label.of}: {give}",
+        f"{_rate_text(p)} {route_text(p['route'])}",
+        *conditional,
+        f"start {clock(label.start_h)} · discard by {clock(label.discard_h)}{hang}",
+    ]
+
+
+def labels_note(data: dict) -> str:
+    """The rules the labels follow, said under them."""
+    chosen = (data.get("request") or {}).get("bag_size_ml")
+    size = (
+        f"{q(chosen, 'mL')} bags, as chosen"
+        if chosen
+        else "for each phase the smallest of 250, 500 and 1000 mL that holds what one bag "
+        "gives (1000 mL when more)"
+    )
+    note = (
+        f"One label per bag or syringe. Bags: {size}; a new bag where each phase begins. "
+        f"Discard a bag or a filled syringe at the latest {q(containers.HANG_LIMIT_H, 'h')} "
+        "after it was opened or filled: common practice, no source (the CDC guideline of "
+        "2002, O'Grady et al., makes no recommendation for the hang time of IV fluids)."
+    )
+    if containers.splits_the_schedules_syringes(data):
+        note += (
+            " The schedule changes the pump's syringe when it is empty; the labels add a "
+            "fresh syringe every 24 h before that."
+        )
+    return note
+
+
+def _labels(data: dict, name: str, clock: Callable[[float], str]) -> str:
+    """One label per bag or syringe (:func:`vetfluid.printouts.labels.labels`): patient,
+    fluid and what to add to this bag, rate or dose, start and discard on the clock
+    (``clock``: :func:`sheet_clock` of an hour)."""
+    who = [escape(name), escape(f"{data['species_name']}, {patient_weight_text(data)}")]
+    cells = []
+    for label in containers.labels(data):
+        what, *middle, when = (escape(t) for t in _label_lines(data, label, clock))
+        # the fluid and the times in bold: what a nurse checks first
+        lines = [*who, f"<b>{what}</b>", *middle, f"<b>{when}</b>"]
+        cells.append("<td width='33%'>" + "<br>".join(lines) + "</td>")
+    rows = [cells[i : i + LABELS_PER_ROW] for i in range(0, len(cells), LABELS_PER_ROW)]
+    pages = [rows[i : i + LABEL_ROWS_PER_PAGE] for i in range(0, len(rows), LABEL_ROWS_PER_PAGE)]
+    tables = [
+        "<table width='100%' cellspacing='4'"
+        + (" style='page-break-after: always'" if number < len(pages) - 1 else "")
+        + ">"
+        + "".join("<tr>" + "".join(row) + "</tr>" for row in page)
+        + "</table>"
+        for number, page in enumerate(pages)
+    ]
+    return "".join(tables) + f"<p>{escape(labels_note(data))}</p>"
 
 
 def plan_sheet_html(

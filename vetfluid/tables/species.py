@@ -273,6 +273,12 @@ class SpeciesTable:
             current = self.species_by_id[current].parent
         return chain
 
+    def taxon_class(self, species_id: str) -> str:
+        """ "bird", "reptile" or "mammal": the class a species belongs to by its groups
+        (how it is examined, charted and dosed differs by class)."""
+        lineage = self.lineage(species_id)
+        return next((t for t in ("bird", "reptile") if f"group_{t}" in lineage), "mammal")
+
     def group_names(self, species_id: str) -> list[str]:
         """The common names of the groups a species belongs to, nearest first, in lower
         case ("lizards and snakes", "reptiles"); a name already within a nearer one is
