@@ -284,3 +284,25 @@ def test_phase_summaries_give_the_figures_the_schedule_gives():
     pump = continuous_phase(kind="replacement", start_h=0, end_h=12, rate_ml_per_h=140,
                             route="iv", drop_factor=None, kcl_mmol_per_l=0.0)  # fmt: skip
     assert rate_or_dose_text(pump) == "140 mL/h"
+
+
+def test_a_syringe_is_filled_for_a_day_at_most():
+    # a filled syringe hangs 24 h at the latest (common practice, no source; CDC 2002 made no
+    # recommendation for fluid hang time): 60 mL at 1.3 mL/h would run 46 h, so it is loaded
+    # with a day's 31.2 mL and a fresh one follows
+    from vetfluid.planning.schedule import syringe_fills
+
+    fills = syringe_fills(start_h=0.0, end_h=48.0, rate_ml_per_h=1.3, size_ml=60.0)
+    assert [round(h, 6) for h, _ in fills] == [0.0, 24.0]
+    assert all(ml <= 31.2 + 1e-9 for _, ml in fills)
+    assert sum(ml for _, ml in fills) >= 1.3 * 48 - 0.2
+
+
+def test_a_diuretic_on_the_schedule_never_reads_0_mg_and_ends_on_the_minute():
+    from vetfluid.planning.schedule import DiureticDose, diuretic_text
+
+    tiny = DiureticDose(drug_id="furosemide", name="furosemide", drug_class="loop", dose=0.01,
+                        unit="mg/kg/h", route="cri", start_h=2.0, end_h=6.5, amount=0.00035,
+                        amount_unit="mg/h")  # fmt: skip
+    text = diuretic_text(tiny)
+    assert "0.00035 mg/h" in text and "until hour 6 h 30 min" in text

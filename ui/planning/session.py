@@ -43,7 +43,9 @@ FIELD_WORDS = {
     "ins_and_outs_period_h": "Ins-and-outs period", "measured_outputs": "Measured outputs",
     "diuretics": "Diuretic", "diuretic": "Diuretic", "diuretic route": "Diuretic route",
     "loss_type": "Type of ongoing losses", "renal_output": "Urine output",
-    "serum_hco3": "Serum bicarbonate",
+    "serum_hco3": "Serum bicarbonate", "bag_size_ml": "Bag size",
+    "dose_interval_h": "Dose every", "max_sites_per_dose": "Sites per dose",
+    "soaks_per_day": "Soaks a day",
 }  # fmt: skip
 
 # what a reason opened from a file was given for, when its warning was not in the plan

@@ -57,6 +57,12 @@ MOST_SITES_CHOSEN = 10
 COUNTABLE_DROPS_PER_MIN = 120.0
 
 
+# Discard a spiked bag or a filled syringe after 24 h at the latest: common practice, no
+# source (CDC 2002, O'Grady et al., made no recommendation for IV fluid hang time). The
+# schedule's syringe fills and the printed labels both keep it.
+HANG_LIMIT_H = 24.0
+
+
 def _rate(rate_ml_per_h: float) -> float:
     return require_number(rate_ml_per_h, "rate_ml_per_h", low=0, unit="mL/h")
 

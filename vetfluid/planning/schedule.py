@@ -14,7 +14,7 @@ from datetime import datetime, time, timedelta
 import numpy as np
 
 from vetfluid.common.errors import InputError
-from vetfluid.common.formatting import entered_number, format_quantity
+from vetfluid.common.formatting import entered_number, format_quantity, hour_text
 from vetfluid.physiology import delivery
 
 # A drip too fast to count is checked against the bag's marks every 15 min (a bolus:
@@ -223,14 +223,17 @@ def _site_forced_down(ml_per_site: float, limit_ml: float) -> bool:
 def syringe_fills(
     *, start_h: float, end_h: float, rate_ml_per_h: float, size_ml: float
 ) -> tuple[tuple[float, float], ...]:
-    """When each syringe goes in and how much it holds (to 0.1 mL) to run a phase."""
+    """When each syringe goes in and how much it holds (to 0.1 mL) to run a phase: at most
+    the syringe, and at most :data:`delivery.HANG_LIMIT_H` of the rate (a fresh syringe
+    each day even when one would last longer)."""
     total = rate_ml_per_h * (end_h - start_h)
     if rate_ml_per_h <= 0 or total <= 0:
         return ((start_h, 0.0),)
     fills = []
     given = 0.0
+    most = min(size_ml, rate_ml_per_h * delivery.HANG_LIMIT_H)
     while given < total - 1e-9:
-        volume = min(size_ml, total - given)
+        volume = min(most, total - given)
         fills.append((start_h + given / rate_ml_per_h, delivery.syringe_load_ml(volume)))
         given += volume
     return tuple(fills)
@@ -415,20 +418,14 @@ DIURETIC_ROUTE_WORDS = {"iv": "IV", "im": "IM", "sc": "SC", "po": "PO", "cri": "
 
 def diuretic_text(dose: DiureticDose) -> str:
     """``Furosemide 2 mg/kg IV = 40 mg``; an infusion ``Furosemide infusion 0.66 mg/kg/h
-    IV = 13.2 mg/h until hour 20``."""
+    IV = 13.2 mg/h until hour 20``, ``until hour 6 h 30 min`` off the whole hour."""
     name = dose.name[:1].upper() + dose.name[1:]
-    amount = format_quantity(dose.amount, dose.amount_unit, decimals=_decimals(dose.amount))
+    # two significant figures below 1 (0.035 mg, 0.00035 mg/h): never rounded to 0
+    amount = format_quantity(dose.amount, dose.amount_unit)
     given = f"{entered_number(dose.dose)} {dose.unit} {DIURETIC_ROUTE_WORDS[dose.route]}"
     if dose.infusion:
-        return f"{name} infusion {given} = {amount} until hour {dose.end_h:g}"
+        return f"{name} infusion {given} = {amount} until {hour_text(dose.end_h)}"
     return f"{name} {given} = {amount}"
-
-
-def _decimals(amount: float) -> int:
-    """Decimals for a drug amount: 40 mg, 13.2 mg/h, 0.05 mg, 0.667 mg."""
-    if amount >= 100:
-        return 0
-    return 1 if amount >= 1 else 3
 
 
 def diuretic_entries(doses: tuple[DiureticDose, ...], start: time | None) -> list[ScheduleEntry]:

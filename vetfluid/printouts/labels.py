@@ -29,13 +29,10 @@ from dataclasses import dataclass, replace
 
 from vetfluid.common.errors import InputError
 from vetfluid.common.formatting import format_quantity as q
-from vetfluid.physiology.delivery import drawn_up_dose, syringe_load_ml
+from vetfluid.physiology.delivery import HANG_LIMIT_H, drawn_up_dose, syringe_load_ml
 from vetfluid.planning.plan import BAG_SIZES_ML, DEXTROSE_CONCENTRATE_ID
 from vetfluid.tables import fluids
 
-# Discard a spiked bag or a filled syringe after 24 h at the latest: common practice, no
-# source (CDC 2002, O'Grady et al., made no recommendation for IV fluid hang time).
-HANG_LIMIT_H = 24.0
 EPSILON = 1e-9
 
 
