@@ -494,6 +494,14 @@ def follow_balance(
     )  # fmt: skip
     if drugs is not None:
         last_change = max(last_change, drugs.last_step)
+    # the settings read once, not every step (the loop runs thousands of steps per plan)
+    stop_after = max(last_change, basal_steps) + 1
+    first_drug_step = drugs.first_step if drugs is not None else n
+    if kidney is not None:
+        na_follows, k_min = kidney.na_follows_intake, kidney.k_min_mmol_per_h
+        other_per_step = kidney.other_solute_mosm_per_h * step_h
+        set_na, deficit_for_full = kidney.set_na_mmol_per_l, kidney.volume_deficit_for_full
+        rest_offset, cap = kidney.rest_position - 0.5, kidney.urine_cap_ml_per_h
     i = 0
     while i < n:
         # what goes in
@@ -527,19 +535,21 @@ def follow_balance(
             na_now = pool / w * 1000.0
             above = ecf - ecf_ref_ml
             e_na = take * above * na_now / 1000.0 if above > 0.0 else 0.0
-            if kidney.na_follows_intake and i <= basal_steps:
+            if na_follows and i <= basal_steps:
                 na_target = na_in_mmol[i] / step_h
                 na_rate = na_target + (na_rate - na_target) * (1.0 - take)
                 e_na = max(e_na, na_rate * step_h)
             if i <= basal_steps:
-                target = max(k_step / step_h, kidney.k_min_mmol_per_h)
+                target = k_step / step_h
+                if target < k_min:
+                    target = k_min
                 k_rate = target + (k_rate - target) * k_keep
                 e_k = k_rate * step_h
-                other = kidney.other_solute_mosm_per_h * step_h
+                other = other_per_step
             else:
                 e_k = other = 0.0
             low, ratio, e_m, e_h = floor, log_ratio, 0.0, 0.0
-            if drugs is not None and drugs.first_step <= i:
+            if first_drug_step <= i:
                 e_na, e_k, e_m, e_h, low, ratio = _drug_step(
                     drugs, i, step_h=step_h, e_na=e_na, e_k=e_k, other=other,
                     mannitol=mannitol, ecf_na=ecf * na_now / 1000.0,
@@ -548,8 +558,8 @@ def follow_balance(
             solute = 2.0 * (e_na + e_k) + other + e_m
             pool_after = pool - e_na - e_k
             deficit = -above / ecf_ref_ml if above < 0.0 else 0.0
-            d0 = 2.0 * (pool_after / w * 1000.0 - kidney.set_na_mmol_per_l)
-            d0 += span * (deficit / kidney.volume_deficit_for_full + kidney.rest_position - 0.5)
+            d0 = 2.0 * (pool_after / w * 1000.0 - set_na)
+            d0 += span * (deficit / deficit_for_full + rest_offset)
             if mannitol:
                 d0 += (mannitol - e_m) / w * 1000.0  # an effective osmole: ADH sees it
             # tonicity rises by 2·Na/W per mL of water taken (mOsm/kg per mL)
@@ -558,10 +568,10 @@ def follow_balance(
             x_last = x
             if x < asked:
                 asked = x
-            x = max(x, lowest)
+            if x < lowest:
+                x = lowest
             osm_now = low * math.exp(ratio * x)
             volume = solute / osm_now * 1000.0
-            cap = kidney.urine_cap_ml_per_h
             if cap is not None and volume > cap * step_h:
                 scale = cap * step_h / volume  # solute that cannot leave stays in the body
                 volume, e_na, e_k, e_m, e_h, solute = (
@@ -600,7 +610,7 @@ def follow_balance(
         if hco3_sum is not None:
             hco3_sum.append(hco3_out)
         i += 1
-        if i > max(last_change, basal_steps) + 1 and volume < 1e-9:
+        if i > stop_after and volume < 1e-9:
             break  # nothing goes in or out any more: the state holds
     rest = n - len(tbw)
     if rest:
