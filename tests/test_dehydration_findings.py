@@ -182,3 +182,23 @@ def test_a_mammal_or_bird_finding_without_its_band_is_refused_by_the_loader(tmp_
     path.write_text(text)
     with pytest.raises(SpeciesDataError):
         load_findings(tmp_path / "data")
+
+
+def test_a_percent_typed_below_the_findings_is_said():
+    # Review finding: signs of shock (DiBartola 2012: 12–15 %) with 0 % typed gave a plan with
+    # no deficit and nothing said; the same for a bird's 10–12 % signs with 2 % typed, and a
+    # reptile's signs with 0 % typed.
+    cases = [
+        dict(species_id="dog", weight_kg=20, dehydration_findings=("shock_signs",),
+             dehydration_percent=0),
+        dict(species_id="budgerigar", weight_kg=0.035,
+             dehydration_findings=("bird_dull_dry_cool",), dehydration_percent=2),
+        dict(species_id="bearded_dragon", weight_kg=0.4,
+             dehydration_findings=("reptile_eyes_sunken",), dehydration_percent=0),
+    ]  # fmt: skip
+    for request in cases:
+        found = {f.code: f for f in build_plan(PlanRequest(**request)).findings}
+        assert found["DEHYDRATION_BELOW_FINDINGS"].severity == "soft", request["species_id"]
+    within = build_plan(PlanRequest(species_id="dog", weight_kg=20, dehydration_percent=12,
+                                    dehydration_findings=("shock_signs",)))  # fmt: skip
+    assert "DEHYDRATION_BELOW_FINDINGS" not in {f.code for f in within.findings}

@@ -129,14 +129,17 @@ def test_more_than_one_site_into_one_cavity_is_refused():
 
 
 # ---- routes as practised --------------------------------------------------------------------
-def test_a_gerbil_ip_dose_above_its_limit_is_refused():
+def test_a_gerbil_ip_dose_is_held_to_its_limit():
     # IP at most 10 mL/kg per injection in rodents (rat good-practice volume, Diehl 2001 as
-    # reproduced; memory): 0.7 mL for 70 g. A 7 % deficit over 24 h needs far more a dose.
+    # reproduced; memory): 0.7 mL for 70 g. A 7 % deficit over 24 h needs far more a dose:
+    # the plan holds each injection to the limit and says what that means for the deficit,
+    # whether or not the clinician chose the interval (one injection per dose on this route).
     plan = plan_for(species_id="mongolian_gerbil", weight_kg=0.07, dehydration_percent=7,
                     route="ip")  # fmt: skip
     assert plan.route == "ip" and plan.device == "divided"
-    assert finding(plan, "ONE_SITE_DOSE_TOO_LARGE").severity == "hard"
-    # at the clinician's interval each injection is held to the limit: not refused
+    assert all(p.dose_ml <= 0.7 + 1e-9 and p.sites_per_dose == 1 for p in divided(plan))
+    assert {"DOSES_FALL_SHORT", "REPLACEMENT_SLOWED_TO_ROUTE"} & {f.code for f in plan.findings}
+    # at the clinician's interval each injection is held to the limit too
     held = plan_for(species_id="mongolian_gerbil", weight_kg=0.07, dehydration_percent=7,
                     route="ip", dose_interval_h=8)  # fmt: skip
     assert all(p.dose_ml <= 0.7 + 1e-9 and p.sites_per_dose == 1 for p in divided(held))
@@ -292,3 +295,13 @@ def test_the_cli_takes_the_interval_the_sites_and_the_new_routes(capsys):
     code = cli.main(["plan", "--species", "mongolian_gerbil", "--weight", "70 g", "--route",
                      "ip", "--dose-interval", "7"])  # fmt: skip
     assert code == 2 and "6, 8, 12 or 24" in capsys.readouterr().err
+
+
+def test_a_one_site_route_is_never_spread_over_sites_by_default():
+    # Review finding: left to the plan, an epicoelomic dose was given "in 2 sites" though the
+    # route is one injection per dose (delivery.ONE_SITE_ROUTES); the plan now holds it to
+    # one site and says how long replacement takes at that.
+    plan = build_plan(PlanRequest(species_id="red_eared_slider", weight_kg=0.25,
+                                  dehydration_percent=5, route="epicoel"))  # fmt: skip
+    assert all(p.sites_per_dose == 1 for p in plan.phases if p.mode == "intermittent")
+    assert all("in 1 site" in e.action for e in plan.schedule if e.phase != "diuretic")

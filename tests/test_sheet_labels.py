@@ -291,3 +291,19 @@ def test_a_plan_file_with_another_bag_size_is_refused_and_an_older_one_keeps_its
         for key in ("amount", "amount_unit"):
             del dose[key]
     assert "Furosemide 1 mg/kg IM = 0.035 mg" in sheet_html(budgie)  # the schedule's words
+
+
+def test_a_stock_bag_never_claims_more_than_it_holds():
+    # Review finding: 624 mL SC doses for a 20 kg dog drawn from 250 mL bags were labelled as
+    # two bags giving 624 mL each. Each dose takes as many bags as it needs, each giving at
+    # most what it holds.
+    from vetfluid.planning.plan import PlanRequest, build_plan
+    from vetfluid.printouts.labels import labels
+    from vetfluid.records.serialize import plan_dict
+
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20.0, dehydration_percent=0,
+                                  route="sc", bag_size_ml=250))  # fmt: skip
+    stock = [b for b in labels(plan_dict(plan)) if b.kind == "stock bag"]
+    assert stock and all(b.give_ml <= b.container_ml + 1e-9 for b in stock)
+    doses = sum(p.dose_ml * p.doses for p in plan.phases if p.mode == "intermittent")
+    assert sum(b.give_ml for b in stock) >= doses - 1e-6

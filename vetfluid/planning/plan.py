@@ -681,7 +681,23 @@ def _dehydration(
         else None
     )
     if request.dehydration_percent is not None:
-        return request.dehydration_percent, estimate
+        entered = request.dehydration_percent
+        low = estimate.percent_low if estimate is not None else None
+        below = estimate is not None and (
+            (low is not None and entered < low - 1e-9) or (low is None and entered <= 0)
+        )
+        if below:  # the % typed says less than the signs ticked: one of them is a slip
+            band = (f"{low:g}–{estimate.percent_high:g} %" if low is not None
+                    else "dehydration, with no published % band")  # fmt: skip
+            ledger.add(
+                "soft",
+                "DEHYDRATION_BELOW_FINDINGS",
+                f"The dehydration entered, {entered:g} %, is below what the findings ticked "
+                f"point to ({band}; {estimate.table_name}): the deficit may be too small.",
+                "Check the findings and the % entered; enter the % the examination supports.",
+                estimate.source_id or None,
+            )
+        return entered, estimate
     if estimate is None:
         return 0.0, None
     if estimate.suggested_percent is None:  # a reptile's signs: no published band
@@ -883,12 +899,15 @@ def _chosen_ceiling(
     ledger: Ledger, request: PlanRequest, segments: list[Segment], *, route: str, device: str
 ) -> delivery.DoseCeiling | None:
     """The most one dose holds at the clinician's interval and sites (None when the plan
-    chooses them itself): sites not given are the route's usual most
+    chooses them itself, except on a one-site route): sites not given are the route's usual most
     (:func:`delivery.most_sites`); an interval not given is the longest whose first dose
     fits those sites (:func:`delivery.divided_boluses`)."""
-    if device != "divided" or (
-        request.dose_interval_h is None and request.max_sites_per_dose is None
-    ):
+    chosen = request.dose_interval_h is not None or request.max_sites_per_dose is not None
+    # a route of one injection or tube per dose is held to it even when nothing was chosen:
+    # the plan never spreads a dose over sites the route does not have (intracoelomic keeps
+    # its own checks: a dose over one injection is said, and blocked past the coelom's range)
+    held = route in delivery.ONE_SITE_ROUTES and route != "icoel"
+    if device != "divided" or not (chosen or held):
         return None
     limit_ml = ledger.value(SITE_LIMIT_PARAMETER[route]).number * ledger.weight_kg
     sites = request.max_sites_per_dose or delivery.most_sites(route)

@@ -161,6 +161,20 @@ def _stock_bags(data: dict, doses: list[Label]) -> list[Label]:
         window = [d for d in waiting if key(d) == key(first)
                   and d.start_h < first.start_h + HANG_LIMIT_H - EPSILON]  # fmt: skip
         size = bag_size_ml(sum(d.give_ml for d in window), chosen)
+        if first.give_ml > size + EPSILON:
+            # one dose larger than a bag is drawn from as many bags as it needs, each giving
+            # at most what it holds (never a label claiming more than its bag)
+            left = first.give_ml
+            while left > EPSILON:
+                give = min(size, left)
+                bags.append(Label(
+                    kind="stock bag", phase_index=first.phase_index, number=len(bags) + 1,
+                    of=0, container_ml=size, give_ml=give, start_h=first.start_h,
+                    discard_h=first.start_h + HANG_LIMIT_H, hang_limited=True,
+                ))  # fmt: skip
+                left -= give
+            waiting = waiting[1:]
+            continue
         served, held = [], 0.0
         for d in window:
             if held + d.give_ml > size + EPSILON and served:

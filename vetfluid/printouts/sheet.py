@@ -939,7 +939,8 @@ PLAN_SCHEMA: dict[str, object] = {
     "maintenance": {"ml_per_day": NUMBER, "ml_per_h": NUMBER, "method": TEXT, "formula": TEXT,
                     "temperature_factor": _opt(NUMBER)},
     "dehydration_percent": NUMBER,
-    "dehydration_estimate": _opt({"percent_low": NUMBER, "percent_high": NUMBER,
+    # a reptile's signs have no % band: both ends null (hydration.DehydrationEstimate)
+    "dehydration_estimate": _opt({"percent_low": _opt(NUMBER), "percent_high": _opt(NUMBER),
                                   "findings": _list(TEXT)}),
     "deficit_ml": NUMBER,
     "fluid": {"name": TEXT, "k_mmol_per_l": NUMBER, "dextrose_g_per_l": _opt(NUMBER)},
