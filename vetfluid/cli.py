@@ -285,6 +285,12 @@ def _add_plan_arguments(parser: argparse.ArgumentParser, *, only_given: bool = F
     )
     add("--pcv", type=_number, help="packed cell volume, %% (recorded with the plan)")
     add("--ts", type=_number, help="total solids, g/dL (recorded with the plan)")
+    add(
+        "--age-weeks",
+        type=_number,
+        metavar="WEEKS",
+        help="age in weeks (puppies and kittens: body water, maintenance, dextrose)",
+    )
     for flag in ("cardiac", "renal", "anaesthesia", "neonate"):
         add(f"--{flag}", action="store_true", help=f"patient flag: {flag}")
     parser.add_argument("--json", action="store_true")
@@ -495,6 +501,7 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         renal_disease=args.renal,
         anaesthesia=args.anaesthesia,
         neonate=args.neonate,
+        age_weeks=args.age_weeks,
         max_na_change_per_h=args.max_na_change,
         syringe_size_ml=args.syringe_ml,
         dose_interval_h=args.dose_interval,

@@ -244,6 +244,11 @@ class PatientView(QWidget):
         self.temp_label = QLabel()
         form.addRow("Body &temp. (°C)", self.temp_field)
         form.addRow("", self.temp_label)
+        # a puppy's or kitten's age sets its body water, maintenance and the dextrose check
+        self.age_field = NumberField(
+            session, "age_weeks", "adult", "Age in weeks (puppies and kittens under 6 months)"
+        )
+        form.addRow("A&ge (weeks)", self.age_field)
         layout.addWidget(who)
 
         # -- hydration --------------------------------------------------------------------
@@ -343,6 +348,7 @@ class PatientView(QWidget):
                 max(0, self.loss_type.findData(inputs.get("loss_type") or DEFAULT_LOSS_TYPE))
             )
         self.temp_field.show_value(inputs.get("body_temp_c"))
+        self.age_field.show_value(inputs.get("age_weeks"))
         self.dehydration_field.show_value(inputs.get("dehydration_percent"))
         self.losses_field.show_value(inputs.get("losses_ml_per_day") or None)
         chosen = set(inputs.get("dehydration_findings") or ())

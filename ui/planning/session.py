@@ -45,7 +45,7 @@ FIELD_WORDS = {
     "loss_type": "Type of ongoing losses", "renal_output": "Urine output",
     "serum_hco3": "Serum bicarbonate", "bag_size_ml": "Bag size",
     "dose_interval_h": "Dose every", "max_sites_per_dose": "Sites per dose",
-    "soaks_per_day": "Soaks a day",
+    "soaks_per_day": "Soaks a day", "age_weeks": "Age",
 }  # fmt: skip
 
 # what a reason opened from a file was given for, when its warning was not in the plan

@@ -20,7 +20,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cache
 from pathlib import Path
 
@@ -278,10 +278,22 @@ def euhydrated_weight_kg(*, weight_kg: float, deficit_ml: float) -> float:
     return weight_kg + deficit_ml / 1000.0
 
 
+# Puppies' and kittens' body water falls from about 80 % of body weight at birth to the
+# adults' 60 % over the first six months (DiBartola 2012, ch. 1, as read in the research notes;
+# the straight line between them is our assumption).
+GROWN_AT_WEEKS = 26.0
+
+
 def body_water_fraction(
-    table: SpeciesTable, species_id: str, *, neonate: bool, weight_kg: float
+    table: SpeciesTable,
+    species_id: str,
+    *,
+    neonate: bool,
+    weight_kg: float,
+    age_weeks: float | None = None,
 ) -> SpeciesValue:
-    """Total body water as a fraction of body weight: the adults' value, or for a neonate
+    """Total body water as a fraction of body weight: the adults' value, for a patient
+    whose age is given the value for that age (:data:`GROWN_AT_WEEKS`), or for a neonate
     the neonatal value where the species or its group has one (dogs and cats: up to 0.8 of
     body weight against 0.6 in adults, Odunayo 2018). Neonates of other taxa keep the
     adult value; the plan says so. A "neonate" already within the adults' weight range
@@ -289,6 +301,21 @@ def body_water_fraction(
     smaller, and a flag left ticked must never soften a limit."""
     adult_low = table.value(species_id, "body_weight_kg")
     grown = weight_kg >= (adult_low.low if adult_low.low is not None else adult_low.number)
+    young = table.get(species_id, "neonate_total_body_water_fraction")
+    if age_weeks is not None and young is not None and age_weeks < GROWN_AT_WEEKS:
+        # by age: from the neonates' value at birth to the adults' at six months
+        adult = table.value(species_id, "total_body_water_fraction")
+        share = max(age_weeks, 0.0) / GROWN_AT_WEEKS
+        fraction = young.number + (adult.number - young.number) * share
+        return replace(
+            young, value=fraction, low=None, high=None, basis="derived",
+            note=f"{age_weeks:g} weeks old: between {young.number:.0%} at birth and the "
+                 f"adults' {adult.number:.0%} at {GROWN_AT_WEEKS:g} weeks (DiBartola 2012, "
+                 "ch. 1: body water falls over the first six months; a straight line, our "
+                 "assumption)",
+        )  # fmt: skip
+    if age_weeks is not None:  # grown, or no young value: the adults' (the flag is moot)
+        return table.value(species_id, "total_body_water_fraction")
     if neonate and not grown:
         young = table.get(species_id, "neonate_total_body_water_fraction")
         if young is not None:

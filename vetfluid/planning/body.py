@@ -447,7 +447,8 @@ def follow_body(
     request = regimen.request
     sid, w = request.species_id, request.weight_kg
     values = [
-        body_water_fraction(table, sid, neonate=request.neonate, weight_kg=w),
+        body_water_fraction(table, sid, neonate=request.neonate, weight_kg=w,
+                            age_weeks=request.age_weeks),
         *(table.value(sid, name) for name in (
             "ecf_fraction", "plasma_osmolality_mosm_per_kg", "serum_na_mmol_per_l",
             "serum_k_mmol_per_l",

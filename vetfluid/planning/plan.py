@@ -103,6 +103,7 @@ class PlanRequest:
     renal_disease: bool = False
     anaesthesia: bool = False
     neonate: bool = False
+    age_weeks: float | None = None  # puppies and kittens: body water, maintenance, dextrose
     max_na_change_per_h: float | None = None
     syringe_size_ml: float = 60.0  # the syringe the pump takes
     bag_size_ml: float | None = None  # one of BAG_SIZES_ML; None: by each phase's volume
@@ -174,6 +175,7 @@ class PlanRequest:
                 value=self.resuscitation_boluses,
             )
         for name, low, high, unit in (
+            ("age_weeks", 0, 52 * 30, "weeks"),
             ("serum_na", 80, 230, "mmol/L"),
             ("serum_k", 0.5, 12, "mmol/L"),
             ("urine_osmolality", 20, 12000, "mOsm/kg"),
@@ -1200,7 +1202,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
 
     sodium, free_water = None, None
     tbw = hydration.body_water_fraction(
-        table, request.species_id, neonate=request.neonate, weight_kg=w
+        table, request.species_id, neonate=request.neonate, weight_kg=w,
+        age_weeks=request.age_weeks,
     )
     max_change = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
 
@@ -1276,6 +1279,11 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     if request.neonate:
         young = table.get(request.species_id, "neonate_total_body_water_fraction")
         safety.note_neonate(ledger, neonatal_water=young)
+    safety.check_paediatric(
+        ledger, species_id=request.species_id, age_weeks=request.age_weeks, weight_kg=w,
+        maintenance_ml_per_day=maint.ml_per_day,
+        dextrose_g_per_l=fluids.composition(bag).dextrose_g_per_l, line=route in LINE_ROUTES,
+    )  # fmt: skip
     tail = fluid_phases[-1]
     safety.check_isotonic_maintenance(
         ledger, fluid_name=base.name, fluid_na=bag_comp.na_mmol_per_l,

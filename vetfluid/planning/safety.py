@@ -1439,6 +1439,67 @@ def note_neonate(ledger: Ledger, *, neonatal_water: SpeciesValue | None) -> None
     )
 
 
+# Puppies and kittens (Macintire 2008): neonate to 2 weeks, infant to 6, juvenile to 12
+PAEDIATRIC_WEEKS = 12.0
+DEXTROSE_BEFORE_WEEKS = 6.0  # the infant stage's end: glycogen stores are small before it
+# maintenance of neonates, 120–180 mL/kg/day (Rybachuk, citing Macintire 2008; secondary)
+PAEDIATRIC_MAINTENANCE_ML_PER_KG_DAY = (120.0, 180.0)
+
+
+def check_paediatric(
+    ledger: Ledger,
+    *,
+    species_id: str,
+    age_weeks: float | None,
+    weight_kg: float,
+    maintenance_ml_per_day: float,
+    dextrose_g_per_l: float,
+    line: bool,
+) -> None:
+    """A puppy or kitten whose age is given (under :data:`PAEDIATRIC_WEEKS`): maintenance
+    below the neonates' 120 mL/kg/day (soft), and under :data:`DEXTROSE_BEFORE_WEEKS` a fluid
+    without dextrose into a line (soft: consider it), or the note that dextrose is not given
+    under the skin or into the peritoneum (Clinician's Brief, pediatric critical care)."""
+    if age_weeks is None or species_id not in ("dog", "cat") or age_weeks >= PAEDIATRIC_WEEKS:
+        return
+    low, high = PAEDIATRIC_MAINTENANCE_ML_PER_KG_DAY
+    given = maintenance_ml_per_day / weight_kg
+    if given < low - 1e-9:
+        short = (low - given) * weight_kg
+        ledger.add(
+            "soft",
+            "PAEDIATRIC_MAINTENANCE_LOW",
+            f"At {age_weeks:g} weeks a {'puppy' if species_id == 'dog' else 'kitten'} needs "
+            f"about {low:g}–{high:g} mL/kg/day for maintenance; this plan's maintenance is "
+            f"{q(given, 'mL/kg/day')}.",
+            f"Add about {q(short, 'mL/day')} as ongoing losses, and weigh twice a day on a "
+            "gram scale.",
+            "rybachuk_orphan",
+        )
+    if age_weeks >= DEXTROSE_BEFORE_WEEKS:
+        return
+    if line and dextrose_g_per_l <= 0:
+        ledger.add(
+            "soft",
+            "NEONATE_WITHOUT_DEXTROSE",
+            f"At {age_weeks:g} weeks glycogen stores are small and fasting brings "
+            "hypoglycaemia quickly; this fluid carries no dextrose.",
+            "Measure blood glucose; consider 2.5–5 % dextrose in the maintenance fluid (a "
+            "hypoglycaemic neonate: 0.5–1 g/kg of 5–10 % dextrose IV slowly).",
+            "macintire2008",
+        )
+    elif not line:
+        ledger.add(
+            "info",
+            "NEONATE_DEXTROSE_NOT_UNDER_SKIN",
+            "Fluids under the skin or into the peritoneum carry no dextrose, and before 6 "
+            "weeks the lactate in lactated Ringer's may not be turned into bicarbonate.",
+            "Measure blood glucose; give dextrose IV, IO or by mouth if it is low; prefer a "
+            "warm lactate-free isotonic crystalloid.",
+            "cb_pediatric_cc",
+        )
+
+
 def check_isotonic_maintenance(
     ledger: Ledger,
     *,
