@@ -67,3 +67,13 @@ def test_the_cli_takes_the_age(capsys):
     data = json.loads(capsys.readouterr().out)
     assert data["request"]["age_weeks"] == 3
     assert "NEONATE_WITHOUT_DEXTROSE" in {f["code"] for f in data["findings"]}
+
+
+def test_the_sheet_says_the_age():
+    from vetfluid.printouts.sheet import patient_inputs_rows
+    from vetfluid.records.serialize import plan_dict
+
+    puppy = plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=1.2, age_weeks=3)))
+    assert ["Age", "3 weeks"] in patient_inputs_rows(puppy)
+    adult = plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=20)))
+    assert not any(row[0] == "Age" for row in patient_inputs_rows(adult))

@@ -500,6 +500,9 @@ def patient_inputs_rows(data: dict) -> list[list[str]]:
     request = data.get("request") or {}
     flags = [words for key, words in FLAG_WORDS if request.get(key)]
     rows = [["Flags", ", ".join(flags) if flags else "none (renal, cardiac, neonate, anaesthesia)"]]
+    age = request.get("age_weeks")
+    if isinstance(age, int | float) and not isinstance(age, bool):
+        rows.append(["Age", f"{entered_number(age)} weeks"])
     temperature = request.get("body_temp_c")
     if temperature is not None:
         factor = (data.get("maintenance") or {}).get("temperature_factor")
