@@ -126,13 +126,19 @@ class Bound:
 # whether a plan passes a bound is the oracle's own arithmetic below. A refused request
 # (InputError, LimitExceeded) answers every bound: no plan exists.
 # Beside the rate rule, a fall is answered by the plan's rule for a kidney held from diluting
-# (SODIUM_FALL_IF_ADH_HELD) and for free water itself (FREE_WATER_WITHOUT_HIGH_SODIUM).
+# (SODIUM_FALL_IF_ADH_HELD) and for free water itself (FREE_WATER_WITHOUT_HIGH_SODIUM). A
+# plan blocked because its fluid may not go under the skin at all (FLUID_NOT_FOR_SC, always
+# hard) or may not be the bag (FLUID_NOT_A_CARRIER, always hard) is answered too: its fix is
+# another fluid, and the Na it would give is no plan to judge (the oracle's model keeps no
+# kidney, so it may see an hour past the limit the plan's kidney does not).
 SODIUM_ANSWERS = (
     "SODIUM_CHANGE_TOO_FAST",
     "FLUID_NOT_FOR_RESUSCITATION",
     "FLUID_DOSE_ABOVE_MAX",
     "SODIUM_FALL_IF_ADH_HELD",
     "FREE_WATER_WITHOUT_HIGH_SODIUM",
+    "FLUID_NOT_FOR_SC",
+    "FLUID_NOT_A_CARRIER",
 )
 RULES: dict[str, Bound] = {
     "weight_unit_slip": Bound("hard", ("WEIGHT_UNIT_SLIP",)),
