@@ -359,10 +359,11 @@ def course(
         )  # fmt: skip
         kidney_values += hco3_values
 
-    net = given - consumed - urine  # followed.weight_kg is the same balance, in kg
+    weight = followed.weight_kg  # the one weight prediction (given − what left)
+    net = (weight - w) * 1000.0
     na_limit = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
     beyond = _beyond_the_model(hours, plasma, ecf - plasma, tbw - ecf, na_path, serum_k,
-                               serum_hco3, w + net / 1000.0)  # fmt: skip
+                               serum_hco3, weight)  # fmt: skip
     if beyond:  # the figures stop being a prediction: nothing more is read from them
         predicted = beyond
     else:
@@ -397,7 +398,7 @@ def course(
         total_solids_g_per_dl=solids,
         na_max_change_per_h=na_limit,
         findings=predicted,
-        weight_kg=w + net / 1000.0,
+        weight_kg=weight,
         remaining_deficit_ml=np.maximum(plan.deficit_ml - net, 0.0),
         provenance=provenance,
         excess_excretion_left_out=followed.excess_excretion_left_out,

@@ -170,19 +170,9 @@ def estimate_dehydration(
     refused in words; so is one the table split (``RETIRED_FINDINGS``), with both choices
     named: plan files, drafts and the CLI say so rather than drop it.
     """
+    check_finding_ids(finding_ids)  # unknown or retired: refused in words
     table = load_findings()
-    retired = [f for f in finding_ids if f in RETIRED_FINDINGS and f not in table]
-    if retired:
-        raise _retired_error(retired, table)
     own = findings_for(taxon)
-    unknown = [f for f in finding_ids if f not in table]
-    if unknown:
-        raise InputError(
-            f"unknown finding(s) {', '.join(unknown)}",
-            field="findings",
-            value=unknown,
-            fix=f"use: {', '.join(own)}",
-        )
     foreign = [f for f in finding_ids if f not in own]
     if foreign:
         raise InputError(

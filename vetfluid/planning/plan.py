@@ -1202,7 +1202,10 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
 
     sodium, free_water = None, None
     tbw = hydration.body_water_fraction(
-        table, request.species_id, neonate=request.neonate, weight_kg=w,
+        table,
+        request.species_id,
+        neonate=request.neonate,
+        weight_kg=w,
         age_weeks=request.age_weeks,
     )
     max_change = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
@@ -1211,11 +1214,14 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     # no Na measured: the plan is followed from the species' normal Na
     start_na = request.serum_na if request.serum_na is not None else normal.number
     doses = _diuretic_doses(request)
-    follow = partial(
-        _sodium_course, request, table, phases=phases, bag=bag, maint=maint,
-        deficit_ml=deficit, doses=doses, ledger=ledger, start_na=start_na,
-        consumed=lambda hours: consumed_ml(outflow, end_h, hours), boluses_end_h=start_h,
+    regimen = body.Regimen(
+        request=request, phases=phases, bag=bag,
+        bolus_fluid=fluids.fluid(request.resuscitation_fluid_id), diuretics=doses,
+        maintenance=maint, deficit_ml=deficit,
+        consumed_ml=lambda hours: consumed_ml(outflow, end_h, hours),
     )  # fmt: skip
+    follow = partial(_sodium_course, regimen, table, ledger=ledger, start_na=start_na,
+                     boluses_end_h=start_h)  # fmt: skip
     na_course, followed = follow(adh_held=False)
     # with ADH held where it rests, a kidney that never asked to dilute below that is the same
     # kidney: the second path is followed only when the hold can change it
@@ -1406,15 +1412,9 @@ def _phase_at(phases: tuple[Phase, ...], hour: float) -> Phase:
 
 
 def _sodium_course(
-    request: PlanRequest,
+    regimen: body.Regimen,
     table: SpeciesTable,
     *,
-    phases: tuple[Phase, ...],
-    bag: fluids.Fluid,
-    maint: maintenance.Maintenance,
-    deficit_ml: float,
-    doses: tuple[DiureticDose, ...],
-    consumed,  # noqa: ANN001 — hours array in, mL array out
     ledger: Ledger,
     start_na: float,
     boluses_end_h: float,
@@ -1424,11 +1424,7 @@ def _sodium_course(
     kidney, insensible water, losses by type and the diuretics), on the course's grid, until
     the last dose under the skin is absorbed and an hour after that, so every hour the plan
     moves Na in is seen whole; ``adh_held``: with the urine kept from diluting."""
-    regimen = body.Regimen(
-        request=request, phases=phases, bag=bag,
-        bolus_fluid=fluids.fluid(request.resuscitation_fluid_id), diuretics=doses,
-        maintenance=maint, deficit_ml=deficit_ml, consumed_ml=consumed,
-    )  # fmt: skip
+    request = regimen.request
     step_h = body.STEP_MINUTES / 60.0
     followed = body.follow_body(
         regimen, table, hours=body.grid(body.checked_until_h(regimen, table) + 1.0, step_h),

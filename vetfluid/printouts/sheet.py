@@ -310,10 +310,9 @@ def taxon(data: dict) -> str:
     """ "bird", "reptile" or "mammal": the species' group in the species table (a species
     this vetfluid does not know prints the mammal columns, as every sheet did before)."""
     try:
-        lineage = load_table().lineage(str(data.get("species_id")))
+        return load_table().taxon_class(str(data.get("species_id")))
     except KeyError:
         return "mammal"
-    return next((t for t in ("bird", "reptile") if f"group_{t}" in lineage), "mammal")
 
 
 def divided(data: dict) -> bool:
