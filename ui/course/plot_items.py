@@ -28,7 +28,6 @@ device pixels when the view changes, not on every repaint.
 from __future__ import annotations
 
 import math
-from itertools import pairwise
 
 import numpy as np
 import pyqtgraph as pg
@@ -155,7 +154,7 @@ class Trace(pg.GraphicsObject):
         self._x = np.zeros(0)
         self._y = np.zeros(0)
         self._polygon = QPolygonF()  # the outline to fill
-        self._segments = QPolygonF()  # the line as point pairs, one pair a segment
+        self._line = QPolygonF()  # the line through the kept points
         self._smooth = False  # some segment is slanted: worth antialiasing
         self._bounds = QRectF()
         self._padded: QRectF | None = None  # the bounds plus EDGE_PX, in data units
@@ -195,28 +194,27 @@ class Trace(pg.GraphicsObject):
         else:
             keep = turning_mask(self._x, self._y) if corners is None else corners
             xs, ys = self._x[keep], self._y[keep]
-        # The kept points are few: plain Python lists and Qt points beat numpy's per-call cost.
-        lx, ly = xs.tolist(), ys.tolist()
-        points = [QPointF(a, b) for a, b in zip(lx, ly, strict=True)]
-        self._segments = (
-            QPolygonF([point for pair in pairwise(points) for point in pair])
-            if self.opts["pen"] is not None
+        # pyqtgraph's own converter fills the polygon's memory from the arrays in one copy
+        self._line = (
+            pg.functions.arrayToQPolygonF(xs, ys)
+            if self.opts["pen"] is not None and len(xs)
             else QPolygonF()
         )
-        self._smooth = any(
-            x0 != x1 and y0 != y1 for (x0, y0), (x1, y1) in pairwise(zip(lx, ly, strict=True))
-        )
+        dx, dy = np.diff(xs), np.diff(ys)
+        self._smooth = bool(np.any((dx != 0) & (dy != 0)))
         self._polygon = (
-            QPolygonF([*points, QPointF(lx[-1], 0.0), QPointF(lx[0], 0.0)])  # down to zero, back
-            if self.opts["brush"] is not None and points
+            pg.functions.arrayToQPolygonF(
+                np.concatenate([xs, xs[[-1, 0]]]), np.concatenate([ys, [0.0, 0.0]])
+            )  # down to zero, back
+            if self.opts["brush"] is not None and len(xs)
             else QPolygonF()
         )
         self.prepareGeometryChange()
-        if points:
-            if self.opts["brush"] is not None:
-                ly.append(0.0)
-            left, bottom = min(lx), min(ly)
-            self._bounds = QRectF(left, bottom, max(lx) - left, max(ly) - bottom)
+        if len(xs):
+            low = min(float(ys.min()), 0.0) if self.opts["brush"] is not None else float(ys.min())
+            high = max(float(ys.max()), 0.0) if self.opts["brush"] is not None else float(ys.max())
+            left = float(xs.min())
+            self._bounds = QRectF(left, low, float(xs.max()) - left, high - low)
         else:
             self._bounds = QRectF()
         self._padded = None
@@ -246,19 +244,17 @@ class Trace(pg.GraphicsObject):
             painter.setPen(Qt.PenStyle.NoPen)
             painter.setBrush(self.opts["brush"])
             painter.drawPolygon(self._polygon)
-        if not self._segments.isEmpty():
-            # Separate segments in device pixels, not a polyline in data units: Qt
-            # rasterises a solid or dashed line with flat or square caps directly when the
-            # painter has no scale, where it strokes a wide polyline (or any line under a
-            # scale) into an outline and fills that, about ten times the work for a slanted
-            # line. The square caps cover the joins at the few corners a trace has. A line
-            # along the axes only (a step, a level) is drawn crisp: smoothing would only
-            # blur it, at a cost.
+        if not self._line.isEmpty():
+            # One polyline in device pixels, not in data units: under a scale Qt strokes a
+            # wide line into an outline and fills that, several times the work. A dash
+            # pattern runs on along the whole line (drawn as separate short segments, each
+            # would restart it and a dashed curve would look solid). A line along the axes
+            # only (a step, a level) is drawn crisp: smoothing would only blur it.
             transform = painter.transform()
             painter.resetTransform()  # the clip is kept in device pixels
             painter.setRenderHint(QPainter.RenderHint.Antialiasing, self._smooth)
             painter.setPen(self.opts["pen"])
-            painter.drawLines(transform.map(self._segments))
+            painter.drawPolyline(transform.map(self._line))
             painter.setTransform(transform)  # cheaper than a save and restore of all state
 
 

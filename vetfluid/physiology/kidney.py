@@ -390,6 +390,18 @@ class Balance:
     # the lowest position ADH asked for (before any hold; None: no kidney): with ADH held at
     # a position at or below it, the hold changes nothing
     lowest_position_asked: float | None = None
+    # where a kidney free to dilute first asked for urine below its resting position: up to
+    # there the same kidney with ADH held at rest is this one (:func:`follow_balance`'s
+    # ``resume``); None when it never asked, or was held already
+    fork: Fork | None = None
+
+
+@dataclass(frozen=True)
+class Fork:
+    """The step loop's state at the start of ``step`` (see :attr:`Balance.fork`)."""
+
+    step: int
+    state: tuple[float, ...]  # in the order follow_balance unpacks it
 
 
 def _solve_urine_x(
@@ -440,6 +452,7 @@ def follow_balance(
     kidney: KidneySettings | None,
     basal_steps: int,
     drugs: DiureticAction | None = None,
+    resume: Balance | None = None,
 ) -> Balance:
     """Step body water and solute through a grid: per step, what went in (water, Na, K,
     effective osmoles entering the ECF), solute-free water out (insensible), losses out
@@ -454,6 +467,10 @@ def follow_balance(
     The kidney's basal excretion (K, other solute) runs for ``basal_steps`` steps (the plan);
     after it the patient's own intake is taken to match it, and only the volume-driven
     natriuresis goes on. Input lists hold one increment per step (index 0 is hour 0).
+
+    ``resume``: a balance followed with the same inputs by a kidney free to dilute; this
+    (held) kidney takes its figures up to its :attr:`Balance.fork` and steps on from there,
+    the same numbers as a run from hour 0 at a fraction of the cost.
     """
     n = len(water_in_ml)
     phi = osmolality0 / (2.0 * na0)
@@ -502,7 +519,24 @@ def follow_balance(
         other_per_step = kidney.other_solute_mosm_per_h * step_h
         set_na, deficit_for_full = kidney.set_na_mmol_per_l, kidney.volume_deficit_for_full
         rest_offset, cap = kidney.rest_position - 0.5, kidney.urine_cap_ml_per_h
+    # where this kidney first asks below its rest is where a held one would part from it
+    watch = -1.0
+    if kidney is not None and resume is None and kidney.lowest_position < kidney.rest_position:
+        watch = kidney.rest_position
+    fork: Fork | None = None
     i = 0
+    if resume is not None and resume.fork is not None:
+        i = resume.fork.step
+        (w, pool, k_pool, o_ecf, o_icf, mannitol, urine, na_out, k_out, hco3_out, k_rate,
+         na_rate, x_last, osm_now, asked) = resume.fork.state  # fmt: skip
+        tbw, na_k, ks = resume.tbw_ml[:i], resume.na_k_mmol[:i], resume.k_mmol[:i]
+        oe, oi, urine_total = resume.ecf_osm[:i], resume.icf_osm[:i], resume.urine_ml[:i]
+        urine_osm, urine_ecf = resume.urine_osm_mosm_per_kg[:i], resume.urine_ecf_ml[:i]
+        na_sum, k_sum = resume.na_excreted_mmol[:i], resume.k_excreted_mmol[:i]
+        if mannitol_left is not None:
+            mannitol_left = resume.mannitol_mosm[:i]
+        if hco3_sum is not None:
+            hco3_sum = resume.hco3_excreted_mmol[:i]
     while i < n:
         # what goes in
         w += water_in_ml[i]
@@ -534,6 +568,7 @@ def follow_balance(
             ecf = w * o_ecf / total_osm
             na_now = pool / w * 1000.0
             above = ecf - ecf_ref_ml
+            k_was, na_was = k_rate, na_rate  # as the step found them (a fork keeps them)
             e_na = take * above * na_now / 1000.0 if above > 0.0 else 0.0
             if na_follows and i <= basal_steps:
                 na_target = na_in_mmol[i] / step_h
@@ -565,9 +600,17 @@ def follow_balance(
             # tonicity rises by 2·Na/W per mL of water taken (mOsm/kg per mL)
             x = _solve_urine_x(d0, 2.0 * pool_after * 1000.0 / (w * w),
                                solute * 1000.0 / low, span, ratio, x_last)  # fmt: skip
-            x_last = x
             if x < asked:
+                if x < watch and fork is None:
+                    fork = Fork(i, (
+                        tbw[-1], na_k[-1], ks[-1], oe[-1], oi[-1],
+                        mannitol_left[-1] if mannitol_left is not None else 0.0,
+                        urine_total[-1], na_sum[-1], k_sum[-1],
+                        hco3_sum[-1] if hco3_sum is not None else 0.0,
+                        k_was, na_was, x_last, urine_osm[-1], asked,
+                    ))  # fmt: skip
                 asked = x
+            x_last = x
             if x < lowest:
                 x = lowest
             osm_now = low * math.exp(ratio * x)
@@ -623,7 +666,7 @@ def follow_balance(
         tbw_ml=tbw, na_k_mmol=na_k, k_mmol=ks, ecf_osm=oe, icf_osm=oi, urine_ml=urine_total,
         urine_osm_mosm_per_kg=urine_osm, urine_ecf_ml=urine_ecf, na_excreted_mmol=na_sum,
         k_excreted_mmol=k_sum, mannitol_mosm=mannitol_left, hco3_excreted_mmol=hco3_sum,
-        lowest_position_asked=None if kidney is None else asked,
+        lowest_position_asked=None if kidney is None else asked, fork=fork,
     )  # fmt: skip
 
 

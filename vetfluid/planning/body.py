@@ -339,6 +339,8 @@ class BodyCourse:
     provenance: tuple[SpeciesValue, ...]
     start_weight_kg: float  # the entered weight
     table: SpeciesTable = field(repr=False, compare=False)  # the one it was followed with
+    # what the kidney's step loop was given (:func:`with_adh_held` steps it on)
+    loop_inputs: dict = field(repr=False, compare=False, default_factory=dict)
 
     @property
     def urine_ml(self) -> np.ndarray:
@@ -372,7 +374,7 @@ class BodyCourse:
         changed = {
             f.name: cut(getattr(self, f.name))
             for f in fields(self)
-            if f.name not in ("inputs", "balance", "table", "start_weight_kg")
+            if f.name not in ("inputs", "balance", "table", "start_weight_kg", "loop_inputs")
         }
         changed["given_by_fluid_ml"] = {k: v[:n] for k, v in self.given_by_fluid_ml.items()}
         return replace(self, **changed, balance=balance)
@@ -431,7 +433,6 @@ def follow_body(
     extra_inputs: tuple[BodyInput, ...] = (),
     loss_type: str | None = None,
     renal_output: str | None = None,
-    adh_held: bool = False,
 ) -> BodyCourse:
     """Follow body water and solute through a regimen on ``hours`` (a regular grid of
     ``step_h``): inputs as they reach the body, insensible water, losses by type
@@ -440,10 +441,8 @@ def follow_body(
     stop with the plan: after it the patient's own intake is taken to match them.
 
     The starting compartments are the species' fractions of the entered weight; with no
-    serum Na or K entered they are followed from the species' normal values. ``adh_held``
-    keeps ADH at or above where it stands at the start (the urine never dilutes below its
-    resting osmolality): non-osmotic ADH release, common in sick animals (hypovolaemia,
-    pain, nausea, drugs), the plan's cautious path for free water."""
+    serum Na or K entered they are followed from the species' normal values (ADH held:
+    :func:`with_adh_held`)."""
     request = regimen.request
     sid, w = request.species_id, request.weight_kg
     values = [
@@ -499,8 +498,6 @@ def follow_body(
             add_cumulative(mannitol_in, hours, item.absorbed(), item.effective_mosm_per_l / 1000.0)
 
     settings, left_out, used = kidney_settings(regimen, table, na0=na0, renal_output=renal_output)
-    if adh_held and settings is not None:
-        settings = replace(settings, lowest_position=settings.rest_position)
     t = np.minimum(hours, end)  # outputs stop with the plan: its own intake then matches them
     loss_na_k = loss_k = None
     if settings is None:
@@ -517,15 +514,29 @@ def follow_body(
         if losses.na_mmol_per_l is not None and losses.k_mmol_per_l is not None:
             loss_na_k = (losses.na_mmol_per_l + losses.k_mmol_per_l) / 1000.0
             loss_k = losses.k_mmol_per_l / 1000.0
-    balance = kidney.follow_balance(
+    loop_inputs = dict(
         step_h=step_h, water_in_ml=increments(water_in), na_in_mmol=increments(na_in),
         k_in_mmol=increments(k_in), ecf_osm_in=increments(ecf_osm_in),
         free_water_out_ml=increments(free_water), loss_out_ml=increments(lost),
         loss_na_k_mmol_per_ml=loss_na_k, loss_k_mmol_per_ml=loss_k, tbw0_ml=tbw0,
         ecf0_ml=ecf0, ecf_ref_ml=ecf0 + regimen.deficit_ml, osmolality0=osm0, na0=na0, k0=k0,
-        kidney=settings, basal_steps=int(np.searchsorted(hours, end - 1e-9)),
+        basal_steps=int(np.searchsorted(hours, end - 1e-9)),
         drugs=_drugs(intensities, mannitol_in, len(hours), step_h),
     )  # fmt: skip
+    balance = kidney.follow_balance(**loop_inputs, kidney=settings)
+    return BodyCourse(
+        hours=hours, step_h=step_h, inputs=tuple(inputs), given_ml=given,
+        given_by_fluid_ml=by_fluid, base_in_mmol=base_in, free_water_out_ml=free_water,
+        lost_ml=lost, losses=losses, settings=settings, excess_excretion_left_out=left_out,
+        balance=balance, **_body_figures(balance), tbw0_ml=tbw0, ecf0_ml=ecf0,
+        diuretics_not_modelled=left_out_doses,
+        provenance=tuple(dict.fromkeys([*values, *used])), table=table, start_weight_kg=w,
+        loop_inputs=loop_inputs,
+    )  # fmt: skip
+
+
+def _body_figures(balance: kidney.Balance) -> dict[str, np.ndarray]:
+    """Body water, the ECF, osmolality and serum Na (measured and tonicity) of a balance."""
     tbw = np.asarray(balance.tbw_ml)
     ecf_osm, icf_osm = np.asarray(balance.ecf_osm), np.asarray(balance.icf_osm)
     # more water or solute out than the body holds gives no numbers past that hour: they are
@@ -537,12 +548,20 @@ def follow_body(
             na_path = na_path * (ecf_osm - np.asarray(balance.mannitol_mosm)) / ecf_osm
         ecf = tbw * ecf_osm / (ecf_osm + icf_osm)
         osmolality = (ecf_osm + icf_osm) * 1000.0 / tbw
-    return BodyCourse(
-        hours=hours, step_h=step_h, inputs=tuple(inputs), given_ml=given,
-        given_by_fluid_ml=by_fluid, base_in_mmol=base_in, free_water_out_ml=free_water,
-        lost_ml=lost, losses=losses, settings=settings, excess_excretion_left_out=left_out,
-        balance=balance, tbw_ml=tbw, ecf_ml=ecf, osmolality_mosm_per_kg=osmolality,
-        na_path=na_path, tonicity_na=tonicity_na, tbw0_ml=tbw0, ecf0_ml=ecf0,
-        diuretics_not_modelled=left_out_doses,
-        provenance=tuple(dict.fromkeys([*values, *used])), table=table, start_weight_kg=w,
-    )  # fmt: skip
+    return {"tbw_ml": tbw, "ecf_ml": ecf, "osmolality_mosm_per_kg": osmolality,
+            "na_path": na_path, "tonicity_na": tonicity_na}  # fmt: skip
+
+
+def with_adh_held(free: BodyCourse) -> BodyCourse:
+    """The same body with ADH held at or above where it rests (the urine never dilutes
+    below its resting osmolality): non-osmotic ADH release, common in sick animals
+    (hypovolaemia, pain, nausea, drugs), the plan's cautious path for free water.
+
+    Up to where the free kidney first asked for urine below its rest the two kidneys are
+    one; the held one is stepped on from there
+    (:attr:`vetfluid.physiology.kidney.Balance.fork`)."""
+    if free.settings is None or free.balance.fork is None:
+        return free  # no kidney, or one that never asked to dilute below its rest
+    settings = replace(free.settings, lowest_position=free.settings.rest_position)
+    balance = kidney.follow_balance(**free.loop_inputs, kidney=settings, resume=free.balance)
+    return replace(free, settings=settings, balance=balance, **_body_figures(balance))

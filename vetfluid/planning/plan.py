@@ -1220,17 +1220,14 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         maintenance=maint, deficit_ml=deficit,
         consumed_ml=lambda hours: consumed_ml(outflow, end_h, hours),
     )  # fmt: skip
-    follow = partial(_sodium_course, regimen, table, ledger=ledger, start_na=start_na,
-                     boluses_end_h=start_h)  # fmt: skip
-    na_course, followed = follow(adh_held=False)
-    # with ADH held where it rests, a kidney that never asked to dilute below that is the same
-    # kidney: the second path is followed only when the hold can change it
-    asked = followed.balance.lowest_position_asked
-    holds = followed.settings is not None and asked is not None
-    if holds and asked < followed.settings.rest_position - 1e-12:
-        held, _ = follow(adh_held=True)
-    else:
-        held = na_course
+    followed = _followed_body(regimen, table, ledger)
+    sodium_of = partial(_sodium_course, start_na=start_na, measured=request.serum_na is not None,
+                        boluses_end_h=start_h)  # fmt: skip
+    na_course = sodium_of(followed)
+    # with ADH held where it rests: a kidney that never asked to dilute below that is the
+    # same kidney (body.with_adh_held returns it as it is)
+    held_body = body.with_adh_held(followed)
+    held = na_course if held_body is followed else sodium_of(held_body)
     fastest = electrolytes.max_rate_for_sodium(
         serum_na=start_na, infusate_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
         tbw_l=tbw.number * w, max_change_per_h=max_change,
@@ -1411,50 +1408,45 @@ def _phase_at(phases: tuple[Phase, ...], hour: float) -> Phase:
     return next((p for p in phases if p.start_h <= hour < p.end_h), phases[-1])
 
 
-def _sodium_course(
-    regimen: body.Regimen,
-    table: SpeciesTable,
-    *,
-    ledger: Ledger,
-    start_na: float,
-    boluses_end_h: float,
-    adh_held: bool,
-) -> tuple[electrolytes.SodiumCourse, body.BodyCourse]:
-    """Serum Na through the plan as the course follows it (:func:`body.follow_body`: the
+def _followed_body(regimen: body.Regimen, table: SpeciesTable, ledger: Ledger) -> body.BodyCourse:
+    """The body through the plan as the course follows it (:func:`body.follow_body`: the
     kidney, insensible water, losses by type and the diuretics), on the course's grid, until
     the last dose under the skin is absorbed and an hour after that, so every hour the plan
-    moves Na in is seen whole; ``adh_held``: with the urine kept from diluting."""
+    moves Na in is seen whole."""
     request = regimen.request
     step_h = body.STEP_MINUTES / 60.0
     followed = body.follow_body(
         regimen, table, hours=body.grid(body.checked_until_h(regimen, table) + 1.0, step_h),
-        step_h=step_h,
-        loss_type=request.loss_type, renal_output=request.renal_output, adh_held=adh_held,
+        step_h=step_h, loss_type=request.loss_type, renal_output=request.renal_output,
     )  # fmt: skip
     ledger.use(*followed.provenance)
     valid = len(followed.hours)
     if followed.beyond_h is not None:  # the body's figures stop being numbers there
         valid = max(int(np.searchsorted(followed.hours, followed.beyond_h - 1e-9)), 1)
-    if not adh_held:
-        safety.check_ecf_contraction(ledger, followed.hours[:valid], followed.ecf_ml[:valid],
-                                     followed.ecf0_ml)  # fmt: skip
-    # the Na that sets tonicity: mannitol's dilution of the measured Na is no correction
+        ledger.add(
+            "hard", "PLAN_BEYOND_THE_BODY",
+            f"By {hour_text(followed.beyond_h)} this plan takes more water or salt out of the "
+            "patient than its body holds (losses, outputs or diuretics far above what is given).",
+            "Check the losses, outputs and doses entered and their units.",
+        )  # fmt: skip
+    safety.check_ecf_contraction(ledger, followed.hours[:valid], followed.ecf_ml[:valid],
+                                 followed.ecf0_ml)  # fmt: skip
+    return followed
+
+
+def _sodium_course(
+    followed: body.BodyCourse, *, start_na: float, measured: bool, boluses_end_h: float
+) -> electrolytes.SodiumCourse:
+    """Serum Na through a followed body, read while the body still holds water. The Na that
+    sets tonicity is read: mannitol's dilution of the measured Na is no correction."""
     hours, path = followed.hours, followed.tonicity_na
     beyond = followed.beyond_h
-    if beyond is not None:  # Na is read only while the body still holds water
+    if beyond is not None:
         keep = max(int(np.searchsorted(hours, beyond - 1e-9)), 1)
         hours, path = hours[:keep], path[:keep]
-        if not adh_held:
-            ledger.add(
-                "hard", "PLAN_BEYOND_THE_BODY",
-                f"By {hour_text(beyond)} this plan takes more water or salt out of the patient "
-                "than its body holds (losses, outputs or diuretics far above what is given).",
-                "Check the losses, outputs and doses entered and their units.",
-            )  # fmt: skip
     return electrolytes.sodium_course(
-        hours, path, start_na=start_na, measured=request.serum_na is not None,
-        boluses_end_h=boluses_end_h,
-    ), followed  # fmt: skip
+        hours, path, start_na=start_na, measured=measured, boluses_end_h=boluses_end_h
+    )
 
 
 def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:
