@@ -119,8 +119,9 @@ URINE_TITLE, OSMOLALITY_TITLE = "Urine output", "Urine osmolality"
 
 def _corners(hours, *lines):  # noqa: ANN001, ANN202 — arrays
     """The points to draw the lines on ``hours`` through: their corners, thinned to about
-    one every two pixels of a plot (:func:`ui.course.plot_items.thin`)."""
-    return thin(hours, turning_mask(hours, *lines), *lines, points=100)
+    one every four pixels of a plot at the window's usual size (:func:`ui.course.plot_items.thin`;
+    a chord over a few pixels of these slow curves strays well under a pixel)."""
+    return thin(hours, turning_mask(hours, *lines), *lines, points=60)
 
 
 class CourseView(QWidget):
