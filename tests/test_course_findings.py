@@ -139,7 +139,7 @@ def test_bicarbonate_driven_out_of_its_interval_by_losses_is_said():
     assert "PREDICTED_HCO3_OUTSIDE_RANGE" in _codes(found)
     bird = build_plan(PlanRequest(species_id="budgerigar", weight_kg=0.03, serum_k=4.0,
                                   serum_hco3=22, dehydration_percent=8, losses_ml_per_day=6,
-                                  loss_type="diarrhoea"))  # fmt: skip
+                                  loss_type="diarrhoea", route="io"))  # fmt: skip
     found = course(bird, horizon_h=336, step_minutes=SHOWN_STEP_MINUTES).findings
     assert "PREDICTED_HCO3_OUTSIDE_RANGE" in _codes(found)
     calm = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_hco3=22))

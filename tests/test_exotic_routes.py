@@ -95,11 +95,20 @@ def test_a_bearded_dragon_intracoelomic_every_24_h():
     assert finding(plan, "ICOEL_DOSE_TOO_LARGE") is None
 
 
-def test_without_a_chosen_interval_the_plan_is_as_before():
-    # the divided doses the plan chose itself are unchanged (tests/test_plan.py holds them)
-    chosen = plan_for(species_id="mongolian_gerbil", weight_kg=0.065, dehydration_percent=7)
-    assert finding(chosen, "DOSES_FALL_SHORT") is None
-    assert finding(chosen, "REPLACEMENT_SLOWED_TO_ROUTE") is None
+def test_without_a_chosen_interval_doses_stay_within_the_usual_sites():
+    # Issue 20: a 70 g gerbil had been planned 24 SC injections a day (6 sites every 6 h).
+    # Left to the plan, a dose holds at most the usual 4 sites (delivery.MAX_SITES_PER_DOSE,
+    # common practice) and a deficit that does not fit is replaced more slowly, said with
+    # how long it takes, never by adding sites.
+    gerbil = plan_for(species_id="mongolian_gerbil", weight_kg=0.065, dehydration_percent=7)
+    assert all(p.sites_per_dose <= 4 for p in gerbil.phases)
+    slowed = finding(gerbil, "REPLACEMENT_SLOWED_TO_ROUTE")
+    assert slowed.severity == "soft" and "84 h (3.5 days)" in slowed.message
+    assert finding(gerbil, "DIVIDED_TOO_MANY_SITES") is None
+    # the same deficit fits a dog's doses: nothing is slowed
+    dog = plan_for(species_id="dog", weight_kg=20, dehydration_percent=5, route="sc",
+                   device="divided")  # fmt: skip
+    assert finding(dog, "REPLACEMENT_SLOWED_TO_ROUTE") is None
 
 
 @pytest.mark.parametrize(

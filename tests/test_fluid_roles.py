@@ -205,18 +205,39 @@ def test_species_band_reads_the_scale_by_distance_below_the_species_low():
 # ---- hazard 9: every delivery mode against the hourly ceiling and site counts -----------
 def test_divided_doses_in_one_hour_are_blocked_as_a_pump_would_be():
     # A 4 kg cat, 12 %, replaced over 1 h: 489 mL in an hour against a 55 mL/kg shock dose
-    # (Davis 2013) — hard by pump, and hard by divided SC doses too.
+    # (Davis 2013) — hard by pump, and hard by divided SC doses too when the clinician
+    # spreads each dose over ten sites.
     request = dict(species_id="cat", weight_kg=4, dehydration_percent=12, replace_hours=1)
     pump = plan_for(**request)
-    divided = plan_for(route="sc", device="divided", **request)
+    divided = plan_for(route="sc", device="divided", max_sites_per_dose=10, **request)
     assert pump.has_hard_limit and divided.has_hard_limit
     assert severities(divided)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"
+    # left to the plan, each dose stays within the usual sites and the replacement is
+    # slowed and said (issue 20: never more sites to fit a period)
+    held = plan_for(route="sc", device="divided", **request)
+    assert "VOLUME_PER_HOUR_ABOVE_CEILING" not in severities(held)
+    assert severities(held)["REPLACEMENT_SLOWED_TO_ROUTE"] == "soft"
+    assert max(p.sites_per_dose for p in held.phases) <= 4
 
 
 def test_an_absurd_divided_volume_for_a_mouse_is_blocked():
+    # losses typed in the wrong unit: more than the mouse weighs a day (common practice)
     plan = plan_for(species_id="mouse", weight_kg=0.03, losses_ml_per_day=1_000_000)
-    assert severities(plan)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"
-    assert severities(plan)["DIVIDED_SITES_IMPOSSIBLE"] == "hard"
+    assert severities(plan)["LOSSES_ABOVE_BODY_WEIGHT"] == "hard"
+    assert severities(plan)["PLAN_BEYOND_THE_BODY"] == "hard"
+    spread = plan_for(species_id="mouse", weight_kg=0.03, losses_ml_per_day=1_000_000,
+                      max_sites_per_dose=10)  # fmt: skip
+    assert severities(spread)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"
+    # a route whose doses nobody holds (intracoelomic, left to the plan) still meets the
+    # impossible-sites bound (safety_limits.csv, common practice)
+    slider = plan_for(species_id="red_eared_slider", weight_kg=1.0, losses_ml_per_day=100_000)
+    assert severities(slider)["DIVIDED_SITES_IMPOSSIBLE"] == "hard"
+
+
+def test_losses_up_to_the_patients_weight_a_day_are_not_called_a_slip():
+    # 150 mL/kg/day of diarrhoea is severe but real (common practice, no source)
+    plan = plan_for(species_id="dog", weight_kg=20, losses_ml_per_day=3000)
+    assert "LOSSES_ABOVE_BODY_WEIGHT" not in severities(plan)
 
 
 # ---- neonates (issue 16, item 11) -------------------------------------------------------

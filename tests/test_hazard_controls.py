@@ -53,9 +53,10 @@ def test_resuscitation_boluses_under_the_skin_are_blocked():
 
 
 def test_sc_doses_closer_than_absorption_are_a_warning():
-    # SC fluid is absorbed over 6–8 h (Vet Clin North Am 2017): a 4 h replacement period
-    # gives doses closer than that
-    plan = plan_for(species_id="mongolian_gerbil", weight_kg=0.065, dehydration_percent=5,
+    # SC fluid is absorbed over 6–8 h (Vet Clin North Am 2017), intracoelomic taken as the
+    # same: a 4 h replacement period gives doses closer than that (SC doses are held to
+    # whole intervals of at least 6 h; intracoelomic doses left to the plan are not)
+    plan = plan_for(species_id="red_eared_slider", weight_kg=1.0, dehydration_percent=5,
                     replace_hours=4)  # fmt: skip
     assert severity_of(plan, "DOSES_CLOSER_THAN_ABSORPTION") == "soft"
 
@@ -205,13 +206,15 @@ def test_potassium_from_overlapping_sc_doses_is_held_to_the_ceiling():
     # SC fluid is absorbed over 6–8 h (Vet Clin North Am 2017): doses every 4 h overlap, and
     # what reaches the rat in the hour from hour 4 is 0.63 mmol/kg/h of K, past Côté 2020's 0.5
     plan = plan_for(species_id="rat", weight_kg=0.3, dehydration_percent=8, replace_hours=8,
-                    kcl_mmol_per_l=30, route="sc", device="divided")  # fmt: skip
+                    kcl_mmol_per_l=30, route="sc", device="divided",
+                    max_sites_per_dose=10)  # fmt: skip
     assert severity_of(plan, "POTASSIUM_ABOVE_CEILING") == "hard"
 
 
 def test_overlapping_sc_doses_count_under_anaesthesia():
     plan = plan_for(species_id="mouse", weight_kg=0.03, dehydration_percent=1, replace_hours=4,
-                    route="sc", device="divided", anaesthesia=True)  # fmt: skip
+                    route="sc", device="divided", anaesthesia=True,
+                    max_sites_per_dose=10)  # fmt: skip
     assert severity_of(plan, "ANAESTHESIA_RATE") == "soft"
 
 

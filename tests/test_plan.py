@@ -183,9 +183,11 @@ def test_small_desert_rodent_gets_divided_boluses():
     assert phase.mode == "intermittent"
     assert phase.interval_h >= 6  # SC absorbed over 6–8 h (Vet Clin North Am 2017)
     assert phase.ml_per_site <= 0.07 * 10 + 1e-9  # 10 mL/kg per site (memory for rodents)
-    # the need for one interval, as drawn up: each site to the 0.01 mL marks of a 1 mL
-    # syringe (common practice, no source), so within half a mark per site of the need
-    need = (4.2 / 24 + plan.maintenance.ml_per_h) * phase.interval_h
+    # at most 4 sites a dose (issue 20): the replacement runs over the phase's own hours,
+    # and each dose is the need for one interval, as drawn up: each site to the 0.01 mL
+    # marks of a 1 mL syringe (common practice, no source), within half a mark per site
+    assert phase.sites_per_dose <= 4
+    need = (4.2 / phase.hours + plan.maintenance.ml_per_h) * phase.interval_h
     assert phase.dose_ml == pytest.approx(need, abs=0.005 * phase.sites_per_dose)
     assert phase.dose_ml == pytest.approx(phase.ml_per_site * phase.sites_per_dose)
     assert phase.ml_per_site == round(phase.ml_per_site, 2)  # a volume on the marks
@@ -200,8 +202,9 @@ def test_divided_dose_sites_add_up_to_the_dose_drawn():
     plan = plan_for(species_id="mongolian_gerbil", weight_kg=0.065, dehydration_percent=7)
     doses = [e for e in plan.schedule if e.action.startswith("Give ")]
     assert doses
-    hourly = {  # the need per hour: deficit over 24 h + maintenance, then maintenance
-        "replacement": plan.deficit_ml / 24 + plan.maintenance.ml_per_h,
+    replacement = next(p for p in plan.phases if p.kind == "replacement")
+    hourly = {  # the need per hour: deficit over its phase + maintenance, then maintenance
+        "replacement": plan.deficit_ml / replacement.hours + plan.maintenance.ml_per_h,
         "maintenance": plan.maintenance.ml_per_h,
     }
     for entry in doses:

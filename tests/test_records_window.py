@@ -228,7 +228,7 @@ def test_compare_two_saved_versions(qtbot, planner):
 def test_a_reason_comes_back_from_a_draft_or_version_for_the_words_it_was_given_for(
     qtbot, planner, monkeypatch, answer, press
 ):
-    window, code = planner, "DIVIDED_TOO_MANY_SITES"
+    window, code = planner, "REPLACEMENT_SLOWED_TO_ROUTE"
     window.open_demo("small_gerbil")
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.acknowledge(code, "owner declined IO")
@@ -257,7 +257,7 @@ def test_a_draft_reason_for_other_words_does_not_cover_the_warning_it_reopens_wi
 ):
     from vetfluid.records.serialize import request_to_dict
 
-    window, code = planner, "DIVIDED_TOO_MANY_SITES"
+    window, code = planner, "REPLACEMENT_SLOWED_TO_ROUTE"
     window.open_demo("small_gerbil")
     qtbot.waitUntil(lambda: window.session.plan is not None)
     said_at_24_h = next(f.message for f in window.session.plan.findings if f.code == code)

@@ -272,10 +272,15 @@ def test_sheet_refuses_a_plan_file_with_a_dose_that_is_not_a_number():
 def test_phase_summaries_give_the_figures_the_schedule_gives():
     """The window's phase table and the schedule must not disagree (3.39 vs 3.42 mL)."""
     gerbil = build_plan(DEMOS["small_gerbil"].request)
+    # at most 4 sites a dose: the need for 6 h (3.39 mL) does not fit 4 × 0.65 mL (10 mL/kg
+    # a site), so the replacement is slowed to 84 h, whose need for 6 h (2.58 mL) is drawn
+    # as 4 × 0.64 mL on the 0.01 mL marks
+    assert rate_or_dose_text(gerbil.phases[0]) == "2.56 mL every 6 h × 14, 4 sites of 0.64 mL"
+    assert "2.56 mL" in gerbil.schedule[0].action
+    spread = build_plan(dataclasses.replace(DEMOS["small_gerbil"].request, max_sites_per_dose=6))
     # per site 3.39 / 6 = 0.565 → 0.57 mL (0.01 mL marks); 6 × 0.57 = 3.42 mL
-    assert rate_or_dose_text(gerbil.phases[0]) == "3.42 mL every 6 h × 4, 6 sites of 0.57 mL"
-    assert "3.42 mL" in gerbil.schedule[0].action
-    told = next(f.message for f in gerbil.findings if f.code == "DIVIDED_TOO_MANY_SITES")
+    assert rate_or_dose_text(spread.phases[0]) == "3.42 mL every 6 h × 4, 6 sites of 0.57 mL"
+    told = next(f.message for f in spread.findings if f.code == "DIVIDED_TOO_MANY_SITES")
     assert "3.42 mL" in told and "0.57 mL" in told  # the finding quotes the same figures
     assert rate_or_dose_text(_bolus(0, drop_factor=20)) == "1440 mL/h (too fast to count drops)"
     phase, action = _drip(140, 20)  # 140 × 20 / 60 = 46.67 drops/min

@@ -158,18 +158,18 @@ def test_a_syringe_pump_gets_one_label_per_syringe_changed_at_24_hours_at_the_la
 
 
 def test_divided_doses_get_a_label_per_dose_and_a_stock_bag_per_day():
-    """The demo gerbil: 4 doses in the first 24 h and 2 in maintenance; the doses are drawn
-    from a 250 mL bag discarded 24 h after it was opened."""
+    """The demo gerbil: 4 doses a day over the 84 h its replacement is slowed to and 2 in
+    maintenance; the doses are drawn from a 250 mL bag discarded 24 h after it was opened."""
     data = data_for(DEMOS["small_gerbil"].request)
     found = lab.labels(data)
     doses = [x for x in found if x.kind == "dose"]
     assert len(doses) == sum(p["doses"] for p in data["phases"])
     stock = [x for x in found if x.kind == "stock bag"]
     assert [(s.container_ml, s.start_h, s.discard_h) for s in stock] == [
-        (250, 0.0, 24.0), (250, 24.0, 48.0),
+        (250, 0.0, 24.0), (250, 24.0, 48.0), (250, 48.0, 72.0), (250, 72.0, 96.0),
     ]  # fmt: skip
     block = labels_block(sheet_html(data))
-    assert "6 sites × 0.57 mL = 3.42 mL per dose" in block
+    assert "4 sites × 0.64 mL = 2.56 mL per dose" in block
     assert "1 mL syringe per site" in block
 
 
@@ -222,7 +222,7 @@ def test_divided_doses_get_one_row_per_dose_time():
     times = sorted(
         p["start_h"] + i * p["interval_h"] for p in data["phases"] for i in range(p["doses"])
     )
-    assert len(rows) == len(times) == 6  # not 36 hourly rows
+    assert len(rows) == len(times) == 16  # not 96 hourly rows
     assert rows[:2] == ["10:00", "16:00"]  # the demo starts at 10:00, doses every 6 h
     assert "Rate set" not in header_cells(hourly)
 

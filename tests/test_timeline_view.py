@@ -85,10 +85,11 @@ def test_updating_keeps_the_same_items_with_new_data(view):
     assert low <= 70 <= high  # the range moved to grams too
     given = curve_arrays(view.given_curve)[1][-1]
     assert given == pytest.approx(sum(p.volume_ml for p in gerbil.phases))
-    # 18.49 mL needed; the doses as drawn up (0.01 mL marks per site) give within a mark
-    # per site and dose of that
+    # the deficit and maintenance to the plan's end are needed; the doses as drawn up
+    # (0.01 mL marks per site) give within a mark per site and dose of that
+    need = gerbil.deficit_ml + gerbil.maintenance.ml_per_h * gerbil.end_h
     marks = sum(p.doses * p.sites_per_dose for p in gerbil.phases) * 0.005
-    assert given == pytest.approx(18.49, abs=marks + 0.01)
+    assert given == pytest.approx(need, abs=marks + 0.01)
     assert view.rate_plot.titleLabel.text.startswith("Planned rate (divided doses")
 
 

@@ -267,21 +267,21 @@ def test_a_reason_covers_the_warning_it_was_given_for_not_a_changed_one(qtbot, w
     window.details.setCurrentWidget(findings)
     model = findings.model
     row = next(
-        r for r in range(model.rowCount()) if model.finding(r).code == "DIVIDED_TOO_MANY_SITES"
+        r for r in range(model.rowCount()) if model.finding(r).code == "REPLACEMENT_SLOWED_TO_ROUTE"
     )
     assert model.setData(model.index(row, 3), "owner declined IO; two nurses")
     assert not session.blockers()
     session.update(losses_ml_per_day=0.0)  # an edit that leaves the warning's words alone
     wait_for_plan(qtbot, window, lambda p: p.request.losses_ml_per_day == 0)
-    assert session.acknowledged == {"DIVIDED_TOO_MANY_SITES": "owner declined IO; two nurses"}
+    assert session.acknowledged == {"REPLACEMENT_SLOWED_TO_ROUTE": "owner declined IO; two nurses"}
 
-    session.update(replace_hours=12)  # more fluid per dose: more sites, a different warning
+    session.update(replace_hours=12)  # another period asked: a different warning
     wait_for_plan(qtbot, window, lambda p: p.request.replace_hours == 12)
-    assert "DIVIDED_TOO_MANY_SITES" not in session.acknowledged
-    assert [f.code for f in session.blockers()] == ["DIVIDED_TOO_MANY_SITES"]
+    assert "REPLACEMENT_SLOWED_TO_ROUTE" not in session.acknowledged
+    assert [f.code for f in session.blockers()] == ["REPLACEMENT_SLOWED_TO_ROUTE"]
     assert not findings.ready_button.isEnabled()
     row = next(
-        r for r in range(model.rowCount()) if model.finding(r).code == "DIVIDED_TOO_MANY_SITES"
+        r for r in range(model.rowCount()) if model.finding(r).code == "REPLACEMENT_SLOWED_TO_ROUTE"
     )
     shown = model.data(model.index(row, 3))
     assert "the warning changed" in shown and "owner declined IO" in shown
@@ -289,13 +289,13 @@ def test_a_reason_covers_the_warning_it_was_given_for_not_a_changed_one(qtbot, w
     assert model.data(model.index(row, 3), Qt.ItemDataRole.EditRole) == ""
     assert "owner declined IO" in model.data(model.index(row, 3), Qt.ItemDataRole.ToolTipRole)
     # named by its title (the message's first sentence), in words, never its code
-    warning = next(f for f in session.blockers() if f.code == "DIVIDED_TOO_MANY_SITES")
+    warning = next(f for f in session.blockers() if f.code == "REPLACEMENT_SLOWED_TO_ROUTE")
     assert warning.title in findings.status.text()
-    assert "divided too many sites" not in findings.status.text().lower()
+    assert "replacement slowed to route" not in findings.status.text().lower()
 
     session.update(replace_hours=24)  # back to the words the reason was given for
     wait_for_plan(qtbot, window, lambda p: p.request.replace_hours == 24)
-    assert session.acknowledged == {"DIVIDED_TOO_MANY_SITES": "owner declined IO; two nurses"}
+    assert session.acknowledged == {"REPLACEMENT_SLOWED_TO_ROUTE": "owner declined IO; two nurses"}
     assert not session.blockers()
 
 
@@ -310,22 +310,24 @@ def test_a_reason_opened_from_a_file_covers_only_the_warning_it_was_saved_with(
     window.open_demo("small_gerbil")
     wait_for_plan(qtbot, window, lambda p: p.request.species_id == "mongolian_gerbil")
     session = window.session
-    session.acknowledge("DIVIDED_TOO_MANY_SITES", "owner declined IO")
+    session.acknowledge("REPLACEMENT_SLOWED_TO_ROUTE", "owner declined IO")
     session.update(dehydration_percent=0.0)
     plan = wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 0)
-    assert "DIVIDED_TOO_MANY_SITES" not in {f.code for f in plan.findings}
+    assert "REPLACEMENT_SLOWED_TO_ROUTE" not in {f.code for f in plan.findings}
     session.replace_request(plan.request, session.acknowledged)  # as File → Open does
     wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 0)
     session.update(dehydration_percent=12.0)
     plan = wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 12)
-    assert "DIVIDED_TOO_MANY_SITES" in {f.code for f in plan.findings}
-    assert "DIVIDED_TOO_MANY_SITES" in {f.code for f in session.blockers()}
+    assert "REPLACEMENT_SLOWED_TO_ROUTE" in {f.code for f in plan.findings}
+    assert "REPLACEMENT_SLOWED_TO_ROUTE" in {f.code for f in session.blockers()}
     assert not session.mark_ready()
 
     # a file whose warning is in the plan it opens: the reason covers that wording
     window.open_demo("small_gerbil")
     wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 7)
-    session.replace_request(session.plan.request, {"DIVIDED_TOO_MANY_SITES": "owner declined IO"})
+    session.replace_request(
+        session.plan.request, {"REPLACEMENT_SLOWED_TO_ROUTE": "owner declined IO"}
+    )
     wait_for_plan(qtbot, window, lambda p: p.request.dehydration_percent == 7)
     assert not session.blockers()
 

@@ -900,16 +900,18 @@ MAX_REPLACEMENT_AT_DOSES_H = 7 * 24.0
 def _chosen_ceiling(
     ledger: Ledger, request: PlanRequest, segments: list[Segment], *, route: str, device: str
 ) -> delivery.DoseCeiling | None:
-    """The most one dose holds at the clinician's interval and sites (None when the plan
-    chooses them itself, except on a one-site route): sites not given are the route's usual most
+    """The most one divided dose holds at the clinician's interval and sites (None for a line,
+    and for intracoelomic doses nobody chose): sites not given are the route's usual most
     (:func:`delivery.most_sites`); an interval not given is the longest whose first dose
-    fits those sites (:func:`delivery.divided_boluses`)."""
+    fits those sites (:func:`delivery.divided_boluses`).
+
+    Doses are held to their sites even when nothing was chosen: a deficit that does not fit
+    is replaced more slowly and the plan says how long it takes, never by spreading each
+    dose over more sites (issue 20: a 70 g gerbil had been planned 24 injections a day).
+    Intracoelomic doses nobody chose keep their own checks: a dose over one injection is
+    said, and blocked past the coelom's range."""
     chosen = request.dose_interval_h is not None or request.max_sites_per_dose is not None
-    # a route of one injection or tube per dose is held to it even when nothing was chosen:
-    # the plan never spreads a dose over sites the route does not have (intracoelomic keeps
-    # its own checks: a dose over one injection is said, and blocked past the coelom's range)
-    held = route in delivery.ONE_SITE_ROUTES and route != "icoel"
-    if device != "divided" or not (chosen or held):
+    if device != "divided" or not (chosen or route != "icoel"):
         return None
     limit_ml = ledger.value(SITE_LIMIT_PARAMETER[route]).number * ledger.weight_kg
     sites = request.max_sites_per_dose or delivery.most_sites(route)
@@ -944,10 +946,16 @@ def _duration(hours: float) -> str:
 
 
 def _what_would(
-    ledger: Ledger, request: PlanRequest, *, deficit_ml: float, background_ml_per_h: float
+    ledger: Ledger,
+    request: PlanRequest,
+    *,
+    deficit_ml: float,
+    background_ml_per_h: float,
+    besides: delivery.DoseCeiling | None = None,
 ) -> str:
     """What would replace the deficit: each divided route the species has, every 6 h in its
-    usual most sites, with the time it takes; and a line, which gives the need at any rate."""
+    usual most sites, with the time it takes (not the doses ``besides``, already said); and
+    a line, which gives the need at any rate."""
     options = []
     for route, parameter in SITE_LIMIT_PARAMETER.items():
         value = ledger.table.get(request.species_id, parameter)
@@ -957,6 +965,10 @@ def _what_would(
             route=route, interval_h=min(delivery.DIVIDED_INTERVALS_H),
             sites=delivery.most_sites(route), per_site_limit_ml=value.number * ledger.weight_kg,
         )  # fmt: skip
+        if besides is not None and (best.route, best.interval_h, best.sites) == (
+            besides.route, besides.interval_h, besides.sites,
+        ):  # fmt: skip
+            continue
         if deficit_ml <= 0:  # maintenance alone: the routes whose doses give it
             if best.ml_per_h >= background_ml_per_h:
                 options.append(f"{_dose_words(best)} gives it")
@@ -968,6 +980,16 @@ def _what_would(
             options.append(f"{_dose_words(best)} replaces it in {_duration(hours)}")
     found = "; ".join(options) + "; " if options else ""
     return found + "an IO or IV line gives the need at any rate."
+
+
+def _faster_doses(ceiling: delivery.DoseCeiling) -> str:
+    """What the clinician may still change on this route: ``, or choose more sites or a
+    shorter interval`` — only what is left (never an interval under the shortest allowed,
+    never more sites on a route of one injection or tube a dose)."""
+    more_sites = ceiling.route not in delivery.ONE_SITE_ROUTES
+    shorter = ceiling.interval_h > min(delivery.CHOSEN_INTERVALS_H)
+    words = [w for w, ok in (("more sites", more_sites), ("a shorter interval", shorter)) if ok]
+    return f", or choose {' or '.join(words)}" if words else ""
 
 
 def _within_the_doses(
@@ -1010,8 +1032,11 @@ def _within_the_doses(
             f"Doses {_dose_words(ceiling)} replace the {format_quantity(deficit_ml, 'mL')} "
             f"deficit in {_duration(hours)}, not the "
             f"{request.replace_hours:g} h chosen: a dose holds no more than its sites.",
-            "Accept the slower replacement and weigh daily, or give more sites or a shorter "
-            "interval, or place an IO or IV line.",
+            "Accept the slower replacement and weigh daily"
+            + _faster_doses(ceiling)
+            + ". Other ways: "
+            + _what_would(ledger, request, deficit_ml=deficit_ml,
+                          background_ml_per_h=background_ml_per_h, besides=ceiling),
         )  # fmt: skip
     elif short:
         ledger.add(
@@ -1094,6 +1119,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     ledger = Ledger(table, request.species_id, weight_kg=request.weight_kg)
     w = request.weight_kg
     safety.check_weight(ledger, w, neonate=request.neonate)
+    safety.check_losses(ledger, request.losses_ml_per_day, w)
 
     maint = maintenance.maintenance(
         table, request.species_id, w, method=request.maintenance_method,

@@ -30,6 +30,22 @@ LINE_ROUTES = RESUSCITATION_ROUTES  # a continuous line: IV or IO
 NEAR_PLASMA_FACTOR = 1.2  # urine within 20% of plasma counts as "close to plasma" for the note
 
 
+def check_losses(ledger: Ledger, losses_ml_per_day: float, weight_kg: float) -> None:
+    """Hard when the ongoing losses entered exceed ``losses_max_ml_per_kg_day`` (the patient's
+    own weight a day, common practice): a unit slip, said before any plan is made of it."""
+    most = limit("losses_max_ml_per_kg_day")
+    if losses_ml_per_day > most.value * weight_kg:
+        ledger.add(
+            most.severity,
+            "LOSSES_ABOVE_BODY_WEIGHT",
+            f"Ongoing losses of {q(losses_ml_per_day, 'mL')} a day are "
+            f"{q(losses_ml_per_day / weight_kg, 'mL/kg')} a day: more than this "
+            f"{q(weight_kg, 'kg')} patient weighs (above {most.value:g} mL/kg a day).",
+            "Check the losses' unit (mL a day, not per hour; mL, not µL) and the weight.",
+            most.source_id,
+        )
+
+
 def check_weight(ledger: Ledger, weight_kg: float, *, neonate: bool = False) -> None:
     """Soft outside the species' usual range, hard far outside it (the g/kg slip). The
     range is the adults': a neonate far below it is only soft (a newborn may weigh a

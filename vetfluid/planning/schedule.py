@@ -326,12 +326,7 @@ def rate_or_dose_text(phase: Phase) -> str:
         return f"{rate} (too fast to count drops)" if how else rate
     drawn = delivery.drawn_up_dose(ml_per_site=phase.ml_per_site or 0.0, sites=phase.sites_per_dose)
     every = f"{format_quantity(drawn.dose_ml, 'mL', decimals=2)} every {phase.interval_h:g} h "
-    if phase.route == "oral":
-        return every + f"× {phase.doses}, by mouth or tube"
-    return (
-        every + f"× {phase.doses}, {sites_text(drawn.sites)} of "
-        f"{format_quantity(drawn.ml_per_site, 'mL', decimals=2)}"
-    )
+    return every + f"× {phase.doses}, {spread_text(phase.route, drawn)}"
 
 
 def _continuous_action(phase: Phase, *, bolus_number: int = 1) -> str:
@@ -357,6 +352,15 @@ def _continuous_action(phase: Phase, *, bolus_number: int = 1) -> str:
 def sites_text(sites: int) -> str:
     """``1 site`` or ``N sites``."""
     return f"{sites} site" if sites == 1 else f"{sites} sites"
+
+
+def spread_text(route: str, drawn: delivery.DrawnUpDose) -> str:
+    """How one divided dose is given, as drawn up: ``4 sites of 0.64 mL``, or by mouth
+    ``by mouth or tube`` (no sites). The phase table, the records' comparison and the
+    sheet all say it so."""
+    if route == "oral":
+        return "by mouth or tube"
+    return f"{sites_text(drawn.sites)} of {format_quantity(drawn.ml_per_site, 'mL', decimals=2)}"
 
 
 def divided_dose_text(*, ml_per_site: float, sites: int, route: str) -> str:

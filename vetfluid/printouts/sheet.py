@@ -29,7 +29,13 @@ from vetfluid.physiology.electrolytes import SodiumSummary, sodium_text
 from vetfluid.physiology.hydration import RETIRED_FINDINGS, load_findings
 from vetfluid.physiology.ins_and_outs import maintenance_not_given, planned_so_far
 from vetfluid.planning.plan import Plan
-from vetfluid.planning.schedule import DIURETIC_ROUTE_WORDS, clock_time, route_text, sites_text
+from vetfluid.planning.schedule import (
+    DIURETIC_ROUTE_WORDS,
+    clock_time,
+    route_text,
+    sites_text,
+    spread_text,
+)
 from vetfluid.printouts import labels as containers
 from vetfluid.records.serialize import plan_dict
 from vetfluid.tables.species import load_table
@@ -388,7 +394,7 @@ def _planned_at_time(phases: list[dict], hour: float) -> str:
                     drawn = _drawn(p)
                     parts.append(
                         f"dose {_dose_ml(p)} {route_text(p['route'])}: "
-                        f"{sites_text(drawn.sites)} × {q(drawn.ml_per_site, 'mL', decimals=2)}"
+                        f"{spread_text(p['route'], drawn)}"
                     )
         elif abs(p["start_h"] - hour) < 1e-9:
             number = bolus_numbers(phases).get(index)
@@ -776,7 +782,7 @@ def _phase_text(p: dict) -> str:
     drawn = _drawn(p)
     return (
         f"{span}: {_dose_ml(p)} every {p['interval_h']:g} h × {p['doses']}, "
-        f"{sites_text(drawn.sites)} of {q(drawn.ml_per_site, 'mL', decimals=2)}"
+        f"{spread_text(p['route'], drawn)}"
     )
 
 
@@ -804,10 +810,16 @@ def _label_lines(data: dict, label: containers.Label, clock: Callable[[float], s
             else f"{math.ceil(per_site / syringe_ml - 1e-9)} syringes per site"
             if syringe_ml and per_site > syringe_ml else "one syringe per site"
         )  # fmt: skip
+        given = (
+            f"{sites_text(drawn.sites)} × {q(per_site, 'mL', decimals=2)} = {_dose_ml(p)} per dose"
+        )
+        if p["route"] == "oral":  # one go by mouth or tube: no sites
+            given = f"{_dose_ml(p)} per dose by mouth or tube, in one go"
+            syringes = syringes.replace(" per site", "")
         return [
             fluid,
             f"{p['kind']} · {route_text(p['route'])} dose {label.number} of {label.of}",
-            f"{sites_text(drawn.sites)} × {q(per_site, 'mL', decimals=2)} = {_dose_ml(p)} per dose",
+            given,
             syringes,
             f"draw up at {clock(label.start_h)}; give at once, then discard the syringes",
         ]

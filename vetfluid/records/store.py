@@ -833,7 +833,7 @@ def compare_versions(a: dict, b: dict) -> list[tuple[str, str, str, bool]]:
     Divided doses are compared as drawn up (:func:`vetfluid.physiology.delivery.drawn_up_dose`)."""
     from vetfluid.common.formatting import format_quantity
     from vetfluid.physiology.delivery import drawn_up_dose
-    from vetfluid.planning.schedule import sites_text
+    from vetfluid.planning.schedule import spread_text
 
     def quantity(value: object, unit: str) -> str:
         return "—" if value is None else format_quantity(float(value), unit)
@@ -855,8 +855,7 @@ def compare_versions(a: dict, b: dict) -> list[tuple[str, str, str, bool]]:
             drawn = drawn_up_dose(ml_per_site=p.get("ml_per_site"), sites=p.get("sites_per_dose"))
             rate = (
                 f"{format_quantity(drawn.dose_ml, 'mL', decimals=2)} every "
-                f"{p.get('interval_h'):g} h, {sites_text(drawn.sites)} of "
-                f"{format_quantity(drawn.ml_per_site, 'mL', decimals=2)}"
+                f"{p.get('interval_h'):g} h, {spread_text(p.get('route', ''), drawn)}"
             )
         return f"{p['kind']} h {p['start_h']:g}–{p['end_h']:g}: {rate}"
 
