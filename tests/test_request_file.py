@@ -100,7 +100,8 @@ HUGE = int("9" * 400)  # beyond any float: int → float raised OverflowError
         ({"renal_disease": "no"}, "renal_disease"),  # read as true before
         ({"neonate": 2}, "neonate"),
         ({"resuscitation_boluses": True}, "resuscitation_boluses"),
-        ({"resuscitation_boluses": 2.0}, "resuscitation_boluses"),
+        ({"resuscitation_boluses": 2.5}, "resuscitation_boluses"),
+        ({"max_sites_per_dose": float("inf")}, "max_sites_per_dose"),
         ({"weight_kg": True}, "weight_kg"),
         ({"weight_kg": "20"}, "weight_kg"),
         ({"serum_na": None, "serum_k": [4]}, "serum_k"),
@@ -114,6 +115,17 @@ def test_a_value_of_the_wrong_type_is_refused_by_its_key(tmp_path, change, key):
     with pytest.raises(InputError) as caught:
         read_request_file(_file(tmp_path, {**DOG, **change}))
     assert caught.value.field == key and key in caught.value.one_line()
+
+
+def test_a_count_written_with_a_zero_fraction_is_that_count(tmp_path):
+    # JSON Schema (draft 6 on, json-schema.org): "integer" matches any number with a zero
+    # fractional part, so 2.0 is the count 2, as a spreadsheet or another tool may write it
+    request = read_request_file(
+        _file(tmp_path, {**DOG, "route": "sc", "device": "divided", "max_sites_per_dose": 2.0,
+                         "resuscitation_boluses": 0.0})  # fmt: skip
+    ).request
+    assert request.max_sites_per_dose == 2 and isinstance(request.max_sites_per_dose, int)
+    assert request.resuscitation_boluses == 0
 
 
 @pytest.mark.parametrize("missing", ["species_id", "weight_kg"])

@@ -289,6 +289,10 @@ def _read_value(name: str, hint: object, value: object) -> object:
             raise _wrong(name, "true or false", value, "write JSON true or false, no quotes")
         return value
     if hint is int:
+        # JSON has one kind of number: 2.0 is the count 2 (a spreadsheet or another tool may
+        # write it so); 2.5 is no count
+        if isinstance(value, float) and math.isfinite(value) and value.is_integer():
+            return int(value)
         if isinstance(value, bool) or not isinstance(value, int):
             raise _wrong(name, "a whole number", value)
         return value
