@@ -525,3 +525,22 @@ def test_an_hour_off_the_whole_is_said_to_the_minute():
     assert hour_text(9 + 35 / 60) == "hour 9 h 35 min"
     assert hour_text(1 / 6) == "hour 0 h 10 min"
     assert hour_text(23.9999) == "hour 24"  # to the minute, never "hour 23 h 60 min"
+
+
+@pytest.mark.parametrize(
+    ("value", "basis", "text"),
+    [(0.0125, "published", "0.0125"),  # a table value keeps every figure on record
+     (7503.0, "published", "7503"),
+     (0.6, "memory", "0.6"),
+     (0.7230769230769231, "derived", "0.723"),  # a puppy's body water at 10 weeks
+     (0.7526, "derived", "0.753"),
+     (1234.567, "derived", "1235"),
+     (0.0, "derived", "0")],
+)  # fmt: skip
+def test_a_species_value_keeps_its_figures_and_a_worked_out_one_three(value, basis, text):
+    # The figures shown are the record's (sources.csv): rounding 0.0125 to 0.013 would put a
+    # number on screen that no source gives; a value the program worked out carries no more
+    # than about three figures of its inputs (our rule, common practice for derived values).
+    from vetfluid.common.formatting import table_value_text
+
+    assert table_value_text(value, basis=basis) == text

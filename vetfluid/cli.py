@@ -357,10 +357,12 @@ def _cautions_text() -> str:
     return "\n".join(f"! {c}" for c in CAUTIONS)
 
 
-def _shown(value: object) -> str:
+def _shown(value: object, basis: str) -> str:
+    from vetfluid.common.formatting import table_value_text
+
     if isinstance(value, bool):
         return "yes" if value else "no"
-    return f"{value:g}" if isinstance(value, float) else str(value)
+    return table_value_text(value, basis=basis) if isinstance(value, float) else str(value)
 
 
 def _basis_mark(basis: str) -> str:
@@ -370,7 +372,7 @@ def _basis_mark(basis: str) -> str:
 def _range(v: dict) -> str:
     if v["low"] is None or v["high"] is None:
         return ""
-    return f" ({v['low']:g}–{v['high']:g})"
+    return f" ({_shown(v['low'], v['basis'])}–{_shown(v['high'], v['basis'])})"
 
 
 def _origin_words(v: dict, group_names: dict[str, str]) -> str:
@@ -395,7 +397,7 @@ def _value_line(name: str, v: dict, group_names: dict[str, str]) -> str:
     origin = _origin_words(v, group_names)
     source = v["source_id"] or "—"
     return (
-        f"  {name:34} {_shown(v['value'])}{_range(v)} {v['unit']}  {v['basis']}{mark}"
+        f"  {name:34} {_shown(v['value'], v['basis'])}{_range(v)} {v['unit']}  {v['basis']}{mark}"
         f"  source={source}  ({origin})"
     )
 

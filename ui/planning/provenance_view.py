@@ -19,7 +19,7 @@ from ui.common.icons import BASIS_ICONS, BASIS_WORDS, icon
 from ui.common.rows_model import Cell, RowsModel
 from ui.planning.session import PlanSession
 from ui.planning.shown_plan import ShownPlan
-from vetfluid.common.formatting import format_number
+from vetfluid.common.formatting import table_value_text
 from vetfluid.tables.species import SpeciesTable, SpeciesValue
 
 
@@ -32,9 +32,13 @@ def shown_value(value: SpeciesValue) -> str:
     if isinstance(value.value, bool):
         return "yes" if value.value else "no"
     if isinstance(value.value, float):
-        text = format_number(value.value)
+
+        def shown(number: float) -> str:
+            return table_value_text(number, basis=value.basis)
+
+        text = shown(value.value)
         if value.low is not None and value.high is not None:
-            text += f" ({format_number(value.low)}–{format_number(value.high)})"
+            text += f" ({shown(value.low)}–{shown(value.high)})"
         return text
     return str(value.value)
 

@@ -4,7 +4,7 @@ Mirrors ``vetfluid/tables/species.py`` (the table) and ``vetfluid/tables/overrid
 clinic's edits). Rows are species, columns their identity and then every
 parameter. Nothing here computes a clinical value: the cells show what
 :func:`vetfluid.tables.species.load_table` resolved, formatted by
-:func:`vetfluid.common.formatting.format_number`; edits go to
+:func:`vetfluid.common.formatting.table_value_text`; edits go to
 :func:`vetfluid.tables.overrides.set_override` / :func:`~vetfluid.tables.overrides.remove_override`
 through a :class:`QUndoStack` (undo and redo write the row back with
 :func:`~vetfluid.tables.overrides.write_override`), and the table is reloaded from disk afterwards.
@@ -56,7 +56,7 @@ from PySide6.QtWidgets import (
 )
 
 from vetfluid.common.errors import VetfluidError
-from vetfluid.common.formatting import format_number
+from vetfluid.common.formatting import table_value_text
 from vetfluid.tables import overrides
 from vetfluid.tables.species import MAINTENANCE_METHODS, SpeciesTable, SpeciesValue, load_table
 
@@ -142,18 +142,19 @@ def column_label(parameter: str, unit: str) -> str:
     return " ".join(_HEADER_WORDS.get(word, word) for word in words)
 
 
-def _plain(value: object) -> str:
-    """A value as a person reads it in a cell (numbers the safe way)."""
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, float):
-        return format_number(value)
-    return str(value)
+def _plain(value: SpeciesValue) -> str:
+    """A value as a person reads it in a cell (numbers the safe way, a value on record with
+    every figure it has: :func:`table_value_text`)."""
+    if isinstance(value.value, bool):
+        return "yes" if value.value else "no"
+    if isinstance(value.value, float):
+        return table_value_text(value.value, basis=value.basis)
+    return str(value.value)
 
 
 def _with_unit(value: SpeciesValue) -> str:
     """The value for a sentence: numbers with their unit, flags and words alone."""
-    text = _plain(value.value)
+    text = _plain(value)
     return f"{text} {value.unit}" if isinstance(value.value, float) else text
 
 
@@ -326,7 +327,7 @@ class SpeciesTableModel(QAbstractTableModel):
             if value is None:
                 return MISSING
             mark = markers(value)
-            return f"{_plain(value.value)} {mark}" if mark else _plain(value.value)
+            return f"{_plain(value)} {mark}" if mark else _plain(value)
         if role == Qt.ItemDataRole.EditRole:
             return "" if value is None else overrides.stored_text(value.value)
         if role == Qt.ItemDataRole.ToolTipRole:
@@ -342,7 +343,7 @@ class SpeciesTableModel(QAbstractTableModel):
                 return (2, "")
             if isinstance(value.value, float):
                 return (0, value.value)
-            return (1, _plain(value.value))
+            return (1, _plain(value))
         if role == CHOICES_ROLE:
             definition = self._table.definitions[parameter]
             if definition.type == "flag":
@@ -382,8 +383,10 @@ class SpeciesTableModel(QAbstractTableModel):
         if definition.type == "number":
             lines[-1] += f" {value.unit}"
         if value.low is not None or value.high is not None:
-            low = format_number(value.low) if value.low is not None else "…"
-            high = format_number(value.high) if value.high is not None else "…"
+            low = table_value_text(value.low, basis=value.basis) if value.low is not None else "…"
+            high = (
+                table_value_text(value.high, basis=value.basis) if value.high is not None else "…"
+            )
             lines.append(f"Range: {low}–{high} {value.unit}")
         source = self._table.sources.get(value.source_id) if value.source_id else None
         if value.basis == "memory":

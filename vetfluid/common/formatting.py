@@ -71,6 +71,21 @@ def entered_number(value: float) -> str:
     return format_number(value, decimals=decimals)
 
 
+# A value the program worked out (basis ``derived``: a puppy's body water by its age, say)
+# is shown to this many significant figures: its inputs carry no more.
+DERIVED_SIGNIFICANT_FIGURES = 3
+
+
+def table_value_text(value: float, *, basis: str) -> str:
+    """A species value as the table, the Values-used tab and the CLI show it: a value on
+    record with every figure it has (:func:`entered_number`: 0.0125 stays 0.0125), one
+    worked out by the program to :data:`DERIVED_SIGNIFICANT_FIGURES` (0.723077 is 0.723)."""
+    if basis != "derived" or value == 0:
+        return entered_number(value)
+    decimals = DERIVED_SIGNIFICANT_FIGURES - 1 - math.floor(math.log10(abs(value)))
+    return format_number(value, decimals=max(0, min(8, decimals)))
+
+
 def hour_text(hour: float) -> str:
     """An hour into a plan in words: "hour 9", or "hour 9 h 35 min" off the whole hour
     (never "hour 9.58333"), to the minute."""
