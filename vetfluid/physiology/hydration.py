@@ -148,8 +148,12 @@ def check_finding_ids(finding_ids: tuple[str, ...] | list[str]) -> None:
         raise _retired_error(retired, table)
     unknown = [f for f in finding_ids if f not in table]
     if unknown:
+        by_taxon = "; ".join(
+            f"{taxon}s: {', '.join(f for f, v in table.items() if v.taxon == taxon)}"
+            for taxon in TAXA
+        )
         raise InputError(f"unknown finding(s) {', '.join(unknown)}", field="findings",
-                         value=unknown, fix=f"use: {', '.join(table)}")  # fmt: skip
+                         value=unknown, fix=f"use the patient's own: {by_taxon}")  # fmt: skip
 
 
 def findings_for(taxon: str) -> dict[str, ClinicalFinding]:
@@ -180,7 +184,8 @@ def estimate_dehydration(
             "examination",
             field="findings",
             value=foreign,
-            fix=f"use the {taxon} findings: {', '.join(own)}",
+            fix=f"use the {taxon} findings: "
+            + ", ".join(f"{f.finding_id} ({f.label.lower()})" for f in own.values()),
         )
     chosen = [table[f] for f in finding_ids]
     if taxon == "reptile":
