@@ -54,12 +54,14 @@ def add_diuretic(window, spec: str) -> None:  # noqa: ANN001 — MainWindow
     settle()
 
 
-def render(demo_id: str, out: Path, diuretics: tuple[str, ...] = ()) -> list[Path]:
+def render(
+    demo_id: str, out: Path, diuretics: tuple[str, ...] = (), size: tuple[int, int] = (1440, 900)
+) -> list[Path]:
     from ui.main_window import MainWindow
 
     out.mkdir(parents=True, exist_ok=True)
     window = MainWindow()
-    window.resize(1440, 900)
+    window.resize(*size)
     window.show()
     window.open_demo(demo_id)
     QApplication.processEvents()
@@ -107,12 +109,14 @@ if __name__ == "__main__":
     parser.add_argument("out", nargs="?", default="renders", type=Path)
     parser.add_argument("--diuretic", action="append", default=[],
                         help="DRUG:ROUTE:DOSE:HOURS, e.g. furosemide:iv:2:0,8")  # fmt: skip
+    parser.add_argument("--size", default="1440x900", help="window size, e.g. 1280x800")
     args = parser.parse_args()
+    width, height = (int(n) for n in args.size.lower().split("x"))
     home = tempfile.mkdtemp(prefix="vetfluid-render-")
     os.environ["VETFLUID_HOME"] = home
     try:
         app = QApplication.instance() or QApplication(sys.argv)
-        for p in render(args.demo, args.out, tuple(args.diuretic)):
+        for p in render(args.demo, args.out, tuple(args.diuretic), (width, height)):
             print(p)
     finally:
         shutil.rmtree(home, ignore_errors=True)

@@ -258,10 +258,10 @@ def test_the_window_names_the_group_of_an_inherited_value(qtbot, planner):
     qtbot.waitUntil(lambda: win.session.plan is not None)
     win.details.setCurrentWidget(win.provenance)
     model = win.provenance.model
-    origins = {model.text(r, 4) for r in range(model.rowCount())}
+    origins = {model.text(r, 3) for r in range(model.rowCount())}
     assert {"from Reptiles", "from Lizards and snakes"} <= origins
-    row = next(r for r in range(model.rowCount()) if model.text(r, 4) == "from Reptiles")
-    tip = model.data(model.index(row, 4), Qt.ItemDataRole.ToolTipRole)
+    row = next(r for r in range(model.rowCount()) if model.text(r, 3) == "from Reptiles")
+    tip = model.data(model.index(row, 3), Qt.ItemDataRole.ToolTipRole)
     assert "inherited from the reptiles group" in tip
 
 

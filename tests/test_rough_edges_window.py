@@ -4,6 +4,7 @@ must be seen whole, New patient starts at the top, Help says how to use the wind
 from __future__ import annotations
 
 import pytest
+from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QApplication, QLineEdit, QStyle, QTableView
 
 
@@ -114,8 +115,31 @@ def test_the_values_used_source_column_is_whole(qtbot, dragon):
     window.resize(1280, 800)
     window.details.setCurrentWidget(window.provenance)
     _settle(qtbot)
-    for column in (5,):  # the source, whole
-        _column_whole(window.provenance.table, column)
+    table = window.provenance.table
+    source = table.model().columnCount() - 1
+    _column_whole(table, source)  # the source, whole
+
+
+@pytest.mark.parametrize("demo", ["small_gerbil", "cold_bearded_dragon"])
+def test_the_values_used_names_wrap_between_words_never_cut(qtbot, planner, demo):
+    # Issue 20, rough edge 4: at 1280 px the names were cut mid-word ("Mainte… method").
+    window = planner
+    window.resize(1280, 800)
+    window.open_demo(demo)
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.details.setCurrentWidget(window.provenance)
+    _settle(qtbot)
+    table = window.provenance.table
+    header, model, metrics = table.horizontalHeader(), table.model(), table.fontMetrics()
+    padding = 2 * (table.style().pixelMetric(QStyle.PixelMetric.PM_FocusFrameHMargin, None,
+                                             table) + 1)  # fmt: skip
+    for row in range(model.rowCount()):
+        name = model.index(row, 0).data()
+        widest = max(metrics.horizontalAdvance(word) for word in name.split())
+        assert widest + padding <= header.sectionSize(0), name
+        lines = metrics.boundingRect(0, 0, header.sectionSize(0) - padding, 10_000,
+                                     Qt.TextFlag.TextWordWrap, name).height()  # fmt: skip
+        assert lines <= table.rowHeight(row), name  # every wrapped line shown
 
 
 def test_the_phases_route_column_is_only_as_wide_as_its_words(qtbot, dragon):

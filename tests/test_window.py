@@ -337,7 +337,7 @@ def test_memory_values_are_marked_in_words(qtbot, window):
     plan = wait_for_plan(qtbot, window, lambda p: p.request.species_id == "mongolian_gerbil")
     window.details.setCurrentWidget(window.provenance)
     model = window.provenance.model
-    memory_rows = [r for r in range(model.rowCount()) if model.text(r, 3) == "memory — unverified"]
+    memory_rows = [r for r in range(model.rowCount()) if model.text(r, 2) == "memory — unverified"]
     assert len(memory_rows) == len(plan.unverified_values) > 0
     tip = model.data(model.index(memory_rows[0], 0), Qt.ItemDataRole.ToolTipRole)
     assert "unverified" in tip

@@ -6,6 +6,7 @@ unverified"; the tooltip gives the citation or says the value is unverified.
 
 from __future__ import annotations
 
+from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QHeaderView,
@@ -41,6 +42,13 @@ def shown_value(value: SpeciesValue) -> str:
             text += f" ({shown(value.low)}–{shown(value.high)})"
         return text
     return str(value.value)
+
+
+def _amount(value: SpeciesValue) -> str:
+    """The value with its unit (a flag alone: ``yes``, never ``yes yes/no``)."""
+    if isinstance(value.value, bool) or not value.unit:
+        return shown_value(value)
+    return f"{shown_value(value)} {value.unit}"
 
 
 def group_words(table: SpeciesTable, group_id: str) -> str:
@@ -97,7 +105,8 @@ class ProvenanceView(QWidget):
         self.summary = QLabel()
         self.summary.setWordWrap(True)
         layout.addWidget(self.summary)
-        self.model = RowsModel(["Value", "Amount", "Unit", "Basis", "Origin", "Source"])
+        # the amount carries its unit: one short column less leaves the names their room
+        self.model = RowsModel(["Value", "Amount", "Basis", "Origin", "Source"])
         self.table = QTableView()
         self.table.setModel(self.model)
         self.table.setAccessibleName("Species values used by the plan")
@@ -106,11 +115,13 @@ class ProvenanceView(QWidget):
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
-        # the value's name takes what room is left and wraps: the short columns (the
-        # source last) are always whole, however narrow the tab
+        # the value's name takes what room is left and wraps between words, never cut: the
+        # short columns (the source last) are always whole; the origin wraps too
         header.setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        header.setSectionResizeMode(3, QHeaderView.ResizeMode.Stretch)
         header.setStretchLastSection(False)
         self.table.setWordWrap(True)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideNone)
         layout.addWidget(self.table, 1)
         self.shown = ShownPlan(self, session, self.show_plan)
 
@@ -127,8 +138,7 @@ class ProvenanceView(QWidget):
             rows.append(
                 [
                     Cell(value.label or value.parameter, tip),
-                    Cell(shown_value(value), tip),
-                    Cell(value.unit, tip),
+                    Cell(_amount(value), tip),
                     Cell(BASIS_WORDS[key], tip, icon(BASIS_ICONS[key])),
                     Cell(origin_short(value, table), tip),
                     Cell(value.source_id or "—", tip),
