@@ -41,6 +41,8 @@ SMALL_SYRINGE_STEP_ML = 0.01
 DIVIDED_INTERVALS_H = (12.0, 8.0, 6.0)
 # SC fluid is absorbed over 6–8 h (Vet Clin North Am Small Anim Pract 2017;47:505–519);
 # the shorter end is used wherever absorption speed matters for safety (faster = harsher).
+# No figure is on record for the coelom, the peritoneum or the gut: every divided dose is
+# taken as absorbed over the same time (our modelling choice, no source; docs/model.md).
 SC_ABSORPTION_H = 6.0
 MAX_SITES_PER_DOSE = 4  # common practice, no source: more sites per handling is impractical
 # One injection (or one tube) per dose: a cavity is one space, so more punctures do not make
