@@ -314,3 +314,17 @@ def test_a_one_site_route_is_never_spread_over_sites_by_default():
                                   dehydration_percent=5, route="epicoel"))  # fmt: skip
     assert all(p.sites_per_dose == 1 for p in plan.phases if p.mode == "intermittent")
     assert all("in 1 site" in e.action for e in plan.schedule if e.phase != "diuretic")
+
+
+@pytest.mark.parametrize(("species_id", "weight_kg", "route"),
+                         [("mongolian_gerbil", 0.065, "ip"), ("bearded_dragon", 0.38, "oral"),
+                          ("red_eared_slider", 1.0, None)])  # fmt: skip
+def test_a_route_without_an_absorption_figure_says_it_is_taken_as_sc(species_id, weight_kg, route):
+    # Only SC absorption has a figure on record (6–8 h, Vet Clin North Am 2017); the plan
+    # says when another route's doses borrow it (docs/model.md), and not for SC itself.
+    plan = plan_for(species_id=species_id, weight_kg=weight_kg, route=route,
+                    body_temp_c=28 if species_id != "mongolian_gerbil" else None)  # fmt: skip
+    said = finding(plan, "ABSORPTION_TAKEN_AS_SC")
+    assert said is not None and said.severity == "info" and "6 h" in said.message
+    sc = plan_for(species_id="mongolian_gerbil", weight_kg=0.065)
+    assert finding(sc, "ABSORPTION_TAKEN_AS_SC") is None

@@ -121,8 +121,16 @@ def test_a_count_written_with_a_zero_fraction_is_that_count(tmp_path):
     # JSON Schema (draft 6 on, json-schema.org): "integer" matches any number with a zero
     # fractional part, so 2.0 is the count 2, as a spreadsheet or another tool may write it
     request = read_request_file(
-        _file(tmp_path, {**DOG, "route": "sc", "device": "divided", "max_sites_per_dose": 2.0,
-                         "resuscitation_boluses": 0.0})  # fmt: skip
+        _file(
+            tmp_path,
+            {
+                **DOG,
+                "route": "sc",
+                "device": "divided",
+                "max_sites_per_dose": 2.0,
+                "resuscitation_boluses": 0.0,
+            },
+        )  # fmt: skip
     ).request
     assert request.max_sites_per_dose == 2 and isinstance(request.max_sites_per_dose, int)
     assert request.resuscitation_boluses == 0

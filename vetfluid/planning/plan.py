@@ -552,6 +552,15 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
             "Choose an IV or IO route instead if a line is in place.",
             line_min.source_id,
         )
+    if device == "divided" and route != "sc":
+        ledger.add(
+            "info",
+            "ABSORPTION_TAKEN_AS_SC",
+            f"No absorption time for {schedule.route_text(route)} doses is on record: the "
+            f"course and the sodium check take each dose as absorbed over "
+            f"{delivery.SC_ABSORPTION_H:g} h, as fluid under the skin.",
+            "Read the predicted course as an estimate; weigh the patient and reassess often.",
+        )
     return route, device
 
 
