@@ -37,6 +37,18 @@ def test_the_age_sets_the_plans_body_water_and_is_checked():
         PlanRequest(species_id="dog", weight_kg=1.2, age_weeks=-1)
 
 
+def test_another_species_age_is_said_and_not_used():
+    # The six-month timeline was read for puppies and kittens (DiBartola 2012); a gerbil is
+    # grown at a few weeks, and more body water than it has would soften every sodium limit.
+    young = build_plan(PlanRequest(species_id="mongolian_gerbil", weight_kg=0.03, age_weeks=3,
+                                   serum_na=150))  # fmt: skip
+    adult = build_plan(PlanRequest(species_id="mongolian_gerbil", weight_kg=0.03, serum_na=150))
+    assert young.sodium.tbw_l == adult.sodium.tbw_l
+    assert codes(young)["AGE_NOT_USED"] == "info"
+    assert "AGE_NOT_USED" not in codes(build_plan(PlanRequest(species_id="dog", weight_kg=1.2,
+                                                              age_weeks=2)))  # fmt: skip
+
+
 def test_a_neonate_on_a_line_without_dextrose_is_flagged_and_with_it_is_not():
     puppy = build_plan(PlanRequest(species_id="dog", weight_kg=1.2, age_weeks=3, route="iv",
                                    dehydration_percent=5))  # fmt: skip

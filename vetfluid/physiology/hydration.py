@@ -277,6 +277,9 @@ def euhydrated_weight_kg(*, weight_kg: float, deficit_ml: float) -> float:
 # adults' 60 % over the first six months (DiBartola 2012, ch. 1, as read in the research notes;
 # the straight line between them is our assumption).
 GROWN_AT_WEEKS = 26.0
+# The species that timeline was read for; a rodent or a bird grows up on another clock, and
+# more body water than it has would make every sodium change look smaller.
+AGED_BY_WEEKS = ("dog", "cat")
 
 
 def body_water_fraction(
@@ -288,7 +291,8 @@ def body_water_fraction(
     age_weeks: float | None = None,
 ) -> SpeciesValue:
     """Total body water as a fraction of body weight: the adults' value, for a patient
-    whose age is given the value for that age (:data:`GROWN_AT_WEEKS`), or for a neonate
+    whose age is given the value for that age (:data:`GROWN_AT_WEEKS`; dogs and cats only,
+    :data:`AGED_BY_WEEKS`: another species' age is said and not used), or for a neonate
     the neonatal value where the species or its group has one (dogs and cats: up to 0.8 of
     body weight against 0.6 in adults, Odunayo 2018). Neonates of other taxa keep the
     adult value; the plan says so. A "neonate" already within the adults' weight range
@@ -297,7 +301,8 @@ def body_water_fraction(
     adult_low = table.value(species_id, "body_weight_kg")
     grown = weight_kg >= (adult_low.low if adult_low.low is not None else adult_low.number)
     young = table.get(species_id, "neonate_total_body_water_fraction")
-    if age_weeks is not None and young is not None and age_weeks < GROWN_AT_WEEKS:
+    by_age = age_weeks is not None and species_id in AGED_BY_WEEKS
+    if by_age and young is not None and age_weeks < GROWN_AT_WEEKS:
         # by age: from the neonates' value at birth to the adults' at six months
         adult = table.value(species_id, "total_body_water_fraction")
         share = max(age_weeks, 0.0) / GROWN_AT_WEEKS
@@ -309,7 +314,7 @@ def body_water_fraction(
                  "ch. 1: body water falls over the first six months; a straight line, our "
                  "assumption)",
         )  # fmt: skip
-    if age_weeks is not None:  # grown, or no young value: the adults' (the flag is moot)
+    if by_age:  # grown, or no young value: the adults' (the flag is moot)
         return table.value(species_id, "total_body_water_fraction")
     if neonate and not grown:
         young = table.get(species_id, "neonate_total_body_water_fraction")

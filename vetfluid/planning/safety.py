@@ -14,7 +14,7 @@ import numpy as np
 from vetfluid.common.arrays import distinct_sorted
 from vetfluid.common.formatting import format_quantity as q
 from vetfluid.common.formatting import hour_text
-from vetfluid.physiology import delivery
+from vetfluid.physiology import delivery, hydration
 from vetfluid.physiology.delivery import DIVIDED_INTERVALS_H
 from vetfluid.physiology.electrolytes import PotassiumSummary, SodiumCourse, SpeciesPotassiumBand
 from vetfluid.physiology.hydration import overload_weight_kg
@@ -1476,7 +1476,17 @@ def check_paediatric(
     below the neonates' 120 mL/kg/day (soft), and under :data:`DEXTROSE_BEFORE_WEEKS` a fluid
     without dextrose into a line (soft: consider it), or the note that dextrose is not given
     under the skin or into the peritoneum (Clinician's Brief, pediatric critical care)."""
-    if age_weeks is None or species_id not in ("dog", "cat") or age_weeks >= PAEDIATRIC_WEEKS:
+    if age_weeks is not None and species_id not in hydration.AGED_BY_WEEKS:
+        ledger.add(
+            "info",
+            "AGE_NOT_USED",
+            f"An age ({age_weeks:g} weeks) is used for puppies and kittens only; for this "
+            "species no body water or maintenance by age is on record, so the adults' values "
+            "are used.",
+            "For a newborn, tick Neonate; weigh on a gram scale and reassess often.",
+        )
+        return
+    if age_weeks is None or age_weeks >= PAEDIATRIC_WEEKS:
         return
     low, high = PAEDIATRIC_MAINTENANCE_ML_PER_KG_DAY
     given = maintenance_ml_per_day / weight_kg
