@@ -414,22 +414,25 @@ def _solve_urine_x(
     (the last step's x) saves most steps: the urine changes little from step to step."""
     offset = 0.5 + d0 / span
     if b <= 0.0:
-        return min(max(offset, 0.0), 1.0)
+        return 0.0 if offset < 0.0 else 1.0 if offset > 1.0 else offset
     c = k * b / span
     if 0.0 - offset - c >= 0.0:  # h(0) ≥ 0
         return 0.0
-    if 1.0 - offset - c * math.exp(-log_ratio) <= 0.0:  # h(1) ≤ 0
+    # h(1) ≤ 0 ⇔ 1 − offset ≤ c·e^(−L): tested first without the exponential (e^(−L) ≤ 1)
+    if 1.0 - offset <= c and 1.0 - offset - c * math.exp(-log_ratio) <= 0.0:
         return 1.0
-    x = min(max(hint, 0.0), 1.0)
+    x = hint  # the last step's x, inside [0, 1]
     for _ in range(NEWTON_STEPS):
         e = c * math.exp(-log_ratio * x)
         step = (x - offset - e) / (1.0 + log_ratio * e)
         x -= step
         if x < 0.0:
             x = 0.0
-        if abs(step) < 1e-12:
+        # Newton squares the error: after a step under 1e-7 the next would be under
+        # (L/2)·1e-14, far below anything the urine osmolality can show
+        if -1e-7 < step < 1e-7:
             break
-    return min(x, 1.0)
+    return x if x < 1.0 else 1.0
 
 
 def follow_balance(
