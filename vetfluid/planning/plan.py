@@ -920,7 +920,7 @@ def _chosen_ceiling(
     Intracoelomic doses nobody chose keep their own checks: a dose over one injection is
     said, and blocked past the coelom's range."""
     chosen = request.dose_interval_h is not None or request.max_sites_per_dose is not None
-    if device != "divided" or not (chosen or route != "icoel"):
+    if device != "divided" or (route == "icoel" and not chosen):
         return None
     limit_ml = ledger.value(SITE_LIMIT_PARAMETER[route]).number * ledger.weight_kg
     sites = request.max_sites_per_dose or delivery.most_sites(route)
