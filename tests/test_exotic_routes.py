@@ -46,11 +46,12 @@ def test_a_gerbil_every_8_h_in_2_sites_gets_3_doses_a_day_and_is_told_the_time()
     assert all(p.sites_per_dose <= 2 and p.ml_per_site <= 0.7 + 1e-9 for p in phases)
     first_day = [e for e in plan.schedule if e.hour < 24 and e.action.startswith("Give ")]
     assert len(first_day) == 3  # not 24 injections a day: 3 doses of at most 2 sites
-    # 3 doses of 1.4 mL are 4.2 mL a day, less than the gerbil's maintenance: the plan says
-    # so, and how long the most SC can give (every 6 h, 4 sites of 0.7 mL) would take
+    # 3 doses of 1.4 mL are 4.2 mL a day, less than the gerbil's maintenance: the deficit is
+    # never replaced, so the plan is blocked and says how long the most SC can give (every
+    # 6 h, 4 sites of 0.7 mL) would take
     assert 3 * 1.4 < plan.maintenance.ml_per_day
     said = finding(plan, "DOSES_FALL_SHORT")
-    assert said is not None and said.severity == "soft"
+    assert said is not None and said.severity == "hard"
     assert "1.4 mL" in said.message and "every 8 h" in said.message
     surplus_ml_per_h = 4 * 0.7 / 6 - plan.maintenance.ml_per_h
     hours = math.ceil(plan.deficit_ml / surplus_ml_per_h / 6) * 6
@@ -83,7 +84,9 @@ def test_a_deficit_too_big_for_the_doses_is_replaced_over_longer_not_in_more_sit
 def test_a_bearded_dragon_intracoelomic_every_24_h():
     # One intracoelomic injection a day of at most 10 mL/kg (5–20 mL/kg recalled, memory):
     # 3.8 mL for a 380 g dragon, below its maintenance of 20 mL/kg/day (10–30 mL/kg/day,
-    # LafeberVet "Fluid Administration in Reptiles"): the plan says so.
+    # LafeberVet "Fluid Administration in Reptiles"): the 5 % deficit is never replaced at
+    # that interval, so the plan is blocked; with no deficit it is only a warning (the
+    # patient may drink).
     plan = plan_for(species_id="bearded_dragon", weight_kg=0.38, dehydration_percent=5,
                     body_temp_c=29, route="icoel", dose_interval_h=24)  # fmt: skip
     phases = divided(plan)
@@ -91,8 +94,11 @@ def test_a_bearded_dragon_intracoelomic_every_24_h():
     assert all(p.interval_h == pytest.approx(24) and p.sites_per_dose == 1 for p in phases)
     assert all(p.dose_ml <= 3.8 + 1e-9 for p in phases)
     assert len([e for e in plan.schedule if e.hour < 24 and e.action.startswith("Give ")]) == 1
-    assert finding(plan, "DOSES_FALL_SHORT").severity == "soft"
+    assert finding(plan, "DOSES_FALL_SHORT").severity == "hard"
     assert finding(plan, "ICOEL_DOSE_TOO_LARGE") is None
+    kept = plan_for(species_id="bearded_dragon", weight_kg=0.38, body_temp_c=29, route="icoel",
+                    dose_interval_h=24)  # fmt: skip
+    assert finding(kept, "DOSES_FALL_SHORT").severity == "soft"
 
 
 def test_without_a_chosen_interval_doses_stay_within_the_usual_sites():
@@ -294,7 +300,7 @@ def test_the_cli_takes_the_interval_the_sites_and_the_new_routes(capsys):
                      "--dehydration", "7", "--dose-interval", "8", "--max-sites", "2",
                      "--json"])  # fmt: skip
     data = json.loads(capsys.readouterr().out)
-    assert code == 0
+    assert code == 3  # these doses never replace the deficit: blocked, the plan still shown
     assert data["request"]["dose_interval_h"] == 8 and data["request"]["max_sites_per_dose"] == 2
     assert {p["interval_h"] for p in data["phases"]} == {8}
     code = cli.main(["plan", "--species", "hermanns_tortoise", "--weight", "800 g",

@@ -228,10 +228,17 @@ def test_an_absurd_divided_volume_for_a_mouse_is_blocked():
     spread = plan_for(species_id="mouse", weight_kg=0.03, losses_ml_per_day=1_000_000,
                       max_sites_per_dose=10)  # fmt: skip
     assert severities(spread)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"
-    # a route whose doses nobody holds (intracoelomic, left to the plan) still meets the
-    # impossible-sites bound (safety_limits.csv, common practice)
-    slider = plan_for(species_id="red_eared_slider", weight_kg=1.0, losses_ml_per_day=100_000)
-    assert severities(slider)["DIVIDED_SITES_IMPOSSIBLE"] == "hard"
+    # the impossible-sites bound (safety_limits.csv, common practice) stays behind the
+    # doses' ceiling: a phase needing 11 sites, wherever it came from, is refused
+    from vetfluid.planning import safety
+    from vetfluid.planning.ledger import Ledger
+    from vetfluid.planning.schedule import intermittent_phase
+
+    ledger = Ledger(load_table(), "mouse", weight_kg=0.03)
+    many = intermittent_phase(kind="replacement", start_h=0, end_h=6, need_ml_per_h=3.3 / 6,
+                              route="sc", per_site_limit_ml=0.3, kcl_mmol_per_l=0.0)  # fmt: skip
+    safety.check_divided_sites(ledger, (many,), site_limit_ml=0.3)
+    assert {f.code: f.severity for f in ledger.findings}["DIVIDED_SITES_IMPOSSIBLE"] == "hard"
 
 
 def test_losses_up_to_the_patients_weight_a_day_are_not_called_a_slip():

@@ -53,11 +53,10 @@ def test_resuscitation_boluses_under_the_skin_are_blocked():
 
 
 def test_sc_doses_closer_than_absorption_are_a_warning():
-    # SC fluid is absorbed over 6–8 h (Vet Clin North Am 2017), intracoelomic taken as the
-    # same: a 4 h replacement period gives doses closer than that (SC doses are held to
-    # whole intervals of at least 6 h; intracoelomic doses left to the plan are not)
-    plan = plan_for(species_id="red_eared_slider", weight_kg=1.0, dehydration_percent=5,
-                    replace_hours=4)  # fmt: skip
+    # SC fluid is absorbed over 6–8 h (Vet Clin North Am 2017): a 4 h replacement period
+    # that the dog's doses can give gives doses closer than that
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=1, replace_hours=4,
+                    route="sc", device="divided")  # fmt: skip
     assert severity_of(plan, "DOSES_CLOSER_THAN_ABSORPTION") == "soft"
 
 
@@ -143,11 +142,25 @@ def test_anaesthesia_rate_is_checked_in_every_period_not_only_the_first():
 
 
 def test_an_intracoelomic_dose_beyond_what_the_coelom_holds_is_blocked():
-    # 12 % of a 1 kg slider over 12 h in 6-hourly doses: 65 mL/kg at a time into one
-    # cavity, above the 5–20 mL/kg intracoelomic range (recalled)
+    # 12 % of a 1 kg slider over 12 h in 6-hourly doses would be 65 mL/kg at a time into one
+    # cavity, above the 5–20 mL/kg intracoelomic range (recalled). The plan holds each dose
+    # to one injection of the usual 10 mL/kg and replaces over longer instead (issue 20)...
     plan = plan_for(species_id="red_eared_slider", weight_kg=1, dehydration_percent=12,
                     route="icoel", replace_hours=12)  # fmt: skip
-    assert severity_of(plan, "ICOEL_DOSE_TOO_LARGE") == "hard"
+    doses = [p for p in plan.phases if p.mode == "intermittent"]
+    assert all(p.sites_per_dose == 1 and p.dose_ml <= 10 + 1e-9 for p in doses)
+    assert severity_of(plan, "REPLACEMENT_SLOWED_TO_ROUTE") == "soft"
+    # ...and the check behind it still refuses such a dose wherever it came from
+    from vetfluid.planning import safety
+    from vetfluid.planning.ledger import Ledger
+    from vetfluid.planning.schedule import intermittent_phase
+    from vetfluid.tables.species import load_table
+
+    ledger = Ledger(load_table(), "red_eared_slider", weight_kg=1.0)
+    big = intermittent_phase(kind="replacement", start_h=0, end_h=6, need_ml_per_h=65 / 6,
+                             route="icoel", per_site_limit_ml=10.0, kcl_mmol_per_l=0.0)  # fmt: skip
+    safety.check_divided_sites(ledger, (big,), site_limit_ml=10.0)
+    assert {f.code: f.severity for f in ledger.findings}["ICOEL_DOSE_TOO_LARGE"] == "hard"
 
 
 def test_a_gravity_drip_for_a_mouse_is_a_warning_not_a_note():

@@ -909,18 +909,16 @@ MAX_REPLACEMENT_AT_DOSES_H = 7 * 24.0
 def _chosen_ceiling(
     ledger: Ledger, request: PlanRequest, segments: list[Segment], *, route: str, device: str
 ) -> delivery.DoseCeiling | None:
-    """The most one divided dose holds at the clinician's interval and sites (None for a line,
-    and for intracoelomic doses nobody chose): sites not given are the route's usual most
-    (:func:`delivery.most_sites`); an interval not given is the longest whose first dose
-    fits those sites (:func:`delivery.divided_boluses`).
+    """The most one divided dose holds at the clinician's interval and sites (None for a
+    line): sites not given are the route's usual most (:func:`delivery.most_sites`: one
+    injection a dose into a space, one tube by mouth); an interval not given is the longest
+    whose first dose fits those sites (:func:`delivery.divided_boluses`).
 
     Doses are held to their sites even when nothing was chosen: a deficit that does not fit
     is replaced more slowly and the plan says how long it takes, never by spreading each
-    dose over more sites (issue 20: a 70 g gerbil had been planned 24 injections a day).
-    Intracoelomic doses nobody chose keep their own checks: a dose over one injection is
-    said, and blocked past the coelom's range."""
-    chosen = request.dose_interval_h is not None or request.max_sites_per_dose is not None
-    if device != "divided" or (route == "icoel" and not chosen):
+    dose over more sites or punctures (issue 20: a 70 g gerbil had been planned 24
+    injections a day, a tortoise two punctures of its coelom a dose)."""
+    if device != "divided":
         return None
     limit_ml = ledger.value(SITE_LIMIT_PARAMETER[route]).number * ledger.weight_kg
     sites = request.max_sites_per_dose or delivery.most_sites(route)
@@ -1048,10 +1046,18 @@ def _within_the_doses(
                           background_ml_per_h=background_ml_per_h, besides=ceiling),
         )  # fmt: skip
     elif short:
+        # a deficit these doses never replace (or not within a week) leaves the patient as
+        # dehydrated as it came, or worse: blocked. Doses short of maintenance alone stay a
+        # warning (the patient may drink or eat; the reason says so)
+        unreplaced = deficit_ml > 0 and request.ins_and_outs_period_h is None
+        against = (
+            "the measured outputs and losses" if request.ins_and_outs_period_h is not None
+            else "maintenance and losses"
+        )  # fmt: skip
         ledger.add(
-            "soft", "DOSES_FALL_SHORT",
+            "hard" if unreplaced else "soft", "DOSES_FALL_SHORT",
             f"Doses {_dose_words(ceiling)} give {a_day} a day against {needs} a day of "
-            "maintenance and losses"
+            f"{against}"
             + (
                 f" and the {format_quantity(deficit_ml, 'mL')} deficit: at this interval the "
                 + ("deficit is never replaced." if hours is None
@@ -1305,7 +1311,13 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     safety.check_maintenance_covers_insensible(
         ledger, maintenance_ml_per_day=maint.ml_per_day, given_ml_per_day=outflow[-1][1] * 24.0
     )
-    safety.check_replacement_speed(ledger, deficit_ml=deficit, replace_hours=request.replace_hours)
+    # the period the plan replaces over: the one asked, or longer where the doses slowed it
+    replacing = [p for p in fluid_phases if p.kind == "replacement"]
+    safety.check_replacement_speed(
+        ledger, deficit_ml=deficit,
+        replace_hours=replacing[-1].end_h - replacing[0].start_h if replacing
+        else request.replace_hours,
+    )  # fmt: skip
     safety.suggest_syringe_pump(ledger, device=device, phases=tuple(fluid_phases))
     safety.check_overload(
         ledger, cardiac=request.cardiac_disease, renal=request.renal_disease, weight_kg=w,
