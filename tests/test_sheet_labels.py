@@ -307,3 +307,23 @@ def test_a_stock_bag_never_claims_more_than_it_holds():
     assert stock and all(b.give_ml <= b.container_ml + 1e-9 for b in stock)
     doses = sum(p.dose_ml * p.doses for p in plan.phases if p.mode == "intermittent")
     assert sum(b.give_ml for b in stock) >= doses - 1e-6
+
+
+# ---- labels travel without the page: they carry the plan's status ------------------------------
+def test_a_blocked_plan_prints_no_labels_to_cut_out():
+    # Review finding: a hard-limit plan printed ready-to-cut labels on a page of their own;
+    # a label stuck on a syringe keeps no page banner (common practice: a label says what
+    # is in the container and that it may be given).
+    data = data_for(PlanRequest(species_id="dog", weight_kg=0.02))  # the g/kg slip: hard
+    block = labels_block(sheet_html(data))
+    assert "<td" not in block  # no label cells
+    assert "not to be given" in block.lower()
+
+
+def test_labels_of_a_plan_not_marked_ready_say_so_on_each_label():
+    data = dog()
+    unready = labels_block(sheet_html(data, ready=False))
+    cells = re.findall(r"<td[^>]*>(.*?)</td>", unready)
+    assert cells and all("NOT MARKED READY" in c for c in cells)
+    ready = labels_block(sheet_html(data, ready=True))
+    assert "NOT MARKED READY" not in ready

@@ -649,7 +649,7 @@ def sheet_html(
             widths={"Clock": 13, "Planned": 22, "Demeanour": 11, "Initials": 8},
         ),
         "<h3 style='page-break-before: always'>Labels</h3>",
-        _labels(data, str(name), clock),
+        _labels(data, str(name), clock, ready=ready),
         "<h3>Findings</h3>",
         table_html(
             [
@@ -882,11 +882,23 @@ def labels_note(data: dict) -> str:
     return note
 
 
-def _labels(data: dict, name: str, clock: Callable[[float], str]) -> str:
+# A label is cut out and stuck on its bag or syringe: the page's banner does not go with it.
+NOT_READY_LABEL = "NOT MARKED READY — check the plan before use"
+
+
+def _labels(data: dict, name: str, clock: Callable[[float], str], *, ready: bool) -> str:
     """One label per bag or syringe (:func:`vetfluid.printouts.labels.labels`): patient,
     fluid and what to add to this bag, rate or dose, start and discard on the clock
-    (``clock``: :func:`sheet_clock` of an hour)."""
+    (``clock``: :func:`sheet_clock` of an hour). A plan with a hard limit gets none; a plan
+    not marked ready says so on every label."""
+    if blocked(data):
+        return (
+            f"<p><b>✖ No labels: {BLOCKED_MARK.lower()}.</b> Resolve the hard limits and "
+            "print again.</p>"
+        )
     who = [escape(name), escape(f"{data['species_name']}, {patient_weight_text(data)}")]
+    if not ready:
+        who.insert(0, f"<b>{escape(NOT_READY_LABEL)}</b>")
     cells = []
     for label in containers.labels(data):
         what, *middle, when = (escape(t) for t in _label_lines(data, label, clock))
