@@ -444,3 +444,12 @@ def test_mannitols_dilution_of_the_measured_na_is_no_correction():
     assert "SODIUM_CHANGE_TOO_FAST" not in severities(plan)
     modelled = course(plan, step_minutes=SHOWN_STEP_MINUTES)
     assert modelled.osmolality_mosm_per_kg[6] > modelled.osmolality_mosm_per_kg[0]
+
+
+def test_a_whole_blood_volume_under_the_skin_at_once_is_blocked():
+    # Review finding: a 400 g pigeon dosed once a day in 10 SC sites got 40 mL = 100 mL/kg,
+    # its whole blood volume (100 mL/kg, Glomski 2011), in one handling; a pump may run a
+    # shock dose over an hour, a divided dose gives it in minutes.
+    plan = plan_for(species_id="pigeon", weight_kg=0.4, dehydration_percent=12, route="sc",
+                    max_sites_per_dose=10, dose_interval_h=24)  # fmt: skip
+    assert severities(plan)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"

@@ -524,7 +524,10 @@ def check_volume_per_hour(ledger: Ledger, phases: tuple[Phase, ...], weight_kg: 
     cap = ledger.get("shock_dose_ml_per_kg") or ledger.value("blood_volume_ml_per_kg")
     per_hour = cap.number * weight_kg
     most, start = largest_in_window(phases, 1.0)
-    if most <= per_hour * (1 + 1e-9):
+    # a pump may run a whole shock dose in an hour; a divided dose gives it in minutes, so
+    # reaching the ceiling is already past it (a pigeon's whole blood volume under the skin)
+    divided = any(p.mode == "intermittent" for p in phases)
+    if most < per_hour * (1 - 1e-9) or (not divided and most <= per_hour * (1 + 1e-9)):
         return
     if any(
         p.mode == "continuous" and (p.rate_ml_per_h or 0.0) > per_hour * (1 + 1e-9) for p in phases
@@ -535,7 +538,8 @@ def check_volume_per_hour(ledger: Ledger, phases: tuple[Phase, ...], weight_kg: 
         "hard",
         "VOLUME_PER_HOUR_ABOVE_CEILING",
         f"The plan gives {q(most, 'mL')} ({q(most / weight_kg, 'mL/kg')}) within the hour "
-        f"from hour {start:g}, more than one {what} per hour ({q(per_hour, 'mL')}).",
+        f"from hour {start:g}, {'at least' if divided else 'more than'} one {what} per hour "
+        f"({q(per_hour, 'mL')}).",
         "Check the weight, deficit and ongoing losses; replace the deficit over a longer "
         "period, or place a line and give it at a set rate.",
         cap.source_id,
