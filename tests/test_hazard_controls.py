@@ -299,3 +299,15 @@ def test_the_serum_k_scale_stops_at_what_the_route_takes():
     assert plan.potassium.bag_k_mmol_per_l == pytest.approx(35, abs=0.01)
     assert severity_of(plan, "ROUTE_POTASSIUM_LIMIT") is None
     assert severity_of(plan, "KCL_HELD_TO_ROUTE") == "info"
+
+
+def test_dehydration_in_the_shock_band_without_a_bolus_is_a_warning():
+    # DiBartola 2012, Table 14-4: 12–15 % dehydration brings signs of shock (weak pulses,
+    # cold limbs); shock is treated with boluses before the deficit is replaced.
+    plan = plan_for(species_id="dog", weight_kg=20, dehydration_percent=14)
+    assert severity_of(plan, "DEHYDRATION_IN_SHOCK_RANGE") == "soft"
+    with_bolus = plan_for(species_id="dog", weight_kg=20, dehydration_percent=14,
+                          resuscitation_boluses=1)  # fmt: skip
+    assert severity_of(with_bolus, "DEHYDRATION_IN_SHOCK_RANGE") is None
+    assert severity_of(plan_for(species_id="dog", weight_kg=20, dehydration_percent=10),
+                       "DEHYDRATION_IN_SHOCK_RANGE") is None  # fmt: skip

@@ -1145,6 +1145,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     safety.check_bicarbonate(ledger, request.serum_hco3)
     species_name = table.species(request.species_id).common_name
     percent, estimate = _dehydration(ledger, request, species_name=species_name)
+    safety.check_shock_range(ledger, percent, boluses=request.resuscitation_boluses,
+                             taxon=ledger.table.taxon_class(request.species_id))  # fmt: skip
     safety.check_dehydration_entry(ledger, percent=percent)
     deficit = hydration.deficit_ml(w, percent)
     background = maint.ml_per_h + request.losses_ml_per_day / 24.0

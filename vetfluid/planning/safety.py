@@ -1318,6 +1318,29 @@ def check_dehydration_entry(ledger: Ledger, *, percent: float) -> None:
         )
 
 
+def check_shock_range(ledger: Ledger, percent: float, *, boluses: int, taxon: str) -> None:
+    """A dehydration in the band where the taxon's table expects shock (mammals: 12–15 %,
+    weak pulses and cold limbs, DiBartola 2012 Table 14-4) with no resuscitation bolus
+    planned: soft. Shock is treated with boluses first; the deficit is replaced after."""
+    shock = next(
+        (f for f in hydration.findings_for(taxon).values()
+         if f.finding_id.endswith("shock_signs") and f.percent_low is not None),
+        None,
+    )  # fmt: skip
+    if shock is None or percent < shock.percent_low or boluses > 0:
+        return
+    ledger.add(
+        "soft",
+        "DEHYDRATION_IN_SHOCK_RANGE",
+        f"{percent:g} % dehydration is in the {shock.percent_low:g}–{shock.percent_high:g} % "
+        f"band where shock is expected ({shock.label.lower()}), and no resuscitation bolus "
+        "is planned.",
+        "Assess perfusion now; give resuscitation boluses first if it is poor, then replace "
+        "the deficit.",
+        shock.source_id,
+    )
+
+
 def check_replacement_speed(ledger: Ledger, *, deficit_ml: float, replace_hours: float) -> None:
     """A deficit replaced faster than the guidelines go: Davis 2013 replaces it over 6–8 h
     once shock is stabilised at the fastest; Pardo 2024 rehydrates over 12–24 h. Shock is
