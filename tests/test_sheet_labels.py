@@ -327,3 +327,19 @@ def test_labels_of_a_plan_not_marked_ready_say_so_on_each_label():
     assert cells and all("NOT MARKED READY" in c for c in cells)
     ready = labels_block(sheet_html(data, ready=True))
     assert "NOT MARKED READY" not in ready
+
+
+def test_a_syringe_pump_gets_one_label_per_fill_the_schedule_loads():
+    # Review finding: a fill loaded up to the next 0.1 mL mark ran 24.1 h at its rate, and
+    # the labels invented a 0.1 mL syringe for the last 0.6 h beside the next fill (a nurse
+    # could run the wrong rate). A syringe runs until the next fill or the phase's end.
+    data = data_for(PlanRequest(species_id="budgerigar", weight_kg=0.035, dehydration_percent=8,
+                                route="io", device="syringe", replace_hours=48))  # fmt: skip
+    found = [x for x in lab.labels(data) if x.kind == "syringe"]
+    fills = [(i, f["hour"]) for i, p in enumerate(data["phases"])
+             for f in p.get("syringe_fills") or ()]  # fmt: skip
+    assert [(x.phase_index, x.start_h) for x in found] == fills
+    for x in found:
+        phase = data["phases"][x.phase_index]
+        later = [f["hour"] for f in phase["syringe_fills"] if f["hour"] > x.start_h]
+        assert x.discard_h == pytest.approx(min(later) if later else phase["end_h"])

@@ -99,27 +99,32 @@ def _bags(index: int, phase: dict, chosen: float | None) -> list[Label]:
 
 
 def _syringes(index: int, phase: dict) -> list[Label]:
-    """A syringe pump's syringes: the schedule's fills, each split where it would run past
-    the hang limit."""
+    """A syringe pump's syringes: the schedule's fills, each running until the next fill or
+    the phase's end (what a fill holds beyond that, loaded up to the syringe's mark, is
+    discarded with it), and split where it would run past the hang limit."""
     rate = float(phase.get("rate_ml_per_h") or 0.0)
-    pieces: list[tuple[float, float, bool]] = []  # (start h, mL loaded, hang-limited)
-    for fill in phase["syringe_fills"]:
+    fills = [f for f in phase["syringe_fills"] if float(f["ml"]) > EPSILON]
+    pieces: list[tuple[float, float, float, bool]] = []  # (start h, mL, runs h, hang-limited)
+    if rate <= EPSILON:
+        fills = []
+    for number, fill in enumerate(fills):
         start, loaded = float(fill["hour"]), float(fill["ml"])
-        if rate <= EPSILON or loaded <= EPSILON:
-            continue
-        while loaded / rate > HANG_LIMIT_H + EPSILON:
+        until = float(fills[number + 1]["hour"]) if number + 1 < len(fills) else phase["end_h"]
+        runs = min(loaded / rate, until - start)
+        while runs > HANG_LIMIT_H + EPSILON:
             piece = syringe_load_ml(rate * HANG_LIMIT_H)
-            pieces.append((start, piece, True))
+            pieces.append((start, piece, HANG_LIMIT_H, True))
             start += HANG_LIMIT_H
+            runs -= HANG_LIMIT_H
             loaded -= rate * HANG_LIMIT_H
-        pieces.append((start, syringe_load_ml(loaded), False))
+        pieces.append((start, syringe_load_ml(loaded), runs, False))
     return [
         Label(
             kind="syringe", phase_index=index, number=number + 1, of=len(pieces),
-            container_ml=loaded, give_ml=loaded, start_h=start,
-            discard_h=min(start + loaded / rate, start + HANG_LIMIT_H), hang_limited=limited,
+            container_ml=loaded, give_ml=loaded, start_h=start, discard_h=start + runs,
+            hang_limited=limited,
         )
-        for number, (start, loaded, limited) in enumerate(pieces)
+        for number, (start, loaded, runs, limited) in enumerate(pieces)
     ]  # fmt: skip
 
 
