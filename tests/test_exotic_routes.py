@@ -334,3 +334,11 @@ def test_a_route_without_an_absorption_figure_says_it_is_taken_as_sc(species_id,
     assert said is not None and said.severity == "info" and "6 h" in said.message
     sc = plan_for(species_id="mongolian_gerbil", weight_kg=0.065)
     assert finding(sc, "ABSORPTION_TAKEN_AS_SC") is None
+
+
+def test_an_interval_with_ins_and_outs_is_refused_not_overridden():
+    # Review finding: a 6 h interval with a 4 h ins-and-outs period gave doses every 4 h
+    # and never said the 6 h chosen was not used.
+    with pytest.raises(InputError, match="ins-and-outs"):
+        PlanRequest(species_id="rat", weight_kg=0.35, route="sc", device="divided",
+                    ins_and_outs_period_h=4, dose_interval_h=6)  # fmt: skip

@@ -144,6 +144,14 @@ class PlanRequest:
             )  # fmt: skip
         _check_measured(self.measured_outputs)
         _check_dosing(self.dose_interval_h, self.max_sites_per_dose, self.soaks_per_day)
+        if self.ins_and_outs_period_h is not None and self.dose_interval_h is not None:
+            # its doses follow each measured period: another interval would be overridden
+            raise InputError(
+                "an ins-and-outs plan gives a dose at the start of each measured period, "
+                "not at a chosen interval",
+                field="dose_interval_h", value=self.dose_interval_h,
+                fix="leave the dosing interval empty, or plan without ins and outs",
+            )  # fmt: skip
         _check_ins_and_outs_size(self.ins_and_outs_period_h, self.measured_outputs)
         if self.start_date is not None and self.start_time is None:
             raise InputError(
