@@ -342,3 +342,19 @@ def test_an_interval_with_ins_and_outs_is_refused_not_overridden():
     with pytest.raises(InputError, match="ins-and-outs"):
         PlanRequest(species_id="rat", weight_kg=0.35, route="sc", device="divided",
                     ins_and_outs_period_h=4, dose_interval_h=6)  # fmt: skip
+
+
+def test_a_snake_is_never_given_an_intraosseous_line():
+    # Anatomy (common practice, no source): a snake has no limbs, so no limb bone for an
+    # intraosseous needle. Review finding: a 400 g corn snake on a pump was planned "IO,
+    # the usual line in a patient this small", and every shortfall advised an IO line.
+    pump = plan_for(species_id="corn_snake", weight_kg=0.4, device="pump")
+    assert pump.route == "iv" and finding(pump, "LINE_ASSUMED_IO") is None
+    with pytest.raises(InputError, match="intraosseous"):
+        build_plan(PlanRequest(species_id="corn_snake", weight_kg=0.4, route="io"))
+    short = plan_for(species_id="corn_snake", weight_kg=0.4, dehydration_percent=8,
+                     dose_interval_h=24, max_sites_per_dose=1)  # fmt: skip
+    said = finding(short, "DOSES_FALL_SHORT")
+    assert "an IV line" in said.action and "IO" not in said.action
+    lizard = plan_for(species_id="bearded_dragon", weight_kg=0.38, device="pump", body_temp_c=29)
+    assert lizard.route == "io"  # a lizard has limb bones

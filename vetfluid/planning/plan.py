@@ -513,8 +513,17 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
     small = request.weight_kg < line_min.number
     chelonian = ledger.species.taxon_group == "chelonian"
     line_asked = request.device in ("pump", "gravity", "syringe")
+    marrow = _intraosseous_possible(ledger)
+    if request.route == "io" and not marrow:
+        raise InputError(
+            f"an intraosseous line is not possible in a {ledger.species.common_name.lower()}: "
+            "it has no limb bone to take the needle",
+            field="route", value="io",
+            fix="choose IV (a vein), or divided doses under the skin or into the coelom",
+        )  # fmt: skip
     if small and line_asked:
-        default_route = "io"  # a line asked for in a small patient: the marrow, not a vein
+        # a line asked for in a small patient: the marrow, not a vein (a snake has none)
+        default_route = "io" if marrow else "iv"
     else:
         default_route = "iv" if not small else ("icoel" if chelonian else "sc")
     route = request.route or default_route
@@ -541,7 +550,7 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
             value=None,
             fix="enter the drops/mL printed on the set (10, 15, 20 or 60)",
         )
-    if small and request.route is None and line_asked:
+    if small and request.route is None and line_asked and marrow:
         ledger.add(
             "info",
             "LINE_ASSUMED_IO",
@@ -570,6 +579,18 @@ def _route_and_device(ledger: Ledger, request: PlanRequest) -> tuple[str, str]:
             "Read the predicted course as an estimate; weigh the patient and reassess often.",
         )
     return route, device
+
+
+def _intraosseous_possible(ledger: Ledger) -> bool:
+    """Whether the species can take an intraosseous line (``intraosseous_possible``;
+    absent: yes — only snakes, with no limb bones, say no)."""
+    value = ledger.table.get(ledger.species_id, "intraosseous_possible")
+    return value is None or bool(value.value)
+
+
+def _line_words(ledger: Ledger) -> str:
+    """The line that gives any rate, for this species: ``an IO or IV line`` (a snake: IV)."""
+    return "an IO or IV line" if _intraosseous_possible(ledger) else "an IV line"
 
 
 def _check_route_for_species(
@@ -994,7 +1015,7 @@ def _what_would(
         if hours is not None and hours <= MAX_REPLACEMENT_AT_DOSES_H:
             options.append(f"{_dose_words(best)} replaces it in {_duration(hours)}")
     found = "; ".join(options) + "; " if options else ""
-    return found + "an IO or IV line gives the need at any rate."
+    return found + f"{_line_words(ledger)} gives the need at any rate."
 
 
 def _faster_doses(ceiling: delivery.DoseCeiling) -> str:
