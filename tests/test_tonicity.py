@@ -188,3 +188,18 @@ def test_the_window_words_tonicity_by_the_rule_with_the_band_on_hover(qtbot):
     tip = fluid_tooltip("dextrose_5", plan)
     d5 = tonicity(fluid("dextrose_5"), plasma_osmolality_mosm_per_kg=_plasma("cat"))
     assert tonicity_words(d5) in tip and tonicity_band_text(d5) in tip
+
+
+def test_the_plans_tonicity_words_read_the_bag_with_its_additives():
+    # Review finding: lactated Ringer's + 5 % dextrose by mouth was called "isotonic" on the
+    # Fluid line while its 498 mOsm/L (1.56 × plasma) was blocked for the route. One
+    # reading: in the bag every particle counts; in the body glucose is burnt (the
+    # classification of Hospital Pharmacy Technician's Letter 2016, as in fluids.tonicity).
+    from vetfluid.planning.plan import PlanRequest, build_plan
+    from vetfluid.tables.fluids import tonicity_words
+
+    plan = build_plan(PlanRequest(species_id="pigeon", weight_kg=0.4, route="oral",
+                                  dextrose_percent=5))  # fmt: skip
+    words = tonicity_words(plan.tonicity)
+    assert words.startswith("hyperosmotic in the bag")
+    assert any(f.code == "ROUTE_OSMOLARITY_LIMIT" for f in plan.findings)

@@ -1190,8 +1190,9 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     bag = _bag(request, kcl)
     bag_comp = fluids.composition(bag)
     base = fluids.fluid(request.fluid_id)
+    # the bag as given, additives in: one reading for the words and the route's limits
     tone = fluids.tonicity(
-        base,
+        bag,
         plasma_osmolality_mosm_per_kg=plasma.number,
         band_fraction=limit("tonicity_band_fraction").value,
     )

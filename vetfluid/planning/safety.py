@@ -1547,7 +1547,7 @@ def check_paediatric(
             "NEONATE_DEXTROSE_NOT_UNDER_SKIN",
             "Fluids under the skin or into the peritoneum carry no dextrose, and before 6 "
             "weeks the lactate in lactated Ringer's may not be turned into bicarbonate.",
-            "Measure blood glucose; give dextrose IV, IO or by mouth if it is low; prefer a "
+            "Measure blood glucose; give dextrose IV or IO if it is low; prefer a "
             "warm lactate-free isotonic crystalloid.",
             "cb_pediatric_cc",
         )
