@@ -89,3 +89,16 @@ def test_the_sheet_says_the_age():
     assert ["Age", "3 weeks"] in patient_inputs_rows(puppy)
     adult = plan_dict(build_plan(PlanRequest(species_id="dog", weight_kg=20)))
     assert not any(row[0] == "Age" for row in patient_inputs_rows(adult))
+
+
+def test_a_neonate_flag_says_the_body_water_the_plan_used_and_an_older_age_disagrees():
+    # Review finding: a 15 kg dog ticked neonate, aged 40 weeks, was told both "the plan
+    # keeps adult body water" and "the plan takes their body water as 80 %". Macintire 2008:
+    # a neonate is in its first two weeks.
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=15, neonate=True, age_weeks=40))
+    note = next(f for f in plan.findings if f.code == "NEONATE")
+    assert "keeps the adults' 60%" in note.message and "80%" not in note.message
+    assert codes(plan)["NEONATE_AGE_DISAGREES"] == "soft"
+    newborn = build_plan(PlanRequest(species_id="dog", weight_kg=0.4, neonate=True))
+    assert "80%" in next(f.message for f in newborn.findings if f.code == "NEONATE")
+    assert "NEONATE_AGE_DISAGREES" not in codes(newborn)

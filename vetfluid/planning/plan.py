@@ -1360,7 +1360,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         safety.check_anaesthesia(ledger, phases, w)
     if request.neonate:
         young = table.get(request.species_id, "neonate_total_body_water_fraction")
-        safety.note_neonate(ledger, neonatal_water=young)
+        safety.note_neonate(ledger, neonatal_water=young, used_water=tbw,
+                            age_weeks=request.age_weeks)  # fmt: skip
     safety.check_paediatric(
         ledger, species_id=request.species_id, age_weeks=request.age_weeks, weight_kg=w,
         maintenance_ml_per_day=maint.ml_per_day,

@@ -1464,15 +1464,43 @@ def check_measured_urine(
             return
 
 
-def note_neonate(ledger: Ledger, *, neonatal_water: SpeciesValue | None) -> None:
+# Macintire 2008: a puppy or kitten is a neonate for its first two weeks
+NEONATE_WEEKS = 2.0
+
+
+def note_neonate(
+    ledger: Ledger,
+    *,
+    neonatal_water: SpeciesValue | None,
+    used_water: SpeciesValue,
+    age_weeks: float | None,
+) -> None:
     """Neonates: more body water (dogs and cats up to 80 %, Odunayo 2018), poor tolerance
-    of fasting. Where no neonatal body water is on record the adult value is used: said."""
-    water = (
-        f"the plan takes their body water as {neonatal_water.number:.0%} of body weight"
-        if neonatal_water is not None
-        else "no neonatal body-water value is on record for this species, so the adult "
-        "value is used and sodium changes may be overstated"
-    )
+    of fasting. The note says the body water the plan used (``used_water``): the neonates'
+    value, or the adults' when the weight or age entered is not a newborn's, or where none
+    is on record. An age past the neonatal two weeks with the flag ticked is a warning."""
+    aged = age_weeks is not None and ledger.species_id in hydration.AGED_BY_WEEKS
+    if aged and age_weeks >= NEONATE_WEEKS:
+        ledger.add(
+            "soft",
+            "NEONATE_AGE_DISAGREES",
+            f"Neonate is ticked, but the age entered is {age_weeks:g} weeks: a puppy or "
+            f"kitten is a neonate for its first {NEONATE_WEEKS:g} weeks (Macintire 2008).",
+            "Untick neonate, or correct the age; the plan uses the age.",
+            "macintire2008",
+        )
+    if used_water.parameter == "neonate_total_body_water_fraction":
+        water = f"the plan takes their body water as {used_water.number:.0%} of body weight"
+    elif neonatal_water is not None:
+        water = (
+            f"the plan keeps the adults' {used_water.number:.0%}: the weight or age entered "
+            "is not a newborn's"
+        )
+    else:
+        water = (
+            "no neonatal body-water value is on record for this species, so the adult "
+            "value is used and sodium changes may be overstated"
+        )
     ledger.add(
         "info",
         "NEONATE",
