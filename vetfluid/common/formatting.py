@@ -86,6 +86,11 @@ def table_value_text(value: float, *, basis: str) -> str:
     return format_number(value, decimals=max(0, min(8, decimals)))
 
 
+def weeks_text(weeks: float) -> str:
+    """An age in weeks in words: ``1 week``, ``0.5 weeks``, ``40 weeks``."""
+    return f"{weeks:g} week" if weeks == 1 else f"{weeks:g} weeks"
+
+
 def hour_text(hour: float) -> str:
     """An hour into a plan in words: "hour 9", or "hour 9 h 35 min" off the whole hour
     (never "hour 9.58333"), to the minute."""

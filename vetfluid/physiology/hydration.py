@@ -27,6 +27,7 @@ from pathlib import Path
 from vetfluid.common.checks import require_number
 from vetfluid.common.csvfiles import parse_number, read_rows
 from vetfluid.common.errors import InputError, SpeciesDataError
+from vetfluid.common.formatting import weeks_text
 from vetfluid.common.paths import resource_dir
 from vetfluid.tables.species import SpeciesTable, SpeciesValue
 
@@ -309,7 +310,7 @@ def body_water_fraction(
         fraction = young.number + (adult.number - young.number) * share
         return replace(
             young, value=fraction, low=None, high=None, basis="derived",
-            note=f"{age_weeks:g} weeks old: between {young.number:.0%} at birth and the "
+            note=f"{weeks_text(age_weeks)} old: between {young.number:.0%} at birth and the "
                  f"adults' {adult.number:.0%} at {GROWN_AT_WEEKS:g} weeks (DiBartola 2012, "
                  "ch. 1: body water falls over the first six months; a straight line, our "
                  "assumption)",

@@ -13,7 +13,7 @@ import numpy as np
 
 from vetfluid.common.arrays import distinct_sorted
 from vetfluid.common.formatting import format_quantity as q
-from vetfluid.common.formatting import hour_text
+from vetfluid.common.formatting import hour_text, weeks_text
 from vetfluid.physiology import delivery, hydration
 from vetfluid.physiology.delivery import DIVIDED_INTERVALS_H
 from vetfluid.physiology.electrolytes import PotassiumSummary, SodiumCourse, SpeciesPotassiumBand
@@ -1484,7 +1484,7 @@ def note_neonate(
         ledger.add(
             "soft",
             "NEONATE_AGE_DISAGREES",
-            f"Neonate is ticked, but the age entered is {age_weeks:g} weeks: a puppy or "
+            f"Neonate is ticked, but the age entered is {weeks_text(age_weeks)}: a puppy or "
             f"kitten is a neonate for its first {NEONATE_WEEKS:g} weeks (Macintire 2008).",
             "Untick neonate, or correct the age; the plan uses the age.",
             "macintire2008",
@@ -1535,7 +1535,7 @@ def check_paediatric(
         ledger.add(
             "info",
             "AGE_NOT_USED",
-            f"An age ({age_weeks:g} weeks) is used for puppies and kittens only; for this "
+            f"An age ({weeks_text(age_weeks)}) is used for puppies and kittens only; for this "
             "species no body water or maintenance by age is on record, so the adults' values "
             "are used.",
             "For a newborn, tick Neonate; weigh on a gram scale and reassess often.",
@@ -1550,7 +1550,7 @@ def check_paediatric(
         ledger.add(
             "soft",
             "PAEDIATRIC_MAINTENANCE_LOW",
-            f"At {age_weeks:g} weeks a {'puppy' if species_id == 'dog' else 'kitten'} needs "
+            f"At {weeks_text(age_weeks)} a {'puppy' if species_id == 'dog' else 'kitten'} needs "
             f"about {low:g}–{high:g} mL/kg/day for maintenance; this plan's maintenance is "
             f"{q(given, 'mL/kg/day')}.",
             f"Add about {q(short, 'mL/day')} as ongoing losses, and weigh twice a day on a "
@@ -1563,7 +1563,7 @@ def check_paediatric(
         ledger.add(
             "soft",
             "NEONATE_WITHOUT_DEXTROSE",
-            f"At {age_weeks:g} weeks glycogen stores are small and fasting brings "
+            f"At {weeks_text(age_weeks)} glycogen stores are small and fasting brings "
             "hypoglycaemia quickly; this fluid carries no dextrose.",
             "Measure blood glucose; consider 2.5–5 % dextrose in the maintenance fluid (a "
             "hypoglycaemic neonate: 0.5–1 g/kg of 5–10 % dextrose IV slowly).",
