@@ -115,8 +115,10 @@ def test_no_bag_hangs_longer_than_24_hours():
 
 def test_additives_are_given_for_the_bag_on_the_label_not_for_a_litre():
     """KCl 28 mmol/L from 2 mEq/mL concentrate is 14 mL per litre (28 ÷ 2): 7 mL in a 500 mL
-    bag; 2.5 % dextrose from 50 % is 1000 × 2.5 ÷ (50 − 2.5) = 52.6 mL per litre: 13.2 mL
-    in a 250 mL bag. A 500 mL bag labelled with the litre's 14 mL would hold twice the K."""
+    bag. 2.5 % dextrose w/v from 50 % in the whole bag, the KCl's volume in it (the C1V1 =
+    C2V2 dilution of any pharmacy text): a litre with 10 mL KCl takes 1010 × 2.5 ÷ 47.5 =
+    53.2 mL; a 250 mL bag with 2.5 mL takes 252.5 × 2.5 ÷ 47.5 = 13.3 mL. A 500 mL bag
+    labelled with the litre's 14 mL would hold twice the K."""
     data = data_for(replace(DEMOS["dehydrated_dog"].request, bag_size_ml=500.0))
     block = labels_block(sheet_html(data))
     assert "add 7 mL potassium chloride concentrate 2 mEq/mL (14 mmol KCl)" in block
@@ -126,9 +128,10 @@ def test_additives_are_given_for_the_bag_on_the_label_not_for_a_litre():
     assert "add 14 mL potassium chloride concentrate 2 mEq/mL (28 mmol KCl)" in litre
     sweet = data_for(PlanRequest(species_id="dog", weight_kg=20, kcl_mmol_per_l=20,
                                  dextrose_percent=2.5, bag_size_ml=250.0))  # fmt: skip
-    assert "52.6 mL" in sweet["fluid"]["name"]  # the plan's own litre
+    assert "53.2 mL" in sweet["fluid"]["name"]  # the plan's own litre
+    assert sweet["fluid"]["dextrose_g_per_l"] == pytest.approx(25.0)  # 2.5 % of the whole bag
     block = labels_block(sheet_html(sweet))
-    assert "add 13.2 mL 50% dextrose" in block
+    assert "add 13.3 mL 50% dextrose" in block
     assert "add 2.5 mL potassium chloride concentrate 2 mEq/mL (5 mmol KCl)" in block  # 20 × 0.25
 
 

@@ -11,7 +11,7 @@ losses, then maintenance. Every species value used is carried in
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from datetime import date, datetime, time, timedelta
 from functools import partial
 
@@ -66,7 +66,6 @@ MAX_DIURETIC_DOSES = 500
 # above every range on record (the largest, mannitol, 2 g/kg; furosemide 10 mg/kg).
 MAX_DIURETIC_DOSE = 1000.0
 MAINTENANCE_TAIL_H = 12.0  # maintenance runs to hour 24, and at least 12 h after replacement
-DEXTROSE_CONCENTRATE_ID = "dextrose_50"
 # Bag sizes a clinician may choose: the 250, 500 and 1000 mL bags lactated Ringer's is sold
 # in (Fresenius Kabi NDC 63323-164; Baxter, DailyMed archive 14649).
 BAG_SIZES_ML = (250.0, 500.0, 1000.0)
@@ -680,30 +679,25 @@ def _kcl_within_route(ledger: Ledger, request: PlanRequest, *, kcl: float, route
 
 
 def _bag(request: PlanRequest, kcl_mmol_per_l: float) -> fluids.Fluid:
-    """The chosen fluid with KCl and dextrose added to each litre."""
-    bag = fluids.fluid(request.fluid_id)
-    if kcl_mmol_per_l > 0:
-        concentrate = fluids.fluid(fluids.KCL_CONCENTRATE_ID)
-        k_per_ml = fluids.composition(concentrate).k_mmol_per_l / 1000.0
+    """The chosen fluid as a nurse makes it up (:func:`fluids.additive_volumes`): a
+    1000 mL bag, the KCl concentrate, then the 50 % dextrose; named by that recipe."""
+    base = fluids.fluid(request.fluid_id)
+    kcl_ml, dextrose_ml = fluids.additive_volumes(
+        1000.0, kcl_mmol_per_l=kcl_mmol_per_l, dextrose_percent=request.dextrose_percent
+    )
+    bag, volume_ml = base, 1000.0
+    parts = [f"{base.name} {format_quantity(volume_ml, 'mL')}"]
+    for concentrate_id, added_ml in ((fluids.KCL_CONCENTRATE_ID, kcl_ml),
+                                     (fluids.DEXTROSE_CONCENTRATE_ID, dextrose_ml)):  # fmt: skip
+        if added_ml <= 0:
+            continue
+        concentrate = fluids.fluid(concentrate_id)
         bag = fluids.with_additive(
-            bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=kcl_mmol_per_l / k_per_ml
+            bag, bag_volume_ml=volume_ml, additive=concentrate, additive_ml=added_ml
         ).fluid
-    if request.dextrose_percent > 0:
-        concentrate = fluids.fluid(DEXTROSE_CONCENTRATE_ID)
-        strength = fluids.composition(concentrate).dextrose_hydrous_g_per_l / 10.0  # % w/v
-        wanted = request.dextrose_percent
-        if wanted >= strength:
-            raise InputError(
-                f"dextrose must be below the concentrate's {strength:g} %",
-                field="dextrose_percent",
-                value=wanted,
-            )
-        # x mL of concentrate in 1000 mL: strength·x / (1000 + x) = wanted
-        added_ml = 1000.0 * wanted / (strength - wanted)
-        bag = fluids.with_additive(
-            bag, bag_volume_ml=1000.0, additive=concentrate, additive_ml=added_ml
-        ).fluid
-    return bag
+        volume_ml += added_ml
+        parts.append(f"{concentrate.name} {format_quantity(added_ml, 'mL')}")
+    return bag if bag is base else replace(bag, name=" + ".join(parts))
 
 
 def _dehydration(

@@ -30,7 +30,7 @@ from dataclasses import dataclass, replace
 from vetfluid.common.errors import InputError
 from vetfluid.common.formatting import format_quantity as q
 from vetfluid.physiology.delivery import HANG_LIMIT_H, drawn_up_dose, syringe_load_ml
-from vetfluid.planning.plan import BAG_SIZES_ML, DEXTROSE_CONCENTRATE_ID
+from vetfluid.planning.plan import BAG_SIZES_ML
 from vetfluid.tables import fluids
 
 EPSILON = 1e-9
@@ -222,27 +222,23 @@ def base_fluid_name(phase_fluid: str) -> str:
 
 
 def additions(data: dict, phase: dict, bag_ml: float) -> list[str]:
-    """What to add to one bag of ``bag_ml``, scaled from the plan's litre: KCl as mmol per
-    litre of the fluid over the concentrate's mmol/mL (2 mEq/mL: 28 mmol/L is 14 mL a litre,
-    7 mL in 500 mL), dextrose from the concentrate as the plan mixes it,
-    1000 × wanted ÷ (strength − wanted) mL a litre (2.5 % from 50 %: 52.6 mL; 13.2 mL in
-    250 mL). A bolus of the fluid with nothing added has nothing to add."""
+    """What to add to one bag of ``bag_ml``, as the plan makes up its litre
+    (:func:`vetfluid.tables.fluids.additive_volumes`: 28 mmol/L KCl from 2 mEq/mL is 7 mL in
+    500 mL). A bolus of the fluid with nothing added has nothing to add."""
     fluid = data["fluid"]
     if (phase.get("fluid") or fluid["name"]) != fluid["name"]:
         return []
-    lines = []
     kcl = phase.get("kcl_mmol_per_l") or 0.0
-    if kcl > 0:
-        concentrate = fluids.fluid(fluids.KCL_CONCENTRATE_ID)
-        mmol_per_ml = fluids.composition(concentrate).k_mmol_per_l / 1000.0
-        mmol = kcl * bag_ml / 1000.0
-        lines.append(
-            f"add {q(mmol / mmol_per_ml, 'mL')} {concentrate.name} ({q(mmol, 'mmol')} KCl)"
-        )
     wanted = (data.get("request") or {}).get("dextrose_percent") or 0.0
-    if wanted > 0:
-        concentrate = fluids.fluid(DEXTROSE_CONCENTRATE_ID)
-        strength = fluids.composition(concentrate).dextrose_hydrous_g_per_l / 10.0  # % w/v
-        per_litre_ml = 1000.0 * wanted / (strength - wanted)
-        lines.append(f"add {q(per_litre_ml * bag_ml / 1000.0, 'mL')} {concentrate.name}")
+    kcl_ml, dextrose_ml = fluids.additive_volumes(
+        bag_ml, kcl_mmol_per_l=kcl, dextrose_percent=wanted
+    )
+    lines = []
+    if kcl_ml > 0:
+        concentrate = fluids.fluid(fluids.KCL_CONCENTRATE_ID)
+        mmol = kcl * bag_ml / 1000.0
+        lines.append(f"add {q(kcl_ml, 'mL')} {concentrate.name} ({q(mmol, 'mmol')} KCl)")
+    if dextrose_ml > 0:
+        concentrate = fluids.fluid(fluids.DEXTROSE_CONCENTRATE_ID)
+        lines.append(f"add {q(dextrose_ml, 'mL')} {concentrate.name}")
     return lines

@@ -52,6 +52,33 @@ KCAL_PER_G_DEXTROSE_HYDROUS = 3.4
 GLUCOSE_FORMULA = "C6H12O6"
 DEXTROSE_HYDROUS_FORMULA = "C6H12O6.H2O"
 KCL_CONCENTRATE_ID = "kcl_2_meq_per_ml"
+DEXTROSE_CONCENTRATE_ID = "dextrose_50"
+
+
+def additive_volumes(
+    bag_ml: float, *, kcl_mmol_per_l: float, dextrose_percent: float
+) -> tuple[float, float]:
+    """What a nurse adds to a bag of ``bag_ml``: the KCl concentrate for ``kcl_mmol_per_l``
+    per litre of the fluid (2 mEq/mL: 28 mmol/L is 14 mL a litre, 7 mL in 500 mL), then the
+    50 % dextrose that makes the whole bag ``dextrose_percent`` w/v, the KCl's volume
+    included: x = (bag + KCl) × wanted ÷ (strength − wanted) (2.5 % from 50 % in a litre
+    with 10 mL of KCl: 1010 × 2.5 ÷ 47.5 = 53.2 mL). Returns (KCl mL, dextrose mL); the
+    plan's litre and every label use it."""
+    kcl_ml = 0.0
+    if kcl_mmol_per_l > 0:
+        per_ml = composition(fluid(KCL_CONCENTRATE_ID)).k_mmol_per_l / 1000.0
+        kcl_ml = kcl_mmol_per_l * bag_ml / 1000.0 / per_ml
+    dextrose_ml = 0.0
+    if dextrose_percent > 0:
+        strength = composition(fluid(DEXTROSE_CONCENTRATE_ID)).dextrose_hydrous_g_per_l / 10.0
+        if dextrose_percent >= strength:
+            raise InputError(
+                f"dextrose must be below the concentrate's {strength:g} %",
+                field="dextrose_percent", value=dextrose_percent,
+            )  # fmt: skip
+        dextrose_ml = (bag_ml + kcl_ml) * dextrose_percent / (strength - dextrose_percent)
+    return kcl_ml, dextrose_ml
+
 
 # Ion spelling in solutes.csv → (Composition key, charge). Charges are chemistry.
 _ION_TOKENS: dict[str, tuple[str, int]] = {
