@@ -72,9 +72,84 @@ def test_help_prints_usage_and_opens_no_window():
         assert word in run.stdout
 
 
-def test_version_prints_the_version():
+def test_version_prints_the_version_and_the_species_data_version():
+    """Issue 21: the program's version and the species data's (a digest of the shipped CSV
+    files, vetfluid/tables/data_version.py), so a printout, an install and a bundle can be
+    told apart by what they plan from."""
     from vetfluid import __version__
+    from vetfluid.tables.data_version import species_data_version
 
     run = subprocess.run([VETFLUID, "--version"], env=_env(QT_QPA_PLATFORM="offscreen"),
                          capture_output=True, text=True, timeout=30)  # fmt: skip
-    assert run.returncode == 0 and run.stdout == f"vetfluid {__version__}\n"
+    expected = f"vetfluid {__version__} (species data {species_data_version()})\n"
+    assert run.returncode == 0 and run.stdout == expected
+
+
+def test_a_plan_file_given_at_start_opens_in_the_window(qtbot, tmp_path, answer):
+    """Issue 21: a file association for plan files starts `vetfluid PLAN.vfplan.json`; the
+    window opens with that plan, as File → Open would open it."""
+    from ui.app import open_window
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+
+    answer({})  # any question or message fails the test
+    request = demo("small_gerbil").request
+    path = write_request_file(tmp_path / "gerbil.vfplan.json", request, {})
+    window = open_window(str(path))
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None and window.session.plan is not None)
+    assert window.session.plan.request == request
+
+
+def test_a_plan_file_that_cannot_be_read_at_start_is_a_message(qtbot, tmp_path, answer):
+    """A file association pointing at a file since moved: the window says so and stays up."""
+    from ui.app import open_window
+
+    shown = []
+    answer({"Could not open gone.vfplan.json": lambda: shown.append(1)})
+    window = open_window(str(tmp_path / "gone.vfplan.json"))
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: shown == [1])
+    assert window.isVisible()
+
+
+def test_version_without_species_data_says_so_in_one_line(tmp_path, monkeypatch, capsys):
+    """A bundle or install that lost its species_data/ folder: one line naming it, exit 1,
+    no traceback (here: a frozen program whose bundle folder holds no data)."""
+    from ui.app import main
+
+    monkeypatch.setattr(sys, "frozen", True, raising=False)
+    monkeypatch.setattr(sys, "_MEIPASS", str(tmp_path), raising=False)
+    assert main(["vetfluid", "--version"]) == 1
+    captured = capsys.readouterr()
+    assert captured.out == ""
+    assert (
+        captured.err
+        == f"vetfluid: vetfluid's species_data/ folder is missing from this bundle ({tmp_path})\n"
+    )
+
+
+def test_self_check_writes_the_views_the_plan_file_and_the_sheet(tmp_path, vetfluid_home):
+    """Issue 21: `vetfluid self-check FOLDER` from the source install (the bundle's test runs
+    it from the bundle): a picture per tab, the demo's plan file and its sheet, and nothing
+    in the data folder it was started with."""
+    folder = tmp_path / "check"
+    run = subprocess.run([VETFLUID, "self-check", str(folder)], env=_env(), capture_output=True,
+                         text=True, timeout=120)  # fmt: skip
+    assert run.returncode == 0, run.stderr
+    assert run.stdout.splitlines()[-1] == "self-check passed"
+    written = sorted(p.name for p in folder.iterdir())
+    assert written == [
+        "dehydrated_dog-0-plan.png", "dehydrated_dog-1-timeline.png",
+        "dehydrated_dog-2-course.png", "dehydrated_dog-3-checks.png",
+        "dehydrated_dog-4-values.png", "dehydrated_dog-sheet.pdf",
+        "dehydrated_dog.vfplan.json",
+    ]  # fmt: skip
+    assert not any(vetfluid_home.iterdir())
+
+
+def test_self_check_refuses_an_unknown_demo_in_one_line(tmp_path):
+    run = subprocess.run([VETFLUID, "self-check", str(tmp_path), "--demo", "unicorn"],
+                         env=_env(), capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert run.returncode == 2
+    assert run.stderr.count("\n") == 1 and "unknown demo 'unicorn'" in run.stderr

@@ -71,3 +71,55 @@ def test_vetfluid_home_replaces_the_user_data_folder(tmp_path, monkeypatch):
     assert user_data_dir() == tmp_path / "clinic"
     assert (tmp_path / "clinic").is_dir()
     assert overrides_dir() == tmp_path / "clinic" / "overrides"
+
+
+def _bundle_folder(root: Path) -> Path:
+    """A folder laid out as scripts/build_bundle.py lays out a bundle's data: the shipped
+    species_data/ and icons/ at its top."""
+    import shutil
+
+    for name in ("species_data", "icons"):
+        shutil.copytree(ROOT / name, root / name)
+    return root
+
+
+def test_a_frozen_bundle_finds_its_data_in_its_own_folder(tmp_path, monkeypatch):
+    """PyInstaller sets sys.frozen and sys._MEIPASS (the one-folder bundle's _internal/,
+    PyInstaller manual, "Run-time information"); the data is read from there, and the
+    species data's version is that of the files shipped."""
+    from vetfluid.common.paths import bundle_root, resource_dir, resource_file
+    from vetfluid.tables.data_version import species_data_version
+
+    unpacked = _bundle_folder(tmp_path / "_internal")
+    monkeypatch.setattr(sys, "frozen", True, raising=False)
+    monkeypatch.setattr(sys, "_MEIPASS", str(unpacked), raising=False)
+    assert bundle_root() == unpacked
+    assert resource_dir("species_data") == unpacked / "species_data"
+    assert resource_file("icons", "vetfluid.svg") == unpacked / "icons" / "vetfluid.svg"
+    assert species_data_version() == species_data_version(ROOT / "species_data")
+
+
+def test_a_frozen_app_without_meipass_looks_beside_its_executable(tmp_path, monkeypatch):
+    """Freezers that set sys.frozen without sys._MEIPASS keep data beside the executable
+    (cx_Freeze FAQ, "Using data files": the folder of sys.executable)."""
+    from vetfluid.common.paths import resource_dir
+
+    folder = _bundle_folder(tmp_path / "app")
+    monkeypatch.setattr(sys, "frozen", True, raising=False)
+    monkeypatch.delattr(sys, "_MEIPASS", raising=False)
+    monkeypatch.setattr(sys, "executable", str(folder / "vetfluid"))
+    assert resource_dir("icons") == folder / "icons"
+
+
+def test_a_frozen_bundle_missing_its_data_says_so_and_reads_no_other_copy(tmp_path, monkeypatch):
+    """A bundle without species_data/ must not fall back to a checkout's or an installed
+    wheel's values: the clinic would plan from data the bundle does not carry."""
+    import pytest
+
+    from vetfluid.common.paths import resource_dir
+
+    (tmp_path / "_internal").mkdir()
+    monkeypatch.setattr(sys, "frozen", True, raising=False)
+    monkeypatch.setattr(sys, "_MEIPASS", str(tmp_path / "_internal"), raising=False)
+    with pytest.raises(FileNotFoundError, match="missing from this bundle"):
+        resource_dir("species_data")

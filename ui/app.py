@@ -7,6 +7,10 @@ then opens the main window. Heavy modules load after the first paint.
 from __future__ import annotations
 
 import sys
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from pathlib import Path
 
 
 def sheet_command(argv: list[str]) -> int:
@@ -155,13 +159,136 @@ def _write_pdf(html: str, output: str, page: str, *, mark: str = "") -> int:
     return 0
 
 
+def self_check_command(argv: list[str]) -> int:
+    """``vetfluid self-check FOLDER``: shows that this installation works, touching nothing the
+    clinic keeps. In a temporary data folder (no records, drafts, overrides or window settings
+    read or written), it opens the window offscreen with an invented demo patient and writes
+    into FOLDER a picture of each of the plan's views, the demo as a plan file and its
+    treatment sheet as a PDF (the window's own File → Print), then prints the versions and
+    what it wrote. For whoever installs a bundle (README, "For clinics"); the bundle's test
+    (tests/test_bundle.py) runs it too."""
+    import argparse
+    import os
+    import shutil
+    import tempfile
+    from pathlib import Path
+
+    parser = argparse.ArgumentParser(
+        prog="vetfluid self-check",
+        description="Check this installation: window, demo plan, pictures and a sheet PDF.",
+    )
+    parser.add_argument("folder", help="where to write the pictures, the plan file and the PDF")
+    parser.add_argument(
+        "--demo", default="dehydrated_dog", help="the demo patient (vetfluid-cli plan --demo)"
+    )
+    args = parser.parse_args(argv)
+    from vetfluid.common.errors import VetfluidError, printable
+    from vetfluid.planning.demos import demo
+
+    try:
+        demo(args.demo)
+    except VetfluidError as exc:
+        sys.stderr.write(f"vetfluid self-check: {exc.one_line()}\n")
+        return 2
+    folder = Path(args.folder)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        sys.stderr.write(
+            f"vetfluid self-check: cannot make {printable(args.folder)[:200]}: {exc.strerror}\n"
+        )
+        return 2
+    os.environ["QT_QPA_PLATFORM"] = "offscreen"  # nothing appears on the clinic's screen
+    home = tempfile.mkdtemp(prefix="vetfluid-self-check-")
+    os.environ["VETFLUID_HOME"] = home
+    try:
+        sys.stdout.write(version_line() + "\n")
+        written = _check_window(args.demo, folder)
+    except (OSError, VetfluidError) as exc:  # FOLDER not writable, or the data missing
+        sys.stderr.write(f"vetfluid self-check failed: {printable(str(exc))[:400]}\n")
+        return 1
+    except RuntimeError as exc:  # the window made no plan
+        sys.stderr.write(f"vetfluid self-check failed: {exc}\n")
+        return 1
+    finally:
+        shutil.rmtree(home, ignore_errors=True)
+    for path in written:
+        sys.stdout.write(f"wrote {printable(str(path))}\n")
+    sys.stdout.write("self-check passed\n")
+    return 0
+
+
+def _check_window(demo_id: str, folder: Path) -> list[Path]:
+    """Open the window with ``demo_id``, picture each view of the plan, save the plan file and
+    print the sheet to PDF, as :func:`self_check_command` says; returns the paths written."""
+    import time
+
+    from PySide6.QtPrintSupport import QPrinter
+    from PySide6.QtWidgets import QApplication
+
+    from ui.main_window import MainWindow
+    from vetfluid.common.paths import owner_only_file
+    from vetfluid.records.request_file import write_request_file
+
+    app = QApplication.instance() or QApplication(["vetfluid"])
+    window = MainWindow()
+    window.resize(1440, 900)
+    window.show()
+    window.open_demo(demo_id)
+    deadline = time.monotonic() + 60
+    while window.session.plan is None:  # the plan is built on a later event-loop turn
+        if time.monotonic() > deadline:
+            raise RuntimeError(f"the demo {demo_id!r} made no plan within 60 s")
+        app.processEvents()
+        time.sleep(0.01)
+    written = []
+    for index in range(window.details.count()):
+        window.details.setCurrentIndex(index)
+        for _ in range(4):  # a plot lays out on the turn after it is shown, again with data
+            app.processEvents()
+        tab = window.details.tabText(index).replace("&", "").split(" ")[0].lower()
+        picture = folder / f"{demo_id}-{index}-{tab}.png"
+        if not window.grab().save(str(picture)):
+            raise OSError(f"Qt could not save {picture.name}")
+        written.append(picture)
+    plan_file = folder / f"{demo_id}.vfplan.json"
+    session = window.session
+    written.append(
+        write_request_file(
+            plan_file, session.plan.request, session.acknowledged,
+            acknowledged_for=session.acknowledged_for,
+        )
+    )  # fmt: skip
+    sheet = folder / f"{demo_id}-sheet.pdf"
+    printer = QPrinter(QPrinter.PrinterMode.HighResolution)
+    printer.setOutputFormat(QPrinter.OutputFormat.PdfFormat)
+    printer.setOutputFileName(str(owner_only_file(sheet)))
+    window.print_to(printer)  # File → Print's own path, to a PDF
+    written.append(sheet)
+    window.hide()  # not closed: closing would keep the demo as a draft in the temporary folder
+    return written
+
+
+def version_line() -> str:
+    """``vetfluid 0.1.0 (species data 1a2b3c4d5e6f)``: the program's version and the digest
+    of the species data it reads (:mod:`vetfluid.tables.data_version`)."""
+    from vetfluid import __version__
+    from vetfluid.tables.data_version import species_data_version
+
+    return f"vetfluid {__version__} (species data {species_data_version()})"
+
+
 USAGE = """\
-usage: vetfluid                       open the planning window
+usage: vetfluid [PLAN.vfplan.json]    open the planning window (with a saved plan file)
        vetfluid sheet PLAN.json -o sheet.pdf [--page a4|letter] [--patient-name NAME]
                                       print a plan's treatment sheet (no window needed)
        vetfluid chart --species ID -o chart.pdf [--drop-factor N] [--page a4|letter]
                                       print a species' weight-band chart (no window needed)
-       vetfluid --version             print the version
+       vetfluid self-check FOLDER [--demo ID]
+                                      check this installation: open the window offscreen
+                                      with a demo patient, write a picture of each view,
+                                      the plan file and the sheet PDF into FOLDER
+       vetfluid --version             print the version and the species data's version
        vetfluid --help                print this help
 
 Without a display, use `vetfluid sheet`, `vetfluid chart` or vetfluid-cli, or set
@@ -171,16 +298,20 @@ QT_QPA_PLATFORM=offscreen. `vetfluid sheet --help` and `vetfluid chart --help` s
 
 def main(argv: list[str] | None = None) -> int:
     arguments = sys.argv[1:] if argv is None else argv[1:]
-    commands = {"sheet": sheet_command, "chart": chart_command}
+    commands = {"sheet": sheet_command, "chart": chart_command, "self-check": self_check_command}
     if arguments and arguments[0] in commands:
         return commands[arguments[0]](arguments[1:])
     if arguments and arguments[0] in ("-h", "--help"):
         sys.stdout.write(USAGE)  # before Qt: help never opens a window
         return 0
     if arguments and arguments[0] == "--version":
-        from vetfluid import __version__
+        from vetfluid.common.errors import VetfluidError
 
-        sys.stdout.write(f"vetfluid {__version__}\n")
+        try:
+            sys.stdout.write(version_line() + "\n")
+        except (OSError, VetfluidError) as exc:  # an installation missing its species data
+            sys.stderr.write(f"vetfluid: {exc}\n")
+            return 1
         return 0
     from ui.common.platform_check import display_problem
 
@@ -191,15 +322,37 @@ def main(argv: list[str] | None = None) -> int:
     from PySide6.QtWidgets import QApplication
 
     from ui.common import errors
-    from ui.main_window import MainWindow
 
     errors.install()
     app = QApplication.instance() or QApplication(argv if argv is not None else sys.argv)
     app.setApplicationName("vetfluid")
     app.setOrganizationName("vetfluid")
+    plan_file = arguments[0] if arguments and not arguments[0].startswith("-") else None
+    window = open_window(plan_file)  # noqa: F841 (kept alive while the loop runs)
+    return app.exec()
+
+
+def open_window(plan_file: str | None = None):  # noqa: ANN201 — MainWindow, imported late
+    """The main window, shown. ``plan_file`` (``vetfluid PLAN.vfplan.json``, as a file
+    association starts it) opens once the planner is built and has offered the draft left
+    last time, so whatever is kept is asked about in the usual order (File → Open's path:
+    a file that cannot be read is a message, not a crash)."""
+    from pathlib import Path
+
+    from PySide6.QtCore import QTimer
+
+    from ui.main_window import MainWindow
+
     window = MainWindow()
     window.show()
-    return app.exec()
+    if plan_file is not None:
+
+        def open_plan_file() -> None:
+            window.build_planner()  # queues the draft offer first
+            QTimer.singleShot(0, lambda: window.read_request(Path(plan_file)))
+
+        QTimer.singleShot(0, open_plan_file)
+    return window
 
 
 if __name__ == "__main__":

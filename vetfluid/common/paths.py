@@ -2,12 +2,15 @@
 
 Resources (``species_data/``, ``icons/``) are found the same way from a checkout,
 an editable install and a built wheel (hatchling's ``force-include`` maps the
-folders to ``vetfluid/_resources/`` inside the wheel).
+folders to ``vetfluid/_resources/`` inside the wheel). A frozen bundle (a standalone
+build made by ``scripts/build_bundle.py``, no Python needed on the clinic's machine)
+carries them at the top of its own folder and looks nowhere else.
 """
 
 from __future__ import annotations
 
 import os
+import sys
 from pathlib import Path
 
 from vetfluid.common.errors import InputError
@@ -18,8 +21,23 @@ RESOURCE_FOLDERS = ("species_data", "icons")
 _PACKAGE_DIR = Path(__file__).resolve().parents[1]  # vetfluid/, above common/
 
 
+def bundle_root() -> Path | None:
+    """The folder a frozen vetfluid keeps its files in; None when Python runs the sources.
+
+    A freezer sets ``sys.frozen``. PyInstaller also sets ``sys._MEIPASS`` to the folder it
+    unpacked or laid out (in a one-folder bundle, ``_internal/`` beside the executable);
+    freezers without it keep their files beside the executable."""
+    if not getattr(sys, "frozen", False):
+        return None
+    unpacked = getattr(sys, "_MEIPASS", None)
+    return Path(unpacked) if unpacked else Path(sys.executable).resolve().parent
+
+
 def resource_dir(name: str) -> Path:
-    """The folder of a shipped resource kind (``species_data`` or ``icons``)."""
+    """The folder of a shipped resource kind (``species_data`` or ``icons``).
+
+    A frozen bundle looks only inside itself, so a bundle missing its data says so
+    instead of reading some other installation's values."""
     if name not in RESOURCE_FOLDERS:
         raise InputError(
             f"unknown resource folder {name!r}",
@@ -27,10 +45,16 @@ def resource_dir(name: str) -> Path:
             value=name,
             fix=f"use one of: {', '.join(RESOURCE_FOLDERS)}",
         )
-    for candidate in (_PACKAGE_DIR / "_resources" / name, _PACKAGE_DIR.parent / name):
+    root = bundle_root()
+    if root is not None:
+        candidates: tuple[Path, ...] = (root / name,)
+    else:
+        candidates = (_PACKAGE_DIR / "_resources" / name, _PACKAGE_DIR.parent / name)
+    for candidate in candidates:
         if candidate.is_dir():
             return candidate
-    raise FileNotFoundError(f"vetfluid's {name}/ folder is missing from this installation")
+    where = f"this bundle ({root})" if root is not None else "this installation"
+    raise FileNotFoundError(f"vetfluid's {name}/ folder is missing from {where}")
 
 
 def resource_file(folder: str, filename: str) -> Path:
