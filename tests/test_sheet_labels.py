@@ -346,3 +346,14 @@ def test_a_syringe_pump_gets_one_label_per_fill_the_schedule_loads():
         phase = data["phases"][x.phase_index]
         later = [f["hour"] for f in phase["syringe_fills"] if f["hour"] > x.start_h]
         assert x.discard_h == pytest.approx(min(later) if later else phase["end_h"])
+
+
+def test_a_long_or_broken_name_keeps_the_page_line_whole():
+    # Review finding: a 79-character name pushed the date off every page's head, and a line
+    # break in the name split it.
+    data = dog()
+    title = re.search(r"<title>(.*)</title>", sheet_html(data, patient={"name": "A" * 79}))
+    assert "Dog, 24 kg" in title.group(1) and date_text(DEMO_DAY) in title.group(1)
+    assert "A" * 40 not in title.group(1) and "…" in title.group(1)
+    broken = sheet_html(data, patient={"name": "Rex\nthe dog"})
+    assert "Rex the dog · Dog, 24 kg" in re.search(r"<title>(.*)</title>", broken).group(1)

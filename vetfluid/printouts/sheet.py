@@ -593,7 +593,7 @@ def sheet_html(
 
     end = max(p["end_h"] for p in data["phases"])
     hours = range(int(math.ceil(end)))
-    name = str(patient.get("name") or "").strip() or NAME_LINE
+    name = " ".join(str(patient.get("name") or "").split()) or NAME_LINE  # one line
     parts = [
         f"<html><head><title>{escape(page_line(data, name))}</title>"
         f"<style>{STYLE}</style></head><body>",
@@ -669,11 +669,19 @@ def sheet_html(
     return "".join(parts)
 
 
+# A page's head line keeps the species, weight and date in view: a longer name is cut.
+PAGE_NAME_CHARS = 40
+
+
 def page_line(data: dict, name: str) -> str:
     """What heads every printed page (the sheet's title): the patient's name (or a line to
-    write it on), species, weight and the date of hour 0 (or a line for it)."""
+    write it on; one line, cut at :data:`PAGE_NAME_CHARS`), species, weight and the date of
+    hour 0 (or a line for it)."""
     day = _start_date(data)
     when = date_text(day) if day is not None else DATE_LINE
+    name = " ".join(str(name or "").split())
+    if len(name) > PAGE_NAME_CHARS:
+        name = name[: PAGE_NAME_CHARS - 1].rstrip() + "…"
     return f"{name or NAME_LINE} · {data['species_name']}, {patient_weight_text(data)} · {when}"
 
 
