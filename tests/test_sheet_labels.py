@@ -357,3 +357,13 @@ def test_a_long_or_broken_name_keeps_the_page_line_whole():
     assert "A" * 40 not in title.group(1) and "…" in title.group(1)
     broken = sheet_html(data, patient={"name": "Rex\nthe dog"})
     assert "Rex the dog · Dog, 24 kg" in re.search(r"<title>(.*)</title>", broken).group(1)
+
+
+def test_each_soak_has_its_row_in_the_record():
+    # Review finding: soaks were on the schedule but had no row to record them in.
+    data = data_for(PlanRequest(species_id="hermanns_tortoise", weight_kg=0.8, route="epicoel",
+                                soaks_per_day=2, dose_interval_h=24))  # fmt: skip
+    soaks = [e["hour"] for e in data["schedule"] if e["phase"] == "soak"]
+    assert soaks
+    hourly = hourly_block(sheet_html(data))
+    assert hourly.count("soak (not counted as fluid given)") == len(soaks)

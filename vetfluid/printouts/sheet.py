@@ -343,13 +343,19 @@ def _day_heading(start: time | None, day: date | None, hour: float, last: date |
     return f"{date_text(moment.date())}" + (f" (+{days} d)" if days else "")
 
 
+def _soak_hours(data: dict) -> set[float]:
+    """The hours of the soaks the schedule records (an adjunct, not fluid given)."""
+    return {float(e["hour"]) for e in data.get("schedule") or () if e.get("phase") == "soak"}
+
+
 def _row_times(data: dict) -> list[float]:
     """The times of a divided plan's rows: each dose, each continuous phase's start (a
-    bolus) and each diuretic dose."""
+    bolus), each diuretic dose and each soak."""
     times = {h for p in data["phases"] if p["mode"] == "intermittent"
              for h in containers.dose_hours(p)}  # fmt: skip
     times |= {p["start_h"] for p in data["phases"] if p["mode"] == "continuous"}
     times |= {d["start_h"] for d in data.get("diuretics") or []}
+    times |= _soak_hours(data)
     return sorted(times)
 
 
@@ -378,7 +384,8 @@ def _hourly_rows(
         else:
             fluids_planned = _planned_at(data["phases"], h, start)
             given = _diuretics_at(data, h, clock)
-        planned = "; ".join([p for p in (fluids_planned,) if p != "—"] + given) or "—"
+        soak = ["soak (not counted as fluid given)"] if h in _soak_hours(data) else []
+        planned = "; ".join([p for p in (fluids_planned,) if p != "—"] + given + soak) or "—"
         rows.append([clock_time(start, h) or f"h {h:g}", f"{h:g}", planned, *blanks])
     return rows
 
