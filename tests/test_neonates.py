@@ -102,3 +102,13 @@ def test_a_neonate_flag_says_the_body_water_the_plan_used_and_an_older_age_disag
     newborn = build_plan(PlanRequest(species_id="dog", weight_kg=0.4, neonate=True))
     assert "80%" in next(f.message for f in newborn.findings if f.code == "NEONATE")
     assert "NEONATE_AGE_DISAGREES" not in codes(newborn)
+
+
+def test_a_neonates_age_at_an_adults_weight_is_a_warning():
+    # Review finding: a 20 kg dog with "1" typed as its age (a year meant) was planned with a
+    # neonate's body water and told to add 1152 mL/day. Macintire 2008: a neonate is in its
+    # first two weeks; a 1 kg chihuahua is the lightest adult dog on record here.
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, age_weeks=1))
+    assert codes(plan)["AGE_AND_WEIGHT_DISAGREE"] == "soft"
+    pup = build_plan(PlanRequest(species_id="dog", weight_kg=0.5, age_weeks=1))
+    assert "AGE_AND_WEIGHT_DISAGREE" not in codes(pup)

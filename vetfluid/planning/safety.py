@@ -1543,6 +1543,21 @@ def check_paediatric(
         return
     if age_weeks is None or age_weeks >= PAEDIATRIC_WEEKS:
         return
+    adult = ledger.value("body_weight_kg")
+    adult_low = adult.low if adult.low is not None else adult.number
+    if age_weeks < NEONATE_WEEKS and weight_kg >= adult_low:
+        # a neonate (Macintire 2008: the first two weeks) at an adult's weight: one of the
+        # two is a slip (weeks typed for years?), and the neonates' body water would make
+        # every sodium change look smaller
+        ledger.add(
+            "soft",
+            "AGE_AND_WEIGHT_DISAGREE",
+            f"An age of {weeks_text(age_weeks)} is a neonate's, but {q(weight_kg, 'kg')} is "
+            f"within the adults' range ({q(adult_low, 'kg')} and up); the plan uses the "
+            "neonates' body water.",
+            "Check the age (in weeks, not years) and the weight.",
+            "macintire2008",
+        )
     low, high = PAEDIATRIC_MAINTENANCE_ML_PER_KG_DAY
     given = maintenance_ml_per_day / weight_kg
     if given < low - 1e-9:
