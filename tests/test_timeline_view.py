@@ -260,3 +260,18 @@ def test_renders_a_picture(view, qtbot):
         picture.pixel(x, y) & 0xFFFFFF for x in range(picture.width()) for y in range(0, 700, 2)
     }  # fmt: skip
     assert wanted <= seen
+
+
+def test_the_hour_axis_ends_on_a_round_hour_and_holds_still_through_small_edits():
+    # Our display rule (no source): a plan ending at hour 84 or 90 is shown to hour 90 or 96
+    # (quarter days; whole days past four days), and an edit that moves the end within what
+    # is shown leaves the axis as it is; one that more than halves it fits it afresh.
+    from ui.course.timeline_view import hours_shown
+
+    assert hours_shown(36.0, None) == 36.0
+    assert hours_shown(43.0, None) == 48.0
+    assert hours_shown(90.0, None) == 90.0
+    assert hours_shown(100.0, None) == 120.0
+    assert hours_shown(84.0, 96.0) is None  # still fits and fills more than half
+    assert hours_shown(97.0, 96.0) == 120.0  # no longer fits
+    assert hours_shown(24.0, 96.0) == 24.0  # less than half of it: fitted afresh

@@ -58,6 +58,7 @@ from ui.course.timeline_view import (
     apply_palette,
     configure_pyqtgraph,
     curve,
+    hours_shown,
     nice_ceiling,
     pin_legend,
     show_grid,
@@ -823,11 +824,12 @@ class CourseView(QWidget):
             plot.setTitle(text, color=colour, size="9pt")
 
     def _set_x_range(self, end_h: float) -> None:
-        if self._x_end != end_h:
-            self._x_end = end_h
-            margin = X_MARGIN_FRACTION * end_h
-            self.volume_plot.setLimits(xMin=-margin, xMax=end_h + margin)
-            self.volume_plot.setXRange(-margin, end_h + margin, padding=0.0)
+        end = hours_shown(end_h, self._x_end)
+        if end is not None:
+            self._x_end = end
+            margin = X_MARGIN_FRACTION * end
+            self.volume_plot.setLimits(xMin=-margin, xMax=end + margin)
+            self.volume_plot.setXRange(-margin, end + margin, padding=0.0)
 
     def _fit_y(self, plot, series, *, zero: bool = False, headroom: float = 0.15,
                minimum_span: float = 0.0) -> None:  # noqa: ANN001 — PlotItem, arrays  # fmt: skip

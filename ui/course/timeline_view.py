@@ -64,6 +64,18 @@ def nice_ceiling(value: float) -> float:
     return 10.0 * power
 
 
+def hours_shown(end_h: float, shown_h: float | None) -> float | None:
+    """The last hour a plot's time axis shows for a course ending at ``end_h``: rounded up to
+    a whole quarter day (a whole day past four days), or None to keep ``shown_h`` while the
+    course still fits it and fills more than half of it — an edit that moves the plan's end
+    by an hour or two neither shifts every hour axis nor redraws its text."""
+    step = 6.0 if end_h <= 96.0 else 24.0
+    fresh = max(math.ceil(end_h / step - 1e-9) * step, step)
+    if shown_h is not None and end_h <= shown_h + 1e-9 and shown_h <= 2.0 * fresh:
+        return None
+    return fresh
+
+
 def pin_legend(graphics: pg.GraphicsLayoutWidget, legend: pg.LegendItem) -> None:
     """Keep a legend its own height, at the top of its cell (no spread-out rows)."""
     legend.updateSize()
@@ -425,11 +437,12 @@ class TimelineView(QWidget):
             )
             self._fit_from_zero(plot, top)
         self._fit_weight_range(tl, per_kg)
-        margin = X_MARGIN_FRACTION * tl.end_h
-        if self._x_end != tl.end_h:
-            self._x_end = tl.end_h
-            self.rate_plot.setLimits(xMin=-margin, xMax=tl.end_h + margin)
-            self.rate_plot.setXRange(-margin, tl.end_h + margin, padding=0.0)
+        end = hours_shown(tl.end_h, self._x_end)
+        if end is not None:
+            self._x_end = end
+            margin = X_MARGIN_FRACTION * end
+            self.rate_plot.setLimits(xMin=-margin, xMax=end + margin)
+            self.rate_plot.setXRange(-margin, end + margin, padding=0.0)
         self.setAccessibleDescription(self._summary(tl))
         self.show_hour(self.hover_hour if self.hover_hour is not None else 0.0)
 
