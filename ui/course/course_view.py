@@ -49,7 +49,7 @@ from PySide6.QtWidgets import (
 from ui.common.icons import SEVERITY_ICONS, SEVERITY_WORDS, icon
 from ui.common.qt_dates import from_qt, to_qt
 from ui.common.rows_model import Cell, RowsModel
-from ui.course.plot_items import DoseMarks, Markers, PlotLabel, thin, turning_mask
+from ui.course.plot_items import DoseMarks, Markers, PlotLabel, drawn_points
 from ui.course.timeline_view import (
     HourClockAxis,
     LineSample,
@@ -116,13 +116,6 @@ X_MARGIN_FRACTION = 0.01
 UNVERIFIED = " (unverified)"  # a recalled value (basis memory), short enough for a line
 NA_TITLE, K_TITLE = "Serum Na", "Serum K"
 URINE_TITLE, OSMOLALITY_TITLE = "Urine output", "Urine osmolality"
-
-
-def _corners(hours, *lines):  # noqa: ANN001, ANN202 — arrays
-    """The points to draw the lines on ``hours`` through: their corners, thinned to about
-    one every four pixels of a plot at the window's usual size (:func:`ui.course.plot_items.thin`;
-    a chord over a few pixels of these slow curves strays well under a pixel)."""
-    return thin(hours, turning_mask(hours, *lines), *lines, points=60)
 
 
 class CourseView(QWidget):
@@ -612,7 +605,7 @@ class CourseView(QWidget):
         full = [result.plasma_ml, result.interstitial_ml, result.intracellular_ml,
                 result.weight_kg, result.osmolality_mosm_per_kg, result.serum_na,
                 result.serum_k]  # fmt: skip
-        corners = _corners(result.hours, *[a for a in full if a is not None])  # one pass
+        corners = drawn_points(result.hours, *[a for a in full if a is not None])  # one pass
         self._draw_water(result, observations, plan, corners)
         self._draw_urine(result, observations, plan, threshold, corners)
         self._draw_potassium(result, observations, plan, corners)
@@ -683,7 +676,7 @@ class CourseView(QWidget):
         weight_kg = plan.request.weight_kg
         end_h = float(result.hours[-1])
         flow_h, flow = predicted_flow(result, weight_kg=weight_kg)
-        self.urine_curve.setData(flow_h, flow, _corners(flow_h, flow))
+        self.urine_curve.setData(flow_h, flow, drawn_points(flow_h, flow))
         starts, ends, measured = measured_flow(observations, plan_weight_kg=weight_kg)
         self.urine_points.setData(ends, measured, starts=starts)
         line = oliguria_line(self.session.table, plan.request.species_id,
@@ -702,7 +695,7 @@ class CourseView(QWidget):
         if line is None and id(self.urine_plot) in self._y_ranges:
             self.urine_note.setPos(end_h, self._y_ranges[id(self.urine_plot)][1])
         osm_h, osm = predicted_osmolality(result)
-        self.osm_curve.setData(osm_h, osm, _corners(osm_h, osm))
+        self.osm_curve.setData(osm_h, osm, drawn_points(osm_h, osm))
         seen_h, seen, not_read = measured_osmolality(
             observations, self.session.table, plan.request.species_id
         )

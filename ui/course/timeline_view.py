@@ -22,7 +22,7 @@ from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
-from ui.course.plot_items import Markers, PlotAxis, PlotLabel, TickGrid, Trace, turning_mask
+from ui.course.plot_items import Markers, PlotAxis, PlotLabel, TickGrid, Trace, drawn_points
 from vetfluid.common.formatting import format_number, format_quantity
 from vetfluid.common.units import weight_in_unit
 from vetfluid.course.timeline import Timeline, tick_labels, timeline, values_at
@@ -406,7 +406,7 @@ class TimelineView(QWidget):
             self.deficit_curve: tl.remaining_deficit_ml,
             self.weight_curve: tl.weight_kg * per_kg,
         }
-        corners = turning_mask(hours, *lines.values())  # one pass for the four lines
+        corners = drawn_points(hours, *lines.values())  # one pass for the four lines
         for item, values in lines.items():
             item.setData(hours, values, corners)
         ends = [0.0, tl.end_h]
