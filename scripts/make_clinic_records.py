@@ -8,6 +8,12 @@ weights, so each stored request and plan is one vetfluid really built, at its re
 
     .venv/bin/python scripts/make_clinic_records.py OUT.sqlite [--patients 50000]
         [--versions 500000] [--seed 17]
+    .venv/bin/python scripts/make_clinic_records.py CLINIC.sqlite --copy-to URL
+
+``--copy-to`` copies a file made so into an empty PostgreSQL database (the records URL,
+``postgresql://user@host:port/database``, its password in libpq's password file), for the
+benchmarks on the server (issue 21): the schema is vetfluid's own (:meth:`Records.open`),
+the rows go in with COPY, then the server's statistics are gathered (ANALYZE).
 
 The default is a busy hospital after some years: 50,000 patients, 500,000 plan versions
 (1 to 250 per patient, most only a few), a third of the versions with 1 to 4
@@ -207,13 +213,55 @@ def generate(path: Path, *, patients: int, versions: int, seed: int) -> dict[str
     }
 
 
+def copy_to_server(path: Path, url: str) -> dict[str, float]:
+    """Copy every patient, version and observation of the generated file ``path`` into the
+    empty server database ``url`` (schema built by vetfluid), then ANALYZE."""
+    import psycopg
+
+    started = time.perf_counter()
+    with Records.open(url=url) as records:  # the schema, as vetfluid builds it
+        address, holds = records.server, records.find_patients("", limit=1)
+    if holds:
+        raise SystemExit(f"{address.label} already holds records; this script copies into an "
+                         "empty database only")  # fmt: skip
+    source = sqlite3.connect(f"{path.resolve().as_uri()}?mode=ro", uri=True)
+    args = address.connect_args()
+    conninfo = (f"host={address.host} port={address.port} dbname={address.database} "
+                f"user={address.user}")  # fmt: skip
+    tables = {
+        "patients": "id, name, species_id, sex, birth_date, age_text, client_ref, notes, "
+        "created_at",
+        "plan_versions": "id, patient_id, version, request_json, plan_json, acknowledged_json, "
+        "author, created_at, program_version",
+        "observations": "id, plan_version_id, observation_json, recorded_at",
+    }
+    with psycopg.connect(conninfo, **args) as server, server.cursor() as cursor:
+        generated = source.execute("SELECT value FROM meta WHERE key = 'generated_by'").fetchone()
+        cursor.execute("INSERT INTO meta (key, value) VALUES ('generated_by', %s)", generated)
+        for table, columns in tables.items():
+            with cursor.copy(f"COPY {table} ({columns}) FROM STDIN") as copy:
+                for row in source.execute(f"SELECT {columns} FROM {table} ORDER BY id"):
+                    copy.write_row(row)
+            cursor.execute(f"SELECT setval(pg_get_serial_sequence('{table}', 'id'), "
+                           f"(SELECT max(id) FROM {table}))")  # fmt: skip
+        server.commit()
+        server.autocommit = True
+        cursor.execute("VACUUM ANALYZE")
+    source.close()
+    return {"seconds": time.perf_counter() - started}
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("path", type=Path)
     parser.add_argument("--patients", type=int, default=50_000)
     parser.add_argument("--versions", type=int, default=500_000)
     parser.add_argument("--seed", type=int, default=17)
+    parser.add_argument("--copy-to", metavar="URL", help="copy PATH into this server database")
     args = parser.parse_args(argv)
+    if args.copy_to:
+        print(json.dumps(copy_to_server(args.path, args.copy_to), indent=2))
+        return 0
     figures = generate(args.path, patients=args.patients, versions=args.versions, seed=args.seed)
     print(json.dumps(figures, indent=2))
     return 0

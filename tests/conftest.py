@@ -15,7 +15,97 @@ def vetfluid_home(tmp_path, monkeypatch):
     home = tmp_path / "vetfluid-home"
     home.mkdir()
     monkeypatch.setenv("VETFLUID_HOME", str(home))
+    # the records in the test's own SQLite file unless a test chooses a server
+    monkeypatch.delenv("VETFLUID_RECORDS_URL", raising=False)
+    monkeypatch.setenv("VETFLUID_WORKSTATION", "test-workstation")
     return home
+
+
+# ---- a PostgreSQL server for the records tests (issue 21) -----------------------------------
+# scripts/records_server.sh starts one and prints these; .ci/run sets
+# VETFLUID_TEST_POSTGRES_REQUIRED=1 as well, so that a missing server fails the run instead
+# of skipping every PostgreSQL test.
+POSTGRES_URL = os.environ.get("VETFLUID_TEST_POSTGRES_URL", "")
+POSTGRES_PASSFILE = os.environ.get("VETFLUID_TEST_POSTGRES_PASSFILE", "")
+POSTGRES_REQUIRED = os.environ.get("VETFLUID_TEST_POSTGRES_REQUIRED") == "1"
+ENGINES = ("sqlite", "postgresql")
+
+
+def _admin_connection():  # noqa: ANN202
+    import psycopg
+
+    return psycopg.connect(POSTGRES_URL, passfile=POSTGRES_PASSFILE, autocommit=True,
+                           connect_timeout=5)  # fmt: skip
+
+
+@pytest.fixture()
+def postgres_url(vetfluid_home, monkeypatch):
+    """A new, empty database on the test server, as a records URL without a password; the
+    password is in the user data folder's owner-only records.pgpass, as the window keeps
+    it. Dropped after the test. No server: a skip, or a failure when CI said there is one."""
+    import uuid
+
+    from sqlalchemy.engine import make_url
+
+    from vetfluid.records.location import server_address, store_password
+
+    if not POSTGRES_URL:
+        message = ("no PostgreSQL server for the records tests: start one with "
+                   "scripts/records_server.sh and export what it prints")  # fmt: skip
+        if POSTGRES_REQUIRED:
+            pytest.fail(message)
+        pytest.skip(message)
+    name = f"vf_{uuid.uuid4().hex[:16]}"
+    with _admin_connection() as admin:
+        admin.execute(f"CREATE DATABASE {name}")
+    url = make_url(POSTGRES_URL).set(database=name).render_as_string(hide_password=False)
+    password = _password_for(make_url(url))
+    store_password(server_address(url), password)
+    yield url
+    with _admin_connection() as admin:
+        admin.execute(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)")
+
+
+def _password_for(url) -> str:  # noqa: ANN001
+    """The test server's password, from the pgpass file scripts/records_server.sh wrote."""
+    from pathlib import Path
+
+    for line in Path(POSTGRES_PASSFILE).read_text(encoding="utf-8").splitlines():
+        host, port, _database, user, password = line.split(":", 4)
+        if (host, int(port), user) == (url.host, url.port, url.username):
+            return password
+    raise AssertionError(f"no password for {url.username}@{url.host} in {POSTGRES_PASSFILE}")
+
+
+@pytest.fixture(params=ENGINES)
+def engine(request):
+    """Each engine in turn: "sqlite" or "postgresql" (the server's database then ready)."""
+    if request.param == "postgresql":
+        request.getfixturevalue("postgres_url")
+    return request.param
+
+
+class RecordsPlace:
+    """Where a test's records are (``where``: the SQLite file, or the server's URL);
+    calling it opens them."""
+
+    def __init__(self, where: str) -> None:
+        self.where = where
+
+    def __call__(self):  # noqa: ANN204
+        from vetfluid.records.store import Records
+
+        if "://" in self.where:
+            return Records.open(url=self.where)
+        return Records.open(self.where)
+
+
+@pytest.fixture()
+def open_records(engine, tmp_path, request):
+    """Open the test's records, on the engine of the run: the same records each call."""
+    if engine == "postgresql":
+        return RecordsPlace(request.getfixturevalue("postgres_url"))
+    return RecordsPlace(str(tmp_path / "records.sqlite"))
 
 
 @pytest.fixture(autouse=True)

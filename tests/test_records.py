@@ -1,4 +1,8 @@
-"""Patient records: versions never overwritten, nothing lost on a crash, clear refusals."""
+"""Patient records: versions never overwritten, nothing lost on a crash, clear refusals.
+
+The tests taking ``records`` or ``open_records`` run on both engines: the SQLite file and a
+PostgreSQL server (``tests/conftest.py``; skipped without a server, a failure in CI, which
+starts one). The others are about the SQLite file itself (permissions, pages, pragmas)."""
 
 from __future__ import annotations
 
@@ -20,12 +24,29 @@ ROOT = Path(__file__).resolve().parents[1]
 
 
 @pytest.fixture()
-def records(tmp_path):
+def records(open_records):
+    with open_records() as db:
+        yield db
+
+
+@pytest.fixture()
+def sqlite_records(tmp_path):
     with Records.open(tmp_path / "records.sqlite") as db:
         yield db
 
 
-def test_new_file_is_owner_only_wal_with_foreign_keys(records):
+def raw(records: Records, sql: str, **params) -> list:
+    """A statement straight to the database (as another program, or damage, would write),
+    in its own transaction; the rows it returns."""
+    from sqlalchemy import text
+
+    with records._engine.begin() as conn:
+        result = conn.execute(text(sql), params)
+        return result.fetchall() if result.returns_rows else []
+
+
+def test_new_file_is_owner_only_wal_with_foreign_keys(sqlite_records):
+    records = sqlite_records
     mode = stat.S_IMODE(os.stat(records.path).st_mode)
     assert mode == 0o600
     with sqlite3.connect(records.path) as raw:
@@ -43,10 +64,13 @@ def test_versions_are_added_never_overwritten(records):
     assert versions[0].request["species_id"] == "dog" and versions[0].author == "AB"
     assert versions[1].acknowledged == {"X": "why"}
     assert versions[0].plan["total_ml_first_24h"] == pytest.approx(plan.total_ml_first_24h)
-    with pytest.raises(sqlite3.DatabaseError, match="immutable"):
-        records._db.execute("UPDATE plan_versions SET author = 'Z'")
-    with pytest.raises(sqlite3.DatabaseError, match="immutable"):
-        records._db.execute("DELETE FROM plan_versions")
+    from sqlalchemy.exc import DBAPIError
+
+    with pytest.raises(DBAPIError, match="immutable"):
+        raw(records, "UPDATE plan_versions SET author = 'Z'")
+    with pytest.raises(DBAPIError, match="immutable"):
+        raw(records, "DELETE FROM plan_versions")
+    assert [v.author for v in records.versions(pid)] == ["AB", ""]
 
 
 def test_observations_follow_the_screen_and_keep_their_recording_time(records):
@@ -56,13 +80,13 @@ def test_observations_follow_the_screen_and_keep_their_recording_time(records):
         patient_id=pid, plan=plan, acknowledged={}, observations=[{"hour": 2.0, "weight_kg": 24.4}]
     )
     vid = records.versions(pid)[0].id
-    first_recorded = records._db.execute("SELECT recorded_at FROM observations").fetchone()[0]
+    [(first_recorded,)] = raw(records, "SELECT recorded_at FROM observations")
     later = [{"hour": 2.0, "weight_kg": 24.4}, {"hour": 6.0, "weight_kg": 24.9}]
     assert records.keep_observations(version_id=vid, observations=later)
     assert records.observations(vid) == later
     # nothing changed, nothing written
     assert not records.keep_observations(version_id=vid, observations=later)
-    times = [r[0] for r in records._db.execute("SELECT recorded_at FROM observations ORDER BY id")]
+    times = [r[0] for r in raw(records, "SELECT recorded_at FROM observations ORDER BY id")]
     assert times[0] == first_recorded
     # the nurse removed the first
     assert records.keep_observations(version_id=vid, observations=later[1:])
@@ -75,11 +99,8 @@ def test_a_damaged_observation_row_is_returned_as_text_not_a_crash(records):
                          acknowledged={})  # fmt: skip
     vid = records.versions(pid)[0].id
     records.add_observation(version_id=vid, observation={"hour": 1.0, "weight_kg": 24.2})
-    records._db.execute(
-        "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
-        " VALUES (?, '{\"hour\": 2', 'now')",
-        (vid,),
-    )
+    raw(records, "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
+        " VALUES (:vid, '{\"hour\": 2', 'now')", vid=vid)  # fmt: skip
     assert records.observations(vid) == [{"hour": 1.0, "weight_kg": 24.2}, '{"hour": 2']
     # nobody saw the damaged row, so nobody removed it: keeping what is on screen leaves it
     records.keep_observations(version_id=vid, observations=[{"hour": 1, "weight_kg": 24.2}])
@@ -117,11 +138,10 @@ def test_a_patient_of_a_species_no_longer_in_the_table_is_found_by_its_id(record
     assert [p.name for p in records.find_patients("mammal")] == []
 
 
-def test_draft_is_kept_and_offered_back(tmp_path):
-    path = tmp_path / "records.sqlite"
-    with Records.open(path) as db:
+def test_draft_is_kept_and_offered_back(open_records):
+    with open_records() as db:
         db.save_draft({"request": {"species_id": "cat"}, "acknowledged": {}})
-    with Records.open(path) as db:
+    with open_records() as db:
         assert db.draft()["request"]["species_id"] == "cat"
         db.clear_draft()
         assert db.draft() is None
@@ -183,7 +203,8 @@ def test_a_read_only_folder_is_a_clear_message(tmp_path, monkeypatch):
     assert not (tmp_path / "records.sqlite").exists()
 
 
-def test_a_full_disk_is_a_clear_message_and_keeps_what_was_saved(records):
+def test_a_full_disk_is_a_clear_message_and_keeps_what_was_saved(sqlite_records):
+    records = sqlite_records
     pid = records.add_patient(name="Rex", species_id="dog")
     plan = build_plan(DEMOS["dehydrated_dog"].request)
     records.save_version(patient_id=pid, plan=plan, acknowledged={})
@@ -239,10 +260,8 @@ def test_compare_gives_divided_doses_as_drawn_up():
 def _store_draft_text(records, text: str) -> None:
     """A draft row holding ``text`` as it is, as a disk cut short or another program
     might leave it."""
-    records._write(
-        "INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
-        (text, "2026-12-04T06:00:00+00:00"),
-    )
+    raw(records, "INSERT INTO draft (id, content_json, saved_at) VALUES (1, :text, :at)",
+        text=text, at="2026-12-04T06:00:00+00:00")  # fmt: skip
 
 
 @pytest.mark.parametrize("stored", ['{"request": {"species_id": "dog"', "[1, 2]", "null"])
@@ -330,21 +349,18 @@ def test_a_set_aside_copy_that_cannot_be_written_leaves_no_half_file(tmp_path, m
 
 
 def test_merging_kept_observations_adds_what_is_missing_and_applies_the_users_removals(
-    tmp_path,
+    open_records,
 ):
     """Kept in a draft while the version was locked: A was there, the user removed X and
     recorded B; meanwhile C reached the version. Merged: A, C and B; X gone; an
     unreadable stored row untouched."""
     a, x = {"hour": 1.0, "weight_kg": 24.0}, {"hour": 1.5, "weight_kg": 42.0}
     b, c = {"hour": 2.0, "weight_kg": 24.2}, {"hour": 3.0, "heart_rate_per_min": 120}
-    with Records.open(tmp_path / "records.sqlite") as records:
+    with open_records() as records:
         version = _version_of_a_dog(records)
         records.keep_observations(version_id=version, observations=[a, x, c])
-        records._write(
-            "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
-            " VALUES (?, ?, ?)",
-            (version, "{cut", "2026-12-04T06:00:00+00:00"),
-        )
+        raw(records, "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
+            " VALUES (:version, '{cut', '2026-12-04T06:00:00+00:00')", version=version)  # fmt: skip
         added = records.merge_observations(version_id=version, observations=[a, b],
                                            based_on=[a, x])  # fmt: skip
         assert added == 1
@@ -362,12 +378,12 @@ def _version_of_a_dog(records) -> int:
     return records.versions(pid)[0].id
 
 
-def test_merging_leaves_a_removal_made_on_the_version_since(tmp_path):
+def test_merging_leaves_a_removal_made_on_the_version_since(open_records):
     """A on the version, B kept in the draft ([A, B], held [A]); A then removed from the
     reopened version: B arrives, A stays removed; B typed again meanwhile is not doubled;
     an unreadable item among the kept ones is stored as it is."""
     a, b = {"hour": 1.0, "weight_kg": 24.0}, {"hour": 2.0, "weight_kg": 24.2}
-    with Records.open(tmp_path / "records.sqlite") as records:
+    with open_records() as records:
         version = _version_of_a_dog(records)
         records.keep_observations(version_id=version, observations=[])  # A removed since
         assert records.merge_observations(version_id=version, observations=[a, b],
@@ -379,10 +395,10 @@ def test_merging_leaves_a_removal_made_on_the_version_since(tmp_path):
         assert records.observations(version) == [b, "{newer"]
 
 
-def test_a_failed_read_of_observations_is_a_records_error(tmp_path):
-    with Records.open(tmp_path / "records.sqlite") as records:
+def test_a_failed_read_of_observations_is_a_records_error(open_records):
+    with open_records() as records:
         version = _version_of_a_dog(records)
-        records._db.execute("DROP TABLE observations")  # as a damaged file would read
+        raw(records, "DROP TABLE observations")  # as a damaged database would read
         with pytest.raises(RecordsError, match="could not read the observations"):
             records.observations(version)
 
@@ -454,11 +470,56 @@ def test_a_missing_or_malformed_schema_version_is_refused_clearly(tmp_path, stor
 
 
 # ---- schema 2: the indexes a clinic's years of records need (issue 17) --------------------
+# Schema 1 exactly as vetfluid wrote it (vetfluid/records/store.py before issue 21): old
+# files are made with it, so that they stay what users have on disk whatever the code
+# now builds.
+_SCHEMA_1 = """
+CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
+CREATE TABLE patients (
+    id INTEGER PRIMARY KEY,
+    name TEXT NOT NULL,
+    species_id TEXT NOT NULL,
+    sex TEXT NOT NULL DEFAULT '',
+    birth_date TEXT NOT NULL DEFAULT '',
+    age_text TEXT NOT NULL DEFAULT '',
+    client_ref TEXT NOT NULL DEFAULT '',
+    notes TEXT NOT NULL DEFAULT '',
+    created_at TEXT NOT NULL
+);
+CREATE TABLE plan_versions (
+    id INTEGER PRIMARY KEY,
+    patient_id INTEGER NOT NULL REFERENCES patients(id),
+    version INTEGER NOT NULL,
+    request_json TEXT NOT NULL,
+    plan_json TEXT NOT NULL,
+    acknowledged_json TEXT NOT NULL,
+    author TEXT NOT NULL DEFAULT '',
+    created_at TEXT NOT NULL,
+    program_version TEXT NOT NULL,
+    UNIQUE (patient_id, version)
+);
+CREATE TRIGGER plan_versions_no_update BEFORE UPDATE ON plan_versions
+BEGIN SELECT RAISE(ABORT, 'plan versions are immutable'); END;
+CREATE TRIGGER plan_versions_no_delete BEFORE DELETE ON plan_versions
+BEGIN SELECT RAISE(ABORT, 'plan versions are immutable'); END;
+CREATE TABLE observations (
+    id INTEGER PRIMARY KEY,
+    plan_version_id INTEGER NOT NULL REFERENCES plan_versions(id),
+    observation_json TEXT NOT NULL,
+    recorded_at TEXT NOT NULL
+);
+CREATE TABLE draft (
+    id INTEGER PRIMARY KEY CHECK (id = 1),
+    content_json TEXT NOT NULL,
+    saved_at TEXT NOT NULL
+);
+CREATE INDEX patients_name ON patients(name);
+"""
+
+
 def _schema_1_file(path: Path) -> None:
     """A records file exactly as vetfluid wrote schema 1, with one patient, one version
     and one observation in it."""
-    from vetfluid.records.store import _SCHEMA_1
-
     plan = build_plan(DEMOS["renal_cat"].request)
     from vetfluid.records.serialize import plan_dict, request_to_dict
 
@@ -498,6 +559,11 @@ def test_a_schema_1_file_is_migrated_keeping_everything_and_lookups_use_indexes(
         assert stored == (str(SCHEMA_VERSION),) and SCHEMA_VERSION >= 2
         [version] = db.versions(1)
         assert version.plan["species_id"] == "cat"
+        assert version.workstation == ""  # schema 3: saved before workstations were kept
+        # a version saved now says where from (tests/conftest.py names this workstation)
+        plan = build_plan(DEMOS["renal_cat"].request)
+        assert db.save_version(patient_id=1, plan=plan, acknowledged={}, author="TM") == 2
+        assert db.versions(1)[-1].workstation == "test-workstation"
         assert db.observations(version.id) == [{"hour": 2.0, "weight_kg": 4.3}]
         observations = _plan_of(db, "SELECT observation_json FROM observations"
                                 " WHERE plan_version_id = ? ORDER BY id")  # fmt: skip

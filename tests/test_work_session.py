@@ -226,6 +226,8 @@ class Clerk:
         if reply.open is not None:
             self.desk.open(reply.open)
             self.on_opened(reply.open)
+        for observation in reply.refreshed:  # recorded on another workstation
+            self.desk.add_observation(observation)
         return reply
 
     def save(self, *, with_observations: bool = True) -> int | None:
@@ -1375,3 +1377,103 @@ def test_escape_on_the_offer_keeps_the_work_and_no_says_it_discards(folder, aske
     assert question.asked is asked
     assert question.escape is Answer.YES
     assert "No discards" in question.text
+
+
+# ---- several workstations on the same records (issue 21) -----------------------------------------
+# On both engines: the SQLite file and a PostgreSQL server (tests/conftest.py).
+@pytest.fixture()
+def start_on(open_records):
+    """Open a window on the test's records, on the engine of the run (as :func:`start`);
+    each one's records are closed after the test (a server connection left open warns)."""
+    clerks: list[Clerk] = []
+
+    def start_one() -> Clerk:
+        desk = Desk()
+        desk.work = WorkSession(desk, open_records())
+        desk.recompute()
+        clerk = Clerk(desk, {})
+        clerk.follow(desk.work.look_at_draft())
+        clerks.append(clerk)
+        return clerk
+
+    yield start_one
+    for clerk in clerks:
+        if clerk.work.records is not None:
+            clerk.work.records.close()
+
+
+@pytest.fixture()
+def two_workstations(start_on):
+    """The ward saved Rex's version 1; the ICU opened it: (ward, icu, patient)."""
+    ward = start_on()
+    saved_dog(ward)
+    pid = ward.work.patient_id
+    icu = start_on()
+    icu.follow(icu.work.open_version(pid, 1))
+    assert icu.work.state is State.ON_VERSION
+    return ward, icu, pid
+
+
+def test_a_save_after_another_workstation_saved_is_kept_and_told_with_whom_to_compare(
+    two_workstations, open_records
+):
+    ward, icu, pid = two_workstations
+    ward.desk.update(dehydration_percent=6.0)
+    assert ward.save() == 2  # the ward knew of every version: nothing to tell
+    assert not any("Meanwhile" in text for text in ward.shown)
+    icu.desk.update(dehydration_percent=8.0)
+    reply = icu.work.save_version(author="CK")
+    assert reply.saved_number == 3
+    [told] = [m for m in reply.messages if "Meanwhile" in m.text]
+    assert "version 2 by AB at test-workstation" in told.text and "Both are kept" in told.text
+    assert told.compare == (pid, 2, 3)
+    with open_records() as db:
+        assert [(v.version, v.author) for v in db.versions(pid)] == [(1, "AB"), (2, "AB"),
+                                                                     (3, "CK")]  # fmt: skip
+    icu.desk.update(dehydration_percent=9.0)
+    again = icu.work.save_version(author="CK")  # it knows of version 3 now: nothing to tell
+    assert again.saved_number == 4 and not any("Meanwhile" in m.text for m in again.messages)
+
+
+def test_an_observation_from_another_workstation_is_never_removed_by_this_ones_autosave(
+    two_workstations, open_records
+):
+    """Both have version 1 open; the ward records A, the ICU (not yet refreshed) records B:
+    the version keeps A and B (the ICU's screen made the version what it showed before)."""
+    ward, icu, _pid = two_workstations
+    row = ward.work.saved.row_id
+    a, b = Observation(hour=1.0, weight_kg=24.1), Observation(hour=2.0, weight_kg=24.3)
+    ward.desk.add_observation(a)
+    ward.follow(ward.work.autosave())
+    icu.desk.add_observation(b)
+    icu.follow(icu.work.autosave())
+    with open_records() as db:
+        assert db.observations(row) == [observation_record(a), observation_record(b)]
+    assert icu.work.state is State.ON_VERSION
+
+
+def test_refreshing_brings_what_another_workstation_recorded_onto_the_screen(two_workstations):
+    ward, icu, _pid = two_workstations
+    a, b = Observation(hour=1.0, weight_kg=24.1), Observation(hour=2.0, weight_kg=24.3)
+    ward.desk.add_observation(a)
+    ward.follow(ward.work.autosave())
+    reply = icu.follow(icu.work.refresh())
+    assert reply.refreshed == (a,) and "another workstation" in reply.status
+    assert icu.desk.observations == [a] and icu.work.state is State.ON_VERSION
+    assert icu.follow(icu.work.refresh()).refreshed == ()  # nothing new: nothing added
+    icu.desk.add_observation(b)  # waits for the autosave: written first, then looked at
+    reply = ward.follow(ward.work.refresh())
+    assert reply.refreshed == ()  # not yet written by the ICU
+    icu.follow(icu.work.refresh())
+    assert ward.follow(ward.work.refresh()).refreshed == (b,)
+    assert ward.desk.observations == [a, b]
+
+
+def test_refreshing_unsaved_work_changes_nothing(two_workstations):
+    ward, icu, _pid = two_workstations
+    ward.desk.add_observation(Observation(hour=1.0, weight_kg=24.1))
+    ward.follow(ward.work.autosave())
+    icu.desk.update(dehydration_percent=5.0)  # edited: no longer the saved version
+    reply = icu.follow(icu.work.refresh())
+    assert reply.refreshed == () and icu.work.state is State.UNSAVED
+    assert icu.desk.observations == []

@@ -237,6 +237,11 @@ class MainWindow(QMainWindow):
                          tip="Read a plan request from a file (from another workstation)")
         )  # fmt: skip
         self.demo_menu = file_menu.addMenu("&Demo patients")  # filled with the planner
+        file_menu.addAction(
+            self._action("&Records settings…", self.records_settings,
+                         tip="Where the records are kept (this computer or the clinic's "
+                             "server), this workstation's name and your initials")
+        )  # fmt: skip
         file_menu.addSeparator()
         file_menu.addAction(
             self._action("&Print plan…", self.print_plan, QKeySequence.StandardKey.Print)
@@ -302,6 +307,14 @@ class MainWindow(QMainWindow):
         return self.keeper.save_version(
             name=name, client_ref=client_ref, author=author, with_observations=with_observations
         )
+
+    def records_settings(self) -> bool:
+        """The records settings dialog; True when they were saved."""
+        from ui.records.records_settings import RecordsSettingsDialog
+
+        dialog = RecordsSettingsDialog(self)
+        self.records_settings_dialog = dialog  # reachable while open (tests)
+        return bool(dialog.exec())
 
     def open_patient(self) -> None:
         """Find a patient in the records and open one of its saved versions."""

@@ -73,7 +73,7 @@ def _records_words(window: QMainWindow) -> str:
     keeper = getattr(window, "keeper", None)
     records = keeper.records if keeper is not None else None
     if records is not None:
-        return f"Patient records are kept in <b>{escape(str(records.path))}</b>."
+        return f"Patient records are kept in <b>{escape(records.where)}</b>."
     problem = keeper.work.problem if keeper is not None else ""
     path = user_data_dir() / DATABASE_NAME
     why = f" ({escape(problem)})" if problem else ""

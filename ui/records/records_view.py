@@ -1,7 +1,7 @@
 """Patients in the records database: find one, see its plan versions, open one.
 
-The records themselves (SQLite, immutable versions) are in ``vetfluid/records/store.py``;
-this dialog only lists and chooses.
+The records themselves (SQLite or a clinic's PostgreSQL server, immutable versions) are in
+``vetfluid/records/store.py``; this dialog only lists and chooses.
 """
 
 from __future__ import annotations
@@ -119,9 +119,10 @@ class OpenPatientDialog(QDialog):
             return
         for version in reversed(self.records.versions(item.data(256))):
             plan = version.plan
+            where = f" at {version.workstation}" if version.workstation else ""
             text = (
-                f"v{version.version} · {version.created_at} · {version.author or 'no initials'} · "
-                f"{patient_weight_text(plan)} · {plan['dehydration_percent']:g} % · "
+                f"v{version.version} · {version.created_at} · {version.author or 'no initials'}"
+                f"{where} · {patient_weight_text(plan)} · {plan['dehydration_percent']:g} % · "
                 f"first 24 h {q(plan['total_ml_first_24h'], 'mL')}"
             )
             entry = QListWidgetItem(text)

@@ -12,9 +12,10 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import TYPE_CHECKING
 
-from PySide6.QtCore import QObject, QTimer
+from PySide6.QtCore import QEvent, QObject, QTimer
 from PySide6.QtWidgets import QMainWindow, QMessageBox
 
+from vetfluid.common.errors import VetfluidError
 from vetfluid.records.work_session import (
     NO_RECORDS_FILE,
     Answer,
@@ -78,6 +79,13 @@ class WorkKeeper(QObject):
             changed.connect(lambda *_: self.follow(self.work.changed()))
         if self.work.problem:
             self._status(f"Records unavailable: {self.work.problem}")
+        # back in focus: what other workstations recorded on the version on screen
+        window.installEventFilter(self)
+
+    def eventFilter(self, watched, event) -> bool:  # noqa: N802, ANN001 (Qt override)
+        if watched is self.window and event.type() == QEvent.Type.WindowActivate:
+            self.refresh()
+        return False
 
     @property
     def records(self) -> Records | None:
@@ -108,6 +116,8 @@ class WorkKeeper(QObject):
             reply = self.work.answer(self.ask(reply.question))
         if reply.open is not None:
             self._open(reply.open)
+        for observation in reply.refreshed:  # recorded on another workstation
+            self.session.add_observation(observation)
         return reply
 
     def ask(self, question: Question) -> Answer:
@@ -140,8 +150,33 @@ class WorkKeeper(QObject):
         return _ANSWERS.get(pressed, question.escape)
 
     def _show(self, message: Message) -> None:
+        if message.compare is not None:
+            self._offer_to_compare(message)
+            return
         show = QMessageBox.warning if message.warning else QMessageBox.information
         show(self.window, "vetfluid", message.text)
+
+    def _offer_to_compare(self, message: Message) -> None:
+        """Another version was saved meanwhile: say so, with a button that shows the two
+        side by side."""
+        from ui.records.records_view import CompareDialog
+
+        box = QMessageBox(QMessageBox.Icon.Information, "vetfluid", message.text,
+                          parent=self.window)  # fmt: skip
+        box.addButton(QMessageBox.StandardButton.Yes).setText("Compare them")
+        box.addButton(QMessageBox.StandardButton.Ok)
+        box.setEscapeButton(QMessageBox.StandardButton.Ok)
+        if QMessageBox.StandardButton(box.exec()) is not QMessageBox.StandardButton.Yes:
+            return
+        patient_id, theirs, ours = message.compare
+        try:
+            by_number = {v.version: v for v in self.records.versions(patient_id)}
+            dialog = CompareDialog(by_number[theirs], by_number[ours], self.window)
+        except (VetfluidError, KeyError) as exc:
+            self._show(Message(text=f"These versions cannot be compared: {exc}"))
+            return
+        dialog.show()
+        self.compared = dialog  # kept open (and reachable by tests) after this returns
 
     def _status(self, text: str) -> None:
         self.window.statusBar().showMessage(text)
@@ -163,6 +198,11 @@ class WorkKeeper(QObject):
         self.timer.stop()
         self.longest_wait.stop()
         self.follow(self.work.autosave())
+
+    def refresh(self) -> None:
+        """Add what other workstations recorded on the saved version on screen."""
+        if self.work.records is not None:
+            self.follow(self.work.refresh())
 
     def offer_draft(self) -> bool:
         """Offer back what the records' draft holds; True when something was opened."""
@@ -201,11 +241,13 @@ class WorkKeeper(QObject):
         from ui.records.records_view import NewPatientDialog
 
         patient = None if name is None else NewPatient(name=name, client_ref=client_ref)
+        author = author or self._initials()
         reply = self.work.save_version(
             patient=patient, author=author, with_observations=with_observations
         )
         if reply.ask_patient:
             dialog = NewPatientDialog(self.session.plan.request.species_id, self.window)
+            dialog.initials.setText(author)
             if not dialog.exec() or not dialog.name.text().strip():
                 return None
             reply = self.work.save_version(
@@ -214,6 +256,17 @@ class WorkKeeper(QObject):
             )  # fmt: skip
         self.follow(reply)
         return reply.saved_number
+
+    @staticmethod
+    def _initials() -> str:
+        """The clinician's initials from the records settings ("" when none are set)."""
+        from vetfluid.common.errors import InputError
+        from vetfluid.records.location import load_settings
+
+        try:
+            return load_settings().initials
+        except InputError:
+            return ""
 
     def close(self) -> bool:
         """Whether the window may close (asked first when work would be lost)."""

@@ -1,108 +1,110 @@
-"""Patient records that never lose data: SQLite in the user data folder.
+"""Patient records that never lose data: SQLite in the user data folder, or a clinic's
+PostgreSQL server shared by its workstations (issue 21), through one toolkit.
 
-* WAL journal, foreign keys on, ``synchronous=FULL``, one transaction per save, so a
-  crash or power cut loses at most the save in progress, never an earlier one.
-* Created in one transaction: a file with no tables at all (an empty file, or the one
-  page ``PRAGMA journal_mode = WAL`` writes first, as a kill during creation leaves it)
-  holds nothing of the user's and is finished as a new file, never refused for good.
-* A schema version in ``meta`` with forward migrations (new files are built as schema 1
-  and migrated in the same transaction, so every file has one layout); a file from a
+* One set of tables and statements for both engines (SQLAlchemy Core,
+  :mod:`vetfluid.records.schema`); the engine is chosen by one setting
+  (:mod:`vetfluid.records.location`: ``VETFLUID_RECORDS_URL`` or the window's Records
+  settings); without it, the SQLite file in the user data folder.
+* SQLite: WAL journal, foreign keys on, ``synchronous=FULL``, one ``BEGIN IMMEDIATE``
+  transaction per save, so a crash or power cut loses at most the save in progress.
+  PostgreSQL: one transaction per save, committed durably by the server.
+* Several workstations at once: a new version's number is taken under a lock on its
+  patient's row (``SELECT … FOR UPDATE``; on SQLite the write lock of ``BEGIN
+  IMMEDIATE``), as the highest number so far plus one, in the transaction that inserts
+  it; two saves of the same patient are thus one after the other: numbers never collide,
+  never skip, and nothing is overwritten. A save that knew of the patient's versions up to
+  N (``known_latest``) is told which were saved meanwhile, by whom and where.
+* Created in one transaction: a database with no tables at all (an empty file, or the one
+  page ``PRAGMA journal_mode = WAL`` writes first, as a kill during creation leaves it; an
+  empty server database) holds nothing of the user's and is finished as a new one.
+* A schema version in ``meta`` with forward migrations (new databases are built as schema
+  1 and migrated in the same transaction, so every database has one layout); one from a
   newer vetfluid, one whose schema version is missing or not a version, one that is not
   a vetfluid database or is damaged, is refused with a clear message and left untouched.
 * Opening stays fast at a clinic's size (50,000 patients, 500,000 versions,
-  ``scripts/make_clinic_records.py``, ``tests/test_records_scale_benchmark.py``): it
+  ``scripts/make_clinic_records.py``, ``tests/test_records_scale_benchmark.py``): SQLite
   checks the small tables read at once (``meta``, ``patients``, ``draft``) with
-  ``PRAGMA quick_check``; the plan versions, gigabytes by then, are checked by SQLite
-  as each is read (a damaged page is a RecordsError then), in full by :meth:`restore`.
+  ``PRAGMA quick_check``; the plan versions, gigabytes by then, are checked as each is
+  read (a damaged page is a RecordsError then), in full by :meth:`restore`.
 * Plans are immutable versions (triggers refuse UPDATE and DELETE); saving always
   adds a version with the request, the computed plan, the findings, the reasons
-  given for acknowledged warnings, the author's initials, a timestamp and the
-  program version.
-* The file is created readable by its owner only, before SQLite writes its first byte
-  (SQLite gives its ``-wal`` and ``-shm`` files the same mode); so are backups and
+  given for acknowledged warnings, the author's initials, the workstation, a timestamp
+  and the program version.
+* The draft being edited belongs to the workstation: on SQLite it is in the records file;
+  with a server it is in an SQLite file on this computer (``server-drafts-….sqlite`` in
+  the user data folder), so a server that cannot be reached leaves it on the local disk
+  (the server's own ``draft`` table, kept so both engines have one schema, stays empty).
+* The SQLite file is created readable by its owner only, before SQLite writes its first
+  byte (SQLite gives its ``-wal`` and ``-shm`` files the same mode); so are backups and
   restored files. Only parameterised SQL.
-* Backup and restore through SQLite's online backup (a backup is written beside its
-  target and renamed onto it when whole; a restore is one transaction in the target);
-  one patient with every version exports to and imports from plain JSON.
+* Backup: SQLite through its online backup; a server's records are copied, table by
+  table, into a new SQLite records file; either is written beside its target and renamed
+  onto it when whole. Restore is into an SQLite file, one transaction. One patient with
+  every version exports to and imports from plain JSON.
 """
 
 from __future__ import annotations
 
 import contextlib
+import hashlib
 import json
 import os
 import re
 import sqlite3
 import tempfile
+from collections.abc import Iterator
 from contextlib import closing
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
 
+from sqlalchemy import (
+    Connection,
+    Engine,
+    LargeBinary,
+    cast,
+    create_engine,
+    event,
+    func,
+    inspect,
+    or_,
+    select,
+    text,
+)
+from sqlalchemy.exc import DBAPIError, SQLAlchemyError
+from sqlalchemy.pool import StaticPool
+
 from vetfluid import __version__
 from vetfluid.common.errors import InputError, VetfluidError
 from vetfluid.common.paths import user_data_dir
+from vetfluid.records import schema
+from vetfluid.records.location import (
+    ServerAddress,
+    records_url,
+    server_address,
+    workstation_name,
+)
+from vetfluid.records.schema import (
+    SCHEMA_VERSION,
+    TABLES,
+    draft,
+    meta,
+    patients,
+    plan_versions,
+)
 
 DATABASE_NAME = "records.sqlite"
 EXPORT_FORMAT = "vetfluid-patient"
-
-_SCHEMA_1 = """
-CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
-CREATE TABLE patients (
-    id INTEGER PRIMARY KEY,
-    name TEXT NOT NULL,
-    species_id TEXT NOT NULL,
-    sex TEXT NOT NULL DEFAULT '',
-    birth_date TEXT NOT NULL DEFAULT '',
-    age_text TEXT NOT NULL DEFAULT '',
-    client_ref TEXT NOT NULL DEFAULT '',
-    notes TEXT NOT NULL DEFAULT '',
-    created_at TEXT NOT NULL
-);
-CREATE TABLE plan_versions (
-    id INTEGER PRIMARY KEY,
-    patient_id INTEGER NOT NULL REFERENCES patients(id),
-    version INTEGER NOT NULL,
-    request_json TEXT NOT NULL,
-    plan_json TEXT NOT NULL,
-    acknowledged_json TEXT NOT NULL,
-    author TEXT NOT NULL DEFAULT '',
-    created_at TEXT NOT NULL,
-    program_version TEXT NOT NULL,
-    UNIQUE (patient_id, version)
-);
-CREATE TRIGGER plan_versions_no_update BEFORE UPDATE ON plan_versions
-BEGIN SELECT RAISE(ABORT, 'plan versions are immutable'); END;
-CREATE TRIGGER plan_versions_no_delete BEFORE DELETE ON plan_versions
-BEGIN SELECT RAISE(ABORT, 'plan versions are immutable'); END;
-CREATE TABLE observations (
-    id INTEGER PRIMARY KEY,
-    plan_version_id INTEGER NOT NULL REFERENCES plan_versions(id),
-    observation_json TEXT NOT NULL,
-    recorded_at TEXT NOT NULL
-);
-CREATE TABLE draft (
-    id INTEGER PRIMARY KEY CHECK (id = 1),
-    content_json TEXT NOT NULL,
-    saved_at TEXT NOT NULL
-);
-CREATE INDEX patients_name ON patients(name);
-"""
-# Forward migrations: MIGRATIONS[n] takes a database from version n to n + 1; its
-# statements run in one transaction with the new version number.
-MIGRATIONS: dict[int, tuple[str, ...]] = {
-    # 2: opening a version reads its observations by version, and without an index that
-    # read scanned every observation in the file (33 ms with 500,000 versions, growing).
-    1: ("CREATE INDEX observations_version ON observations(plan_version_id)",),
-}
-SCHEMA_VERSION = 1 + len(MIGRATIONS)
 # How every vetfluid has written its schema version: a whole number from 1, in ASCII
 # digits (a few more than any real version, so a newer vetfluid's is still read as newer).
 _VERSION_TEXT = re.compile(r"[1-9][0-9]{0,8}")
-# The tables of schema 1 (later schemas add to them): a file lacking one is damaged.
-_TABLES = ("meta", "patients", "plan_versions", "observations", "draft")
 # The small tables read as soon as the file opens, checked then (the others at reading).
 _CHECKED_AT_OPEN = ("meta", "patients", "draft")
+# One lock for building or migrating a server's schema (pg_advisory_xact_lock's key):
+# two workstations starting at once do it one after the other.
+_SCHEMA_LOCK = 0x76657466  # "vetf"
+_PATIENT_COLUMNS = ("id", "name", "species_id", "sex", "birth_date", "age_text", "client_ref",
+                    "notes", "created_at")  # fmt: skip
 
 
 class RecordsError(VetfluidError):
@@ -124,7 +126,13 @@ def _json_or_text(text: str) -> object:
         return text
 
 
-def _observation_key(record: object) -> str | None:
+def _reason(exc: BaseException) -> str:
+    """What the database said, without the statement SQLAlchemy adds to it."""
+    original = getattr(exc, "orig", None)
+    return str(original if original is not None else exc).strip().splitlines()[0]
+
+
+def observation_key(record: object) -> str | None:
     """One observation however it was written (4 or 4.0, key order), or None when the
     record is not a readable observation."""
     from vetfluid.course.observations import observation_from_record, observation_record
@@ -139,17 +147,6 @@ def _observation_key(record: object) -> str | None:
 
 def _now() -> str:
     return datetime.now(UTC).isoformat(timespec="seconds")
-
-
-def _statements(script: str) -> list[str]:
-    """The statements of a schema script, one by one (a trigger's body stays whole)."""
-    statements, pending = [], ""
-    for line in script.splitlines(keepends=True):
-        pending += line
-        if sqlite3.complete_statement(pending):
-            statements.append(pending.strip())
-            pending = ""
-    return statements
 
 
 def _fsync(path: Path) -> None:
@@ -175,20 +172,26 @@ def _private(path: Path) -> None:
             os.chmod(kept, 0o600)
 
 
-def _blank(db: sqlite3.Connection) -> bool:
-    """No table, index or trigger at all: a new file, or a first creation cut short.
-    Nothing the user entered can be in it."""
-    return db.execute("SELECT count(*) FROM sqlite_master").fetchone()[0] == 0
+def _blank(connection: Connection) -> bool:
+    """No table at all: a new database, or a first creation cut short. Nothing the user
+    entered can be in it."""
+    if connection.dialect.name == "sqlite":
+        return connection.exec_driver_sql("SELECT count(*) FROM sqlite_master").scalar() == 0
+    return not inspect(connection).get_table_names()
 
 
-def _stored_schema_version(db: sqlite3.Connection, name: str) -> int:
-    """The schema version a vetfluid records file says it holds. Missing, not a whole
+def _stored_schema_version(db: Connection | sqlite3.Connection, name: str) -> int:
+    """The schema version a vetfluid records database says it holds. Missing, not a whole
     number from 1, or newer than this vetfluid reads: RecordsError saying so. No
-    ``meta`` table: sqlite3.DatabaseError (not a vetfluid file at all)."""
+    ``meta`` table: sqlite3.DatabaseError (not a vetfluid database at all)."""
+    query = "SELECT value FROM meta WHERE key = 'schema_version'"
     try:
-        row = db.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
-    except sqlite3.OperationalError as exc:
-        if "no such table" in str(exc):
+        if isinstance(db, sqlite3.Connection):
+            row = db.execute(query).fetchone()
+        else:
+            row = db.exec_driver_sql(query).fetchone()
+    except (sqlite3.OperationalError, DBAPIError) as exc:
+        if "no such table" in str(exc) or "does not exist" in str(exc):
             raise sqlite3.DatabaseError("no vetfluid schema") from None
         raise
     fix = "restore a backup of the records, or open another records file"
@@ -240,22 +243,131 @@ class VersionRow:
     author: str
     created_at: str
     program_version: str
+    workstation: str = ""  # the computer it was saved from ("" before schema 3)
+
+
+@dataclass(frozen=True, kw_only=True)
+class OtherVersion:
+    """A version of the same patient another save put in meanwhile."""
+
+    version: int
+    author: str
+    workstation: str
+    created_at: str
+
+
+@dataclass(frozen=True, kw_only=True)
+class Saved:
+    """A version just saved: its number, and the versions saved meanwhile (numbers above
+    the latest the saver knew of, below this one), oldest first."""
+
+    number: int
+    meanwhile: tuple[OtherVersion, ...] = ()
+
+
+def _sqlite_engine(path: Path) -> tuple[Engine, sqlite3.Connection]:
+    """One connection to the file for the records' whole life (StaticPool): transactions are
+    begun by hand, ``BEGIN IMMEDIATE`` for a write, so one writer at a time waits its turn
+    instead of failing halfway through."""
+    raw = sqlite3.connect(path, timeout=10, isolation_level=None, check_same_thread=False)
+    raw.execute("PRAGMA foreign_keys = ON")
+    raw.execute("PRAGMA synchronous = FULL")
+    engine = create_engine("sqlite://", creator=lambda: raw, poolclass=StaticPool)
+    _begin_by_hand(engine)
+    return engine, raw
+
+
+def _begin_by_hand(engine: Engine) -> None:
+    @event.listens_for(engine, "begin")
+    def begin(connection: Connection) -> None:
+        write = connection.get_execution_options().get("vetfluid_write", False)
+        connection.exec_driver_sql("BEGIN IMMEDIATE" if write else "BEGIN")
+
+
+def _server_engine(address: ServerAddress) -> Engine:
+    """A small pool of connections to the server; a connection the server dropped is
+    noticed before use (pre-ping) and replaced, so a restart of the server costs one
+    failed save, not the session."""
+    return create_engine(
+        address.sqlalchemy_url(), connect_args=address.connect_args(), pool_size=2,
+        max_overflow=2, pool_pre_ping=True, pool_timeout=10,
+    )  # fmt: skip
+
+
+def _copy_tables(source: Connection, into: Connection) -> None:
+    """Every patient, version and observation (ids kept) and the meta rows ``into`` lacks,
+    in chunks; inside both connections' transactions."""
+    kept = {k for (k,) in into.execute(select(meta.c.key))}
+    rows = source.execute(select(meta)).mappings().all()
+    if new := [dict(r) for r in rows if r["key"] not in kept]:
+        into.execute(meta.insert(), new)
+    for table in (patients, plan_versions, schema.observations):
+        result = source.execution_options(yield_per=2000).execute(
+            select(table).order_by(table.c.id)
+        )
+        for chunk in result.mappings().partitions():
+            into.execute(table.insert(), [dict(r) for r in chunk])
+
+
+def _drafts_file(address: ServerAddress) -> Path:
+    """This workstation's drafts for one server, on the local disk."""
+    digest = hashlib.sha256(address.label.encode("utf-8")).hexdigest()[:12]
+    return user_data_dir() / f"server-drafts-{digest}.sqlite"
 
 
 class Records:
     """One records database; open it with :meth:`open`."""
 
-    def __init__(self, connection: sqlite3.Connection, path: Path) -> None:
-        self._db = connection
-        self.path = path
+    def __init__(
+        self,
+        engine: Engine,
+        *,
+        path: Path | None = None,
+        raw: sqlite3.Connection | None = None,
+        server: ServerAddress | None = None,
+        drafts: Records | None = None,
+    ) -> None:
+        self._engine = engine
+        self._db = raw  # SQLite: the one connection (backups, checks); None on a server
+        self.path = path  # the SQLite file; None on a server
+        self.server = server
+        self._drafts = drafts  # on a server: this workstation's drafts, on its own disk
+        self._tx: Connection | None = None  # the transaction under way, if any
+        self.workstation = workstation_name()
         self._unreadable_draft = False  # the stored draft could be neither read nor set aside
         self.last_set_aside: Path | None = None  # where save_draft moved such a draft at last
 
+    @property
+    def where(self) -> str:
+        """Where the records are, in words: the file, or the server."""
+        return str(self.path) if self.server is None else f"the server {self.server.label}"
+
+    @property
+    def _name(self) -> str:
+        return self.path.name if self.server is None else f"the records server {self.server.label}"
+
+    @property
+    def engine(self) -> str:
+        return "sqlite" if self.server is None else "postgresql"
+
     # ---- opening ---------------------------------------------------------------------------
     @classmethod
-    def open(cls, path: Path | None = None) -> Records:
-        """Open (or create) the database; a newer, foreign or damaged file is refused."""
-        path = Path(path) if path is not None else user_data_dir() / DATABASE_NAME
+    def open(cls, path: Path | None = None, *, url: str | None = None) -> Records:
+        """Open (or create) the records: ``path`` an SQLite file; else ``url`` (else the
+        records setting, :func:`vetfluid.records.location.records_url`) a server; else the
+        SQLite file in the user data folder. A newer, foreign or damaged one is refused."""
+        if path is None:
+            try:
+                url = records_url() if url is None else url.strip()
+                address = server_address(url) if url else None
+            except InputError as exc:  # a refused address, an unreadable settings file
+                raise RecordsError(exc.message, fix=exc.fix) from None
+            if address is not None:
+                return cls._open_server(address)
+        return cls._open_file(Path(path) if path is not None else user_data_dir() / DATABASE_NAME)
+
+    @classmethod
+    def _open_file(cls, path: Path) -> Records:
         if not path.exists():
             try:
                 # created owner-only before SQLite writes anything into it
@@ -267,81 +379,108 @@ class Records:
                     f"cannot create the records file {path}: {exc.strerror}",
                     fix="choose a folder you can write to, or free some disk space",
                 ) from exc
-        connection = None
+        raw = None
         try:
-            connection = sqlite3.connect(path, timeout=10, isolation_level=None)
-            connection.execute("PRAGMA foreign_keys = ON")
-            connection.execute("PRAGMA synchronous = FULL")
-            records = cls(connection, path)
+            engine, raw = _sqlite_engine(path)
+            records = cls(engine, path=path, raw=raw)
             records._prepare()
-        except sqlite3.DatabaseError as exc:
-            if connection is not None:
-                connection.close()
+        except (sqlite3.DatabaseError, DBAPIError) as exc:
+            if raw is not None:
+                raw.close()
             raise RecordsError(
-                f"{path.name} is not a usable vetfluid records file ({exc}); it was left untouched",
+                f"{path.name} is not a usable vetfluid records file ({_reason(exc)}); it was "
+                "left untouched",
                 fix="open another file or restore a backup",
             ) from exc
         except RecordsError:
-            connection.close()
+            raw.close()
+            raise
+        return records
+
+    @classmethod
+    def _open_server(cls, address: ServerAddress) -> Records:
+        drafts = cls._open_file(_drafts_file(address))
+        engine = _server_engine(address)
+        records = cls(engine, server=address, drafts=drafts)
+        try:
+            records._prepare()
+        except (DBAPIError, SQLAlchemyError, sqlite3.DatabaseError) as exc:
+            records.close()
+            raise RecordsError(
+                f"the records server {address.label} cannot be used ({_reason(exc)})",
+                fix="check the server address, the network and the password (Records "
+                f"settings); the draft stays on this computer, in {drafts.path}",
+            ) from exc
+        except RecordsError:
+            records.close()
             raise
         return records
 
     def _prepare(self) -> None:
-        """Finish a file with no tables, refuse one that is not ours or is damaged, bring
-        an older schema up to date."""
-        if _blank(self._db) and self._create():
+        """Finish a database with no tables, refuse one that is not ours or is damaged,
+        bring an older schema up to date."""
+        with self._connection() as conn:
+            blank = _blank(conn)
+        if blank and self._create():
             return
-        version = _stored_schema_version(self._db, self.path.name)
-        tables = {r[0] for r in self._db.execute("SELECT name FROM sqlite_master")}
-        missing = [t for t in _TABLES if t not in tables]
+        with self._connection() as conn:
+            version = _stored_schema_version(conn, self._name)
+            tables = set(inspect(conn).get_table_names())
+        missing = [t for t in TABLES if t not in tables]
         if missing:
             raise sqlite3.DatabaseError(f"its table {', '.join(missing)} is missing")
-        for table in _CHECKED_AT_OPEN:  # never an unknown name: that would check everything
-            check = self._db.execute(f"PRAGMA quick_check({table})").fetchone()[0]
-            if check != "ok":
-                raise sqlite3.DatabaseError(f"integrity check failed: {check}")
+        if self._db is not None:
+            for table in _CHECKED_AT_OPEN:  # never an unknown name: that would check everything
+                check = self._db.execute(f"PRAGMA quick_check({table})").fetchone()[0]
+                if check != "ok":
+                    raise sqlite3.DatabaseError(f"integrity check failed: {check}")
         while version < SCHEMA_VERSION:
             try:
-                with self._transaction():
-                    # read again under the write lock: another vetfluid may have done it
-                    version = _stored_schema_version(self._db, self.path.name)
+                with self._transaction() as conn:
+                    self._lock_schema(conn)
+                    # read again under the lock: another vetfluid may have done it
+                    version = _stored_schema_version(conn, self._name)
                     if version < SCHEMA_VERSION:
-                        version = self._migrate(version)
-            except sqlite3.OperationalError as exc:
+                        version = schema.migrate(conn, version)
+            except (sqlite3.OperationalError, DBAPIError) as exc:
                 raise RecordsError(
-                    f"{self.path.name} holds records in an older layout (schema {version}) "
-                    f"that could not be brought up to date ({exc}); it was left as it was",
+                    f"{self._name} holds records in an older layout (schema {version}) "
+                    f"that could not be brought up to date ({_reason(exc)}); it was left as "
+                    "it was",
                     fix="check that the file and its folder are writable and the disk has "
-                    "space, then start vetfluid again",
+                    "space (or that you may change the server's tables), then start vetfluid "
+                    "again",
                 ) from exc
 
     def _create(self) -> bool:
-        """Build the whole schema in one transaction: killed before it commits, the file
-        is left with no tables and finished at the next start. False when another
+        """Build the whole schema in one transaction: killed before it commits, the
+        database is left with no tables and finished at the next start. False when another
         vetfluid built it meanwhile."""
-        self._db.execute("PRAGMA journal_mode = WAL")  # only ever on a file with no tables
-        with self._transaction():
-            if not _blank(self._db):
+        if self._db is not None:
+            self._db.execute("PRAGMA journal_mode = WAL")  # only ever on a file with no tables
+        with self._transaction() as conn:
+            self._lock_schema(conn)
+            if not _blank(conn):
                 return False
-            for statement in _statements(_SCHEMA_1):
-                self._db.execute(statement)
-            self._db.execute("INSERT INTO meta (key, value) VALUES ('schema_version', '1')")
+            schema.create_schema_1(conn)
             version = 1
             while version < SCHEMA_VERSION:
-                version = self._migrate(version)
+                version = schema.migrate(conn, version)
         return True
 
-    def _migrate(self, version: int) -> int:
-        """One step forward, inside the caller's transaction; returns the new version."""
-        for statement in MIGRATIONS[version]:
-            self._db.execute(statement)
-        self._db.execute(
-            "UPDATE meta SET value = ? WHERE key = 'schema_version'", (str(version + 1),)
-        )
-        return version + 1
+    @staticmethod
+    def _lock_schema(conn: Connection) -> None:
+        """On a server: one workstation at a time builds or migrates the tables (SQLite's
+        ``BEGIN IMMEDIATE`` already holds the file's write lock)."""
+        if conn.dialect.name == "postgresql":
+            conn.execute(text("SELECT pg_advisory_xact_lock(:key)"), {"key": _SCHEMA_LOCK})
 
     def close(self) -> None:
-        self._db.close()
+        self._engine.dispose()
+        if self._db is not None:
+            self._db.close()
+        if self._drafts is not None:
+            self._drafts.close()
 
     def __enter__(self) -> Records:
         return self
@@ -349,31 +488,49 @@ class Records:
     def __exit__(self, *exc: object) -> None:
         self.close()
 
-    class _Transaction:
-        def __init__(self, db: sqlite3.Connection) -> None:
-            self.db = db
+    # ---- connections and transactions -------------------------------------------------------
+    @contextlib.contextmanager
+    def _connection(self) -> Iterator[Connection]:
+        """A connection to read with: the transaction under way, or one of its own (its
+        read-only transaction ended when done)."""
+        if self._tx is not None:
+            yield self._tx
+            return
+        with self._engine.connect() as conn:
+            yield conn
 
-        def __enter__(self) -> None:
-            self.db.execute("BEGIN IMMEDIATE")
+    @contextlib.contextmanager
+    def _transaction(self) -> Iterator[Connection]:
+        """One write transaction (SQLite: ``BEGIN IMMEDIATE``), committed when the block
+        ends, rolled back on an error; inside another, part of it."""
+        if self._tx is not None:
+            yield self._tx
+            return
+        with self._engine.connect() as conn:
+            conn = conn.execution_options(vetfluid_write=True)
+            with conn.begin():
+                self._tx = conn
+                try:
+                    yield conn
+                finally:
+                    self._tx = None
 
-        def __exit__(self, kind, value, traceback) -> None:  # noqa: ANN001
-            if kind is None:
-                self.db.execute("COMMIT")
-            elif self.db.in_transaction:  # SQLite may already have rolled back (e.g. disk full)
-                self.db.execute("ROLLBACK")
-
-    def _transaction(self) -> Records._Transaction:
-        return Records._Transaction(self._db)
-
-    def _write(self, sql: str, params: tuple) -> int:
-        """One statement in its own transaction; disk errors become a clear message."""
+    def _write(self, statement, params: dict | tuple | None = None) -> int:  # noqa: ANN001
+        """One statement in its own transaction (SQLAlchemy's, or SQL text with the
+        driver's own placeholders); disk errors become a clear message. Returns the new
+        row's id (an insert), else 0."""
         try:
-            with self._transaction():
-                return self._db.execute(sql, params).lastrowid or 0
-        except sqlite3.OperationalError as exc:
+            with self._transaction() as conn:
+                if isinstance(statement, str):
+                    return conn.exec_driver_sql(statement, params or ()).lastrowid or 0
+                result = conn.execute(statement, params or {})
+                inserted = result.inserted_primary_key if result.is_insert else None
+                return int(inserted[0]) if inserted and inserted[0] is not None else 0
+        except (DBAPIError, sqlite3.OperationalError) as exc:
             raise RecordsError(
-                f"could not save to {self.path.name}: {exc}",
-                fix="check that the disk has space and the folder is writable; nothing was lost",
+                f"could not save to {self._name}: {_reason(exc)}",
+                fix="check that the disk has space and the folder is writable (or that the "
+                "server can be reached); nothing was lost",
             ) from exc
 
     # ---- patients --------------------------------------------------------------------------
@@ -393,42 +550,56 @@ class Records:
         if not species_id.strip():
             raise InputError("a patient needs a species", field="species_id", value=species_id)
         return self._write(
-            "INSERT INTO patients (name, species_id, sex, birth_date, age_text, client_ref, notes,"
-            " created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
-            (name.strip(), species_id, sex, birth_date, age_text, client_ref, notes, _now()),
-        )
+            patients.insert().values(
+                name=name.strip(), species_id=species_id, sex=sex, birth_date=birth_date,
+                age_text=age_text, client_ref=client_ref, notes=notes, created_at=_now(),
+            )
+        )  # fmt: skip
+
+    def _read(self, statement, what: str) -> list:  # noqa: ANN001
+        """Rows of a query; a database that cannot answer is a RecordsError."""
+        try:
+            with self._connection() as conn:
+                return conn.execute(statement).fetchall()
+        except (DBAPIError, sqlite3.DatabaseError) as exc:
+            raise RecordsError(
+                f"could not read {what} in {self._name}: {_reason(exc)}",
+                fix="restore a backup, or check that the server can be reached",
+            ) from exc
 
     def patient(self, patient_id: int) -> PatientRow:
-        row = self._db.execute(
-            "SELECT id, name, species_id, sex, birth_date, age_text, client_ref, notes, created_at"
-            " FROM patients WHERE id = ?",
-            (patient_id,),
-        ).fetchone()
-        if row is None:
+        rows = self._read(
+            select(*(patients.c[c] for c in _PATIENT_COLUMNS)).where(patients.c.id == patient_id),
+            "the patient",
+        )
+        if not rows:
             raise InputError(f"no patient {patient_id}", field="patient", value=patient_id)
-        return PatientRow(**dict(zip(PatientRow.__dataclass_fields__, row, strict=True)))
+        return PatientRow(**dict(zip(_PATIENT_COLUMNS, rows[0], strict=True)))
 
     def find_patients(self, text: str = "", *, limit: int = 50) -> list[PatientRow]:
-        """Recent patients whose name, species or client reference contains ``text``. The
-        species matches by the words people use, as the species search does
-        (:meth:`vetfluid.tables.species.SpeciesTable.search`: common or scientific name, the groups
-        it belongs to: "bearded dragon", "reptile"), or by its id (a clinic's species since
-        removed from the table)."""
+        """Recent patients whose name, species or client reference contains ``text`` (in
+        any case). The species matches by the words people use, as the species search does
+        (:meth:`vetfluid.tables.species.SpeciesTable.search`: common or scientific name, the
+        groups it belongs to: "bearded dragon", "reptile"), or by its id (a clinic's species
+        since removed from the table)."""
         from vetfluid.tables.species import load_table
 
         words = text.strip()
-        like = f"%{words}%"
-        species = [s.id for s in load_table().search(words)] if words else []
-        named = f" OR species_id IN ({', '.join('?' * len(species))})" if species else ""
-        rows = self._db.execute(
-            "SELECT id, name, species_id, sex, birth_date, age_text, client_ref, notes, created_at"
-            " FROM patients WHERE name LIKE ? OR species_id LIKE ? OR client_ref LIKE ?"
-            f"{named} ORDER BY id DESC LIMIT ?",
-            (like, like, like, *species, limit),
-        ).fetchall()
-        return [
-            PatientRow(**dict(zip(PatientRow.__dataclass_fields__, r, strict=True))) for r in rows
-        ]
+        query = select(*(patients.c[c] for c in _PATIENT_COLUMNS))
+        if words:
+            like = f"%{words}%"
+            species = [s.id for s in load_table().search(words)]
+            if self._db is not None:  # SQLite's LIKE is already blind to case
+                found = [c.like(like) for c in (patients.c.name, patients.c.species_id,
+                                                patients.c.client_ref)]  # fmt: skip
+            else:  # lower() LIKE: a third of ILIKE's time on PostgreSQL (its case folding)
+                found = [func.lower(c).like(func.lower(like)) for c in (patients.c.name,
+                         patients.c.species_id, patients.c.client_ref)]  # fmt: skip
+            if species:
+                found.append(patients.c.species_id.in_(species))
+            query = query.where(or_(*found))
+        rows = self._read(query.order_by(patients.c.id.desc()).limit(limit), "the patients")
+        return [PatientRow(**dict(zip(_PATIENT_COLUMNS, r, strict=True))) for r in rows]
 
     # ---- plan versions ---------------------------------------------------------------------
     def save_version(
@@ -439,56 +610,118 @@ class Records:
         acknowledged: dict[str, str],
         author: str = "",
         observations: list[dict] | tuple[dict, ...] = (),
+        known_latest: int | None = None,
+        workstation: str | None = None,
     ) -> int:
         """Save the plan as the patient's next version with the observations recorded on
-        it so far (one transaction: all or nothing); returns its number."""
+        it so far (one transaction: all or nothing); returns its number. See
+        :meth:`save_new_version` for what was saved meanwhile."""
+        return self.save_new_version(
+            patient_id=patient_id, plan=plan, acknowledged=acknowledged, author=author,
+            observations=observations, known_latest=known_latest, workstation=workstation,
+        ).number  # fmt: skip
+
+    def save_new_version(
+        self,
+        *,
+        patient_id: int,
+        plan,  # noqa: ANN001 — vetfluid.planning.plan.Plan
+        acknowledged: dict[str, str],
+        author: str = "",
+        observations: list[dict] | tuple[dict, ...] = (),
+        known_latest: int | None = None,
+        workstation: str | None = None,
+    ) -> Saved:
+        """Save the plan as the patient's next version, by ``author`` (initials) from
+        ``workstation`` (this one by default), with its observations: one transaction.
+
+        The number is the highest so far plus one, read under a lock on the patient's row
+        (SQLite: the file's write lock), so saves of one patient from several workstations
+        follow one another: no number is taken twice or skipped. ``known_latest``: the
+        latest version the saver knew of; the versions above it saved meanwhile are
+        returned with the number."""
         from vetfluid.records.serialize import plan_dict, request_to_dict
 
-        self.patient(patient_id)
         request_json = json.dumps(request_to_dict(plan.request), ensure_ascii=False)
         plan_json = json.dumps(plan_dict(plan), ensure_ascii=False)
         ack_json = json.dumps(dict(acknowledged), ensure_ascii=False)
+        v = plan_versions.c
         try:
-            with self._transaction():
-                row = self._db.execute(
-                    "SELECT COALESCE(MAX(version), 0) + 1 FROM plan_versions WHERE patient_id = ?",
-                    (patient_id,),
-                ).fetchone()
-                number = int(row[0])
-                cursor = self._db.execute(
-                    "INSERT INTO plan_versions (patient_id, version, request_json, plan_json,"
-                    " acknowledged_json, author, created_at, program_version)"
-                    " VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
-                    (patient_id, number, request_json, plan_json, ack_json, author, _now(),
-                     __version__),
-                )  # fmt: skip
-                self._db.executemany(
-                    "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
-                    " VALUES (?, ?, ?)",
-                    [(cursor.lastrowid, json.dumps(o, ensure_ascii=False), _now())
-                     for o in observations],
-                )  # fmt: skip
-        except sqlite3.OperationalError as exc:
+            with self._transaction() as conn:
+                locked = conn.execute(
+                    select(patients.c.id).where(patients.c.id == patient_id).with_for_update()
+                ).first()
+                if locked is None:
+                    raise InputError(f"no patient {patient_id}", field="patient", value=patient_id)
+                latest = conn.execute(
+                    select(func.coalesce(func.max(v.version), 0)).where(v.patient_id == patient_id)
+                ).scalar_one()
+                meanwhile = ()
+                if known_latest is not None and latest > known_latest:
+                    meanwhile = tuple(
+                        OtherVersion(version=r[0], author=r[1], workstation=r[2], created_at=r[3])
+                        for r in conn.execute(
+                            select(v.version, v.author, v.workstation, v.created_at)
+                            .where(v.patient_id == patient_id, v.version > known_latest)
+                            .order_by(v.version)
+                        )
+                    )
+                number = int(latest) + 1
+                version_id = conn.execute(
+                    plan_versions.insert().values(
+                        patient_id=patient_id, version=number, request_json=request_json,
+                        plan_json=plan_json, acknowledged_json=ack_json, author=author,
+                        workstation=self.workstation if workstation is None else workstation,
+                        created_at=_now(), program_version=__version__,
+                    )
+                ).inserted_primary_key[0]  # fmt: skip
+                if observations:
+                    conn.execute(
+                        schema.observations.insert(),
+                        [{"plan_version_id": version_id, "recorded_at": _now(),
+                          "observation_json": json.dumps(o, ensure_ascii=False)}
+                         for o in observations],
+                    )  # fmt: skip
+        except (DBAPIError, sqlite3.OperationalError) as exc:
             raise RecordsError(
-                f"could not save the plan to {self.path.name}: {exc}",
-                fix="check the disk and the folder; the plan on screen is unchanged",
+                f"could not save the plan to {self._name}: {_reason(exc)}",
+                fix=self._kept_fix("the plan on screen is unchanged"),
             ) from exc
-        return number
+        return Saved(number=number, meanwhile=meanwhile)
+
+    def _kept_fix(self, unchanged: str) -> str:
+        if self._drafts is None:
+            return f"check the disk and the folder; {unchanged}"
+        return (
+            f"check the network and the server; {unchanged}, and the draft keeps it on this "
+            f"computer ({self._drafts.path})"
+        )
+
+    def latest_version(self, patient_id: int) -> int:
+        """The patient's highest version number (0: none yet)."""
+        v = plan_versions.c
+        rows = self._read(
+            select(func.coalesce(func.max(v.version), 0)).where(v.patient_id == patient_id),
+            "the plan versions",
+        )
+        return int(rows[0][0])
 
     def versions(self, patient_id: int) -> list[VersionRow]:
         """The patient's versions, oldest first. A damaged page among them (the versions
         are not checked when the file opens: gigabytes at a clinic's size) is a
         RecordsError."""
+        v = plan_versions.c
         try:
-            rows = self._db.execute(
-                "SELECT id, patient_id, version, request_json, plan_json, acknowledged_json,"
-                " author, created_at, program_version FROM plan_versions WHERE patient_id = ?"
-                " ORDER BY version",
-                (patient_id,),
-            ).fetchall()
-        except sqlite3.DatabaseError as exc:
+            rows = self._read(
+                select(v.id, v.patient_id, v.version, v.request_json, v.plan_json,
+                       v.acknowledged_json, v.author, v.created_at, v.program_version,
+                       v.workstation)
+                .where(v.patient_id == patient_id).order_by(v.version),
+                "the plan versions",
+            )  # fmt: skip
+        except RecordsError as exc:
             raise RecordsError(
-                f"could not read the plan versions in {self.path.name}: {exc}",
+                f"could not read the plan versions in {self._name}: {exc.message}",
                 fix="restore a backup; the versions of other patients may still be read",
             ) from exc
         versions = []
@@ -498,73 +731,93 @@ class Records:
                                                json.loads(r[5]))  # fmt: skip
             except (TypeError, ValueError) as exc:  # a damaged row: said, never a traceback
                 raise RecordsError(
-                    f"version {r[2]} of patient {patient_id} in {self.path.name} cannot be "
+                    f"version {r[2]} of patient {patient_id} in {self._name} cannot be "
                     f"read ({exc})",
                     fix="restore a backup; the other patients' versions may still be read",
                 ) from exc
             versions.append(
                 VersionRow(id=r[0], patient_id=r[1], version=r[2], request=request, plan=plan,
                            acknowledged=acknowledged, author=r[6], created_at=r[7],
-                           program_version=r[8])
+                           program_version=r[8], workstation=r[9])
             )  # fmt: skip
         return versions
 
     def add_observation(self, *, version_id: int, observation: dict) -> int:
         return self._write(
-            "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
-            " VALUES (?, ?, ?)",
-            (version_id, json.dumps(observation, ensure_ascii=False), _now()),
-        )
+            schema.observations.insert().values(
+                plan_version_id=version_id, recorded_at=_now(),
+                observation_json=json.dumps(observation, ensure_ascii=False),
+            )
+        )  # fmt: skip
 
     def observations(self, version_id: int) -> list:
         """The observations recorded on a version, oldest first. A row whose text is not
         readable is returned as that text, for the caller to count as unreadable."""
+        o = schema.observations.c
         try:
-            rows = self._db.execute(
-                "SELECT observation_json FROM observations WHERE plan_version_id = ? ORDER BY id",
-                (version_id,),
-            ).fetchall()
-        except sqlite3.DatabaseError as exc:
-            raise RecordsError(
-                f"could not read the observations in {self.path.name}: {exc}"
-            ) from exc
+            rows = self._read(
+                select(o.observation_json).where(o.plan_version_id == version_id).order_by(o.id),
+                "the observations",
+            )
+        except RecordsError as exc:
+            raise RecordsError(f"could not read the observations in {self._name}: "
+                               f"{exc.message}") from exc  # fmt: skip
         return [_json_or_text(r[0]) for r in rows]
 
     def merge_observations(
         self, *, version_id: int, observations: list, based_on: list | None = None
     ) -> int:
-        """Bring into a version the observations kept for it (in a draft) while it could not
-        take them. With ``based_on`` (what it held when they were kept): those added since
-        then that it still lacks are added, and those removed since then are removed, so
-        what was recorded on it or removed from it meanwhile stands. Without ``based_on``:
-        those it lacks are added and nothing is removed. An item that cannot be read is
-        stored as it is, for the reader to count. Returns how many were added."""
+        """Bring into a version the observations kept for it (in a draft, or on another
+        workstation's screen) while it could not take them. With ``based_on`` (what it held
+        when they were kept): those added since then that it still lacks are added, and
+        those removed since then are removed, so what was recorded on it or removed from
+        it meanwhile stands. Without ``based_on``: those it lacks are added and nothing is
+        removed. An item that cannot be read is stored as it is, for the reader to count.
+        Returns how many were added. One transaction, the version locked: two workstations
+        merging at once take turns."""
         from collections import Counter
 
         def counted(records: list) -> Counter:
-            return Counter(k for r in records if (k := _observation_key(r)) is not None)
+            return Counter(k for r in records if (k := observation_key(r)) is not None)
 
-        current = [r for r in self.observations(version_id) if _observation_key(r) is not None]
-        ours, now = counted(observations), counted(current)
-        if based_on is None:
-            removed, added = Counter(), ours - now
-        else:
-            before = counted(based_on)
-            removed = before - ours
-            wanted = Counter({k: n - max(before[k], now[k]) for k, n in ours.items()})
-            added = +wanted  # the unary plus keeps the positive counts only
-        given = {_observation_key(r): r for r in observations}
-        kept = []
-        for record in current:
-            key = _observation_key(record)
-            if removed[key]:
-                removed[key] -= 1
-            else:
-                kept.append(record)
-        kept += [given[k] for k in added.elements()]
-        unreadable = [r for r in observations if _observation_key(r) is None]
-        self.keep_observations(version_id=version_id, observations=kept + unreadable)
+        try:
+            with self._transaction() as conn:
+                self._lock_version(conn, version_id)
+                current = [r for r in self.observations(version_id)
+                           if observation_key(r) is not None]  # fmt: skip
+                ours, now = counted(observations), counted(current)
+                if based_on is None:
+                    removed, added = Counter(), ours - now
+                else:
+                    before = counted(based_on)
+                    removed = before - ours
+                    wanted = Counter({k: n - max(before[k], now[k]) for k, n in ours.items()})
+                    added = +wanted  # the unary plus keeps the positive counts only
+                given = {observation_key(r): r for r in observations}
+                kept = []
+                for record in current:
+                    key = observation_key(record)
+                    if removed[key]:
+                        removed[key] -= 1
+                    else:
+                        kept.append(record)
+                kept += [given[k] for k in added.elements()]
+                unreadable = [r for r in observations if observation_key(r) is None]
+                self.keep_observations(version_id=version_id, observations=kept + unreadable)
+        except (DBAPIError, sqlite3.OperationalError) as exc:
+            raise RecordsError(
+                f"could not save the observations to {self._name}: {_reason(exc)}",
+                fix=self._kept_fix("the observations on screen are unchanged"),
+            ) from exc
         return sum(added.values())
+
+    @staticmethod
+    def _lock_version(conn: Connection, version_id: int) -> None:
+        """On a server, hold the version's row until the transaction ends (its
+        observations are changed by one workstation at a time); SQLite's write lock does."""
+        conn.execute(
+            select(plan_versions.c.id).where(plan_versions.c.id == version_id).with_for_update()
+        )
 
     def keep_observations(self, *, version_id: int, observations: list[dict]) -> bool:
         """Make the version's stored observations the ones given (one transaction).
@@ -573,68 +826,93 @@ class Records:
         removed change. A stored row that cannot be read as an observation is never
         touched: the user never saw it, so never removed it. Returns whether anything
         was written."""
-        stored = self._db.execute(
-            "SELECT id, observation_json FROM observations WHERE plan_version_id = ?",
-            (version_id,),
-        ).fetchall()
-        unmatched = [(_observation_key(o), o) for o in observations]
-        removed = []
-        for row_id, text in stored:
-            key = _observation_key(_json_or_text(text))
-            if key is None:
-                continue  # unreadable: left as it is
-            match = next((i for i, (k, _) in enumerate(unmatched) if k == key), None)
-            if match is None:
-                removed.append((row_id,))
-            else:
-                del unmatched[match]
-        if not removed and not unmatched:
-            return False
+        o = schema.observations.c
         try:
-            with self._transaction():
-                self._db.executemany("DELETE FROM observations WHERE id = ?", removed)
-                self._db.executemany(
-                    "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
-                    " VALUES (?, ?, ?)",
-                    [(version_id, json.dumps(o, ensure_ascii=False), _now()) for _, o in unmatched],
-                )
-        except sqlite3.DatabaseError as exc:
+            with self._transaction() as conn:
+                self._lock_version(conn, version_id)
+                stored = conn.execute(
+                    select(o.id, o.observation_json).where(o.plan_version_id == version_id)
+                ).fetchall()
+                unmatched = [(observation_key(x), x) for x in observations]
+                removed = []
+                for row_id, text_ in stored:
+                    key = observation_key(_json_or_text(text_))
+                    if key is None:
+                        continue  # unreadable: left as it is
+                    match = next((i for i, (k, _) in enumerate(unmatched) if k == key), None)
+                    if match is None:
+                        removed.append(row_id)
+                    else:
+                        del unmatched[match]
+                if not removed and not unmatched:
+                    return False
+                if removed:
+                    conn.execute(schema.observations.delete().where(o.id.in_(removed)))
+                if unmatched:
+                    conn.execute(
+                        schema.observations.insert(),
+                        [{"plan_version_id": version_id, "recorded_at": _now(),
+                          "observation_json": json.dumps(x, ensure_ascii=False)}
+                         for _, x in unmatched],
+                    )  # fmt: skip
+        except (DBAPIError, sqlite3.OperationalError) as exc:
             raise RecordsError(
-                f"could not save the observations to {self.path.name}: {exc}",
-                fix="check the disk and the folder; the observations on screen are unchanged",
+                f"could not save the observations to {self._name}: {_reason(exc)}",
+                fix=self._kept_fix("the observations on screen are unchanged"),
             ) from exc
         return True
 
-    # ---- the draft being edited ------------------------------------------------------------
+    # ---- the draft being edited (this workstation's) -----------------------------------------
+    @property
+    def drafts_path(self) -> Path:
+        """The file on this computer that keeps the draft."""
+        return self.path if self._drafts is None else self._drafts.path
+
     def save_draft(self, content: dict) -> None:
         """Replace the draft; refused while the stored one can be neither read nor set
         aside (:meth:`draft`), so that it is never overwritten unseen."""
+        if self._drafts is not None:
+            self._drafts.save_draft(content)
+            self.last_set_aside, self._drafts.last_set_aside = self._drafts.last_set_aside, None
+            return
         if self._unreadable_draft:  # try the copy again first; still refused if it fails
             self.last_set_aside = self.set_aside_draft()
-        self._write(
-            "INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)"
-            " ON CONFLICT(id) DO UPDATE SET content_json = excluded.content_json,"
-            " saved_at = excluded.saved_at",
-            (json.dumps(content, ensure_ascii=False), _now()),
-        )
+        stored = json.dumps(content, ensure_ascii=False)
+        try:
+            with self._transaction() as conn:  # replaced whole, or not at all
+                conn.execute(draft.delete())
+                conn.execute(draft.insert().values(id=1, content_json=stored, saved_at=_now()))
+        except (DBAPIError, sqlite3.OperationalError) as exc:
+            raise RecordsError(
+                f"could not save to {self._name}: {_reason(exc)}",
+                fix="check that the disk has space and the folder is writable; nothing was lost",
+            ) from exc
+
+    def _stored_draft(self) -> bytes | None:
+        """The draft's bytes as stored (SQLite hands text back as it was written, UTF-8 or
+        not)."""
+        try:
+            with self._connection() as conn:
+                row = conn.execute(
+                    select(cast(draft.c.content_json, LargeBinary)).where(draft.c.id == 1)
+                ).first()
+        except (DBAPIError, sqlite3.DatabaseError) as exc:
+            raise RecordsError(
+                f"the draft in {self._name} cannot be read: {_reason(exc)}",
+                fix="nothing was restored from it",
+            ) from exc
+        return None if row is None else bytes(row[0])
 
     def draft(self) -> dict | None:
         """The plan last being edited, or None. A stored draft that cannot be read as one
         (cut short, not UTF-8, not an object) is set aside in a file beside the records,
         never offered and never overwritten unseen; RecordsError says where it went. While
         it cannot be set aside it stays, and :meth:`save_draft` refuses to replace it."""
-        try:
-            row = self._db.execute(
-                "SELECT CAST(content_json AS BLOB) FROM draft WHERE id = 1"
-            ).fetchone()
-        except sqlite3.DatabaseError as exc:
-            raise RecordsError(
-                f"the draft in {self.path.name} cannot be read: {exc}",
-                fix="nothing was restored from it",
-            ) from exc
-        if row is None:
+        if self._drafts is not None:
+            return self._drafts.draft()
+        stored = self._stored_draft()
+        if stored is None:
             return None
-        stored = bytes(row[0])
         try:
             content = json.loads(stored.decode("utf-8"))
         except ValueError:  # cut short, or not UTF-8 at all
@@ -643,7 +921,7 @@ class Records:
             return content
         kept = self._move_aside(stored)
         raise DraftSetAside(
-            f"the draft in {self.path.name} could not be read; it was set aside as {kept}",
+            f"the draft in {self._name} could not be read; it was set aside as {kept}",
             path=kept,
             fix="nothing was restored from it; the file holds what was stored",
         )
@@ -651,13 +929,10 @@ class Records:
     def set_aside_draft(self) -> Path | None:
         """Move the stored draft, byte for byte, into a new file beside the records: one
         that reads but cannot be restored. None when there is no draft."""
-        try:
-            row = self._db.execute(
-                "SELECT CAST(content_json AS BLOB) FROM draft WHERE id = 1"
-            ).fetchone()
-        except sqlite3.DatabaseError as exc:
-            raise RecordsError(f"the draft in {self.path.name} cannot be read: {exc}") from exc
-        return None if row is None else self._move_aside(bytes(row[0]))
+        if self._drafts is not None:
+            return self._drafts.set_aside_draft()
+        stored = self._stored_draft()
+        return None if stored is None else self._move_aside(stored)
 
     def _move_aside(self, stored: bytes) -> Path:
         kept = self._set_aside(stored)
@@ -686,22 +961,26 @@ class Records:
                 raise self._not_set_aside(kept, exc) from exc
             return kept
         self._unreadable_draft = True
-        raise RecordsError(f"the draft in {self.path.name} cannot be read, nor copied aside")
+        raise RecordsError(f"the draft in {self._name} cannot be read, nor copied aside")
 
     def _not_set_aside(self, kept: Path, exc: OSError) -> RecordsError:
         self._unreadable_draft = True
         return RecordsError(
-            f"the draft in {self.path.name} cannot be read, nor copied to {kept.name}: "
-            f"{exc.strerror}",
+            f"the draft in {self._name} cannot be read, nor copied to {kept.name}: {exc.strerror}",
             fix="free some disk space; the draft stays in the records until then",
         )
 
     def clear_draft(self) -> None:
-        self._write("DELETE FROM draft WHERE id = ?", (1,))
+        if self._drafts is not None:
+            self._drafts.clear_draft()
+            return
+        self._write(draft.delete().where(draft.c.id == 1))
 
     # ---- backup, export ----------------------------------------------------------------------
     def backup(self, target: Path) -> Path:
-        """A consistent copy through SQLite's online backup (safe while the file is in use).
+        """A consistent copy as an SQLite records file, safe while the records are in use:
+        SQLite's online backup, or a server's tables copied in one repeatable-read
+        transaction.
 
         It is written into a new owner-only file beside ``target`` and renamed onto it
         once whole and on disk, so ``target`` holds the previous copy or the whole new
@@ -719,20 +998,60 @@ class Records:
         os.close(handle)
         staging = Path(name)
         try:
-            with closing(sqlite3.connect(staging)) as copy:
-                self._db.backup(copy)
+            if self._db is not None:
+                with closing(sqlite3.connect(staging)) as copy:
+                    self._db.backup(copy)
+            else:
+                self._copy_server_into(staging)
             _fsync(staging)
             os.replace(staging, target)
             _fsync(target.parent)
-        except (OSError, sqlite3.Error) as exc:
+        except (OSError, sqlite3.Error, SQLAlchemyError) as exc:
             raise RecordsError(
-                f"could not write the backup {target.name}: {exc}",
+                f"could not write the backup {target.name}: {_reason(exc)}",
                 fix="check the disk has space and the folder is writable; the records are "
                 "unchanged",
             ) from exc
         finally:
             staging.unlink(missing_ok=True)
         return target
+
+    def _copy_server_into(self, staging: Path) -> None:
+        """The server's records, every table as one snapshot, into a new SQLite records file."""
+        copy = Records._open_file(staging)  # the empty file is finished as a new records file
+        try:
+            with self._engine.connect() as source:
+                source = source.execution_options(isolation_level="REPEATABLE READ")
+                with source.begin(), copy._transaction() as into:
+                    _copy_tables(source, into)
+        finally:
+            copy.close()
+
+    def restore_into_server(self, backup: Path) -> None:
+        """Replace the server's records with a backup (an SQLite records file, checked as
+        :meth:`restore` checks it and brought to this schema): one transaction, so the
+        server holds what it held or the whole backup; other workstations wait meanwhile."""
+        if self.server is None:
+            raise RecordsError("these records are a file: restore it with Records.restore")
+        with tempfile.TemporaryDirectory(prefix="vetfluid-restore-") as folder:  # owner-only
+            staging = Path(folder) / DATABASE_NAME
+            Records.restore(backup, staging)  # checked whole and ours, copied aside
+            with Records._open_file(staging) as copy:  # an older backup migrated forward
+                try:
+                    with copy._connection() as source, self._transaction() as into:
+                        into.exec_driver_sql("TRUNCATE observations, plan_versions, patients")
+                        into.execute(meta.delete().where(meta.c.key != "schema_version"))
+                        _copy_tables(source, into)
+                        for table in ("patients", "plan_versions", "observations"):
+                            into.exec_driver_sql(
+                                f"SELECT setval(pg_get_serial_sequence('{table}', 'id'), "
+                                f"COALESCE((SELECT max(id) FROM {table}), 0) + 1, false)"
+                            )
+                except (DBAPIError, sqlite3.Error) as exc:
+                    raise RecordsError(
+                        f"could not restore {Path(backup).name} to {self._name}: {_reason(exc)}",
+                        fix="check the server can be reached; it holds what it held",
+                    ) from exc
 
     @staticmethod
     def restore(backup: Path, target: Path) -> None:
@@ -778,6 +1097,7 @@ class Records:
                     "plan": v.plan,
                     "acknowledged": v.acknowledged,
                     "author": v.author,
+                    "workstation": v.workstation,
                     "created_at": v.created_at,
                     "program_version": v.program_version,
                     "observations": self.observations(v.id),
@@ -792,31 +1112,37 @@ class Records:
             raise InputError("not a vetfluid patient export", field="file")
         patient = data.get("patient") or {}
         try:
-            with self._transaction():
-                cursor = self._db.execute(
-                    "INSERT INTO patients (name, species_id, sex, birth_date, age_text, client_ref,"
-                    " notes, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
-                    tuple(str(patient.get(k, "")) for k in ("name", "species_id", "sex",
-                          "birth_date", "age_text", "client_ref", "notes")) + (_now(),),
-                )  # fmt: skip
-                new_id = cursor.lastrowid
+            with self._transaction() as conn:
+                new_id = conn.execute(
+                    patients.insert().values(
+                        **{k: str(patient.get(k, "")) for k in ("name", "species_id", "sex",
+                           "birth_date", "age_text", "client_ref", "notes")}, created_at=_now(),
+                    )
+                ).inserted_primary_key[0]  # fmt: skip
                 for v in data.get("plan_versions", []):
-                    version_id = self._db.execute(
-                        "INSERT INTO plan_versions (patient_id, version, request_json, plan_json,"
-                        " acknowledged_json, author, created_at, program_version)"
-                        " VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
-                        (new_id, int(v["version"]), json.dumps(v["request"]), json.dumps(v["plan"]),
-                         json.dumps(v.get("acknowledged", {})), str(v.get("author", "")),
-                         str(v.get("created_at", _now())), str(v.get("program_version", ""))),
-                    ).lastrowid  # fmt: skip
-                    for obs in v.get("observations", []):
-                        self._db.execute(
-                            "INSERT INTO observations (plan_version_id, observation_json,"
-                            " recorded_at) VALUES (?, ?, ?)",
-                            (version_id, json.dumps(obs, ensure_ascii=False), _now()),
+                    version_id = conn.execute(
+                        plan_versions.insert().values(
+                            patient_id=new_id, version=int(v["version"]),
+                            request_json=json.dumps(v["request"]), plan_json=json.dumps(v["plan"]),
+                            acknowledged_json=json.dumps(v.get("acknowledged", {})),
+                            author=str(v.get("author", "")),
+                            workstation=str(v.get("workstation", "")),
+                            created_at=str(v.get("created_at", _now())),
+                            program_version=str(v.get("program_version", "")),
                         )
+                    ).inserted_primary_key[0]  # fmt: skip
+                    for obs in v.get("observations", []):
+                        conn.execute(
+                            schema.observations.insert().values(
+                                plan_version_id=version_id, recorded_at=_now(),
+                                observation_json=json.dumps(obs, ensure_ascii=False),
+                            )
+                        )  # fmt: skip
         except (KeyError, TypeError, ValueError) as exc:
             raise InputError(f"the patient export is incomplete: {exc}", field="file") from None
+        except (DBAPIError, sqlite3.OperationalError) as exc:
+            raise RecordsError(f"could not import the patient into {self._name}: "
+                               f"{_reason(exc)}") from exc  # fmt: skip
         return int(new_id)
 
 

@@ -24,6 +24,13 @@ keeps the plan it replaces in the records (saved first); closing asks only when 
 could be written. With no usable records file, leaving or closing asks before dropping work
 no plan file or CSV export keeps, and a re-plan is refused.
 
+Several workstations on the same records (issue 21): observations go into a saved version
+by what this screen added or removed since it last read the version
+(:meth:`Records.merge_observations` with ``based_on``), so what another workstation
+recorded stands; back in focus (REFRESH) what others recorded on the version on screen is
+added to it; a save that finds versions of the patient saved meanwhile elsewhere says by
+whom and where, and offers to compare them.
+
 The states (``working`` below means AS_OPENED, ON_VERSION, UNSAVED, VERSION_REFUSED and
 NOT_WRITTEN; ``asking`` means OFFERING, ASKING_LEAVE, SAVING_TO_LEAVE, ASKING_REPLAN,
 SAVING_TO_REPLAN, ASKING_CLOSE, ASKING_LOSE_ON_LEAVE and ASKING_LOSE_ON_CLOSE):
@@ -67,8 +74,8 @@ The table, built from :data:`TABLE` (docs/work_keeping.md holds it as Markdown;
 - working, SAVING_TO_LEAVE, SAVING_TO_REPLAN + SAVE [no patient yet, none named] → stays.
   Written: —. Window: asks for the patient.
 - working + SAVE → ON_VERSION or stays. Written: the version with its observations (a new
-  patient first); this plan's draft cleared. Window: status; autosave stopped (refused:
-  message, stays).
+  patient first); this plan's draft cleared. Window: status; autosave stopped (another
+  version saved meanwhile: message offering to compare them; refused: message, stays).
 - SAVING_TO_LEAVE, SAVING_TO_REPLAN + SAVE → stays. Written: as above. Window: as above; the
   question returns to ON_VERSION.
 - working + LEAVE [nothing unsaved] → stays. Written: —. Window: goes on: opens it.
@@ -115,6 +122,9 @@ The table, built from :data:`TABLE` (docs/work_keeping.md holds it as Markdown;
 - ASKING_CLOSE + NO → back. Written: —. Window: stays open; autosave restarted.
 - ASKING_LOSE_ON_CLOSE + DISCARD → CLOSED. Written: —. Window: closes.
 - ASKING_LOSE_ON_CLOSE + CANCEL → back. Written: —. Window: —.
+- ON_VERSION + REFRESH → ON_VERSION or by the write. Written: what waits, first. Window:
+  adds the observations other workstations recorded on the version.
+- working, asking + REFRESH → stays. Written: —. Window: —.
 - working + LOOK_AT_DRAFT [no records file] → stays. Written: —. Window: —.
 - working + LOOK_AT_DRAFT [nothing could be written] → stays. Written: —. Window: status:
   offered at the next start.
@@ -185,6 +195,7 @@ class Event(Enum):
     SAVE_DONE = "the save a question asked for was made"
     SAVE_FAILED = "the save a question asked for was not made"
     CLOSE = "Quit"
+    REFRESH = "the window comes back into focus: look for what other workstations recorded"
     FILE_WRITTEN = "the plan written to a plan file"
     EXPORTED = "the observations exported as CSV"
     YES = "answered Yes"
@@ -243,6 +254,8 @@ class Question:
 class Message:
     text: str
     warning: bool = True  # False: for information only
+    # (patient id, version, version): the two versions the message offers to compare
+    compare: tuple[int, int, int] | None = None
 
 
 class Kind(Enum):
@@ -266,6 +279,7 @@ class Opening:
     patient_id: int | None = None
     version_id: int | None = None
     status: str = ""
+    known_latest: int | None = None  # the patient's latest version when this was read
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -302,6 +316,8 @@ class Reply:
     save_first: SaveFirst | None = None
     ask_patient: bool = False  # save: name the patient, then save again
     saved_number: int | None = None
+    # observations other workstations recorded on the version on screen, to add to it
+    refreshed: tuple[Observation, ...] = ()
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -367,16 +383,34 @@ class _Out:
         self.save_first: SaveFirst | None = None
         self.ask_patient = False
         self.saved_number: int | None = None
+        self.refreshed: tuple = ()
 
-    def message(self, text: str, *, warning: bool = True) -> None:
-        self.messages.append(Message(text=text, warning=warning))
+    def message(
+        self, text: str, *, warning: bool = True, compare: tuple[int, int, int] | None = None
+    ) -> None:
+        self.messages.append(Message(text=text, warning=warning, compare=compare))
 
     def reply(self) -> Reply:
         return Reply(
             question=self.question, messages=tuple(self.messages), status=self.status,
             autosave=self.autosave, go=self.go, open=self.open, save_first=self.save_first,
             ask_patient=self.ask_patient, saved_number=self.saved_number,
+            refreshed=self.refreshed,
         )  # fmt: skip
+
+
+def _meanwhile_words(saved: Any) -> str:
+    """Who saved which version while this one was being worked on (a store.Saved)."""
+    others = "; ".join(
+        f"version {o.version} by {o.author or 'no initials'} at "
+        f"{o.workstation or 'an unnamed workstation'} ({o.created_at})"
+        for o in saved.meanwhile
+    )
+    return (
+        f"Saved as version {saved.number}. Meanwhile another version of this patient was "
+        f"saved on another workstation: {others}. Both are kept; compare them before going "
+        "on."
+    )
 
 
 def readable_observations(records: list) -> tuple[list[Observation], str]:
@@ -460,6 +494,10 @@ class WorkSession:
         self.problem = problem  # why there is no records file, when there is none
         self.state = State.AS_OPENED  # a blank planner
         self.patient_id: int | None = None  # the records patient of the plan on screen
+        # the patient's latest version this screen knew of (None: not known): a save told
+        # of those saved meanwhile on other workstations
+        self.known_latest: int | None = None
+        self._version_held: list | None = None  # what the saved version held, as last read
         self.saved: SavedVersion | None = None
         self.tag = self._new_tag()  # marks the drafts this plan writes
         self._back = State.AS_OPENED  # where a question returns to
@@ -551,6 +589,11 @@ class WorkSession:
 
     def close(self) -> Reply:
         return self._run(Event.CLOSE)
+
+    def refresh(self) -> Reply:
+        """The window is back in focus: what other workstations recorded on the saved
+        version on screen comes onto it."""
+        return self._run(Event.REFRESH)
 
     def file_written(self) -> Reply:
         return self._run(Event.FILE_WRITTEN)
@@ -713,7 +756,10 @@ class WorkSession:
             announced = Opening(request=request, patient_id=self.patient_id)
         self._opening = announced
         if announced.kind is not Kind.REPLAN:
+            if announced.patient_id != self.patient_id or announced.kind is not Kind.KEPT:
+                self.known_latest = announced.known_latest
             self.patient_id = announced.patient_id
+        self._version_held = None
         self.saved, self._last_valid, self._exported, self._trouble = None, None, (), ""
         self._opened_request = request
         self._opened_unsaved = announced.kind in (Kind.DRAFT, Kind.REPLAN)
@@ -730,9 +776,12 @@ class WorkSession:
         work is measured against; a saved version is named with what it stores."""
         opening, plan, reasons = self._opening, self.screen.plan, self.screen.acknowledged
         if opening.kind is Kind.VERSION:
+            from vetfluid.course.observations import observation_record
+
             self.saved = SavedVersion(
                 row_id=opening.version_id, request=opening.request, acknowledged=reasons
             )
+            self._version_held = [observation_record(o) for o in opening.observations or ()]
         opened = plan.request if plan is not None and not self._opened_unsaved else None
         self._yardstick = (opened, reasons if opened is not None else {})
         self._remember_valid()
@@ -793,10 +842,14 @@ class WorkSession:
         from later additions) and they are retried. Raises RecordsError when the draft
         cannot take them either."""
         row_id = self.saved.row_id
+        screen = self._observation_records()
         try:
-            written = self.records.keep_observations(
-                version_id=row_id, observations=self._observation_records()
+            written = self._held_differs(screen)
+            # only this screen's additions and removals: other workstations' stand
+            self.records.merge_observations(
+                version_id=row_id, observations=screen, based_on=self._version_held
             )
+            self._version_held = screen
         except RecordsError as exc:
             self._trouble = exc.one_line()
             try:
@@ -816,6 +869,19 @@ class WorkSession:
         if self._draft_is_ours(out):
             self.records.clear_draft()  # its edits were undone, or it held what is written now
         return State.ON_VERSION
+
+    def _held_differs(self, screen: list[dict]) -> bool:
+        """Whether the screen's observations differ from what the version held as last
+        read (unknown: they may)."""
+        from collections import Counter
+
+        from vetfluid.records.store import observation_key
+
+        if self._version_held is None:
+            return True
+        return Counter(map(observation_key, screen)) != Counter(
+            map(observation_key, self._version_held)
+        )
 
     def _save_draft(self, out: _Out, content: dict) -> None:
         """Replace the draft. Observations another plan's draft keeps for a saved version
@@ -874,6 +940,7 @@ class WorkSession:
             "acknowledged_for": self.screen.acknowledged_for,
             "observations": self._observation_records(),
             "patient_id": self.patient_id,
+            "known_latest": self.known_latest,
             "closed": closed,
             "tag": self.tag,
         }
@@ -925,19 +992,25 @@ class WorkSession:
         """The plan as the patient's next version, with the observations on it (one
         transaction); this plan's draft is cleared (another plan's stays)."""
         plan, reasons = self.screen.plan, self.screen.acknowledged
+        kept = self._observation_records() if with_observations else []
         try:
             if self.patient_id is None:
                 self.patient_id = self.records.add_patient(
                     name=patient.name, species_id=plan.request.species_id,
                     client_ref=patient.client_ref,
                 )  # fmt: skip
-            number = self.records.save_version(
+                self.known_latest = 0
+            saved = self.records.save_new_version(
                 patient_id=self.patient_id, plan=plan, acknowledged=reasons, author=author,
-                observations=self._observation_records() if with_observations else [],
+                observations=kept, known_latest=self.known_latest,
             )  # fmt: skip
         except (RecordsError, VetfluidError) as exc:
             out.message(f"Not saved: {exc}")
             return False
+        number, self.known_latest, self._version_held = saved.number, saved.number, kept
+        if saved.meanwhile:
+            out.message(_meanwhile_words(saved), warning=False,
+                        compare=(self.patient_id, saved.meanwhile[-1].version, number))  # fmt: skip
         out.autosave = Autosave.STOP  # what was being edited is saved, observations and all
         self._unwritten, self._trouble, self._opened_unsaved = False, "", False
         try:
@@ -961,6 +1034,39 @@ class WorkSession:
     def _save_asked_for(self, out: _Out, **data: Any) -> None:
         if self._save(out, **data):
             self._back = State.ON_VERSION
+
+    def _refresh(self, out: _Out) -> State:
+        """Bring onto the screen what other workstations recorded on the saved version
+        since it was last read (what this screen waits to write goes first)."""
+        from collections import Counter
+
+        from vetfluid.records.store import observation_key
+
+        if self._unwritten:
+            reached = self._write_work(out, closed=False)
+            if reached is not State.ON_VERSION:
+                return reached
+        try:
+            stored = self.records.observations(self.saved.row_id)
+        except RecordsError as exc:
+            out.status = f"Could not look for observations from other workstations: {exc}"
+            return self.state
+        readable, _ = readable_observations(stored)
+        from vetfluid.course.observations import observation_record
+
+        screen = Counter(map(observation_key, self._observation_records()))
+        new = []
+        for observation in readable:
+            key = observation_key(observation_record(observation))
+            if screen[key]:
+                screen[key] -= 1
+            else:
+                new.append(observation)
+        if new:
+            out.refreshed = tuple(new)
+            out.status = f"{len(new)} observation(s) recorded on another workstation were added."
+            self._version_held = self._observation_records() + [observation_record(o) for o in new]
+        return State.ON_VERSION
 
     # ---- actions: leaving ------------------------------------------------------------------------
     def _go(self, out: _Out, opening: Opening) -> None:
@@ -1208,6 +1314,7 @@ class WorkSession:
             acknowledged_for=wording if isinstance(wording, dict) else None,  # older drafts
             observations=tuple(kept), patient_id=patient if type(patient) is int else None,
             status="Restored the plan that was being edited." + unreadable,
+            known_latest=known if type(known := draft.get("known_latest")) is int else None,
         )  # fmt: skip
         out.go, out.open, self._next = True, opening, opening
 
@@ -1259,9 +1366,9 @@ class WorkSession:
             out.message(NO_RECORDS_FILE, warning=False)
             return None
         try:
-            chosen = next(
-                (v for v in self.records.versions(patient_id) if v.version == number), None
-            )
+            versions = self.records.versions(patient_id)
+            chosen = next((v for v in versions if v.version == number), None)
+            latest = versions[-1].version if versions else 0
             name = self.records.patient(patient_id).name
         except VetfluidError as exc:  # a damaged page, a patient no longer there
             out.message(f"Version {number} could not be read from the records: {exc}")
@@ -1284,7 +1391,7 @@ class WorkSession:
         return Opening(
             kind=Kind.VERSION, request=stored, acknowledged=chosen.acknowledged,
             acknowledged_for=wording, patient_id=patient_id, version_id=chosen.id,
-            status=status or f"Opened {name}, version {number}.",
+            status=status or f"Opened {name}, version {number}.", known_latest=latest,
         )  # fmt: skip
 
     # ---- actions: with no records file -----------------------------------------------------------
@@ -1386,7 +1493,8 @@ TABLE: tuple[Row, ...] = (
          says="asks for the patient"),
     _row(WORKING, E.SAVE, (S.ON_VERSION, N.STAY), W._save_now,
          written="the version with its observations (a new patient first); this plan's "
-         "draft cleared", says="status; autosave stopped (refused: message, stays)"),
+         "draft cleared", says="status; autosave stopped (another version saved meanwhile: "
+         "message offering to compare them; refused: message, stays)"),
     _row(SAVING, E.SAVE, N.STAY, W._save_asked_for, written="as above",
          says="as above; the question returns to ON_VERSION"),
     # leaving for another plan
@@ -1436,6 +1544,11 @@ TABLE: tuple[Row, ...] = (
     _row(S.ASKING_CLOSE, E.NO, N.BACK, W._keep_trying, says="stays open; autosave restarted"),
     _row(S.ASKING_LOSE_ON_CLOSE, E.DISCARD, S.CLOSED, W._shut, says="closes"),
     _row(S.ASKING_LOSE_ON_CLOSE, E.CANCEL, N.BACK),
+    # other workstations
+    _row(S.ON_VERSION, E.REFRESH, (S.ON_VERSION, N.WRITTEN), W._refresh,
+         written="what waits, first", says="adds the observations other workstations "
+         "recorded on the version"),
+    _row(WORKING | ASKING, E.REFRESH, N.STAY),
     # the draft left last time
     _row(WORKING, E.LOOK_AT_DRAFT, N.STAY, when=NO_RECORDS),
     _row(WORKING, E.LOOK_AT_DRAFT, N.STAY, W._say_offered_later, NOTHING_WRITTEN,
