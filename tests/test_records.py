@@ -728,3 +728,37 @@ def test_a_damaged_page_of_plan_versions_is_a_records_error_when_read(tmp_path):
         assert db.patient(pid).name == "Rex"
         with pytest.raises(RecordsError, match="could not read the plan versions"):
             db.versions(pid)
+
+
+def test_a_migrated_database_has_the_layout_of_a_new_one(tmp_path):
+    # One layout whichever way a database came to the latest schema: built new (the
+    # ordinary start, with no migration code loaded) or built as schema 1 and migrated.
+    from sqlalchemy import create_engine, inspect
+
+    from vetfluid.records import schema
+
+    def layout(url: str, build) -> dict:  # noqa: ANN001
+        engine = create_engine(url)
+        with engine.begin() as conn:
+            build(conn)
+        seen = inspect(engine)
+        found = {
+            name: (
+                sorted((c["name"], str(c["type"]), c["nullable"]) for c in seen.get_columns(name)),
+                sorted(i["name"] for i in seen.get_indexes(name)),
+                sorted(tuple(u["column_names"]) for u in seen.get_unique_constraints(name)),
+            )
+            for name in seen.get_table_names()
+        }
+        engine.dispose()
+        return found
+
+    def migrated(conn) -> None:  # noqa: ANN001
+        schema.create_schema(conn, 1)
+        version = 1
+        while version < schema.SCHEMA_VERSION:
+            version = schema.migrate(conn, version)
+
+    new = layout(f"sqlite:///{tmp_path / 'new.sqlite'}", schema.create_latest)
+    old = layout(f"sqlite:///{tmp_path / 'old.sqlite'}", migrated)
+    assert new == old and set(new) >= set(schema.TABLES)

@@ -163,17 +163,17 @@ def test_the_server_lost_mid_session_leaves_the_work_in_the_local_draft(postgres
 
 
 def test_a_schema_1_database_on_the_server_is_migrated(postgres_url):
-    """Built as schema 1 (as every database starts), with a version saved then: opened, it
+    """Built as schema 1 (as the first vetfluids built it), with a version saved then: opened, it
     is brought up to date and the old version says it was saved from no known workstation."""
     from sqlalchemy import create_engine, text
 
     from vetfluid.records.location import server_address
-    from vetfluid.records.schema import SCHEMA_VERSION, create_schema_1
+    from vetfluid.records.schema import SCHEMA_VERSION, create_schema
 
     address = server_address(postgres_url)
     engine = create_engine(address.sqlalchemy_url(), connect_args=address.connect_args())
     with engine.begin() as conn:
-        create_schema_1(conn)
+        create_schema(conn, 1)
         conn.execute(text("INSERT INTO patients (name, species_id, created_at) "
                           "VALUES ('Tom', 'cat', 'then')"))  # fmt: skip
         plan = build_plan(DEMOS["renal_cat"].request)

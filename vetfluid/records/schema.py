@@ -1,9 +1,11 @@
 """The records' tables, one definition for SQLite and PostgreSQL (SQLAlchemy Core), and the
 forward migrations between schema versions (Alembic's operations, run by our own counter).
 
-Every database, whichever engine, is built as schema 1 and migrated forward in the same
-transaction, so every database has one layout; an older one is migrated the same way
-when it is opened. The schema version is kept in ``meta`` (``schema_version``), as every
+A new database, whichever engine, is built at the latest schema from the same table
+definitions (:func:`create_latest`); an older one is migrated forward step by step when
+it is opened (Alembic is imported only then: it is no part of an ordinary start).
+``tests/test_records.py`` checks that a schema-1 database migrated forward has the very
+layout of a new one. The schema version is kept in ``meta`` (``schema_version``), as every
 vetfluid has kept it, rather than in Alembic's own table: files written by earlier
 vetfluids carry it there.
 
@@ -106,14 +108,22 @@ _IMMUTABLE = {
 }
 
 
-def create_schema_1(connection: Connection) -> None:
-    """Build schema 1 inside the caller's transaction (both engines' DDL is transactional)."""
-    first = MetaData()
-    _tables(first, schema_version=1)
-    first.create_all(connection)
+def create_schema(connection: Connection, version: int) -> None:
+    """Build schema ``version`` (1, for the migration tests, or the latest) inside the
+    caller's transaction (both engines' DDL is transactional)."""
+    tables = MetaData()
+    _tables(tables, schema_version=version)
+    tables.create_all(connection)
     for statement in _IMMUTABLE[connection.dialect.name]:
         connection.exec_driver_sql(statement)
-    connection.execute(text("INSERT INTO meta (key, value) VALUES ('schema_version', '1')"))
+    connection.execute(
+        text("INSERT INTO meta (key, value) VALUES ('schema_version', :v)"), {"v": str(version)}
+    )
+
+
+def create_latest(connection: Connection) -> None:
+    """A new database at :data:`SCHEMA_VERSION`."""
+    create_schema(connection, SCHEMA_VERSION)
 
 
 def _operations(connection: Connection):  # noqa: ANN202 — alembic.operations.Operations

@@ -462,10 +462,7 @@ class Records:
             self._lock_schema(conn)
             if not _blank(conn):
                 return False
-            schema.create_schema_1(conn)
-            version = 1
-            while version < SCHEMA_VERSION:
-                version = schema.migrate(conn, version)
+            schema.create_latest(conn)
         return True
 
     @staticmethod
