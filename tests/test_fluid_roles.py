@@ -453,3 +453,18 @@ def test_a_whole_blood_volume_under_the_skin_at_once_is_blocked():
     plan = plan_for(species_id="pigeon", weight_kg=0.4, dehydration_percent=12, route="sc",
                     max_sites_per_dose=10, dose_interval_h=24)  # fmt: skip
     assert severities(plan)["VOLUME_PER_HOUR_ABOVE_CEILING"] == "hard"
+
+
+def test_shock_boluses_judged_with_nothing_excreted():
+    # Found by the long safety oracle: a hypernatraemic (161 mmol/L) 500 g African grey given
+    # seven boluses of a Na-140 fluid. The followed kidney excreted the load and Na barely
+    # moved; in shock the kidney cannot be counted on (hypovolaemia lowers filtration), and
+    # mixed into 0.3 L of body water the boluses lower Na about 1 mmol/L in the first hour
+    # (Adrogué & Madias 2000, general form): faster than the 0.5 mmol/L/h limit.
+    bird = dict(species_id="african_grey", weight_kg=0.5, fluid_id="balanced_acetate_gluconate",
+                drop_factor=10, resuscitation_boluses=7, replace_hours=1.0)  # fmt: skip
+    plan = plan_for(serum_na=161.0, **bird)
+    assert severities(plan)["SODIUM_BOLUS_CHANGE"] == "soft"
+    # the same boluses for a bird whose Na is normal and stays so raise nothing
+    normal = plan_for(serum_na=150.0, **bird)
+    assert "SODIUM_BOLUS_CHANGE" not in severities(normal)

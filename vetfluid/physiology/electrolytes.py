@@ -156,6 +156,51 @@ def sodium_change_for_volume(
     return volume_l * (infusate_na + infusate_k - serum_na) / (tbw_l + volume_l)
 
 
+def bolus_mixing_change(
+    flows: list[tuple[float, float, float, float]],
+    *,
+    boluses_end_h: float,
+    serum_na: float,
+    tbw_l: float,
+) -> tuple[float, float]:
+    """The largest serum-Na change in any hour that starts while resuscitation boluses run,
+    with nothing excreted: what is given in the hour (the boluses, and the fluid after them
+    that the hour reaches) mixes into the body water (Adrogué–Madias in its general form,
+    Na + K of the mixture: :func:`sodium_change_for_volume`), Na stepped through what was
+    given before the hour starts. In shock the kidney cannot be counted on to excrete a
+    bolus's water or salt (hypovolaemia lowers filtration and keeps ADH up), so this is the
+    bolus hours' own bound beside the followed body. ``flows``: (start h, end h, mL/h,
+    Na + K mmol/L) each; returns (change in mmol/L, the hour its window starts)."""
+    if boluses_end_h <= 0 or not flows:
+        return 0.0, 0.0
+
+    def given(a: float, b: float) -> tuple[float, float]:  # litres, mmol of Na + K
+        litres = cations = 0.0
+        for s, e, rate, na_k in flows:
+            volume = rate * max(min(b, e) - max(a, s), 0.0) / 1000.0
+            litres += volume
+            cations += volume * na_k
+        return litres, cations
+
+    turns = sorted({f[0] for f in flows} | {f[1] for f in flows})
+    starts = sorted({t for t in turns if t < boluses_end_h}
+                    | {t - 1.0 for t in turns if 1.0 <= t < boluses_end_h + 1.0})  # fmt: skip
+    worst, at = 0.0, 0.0
+    for start in starts:
+        before, salt = given(0.0, start)
+        na = (serum_na * tbw_l + salt) / (tbw_l + before)  # what the boluses left
+        litres, cations = given(start, start + 1.0)
+        if litres <= 0:
+            continue
+        change = sodium_change_for_volume(
+            serum_na=na, infusate_na=cations / litres, infusate_k=0.0, tbw_l=tbw_l + before,
+            volume_l=litres,
+        )  # fmt: skip
+        if abs(change) > abs(worst):
+            worst, at = change, start
+    return worst, at
+
+
 def sodium_change_per_litre(
     *, serum_na: float, infusate_na: float, infusate_k: float, tbw_l: float
 ) -> float:

@@ -1299,12 +1299,34 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         serum_na=start_na, infusate_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
         tbw_l=tbw.number * w, max_change_per_h=max_change,
     )  # fmt: skip
+    bolus_comp = fluids.composition(regimen.bolus_fluid)
+    flows = [
+        (
+            p.start_h,
+            p.end_h,
+            p.rate_ml_per_h or 0.0,
+            bolus_comp.na_mmol_per_l + bolus_comp.k_mmol_per_l,
+        )
+        for p in bolus_phases
+    ]
+    flows += [
+        (
+            p.start_h,
+            p.end_h,
+            p.volume_ml / max(p.end_h - p.start_h, 1e-9),
+            bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l,
+        )
+        for p in fluid_phases
+    ]
+    mixing = electrolytes.bolus_mixing_change(
+        flows, boluses_end_h=start_h, serum_na=start_na, tbw_l=tbw.number * w
+    )  # fmt: skip
     safety.check_sodium(
         ledger, na_course, held=held, normal=normal, max_change_per_h=max_change,
         bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l, bag_name=bag.name,
         diuretic_names=tuple(dict.fromkeys(d.name for d in doses)),
         carrier_phase=_phase_at(phases, na_course.carrier_hour).kind,
-        fastest_carrier_ml_per_h=fastest,
+        fastest_carrier_ml_per_h=fastest, bolus_mixing=mixing,
     )  # fmt: skip
     if request.serum_na is not None:
         ledger.use(tbw)

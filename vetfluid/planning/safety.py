@@ -978,6 +978,7 @@ def check_sodium(
     max_change_per_h: float,
     carrier_phase: str,
     fastest_carrier_ml_per_h: float | None,
+    bolus_mixing: tuple[float, float] = (0.0, 0.0),
 ) -> None:
     """Serum Na through the plan (``course``: the body as the Course tab follows it, kidney
     and diuretics included; ``held``: the same with ADH held, the urine never diluting below
@@ -1083,15 +1084,27 @@ def check_sodium(
             "free-water deficit, or choose a fluid closer to the patient's Na.",
             sourced.source_id,
         )  # fmt: skip
-    bolus = abs(course.bolus_change_per_h)
+    # during shock boluses the kidney cannot be counted on (hypovolaemia lowers filtration and
+    # keeps ADH up): the boluses mixed into the body water with nothing excreted
+    # (``bolus_mixing``) are read beside the followed body
+    change, hour = bolus_mixing
+    if abs(course.bolus_change_per_h) > abs(change):
+        change, hour = course.bolus_change_per_h, course.bolus_hour
+    bolus = abs(change)
+    starts_outside = not low - 1e-9 <= course.start_na <= high + 1e-9
+    starts_outside |= not low - 1e-9 <= course.start_na + change <= high + 1e-9
     # an unmeasured Na is not judged during shock boluses: perfusion first, Na measured after
-    if course.measured and leaves_range and bolus > max_change_per_h * (1 + 1e-9):
+    if (
+        course.measured
+        and (leaves_range or starts_outside)
+        and bolus > max_change_per_h * (1 + 1e-9)
+    ):
         ledger.add(
             "soft",
             "SODIUM_BOLUS_CHANGE",
-            f"{subject} {_direction(course.bolus_change_per_h)} {q(bolus, 'mmol/L')} in the "
-            f"hour from {hour_text(course.bolus_hour)}, while the resuscitation boluses run: "
-            f"faster than {q(max_change_per_h, 'mmol/L/h')}.",
+            f"{subject} {_direction(change)} {q(bolus, 'mmol/L')} in the hour from "
+            f"{hour_text(hour)}, while the resuscitation boluses run (nothing excreted, as in "
+            f"shock): faster than {q(max_change_per_h, 'mmol/L/h')}.",
             "Give the boluses only while perfusion needs them, reassess after each and "
             "measure Na before the fluids that follow.",
             sourced.source_id,
