@@ -201,6 +201,10 @@ ANSWERS_EVERY_RULE = (
     # figures, Na among them, are no numbers to check; the plan is blocked until the
     # losses, outputs or doses are put right
     "PLAN_BEYOND_THE_BODY",
+    # a site's volume below the smallest syringe mark (hard): no divided dose of this plan
+    # can be drawn up at all; the fix is a line (IO/IV) at a set rate, a different plan
+    # whose every figure is checked afresh
+    "SITE_BELOW_SMALLEST_MARK",
 )
 
 
