@@ -254,3 +254,17 @@ def test_there_is_one_save_and_a_plan_file_is_imported_or_exported(planner):
     assert "Import plan file…" in entries
     export = entries["Export"].menu()
     assert "Plan file…" in [a.text().replace("&", "") for a in export.actions()]
+
+
+def test_the_records_settings_show_their_hints_whole(qtbot):
+    # Issue 20, rough edge 4, in the records settings (issue 21): the placeholders were cut
+    # ("empty: the recor…", "this computer's n…"), and a server address is longer still.
+    from ui.records.records_settings import RecordsSettingsDialog
+
+    dialog = RecordsSettingsDialog(None)
+    qtbot.addWidget(dialog)
+    dialog.show()
+    _settle(qtbot)
+    for edit in (dialog.url, dialog.password, dialog.workstation):
+        assert _fits(edit, edit.placeholderText()), edit.placeholderText()
+    assert _fits(dialog.url, "postgresql://vetfluid@records.clinic.example:5432/vetfluid")

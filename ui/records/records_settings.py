@@ -62,6 +62,12 @@ class RecordsSettingsDialog(QDialog):
         self.initials = QLineEdit(kept.initials)
         self.initials.setAccessibleName("Your initials")
         self.initials.setMaxLength(6)
+        # every hint whole, and room for a server address as a clinic writes one
+        example = "postgresql://vetfluid@records.clinic.example:5432/vetfluid"
+        for edit, widest in ((self.url, example), (self.password, None),
+                             (self.workstation, None)):  # fmt: skip
+            text = widest or edit.placeholderText()
+            edit.setMinimumWidth(edit.fontMetrics().horizontalAdvance(text) + 24)
         form.addRow("Records &server", self.url)
         form.addRow("Server &password", self.password)
         form.addRow("&Workstation", self.workstation)
