@@ -139,10 +139,11 @@ def server_address(url: str) -> ServerAddress:
     field = "records server"
     try:
         parsed = make_url(url.strip())
-    except (ArgumentError, ValueError) as exc:
+    except (ArgumentError, ValueError):
+        # never the address itself in the message: a mistyped one may hold a password
         raise InputError(
-            f"{url!r} is not a server address ({exc})", field=field,
-            fix="write it as postgresql://user@host:5432/database",
+            "the records server address cannot be read as one", field=field,
+            fix="write it as postgresql://user@host:5432/database (no password in it)",
         ) from None  # fmt: skip
     if parsed.drivername not in _SCHEMES:
         raise InputError(
@@ -163,17 +164,23 @@ def server_address(url: str) -> ServerAddress:
             fix="write it as postgresql://user@host:5432/database",
         )  # fmt: skip
     query = {k: v if isinstance(v, str) else v[-1] for k, v in parsed.query.items()}
-    sslmode = query.pop("sslmode", "prefer")
+    sslmode = query.pop("sslmode", "prefer").lower()
     if sslmode not in SSL_MODES:
         raise InputError(
             f"sslmode={sslmode} would send patient records unencrypted", field=field,
             fix="leave sslmode out (TLS whenever the server offers it) or use require, "
             "verify-ca or verify-full",
         )  # fmt: skip
-    if "password" in query or "passfile" in query:
+    if {"password", "passfile", "sslpassword"} & set(query):
         raise InputError(
-            "the server address names a password or password file", field=field,
-            fix=f"remove it; the password is kept in {PASSFILE_NAME}",
+            "the server address names a password, a password file or a key's passphrase",
+            field=field, fix=f"remove it; the password is kept in {PASSFILE_NAME}",
+        )  # fmt: skip
+    if {"host", "hostaddr", "port", "dbname", "user"} & set(query):
+        # libpq would take these over the address shown, and the password kept for it
+        raise InputError(
+            "the server address names its host, port, database or user again after the ?",
+            field=field, fix="write each once, as postgresql://user@host:5432/database",
         )  # fmt: skip
     return ServerAddress(
         host=parsed.host, port=parsed.port or 5432, database=parsed.database,
