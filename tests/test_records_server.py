@@ -53,7 +53,7 @@ def test_the_environment_names_the_server_before_the_settings_file(monkeypatch):
         ("postgresql://vet@records.clinic/vetfluid?sslmode=allow", "unencrypted"),
         ("mysql://vet@records.clinic/vetfluid", "PostgreSQL"),
         ("postgresql://records.clinic/vetfluid", "needs a user"),
-        ("not a url", "not a server address"),
+        ("not a url", "cannot be read as one"),
     ],
 )
 def test_an_address_with_a_password_or_without_tls_is_refused_and_never_saved(url, says):
