@@ -507,11 +507,12 @@ def follow_balance(
         asked = math.inf
     else:
         osm_now = math.nan
-    last_change = max(
-        (i for i in range(n) if water_in_ml[i] or na_in_mmol[i] or k_in_mmol[i]
-         or free_water_out_ml[i] or loss_out_ml[i]),
-        default=0,
-    )  # fmt: skip
+    last_change = max(n - 1, 0)  # the last step anything goes in or out, found from the end
+    while last_change > 0 and not (
+        water_in_ml[last_change] or na_in_mmol[last_change] or k_in_mmol[last_change]
+        or free_water_out_ml[last_change] or loss_out_ml[last_change]
+    ):  # fmt: skip
+        last_change -= 1
     if drugs is not None:
         last_change = max(last_change, drugs.last_step)
     # the settings read once, not every step (the loop runs thousands of steps per plan)
