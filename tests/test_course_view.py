@@ -574,13 +574,15 @@ def test_in_ins_and_outs_mode_no_urine_is_predicted_and_the_title_says_why(qtbot
     assert len(view.urine_points.getData()[0]) == 1  # what was measured is still drawn
 
 
+@pytest.mark.parametrize("size", [(1440, 900), (1280, 800)])  # a clinic's usual screens
 @pytest.mark.parametrize("demo", ["dehydrated_dog", "renal_cat", "small_gerbil",
                                   "cold_bearded_dragon"])  # fmt: skip
-def test_every_axis_has_a_label_and_no_words_are_cut_off(qtbot, planner, demo):
-    """At the size the views are rendered at (scripts/render_views.py): each value axis
+def test_every_axis_has_a_label_and_no_words_are_cut_off(qtbot, planner, demo, size):
+    """At the sizes the views are rendered at (scripts/render_views.py): each value axis
     names its unit, each hour axis writes "h" on its ticks, each label on a line lies
-    inside its plot and each title within its plot's width."""
-    planner.resize(1440, 900)
+    inside its plot, each title within its plot's width and each legend inside the view
+    (a long title once pushed the right-hand legends out of a 1280-pixel window)."""
+    planner.resize(*size)
     planner.open_demo(demo)
     qtbot.waitUntil(lambda: planner.session.plan is not None)
     planner.details.setCurrentWidget(planner.course_holder)
@@ -593,6 +595,9 @@ def test_every_axis_has_a_label_and_no_words_are_cut_off(qtbot, planner, demo):
         assert plot.getAxis("bottom").tickStrings([6.0], 1.0, 6.0) == ["6 h"]
         title = plot.titleLabel
         assert title.item.boundingRect().width() <= plot.geometry().width(), title.text
+        shown = view.graphics.viewport().rect()
+        legend = view.graphics.mapFromScene(plot.legend.sceneBoundingRect()).boundingRect()
+        assert shown.contains(legend), (plot.titleLabel.text, legend, shown)
     for label in view.labels:
         if not label.text():
             continue

@@ -61,6 +61,7 @@ from ui.course.timeline_view import (
     hours_shown,
     nice_ceiling,
     pin_legend,
+    set_title,
     show_grid,
 )
 from ui.planning.session import PlanSession
@@ -110,6 +111,7 @@ SEVERITY_MARKS = {"hard": "✖", "soft": "⚠", "info": "ℹ"}
 PLASMA, INTERSTITIAL, CELLS, NA, WEIGHT = "#1f77b4", "#2ca02c", "#9467bd", "#d62728", "#8c564b"
 URINE, OSMOLALITY, POTASSIUM = "#b7790f", "#9c4f96", "#16878a"  # amber, plum, teal
 OLIGURIA, NEUTRAL = "#cf3f38", "#8c8c8c"  # brick red (as the overload line), grey
+TEXT_SLACK_PX, MIN_TEXT_PX = 4, 100  # a title or label short of its plot's width; at least
 LEFT_AXIS_PX = 62  # the same on every plot, so the hour axes of a column line up
 LEGEND_PX = 142  # legends beside their plots, never over the curves
 X_MARGIN_FRACTION = 0.01
@@ -205,7 +207,7 @@ class CourseView(QWidget):
             # the two columns of plots equally wide, whatever their titles: Qt shrinks each
             # from the same (unreachable) preferred width by the same fraction
             self.graphics.ci.layout.setColumnPreferredWidth(column, 10_000)
-        self.volume_plot = self._plot(0, 0, "Body water: change from the start", "Change (mL)")
+        self.volume_plot = self._plot(0, 0, "Change in body water", "Change (mL)")
         self.na_plot = self._plot(1, 0, NA_TITLE, "Na (mmol/L)")
         self.weight_plot = self._plot(2, 0, "Body weight", "Weight (kg)", bottom=True)
         self.urine_plot = self._plot(0, 2, URINE_TITLE, "Urine (mL/kg/h)")
@@ -283,7 +285,11 @@ class CourseView(QWidget):
         self._x_end: float | None = None
         for plot in self.plots:
             pin_legend(self.graphics, plot.legend)
+        self._text_px: float | None = None  # how wide a title may be drawn
+        for plot in self.plots:
+            plot.vb.sigResized.connect(lambda _vb, plot=plot: self._fit_labels(plot))
         self._apply_palette()
+        self.graphics.viewport().installEventFilter(self)  # titles and labels follow its width
         split.addWidget(self.graphics)
 
         bottom = QTabWidget()
@@ -386,6 +392,11 @@ class CourseView(QWidget):
             self._apply_palette()
         super().changeEvent(event)
 
+    def eventFilter(self, watched, event) -> bool:  # noqa: N802,ANN001 (Qt override)
+        if watched is self.graphics.viewport() and event.type() == QEvent.Type.Resize:
+            self._fit_texts()
+        return False
+
     def _apply_palette(self) -> None:
         palette = self.palette()
         apply_palette(palette, self.graphics, self.plots)
@@ -393,6 +404,34 @@ class CourseView(QWidget):
                                                         QPalette.ColorRole.Base))  # fmt: skip
         for marks in self.dose_marks.values():
             marks.set_colour(text, base)
+        self._text_px = None  # the palette set each title again, on one line
+        self._fit_texts()
+
+    def _fit_texts(self) -> None:
+        """Titles go on more lines where the plots are narrow (a 1280-pixel window): each
+        plot column has what its legend, its value axis and the layout's spacing leave of
+        the view's width, and a plot is at least as wide as its title."""
+        layout = self.graphics.ci.layout
+        left, _top, right, _bottom = layout.getContentsMargins()
+        fixed = 2 * (LEGEND_PX + LEFT_AXIS_PX) + 3 * layout.horizontalSpacing() + left + right
+        pixels = max((self.graphics.viewport().width() - fixed) / 2 - TEXT_SLACK_PX, MIN_TEXT_PX)
+        if pixels == self._text_px:
+            return
+        self._text_px = pixels
+        colour = self.palette().color(QPalette.ColorRole.Text)
+        for plot in self.plots:
+            set_title(plot, plot.titleLabel.text, colour, pixels)
+        for column in (0, 2):  # the same least width: the columns shrink alike, whatever
+            layout.setColumnMinimumWidth(column, pixels + LEFT_AXIS_PX)  # their titles
+
+    def _fit_labels(self, plot) -> None:  # noqa: ANN001 — PlotItem
+        """A label on a line goes on more lines where it is wider than its plot: it ends at
+        the plan's end, the x margin short of the plot's right edge."""
+        f = X_MARGIN_FRACTION
+        width = plot.vb.width() * (1 + f) / (1 + 2 * f) - 2 * PlotLabel.MARGIN_PX
+        for label in self.labels:
+            if label in plot.items:
+                label.set_max_width(max(width, MIN_TEXT_PX))
 
     def _alert_controls(self) -> QHBoxLayout:
         row = QHBoxLayout()
@@ -755,7 +794,7 @@ class CourseView(QWidget):
                 self.osm_plot,
                 f"{OSMOLALITY_TITLE}, band narrowed (renal)"
                 if plan.request.renal_disease and result.urine_band_mosm_per_kg is not None
-                else f"{OSMOLALITY_TITLE} in the species' band",
+                else OSMOLALITY_TITLE,
             )
 
     def _mark_doses(self, plan) -> None:  # noqa: ANN001 — Plan
@@ -813,8 +852,8 @@ class CourseView(QWidget):
 
     def _set_title(self, plot, text: str) -> None:  # noqa: ANN001 — PlotItem
         if plot.titleLabel.text != text:  # setting a title relays out the plot
-            colour = self.palette().color(QPalette.ColorRole.Text).name()
-            plot.setTitle(text, color=colour, size="9pt")
+            colour = self.palette().color(QPalette.ColorRole.Text)
+            set_title(plot, text, colour, self._text_px)
 
     def _set_x_range(self, end_h: float) -> None:
         end = hours_shown(end_h, self._x_end)
@@ -827,12 +866,17 @@ class CourseView(QWidget):
     def _fit_y(self, plot, series, *, zero: bool = False, headroom: float = 0.15,
                minimum_span: float = 0.0) -> None:  # noqa: ANN001 — PlotItem, arrays  # fmt: skip
         """Show every value of ``series`` on round bounds (from zero with ``zero``), with
-        ``headroom`` above for the labels. The axis holds still while the values stay
-        inside it and it is not more than twice as wide as a fresh fit: an edit typed digit
-        by digit does not make it jump, nor redraw its text, at every keystroke."""
+        ``headroom`` above for the labels, and at least the height of the plot's tallest
+        label (a short plot, a label on two lines). The axis holds still while the values
+        stay inside it and it is not more than twice as wide as a fresh fit: an edit typed
+        digit by digit does not make it jump, nor redraw its text, at every keystroke."""
         values = [float(f(a)) for a in series if len(a) for f in (np.min, np.max)]
         if not values:
             return
+        tallest = max((label.boundingRect().height() for label in self.labels
+                       if label in plot.items and label.text()), default=0.0)  # fmt: skip
+        share = min((tallest + PlotLabel.MARGIN_PX) / max(plot.vb.height(), 1.0), 0.6)
+        headroom = max(headroom, share / (1.0 - share))
         low, high = (0.0 if zero else min(values)), max(values)
         if high - low < minimum_span:
             middle = (high + low) / 2

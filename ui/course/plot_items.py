@@ -398,9 +398,10 @@ def _pixel_rect(line: QLineF) -> QRect:
 
 
 class PlotLabel(pg.GraphicsObject):
-    """One line of text above and left of its position (in data units), or below and left
-    with ``below=True``, ``MARGIN_PX`` clear of it so a line drawn through the position
-    stays readable; drawn in pixels, so it keeps its size however the plot is scaled."""
+    """A text above and left of its position (in data units), or below and left with
+    ``below=True``, ``MARGIN_PX`` clear of it so a line drawn through the position stays
+    readable; drawn in pixels, so it keeps its size however the plot is scaled. One line,
+    or more when wider than :meth:`set_max_width` allows (a narrow plot)."""
 
     MARGIN_PX = 4.0
 
@@ -413,6 +414,7 @@ class PlotLabel(pg.GraphicsObject):
         self._text = QStaticText()
         self._text.setTextFormat(Qt.TextFormat.PlainText)
         self._rect = QRectF()
+        self._max_width: float | None = None
 
     def text(self) -> str:
         return self._text.text()
@@ -421,9 +423,22 @@ class PlotLabel(pg.GraphicsObject):
         """Show ``text``; laid out here, once, not on every repaint."""
         if text == self._text.text():
             return
-        self.prepareGeometryChange()
         self._text.setText(text)
+        self._lay_out()
+
+    def set_max_width(self, pixels: float | None) -> None:
+        """Break the text into lines (between words) where it is wider than ``pixels``."""
+        if pixels != self._max_width:
+            self._max_width = pixels
+            self._lay_out()
+
+    def _lay_out(self) -> None:
+        self.prepareGeometryChange()
+        self._text.setTextWidth(-1)  # its own width first, to measure it
         self._text.prepare(QTransform(), self._font)
+        if self._max_width is not None and self._text.size().width() > self._max_width:
+            self._text.setTextWidth(self._max_width)
+            self._text.prepare(QTransform(), self._font)
         size = self._text.size()
         width, height = size.width() + self.MARGIN_PX, size.height() + self.MARGIN_PX
         self._rect = QRectF(-width, 0.0 if self._below else -height, width, height)

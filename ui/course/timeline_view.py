@@ -19,7 +19,7 @@ import math
 
 import pyqtgraph as pg
 from PySide6.QtCore import QEvent, QPointF, QRectF, Qt
-from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette
+from PySide6.QtGui import QColor, QFont, QFontMetricsF, QPainter, QPalette, QTextOption
 from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
 
 from ui.course.plot_items import Markers, PlotAxis, PlotLabel, TickGrid, Trace, drawn_points
@@ -83,6 +83,19 @@ def pin_legend(graphics: pg.GraphicsLayoutWidget, legend: pg.LegendItem) -> None
     graphics.ci.layout.setAlignment(legend, Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
 
 
+def set_title(plot: pg.PlotItem, text: str, colour: QColor, wrap_px: float | None = None) -> None:
+    """The plot's title in the views' style; on more lines when wider than ``wrap_px``
+    (a plot is at least as wide as its title: a long one would widen its plot and push
+    what stands beside it out of the view)."""
+    item = plot.titleLabel.item
+    item.setTextWidth(-1)  # its own width first, to measure it
+    plot.setTitle(text, color=colour.name(), size="9pt")
+    if wrap_px is not None and item.boundingRect().width() > wrap_px:
+        item.document().setDefaultTextOption(QTextOption(Qt.AlignmentFlag.AlignHCenter))
+        item.setTextWidth(wrap_px)
+        plot.titleLabel.updateMin()  # the label takes the wrapped size in the layout
+
+
 def apply_palette(palette: QPalette, graphics: pg.GraphicsLayoutWidget, plots) -> None:  # noqa: ANN001
     """Plot background and text from the widget's palette (light or dark)."""
     base = palette.color(QPalette.ColorRole.Base)
@@ -94,7 +107,7 @@ def apply_palette(palette: QPalette, graphics: pg.GraphicsLayoutWidget, plots) -
             axis.setPen(text)
             axis.setTextPen(text)
         plot.grid.set_colour(text, base)
-        plot.setTitle(plot.titleLabel.text, color=text.name(), size="9pt")
+        set_title(plot, plot.titleLabel.text, text)
         plot.legend.setLabelTextColor(text)
         for _sample, label in plot.legend.items:
             label.setText(label.text, color=text.name())
