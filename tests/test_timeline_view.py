@@ -275,3 +275,19 @@ def test_the_hour_axis_ends_on_a_round_hour_and_holds_still_through_small_edits(
     assert hours_shown(84.0, 96.0) is None  # still fits and fills more than half
     assert hours_shown(97.0, 96.0) == 120.0  # no longer fits
     assert hours_shown(24.0, 96.0) == 24.0  # less than half of it: fitted afresh
+
+
+def test_the_read_out_is_shown_whole_in_a_narrow_view(view, qtbot):
+    """At a 1280-pixel window the timeline is about 780 pixels wide, and a read-out can be
+    longer (divided doses, a weight in grams): it goes on two lines rather than lose its end."""
+    view.resize(700, 700)
+    view.show()
+    qtbot.waitExposed(view)
+    view.set_plan(build_plan(GERBIL))
+    view.show_hour(1.0)
+    readout = view.readout
+    assert readout.fontMetrics().horizontalAdvance(readout.text()) > readout.contentsRect().width()
+    room = readout.contentsRect()
+    wrap = int(Qt.TextFlag.TextWordWrap.value) if readout.wordWrap() else 0
+    needed = readout.fontMetrics().boundingRect(room, wrap, readout.text())
+    assert needed.width() <= room.width() and needed.height() <= room.height(), readout.text()

@@ -282,7 +282,10 @@ class TimelineView(QWidget):
         self.readout.setContentsMargins(LEFT_AXIS_WIDTH, 4, 4, 4)
         # A fixed size (kept to the view's width in resizeEvent): new read-out text must not
         # ask every layout up to the window to recompute, which a hover would do each move.
-        self.readout.setFixedSize(400, self.readout.sizeHint().height())
+        # Two lines: at 1280 pixels the read-out is wider than the view and would be cut.
+        self.readout.setWordWrap(True)
+        lines = 2 * self.readout.fontMetrics().lineSpacing()
+        self.readout.setFixedSize(400, lines + 8)  # and the top and bottom margins
 
         self.graphics = pg.GraphicsLayoutWidget(self)
         self.graphics.setAccessibleName("Timeline plots")
