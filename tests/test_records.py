@@ -361,13 +361,13 @@ def test_merging_kept_observations_adds_what_is_missing_and_applies_the_users_re
         records.keep_observations(version_id=version, observations=[a, x, c])
         raw(records, "INSERT INTO observations (plan_version_id, observation_json, recorded_at)"
             " VALUES (:version, '{cut', '2026-12-04T06:00:00+00:00')", version=version)  # fmt: skip
-        added = records.merge_observations(version_id=version, observations=[a, b],
-                                           based_on=[a, x])  # fmt: skip
-        assert added == 1
+        merged = records.merge_observations(version_id=version, observations=[a, b],
+                                            based_on=[a, x])  # fmt: skip
+        assert merged.added == 1 and merged.kept_once == ()
         stored = records.observations(version)
         assert sorted(map(str, stored)) == sorted(map(str, [a, c, b, "{cut"]))
         # with nothing known of what it held, nothing is removed
-        assert records.merge_observations(version_id=version, observations=[x]) == 1
+        assert records.merge_observations(version_id=version, observations=[x]).added == 1
         assert x in records.observations(version)
 
 
@@ -387,10 +387,10 @@ def test_merging_leaves_a_removal_made_on_the_version_since(open_records):
         version = _version_of_a_dog(records)
         records.keep_observations(version_id=version, observations=[])  # A removed since
         assert records.merge_observations(version_id=version, observations=[a, b],
-                                          based_on=[a]) == 1  # fmt: skip
+                                          based_on=[a]).added == 1  # fmt: skip
         assert records.observations(version) == [b]
         assert records.merge_observations(version_id=version, observations=[a, b],
-                                          based_on=[a]) == 0  # fmt: skip
+                                          based_on=[a]).added == 0  # fmt: skip
         records.merge_observations(version_id=version, observations=["{newer", b], based_on=[])
         assert records.observations(version) == [b, "{newer"]
 

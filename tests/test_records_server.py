@@ -125,9 +125,9 @@ def test_the_draft_stays_on_this_computer(postgres_url, vetfluid_home):
 
 def test_a_server_that_cannot_be_reached_says_so_and_the_draft_stays_local(vetfluid_home):
     """Nothing listens on the port: refused in words, naming where the draft is kept."""
-    with pytest.raises(RecordsError, match="cannot be used") as raised:
+    with pytest.raises(RecordsError, match="cannot be reached") as raised:
         Records.open(url="postgresql://vet@127.0.0.1:9/vetfluid")
-    assert "draft stays on this computer" in raised.value.one_line()
+    assert "draft is kept on this computer" in raised.value.one_line()
     assert list(vetfluid_home.glob("server-drafts-*.sqlite"))
 
 

@@ -1393,3 +1393,106 @@ def test_a_version_saved_meanwhile_elsewhere_is_told_and_compared(
     rows = {compared.model.index(r, 0).data(): compared.model.index(r, 1).data()
             for r in range(compared.model.rowCount())}  # fmt: skip
     assert rows["Weight"].startswith("≠")  # the cat's plan against the dog's
+
+
+# ---- the review's open findings (issue 21): a server down, a changed setting ----------------
+UNREACHABLE = "postgresql://vet@127.0.0.1:9/vetfluid"  # nothing listens on port 9
+
+
+def _window(qtbot):  # noqa: ANN001, ANN202
+    """A window of our own, built after the test's answers are set (its start speaks)."""
+    from ui.main_window import MainWindow
+
+    window = MainWindow()
+    qtbot.addWidget(window)
+    window.resize(1400, 900)
+    window.show()
+    qtbot.waitUntil(lambda: window.session is not None)
+    return window
+
+
+def test_a_server_down_at_the_start_says_so_once_and_the_work_is_kept_here(
+    qtbot, monkeypatch, answer, vetfluid_home
+):
+    from vetfluid.records.location import server_address
+    from vetfluid.records.store import _drafts_file
+
+    monkeypatch.setenv("VETFLUID_RECORDS_URL", UNREACHABLE)
+    told = []
+    answer({"kept as the draft on this computer": lambda: told.append(1)})
+    window = _window(qtbot)
+    qtbot.waitUntil(lambda: told == [1])  # the start says it, once
+    assert window.keeper.records_state.isVisibleTo(window)
+    assert "not reachable" in window.keeper.records_state.text()
+    assert window.keeper.reconnect_timer.isActive()
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=6.5)
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.5)
+    window.keeper.autosave()
+    with Records.open(_drafts_file(server_address(UNREACHABLE))) as local:
+        assert local.draft()["request"]["dehydration_percent"] == 6.5
+    window.open_patient()  # cannot list patients: the same one message, no traceback
+    assert told == [1, 1]
+    assert window.close()  # written to the draft here: nothing to ask
+
+
+def test_a_changed_records_setting_applies_at_once_or_says_why_not(
+    qtbot, planner, answer, monkeypatch
+):
+    from ui.records.records_settings import RecordsSettingsDialog
+    from vetfluid.records.location import load_settings
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=6.5)
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.5)
+    before = window.records
+
+    def typed(url: str):  # noqa: ANN202
+        def exec_(dialog) -> int:  # noqa: ANN001
+            dialog.url.setText(url)
+            dialog.accept()
+            return dialog.result()
+
+        return exec_
+
+    monkeypatch.setattr(RecordsSettingsDialog, "exec", typed(UNREACHABLE))
+    told = []
+    answer({"The records in use stay": lambda: told.append(1)})
+    assert window.records_settings()
+    assert told == [1] and window.records is before  # kept: versions can still be saved
+    assert load_settings().url == UNREACHABLE  # the setting is kept for the next start
+    assert before.draft()["request"]["dehydration_percent"] == 6.5  # written first
+    answer({})
+    monkeypatch.setattr(RecordsSettingsDialog, "exec", typed(""))
+    assert window.records_settings() and window.records is before  # the same records
+
+
+def test_a_changed_records_setting_moves_the_draft_to_the_server(
+    qtbot, planner, monkeypatch, postgres_url
+):
+    from ui.records.records_settings import RecordsSettingsDialog
+
+    window = planner
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=6.5)
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.5)
+    before = window.records.path
+
+    def exec_(dialog) -> int:  # noqa: ANN001
+        dialog.url.setText(postgres_url)
+        dialog.accept()
+        return dialog.result()
+
+    monkeypatch.setattr(RecordsSettingsDialog, "exec", exec_)
+    assert window.records_settings()
+    assert window.records.server is not None
+    assert window.records.draft()["request"]["dehydration_percent"] == 6.5
+    assert "Records now" in window.statusBar().currentMessage()
+    assert not window.keeper.records_state.isVisibleTo(window)
+    with Records.open(before) as old:
+        assert old.draft() is None
+    assert window.close()

@@ -314,7 +314,11 @@ class MainWindow(QMainWindow):
 
         dialog = RecordsSettingsDialog(self)
         self.records_settings_dialog = dialog  # reachable while open (tests)
-        return bool(dialog.exec())
+        if not dialog.exec():
+            return False
+        if self.keeper is not None:  # applied now (before the planner: opened with it)
+            self.keeper.apply_records_settings()
+        return True
 
     def open_patient(self) -> None:
         """Find a patient in the records and open one of its saved versions."""

@@ -9,6 +9,8 @@ words and nothing is written.
 
 from __future__ import annotations
 
+from os import environ
+
 from PySide6.QtWidgets import (
     QDialog,
     QDialogButtonBox,
@@ -19,7 +21,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from vetfluid.common.errors import InputError
+from vetfluid.common.errors import InputError, VetfluidError
 from vetfluid.records.location import (
     URL_VARIABLE,
     RecordsSettings,
@@ -73,11 +75,13 @@ class RecordsSettingsDialog(QDialog):
         form.addRow("&Workstation", self.workstation)
         form.addRow("Your &initials", self.initials)
         note = "Saved versions carry your initials and this workstation's name."
-        from os import environ
-
         if environ.get(URL_VARIABLE) is not None:
             note += f" {URL_VARIABLE} is set and chooses the records instead of this setting."
-        note += " A change of records applies when vetfluid next starts."
+        else:
+            note += (
+                " A change of records applies at once: what you are working on is kept first, "
+                "and records that cannot be opened leave the present ones in use."
+            )
         hint = QLabel(note)
         hint.setWordWrap(True)
         form.addRow(hint)
@@ -102,7 +106,7 @@ class RecordsSettingsDialog(QDialog):
                     raise InputError("a password needs a server address", field="password")
                 store_password(server_address(settings.url), self.password.text())
             save_settings(settings)
-        except InputError as exc:
+        except VetfluidError as exc:  # refused, or the file could not be written
             QMessageBox.warning(self, "vetfluid", exc.one_line())
             return
         self.password.clear()

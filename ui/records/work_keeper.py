@@ -13,9 +13,10 @@ from collections.abc import Callable
 from typing import TYPE_CHECKING
 
 from PySide6.QtCore import QEvent, QObject, QTimer
-from PySide6.QtWidgets import QMainWindow, QMessageBox
+from PySide6.QtWidgets import QLabel, QMainWindow, QMessageBox
 
 from vetfluid.common.errors import VetfluidError
+from vetfluid.records.store import RecordsError
 from vetfluid.records.work_session import (
     NO_RECORDS_FILE,
     Answer,
@@ -36,6 +37,8 @@ AUTOSAVE_MS = 2000  # two seconds after the last change
 # steady changes (an observation every second) would keep postponing it: at the latest this
 # long after the first change still unwritten, the autosave runs anyway
 AUTOSAVE_LONGEST_WAIT_MS = 10_000
+# a records server that could not be reached is tried again this often (and on each command)
+RECONNECT_MS = 30_000
 
 _BUTTONS = {
     Answer.YES: QMessageBox.StandardButton.Yes,
@@ -73,6 +76,14 @@ class WorkKeeper(QObject):
         self.longest_wait.setSingleShot(True)
         self.longest_wait.setInterval(AUTOSAVE_LONGEST_WAIT_MS)
         self.longest_wait.timeout.connect(self.autosave)
+        self.reconnect_timer = QTimer(self)
+        self.reconnect_timer.setInterval(RECONNECT_MS)
+        self.reconnect_timer.timeout.connect(lambda: self.follow(self.work.reconnect()))
+        # where the work is kept, while that is not the records as usual (a server down)
+        self.records_state = QLabel()
+        self.records_state.setAccessibleName("Records")
+        window.statusBar().addPermanentWidget(self.records_state)
+        self._show_records_state()
         session.inputsReplaced.connect(lambda request: self.follow(self.work.opened(request)))
         session.planChanged.connect(lambda _plan: self.follow(self.work.built()))
         for changed in (session.observationsChanged, session.readinessChanged):
@@ -118,7 +129,20 @@ class WorkKeeper(QObject):
             self._open(reply.open)
         for observation in reply.refreshed:  # recorded on another workstation
             self.session.add_observation(observation)
+        self._show_records_state()
         return reply
+
+    def _show_records_state(self) -> None:
+        """The status bar's records label, and the retry timer while the server is down."""
+        label = self.work.records_label()
+        self.records_state.setText(f"⚠ {label}" if label else "")
+        self.records_state.setToolTip(self.work.unreachable_words() or self.work.problem)
+        self.records_state.setVisible(bool(label))
+        away = self.records is not None and self.records.unreachable is not None
+        if away and not self.reconnect_timer.isActive():
+            self.reconnect_timer.start()
+        elif not away:
+            self.reconnect_timer.stop()
 
     def ask(self, question: Question) -> Answer:
         """The question in a message box with its buttons; closed without a button, its
@@ -225,7 +249,16 @@ class WorkKeeper(QObject):
         if self.records is None:
             self._show(Message(text=NO_RECORDS_FILE, warning=False))
             return
-        dialog = OpenPatientDialog(self.records, self.window)
+        self.follow(self.work.reconnect())  # a server that was down: tried now, as asked
+        if self.records.unreachable is not None:
+            self._show(Message(text=self.work.unreachable_words()))
+            return
+        try:
+            dialog = OpenPatientDialog(self.records, self.window)
+        except RecordsError as exc:  # lost since: said once, in words
+            self._show(Message(text=f"The patients cannot be listed: {exc.one_line()}"))
+            self._show_records_state()
+            return
         if dialog.exec() and dialog.chosen():
             self.open_version(*dialog.chosen())
 
@@ -267,6 +300,11 @@ class WorkKeeper(QObject):
             return load_settings().initials
         except InputError:
             return ""
+
+    def apply_records_settings(self) -> None:
+        """The records settings were saved: the records they name replace these now (what
+        waits written first; records that cannot be opened leave these, said why)."""
+        self.follow(self.work.switch_records())
 
     def close(self) -> bool:
         """Whether the window may close (asked first when work would be lost)."""

@@ -32,8 +32,19 @@ PostgreSQL server shared by its workstations (issue 21), through one toolkit.
   and the program version.
 * The draft being edited belongs to the workstation: on SQLite it is in the records file;
   with a server it is in an SQLite file on this computer (``server-drafts-….sqlite`` in
-  the user data folder), so a server that cannot be reached leaves it on the local disk
-  (the server's own ``draft`` table, kept so both engines have one schema, stays empty).
+  the user data folder, keyed on the server's :attr:`~ServerAddress.identity`, not on how
+  its address is written; a file kept under an older spelling is carried over), so a
+  server that cannot be reached leaves it on the local disk (the server's own ``draft``
+  table, kept so both engines have one schema, stays empty).
+* A server that cannot be reached: :meth:`Records.open` with ``allow_unreachable`` opens
+  the local drafts all the same (:attr:`Records.unreachable` says why); every read or write
+  of the server tries it again (at most every :data:`RETRY_AFTER_S` seconds unless asked,
+  :meth:`Records.reach`), and once it answers the records are as usual. A connection lost
+  mid-session is said the same way: one message naming the server, the local draft and
+  what to check (:class:`RecordsUnreachable`).
+* Each database has an identity of its own (``database_id`` in ``meta``, made once), so a
+  draft can tell which database its patient ids belong to: a restore into a server gives
+  the server a new one (ids are reused after it).
 * The SQLite file is created readable by its owner only, before SQLite writes its first
   byte (SQLite gives its ``-wal`` and ``-shm`` files the same mode); so are backups and
   restored files. Only parameterised SQL.
@@ -52,6 +63,8 @@ import os
 import re
 import sqlite3
 import tempfile
+import time
+import uuid
 from collections.abc import Iterator
 from contextlib import closing
 from dataclasses import dataclass
@@ -71,7 +84,7 @@ from sqlalchemy import (
     select,
     text,
 )
-from sqlalchemy.exc import DBAPIError, SQLAlchemyError
+from sqlalchemy.exc import DBAPIError, OperationalError, SQLAlchemyError
 from sqlalchemy.pool import StaticPool
 
 from vetfluid import __version__
@@ -80,6 +93,7 @@ from vetfluid.common.paths import user_data_dir
 from vetfluid.records import schema
 from vetfluid.records.location import (
     ServerAddress,
+    password_file_problem,
     records_url,
     server_address,
     workstation_name,
@@ -103,12 +117,20 @@ _CHECKED_AT_OPEN = ("meta", "patients", "draft")
 # One lock for building or migrating a server's schema (pg_advisory_xact_lock's key):
 # two workstations starting at once do it one after the other.
 _SCHEMA_LOCK = 0x76657466  # "vetf"
+# A server that did not answer is tried again by the reads and writes that need it at most
+# this often (a host that drops packets holds each try for the connect timeout).
+RETRY_AFTER_S = 10.0
 _PATIENT_COLUMNS = ("id", "name", "species_id", "sex", "birth_date", "age_text", "client_ref",
                     "notes", "created_at")  # fmt: skip
 
 
 class RecordsError(VetfluidError):
     """The records database cannot be used as asked (the message says why and what to do)."""
+
+
+class RecordsUnreachable(RecordsError):
+    """The records server cannot be reached (or refused this computer); the draft is kept on
+    this computer. The message says where, and what to check."""
 
 
 class DraftSetAside(RecordsError):
@@ -130,6 +152,20 @@ def _reason(exc: BaseException) -> str:
     """What the database said, without the statement SQLAlchemy adds to it."""
     original = getattr(exc, "orig", None)
     return str(original if original is not None else exc).strip().splitlines()[0]
+
+
+def _lost_connection(exc: BaseException) -> bool:
+    """Whether a server error means it cannot be reached: the connection could not be
+    made (libpq gives no SQLSTATE then), was dropped (SQLAlchemy's disconnect test), or
+    the server said so (class 08, connection exception; 57P, operator intervention:
+    PostgreSQL 15 documentation, Appendix A)."""
+    if not isinstance(exc, DBAPIError):
+        return False
+    if exc.connection_invalidated:
+        return True
+    state = getattr(exc.orig, "sqlstate", None)
+    return isinstance(exc, OperationalError) and (state is None or state[:2] == "08"
+                                                  or state[:3] == "57P")  # fmt: skip
 
 
 def observation_key(record: object) -> str | None:
@@ -257,6 +293,16 @@ class OtherVersion:
 
 
 @dataclass(frozen=True, kw_only=True)
+class Merged:
+    """What merging observations into a version did: how many it added, and those this
+    screen recorded that another workstation had meanwhile recorded the same (hour and
+    every value alike): kept once, as one measurement entered twice."""
+
+    added: int
+    kept_once: tuple[dict, ...] = ()
+
+
+@dataclass(frozen=True, kw_only=True)
 class Saved:
     """A version just saved: its number, and the versions saved meanwhile (numbers above
     the latest the saver knew of, below this one), oldest first."""
@@ -287,11 +333,19 @@ def _begin_by_hand(engine: Engine) -> None:
 def _server_engine(address: ServerAddress) -> Engine:
     """A small pool of connections to the server; a connection the server dropped is
     noticed before use (pre-ping) and replaced, so a restart of the server costs one
-    failed save, not the session."""
-    return create_engine(
+    failed save, not the session. The password file is chosen for each new connection
+    (a password given in Records settings meanwhile is used)."""
+    engine = create_engine(
         address.sqlalchemy_url(), connect_args=address.connect_args(), pool_size=2,
         max_overflow=2, pool_pre_ping=True, pool_timeout=10,
     )  # fmt: skip
+
+    @event.listens_for(engine, "do_connect")
+    def choose_password_file(_dialect, _record, _cargs, cparams: dict) -> None:  # noqa: ANN001
+        cparams.pop("passfile", None)
+        cparams.update(address.connect_args())
+
+    return engine
 
 
 def _copy_tables(source: Connection, into: Connection) -> None:
@@ -309,10 +363,67 @@ def _copy_tables(source: Connection, into: Connection) -> None:
             into.execute(table.insert(), [dict(r) for r in chunk])
 
 
-def _drafts_file(address: ServerAddress) -> Path:
-    """This workstation's drafts for one server, on the local disk."""
-    digest = hashlib.sha256(address.label.encode("utf-8")).hexdigest()[:12]
+def _drafts_name(label: str) -> Path:
+    digest = hashlib.sha256(label.encode("utf-8")).hexdigest()[:12]
     return user_data_dir() / f"server-drafts-{digest}.sqlite"
+
+
+def _drafts_file(address: ServerAddress) -> Path:
+    """This workstation's drafts for one server, on the local disk: keyed on the server,
+    database and user (:attr:`ServerAddress.identity`), however the address is written."""
+    return _drafts_name(address.identity)
+
+
+def _older_drafts_files(address: ServerAddress) -> list[Path]:
+    """Drafts files an earlier vetfluid kept for this server under another key (the
+    address as it was written: ``127.0.0.1`` or ``localhost``, a host in capitals)."""
+    new = _drafts_file(address)
+    found = (_drafts_name(label) for label in address.spellings())
+    return [old for old in dict.fromkeys(found) if old != new and old.exists()]
+
+
+def _carry_over(old: Path, target: Path) -> str | None:
+    """Bring the draft of an older drafts file into ``target``: the whole file renamed when
+    ``target`` does not exist yet, else its draft copied when ``target`` has none (the
+    older file then removed: it holds nothing else). A draft that cannot be moved stays
+    where it is; the returned words say where (None: carried over)."""
+    kept = (
+        f"A draft kept for this server under an older spelling of its address is in {old}; "
+        "it was left there because {why}."
+    )
+    try:
+        older = Records._open_file(old)
+    except RecordsError as exc:
+        return kept.format(why=f"it cannot be opened ({exc.message})")
+    try:
+        if older.find_patients(limit=1):  # not a drafts file after all: never touched
+            return kept.format(why="the file holds patients")
+        stored = older._stored_draft()
+        if not target.exists():
+            older._db.execute("PRAGMA wal_checkpoint(TRUNCATE)")  # nothing left beside it
+            older.close()  # SQLite removes the -wal and -shm of the last connection closed
+            os.replace(old, target)
+            _fsync(target.parent)
+            for side in ("-wal", "-shm"):  # empty ones a crash may have left
+                old.with_name(old.name + side).unlink(missing_ok=True)
+            return None
+        with Records._open_file(target) as newer:
+            if stored is not None:
+                if newer._stored_draft() is not None:
+                    return kept.format(why="a newer draft for the server waits to be offered")
+                try:
+                    text_ = stored.decode("utf-8")
+                except UnicodeDecodeError:
+                    return kept.format(why="it cannot be read as text")
+                newer._write(draft.insert().values(id=1, content_json=text_, saved_at=_now()))
+        older.close()
+        for side in ("", "-wal", "-shm", "-journal"):
+            old.with_name(old.name + side).unlink(missing_ok=True)
+        return None
+    except (RecordsError, OSError, sqlite3.Error) as exc:
+        return kept.format(why=f"it could not be moved ({exc})")
+    finally:
+        older.close()
 
 
 class Records:
@@ -336,6 +447,12 @@ class Records:
         self.workstation = workstation_name()
         self._unreadable_draft = False  # the stored draft could be neither read nor set aside
         self.last_set_aside: Path | None = None  # where save_draft moved such a draft at last
+        # on a server: why it cannot be reached now (None: it answers)
+        self.unreachable: RecordsError | None = None
+        self._last_try = float("-inf")  # when reaching it was last tried (time.monotonic)
+        self._preparing = False
+        self.database_id: str | None = None  # this database's own identity (meta)
+        self.notices: list[str] = []  # said once to the user when the records open
 
     @property
     def where(self) -> str:
@@ -352,10 +469,16 @@ class Records:
 
     # ---- opening ---------------------------------------------------------------------------
     @classmethod
-    def open(cls, path: Path | None = None, *, url: str | None = None) -> Records:
+    def open(
+        cls, path: Path | None = None, *, url: str | None = None, allow_unreachable: bool = False
+    ) -> Records:
         """Open (or create) the records: ``path`` an SQLite file; else ``url`` (else the
         records setting, :func:`vetfluid.records.location.records_url`) a server; else the
-        SQLite file in the user data folder. A newer, foreign or damaged one is refused."""
+        SQLite file in the user data folder. A newer, foreign or damaged one is refused.
+
+        ``allow_unreachable``: a server that cannot be used now still opens this
+        workstation's drafts, with :attr:`unreachable` saying why; it is tried again as
+        the records are used (:meth:`reach`)."""
         if path is None:
             try:
                 url = records_url() if url is None else url.strip()
@@ -363,7 +486,7 @@ class Records:
             except InputError as exc:  # a refused address, an unreadable settings file
                 raise RecordsError(exc.message, fix=exc.fix) from None
             if address is not None:
-                return cls._open_server(address)
+                return cls._open_server(address, allow_unreachable=allow_unreachable)
         return cls._open_file(Path(path) if path is not None else user_data_dir() / DATABASE_NAME)
 
     @classmethod
@@ -398,23 +521,86 @@ class Records:
         return records
 
     @classmethod
-    def _open_server(cls, address: ServerAddress) -> Records:
-        drafts = cls._open_file(_drafts_file(address))
-        engine = _server_engine(address)
-        records = cls(engine, server=address, drafts=drafts)
+    def _open_server(cls, address: ServerAddress, *, allow_unreachable: bool = False) -> Records:
+        target = _drafts_file(address)
+        notices = [n for old in _older_drafts_files(address) if (n := _carry_over(old, target))]
+        drafts = cls._open_file(target)
+        records = cls(_server_engine(address), server=address, drafts=drafts)
+        records.notices = notices
         try:
-            records._prepare()
-        except (DBAPIError, SQLAlchemyError, sqlite3.DatabaseError) as exc:
-            records.close()
-            raise RecordsError(
-                f"the records server {address.label} cannot be used ({_reason(exc)})",
-                fix="check the server address, the network and the password (Records "
-                f"settings); the draft stays on this computer, in {drafts.path}",
-            ) from exc
-        except RecordsError:
-            records.close()
-            raise
+            records._prepare_server()
+        except RecordsError as exc:
+            if not allow_unreachable:
+                records.close()
+                raise
+            records.unreachable = exc
+            records._last_try = time.monotonic()
         return records
+
+    def _prepare_server(self) -> None:
+        """Reach the server and make its tables ready; RecordsError (RecordsUnreachable
+        when it cannot be reached) saying why, where the draft is and what to check."""
+        problem = password_file_problem(self.server)
+        if problem is not None:
+            raise RecordsError(f"{self._name} cannot be used: {problem}",
+                               fix=self._draft_kept_words())  # fmt: skip
+        self._preparing = True
+        try:
+            self._prepare()
+        except (DBAPIError, SQLAlchemyError, sqlite3.DatabaseError) as exc:
+            if _lost_connection(exc):
+                raise self._unreachable_error(exc) from exc
+            raise RecordsError(f"{self._name} cannot be used ({_reason(exc)})",
+                               fix=self._draft_kept_words()) from exc  # fmt: skip
+        except RecordsError as exc:
+            raise RecordsError(exc.message, fix=self._draft_kept_words()) from exc
+        finally:
+            self._preparing = False
+
+    def _draft_kept_words(self) -> str:
+        return (
+            f"the draft is kept on this computer, in {self._drafts.path}; plan versions "
+            "cannot be saved or opened until the server answers. Check that this computer is "
+            "on the clinic's network, that the server is running, and the server address "
+            "and password in File ▸ Records settings"
+        )
+
+    def _unreachable_error(self, exc: BaseException) -> RecordsUnreachable:
+        return RecordsUnreachable(f"{self._name} cannot be reached ({_reason(exc)})",
+                                  fix=self._draft_kept_words())  # fmt: skip
+
+    def reach(self, *, force: bool = True) -> bool:
+        """Whether the server answers (the SQLite file: always). One that could not be
+        reached is tried again (``force``: now; else not sooner than :data:`RETRY_AFTER_S`
+        after the last try): once it answers, :attr:`unreachable` is None again."""
+        if self.server is None or self.unreachable is None:
+            return True
+        if not force and time.monotonic() - self._last_try < RETRY_AFTER_S:
+            return False
+        self._last_try = time.monotonic()
+        try:
+            self._prepare_server()
+        except RecordsError as exc:
+            self.unreachable = exc
+            return False
+        self.unreachable = None
+        return True
+
+    def _check_reached(self) -> None:
+        """Before a read or write of the server: one known unreachable is tried again (not
+        more often than every RETRY_AFTER_S); still unreachable, its error at once."""
+        if self.server is None or self._preparing or self.unreachable is None:
+            return
+        if not self.reach(force=False):
+            raise self.unreachable
+
+    def _failed(self, exc: BaseException, error: RecordsError) -> RecordsError:
+        """The error to raise for a database error: on a server that cannot be reached, the
+        one message that says so (remembered: the next use tries again), else ``error``."""
+        if self.server is not None and _lost_connection(exc):
+            self.unreachable = self._unreachable_error(exc)
+            return self.unreachable
+        return error
 
     def _prepare(self) -> None:
         """Finish a database with no tables, refuse one that is not ours or is damaged,
@@ -422,6 +608,7 @@ class Records:
         with self._connection() as conn:
             blank = _blank(conn)
         if blank and self._create():
+            self.database_id = self._database_identity()
             return
         with self._connection() as conn:
             version = _stored_schema_version(conn, self._name)
@@ -451,6 +638,23 @@ class Records:
                     "space (or that you may change the server's tables), then start vetfluid "
                     "again",
                 ) from exc
+        self.database_id = self._database_identity()
+
+    def _database_identity(self) -> str:
+        """This database's own identity (``database_id`` in ``meta``): made once, by the
+        first vetfluid to open it (under the schema lock), then only read."""
+        query = select(meta.c.value).where(meta.c.key == "database_id")
+        with self._connection() as conn:
+            kept = conn.execute(query).scalar()
+        if kept is not None:
+            return kept
+        with self._transaction() as conn:
+            self._lock_schema(conn)
+            kept = conn.execute(query).scalar()  # another vetfluid may have made it
+            if kept is None:
+                kept = uuid.uuid4().hex
+                conn.execute(meta.insert().values(key="database_id", value=kept))
+        return kept
 
     def _create(self) -> bool:
         """Build the whole schema in one transaction: killed before it commits, the
@@ -493,6 +697,7 @@ class Records:
         if self._tx is not None:
             yield self._tx
             return
+        self._check_reached()
         with self._engine.connect() as conn:
             yield conn
 
@@ -503,6 +708,7 @@ class Records:
         if self._tx is not None:
             yield self._tx
             return
+        self._check_reached()
         with self._engine.connect() as conn:
             conn = conn.execution_options(vetfluid_write=True)
             with conn.begin():
@@ -524,11 +730,11 @@ class Records:
                 inserted = result.inserted_primary_key if result.is_insert else None
                 return int(inserted[0]) if inserted and inserted[0] is not None else 0
         except (DBAPIError, sqlite3.OperationalError) as exc:
-            raise RecordsError(
+            raise self._failed(exc, RecordsError(
                 f"could not save to {self._name}: {_reason(exc)}",
                 fix="check that the disk has space and the folder is writable (or that the "
                 "server can be reached); nothing was lost",
-            ) from exc
+            )) from exc  # fmt: skip
 
     # ---- patients --------------------------------------------------------------------------
     def add_patient(
@@ -559,10 +765,10 @@ class Records:
             with self._connection() as conn:
                 return conn.execute(statement).fetchall()
         except (DBAPIError, sqlite3.DatabaseError) as exc:
-            raise RecordsError(
+            raise self._failed(exc, RecordsError(
                 f"could not read {what} in {self._name}: {_reason(exc)}",
-                fix="restore a backup, or check that the server can be reached",
-            ) from exc
+                fix="restore a backup" if self.server is None else "check the server",
+            )) from exc  # fmt: skip
 
     def patient(self, patient_id: int) -> PatientRow:
         rows = self._read(
@@ -680,10 +886,10 @@ class Records:
                          for o in observations],
                     )  # fmt: skip
         except (DBAPIError, sqlite3.OperationalError) as exc:
-            raise RecordsError(
+            raise self._failed(exc, RecordsError(
                 f"could not save the plan to {self._name}: {_reason(exc)}",
                 fix=self._kept_fix("the plan on screen is unchanged"),
-            ) from exc
+            )) from exc  # fmt: skip
         return Saved(number=number, meanwhile=meanwhile)
 
     def _kept_fix(self, unchanged: str) -> str:
@@ -716,11 +922,13 @@ class Records:
                 .where(v.patient_id == patient_id).order_by(v.version),
                 "the plan versions",
             )  # fmt: skip
+        except RecordsUnreachable:
+            raise  # said once, as it is: no backup mends a network
         except RecordsError as exc:
             raise RecordsError(
-                f"could not read the plan versions in {self._name}: {exc.message}",
-                fix="restore a backup; the versions of other patients may still be read",
-            ) from exc
+                exc.message, fix="restore a backup; the versions of other patients may still be "
+                "read" if self.server is None else "check the server",
+            ) from exc  # fmt: skip
         versions = []
         for r in rows:
             try:
@@ -756,22 +964,28 @@ class Records:
                 select(o.observation_json).where(o.plan_version_id == version_id).order_by(o.id),
                 "the observations",
             )
+        except RecordsUnreachable:
+            raise
         except RecordsError as exc:
-            raise RecordsError(f"could not read the observations in {self._name}: "
-                               f"{exc.message}") from exc  # fmt: skip
+            raise RecordsError(exc.message) from exc
         return [_json_or_text(r[0]) for r in rows]
 
     def merge_observations(
         self, *, version_id: int, observations: list, based_on: list | None = None
-    ) -> int:
+    ) -> Merged:
         """Bring into a version the observations kept for it (in a draft, or on another
         workstation's screen) while it could not take them. With ``based_on`` (what it held
         when they were kept): those added since then that it still lacks are added, and
         those removed since then are removed, so what was recorded on it or removed from
         it meanwhile stands. Without ``based_on``: those it lacks are added and nothing is
         removed. An item that cannot be read is stored as it is, for the reader to count.
-        Returns how many were added. One transaction, the version locked: two workstations
-        merging at once take turns."""
+        One transaction, the version locked: two workstations merging at once take turns.
+
+        The same observation (hour and every value alike) recorded here and, since
+        ``based_on``, on another workstation is kept once: two entries of one reading (two
+        urine collections of the same period and volume are one collection, counted twice
+        they would double the measured output); :attr:`Merged.kept_once` names them, for the
+        user to be told and to record it again if it really was a second measurement."""
         from collections import Counter
 
         def counted(records: list) -> Counter:
@@ -783,6 +997,8 @@ class Records:
                 current = [r for r in self.observations(version_id)
                            if observation_key(r) is not None]  # fmt: skip
                 ours, now = counted(observations), counted(current)
+                given = {observation_key(r): r for r in observations}
+                once: list = []
                 if based_on is None:
                     removed, added = Counter(), ours - now
                 else:
@@ -790,7 +1006,9 @@ class Records:
                     removed = before - ours
                     wanted = Counter({k: n - max(before[k], now[k]) for k, n in ours.items()})
                     added = +wanted  # the unary plus keeps the positive counts only
-                given = {observation_key(r): r for r in observations}
+                    # entered here and there since the version was read: one reading
+                    both = (ours - before) & (now - before)
+                    once = [given[k] for k in both.elements()]
                 kept = []
                 for record in current:
                     key = observation_key(record)
@@ -802,11 +1020,11 @@ class Records:
                 unreadable = [r for r in observations if observation_key(r) is None]
                 self.keep_observations(version_id=version_id, observations=kept + unreadable)
         except (DBAPIError, sqlite3.OperationalError) as exc:
-            raise RecordsError(
+            raise self._failed(exc, RecordsError(
                 f"could not save the observations to {self._name}: {_reason(exc)}",
                 fix=self._kept_fix("the observations on screen are unchanged"),
-            ) from exc
-        return sum(added.values())
+            )) from exc  # fmt: skip
+        return Merged(added=sum(added.values()), kept_once=tuple(once))
 
     @staticmethod
     def _lock_version(conn: Connection, version_id: int) -> None:
@@ -853,10 +1071,10 @@ class Records:
                          for _, x in unmatched],
                     )  # fmt: skip
         except (DBAPIError, sqlite3.OperationalError) as exc:
-            raise RecordsError(
+            raise self._failed(exc, RecordsError(
                 f"could not save the observations to {self._name}: {_reason(exc)}",
                 fix=self._kept_fix("the observations on screen are unchanged"),
-            ) from exc
+            )) from exc  # fmt: skip
         return True
 
     # ---- the draft being edited (this workstation's) -----------------------------------------
@@ -1039,6 +1257,11 @@ class Records:
                         into.exec_driver_sql("TRUNCATE observations, plan_versions, patients")
                         into.execute(meta.delete().where(meta.c.key != "schema_version"))
                         _copy_tables(source, into)
+                        # ids are reused from here on: drafts made before must not bind
+                        # to whoever now has their patient's id
+                        identity = uuid.uuid4().hex
+                        into.execute(meta.delete().where(meta.c.key == "database_id"))
+                        into.execute(meta.insert().values(key="database_id", value=identity))
                         for table in ("patients", "plan_versions", "observations"):
                             into.exec_driver_sql(
                                 f"SELECT setval(pg_get_serial_sequence('{table}', 'id'), "
@@ -1049,6 +1272,7 @@ class Records:
                         f"could not restore {Path(backup).name} to {self._name}: {_reason(exc)}",
                         fix="check the server can be reached; it holds what it held",
                     ) from exc
+            self.database_id = identity
 
     @staticmethod
     def restore(backup: Path, target: Path) -> None:

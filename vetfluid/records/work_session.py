@@ -27,9 +27,22 @@ no plan file or CSV export keeps, and a re-plan is refused.
 Several workstations on the same records (issue 21): observations go into a saved version
 by what this screen added or removed since it last read the version
 (:meth:`Records.merge_observations` with ``based_on``), so what another workstation
-recorded stands; back in focus (REFRESH) what others recorded on the version on screen is
-added to it; a save that finds versions of the patient saved meanwhile elsewhere says by
-whom and where, and offers to compare them.
+recorded stands; the same observation recorded here and there meanwhile is kept once (one
+reading entered twice) and this workstation is told, in words, to record it again if it
+was a second measurement; back in focus (REFRESH) what others recorded on the version on
+screen is added to it; a save that finds versions of the patient saved meanwhile elsewhere
+says by whom and where, and offers to compare them.
+
+A server that cannot be reached at the start leaves the records open on this
+workstation's drafts (:attr:`Records.unreachable`): the work is autosaved there, the start
+says so once (where the draft is, that versions wait for the server, what to check), and
+once the server answers the records are as usual (:meth:`WorkSession.reconnect`). A draft
+remembers the database (its ``database_id``) and the patient (name, species, when added)
+its patient id belongs to: after a restore, or in other records, it never binds to
+whoever has that id now, and the user is told. A changed records setting applies at once
+(:meth:`WorkSession.switch_records`): what waits is written first, unsaved work moves into
+the new records' draft (never over a draft of another plan they keep, which is offered
+first), and records that cannot be opened leave the old ones in use, saying why.
 
 The states (``working`` below means AS_OPENED, ON_VERSION, UNSAVED, VERSION_REFUSED and
 NOT_WRITTEN; ``asking`` means OFFERING, ASKING_LEAVE, SAVING_TO_LEAVE, ASKING_REPLAN,
@@ -154,7 +167,13 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, NamedTuple, Protocol
 
 from vetfluid.common.errors import InputError, VetfluidError
-from vetfluid.records.store import DraftSetAside, Records, RecordsError
+from vetfluid.records.store import (
+    DraftSetAside,
+    Merged,
+    Records,
+    RecordsError,
+    RecordsUnreachable,
+)
 
 if TYPE_CHECKING:
     from vetfluid.course.observations import Observation
@@ -280,6 +299,9 @@ class Opening:
     version_id: int | None = None
     status: str = ""
     known_latest: int | None = None  # the patient's latest version when this was read
+    # which patient ``patient_id`` is, in which database (a draft checks it when restored)
+    patient_mark: Mapping[str, str] | None = None
+    database_id: str | None = None
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -444,6 +466,44 @@ def draft_contents(draft: dict) -> tuple[PlanRequest | None, list]:
     return request, observations
 
 
+_OBSERVED_WORDS = (
+    ("weight_kg", "weight", " kg"), ("pcv_percent", "PCV", " %"),
+    ("total_solids_g_per_dl", "total solids", " g/dL"), ("urine_ml", "urine", " mL"),
+    ("urine_period_h", "collected over", " h"), ("other_losses_ml", "other losses", " mL"),
+    ("serum_na", "sodium", " mmol/L"), ("serum_k", "potassium", " mmol/L"),
+    ("usg", "urine specific gravity", ""), ("urine_osmolality", "urine osmolality", " mOsm/kg"),
+    ("heart_rate_per_min", "heart rate", "/min"),
+    ("respiratory_rate_per_min", "respiratory rate", "/min"),
+    ("mucous_membranes", "mucous membranes", ""), ("crt_s", "capillary refill", " s"),
+    ("note", "note", ""),
+)  # fmt: skip
+
+
+def observation_words(record: Mapping) -> str:
+    """One observation as the user entered it: "hour 4: weight 24.5 kg, heart rate 120/min"."""
+    said = [
+        f"{label} {value:g}{unit}" if isinstance(value, float | int) else f"{label} {value}{unit}"
+        for key, label, unit in _OBSERVED_WORDS
+        if (value := record.get(key)) not in (None, "")
+    ]
+    return f"hour {record.get('hour', 0):g}: " + (", ".join(said) or "nothing measured")
+
+
+def kept_once_words(merged: Merged, where: str) -> str:
+    """What to tell a workstation whose observations another had meanwhile recorded alike."""
+    readings = "; ".join(observation_words(r) for r in merged.kept_once)
+    return (
+        f"Another workstation recorded the same observation on {where} meanwhile ({readings}). "
+        "It is kept once, as one reading entered twice. If it was a second, separate "
+        "measurement, record it again."
+    )
+
+
+def _patient_mark(row: Any) -> dict[str, str]:
+    """What tells one patient from another that had the same id: name, species, when added."""
+    return {"name": row.name, "species_id": row.species_id, "created_at": row.created_at}
+
+
 def set_aside_words(kept: Path) -> str:
     return (
         f"The draft left last time could not be read; it was set aside as {kept}. "
@@ -516,13 +576,53 @@ class WorkSession:
         self._leaving: Opening | None = None  # what a leave question waits to open
         self._moved = False  # re-plan: the version's measured outputs moved on
         self._pending: list[Message] = []  # said while answering a query: given next
+        # the patient's identity and the database its id belongs to (see Opening)
+        self._patient_mark: Mapping[str, str] | None = None
+        self._database_id: str | None = None
+        self._kept_elsewhere: tuple = ()  # observations kept in records used before
+        # said when the records open: given with the look at the draft (the start)
+        self._notices: list[Message] = self._records_notices(records)
+
+    def _records_notices(self, records: Records | None) -> list[Message]:
+        if records is None:
+            return []
+        said = [Message(text=n, warning=False) for n in records.notices]
+        if records.unreachable is not None:
+            said.append(Message(text=self.unreachable_words()))
+        return said
+
+    def unreachable_words(self) -> str:
+        """The one message for a records server that cannot be reached ("" when it answers
+        or the records are a file): why, where the draft is kept, what waits, what to check."""
+        records = self.records
+        if records is None or records.unreachable is None:
+            return ""
+        said = records.unreachable.message
+        return (
+            f"{said[:1].upper()}{said[1:]}.\n\n"
+            f"Your work is kept as the draft on this computer, in {records.drafts_path}, "
+            "and saved there as you go. Plan versions cannot be saved or opened until the "
+            "server answers; vetfluid keeps trying.\n\nCheck that this computer is on the "
+            "clinic's network, that the server is running, and the server address and "
+            "password in File ▸ Records settings."
+        )
+
+    def records_label(self) -> str:
+        """Where the work is kept, in a few words (for the window's status bar)."""
+        if self.records is None:
+            return "No records"
+        if self.records.unreachable is not None:
+            return "Records server not reachable: the draft is kept on this computer"
+        return ""
 
     @classmethod
     def open(cls, screen: Screen, path: Path | None = None) -> WorkSession:
-        """On the records file (the user's, by default); an unusable one leaves the
-        session without records, saying why in :attr:`problem`."""
+        """On the records file (the user's, by default) or the records server of the
+        setting; an unusable one leaves the session without records, saying why in
+        :attr:`problem`. A server that cannot be reached leaves the drafts on this
+        computer in use (said at the start)."""
         try:
-            records = Records.open(path)
+            records = Records.open(path, allow_unreachable=True)
         except RecordsError as exc:
             return cls(screen, None, problem=exc.one_line())
         return cls(screen, records)
@@ -546,7 +646,23 @@ class WorkSession:
         return self._run(Event.AUTOSAVE)
 
     def look_at_draft(self) -> Reply:
-        return self._run(Event.LOOK_AT_DRAFT)
+        """At the start: what the records said on opening, then the draft left last time."""
+        notices, self._notices = self._notices, []
+        return self._run(Event.LOOK_AT_DRAFT, out=_Out(self._take_pending() + notices))
+
+    def reconnect(self) -> Reply:
+        """Try a records server that could not be reached; the status says when it answers."""
+        out = _Out(self._take_pending())
+        if self.records is not None and self.records.unreachable is not None:
+            if self.records.reach():
+                out.status = self._answers_again()
+        return out.reply()
+
+    def _answers_again(self) -> str:
+        return (
+            f"The records server answers again ({self.records.where}): plan versions can be "
+            "saved; the draft stays on this computer as always."
+        )
 
     def leave(self, opening: Opening) -> Reply:
         """Another plan (``opening``) is to replace this one."""
@@ -601,6 +717,104 @@ class WorkSession:
     def observations_exported(self) -> Reply:
         return self._run(Event.EXPORTED)
 
+    def switch_records(self) -> Reply:
+        """The records setting changed (File ▸ Records settings): the records it names
+        replace these now. What waits is written into these first; unsaved work moves into
+        the new records' draft, unless they keep a draft of another plan (offered first,
+        never overwritten unseen; the work stays as these records' draft, said where).
+        What these records keep (a saved version, an untouched plan) stays theirs: the plan
+        on screen is no patient's in the new ones. New records that cannot be opened (or a
+        server not reached while these work) leave these in use, saying why."""
+        out = _Out(self._take_pending())
+        old = self.records
+        if self.state not in WORKING:
+            out.message("The records cannot change while a question is open.")
+            return out.reply()
+        if self._waiting_to_be_written():  # written first, as every command does
+            self._dispatch(Event.AUTOSAVE, out, {})
+        try:
+            new = Records.open(allow_unreachable=True)
+        except RecordsError as exc:
+            out.message(self._stays_words(old, exc.one_line()))
+            return out.reply()
+        if old is not None and (new.drafts_path == old.drafts_path):
+            new.close()  # the same records: the password may have changed
+            if old.unreachable is not None and old.reach():
+                out.status = self._answers_again()
+            return out.reply()
+        if new.unreachable is not None and old is not None and old.unreachable is None:
+            words = new.unreachable.message  # its draft would be kept here: not the new one's
+            new.close()
+            out.message(self._stays_words(old, words))
+            return out.reply()
+        outcome = self._write_work(out, closed=True) if old is not None else self.state
+        unsaved = outcome in TROUBLE or outcome is State.UNSAVED
+        ours_in_old = old is not None and self._draft_is_ours(_Out())
+        try:
+            theirs = new.draft()
+        except DraftSetAside as exc:
+            out.message(set_aside_words(exc.path))
+            theirs = None
+        except RecordsError:
+            theirs = {"unreadable": True}  # never written over
+        if theirs is not None and theirs.get("tag") == self.tag:
+            theirs = None
+        if unsaved and theirs is not None and not ours_in_old:
+            new.close()  # the work is on screen only: the other draft would be offered over it
+            out.message(self._stays_words(old, (
+                "the plan on screen could not be kept in them, and the new records keep a "
+                "draft of another plan; save the plan as a version or export it, then change "
+                "the records again"
+            )))  # fmt: skip
+            return out.reply()
+        self._leave_records(old, new, unsaved=unsaved)
+        out.status = f"Records now: {new.where}."
+        out.messages += self._records_notices(new)
+        if unsaved and theirs is None:
+            self.state = self._write_work(out, closed=False)
+            if self.state is State.UNSAVED and ours_in_old:
+                try:
+                    old.clear_draft()  # moved, not copied: one draft
+                except RecordsError:
+                    pass  # kept in both: nothing lost
+        elif ours_in_old:
+            out.message(
+                f"The plan on screen stays kept as the draft of the records used until now "
+                f"({old.drafts_path}), offered when they are used again: the new records "
+                "keep a draft of another plan, offered now."
+            )
+        if old is not None:
+            old.close()
+        if theirs is not None:
+            self._dispatch(Event.LOOK_AT_DRAFT, out, {})
+        return out.reply()
+
+    def _stays_words(self, old: Records | None, why: str) -> str:
+        kept = (
+            f"The records in use stay {old.where}; your work stays with them."
+            if old is not None else "No records are open."
+        )  # fmt: skip
+        return (
+            f"The new records setting cannot be used now: {why}.\n\n{kept}\n\nThe setting "
+            "is saved: vetfluid uses it when it next starts, or when you save the settings "
+            "again."
+        )
+
+    def _leave_records(self, old: Records | None, new: Records, *, unsaved: bool) -> None:
+        """The screen's plan, no patient's in the new records: unsaved work stays unsaved,
+        what the old records keep counts as kept."""
+        self.records, self.problem = new, ""
+        self.patient_id, self.known_latest, self.saved, self._version_held = None, None, None, None
+        self._patient_mark = self._database_id = None
+        self._trouble, self._exported, self._unwritten = "", (), False
+        plan = self.screen.plan
+        if self._last_valid is not None:
+            self._last_valid = _LastValid(self._last_valid.request, False)
+        self._opened_unsaved = unsaved
+        self._yardstick = (plan.request, self.screen.acknowledged) if plan else (None, {})
+        self._kept_elsewhere = () if unsaved else tuple(self.screen.observations)
+        self.state = State.UNSAVED if unsaved else self._standing()
+
     # ---- queries ---------------------------------------------------------------------------
     def has_unsaved_work(self) -> bool:
         """Work not where it belongs: changed since opened, restored or re-planned and not
@@ -637,12 +851,20 @@ class WorkSession:
 
     def _run(self, event: Event, *, out: _Out | None = None, **data: Any) -> Reply:
         out = out or _Out(self._take_pending())
+        away = self.records is not None and self.records.unreachable is not None
+        try:
+            self._run_event(event, out, data)
+        finally:
+            if away and self.records is not None and self.records.unreachable is None:
+                out.status = out.status or self._answers_again()
+        return out.reply()
+
+    def _run_event(self, event: Event, out: _Out, data: dict) -> None:
         if event in COMMANDS:
             self._next = None  # a command that went on and was not followed through
             if self._waiting_to_be_written() and event is not Event.CLOSE:
                 self._dispatch(Event.AUTOSAVE, out, {})
         self._dispatch(event, out, data)
-        return out.reply()
 
     def _waiting_to_be_written(self) -> bool:
         return (
@@ -705,6 +927,8 @@ class WorkSession:
         observed = tuple(self.screen.observations)
         if self.records is None and observed == self._exported:
             observed = ()  # exported as CSV: kept outside vetfluid
+        if observed and observed == self._kept_elsewhere:
+            observed = ()  # kept in the records used before a change of records
         if observed or self._opened_unsaved:
             return State.UNSAVED
         if last is not None and (last.request, self.screen.acknowledged) != self._yardstick:
@@ -758,8 +982,12 @@ class WorkSession:
         if announced.kind is not Kind.REPLAN:
             if announced.patient_id != self.patient_id or announced.kind is not Kind.KEPT:
                 self.known_latest = announced.known_latest
+            if announced.patient_id != self.patient_id or announced.patient_mark is not None:
+                self._patient_mark = announced.patient_mark
+                self._database_id = announced.database_id
             self.patient_id = announced.patient_id
         self._version_held = None
+        self._kept_elsewhere = ()
         self.saved, self._last_valid, self._exported, self._trouble = None, None, (), ""
         self._opened_request = request
         self._opened_unsaved = announced.kind in (Kind.DRAFT, Kind.REPLAN)
@@ -846,7 +1074,7 @@ class WorkSession:
         try:
             written = self._held_differs(screen)
             # only this screen's additions and removals: other workstations' stand
-            self.records.merge_observations(
+            merged = self.records.merge_observations(
                 version_id=row_id, observations=screen, based_on=self._version_held
             )
             self._version_held = screen
@@ -866,6 +1094,8 @@ class WorkSession:
             return State.VERSION_REFUSED
         if written:
             out.status = "Observations saved with the plan version."
+        if merged.kept_once:
+            out.message(kept_once_words(merged, "this plan version"))
         if self._draft_is_ours(out):
             self.records.clear_draft()  # its edits were undone, or it held what is written now
         return State.ON_VERSION
@@ -911,7 +1141,7 @@ class WorkSession:
             return
         held = stored.get("version_had")
         try:
-            added = self.records.merge_observations(
+            merged = self.records.merge_observations(
                 version_id=stored["for_version"], observations=observations,
                 based_on=held if isinstance(held, list) else None,
             )  # fmt: skip
@@ -922,9 +1152,12 @@ class WorkSession:
                 f"them: {exc.one_line()}"
             ) from exc
         out.status = (
-            f"Wrote {added} observation(s) kept for version {version.number} of "
+            f"Wrote {merged.added} observation(s) kept for version {version.number} of "
             f"{version.patient_name} into it."
         )
+        if merged.kept_once:
+            out.message(kept_once_words(
+                merged, f"version {version.number} of {version.patient_name}"))  # fmt: skip
 
     def _draft(
         self, request: PlanRequest | None, *, closed: bool, for_version: int | None = None
@@ -940,6 +1173,8 @@ class WorkSession:
             "acknowledged_for": self.screen.acknowledged_for,
             "observations": self._observation_records(),
             "patient_id": self.patient_id,
+            "patient": self._patient_mark if self.patient_id is not None else None,
+            "database_id": self._database_id if self.patient_id is not None else None,
             "known_latest": self.known_latest,
             "closed": closed,
             "tag": self.tag,
@@ -963,6 +1198,8 @@ class WorkSession:
         row_id, patient_id = draft.get("for_version"), draft.get("patient_id")
         if type(row_id) is not int or type(patient_id) is not int:
             return None
+        if self._binds(draft) is False:
+            return None  # its ids are another database's: offered as a plan, not written
         try:
             version = next((v for v in self.records.versions(patient_id) if v.id == row_id), None)
             name = self.records.patient(patient_id).name if version else ""
@@ -993,6 +1230,9 @@ class WorkSession:
         transaction); this plan's draft is cleared (another plan's stays)."""
         plan, reasons = self.screen.plan, self.screen.acknowledged
         kept = self._observation_records() if with_observations else []
+        self.records.reach()  # a server that could not be reached: tried now, as asked
+        if self.patient_id is not None and patient is None and not self._still_our_patient(out):
+            return False
         try:
             if self.patient_id is None:
                 self.patient_id = self.records.add_patient(
@@ -1000,6 +1240,7 @@ class WorkSession:
                     client_ref=patient.client_ref,
                 )  # fmt: skip
                 self.known_latest = 0
+                self._bind(self.records.patient(self.patient_id))
             saved = self.records.save_new_version(
                 patient_id=self.patient_id, plan=plan, acknowledged=reasons, author=author,
                 observations=kept, known_latest=self.known_latest,
@@ -1248,6 +1489,13 @@ class WorkSession:
             return self.state
         try:
             version = self._version_behind_in(draft)
+        except RecordsUnreachable:  # said at the start: not again
+            version = None
+            out.message(
+                "The draft keeps observations for a saved version, which cannot be read while "
+                "the records server cannot be reached: it is offered as a plan, with them.",
+                warning=False,
+            )
         except RecordsError as exc:  # offered as a plan to restore: nothing is dropped
             version = None
             out.message(f"The version the draft's observations belong to: {exc.one_line()}.")
@@ -1307,6 +1555,10 @@ class WorkSession:
         draft = offer.draft
         kept, unreadable = readable_observations(offer.observations)
         wording, patient = draft.get("acknowledged_for"), draft.get("patient_id")
+        mark, database = draft.get("patient"), draft.get("database_id")
+        if type(patient) is int and self._binds(draft) is False:
+            out.message(self._other_records_words(mark))
+            patient, mark, database = None, None, None
         self._retag = draft
         opening = Opening(
             kind=Kind.DRAFT, request=offer.request,
@@ -1315,6 +1567,8 @@ class WorkSession:
             observations=tuple(kept), patient_id=patient if type(patient) is int else None,
             status="Restored the plan that was being edited." + unreadable,
             known_latest=known if type(known := draft.get("known_latest")) is int else None,
+            patient_mark=mark if isinstance(mark, dict) else None,
+            database_id=database if isinstance(database, str) else None,
         )  # fmt: skip
         out.go, out.open, self._next = True, opening, opening
 
@@ -1326,7 +1580,7 @@ class WorkSession:
         draft, version = offer.draft, offer.version
         held = draft.get("version_had")
         try:
-            added = self.records.merge_observations(
+            merged = self.records.merge_observations(
                 version_id=draft["for_version"], observations=offer.observations,
                 based_on=held if isinstance(held, list) else None,
             )  # fmt: skip
@@ -1340,9 +1594,13 @@ class WorkSession:
             return self._back
         self.state = self._back
         status = (
-            f"Wrote {added} observation(s) to version {version.number} of {version.patient_name}."
+            f"Wrote {merged.added} observation(s) to version {version.number} of "
+            f"{version.patient_name}."
         )
         out.status = status
+        if merged.kept_once:
+            out.message(kept_once_words(
+                merged, f"version {version.number} of {version.patient_name}"))  # fmt: skip
         opening = self._version_opening(out, version.patient_id, version.number, status=status)
         if opening is not None:
             self._dispatch(Event.LEAVE, out, {"opening": opening})
@@ -1369,7 +1627,8 @@ class WorkSession:
             versions = self.records.versions(patient_id)
             chosen = next((v for v in versions if v.version == number), None)
             latest = versions[-1].version if versions else 0
-            name = self.records.patient(patient_id).name
+            row = self.records.patient(patient_id)
+            name = row.name
         except VetfluidError as exc:  # a damaged page, a patient no longer there
             out.message(f"Version {number} could not be read from the records: {exc}")
             return None
@@ -1392,7 +1651,58 @@ class WorkSession:
             kind=Kind.VERSION, request=stored, acknowledged=chosen.acknowledged,
             acknowledged_for=wording, patient_id=patient_id, version_id=chosen.id,
             status=status or f"Opened {name}, version {number}.", known_latest=latest,
+            patient_mark=_patient_mark(row), database_id=self.records.database_id,
         )  # fmt: skip
+
+    # ---- the patient a draft's id belongs to -----------------------------------------------------
+    def _bind(self, row: Any) -> None:
+        self._patient_mark, self._database_id = _patient_mark(row), self.records.database_id
+
+    def _binds(self, draft: Mapping) -> bool | None:
+        """Whether the patient id a draft (or this screen) holds is that patient in these
+        records: the same database, or (restored from a backup since) a patient with the
+        same name, species and time of adding. None: cannot tell now (the server is not
+        reached, or a draft an earlier vetfluid wrote: taken as before)."""
+        database, mark = draft.get("database_id"), draft.get("patient")
+        if database is None or database == self.records.database_id:
+            return None if self.records.database_id is None else True
+        if self.records.database_id is None:
+            return None
+        try:
+            row = self.records.patient(draft.get("patient_id"))
+        except InputError:
+            return False  # no such patient here
+        except RecordsError:
+            return None
+        return isinstance(mark, Mapping) and _patient_mark(row) == dict(mark)
+
+    def _other_records_words(self, mark: object) -> str:
+        from vetfluid.tables.species import load_table
+
+        who = "a patient"
+        if isinstance(mark, Mapping):
+            kind = load_table().species_by_id.get(mark.get("species_id"))
+            who = f"{mark.get('name')} ({kind.common_name if kind else mark.get('species_id')})"
+        return (
+            f"This draft was written for {who} in other records: a database restored from a "
+            "backup since, or another one. Patient numbers there belong to other patients "
+            "here, so it is restored without a patient: saving it asks which patient it is."
+        )
+
+    def _still_our_patient(self, out: _Out) -> bool:
+        """Before a save: the patient on screen is still the one its id names in these
+        records (else the id is dropped, the user told and asked for the patient)."""
+        binds = self._binds({"database_id": self._database_id, "patient": self._patient_mark,
+                             "patient_id": self.patient_id})  # fmt: skip
+        if binds is not False:
+            if binds and self._database_id is None:
+                self._database_id = self.records.database_id
+            return True
+        self._pending.append(Message(text=self._other_records_words(self._patient_mark)))
+        self.patient_id, self.known_latest = None, None
+        self._patient_mark = self._database_id = None
+        out.ask_patient = True
+        return False
 
     # ---- actions: with no records file -----------------------------------------------------------
     def _kept_in_file(self, out: _Out) -> None:
