@@ -13,8 +13,10 @@ import pytest
 
 from ui.common import platform_check
 from ui.common.platform_check import display_problem
+from vetfluid import __version__
 
 VETFLUID = str(Path(sys.executable).with_name("vetfluid"))
+ROOT = Path(__file__).resolve().parents[1]
 NO_SERVER = ":87"  # no X server listens on display 87 here (checked below)
 
 
@@ -122,11 +124,164 @@ def test_version_without_species_data_says_so_in_one_line(tmp_path, monkeypatch,
     monkeypatch.setattr(sys, "_MEIPASS", str(tmp_path), raising=False)
     assert main(["vetfluid", "--version"]) == 1
     captured = capsys.readouterr()
-    assert captured.out == ""
-    assert (
-        captured.err
-        == f"vetfluid: vetfluid's species_data/ folder is missing from this bundle ({tmp_path})\n"
+    assert captured.out == f"vetfluid {__version__}\n"  # the version, whatever the data
+    assert captured.err == (
+        "vetfluid: the species data could not be read: vetfluid's species_data/ folder is "
+        f"missing from this bundle ({tmp_path}) — reinstall vetfluid (a bundle: copy its whole "
+        "folder again); no plan can be made until then\n"
     )
+
+
+@pytest.mark.parametrize(
+    ("damage", "named"),
+    [
+        ("fluids.csv", "fluids.csv:1: missing column"),  # cut short after its first lines
+        ("safety_limits.csv", "safety_limits.csv"),
+        ("parameters.csv", "parameters.csv"),
+    ],
+)
+def test_version_says_when_the_species_data_is_damaged(tmp_path, monkeypatch, capsys, damage,
+                                                       named):  # fmt: skip
+    """Finding (12): data whose files are all there but one is damaged still has a digest;
+    `--version` loads every table as a plan would and says which file cannot be read."""
+    import shutil
+
+    from ui.app import main
+
+    shutil.copytree(ROOT / "species_data", tmp_path / "species_data")
+    broken = tmp_path / "species_data" / damage
+    broken.write_text('id,"half a line\n', encoding="utf-8")
+    monkeypatch.setattr(sys, "frozen", True, raising=False)
+    monkeypatch.setattr(sys, "_MEIPASS", str(tmp_path), raising=False)
+    assert main(["vetfluid", "--version"]) == 1
+    captured = capsys.readouterr()
+    assert captured.out.startswith(f"vetfluid {__version__} (species data ")
+    assert captured.err.startswith("vetfluid: the species data could not be read: ")
+    assert named in captured.err and captured.err.count("\n") == 1
+    assert "Traceback" not in captured.err
+
+
+# ---- plan files: their own extension, and names starting with "-" (issue 21) -------------
+def test_a_plan_file_named_with_a_dash_opens_after_double_dash(qtbot, tmp_path, answer):
+    """Finding (12): `vetfluid -- -dog.vfplan` and `vetfluid ./-dog.vfplan` name the file;
+    `vetfluid -dog.vfplan` is refused in words saying how to write it."""
+    from ui.app import open_window, plan_file_argument
+    from vetfluid.common.errors import InputError
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+
+    assert plan_file_argument(["--", "-dog.vfplan"]) == "-dog.vfplan"
+    assert plan_file_argument(["./-dog.vfplan"]) == "./-dog.vfplan"
+    assert plan_file_argument(["--", "sheet"]) == "sheet"  # a file named like a command
+    assert plan_file_argument([]) is None and plan_file_argument(["--"]) is None
+    with pytest.raises(InputError, match="write vetfluid -- -dog.vfplan"):
+        plan_file_argument(["-dog.vfplan"])
+    with pytest.raises(InputError, match="one plan file at a time"):
+        plan_file_argument(["a.vfplan", "b.vfplan"])
+    answer({})  # any question or message fails the test
+    request = demo("small_gerbil").request
+    path = write_request_file(tmp_path / "-gerbil", request, {})
+    assert path.name == "-gerbil.vfplan"
+    window = open_window(plan_file_argument(["--", str(path)]))
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None and window.session.plan is not None)
+    assert window.session.plan.request == request
+
+
+def test_a_name_starting_with_a_dash_without_double_dash_is_one_line(tmp_path):
+    run = subprocess.run([VETFLUID, "-dog.vfplan"], env=_env(QT_QPA_PLATFORM="offscreen"),
+                         capture_output=True, text=True, timeout=30)  # fmt: skip
+    assert run.returncode == 2 and run.stdout == ""
+    assert run.stderr == (
+        "vetfluid: -dog.vfplan is not an option of vetfluid — to open a plan file of that "
+        "name, write vetfluid -- -dog.vfplan (or vetfluid ./-dog.vfplan); vetfluid --help "
+        "lists the commands\n"
+    )
+
+
+def test_help_says_how_to_open_a_name_starting_with_a_dash():
+    from ui.app import USAGE
+
+    assert "vetfluid -- -PLAN.vfplan" in USAGE and "./-PLAN.vfplan" in USAGE
+    assert "[PLAN.vfplan]" in USAGE and "*.vfplan.json" in USAGE
+
+
+def test_a_plan_file_saved_before_opens_at_start(qtbot, tmp_path, answer):
+    """Plan files saved before issue 21 end in .vfplan.json: still opened by `vetfluid FILE`."""
+    from ui.app import open_window
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+
+    answer({})
+    request = demo("renal_cat").request
+    path = write_request_file(tmp_path / "cat.vfplan.json", request, {})
+    assert path.name == "cat.vfplan.json"  # as written before: kept
+    window = open_window(str(path))
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None and window.session.plan is not None)
+    assert window.session.plan.request == request
+
+
+# ---- a user data folder that cannot be made (finding 11) ---------------------------------
+def test_the_window_opens_and_says_the_data_folder_cannot_be_used(qtbot, tmp_path, monkeypatch,
+                                                                  answer):  # fmt: skip
+    """VETFLUID_HOME under a file: the window opens, says in words that settings and records
+    cannot be kept there, why and what to do; a plan is still made (no traceback, no log)."""
+    from ui.app import open_window
+
+    in_the_way = tmp_path / "not-a-folder"
+    in_the_way.write_text("a file", encoding="utf-8")
+    monkeypatch.setenv("VETFLUID_HOME", str(in_the_way / "vetfluid"))
+    answer({})  # any question or message fails the test
+    window = open_window()
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None)
+    notice = window.data_folder_notice
+    assert notice.isVisible()
+    text = notice.text()
+    assert "Settings and patient records cannot be kept" in text
+    assert f"{in_the_way} is a file, not a folder" in text
+    assert "set VETFLUID_HOME to a folder you can write to" in text
+    assert window.records is None  # none could be opened; the status bar says why
+    window.open_demo("dehydrated_dog")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    # closing asks before dropping a plan nothing could keep, as without records
+    from PySide6.QtWidgets import QMessageBox
+
+    answer({"The records file cannot be used": QMessageBox.StandardButton.Discard})
+    assert window.close()
+
+
+def test_the_notice_is_hidden_when_the_folder_can_be_used(qtbot, planner):
+    assert not planner.data_folder_notice.isVisible()
+    assert planner.data_folder_notice.text() == ""
+
+
+@pytest.mark.parametrize("command", [["--version"], ["--help"], ["sheet", "--help"]])
+def test_commands_do_not_fail_on_a_data_folder_that_cannot_be_made(tmp_path, command):
+    blocked = tmp_path / "file"
+    blocked.write_text("x", encoding="utf-8")
+    run = subprocess.run([VETFLUID, *command],
+                         env=_env(QT_QPA_PLATFORM="offscreen", VETFLUID_HOME=str(blocked)),
+                         capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert run.returncode == 0, run.stderr
+    assert "Traceback" not in run.stderr
+
+
+def test_the_chart_command_says_the_overrides_are_not_read(tmp_path):
+    """`vetfluid chart` still prints from the shipped values, and says in one line that the
+    clinic overrides cannot be read from a data folder that cannot be made."""
+    blocked = tmp_path / "file"
+    blocked.write_text("x", encoding="utf-8")
+    run = subprocess.run(
+        [VETFLUID, "chart", "--species", "dog", "-o", str(tmp_path / "chart.pdf")],
+        env=_env(QT_QPA_PLATFORM="offscreen", VETFLUID_HOME=str(blocked / "sub")),
+        capture_output=True, text=True, timeout=60,
+    )  # fmt: skip
+    assert run.returncode == 0, run.stderr
+    assert run.stderr.startswith("vetfluid chart: no clinic overrides are read: the user data ")
+    assert f"{blocked} is a file, not a folder" in run.stderr
+    assert "Traceback" not in run.stderr and (tmp_path / "chart.pdf").is_file()
 
 
 def test_self_check_writes_the_views_the_plan_file_and_the_sheet(tmp_path, vetfluid_home):
@@ -143,7 +298,7 @@ def test_self_check_writes_the_views_the_plan_file_and_the_sheet(tmp_path, vetfl
         "dehydrated_dog-0-plan.png", "dehydrated_dog-1-timeline.png",
         "dehydrated_dog-2-course.png", "dehydrated_dog-3-checks.png",
         "dehydrated_dog-4-values.png", "dehydrated_dog-sheet.pdf",
-        "dehydrated_dog.vfplan.json",
+        "dehydrated_dog.vfplan",
     ]  # fmt: skip
     assert not any(vetfluid_home.iterdir())
 

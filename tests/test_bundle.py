@@ -66,10 +66,13 @@ def _env(home: Path) -> dict[str, str]:
     }
 
 
-def _run(installed: Path, *arguments: str, home: Path) -> subprocess.CompletedProcess:
+def _run(
+    installed: Path, *arguments: str, home: Path, offline: bool = True
+) -> subprocess.CompletedProcess:
+    """Run the bundle; ``offline`` False where it must reach a records server."""
     return subprocess.run(
-        [*_offline(), str(installed), *arguments], env=_env(home), cwd=home,
-        capture_output=True, text=True, timeout=120,
+        [*(_offline() if offline else []), str(installed), *arguments], env=_env(home),
+        cwd=home, capture_output=True, text=True, timeout=120,
     )  # fmt: skip
 
 
@@ -141,15 +144,54 @@ def test_self_check_leaves_the_clinics_data_folder_alone(self_check):
 
 
 def test_the_sheet_command_prints_the_saved_plan_file(installed, self_check, tmp_path, pdf_text):
-    """``vetfluid sheet PLAN.vfplan.json -o sheet.pdf`` from the bundle, on the plan file the
-    self-check saved."""
+    """``vetfluid sheet PLAN.vfplan -o sheet.pdf`` from the bundle, on the plan file the
+    self-check saved (``.vfplan``, issue 21), and on the same file under the name plan files
+    had before (``.vfplan.json``)."""
     _, folder, _ = self_check
-    sheet = tmp_path / "sheet.pdf"
-    plan_file = folder / f"{DEMO}.vfplan.json"
-    run = _run(installed, "sheet", str(plan_file), "-o", str(sheet), home=tmp_path)
-    assert run.returncode == 0, run.stderr
-    assert run.stdout.startswith(f"wrote {sheet}")
-    assert "Dog, 24 kg" in pdf_text(sheet)
+    plan_file = folder / f"{DEMO}.vfplan"
+    earlier = tmp_path / f"{DEMO}.vfplan.json"
+    shutil.copyfile(plan_file, earlier)
+    for given in (plan_file, earlier):
+        sheet = tmp_path / f"sheet-{given.suffix.lstrip('.')}.pdf"
+        run = _run(installed, "sheet", str(given), "-o", str(sheet), home=tmp_path)
+        assert run.returncode == 0, run.stderr
+        assert run.stdout.startswith(f"wrote {sheet}")
+        assert "Dog, 24 kg" in pdf_text(sheet)
+
+
+def test_self_check_opens_the_records_on_the_clinics_server(
+    installed, postgres_url, vetfluid_home, tmp_path, monkeypatch
+):
+    """A workstation set up for the clinic's PostgreSQL server (its Records settings and
+    the owner-only password file in its data folder, as the window keeps them): the bundle's
+    self-check opens the records there (psycopg and its libpq are in the bundle) and says
+    what they hold. Runs where the tests have a server (tests/conftest.py; CI starts one)."""
+    from vetfluid.records.location import (
+        PASSFILE_NAME,
+        RecordsSettings,
+        save_settings,
+        server_address,
+    )
+
+    home = tmp_path / "home"
+    data = Path(_env(home)["VETFLUID_HOME"])
+    data.mkdir(mode=0o700)
+    # the password as the postgres_url fixture kept it, the window's way
+    shutil.copy2(vetfluid_home / PASSFILE_NAME, data / PASSFILE_NAME)
+    with monkeypatch.context() as here:
+        here.setenv("VETFLUID_HOME", str(data))
+        save_settings(RecordsSettings(url=postgres_url, initials="AB"))
+    folder = tmp_path / "check"
+    # with the network: the server is on it (the test's own, on 127.0.0.1)
+    run = _run(installed, "self-check", str(folder), "--demo", DEMO, home=home, offline=False)
+    assert run.returncode == 0, run.stdout + run.stderr
+    label = server_address(postgres_url).label
+    assert f"records: the server {label} opened (0 patients, 0 plan versions)" in run.stdout
+    assert run.stdout.rstrip().endswith("self-check passed")
+    # psycopg's binary implementation with a libpq of its own: a clinic machine has none
+    # (this one has, so the run above alone would not show it)
+    assert list((installed.parent / "_internal" / "psycopg_binary").glob("pq.*"))
+    assert list((installed.parent / "_internal" / "psycopg_binary.libs").glob("libpq*"))
 
 
 def test_the_window_starts_and_keeps_running(installed, tmp_path):

@@ -430,3 +430,27 @@ def test_a_usage_error_names_the_help_to_read_once(args, hint):
     out = subprocess.run([*CLI, *args], capture_output=True, text=True)
     assert out.returncode == 2
     assert out.stderr.strip().endswith(hint), out.stderr
+
+
+def test_a_data_folder_that_cannot_be_made_is_said_not_a_traceback(tmp_path):
+    """Finding (11): VETFLUID_HOME under a file. No command writes there, so each still
+    answers (from the shipped values), and says in one line on stderr that the clinic
+    overrides are not read, why, and what to do."""
+    import os
+
+    blocked = tmp_path / "a-file"
+    blocked.write_text("x", encoding="utf-8")
+    env = dict(os.environ, VETFLUID_HOME=str(blocked / "vetfluid"))
+    run = subprocess.run([*CLI, "plan", "--demo", "dehydrated_dog", "--json"], env=env,
+                         capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert run.returncode == 0, run.stderr
+    assert json.loads(run.stdout)["species_id"] == "dog"
+    assert run.stderr == (
+        f"vetfluid-cli: no clinic overrides are read: the user data folder {blocked}/vetfluid "
+        f"(set by VETFLUID_HOME) cannot be used: {blocked} is a file, not a folder — set "
+        "VETFLUID_HOME to a folder you can write to, or move that file away, then start "
+        "vetfluid again\n"
+    )
+    fluids = subprocess.run([*CLI, "fluids"], env=env, capture_output=True, text=True,
+                            timeout=60)  # fmt: skip
+    assert fluids.returncode == 0 and fluids.stderr == ""  # reads no species value

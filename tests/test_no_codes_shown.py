@@ -439,6 +439,6 @@ def test_a_plan_file_with_an_unknown_fluid_is_refused_in_readable_words(
     monkeypatch.setattr(QMessageBox, "warning", note)
     assert not planner.read_request(path)
     assert len(shown) == 1
-    assert "Could not open pip.vfplan.json" in shown[0] and "ringers_lactate" in shown[0]
+    assert "Could not open pip.vfplan:" in shown[0] and "ringers_lactate" in shown[0]
     for fluid in fluids.load_fluids().values():  # every choice by the name on its bag
         assert fluid.name in shown[0]

@@ -14,7 +14,7 @@ from vetfluid.records.request_file import read_request_file, write_request_file
 def test_round_trip_keeps_request_and_reasons(tmp_path):
     request = DEMOS["renal_cat"].request
     path = write_request_file(tmp_path / "cat", request, {"OVERLOAD_RISK": "weighed 6-hourly"})
-    assert path.name == "cat.vfplan.json"
+    assert path.name == "cat.vfplan"  # issue 21: plan files' own extension
     assert not list(tmp_path.glob("*.tmp"))
     opened = read_request_file(path)
     assert (opened.request, opened.acknowledged) == (request, {"OVERLOAD_RISK": "weighed 6-hourly"})

@@ -21,12 +21,15 @@ def sheet_command(argv: list[str]) -> int:
 
     parser = argparse.ArgumentParser(prog="vetfluid sheet", description="Print a treatment sheet.")
     parser.add_argument(
-        "plan", help="a plan as `vetfluid-cli plan --json` prints it, or a saved *.vfplan.json"
+        "plan",
+        help="a plan as `vetfluid-cli plan --json` prints it, or a saved plan file "
+        "(*.vfplan, or *.vfplan.json as saved before)",
     )
     parser.add_argument("-o", "--output", required=True, help="the PDF to write")
     parser.add_argument("--page", choices=("a4", "letter"), default="a4")
     parser.add_argument("--patient-name", default="")
     args = parser.parse_args(argv)
+    _note_data_folder("vetfluid sheet")
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # no window is shown
     from vetfluid.common.errors import VetfluidError, printable
     from vetfluid.printouts.sheet import page_mark, sheet_html
@@ -35,7 +38,7 @@ def sheet_command(argv: list[str]) -> int:
 
     fix = (
         "give the JSON that `vetfluid-cli plan --json` prints, or a plan file the window "
-        "saved (*.vfplan.json)"
+        "saved (*.vfplan)"
     )
     if _same_file(Path(args.plan), Path(args.output)):
         sys.stderr.write(
@@ -71,6 +74,16 @@ def sheet_command(argv: list[str]) -> int:
     return _write_pdf(html, args.output, args.page, mark=mark)
 
 
+def _note_data_folder(program: str) -> None:
+    """One line on stderr when the user data folder cannot be used: the clinic overrides
+    kept there are not read (the sheet and the chart still print, from the shipped values)."""
+    from vetfluid.common.paths import data_folder_problem
+
+    problem = data_folder_problem()
+    if problem:
+        sys.stderr.write(f"{program}: no clinic overrides are read: {problem}\n")
+
+
 def _same_file(plan: object, output: object) -> bool:
     """Whether writing ``output`` would overwrite ``plan`` (the same path however spelt,
     or a link to it)."""
@@ -86,9 +99,9 @@ def _same_file(plan: object, output: object) -> bool:
 
 def _plan_to_print(path: object) -> tuple[dict, dict[str, str]]:
     """The plan JSON to print and the reasons given: a plan as `vetfluid-cli plan --json`
-    prints it (checked, :func:`vetfluid.printouts.sheet.check_plan_json`), or a plan file the window
-    saved (``*.vfplan.json``), whose plan is built from its request, with the reasons that
-    still cover its warnings as they read now."""
+    prints it (checked, :func:`vetfluid.printouts.sheet.check_plan_json`), or a plan file the
+    window saved (``*.vfplan``, or ``*.vfplan.json`` as saved before), whose plan is built
+    from its request, with the reasons that still cover its warnings as they read now."""
     from vetfluid.planning.plan import build_plan
     from vetfluid.printouts.sheet import check_plan_json
     from vetfluid.records.request_file import read_json_file, request_file_from_data
@@ -127,6 +140,7 @@ def chart_command(argv: list[str]) -> int:
     parser.add_argument("-o", "--output", required=True, help="the PDF to write")
     parser.add_argument("--page", choices=("a4", "letter"), default="a4")
     args = parser.parse_args(argv)
+    _note_data_folder("vetfluid chart")
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
     from vetfluid.common.errors import VetfluidError
     from vetfluid.common.units import read_number
@@ -198,9 +212,18 @@ def self_check_command(argv: list[str]) -> int:
             f"vetfluid self-check: cannot make {printable(args.folder)[:200]}: {exc.strerror}\n"
         )
         return 2
+    try:
+        url, passfile = _records_setting()  # the clinic's, read before the folder changes
+    except VetfluidError as exc:
+        sys.stderr.write(f"vetfluid self-check failed: {exc.one_line()}\n")
+        return 1
     os.environ["QT_QPA_PLATFORM"] = "offscreen"  # nothing appears on the clinic's screen
     home = tempfile.mkdtemp(prefix="vetfluid-self-check-")
     os.environ["VETFLUID_HOME"] = home
+    if url:  # the window opens the clinic's records server, as it would
+        os.environ["VETFLUID_RECORDS_URL"] = url
+        if passfile is not None:  # where libpq finds the password, the data folder moved
+            os.environ.setdefault("PGPASSFILE", str(passfile))
     try:
         sys.stdout.write(version_line() + "\n")
         written = _check_window(args.demo, folder)
@@ -218,9 +241,29 @@ def self_check_command(argv: list[str]) -> int:
     return 0
 
 
+def _records_setting() -> tuple[str, Path | None]:
+    """The records setting as this user has it (``VETFLUID_RECORDS_URL``, else the Records
+    settings; "" for the file on this computer) and the owner-only password file kept for
+    it, if any; read without creating the user data folder."""
+    import os
+
+    from vetfluid.common.paths import user_data_path
+    from vetfluid.records.location import PASSFILE_NAME, SETTINGS_NAME, URL_VARIABLE, load_settings
+
+    folder = user_data_path()
+    url = os.environ.get(URL_VARIABLE)
+    if url is None:
+        url = load_settings().url if (folder / SETTINGS_NAME).is_file() else ""
+    passfile = folder / PASSFILE_NAME
+    return url.strip(), passfile if passfile.is_file() else None
+
+
 def _check_window(demo_id: str, folder: Path) -> list[Path]:
     """Open the window with ``demo_id``, picture each view of the plan, save the plan file and
-    print the sheet to PDF, as :func:`self_check_command` says; returns the paths written."""
+    print the sheet to PDF, as :func:`self_check_command` says, and say which records the
+    window opened and what they hold (a records server when one is set; otherwise a new file
+    in the temporary folder). Returns the paths written; RuntimeError when no plan was made
+    or the records could not be opened."""
     import time
 
     from PySide6.QtPrintSupport import QPrinter
@@ -228,7 +271,7 @@ def _check_window(demo_id: str, folder: Path) -> list[Path]:
 
     from ui.main_window import MainWindow
     from vetfluid.common.paths import owner_only_file
-    from vetfluid.records.request_file import write_request_file
+    from vetfluid.records.request_file import SUFFIX, write_request_file
 
     app = QApplication.instance() or QApplication(["vetfluid"])
     window = MainWindow()
@@ -251,7 +294,7 @@ def _check_window(demo_id: str, folder: Path) -> list[Path]:
         if not window.grab().save(str(picture)):
             raise OSError(f"Qt could not save {picture.name}")
         written.append(picture)
-    plan_file = folder / f"{demo_id}.vfplan.json"
+    plan_file = folder / f"{demo_id}{SUFFIX}"
     session = window.session
     written.append(
         write_request_file(
@@ -265,8 +308,27 @@ def _check_window(demo_id: str, folder: Path) -> list[Path]:
     printer.setOutputFileName(str(owner_only_file(sheet)))
     window.print_to(printer)  # File → Print's own path, to a PDF
     written.append(sheet)
+    sys.stdout.write(_records_line(window) + "\n")
     window.hide()  # not closed: closing would keep the demo as a draft in the temporary folder
     return written
+
+
+def _records_line(window) -> str:  # noqa: ANN001 — MainWindow
+    """What the self-check says of the records the window opened; RuntimeError when none."""
+    from vetfluid.common.errors import VetfluidError, printable
+    from vetfluid.records.backups import describe_records
+
+    records = window.records
+    if records is None:
+        problem = printable(window.keeper.work.problem)[:400]
+        raise RuntimeError(f"the records could not be opened: {problem}")
+    try:
+        held = describe_records(records).words()
+    except VetfluidError as exc:
+        raise RuntimeError(f"the records could not be read: {exc.one_line()}") from exc
+    if records.server is None:
+        return f"records: a new records file opened in the temporary folder ({held})"
+    return f"records: {records.where} opened ({held})"
 
 
 def version_line() -> str:
@@ -279,7 +341,9 @@ def version_line() -> str:
 
 
 USAGE = """\
-usage: vetfluid [PLAN.vfplan.json]    open the planning window (with a saved plan file)
+usage: vetfluid [PLAN.vfplan]         open the planning window (with a saved plan file;
+                                      *.vfplan.json, as saved before, opens too)
+       vetfluid -- -PLAN.vfplan       a plan file whose name starts with - (or ./-PLAN.vfplan)
        vetfluid sheet PLAN.json -o sheet.pdf [--page a4|letter] [--patient-name NAME]
                                       print a plan's treatment sheet (no window needed)
        vetfluid chart --species ID -o chart.pdf [--drop-factor N] [--page a4|letter]
@@ -287,13 +351,91 @@ usage: vetfluid [PLAN.vfplan.json]    open the planning window (with a saved pla
        vetfluid self-check FOLDER [--demo ID]
                                       check this installation: open the window offscreen
                                       with a demo patient, write a picture of each view,
-                                      the plan file and the sheet PDF into FOLDER
-       vetfluid --version             print the version and the species data's version
+                                      the plan file and the sheet PDF into FOLDER, and open
+                                      the records as set (a records server, if one is set)
+       vetfluid --version             print the version and the species data's version,
+                                      or why the species data could not be read
        vetfluid --help                print this help
 
 Without a display, use `vetfluid sheet`, `vetfluid chart` or vetfluid-cli, or set
 QT_QPA_PLATFORM=offscreen. `vetfluid sheet --help` and `vetfluid chart --help` say more.
 """
+
+
+def version_command() -> int:
+    """``vetfluid --version``: the version and the species data's digest; then every table of
+    the species data is loaded as a plan loads it, so data that is missing or damaged is
+    said in words, after the version, with exit 1 (rather than found at the first plan)."""
+    from vetfluid import __version__
+    from vetfluid.common.errors import VetfluidError, printable
+
+    try:
+        line = version_line()
+    except (OSError, VetfluidError) as exc:  # the files cannot even be listed or read
+        sys.stdout.write(f"vetfluid {__version__}\n")
+        problem: BaseException | None = exc
+    else:
+        sys.stdout.write(line + "\n")
+        try:
+            species_data_check()
+            problem = None
+        except (OSError, VetfluidError) as exc:  # a file missing, unreadable or malformed
+            problem = exc
+    if problem is None:
+        return 0
+    why = problem.one_line() if isinstance(problem, VetfluidError) else str(problem)
+    sys.stdout.flush()
+    sys.stderr.write(
+        f"vetfluid: the species data could not be read: {printable(why)[:600]} — reinstall "
+        "vetfluid (a bundle: copy its whole folder again); no plan can be made until then\n"
+    )
+    return 1
+
+
+def species_data_check() -> None:
+    """Load every table of the species data (species and parameters, fluids and solutes,
+    safety limits, fluid roles and route limits, diuretics), as planning does; a missing or
+    malformed file raises SpeciesDataError, InputError or OSError, naming the file."""
+    from vetfluid.common.paths import resource_dir
+    from vetfluid.tables.diuretics import load_diuretics
+    from vetfluid.tables.fluid_roles import load_fluid_roles, load_route_limits
+    from vetfluid.tables.fluids import load_fluids
+    from vetfluid.tables.limits import load_limits
+    from vetfluid.tables.species import load_table
+
+    folder = resource_dir("species_data")  # named: the loaders' caches are by folder
+    load_table(folder)
+    load_fluids(folder)
+    load_limits(folder)
+    load_fluid_roles(folder)
+    load_route_limits(folder)
+    load_diuretics(folder)
+
+
+def plan_file_argument(arguments: list[str]) -> str | None:
+    """The plan file to open from what followed ``vetfluid`` (None: none given). A name
+    starting with ``-`` is taken after ``--`` (or written ``./-dog.vfplan``). Anything else
+    is an InputError saying what was not understood and how to write it."""
+    from vetfluid.common.errors import InputError, printable
+
+    if arguments[:1] == ["--"]:
+        files = arguments[1:]
+    else:
+        options = [a for a in arguments if a.startswith("-")]
+        if options:
+            shown = printable(options[0])[:200]
+            raise InputError(
+                f"{shown} is not an option of vetfluid",
+                fix=f"to open a plan file of that name, write vetfluid -- {shown} (or "
+                f"vetfluid ./{shown}); vetfluid --help lists the commands",
+            )
+        files = arguments
+    if len(files) > 1:
+        raise InputError(
+            f"vetfluid opens one plan file at a time ({len(files)} were given)",
+            fix="give one file; put a name with spaces in quotes",
+        )
+    return files[0] if files else None
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -305,14 +447,14 @@ def main(argv: list[str] | None = None) -> int:
         sys.stdout.write(USAGE)  # before Qt: help never opens a window
         return 0
     if arguments and arguments[0] == "--version":
-        from vetfluid.common.errors import VetfluidError
+        return version_command()
+    from vetfluid.common.errors import InputError
 
-        try:
-            sys.stdout.write(version_line() + "\n")
-        except (OSError, VetfluidError) as exc:  # an installation missing its species data
-            sys.stderr.write(f"vetfluid: {exc}\n")
-            return 1
-        return 0
+    try:
+        plan_file = plan_file_argument(arguments)
+    except InputError as exc:
+        sys.stderr.write(f"vetfluid: {exc.one_line()}\n")
+        return 2
     from ui.common.platform_check import display_problem
 
     problem = display_problem()
@@ -324,16 +466,18 @@ def main(argv: list[str] | None = None) -> int:
     from ui.common import errors
 
     errors.install()
-    app = QApplication.instance() or QApplication(argv if argv is not None else sys.argv)
+    # Qt is given the program's name only: it would take a plan file named like one of its
+    # own options (-reverse, -style) for that option
+    program = (argv if argv is not None else sys.argv)[:1] or ["vetfluid"]
+    app = QApplication.instance() or QApplication(program)
     app.setApplicationName("vetfluid")
     app.setOrganizationName("vetfluid")
-    plan_file = arguments[0] if arguments and not arguments[0].startswith("-") else None
     window = open_window(plan_file)  # noqa: F841 (kept alive while the loop runs)
     return app.exec()
 
 
 def open_window(plan_file: str | None = None):  # noqa: ANN201 — MainWindow, imported late
-    """The main window, shown. ``plan_file`` (``vetfluid PLAN.vfplan.json``, as a file
+    """The main window, shown. ``plan_file`` (``vetfluid PLAN.vfplan``, as a file
     association starts it) opens once the planner is built and has offered the draft left
     last time, so whatever is kept is asked about in the usual order (File → Open's path:
     a file that cannot be read is a message, not a crash)."""

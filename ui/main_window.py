@@ -35,7 +35,9 @@ if TYPE_CHECKING:
     from vetfluid.records.store import Records
     from vetfluid.records.work_session import Opening
 
-FILE_FILTER = "vetfluid plan request (*.vfplan.json)"
+# plan files: saved as *.vfplan; those saved before as *.vfplan.json open too
+OPEN_FILTER = "vetfluid plan file (*.vfplan *.vfplan.json)"
+SAVE_FILTER = "vetfluid plan file (*.vfplan)"
 
 
 def _placeholder(text: str) -> QWidget:
@@ -125,6 +127,7 @@ class MainWindow(QMainWindow):
         self.centralWidget().layout().insertWidget(1, self.table_notice)
         self.session.tableNoticeChanged.connect(self._show_table_notice)
         self._show_table_notice(self.session.table_notice)
+        self._show_data_folder_problem(Qt.TextFormat.PlainText)
         self.patient = PatientView(self.session)
         self.settings_box = PlanSettings(self.session)
         # the optional labs last, after how the fluid is given (built in this order, so
@@ -198,6 +201,30 @@ class MainWindow(QMainWindow):
         self.session.recompute()
         self._page_opened(self.pages.currentIndex())
 
+    def _show_data_folder_problem(self, plain_text: object) -> None:
+        """Say, above everything, when settings and records cannot be kept: the user data
+        folder cannot be made or written (a file in its way, no permission). Nothing is
+        saved there until it is fixed; plans can still be made, printed and exported."""
+        from vetfluid.common.paths import data_folder_problem
+
+        problem = data_folder_problem()
+        self.data_folder_notice = QLabel()
+        self.data_folder_notice.setObjectName("dataFolderNotice")
+        self.data_folder_notice.setTextFormat(plain_text)  # the path is the user's
+        self.data_folder_notice.setWordWrap(True)
+        self.data_folder_notice.setAccessibleName("Settings and records cannot be kept")
+        self.data_folder_notice.setStyleSheet(
+            "QLabel#dataFolderNotice { border: 2px solid #b00020; padding: 4px; }"
+        )
+        if problem:
+            self.data_folder_notice.setText(
+                "⚠ Settings and patient records cannot be kept on this computer now: "
+                f"{problem}.\nPlans can still be made, printed and exported to a file, but "
+                "nothing is saved in the records, and the window's settings are not kept."
+            )
+        self.data_folder_notice.setVisible(bool(problem))
+        self.centralWidget().layout().insertWidget(1, self.data_folder_notice)
+
     def _show_table_notice(self, text: str) -> None:
         """Say which clinic overrides are not used, or nothing when all are."""
         self.table_notice.setText(f"⚠ Clinic overrides not used:\n{text}" if text else "")
@@ -241,6 +268,16 @@ class MainWindow(QMainWindow):
             self._action("&Records settings…", self.records_settings,
                          tip="Where the records are kept (this computer or the clinic's "
                              "server), this workstation's name and your initials")
+        )  # fmt: skip
+        file_menu.addAction(
+            self._action("&Back up records…", lambda: self.back_up_records(),
+                         tip="Write a copy of every patient and plan version to a file "
+                             "(the records stay as they are)")
+        )  # fmt: skip
+        file_menu.addAction(
+            self._action("Res&tore records from a backup…", lambda: self.restore_records(),
+                         tip="Replace the records with a backup (asks first; the records "
+                             "as they are now are kept in a backup of their own)")
         )  # fmt: skip
         file_menu.addSeparator()
         file_menu.addAction(
@@ -319,6 +356,18 @@ class MainWindow(QMainWindow):
         if self.keeper is not None:  # applied now (before the planner: opened with it)
             self.keeper.apply_records_settings()
         return True
+
+    def back_up_records(self, target: Path | None = None) -> Path | None:
+        """File ▸ Back up records… (ui/records/backup_dialogs.py); the file written."""
+        from ui.records.backup_dialogs import back_up_records
+
+        return back_up_records(self, target)
+
+    def restore_records(self, backup: Path | None = None) -> bool:
+        """File ▸ Restore records from a backup… (ui/records/backup_dialogs.py)."""
+        from ui.records.backup_dialogs import restore_from_backup
+
+        return restore_from_backup(self, backup)
 
     def open_patient(self) -> None:
         """Find a patient in the records and open one of its saved versions."""
@@ -490,11 +539,38 @@ class MainWindow(QMainWindow):
         if self.session.plan is None:
             QMessageBox.information(self, "vetfluid", "There is no valid plan to save yet.")
             return
-        dialog = QFileDialog(self, "Export plan file", str(user_data_dir()), FILE_FILTER)
+        from vetfluid.records.request_file import with_suffix
+
+        dialog = QFileDialog(self, "Export plan file", self._file_folder(), SAVE_FILTER)
         dialog.setAcceptMode(QFileDialog.AcceptMode.AcceptSave)
-        dialog.setDefaultSuffix("vfplan.json")  # so the overwrite question sees the real name
-        if dialog.exec() and dialog.selectedFiles():
-            self.write_request(Path(dialog.selectedFiles()[0]))
+        dialog.setDefaultSuffix("vfplan")  # so the overwrite question sees the real name
+        if not (dialog.exec() and dialog.selectedFiles()):
+            return
+        chosen = Path(dialog.selectedFiles()[0])
+        target = with_suffix(chosen)
+        # A name with a dot of its own ("Rex.Smith") gets no default suffix from the dialog,
+        # so its overwrite question was about another file than the one written: ask here.
+        if target != chosen and target.exists() and not self._replace_file(target):
+            return
+        self.write_request(target)
+
+    def _replace_file(self, path: Path) -> bool:
+        """Whether to write over ``path``, which exists (asked as the file dialog asks)."""
+        asked = QMessageBox.question(
+            self, "vetfluid",
+            f"{path.name} already exists in {path.parent}.\nDo you want to replace it?",
+            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No,
+            QMessageBox.StandardButton.No,
+        )  # fmt: skip
+        return asked == QMessageBox.StandardButton.Yes
+
+    @staticmethod
+    def _file_folder() -> str:
+        """Where the plan-file dialogs start: the user data folder, or the home folder when
+        that cannot be used (the window says why at start)."""
+        from vetfluid.common.paths import data_folder_problem
+
+        return str(Path.home() if data_folder_problem() else user_data_dir())
 
     def write_request(self, path: Path) -> bool:
         """Save the inputs and acknowledgements; a failure is a message, never a crash."""
@@ -517,7 +593,7 @@ class MainWindow(QMainWindow):
 
     def open_file(self) -> None:
         name, _ = QFileDialog.getOpenFileName(
-            self, "Import plan file", str(user_data_dir()), FILE_FILTER
+            self, "Import plan file", self._file_folder(), OPEN_FILTER
         )
         if name:
             self.read_request(Path(name))

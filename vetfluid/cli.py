@@ -894,6 +894,20 @@ def _demo_conflicts(args: argparse.Namespace, argv: Sequence[str] | None) -> Non
         )  # fmt: skip
 
 
+def _report_data_folder(command: str) -> None:
+    """When the user data folder cannot be used (a file in its way, no permission), say so
+    in one line on stderr: the clinic's overrides kept there are not read, and the answer
+    on stdout rests on the shipped values. No command here writes into it, so each still
+    answers."""
+    if command == "fluids":  # the only command that reads no species value
+        return
+    from vetfluid.common.paths import data_folder_problem
+
+    problem = data_folder_problem()
+    if problem:
+        sys.stderr.write(f"vetfluid-cli: no clinic overrides are read: {problem}\n")
+
+
 def _report_ignored_overrides(command: str) -> None:
     """Each clinic override left out (file:line, why, what applies), one line on stderr:
     the answer on stdout uses the shipped values instead."""
@@ -909,6 +923,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     try:
         _demo_conflicts(args, argv)
+        _report_data_folder(args.command)
         _report_ignored_overrides(args.command)
         return COMMANDS[args.command](args)
     except InputError as exc:

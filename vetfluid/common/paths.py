@@ -9,11 +9,12 @@ carries them at the top of its own folder and looks nowhere else.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import sys
 from pathlib import Path
 
-from vetfluid.common.errors import InputError
+from vetfluid.common.errors import InputError, printable
 
 HOME_VARIABLE = "VETFLUID_HOME"
 RESOURCE_FOLDERS = ("species_data", "icons")
@@ -72,24 +73,65 @@ def resource_file(folder: str, filename: str) -> Path:
     return path
 
 
+def user_data_path() -> Path:
+    """Where the user data folder is, without creating it: ``VETFLUID_HOME`` when set
+    (tests always set it to a temporary folder), otherwise the platform's user data folder
+    from platformdirs."""
+    override = os.environ.get(HOME_VARIABLE)
+    if override:
+        return Path(override).expanduser()
+    from platformdirs import user_data_path as platform_data_path
+
+    return platform_data_path("vetfluid", appauthor=False)
+
+
 def user_data_dir() -> Path:
     """The folder for everything vetfluid writes (overrides, records, settings).
 
-    ``VETFLUID_HOME`` replaces it when set (tests always set it to a temporary
-    folder); otherwise the platform's user data folder from platformdirs. It holds
-    patient records, so it is created readable by its owner only (0700; the folders
-    above it, if missing, as the system makes any folder). A folder that already exists
-    is left as its owner set it.
-    """
-    override = os.environ.get(HOME_VARIABLE)
-    if override:
-        path = Path(override).expanduser()
-    else:
-        from platformdirs import user_data_path
+    It holds patient records, so it is created readable by its owner only (0700; the
+    folders above it, if missing, as the system makes any folder). A folder that already
+    exists is left as its owner set it.
 
-        path = user_data_path("vetfluid", appauthor=False)
-    path.mkdir(mode=0o700, parents=True, exist_ok=True)
+    A folder that cannot be created (a file in the way, no permission) is not an error
+    here: what is read from it is simply not there, and each write into it fails with its
+    own message. The window and the command lines say so at start, in words, with what to
+    do (:func:`data_folder_problem`), instead of failing wherever the folder is first named.
+    """
+    path = user_data_path()
+    with contextlib.suppress(OSError):  # said by data_folder_problem(), see above
+        path.mkdir(mode=0o700, parents=True, exist_ok=True)
     return path
+
+
+def data_folder_problem() -> str:
+    """Why the user data folder cannot keep anything, in one line with what to do; "" when
+    it can. Creates the folder as :func:`user_data_dir` does, if it can."""
+    path = user_data_path()
+    try:
+        path.mkdir(mode=0o700, parents=True, exist_ok=True)
+    except OSError as exc:
+        reason, fix = _why_not_created(path, exc)
+    else:
+        if os.access(path, os.W_OK | os.X_OK):
+            return ""
+        reason, fix = "it is read-only for you", "make it writable for you"
+    named = f" (set by {HOME_VARIABLE})" if os.environ.get(HOME_VARIABLE) else ""
+    return printable(
+        f"the user data folder {path}{named} cannot be used: {reason} — set {HOME_VARIABLE} "
+        f"to a folder you can write to, or {fix}, then start vetfluid again"
+    )
+
+
+def _why_not_created(path: Path, exc: OSError) -> tuple[str, str]:
+    """Why a folder could not be made, and what would let it be, in words."""
+    above = path
+    while not above.exists() and above != above.parent:
+        above = above.parent
+    if above.exists() and not above.is_dir():
+        return f"{above} is a file, not a folder", "move that file away"
+    if isinstance(exc, PermissionError):
+        return f"you may not create folders in {above}", f"make {above} writable for you"
+    return exc.strerror or str(exc), "fix what stops it being created"
 
 
 def owner_only_file(path: Path) -> Path:

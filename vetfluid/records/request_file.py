@@ -1,4 +1,5 @@
-"""Plan-request files (``*.vfplan.json``): a patient's inputs and acknowledgements.
+"""Plan files (``*.vfplan``; those written before were ``*.vfplan.json``): a patient's
+inputs and acknowledgements.
 
 Our own small JSON format: ``{"format": "vetfluid-plan-request", "version": 1,
 "request": {...}, "acknowledged": {code: reason}, "acknowledged_for": {code: wording}}``
@@ -6,6 +7,11 @@ where ``acknowledged_for`` holds what each warning said when its reason was give
 written before it was kept have none). Writes are atomic (temporary
 file, fsync, rename), so a crash never leaves half a file, and owner-only (0600) from the
 first byte, as a patient's data is; reads check every part and say what is wrong.
+
+The extension is our own, ``.vfplan``, so a desktop can open plan files with vetfluid by
+double-click (Windows associates by the last extension only: ``.vfplan.json`` was a JSON
+file there). The content is the same JSON; a file is read by its content, whatever its name,
+so files saved as ``*.vfplan.json`` still open everywhere.
 """
 
 from __future__ import annotations
@@ -26,11 +32,19 @@ from vetfluid.records.serialize import (
     request_to_dict,
 )
 
-SUFFIX = ".vfplan.json"
+SUFFIX = ".vfplan"  # what new plan files are saved as
+EARLIER_SUFFIX = ".vfplan.json"  # what they were saved as before; still read
+SUFFIXES = (SUFFIX, EARLIER_SUFFIX)
 
 
 def with_suffix(path: Path) -> Path:
-    return path if path.name.endswith(SUFFIX) else path.with_name(path.name + SUFFIX)
+    """``path`` as a plan file is written: kept when it already ends in ``.vfplan`` (or the
+    earlier ``.vfplan.json``), else with ``.vfplan`` added (``rex`` → ``rex.vfplan``,
+    ``rex.json`` → ``rex.json.vfplan``: nothing the user typed is dropped)."""
+    path = Path(path)
+    if path.name.lower().endswith(SUFFIXES):
+        return path
+    return path.with_name(path.name + SUFFIX)
 
 
 @dataclass(frozen=True, kw_only=True)
