@@ -26,6 +26,7 @@ from vetfluid.records.location import (
     URL_VARIABLE,
     RecordsSettings,
     load_settings,
+    password_spelling_problem,
     save_settings,
     server_address,
     store_password,
@@ -106,8 +107,13 @@ class RecordsSettingsDialog(QDialog):
                     raise InputError("a password needs a server address", field="password")
                 store_password(server_address(settings.url), self.password.text())
             save_settings(settings)
+            # a password kept for another spelling of the host: said now, not at next start
+            spelling = (password_spelling_problem(server_address(settings.url))
+                        if settings.url and not self.password.text() else None)  # fmt: skip
         except VetfluidError as exc:  # refused, or the file could not be written
             QMessageBox.warning(self, "vetfluid", exc.one_line())
             return
+        if spelling:
+            QMessageBox.warning(self, "vetfluid", f"The settings are saved, but {spelling}.")
         self.password.clear()
         super().accept()

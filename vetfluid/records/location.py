@@ -68,6 +68,12 @@ def load_settings() -> RecordsSettings:
         return RecordsSettings()
     try:
         stored = json.loads(path.read_text(encoding="utf-8"))
+    except RecursionError:  # nested thousands deep: Python's parser gives up
+        raise InputError(
+            f"the records settings {path} cannot be read (nested too deep to be settings)",
+            field="records settings",
+            fix="set them again in Records settings, or delete the file",
+        ) from None
     except (OSError, ValueError) as exc:
         raise InputError(
             f"the records settings {path} cannot be read ({exc})",
@@ -75,7 +81,11 @@ def load_settings() -> RecordsSettings:
             fix="set them again in Records settings, or delete the file",
         ) from None
     if not isinstance(stored, dict):
-        raise InputError(f"the records settings {path} are not settings", field="records settings")
+        raise InputError(
+            f"the records settings {path} are not settings (not a JSON object)",
+            field="records settings",
+            fix="set them again in Records settings, or delete the file",
+        )
     known = RecordsSettings.__dataclass_fields__
     for key, value in stored.items():
         if key in known and not isinstance(value, str):
@@ -277,6 +287,34 @@ def _has_entry(path: Path, address: ServerAddress) -> bool:
     return False
 
 
+def password_spelling_problem(address: ServerAddress) -> str | None:
+    """Why the password kept in ``records.pgpass`` will not be used for ``address``, in
+    words, or None: kept for the same server written another way (127.0.0.1 for
+    localhost). libpq matches the host as written (PostgreSQL 15 documentation, 34.16),
+    so the server would be reached without it when vetfluid next starts."""
+    path = password_file()
+    if _has_entry(path, address):
+        return None
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError):
+        return None
+    for line in text.splitlines():
+        fields = _fields(line)
+        if len(fields) != 5 or fields[0] == "*" or not fields[1].isdigit():
+            continue
+        kept = ServerAddress(host=fields[0], port=int(fields[1]), database=fields[2],
+                             user=fields[3], sslmode=address.sslmode)  # fmt: skip
+        if kept.identity == address.identity:
+            return (
+                f"the password kept in {path} is for the server written as {fields[0]}, "
+                f"and this address writes it as {address.host}: the PostgreSQL client "
+                "matches the host as written, so it would not send it. Give the password "
+                "again here (it is kept for this spelling), or write the host as before"
+            )
+    return None
+
+
 def password_file_problem(address: ServerAddress) -> str | None:
     """Why the password file libpq would read for ``address`` cannot be used, in words, or
     None. On POSIX systems libpq ignores one that its group or others may read (PostgreSQL
@@ -318,7 +356,8 @@ def server_address(url: str) -> ServerAddress:
         ) from None  # fmt: skip
     if parsed.drivername not in _SCHEMES:
         raise InputError(
-            f"records are kept on PostgreSQL servers, not {parsed.drivername!r}", field=field,
+            f"records are kept on PostgreSQL servers, not {_shortened(parsed.drivername)!r}",
+            field=field,
             fix="write it as postgresql://user@host:5432/database, or leave it empty for the "
             "file on this computer",
         )  # fmt: skip
@@ -333,6 +372,15 @@ def server_address(url: str) -> ServerAddress:
         raise InputError(
             "the server address needs a user, a host and a database", field=field,
             fix="write it as postgresql://user@host:5432/database",
+        )  # fmt: skip
+    try:
+        port = parsed.port
+    except ValueError:
+        port = -1
+    if port is not None and not 1 <= port <= 65535:  # TCP ports (RFC 793: 16 bits, 0 none)
+        raise InputError(
+            "the server address gives a port outside 1 to 65535", field=field,
+            fix="write the server's port (PostgreSQL's is usually 5432), or leave it out",
         )  # fmt: skip
     query = {k: v if isinstance(v, str) else v[-1] for k, v in parsed.query.items()}
     sslmode = query.pop("sslmode", "prefer").lower()
@@ -359,8 +407,34 @@ def server_address(url: str) -> ServerAddress:
     )  # fmt: skip
 
 
+def _shortened(text: str, limit: int = 40) -> str:
+    """Text from an address as said back to the user: at most ``limit`` characters."""
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
 def _escaped(part: str) -> str:
     return part.replace("\\", "\\\\").replace(":", "\\:")
+
+
+def _password_lines(path: Path) -> list[str]:
+    """The lines of our password file, kept when a password is added; VetfluidError, in
+    words naming the file, when it cannot be read (never written over: the passwords of
+    other servers may be in it)."""
+    if path.is_dir():
+        why, fix = "is a folder, not a password file", "move it away, then give the password again"
+    else:
+        try:
+            return path.read_text(encoding="utf-8").splitlines()
+        except FileNotFoundError:
+            return []
+        except UnicodeDecodeError:
+            why = "is not UTF-8 text (written in another encoding)"
+            fix = "save it as UTF-8 in a text editor, or move it away and give the password again"
+        except OSError as exc:
+            why = f"cannot be read ({exc.strerror})"
+            fix = (f"make it readable by you only (chmod 600 {path}), or move it away and "
+                   "give the password again")  # fmt: skip
+    raise VetfluidError(f"the password file {path} {why}; the password was not kept", fix=fix)
 
 
 def store_password(address: ServerAddress, password: str) -> Path:
@@ -372,10 +446,7 @@ def store_password(address: ServerAddress, password: str) -> Path:
     path = password_file()
     key = ":".join(_escaped(p) for p in (address.host, str(address.port), address.database,
                                          address.user))  # fmt: skip
-    lines = []
-    if path.exists():
-        lines = [line for line in path.read_text(encoding="utf-8").splitlines()
-                 if not line.startswith(key + ":")]  # fmt: skip
+    lines = [line for line in _password_lines(path) if not line.startswith(key + ":")]
     lines.append(f"{key}:{_escaped(password)}")
     write_atomically(path, "\n".join(lines) + "\n")
     return path

@@ -133,6 +133,16 @@ class RecordsUnreachable(RecordsError):
     this computer. The message says where, and what to check."""
 
 
+class RecordsReplaced(RecordsError):
+    """The records were replaced since they were read (a backup restored into them, their
+    database identity changed): nothing was written by id, since the ids may now be other
+    patients'. ``database_id``: the identity they have now."""
+
+    def __init__(self, message: str, *, database_id: str | None) -> None:
+        super().__init__(message)
+        self.database_id = database_id
+
+
 class DraftSetAside(RecordsError):
     """The stored draft could not be read and was moved, as stored, to ``path``."""
 
@@ -152,6 +162,11 @@ def _reason(exc: BaseException) -> str:
     """What the database said, without the statement SQLAlchemy adds to it."""
     original = getattr(exc, "orig", None)
     return str(original if original is not None else exc).strip().splitlines()[0]
+
+
+# what libpq and the server say when the password is wrong or missing (PostgreSQL 15,
+# src/backend/libpq/auth.c and src/interfaces/libpq/fe-auth.c)
+_PASSWORD_REFUSED = ("password authentication failed", "no password supplied")
 
 
 def _lost_connection(exc: BaseException) -> bool:
@@ -566,7 +581,15 @@ class Records:
         )
 
     def _unreachable_error(self, exc: BaseException) -> RecordsUnreachable:
-        return RecordsUnreachable(f"{self._name} cannot be reached ({_reason(exc)})",
+        reason = _reason(exc)
+        # libpq gives no SQLSTATE when a connection fails: its words tell a refused password
+        if any(words in reason for words in _PASSWORD_REFUSED):
+            return RecordsUnreachable(
+                f"{self._name} refused the password ({reason})",
+                fix="give the password again in File ▸ Records settings (or check the user "
+                f"name); {self._draft_kept_words()}",
+            )
+        return RecordsUnreachable(f"{self._name} cannot be reached ({reason})",
                                   fix=self._draft_kept_words())  # fmt: skip
 
     def reach(self, *, force: bool = True) -> bool:
@@ -655,6 +678,18 @@ class Records:
                 kept = uuid.uuid4().hex
                 conn.execute(meta.insert().values(key="database_id", value=kept))
         return kept
+
+    def read_identity(self) -> str | None:
+        """The database identity read again now (a restore since changes it); kept as
+        :attr:`database_id`. None: not reached."""
+        try:
+            with self._connection() as conn:
+                now = conn.execute(select(meta.c.value).where(meta.c.key == "database_id")).scalar()
+        except (DBAPIError, sqlite3.Error, RecordsError):
+            return self.database_id  # said by the write that follows
+        if now is not None:
+            self.database_id = now
+        return self.database_id
 
     def _create(self) -> bool:
         """Build the whole schema in one transaction: killed before it commits, the
@@ -834,6 +869,7 @@ class Records:
         observations: list[dict] | tuple[dict, ...] = (),
         known_latest: int | None = None,
         workstation: str | None = None,
+        database_id: str | None = None,
     ) -> Saved:
         """Save the plan as the patient's next version, by ``author`` (initials) from
         ``workstation`` (this one by default), with its observations: one transaction.
@@ -842,7 +878,8 @@ class Records:
         (SQLite: the file's write lock), so saves of one patient from several workstations
         follow one another: no number is taken twice or skipped. ``known_latest``: the
         latest version the saver knew of; the versions above it saved meanwhile are
-        returned with the number."""
+        returned with the number. ``database_id``: the database the patient id was read
+        in; other records now (a restore since): RecordsReplaced, nothing written."""
         from vetfluid.records.serialize import plan_dict, request_to_dict
 
         request_json = json.dumps(request_to_dict(plan.request), ensure_ascii=False)
@@ -854,6 +891,7 @@ class Records:
                 locked = conn.execute(
                     select(patients.c.id).where(patients.c.id == patient_id).with_for_update()
                 ).first()
+                self._same_database(conn, database_id)  # after the lock: a restore waits
                 if locked is None:
                     raise InputError(f"no patient {patient_id}", field="patient", value=patient_id)
                 latest = conn.execute(
@@ -971,7 +1009,12 @@ class Records:
         return [_json_or_text(r[0]) for r in rows]
 
     def merge_observations(
-        self, *, version_id: int, observations: list, based_on: list | None = None
+        self,
+        *,
+        version_id: int,
+        observations: list,
+        based_on: list | None = None,
+        database_id: str | None = None,
     ) -> Merged:
         """Bring into a version the observations kept for it (in a draft, or on another
         workstation's screen) while it could not take them. With ``based_on`` (what it held
@@ -985,7 +1028,9 @@ class Records:
         ``based_on``, on another workstation is kept once: two entries of one reading (two
         urine collections of the same period and volume are one collection, counted twice
         they would double the measured output); :attr:`Merged.kept_once` names them, for the
-        user to be told and to record it again if it really was a second measurement."""
+        user to be told and to record it again if it really was a second measurement.
+        ``database_id``: the database the version id was read in; other records now (a
+        restore since): RecordsReplaced, nothing written."""
         from collections import Counter
 
         def counted(records: list) -> Counter:
@@ -994,6 +1039,7 @@ class Records:
         try:
             with self._transaction() as conn:
                 self._lock_version(conn, version_id)
+                self._same_database(conn, database_id)
                 current = [r for r in self.observations(version_id)
                            if observation_key(r) is not None]  # fmt: skip
                 ours, now = counted(observations), counted(current)
@@ -1026,6 +1072,24 @@ class Records:
             )) from exc  # fmt: skip
         return Merged(added=sum(added.values()), kept_once=tuple(once))
 
+    def _same_database(self, conn: Connection, expected: str | None) -> None:
+        """Read the database identity again in the write's own transaction (after its row
+        lock: a restore, which truncates the tables, waits for it or has committed): when it
+        is no longer ``expected``, RecordsReplaced. None: nothing to check."""
+        if expected is None:
+            return
+        now = conn.execute(select(meta.c.value).where(meta.c.key == "database_id")).scalar()
+        if now == expected:
+            return
+        if now is not None:
+            self.database_id = now  # these records are this database from here on
+        raise RecordsReplaced(
+            f"{self._name} were replaced since the plan was opened (a backup restored into "
+            "them, or other records), so its patient and version numbers may now be other "
+            "patients'; nothing was written by number",
+            database_id=now,
+        )
+
     @staticmethod
     def _lock_version(conn: Connection, version_id: int) -> None:
         """On a server, hold the version's row until the transaction ends (its
@@ -1034,7 +1098,9 @@ class Records:
             select(plan_versions.c.id).where(plan_versions.c.id == version_id).with_for_update()
         )
 
-    def keep_observations(self, *, version_id: int, observations: list[dict]) -> bool:
+    def keep_observations(
+        self, *, version_id: int, observations: list[dict], database_id: str | None = None
+    ) -> bool:
         """Make the version's stored observations the ones given (one transaction).
 
         Rows already stored keep their time of recording; only the ones the user added or
@@ -1045,6 +1111,7 @@ class Records:
         try:
             with self._transaction() as conn:
                 self._lock_version(conn, version_id)
+                self._same_database(conn, database_id)
                 stored = conn.execute(
                     select(o.id, o.observation_json).where(o.plan_version_id == version_id)
                 ).fetchall()

@@ -172,6 +172,7 @@ from vetfluid.records.store import (
     Merged,
     Records,
     RecordsError,
+    RecordsReplaced,
     RecordsUnreachable,
 )
 
@@ -737,7 +738,8 @@ class WorkSession:
         except RecordsError as exc:
             out.message(self._stays_words(old, exc.one_line()))
             return out.reply()
-        if old is not None and (new.drafts_path == old.drafts_path):
+        same_records = old is not None and new.drafts_path == old.drafts_path
+        if same_records and new.server == old.server:  # the whole address, options and all
             new.close()  # the same records: the password may have changed
             if old.unreachable is not None and old.reach():
                 out.status = self._answers_again()
@@ -747,9 +749,21 @@ class WorkSession:
             new.close()
             out.message(self._stays_words(old, words))
             return out.reply()
+        if same_records:
+            # the same database and drafts reached another way (TLS, an option, a spelling):
+            # the work stays bound to it; a database replaced meanwhile is caught at the
+            # next write (its identity is read again there)
+            self.records = new
+            old.close()
+            out.status = f"Records now: {new.where}, reached as the setting now says."
+            return out.reply()
         outcome = self._write_work(out, closed=True) if old is not None else self.state
-        unsaved = outcome in TROUBLE or outcome is State.UNSAVED
         ours_in_old = old is not None and self._draft_is_ours(_Out())
+        # observations kept in the draft for a saved version: they belong to that version,
+        # so the draft stays with its records (moved, they would be no version's)
+        for_version = outcome is State.VERSION_REFUSED and ours_in_old
+        unsaved = not for_version and (outcome in TROUBLE or outcome is State.UNSAVED)
+        waiting = self._waiting_words(old) if for_version else ""
         try:
             theirs = new.draft()
         except DraftSetAside as exc:
@@ -757,8 +771,8 @@ class WorkSession:
             theirs = None
         except RecordsError:
             theirs = {"unreadable": True}  # never written over
-        if theirs is not None and theirs.get("tag") == self.tag:
-            theirs = None
+        if theirs is not None and theirs.get("tag") == self.tag and not theirs.get("for_version"):
+            theirs = None  # this plan's own: offered only when it waits for a version
         if unsaved and theirs is not None and not ours_in_old:
             new.close()  # the work is on screen only: the other draft would be offered over it
             out.message(self._stays_words(old, (
@@ -777,6 +791,8 @@ class WorkSession:
                     old.clear_draft()  # moved, not copied: one draft
                 except RecordsError:
                     pass  # kept in both: nothing lost
+        elif for_version:
+            out.message(waiting)
         elif ours_in_old:
             out.message(
                 f"The plan on screen stays kept as the draft of the records used until now "
@@ -788,6 +804,19 @@ class WorkSession:
         if theirs is not None:
             self._dispatch(Event.LOOK_AT_DRAFT, out, {})
         return out.reply()
+
+    def _waiting_words(self, old: Records) -> str:
+        """Where observations waiting for their saved version stay on a change of records."""
+        number = self.known_latest
+        which = f"version {number}" if number else "the saved version"
+        return (
+            f"The observations recorded on {which} of {self._who(self._patient_mark)} "
+            f"could not yet be written into it ({self._trouble or 'it refused them'}). They "
+            f"stay kept for it in the draft of the records used until now "
+            f"({old.drafts_path}), and are written into it when those records are used "
+            "again (vetfluid asks first). In the new records the plan on screen is no "
+            "patient's."
+        )
 
     def _stays_words(self, old: Records | None, why: str) -> str:
         kept = (
@@ -1075,9 +1104,14 @@ class WorkSession:
             written = self._held_differs(screen)
             # only this screen's additions and removals: other workstations' stand
             merged = self.records.merge_observations(
-                version_id=row_id, observations=screen, based_on=self._version_held
-            )
+                version_id=row_id, observations=screen, based_on=self._version_held,
+                database_id=self._bound_database(),
+            )  # fmt: skip
             self._version_held = screen
+        except RecordsReplaced:
+            self._records_replaced(out)
+            self._save_draft(out, self._draft(request, closed=closed))
+            return State.UNSAVED
         except RecordsError as exc:
             self._trouble = exc.one_line()
             try:
@@ -1235,6 +1269,7 @@ class WorkSession:
             return False
         try:
             if self.patient_id is None:
+                self.records.read_identity()  # the new patient's database, as it is now
                 self.patient_id = self.records.add_patient(
                     name=patient.name, species_id=plan.request.species_id,
                     client_ref=patient.client_ref,
@@ -1244,7 +1279,17 @@ class WorkSession:
             saved = self.records.save_new_version(
                 patient_id=self.patient_id, plan=plan, acknowledged=reasons, author=author,
                 observations=kept, known_latest=self.known_latest,
+                database_id=self._bound_database(),
             )  # fmt: skip
+        except RecordsReplaced:
+            self._records_replaced(out)
+            try:
+                self._save_draft(out, self._draft(plan.request, closed=False))
+            except RecordsError as exc:
+                out.message(f"The draft could not keep it: {exc}; the plan stays on screen.")
+            out.ask_patient = True
+            out.autosave = Autosave.START
+            return False
         except (RecordsError, VetfluidError) as exc:
             out.message(f"Not saved: {exc}")
             return False
@@ -1514,15 +1559,17 @@ class WorkSession:
                 Asked.RESTORE_LEFT,
                 (
                     "The plan last worked on was left, or vetfluid was closed, before it was "
-                    "saved as a version. Restore it? No discards it."
+                    f"saved as a version{self._which_plan(draft, request)}. Restore it? No "
+                    "discards it."
                 ),
             )
         else:
             asked, text = (
                 Asked.RESTORE_CRASHED,
                 (
-                    "vetfluid stopped unexpectedly while a plan was being edited. Restore it? "
-                    "The last few seconds of typing may be missing. No discards it."
+                    "vetfluid stopped unexpectedly while a plan was being edited"
+                    f"{self._which_plan(draft, request)}. Restore it? The last few seconds "
+                    "of typing may be missing. No discards it."
                 ),
             )
         # Esc (or closing the box) restores: only an explicit No throws the work away
@@ -1531,6 +1578,20 @@ class WorkSession:
             about=str(draft.get("tag")),
         ), back=self.state)  # fmt: skip
         return State.OFFERING
+
+    def _which_plan(self, draft: Mapping, request: PlanRequest | None) -> str:
+        """The plan a draft holds, as asked about: ": Rex (Dog), 24.0 kg" ("" when it
+        holds no plan yet)."""
+        from vetfluid.tables.species import load_table
+
+        mark = draft.get("patient")
+        parts = [self._who(mark)] if isinstance(mark, Mapping) else []
+        if request is not None:
+            if not parts:
+                kind = load_table().species_by_id.get(request.species_id)
+                parts.append(kind.common_name if kind else request.species_id)
+            parts.append(f"{request.weight_kg:g} kg")
+        return f": {', '.join(parts)}" if parts else ""
 
     def _set_draft_aside(self, out: _Out, why: str) -> None:
         try:
@@ -1583,6 +1644,7 @@ class WorkSession:
             merged = self.records.merge_observations(
                 version_id=draft["for_version"], observations=offer.observations,
                 based_on=held if isinstance(held, list) else None,
+                database_id=self.records.database_id,  # as checked when it was offered
             )  # fmt: skip
             self.records.clear_draft()
         except RecordsError as exc:
@@ -1676,13 +1738,18 @@ class WorkSession:
             return None
         return isinstance(mark, Mapping) and _patient_mark(row) == dict(mark)
 
-    def _other_records_words(self, mark: object) -> str:
+    @staticmethod
+    def _who(mark: object) -> str:
+        """The patient a mark names, in words: "Rex (Dog)"."""
         from vetfluid.tables.species import load_table
 
-        who = "a patient"
-        if isinstance(mark, Mapping):
-            kind = load_table().species_by_id.get(mark.get("species_id"))
-            who = f"{mark.get('name')} ({kind.common_name if kind else mark.get('species_id')})"
+        if not isinstance(mark, Mapping):
+            return "a patient"
+        kind = load_table().species_by_id.get(mark.get("species_id"))
+        return f"{mark.get('name')} ({kind.common_name if kind else mark.get('species_id')})"
+
+    def _other_records_words(self, mark: object) -> str:
+        who = self._who(mark)
         return (
             f"This draft was written for {who} in other records: a database restored from a "
             "backup since, or another one. Patient numbers there belong to other patients "
@@ -1695,7 +1762,7 @@ class WorkSession:
         binds = self._binds({"database_id": self._database_id, "patient": self._patient_mark,
                              "patient_id": self.patient_id})  # fmt: skip
         if binds is not False:
-            if binds and self._database_id is None:
+            if binds:  # the same database, or the same patient in it after a restore
                 self._database_id = self.records.database_id
             return True
         self._pending.append(Message(text=self._other_records_words(self._patient_mark)))
@@ -1703,6 +1770,30 @@ class WorkSession:
         self._patient_mark = self._database_id = None
         out.ask_patient = True
         return False
+
+    def _bound_database(self) -> str | None:
+        """The database the screen's patient and version ids were read in (checked again by
+        each write that uses them)."""
+        return self._database_id or self.records.database_id
+
+    def _records_replaced(self, out: _Out) -> None:
+        """The records were replaced under the screen (a backup restored into them): its
+        patient and version ids may now be other patients', so they are dropped, as for a
+        draft from other records; the work stays on screen, unsaved, kept by the caller in
+        the draft, and saving it asks which patient it is."""
+        who = self._who(self._patient_mark)
+        self.patient_id, self.known_latest, self.saved, self._version_held = None, None, None, None
+        self._patient_mark = self._database_id = None
+        self._opened_unsaved, self._kept_elsewhere = True, ()
+        if self._last_valid is not None:
+            self._last_valid = _LastValid(self._last_valid.request, False)
+        out.message(
+            f"The records were replaced while this plan of {who} was open: a backup was "
+            f"restored into {self.records.where}, or they are other records now. Their "
+            "patient and version numbers may now belong to other patients, so nothing was "
+            "written to them.\n\nThe work on screen is kept as a draft; saving it asks which "
+            "patient it is."
+        )
 
     # ---- actions: with no records file -----------------------------------------------------------
     def _kept_in_file(self, out: _Out) -> None:
