@@ -503,9 +503,11 @@ class CourseView(QWidget):
 
     def _hour_changed(self, hour: float) -> None:
         moment = self.session.plan.moment_at(hour) if self.session.plan else None
-        if moment is not None:
+        shown = to_qt(moment) if moment is not None else None
+        if shown is not None and shown != self.at.dateTime():
+            # set only when it moves: the field and every widget behind it repaint
             with QSignalBlocker(self.at):
-                self.at.setDateTime(to_qt(moment))
+                self.at.setDateTime(shown)
 
     def _quantity_changed(self, *_: object) -> None:
         self.period.setVisible(self.quantity.currentData() == "urine_ml")
