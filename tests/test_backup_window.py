@@ -149,3 +149,46 @@ def test_unsaved_work_is_asked_about_before_a_restore(qtbot, window, answer, tmp
     assert not window.restore_records(tmp_path / "one.sqlite")
     assert window.session.plan.request.weight_kg == 25.0
     assert window.records is not None and _names(window) == ["Rex"]
+
+
+def test_a_restore_and_a_records_setting_reopen_the_records_the_one_way(
+    qtbot, window, answer, monkeypatch, tmp_path
+):
+    """Review of commits 66a3521 and 6f4c2a9: the restore reopened the records by giving
+    the keeper a work session of its own making, beside the keeper's own way for a changed
+    setting. Both go through the keeper's ``reopen_records`` now, and after either the
+    records label and the retry timer follow the records in use."""
+    from ui.records.records_settings import RecordsSettingsDialog
+
+    ROOT = Path(__file__).resolve().parents[1]
+    for source in (ROOT / "ui").rglob("*.py"):
+        if source.name == "work_keeper.py":
+            continue
+        text = source.read_text(encoding="utf-8")
+        for second_way in ("WorkSession.open(", "keeper.work =", "switch_records("):
+            assert second_way not in text, f"{source.name} reopens the records itself"
+
+    keeper, reopened = window.keeper, []
+    one_way = keeper.reopen_records
+
+    def noted() -> None:
+        reopened.append(keeper.work.state.name)
+        one_way()
+
+    monkeypatch.setattr(keeper, "reopen_records", noted)
+    _save(qtbot, window, "Rex")
+    answer({"Backed up": lambda: None, REPLACE: "Replace the records", "Restored": lambda: None})
+    window.back_up_records(tmp_path / "monday.sqlite")
+    assert window.restore_records(tmp_path / "monday.sqlite")
+    assert reopened == ["CLOSED"] and window.records is not None
+    assert not keeper.records_state.isVisibleTo(window) and not keeper.reconnect_timer.isActive()
+
+    def exec_(dialog) -> int:  # noqa: ANN001 — the settings saved as they are
+        dialog.accept()
+        return dialog.result()
+
+    monkeypatch.setattr(RecordsSettingsDialog, "exec", exec_)
+    answer({})
+    assert window.records_settings()
+    assert reopened == ["CLOSED", "AS_OPENED"] and window.records is not None
+    assert not keeper.records_state.isVisibleTo(window) and not keeper.reconnect_timer.isActive()

@@ -354,7 +354,7 @@ class MainWindow(QMainWindow):
         if not dialog.exec():
             return False
         if self.keeper is not None:  # applied now (before the planner: opened with it)
-            self.keeper.apply_records_settings()
+            self.keeper.reopen_records()
         return True
 
     def back_up_records(self, target: Path | None = None) -> Path | None:

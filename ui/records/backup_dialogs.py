@@ -132,10 +132,10 @@ def restore_from_backup(window: QMainWindow, backup: Path | None = None) -> bool
             window, TITLE,
             f"The records were not restored; they hold what they held.\n\n{said(exc)}",
         )  # fmt: skip
-        reopen_records(window)
+        window.keeper.reopen_records()
         return False
     QMessageBox.information(window, TITLE, restored_words(backup, restored))
-    reopen_records(window)
+    window.keeper.reopen_records()
     window.statusBar().showMessage(f"Records restored from {backup.name}")
     return True
 
@@ -191,16 +191,3 @@ def restored_words(backup: Path, restored) -> str:  # noqa: ANN001 — backups.R
         f"The records as they were ({restored.before.words()}) are kept in:\n{restored.kept_at}"
     )
 
-
-def reopen_records(window: QMainWindow) -> None:
-    """Open the records again after a restore, closed for it by the keeper (its work
-    session CLOSED), and offer back the draft they hold, as at a start: the keeper is given
-    a new work session on the records as they are now (the plan on screen was put away
-    before, so the new session starts, as at a start, on a blank planner)."""
-    from vetfluid.records.work_session import WorkSession
-
-    keeper = window.keeper
-    keeper.work = WorkSession.open(window.session)
-    if keeper.work.problem:
-        window.statusBar().showMessage(f"Records unavailable: {keeper.work.problem}")
-    keeper.offer_draft()

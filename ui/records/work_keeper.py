@@ -26,6 +26,7 @@ from vetfluid.records.work_session import (
     Opening,
     Question,
     Reply,
+    State,
     WorkSession,
 )
 
@@ -67,7 +68,7 @@ class WorkKeeper(QObject):
         self.session = session
         self.window = window
         self._save_first = save_version
-        self.work = WorkSession.open(session)
+        self._start_work()
         self.timer = QTimer(self)
         self.timer.setSingleShot(True)
         self.timer.setInterval(AUTOSAVE_MS)
@@ -88,8 +89,6 @@ class WorkKeeper(QObject):
         session.planChanged.connect(lambda _plan: self.follow(self.work.built()))
         for changed in (session.observationsChanged, session.readinessChanged):
             changed.connect(lambda *_: self.follow(self.work.changed()))
-        if self.work.problem:
-            self._status(f"Records unavailable: {self.work.problem}")
         # back in focus: what other workstations recorded on the version on screen
         window.installEventFilter(self)
 
@@ -301,10 +300,30 @@ class WorkKeeper(QObject):
         except InputError:
             return ""
 
-    def apply_records_settings(self) -> None:
-        """The records settings were saved: the records they name replace these now (what
-        waits written first; records that cannot be opened leave these, said why)."""
-        self.follow(self.work.switch_records())
+    def _start_work(self) -> None:
+        """A new work session on the records the setting names (at the start, and after a
+        restore); records that cannot be opened are said in the status line."""
+        self.work = WorkSession.open(self.session)
+        if self.work.problem:
+            self._status(f"Records unavailable: {self.work.problem}")
+
+    def reopen_records(self) -> None:
+        """Open the records the setting names now: the one way the window does it, after
+        the records settings were saved and after a restore.
+
+        Records in use (settings saved): the work session switches to the ones named
+        (what waits written first; records that cannot be opened leave these in use, said
+        why). Records closed (a restore closed them: the work session CLOSED): a new work
+        session on the records as they are now, their draft offered as at a start. Either
+        way the records label, the retry timer and the look on coming back into focus
+        (all read from :attr:`work`) follow the records now in use."""
+        if self.work.state is not State.CLOSED:
+            self.follow(self.work.switch_records())
+            return
+        self.timer.stop()  # nothing of the closed session waits to be written
+        self.longest_wait.stop()
+        self._start_work()
+        self.offer_draft()  # shows the records label and starts or stops the retry timer
 
     def close(self) -> bool:
         """Whether the window may close (asked first when work would be lost)."""

@@ -43,8 +43,9 @@ PostgreSQL server shared by its workstations (issue 21), through one toolkit.
   mid-session is said the same way: one message naming the server, the local draft and
   what to check (:class:`RecordsUnreachable`).
 * Each database has an identity of its own (``database_id`` in ``meta``, made once), so a
-  draft can tell which database its patient ids belong to: a restore into a server gives
-  the server a new one (ids are reused after it).
+  draft can tell which database its patient ids belong to: a restore (into a server or
+  into the SQLite file) gives the records a new one, since ids are reused after it; every
+  write by id reads it again in its own transaction (:class:`RecordsReplaced`).
 * The SQLite file is created readable by its owner only, before SQLite writes its first
   byte (SQLite gives its ``-wal`` and ``-shm`` files the same mode); so are backups and
   restored files. Only parameterised SQL.
@@ -1347,11 +1348,20 @@ class Records:
         the target, so it holds what it held or the whole backup, even if cut short.
 
         The backup is checked first (whole file, and a vetfluid records file this
-        vetfluid reads); ``target`` is owner-only before anything is written into it."""
+        vetfluid reads); ``target`` is owner-only before anything is written into it.
+
+        The restored records get a database identity of their own, as a restore into a
+        server does: their ids are reused from here on (the backup's patient 2 is not the
+        patient 2 saved after it), so a window or a draft that read ids in the records
+        before must see other records (:class:`RecordsReplaced`), not the backup's
+        identity, which may be theirs. The backup goes first into an owner-only copy beside
+        ``target`` that takes the new identity, and that copy into ``target``: still one
+        transaction there."""
         backup, target = Path(backup), Path(target)
         if not backup.is_file():  # SQLite would create it, and restore an empty file
             raise RecordsError(f"there is no backup {backup}; nothing was restored")
         uri = f"{backup.resolve().as_uri()}?mode=ro"
+        staging: Path | None = None
         try:
             with closing(sqlite3.connect(uri, uri=True)) as source:
                 if source.execute("PRAGMA integrity_check").fetchone()[0] != "ok":
@@ -1362,15 +1372,32 @@ class Records:
                     raise RecordsError(
                         f"{exc.message}; nothing was restored", fix="choose another backup"
                     ) from exc
-                _private(target)
-                with closing(sqlite3.connect(target, timeout=10)) as copy:
-                    source.backup(copy)
+                handle, name = tempfile.mkstemp(  # owner-only (0600) from its first byte
+                    dir=target.parent, prefix=f".{target.name}.", suffix=".restoring"
+                )
+                os.close(handle)
+                staging = Path(name)
+                with closing(sqlite3.connect(staging)) as renamed:
+                    source.backup(renamed)
+                    with renamed:  # one transaction: the old identity out, a new one in
+                        renamed.execute("DELETE FROM meta WHERE key = 'database_id'")
+                        renamed.execute(
+                            "INSERT INTO meta (key, value) VALUES ('database_id', ?)",
+                            (uuid.uuid4().hex,),
+                        )
+                    _private(target)
+                    with closing(sqlite3.connect(target, timeout=10)) as copy:
+                        renamed.backup(copy)
         except (OSError, sqlite3.Error) as exc:
             raise RecordsError(
                 f"could not restore {backup.name} to {target.name}: {exc}",
                 fix="check that the backup is a vetfluid records file and the folder is "
                 f"writable; {target.name} holds what it held",
             ) from exc
+        finally:
+            if staging is not None:
+                for side in ("", "-journal", "-wal", "-shm"):
+                    staging.with_name(staging.name + side).unlink(missing_ok=True)
 
     def export_patient(self, patient_id: int) -> dict:
         patient = self.patient(patient_id)

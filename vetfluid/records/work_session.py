@@ -86,11 +86,14 @@ The table, built from :data:`TABLE` (docs/work_keeping.md holds it as Markdown;
   Window: message: cannot be saved until it builds.
 - working, SAVING_TO_LEAVE, SAVING_TO_REPLAN + SAVE [no patient yet, none named] → stays.
   Written: —. Window: asks for the patient.
-- working + SAVE → ON_VERSION or stays. Written: the version with its observations (a new
-  patient first); this plan's draft cleared. Window: status; autosave stopped (another
-  version saved meanwhile: message offering to compare them; refused: message, stays).
+- working + SAVE → ON_VERSION or stays or UNSAVED or NOT_WRITTEN. Written: the version with
+  its observations (a new patient first); this plan's draft cleared (the records replaced
+  meanwhile: nothing by id; the work into the draft). Window: status; autosave stopped
+  (another version saved meanwhile: message offering to compare them; refused: message,
+  stays; the records replaced: message, UNSAVED (the draft refused too: NOT_WRITTEN),
+  autosave restarted, asks for the patient).
 - SAVING_TO_LEAVE, SAVING_TO_REPLAN + SAVE → stays. Written: as above. Window: as above; the
-  question returns to ON_VERSION.
+  question returns to the state reached.
 - working + LEAVE [nothing unsaved] → stays. Written: —. Window: goes on: opens it.
 - working + LEAVE [no records file] → ASKING_LOSE_ON_LEAVE. Written: —. Window: asks Discard
   / Cancel.
@@ -1259,14 +1262,17 @@ class WorkSession:
 
     def _save(
         self, out: _Out, *, patient: NewPatient | None, author: str, with_observations: bool
-    ) -> bool:
+    ) -> State | None:
         """The plan as the patient's next version, with the observations on it (one
-        transaction); this plan's draft is cleared (another plan's stays)."""
+        transaction); this plan's draft is cleared (another plan's stays). The state the
+        work reached: ON_VERSION when saved; None when refused (it stays where it was); the
+        records replaced meanwhile: the ids dropped and the work kept as the draft, so
+        UNSAVED (NOT_WRITTEN when the draft cannot take it, retried)."""
         plan, reasons = self.screen.plan, self.screen.acknowledged
         kept = self._observation_records() if with_observations else []
         self.records.reach()  # a server that could not be reached: tried now, as asked
         if self.patient_id is not None and patient is None and not self._still_our_patient(out):
-            return False
+            return None
         try:
             if self.patient_id is None:
                 self.records.read_identity()  # the new patient's database, as it is now
@@ -1283,16 +1289,20 @@ class WorkSession:
             )  # fmt: skip
         except RecordsReplaced:
             self._records_replaced(out)
+            out.ask_patient = True
+            out.autosave = Autosave.START
             try:
                 self._save_draft(out, self._draft(plan.request, closed=False))
             except RecordsError as exc:
+                self._trouble = exc.one_line()
                 out.message(f"The draft could not keep it: {exc}; the plan stays on screen.")
-            out.ask_patient = True
-            out.autosave = Autosave.START
-            return False
+                out.status = f"Not saved (trying again): {self._trouble}"
+                return State.NOT_WRITTEN
+            self._unwritten, self._trouble = False, ""
+            return State.UNSAVED
         except (RecordsError, VetfluidError) as exc:
             out.message(f"Not saved: {exc}")
-            return False
+            return None
         number, self.known_latest, self._version_held = saved.number, saved.number, kept
         if saved.meanwhile:
             out.message(_meanwhile_words(saved), warning=False,
@@ -1312,14 +1322,15 @@ class WorkSession:
             pass  # the version holds it all; the stale draft is offered at the next start
         out.status = f"Saved as version {number}; earlier versions are kept."
         out.saved_number = number
-        return True
+        return State.ON_VERSION
 
     def _save_now(self, out: _Out, **data: Any) -> State:
-        return State.ON_VERSION if self._save(out, **data) else self.state
+        return self._save(out, **data) or self.state
 
     def _save_asked_for(self, out: _Out, **data: Any) -> None:
-        if self._save(out, **data):
-            self._back = State.ON_VERSION
+        reached = self._save(out, **data)
+        if reached is not None:  # what the question returns to
+            self._back = reached
 
     def _refresh(self, out: _Out) -> State:
         """Bring onto the screen what other workstations recorded on the saved version
@@ -1892,12 +1903,15 @@ TABLE: tuple[Row, ...] = (
          says="message: cannot be saved until it builds"),
     _row(WORKING | SAVING, E.SAVE, N.STAY, W._ask_for_patient, NO_PATIENT,
          says="asks for the patient"),
-    _row(WORKING, E.SAVE, (S.ON_VERSION, N.STAY), W._save_now,
+    _row(WORKING, E.SAVE, (S.ON_VERSION, N.STAY, S.UNSAVED, S.NOT_WRITTEN), W._save_now,
          written="the version with its observations (a new patient first); this plan's "
-         "draft cleared", says="status; autosave stopped (another version saved meanwhile: "
-         "message offering to compare them; refused: message, stays)"),
+         "draft cleared (the records replaced meanwhile: nothing by id; the work into the "
+         "draft)", says="status; autosave stopped (another version saved meanwhile: "
+         "message offering to compare them; refused: message, stays; the records replaced: "
+         "message, UNSAVED (the draft refused too: NOT_WRITTEN), autosave restarted, asks "
+         "for the patient)"),
     _row(SAVING, E.SAVE, N.STAY, W._save_asked_for, written="as above",
-         says="as above; the question returns to ON_VERSION"),
+         says="as above; the question returns to the state reached"),
     # leaving for another plan
     _row(WORKING, E.LEAVE, N.STAY, W._go_to, NOTHING_UNSAVED, says="goes on: opens it"),
     _row(WORKING, E.LEAVE, S.ASKING_LOSE_ON_LEAVE, W._ask_to_lose_on_leave, NO_RECORDS,
