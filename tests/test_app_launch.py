@@ -237,7 +237,7 @@ def test_the_window_opens_and_says_the_data_folder_cannot_be_used(qtbot, tmp_pat
     qtbot.addWidget(window)
     qtbot.waitUntil(lambda: window.session is not None)
     notice = window.data_folder_notice
-    assert notice.isVisible()
+    qtbot.waitUntil(notice.isVisible)  # shown with the window, a turn or two later
     text = notice.text()
     assert "Settings and patient records cannot be kept" in text
     assert f"{in_the_way} is a file, not a folder" in text
@@ -279,9 +279,65 @@ def test_the_chart_command_says_the_overrides_are_not_read(tmp_path):
         capture_output=True, text=True, timeout=60,
     )  # fmt: skip
     assert run.returncode == 0, run.stderr
-    assert run.stderr.startswith("vetfluid chart: no clinic overrides are read: the user data ")
-    assert f"{blocked} is a file, not a folder" in run.stderr
+    assert run.stderr.startswith("vetfluid chart: the user data folder ")
+    assert f"{blocked} is a file, not a folder, so no clinic overrides are read" in run.stderr
     assert "Traceback" not in run.stderr and (tmp_path / "chart.pdf").is_file()
+
+
+def _read_only_for_a_clinician(monkeypatch, home: Path) -> None:
+    """``os.access`` answered for ``home`` as for a clinician whose folder is read-only (as
+    root here every folder is writable; a read-only mount answers so for root too)."""
+    real = os.access
+
+    def access(path, mode, *args, **kwargs):  # noqa: ANN001, ANN202
+        if os.fspath(path) == str(home):
+            return not mode & os.W_OK
+        return real(path, mode, *args, **kwargs)
+
+    monkeypatch.setattr(os, "access", access)
+
+
+def test_sheet_and_chart_say_a_read_only_folders_overrides_are_read(
+    tmp_path, monkeypatch, capsys, vetfluid_home
+):
+    """Finding (review of 66a3521, 1): a read-only data folder's clinic overrides are read and
+    used, so `vetfluid chart` and `vetfluid sheet` say only that nothing can be saved there."""
+    from ui.app import main
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+    from vetfluid.tables.overrides import set_override
+
+    set_override(species_id="dog", parameter="bolus_minutes", value=25)
+    plan = write_request_file(tmp_path / "dog", demo("dehydrated_dog").request, {})
+    _read_only_for_a_clinician(monkeypatch, vetfluid_home)
+    said = (
+        f"the user data folder {vetfluid_home} (set by VETFLUID_HOME) is read-only for you: the "
+        "clinic overrides in it are read, but nothing can be saved there — set VETFLUID_HOME "
+        "to a folder you can write to, or make it writable for you, then start vetfluid again"
+    )
+    chart = ["chart", "--species", "dog", "-o", str(tmp_path / "chart.pdf")]
+    assert main(["vetfluid", *chart]) == 0
+    assert capsys.readouterr().err == f"vetfluid chart: {said}\n"
+    assert main(["vetfluid", "sheet", str(plan), "-o", str(tmp_path / "sheet.pdf")]) == 0
+    assert capsys.readouterr().err == f"vetfluid sheet: {said}\n"
+
+
+def test_the_window_says_a_read_only_folders_overrides_are_read(qtbot, monkeypatch, answer,
+                                                                vetfluid_home):  # fmt: skip
+    """The window's notice words a read-only folder as the command lines do."""
+    from ui.app import open_window
+    from vetfluid.common.paths import data_folder_problem
+
+    _read_only_for_a_clinician(monkeypatch, vetfluid_home)
+    answer({})
+    window = open_window()
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None)
+    text = window.data_folder_notice.text()
+    qtbot.waitUntil(window.data_folder_notice.isVisible)
+    assert data_folder_problem() in text
+    assert "the clinic overrides in it are read, but nothing can be saved there" in text
+    assert "not read" not in text
 
 
 def test_self_check_writes_the_views_the_plan_file_and_the_sheet(tmp_path, vetfluid_home):

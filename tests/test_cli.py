@@ -446,10 +446,10 @@ def test_a_data_folder_that_cannot_be_made_is_said_not_a_traceback(tmp_path):
     assert run.returncode == 0, run.stderr
     assert json.loads(run.stdout)["species_id"] == "dog"
     assert run.stderr == (
-        f"vetfluid-cli: no clinic overrides are read: the user data folder {blocked}/vetfluid "
-        f"(set by VETFLUID_HOME) cannot be used: {blocked} is a file, not a folder — set "
-        "VETFLUID_HOME to a folder you can write to, or move that file away, then start "
-        "vetfluid again\n"
+        f"vetfluid-cli: the user data folder {blocked}/vetfluid (set by VETFLUID_HOME) cannot "
+        f"be used: {blocked} is a file, not a folder, so no clinic overrides are read from it "
+        "and nothing can be saved there — set VETFLUID_HOME to a folder you can write to, or "
+        "move that file away, then start vetfluid again\n"
     )
     fluids = subprocess.run([*CLI, "fluids"], env=env, capture_output=True, text=True,
                             timeout=60)  # fmt: skip

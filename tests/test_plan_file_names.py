@@ -104,3 +104,57 @@ def test_import_offers_both_names_and_opens_a_file_saved_before(qtbot, planner, 
     assert offered["open"] == "vetfluid plan file (*.vfplan *.vfplan.json)"
     qtbot.waitUntil(lambda: planner.session.plan is not None)
     assert planner.session.plan.request == request
+
+
+# ---- `vetfluid sheet` and a plan file whose name starts with "-" (review of 66a3521, 3) ----
+@pytest.mark.parametrize(
+    "arguments",
+    [
+        ["--", "-dog.vfplan", "-o", "sheet.pdf"],  # refused before: "-o/--output required"
+        ["-o", "sheet.pdf", "--", "-dog.vfplan"],
+        ["--page", "letter", "--", "-dog.vfplan", "-o", "sheet.pdf"],
+        ["./-dog.vfplan", "-o", "sheet.pdf"],
+    ],
+)
+def test_the_sheet_prints_a_plan_file_named_with_a_dash(tmp_path, monkeypatch, capsys,
+                                                        arguments):  # fmt: skip
+    from ui.app import main
+
+    monkeypatch.chdir(tmp_path)
+    write_request_file(tmp_path / "-dog", DEMOS["dehydrated_dog"].request, {})
+    assert main(["vetfluid", "sheet", *arguments]) == 0, capsys.readouterr().err
+    assert (tmp_path / "sheet.pdf").stat().st_size > 0
+    assert capsys.readouterr().out.startswith("wrote sheet.pdf (")
+
+
+def test_the_sheet_takes_one_plan_file_after_double_dash(tmp_path, monkeypatch, capsys):
+    from ui.app import main
+
+    monkeypatch.chdir(tmp_path)
+    with pytest.raises(SystemExit) as stopped:  # argparse's usage error, exit 2
+        main(["vetfluid", "sheet", "-o", "sheet.pdf", "--", "-a.vfplan", "-b.vfplan"])
+    assert stopped.value.code == 2
+    assert "-b.vfplan" in capsys.readouterr().err and not (tmp_path / "sheet.pdf").exists()
+
+
+def test_the_help_says_how_to_name_a_plan_file_starting_with_a_dash(capsys):
+    from ui.app import USAGE, main
+
+    assert "vetfluid sheet -- -PLAN.vfplan -o sheet.pdf" in USAGE
+    with pytest.raises(SystemExit):
+        main(["vetfluid", "sheet", "--help"])
+    assert "vetfluid sheet -- -dog.vfplan -o sheet.pdf" in capsys.readouterr().out
+
+
+def test_a_dashed_name_without_double_dash_says_how(tmp_path, monkeypatch, capsys):
+    from ui.app import main
+
+    monkeypatch.chdir(tmp_path)
+    with pytest.raises(SystemExit) as stopped:
+        main(["vetfluid", "sheet", "-dog.vfplan", "-o", "sheet.pdf"])
+    assert stopped.value.code == 2
+    assert capsys.readouterr().err.endswith(
+        "vetfluid sheet: error: -dog.vfplan is not an option of vetfluid sheet — to print a "
+        "plan file of that name, write vetfluid sheet -- -dog.vfplan -o sheet.pdf (or "
+        "./-dog.vfplan)\n"
+    )

@@ -33,7 +33,7 @@ def test_the_words_each_reason_was_given_for_are_kept(tmp_path):
 @pytest.mark.parametrize(
     ("content", "message"),
     [
-        ("[]", "not a vetfluid plan request"),
+        ("[]", "not a vetfluid plan file"),
         ("not json", "not readable JSON"),
         ('{"format": "vetfluid-plan-request", "version": 9, "request": {}}', "version 9"),
         ('{"format": "vetfluid-plan-request", "version": 1}', "holds no request"),
@@ -181,3 +181,83 @@ def test_acknowledgements_that_are_not_a_mapping_are_refused_even_when_empty(tmp
     for value in (False, "", 0, []):
         with pytest.raises(InputError, match="acknowledge"):
             read_request_file(_file(tmp_path, DOG, acknowledged=value))
+
+
+# ---- one size limit, and words for what cannot be read (review of 66a3521, 4 and 5) -------
+def _padded_plan_file(tmp_path, size: int):
+    """A valid plan file of exactly ``size`` bytes (JSON allows trailing white space)."""
+    path = write_request_file(tmp_path / "dog", DEMOS["dehydrated_dog"].request, {})
+    text = path.read_text(encoding="utf-8")
+    path.write_text(text + " " * (size - len(text.encode("utf-8"))), encoding="utf-8")
+    assert path.stat().st_size == size
+    return path
+
+
+def _sheet(path, tmp_path, capsys) -> tuple[int, str]:  # noqa: ANN001
+    from ui.app import main
+
+    code = main(["vetfluid", "sheet", str(path), "-o", str(tmp_path / "sheet.pdf")])
+    return code, capsys.readouterr().err
+
+
+def test_the_window_and_the_sheet_read_plan_files_up_to_one_limit(tmp_path, capsys):
+    """The window read 2,000,000 bytes, `vetfluid sheet` 1,000,000: one limit now."""
+    from vetfluid.records.request_file import MAX_FILE_BYTES
+
+    path = _padded_plan_file(tmp_path, MAX_FILE_BYTES)
+    assert read_request_file(path).request == DEMOS["dehydrated_dog"].request
+    assert _sheet(path, tmp_path, capsys) == (0, "")
+    path = _padded_plan_file(tmp_path, MAX_FILE_BYTES + 1)
+    with pytest.raises(InputError) as caught:
+        read_request_file(path)
+    refused = caught.value.one_line()
+    assert refused == (
+        f"dog.vfplan is too large to be a vetfluid plan file ({MAX_FILE_BYTES + 1:,} bytes; at "
+        f"most {MAX_FILE_BYTES:,})"
+    )
+    code, err = _sheet(path, tmp_path, capsys)
+    assert code == 2 and refused in err
+
+
+def test_a_missing_plan_file_is_said_in_words(tmp_path, capsys):
+    gone = tmp_path / "gone.vfplan"
+    with pytest.raises(InputError) as caught:
+        read_request_file(gone)
+    assert caught.value.one_line() == f"no such file: {gone} — check the file's name and folder"
+    code, err = _sheet(gone, tmp_path, capsys)
+    assert code == 2 and "Errno" not in err
+    assert err == (
+        f"vetfluid sheet: cannot read {gone}: no such file: {gone} — check the file's name "
+        "and folder\n"
+    )
+
+
+def test_a_plan_file_with_a_byte_order_mark_is_read(tmp_path, capsys):
+    """UTF-8 with a byte order mark (as Windows Notepad saved it) is UTF-8 (Unicode 15,
+    section 23.8): read it, as the window and the sheet alike."""
+    path = write_request_file(tmp_path / "dog", DEMOS["dehydrated_dog"].request, {})
+    path.write_bytes(b"\xef\xbb\xbf" + path.read_bytes())
+    assert read_request_file(path).request == DEMOS["dehydrated_dog"].request
+    assert _sheet(path, tmp_path, capsys) == (0, "")
+
+
+def test_what_cannot_be_read_has_one_fix_and_no_plan_request(tmp_path, capsys):
+    folder = tmp_path / "folder.vfplan"
+    folder.mkdir()
+    with pytest.raises(InputError) as caught:
+        read_request_file(folder)
+    assert caught.value.one_line() == "folder.vfplan is a folder, not a vetfluid plan file"
+    code, err = _sheet(folder, tmp_path, capsys)
+    assert code == 2 and err.count(" — ") == 1 and "plan request" not in err
+    other = tmp_path / "other.vfplan"
+    other.write_text("[]", encoding="utf-8")
+    with pytest.raises(InputError) as caught:
+        read_request_file(other)
+    assert caught.value.one_line() == "other.vfplan is not a vetfluid plan file"
+    broken = tmp_path / "broken.vfplan"
+    broken.write_bytes(b"\xff\xfe{}")
+    with pytest.raises(InputError) as caught:
+        read_request_file(broken)
+    assert "plan request" not in caught.value.one_line()
+    code, err = _sheet(broken, tmp_path, capsys)
+    assert code == 2 and err.count(" — ") == 1, err

@@ -19,16 +19,37 @@ def sheet_command(argv: list[str]) -> int:
     import os
     from pathlib import Path
 
-    parser = argparse.ArgumentParser(prog="vetfluid sheet", description="Print a treatment sheet.")
+    parser = argparse.ArgumentParser(
+        prog="vetfluid sheet",
+        usage="%(prog)s PLAN -o OUTPUT [--page {a4,letter}] [--patient-name NAME]\n"
+        "       %(prog)s -o OUTPUT [options] -- -PLAN.vfplan",  # the plan is required
+        description="Print a treatment sheet.",
+        epilog="A plan file whose name starts with - is named after -- or as ./-dog.vfplan:\n"
+        "  vetfluid sheet -- -dog.vfplan -o sheet.pdf\n"
+        "  vetfluid sheet -o sheet.pdf -- -dog.vfplan",
+        formatter_class=argparse.RawDescriptionHelpFormatter,  # the examples' lines kept
+    )
     parser.add_argument(
         "plan",
+        nargs="?",  # required: said below, with how to name a file starting with -
+        metavar="PLAN",
         help="a plan as `vetfluid-cli plan --json` prints it, or a saved plan file "
         "(*.vfplan, or *.vfplan.json as saved before)",
     )
     parser.add_argument("-o", "--output", required=True, help="the PDF to write")
     parser.add_argument("--page", choices=("a4", "letter"), default="a4")
     parser.add_argument("--patient-name", default="")
-    args = parser.parse_args(argv)
+    args, unknown = parser.parse_known_args(_plan_after_double_dash(argv))
+    if args.plan is None and unknown:
+        shown = printable_name(unknown[0])
+        parser.error(
+            f"{shown} is not an option of vetfluid sheet — to print a plan file of that name, "
+            f"write vetfluid sheet -- {shown} -o sheet.pdf (or ./{shown})"
+        )
+    if args.plan is None:
+        parser.error("the following argument is required: the plan to print")
+    if unknown:
+        parser.error(f"unrecognized arguments: {printable_name(' '.join(unknown))}")
     _note_data_folder("vetfluid sheet")
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # no window is shown
     from vetfluid.common.errors import VetfluidError, printable
@@ -48,12 +69,12 @@ def sheet_command(argv: list[str]) -> int:
         return 2
     try:
         data, acknowledged = _plan_to_print(Path(args.plan))
-    except VetfluidError as exc:  # a file that is not a plan, or a key of the wrong kind
-        why = exc.one_line()[:400]
-        sys.stderr.write(f"vetfluid sheet: cannot read {shown}: {why} — {fix}\n")
+    except VetfluidError as exc:  # missing, not a plan, or a key of the wrong kind
+        why = exc.one_line()[:400] + ("" if exc.fix else f" — {fix}")  # one fix per cause
+        sys.stderr.write(f"vetfluid sheet: cannot read {shown}: {why}\n")
         return 2
-    except OSError as exc:  # missing, or not ours to read
-        sys.stderr.write(f"vetfluid sheet: cannot read {shown}: {exc.strerror} — {fix}\n")
+    except OSError as exc:  # a plan file's plan could not be built from the species data
+        sys.stderr.write(f"vetfluid sheet: cannot read {shown}: {os_error_words(exc)}\n")
         return 2
     try:
         html = sheet_html(
@@ -63,8 +84,8 @@ def sheet_command(argv: list[str]) -> int:
         )
         mark = page_mark(data)
     except VetfluidError as exc:  # a figure the core refuses, e.g. a weight that is NaN
-        why = exc.one_line()[:400]
-        sys.stderr.write(f"vetfluid sheet: cannot print {shown}: {why} — {fix}\n")
+        why = exc.one_line()[:400] + ("" if exc.fix else f" — {fix}")  # one fix per cause
+        sys.stderr.write(f"vetfluid sheet: cannot print {shown}: {why}\n")
         return 2
     except (OSError, ValueError, KeyError, TypeError, AttributeError, IndexError) as exc:
         # a file that is missing, or JSON of another shape than a plan's
@@ -74,14 +95,34 @@ def sheet_command(argv: list[str]) -> int:
     return _write_pdf(html, args.output, args.page, mark=mark)
 
 
+def printable_name(text: str) -> str:
+    """A name the user typed, echoed on one line (escaped, at most 200 characters)."""
+    from vetfluid.common.errors import printable
+
+    return printable(text)[:200]
+
+
+def _plan_after_double_dash(argv: list[str]) -> list[str]:
+    """``vetfluid sheet -- -dog.vfplan -o sheet.pdf``: after ``--`` the first word is the plan
+    file, whatever it starts with; the sheet prints one plan, so what follows it can only be
+    options, and is read as options (argparse alone took ``-o`` for a second file). Returned
+    in the order argparse reads so: the options, then ``--`` and the file."""
+    if "--" not in argv:
+        return argv
+    at = argv.index("--")
+    after = argv[at + 1 :]
+    return [*argv[:at], *after[1:], "--", *after[:1]]
+
+
 def _note_data_folder(program: str) -> None:
-    """One line on stderr when the user data folder cannot be used: the clinic overrides
-    kept there are not read (the sheet and the chart still print, from the shipped values)."""
+    """One line on stderr when the user data folder cannot be used, saying whether the
+    clinic overrides kept there are read (the sheet and the chart still print; from the
+    shipped values when they are not)."""
     from vetfluid.common.paths import data_folder_problem
 
     problem = data_folder_problem()
     if problem:
-        sys.stderr.write(f"{program}: no clinic overrides are read: {problem}\n")
+        sys.stderr.write(f"{program}: {problem}\n")  # says if the overrides are read
 
 
 def _same_file(plan: object, output: object) -> bool:
@@ -107,7 +148,7 @@ def _plan_to_print(path: object) -> tuple[dict, dict[str, str]]:
     from vetfluid.records.request_file import read_json_file, request_file_from_data
     from vetfluid.records.serialize import REQUEST_FORMAT, plan_dict, request_from_dict
 
-    data = read_json_file(path, what="a vetfluid plan", max_bytes=1_000_000)  # type: ignore[arg-type]
+    data = read_json_file(path, what="a vetfluid plan file")  # type: ignore[arg-type]
     if not (isinstance(data, dict) and data.get("format") == REQUEST_FORMAT):
         checked = check_plan_json(data)
         if isinstance(data.get("request"), dict):
@@ -346,6 +387,8 @@ usage: vetfluid [PLAN.vfplan]         open the planning window (with a saved pla
        vetfluid -- -PLAN.vfplan       a plan file whose name starts with - (or ./-PLAN.vfplan)
        vetfluid sheet PLAN.json -o sheet.pdf [--page a4|letter] [--patient-name NAME]
                                       print a plan's treatment sheet (no window needed)
+       vetfluid sheet -- -PLAN.vfplan -o sheet.pdf
+                                      the sheet of a plan file whose name starts with -
        vetfluid chart --species ID -o chart.pdf [--drop-factor N] [--page a4|letter]
                                       print a species' weight-band chart (no window needed)
        vetfluid self-check FOLDER [--demo ID]
@@ -363,9 +406,11 @@ QT_QPA_PLATFORM=offscreen. `vetfluid sheet --help` and `vetfluid chart --help` s
 
 
 def version_command() -> int:
-    """``vetfluid --version``: the version and the species data's digest; then every table of
+    """``vetfluid --version``: the version and the species data's digest; then every file of
     the species data is loaded as a plan loads it, so data that is missing or damaged is
-    said in words, after the version, with exit 1 (rather than found at the first plan)."""
+    said in words, after the version, with exit 1 (rather than found at the first plan).
+    The loader's own fix (restore the file, save it as UTF-8) is not repeated: the shipped
+    data is not the clinic's to edit, so the one fix is to reinstall."""
     from vetfluid import __version__
     from vetfluid.common.errors import VetfluidError, printable
 
@@ -383,7 +428,7 @@ def version_command() -> int:
             problem = exc
     if problem is None:
         return 0
-    why = problem.one_line() if isinstance(problem, VetfluidError) else str(problem)
+    why = problem.message if isinstance(problem, VetfluidError) else os_error_words(problem)
     sys.stdout.flush()
     sys.stderr.write(
         f"vetfluid: the species data could not be read: {printable(why)[:600]} — reinstall "
@@ -392,24 +437,63 @@ def version_command() -> int:
     return 1
 
 
-def species_data_check() -> None:
-    """Load every table of the species data (species and parameters, fluids and solutes,
-    safety limits, fluid roles and route limits, diuretics), as planning does; a missing or
+def os_error_words(exc: BaseException) -> str:
+    """An OSError in words, without Python's "[Errno 2]": ``no such file: PATH``."""
+    if not isinstance(exc, OSError) or exc.strerror is None:
+        return str(exc)  # raised with words of our own (vetfluid.common.paths)
+    name = "" if exc.filename is None else f": {exc.filename}"
+    if isinstance(exc, FileNotFoundError):
+        return f"no such file{name}"
+    if isinstance(exc, PermissionError):
+        return f"you may not read this file{name}"
+    return f"{exc.strerror.lower()}{name}"
+
+
+# Every file of species_data/ that planning reads, each loaded by species_data_check()
+# (tests/test_version_check.py checks this names every shipped *.csv).
+SPECIES_DATA_FILES = (
+    "species.csv", "parameters.csv", "parameter_definitions.csv", "sources.csv",
+    "fluids.csv", "solutes.csv", "colloids.csv", "molar_masses.csv", "safety_limits.csv",
+    "fluid_roles.csv", "route_limits.csv", "diuretics.csv", "dehydration_findings.csv",
+    "potassium_scale.csv",
+)  # fmt: skip
+
+
+def species_data_check(folder: Path | None = None) -> None:
+    """Load every file of the species data (:data:`SPECIES_DATA_FILES`: species and
+    parameters, fluids, solutes, colloids and molar masses, safety limits, fluid roles and
+    route limits, diuretics, dehydration findings, the potassium scale), as planning does,
+    and check that every fluid has its roles (planning refuses one without). A missing or
     malformed file raises SpeciesDataError, InputError or OSError, naming the file."""
+    from vetfluid.common.chemistry import load_molar_masses
+    from vetfluid.common.errors import SpeciesDataError
     from vetfluid.common.paths import resource_dir
+    from vetfluid.physiology.electrolytes import load_potassium_scale
+    from vetfluid.physiology.hydration import load_findings
     from vetfluid.tables.diuretics import load_diuretics
     from vetfluid.tables.fluid_roles import load_fluid_roles, load_route_limits
     from vetfluid.tables.fluids import load_fluids
     from vetfluid.tables.limits import load_limits
     from vetfluid.tables.species import load_table
 
-    folder = resource_dir("species_data")  # named: the loaders' caches are by folder
+    folder = folder or resource_dir("species_data")  # named: the loaders' caches are by folder
+    missing = [name for name in SPECIES_DATA_FILES if not (folder / name).is_file()]
+    if missing:  # named first: some would otherwise be reported as another file's row
+        raise SpeciesDataError(f"missing from {folder}", location=", ".join(missing))
     load_table(folder)
-    load_fluids(folder)
+    fluids = load_fluids(folder)
+    load_molar_masses(folder)
     load_limits(folder)
-    load_fluid_roles(folder)
+    roles = load_fluid_roles(folder)
     load_route_limits(folder)
     load_diuretics(folder)
+    load_findings(folder)
+    load_potassium_scale(folder)
+    for fluid_id, fluid in fluids.items():
+        if fluid_id not in roles:
+            raise SpeciesDataError(
+                f"{fluid.name} has no row, so its roles are unknown", location="fluid_roles.csv"
+            )
 
 
 def plan_file_argument(arguments: list[str]) -> str | None:

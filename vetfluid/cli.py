@@ -896,16 +896,16 @@ def _demo_conflicts(args: argparse.Namespace, argv: Sequence[str] | None) -> Non
 
 def _report_data_folder(command: str) -> None:
     """When the user data folder cannot be used (a file in its way, no permission), say so
-    in one line on stderr: the clinic's overrides kept there are not read, and the answer
-    on stdout rests on the shipped values. No command here writes into it, so each still
-    answers."""
+    in one line on stderr, with whether the clinic's overrides kept there are read (a
+    read-only folder's are; otherwise the answer on stdout rests on the shipped values).
+    No command here writes into it, so each still answers."""
     if command == "fluids":  # the only command that reads no species value
         return
     from vetfluid.common.paths import data_folder_problem
 
     problem = data_folder_problem()
     if problem:
-        sys.stderr.write(f"vetfluid-cli: no clinic overrides are read: {problem}\n")
+        sys.stderr.write(f"vetfluid-cli: {problem}\n")  # says if the overrides are read
 
 
 def _report_ignored_overrides(command: str) -> None:

@@ -105,20 +105,34 @@ def user_data_dir() -> Path:
 
 def data_folder_problem() -> str:
     """Why the user data folder cannot keep anything, in one line with what to do; "" when
-    it can. Creates the folder as :func:`user_data_dir` does, if it can."""
+    it can. Creates the folder as :func:`user_data_dir` does, if it can.
+
+    The words say whether the clinic overrides kept there are read: a folder that exists
+    and may be read but not written (a read-only share or mount) has them read, and only
+    nothing can be saved; one that cannot be made or read has none read. The window and the
+    command lines show this text as it is, so they say it alike."""
     path = user_data_path()
+    named = f" (set by {HOME_VARIABLE})" if os.environ.get(HOME_VARIABLE) else ""
     try:
         path.mkdir(mode=0o700, parents=True, exist_ok=True)
     except OSError as exc:
         reason, fix = _why_not_created(path, exc)
     else:
-        if os.access(path, os.W_OK | os.X_OK):
+        if not os.access(path, os.R_OK | os.X_OK):
+            reason, fix = "you may not read it", "make it readable and writable for you"
+        elif os.access(path, os.W_OK | os.X_OK):
             return ""
-        reason, fix = "it is read-only for you", "make it writable for you"
-    named = f" (set by {HOME_VARIABLE})" if os.environ.get(HOME_VARIABLE) else ""
+        else:  # read: the overrides in it are used (vetfluid/tables/species.py)
+            return printable(
+                f"the user data folder {path}{named} is read-only for you: the clinic "
+                f"overrides in it are read, but nothing can be saved there — set "
+                f"{HOME_VARIABLE} to a folder you can write to, or make it writable for you, "
+                "then start vetfluid again"
+            )
     return printable(
-        f"the user data folder {path}{named} cannot be used: {reason} — set {HOME_VARIABLE} "
-        f"to a folder you can write to, or {fix}, then start vetfluid again"
+        f"the user data folder {path}{named} cannot be used: {reason}, so no clinic overrides "
+        f"are read from it and nothing can be saved there — set {HOME_VARIABLE} to a folder "
+        f"you can write to, or {fix}, then start vetfluid again"
     )
 
 

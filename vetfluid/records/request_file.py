@@ -22,8 +22,9 @@ import stat
 import tempfile
 from dataclasses import dataclass
 from pathlib import Path
+from typing import NoReturn
 
-from vetfluid.common.errors import InputError
+from vetfluid.common.errors import InputError, printable
 from vetfluid.planning.plan import PlanRequest
 from vetfluid.records.serialize import (
     REQUEST_FORMAT,
@@ -49,7 +50,7 @@ def with_suffix(path: Path) -> Path:
 
 @dataclass(frozen=True, kw_only=True)
 class RequestFile:
-    """What a plan-request file holds."""
+    """What a plan file holds."""
 
     request: PlanRequest
     acknowledged: dict[str, str]
@@ -87,55 +88,77 @@ def write_request_file(
     return path
 
 
-# A plan request is a few kilobytes (a long ins-and-outs course, tens); a file larger than
-# this is not one, and is not read into memory. Set by us, no clinical source.
+# A plan file is a few kilobytes (a long ins-and-outs course, tens); a file larger than
+# this is not one, and is not read into memory. The one limit for every reader of plan
+# files (the window, `vetfluid sheet`). Set by us, no clinical source.
 MAX_FILE_BYTES = 2_000_000
+UTF8_BOM = b"\xef\xbb\xbf"  # UTF-8's byte order mark (Unicode 15, section 23.8)
 
 
-def read_json_file(path: Path, *, what: str, max_bytes: int = MAX_FILE_BYTES) -> object:
-    """A JSON file's content, read with guards: a regular file of at most ``max_bytes``,
-    UTF-8, JSON (NaN and Infinity are read, for the caller's checks to refuse by key),
+def read_json_file(path: Path, *, what: str) -> object:
+    """A JSON file's content, read with guards: a regular file of at most
+    :data:`MAX_FILE_BYTES`, UTF-8 (with or without a byte order mark, as Windows Notepad
+    saves it), JSON (NaN and Infinity are read, for the caller's checks to refuse by key),
     nested and with numbers no deeper or longer than Python's reader can take. Anything
-    else is an InputError saying in words what is wrong. ``what``: what the file should be
-    ("a vetfluid plan request"). A missing or unreadable file raises OSError."""
+    else, a missing or unreadable file too, is an InputError saying in words what is wrong.
+    ``what``: what the file should be ("a vetfluid plan file")."""
     path = Path(path)
-    info = path.stat()
-    if not stat.S_ISREG(info.st_mode):  # a folder, or a pipe that would never end
-        raise InputError(f"{path.name} is not a file", field="file", value=None, fix=what)
-    if info.st_size > max_bytes:
-        raise InputError(
-            f"{path.name} is too large to be {what} ({info.st_size:,} bytes; at most "
-            f"{max_bytes:,})", field="file", value=None,
-        )  # fmt: skip
-    with path.open("rb") as handle:
-        raw = handle.read(max_bytes + 1)
-    if len(raw) > max_bytes:  # grew while being read
-        raise InputError(f"{path.name} is too large to be {what}", field="file", value=None)
     try:
-        return json.loads(raw.decode("utf-8"))
+        info = path.stat()
+        if stat.S_ISDIR(info.st_mode):
+            raise InputError(f"{path.name} is a folder, not {what}")
+        if not stat.S_ISREG(info.st_mode):  # a pipe or a device, that might never end
+            raise InputError(f"{path.name} is not a file", fix=f"give {what}")
+        if info.st_size > MAX_FILE_BYTES:
+            raise InputError(
+                f"{path.name} is too large to be {what} ({info.st_size:,} bytes; at most "
+                f"{MAX_FILE_BYTES:,})"
+            )
+        with path.open("rb") as handle:
+            raw = handle.read(MAX_FILE_BYTES + 1)
+    except OSError as exc:
+        raise _unreadable(path, exc) from exc
+    if len(raw) > MAX_FILE_BYTES:  # grew while being read
+        raise InputError(f"{path.name} is too large to be {what}")
+    try:
+        return json.loads(raw.removeprefix(UTF8_BOM).decode("utf-8"))
     except UnicodeDecodeError:
-        reason = "it is not UTF-8 text"
+        _refused(path, "it is not UTF-8 text", fix="save it as UTF-8 text")
     except RecursionError:
         reason = "it is nested too deeply"
     except json.JSONDecodeError as exc:
         reason = f"{exc.msg} at line {exc.lineno}, column {exc.colno}"
     except ValueError:  # Python's integer reader refuses a number of thousands of digits
         reason = "it holds a number with too many digits"
-    raise InputError(f"{path.name} is not readable JSON ({reason})", field="file", value=None)
+    _refused(path, reason)
+
+
+def _refused(path: Path, reason: str, *, fix: str | None = None) -> NoReturn:
+    raise InputError(f"{path.name} is not readable JSON ({reason})", fix=fix)
+
+
+def _unreadable(path: Path, exc: OSError) -> InputError:
+    """An OSError met reading ``path``, in words (never Python's "[Errno 2] …")."""
+    shown = printable(str(path))[:300]
+    if isinstance(exc, FileNotFoundError):
+        return InputError(f"no such file: {shown}", fix="check the file's name and folder")
+    if isinstance(exc, PermissionError):
+        return InputError(f"you may not read {shown}", fix="ask for it to be made readable")
+    return InputError(f"{shown} cannot be read: {(exc.strerror or str(exc)).lower()}")
 
 
 def read_request_file(path: Path) -> RequestFile:
     """The request and acknowledgements in a file; anything malformed is an InputError
     naming the key (the request's keys are checked by :func:`request_from_dict`)."""
     path = Path(path)
-    data = read_json_file(path, what="a vetfluid plan request")
+    data = read_json_file(path, what="a vetfluid plan file")
     if not isinstance(data, dict) or data.get("format") != REQUEST_FORMAT:
-        raise InputError(f"{path.name} is not a vetfluid plan request", field="file")
+        raise InputError(f"{path.name} is not a vetfluid plan file")
     return request_file_from_data(data, name=path.name)
 
 
 def request_file_from_data(data: dict, *, name: str) -> RequestFile:
-    """A plan-request file's content (already JSON-decoded, its format checked)."""
+    """A plan file's content (already JSON-decoded, its format checked)."""
     version = data.get("version")
     if isinstance(version, bool) or version != REQUEST_VERSION:  # true == 1 in Python
         shown = repr(version) if isinstance(version, int | float | str | bool) else "not a number"
