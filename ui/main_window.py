@@ -261,7 +261,7 @@ class MainWindow(QMainWindow):
         )  # fmt: skip
         file_menu.addAction(
             self._action("&Import plan file…", self.open_file, "Ctrl+I",
-                         tip="Read a plan request from a file (from another workstation)")
+                         tip="Read a plan file (from another workstation)")
         )  # fmt: skip
         self.demo_menu = file_menu.addMenu("&Demo patients")  # filled with the planner
         file_menu.addAction(

@@ -340,7 +340,9 @@ def request_from_dict(data: dict[str, object]) -> PlanRequest:
     request is built (which then applies its ranges): unknown and missing keys, and
     values of the wrong kind, raise InputError naming the key."""
     if not isinstance(data, dict):
-        raise InputError("a plan request must be a mapping", field="request", value=None)
+        raise InputError(
+            "a plan file must hold a JSON object of the plan's inputs", field="request", value=None
+        )
     hints = get_type_hints(PlanRequest)
     declared = {f.name: f for f in fields(PlanRequest)}
     unknown = sorted((k for k in data if k not in declared), key=str)
