@@ -26,9 +26,10 @@ from vetfluid.records.backups import (
     describe_records,
     describe_records_file,
     restore_records,
+    same_file,
     suggested_backup_name,
 )
-from vetfluid.records.store import RecordsError
+from vetfluid.records.store import DATABASE_NAME, RecordsError
 
 if TYPE_CHECKING:
     from PySide6.QtWidgets import QMainWindow
@@ -110,7 +111,15 @@ def restore_from_backup(window: QMainWindow, backup: Path | None = None) -> bool
         if not name:
             return False
         backup = Path(name)
+    here = window.records.path if window.records is not None else None
+    if here is None and window.records is None:
+        here = user_data_dir() / DATABASE_NAME  # none open: the file a restore replaces
     try:
+        if here is not None and same_file(backup, here):  # before any question
+            raise RecordsError(
+                f"{backup.name} is the records file itself, not a backup of it",
+                fix="choose a backup written elsewhere; nothing was restored",
+            )
         coming = describe_records_file(backup)
     except RecordsError as exc:
         QMessageBox.warning(window, TITLE, said(exc))
@@ -119,23 +128,24 @@ def restore_from_backup(window: QMainWindow, backup: Path | None = None) -> bool
         return False
     # the plan on screen is put away first, as leaving it asks (it may be saved or kept as a
     # draft: then it is in the copy made before the restore)
-    if not window.keeper.leave_for(Opening(status="Restoring the records…")):
+    if not window.keeper.leave_for(Opening(status="Restoring the records…", restoring=True)):
         window.statusBar().showMessage("Nothing was restored.")
         return False
     if not window.keeper.close():  # asked, and kept: the records stay as they are
         window.statusBar().showMessage("Nothing was restored.")
         return False
-    try:
-        restored = _busy(lambda: restore_records(backup))
-    except RecordsError as exc:
-        QMessageBox.warning(
-            window, TITLE,
-            f"The records were not restored; they hold what they held.\n\n{said(exc)}",
-        )  # fmt: skip
+    try:  # whatever happens, the records are opened again: work after it is kept
+        try:
+            restored = _busy(lambda: restore_records(backup))
+        except RecordsError as exc:
+            QMessageBox.warning(
+                window, TITLE,
+                f"The records were not restored; they hold what they held.\n\n{said(exc)}",
+            )  # fmt: skip
+            return False
+        QMessageBox.information(window, TITLE, restored_words(backup, restored))
+    finally:
         window.keeper.reopen_records()
-        return False
-    QMessageBox.information(window, TITLE, restored_words(backup, restored))
-    window.keeper.reopen_records()
     window.statusBar().showMessage(f"Records restored from {backup.name}")
     return True
 
@@ -190,4 +200,3 @@ def restored_words(backup: Path, restored) -> str:  # noqa: ANN001 — backups.R
     return text + (
         f"The records as they were ({restored.before.words()}) are kept in:\n{restored.kept_at}"
     )
-

@@ -278,6 +278,9 @@ class WorkKeeper(QObject):
             patient=patient, author=author, with_observations=with_observations
         )
         if reply.ask_patient:
+            # what the first reply says (why the patient is asked: the records replaced)
+            # comes before the dialog, and is shown even if the dialog is cancelled
+            self.follow(reply)
             dialog = NewPatientDialog(self.session.plan.request.species_id, self.window)
             dialog.initials.setText(author)
             if not dialog.exec() or not dialog.name.text().strip():

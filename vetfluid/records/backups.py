@@ -32,7 +32,13 @@ from vetfluid.common.errors import InputError
 from vetfluid.common.paths import user_data_dir
 from vetfluid.records.location import records_url
 from vetfluid.records.schema import SCHEMA_VERSION
-from vetfluid.records.store import DATABASE_NAME, Records, RecordsError
+from vetfluid.records.store import (
+    DATABASE_NAME,
+    Records,
+    RecordsError,
+    check_layout,
+    open_backup,
+)
 
 BACKUP_SUFFIX = ".sqlite"  # a backup is an SQLite records file, as the one on this computer
 AUTOMATIC_FOLDER = "backups"  # in the user data folder: the copies made before a restore
@@ -77,11 +83,12 @@ class Restored:
     before: RecordsSummary | None
 
 
-def describe_records_file(path: Path) -> RecordsSummary:
+def describe_records_file(path: Path, *, live: bool = False) -> RecordsSummary:
     """What an SQLite records file (a backup, or the file on this computer) holds, read
     read-only; RecordsError in words when it is not a vetfluid records file this vetfluid
-    reads. Only its header, schema version and counts are read: ``Records.restore`` checks
-    a backup whole before it copies anything."""
+    reads. Only its header, layout and counts are read: ``Records.restore`` checks a
+    backup whole before it copies anything. Nothing is written beside it (it may be on
+    read-only media); ``live``: the records file in use, read as SQLite reads a live one."""
     path = Path(path)
     name = path.name
     not_ours = "is not a vetfluid records backup"
@@ -96,9 +103,8 @@ def describe_records_file(path: Path) -> RecordsSummary:
     if header != _SQLITE_HEADER:
         kind = "it is empty" if not header else "it is not a database file"
         raise RecordsError(f"{name} {not_ours}: {kind}", fix=fix)
-    uri = f"{path.resolve().as_uri()}?mode=ro"
     try:
-        with closing(sqlite3.connect(uri, uri=True)) as db:
+        with closing(open_backup(path, live=live)) as db:
             present = {row[0] for row in db.execute("SELECT name FROM sqlite_master")}
             missing = [t for t in _TABLES if t not in present]
             if missing:
@@ -119,6 +125,7 @@ def describe_records_file(path: Path) -> RecordsSummary:
                     f"this one reads up to {SCHEMA_VERSION}); nothing was restored",
                     fix="restore it with that vetfluid or a newer one",
                 )
+            check_layout(db, name)  # a view or other columns in our tables' place
             patients = db.execute("SELECT count(*) FROM patients").fetchone()[0]
             versions, newest = db.execute(
                 "SELECT count(*), max(created_at) FROM plan_versions"
@@ -135,7 +142,7 @@ def describe_records(records: Records) -> RecordsSummary:
     """What open records hold: the file's counts, or the server's (read through a
     connection of its own, with the records' own address and password file)."""
     if records.server is None:
-        return describe_records_file(records.path)
+        return describe_records_file(records.path, live=True)
     from sqlalchemy import create_engine, func, select
     from sqlalchemy.exc import SQLAlchemyError
 
@@ -169,7 +176,15 @@ def automatic_backup_path(now: datetime | None = None) -> Path:
     """A new name in the user data folder's ``backups/`` (made owner-only) for the copy of
     the records taken before a restore; never one already there."""
     folder = user_data_dir() / AUTOMATIC_FOLDER
-    folder.mkdir(mode=0o700, exist_ok=True)
+    try:
+        folder.mkdir(mode=0o700, exist_ok=True)
+    except OSError as exc:  # a file of that name, no permission, a full disk
+        why = "a file has that name" if folder.is_file() else exc.strerror or str(exc)
+        raise RecordsError(
+            f"the folder {folder}, where the records as they are would be copied first, "
+            f"cannot be made ({why}); nothing was restored",
+            fix="move or rename what is in the way (or free some disk space), then restore again",
+        ) from exc
     moment = now or datetime.now()
     stem = f"records-before-restore-{moment:%Y-%m-%d-%H%M%S}"
     for attempt in range(1000):
@@ -197,7 +212,17 @@ def restore_records(backup: Path, *, path: Path | None = None, url: str | None =
     into :func:`automatic_backup_path`; the backup is refused in words unless it is a
     vetfluid records file (:func:`describe_records_file`). RecordsError says what went
     wrong, and that the records hold what they held."""
-    backup = Path(backup)
+    try:
+        return _restore_records(Path(backup), path=path, url=url)
+    except OSError as exc:  # a disk error no step foresaw: said, never raised raw
+        raise RecordsError(
+            f"the records could not be restored ({exc.strerror or exc}); nothing was restored",
+            fix="check that the user data folder is writable and the disk has space, then "
+            "restore again",
+        ) from exc
+
+
+def _restore_records(backup: Path, *, path: Path | None, url: str | None) -> Restored:
     coming = describe_records_file(backup)
     if path is None:
         try:
@@ -235,7 +260,11 @@ def _restore_into_file(backup: Path, coming: RecordsSummary, path: Path) -> Rest
     with current:
         before = describe_records(current)
         current.backup(kept)
-    Records.restore(backup, path)
+        try:  # the plan kept as the draft waits in the restored records, as promised
+            draft_kept = current._stored_draft()
+        except RecordsError:  # unreadable: it is in the copy kept above
+            draft_kept = None
+    Records.restore(backup, path, draft_kept=draft_kept)
     return Restored(backup=coming, where=str(path), kept_at=kept, before=before)
 
 

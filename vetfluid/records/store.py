@@ -121,6 +121,9 @@ _SCHEMA_LOCK = 0x76657466  # "vetf"
 # A server that did not answer is tried again by the reads and writes that need it at most
 # this often (a host that drops packets holds each try for the connect timeout).
 RETRY_AFTER_S = 10.0
+# A restore into a server waits at most this long for the tables' locks (another
+# workstation's transaction under way), then stops in words instead of freezing the window.
+RESTORE_LOCK_WAIT_S = 10.0
 _PATIENT_COLUMNS = ("id", "name", "species_id", "sex", "birth_date", "age_text", "client_ref",
                     "notes", "created_at")  # fmt: skip
 
@@ -222,6 +225,59 @@ def _private(path: Path) -> None:
         kept = path.with_name(path.name + side)
         if kept.exists() and kept.stat().st_mode & 0o077:
             os.chmod(kept, 0o600)
+
+
+def _not_writable(folder: Path) -> str | None:
+    """Why nothing can be written in ``folder`` (a read-only disk, no permission), or None.
+    Tried by creating a file there: root and network shares ignore ``os.access``."""
+    try:
+        with tempfile.TemporaryFile(dir=folder):
+            return None
+    except OSError as exc:
+        return exc.strerror or str(exc)
+
+
+def open_backup(path: Path, *, live: bool = False) -> sqlite3.Connection:
+    """A backup opened read-only without writing anything beside it (no -wal, no -shm),
+    so one on read-only media is read too: SQLite's ``immutable`` URI parameter
+    (sqlite.org/uri.html). A -wal left beside it (a records file copied while in use) may
+    hold part of it: then (and for ``live``, the records file in use) read as SQLite reads
+    a live file, read-only."""
+    wal = path.with_name(path.name + "-wal")
+    live = live or (wal.exists() and wal.stat().st_size > 0)
+    uri = f"{path.resolve().as_uri()}?mode=ro{'' if live else '&immutable=1'}"
+    return sqlite3.connect(uri, uri=True)
+
+
+def check_layout(db: sqlite3.Connection, name: str) -> int:
+    """The schema version of an SQLite records file (a backup), after checking that each
+    of our tables is a table with the very columns vetfluid gave it at that version:
+    RecordsError in words otherwise (a view in a table's place, a table of other columns),
+    ending "nothing was restored". What else the file holds (triggers, views, other
+    tables) is never restored: :meth:`Records.restore` copies rows only."""
+    fix = "choose a backup that vetfluid wrote (File ▸ Back up records…)"
+    try:
+        version = _stored_schema_version(db, name)
+    except RecordsError as exc:
+        raise RecordsError(f"{exc.message}; nothing was restored", fix=fix) from exc
+    expected = schema.MetaData()
+    schema._tables(expected, schema_version=version)
+    kinds = dict(db.execute("SELECT name, type FROM sqlite_master"))
+    for table in expected.sorted_tables:
+        if kinds.get(table.name) != "table":
+            raise RecordsError(
+                f"{name} is not a vetfluid records backup: its {table.name} is not one of "
+                "vetfluid's tables; nothing was restored",
+                fix=fix,
+            )
+        columns = {row[1] for row in db.execute(f'PRAGMA table_info("{table.name}")')}
+        if columns != {c.name for c in table.columns}:
+            raise RecordsError(
+                f"{name} is not a vetfluid records backup: its table {table.name} has other "
+                "columns than vetfluid's; nothing was restored",
+                fix=fix,
+            )
+    return version
 
 
 def _blank(connection: Connection) -> bool:
@@ -526,6 +582,14 @@ class Records:
         except (sqlite3.DatabaseError, DBAPIError) as exc:
             if raw is not None:
                 raw.close()
+            if (why := _not_writable(path.parent)) is not None:
+                raise RecordsError(
+                    f"the folder of the records file {path} is read-only ({why}): nothing "
+                    "can be saved there, so the records were not opened; they are unchanged",
+                    fix="make that folder writable again (a disk mounted read-only, a full "
+                    "or locked drive, its permissions), or choose another user data folder, "
+                    "then start vetfluid again",
+                ) from exc
             raise RecordsError(
                 f"{path.name} is not a usable vetfluid records file ({_reason(exc)}); it was "
                 "left untouched",
@@ -1269,6 +1333,11 @@ class Records:
         once whole and on disk, so ``target`` holds the previous copy or the whole new
         one, never part of one (a file SQLite finds cut short reads as empty)."""
         target = Path(target)
+        if target.is_dir():
+            raise RecordsError(
+                f"{target} is a folder, not a file: a backup is one file",
+                fix="choose a name for the backup file in that folder; the records are unchanged",
+            )
         try:
             handle, name = tempfile.mkstemp(  # owner-only (0600) from its first byte
                 dir=target.parent, prefix=f".{target.name}.", suffix=".partial"
@@ -1286,6 +1355,9 @@ class Records:
                     self._db.backup(copy)
             else:
                 self._copy_server_into(staging)
+            # one file, no -wal: read on read-only media, and nothing left beside it
+            with closing(sqlite3.connect(staging)) as copy:
+                copy.execute("PRAGMA journal_mode = DELETE")
             _fsync(staging)
             os.replace(staging, target)
             _fsync(target.parent)
@@ -1322,6 +1394,10 @@ class Records:
             with Records._open_file(staging) as copy:  # an older backup migrated forward
                 try:
                     with copy._connection() as source, self._transaction() as into:
+                        # another workstation's open transaction must not freeze this one
+                        into.exec_driver_sql(
+                            f"SET LOCAL lock_timeout = {int(RESTORE_LOCK_WAIT_S * 1000)}"
+                        )
                         into.exec_driver_sql("TRUNCATE observations, plan_versions, patients")
                         into.execute(meta.delete().where(meta.c.key != "schema_version"))
                         _copy_tables(source, into)
@@ -1336,6 +1412,14 @@ class Records:
                                 f"COALESCE((SELECT max(id) FROM {table}), 0) + 1, false)"
                             )
                 except (DBAPIError, sqlite3.Error) as exc:
+                    if getattr(getattr(exc, "orig", None), "sqlstate", None) == "55P03":
+                        raise RecordsError(  # lock_not_available: the lock_timeout ran out
+                            f"another workstation holds the records on {self._name} open (a "
+                            "save or a search under way), so the restore could not begin; "
+                            "nothing was changed",
+                            fix="try again when the other workstations are idle (or have "
+                            "closed vetfluid)",
+                        ) from exc
                     raise RecordsError(
                         f"could not restore {Path(backup).name} to {self._name}: {_reason(exc)}",
                         fix="check the server can be reached; it holds what it held",
@@ -1343,54 +1427,69 @@ class Records:
             self.database_id = identity
 
     @staticmethod
-    def restore(backup: Path, target: Path) -> None:
-        """Copy a backup over ``target`` through SQLite's online backup: one transaction in
-        the target, so it holds what it held or the whole backup, even if cut short.
+    def restore(backup: Path, target: Path, *, draft_kept: bytes | None = None) -> None:
+        """Copy a backup's records over ``target``: one transaction in the target (SQLite's
+        online backup), so it holds what it held or the whole backup, even if cut short.
 
-        The backup is checked first (whole file, and a vetfluid records file this
-        vetfluid reads); ``target`` is owner-only before anything is written into it.
+        The backup is checked first (whole file, :func:`check_layout`), read without
+        writing anything beside it (:func:`open_backup`). Its rows, and nothing else (none
+        of its triggers, views or other tables), go into a freshly created records file
+        at this schema beside ``target`` (an older backup brought forward first, in a
+        private folder); that file goes into ``target``, owner-only before anything is
+        written into it.
 
         The restored records get a database identity of their own, as a restore into a
         server does: their ids are reused from here on (the backup's patient 2 is not the
         patient 2 saved after it), so a window or a draft that read ids in the records
-        before must see other records (:class:`RecordsReplaced`), not the backup's
-        identity, which may be theirs. The backup goes first into an owner-only copy beside
-        ``target`` that takes the new identity, and that copy into ``target``: still one
-        transaction there."""
+        before sees other records (:class:`RecordsReplaced`). ``draft_kept``: the draft
+        the records held (as stored), kept in the restored ones, so a plan kept as the
+        draft before the restore is offered back as promised (never the backup's own)."""
         backup, target = Path(backup), Path(target)
         if not backup.is_file():  # SQLite would create it, and restore an empty file
             raise RecordsError(f"there is no backup {backup}; nothing was restored")
-        uri = f"{backup.resolve().as_uri()}?mode=ro"
         staging: Path | None = None
         try:
-            with closing(sqlite3.connect(uri, uri=True)) as source:
-                if source.execute("PRAGMA integrity_check").fetchone()[0] != "ok":
-                    raise RecordsError(f"{backup.name} is damaged; nothing was restored")
-                try:
-                    _stored_schema_version(source, backup.name)
-                except RecordsError as exc:
-                    raise RecordsError(
-                        f"{exc.message}; nothing was restored", fix="choose another backup"
-                    ) from exc
+            with tempfile.TemporaryDirectory(prefix="vetfluid-restore-") as folder:
+                copied = Path(folder) / DATABASE_NAME  # owner-only folder
+                with closing(open_backup(backup)) as source:
+                    if source.execute("PRAGMA integrity_check").fetchone()[0] != "ok":
+                        raise RecordsError(f"{backup.name} is damaged; nothing was restored")
+                    check_layout(source, backup.name)
+                    with closing(sqlite3.connect(copied)) as copy:
+                        source.backup(copy)
                 handle, name = tempfile.mkstemp(  # owner-only (0600) from its first byte
                     dir=target.parent, prefix=f".{target.name}.", suffix=".restoring"
                 )
                 os.close(handle)
                 staging = Path(name)
-                with closing(sqlite3.connect(staging)) as renamed:
-                    source.backup(renamed)
-                    with renamed:  # one transaction: the old identity out, a new one in
-                        renamed.execute("DELETE FROM meta WHERE key = 'database_id'")
-                        renamed.execute(
-                            "INSERT INTO meta (key, value) VALUES ('database_id', ?)",
-                            (uuid.uuid4().hex,),
-                        )
+                with (
+                    Records._open_file(copied) as older,  # brought to this schema
+                    Records._open_file(staging) as fresh,  # a new schema, a new identity
+                ):
+                    with older._connection() as rows, fresh._transaction() as into:
+                        _copy_tables(rows, into)
+                        if draft_kept is not None:
+                            try:  # as it was stored: text, or bytes an unreadable one was
+                                kept: str | bytes = draft_kept.decode("utf-8")
+                            except UnicodeDecodeError:
+                                kept = draft_kept
+                            into.exec_driver_sql(
+                                "INSERT INTO draft (id, content_json, saved_at) VALUES (1, ?, ?)",
+                                (kept, _now()),
+                            )
                     _private(target)
                     with closing(sqlite3.connect(target, timeout=10)) as copy:
-                        renamed.backup(copy)
-        except (OSError, sqlite3.Error) as exc:
+                        fresh._db.backup(copy)
+        except RecordsError as exc:
+            if "nothing was restored" in exc.message:
+                raise
             raise RecordsError(
-                f"could not restore {backup.name} to {target.name}: {exc}",
+                f"{backup.name} cannot be restored: {exc.message}; nothing was restored",
+                fix="choose another backup",
+            ) from exc
+        except (OSError, sqlite3.Error, SQLAlchemyError) as exc:
+            raise RecordsError(
+                f"could not restore {backup.name} to {target.name}: {_reason(exc)}",
                 fix="check that the backup is a vetfluid records file and the folder is "
                 f"writable; {target.name} holds what it held",
             ) from exc

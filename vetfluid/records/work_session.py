@@ -306,6 +306,7 @@ class Opening:
     # which patient ``patient_id`` is, in which database (a draft checks it when restored)
     patient_mark: Mapping[str, str] | None = None
     database_id: str | None = None
+    restoring: bool = False  # no plan opens: the records are restored from a backup
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -1388,15 +1389,29 @@ class WorkSession:
 
     def _ask_to_leave(self, out: _Out, *, opening: Opening) -> None:
         self._leaving = opening
+        if opening.restoring:
+            text = (
+                "This plan, or what was recorded on it, is not saved as a version yet.\n\n"
+                "Save as a version: it goes into the patient's record (you name the patient "
+                "if it has none), then the records are restored from the backup; the "
+                "version is in the copy of the records kept before the restore.\n\n"
+                "Keep as draft: the records are restored now; this plan waits as the draft "
+                "in the restored records, and vetfluid offers it back once they open.\n\n"
+                "Cancel: stay on this plan; nothing is restored."
+            )
+        else:
+            text = (
+                "This plan, or what was recorded on it, is not saved as a version yet.\n\n"
+                "Save as a version: it goes into the patient's record (you name the patient "
+                "if it has none), then the other plan opens.\n\n"
+                "Keep as draft: the other plan opens now; this one waits as the draft, and "
+                "vetfluid offers it back when it next starts. Only one draft is kept: once "
+                "you change another plan without saving it, that plan becomes the draft.\n\n"
+                "Cancel: stay on this plan."
+            )
         self._ask(out, Question(
             asked=Asked.SAVE_OR_LEAVE,
-            text="This plan, or what was recorded on it, is not saved as a version yet.\n\n"
-            "Save as a version: it goes into the patient's record (you name the patient "
-            "if it has none), then the other plan opens.\n\n"
-            "Keep as draft: the other plan opens now; this one waits as the draft, and "
-            "vetfluid offers it back when it next starts. Only one draft is kept: once you "
-            "change another plan without saving it, that plan becomes the draft.\n\n"
-            "Cancel: stay on this plan.",
+            text=text,
             answers=(Answer.YES, Answer.NO, Answer.CANCEL), escape=Answer.CANCEL, about=self.tag,
             buttons=((Answer.YES, "Save as a version…"), (Answer.NO, "Keep as draft"),
                      (Answer.CANCEL, "Cancel")),
