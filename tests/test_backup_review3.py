@@ -139,7 +139,7 @@ def test_the_records_are_reopened_whatever_the_restore_raises(
     answer({"Backed up": lambda: None})
     window.back_up_records(tmp_path / "b.sqlite")
 
-    def broken(_backup):  # noqa: ANN001, ANN202 — something nobody foresaw
+    def broken(_backup, **_where):  # noqa: ANN001, ANN003, ANN202 — nobody foresaw it
         raise RuntimeError("unforeseen")
 
     monkeypatch.setattr(backup_dialogs, "restore_records", broken)

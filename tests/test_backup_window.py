@@ -171,9 +171,9 @@ def test_a_restore_and_a_records_setting_reopen_the_records_the_one_way(
     keeper, reopened = window.keeper, []
     one_way = keeper.reopen_records
 
-    def noted() -> None:
+    def noted(**where: object) -> None:
         reopened.append(keeper.work.state.name)
-        one_way()
+        one_way(**where)
 
     monkeypatch.setattr(keeper, "reopen_records", noted)
     _save(qtbot, window, "Rex")

@@ -128,24 +128,35 @@ def restore_from_backup(window: QMainWindow, backup: Path | None = None) -> bool
         return False
     # the plan on screen is put away first, as leaving it asks (it may be saved or kept as a
     # draft: then it is in the copy made before the restore)
+    ours = {window.keeper.work.tag}  # the plans this window may keep as the draft for it
     if not window.keeper.leave_for(Opening(status="Restoring the records…", restoring=True)):
         window.statusBar().showMessage("Nothing was restored.")
         return False
+    # the records this window has open, the ones the question described (the setting may
+    # name others since: another window changed it, or a switch to them failed)
+    open_now = window.records
+    path = open_now.path if open_now is not None else None
+    server = open_now.server if open_now is not None else None
+    ours.add(window.keeper.work.tag)
     if not window.keeper.close():  # asked, and kept: the records stay as they are
         window.statusBar().showMessage("Nothing was restored.")
         return False
+    # the records unchanged (a restore that failed): only this window's own draft is
+    # offered back, never one another vetfluid window keeps in the same records
+    only: frozenset[str] | None = frozenset(ours)
     try:  # whatever happens, the records are opened again: work after it is kept
         try:
-            restored = _busy(lambda: restore_records(backup))
+            restored = _busy(lambda: restore_records(backup, path=path, server=server))
         except RecordsError as exc:
             QMessageBox.warning(
                 window, TITLE,
                 f"The records were not restored; they hold what they held.\n\n{said(exc)}",
             )  # fmt: skip
             return False
+        only = None  # restored: the draft carried over is offered, as at a start
         QMessageBox.information(window, TITLE, restored_words(backup, restored))
     finally:
-        window.keeper.reopen_records()
+        window.keeper.reopen_records(path=path, server=server, only=only)
     window.statusBar().showMessage(f"Records restored from {backup.name}")
     return True
 

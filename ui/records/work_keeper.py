@@ -31,7 +31,10 @@ from vetfluid.records.work_session import (
 )
 
 if TYPE_CHECKING:
+    from pathlib import Path
+
     from ui.planning.session import PlanSession
+    from vetfluid.records.location import ServerAddress
     from vetfluid.records.store import Records
 
 AUTOSAVE_MS = 2000  # two seconds after the last change
@@ -227,9 +230,10 @@ class WorkKeeper(QObject):
         if self.work.records is not None:
             self.follow(self.work.refresh())
 
-    def offer_draft(self) -> bool:
-        """Offer back what the records' draft holds; True when something was opened."""
-        return self.follow(self.work.look_at_draft()).go
+    def offer_draft(self, *, only: frozenset[str] | None = None) -> bool:
+        """Offer back what the records' draft holds (``only``: when it is one of these
+        plans'); True when something was opened."""
+        return self.follow(self.work.look_at_draft(only=only)).go
 
     def leave_for(self, opening: Opening) -> bool:
         """Replace the plan with ``opening`` if the work session lets it (it asks first
@@ -303,21 +307,30 @@ class WorkKeeper(QObject):
         except InputError:
             return ""
 
-    def _start_work(self) -> None:
-        """A new work session on the records the setting names (at the start, and after a
-        restore); records that cannot be opened are said in the status line."""
-        self.work = WorkSession.open(self.session)
+    def _start_work(self, path: Path | None = None, server: ServerAddress | None = None) -> None:
+        """A new work session on the records the setting names (at the start), or on those
+        given (after a restore: the ones it replaced); records that cannot be opened are
+        said in the status line."""
+        self.work = WorkSession.open(self.session, path, server=server)
         if self.work.problem:
             self._status(f"Records unavailable: {self.work.problem}")
 
-    def reopen_records(self) -> None:
-        """Open the records the setting names now: the one way the window does it, after
-        the records settings were saved and after a restore.
+    def reopen_records(
+        self,
+        *,
+        path: Path | None = None,
+        server: ServerAddress | None = None,
+        only: frozenset[str] | None = None,
+    ) -> None:
+        """Open the records the setting names now (or, after a restore, the records it
+        replaced: ``path`` or ``server``, those the window had open): the one way the
+        window does it, after the records settings were saved and after a restore.
 
         Records in use (settings saved): the work session switches to the ones named
         (what waits written first; records that cannot be opened leave these in use, said
         why). Records closed (a restore closed them: the work session CLOSED): a new work
-        session on the records as they are now, their draft offered as at a start. Either
+        session on the records as they are now, their draft offered as at a start (``only``:
+        when it is one of these plans', as after a restore that failed). Either
         way the records label, the retry timer and the look on coming back into focus
         (all read from :attr:`work`) follow the records now in use."""
         if self.work.state is not State.CLOSED:
@@ -325,8 +338,8 @@ class WorkKeeper(QObject):
             return
         self.timer.stop()  # nothing of the closed session waits to be written
         self.longest_wait.stop()
-        self._start_work()
-        self.offer_draft()  # shows the records label and starts or stops the retry timer
+        self._start_work(path, server)
+        self.offer_draft(only=only)  # shows the records label and starts or stops the retry timer
 
     def close(self) -> bool:
         """Whether the window may close (asked first when work would be lost)."""

@@ -30,7 +30,7 @@ from pathlib import Path
 
 from vetfluid.common.errors import InputError
 from vetfluid.common.paths import user_data_dir
-from vetfluid.records.location import records_url
+from vetfluid.records.location import ServerAddress, records_url, server_address
 from vetfluid.records.schema import SCHEMA_VERSION
 from vetfluid.records.store import (
     DATABASE_NAME,
@@ -38,6 +38,7 @@ from vetfluid.records.store import (
     RecordsError,
     check_layout,
     open_backup,
+    remove_restore_leftovers,
 )
 
 BACKUP_SUFFIX = ".sqlite"  # a backup is an SQLite records file, as the one on this computer
@@ -205,15 +206,26 @@ def same_file(a: Path, b: Path) -> bool:
         return False
 
 
-def restore_records(backup: Path, *, path: Path | None = None, url: str | None = None) -> Restored:
-    """Replace the records with ``backup``: an SQLite file (``path``, else the user's) or a
-    server (``url``; else the records setting). The records must not be open in this
+def restore_records(
+    backup: Path,
+    *,
+    path: Path | None = None,
+    url: str | None = None,
+    server: ServerAddress | None = None,
+) -> Restored:
+    """Replace the records with ``backup``: an SQLite file (``path``), a server (``server``,
+    as records open in a window reach it, or ``url``), else the records the setting names
+    (a window passes the records it has open, the ones its question described: the setting
+    may have changed since). The records must not be open in this
     program meanwhile (the window closes its own first). The records as they are go first
     into :func:`automatic_backup_path`; the backup is refused in words unless it is a
     vetfluid records file (:func:`describe_records_file`). RecordsError says what went
     wrong, and that the records hold what they held."""
     try:
-        return _restore_records(Path(backup), path=path, url=url)
+        remove_restore_leftovers(
+            Path(path) if path is not None else user_data_dir() / DATABASE_NAME
+        )
+        return _restore_records(Path(backup), path=path, url=url, server=server)
     except OSError as exc:  # a disk error no step foresaw: said, never raised raw
         raise RecordsError(
             f"the records could not be restored ({exc.strerror or exc}); nothing was restored",
@@ -222,21 +234,29 @@ def restore_records(backup: Path, *, path: Path | None = None, url: str | None =
         ) from exc
 
 
-def _restore_records(backup: Path, *, path: Path | None, url: str | None) -> Restored:
+def _restore_records(
+    backup: Path, *, path: Path | None, url: str | None, server: ServerAddress | None
+) -> Restored:
     coming = describe_records_file(backup)
+    if path is None and server is not None:
+        return _restore_into_server(backup, coming, server)
     if path is None:
         try:
             url = records_url() if url is None else url
         except InputError as exc:  # an unreadable settings file: said, nothing done
             raise RecordsError(f"{exc.message}; nothing was restored", fix=exc.fix) from None
         if url:
-            return _restore_into_server(backup, coming, url)
+            try:
+                address = server_address(url)
+            except InputError as exc:
+                raise RecordsError(f"{exc.message}; nothing was restored", fix=exc.fix) from None
+            return _restore_into_server(backup, coming, address)
         path = user_data_dir() / DATABASE_NAME
     return _restore_into_file(backup, coming, Path(path))
 
 
-def _restore_into_server(backup: Path, coming: RecordsSummary, url: str) -> Restored:
-    with Records.open(url=url) as records:
+def _restore_into_server(backup: Path, coming: RecordsSummary, address: ServerAddress) -> Restored:
+    with Records.open(server=address) as records:
         before = describe_records(records)
         kept = records.backup(automatic_backup_path())
         records.restore_into_server(backup)
@@ -260,8 +280,9 @@ def _restore_into_file(backup: Path, coming: RecordsSummary, path: Path) -> Rest
     with current:
         before = describe_records(current)
         current.backup(kept)
-        try:  # the plan kept as the draft waits in the restored records, as promised
-            draft_kept = current._stored_draft()
+        try:  # the plan kept as the draft waits in the restored records, as promised,
+            # stamped as from these records: it never binds by patient id alone there
+            draft_kept = current.draft_kept_over_restore()
         except RecordsError:  # unreadable: it is in the copy kept above
             draft_kept = None
     Records.restore(backup, path, draft_kept=draft_kept)
@@ -287,7 +308,11 @@ def _replace_unusable_file(
             "nothing was restored",
             fix="free some disk space in the user data folder",
         ) from exc
-    handle, name = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".restoring")
+    # beside it (renamed onto it), named after this process: a later start removes it when
+    # a kill left it (remove_restore_leftovers)
+    handle, name = tempfile.mkstemp(
+        dir=path.parent, prefix=f".{path.name}.{os.getpid()}-", suffix=".restoring"
+    )
     os.close(handle)
     staging = Path(name)
     try:
@@ -301,7 +326,8 @@ def _replace_unusable_file(
             fix=f"the file as it was is kept in {kept}",
         ) from exc
     finally:
-        staging.unlink(missing_ok=True)
+        for side in ("", "-journal", "-wal", "-shm"):
+            staging.with_name(staging.name + side).unlink(missing_ok=True)
     return Restored(backup=coming, where=str(path), kept_at=kept, before=None)
 
 

@@ -124,6 +124,11 @@ RETRY_AFTER_S = 10.0
 # A restore into a server waits at most this long for the tables' locks (another
 # workstation's transaction under way), then stops in words instead of freezing the window.
 RESTORE_LOCK_WAIT_S = 10.0
+# the keys of ``meta`` vetfluid writes: a backup's other rows are never copied
+META_KEYS = ("schema_version", "database_id")
+# the largest id a record can have: the server's INTEGER columns (PostgreSQL 15
+# documentation, 8.1.1 "Integer Types": -2147483648 to +2147483647)
+_LARGEST_ID = 2_147_483_647
 _PATIENT_COLUMNS = ("id", "name", "species_id", "sex", "birth_date", "age_text", "client_ref",
                     "notes", "created_at")  # fmt: skip
 
@@ -237,6 +242,104 @@ def _not_writable(folder: Path) -> str | None:
         return exc.strerror or str(exc)
 
 
+# A restore's own temporary files: in this folder of the user data folder (owner-only),
+# one folder per restore named after the process; a restore killed midway leaves them, and
+# they are removed at the next records open or restore (remove_restore_leftovers).
+RESTORE_AREA = ".restoring"
+_RESTORE_FOLDER = re.compile(r"restore-(\d+)-[A-Za-z0-9_]+")
+# what the replacement of an unusable records file stages beside it (pid-free: an earlier
+# vetfluid's, from tempfile.mkstemp), and the /tmp folders an earlier vetfluid restored in
+_STAGED_BESIDE = r"\.{name}\.(?:(\d+)-)?[A-Za-z0-9_]+\.restoring(?:-wal|-shm|-journal)?"
+_EARLIER_TMP = re.compile(r"vetfluid-restore-[A-Za-z0-9_]+")
+_STARTED = time.time()  # when this process loaded the records (what is older is no restore of it)
+
+
+def _running(pid: int) -> bool:
+    """Whether process ``pid`` is running (where that cannot be told: taken as running)."""
+    if pid == os.getpid():
+        return True
+    if os.name != "posix":
+        return True  # no harmless probe there; its files are in use then and stay anyway
+    try:
+        os.kill(pid, 0)  # signal 0: only asks whether it exists (POSIX kill(2))
+    except ProcessLookupError:
+        return False
+    except OSError:
+        return True  # someone else's process: running
+    return True
+
+
+def _left_behind(path: Path, pid: str | None) -> bool:
+    """A restore's file or folder left by a process that is gone: older than this process
+    and (named with its process) that process no longer running."""
+    try:
+        older = path.lstat().st_mtime < _STARTED
+    except OSError:
+        return False
+    return older and (pid is None or not _running(int(pid)))
+
+
+def _remove(path: Path) -> None:
+    import shutil
+
+    with contextlib.suppress(OSError):
+        if path.is_dir() and not path.is_symlink():
+            shutil.rmtree(path)
+        else:
+            path.unlink()
+
+
+def remove_restore_leftovers(records_file: Path | None = None) -> None:
+    """Remove what a restore killed midway left: its folders in the user data folder's
+    restore area, what it staged beside ``records_file`` (``.records.sqlite.….restoring``
+    and its side files), and an earlier vetfluid's ``vetfluid-restore-…`` folders in the
+    system's temporary folder (this user's only). Only names of that pattern, older than
+    this process, whose process is no longer running: never the user's files, never a
+    restore under way. Errors are ignored (tried again next time)."""
+    area = user_data_dir() / RESTORE_AREA
+    places: list[tuple[Path, re.Pattern]] = [(area, _RESTORE_FOLDER)]
+    if records_file is not None:
+        beside = re.compile(_STAGED_BESIDE.format(name=re.escape(Path(records_file).name)))
+        places.append((Path(records_file).parent, beside))
+    places.append((Path(tempfile.gettempdir()), _EARLIER_TMP))
+    for folder, pattern in places:
+        try:
+            entries = list(folder.iterdir())
+        except OSError:
+            continue
+        for entry in entries:
+            found = pattern.fullmatch(entry.name)
+            if found is None:
+                continue
+            if pattern is _EARLIER_TMP:
+                try:  # this user's, a folder: what tempfile.TemporaryDirectory made
+                    mine = entry.is_dir() and entry.lstat().st_uid == os.getuid()
+                except (OSError, AttributeError):
+                    mine = False
+                if not mine:
+                    continue
+            if _left_behind(entry, found.group(1) if found.groups() else None):
+                _remove(entry)
+
+
+@contextlib.contextmanager
+def _restore_folder() -> Iterator[Path]:
+    """A new owner-only folder for one restore's temporary files, in the user data
+    folder's restore area (named after this process: a later start knows it from a
+    restore under way); removed when the restore ends."""
+    import shutil
+
+    area = user_data_dir() / RESTORE_AREA
+    area.mkdir(mode=0o700, exist_ok=True)
+    if area.stat().st_mode & 0o077:
+        os.chmod(area, 0o700)
+    folder = Path(tempfile.mkdtemp(dir=area, prefix=f"restore-{os.getpid()}-"))  # 0700
+    try:
+        yield folder
+    finally:
+        shutil.rmtree(folder, ignore_errors=True)
+
+
 def open_backup(path: Path, *, live: bool = False) -> sqlite3.Connection:
     """A backup opened read-only without writing anything beside it (no -wal, no -shm),
     so one on read-only media is read too: SQLite's ``immutable`` URI parameter
@@ -278,6 +381,84 @@ def check_layout(db: sqlite3.Connection, name: str) -> int:
                 fix=fix,
             )
     return version
+
+
+def _not_a_number(column: str) -> str:
+    """SQL true when ``column`` is not a record number vetfluid gives (a whole number from 1
+    up to the server's largest)."""
+    return f"(typeof({column}) != 'integer' OR {column} NOT BETWEEN 1 AND {_LARGEST_ID})"
+
+
+def _not_words(*columns: str) -> str:
+    return "(" + " OR ".join(f"typeof({c}) != 'text'" for c in columns) + ")"
+
+
+def _not_an_object(column: str) -> str:
+    """SQL true when ``column`` is not a JSON object stored as text (SQLite's JSON1:
+    json_valid, json_type; sqlite.org/json1.html)."""
+    return (
+        f"(CASE WHEN typeof({column}) != 'text' THEN 1 WHEN NOT json_valid({column}) THEN 1 "
+        f"ELSE json_type({column}) != 'object' END)"
+    )
+
+
+# What each row of a backup must be for vetfluid to read it back: (table, SQL true for a row
+# that is not, what that is in words). Species: a well-formed species id, not necessarily
+# one in today's table (a clinic's records may keep a species since removed from it, and
+# find_patients reads those by id).
+_ROW_CHECKS = (
+    ("patients", _not_a_number("id"), "a patient number that is not a whole number from 1"),
+    ("patients", "(typeof(name) != 'text' OR trim(name) = '')", "a patient whose name is "
+     "not given in words"),
+    ("patients", "(typeof(species_id) != 'text' OR species_id NOT GLOB '[a-z]*' OR "
+     "species_id GLOB '*[^a-z0-9_]*')", "a patient whose species is not a species id"),
+    ("patients", _not_words("sex", "birth_date", "age_text", "client_ref", "notes"),
+     "a patient whose details (sex, birth date, age, client, notes) are not words"),
+    ("patients", _not_words("created_at"), "a patient whose time created is not a date"),
+    ("plan_versions", f"({_not_a_number('id')} OR {_not_a_number('patient_id')})",
+     "a plan version whose patient number is not a whole number from 1"),
+    ("plan_versions", _not_a_number("version"), "a plan version whose version number is not "
+     "a whole number from 1"),
+    ("plan_versions", f"({_not_an_object('request_json')} OR {_not_an_object('plan_json')} "
+     f"OR {_not_an_object('acknowledged_json')})", "a saved plan that cannot be read as one"),
+    ("plan_versions", _not_words("author", "created_at", "program_version"),
+     "a plan version whose author, time saved or program version is not words"),
+    ("plan_versions", _not_words("workstation"),  # from schema 3 (the table has it then)
+     "a plan version whose workstation is not words"),
+    ("plan_versions", "patient_id NOT IN (SELECT id FROM patients)",
+     "a plan version of no patient in it"),
+    ("plan_versions", "SELECT count(*) FROM (SELECT 1 FROM plan_versions GROUP BY "
+     "patient_id, version HAVING count(*) > 1)",  # a whole query: sorted once, never n²
+     "two plan versions of one patient with the same version number"),
+    ("observations", f"({_not_a_number('id')} OR {_not_a_number('plan_version_id')} OR "
+     f"{_not_words('observation_json', 'recorded_at')})", "an observation that is not "
+     "stored as vetfluid stores one (as words, with the time recorded)"),
+    ("observations", "plan_version_id NOT IN (SELECT id FROM plan_versions)",
+     "an observation of no plan version in it"),
+)  # fmt: skip
+
+
+def check_rows(db: sqlite3.Connection, name: str, schema_version: int) -> None:
+    """Every row of a backup (an SQLite records file, its layout checked by
+    :func:`check_layout`) as vetfluid writes it: record numbers whole numbers from 1,
+    version numbers from 1 and one per patient, words where words are stored, saved plans
+    readable as JSON objects, no version or observation without its patient or version.
+    RecordsError in words naming the first thing that is not, ending "nothing was
+    restored": a row vetfluid cannot read back is refused before anything changes, never
+    found by a save that then fails."""
+    fix = "choose another backup (one that vetfluid wrote: File ▸ Back up records…)"
+    for table, odd, words in _ROW_CHECKS:
+        if "workstation" in odd and schema_version < 3:
+            continue  # no such column before schema 3
+        query = odd if odd.startswith("SELECT") else f"SELECT count(*) FROM {table} WHERE {odd}"
+        count = db.execute(query).fetchone()[0]
+        if count:
+            rows = f"{count} row{'s' if count != 1 else ''}"
+            raise RecordsError(
+                f"{name} holds {words} ({rows} of its {table}), which vetfluid does not "
+                "write; nothing was restored",
+                fix=fix,
+            )
 
 
 def _blank(connection: Connection) -> bool:
@@ -422,9 +603,10 @@ def _server_engine(address: ServerAddress) -> Engine:
 
 def _copy_tables(source: Connection, into: Connection) -> None:
     """Every patient, version and observation (ids kept) and the meta rows ``into`` lacks,
-    in chunks; inside both connections' transactions."""
+    of the keys vetfluid writes (:data:`META_KEYS`; a backup's other rows stay behind), in
+    chunks; inside both connections' transactions."""
     kept = {k for (k,) in into.execute(select(meta.c.key))}
-    rows = source.execute(select(meta)).mappings().all()
+    rows = source.execute(select(meta).where(meta.c.key.in_(META_KEYS))).mappings().all()
     if new := [dict(r) for r in rows if r["key"] not in kept]:
         into.execute(meta.insert(), new)
     for table in (patients, plan_versions, schema.observations):
@@ -542,15 +724,23 @@ class Records:
     # ---- opening ---------------------------------------------------------------------------
     @classmethod
     def open(
-        cls, path: Path | None = None, *, url: str | None = None, allow_unreachable: bool = False
+        cls,
+        path: Path | None = None,
+        *,
+        url: str | None = None,
+        server: ServerAddress | None = None,
+        allow_unreachable: bool = False,
     ) -> Records:
-        """Open (or create) the records: ``path`` an SQLite file; else ``url`` (else the
-        records setting, :func:`vetfluid.records.location.records_url`) a server; else the
-        SQLite file in the user data folder. A newer, foreign or damaged one is refused.
+        """Open (or create) the records: ``path`` an SQLite file; else ``server`` (records
+        open elsewhere, reached as they were); else ``url`` (else the records setting,
+        :func:`vetfluid.records.location.records_url`) a server; else the SQLite file in the
+        user data folder. A newer, foreign or damaged one is refused.
 
         ``allow_unreachable``: a server that cannot be used now still opens this
         workstation's drafts, with :attr:`unreachable` saying why; it is tried again as
         the records are used (:meth:`reach`)."""
+        if path is None and server is not None:
+            return cls._open_server(server, allow_unreachable=allow_unreachable)
         if path is None:
             try:
                 url = records_url() if url is None else url.strip()
@@ -1250,6 +1440,36 @@ class Records:
             ) from exc
         return None if row is None else bytes(row[0])
 
+    def draft_kept_over_restore(self) -> bytes | None:
+        """The stored draft (this workstation's) as a restore carries it over: a draft whose
+        patient id is these records' is stamped with their identity and the patient's mark
+        (name, species, when added; read here when the draft has none, as an earlier
+        vetfluid wrote it), so the restored records, with an identity of their own, take it
+        as a draft from other records: bound to the patient with that id there only if it
+        is the same patient, else offered without one. Anything else, as stored."""
+        stored = (self._drafts or self)._stored_draft()
+        if stored is None or self.database_id is None:
+            return stored
+        try:
+            content = json.loads(stored.decode("utf-8"))
+        except ValueError:
+            return stored  # unreadable: carried over as it is, set aside when read
+        patient_id = content.get("patient_id") if isinstance(content, dict) else None
+        if type(patient_id) is not int or content.get("database_id") not in (
+            None, self.database_id
+        ):  # fmt: skip
+            return stored  # no patient, or already another database's
+        mark = content.get("patient")
+        if not isinstance(mark, dict):
+            try:
+                row = self.patient(patient_id)
+                mark = {"name": row.name, "species_id": row.species_id,
+                        "created_at": row.created_at}  # fmt: skip
+            except (InputError, RecordsError):
+                mark = None  # no such patient here: it binds to nobody after the restore
+        content.update(database_id=self.database_id, patient=mark)
+        return json.dumps(content, ensure_ascii=False).encode("utf-8")
+
     def draft(self) -> dict | None:
         """The plan last being edited, or None. A stored draft that cannot be read as one
         (cut short, not UTF-8, not an object) is set aside in a file beside the records,
@@ -1388,8 +1608,13 @@ class Records:
         server holds what it held or the whole backup; other workstations wait meanwhile."""
         if self.server is None:
             raise RecordsError("these records are a file: restore it with Records.restore")
-        with tempfile.TemporaryDirectory(prefix="vetfluid-restore-") as folder:  # owner-only
-            staging = Path(folder) / DATABASE_NAME
+        try:  # this workstation's draft, stamped as from the records as they are now
+            draft_before = self._drafts._stored_draft() if self._drafts else None
+            draft_kept = self.draft_kept_over_restore()
+        except RecordsError:  # unreadable: left as it is (it binds to nobody by id alone)
+            draft_before = draft_kept = None
+        with _restore_folder() as folder:  # owner-only, removed at the end
+            staging = folder / DATABASE_NAME
             Records.restore(backup, staging)  # checked whole and ours, copied aside
             with Records._open_file(staging) as copy:  # an older backup migrated forward
                 try:
@@ -1425,6 +1650,12 @@ class Records:
                         fix="check the server can be reached; it holds what it held",
                     ) from exc
             self.database_id = identity
+        if draft_kept is not None and draft_kept != draft_before and self._drafts is not None:
+            with contextlib.suppress(RecordsError, sqlite3.Error, DBAPIError):
+                with self._drafts._transaction() as conn:  # replaced whole, or not at all
+                    conn.execute(draft.delete())
+                    kept = draft_kept.decode("utf-8")
+                    conn.execute(draft.insert().values(id=1, content_json=kept, saved_at=_now()))
 
     @staticmethod
     def restore(backup: Path, target: Path, *, draft_kept: bytes | None = None) -> None:
@@ -1447,21 +1678,18 @@ class Records:
         backup, target = Path(backup), Path(target)
         if not backup.is_file():  # SQLite would create it, and restore an empty file
             raise RecordsError(f"there is no backup {backup}; nothing was restored")
-        staging: Path | None = None
         try:
-            with tempfile.TemporaryDirectory(prefix="vetfluid-restore-") as folder:
-                copied = Path(folder) / DATABASE_NAME  # owner-only folder
+            with _restore_folder() as folder:  # owner-only, removed at the end
+                copied = folder / DATABASE_NAME
+                _private(copied)  # owner-only before SQLite writes into it
                 with closing(open_backup(backup)) as source:
                     if source.execute("PRAGMA integrity_check").fetchone()[0] != "ok":
                         raise RecordsError(f"{backup.name} is damaged; nothing was restored")
-                    check_layout(source, backup.name)
+                    layout = check_layout(source, backup.name)
+                    check_rows(source, backup.name, layout)
                     with closing(sqlite3.connect(copied)) as copy:
                         source.backup(copy)
-                handle, name = tempfile.mkstemp(  # owner-only (0600) from its first byte
-                    dir=target.parent, prefix=f".{target.name}.", suffix=".restoring"
-                )
-                os.close(handle)
-                staging = Path(name)
+                staging = folder / f"fresh-{DATABASE_NAME}"  # created owner-only
                 with (
                     Records._open_file(copied) as older,  # brought to this schema
                     Records._open_file(staging) as fresh,  # a new schema, a new identity
@@ -1493,10 +1721,6 @@ class Records:
                 fix="check that the backup is a vetfluid records file and the folder is "
                 f"writable; {target.name} holds what it held",
             ) from exc
-        finally:
-            if staging is not None:
-                for side in ("", "-journal", "-wal", "-shm"):
-                    staging.with_name(staging.name + side).unlink(missing_ok=True)
 
     def export_patient(self, patient_id: int) -> dict:
         patient = self.patient(patient_id)

@@ -182,6 +182,7 @@ from vetfluid.records.store import (
 if TYPE_CHECKING:
     from vetfluid.course.observations import Observation
     from vetfluid.planning.plan import Plan, PlanRequest
+    from vetfluid.records.location import ServerAddress
 
 
 class WorkSessionError(RuntimeError):
@@ -621,15 +622,21 @@ class WorkSession:
         return ""
 
     @classmethod
-    def open(cls, screen: Screen, path: Path | None = None) -> WorkSession:
-        """On the records file (the user's, by default) or the records server of the
-        setting; an unusable one leaves the session without records, saying why in
-        :attr:`problem`. A server that cannot be reached leaves the drafts on this
-        computer in use (said at the start)."""
+    def open(
+        cls, screen: Screen, path: Path | None = None, *, server: ServerAddress | None = None
+    ) -> WorkSession:
+        """On the records file ``path`` or the server ``server`` (else those the setting
+        names: the user's file, or its server); an unusable one leaves the session without
+        records, saying why in :attr:`problem`. A server that cannot be reached leaves the
+        drafts on this computer in use (said at the start)."""
+        from vetfluid.records.store import remove_restore_leftovers
+
         try:
-            records = Records.open(path, allow_unreachable=True)
+            records = Records.open(path, server=server, allow_unreachable=True)
         except RecordsError as exc:
+            remove_restore_leftovers(path)
             return cls(screen, None, problem=exc.one_line())
+        remove_restore_leftovers(records.path)  # what a restore killed midway left
         return cls(screen, records)
 
     @staticmethod
@@ -650,10 +657,13 @@ class WorkSession:
     def autosave(self) -> Reply:
         return self._run(Event.AUTOSAVE)
 
-    def look_at_draft(self) -> Reply:
-        """At the start: what the records said on opening, then the draft left last time."""
+    def look_at_draft(self, *, only: frozenset[str] | None = None) -> Reply:
+        """At the start: what the records said on opening, then the draft left last time.
+        ``only``: offered only when it is one of these plans' (their tags): after a restore
+        that failed, the draft this window kept for it, never another window's."""
         notices, self._notices = self._notices, []
-        return self._run(Event.LOOK_AT_DRAFT, out=_Out(self._take_pending() + notices))
+        out = _Out(self._take_pending() + notices)
+        return self._run(Event.LOOK_AT_DRAFT, out=out, only=only)
 
     def reconnect(self) -> Reply:
         """Try a records server that could not be reached; the status says when it answers."""
@@ -1539,10 +1549,11 @@ class WorkSession:
         out.autosave = Autosave.START
 
     # ---- actions: the draft left last time -------------------------------------------------------
-    def _look(self, out: _Out) -> State:
+    def _look(self, out: _Out, *, only: frozenset[str] | None = None) -> State:
         """Offer back the plan that was being edited when vetfluid last stopped, or the
         observations a saved version could not take. A draft that cannot be restored is
-        set aside in a file, never dropped."""
+        set aside in a file, never dropped. ``only``: a draft of other plans stays, not
+        offered now (offered at the next start)."""
         try:
             draft = self.records.draft()
         except DraftSetAside as exc:  # unreadable: in a file now, nothing to restore
@@ -1551,7 +1562,7 @@ class WorkSession:
         except RecordsError as exc:  # unreadable and still in place
             out.message(f"The plan last worked on: {exc.one_line()}.")
             return self.state
-        if not draft:
+        if not draft or (only is not None and draft.get("tag") not in only):
             return self.state
         try:
             request, observations = draft_contents(draft)
@@ -1629,7 +1640,7 @@ class WorkSession:
             f"The plan last worked on {why}; it was set aside as {kept}. Nothing was restored."
         )
 
-    def _say_offered_later(self, out: _Out) -> None:
+    def _say_offered_later(self, out: _Out, **_: Any) -> None:
         out.status = (
             "The draft left last time is offered at the next start: this plan's work "
             "could not be written yet."
@@ -1644,7 +1655,7 @@ class WorkSession:
         wording, patient = draft.get("acknowledged_for"), draft.get("patient_id")
         mark, database = draft.get("patient"), draft.get("database_id")
         if type(patient) is int and self._binds(draft) is False:
-            out.message(self._other_records_words(mark))
+            out.message(self._other_records_words(mark, database=database))
             patient, mark, database = None, None, None
         self._retag = draft
         opening = Opening(
@@ -1748,14 +1759,15 @@ class WorkSession:
 
     def _binds(self, draft: Mapping) -> bool | None:
         """Whether the patient id a draft (or this screen) holds is that patient in these
-        records: the same database, or (restored from a backup since) a patient with the
-        same name, species and time of adding. None: cannot tell now (the server is not
-        reached, or a draft an earlier vetfluid wrote: taken as before)."""
+        records: the same database, or (other records, restored from a backup since, or no
+        database named: a draft an earlier vetfluid wrote) a patient with the same name,
+        species and time of adding; an id alone never binds. None: cannot tell now (the
+        server is not reached)."""
         database, mark = draft.get("database_id"), draft.get("patient")
-        if database is None or database == self.records.database_id:
-            return None if self.records.database_id is None else True
         if self.records.database_id is None:
             return None
+        if database == self.records.database_id:
+            return True
         try:
             row = self.records.patient(draft.get("patient_id"))
         except InputError:
@@ -1774,8 +1786,17 @@ class WorkSession:
         kind = load_table().species_by_id.get(mark.get("species_id"))
         return f"{mark.get('name')} ({kind.common_name if kind else mark.get('species_id')})"
 
-    def _other_records_words(self, mark: object) -> str:
+    def _other_records_words(self, mark: object, *, database: object = "") -> str:
+        """Why a draft's (or the screen's) patient id is dropped; ``database`` None: it
+        never named its records (an earlier vetfluid's draft)."""
         who = self._who(mark)
+        if database is None:
+            return (
+                f"This draft was written for {who} by an earlier vetfluid, which did not note "
+                "which records the patient was in, and the patient with that number here "
+                "cannot be told to be the same one. It is restored without a patient: saving "
+                "it asks which patient it is."
+            )
         return (
             f"This draft was written for {who} in other records: a database restored from a "
             "backup since, or another one. Patient numbers there belong to other patients "
@@ -1791,7 +1812,8 @@ class WorkSession:
             if binds:  # the same database, or the same patient in it after a restore
                 self._database_id = self.records.database_id
             return True
-        self._pending.append(Message(text=self._other_records_words(self._patient_mark)))
+        self._pending.append(Message(text=self._other_records_words(
+            self._patient_mark, database=self._database_id)))  # fmt: skip
         self.patient_id, self.known_latest = None, None
         self._patient_mark = self._database_id = None
         out.ask_patient = True
