@@ -71,7 +71,7 @@ def test_a_draft_carried_over_a_restore_is_stamped_with_the_old_records(tmp_path
         _fill(records, ["Max"])  # patient 1 here is Max
         old_identity = records.database_id
         max_mark = records.patient(1)
-        records.save_draft(_legacy_draft(1))
+        records.save_draft(_legacy_draft(1, database_id=old_identity))  # these records' own
     restore_records(backup, path=path)
     with Records.open(path) as records:
         kept = records.draft()
@@ -144,7 +144,7 @@ def test_a_server_restore_stamps_this_workstations_draft(postgres_url, tmp_path)
     with Records.open(url=postgres_url) as records:
         _fill(records, ["Max"])
         old_identity = records.database_id
-        records.save_draft(_legacy_draft(1))
+        records.save_draft(_legacy_draft(1, database_id=old_identity))
     restore_records(backup, url=postgres_url)
     with Records.open(url=postgres_url) as records:
         kept = records.draft()
@@ -172,6 +172,26 @@ def test_a_restore_replaces_the_records_the_window_has_open(
     with Records.open(url=postgres_url) as server:
         assert _names(server) == ["Rex"]  # the clinic's server untouched
     assert window.records.path == vetfluid_home / DATABASE_NAME
+
+
+def test_with_no_records_open_a_restore_never_goes_to_a_server_the_settings_name(
+    qtbot, window, answer, monkeypatch, tmp_path
+):
+    """With no records open (the settings' server could not be opened), the question can
+    only describe the file on this computer: a restore into the server the settings name
+    would replace every workstation's records unasked. It is refused in words; nothing is
+    restored anywhere."""
+    import vetfluid.records.backups as backups
+
+    backup = _backup_of(tmp_path, ["Bella"])
+    monkeypatch.setattr(window.keeper.work, "records", None)
+    monkeypatch.setenv("VETFLUID_RECORDS_URL", "postgresql://vet@records.invalid:5432/vf")
+    restored = []
+    monkeypatch.setattr(backups, "_restore_records", lambda *a, **k: restored.append(a))
+    said = []
+    answer({"not open now": lambda: said.append(1)})
+    assert window.restore_records(backup) is False
+    assert said and not restored
 
 
 # ---- 3: a backup whose rows are not what vetfluid writes is refused in words ---------------
@@ -425,3 +445,68 @@ def test_only_known_meta_rows_are_restored(engine, tmp_path, vetfluid_home, requ
             stored = dict(conn.exec_driver_sql("SELECT key, value FROM meta").fetchall())
     assert set(stored) == {"schema_version", "database_id"}
     assert stored["database_id"] != "CAFE"
+
+
+# ---- the quick review of the fourth: what the sweep must never touch, a legacy draft -----------
+def test_a_folder_in_the_temporary_folder_named_like_an_old_restore_is_never_removed(
+    tmp_path, monkeypatch
+):
+    """A data folder (or any folder of the user's) under the system's temporary folder,
+    named as an earlier vetfluid named its restore folders, once went whole, records and
+    all, at the next records open: the sweep removes nothing outside vetfluid's own places."""
+    import tempfile
+
+    from vetfluid.records.store import remove_restore_leftovers
+    from vetfluid.records.work_session import WorkSession
+
+    temporary = tmp_path / "tmp"
+    temporary.mkdir()
+    monkeypatch.setattr(tempfile, "tempdir", str(temporary))
+    home = temporary / "vetfluid-restore-clinic"
+    home.mkdir()
+    monkeypatch.setenv("VETFLUID_HOME", str(home))
+    with Records.open(home / DATABASE_NAME) as records:
+        _fill(records, ["Rex"])
+    _aged(home)
+    remove_restore_leftovers()  # as a restore does before it opens anything
+    WorkSession.open(screen=None).records.close()
+    with Records.open(home / DATABASE_NAME) as records:
+        assert _names(records) == ["Rex"]
+
+
+@pytest.mark.skipif(os.name != "posix", reason="process numbers are probed on POSIX")
+@pytest.mark.parametrize("pid", ["3000000000", "99999999999999999999"])
+def test_a_process_number_out_of_range_in_a_leftovers_name_stops_nothing(pid, vetfluid_home):
+    """A name with a process number the system cannot even ask about (over the C range)
+    once stopped every start with a traceback: such a file is taken as another process's,
+    and kept."""
+    from vetfluid.records.store import RESTORE_AREA
+    from vetfluid.records.work_session import WorkSession
+
+    area = vetfluid_home / RESTORE_AREA
+    area.mkdir(mode=0o700)
+    odd = area / f"restore-{pid}-abc"
+    odd.mkdir()
+    beside = vetfluid_home / f".{DATABASE_NAME}.{pid}-abc.restoring"
+    beside.write_bytes(b"x")
+    _aged(odd), _aged(beside)
+    WorkSession.open(screen=None).records.close()
+    assert odd.exists() and beside.exists()
+
+
+def test_a_restore_never_binds_a_legacy_draft_to_whoever_has_its_id(tmp_path, vetfluid_home):
+    """A draft an earlier vetfluid wrote (a patient id, no identity, no mark) may have been
+    written for another animal in other records: a restore carries it over as it is, so it
+    is still offered without a patient, never stamped with the mark of whoever has that id."""
+    from vetfluid.records.work_session import WorkSession
+
+    with Records.open(vetfluid_home / DATABASE_NAME) as records:
+        _fill(records, ["Max"])
+        records.save_draft(_legacy_draft(1))
+        backup = tmp_path / "same.sqlite"
+        back_up(records, backup)
+    restore_records(backup, path=vetfluid_home / DATABASE_NAME)
+    with Records.open(vetfluid_home / DATABASE_NAME) as records:
+        draft = records.draft()
+        assert draft is not None and "database_id" not in draft and "patient" not in draft
+        assert WorkSession(screen=None, records=records)._binds(draft) is False

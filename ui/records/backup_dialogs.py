@@ -112,8 +112,14 @@ def restore_from_backup(window: QMainWindow, backup: Path | None = None) -> bool
             return False
         backup = Path(name)
     here = window.records.path if window.records is not None else None
-    if here is None and window.records is None:
-        here = user_data_dir() / DATABASE_NAME  # none open: the file a restore replaces
+    if window.records is None:
+        # none open: the question can only describe this computer's file, so a server the
+        # settings name is never the target (it would replace every workstation's records)
+        if _settings_name_a_server():
+            QMessageBox.warning(window, TITLE, NOT_OPEN_WORDS.format(
+                why=window.keeper.work.problem or "they could not be opened"))  # fmt: skip
+            return False
+        here = user_data_dir() / DATABASE_NAME
     try:
         if here is not None and same_file(backup, here):  # before any question
             raise RecordsError(
@@ -135,7 +141,7 @@ def restore_from_backup(window: QMainWindow, backup: Path | None = None) -> bool
     # the records this window has open, the ones the question described (the setting may
     # name others since: another window changed it, or a switch to them failed)
     open_now = window.records
-    path = open_now.path if open_now is not None else None
+    path = open_now.path if open_now is not None else here
     server = open_now.server if open_now is not None else None
     ours.add(window.keeper.work.tag)
     if not window.keeper.close():  # asked, and kept: the records stay as they are
@@ -159,6 +165,25 @@ def restore_from_backup(window: QMainWindow, backup: Path | None = None) -> bool
         window.keeper.reopen_records(path=path, server=server, only=only)
     window.statusBar().showMessage(f"Records restored from {backup.name}")
     return True
+
+
+NOT_OPEN_WORDS = (
+    "The records the settings name are not open now ({why}), so none are restored: a "
+    "restore replaces the records this window has open.\n\nOpen them first (check File ▸ "
+    "Records settings… and the server), then restore."
+)
+
+
+def _settings_name_a_server() -> bool:
+    """Whether the records setting names a server (an unreadable setting counts: it is not
+    known to be this computer's file)."""
+    from vetfluid.common.errors import VetfluidError
+    from vetfluid.records.location import records_url
+
+    try:
+        return bool(records_url())
+    except VetfluidError:
+        return True
 
 
 def ask_to_replace(

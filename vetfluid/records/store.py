@@ -248,9 +248,10 @@ def _not_writable(folder: Path) -> str | None:
 RESTORE_AREA = ".restoring"
 _RESTORE_FOLDER = re.compile(r"restore-(\d+)-[A-Za-z0-9_]+")
 # what the replacement of an unusable records file stages beside it (pid-free: an earlier
-# vetfluid's, from tempfile.mkstemp), and the /tmp folders an earlier vetfluid restored in
+# vetfluid's, from tempfile.mkstemp). The system's temporary folder is never swept: a folder
+# there named as an earlier vetfluid named its restore folders may be anything of the
+# user's, a data folder with its records included; the system clears it.
 _STAGED_BESIDE = r"\.{name}\.(?:(\d+)-)?[A-Za-z0-9_]+\.restoring(?:-wal|-shm|-journal)?"
-_EARLIER_TMP = re.compile(r"vetfluid-restore-[A-Za-z0-9_]+")
 _STARTED = time.time()  # when this process loaded the records (what is older is no restore of it)
 
 
@@ -264,8 +265,8 @@ def _running(pid: int) -> bool:
         os.kill(pid, 0)  # signal 0: only asks whether it exists (POSIX kill(2))
     except ProcessLookupError:
         return False
-    except OSError:
-        return True  # someone else's process: running
+    except (OSError, OverflowError, ValueError):
+        return True  # someone else's process, or a number that cannot be asked: running
     return True
 
 
@@ -291,17 +292,15 @@ def _remove(path: Path) -> None:
 
 def remove_restore_leftovers(records_file: Path | None = None) -> None:
     """Remove what a restore killed midway left: its folders in the user data folder's
-    restore area, what it staged beside ``records_file`` (``.records.sqlite.….restoring``
-    and its side files), and an earlier vetfluid's ``vetfluid-restore-…`` folders in the
-    system's temporary folder (this user's only). Only names of that pattern, older than
-    this process, whose process is no longer running: never the user's files, never a
-    restore under way. Errors are ignored (tried again next time)."""
+    restore area, and what it staged beside ``records_file`` (``.records.sqlite.….restoring``
+    and its side files). Only names of that pattern, in those two places, older than this
+    process, whose process is no longer running: never the user's files, never a restore
+    under way. Errors are ignored (tried again next time)."""
     area = user_data_dir() / RESTORE_AREA
     places: list[tuple[Path, re.Pattern]] = [(area, _RESTORE_FOLDER)]
     if records_file is not None:
         beside = re.compile(_STAGED_BESIDE.format(name=re.escape(Path(records_file).name)))
         places.append((Path(records_file).parent, beside))
-    places.append((Path(tempfile.gettempdir()), _EARLIER_TMP))
     for folder, pattern in places:
         try:
             entries = list(folder.iterdir())
@@ -309,16 +308,7 @@ def remove_restore_leftovers(records_file: Path | None = None) -> None:
             continue
         for entry in entries:
             found = pattern.fullmatch(entry.name)
-            if found is None:
-                continue
-            if pattern is _EARLIER_TMP:
-                try:  # this user's, a folder: what tempfile.TemporaryDirectory made
-                    mine = entry.is_dir() and entry.lstat().st_uid == os.getuid()
-                except (OSError, AttributeError):
-                    mine = False
-                if not mine:
-                    continue
-            if _left_behind(entry, found.group(1) if found.groups() else None):
+            if found is not None and _left_behind(entry, found.group(1)):
                 _remove(entry)
 
 
@@ -1441,12 +1431,13 @@ class Records:
         return None if row is None else bytes(row[0])
 
     def draft_kept_over_restore(self) -> bytes | None:
-        """The stored draft (this workstation's) as a restore carries it over: a draft whose
-        patient id is these records' is stamped with their identity and the patient's mark
-        (name, species, when added; read here when the draft has none, as an earlier
-        vetfluid wrote it), so the restored records, with an identity of their own, take it
-        as a draft from other records: bound to the patient with that id there only if it
-        is the same patient, else offered without one. Anything else, as stored."""
+        """The stored draft (this workstation's) as a restore carries it over: a draft of
+        these records (their identity) is stamped with it and the patient's mark (name,
+        species, when added; read here when the draft has none), so the restored records,
+        with an identity of their own, take it as a draft from other records: bound to the
+        patient with that id there only if it is the same patient, else offered without
+        one. Anything else (no identity: an earlier vetfluid's), as stored: it binds to no
+        one by its id alone."""
         stored = (self._drafts or self)._stored_draft()
         if stored is None or self.database_id is None:
             return stored
@@ -1455,10 +1446,11 @@ class Records:
         except ValueError:
             return stored  # unreadable: carried over as it is, set aside when read
         patient_id = content.get("patient_id") if isinstance(content, dict) else None
-        if type(patient_id) is not int or content.get("database_id") not in (
-            None, self.database_id
-        ):  # fmt: skip
-            return stored  # no patient, or already another database's
+        if type(patient_id) is not int or content.get("database_id") != self.database_id:
+            # no patient; another database's; or an earlier vetfluid's, with no identity,
+            # which may have been written for another animal: stamping it with the mark of
+            # whoever has its id here would bind it to them after the restore
+            return stored
         mark = content.get("patient")
         if not isinstance(mark, dict):
             try:
