@@ -10,6 +10,9 @@ The expected behaviour is the review's (each test names its finding); SQLite's o
 documentation is the source for how it reads files: "immutable" URI parameter and
 "PRAGMA journal_mode" (sqlite.org/uri.html, sqlite.org/pragma.html#pragma_journal_mode)."""
 
+# the window fixture is tests/test_backup_window.py's, imported; tests name it as a parameter
+# ruff: noqa: F811
+
 from __future__ import annotations
 
 import contextlib
@@ -22,6 +25,7 @@ from pathlib import Path
 import pytest
 from PySide6.QtWidgets import QMessageBox
 
+from tests.test_backup_window import window  # noqa: F401
 from vetfluid.planning.demos import DEMOS
 from vetfluid.planning.plan import build_plan
 from vetfluid.records.backups import back_up, describe_records_file, restore_records
@@ -42,11 +46,11 @@ def _names(records: Records) -> list[str]:
     return sorted(p.name for p in records.find_patients(""))
 
 
-def _backup_of(tmp_path: Path, names: list[str]) -> Path:
-    with Records.open(tmp_path / "source.sqlite") as source:
+def _backup_of(tmp_path: Path, names: list[str], name: str = "backup.sqlite") -> Path:
+    with Records.open(tmp_path / f"source-{name}") as source:
         _fill(source, names)
-        back_up(source, tmp_path / "backup.sqlite")
-    return tmp_path / "backup.sqlite"
+        back_up(source, tmp_path / name)
+    return tmp_path / name
 
 
 @contextlib.contextmanager
@@ -310,17 +314,6 @@ def test_the_leave_question_of_a_restore_speaks_of_the_restore(qtbot, window, an
 
 
 # ---- the window ------------------------------------------------------------------------------
-@pytest.fixture()
-def window(qtbot, vetfluid_home):
-    from ui.main_window import MainWindow
-
-    win = MainWindow()
-    qtbot.addWidget(win)
-    win.resize(1200, 800)
-    win.show()
-    qtbot.waitUntil(lambda: win.session is not None)
-    assert win.records is not None, win.keeper.work.problem
-    return win
 
 
 def _save(qtbot, window, name: str) -> None:  # noqa: ANN001

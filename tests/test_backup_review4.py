@@ -9,6 +9,9 @@ The expected behaviour is the review's (each test names its finding) and the pro
 specification (DEVELOPERS.md, "Nothing recorded is lost"); SQLite's documentation is the
 source for its column types (sqlite.org/datatype3.html, "typeof")."""
 
+# the window fixture is tests/test_backup_window.py's, imported; tests name it as a parameter
+# ruff: noqa: F811
+
 from __future__ import annotations
 
 import os
@@ -20,32 +23,12 @@ from pathlib import Path
 import pytest
 from PySide6.QtWidgets import QMessageBox
 
+from tests.test_backup_review3 import LEAVE, REPLACE, _backup_of, _fill, _names
+from tests.test_backup_window import window  # noqa: F401
 from vetfluid.planning.demos import DEMOS
-from vetfluid.planning.plan import build_plan
 from vetfluid.records.backups import back_up, restore_records
 from vetfluid.records.serialize import request_to_dict
 from vetfluid.records.store import DATABASE_NAME, Records, RecordsError
-
-REPLACE = "Replace the records with the backup"
-LEAVE = "This plan, or what was recorded"
-
-
-def _fill(records: Records, names: list[str]) -> None:
-    plan = build_plan(DEMOS["dehydrated_dog"].request)
-    for name in names:
-        pid = records.add_patient(name=name, species_id="dog")
-        records.save_version(patient_id=pid, plan=plan, acknowledged={}, author="AB")
-
-
-def _names(records: Records) -> list[str]:
-    return sorted(p.name for p in records.find_patients(""))
-
-
-def _backup_of(tmp_path: Path, names: list[str], name: str = "backup.sqlite") -> Path:
-    with Records.open(tmp_path / f"source-{name}") as source:
-        _fill(source, names)
-        back_up(source, tmp_path / name)
-    return tmp_path / name
 
 
 def _legacy_draft(patient_id: int, **more: object) -> dict:
@@ -293,19 +276,6 @@ def _save(qtbot, window, name: str) -> None:  # noqa: ANN001
     window.open_demo("dehydrated_dog")
     qtbot.waitUntil(lambda: window.session.plan is not None)
     assert window.save_version(name=name, author="AB") is not None
-
-
-@pytest.fixture()
-def window(qtbot, vetfluid_home):
-    from ui.main_window import MainWindow
-
-    win = MainWindow()
-    qtbot.addWidget(win)
-    win.resize(1200, 800)
-    win.show()
-    qtbot.waitUntil(lambda: win.session is not None)
-    assert win.records is not None, win.keeper.work.problem
-    return win
 
 
 # ---- 4: a restore killed midway leaves nothing behind for long -----------------------------
