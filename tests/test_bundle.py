@@ -213,6 +213,37 @@ def test_the_window_starts_and_keeps_running(installed, tmp_path):
     assert not log.exists() or "Traceback" not in log.read_text(encoding="utf-8")
 
 
+def test_a_second_start_hands_its_plan_file_to_the_running_window(installed, tmp_path):
+    """A plan file double-clicked while the bundle's window is open: the second start hands
+    it to that window and ends with 0 (ui/one_window.py; Qt's local sockets are in the
+    bundle); the window keeps running."""
+    from ui.one_window import socket_name
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+
+    env = _env(tmp_path)
+    plan = write_request_file(tmp_path / "dog.vfplan", demo(DEMO).request, {})
+    with subprocess.Popen(
+        [*_offline(), str(installed)], env=env, cwd=tmp_path,
+        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+    ) as window:  # fmt: skip
+        listening = Path(socket_name(Path(env["VETFLUID_HOME"])))
+        deadline = time.monotonic() + 60
+        while not listening.exists() and window.poll() is None and time.monotonic() < deadline:
+            time.sleep(0.1)
+        second = _run(installed, str(plan), home=tmp_path)
+        running = window.poll() is None
+        window.terminate()
+        _, stderr = window.communicate(timeout=30)
+    assert listening.exists() or not running, stderr
+    assert second.returncode == 0, second.stderr
+    assert second.stdout == (
+        "vetfluid is already open with this data folder: its window opens the plan file.\n"
+    )
+    assert running, stderr
+    assert "Traceback" not in stderr + second.stderr
+
+
 @pytest.mark.parametrize("suffix", [".ico", ".icns"])
 def test_the_windows_and_macos_icons_are_drawn_from_the_svg(tmp_path, suffix):
     """PyInstaller takes no SVG for an executable's icon: the build draws icons/vetfluid.svg

@@ -10,7 +10,10 @@ import sys
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
+    from collections.abc import Callable
     from pathlib import Path
+
+    from ui.one_window import WindowLock
 
 
 def sheet_command(argv: list[str]) -> int:
@@ -556,8 +559,98 @@ def main(argv: list[str] | None = None) -> int:
     app = QApplication.instance() or QApplication(program)
     app.setApplicationName("vetfluid")
     app.setOrganizationName("vetfluid")
-    window = open_window(plan_file)  # noqa: F841 (kept alive while the loop runs)
-    return app.exec()
+    from PySide6.QtCore import QTimer
+
+    from ui.one_window import Claim, WindowLock
+    from vetfluid.common.paths import user_data_dir
+
+    lock = WindowLock(user_data_dir())
+    claimed = lock.claim()  # unlockable: a folder nothing can be saved in, said in the window
+    if claimed is Claim.HELD:
+        ended = another_window_open(lock, plan_file)
+        if ended is not None:
+            return ended
+        claimed = Claim.OURS
+    window = open_window(plan_file)
+
+    def listen() -> None:  # after the first paint: a second start hands its file over
+        if lock.serve():
+            lock.asked.connect(window.come_forward)
+
+    if claimed is Claim.OURS:
+        QTimer.singleShot(0, listen)
+    try:
+        return app.exec()
+    finally:
+        lock.release()
+
+
+def another_window_open(
+    lock: WindowLock,
+    plan_file: str | None,
+    *,
+    ask: Callable[[str, str], bool] | None = None,
+    tell: Callable[[str], None] | None = None,
+) -> int | None:
+    """vetfluid is already open on this data folder: its window is asked to come forward
+    and open ``plan_file``, and this start ends (0). When it cannot be asked (on another
+    computer, or it does not answer) the user is told why two windows must not share the
+    folder and may take the lock over: None (go on) once taken, else 1. Qt gives the lock
+    up only when its holder no longer holds it (a process number now used by another
+    program, a computer switched off): a window still running keeps it, and the user is
+    told to close that one first. ``ask(text, detail)`` puts the question and ``tell(text)``
+    the answer (message boxes by default: a double-clicked file has no terminal)."""
+    from ui.one_window import Claim
+
+    holder = lock.holder()
+    if holder is None and lock.claim() is Claim.OURS:  # the other window closed meanwhile
+        return None
+    if holder is not None and holder.here and lock.hand_over(plan_file):
+        said = "its window opens the plan file" if plan_file else "its window was brought forward"
+        sys.stdout.write(f"vetfluid is already open with this data folder: {said}.\n")
+        return 0
+    who = holder.words() if holder is not None else "another process"
+    text = f"vetfluid is already open with the data folder {lock.folder} ({who})" + (
+        ", but its window does not answer." if holder is None or holder.here else "."
+    )
+    detail = (
+        "Two vetfluid windows on one data folder would overwrite each other's unsaved "
+        "plan. Use the window that is open.\n\nTake over only if no vetfluid window is "
+        "open there any more (it stopped, or that computer was switched off): the plan it "
+        "left unsaved, if any, is then offered as a draft."
+    )
+    if not (ask or _ask_take_over)(text, detail):
+        sys.stderr.write(f"vetfluid: {text} Use that window.\n")
+        return 1
+    if lock.take_over():
+        return None
+    still = (
+        f"vetfluid is still running with the data folder {lock.folder} ({who}), so its lock "
+        "was not taken over. Close that window, or end that process, then start vetfluid "
+        "again."
+    )
+    sys.stderr.write(f"vetfluid: {still}\n")
+    (tell or _tell)(still)
+    return 1
+
+
+def _ask_take_over(text: str, detail: str) -> bool:
+    from PySide6.QtWidgets import QMessageBox
+
+    box = QMessageBox(QMessageBox.Icon.Warning, "vetfluid", text)
+    box.setInformativeText(detail)
+    leave = box.addButton("Quit", QMessageBox.ButtonRole.RejectRole)
+    take = box.addButton("Take over", QMessageBox.ButtonRole.DestructiveRole)
+    box.setDefaultButton(leave)
+    box.setEscapeButton(leave)
+    box.exec()
+    return box.clickedButton() is take
+
+
+def _tell(text: str) -> None:
+    from PySide6.QtWidgets import QMessageBox
+
+    QMessageBox.warning(None, "vetfluid", text)
 
 
 def open_window(plan_file: str | None = None):  # noqa: ANN201 — MainWindow, imported late

@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING
 from PySide6.QtCore import QEvent, QSettings, QTimer
 from PySide6.QtGui import QAction, QIcon, QKeySequence
 from PySide6.QtWidgets import (
+    QApplication,
     QFileDialog,
     QLabel,
     QMainWindow,
@@ -59,6 +60,7 @@ class MainWindow(QMainWindow):
         self.timeline_view = None
         self.course_view = None
         self.species_view = None
+        self._asked_to_open: list[Path] = []  # plan files a second start handed over
         self.setWindowIcon(icon("vetfluid"))
         self.setWindowTitle("vetfluid")
 
@@ -597,6 +599,31 @@ class MainWindow(QMainWindow):
         )
         if name:
             self.read_request(Path(name))
+
+    def come_forward(self, plan_file: str) -> None:
+        """A second start asked for this window (:mod:`ui.one_window`): it comes to the
+        front, and the plan file it was given ("" for none) opens by File ▸ Open's path once
+        no question is open here (a question first would be answered for the wrong file)."""
+        if self.isMinimized():
+            self.showNormal()
+        self.raise_()
+        self.activateWindow()
+        if plan_file:
+            self._asked_to_open.append(Path(plan_file))
+            self._open_handed_over()
+
+    def _open_handed_over(self) -> None:
+        if not self._asked_to_open or self._closed:
+            return
+        if QApplication.activeModalWidget() is not None:
+            waiting = ", ".join(p.name for p in self._asked_to_open)
+            self.statusBar().showMessage(
+                f"{waiting} waits to open: answer the open question first."
+            )
+            QTimer.singleShot(500, self._open_handed_over)
+            return
+        self.read_request(self._asked_to_open.pop(0))
+        QTimer.singleShot(0, self._open_handed_over)  # the next, after this one's questions
 
     def read_request(self, path: Path) -> bool:
         from vetfluid.records.request_file import read_request_file
