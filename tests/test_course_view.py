@@ -634,3 +634,41 @@ def test_edit_recompute_redraw_with_the_course_tab_showing(qtbot, planner, bench
     benchmark.pedantic(edit, rounds=150, warmup_rounds=20)
     benchmark.extra_info["target_median_ms"] = 8
     assert window.course_view.isVisible()
+
+
+@pytest.mark.benchmark
+def test_six_plain_pyqtgraph_plots_redrawn_for_comparison(qtbot, benchmark):
+    """Not vetfluid: the same day's yardstick for the test above. Six plots of three
+    60-point curves each, with titles, legends and grids, at the Course tab's size, as
+    pyqtgraph draws them out of the box (fixed ranges), given new data and redrawn."""
+    import pyqtgraph as pg
+
+    layout = pg.GraphicsLayoutWidget()
+    qtbot.addWidget(layout)
+    layout.resize(940, 600)
+    layout.show()
+    curves = []
+    for row in range(3):
+        for column in range(2):
+            plot = layout.addPlot(row=row, col=column, title="A plot's title")
+            plot.addLegend(offset=(-1, 1))
+            plot.setLabel("left", "Value (unit)")
+            plot.setLabel("bottom", "Time (h)")
+            plot.showGrid(x=True, y=True, alpha=0.2)
+            plot.setXRange(0.0, 96.0)
+            plot.setYRange(-1.5, 1.5)
+            curves += [
+                plot.plot(name=f"line {k}", pen=pg.mkPen(pg.intColor(k), width=2), antialias=True)
+                for k in range(3)
+            ]
+    hours = np.linspace(0.0, 96.0, 60)
+    shifts = iter(range(1_000_000))
+
+    def edit() -> None:
+        shift = 0.01 * (next(shifts) % 4)
+        for k, curve in enumerate(curves):
+            curve.setData(hours, np.sin(hours / 10.0 + k) + shift)
+        QApplication.processEvents()
+
+    benchmark.pedantic(edit, rounds=100, warmup_rounds=10)
+    assert all(len(curve.getData()[0]) == 60 for curve in curves)
