@@ -559,8 +559,6 @@ def main(argv: list[str] | None = None) -> int:
     app = QApplication.instance() or QApplication(program)
     app.setApplicationName("vetfluid")
     app.setOrganizationName("vetfluid")
-    from PySide6.QtCore import QTimer
-
     from ui.one_window import Claim, WindowLock
     from vetfluid.common.paths import user_data_dir
 
@@ -571,14 +569,12 @@ def main(argv: list[str] | None = None) -> int:
         if ended is not None:
             return ended
         claimed = Claim.OURS
+    # listening before the window is built: a second start is answered from the event
+    # loop's first turn, and what it hands over waits in the window's queue
+    listening = claimed is Claim.OURS and lock.serve()
     window = open_window(plan_file)
-
-    def listen() -> None:  # after the first paint: a second start hands its file over
-        if lock.serve():
-            lock.asked.connect(window.come_forward)
-
-    if claimed is Claim.OURS:
-        QTimer.singleShot(0, listen)
+    if listening:
+        lock.asked.connect(window.come_forward)
     try:
         return app.exec()
     finally:
@@ -591,28 +587,43 @@ def another_window_open(
     *,
     ask: Callable[[str, str], bool] | None = None,
     tell: Callable[[str], None] | None = None,
+    patience_s: float | None = None,
 ) -> int | None:
     """vetfluid is already open on this data folder: its window is asked to come forward
-    and open ``plan_file``, and this start ends (0). When it cannot be asked (on another
+    and open ``plan_file``, and this start ends (0). A window that closes meanwhile leaves
+    the lock to this start (None: go on). When the window cannot be asked (on another
     computer, or it does not answer) the user is told why two windows must not share the
-    folder and may take the lock over: None (go on) once taken, else 1. Qt gives the lock
-    up only when its holder no longer holds it (a process number now used by another
-    program, a computer switched off): a window still running keeps it, and the user is
-    told to close that one first. ``ask(text, detail)`` puts the question and ``tell(text)``
-    the answer (message boxes by default: a double-clicked file has no terminal)."""
-    from ui.one_window import Claim
+    folder and may take the lock over: None once taken, else 1. Qt gives the lock up only
+    when its holder no longer holds it (a process number now another program's, a
+    computer switched off), so a window still running keeps it and the user is told to
+    close that one first. ``ask(text, detail)`` puts the question and ``tell(text)`` the
+    answer (message boxes by default: a double-clicked file has no terminal);
+    ``patience_s``: how long the window is waited for (PATIENCE_S)."""
+    from ui.one_window import PATIENCE_S, Reached
 
+    patience_s = PATIENCE_S if patience_s is None else patience_s
     holder = lock.holder()
-    if holder is None and lock.claim() is Claim.OURS:  # the other window closed meanwhile
-        return None
-    if holder is not None and holder.here and lock.hand_over(plan_file):
-        said = "its window opens the plan file" if plan_file else "its window was brought forward"
-        sys.stdout.write(f"vetfluid is already open with this data folder: {said}.\n")
-        return 0
-    who = holder.words() if holder is not None else "another process"
-    text = f"vetfluid is already open with the data folder {lock.folder} ({who})" + (
-        ", but its window does not answer." if holder is None or holder.here else "."
-    )
+    if holder is None or holder.here:
+        reached = lock.hand_over(plan_file, patience_s)
+        if reached is Reached.HANDED:
+            said = "its window opens the plan file" if plan_file else "it was brought forward"
+            sys.stdout.write(f"vetfluid is already open with this data folder: {said}.\n")
+            return 0
+        if reached is Reached.OURS:
+            return None
+    folder = lock.folder
+    if holder is None:
+        text = (
+            f"The data folder {folder} is locked ({lock.lock_path.name}), by no vetfluid "
+            "window that answers."
+        )
+    elif holder.here:
+        text = (
+            f"vetfluid is already open with the data folder {folder} ({holder.words()}), "
+            f"but its window has not answered for {patience_s:.0f} seconds."
+        )
+    else:
+        text = f"vetfluid is already open with the data folder {folder} ({holder.words()})."
     detail = (
         "Two vetfluid windows on one data folder would overwrite each other's unsaved "
         "plan. Use the window that is open.\n\nTake over only if no vetfluid window is "
@@ -624,11 +635,17 @@ def another_window_open(
         return 1
     if lock.take_over():
         return None
-    still = (
-        f"vetfluid is still running with the data folder {lock.folder} ({who}), so its lock "
-        "was not taken over. Close that window, or end that process, then start vetfluid "
-        "again."
-    )
+    if holder is None:
+        still = (
+            f"The lock {lock.lock_path} could not be taken over. Remove it, then start "
+            "vetfluid again."
+        )
+    else:
+        still = (
+            f"vetfluid is still running with the data folder {folder} ({holder.words()}), "
+            "so its lock was not taken over. Close that window, or end that process, then "
+            "start vetfluid again."
+        )
     sys.stderr.write(f"vetfluid: {still}\n")
     (tell or _tell)(still)
     return 1
@@ -660,19 +677,12 @@ def open_window(plan_file: str | None = None):  # noqa: ANN201 — MainWindow, i
     a file that cannot be read is a message, not a crash)."""
     from pathlib import Path
 
-    from PySide6.QtCore import QTimer
-
     from ui.main_window import MainWindow
 
     window = MainWindow()
     window.show()
     if plan_file is not None:
-
-        def open_plan_file() -> None:
-            window.build_planner()  # queues the draft offer first
-            QTimer.singleShot(0, lambda: window.read_request(Path(plan_file)))
-
-        QTimer.singleShot(0, open_plan_file)
+        window.open_when_ready(Path(plan_file))
     return window
 
 

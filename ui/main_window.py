@@ -60,7 +60,9 @@ class MainWindow(QMainWindow):
         self.timeline_view = None
         self.course_view = None
         self.species_view = None
-        self._asked_to_open: list[Path] = []  # plan files a second start handed over
+        self._files_to_open: list[Path] = []  # given at start, or by a second start
+        self._waiting_words = ""  # what the status line says of them while they wait
+        self._started = False  # the planner is built and the draft left last time offered
         self.setWindowIcon(icon("vetfluid"))
         self.setWindowTitle("vetfluid")
 
@@ -199,7 +201,7 @@ class MainWindow(QMainWindow):
         self.keeper = WorkKeeper(
             self.session, self, save_version=lambda **kw: self.save_version(**kw)
         )
-        QTimer.singleShot(0, self.keeper.offer_draft)  # the draft left last time
+        QTimer.singleShot(0, self._offer_draft_at_start)
         self.session.recompute()
         self._page_opened(self.pages.currentIndex())
 
@@ -600,30 +602,48 @@ class MainWindow(QMainWindow):
         if name:
             self.read_request(Path(name))
 
-    def come_forward(self, plan_file: str) -> None:
-        """A second start asked for this window (:mod:`ui.one_window`): it comes to the
-        front, and the plan file it was given ("" for none) opens by File ▸ Open's path once
-        no question is open here (a question first would be answered for the wrong file)."""
-        if self.isMinimized():
-            self.showNormal()
+    def _offer_draft_at_start(self) -> None:
+        """The draft left last time is offered before any plan file opens: a file opened
+        first would be replaced by the draft's answer, or asked about inside it."""
+        if self._closed:
+            return
+        self.keeper.offer_draft()
+        self._started = True
+        self._open_waiting_files()
+
+    def come_forward(self, plan_file: Path | None) -> None:
+        """A second start asked for this window (:mod:`ui.one_window`): to the front, and
+        its plan file (None: none) opens as :meth:`open_when_ready` says."""
+        from PySide6.QtCore import Qt
+
+        self.setWindowState(self.windowState() & ~Qt.WindowState.WindowMinimized)
+        self.show()
         self.raise_()
         self.activateWindow()
-        if plan_file:
-            self._asked_to_open.append(Path(plan_file))
-            self._open_handed_over()
+        if plan_file is not None:
+            self.open_when_ready(plan_file)
 
-    def _open_handed_over(self) -> None:
-        if not self._asked_to_open or self._closed:
+    def open_when_ready(self, path: Path) -> None:
+        """Open a plan file by File ▸ Open's path once the window is ready for it: the
+        planner built, the draft left last time offered, and no dialog open (a question
+        answered for the wrong file). Files given meanwhile open in turn."""
+        self._files_to_open.append(path)
+        self._open_waiting_files()
+
+    def _open_waiting_files(self) -> None:
+        if not self._files_to_open or self._closed:
             return
-        if QApplication.activeModalWidget() is not None:
-            waiting = ", ".join(p.name for p in self._asked_to_open)
-            self.statusBar().showMessage(
-                f"{waiting} waits to open: answer the open question first."
-            )
-            QTimer.singleShot(500, self._open_handed_over)
+        if not self._started or QApplication.activeModalWidget() is not None:
+            if self._started:  # a dialog is open: said, so nobody waits unknowingly
+                names = ", ".join(p.name for p in self._files_to_open)
+                self._waiting_words = f"{names}: opens when the open dialog is closed."
+                self.statusBar().showMessage(self._waiting_words)
+            QTimer.singleShot(300, self._open_waiting_files)
             return
-        self.read_request(self._asked_to_open.pop(0))
-        QTimer.singleShot(0, self._open_handed_over)  # the next, after this one's questions
+        if self.statusBar().currentMessage() == self._waiting_words:
+            self.statusBar().clearMessage()
+        self.read_request(self._files_to_open.pop(0))
+        QTimer.singleShot(0, self._open_waiting_files)  # the next, after this one's questions
 
     def read_request(self, path: Path) -> bool:
         from vetfluid.records.request_file import read_request_file

@@ -5,13 +5,14 @@ unsaved plan, and a window starting beside a running one would offer that window
 draft as the work of a crash. So the first window holds a lock in the data folder and
 listens on a local socket; a second start hands what it was asked to open (a plan file
 double-clicked in the file manager, or nothing) to that window and ends. The window comes
-to the front and opens the file by File ▸ Open's own path (a question about the plan on
-screen comes first, and a file that cannot be read is a message).
+to the front and opens the file by File ▸ Open's own path once it is ready
+(:meth:`ui.main_window.MainWindow.open_when_ready`).
 
 The lock is Qt's :class:`QLockFile`: a lock left by a process that has died (a crash, a
 power cut) is taken over at the next start, so a crash never locks vetfluid out. A lock
 held on another computer (a data folder on a network share), or by a process that does
-not answer, is said in words, and the user may take it over knowingly.
+not answer, is said in words, and the user may take it over knowingly; Qt refuses while
+the holder still holds it.
 """
 
 from __future__ import annotations
@@ -27,27 +28,45 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from PySide6.QtCore import QLockFile, QObject, QTimer, Signal
+from PySide6.QtCore import QLockFile, QObject, QStandardPaths, QTimer, Signal
 
-if TYPE_CHECKING:  # QtNetwork loads when it is used: after the window's first paint
+if TYPE_CHECKING:
     from PySide6.QtNetwork import QLocalServer, QLocalSocket
 
 LOCK_NAME = "window.lock"
 SOCKET_NAME = "window.socket"
-# a Unix socket's path has room for about 107 bytes; longer data-folder paths use a name
+# a Unix socket's path has room for about 107 bytes; a longer data-folder path puts the
+# socket in this user's private runtime folder instead
 SOCKET_PATH_LIMIT = 100
 MESSAGE_LIMIT_BYTES = 64 * 1024  # a path and a word: anything longer is not ours
-ANSWER_TIMEOUT_MS = 3000  # a window busy painting a 14-day course answers well within this
-# a second start a moment after the first may find the lock taken before the first listens
-CONNECT_ATTEMPTS = 10
-CONNECT_PAUSE_MS = 300
+OPEN_CONNECTIONS_LIMIT = 16  # more at once is not a person double-clicking files
+IDLE_CONNECTION_MS = 5000  # a connection that sends no whole request is dropped after this
+# how long a second start waits for the window: one that is still starting (a slow clinic
+# computer builds the planner before it looks at its socket) or busy answers within this
+PATIENCE_S = 20.0
+RETRY_PAUSE_S = 0.25
 ANSWER = b"opened\n"
 
 
 class Claim(enum.Enum):
     OURS = "ours"  # this process holds the lock
-    HELD = "held"  # another live process holds it (see :meth:`WindowLock.holder`)
+    HELD = "held"  # another process holds it (see :meth:`WindowLock.holder`)
     UNLOCKABLE = "unlockable"  # no lock can be made there (the folder cannot be written)
+
+
+class Reached(enum.Enum):
+    """What a second start's :meth:`WindowLock.hand_over` came to."""
+
+    HANDED = "handed"  # the window took the request
+    OURS = "ours"  # the window closed meanwhile: the lock is this start's now
+    SILENT = "silent"  # nothing answered within PATIENCE_S
+
+
+@dataclass(frozen=True)
+class Request:
+    """A second start's request: come forward, and open ``plan_file`` when one is given."""
+
+    plan_file: Path | None
 
 
 @dataclass(frozen=True)
@@ -69,18 +88,20 @@ class Holder:
 class WindowLock(QObject):
     """The data folder's window lock, and the socket the window holding it listens on."""
 
-    #: a second start asked for the window: the plan file to open (absolute), or "" for none
-    asked = Signal(str)
+    #: a second start asked for the window: the plan file to open (an absolute Path), or
+    #: None to come forward only (a Path, not text: a file name need not be UTF-8)
+    asked = Signal(object)
 
     def __init__(self, folder: Path) -> None:
         super().__init__()
-        self.folder = folder
-        self._lock = QLockFile(str(folder / LOCK_NAME))
+        self.folder = folder.absolute()
+        self.lock_path = self.folder / LOCK_NAME
+        self._lock = QLockFile(str(self.lock_path))
         # never stale by age: a window open for a week still holds it; a dead holder's lock
         # is taken over by Qt's check that its process is gone
         self._lock.setStaleLockTime(0)
         self._server: QLocalServer | None = None
-        self.problem = ""  # why no lock could be made (Claim.UNLOCKABLE), in words
+        self._connections: set[QLocalSocket] = set()
 
     # ---- the lock ----------------------------------------------------------------------------
     def claim(self) -> Claim:
@@ -88,29 +109,25 @@ class WindowLock(QObject):
             return Claim.OURS
         if self._lock.error() == QLockFile.LockError.LockFailedError:
             return Claim.HELD
-        self.problem = (
-            f"no lock could be made in the data folder {self.folder}, so a second vetfluid "
-            "window on it would not be noticed"
-        )
-        return Claim.UNLOCKABLE
+        return Claim.UNLOCKABLE  # the window says why nothing can be kept in the folder
 
     def holder(self) -> Holder | None:
+        """Who the lock file names; None when it names no one (empty, damaged, a folder)."""
         info = self._lock.getLockInfo()  # (pid, host, program); pid 0 when there is none
         pid, host = (info[0], info[1]) if isinstance(info, tuple) and len(info) == 3 else (0, "")
         return Holder(int(pid), str(host)) if pid else None
 
     def take_over(self) -> bool:
         """Take the lock from a holder the user says is gone (a window on another computer
-        that crashed, or one that does not answer): True when it is now ours."""
+        that crashed, a process number now another program's): True when it is now ours.
+        Qt removes the lock file only when no process holds it."""
         self._lock.removeStaleLockFile()
         return self._lock.tryLock(0)
 
     def release(self) -> None:
         """Stop listening and unlock (vetfluid is closing)."""
         if self._server is not None:
-            from PySide6.QtNetwork import QLocalSocket
-
-            for connection in self._server.findChildren(QLocalSocket):
+            for connection in list(self._connections):
                 self._drop(connection)  # one still being answered ends here, not later
             self._server.close()
             self._server = None
@@ -119,7 +136,7 @@ class WindowLock(QObject):
     # ---- the window holding it ---------------------------------------------------------------
     def serve(self) -> bool:
         """Listen for a second start (only while the lock is ours): False when no socket
-        could be made, so a second start is told that this window does not answer."""
+        could be made, so a second start finds no one to hand its file to."""
         from PySide6.QtNetwork import QLocalServer
 
         name = socket_name(self.folder)
@@ -137,89 +154,128 @@ class WindowLock(QObject):
     def _take_connections(self) -> None:
         while self._server is not None and self._server.hasPendingConnections():
             connection = self._server.nextPendingConnection()
+            if len(self._connections) >= OPEN_CONNECTIONS_LIMIT:
+                connection.abort()
+                connection.deleteLater()
+                continue
+            self._connections.add(connection)
             connection.readyRead.connect(self._read_sender)
+            connection.disconnected.connect(self._forget_sender)
+            QTimer.singleShot(IDLE_CONNECTION_MS, connection, lambda c=connection: self._drop(c))
             self._read(connection)
 
     def _read_sender(self) -> None:
-        from PySide6.QtNetwork import QLocalSocket
+        if self.sender() in self._connections:
+            self._read(self.sender())
 
-        connection = self.sender()
-        if isinstance(connection, QLocalSocket):
-            self._read(connection)
+    def _forget_sender(self) -> None:
+        if self.sender() in self._connections:
+            self._drop(self.sender())
 
     def _read(self, connection: QLocalSocket) -> None:
         if not connection.canReadLine():
             if connection.bytesAvailable() > MESSAGE_LIMIT_BYTES:
                 self._drop(connection)  # not ours: dropped unread
             return
-        path = read_message(bytes(connection.readLine(MESSAGE_LIMIT_BYTES).data()))
-        if path is None:
+        request = read_message(bytes(connection.readLine(MESSAGE_LIMIT_BYTES).data()))
+        if request is None:
             self._drop(connection)
             return
         connection.write(ANSWER)
         connection.flush()
+        self._connections.discard(connection)
         connection.disconnectFromServer()  # once the answer is written
         connection.deleteLater()
         # the window opens the file on the next turn, not inside this socket's signal: its
         # questions run event loops of their own
-        QTimer.singleShot(0, lambda: self.asked.emit(path))
+        QTimer.singleShot(0, self, lambda: self.asked.emit(request.plan_file))
 
-    @staticmethod
-    def _drop(connection: QLocalSocket) -> None:
-        connection.readyRead.disconnect()
-        connection.abort()
-        connection.deleteLater()
+    def _drop(self, connection: QLocalSocket) -> None:
+        if connection in self._connections:
+            self._connections.discard(connection)
+            connection.abort()
+            connection.deleteLater()
 
     # ---- a second start ----------------------------------------------------------------------
-    def hand_over(self, plan_file: str | None) -> bool:
+    def hand_over(self, plan_file: str | None, patience_s: float = PATIENCE_S) -> Reached:
         """Ask the window holding the lock to come forward and open ``plan_file`` (read from
-        this process's folder); True once it has answered."""
+        this process's folder). Tried again until it answers, the lock is free (the window
+        closed meanwhile: it is then this start's), or ``patience_s`` has passed."""
         from PySide6.QtNetwork import QLocalSocket
 
-        message = write_message(None if plan_file is None else str(Path(plan_file).absolute()))
-        for attempt in range(CONNECT_ATTEMPTS):
+        path = None if plan_file is None else Path(plan_file).absolute()
+        message = write_message(path)
+        deadline = time.monotonic() + patience_s
+        while True:
+            if self.claim() is Claim.OURS:
+                return Reached.OURS
             connection = QLocalSocket()
             connection.connectToServer(socket_name(self.folder))
-            if connection.waitForConnected(ANSWER_TIMEOUT_MS):
+            if connection.waitForConnected(1000):
                 connection.write(message)
-                connection.waitForBytesWritten(ANSWER_TIMEOUT_MS)
+                connection.waitForBytesWritten(1000)
                 answered = b""
-                while len(answered) < len(ANSWER) and connection.waitForReadyRead(
-                    ANSWER_TIMEOUT_MS
-                ):
+                while len(answered) < len(ANSWER):
+                    left_ms = int((deadline - time.monotonic()) * 1000)
+                    if left_ms <= 0 or not connection.waitForReadyRead(min(left_ms, 1000)):
+                        if connection.state() != QLocalSocket.LocalSocketState.ConnectedState:
+                            break  # dropped (a window closing): try again
+                        if left_ms <= 0:
+                            break
+                        continue
                     answered += bytes(connection.readAll().data())
-                connection.disconnectFromServer()
-                return answered == ANSWER
-            if attempt + 1 < CONNECT_ATTEMPTS:
-                time.sleep(CONNECT_PAUSE_MS / 1000.0)
-        return False
+                connection.abort()
+                if answered == ANSWER:
+                    return Reached.HANDED
+            if time.monotonic() >= deadline:
+                return Reached.SILENT
+            time.sleep(RETRY_PAUSE_S)
 
 
 def socket_name(folder: Path) -> str:
     """Where the window listens: a socket inside the data folder (only its owner can reach
-    it) where the path fits, else a name derived from the folder (Windows' named pipes,
-    long paths), kept to this user by :attr:`QLocalServer.UserAccessOption`."""
+    it) where the path fits; else one in this user's private runtime folder; on Windows a
+    named pipe named after the folder, kept to this user by UserAccessOption."""
+    folder = folder.absolute()
+    digest = hashlib.sha256(os.fsencode(folder)).hexdigest()[:24]
+    name = f"vetfluid-window-{digest}"
+    if sys.platform == "win32":
+        return name
     inside = folder / SOCKET_NAME
-    if sys.platform != "win32" and len(os.fsencode(inside)) <= SOCKET_PATH_LIMIT:
+    if len(os.fsencode(inside)) <= SOCKET_PATH_LIMIT:
         return str(inside)
-    digest = hashlib.sha256(os.fsencode(folder.absolute())).hexdigest()[:24]
-    return f"vetfluid-window-{digest}"
+    # Qt makes this folder the user's own (0700) and refuses one another user made
+    private = QStandardPaths.writableLocation(QStandardPaths.StandardLocation.RuntimeLocation)
+    if private and len(os.fsencode(Path(private) / name)) <= SOCKET_PATH_LIMIT:
+        return str(Path(private) / name)
+    return name  # the shared temporary folder: the last resort
 
 
-def write_message(plan_file: str | None) -> bytes:
-    return json.dumps({"open": plan_file or ""}, ensure_ascii=True).encode("ascii") + b"\n"
+def write_message(plan_file: Path | None) -> bytes:
+    """A request: the file's name as the system's bytes, in hexadecimal (a name need not
+    be UTF-8); empty for none."""
+    encoded = b"" if plan_file is None else os.fsencode(plan_file)
+    return json.dumps({"open": encoded.hex()}).encode("ascii") + b"\n"
 
 
-def read_message(line: bytes) -> str | None:
-    """The plan file a second start asks to open ("" for none), or None when the line is
-    not such a request."""
+def read_message(line: bytes) -> Request | None:
+    """The request a line holds, or None when it is not one (not ours: dropped)."""
     try:
         message = json.loads(line.decode("ascii"))
     except (UnicodeDecodeError, ValueError):
         return None
     if not isinstance(message, dict) or set(message) != {"open"}:
         return None
-    path = message["open"]
-    if not isinstance(path, str) or "\x00" in path or (path and not Path(path).is_absolute()):
+    text = message["open"]
+    if not isinstance(text, str):
         return None
-    return path
+    try:
+        encoded = bytes.fromhex(text)
+    except ValueError:
+        return None
+    if not encoded:
+        return Request(None)
+    path = Path(os.fsdecode(encoded))
+    if b"\x00" in encoded or not path.is_absolute():
+        return None  # a relative name: relative to which folder?
+    return Request(path)
