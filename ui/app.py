@@ -559,6 +559,8 @@ def main(argv: list[str] | None = None) -> int:
     app = QApplication.instance() or QApplication(program)
     app.setApplicationName("vetfluid")
     app.setOrganizationName("vetfluid")
+    from PySide6.QtCore import QTimer
+
     from ui.one_window import Claim, WindowLock
     from vetfluid.common.paths import user_data_dir
 
@@ -569,12 +571,15 @@ def main(argv: list[str] | None = None) -> int:
         if ended is not None:
             return ended
         claimed = Claim.OURS
-    # listening before the window is built: a second start is answered from the event
-    # loop's first turn, and what it hands over waits in the window's queue
-    listening = claimed is Claim.OURS and lock.serve()
     window = open_window(plan_file)
-    if listening:
-        lock.asked.connect(window.come_forward)
+
+    def listen() -> None:  # on the loop's first turn (Qt's network module loads after the
+        # first paint); what a second start hands over waits in the window's queue
+        if lock.serve():
+            lock.asked.connect(window.come_forward)
+
+    if claimed is Claim.OURS:
+        QTimer.singleShot(0, listen)
     try:
         return app.exec()
     finally:
