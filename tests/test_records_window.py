@@ -10,6 +10,7 @@ from PySide6.QtWidgets import QMessageBox
 from vetfluid.planning.demos import DEMOS
 from vetfluid.records.store import Records
 
+REAL_EXEC = QMessageBox.exec  # before the fixtures below replace it
 LEAVE = "This plan, or what was recorded"  # the question leaving unsaved work asks
 SAVE_AS_A_VERSION, KEEP_AS_DRAFT = "Save as a version…", "Keep as draft"  # its buttons' words
 
@@ -32,6 +33,8 @@ def press(monkeypatch):
     notes the question was asked) and then returns the button's words."""
 
     def set_presses(presses: dict) -> None:
+        earlier = QMessageBox.exec  # what answers the rest: `answer`'s, or a failure
+
         def click(box):  # noqa: ANN001, ANN202
             for words, label in presses.items():
                 if words in box.text():
@@ -39,8 +42,7 @@ def press(monkeypatch):
                     named = {b.text(): b for b in box.buttons()}
                     assert label in named, f"no button {label!r}: {sorted(named)}"
                     return box.standardButton(named[label]).value
-            raise AssertionError(f"the window asked a question the test did not answer: "
-                                 f"{box.text()}")  # fmt: skip
+            return earlier(box)
 
         monkeypatch.setattr(QMessageBox, "exec", click)
 
@@ -88,6 +90,42 @@ def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, answer):
     assert again.session.plan.request.dehydration_percent == 6.0
 
 
+def test_escape_on_the_draft_question_restores_the_draft(qtbot, planner, monkeypatch):
+    """Review finding: Esc on "Restore it?" discarded the draft (Qt's Esc means No in a
+    Yes/No box); the work session says Esc restores, and only an explicit No discards."""
+    from PySide6.QtCore import Qt, QTimer
+    from PySide6.QtTest import QTest
+    from PySide6.QtWidgets import QApplication
+
+    from ui.main_window import MainWindow
+
+    window = planner
+    window.open_demo("small_gerbil")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=6.0)
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
+    window.keeper.autosave()  # then a crash
+    monkeypatch.setattr(QMessageBox, "exec", REAL_EXEC)  # a real box, and a real Esc
+    seen = []
+
+    def press_escape() -> None:
+        box = QApplication.activeModalWidget()
+        if not isinstance(box, QMessageBox):
+            QTimer.singleShot(50, press_escape)
+            return
+        seen.append(box.text())
+        QTest.keyClick(box, Qt.Key.Key_Escape)
+
+    QTimer.singleShot(50, press_escape)
+    again = MainWindow()
+    qtbot.addWidget(again)
+    again.show()
+    qtbot.waitUntil(lambda: again.session is not None and again.session.plan is not None)
+    assert "stopped unexpectedly" in seen[0]
+    assert again.session.plan.request.dehydration_percent == 6.0
+    assert again.records.draft() is not None  # kept, not discarded
+
+
 def test_a_plan_left_unsaved_is_offered_back_as_left_not_as_a_crash(qtbot, planner, answer, press):
     window = planner
     window.open_demo("small_gerbil")
@@ -116,10 +154,8 @@ def test_closing_with_unsaved_edits_keeps_them_and_says_so(qtbot, planner, monke
     from ui.main_window import MainWindow
 
     asked = []
-    monkeypatch.setattr(
-        QMessageBox, "question",
-        lambda _parent, _title, text: asked.append(text) or QMessageBox.StandardButton.Yes,
-    )  # fmt: skip
+    monkeypatch.setattr(QMessageBox, "exec", lambda box: asked.append(box.text())
+                        or QMessageBox.StandardButton.Yes.value)  # fmt: skip
     again = MainWindow()
     qtbot.addWidget(again)
     again.show()
@@ -154,7 +190,7 @@ def test_declining_the_draft_clears_it(qtbot, planner, monkeypatch):
     window.session.acknowledge("OVERLOAD_RISK", "weighed 6-hourly")  # unsaved work
     window.keeper.autosave()
     assert window.records.draft() is not None
-    monkeypatch.setattr(QMessageBox, "question", lambda *a, **k: QMessageBox.StandardButton.No)
+    monkeypatch.setattr(QMessageBox, "exec", lambda _box: QMessageBox.StandardButton.No.value)
     assert not window.keeper.offer_draft()
     assert window.records.draft() is None
 

@@ -206,6 +206,13 @@ class WindowLock(QObject):
         path = None if plan_file is None else Path(plan_file).absolute()
         message = write_message(path)
         deadline = time.monotonic() + patience_s
+        holder = self.holder()
+        if sys.platform == "win32" and holder is not None:
+            # Windows lets a program bring its window to the front only when the program
+            # the user just started allows it
+            import ctypes
+
+            ctypes.windll.user32.AllowSetForegroundWindow(holder.pid)
         while True:
             if self.claim() is Claim.OURS:
                 return Reached.OURS

@@ -149,7 +149,9 @@ class WorkKeeper(QObject):
     def ask(self, question: Question) -> Answer:
         """The question in a message box with its buttons; closed without a button, its
         escape answer."""
-        if question.buttons:
+        if question.buttons or (
+            question.answers == (Answer.YES, Answer.NO) and question.escape is Answer.YES
+        ):  # Esc in a Yes/No box is Qt's No, and No discards a draft: its escape is set here
             return self._ask_with_named_buttons(question)
         show = QMessageBox.warning if question.warning else QMessageBox.question
         shown = [self.window, "vetfluid", question.text]
@@ -164,11 +166,14 @@ class WorkKeeper(QObject):
 
     def _ask_with_named_buttons(self, question: Question) -> Answer:
         """A question whose buttons say what each does ("Keep as draft", not "No"): the
-        standard buttons, relabelled, so Enter, Esc and the platform's order still apply."""
+        standard buttons, relabelled, so Enter, Esc and the platform's order still apply;
+        or with their own words and the question's escape on Esc."""
         kind = QMessageBox.Icon.Warning if question.warning else QMessageBox.Icon.Question
         box = QMessageBox(kind, "vetfluid", question.text, parent=self.window)
-        for answer, words in question.buttons:
-            box.addButton(_BUTTONS[answer]).setText(words)
+        for answer, words in question.buttons or [(a, "") for a in question.answers]:
+            button = box.addButton(_BUTTONS[answer])
+            if words:
+                button.setText(words)
         if question.default is not None:
             box.setDefaultButton(_BUTTONS[question.default])
         box.setEscapeButton(_BUTTONS[question.escape])
