@@ -25,6 +25,7 @@ from ui.one_window import (
     OPEN_CONNECTIONS_LIMIT,
     SOCKET_PATH_LIMIT,
     Claim,
+    Reached,
     Request,
     WindowLock,
     read_message,
@@ -489,3 +490,139 @@ def test_a_lock_that_names_no_one_is_said_in_words(vetfluid_home):
         f"The lock {vetfluid_home / LOCK_NAME} could not be taken over. Remove it, then start "
         "vetfluid again."
     ]
+
+
+def test_a_second_start_that_gave_up_leaves_nothing_to_open(qtbot, tmp_path, vetfluid_home):
+    """Review finding: a second start that gave up on a frozen window still had its file
+    opened when the window woke, once per try. The window now acts only on the second
+    start's GO, sent once it has the window's READY."""
+    import threading
+
+    lock = WindowLock(vetfluid_home)
+    assert lock.claim() is Claim.OURS
+    assert lock.serve()
+    asked = []
+    lock.asked.connect(asked.append)
+    plan = tmp_path / "dog.vfplan"
+    tried = []
+    second = WindowLock(vetfluid_home)
+    thread = threading.Thread(target=lambda: tried.append(second.hand_over(str(plan), 1.0)))
+    thread.start()
+    thread.join(timeout=30)  # this window is frozen meanwhile: no event loop runs
+    assert tried == [Reached.SILENT]
+    qtbot.wait(1000)  # it wakes and reads what waited in the socket
+    assert asked == []
+    assert not lock._connections
+    handed = []
+    thread = threading.Thread(target=lambda: handed.append(second.hand_over(str(plan), 10.0)))
+    thread.start()
+    qtbot.waitUntil(lambda: handed != [], timeout=15_000)
+    thread.join(timeout=30)
+    assert handed == [Reached.HANDED]
+    qtbot.waitUntil(lambda: asked == [plan])  # once, for the start that stayed
+    lock.release()
+
+
+def test_a_closing_window_takes_no_file_and_the_second_start_opens_it_itself(qtbot, vetfluid_home):
+    """Review finding: a window asked about closing took a handed-over file, said it would
+    open it, and closed. It now answers 'closing'; the second start waits and, once the
+    window has gone, opens its own."""
+    lock = WindowLock(vetfluid_home)
+    assert lock.claim() is Claim.OURS
+    assert lock.serve()
+    lock.accepting = lambda: False  # its close question is open
+    asked = []
+    lock.asked.connect(asked.append)
+    second = subprocess.Popen([VETFLUID], env=_env(vetfluid_home), stdout=subprocess.PIPE,
+                              stderr=subprocess.PIPE, text=True)  # fmt: skip
+    try:
+        qtbot.wait(2000)  # it is told 'closing', again and again
+        assert second.poll() is None and asked == []
+        lock.release()  # the window has gone
+
+        def taken() -> bool:
+            holder = WindowLock(vetfluid_home).holder()
+            return holder is not None and holder.pid == second.pid
+
+        qtbot.waitUntil(taken, timeout=30_000)
+        assert second.poll() is None  # its own window
+    finally:
+        second.kill()
+        second.communicate(timeout=30)
+
+
+def test_the_user_can_stop_waiting_for_a_window_that_does_not_answer(
+    silent_holder, vetfluid_home, capsys
+):
+    """Twenty silent seconds invite more double-clicks: after a second and a half a box
+    says what is waited for, and Cancel ends the wait (exit 1, said)."""
+    from ui.app import another_window_open
+
+    lock = WindowLock(vetfluid_home)
+    assert lock.claim() is Claim.HELD
+    waited = []
+
+    def waiting(seconds: float) -> bool:
+        waited.append(seconds)
+        return seconds < 0.5  # Cancel pressed at half a second
+
+    assert another_window_open(lock, None, ask=pytest.fail, tell=pytest.fail,
+                               waiting=waiting) == 1  # fmt: skip
+    assert 0.5 <= waited[-1] < 5
+    assert capsys.readouterr().err == (
+        "vetfluid: stopped waiting for the vetfluid window that is open.\n"
+    )
+
+
+def test_a_file_that_waited_while_another_plan_came_on_screen_asks_first(
+    qtbot, tmp_path, answer, vetfluid_home
+):
+    """Review finding: a file double-clicked while File ▸ Open's dialog was up replaced the
+    plan the clinician then picked in that dialog, unasked. It now asks, and No keeps the
+    plan on screen."""
+    from ui.app import open_window
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+
+    window = open_window()
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None and window._started)
+    dragon = write_request_file(tmp_path / "dragon.vfplan", demo("cold_bearded_dragon").request, {})
+    dialog = QMessageBox(QMessageBox.Icon.Question, "vetfluid", "Open which file?", parent=window)
+    dialog.open()
+    qtbot.waitUntil(lambda: QApplication.activeModalWidget() is dialog)
+    window.come_forward(dragon)  # double-clicked meanwhile
+    window.open_demo("renal_cat")  # what the clinician picked in the dialog
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    asked = []
+    answer({"was opened from outside vetfluid": lambda: asked.append(1)
+            or QMessageBox.StandardButton.No})  # fmt: skip
+    dialog.done(0)
+    qtbot.waitUntil(lambda: asked == [1], timeout=5000)
+    assert window.session.plan.request.species_id == "cat"
+    assert window.statusBar().currentMessage() == "dragon.vfplan was not opened."
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="named pipes on Windows")
+def test_a_socket_another_account_made_is_never_sent_a_file_name(tmp_path):
+    """Review finding: where the socket's name lies in a shared folder, another account
+    could listen there first and read the names of the files handed over (a patient's and
+    an owner's names). A second start sends only to a socket file this account owns."""
+    import socket as sockets
+
+    from ui.one_window import _ours
+
+    path = tmp_path / "window.socket"
+    assert not _ours(str(path))  # not there (yet)
+    path.write_text("not a socket", encoding="utf-8")
+    assert not _ours(str(path))
+    path.unlink()
+    listening = sockets.socket(sockets.AF_UNIX, sockets.SOCK_STREAM)
+    try:
+        listening.bind(str(path))
+        assert _ours(str(path))
+        if os.geteuid() == 0:  # give it to another account, as a squatter's would be
+            os.chown(path, 54321, 54321)
+            assert not _ours(str(path))
+    finally:
+        listening.close()

@@ -575,6 +575,7 @@ def main(argv: list[str] | None = None) -> int:
 
     def listen() -> None:  # on the loop's first turn (Qt's network module loads after the
         # first paint); what a second start hands over waits in the window's queue
+        lock.accepting = window.accepts_files
         if lock.serve():
             lock.asked.connect(window.come_forward)
 
@@ -593,6 +594,7 @@ def another_window_open(
     ask: Callable[[str, str], bool] | None = None,
     tell: Callable[[str], None] | None = None,
     patience_s: float | None = None,
+    waiting: Callable[[float], bool] | None = None,
 ) -> int | None:
     """vetfluid is already open on this data folder: its window is asked to come forward
     and open ``plan_file``, and this start ends (0). A window that closes meanwhile leaves
@@ -603,13 +605,21 @@ def another_window_open(
     computer switched off), so a window still running keeps it and the user is told to
     close that one first. ``ask(text, detail)`` puts the question and ``tell(text)`` the
     answer (message boxes by default: a double-clicked file has no terminal);
-    ``patience_s``: how long the window is waited for (PATIENCE_S)."""
+    ``patience_s``: how long the window is waited for (PATIENCE_S); ``waiting(seconds)``
+    says the wait goes on (False: the user stopped it; by default a box with Cancel
+    appears after a second and a half)."""
     from ui.one_window import PATIENCE_S, Reached
 
     patience_s = PATIENCE_S if patience_s is None else patience_s
     holder = lock.holder()
     if holder is None or holder.here:
-        reached = lock.hand_over(plan_file, patience_s)
+        box = _WaitingBox() if waiting is None else None
+        reached = lock.hand_over(plan_file, patience_s, waiting or box)
+        if box is not None:
+            box.close()
+        if reached is Reached.GAVE_UP:
+            sys.stderr.write("vetfluid: stopped waiting for the vetfluid window that is open.\n")
+            return 1
         if reached is Reached.HANDED:
             said = "its window opens the plan file" if plan_file else "it was brought forward"
             sys.stdout.write(f"vetfluid is already open with this data folder: {said}.\n")
@@ -654,6 +664,34 @@ def another_window_open(
     sys.stderr.write(f"vetfluid: {still}\n")
     (tell or _tell)(still)
     return 1
+
+
+class _WaitingBox:
+    """After a second and a half, a box saying what this start waits for, with Cancel
+    (the call says whether to go on waiting)."""
+
+    def __init__(self) -> None:
+        self.box = None
+
+    def __call__(self, seconds: float) -> bool:
+        from PySide6.QtWidgets import QApplication, QProgressDialog
+
+        if seconds < 1.5:
+            return True
+        if self.box is None:
+            self.box = QProgressDialog(
+                "Waiting for the vetfluid window that is open to take the plan file…",
+                "Cancel", 0, 0,
+            )  # fmt: skip
+            self.box.setWindowTitle("vetfluid")
+            self.box.setMinimumDuration(0)
+            self.box.show()
+        QApplication.processEvents()
+        return not self.box.wasCanceled()
+
+    def close(self) -> None:
+        if self.box is not None:
+            self.box.close()
 
 
 def _ask_take_over(text: str, detail: str) -> bool:

@@ -60,9 +60,16 @@ class MainWindow(QMainWindow):
         self.timeline_view = None
         self.course_view = None
         self.species_view = None
-        self._files_to_open: list[Path] = []  # given at start, or by a second start
+        # plan files given at start or by a second start, each with what was on screen
+        # when it came (None: it came before the window was ready)
+        self._files_to_open: list[tuple[Path, object]] = []
+        self._files_timer = QTimer(self)  # one look again while they wait
+        self._files_timer.setSingleShot(True)
+        self._files_timer.setInterval(300)
+        self._files_timer.timeout.connect(self._open_waiting_files)
         self._waiting_words = ""  # what the status line says of them while they wait
         self._started = False  # the planner is built and the draft left last time offered
+        self._closing = False  # a close has begun (its question may be open)
         self.setWindowIcon(icon("vetfluid"))
         self.setWindowTitle("vetfluid")
 
@@ -626,24 +633,55 @@ class MainWindow(QMainWindow):
     def open_when_ready(self, path: Path) -> None:
         """Open a plan file by File ▸ Open's path once the window is ready for it: the
         planner built, the draft left last time offered, and no dialog open (a question
-        answered for the wrong file). Files given meanwhile open in turn."""
-        self._files_to_open.append(path)
+        answered for the wrong file). Files given meanwhile open in turn. A file that
+        waited while another plan came on screen (opened by hand in that dialog) asks
+        before it takes that plan's place."""
+        self._files_to_open.append((path, self._on_screen() if self._started else None))
         self._open_waiting_files()
+
+    def accepts_files(self) -> bool:
+        """Whether a second start's file is taken now: not once closing has begun (that
+        start then opens the file itself, when this window has gone)."""
+        return not (self._closing or self._closed)
+
+    def _on_screen(self) -> object:
+        """What is on screen, to tell whether another plan came meanwhile."""
+        patient = self.keeper.work.patient_id if self.keeper is not None else None
+        inputs = self.session.inputs if self.session is not None else None
+        return (patient, inputs)
 
     def _open_waiting_files(self) -> None:
         if not self._files_to_open or self._closed:
             return
         if not self._started or QApplication.activeModalWidget() is not None:
             if self._started:  # a dialog is open: said, so nobody waits unknowingly
-                names = ", ".join(p.name for p in self._files_to_open)
-                self._waiting_words = f"{names}: opens when the open dialog is closed."
-                self.statusBar().showMessage(self._waiting_words)
-            QTimer.singleShot(300, self._open_waiting_files)
+                names = ", ".join(p.name for p, _ in self._files_to_open)
+                words = f"{names}: opens when the open dialog is closed."
+                if words != self.statusBar().currentMessage():
+                    self._waiting_words = words
+                    self.statusBar().showMessage(words)
+            if not self._files_timer.isActive():
+                self._files_timer.start()
             return
-        if self.statusBar().currentMessage() == self._waiting_words:
+        if self._waiting_words and self.statusBar().currentMessage() == self._waiting_words:
             self.statusBar().clearMessage()
-        self.read_request(self._files_to_open.pop(0))
+        self._waiting_words = ""
+        path, seen = self._files_to_open.pop(0)
+        if seen is not None and seen != self._on_screen() and not self._still_wanted(path):
+            self.statusBar().showMessage(f"{path.name} was not opened.")
+        else:
+            self.read_request(path)
         QTimer.singleShot(0, self._open_waiting_files)  # the next, after this one's questions
+
+    def _still_wanted(self, path: Path) -> bool:
+        answer = QMessageBox.question(
+            self, "vetfluid",
+            f"{path.name} was opened from outside vetfluid while a dialog was open here, and "
+            "another plan has come on screen since. Open it in place of the plan on screen?",
+            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No,
+            QMessageBox.StandardButton.No,
+        )  # fmt: skip
+        return answer == QMessageBox.StandardButton.Yes
 
     def read_request(self, path: Path) -> bool:
         from vetfluid.records.request_file import read_request_file
@@ -766,11 +804,17 @@ class MainWindow(QMainWindow):
         settings = self._settings()
         settings.setValue("geometry", self.saveGeometry())
         settings.setValue("size", self.size())
+        self._closing = True
         if self.session is not None:
             settings.setValue("splitter", self.splitter.saveState())
             if not self.keeper.close():  # asked, and kept open: nothing is lost
+                self._closing = False
                 event.ignore()
                 return
         settings.sync()
         self._closed = True
+        if self._files_to_open:  # handed over earlier, still waiting: said, not dropped unseen
+            names = ", ".join(p.name for p, _ in self._files_to_open)
+            QMessageBox.information(self, "vetfluid", f"Not opened, as vetfluid closes: {names}.")
+            self._files_to_open.clear()
         super().closeEvent(event)

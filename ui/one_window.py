@@ -22,6 +22,7 @@ import hashlib
 import json
 import os
 import socket
+import stat
 import sys
 import time
 from dataclasses import dataclass
@@ -31,6 +32,8 @@ from typing import TYPE_CHECKING
 from PySide6.QtCore import QLockFile, QObject, QStandardPaths, QTimer, Signal
 
 if TYPE_CHECKING:
+    from collections.abc import Callable
+
     from PySide6.QtNetwork import QLocalServer, QLocalSocket
 
 LOCK_NAME = "window.lock"
@@ -45,7 +48,8 @@ IDLE_CONNECTION_MS = 5000  # a connection that sends no whole request is dropped
 # computer builds the planner before it looks at its socket) or busy answers within this
 PATIENCE_S = 20.0
 RETRY_PAUSE_S = 0.25
-ANSWER = b"opened\n"
+# the exchange: request → READY (or CLOSING) → GO → QUEUED
+READY, GO, QUEUED, CLOSING = b"ready\n", b"go\n", b"queued\n", b"closing\n"
 
 
 class Claim(enum.Enum):
@@ -60,6 +64,7 @@ class Reached(enum.Enum):
     HANDED = "handed"  # the window took the request
     OURS = "ours"  # the window closed meanwhile: the lock is this start's now
     SILENT = "silent"  # nothing answered within PATIENCE_S
+    GAVE_UP = "gave up"  # the user stopped waiting
 
 
 @dataclass(frozen=True)
@@ -101,7 +106,10 @@ class WindowLock(QObject):
         # is taken over by Qt's check that its process is gone
         self._lock.setStaleLockTime(0)
         self._server: QLocalServer | None = None
-        self._connections: set[QLocalSocket] = set()
+        # each open connection, with its request once READY was answered
+        self._connections: dict[QLocalSocket, Request | None] = {}
+        #: whether the window takes requests now (not while it closes)
+        self.accepting: Callable[[], bool] = lambda: True
 
     # ---- the lock ----------------------------------------------------------------------------
     def claim(self) -> Claim:
@@ -158,7 +166,7 @@ class WindowLock(QObject):
                 connection.abort()
                 connection.deleteLater()
                 continue
-            self._connections.add(connection)
+            self._connections[connection] = None
             connection.readyRead.connect(self._read_sender)
             connection.disconnected.connect(self._forget_sender)
             QTimer.singleShot(IDLE_CONNECTION_MS, connection, lambda c=connection: self._drop(c))
@@ -173,39 +181,64 @@ class WindowLock(QObject):
             self._drop(self.sender())
 
     def _read(self, connection: QLocalSocket) -> None:
-        if not connection.canReadLine():
-            if connection.bytesAvailable() > MESSAGE_LIMIT_BYTES:
-                self._drop(connection)  # not ours: dropped unread
-            return
-        request = read_message(bytes(connection.readLine(MESSAGE_LIMIT_BYTES).data()))
-        if request is None:
-            self._drop(connection)
-            return
-        connection.write(ANSWER)
+        """A request is answered READY (or CLOSING while the window closes); the window acts
+        only on GO, which the second start sends once it has READY: a second start that
+        gave up, or lost the answer, leaves nothing to open (else each try opened it once)."""
+        while connection in self._connections and connection.canReadLine():
+            line = bytes(connection.readLine(MESSAGE_LIMIT_BYTES).data())
+            waiting = self._connections[connection]
+            if waiting is None:
+                request = read_message(line)
+                if request is None:
+                    self._drop(connection)
+                elif not self.accepting():
+                    connection.write(CLOSING)
+                    self._finish(connection)
+                else:
+                    self._connections[connection] = request
+                    connection.write(READY)
+                    connection.flush()
+            elif line == GO:
+                connection.write(QUEUED)
+                self._finish(connection)
+                # the window opens the file on the next turn, not inside this socket's
+                # signal: its questions run event loops of their own
+                QTimer.singleShot(0, self, lambda r=waiting: self.asked.emit(r.plan_file))
+            else:
+                self._drop(connection)
+        if connection in self._connections and connection.bytesAvailable() > MESSAGE_LIMIT_BYTES:
+            self._drop(connection)  # not ours: dropped unread
+
+    def _finish(self, connection: QLocalSocket) -> None:
+        self._connections.pop(connection, None)
         connection.flush()
-        self._connections.discard(connection)
-        connection.disconnectFromServer()  # once the answer is written
+        connection.disconnectFromServer()  # once what was written has gone
         connection.deleteLater()
-        # the window opens the file on the next turn, not inside this socket's signal: its
-        # questions run event loops of their own
-        QTimer.singleShot(0, self, lambda: self.asked.emit(request.plan_file))
 
     def _drop(self, connection: QLocalSocket) -> None:
         if connection in self._connections:
-            self._connections.discard(connection)
+            self._connections.pop(connection)
             connection.abort()
             connection.deleteLater()
 
     # ---- a second start ----------------------------------------------------------------------
-    def hand_over(self, plan_file: str | None, patience_s: float = PATIENCE_S) -> Reached:
+    def hand_over(
+        self,
+        plan_file: str | None,
+        patience_s: float = PATIENCE_S,
+        waiting: Callable[[float], bool] | None = None,
+    ) -> Reached:
         """Ask the window holding the lock to come forward and open ``plan_file`` (read from
         this process's folder). Tried again until it answers, the lock is free (the window
-        closed meanwhile: it is then this start's), or ``patience_s`` has passed."""
+        closed meanwhile: it is then this start's), ``patience_s`` has passed, or
+        ``waiting(seconds so far)``, called every tenth of a second, returns False (the
+        user gave up)."""
         from PySide6.QtNetwork import QLocalSocket
 
         path = None if plan_file is None else Path(plan_file).absolute()
         message = write_message(path)
-        deadline = time.monotonic() + patience_s
+        start = time.monotonic()
+        deadline = start + patience_s
         holder = self.holder()
         if sys.platform == "win32" and holder is not None:
             # Windows lets a program bring its window to the front only when the program
@@ -213,28 +246,43 @@ class WindowLock(QObject):
             import ctypes
 
             ctypes.windll.user32.AllowSetForegroundWindow(holder.pid)
+
+        def wait_for(connection: QLocalSocket) -> bytes:
+            """One line from the window, or b"" once it drops the line or time is up."""
+            received = b""
+            while not received.endswith(b"\n") and len(received) < 64:
+                now = time.monotonic()
+                if now >= deadline or (waiting is not None and not waiting(now - start)):
+                    return b""
+                if connection.waitForReadyRead(100):
+                    received += bytes(connection.readAll().data())
+                elif connection.state() != QLocalSocket.LocalSocketState.ConnectedState:
+                    return b""
+            return received
+
+        name = socket_name(self.folder)
         while True:
             if self.claim() is Claim.OURS:
                 return Reached.OURS
             connection = QLocalSocket()
-            connection.connectToServer(socket_name(self.folder))
-            if connection.waitForConnected(1000):
+            if _ours(name):
+                connection.connectToServer(name)
+            if connection.state() != QLocalSocket.LocalSocketState.UnconnectedState and (
+                connection.waitForConnected(1000)
+            ):
                 connection.write(message)
                 connection.waitForBytesWritten(1000)
-                answered = b""
-                while len(answered) < len(ANSWER):
-                    left_ms = int((deadline - time.monotonic()) * 1000)
-                    if left_ms <= 0 or not connection.waitForReadyRead(min(left_ms, 1000)):
-                        if connection.state() != QLocalSocket.LocalSocketState.ConnectedState:
-                            break  # dropped (a window closing): try again
-                        if left_ms <= 0:
-                            break
-                        continue
-                    answered += bytes(connection.readAll().data())
+                if wait_for(connection) == READY:
+                    connection.write(GO)
+                    connection.waitForBytesWritten(1000)
+                    if wait_for(connection) == QUEUED:
+                        connection.abort()
+                        return Reached.HANDED
                 connection.abort()
-                if answered == ANSWER:
-                    return Reached.HANDED
-            if time.monotonic() >= deadline:
+            now = time.monotonic()
+            if waiting is not None and now < deadline and not waiting(now - start):
+                return Reached.GAVE_UP
+            if now >= deadline:
                 return Reached.SILENT
             time.sleep(RETRY_PAUSE_S)
 
@@ -256,6 +304,22 @@ def socket_name(folder: Path) -> str:
     if private and len(os.fsencode(Path(private) / name)) <= SOCKET_PATH_LIMIT:
         return str(Path(private) / name)
     return name  # the shared temporary folder: the last resort
+
+
+def _ours(name: str) -> bool:
+    """Whether the socket ``name`` may be this user's window: on Windows (a named pipe kept
+    to its user) always; elsewhere only a socket file this user owns, so a name another
+    account made first in a shared folder is never sent a patient's file name."""
+    if sys.platform == "win32":
+        return True
+    from PySide6.QtCore import QDir
+
+    path = Path(name) if Path(name).is_absolute() else Path(QDir.tempPath()) / name
+    try:
+        found = path.lstat()
+    except OSError:
+        return False  # not there yet: a window still starting
+    return stat.S_ISSOCK(found.st_mode) and found.st_uid == os.getuid()
 
 
 def write_message(plan_file: Path | None) -> bytes:
