@@ -626,3 +626,157 @@ def test_a_socket_another_account_made_is_never_sent_a_file_name(tmp_path):
             assert not _ours(str(path))
     finally:
         listening.close()
+
+
+class _FakeWindow:
+    """A socket where the window listens that answers as told: ``first`` to a request,
+    ``then`` (None: nothing) to the GO after it. Counts the requests it reads."""
+
+    def __init__(self, name: str, first: bytes, then: bytes | None = None) -> None:
+        import socket as sockets
+        import threading
+
+        self.requests: list[bytes] = []
+        self.server = sockets.socket(sockets.AF_UNIX, sockets.SOCK_STREAM)
+        self.server.bind(name)
+        self.server.listen(8)
+        self.server.settimeout(0.2)
+        self.first, self.then, self.done = first, then, threading.Event()
+        self.thread = threading.Thread(target=self._serve, daemon=True)
+        self.thread.start()
+
+    def _serve(self) -> None:
+        held = []
+        while not self.done.is_set():
+            try:
+                connection, _ = self.server.accept()
+            except OSError:
+                continue
+            held.append(connection)  # never closed while the test runs: silence, not an end
+            connection.settimeout(5)
+            with __import__("contextlib").suppress(OSError):
+                self.requests.append(connection.recv(4096))
+                connection.sendall(self.first)
+                if self.first == b"ready\n" and connection.recv(16) == b"go\n" and self.then:
+                    connection.sendall(self.then)
+        for connection in held:
+            connection.close()
+
+    def close(self) -> None:
+        self.done.set()
+        self.thread.join(timeout=10)
+        self.server.close()
+
+
+@pytest.fixture()
+def fake_window(silent_holder, vetfluid_home):
+    made = []
+
+    def make(first: bytes, then: bytes | None = None) -> _FakeWindow:
+        made.append(_FakeWindow(socket_name(vetfluid_home), first, then))
+        return made[-1]
+
+    yield make
+    for window in made:
+        window.close()
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="a Unix socket stands in for the window")
+def test_a_window_of_another_version_is_asked_once_and_said(fake_window, vetfluid_home):
+    """Review finding: a newer second start talking to an older window (vetfluid updated
+    while open) read its one-word answer as a failure and asked again every quarter
+    second: the old window opened the file 80 times. An answer it does not know now ends
+    the wait at once, in words."""
+    from ui.app import another_window_open
+
+    window = fake_window(b"opened\n")  # what the older window answered
+    told = []
+    lock = WindowLock(vetfluid_home)
+    assert another_window_open(lock, "/tmp/dog.vfplan", ask=pytest.fail, tell=told.append,
+                               waiting=lambda _: True) == 1  # fmt: skip
+    assert len(window.requests) == 1
+    assert told and told[0].startswith("A vetfluid window of another version is open")
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="a Unix socket stands in for the window")
+def test_a_window_told_go_that_does_not_confirm_is_not_called_a_failure(fake_window,
+                                                                        vetfluid_home):  # fmt: skip
+    """Review finding: a second start that gave up after telling the window GO reported a
+    failure, and the window opened the file later anyway. Once GO is sent the user's Cancel
+    no longer ends the wait, and a window that does not confirm is said to be maybe opening
+    it: the user is told to look there before trying again."""
+    from ui.app import another_window_open
+
+    window = fake_window(b"ready\n")  # then silent: frozen right after READY
+    told = []
+    started = time.monotonic()
+    assert another_window_open(WindowLock(vetfluid_home), "/tmp/dog.vfplan", ask=pytest.fail,
+                               tell=told.append, waiting=lambda s: s < 1.0) == 1  # fmt: skip
+    assert time.monotonic() - started >= 4.5  # waited for the answer to GO regardless
+    assert len(window.requests) == 1
+    assert "has not confirmed it: it may open it when it is free" in told[0]
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="a Unix socket stands in for the window")
+def test_a_window_that_stays_closing_is_said_so(fake_window, vetfluid_home):
+    """A window whose close question stays open: the second start says to answer it there,
+    not that the window does not answer (Take over could not help)."""
+    from ui.app import another_window_open
+
+    fake_window(b"closing\n")
+    told = []
+    assert another_window_open(WindowLock(vetfluid_home), "/tmp/dog.vfplan", ask=pytest.fail,
+                               tell=told.append, waiting=lambda _: True,
+                               patience_s=1) == 1  # fmt: skip
+    assert "is closing, or asking about closing. Answer it there" in told[0]
+
+
+def test_a_go_that_comes_after_the_close_began_is_refused(qtbot, vetfluid_home):
+    """Review finding: the window checked that it was not closing only when the request
+    came, so a GO during the close question queued a file that was then named nowhere."""
+    lock = WindowLock(vetfluid_home)
+    assert lock.claim() is Claim.OURS
+    assert lock.serve()
+    asked = []
+    lock.asked.connect(asked.append)
+    sender = QLocalSocket()
+    sender.connectToServer(socket_name(vetfluid_home))
+    assert sender.waitForConnected(3000)
+    sender.write(write_message(Path("/tmp/dog.vfplan")))
+    sender.flush()
+    qtbot.waitUntil(lambda: sender.bytesAvailable() > 0)
+    assert bytes(sender.readAll().data()) == b"ready\n"
+    lock.accepting = lambda: False  # the close question came up meanwhile
+    sender.write(b"go\n")
+    sender.flush()
+    qtbot.waitUntil(lambda: sender.bytesAvailable() > 0)
+    assert bytes(sender.readAll().data()) == b"closing\n"
+    qtbot.wait(100)
+    assert asked == []
+    lock.release()
+
+
+def test_a_file_double_clicked_twice_opens_once_and_asks_nothing(qtbot, tmp_path, answer):
+    """Review finding: the impatient second double-click was asked about as if another plan
+    had come on screen (the first click's file had), with No as its default."""
+    from ui.app import open_window
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+
+    answer({})  # any question fails the test
+    window = open_window()
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None and window._started)
+    request = demo("dehydrated_dog").request
+    dog = write_request_file(tmp_path / "dog.vfplan", request, {})
+    dialog = QMessageBox(QMessageBox.Icon.Question, "vetfluid", "Busy", parent=window)
+    dialog.open()
+    qtbot.waitUntil(lambda: QApplication.activeModalWidget() is dialog)
+    window.come_forward(dog)
+    window.come_forward(dog)
+    dialog.done(0)
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.come_forward(dog)  # a third click, after it opened
+    qtbot.wait(500)
+    assert window.session.plan.request == request
+    assert window._files_to_open == []

@@ -13,7 +13,7 @@ if TYPE_CHECKING:
     from collections.abc import Callable
     from pathlib import Path
 
-    from ui.one_window import WindowLock
+    from ui.one_window import Holder, Reached, WindowLock
 
 
 def sheet_command(argv: list[str]) -> int:
@@ -613,7 +613,7 @@ def another_window_open(
     patience_s = PATIENCE_S if patience_s is None else patience_s
     holder = lock.holder()
     if holder is None or holder.here:
-        box = _WaitingBox() if waiting is None else None
+        box = _WaitingBox(plan_file) if waiting is None else None
         reached = lock.hand_over(plan_file, patience_s, waiting or box)
         if box is not None:
             box.close()
@@ -626,6 +626,11 @@ def another_window_open(
             return 0
         if reached is Reached.OURS:
             return None
+        said = _not_handed_over(reached, lock, holder, plan_file)
+        if said:
+            sys.stderr.write(f"vetfluid: {said}\n")
+            (tell or _tell)(said)
+            return 1
     folder = lock.folder
     if holder is None:
         text = (
@@ -666,12 +671,54 @@ def another_window_open(
     return 1
 
 
+def _not_handed_over(
+    reached: Reached, lock: WindowLock, holder: Holder | None, plan_file: str | None
+) -> str:
+    """What to say when the window was reached but did not take the file and taking over
+    cannot help ("" for a window that never answered: the take-over question follows)."""
+    from pathlib import Path
+
+    from ui.one_window import Reached
+
+    who = f" ({holder.words()})" if holder is not None else ""
+    what = Path(plan_file).name if plan_file else "the request"
+    if reached is Reached.UNSURE:
+        return (
+            f"The vetfluid window open with the data folder {lock.folder}{who} was asked to "
+            f"open {what} but has not confirmed it: it may open it when it is free. Look at "
+            "that window before opening the file again."
+        )
+    if reached is Reached.CLOSING:
+        return (
+            f"The vetfluid window open with the data folder {lock.folder}{who} is closing, or "
+            "asking about closing. Answer it there, then open the file again."
+        )
+    if reached is Reached.OTHER_VERSION:
+        return (
+            f"A vetfluid window of another version is open with the data folder "
+            f"{lock.folder}{who} (vetfluid was updated while it was open). Close it, then "
+            "open the file again."
+        )
+    if reached is Reached.FOREIGN:
+        return (
+            f"The open vetfluid window cannot be reached: the place it listens at for the "
+            f"data folder {lock.folder} belongs to another account. Use that window, or ask "
+            "whoever runs this computer."
+        )
+    return ""
+
+
 class _WaitingBox:
     """After a second and a half, a box saying what this start waits for, with Cancel
     (the call says whether to go on waiting)."""
 
-    def __init__(self) -> None:
+    def __init__(self, plan_file: str | None) -> None:
         self.box = None
+        self.words = (
+            "Waiting for the vetfluid window that is open to take the plan file…"
+            if plan_file
+            else "Waiting for the vetfluid window that is open to come forward…"
+        )
 
     def __call__(self, seconds: float) -> bool:
         from PySide6.QtWidgets import QApplication, QProgressDialog
@@ -679,10 +726,7 @@ class _WaitingBox:
         if seconds < 1.5:
             return True
         if self.box is None:
-            self.box = QProgressDialog(
-                "Waiting for the vetfluid window that is open to take the plan file…",
-                "Cancel", 0, 0,
-            )  # fmt: skip
+            self.box = QProgressDialog(self.words, "Cancel", 0, 0)
             self.box.setWindowTitle("vetfluid")
             self.box.setMinimumDuration(0)
             self.box.show()

@@ -70,6 +70,7 @@ class MainWindow(QMainWindow):
         self._waiting_words = ""  # what the status line says of them while they wait
         self._started = False  # the planner is built and the draft left last time offered
         self._closing = False  # a close has begun (its question may be open)
+        self._just_opened: tuple[Path, object] | None = None  # by the queue, and the screen
         self.setWindowIcon(icon("vetfluid"))
         self.setWindowTitle("vetfluid")
 
@@ -635,7 +636,13 @@ class MainWindow(QMainWindow):
         planner built, the draft left last time offered, and no dialog open (a question
         answered for the wrong file). Files given meanwhile open in turn. A file that
         waited while another plan came on screen (opened by hand in that dialog) asks
-        before it takes that plan's place."""
+        before it takes that plan's place; a change this queue made itself (an earlier
+        file opening) does not count. A file already waiting is not added again (a second
+        double-click), nor one just opened and still on screen."""
+        if any(path == waiting for waiting, _ in self._files_to_open) or (
+            self._just_opened is not None and self._just_opened == (path, self._on_screen())
+        ):
+            return
         self._files_to_open.append((path, self._on_screen() if self._started else None))
         self._open_waiting_files()
 
@@ -667,10 +674,12 @@ class MainWindow(QMainWindow):
             self.statusBar().clearMessage()
         self._waiting_words = ""
         path, seen = self._files_to_open.pop(0)
-        if seen is not None and seen != self._on_screen() and not self._still_wanted(path):
+        now = self._on_screen()
+        ours = self._just_opened is not None and self._just_opened[1] == now
+        if seen is not None and seen != now and not ours and not self._still_wanted(path):
             self.statusBar().showMessage(f"{path.name} was not opened.")
-        else:
-            self.read_request(path)
+        elif self.read_request(path):
+            self._just_opened = (path, self._on_screen())
         QTimer.singleShot(0, self._open_waiting_files)  # the next, after this one's questions
 
     def _still_wanted(self, path: Path) -> bool:

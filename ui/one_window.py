@@ -48,6 +48,7 @@ IDLE_CONNECTION_MS = 5000  # a connection that sends no whole request is dropped
 # computer builds the planner before it looks at its socket) or busy answers within this
 PATIENCE_S = 20.0
 RETRY_PAUSE_S = 0.25
+GO_PATIENCE_S = 5.0  # once told GO, the window answers at once unless frozen
 # the exchange: request → READY (or CLOSING) → GO → QUEUED
 READY, GO, QUEUED, CLOSING = b"ready\n", b"go\n", b"queued\n", b"closing\n"
 
@@ -61,10 +62,14 @@ class Claim(enum.Enum):
 class Reached(enum.Enum):
     """What a second start's :meth:`WindowLock.hand_over` came to."""
 
-    HANDED = "handed"  # the window took the request
+    HANDED = "handed"  # the window took the request (QUEUED)
     OURS = "ours"  # the window closed meanwhile: the lock is this start's now
-    SILENT = "silent"  # nothing answered within PATIENCE_S
-    GAVE_UP = "gave up"  # the user stopped waiting
+    SILENT = "silent"  # nothing answered within the patience
+    CLOSING = "closing"  # the window is closing, or asking about it, all that time
+    GAVE_UP = "gave up"  # the user stopped waiting before the window was asked to act
+    UNSURE = "unsure"  # asked to act (GO), it did not confirm: it may open the file later
+    OTHER_VERSION = "other version"  # an answer this vetfluid does not know
+    FOREIGN = "foreign"  # the socket is another account's: never sent anything
 
 
 @dataclass(frozen=True)
@@ -198,6 +203,9 @@ class WindowLock(QObject):
                     self._connections[connection] = request
                     connection.write(READY)
                     connection.flush()
+            elif line == GO and not self.accepting():  # a close began after READY
+                connection.write(CLOSING)
+                self._finish(connection)
             elif line == GO:
                 connection.write(QUEUED)
                 self._finish(connection)
@@ -229,16 +237,13 @@ class WindowLock(QObject):
         waiting: Callable[[float], bool] | None = None,
     ) -> Reached:
         """Ask the window holding the lock to come forward and open ``plan_file`` (read from
-        this process's folder). Tried again until it answers, the lock is free (the window
+        this process's folder), trying again until it answers, the lock is free (the window
         closed meanwhile: it is then this start's), ``patience_s`` has passed, or
-        ``waiting(seconds so far)``, called every tenth of a second, returns False (the
-        user gave up)."""
-        from PySide6.QtNetwork import QLocalSocket
-
+        ``waiting(seconds so far)``, called every tenth of a second, returns False (the user
+        gave up). Once the window is told GO, neither ends the wait: the answer to GO is
+        waited for on its own (GO_PATIENCE_S), so a file is never said to be lost that the
+        window is opening."""
         path = None if plan_file is None else Path(plan_file).absolute()
-        message = write_message(path)
-        start = time.monotonic()
-        deadline = start + patience_s
         holder = self.holder()
         if sys.platform == "win32" and holder is not None:
             # Windows lets a program bring its window to the front only when the program
@@ -246,45 +251,85 @@ class WindowLock(QObject):
             import ctypes
 
             ctypes.windll.user32.AllowSetForegroundWindow(holder.pid)
+        start = time.monotonic()
+        deadline = start + patience_s
+        stopped = []
 
-        def wait_for(connection: QLocalSocket) -> bytes:
-            """One line from the window, or b"" once it drops the line or time is up."""
-            received = b""
-            while not received.endswith(b"\n") and len(received) < 64:
-                now = time.monotonic()
-                if now >= deadline or (waiting is not None and not waiting(now - start)):
-                    return b""
-                if connection.waitForReadyRead(100):
-                    received += bytes(connection.readAll().data())
-                elif connection.state() != QLocalSocket.LocalSocketState.ConnectedState:
-                    return b""
-            return received
+        def go_on() -> bool:
+            now = time.monotonic()
+            if now >= deadline or (waiting is not None and not waiting(now - start)):
+                stopped.append(now < deadline)  # True: the user gave up
+                return False
+            return True
 
-        name = socket_name(self.folder)
+        name, closing = socket_name(self.folder), False
         while True:
             if self.claim() is Claim.OURS:
                 return Reached.OURS
-            connection = QLocalSocket()
-            if _ours(name):
-                connection.connectToServer(name)
-            if connection.state() != QLocalSocket.LocalSocketState.UnconnectedState and (
-                connection.waitForConnected(1000)
-            ):
-                connection.write(message)
-                connection.waitForBytesWritten(1000)
-                if wait_for(connection) == READY:
-                    connection.write(GO)
-                    connection.waitForBytesWritten(1000)
-                    if wait_for(connection) == QUEUED:
-                        connection.abort()
-                        return Reached.HANDED
-                connection.abort()
-            now = time.monotonic()
-            if waiting is not None and now < deadline and not waiting(now - start):
-                return Reached.GAVE_UP
-            if now >= deadline:
-                return Reached.SILENT
+            if _foreign(name):
+                return Reached.FOREIGN
+            if not _ours(name):
+                reached = None  # not there yet: a window still starting
+            else:
+                reached = _one_try(name, write_message(path), go_on)
+            if reached is Reached.CLOSING:
+                closing, reached = True, None
+            if reached is not None:
+                return reached
+            if stopped or not go_on():
+                if stopped[0]:
+                    return Reached.GAVE_UP
+                return Reached.CLOSING if closing else Reached.SILENT
             time.sleep(RETRY_PAUSE_S)
+
+
+def _one_try(name: str, message: bytes, go_on: Callable[[], bool]) -> Reached | None:
+    """One connection to the window: what it came to, or None to try again (no window
+    there yet, or one that dropped the line)."""
+    from PySide6.QtNetwork import QLocalSocket
+
+    connection = QLocalSocket()
+    connection.connectToServer(name)
+    try:
+        if not connection.waitForConnected(1000):
+            return None
+        connection.write(message)
+        connection.waitForBytesWritten(1000)
+        answer = _line(connection, go_on)
+        if answer in (b"", CLOSING):
+            return Reached.CLOSING if answer else None
+        if answer != READY:
+            return Reached.OTHER_VERSION
+        connection.write(GO)
+        connection.waitForBytesWritten(1000)
+        until = time.monotonic() + GO_PATIENCE_S
+        answer = _line(connection, lambda: time.monotonic() < until)
+        if answer == QUEUED:
+            return Reached.HANDED
+        if answer == CLOSING:
+            return Reached.CLOSING
+        if answer:
+            return Reached.OTHER_VERSION
+        if connection.state() == QLocalSocket.LocalSocketState.ConnectedState:
+            return Reached.UNSURE  # told GO, silent since
+        return None  # the window dropped the line (it ended): the lock tells what next
+    finally:
+        connection.abort()
+
+
+def _line(connection: QLocalSocket, go_on: Callable[[], bool]) -> bytes:
+    """One line from the window; b"" once it drops the line or ``go_on()`` says stop."""
+    from PySide6.QtNetwork import QLocalSocket
+
+    received = b""
+    while not received.endswith(b"\n") and len(received) < 64:
+        if not go_on():
+            return b""
+        if connection.waitForReadyRead(100):
+            received += bytes(connection.readAll().data())
+        elif connection.state() != QLocalSocket.LocalSocketState.ConnectedState:
+            return b""
+    return received
 
 
 def socket_name(folder: Path) -> str:
@@ -306,20 +351,33 @@ def socket_name(folder: Path) -> str:
     return name  # the shared temporary folder: the last resort
 
 
+def _socket_path(name: str) -> Path:
+    from PySide6.QtCore import QDir
+
+    return Path(name) if Path(name).is_absolute() else Path(QDir.tempPath()) / name
+
+
 def _ours(name: str) -> bool:
     """Whether the socket ``name`` may be this user's window: on Windows (a named pipe kept
     to its user) always; elsewhere only a socket file this user owns, so a name another
     account made first in a shared folder is never sent a patient's file name."""
     if sys.platform == "win32":
         return True
-    from PySide6.QtCore import QDir
-
-    path = Path(name) if Path(name).is_absolute() else Path(QDir.tempPath()) / name
     try:
-        found = path.lstat()
+        found = _socket_path(name).lstat()
     except OSError:
         return False  # not there yet: a window still starting
     return stat.S_ISSOCK(found.st_mode) and found.st_uid == os.getuid()
+
+
+def _foreign(name: str) -> bool:
+    """Whether something of another account's stands where the window's socket goes."""
+    if sys.platform == "win32":
+        return False
+    try:
+        return _socket_path(name).lstat().st_uid != os.getuid()
+    except OSError:
+        return False
 
 
 def write_message(plan_file: Path | None) -> bytes:
