@@ -644,7 +644,7 @@ class MainWindow(QMainWindow):
         ):
             return
         self._files_to_open.append((path, self._on_screen() if self._started else None))
-        self._open_waiting_files()
+        QTimer.singleShot(0, self._open_waiting_files)  # queued now, opened on the next turn
 
     def accepts_files(self) -> bool:
         """Whether a second start's file is taken now: not once closing has begun (that

@@ -209,9 +209,9 @@ class WindowLock(QObject):
             elif line == GO:
                 connection.write(QUEUED)
                 self._finish(connection)
-                # the window opens the file on the next turn, not inside this socket's
-                # signal: its questions run event loops of their own
-                QTimer.singleShot(0, self, lambda r=waiting: self.asked.emit(r.plan_file))
+                # in the window's queue before anything else can run (a close names what
+                # waits); the window opens it on a later turn, outside this socket's signal
+                self.asked.emit(waiting.plan_file)
             else:
                 self._drop(connection)
         if connection in self._connections and connection.bytesAvailable() > MESSAGE_LIMIT_BYTES:
