@@ -780,3 +780,56 @@ def test_a_file_double_clicked_twice_opens_once_and_asks_nothing(qtbot, tmp_path
     qtbot.wait(500)
     assert window.session.plan.request == request
     assert window._files_to_open == []
+
+
+def test_a_file_saved_over_is_read_again_when_double_clicked_again(qtbot, tmp_path, answer):
+    """Review finding (patient safety): a file already opened once was not read again when
+    double-clicked again, though another patient's plan had been saved over it; the old
+    plan stayed on screen under the file's name."""
+    from ui.app import open_window
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+
+    answer({})
+    window = open_window()
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None and window._started)
+    path = write_request_file(tmp_path / "patient.vfplan", demo("dehydrated_dog").request, {})
+    window.come_forward(path)
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    cat = demo("renal_cat").request
+    write_request_file(path, cat, {})  # saved over, under the same name
+    window.come_forward(path)
+    qtbot.waitUntil(lambda: window.session.plan.request == cat, timeout=5000)
+
+
+def test_a_second_click_while_the_first_is_being_asked_about_is_not_asked_again(
+    qtbot, tmp_path, answer, vetfluid_home
+):
+    """Review finding: the same file double-clicked again while its own question (the plan
+    on screen is not saved) was open came back with the same question after Cancel."""
+    from ui.app import open_window
+    from vetfluid.planning.demos import demo
+    from vetfluid.records.request_file import write_request_file
+
+    window = open_window()
+    qtbot.addWidget(window)
+    qtbot.waitUntil(lambda: window.session is not None and window._started)
+    window.open_demo("renal_cat")
+    qtbot.waitUntil(lambda: window.session.plan is not None)
+    window.session.update(dehydration_percent=9.0)  # unsaved work on screen
+    qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 9.0)
+    dog = write_request_file(tmp_path / "dog.vfplan", demo("dehydrated_dog").request, {})
+    asked = []
+
+    def cancel() -> str:
+        asked.append(1)
+        window.come_forward(dog)  # clicked again while this question is open
+        return "Cancel"
+
+    answer({"is not saved as a version yet": cancel})
+    window.come_forward(dog)
+    qtbot.waitUntil(lambda: asked == [1], timeout=5000)
+    qtbot.wait(800)
+    assert asked == [1] and window._files_to_open == []
+    assert window.session.plan.request.species_id == "cat"  # kept, as Cancel said

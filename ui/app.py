@@ -682,22 +682,23 @@ def _not_handed_over(
 
     who = f" ({holder.words()})" if holder is not None else ""
     what = Path(plan_file).name if plan_file else "the request"
+    again = "open the file again" if plan_file else "start vetfluid again"
     if reached is Reached.UNSURE:
         return (
             f"The vetfluid window open with the data folder {lock.folder}{who} was asked to "
             f"open {what} but has not confirmed it: it may open it when it is free. Look at "
-            "that window before opening the file again."
+            f"that window before you {again}."
         )
     if reached is Reached.CLOSING:
         return (
             f"The vetfluid window open with the data folder {lock.folder}{who} is closing, or "
-            "asking about closing. Answer it there, then open the file again."
+            f"asking about closing. Answer it there, then {again}."
         )
     if reached is Reached.OTHER_VERSION:
         return (
             f"A vetfluid window of another version is open with the data folder "
-            f"{lock.folder}{who} (vetfluid was updated while it was open). Close it, then "
-            "open the file again."
+            f"{lock.folder}{who} (vetfluid was updated while it was open); it may have "
+            f"taken {what}. Look at that window, and close it before you {again}."
         )
     if reached is Reached.FOREIGN:
         return (

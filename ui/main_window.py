@@ -70,7 +70,8 @@ class MainWindow(QMainWindow):
         self._waiting_words = ""  # what the status line says of them while they wait
         self._started = False  # the planner is built and the draft left last time offered
         self._closing = False  # a close has begun (its question may be open)
-        self._just_opened: tuple[Path, object] | None = None  # by the queue, and the screen
+        self._opening: Path | None = None  # the waiting file being opened now
+        self._left_by_queue: object = None  # the screen the queue's last opening left
         self.setWindowIcon(icon("vetfluid"))
         self.setWindowTitle("vetfluid")
 
@@ -637,11 +638,10 @@ class MainWindow(QMainWindow):
         answered for the wrong file). Files given meanwhile open in turn. A file that
         waited while another plan came on screen (opened by hand in that dialog) asks
         before it takes that plan's place; a change this queue made itself (an earlier
-        file opening) does not count. A file already waiting is not added again (a second
-        double-click), nor one just opened and still on screen."""
-        if any(path == waiting for waiting, _ in self._files_to_open) or (
-            self._just_opened is not None and self._just_opened == (path, self._on_screen())
-        ):
+        file opening) does not count. A file already waiting, or being opened now, is not
+        added again (an impatient second double-click); one opened before is read again
+        (it may have been saved over with another patient's plan)."""
+        if path == self._opening or any(path == waiting for waiting, _ in self._files_to_open):
             return
         self._files_to_open.append((path, self._on_screen() if self._started else None))
         QTimer.singleShot(0, self._open_waiting_files)  # queued now, opened on the next turn
@@ -675,11 +675,16 @@ class MainWindow(QMainWindow):
         self._waiting_words = ""
         path, seen = self._files_to_open.pop(0)
         now = self._on_screen()
-        ours = self._just_opened is not None and self._just_opened[1] == now
+        ours = now == self._left_by_queue  # the queue's own last opening changed it
         if seen is not None and seen != now and not ours and not self._still_wanted(path):
             self.statusBar().showMessage(f"{path.name} was not opened.")
-        elif self.read_request(path):
-            self._just_opened = (path, self._on_screen())
+        else:
+            self._opening = path
+            try:
+                if self.read_request(path):
+                    self._left_by_queue = self._on_screen()
+            finally:
+                self._opening = None
         QTimer.singleShot(0, self._open_waiting_files)  # the next, after this one's questions
 
     def _still_wanted(self, path: Path) -> bool:
