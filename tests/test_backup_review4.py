@@ -287,8 +287,9 @@ def _gone_pid() -> int:
             os.kill(pid, 0)
         except ProcessLookupError:
             return pid
-        except OSError:
-            pass
+        except OSError:  # there, but another user's
+            pid += 1
+            continue
         pid += 1
 
 

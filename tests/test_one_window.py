@@ -55,6 +55,15 @@ def _env(home: Path) -> dict[str, str]:
             "PYTHONPATH": str(ROOT)}  # fmt: skip
 
 
+def _dialog_open_over(qtbot, window) -> QMessageBox:  # noqa: ANN001 — MainWindow
+    """A dialog open in ``window`` (as File ▸ Open's would be), once the window is ready."""
+    qtbot.waitUntil(lambda: window.session is not None and window._started)
+    dialog = QMessageBox(QMessageBox.Icon.Question, "vetfluid", "A dialog", parent=window)
+    dialog.open()
+    qtbot.waitUntil(lambda: QApplication.activeModalWidget() is dialog)
+    return dialog
+
+
 @pytest.fixture()
 def silent_holder(vetfluid_home):
     """Another process holding the lock, never answering; killed at the end."""
@@ -297,12 +306,9 @@ def test_a_plan_file_handed_over_waits_for_an_open_question(qtbot, tmp_path, vet
 
     window = open_window()
     qtbot.addWidget(window)
-    qtbot.waitUntil(lambda: window.session is not None)
     request = demo("cold_bearded_dragon").request
     path = write_request_file(tmp_path / "dragon.vfplan", request, {})
-    question = QMessageBox(QMessageBox.Icon.Question, "vetfluid", "A question", parent=window)
-    question.open()
-    qtbot.waitUntil(lambda: QApplication.activeModalWidget() is question)
+    question = _dialog_open_over(qtbot, window)
     window.come_forward(path)
     qtbot.wait(700)
     assert window.session.plan is None
@@ -586,11 +592,8 @@ def test_a_file_that_waited_while_another_plan_came_on_screen_asks_first(
 
     window = open_window()
     qtbot.addWidget(window)
-    qtbot.waitUntil(lambda: window.session is not None and window._started)
     dragon = write_request_file(tmp_path / "dragon.vfplan", demo("cold_bearded_dragon").request, {})
-    dialog = QMessageBox(QMessageBox.Icon.Question, "vetfluid", "Open which file?", parent=window)
-    dialog.open()
-    qtbot.waitUntil(lambda: QApplication.activeModalWidget() is dialog)
+    dialog = _dialog_open_over(qtbot, window)
     window.come_forward(dragon)  # double-clicked meanwhile
     window.open_demo("renal_cat")  # what the clinician picked in the dialog
     qtbot.waitUntil(lambda: window.session.plan is not None)
@@ -766,12 +769,9 @@ def test_a_file_double_clicked_twice_opens_once_and_asks_nothing(qtbot, tmp_path
     answer({})  # any question fails the test
     window = open_window()
     qtbot.addWidget(window)
-    qtbot.waitUntil(lambda: window.session is not None and window._started)
     request = demo("dehydrated_dog").request
     dog = write_request_file(tmp_path / "dog.vfplan", request, {})
-    dialog = QMessageBox(QMessageBox.Icon.Question, "vetfluid", "Busy", parent=window)
-    dialog.open()
-    qtbot.waitUntil(lambda: QApplication.activeModalWidget() is dialog)
+    dialog = _dialog_open_over(qtbot, window)
     window.come_forward(dog)
     window.come_forward(dog)
     dialog.done(0)

@@ -49,6 +49,18 @@ def press(monkeypatch):
     return set_presses
 
 
+def _started_again(qtbot):  # noqa: ANN202 — MainWindow
+    """A new window on the same data folder (the first crashed, or was closed), once its
+    planner is built and the draft left has been offered and answered."""
+    from ui.main_window import MainWindow
+
+    window = MainWindow()
+    qtbot.addWidget(window)
+    window.show()
+    qtbot.waitUntil(lambda: window.session is not None and window.session.plan is not None)
+    return window
+
+
 def _hold_autosave(window) -> None:  # noqa: ANN001
     """No autosave until the test says: both the two-second and the longest-wait timer."""
     window.keeper.timer.stop()
@@ -74,7 +86,6 @@ def test_save_versions_and_open_them_again(qtbot, planner, vetfluid_home):
 
 
 def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, answer):
-    from ui.main_window import MainWindow
 
     window = planner
     window.open_demo("small_gerbil")
@@ -83,10 +94,7 @@ def test_a_draft_left_by_a_crash_is_offered_back(qtbot, planner, answer):
     qtbot.waitUntil(lambda: window.session.plan.request.dehydration_percent == 6.0)
     window.keeper.autosave()  # what the autosave timer does a few seconds after each edit
     answer({"stopped unexpectedly": QMessageBox.StandardButton.Yes})
-    again = MainWindow()  # the first window never closed: it crashed
-    qtbot.addWidget(again)
-    again.show()
-    qtbot.waitUntil(lambda: again.session is not None and again.session.plan is not None)
+    again = _started_again(qtbot)  # the first window never closed: it crashed
     assert again.session.plan.request.dehydration_percent == 6.0
 
 
@@ -96,8 +104,6 @@ def test_escape_on_the_draft_question_restores_the_draft(qtbot, planner, monkeyp
     from PySide6.QtCore import Qt, QTimer
     from PySide6.QtTest import QTest
     from PySide6.QtWidgets import QApplication
-
-    from ui.main_window import MainWindow
 
     window = planner
     window.open_demo("small_gerbil")
@@ -117,10 +123,7 @@ def test_escape_on_the_draft_question_restores_the_draft(qtbot, planner, monkeyp
         QTest.keyClick(box, Qt.Key.Key_Escape)
 
     QTimer.singleShot(50, press_escape)
-    again = MainWindow()
-    qtbot.addWidget(again)
-    again.show()
-    qtbot.waitUntil(lambda: again.session is not None and again.session.plan is not None)
+    again = _started_again(qtbot)
     assert "stopped unexpectedly" in seen[0]
     assert again.session.plan.request.dehydration_percent == 6.0
     assert again.records.draft() is not None  # kept, not discarded
@@ -151,15 +154,11 @@ def test_closing_with_unsaved_edits_keeps_them_and_says_so(qtbot, planner, monke
     qtbot.waitUntil(lambda: window.session.plan.request.body_temp_c == 29.0)
     assert window.keeper.timer.isActive()  # edited less than the autosave delay ago
     window.close()
-    from ui.main_window import MainWindow
 
     asked = []
     monkeypatch.setattr(QMessageBox, "exec", lambda box: asked.append(box.text())
                         or QMessageBox.StandardButton.Yes.value)  # fmt: skip
-    again = MainWindow()
-    qtbot.addWidget(again)
-    again.show()
-    qtbot.waitUntil(lambda: again.session is not None and again.session.plan is not None)
+    again = _started_again(qtbot)
     assert "was left, or vetfluid was closed, before it was saved" in asked[0]
     assert again.session.plan.request.body_temp_c == 29.0
 
