@@ -57,7 +57,7 @@ def _env(home: Path) -> dict[str, str]:
 
 def _dialog_open_over(qtbot, window) -> QMessageBox:  # noqa: ANN001 — MainWindow
     """A dialog open in ``window`` (as File ▸ Open's would be), once the window is ready."""
-    qtbot.waitUntil(lambda: window.session is not None and window._started)
+    qtbot.waitUntil(lambda: window.session is not None and window.waiting_files.started)
     dialog = QMessageBox(QMessageBox.Icon.Question, "vetfluid", "A dialog", parent=window)
     dialog.open()
     qtbot.waitUntil(lambda: QApplication.activeModalWidget() is dialog)
@@ -779,7 +779,7 @@ def test_a_file_double_clicked_twice_opens_once_and_asks_nothing(qtbot, tmp_path
     window.come_forward(dog)  # a third click, after it opened
     qtbot.wait(500)
     assert window.session.plan.request == request
-    assert window._files_to_open == []
+    assert window.waiting_files.waiting == []
 
 
 def test_a_file_saved_over_is_read_again_when_double_clicked_again(qtbot, tmp_path, answer):
@@ -793,7 +793,7 @@ def test_a_file_saved_over_is_read_again_when_double_clicked_again(qtbot, tmp_pa
     answer({})
     window = open_window()
     qtbot.addWidget(window)
-    qtbot.waitUntil(lambda: window.session is not None and window._started)
+    qtbot.waitUntil(lambda: window.session is not None and window.waiting_files.started)
     path = write_request_file(tmp_path / "patient.vfplan", demo("dehydrated_dog").request, {})
     window.come_forward(path)
     qtbot.waitUntil(lambda: window.session.plan is not None)
@@ -814,7 +814,7 @@ def test_a_second_click_while_the_first_is_being_asked_about_is_not_asked_again(
 
     window = open_window()
     qtbot.addWidget(window)
-    qtbot.waitUntil(lambda: window.session is not None and window._started)
+    qtbot.waitUntil(lambda: window.session is not None and window.waiting_files.started)
     window.open_demo("renal_cat")
     qtbot.waitUntil(lambda: window.session.plan is not None)
     window.session.update(dehydration_percent=9.0)  # unsaved work on screen
@@ -831,5 +831,5 @@ def test_a_second_click_while_the_first_is_being_asked_about_is_not_asked_again(
     window.come_forward(dog)
     qtbot.waitUntil(lambda: asked == [1], timeout=5000)
     qtbot.wait(800)
-    assert asked == [1] and window._files_to_open == []
+    assert asked == [1] and window.waiting_files.waiting == []
     assert window.session.plan.request.species_id == "cat"  # kept, as Cancel said

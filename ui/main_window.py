@@ -13,7 +13,6 @@ from typing import TYPE_CHECKING
 from PySide6.QtCore import QEvent, QSettings, QTimer
 from PySide6.QtGui import QAction, QIcon, QKeySequence
 from PySide6.QtWidgets import (
-    QApplication,
     QFileDialog,
     QLabel,
     QMainWindow,
@@ -26,6 +25,7 @@ from PySide6.QtWidgets import (
 )
 
 from ui.common.icons import icon
+from ui.waiting_files import WaitingFiles
 from vetfluid.common.cautions import SHORT_CAUTION
 from vetfluid.common.errors import VetfluidError
 from vetfluid.common.paths import user_data_dir, write_owner_only_text
@@ -60,18 +60,7 @@ class MainWindow(QMainWindow):
         self.timeline_view = None
         self.course_view = None
         self.species_view = None
-        # plan files given at start or by a second start, each with what was on screen
-        # when it came (None: it came before the window was ready)
-        self._files_to_open: list[tuple[Path, object]] = []
-        self._files_timer = QTimer(self)  # one look again while they wait
-        self._files_timer.setSingleShot(True)
-        self._files_timer.setInterval(300)
-        self._files_timer.timeout.connect(self._open_waiting_files)
-        self._waiting_words = ""  # what the status line says of them while they wait
-        self._started = False  # the planner is built and the draft left last time offered
         self._closing = False  # a close has begun (its question may be open)
-        self._opening: Path | None = None  # the waiting file being opened now
-        self._left_by_queue: object = None  # the screen the queue's last opening left
         self.setWindowIcon(icon("vetfluid"))
         self.setWindowTitle("vetfluid")
 
@@ -100,6 +89,9 @@ class MainWindow(QMainWindow):
         # Opaque: a new message (one per edit) repaints the bar only, not the window behind it.
         self.statusBar().setAutoFillBackground(True)
         self.statusBar().showMessage("Choose a species and enter a weight to start.")
+        self.waiting_files = WaitingFiles(
+            self, self.statusBar(), read=self.read_request, on_screen=self._on_screen
+        )
         self._restore_geometry()
         self._painted = False
         self._closed = False
@@ -617,8 +609,7 @@ class MainWindow(QMainWindow):
         if self._closed:
             return
         self.keeper.offer_draft()
-        self._started = True
-        self._open_waiting_files()
+        self.waiting_files.start()
 
     def come_forward(self, plan_file: Path | None) -> None:
         """A second start asked for this window (:mod:`ui.one_window`): to the front, and
@@ -633,18 +624,9 @@ class MainWindow(QMainWindow):
             self.open_when_ready(plan_file)
 
     def open_when_ready(self, path: Path) -> None:
-        """Open a plan file by File ▸ Open's path once the window is ready for it: the
-        planner built, the draft left last time offered, and no dialog open (a question
-        answered for the wrong file). Files given meanwhile open in turn. A file that
-        waited while another plan came on screen (opened by hand in that dialog) asks
-        before it takes that plan's place; a change this queue made itself (an earlier
-        file opening) does not count. A file already waiting, or being opened now, is not
-        added again (an impatient second double-click); one opened before is read again
-        (it may have been saved over with another patient's plan)."""
-        if path == self._opening or any(path == waiting for waiting, _ in self._files_to_open):
-            return
-        self._files_to_open.append((path, self._on_screen() if self._started else None))
-        QTimer.singleShot(0, self._open_waiting_files)  # queued now, opened on the next turn
+        """Open a plan file by File ▸ Open's path once the window is ready for it
+        (:class:`ui.waiting_files.WaitingFiles`)."""
+        self.waiting_files.add(path)
 
     def accepts_files(self) -> bool:
         """Whether a second start's file is taken now: not once closing has begun (that
@@ -656,46 +638,6 @@ class MainWindow(QMainWindow):
         patient = self.keeper.work.patient_id if self.keeper is not None else None
         inputs = self.session.inputs if self.session is not None else None
         return (patient, inputs)
-
-    def _open_waiting_files(self) -> None:
-        if not self._files_to_open or self._closed:
-            return
-        if not self._started or QApplication.activeModalWidget() is not None:
-            if self._started:  # a dialog is open: said, so nobody waits unknowingly
-                names = ", ".join(p.name for p, _ in self._files_to_open)
-                words = f"{names}: opens when the open dialog is closed."
-                if words != self.statusBar().currentMessage():
-                    self._waiting_words = words
-                    self.statusBar().showMessage(words)
-            if not self._files_timer.isActive():
-                self._files_timer.start()
-            return
-        if self._waiting_words and self.statusBar().currentMessage() == self._waiting_words:
-            self.statusBar().clearMessage()
-        self._waiting_words = ""
-        path, seen = self._files_to_open.pop(0)
-        now = self._on_screen()
-        ours = now == self._left_by_queue  # the queue's own last opening changed it
-        if seen is not None and seen != now and not ours and not self._still_wanted(path):
-            self.statusBar().showMessage(f"{path.name} was not opened.")
-        else:
-            self._opening = path
-            try:
-                if self.read_request(path):
-                    self._left_by_queue = self._on_screen()
-            finally:
-                self._opening = None
-        QTimer.singleShot(0, self._open_waiting_files)  # the next, after this one's questions
-
-    def _still_wanted(self, path: Path) -> bool:
-        answer = QMessageBox.question(
-            self, "vetfluid",
-            f"{path.name} was opened from outside vetfluid while a dialog was open here, and "
-            "another plan has come on screen since. Open it in place of the plan on screen?",
-            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No,
-            QMessageBox.StandardButton.No,
-        )  # fmt: skip
-        return answer == QMessageBox.StandardButton.Yes
 
     def read_request(self, path: Path) -> bool:
         from vetfluid.records.request_file import read_request_file
@@ -827,8 +769,9 @@ class MainWindow(QMainWindow):
                 return
         settings.sync()
         self._closed = True
-        if self._files_to_open:  # handed over earlier, still waiting: said, not dropped unseen
-            names = ", ".join(p.name for p, _ in self._files_to_open)
-            QMessageBox.information(self, "vetfluid", f"Not opened, as vetfluid closes: {names}.")
-            self._files_to_open.clear()
+        left = self.waiting_files.close()
+        if left:  # handed over earlier, still waiting: said, not dropped unseen
+            QMessageBox.information(
+                self, "vetfluid", f"Not opened, as vetfluid closes: {', '.join(left)}."
+            )
         super().closeEvent(event)
