@@ -74,6 +74,40 @@ def test_the_dogs_band_runs_from_50_to_its_water_deprivation_maximum():
     assert asked[0] == pytest.approx((50 * 2289) ** 0.5)
 
 
+@reference
+@pytest.mark.parametrize(
+    ("species_id", "ratio"),
+    [
+        # water-loaded geckos made urine at U/P 0.6–0.8, other lizards only 0.9–1.0
+        # ("Renal ultrastructure and excretion of salt and water by three terrestrial
+        # lizards", abstract): reptiles take 0.6
+        ("bearded_dragon", 0.6),
+        ("red_eared_slider", 0.6),
+        # water-loaded roosters: U/P down to 0.37 ("Renal function in domestic fowl",
+        # Am J Physiol 212:793, 1967)
+        ("african_grey", 0.37),
+        ("zebra_finch", 0.37),
+    ],
+)
+def test_birds_and_reptiles_dilute_only_to_their_urine_to_plasma_floor(species_id, ratio):
+    table = load_table()
+    plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg").number
+    band = kidney.urine_band(table, species_id)
+    assert band.floor_mosm_per_kg == pytest.approx(ratio * plasma)
+    assert band.floor_mosm_per_kg > 50  # the mammal's floor (Guyton & Hall) is far lower
+
+
+@reference
+def test_a_lizards_water_load_leaves_no_more_dilute_than_its_floor():
+    # the same lizard abstract: a water load's urine stays at or above U/P 0.6
+    dragon = plan_for(species_id="bearded_dragon", weight_kg=0.35, body_temp_c=30)
+    loaded, _ = load_effect(dragon, "dextrose_5", 20, 30, hours=12)
+    plasma = load_table().value("bearded_dragon", "plasma_osmolality_mosm_per_kg").number
+    urine = loaded.urine_osm_mosm_per_kg[1:]
+    assert np.nanmin(urine) >= 0.6 * plasma - 1e-9
+    assert np.nanmin(urine) < 0.7 * plasma  # it does dilute, down to the floor
+
+
 # ---- what a clinician must see (issue 19) ----------------------------------------------------
 @reference
 def test_a_healthy_dog_excretes_a_water_load_as_dilute_urine():

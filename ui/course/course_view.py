@@ -760,11 +760,12 @@ class CourseView(QWidget):
                 + (UNVERIFIED if ceiling_recalled and not narrowed else "")
             )
             self.ceiling_text.setPos(end_h, ceiling)
-            # the floor's words above it, unless the band is narrow: then under it
-            floor_words = f"diluting floor {q(floor, 'mOsm/kg')}" + (
+            # the floor's words above it, unless the band is narrow: then under it, in
+            # fewer words (the legend names the line), as a short plot has little room there
+            under = floor > 0.2 * ceiling
+            floor_words = f"{'floor' if under else 'diluting floor'} {q(floor, 'mOsm/kg')}" + (
                 UNVERIFIED if floor_recalled and not narrowed else ""
             )  # fmt: skip
-            under = floor > 0.2 * ceiling
             self.floor_text.setText("" if under else floor_words)
             self.floor_text_below.setText(floor_words if under else "")
             (self.floor_text_below if under else self.floor_text).setPos(end_h, floor)

@@ -33,7 +33,7 @@ from vetfluid.physiology.maintenance import usg_to_osmolality
 from vetfluid.tables.species import SpeciesTable, SpeciesValue
 
 URINE_OUTPUT = "urine_output_ml_per_kg_h"
-FLOOR = ("min_urine_osmolality_mosm_per_kg",)
+FLOOR = ("min_urine_osmolality_mosm_per_kg", "min_urine_plasma_ratio")
 CEILING = ("max_urine_osmolality_mosm_per_kg", "max_urine_plasma_ratio")
 
 

@@ -6,7 +6,8 @@ Pure functions and one step loop on plain floats; the equations and their source
 
 * **Band** (:func:`urine_band`). Urine osmolality lies between the species' diluting
   floor (``min_urine_osmolality_mosm_per_kg``; dog 50 mOsm/kg, van Vonderen IK et al.,
-  J Vet Intern Med 1997) and its concentrating ceiling (the maximum urine osmolality, or
+  J Vet Intern Med 1997; or U/P × plasma, ``min_urine_plasma_ratio``, for birds and
+  reptiles: :func:`diluting_floor`) and its concentrating ceiling (the maximum urine osmolality, or
   U/P × plasma for birds and reptiles; reptiles U/P 1, Holz). Renal disease narrows the band
   towards plasma (isosthenuria): an entered USG or urine osmolality sets the ceiling
   (never below plasma), and the floor comes up in the same proportion (our reasoning, no
@@ -230,6 +231,30 @@ def concentrating_ceiling(
     )
 
 
+def diluting_floor(
+    table: SpeciesTable, species_id: str
+) -> tuple[float, str, list[SpeciesValue]]:
+    """The species' least urine osmolality: measured, or U/P ratio × plasma osmolality
+    (water-loaded lizards U/P 0.6–1.0, "Renal ultrastructure and excretion of salt and water
+    by three terrestrial lizards"; water-loaded fowl 0.37, "Renal function in domestic fowl",
+    Am J Physiol 1967)."""
+    plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
+    direct = table.get(species_id, "min_urine_osmolality_mosm_per_kg")
+    if direct is not None:
+        return direct.number, "species minimum", [direct]
+    ratio = table.get(species_id, "min_urine_plasma_ratio")
+    if ratio is not None:
+        return ratio.number * plasma.number, "U/P × plasma", [ratio, plasma]
+    raise InputError(
+        "No diluting floor (least urine osmolality or urine-to-plasma ratio) is on record "
+        f"for this species ({table.species(species_id).common_name}), so the course cannot "
+        "follow its urine.",
+        field="min_urine_osmolality_mosm_per_kg",
+        value=None,
+        fix="Add the value to the species table.",
+    )
+
+
 def urine_volume_ml(solute_mosm: float, osmolality_mosm_per_kg: float) -> float:
     """Urine water (mL) that carries ``solute_mosm`` at ``osmolality_mosm_per_kg``:
     solute ÷ osmolality × 1000. At the concentrating ceiling this is the obligatory urine
@@ -272,10 +297,10 @@ def urine_band(
     plasma), narrowed towards isosthenuria with renal disease (:func:`narrowed_band`): by
     the patient's urine when one was entered, else to plasma."""
     plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
-    floor = table.value(species_id, "min_urine_osmolality_mosm_per_kg")
+    floor, _, floor_values = diluting_floor(table, species_id)
     ceiling, _, ceiling_values = concentrating_ceiling(table, species_id)
-    used = [floor, *ceiling_values, plasma]
-    low, high, narrowed_by = min(floor.number, plasma.number), ceiling, None
+    used = [*floor_values, *ceiling_values, plasma]
+    low, high, narrowed_by = min(floor, plasma.number), ceiling, None
     if renal_disease:
         entered = plasma.number if entered_mosm_per_kg is None else entered_mosm_per_kg
         low, high = narrowed_band(floor=low, ceiling=high, plasma=plasma.number,
