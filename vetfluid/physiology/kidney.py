@@ -231,9 +231,7 @@ def concentrating_ceiling(
     )
 
 
-def diluting_floor(
-    table: SpeciesTable, species_id: str
-) -> tuple[float, str, list[SpeciesValue]]:
+def diluting_floor(table: SpeciesTable, species_id: str) -> tuple[float, str, list[SpeciesValue]]:
     """The species' least urine osmolality: measured, or U/P ratio × plasma osmolality
     (water-loaded lizards U/P 0.6–1.0, "Renal ultrastructure and excretion of salt and water
     by three terrestrial lizards"; water-loaded fowl 0.37, "Renal function in domestic fowl",
