@@ -155,8 +155,8 @@ def _severities(node: ast.expr | None) -> frozenset[str] | None:
 
 
 def _code_argument(call: ast.Call) -> tuple[ast.expr | None, ast.expr | None]:
-    """(severity, code) of ``ledger.add(severity, code, …)`` or ``Finding(severity=…,
-    code=…)``; (None, None) for any other call."""
+    """(severity, code) of ``ledger.add(severity, code, …)``, ``Finding(severity=…,
+    code=…)`` or ``Rule(code, severity, …)``; (None, None) for any other call."""
     func = call.func
     keywords = {k.arg: k.value for k in call.keywords}
     if isinstance(func, ast.Attribute) and func.attr == "add" and len(call.args) >= 3:
@@ -164,6 +164,8 @@ def _code_argument(call: ast.Call) -> tuple[ast.expr | None, ast.expr | None]:
     name = func.id if isinstance(func, ast.Name) else getattr(func, "attr", "")
     if name == "Finding" and "code" in keywords:
         return keywords.get("severity"), keywords["code"]
+    if name == "Rule" and len(call.args) >= 2:  # a row of a table of rules: Rule(code, severity…)
+        return call.args[1], call.args[0]
     return None, None
 
 

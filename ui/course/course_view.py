@@ -86,7 +86,7 @@ from vetfluid.course.urine import (
     predicted_flow,
     predicted_osmolality,
 )
-from vetfluid.planning.safety import diuretic_effect_modelled
+from vetfluid.planning.diuretic_checks import effect_modelled as diuretic_effect_modelled
 from vetfluid.planning.schedule import hours_since
 
 # What can be recorded: field → (label, unit); a weight is typed and shown in a chosen unit

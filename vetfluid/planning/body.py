@@ -23,7 +23,8 @@ from vetfluid.common.errors import InputError
 from vetfluid.physiology import delivery, electrolytes, kidney, maintenance
 from vetfluid.physiology.hydration import body_water_fraction
 from vetfluid.physiology.maintenance import Maintenance
-from vetfluid.planning.safety import LINE_ROUTES, diuretic_effect_modelled
+from vetfluid.planning.diuretic_checks import effect_modelled as diuretic_effect_modelled
+from vetfluid.planning.safety import LINE_ROUTES
 from vetfluid.planning.schedule import DiureticDose, Phase
 from vetfluid.tables import diuretics, fluids
 from vetfluid.tables.species import SpeciesTable, SpeciesValue

@@ -24,7 +24,7 @@ from vetfluid.common.formatting import format_quantity, hour_text
 from vetfluid.common.units import preferred_weight_unit, weight_text
 from vetfluid.physiology import delivery, electrolytes, hydration, maintenance, resuscitation
 from vetfluid.physiology.ins_and_outs import InsAndOutsRow, ins_and_outs
-from vetfluid.planning import body, safety, schedule
+from vetfluid.planning import body, diuretic_checks, safety, schedule
 from vetfluid.planning.ledger import Ledger
 from vetfluid.planning.schedule import DiureticDose, Phase, ScheduleEntry
 from vetfluid.tables import diuretics, fluid_roles, fluids
@@ -1178,7 +1178,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     route, device = _route_and_device(ledger, request)
     k_band = _species_potassium_band(ledger, request)
     kcl = _potassium_to_add(request, k_band)
-    safety.note_potassium_band(ledger, k_band, by_hand=request.kcl_mmol_per_l is not None)
+    safety.note_potassium_band(ledger, k_band, by_hand=request.kcl_mmol_per_l is not None,
+                               kcl_by_hand=request.kcl_mmol_per_l)  # fmt: skip
     if request.kcl_mmol_per_l is None:  # the scale never chooses more than the route takes
         kcl = _kcl_within_route(ledger, request, kcl=kcl, route=route)
     bag = _bag(request, kcl)
@@ -1395,15 +1396,17 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             "Resuscitation volume is not subtracted from the deficit.",
             "Reassess hydration after resuscitation and re-plan.",
         )
-    safety.check_diuretics(ledger, doses)
+    if doses:
+        patient = _diuretic_patient(ledger, request, percent or 0.0)
+        diuretic_checks.check_diuretics(ledger, doses, patient)
     late = [d for d in doses if d.end_h > end_h + 1e-9 or d.start_h >= end_h - 1e-9]
     if late:  # the body is followed with the plan's intake and outputs only while it runs
         what = (f"{late[0].name} runs to {hour_text(late[0].end_h)}" if late[0].infusion
                 else f"{late[0].name} at {hour_text(late[0].start_h)} is given")  # fmt: skip
         ledger.add(
             "soft", "DIURETIC_AFTER_PLAN_END",
-            f"{what}, after the plan's fluids end ({hour_text(end_h)}): its urine after that "
-            "is not followed by the plan's checks or the course.",
+            f"{what}, after the plan's fluids end ({hour_text(end_h)}): the plan's checks stop "
+            "there, and the course goes on with its urine and no fluid given.",
             "Extend the plan to cover the diuretic, or plan the diuretic on its own and measure "
             "urine output, weight and Na.",
         )  # fmt: skip
@@ -1480,6 +1483,34 @@ def _soaks(ledger: Ledger, request: PlanRequest, *, end_h: float) -> tuple[Sched
             minutes=minutes.number,
         )
     )  # fmt: skip
+
+
+def _diuretic_patient(
+    ledger: Ledger, request: PlanRequest, dehydration_percent: float
+) -> diuretic_checks.Patient:
+    """What the diuretic rules read of the patient. The species' K and bicarbonate intervals
+    are read only where a value was entered to compare (else they would be listed as used)."""
+    k = ledger.value("serum_k_mmol_per_l") if request.serum_k is not None else None
+    hco3 = ledger.get("serum_hco3_mmol_per_l") if request.serum_hco3 is not None else None
+    urine_low = False
+    if request.ins_and_outs_period_h is not None and request.measured_outputs:
+        normal = ledger.get("urine_output_ml_per_kg_h")
+        if normal is not None:
+            line = normal.low if normal.low is not None else normal.number
+            last_urine = request.measured_outputs[-1][0]
+            urine_low = last_urine / request.ins_and_outs_period_h / request.weight_kg < line
+    return diuretic_checks.Patient(
+        species_name=ledger.species.common_name.lower(),
+        dehydration_percent=dehydration_percent,
+        renal_output=request.renal_output if request.renal_disease else None,
+        cardiac_disease=request.cardiac_disease,
+        serum_k=request.serum_k,
+        k_low=None if k is None else (k.low if k.low is not None else k.number),
+        k_high=None if k is None else (k.high if k.high is not None else k.number),
+        serum_hco3=request.serum_hco3,
+        hco3_low=None if hco3 is None else (hco3.low if hco3.low is not None else hco3.number),
+        urine_measured_low=urine_low,
+    )
 
 
 def _diuretic_doses(request: PlanRequest) -> tuple[DiureticDose, ...]:

@@ -16,15 +16,20 @@ from vetfluid.common.formatting import format_quantity as q
 from vetfluid.common.formatting import hour_text, weeks_text
 from vetfluid.physiology import delivery, hydration
 from vetfluid.physiology.delivery import DIVIDED_INTERVALS_H
-from vetfluid.physiology.electrolytes import PotassiumSummary, SodiumCourse, SpeciesPotassiumBand
+from vetfluid.physiology.electrolytes import (
+    SCALE_REFERENCE_LOW_MMOL_PER_L,
+    PotassiumSummary,
+    SodiumCourse,
+    SpeciesPotassiumBand,
+)
 from vetfluid.physiology.hydration import overload_weight_kg
 from vetfluid.physiology.maintenance import Maintenance, WaterBudget
 from vetfluid.physiology.resuscitation import RESUSCITATION_ROUTES, Resuscitation
 from vetfluid.planning.ledger import Ledger
-from vetfluid.planning.schedule import DIURETIC_ROUTE_WORDS, DiureticDose, Phase, route_text
-from vetfluid.tables import diuretics, fluid_roles, fluids
+from vetfluid.planning.schedule import Phase, route_text
+from vetfluid.tables import fluid_roles, fluids
 from vetfluid.tables.limits import limit
-from vetfluid.tables.species import SpeciesTable, SpeciesValue
+from vetfluid.tables.species import SpeciesValue
 
 LINE_ROUTES = RESUSCITATION_ROUTES  # a continuous line: IV or IO
 NEAR_PLASMA_FACTOR = 1.2  # urine within 20% of plasma counts as "close to plasma" for the note
@@ -836,12 +841,36 @@ def check_potassium(
 
 
 def note_potassium_band(
-    ledger: Ledger, band: SpeciesPotassiumBand | None, *, by_hand: bool
+    ledger: Ledger,
+    band: SpeciesPotassiumBand | None,
+    *,
+    by_hand: bool,
+    kcl_by_hand: float | None = None,
 ) -> None:
     """Serum K above the species' reference interval (soft: no KCl is added by the scale,
-    look for the cause), and the scale's origin when the patient is not a dog or cat."""
+    look for the cause); KCl entered by hand below what the scale gives a serum K under
+    the species' interval (soft: the K already low falls on); and the scale's origin when
+    the patient is not a dog or cat."""
     if band is None:
         return
+    scale = band.band
+    below = band.compared_at_mmol_per_l < SCALE_REFERENCE_LOW_MMOL_PER_L
+    if (
+        kcl_by_hand is not None
+        and scale is not None
+        and below
+        and kcl_by_hand < scale.kcl_mmol_per_l
+    ):
+        ledger.add(
+            "soft",
+            "KCL_BELOW_SCALE_FOR_LOW_K",
+            f"Serum K is below this species' interval, and the bag has "
+            f"{q(kcl_by_hand, 'mmol/L')} KCl entered by hand; the serum-K scale gives "
+            f"{q(scale.kcl_mmol_per_l, 'mmol/L')} at this K (Côté 2020).",
+            "Add the scale's KCl (leave the box empty to let the scale choose), or give a "
+            "reason; recheck serum K in 4–6 h.",
+            scale.source_id,
+        )
     if band.above_range:
         ledger.add(
             "soft",
@@ -1657,92 +1686,6 @@ def note_unverified(ledger: Ledger) -> None:
             f"{len(unverified)} species value(s) used here were recalled from memory, not "
             f"checked against a publication: {', '.join(unverified)}.",
             "Check them against your references before relying on them.",
-        )
-
-
-def _dose_words(dose: DiureticDose) -> str:
-    """``furosemide 20 mg/kg IV`` (an infusion: ``furosemide 2 mg/kg/h by IV infusion``)."""
-    given = f"{dose.name} {dose.dose:g} {dose.unit}"
-    return f"{given} by IV infusion" if dose.infusion else (
-        f"{given} {DIURETIC_ROUTE_WORDS[dose.route]}"
-    )  # fmt: skip
-
-
-def diuretic_effect_modelled(table: SpeciesTable, species_id: str, dose: DiureticDose) -> bool:
-    """Whether the course can show this dose's effect: mannitol by its osmoles; any other
-    drug needs onset, peak and duration on record for the species (an infusion: those of
-    an IV dose)."""
-    if dose.drug_class == "osmotic":
-        return bool(diuretics.rows_for(table, species_id, dose.drug_id, dose.route))
-    route = "iv" if dose.infusion else dose.route
-    return diuretics.timing(table, species_id, dose.drug_id, route) is not None
-
-
-def _sentence(text: str) -> str:
-    return text[:1].upper() + text[1:] + "."
-
-
-def check_diuretics(ledger: Ledger, doses: tuple[DiureticDose, ...]) -> None:
-    """Each diuretic dose against the table's range for the species and route
-    (``species_data/diuretics.csv``): outside every range on record, or with no dose on
-    record for the species at all, a soft finding; a dose whose onset and duration are not
-    on record is a note that the course does not show its effect (never guessed)."""
-    outside, far, unknown, unmodelled = [], [], [], []
-    outside_source = None
-    far_factor = limit("diuretic_dose_hard_factor")
-    species = ledger.species.common_name.lower()
-    for dose in dict.fromkeys(doses):  # the same dose at several hours is judged once
-        rows = diuretics.rows_for(ledger.table, ledger.species_id, dose.drug_id, dose.route)
-        if not rows:
-            unknown.append(_dose_words(dose))
-            continue
-        if not any(r.dose_low - 1e-9 <= dose.dose <= r.dose_high + 1e-9 for r in rows):
-            ranges = " or ".join(dict.fromkeys(r.range_text() for r in rows))
-            where = ledger.table.species(rows[0].species_id).common_name.lower()
-            recalled = (" (recalled, unverified)"
-                        if all(r.dose_basis == "memory" for r in rows) else "")  # fmt: skip
-            words = f"{_dose_words(dose)} is outside the {ranges} on record for the {where}"
-            if dose.dose > far_factor.value * max(r.dose_high for r in rows):
-                far.append(f"{words} (more than {far_factor.value:g}× its top)")
-            else:
-                outside.append(words + recalled)
-            outside_source = outside_source or rows[0].dose_source_id
-        if not diuretic_effect_modelled(ledger.table, ledger.species_id, dose):
-            unmodelled.append(_dose_words(dose))
-    if far:
-        ledger.add(
-            far_factor.severity,
-            "DIURETIC_DOSE_FAR_ABOVE_RANGE",
-            _sentence("; ".join(dict.fromkeys(far))),
-            "Check the unit (mg/kg, or g/kg for mannitol) and the decimal point; this dose "
-            "is not given as entered.",
-            outside_source,
-        )
-    if outside:
-        ledger.add(
-            "soft",
-            "DIURETIC_DOSE_OUTSIDE_RANGE",
-            _sentence("; ".join(dict.fromkeys(outside))),
-            "Check the dose and its unit; give a reason if it is meant.",
-            outside_source,
-        )
-    if unknown:
-        ledger.add(
-            "soft",
-            "DIURETIC_NO_DOSE_ON_RECORD",
-            f"No dose for the {species} is on record for "
-            f"{', '.join(dict.fromkeys(unknown))}: the plan cannot check it, and the course "
-            "does not show its effect.",
-            "Check the dose in a formulary for this species; give a reason if it is meant.",
-        )
-    if unmodelled:
-        ledger.add(
-            "info",
-            "DIURETIC_EFFECT_NOT_MODELLED",
-            f"No onset and duration for the {species} are on record for "
-            f"{', '.join(dict.fromkeys(unmodelled))}: the course does not show its effect on "
-            "urine, sodium or potassium.",
-            "Measure urine output and recheck Na and K after it is given.",
         )
 
 
