@@ -1,8 +1,8 @@
 """vetfluid-cli: the headless command line (never imports Qt).
 
-Exit codes: 0 a usable answer; 3 the plan was computed but a hard limit was hit
-(the findings say which); 2 invalid input (one line on stderr naming the field,
-the bad value and the fix).
+Exit codes: 0 a usable answer; 3 the plan was computed but a hard limit was hit,
+by the plan or (``course``) by the course predicted from it (the findings say which);
+2 invalid input (one line on stderr naming the field, the bad value and the fix).
 """
 
 from __future__ import annotations
@@ -24,6 +24,14 @@ if TYPE_CHECKING:
     from vetfluid.planning.schedule import Phase
 
 EXIT_OK, EXIT_INPUT, EXIT_HARD_LIMIT = 0, 2, 3
+
+
+def _exit_codes_text(*, course: bool) -> str:
+    """The exit codes as --help gives them (the module docstring's, in words)."""
+    hit = "by the plan or by the course predicted from it" if course else "by the plan"
+    return (f"Exit codes: 0 a usable answer; 3 a hard limit was hit {hit} (the findings "
+            "say which; do not give it as it stands); 2 invalid input (one line on stderr "
+            "naming the option, the bad value and the fix).")  # fmt: skip
 
 
 class _Parser(argparse.ArgumentParser):
@@ -314,10 +322,15 @@ def _parser(*, only_given: bool = False) -> argparse.ArgumentParser:
     fluids_cmd = sub.add_parser("fluids", help="the fluid library with computed composition")
     fluids_cmd.add_argument("--json", action="store_true")
 
-    plan = sub.add_parser("plan", help="build a fluid plan for one patient")
+    plan = sub.add_parser(
+        "plan", help="build a fluid plan for one patient", epilog=_exit_codes_text(course=False)
+    )
     _add_plan_arguments(plan, only_given=only_given)
 
-    course = sub.add_parser("course", help="body water, weight and Na over the course of a plan")
+    course = sub.add_parser(
+        "course", help="body water, weight and Na over the course of a plan",
+        epilog=_exit_codes_text(course=True),
+    )  # fmt: skip
     _add_plan_arguments(course, only_given=only_given)
     course.add_argument(
         "--bolus-ml-per-kg", type=_number, help="an extra IV bolus at hour 0, mL/kg"
@@ -775,6 +788,7 @@ def _course_cell(row: dict, key: str, weight_unit: str) -> str:
 
 def cmd_course(args: argparse.Namespace) -> int:
     from vetfluid.common.checks import require_number
+    from vetfluid.common.findings import worst
     from vetfluid.common.units import weight_text
     from vetfluid.course.model import MAX_HORIZON_H, SHOWN_STEP_MINUTES, bolus_input, course
     from vetfluid.planning.plan import build_plan
@@ -858,7 +872,10 @@ def cmd_course(args: argparse.Namespace) -> int:
         print("\nFindings of the plan")
         _print_findings(data["findings"])
         print("\n" + _cautions_text())
-    return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK
+    # the course's own hard finding (its figures stop being a prediction) blocks as the
+    # plan's does: a script reading only the exit code must not take it for a usable answer
+    blocked = plan.has_hard_limit or worst(result.findings) == "hard"
+    return EXIT_HARD_LIMIT if blocked else EXIT_OK
 
 
 COMMANDS = {
