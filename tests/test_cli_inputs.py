@@ -79,3 +79,21 @@ def test_the_help_says_what_each_exit_code_means(capsys, command):
     assert "exit codes: 0 a usable answer" in text.lower()
     assert "2 invalid input" in text and "3 a hard limit" in text
     assert ("course predicted from it" in text) == (command == "course")
+
+
+# ---- 2a. an empty loss type ---------------------------------------------------------------------
+# Input handling, no clinical source.
+
+
+@pytest.mark.parametrize("typed", ["", "   "])
+def test_an_empty_loss_type_is_refused_not_taken_as_isotonic(capsys, typed):
+    err = refused(capsys, "plan", *DOG, "--losses-ml-per-day", "500", "--loss-type", typed)
+    assert "--loss-type" in err
+    for name in ("isotonic", "vomitus", "diarrhoea", "polyuria", "drain"):  # the fix lists them
+        assert name in err
+
+
+def test_no_loss_type_keeps_the_isotonic_default():
+    # the documented default (--loss-type help, README): unknown losses are taken as isotonic
+    args = cli._parser().parse_args(["plan", *DOG, "--losses-ml-per-day", "500"])
+    assert cli._request(args).loss_type == "isotonic"

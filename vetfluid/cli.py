@@ -526,9 +526,25 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         pcv_percent=args.pcv,
         total_solids_g_per_dl=args.ts,
         diuretics=_diuretics(args),
-        loss_type=args.loss_type or "isotonic",
+        loss_type=_loss_type(args.loss_type),
         renal_output=args.renal_output,
     )
+
+
+def _loss_type(typed: str | None) -> str:
+    """--loss-type, or the core's default when the option is left out (losses of unknown
+    kind taken as isotonic); typed but empty it is refused, never taken as that default."""
+    from vetfluid.physiology.electrolytes import DEFAULT_LOSS_TYPE, LOSS_TYPES
+
+    if typed is None:
+        return DEFAULT_LOSS_TYPE
+    if not typed.strip():
+        raise InputError(
+            "is empty: say what the ongoing losses are", field="--loss-type", value=typed,
+            fix=f"give one of {', '.join(LOSS_TYPES)}, or leave --loss-type out when it is not "
+            f"known (then {DEFAULT_LOSS_TYPE})",
+        )  # fmt: skip
+    return typed
 
 
 def _q(value: float | None, unit: str) -> str:
