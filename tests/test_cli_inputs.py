@@ -97,3 +97,21 @@ def test_no_loss_type_keeps_the_isotonic_default():
     # the documented default (--loss-type help, README): unknown losses are taken as isotonic
     args = cli._parser().parse_args(["plan", *DOG, "--losses-ml-per-day", "500"])
     assert cli._request(args).loss_type == "isotonic"
+
+
+# ---- 2b. an infusion's route --------------------------------------------------------------------
+# Input handling, no clinical source (a constant-rate infusion runs into a vein: the
+# diuretic table's "cri" route, species_data/diuretics.csv).
+CRI = ("--diuretic", "furosemide", "--diuretic-cri", "0.5", "--diuretic-at", "0,6")
+
+
+@pytest.mark.parametrize("route", ["po", "im", "sc"])
+def test_an_infusion_given_a_route_other_than_iv_is_refused(capsys, route):
+    err = refused(capsys, "plan", *DOG, *CRI, "--diuretic-route", route)
+    assert "--diuretic-route" in err and "IV" in err
+
+
+def test_an_infusion_may_say_iv(capsys):
+    code, out, err = run(capsys, "plan", *DOG, *CRI, "--diuretic-route", "iv", "--json")
+    assert code == cli.EXIT_OK, err
+    assert [d["route"] for d in json.loads(out)["diuretics"]] == ["cri"]

@@ -136,6 +136,13 @@ def _diuretics(args: argparse.Namespace) -> tuple[tuple[str, float, str, float, 
                 "an infusion runs from one hour to another", field="--diuretic-at", value=None,
                 fix="give START,END with --diuretic-cri, e.g. --diuretic-at 2,10",
             )  # fmt: skip
+        if args.diuretic_route not in (None, "iv"):  # never given by another route unsaid
+            raise InputError(
+                f"an infusion (--diuretic-cri) runs IV, not {args.diuretic_route.upper()}",
+                field="--diuretic-route", value=args.diuretic_route,
+                fix="leave --diuretic-route out (or say iv) for the infusion, or give "
+                "--diuretic-dose instead of --diuretic-cri for doses by that route",
+            )  # fmt: skip
         return ((drug, rate, "cri", hours[0], hours[1]),)
     from vetfluid.tables.diuretics import drug as find_drug
 
