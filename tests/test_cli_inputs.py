@@ -115,3 +115,38 @@ def test_an_infusion_may_say_iv(capsys):
     code, out, err = run(capsys, "plan", *DOG, *CRI, "--diuretic-route", "iv", "--json")
     assert code == cli.EXIT_OK, err
     assert [d["route"] for d in json.loads(out)["diuretics"]] == ["cri"]
+
+
+# ---- 2c. empty entries in a comma list ----------------------------------------------------------
+# Input handling, no clinical source: "0,,4" may be a dropped hour or volume, never guessed.
+MEASURED = ("--ins-and-outs-period", "4")
+
+
+@pytest.mark.parametrize(
+    ("args", "flag"),
+    [
+        (("course", *DOG, "--at", "0,,4"), "--at"),
+        (("course", *DOG, "--at", "0,4,"), "--at"),
+        (("plan", *DOG, "--diuretic", "furosemide", "--diuretic-dose", "2",
+          "--diuretic-route", "iv", "--diuretic-at", "0,,4"), "--diuretic-at"),
+        (("plan", *DOG, "--diuretic", "furosemide", "--diuretic-dose", "2",
+          "--diuretic-route", "iv", "--diuretic-at", ",8"), "--diuretic-at"),
+        (("plan", *DOG, *MEASURED, "--measured-urine-ml", "60,,45"), "--measured-urine-ml"),
+        (("plan", *DOG, *MEASURED, "--measured-urine-ml", "60,45,"), "--measured-urine-ml"),
+        (("plan", *DOG, *MEASURED, "--measured-urine-ml", ""), "--measured-urine-ml"),
+        (("plan", *DOG, *MEASURED, "--measured-urine-ml", "60,45",
+          "--measured-other-ml", "10,,5"), "--measured-other-ml"),
+        (("plan", *DOG, *MEASURED, "--measured-urine-ml", "60",
+          "--measured-other-ml", ""), "--measured-other-ml"),
+    ],
+)  # fmt: skip
+def test_an_empty_entry_in_a_comma_list_is_refused(capsys, args, flag):
+    err = refused(capsys, *args)
+    assert flag in err and "empty" in err, err
+
+
+def test_a_full_comma_list_is_still_read(capsys):
+    code, out, err = run(capsys, "plan", *DOG, *MEASURED, "--measured-urine-ml", "60, 45",
+                         "--measured-other-ml", "10,5", "--json")  # fmt: skip
+    assert code == cli.EXIT_OK, err
+    assert json.loads(out)["ins_and_outs"]["periods"]  # both periods taken

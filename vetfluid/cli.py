@@ -11,7 +11,7 @@ import argparse
 import json
 import os
 import sys
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from datetime import date, datetime, time
 from typing import TYPE_CHECKING, NoReturn
 
@@ -70,15 +70,46 @@ def _start_time(text: str) -> time:
         raise argparse.ArgumentTypeError(f"start time {text!r} must be HH:MM, e.g. 08:30") from None
 
 
-def _volumes(text: str) -> tuple[float, ...]:
+def _comma_numbers(text: str, *, field: str, what: str, example: str) -> tuple[float, ...]:
+    """Numbers typed separated by commas (``0,8,16``), each read as every typed number is
+    (:func:`vetfluid.common.units.read_number`). An empty entry (``0,,16``, a comma at
+    either end, nothing at all) is refused, never skipped: a number may have been left
+    out, and the list without it would be silently another plan."""
     from vetfluid.common.units import read_number
 
+    fix = f"give {what} separated by commas, e.g. {example}"
+    if not text.strip():
+        raise InputError(f"is empty: it needs {what}", field=field, value=text, fix=fix)
+    parts = text.split(",")
+    for place, part in enumerate(parts, start=1):
+        if not part.strip():
+            raise InputError(
+                f"entry {place} of {text!r} is empty: a number may have been left out",
+                field=field, value=text,
+                fix=f"type a number between every two commas and none at either end, "
+                f"e.g. {example}",
+            )  # fmt: skip
     try:
-        return tuple(read_number(part) for part in text.split(",") if part.strip())
+        return tuple(read_number(part, field=field) for part in parts)
     except InputError as exc:
-        raise argparse.ArgumentTypeError(
-            f"{text!r} must be volumes in mL separated by commas, e.g. 60,45 ({exc.message})"
-        ) from None
+        raise InputError(f"in {text!r}: {exc.message}", field=field, value=text,
+                         fix=fix) from None  # fmt: skip
+
+
+def _comma_option(what: str, example: str) -> Callable[[str], tuple[float, ...]]:
+    """An option's comma list (:func:`_comma_numbers`), refused while the options are read
+    (argparse names the option)."""
+
+    def read(text: str) -> tuple[float, ...]:
+        try:
+            return _comma_numbers(text, field="", what=what, example=example)
+        except InputError as exc:
+            raise argparse.ArgumentTypeError(f"{exc.message} — {exc.fix}") from None
+
+    return read
+
+
+_volumes = _comma_option("volumes in mL", "60,45")
 
 
 def _measured(
@@ -92,18 +123,7 @@ def _measured(
     return tuple(zip(urine, other or (0.0,) * len(urine), strict=True))
 
 
-def _diuretic_hours(text: str) -> tuple[float, ...]:
-    from vetfluid.common.units import read_number
-
-    try:
-        hours = tuple(read_number(part) for part in text.split(",") if part.strip())
-    except InputError as exc:
-        raise argparse.ArgumentTypeError(
-            f"{text!r} must be hours separated by commas, e.g. 0,8,16 ({exc.message})"
-        ) from None
-    if not hours:
-        raise argparse.ArgumentTypeError(f"{text!r} must be hours separated by commas, e.g. 0,8")
-    return hours
+_diuretic_hours = _comma_option("hours", "0,8,16")
 
 
 def _diuretics(args: argparse.Namespace) -> tuple[tuple[str, float, str, float, float], ...]:
@@ -761,16 +781,8 @@ def cmd_sodium(args: argparse.Namespace) -> int:
 
 
 def _hours(text: str) -> list[float]:
-    from vetfluid.common.units import read_number
-
-    try:
-        hours = [read_number(part, field="--at") for part in text.split(",") if part.strip()]
-    except InputError as exc:
-        raise InputError(
-            f"--at must list hours separated by commas ({exc.message})", field="--at",
-            value=text, fix="e.g. 0,1,24",
-        ) from None  # fmt: skip
-    if not hours or any(h < 0 for h in hours):
+    hours = list(_comma_numbers(text, field="--at", what="hours", example="0,1,24"))
+    if any(h < 0 for h in hours):
         raise InputError("--at needs hours of 0 or more", field="--at", value=text)
     return hours
 
