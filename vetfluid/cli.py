@@ -1,8 +1,8 @@
 """vetfluid-cli: the headless command line (never imports Qt).
 
-Exit codes: 0 a usable answer; 3 the plan was computed but a hard limit was hit
-(the findings say which); 2 invalid input (one line on stderr naming the field,
-the bad value and the fix).
+Exit codes: 0 a usable answer; 3 the plan was computed but a hard limit was hit,
+by the plan or (``course``) by the course predicted from it (the findings say which);
+2 invalid input (one line on stderr naming the field, the bad value and the fix).
 """
 
 from __future__ import annotations
@@ -11,7 +11,7 @@ import argparse
 import json
 import os
 import sys
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from datetime import date, datetime, time
 from typing import TYPE_CHECKING, NoReturn
 
@@ -24,6 +24,14 @@ if TYPE_CHECKING:
     from vetfluid.planning.schedule import Phase
 
 EXIT_OK, EXIT_INPUT, EXIT_HARD_LIMIT = 0, 2, 3
+
+
+def _exit_codes_text(*, course: bool) -> str:
+    """The exit codes as --help gives them (the module docstring's, in words)."""
+    hit = "by the plan or by the course predicted from it" if course else "by the plan"
+    return (f"Exit codes: 0 a usable answer; 3 a hard limit was hit {hit} (the findings "
+            "say which; do not give it as it stands); 2 invalid input (one line on stderr "
+            "naming the option, the bad value and the fix).")  # fmt: skip
 
 
 class _Parser(argparse.ArgumentParser):
@@ -62,15 +70,46 @@ def _start_time(text: str) -> time:
         raise argparse.ArgumentTypeError(f"start time {text!r} must be HH:MM, e.g. 08:30") from None
 
 
-def _volumes(text: str) -> tuple[float, ...]:
+def _comma_numbers(text: str, *, field: str, what: str, example: str) -> tuple[float, ...]:
+    """Numbers typed separated by commas (``0,8,16``), each read as every typed number is
+    (:func:`vetfluid.common.units.read_number`). An empty entry (``0,,16``, a comma at
+    either end, nothing at all) is refused, never skipped: a number may have been left
+    out, and the list without it would be silently another plan."""
     from vetfluid.common.units import read_number
 
+    fix = f"give {what} separated by commas, e.g. {example}"
+    if not text.strip():
+        raise InputError(f"is empty: it needs {what}", field=field, value=text, fix=fix)
+    parts = text.split(",")
+    for place, part in enumerate(parts, start=1):
+        if not part.strip():
+            raise InputError(
+                f"entry {place} of {text!r} is empty: a number may have been left out",
+                field=field, value=text,
+                fix=f"type a number between every two commas and none at either end, "
+                f"e.g. {example}",
+            )  # fmt: skip
     try:
-        return tuple(read_number(part) for part in text.split(",") if part.strip())
+        return tuple(read_number(part, field=field) for part in parts)
     except InputError as exc:
-        raise argparse.ArgumentTypeError(
-            f"{text!r} must be volumes in mL separated by commas, e.g. 60,45 ({exc.message})"
-        ) from None
+        raise InputError(f"in {text!r}: {exc.message}", field=field, value=text,
+                         fix=fix) from None  # fmt: skip
+
+
+def _comma_option(what: str, example: str) -> Callable[[str], tuple[float, ...]]:
+    """An option's comma list (:func:`_comma_numbers`), refused while the options are read
+    (argparse names the option)."""
+
+    def read(text: str) -> tuple[float, ...]:
+        try:
+            return _comma_numbers(text, field="", what=what, example=example)
+        except InputError as exc:
+            raise argparse.ArgumentTypeError(f"{exc.message} — {exc.fix}") from None
+
+    return read
+
+
+_volumes = _comma_option("volumes in mL", "60,45")
 
 
 def _measured(
@@ -84,18 +123,7 @@ def _measured(
     return tuple(zip(urine, other or (0.0,) * len(urine), strict=True))
 
 
-def _diuretic_hours(text: str) -> tuple[float, ...]:
-    from vetfluid.common.units import read_number
-
-    try:
-        hours = tuple(read_number(part) for part in text.split(",") if part.strip())
-    except InputError as exc:
-        raise argparse.ArgumentTypeError(
-            f"{text!r} must be hours separated by commas, e.g. 0,8,16 ({exc.message})"
-        ) from None
-    if not hours:
-        raise argparse.ArgumentTypeError(f"{text!r} must be hours separated by commas, e.g. 0,8")
-    return hours
+_diuretic_hours = _comma_option("hours", "0,8,16")
 
 
 def _diuretics(args: argparse.Namespace) -> tuple[tuple[str, float, str, float, float], ...]:
@@ -127,6 +155,13 @@ def _diuretics(args: argparse.Namespace) -> tuple[tuple[str, float, str, float, 
             raise InputError(
                 "an infusion runs from one hour to another", field="--diuretic-at", value=None,
                 fix="give START,END with --diuretic-cri, e.g. --diuretic-at 2,10",
+            )  # fmt: skip
+        if args.diuretic_route not in (None, "iv"):  # never given by another route unsaid
+            raise InputError(
+                f"an infusion (--diuretic-cri) runs IV, not {args.diuretic_route.upper()}",
+                field="--diuretic-route", value=args.diuretic_route,
+                fix="leave --diuretic-route out (or say iv) for the infusion, or give "
+                "--diuretic-dose instead of --diuretic-cri for doses by that route",
             )  # fmt: skip
         return ((drug, rate, "cri", hours[0], hours[1]),)
     from vetfluid.tables.diuretics import drug as find_drug
@@ -314,10 +349,15 @@ def _parser(*, only_given: bool = False) -> argparse.ArgumentParser:
     fluids_cmd = sub.add_parser("fluids", help="the fluid library with computed composition")
     fluids_cmd.add_argument("--json", action="store_true")
 
-    plan = sub.add_parser("plan", help="build a fluid plan for one patient")
+    plan = sub.add_parser(
+        "plan", help="build a fluid plan for one patient", epilog=_exit_codes_text(course=False)
+    )
     _add_plan_arguments(plan, only_given=only_given)
 
-    course = sub.add_parser("course", help="body water, weight and Na over the course of a plan")
+    course = sub.add_parser(
+        "course", help="body water, weight and Na over the course of a plan",
+        epilog=_exit_codes_text(course=True),
+    )  # fmt: skip
     _add_plan_arguments(course, only_given=only_given)
     course.add_argument(
         "--bolus-ml-per-kg", type=_number, help="an extra IV bolus at hour 0, mL/kg"
@@ -513,9 +553,25 @@ def _request(args: argparse.Namespace):  # noqa: ANN202 — PlanRequest, importe
         pcv_percent=args.pcv,
         total_solids_g_per_dl=args.ts,
         diuretics=_diuretics(args),
-        loss_type=args.loss_type or "isotonic",
+        loss_type=_loss_type(args.loss_type),
         renal_output=args.renal_output,
     )
+
+
+def _loss_type(typed: str | None) -> str:
+    """--loss-type, or the core's default when the option is left out (losses of unknown
+    kind taken as isotonic); typed but empty it is refused, never taken as that default."""
+    from vetfluid.physiology.electrolytes import DEFAULT_LOSS_TYPE, LOSS_TYPES
+
+    if typed is None:
+        return DEFAULT_LOSS_TYPE
+    if not typed.strip():
+        raise InputError(
+            "is empty: say what the ongoing losses are", field="--loss-type", value=typed,
+            fix=f"give one of {', '.join(LOSS_TYPES)}, or leave --loss-type out when it is not "
+            f"known (then {DEFAULT_LOSS_TYPE})",
+        )  # fmt: skip
+    return typed
 
 
 def _q(value: float | None, unit: str) -> str:
@@ -725,16 +781,8 @@ def cmd_sodium(args: argparse.Namespace) -> int:
 
 
 def _hours(text: str) -> list[float]:
-    from vetfluid.common.units import read_number
-
-    try:
-        hours = [read_number(part, field="--at") for part in text.split(",") if part.strip()]
-    except InputError as exc:
-        raise InputError(
-            f"--at must list hours separated by commas ({exc.message})", field="--at",
-            value=text, fix="e.g. 0,1,24",
-        ) from None  # fmt: skip
-    if not hours or any(h < 0 for h in hours):
+    hours = list(_comma_numbers(text, field="--at", what="hours", example="0,1,24"))
+    if any(h < 0 for h in hours):
         raise InputError("--at needs hours of 0 or more", field="--at", value=text)
     return hours
 
@@ -775,6 +823,7 @@ def _course_cell(row: dict, key: str, weight_unit: str) -> str:
 
 def cmd_course(args: argparse.Namespace) -> int:
     from vetfluid.common.checks import require_number
+    from vetfluid.common.findings import worst
     from vetfluid.common.units import weight_text
     from vetfluid.course.model import MAX_HORIZON_H, SHOWN_STEP_MINUTES, bolus_input, course
     from vetfluid.planning.plan import build_plan
@@ -858,7 +907,10 @@ def cmd_course(args: argparse.Namespace) -> int:
         print("\nFindings of the plan")
         _print_findings(data["findings"])
         print("\n" + _cautions_text())
-    return EXIT_HARD_LIMIT if plan.has_hard_limit else EXIT_OK
+    # the course's own hard finding (its figures stop being a prediction) blocks as the
+    # plan's does: a script reading only the exit code must not take it for a usable answer
+    blocked = plan.has_hard_limit or worst(result.findings) == "hard"
+    return EXIT_HARD_LIMIT if blocked else EXIT_OK
 
 
 COMMANDS = {
