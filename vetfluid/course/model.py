@@ -26,7 +26,7 @@ The equations, their sources and their simplifications are written out in
   ``bicarbonate_space_fraction``), raised by the fluids' lactate, acetate and gluconate as
   they are metabolised (half-life :data:`BASE_PRECURSOR_HALF_LIFE_MIN`), diluted as the ECF
   grows, moved by each loss type's HCO3 and H+, lowered by acetazolamide's bicarbonaturia and
-  brought back by a healthy kidney with ``hco3_renal_return_h``.
+  brought back by a healthy kidney with ``hco3_renal_return_h`` (not while acetazolamide acts).
 
 The starting compartments are the species' fractions of the entered (dehydrated) weight.
 """
@@ -663,7 +663,9 @@ def _follow_bicarbonate(
     the species' reference interval) with ``hco3_renal_return_h``:
     B ← V·set + (B − V·set)·e^(−Δt/τ). Dilution needs no term: a bicarbonate-free fluid
     enlarges V around the same B. The return is left out with renal disease, with no kidney
-    (ins and outs) and where the species has no normal or time constant on record."""
+    (ins and outs), where the species has no normal or time constant on record, and in each
+    step in which acetazolamide makes the urine carry bicarbonate (it blocks the proximal
+    reabsorption the return stands for; our modelling choice, docs/model.md)."""
     request, sid, w = plan.request, plan.request.species_id, plan.request.weight_kg
     used: list[SpeciesValue] = []
     space = table.get(sid, "bicarbonate_space_fraction")
@@ -695,13 +697,14 @@ def _follow_bicarbonate(
         0.0 if own else lost[1:] * (losses.h_mmol_per_l - losses.hco3_mmol_per_l) / 1000.0
     )
     drug = 0.0
+    keep = np.full(len(volume) - 1, keep)
     if drug_hco3_mmol is not None:
-        drug = (
-            np.diff(np.asarray(drug_hco3_mmol))[: len(volume) - 1]
-            * 1000.0
-            / (volume[1:] * set_point)
-        )  # share of B the drug takes: HCO3/set point × its amount
-    a = keep * (1.0 - drug) * (1.0 - share_lost) * np.ones(len(volume) - 1)
+        taken = np.diff(np.asarray(drug_hco3_mmol))[: len(volume) - 1]
+        drug = taken * 1000.0 / (volume[1:] * set_point)  # share of B: HCO3/set point × amount
+        # while the drug acts it blocks the proximal reabsorption the return stands for: no
+        # return in those steps (docs/model.md, "Bicarbonate"; our modelling choice)
+        keep[taken > 0.0] = 1.0
+    a = keep * (1.0 - drug) * (1.0 - share_lost)
     b = keep * (1.0 - drug) * added + (1.0 - keep) * set_point * volume[1:] / 1000.0
     return _linear_steps(hco3_0 * volume[0] / 1000.0, a, b) * 1000.0 / volume, used
 
