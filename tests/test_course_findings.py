@@ -7,14 +7,17 @@ agree, and nothing the course shows goes unsaid)."""
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
 
 from vetfluid import cli
-from vetfluid.course.model import SHOWN_STEP_MINUTES, course
+from vetfluid.common.formatting import format_number
+from vetfluid.course.model import PLASMA_CONTRACTION_SAID, SHOWN_STEP_MINUTES, course
 from vetfluid.planning.demos import DEMOS
-from vetfluid.planning.plan import PlanRequest, build_plan
+from vetfluid.planning.plan import SERUM_HCO3_RANGE_MMOL_PER_L, PlanRequest, build_plan
+from vetfluid.planning.safety import ECF_CONTRACTION_BLOCKED
 
 FUROSEMIDE = (
     *(("furosemide", 2.0, "iv", h, h) for h in (0.0, 8.0)),
@@ -146,3 +149,70 @@ def test_bicarbonate_driven_out_of_its_interval_by_losses_is_said():
     assert "PREDICTED_HCO3_OUTSIDE_RANGE" not in _codes(
         course(calm, step_minutes=SHOWN_STEP_MINUTES).findings
     )
+
+
+def test_a_plasma_contraction_past_half_is_hard_as_the_plans_own_check_is():
+    """Furosemide 1 mg/kg/h for 14 days with maintenance only: the course predicts the plasma
+    nearly gone. Past half of it the course blocks (hard), as the plan's own ECF check does
+    past ``safety.ECF_CONTRACTION_BLOCKED`` (common practice, no source: under about half of
+    the circulating volume is shock by any reckoning); a fall of a third stays soft."""
+    infusion = (("furosemide", 1.0, "cri", 0.0, 336.0),)
+    plan = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=145, serum_k=4.0,
+                                  diuretics=infusion))  # fmt: skip
+    result = course(plan, horizon_h=336, step_minutes=SHOWN_STEP_MINUTES)
+    found = {f.code: f for f in result.findings}
+    assert 1.0 - result.plasma_ml.min() / result.plasma_ml[0] > ECF_CONTRACTION_BLOCKED
+    assert found["PREDICTED_PLASMA_CONTRACTION"].severity == "hard"
+    # a third, as in the test above: said, not blocked
+    doses = tuple(("furosemide", 2.0, "iv", float(h), float(h)) for h in range(0, 120, 8))
+    third = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_na=145, serum_k=4.0,
+                                   diuretics=doses))  # fmt: skip
+    soft = course(third, horizon_h=120, step_minutes=SHOWN_STEP_MINUTES)
+    fall = 1.0 - soft.plasma_ml.min() / soft.plasma_ml[0]
+    assert PLASMA_CONTRACTION_SAID < fall <= ECF_CONTRACTION_BLOCKED
+    assert {f.code: f for f in soft.findings}["PREDICTED_PLASMA_CONTRACTION"].severity == "soft"
+
+
+def test_a_predicted_bicarbonate_past_what_can_be_entered_is_beyond_the_model():
+    """2 L/day of vomitus in a 4 kg cat: each mL leaves 0.07 mmol of bicarbonate behind
+    (docs/model.md), and the course would predict about 90 mmol/L. An entered HCO3 outside
+    3–60 mmol/L is refused as impossible (plan.SERUM_HCO3_RANGE_MMOL_PER_L, plausibility
+    bounds, no source), so a predicted one past them is no prediction either: hard, from the
+    hour it crosses (as HCO3 reaching 0 already is; review finding)."""
+    plan = build_plan(PlanRequest(species_id="cat", weight_kg=4, serum_na=155, serum_k=4.0,
+                                  serum_hco3=20, losses_ml_per_day=2000,
+                                  loss_type="vomitus"))  # fmt: skip
+    result = course(plan, step_minutes=SHOWN_STEP_MINUTES)
+    found = {f.code: f for f in result.findings}
+    beyond = found["COURSE_BEYOND_THE_MODEL"]
+    assert beyond.severity == "hard"
+    high = SERUM_HCO3_RANGE_MMOL_PER_L[1]
+    crossed = float(result.hours[int(np.argmax(result.serum_hco3 > high))])
+    assert result.serum_hco3[-1] > high  # the case is what the review saw
+    assert f"From hour {format_number(crossed, decimals=1)} " in beyond.message
+    assert "PREDICTED_HCO3_OUTSIDE_RANGE" not in found  # no soft figure read from it
+
+
+def test_a_predicted_na_change_after_the_plan_names_its_own_hour():
+    """An oliguric cat given mannitol 2.9 g/kg IV at hour 0, followed to hour 72: Na falls to
+    about 121 mmol/L in the first hour (mannitol drawing water from the cells, which the
+    plan's own check reads as no change in tonicity), and climbs above the interval after the
+    plan ends as the mannitol leaves with more water than Na (docs/model.md, "Mannitol").
+    The course's finding is about what happens after the plan ends, so it names that rise and
+    the hour it happens at, never the fall at hour 0.3 as if it came after the plan (review
+    finding: words true to the hour; common practice, no source)."""
+    mannitol = (("mannitol", 2.9, "iv", 0.0, 0.0),)
+    plan = build_plan(PlanRequest(species_id="cat", weight_kg=4, serum_na=155,
+                                  renal_disease=True, renal_output="oliguric",
+                                  diuretics=mannitol))  # fmt: skip
+    result = course(plan, horizon_h=72, step_minutes=SHOWN_STEP_MINUTES)
+    message = {f.code: f for f in result.findings}["PREDICTED_NA_OUTSIDE_RANGE"].message
+    assert "rise" in message and "fall" not in message
+    assert "hour 0.3" not in message
+    said = re.search(r"in the hour from hour ([\d.]+)", message)
+    assert said is not None and float(said.group(1)) > plan.end_h  # after the plan, truly
+    per_hour = int(60 / SHOWN_STEP_MINUTES)
+    i = int(np.searchsorted(result.hours, float(said.group(1)) - 0.05))
+    rise = result.serum_na[i + per_hour] - result.serum_na[i]
+    assert rise > result.na_max_change_per_h  # the hour named is the one that is too fast
+    assert f"after the plan ends at hour {format_number(plan.end_h, decimals=1)}" in message

@@ -26,7 +26,7 @@ The equations, their sources and their simplifications are written out in
   ``bicarbonate_space_fraction``), raised by the fluids' lactate, acetate and gluconate as
   they are metabolised (half-life :data:`BASE_PRECURSOR_HALF_LIFE_MIN`), diluted as the ECF
   grows, moved by each loss type's HCO3 and H+, lowered by acetazolamide's bicarbonaturia and
-  brought back by a healthy kidney with ``hco3_renal_return_h``.
+  brought back by a healthy kidney with ``hco3_renal_return_h`` (not while acetazolamide acts).
 
 The starting compartments are the species' fractions of the entered (dehydrated) weight.
 """
@@ -46,7 +46,8 @@ from vetfluid.course.observations import Observation, alerts
 from vetfluid.physiology import electrolytes
 from vetfluid.planning import body
 from vetfluid.planning.body import BodyInput
-from vetfluid.planning.plan import RENAL_OUTPUTS, Plan
+from vetfluid.planning.plan import RENAL_OUTPUTS, SERUM_HCO3_RANGE_MMOL_PER_L, Plan
+from vetfluid.planning.safety import ECF_CONTRACTION_BLOCKED
 from vetfluid.tables import fluid_roles, fluids
 from vetfluid.tables.limits import limit
 from vetfluid.tables.species import SpeciesTable, SpeciesValue, load_table
@@ -55,7 +56,9 @@ MAX_HORIZON_H = 14 * 24.0
 # The step the window and the CLI both model a course at: the plan's own sodium check's
 SHOWN_STEP_MINUTES = body.STEP_MINUTES
 # a plasma volume this far below its start is said (common practice, no source: losing a
-# fifth of the circulating volume is clinically significant hypovolaemia)
+# fifth of the circulating volume is clinically significant hypovolaemia); past the plan's
+# own ECF_CONTRACTION_BLOCKED share (half: shock, common practice, no source) it is blocked,
+# as the plan's own ECF check is
 PLASMA_CONTRACTION_SAID = 0.2
 # a predicted bicarbonate is said once it is this far past its interval (common practice, no
 # source: a dog's 20–24 mmol/L interval is narrower than the model's certainty)
@@ -363,7 +366,7 @@ def course(
     net = (weight - w) * 1000.0
     na_limit = request.max_na_change_per_h or limit("sodium_max_correction_mmol_per_l_h").value
     beyond = _beyond_the_model(hours, plasma, ecf - plasma, tbw - ecf, na_path, serum_k,
-                               serum_hco3, weight)  # fmt: skip
+                               weight, serum_hco3=serum_hco3)  # fmt: skip
     if beyond:  # the figures stop being a prediction: nothing more is read from them
         predicted = beyond
     else:
@@ -372,7 +375,7 @@ def course(
             na_normal=values["serum_na_mmol_per_l"], serum_k=serum_k,
             k_normal=values["serum_k_mmol_per_l"], step_h=step_h,
             renal_disease=request.renal_disease, plasma_ml=plasma,
-            na_checked_until_h=body.checked_until_h(plan.regimen, table),
+            na_checked_until_h=body.checked_until_h(plan.regimen, table), plan_end_h=end,
         ) if settings is not None else ()) + _bicarbonate_findings(
             hours, serum_hco3, table.get(sid, "serum_hco3_mmol_per_l")
         )  # fmt: skip
@@ -449,29 +452,38 @@ def _predicted_findings(
     renal_disease: bool,
     plasma_ml: np.ndarray,
     na_checked_until_h: float,
+    plan_end_h: float,
 ) -> tuple[Finding, ...]:
-    """Soft findings on what this course predicts (only where the kidney is modelled):
+    """Findings on what this course predicts (only where the kidney is modelled):
 
     * serum Na changing faster than the correction limit over some hour that starts after
       ``na_checked_until_h`` (the plan's own check follows this same body up to there; past
       it, the course runs on for observations) while it is, or goes, outside the species'
-      reference interval (Adrogué & Madias 2000); a patient already outside the interval is
-      no exemption;
+      reference interval after that hour (Adrogué & Madias 2000); a patient already outside
+      the interval is no exemption. The words name that hour, which way Na moves in it and
+      the plan's end (``plan_end_h``), so nothing from inside the plan is said to come after
+      it (soft);
     * serum K (when entered) falling below, or climbing above, the species' interval
-      (loop and thiazide diuretics, K-free fluids; oliguria retaining K).
+      (loop and thiazide diuretics, K-free fluids; oliguria retaining K; soft);
+    * the plasma more than :data:`PLASMA_CONTRACTION_SAID` below its start (soft), more
+      than the plan's own ``ECF_CONTRACTION_BLOCKED`` (hard).
     """
     found = []
     low, high = _interval(na_normal)
     per_hour = max(int(round(1.0 / step_h)), 1)
-    fastest = 0.0
+    fastest, fastest_i = 0.0, 0
     later = hours[:-per_hour] > na_checked_until_h + 1e-9 if len(na_path) > per_hour else []
     if np.any(later):
-        changes = na_path[per_hour:] - na_path[:-per_hour]
-        fastest = float(np.max(np.abs(changes[later])))
-    peak_i = int(np.argmax(np.maximum(na_path - high, low - na_path)))
+        changes = np.where(later, na_path[per_hour:] - na_path[:-per_hour], 0.0)
+        fastest_i = int(np.argmax(np.abs(changes)))
+        fastest = abs(float(changes[fastest_i]))
+    # only what follows the plan's own check is read here (inside it, the plan speaks)
+    first = int(np.argmax(later)) if fastest > na_limit else len(na_path) - 1
+    tail = na_path[first:]
+    peak_i = first + int(np.argmax(np.maximum(tail - high, low - tail)))
     peak = float(na_path[peak_i])
-    if not low <= peak <= high and fastest > na_limit:
-        rising = peak > na_path[0]
+    if fastest > na_limit and not low <= peak <= high:
+        rising = bool(na_path[fastest_i + per_hour] > na_path[fastest_i])
         start = "" if na_entered else " (no Na entered: followed from the species' normal)"
         why = ("free water leaving faster than it is given (a diuretic, hypotonic losses, a "
                "kidney that cannot dilute)" if rising else
@@ -482,13 +494,15 @@ def _predicted_findings(
                   else "")  # fmt: skip
         found.append(Finding(
             severity="soft", code="PREDICTED_NA_OUTSIDE_RANGE",
-            message=f"The course predicts serum Na to {'rise' if rising else 'fall'} to "
-                    f"{format_quantity(peak, 'mmol/L')} by hour "
+            message=f"The course predicts serum Na to {'rise' if rising else 'fall'} "
+                    f"{format_quantity(fastest, 'mmol/L')} in the hour from hour "
+                    f"{format_number(float(hours[fastest_i]), decimals=1)}, after the plan "
+                    f"ends at hour {format_number(plan_end_h, decimals=1)}, faster than "
+                    f"{format_quantity(na_limit, 'mmol/L/h')}, and to be "
+                    f"{format_quantity(peak, 'mmol/L')} at hour "
                     f"{format_number(float(hours[peak_i]), decimals=1)}, outside the "
                     f"{format_quantity(low, 'mmol/L')}–{format_quantity(high, 'mmol/L')} "
-                    f"interval, changing up to {format_quantity(fastest, 'mmol/L')} in an "
-                    f"hour after the plan ends (limit {format_quantity(na_limit, 'mmol/L/h')})"
-                    f"{start}: {why}.{caveat}",
+                    f"interval{start}: {why}.{caveat}",
             action="Measure serum Na within a few hours of starting and re-plan with the "
                    "measured value before changing the fluid.",
             source_id=na_normal.source_id,
@@ -522,15 +536,19 @@ def _predicted_findings(
     lowest_plasma = int(np.argmin(plasma_ml))
     if plasma_ml[lowest_plasma] < (1.0 - PLASMA_CONTRACTION_SAID) * plasma_ml[0]:
         fall = 1.0 - plasma_ml[lowest_plasma] / plasma_ml[0]
+        shock = fall > ECF_CONTRACTION_BLOCKED  # the plan's own ECF check blocks past it
         found.append(Finding(
-            severity="soft", code="PREDICTED_PLASMA_CONTRACTION",
+            severity="hard" if shock else "soft", code="PREDICTED_PLASMA_CONTRACTION",
             message=f"The course predicts the plasma volume "
                     f"{format_number(100 * fall, decimals=0)} % below where it started by hour "
                     f"{format_number(float(hours[lowest_plasma]), decimals=1)} (more water and "
                     "salt leaving than given: a diuretic, losses, or a kidney that cannot hold "
-                    "them).",
-            action="Reassess perfusion and weight within hours; give the losses back or "
-                   "reduce the diuretic before the patient becomes hypovolaemic.",
+                    "them)" + (", past half of it: shock." if shock else "."),
+            action=("Do not follow the plan as entered: give the losses and the urine back "
+                    "(plan by ins and outs) or reduce the diuretic, and reassess perfusion and "
+                    "weight within hours." if shock else
+                    "Reassess perfusion and weight within hours; give the losses back or "
+                    "reduce the diuretic before the patient becomes hypovolaemic."),
         ))  # fmt: skip
     return tuple(found)
 
@@ -572,22 +590,38 @@ def _interval(normal: SpeciesValue) -> tuple[float, float]:
     return low, high
 
 
-def _beyond_the_model(hours: np.ndarray, *series: np.ndarray | None) -> tuple[Finding, ...]:
+def _beyond_the_model(
+    hours: np.ndarray, *series: np.ndarray | None, serum_hco3: np.ndarray | None = None
+) -> tuple[Finding, ...]:
     """A hard finding when a volume or a concentration the course follows reaches zero or
     below, or stops being a number: more was lost or given than the body holds, and the
-    figures from that hour on are no prediction."""
+    figures from that hour on are no prediction. A predicted serum bicarbonate outside
+    :data:`vetfluid.planning.plan.SERUM_HCO3_RANGE_MMOL_PER_L` is the same: a value that
+    would be refused as impossible if entered is no prediction either (plausibility bounds,
+    our choice, no source)."""
     broken = np.zeros(len(hours), dtype=bool)
     for values in series:
         if values is not None:
             broken |= ~np.isfinite(values) | (values <= 0)
-    if not broken.any():
+    hco3_low, hco3_high = SERUM_HCO3_RANGE_MMOL_PER_L
+    implausible = np.zeros(len(hours), dtype=bool)
+    if serum_hco3 is not None:
+        broken |= ~np.isfinite(serum_hco3)
+        implausible = (serum_hco3 < hco3_low) | (serum_hco3 > hco3_high)
+    if not (broken | implausible).any():
         return ()
-    hour = float(hours[int(np.argmax(broken))])
+    i = int(np.argmax(broken | implausible))
+    what = ("the course would need more water or solute than the body holds (a volume or "
+            "concentration at zero or below)")  # fmt: skip
+    if not broken[i]:
+        value = format_quantity(float(serum_hco3[i]), "mmol/L")
+        what = (f"the course predicts a serum bicarbonate of {value}, outside the "
+                f"{format_number(hco3_low)}–{format_quantity(hco3_high, 'mmol/L')} a "
+                "patient's can be entered as")  # fmt: skip
     return (Finding(
         severity="hard", code="COURSE_BEYOND_THE_MODEL",
-        message=f"From hour {format_number(hour, decimals=1)} the course would need more water "
-                "or solute than the body holds (a volume or concentration at zero or below): "
-                "its figures from then on are not a prediction.",
+        message=f"From hour {format_number(float(hours[i]), decimals=1)} {what}: its figures "
+                "from then on are not a prediction.",
         action="Check the losses, doses and volumes entered and their units; this plan "
                "cannot be followed as entered.",
     ),)  # fmt: skip
@@ -629,7 +663,9 @@ def _follow_bicarbonate(
     the species' reference interval) with ``hco3_renal_return_h``:
     B ← V·set + (B − V·set)·e^(−Δt/τ). Dilution needs no term: a bicarbonate-free fluid
     enlarges V around the same B. The return is left out with renal disease, with no kidney
-    (ins and outs) and where the species has no normal or time constant on record."""
+    (ins and outs), where the species has no normal or time constant on record, and in each
+    step in which acetazolamide makes the urine carry bicarbonate (it blocks the proximal
+    reabsorption the return stands for; our modelling choice, docs/model.md)."""
     request, sid, w = plan.request, plan.request.species_id, plan.request.weight_kg
     used: list[SpeciesValue] = []
     space = table.get(sid, "bicarbonate_space_fraction")
@@ -661,13 +697,14 @@ def _follow_bicarbonate(
         0.0 if own else lost[1:] * (losses.h_mmol_per_l - losses.hco3_mmol_per_l) / 1000.0
     )
     drug = 0.0
+    keep = np.full(len(volume) - 1, keep)
     if drug_hco3_mmol is not None:
-        drug = (
-            np.diff(np.asarray(drug_hco3_mmol))[: len(volume) - 1]
-            * 1000.0
-            / (volume[1:] * set_point)
-        )  # share of B the drug takes: HCO3/set point × its amount
-    a = keep * (1.0 - drug) * (1.0 - share_lost) * np.ones(len(volume) - 1)
+        taken = np.diff(np.asarray(drug_hco3_mmol))[: len(volume) - 1]
+        drug = taken * 1000.0 / (volume[1:] * set_point)  # share of B: HCO3/set point × amount
+        # while the drug acts it blocks the proximal reabsorption the return stands for: no
+        # return in those steps (docs/model.md, "Bicarbonate"; our modelling choice)
+        keep[taken > 0.0] = 1.0
+    a = keep * (1.0 - drug) * (1.0 - share_lost)
     b = keep * (1.0 - drug) * added + (1.0 - keep) * set_point * volume[1:] / 1000.0
     return _linear_steps(hco3_0 * volume[0] / 1000.0, a, b) * 1000.0 / volume, used
 
