@@ -276,3 +276,37 @@ def test_acetazolamide_holds_off_the_kidneys_return_of_bicarbonate():
     # within each dose's action (onset 0.5 h to 7 h, diuretics.csv) it does not rise
     for dose_h in (0.0, 8.0, 16.0):
         assert at(drug, dose_h + 7.0) <= at(drug, dose_h + 0.5) + 0.05
+
+
+# ---- the plan's own check on the bicarbonate it drives (the course's function) -----------------
+def test_a_plan_that_runs_bicarbonate_to_nothing_is_blocked_by_the_plan_itself():
+    """A dog losing 250 mL/kg/day of diarrhoea replaced with 0.9 % NaCl, HCO3 12: diarrhoea
+    carries bicarbonate (the loss composition in electrolytes.LOSS_TYPES) and saline gives no
+    buffer, so the plan drives HCO3 below what a patient's can be within its own day. The
+    plan blocks it, not only the course (adversarial review: the CLI's plan said nothing)."""
+    parvo = build_plan(PlanRequest(
+        species_id="dog", weight_kg=20, serum_na=145, serum_k=4, serum_hco3=12,
+        losses_ml_per_day=5000, loss_type="diarrhoea", fluid_id="nacl_0_9", kcl_mmol_per_l=20,
+    ))  # fmt: skip
+    [found] = [f for f in parvo.findings if f.code == "BICARBONATE_BEYOND_REACH"]
+    assert found.severity == "hard" and parvo.has_hard_limit
+    assert "buffered fluid" in found.action
+
+
+def test_a_plan_that_drifts_bicarbonate_out_of_range_needs_a_reason_with_the_right_remedy():
+    # diarrhoea loses bicarbonate (falls: a buffered fluid); vomitus loses gastric acid
+    # (rises: chloride, 0.9 % NaCl) — common practice; dog interval 20–24 (Waddell 2016)
+    falls = build_plan(PlanRequest(
+        species_id="dog", weight_kg=20, serum_hco3=18, losses_ml_per_day=1000,
+        loss_type="diarrhoea", fluid_id="nacl_0_9",
+    ))  # fmt: skip
+    [low] = [f for f in falls.findings if f.code == "BICARBONATE_LEAVES_RANGE"]
+    assert low.severity == "soft" and "below" in low.message and "buffered" in low.action
+    rises = build_plan(PlanRequest(
+        species_id="cat", weight_kg=4, serum_na=150, serum_hco3=22, losses_ml_per_day=300,
+        loss_type="vomitus", fluid_id="nacl_0_9",
+    ))  # fmt: skip
+    [high] = [f for f in rises.findings if f.code == "BICARBONATE_LEAVES_RANGE"]
+    assert "above" in high.message and "0.9 % NaCl" in high.action
+    steady = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_hco3=22))
+    assert not [f for f in steady.findings if f.code.startswith("BICARBONATE_")]

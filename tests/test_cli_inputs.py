@@ -10,13 +10,13 @@ import pytest
 
 from vetfluid import cli
 
-# The reviewer's repro: 5 L/day of diarrhoea in a 20-kg dog on 0.9 % NaCl with a serum
-# bicarbonate of 12 mmol/L; the course runs the bicarbonate down to zero (its hard finding
-# COURSE_BEYOND_THE_MODEL, vetfluid/course/model.py) while the plan itself has no hard limit.
+# A furosemide infusion (1 mg/kg/h, the dog's rate on record) started after the plan's
+# fluids end and run for 13 days: the plan's checks stop at its end (DIURETIC_AFTER_PLAN_END,
+# soft), while the course follows the urine on with no fluid given and finds the plasma
+# drained past half (its hard PREDICTED_PLASMA_CONTRACTION, vetfluid/course/model.py).
 BEYOND_THE_MODEL = ("course", "--species", "dog", "--weight", "20kg", "--serum-na", "145",
-                    "--serum-k", "4", "--serum-hco3", "12", "--losses-ml-per-day", "5000",
-                    "--loss-type", "diarrhoea", "--fluid", "nacl_0_9",
-                    "--kcl-mmol-per-l", "20")  # fmt: skip
+                    "--serum-k", "4", "--diuretic", "furosemide", "--diuretic-cri", "1",
+                    "--diuretic-at", "30,336", "--horizon-h", "336")  # fmt: skip
 DOG = ("--species", "dog", "--weight", "20 kg")
 
 
@@ -57,7 +57,7 @@ def test_the_course_text_says_its_hard_finding_with_its_severity(capsys):
     code, out, _ = run(capsys, *BEYOND_THE_MODEL)
     assert code == cli.EXIT_HARD_LIMIT
     predicted = out.split("Predicted by the course", 1)[1].split("Findings of the plan", 1)[0]
-    assert "HARD LIMIT: From hour" in predicted
+    assert "HARD LIMIT: The course predicts the plasma volume" in predicted
     assert "COURSE_BEYOND_THE_MODEL" not in out  # words, never the code
 
 

@@ -15,8 +15,9 @@ import pytest
 from vetfluid import cli
 from vetfluid.common.formatting import format_number
 from vetfluid.course.model import PLASMA_CONTRACTION_SAID, SHOWN_STEP_MINUTES, course
+from vetfluid.planning.bicarbonate import SERUM_HCO3_RANGE_MMOL_PER_L
 from vetfluid.planning.demos import DEMOS
-from vetfluid.planning.plan import SERUM_HCO3_RANGE_MMOL_PER_L, PlanRequest, build_plan
+from vetfluid.planning.plan import PlanRequest, build_plan
 from vetfluid.planning.safety import ECF_CONTRACTION_BLOCKED
 
 FUROSEMIDE = (
@@ -176,7 +177,7 @@ def test_a_plasma_contraction_past_half_is_hard_as_the_plans_own_check_is():
 def test_a_predicted_bicarbonate_past_what_can_be_entered_is_beyond_the_model():
     """2 L/day of vomitus in a 4 kg cat: each mL leaves 0.07 mmol of bicarbonate behind
     (docs/model.md), and the course would predict about 90 mmol/L. An entered HCO3 outside
-    3–60 mmol/L is refused as impossible (plan.SERUM_HCO3_RANGE_MMOL_PER_L, plausibility
+    3–60 mmol/L is refused as impossible (bicarbonate.SERUM_HCO3_RANGE_MMOL_PER_L, plausibility
     bounds, no source), so a predicted one past them is no prediction either: hard, from the
     hour it crosses (as HCO3 reaching 0 already is; review finding)."""
     plan = build_plan(PlanRequest(species_id="cat", weight_kg=4, serum_na=155, serum_k=4.0,

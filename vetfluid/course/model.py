@@ -21,10 +21,11 @@ The equations, their sources and their simplifications are written out in
   share of the ECF decays with ``crystalloid_distribution_half_life_min`` (Hahn); a colloid
   holds its volume with its own half-life; what the kidney takes comes from the plasma.
 * **Weight** = entered weight + fluid given − what left (1 mL ≈ 1 g; Davis 2013).
-* **Bicarbonate** (only when a serum HCO3 was entered; :func:`_follow_bicarbonate`): the
+* **Bicarbonate** (only when a serum HCO3 was entered;
+  :func:`vetfluid.planning.bicarbonate.follow_bicarbonate`, the plan's own check's too): the
   body's bicarbonate over its apparent space (the ECF and the other buffers,
   ``bicarbonate_space_fraction``), raised by the fluids' lactate, acetate and gluconate as
-  they are metabolised (half-life :data:`BASE_PRECURSOR_HALF_LIFE_MIN`), diluted as the ECF
+  they are metabolised (half-life ``bicarbonate.BASE_PRECURSOR_HALF_LIFE_MIN``), diluted as the ECF
   grows, moved by each loss type's HCO3 and H+, lowered by acetazolamide's bicarbonaturia and
   brought back by a healthy kidney with ``hco3_renal_return_h`` (not while acetazolamide acts).
 
@@ -38,15 +39,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from vetfluid.common.arrays import decaying_sum
 from vetfluid.common.checks import require_number
 from vetfluid.common.errors import InputError
 from vetfluid.common.findings import Finding
 from vetfluid.common.formatting import format_number, format_quantity
 from vetfluid.course.observations import Observation, alerts
-from vetfluid.physiology import electrolytes
 from vetfluid.planning import body
+from vetfluid.planning.bicarbonate import SERUM_HCO3_RANGE_MMOL_PER_L, drift, follow_bicarbonate
 from vetfluid.planning.body import BodyInput
-from vetfluid.planning.plan import RENAL_OUTPUTS, SERUM_HCO3_RANGE_MMOL_PER_L, Plan
+from vetfluid.planning.plan import RENAL_OUTPUTS, Plan
 from vetfluid.planning.safety import ECF_CONTRACTION_BLOCKED
 from vetfluid.tables import fluid_roles, fluids
 from vetfluid.tables.limits import limit
@@ -60,9 +62,6 @@ SHOWN_STEP_MINUTES = body.STEP_MINUTES
 # own ECF_CONTRACTION_BLOCKED share (half: shock, common practice, no source) it is blocked,
 # as the plan's own ECF check is
 PLASMA_CONTRACTION_SAID = 0.2
-# a predicted bicarbonate is said once it is this far past its interval (common practice, no
-# source: a dog's 20–24 mmol/L interval is narrower than the model's certainty)
-HCO3_MARGIN_MMOL_PER_L = 2.0
 # an observation's field → the course's value set beside it (Course.at)
 PREDICTED_OBSERVABLES = {
     "weight_kg": "weight_kg", "serum_na": "serum_na", "serum_k": "serum_k",
@@ -336,7 +335,7 @@ def course(
     given, lost = followed.given_ml, followed.lost_ml
     kidney_values = list(followed.provenance)
     # what the kidney took left the plasma; the interstitium refills it at the distribution rate
-    undistributed = _decaying_sum(balance.urine_ecf_ml, math.exp(-k_per_h * step_h))
+    undistributed = decaying_sum(balance.urine_ecf_ml, math.exp(-k_per_h * step_h))
     plasma = (
         share * ecf
         + _excess_plasma(hours, list(followed.inputs), share, k_per_h)
@@ -354,8 +353,8 @@ def course(
     pcv, solids = _dilution(plasma, request.pcv_percent, request.total_solids_g_per_dl)
     serum_hco3 = None
     if followed.base_in_mmol is not None and request.serum_hco3 is not None:
-        serum_hco3, hco3_values = _follow_bicarbonate(
-            table, plan, hco3_0=request.serum_hco3, ecf_ml=ecf, step_h=step_h,
+        serum_hco3, hco3_values = follow_bicarbonate(
+            table, request, hco3_0=request.serum_hco3, ecf_ml=ecf, step_h=step_h,
             base_in_mmol=followed.base_in_mmol, lost_ml=lost,
             losses=followed.losses if settings is not None else None,
             drug_hco3_mmol=balance.hco3_excreted_mmol, kidney_acts=settings is not None,
@@ -556,23 +555,15 @@ def _predicted_findings(
 def _bicarbonate_findings(
     hours: np.ndarray, serum_hco3: np.ndarray | None, normal: SpeciesValue | None
 ) -> tuple[Finding, ...]:
-    """A soft finding when an entered HCO3 is predicted more than
-    :data:`HCO3_MARGIN_MMOL_PER_L` past the species' interval, moving away from where it
-    started (losses by type, base in the fluids, acetazolamide); with no interval on record
-    (birds, reptiles) only a fall under ``hco3_confirm_below_mmol_per_l`` (safety_limits.csv,
-    common practice) is said."""
-    if serum_hco3 is None:
+    """A soft finding when an entered HCO3 is predicted far past the species' interval
+    (:func:`vetfluid.planning.bicarbonate.drift`, as the plan's own check reads it): losses
+    by type, base in the fluids, acetazolamide."""
+    moved = None if serum_hco3 is None else drift(serum_hco3, normal)
+    if moved is None:
         return ()
-    low, high = (_interval(normal) if normal is not None
-                 else (limit("hco3_confirm_below_mmol_per_l").value, math.inf))  # fmt: skip
-    outside = np.maximum(serum_hco3 - high, low - serum_hco3)
-    worst = int(np.argmax(outside))
+    worst, bound = moved
     value = float(serum_hco3[worst])
-    # a prediction a little past a narrow interval is no news (common practice, no source)
-    if outside[worst] <= HCO3_MARGIN_MMOL_PER_L or abs(value - serum_hco3[0]) <= 1.0:
-        return ()
-    side = "above" if value > high else "below"
-    bound = high if value > high else low
+    side = "above" if value > bound else "below"
     return (Finding(
         severity="soft", code="PREDICTED_HCO3_OUTSIDE_RANGE",
         message=f"The course predicts serum bicarbonate {format_quantity(value, 'mmol/L')} by "
@@ -596,7 +587,7 @@ def _beyond_the_model(
     """A hard finding when a volume or a concentration the course follows reaches zero or
     below, or stops being a number: more was lost or given than the body holds, and the
     figures from that hour on are no prediction. A predicted serum bicarbonate outside
-    :data:`vetfluid.planning.plan.SERUM_HCO3_RANGE_MMOL_PER_L` is the same: a value that
+    :data:`vetfluid.planning.bicarbonate.SERUM_HCO3_RANGE_MMOL_PER_L` is the same: a value that
     would be refused as impossible if entered is no prediction either (plausibility bounds,
     our choice, no source)."""
     broken = np.zeros(len(hours), dtype=bool)
@@ -625,121 +616,6 @@ def _beyond_the_model(
         action="Check the losses, doses and volumes entered and their units; this plan "
                "cannot be followed as entered.",
     ),)  # fmt: skip
-
-
-# Lactate leaves the blood with a half-life of 14.7 min in healthy people (lactate
-# elimination in man, 1979, "lactate_elimination1979"; 18.8 min with cirrhosis); the same
-# half-life is used for acetate and gluconate (memory: acetate is recalled to be used
-# faster, and much gluconate to leave unchanged in the urine, so the acetate-gluconate
-# fluid's base is overstated).
-BASE_PRECURSOR_HALF_LIFE_MIN = 14.7
-# Where the bicarbonate figures and checks come from (species_data/sources.csv).
-BICARBONATE_SOURCES = ("lactate_elimination1979", "waddell2016", "plumb_vdh_bicarbonate",
-                       "empendium_losses", "zitek2018")  # fmt: skip
-
-
-def _follow_bicarbonate(
-    table: SpeciesTable,
-    plan: Plan,
-    *,
-    hco3_0: float,
-    ecf_ml: np.ndarray,
-    step_h: float,
-    base_in_mmol: np.ndarray,
-    lost_ml: np.ndarray,
-    losses: electrolytes.LossComposition | None,
-    drug_hco3_mmol: list[float] | None,
-    kidney_acts: bool,
-) -> tuple[np.ndarray, list[SpeciesValue]]:
-    """Serum bicarbonate (mmol/L) at each grid point, and the species values used.
-
-    The body's bicarbonate B (mmol) spreads over an apparent space V(t) = ECF(t) + S, S the
-    buffers outside the ECF (``bicarbonate_space_fraction`` × W − ECF₀, at least 0; the ECF
-    alone where the species has no value), and HCO3 = B / V. Per step:
-    B += base metabolised (the fluids' lactate, acetate and gluconate, first-order with
-    :data:`BASE_PRECURSOR_HALF_LIFE_MIN`) + loss × (H+ − HCO3 of its type) (a loss of
-    unknown type at the patient's own HCO3) − a drug's bicarbonaturia × HCO3 / set point;
-    then a healthy kidney brings HCO3 towards its set point (the entered HCO3 held within
-    the species' reference interval) with ``hco3_renal_return_h``:
-    B ← V·set + (B − V·set)·e^(−Δt/τ). Dilution needs no term: a bicarbonate-free fluid
-    enlarges V around the same B. The return is left out with renal disease, with no kidney
-    (ins and outs), where the species has no normal or time constant on record, and in each
-    step in which acetazolamide makes the urine carry bicarbonate (it blocks the proximal
-    reabsorption the return stands for; our modelling choice, docs/model.md)."""
-    request, sid, w = plan.request, plan.request.species_id, plan.request.weight_kg
-    used: list[SpeciesValue] = []
-    space = table.get(sid, "bicarbonate_space_fraction")
-    outside = 0.0
-    if space is not None:
-        used.append(space)
-        outside = max(space.number * w * 1000.0 - float(ecf_ml[0]), 0.0)
-    normal = table.get(sid, "serum_hco3_mmol_per_l")
-    return_h = table.get(sid, "hco3_renal_return_h")
-    set_point, keep = hco3_0, 1.0
-    if normal is not None:
-        used.append(normal)
-        low = normal.low if normal.low is not None else normal.number
-        high = normal.high if normal.high is not None else normal.number
-        set_point = min(max(hco3_0, low), high)
-    if kidney_acts and not request.renal_disease and normal is not None and return_h is not None:
-        used.append(return_h)
-        keep = math.exp(-step_h / return_h.number)
-    volume = ecf_ml + outside
-    # what reaches the body from the precursors each step: they are metabolised first-order
-    kept = math.exp(-math.log(2) * step_h * 60.0 / BASE_PRECURSOR_HALF_LIFE_MIN)
-    precursors = _decaying_sum(body.increments(base_in_mmol), kept)  # left after each step's dose
-    base = np.concatenate(([0.0], precursors[:-1])) * (1.0 - kept)
-    lost = np.diff(lost_ml, prepend=0.0)
-    own = losses is None or losses.hco3_mmol_per_l is None  # a loss at the patient's own HCO3
-    # each step is linear in B: B_i = a_i·B_(i−1) + b_i (loss, base, drug, then the kidney)
-    share_lost = lost[1:] / volume[:-1] if own else 0.0
-    added = base[1:] + (
-        0.0 if own else lost[1:] * (losses.h_mmol_per_l - losses.hco3_mmol_per_l) / 1000.0
-    )
-    drug = 0.0
-    keep = np.full(len(volume) - 1, keep)
-    if drug_hco3_mmol is not None:
-        taken = np.diff(np.asarray(drug_hco3_mmol))[: len(volume) - 1]
-        drug = taken * 1000.0 / (volume[1:] * set_point)  # share of B: HCO3/set point × amount
-        # while the drug acts it blocks the proximal reabsorption the return stands for: no
-        # return in those steps (docs/model.md, "Bicarbonate"; our modelling choice)
-        keep[taken > 0.0] = 1.0
-    a = keep * (1.0 - drug) * (1.0 - share_lost)
-    b = keep * (1.0 - drug) * added + (1.0 - keep) * set_point * volume[1:] / 1000.0
-    return _linear_steps(hco3_0 * volume[0] / 1000.0, a, b) * 1000.0 / volume, used
-
-
-def _linear_steps(start: float, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """x_0 = start, x_i = a_i·x_(i−1) + b_i, never below 0: in closed form,
-    x_i = P_i·(x_0 + Σ b_j / P_j) with P_i = Π a_j, where that is safe (P stays far from
-    underflow and x from 0); else step by step, holding x at 0 (an amount cannot be
-    negative)."""
-    product = np.cumprod(a)
-    if product.size == 0 or (a > 0.0).all() and product[-1] > 1e-200:
-        x = product * (start + np.cumsum(b / product))
-        if (x >= 0.0).all():
-            return np.concatenate(([start], x))
-    values, x = [start], start
-    for ai, bi in zip(a.tolist(), b.tolist(), strict=True):
-        x = max(ai * x + bi, 0.0)
-        values.append(x)
-    return np.asarray(values)
-
-
-def _decaying_sum(added: list[float], keep: float) -> np.ndarray:
-    """F_n = F_(n−1)·keep + added_n, stepped while anything is added, then in closed form."""
-    size = len(added)
-    last = max((i for i, a in enumerate(added) if a), default=-1)
-    out = np.zeros(size)
-    total = 0.0
-    values = []
-    for a in added[: last + 1]:
-        total = total * keep + a
-        values.append(total)
-    out[: last + 1] = values
-    if last + 1 < size:
-        out[last + 1 :] = total * keep ** np.arange(1, size - last)
-    return out
 
 
 def observed_course(

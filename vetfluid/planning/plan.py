@@ -24,7 +24,8 @@ from vetfluid.common.formatting import format_quantity, hour_text
 from vetfluid.common.units import preferred_weight_unit, weight_text
 from vetfluid.physiology import delivery, electrolytes, hydration, maintenance, resuscitation
 from vetfluid.physiology.ins_and_outs import InsAndOutsRow, ins_and_outs
-from vetfluid.planning import body, diuretic_checks, safety, schedule
+from vetfluid.planning import bicarbonate, body, diuretic_checks, safety, schedule
+from vetfluid.planning.bicarbonate import SERUM_HCO3_RANGE_MMOL_PER_L
 from vetfluid.planning.ledger import Ledger
 from vetfluid.planning.schedule import DiureticDose, Phase, ScheduleEntry
 from vetfluid.tables import diuretics, fluid_roles, fluids
@@ -222,13 +223,6 @@ def _weight_text(weight_kg: float, ledger: Ledger) -> str:
 
 def _require(value: object, name: str, low: float, high: float, unit: str) -> None:
     require_number(value, name, low=low, high=high, unit=unit)
-
-
-# An entered serum bicarbonate outside these bounds is a slip, not a patient: a value typed
-# into the wrong box (a Na of 140, a Cl of 110), a base excess (−5) or a missing decimal
-# point. Plausibility bounds set by us, no source: life-threatening acidosis and alkalosis
-# lie inside (healthy dogs 20–24 mmol/L, Waddell 2016).
-SERUM_HCO3_RANGE_MMOL_PER_L = (3.0, 60.0)
 
 
 def _check_bicarbonate(value: object) -> None:
@@ -1558,6 +1552,17 @@ def _followed_body(regimen: body.Regimen, table: SpeciesTable, ledger: Ledger) -
         )  # fmt: skip
     safety.check_ecf_contraction(ledger, followed.hours[:valid], followed.ecf_ml[:valid],
                                  followed.ecf0_ml)  # fmt: skip
+    if request.serum_hco3 is not None and followed.base_in_mmol is not None:
+        kidney_acts = followed.settings is not None
+        hco3, used = bicarbonate.follow_bicarbonate(
+            table, request, hco3_0=request.serum_hco3, ecf_ml=followed.ecf_ml, step_h=step_h,
+            base_in_mmol=followed.base_in_mmol, lost_ml=followed.lost_ml,
+            losses=followed.losses if kidney_acts else None,
+            drug_hco3_mmol=followed.balance.hco3_excreted_mmol, kidney_acts=kidney_acts,
+        )  # fmt: skip
+        ledger.use(*used)
+        normal = table.get(request.species_id, "serum_hco3_mmol_per_l")
+        bicarbonate.check_plan_bicarbonate(ledger, followed.hours[:valid], hco3[:valid], normal)
     return followed
 
 
