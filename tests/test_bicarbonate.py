@@ -307,6 +307,24 @@ def test_a_plan_that_drifts_bicarbonate_out_of_range_needs_a_reason_with_the_rig
         loss_type="vomitus", fluid_id="nacl_0_9",
     ))  # fmt: skip
     [high] = [f for f in rises.findings if f.code == "BICARBONATE_LEAVES_RANGE"]
-    assert "above" in high.message and "0.9 % NaCl" in high.action
+    assert "above" in high.message and "chloride" in high.action
     steady = build_plan(PlanRequest(species_id="dog", weight_kg=20, serum_hco3=22))
     assert not [f for f in steady.findings if f.code.startswith("BICARBONATE_")]
+
+
+def test_the_remedy_names_what_in_this_plan_moves_bicarbonate():
+    # common practice, no source: acetazolamide's bicarbonaturia is the drug's to reconsider;
+    # a fluid already without buffer is not advised again for a vomiting patient
+    drug = build_plan(PlanRequest(
+        species_id="dog", weight_kg=20, serum_hco3=20.0,
+        diuretics=tuple(("acetazolamide", 10.0, "po", float(h), float(h)) for h in (0, 8, 16)),
+    ))  # fmt: skip
+    [said] = [f for f in drug.findings if f.code.startswith("BICARBONATE_")]
+    assert "Acetazolamide" in said.action and "losses" not in said.action
+    assert "Ringer" not in said.action  # the dog is on lactated Ringer's already
+    vomiting = build_plan(PlanRequest(
+        species_id="cat", weight_kg=4, serum_na=150, serum_hco3=22, losses_ml_per_day=300,
+        loss_type="vomitus", fluid_id="nacl_0_9",
+    ))  # fmt: skip
+    [high] = [f for f in vomiting.findings if f.code == "BICARBONATE_LEAVES_RANGE"]
+    assert "already without buffer" in high.action

@@ -13,7 +13,7 @@ from vetfluid import cli
 # A furosemide infusion (1 mg/kg/h, the dog's rate on record) started after the plan's
 # fluids end and run for 13 days: the plan's checks stop at its end (DIURETIC_AFTER_PLAN_END,
 # soft), while the course follows the urine on with no fluid given and finds the plasma
-# drained past half (its hard PREDICTED_PLASMA_CONTRACTION, vetfluid/course/model.py).
+# drained past 40 % (its hard PREDICTED_PLASMA_CONTRACTION, vetfluid/course/model.py).
 BEYOND_THE_MODEL = ("course", "--species", "dog", "--weight", "20kg", "--serum-na", "145",
                     "--serum-k", "4", "--diuretic", "furosemide", "--diuretic-cri", "1",
                     "--diuretic-at", "30,336", "--horizon-h", "336")  # fmt: skip

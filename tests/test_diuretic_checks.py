@@ -79,17 +79,21 @@ def test_infusions_running_together_are_judged_by_their_sum():
 MANNITOL = (("mannitol", 0.5, "iv", 0.0, 0.0),)
 
 
-def test_mannitol_into_a_kidney_that_makes_little_urine_is_blocked():
-    # Mannitol Injection USP label: accumulation expands the ECF; anuria while it is given
-    # risks heart failure and pulmonary oedema
+def test_mannitol_in_anuria_is_blocked_and_in_oliguria_needs_a_test_dose():
+    # Mannitol Injection USP label: contraindicated in well-established anuria; with marked
+    # oliguria a test dose first (Plumb: 0.25–0.5 g/kg for oliguric kidney failure)
     oliguric = plan(renal_disease=True, renal_output="oliguric", diuretics=MANNITOL)
-    assert found(oliguric).get("MANNITOL_WITH_LITTLE_URINE") == "hard"
-    measured_none = plan(renal_disease=True, ins_and_outs_period_h=4.0,
-                         measured_outputs=((0.0, 0.0),), diuretics=MANNITOL)  # fmt: skip
-    assert found(measured_none).get("MANNITOL_WITH_LITTLE_URINE") == "hard"
+    assert found(oliguric).get("MANNITOL_IN_OLIGURIA") == "soft"
+    assert "MANNITOL_IN_ANURIA" not in found(oliguric)
+    none = plan(renal_disease=True, ins_and_outs_period_h=4.0, measured_outputs=((0.0, 0.0),),
+                diuretics=MANNITOL)  # fmt: skip
+    assert found(none).get("MANNITOL_IN_ANURIA") == "hard" and none.has_hard_limit
+    low = plan(renal_disease=True, ins_and_outs_period_h=4.0, measured_outputs=((40.0, 0.0),),
+               diuretics=MANNITOL)  # 0.5 mL/kg/h, under the dog's 1 mL/kg/h line  # fmt: skip
+    assert found(low).get("MANNITOL_IN_OLIGURIA") == "soft"
     flowing = plan(renal_disease=True, ins_and_outs_period_h=4.0,
                    measured_outputs=((160.0, 0.0),), diuretics=MANNITOL)  # 2 mL/kg/h  # fmt: skip
-    assert "MANNITOL_WITH_LITTLE_URINE" not in found(flowing)
+    assert not {"MANNITOL_IN_OLIGURIA", "MANNITOL_IN_ANURIA"} & set(found(flowing))
 
 
 @pytest.mark.parametrize(("percent", "code", "severity"),
@@ -167,8 +171,9 @@ def test_the_rules_never_let_a_slip_or_a_contraindication_through(
 ):
     """Over random doses (×0.1 to ×1000 the top of the range on record for the drug and
     route), species, kidneys and dehydration: every single dose more than the hard factor
-    × the highest on record for its drug is blocked; mannitol with an oliguric kidney is
-    blocked; every finding is in words. Input the request refuses is refused in words."""
+    × the highest on record for its drug is blocked; mannitol with an oliguric kidney needs
+    a test dose; any diuretic before a severe deficit is replaced is blocked; every finding
+    is in words. Input the request refuses is refused in words."""
     try:
         p = plan(species_id, WEIGHTS[species_id], diuretics=tuple(entered),
                  renal_disease=oliguric, renal_output="oliguric" if oliguric else None,
@@ -178,7 +183,7 @@ def test_the_rules_never_let_a_slip_or_a_contraindication_through(
         event("refused by the request")
         return
     event("hard" if p.has_hard_limit else "planned")
-    factor = diuretic_checks._factor()
+    factor = diuretic_checks.hard_factor()
     codes = found(p)
     for drug, dose, route, _, _ in entered:
         highest = max(r.dose_high for r in diuretics.drug(drug).rows
@@ -186,18 +191,84 @@ def test_the_rules_never_let_a_slip_or_a_contraindication_through(
         if dose > factor * highest:
             assert codes.get("DIURETIC_DOSE_FAR_ABOVE_RANGE") == "hard", (drug, dose, route)
     if oliguric and any(d[0] == "mannitol" for d in entered):
-        assert codes.get("MANNITOL_WITH_LITTLE_URINE") == "hard"
-    if percent >= 10 and any(d[0] == "mannitol" for d in entered):
+        assert codes.get("MANNITOL_IN_OLIGURIA") == "soft"
+    # a dose given before the plan's replacement phases end meets a dehydrated patient
+    rehydrated = max((ph.end_h for ph in p.phases if ph.kind == "replacement"), default=0.0)
+    early = {d[0] for d in entered if d[3] < rehydrated - 1e-9}
+    if percent >= 10 and "mannitol" in early:
         assert codes.get("MANNITOL_SEVERELY_DEHYDRATED") == "hard"
+    if percent >= 10 and early - {"mannitol"}:
+        assert codes.get("DIURETIC_SEVERELY_DEHYDRATED") == "hard"
+    if percent >= 10 and early:
+        assert p.has_hard_limit
     for f in p.findings:
         assert "_" not in f.message and f.code not in f.message
 
 
 # ---- potassium entered by hand (not a diuretic, found beside them) -----------------------------
 @pytest.mark.parametrize(("serum_k", "kcl", "said"), [(2.5, 0.0, True), (2.5, 60.0, False),
-                                                      (4.0, 0.0, False)])  # fmt: skip
+                                                      (4.0, 0.0, False), (3.4, 27.0, False),
+                                                      (3.4, 20.0, True)])  # fmt: skip
 def test_kcl_typed_below_the_scale_for_a_low_k_needs_a_reason(serum_k, kcl, said):
-    # Côté 2020's scale: serum K 2.1–2.5 mmol/L calls for 60 mmol/L KCl; a bag typed with
-    # none leaves a low K falling (the scale's maintenance band starts above 3.5)
+    # Côté 2020's scale: serum K 2.1–2.5 mmol/L calls for 60 mmol/L KCl, 3.1–3.5 for 28; a
+    # bag typed with none leaves a low K falling. The bag's own K counts: lactated Ringer's
+    # (the default fluid, 4 mmol/L K, USP) with 27 typed holds 31, above 28
     p = plan(serum_k=serum_k, kcl_mmol_per_l=kcl)
     assert (found(p).get("KCL_BELOW_SCALE_FOR_LOW_K") == "soft") is said
+
+
+# ---- the second review's cases ---------------------------------------------------------------
+def test_a_day_of_boluses_is_judged_against_the_top_single_dose_not_an_infusion_day():
+    # dog furosemide IV 2–6 mg/kg (Plumb); 6 mg/kg every 2 h is 72 mg/kg a day, 12× the top
+    # single dose (diuretic_dose_hard_factor 3) though a day at the 1 mg/kg/h infusion is 24
+    every_2_h = plan(diuretics=tuple(("furosemide", 6.0, "iv", float(h), float(h))
+                                     for h in range(0, 24, 2)))  # fmt: skip
+    assert found(every_2_h).get("DIURETIC_DOSE_FAR_ABOVE_RANGE") == "hard"
+    # 6 mg/kg every 8 h (18 mg/kg, 3× the top) stays unblocked
+    every_8_h = plan(diuretics=tuple(("furosemide", 6.0, "iv", float(h), float(h))
+                                     for h in (0, 8, 16)))  # fmt: skip
+    assert "DIURETIC_DOSE_FAR_ABOVE_RANGE" not in found(every_8_h)
+
+
+def test_a_route_with_no_record_is_judged_by_the_species_own_doses_by_other_routes():
+    # budgerigar furosemide: 0.1667 mg/kg IM on record (Plumb, after Clubb 1986; lories are
+    # easily overdosed): 29 mg/kg IV is a slip, not merely "no dose on record"
+    bird = plan("budgerigar", 0.035, diuretics=(("furosemide", 29.0, "iv", 0.0, 0.0),))
+    [far] = [f for f in bird.findings if f.code == "DIURETIC_DOSE_FAR_ABOVE_RANGE"]
+    assert far.severity == "hard" and "budgerigar by IM" in far.message
+
+
+def test_a_diuretic_given_after_the_deficit_is_replaced_meets_a_rehydrated_patient():
+    # the label's concern is a body short of water: a dose after the plan's replacement
+    # phases meets a rehydrated one (Mannitol Injection USP label; furosemide label 5.1)
+    late = plan(dehydration_percent=10.0, replace_hours=12.0,
+                diuretics=(("mannitol", 0.5, "iv", 20.0, 20.0),))  # fmt: skip
+    assert not {"MANNITOL_SEVERELY_DEHYDRATED", "MANNITOL_DEHYDRATED"} & set(found(late))
+    early = plan(dehydration_percent=12.0, diuretics=(("furosemide", 2.0, "iv", 0.0, 0.0),))
+    assert found(early).get("DIURETIC_SEVERELY_DEHYDRATED") == "hard"
+
+
+def test_a_loading_dose_and_its_infusion_are_not_an_overdose():
+    # a cat on 0.66 mg/kg/h for a day with a 1 mg/kg IV load: judged apart (single doses
+    # against the cat's 5 mg/kg top, the infusion against a day at the top rate on record)
+    cat = plan("cat", 4.0, diuretics=(("furosemide", 1.0, "iv", 0.0, 0.0),
+                                      ("furosemide", 0.66, "cri", 0.0, 24.0)))  # fmt: skip
+    assert "DIURETIC_DOSE_FAR_ABOVE_RANGE" not in found(cat)
+
+
+def test_spironolactone_with_no_urine_measured_is_said_in_true_words():
+    anuric = plan(ins_and_outs_period_h=4.0, measured_outputs=((0.0, 0.0),), renal_disease=True,
+                  diuretics=(("spironolactone", 2.0, "po", 0.0, 0.0),))  # fmt: skip
+    [said] = [f for f in anuric.findings if f.code == "POTASSIUM_SPARING_WITH_HIGH_POTASSIUM"]
+    assert "little or no urine" in said.message and "not entered" not in said.message
+
+
+def test_a_loading_dose_at_an_infusions_start_is_not_judged_as_a_bolus():
+    # Plumb: furosemide 0.66 mg/kg IV, then 0.66 mg/kg/h; Kirk: 1 mg/kg, then 1 mg/kg/h. The
+    # load is an hour of the rate, below the 2–6 mg/kg bolus range, and is not "outside" it
+    for rate in (0.66, 1.0):
+        loaded = plan(diuretics=(("furosemide", rate, "iv", 0.0, 0.0),
+                                 ("furosemide", rate, "cri", 0.0, 8.0)))  # fmt: skip
+        assert "DIURETIC_DOSE_OUTSIDE_RANGE" not in found(loaded)
+    alone = plan(diuretics=(("furosemide", 0.66, "iv", 0.0, 0.0),))  # no infusion: a bolus
+    assert found(alone).get("DIURETIC_DOSE_OUTSIDE_RANGE") == "soft"

@@ -458,7 +458,7 @@ def test_a_diuretic_after_the_plans_end_is_said():
 def test_an_infusion_that_drains_the_ecf_is_said_and_blocked():
     # Review finding: a furosemide infusion at 1 mg/kg/h running long past a 24 h plan, its
     # urine not given back. The part after the plan's end is said (not followed); what the
-    # plan follows of it contracts the ECF, said past a fifth and blocked past half (common
+    # plan follows of it contracts the ECF, said past a fifth and blocked past 40 % (common
     # practice, no source).
     plan = build_plan(
         PlanRequest(

@@ -59,7 +59,7 @@ MAX_HORIZON_H = 14 * 24.0
 SHOWN_STEP_MINUTES = body.STEP_MINUTES
 # a plasma volume this far below its start is said (common practice, no source: losing a
 # fifth of the circulating volume is clinically significant hypovolaemia); past the plan's
-# own ECF_CONTRACTION_BLOCKED share (half: shock, common practice, no source) it is blocked,
+# own ECF_CONTRACTION_BLOCKED share (40 %: shock, common practice, no source) it is blocked,
 # as the plan's own ECF check is
 PLASMA_CONTRACTION_SAID = 0.2
 # an observation's field → the course's value set beside it (Course.at)
@@ -542,7 +542,8 @@ def _predicted_findings(
                     f"{format_number(100 * fall, decimals=0)} % below where it started by hour "
                     f"{format_number(float(hours[lowest_plasma]), decimals=1)} (more water and "
                     "salt leaving than given: a diuretic, losses, or a kidney that cannot hold "
-                    "them)" + (", past half of it: shock." if shock else "."),
+                    "them)" + (f", more than {ECF_CONTRACTION_BLOCKED:.0%}: shock."
+                               if shock else "."),
             action=("Do not follow the plan as entered: give the losses and the urine back "
                     "(plan by ins and outs) or reduce the diuretic, and reassess perfusion and "
                     "weight within hours." if shock else

@@ -7,6 +7,7 @@ back by a healthy kidney. The plan's own check and the course use this one funct
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -141,12 +142,25 @@ def drift(hco3: np.ndarray, normal: SpeciesValue | None) -> tuple[int, float] | 
     return worst, (high if hco3[worst] > high else low)
 
 
+@dataclass(frozen=True, kw_only=True)
+class Causes:
+    """What in the plan moves bicarbonate, for the words of the remedy."""
+
+    carbonic_anhydrase_drug: bool  # acetazolamide given
+    losses: bool  # ongoing losses entered
+    bag_has_base: bool  # the fluid carries lactate, acetate or gluconate
+
+
 def check_plan_bicarbonate(
-    ledger: Ledger, hours: np.ndarray, hco3: np.ndarray, normal: SpeciesValue | None
+    ledger: Ledger,
+    hours: np.ndarray,
+    hco3: np.ndarray,
+    normal: SpeciesValue | None,
+    causes: Causes,
 ) -> None:
     """The plan's own check on the bicarbonate it drives (the same function the course
     follows it with): past what a patient's can be, blocked; far past the species'
-    interval (:func:`drift`), soft."""
+    interval (:func:`drift`), soft. The remedy names what in this plan moves it."""
     gone = implausible_from(hco3)
     if gone is not None:
         value = float(hco3[gone])
@@ -155,8 +169,8 @@ def check_plan_bicarbonate(
             "hard", "BICARBONATE_BEYOND_REACH",
             f"By {hour_text(float(hours[gone]))} this plan takes serum bicarbonate to "
             f"{q(value, 'mmol/L') if np.isfinite(value) else 'nothing'}, past what any "
-            "patient's can be (losses of this type, the fluid's buffer, acetazolamide).",
-            "Check the losses entered, their type and unit; " + _remedy(rising)
+            "patient's can be.",
+            "Check the losses entered, their type and unit. " + remedy(rising, causes)
             + " This plan is not given as it stands.",
         )  # fmt: skip
         return
@@ -170,22 +184,51 @@ def check_plan_bicarbonate(
         f"This plan takes serum bicarbonate to {q(value, 'mmol/L')} by "
         f"{hour_text(float(hours[i]))}, {'above' if value > bound else 'below'} "
         f"{q(bound, 'mmol/L')}.",
-        _remedy(value > bound) + " Measure the acid–base status again within 12–24 h, or "
-        "give a reason.",
+        remedy(value > bound, causes) + " Measure the acid–base status again within 12–24 h, "
+        "or give a reason.",
         None if normal is None else normal.source_id,
     )  # fmt: skip
 
 
-def _remedy(rising: bool) -> str:
-    """What turns the drift (common practice, no source): an alkalosis from lost gastric
-    acid is corrected by chloride (0.9 % NaCl), an acidosis by a buffered fluid."""
-    if rising:
+def remedy(rising: bool, causes: Causes) -> str:
+    """What turns the drift, by what moves it in this plan (common practice, no source): a
+    carbonic-anhydrase inhibitor's bicarbonaturia; losses that carry bicarbonate out (made
+    good by a buffered fluid) or gastric acid out (made good by chloride, 0.9 % NaCl); a
+    fluid without buffer diluting it, or a buffered one raising it."""
+    if not rising and causes.carbonic_anhydrase_drug:
+        if causes.bag_has_base:
+            return (
+                "Acetazolamide makes the urine carry bicarbonate away faster than the "
+                "fluid's buffer restores it: reconsider it."
+            )
         return (
-            "Bicarbonate rises (gastric acid lost, a buffered fluid): replace the losses "
-            "with 0.9 % NaCl rather than a buffered fluid; its chloride lets the kidney "
-            "pass bicarbonate, which this model does not follow."
+            "Acetazolamide makes the urine carry bicarbonate away: reconsider it, or give a "
+            "buffered fluid such as lactated Ringer's with it."
+        )
+    if not rising and causes.losses:
+        if causes.bag_has_base:
+            return (
+                "The losses carry away more bicarbonate than the fluid's buffer restores: "
+                "measure blood gases; bicarbonate may be needed."
+            )
+        return "Replace the losses with a buffered fluid such as lactated Ringer's."
+    if not rising:
+        return (
+            "The fluid carries no buffer and dilutes bicarbonate: a buffered fluid such as "
+            "lactated Ringer's holds it."
+        )
+    if causes.losses and causes.bag_has_base:
+        return (
+            "Replace the losses with 0.9 % NaCl rather than a buffered fluid; its chloride "
+            "lets the kidney pass bicarbonate, which this model does not follow."
+        )
+    if causes.losses:
+        return (
+            "The losses carry away gastric acid; the fluid is already without buffer, and "
+            "its chloride lets the kidney pass bicarbonate, which this model does not "
+            "follow: measure before changing the fluid."
         )
     return (
-        "Bicarbonate falls (bicarbonate lost, no buffer given): replace the losses with a "
-        "buffered fluid such as lactated Ringer's."
+        "The fluid's buffer (lactate, acetate, gluconate) raises it: a fluid without "
+        "buffer, such as 0.9 % NaCl, does not."
     )

@@ -83,7 +83,7 @@ class BodyInput:
         return replace(self, end_h=self.start_h + self.absorbed_over_h, absorbed_over_h=0.0)
 
 
-def _base_mmol_per_l(comp: fluids.Composition) -> float:
+def base_mmol_per_l(comp: fluids.Composition) -> float:
     """Buffer base a fluid brings per litre: its lactate, acetate and gluconate, each
     metabolised to one bicarbonate (vetfluid/tables/fluids.py). No library fluid carries
     bicarbonate itself (solutes.csv has no HCO3 ion)."""
@@ -93,7 +93,7 @@ def _base_mmol_per_l(comp: fluids.Composition) -> float:
 def fluid_terms(fluid: fluids.Fluid, *, into_plasma: bool) -> dict:
     comp = fluids.composition(fluid)
     return {
-        "base_mmol_per_l": _base_mmol_per_l(comp),
+        "base_mmol_per_l": base_mmol_per_l(comp),
         "fluid_name": fluid.name,
         "effective_mosm_per_l": comp.effective_osmolarity_mosm_per_l,
         "na_mmol_per_l": comp.na_mmol_per_l,

@@ -1172,8 +1172,11 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
     route, device = _route_and_device(ledger, request)
     k_band = _species_potassium_band(ledger, request)
     kcl = _potassium_to_add(request, k_band)
-    safety.note_potassium_band(ledger, k_band, by_hand=request.kcl_mmol_per_l is not None,
-                               kcl_by_hand=request.kcl_mmol_per_l)  # fmt: skip
+    safety.note_potassium_band(
+        ledger, k_band, by_hand=request.kcl_mmol_per_l is not None,
+        kcl_by_hand=request.kcl_mmol_per_l,
+        fluid_k_mmol_per_l=fluids.composition(fluids.fluid(request.fluid_id)).k_mmol_per_l,
+    )  # fmt: skip
     if request.kcl_mmol_per_l is None:  # the scale never chooses more than the route takes
         kcl = _kcl_within_route(ledger, request, kcl=kcl, route=route)
     bag = _bag(request, kcl)
@@ -1283,8 +1286,10 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         consumed_ml=lambda hours: consumed_ml(outflow, end_h, hours),
     )  # fmt: skip
     followed = _followed_body(regimen, table, ledger)
+    na_interval = (normal.low if normal.low is not None else normal.number,
+                   normal.high if normal.high is not None else normal.number)  # fmt: skip
     sodium_of = partial(_sodium_course, start_na=start_na, measured=request.serum_na is not None,
-                        boluses_end_h=start_h)  # fmt: skip
+                        boluses_end_h=start_h, interval=na_interval)  # fmt: skip
     na_course = sodium_of(followed)
     # with ADH held where it rests: a kidney that never asked to dilute below that is the
     # same kidney (body.with_adh_held returns it as it is)
@@ -1320,7 +1325,9 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         ledger, na_course, held=held, normal=normal, max_change_per_h=max_change,
         bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l, bag_name=bag.name,
         diuretic_names=tuple(dict.fromkeys(d.name for d in doses)),
-        carrier_phase=_phase_at(phases, na_course.carrier_hour).kind,
+        carrier_phase=_phase_at(
+            phases, na_course.change_judged(*na_interval, safety.LEAVES_RANGE_MARGIN_MMOL_PER_L)[1]
+        ).kind,
         fastest_carrier_ml_per_h=fastest, bolus_mixing=mixing,
     )  # fmt: skip
     if request.serum_na is not None:
@@ -1391,7 +1398,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
             "Reassess hydration after resuscitation and re-plan.",
         )
     if doses:
-        patient = _diuretic_patient(ledger, request, percent or 0.0)
+        patient = _diuretic_patient(ledger, request, percent or 0.0, phases)
         diuretic_checks.check_diuretics(ledger, doses, patient)
     late = [d for d in doses if d.end_h > end_h + 1e-9 or d.start_h >= end_h - 1e-9]
     if late:  # the body is followed with the plan's intake and outputs only while it runs
@@ -1399,8 +1406,9 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
                 else f"{late[0].name} at {hour_text(late[0].start_h)} is given")  # fmt: skip
         ledger.add(
             "soft", "DIURETIC_AFTER_PLAN_END",
-            f"{what}, after the plan's fluids end ({hour_text(end_h)}): the plan's checks stop "
-            "there, and the course goes on with its urine and no fluid given.",
+            f"{what[:1].upper()}{what[1:]}, after the plan's fluids end ({hour_text(end_h)}): "
+            "the plan's checks stop there, and the course goes on with its urine and no fluid "
+            "given.",
             "Extend the plan to cover the diuretic, or plan the diuretic on its own and measure "
             "urine output, weight and Na.",
         )  # fmt: skip
@@ -1480,22 +1488,27 @@ def _soaks(ledger: Ledger, request: PlanRequest, *, end_h: float) -> tuple[Sched
 
 
 def _diuretic_patient(
-    ledger: Ledger, request: PlanRequest, dehydration_percent: float
+    ledger: Ledger, request: PlanRequest, dehydration_percent: float, phases: tuple[Phase, ...]
 ) -> diuretic_checks.Patient:
     """What the diuretic rules read of the patient. The species' K and bicarbonate intervals
-    are read only where a value was entered to compare (else they would be listed as used)."""
+    are read only where a value was entered to compare (else they would be listed as used);
+    the deficit counts as replaced when the plan's replacement phases end."""
     k = ledger.value("serum_k_mmol_per_l") if request.serum_k is not None else None
     hco3 = ledger.get("serum_hco3_mmol_per_l") if request.serum_hco3 is not None else None
-    urine_low = False
+    urine_low = urine_none = False
     if request.ins_and_outs_period_h is not None and request.measured_outputs:
         normal = ledger.get("urine_output_ml_per_kg_h")
         if normal is not None:
             line = normal.low if normal.low is not None else normal.number
             last_urine = request.measured_outputs[-1][0]
-            urine_low = last_urine / request.ins_and_outs_period_h / request.weight_kg < line
+            flow = last_urine / request.ins_and_outs_period_h / request.weight_kg
+            urine_low = flow < line
+            urine_none = flow < diuretic_checks.NO_URINE_SHARE * line
+    replaced = [p.end_h for p in phases if p.kind == "replacement"]
     return diuretic_checks.Patient(
         species_name=ledger.species.common_name.lower(),
         dehydration_percent=dehydration_percent,
+        rehydrated_h=max(replaced, default=0.0) if dehydration_percent > 0 else 0.0,
         renal_output=request.renal_output if request.renal_disease else None,
         cardiac_disease=request.cardiac_disease,
         serum_k=request.serum_k,
@@ -1504,6 +1517,7 @@ def _diuretic_patient(
         serum_hco3=request.serum_hco3,
         hco3_low=None if hco3 is None else (hco3.low if hco3.low is not None else hco3.number),
         urine_measured_low=urine_low,
+        urine_measured_none=urine_none,
     )
 
 
@@ -1562,12 +1576,24 @@ def _followed_body(regimen: body.Regimen, table: SpeciesTable, ledger: Ledger) -
         )  # fmt: skip
         ledger.use(*used)
         normal = table.get(request.species_id, "serum_hco3_mmol_per_l")
-        bicarbonate.check_plan_bicarbonate(ledger, followed.hours[:valid], hco3[:valid], normal)
+        causes = bicarbonate.Causes(
+            carbonic_anhydrase_drug=any(d.drug_class == "carbonic_anhydrase_inhibitor"
+                                        for d in regimen.diuretics),
+            losses=request.losses_ml_per_day > 0,
+            bag_has_base=body.base_mmol_per_l(fluids.composition(regimen.bag)) > 0,
+        )  # fmt: skip
+        bicarbonate.check_plan_bicarbonate(ledger, followed.hours[:valid], hco3[:valid], normal,
+                                           causes)  # fmt: skip
     return followed
 
 
 def _sodium_course(
-    followed: body.BodyCourse, *, start_na: float, measured: bool, boluses_end_h: float
+    followed: body.BodyCourse,
+    *,
+    start_na: float,
+    measured: bool,
+    boluses_end_h: float,
+    interval: tuple[float, float],
 ) -> electrolytes.SodiumCourse:
     """Serum Na through a followed body, read while the body still holds water. The Na that
     sets tonicity is read: mannitol's dilution of the measured Na is no correction."""
@@ -1577,8 +1603,9 @@ def _sodium_course(
         keep = max(int(np.searchsorted(hours, beyond - 1e-9)), 1)
         hours, path = hours[:keep], path[:keep]
     return electrolytes.sodium_course(
-        hours, path, start_na=start_na, measured=measured, boluses_end_h=boluses_end_h
-    )
+        hours, path, start_na=start_na, measured=measured, boluses_end_h=boluses_end_h,
+        interval=interval,
+    )  # fmt: skip
 
 
 def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:

@@ -846,26 +846,24 @@ def note_potassium_band(
     *,
     by_hand: bool,
     kcl_by_hand: float | None = None,
+    fluid_k_mmol_per_l: float = 0.0,
 ) -> None:
     """Serum K above the species' reference interval (soft: no KCl is added by the scale,
-    look for the cause); KCl entered by hand below what the scale gives a serum K under
-    the species' interval (soft: the K already low falls on); and the scale's origin when
-    the patient is not a dog or cat."""
+    look for the cause); a bag whose K (the fluid's own and the KCl entered by hand) is below
+    what the scale gives a serum K under the species' interval (soft: the K already low
+    falls on); and the scale's origin when the patient is not a dog or cat."""
     if band is None:
         return
     scale = band.band
     below = band.compared_at_mmol_per_l < SCALE_REFERENCE_LOW_MMOL_PER_L
-    if (
-        kcl_by_hand is not None
-        and scale is not None
-        and below
-        and kcl_by_hand < scale.kcl_mmol_per_l
-    ):
+    # the bag's own K counts with what was typed: lactated Ringer's 4 + 27 is 31, above 28
+    bag_k = (kcl_by_hand or 0.0) + fluid_k_mmol_per_l
+    if kcl_by_hand is not None and scale is not None and below and bag_k < scale.kcl_mmol_per_l:
         ledger.add(
             "soft",
             "KCL_BELOW_SCALE_FOR_LOW_K",
-            f"Serum K is below this species' interval, and the bag has "
-            f"{q(kcl_by_hand, 'mmol/L')} KCl entered by hand; the serum-K scale gives "
+            f"Serum K is below this species' interval, and the bag holds {q(bag_k, 'mmol/L')} "
+            f"K ({q(kcl_by_hand, 'mmol/L')} KCl entered by hand); the serum-K scale gives "
             f"{q(scale.kcl_mmol_per_l, 'mmol/L')} at this K (Côté 2020).",
             "Add the scale's KCl (leave the box empty to let the scale choose), or give a "
             "reason; recheck serum K in 4–6 h.",
@@ -962,9 +960,10 @@ def peak_uptake_rate(
 
 # the ECF this far below where it started is said (soft), and past the second share the plan
 # is blocked (common practice, no source: losing a fifth of the extracellular fluid is
-# clinically significant hypovolaemia, as the course says of the plasma; under about half is
-# shock by any reckoning)
-ECF_CONTRACTION_SAID, ECF_CONTRACTION_BLOCKED = 0.2, 0.5
+# clinically significant hypovolaemia, as the course says of the plasma; losing 30–40 % of
+# the circulating volume brings hypotension in the human haemorrhage classes, recalled, so
+# past 40 % is shock)
+ECF_CONTRACTION_SAID, ECF_CONTRACTION_BLOCKED = 0.2, 0.4
 LEAVES_RANGE_MARGIN_MMOL_PER_L = 3.0  # past the interval by more than this: said
 
 
@@ -989,7 +988,7 @@ def check_ecf_contraction(
         f"By {hour_text(float(hours[lowest]))} the plan leaves the extracellular fluid "
         f"{fall:.0%} below where it started (more water and salt leaving than given: a "
         "diuretic, losses, or a kidney that cannot hold them)"
-        + (", past half of it: shock." if hard else "."),
+        + (f", more than {ECF_CONTRACTION_BLOCKED:.0%}: shock." if hard else "."),
         "Give the losses and the urine back (plan by ins and outs), reduce the diuretic, and "
         "reassess perfusion and weight within hours.",
     )
@@ -1020,7 +1019,8 @@ def check_sodium(
     SODIUM_CHANGE_TOO_FAST    replacement/maintenance moves Na > limit in an  soft; hard
                               hour (from a normal Na when none was measured)  at 2× the
                               and Na leaves the species' reference interval   shipped
-                              (within it a change is not a correction)        limit
+                              (within it a change is not a correction: the    limit
+                              hours held to it, SodiumCourse.change_judged)
     SODIUM_FALL_IF_ADH_HELD   not that, but with ADH held (pain, nausea,      soft; hard
                               hypovolaemia, drugs) Na would fall > limit in   likewise
                               an hour and leave the interval
@@ -1055,7 +1055,10 @@ def check_sodium(
     # Hard at twice the shipped limit (or the typed one, if stricter): typing a higher limit
     # may soften a warning, never lift a block.
     hard_at = hard_factor * min(max_change_per_h, sourced.value)
-    carrier = abs(course.carrier_change_per_h)
+    # the hours the limit is held to (SodiumCourse.change_judged): all of them when Na leaves
+    # the interval by more than the margin, else those that begin or end outside it
+    change_now, change_hour = course.change_judged(low, high, LEAVES_RANGE_MARGIN_MMOL_PER_L)
+    carrier = abs(change_now)
     if leaves_range and (carrier > max_change_per_h * (1 + 1e-9) or carrier >= hard_at):
         hard = carrier >= hard_at
         fix = (
@@ -1063,7 +1066,7 @@ def check_sodium(
             if fastest_carrier_ml_per_h is not None
             else "slow the rate"
         )
-        rises = course.carrier_change_per_h > 0
+        rises = change_now > 0
         if diuretic_names and rises:
             # the rise comes from the urine a diuretic makes, not from the bag
             fix = (f"give back the urine {' and '.join(diuretic_names)} makes (measure it and "
@@ -1076,8 +1079,9 @@ def check_sodium(
         ledger.add(
             "hard" if hard else "soft",
             "SODIUM_CHANGE_TOO_FAST",
-            f"{subject} {_direction(course.carrier_change_per_h)} {q(carrier, 'mmol/L')} in "
-            f"the hour from {hour_text(course.carrier_hour)} ({carrier_phase}), faster than "
+            f"{subject} {_direction(change_now)} "
+            f"{q(carrier, 'mmol/L')} in the hour from {hour_text(change_hour)} "
+            f"({carrier_phase}), faster than "
             + (
                 q(max_change_per_h, "mmol/L/h")
                 if carrier > max_change_per_h
@@ -1095,8 +1099,12 @@ def check_sodium(
             + "; recheck Na every 4–6 h.",
             sourced.source_id,
         )
-    fell = held is not None and held.carrier_change_per_h < 0 and held.lowest < low - 1e-9
-    fall = abs(held.carrier_change_per_h) if held is not None else 0.0
+    held_change, held_hour = (
+        held.change_judged(low, high, LEAVES_RANGE_MARGIN_MMOL_PER_L) if held is not None
+        else (0.0, 0.0)
+    )  # fmt: skip
+    fell = held is not None and held_change < 0 and held.lowest < low - 1e-9
+    fall = abs(held_change)
     too_fast = leaves_range and (carrier > max_change_per_h * (1 + 1e-9) or carrier >= hard_at)
     if fell and not too_fast and fall > max_change_per_h * (1 + 1e-9):
         ledger.add(
@@ -1105,7 +1113,8 @@ def check_sodium(
             f"{subject} change at most {q(carrier, 'mmol/L')} in an hour with a kidney free to "
             f"dilute its urine; if ADH stays up (pain, nausea, hypovolaemia, drugs: common in "
             f"sick animals) the water is kept and Na would fall {q(fall, 'mmol/L')} in the hour "
-            f"from {hour_text(held.carrier_hour)}, faster than {q(max_change_per_h, 'mmol/L/h')}"
+            f"from {hour_text(held_hour)}, faster than "
+            f"{q(max_change_per_h, 'mmol/L/h')}"
             + (f" (at {q(hard_at, 'mmol/L/h')} or more the plan is blocked)." if fall >= hard_at
                else "."),
             ("Measure serum Na and enter it; " if not course.measured else "Recheck Na within "
