@@ -209,26 +209,47 @@ def _positive(name: str, value: float) -> float:
 
 
 # ---- the band ----------------------------------------------------------------------------
+def _measured_or_ratio(
+    table: SpeciesTable,
+    species_id: str,
+    *,
+    measured: str,
+    ratio: str,
+    how: str,
+    missing: str,
+    so: str,
+    fix: str,
+) -> tuple[float, str, list[SpeciesValue]]:
+    """A band end: the species' measured value, or its U/P ratio × plasma osmolality; with
+    neither on record, refused in words (``missing`` is not on record, ``so`` follows)."""
+    plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
+    direct = table.get(species_id, measured)
+    if direct is not None:
+        return direct.number, how, [direct]
+    share = table.get(species_id, ratio)
+    if share is not None:
+        return share.number * plasma.number, "U/P × plasma", [share, plasma]
+    raise InputError(
+        f"{missing} is on record for this species ({table.species(species_id).common_name}), "
+        f"so {so}.",
+        field=measured,
+        value=None,
+        fix=fix,
+    )
+
+
 def concentrating_ceiling(
     table: SpeciesTable, species_id: str
 ) -> tuple[float, str, list[SpeciesValue]]:
     """The species' maximum urine osmolality: measured, or U/P ratio × plasma osmolality
     (birds: Skadhauge 1974; reptiles U/P 1, Holz)."""
-    plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
-    direct = table.get(species_id, "max_urine_osmolality_mosm_per_kg")
-    if direct is not None:
-        return direct.number, "species maximum", [direct]
-    ratio = table.get(species_id, "max_urine_plasma_ratio")
-    if ratio is not None:
-        return ratio.number * plasma.number, "U/P × plasma", [ratio, plasma]
-    raise InputError(
-        "No urine-concentrating ceiling (maximum urine osmolality or urine-to-plasma ratio) "
-        f"is on record for this species ({table.species(species_id).common_name}), so the "
-        "minimum water need cannot be estimated.",
-        field="max_urine_osmolality_mosm_per_kg",
-        value=None,
+    return _measured_or_ratio(
+        table, species_id, measured="max_urine_osmolality_mosm_per_kg",
+        ratio="max_urine_plasma_ratio", how="species maximum",
+        missing="No urine-concentrating ceiling (maximum urine osmolality or urine-to-plasma "
+        "ratio)", so="the minimum water need cannot be estimated",
         fix="Enter the patient's USG or urine osmolality, or add the value to the species table.",
-    )
+    )  # fmt: skip
 
 
 def diluting_floor(table: SpeciesTable, species_id: str) -> tuple[float, str, list[SpeciesValue]]:
@@ -236,21 +257,12 @@ def diluting_floor(table: SpeciesTable, species_id: str) -> tuple[float, str, li
     (water-loaded lizards U/P 0.6–1.0, "Renal ultrastructure and excretion of salt and water
     by three terrestrial lizards"; water-loaded fowl 0.37, "Renal function in domestic fowl",
     Am J Physiol 1967)."""
-    plasma = table.value(species_id, "plasma_osmolality_mosm_per_kg")
-    direct = table.get(species_id, "min_urine_osmolality_mosm_per_kg")
-    if direct is not None:
-        return direct.number, "species minimum", [direct]
-    ratio = table.get(species_id, "min_urine_plasma_ratio")
-    if ratio is not None:
-        return ratio.number * plasma.number, "U/P × plasma", [ratio, plasma]
-    raise InputError(
-        "No diluting floor (least urine osmolality or urine-to-plasma ratio) is on record "
-        f"for this species ({table.species(species_id).common_name}), so the course cannot "
-        "follow its urine.",
-        field="min_urine_osmolality_mosm_per_kg",
-        value=None,
-        fix="Add the value to the species table.",
-    )
+    return _measured_or_ratio(
+        table, species_id, measured="min_urine_osmolality_mosm_per_kg",
+        ratio="min_urine_plasma_ratio", how="species minimum",
+        missing="No diluting floor (least urine osmolality or urine-to-plasma ratio)",
+        so="the course cannot follow its urine", fix="Add the value to the species table.",
+    )  # fmt: skip
 
 
 def urine_volume_ml(solute_mosm: float, osmolality_mosm_per_kg: float) -> float:
