@@ -108,19 +108,6 @@ def test_a_lizards_water_load_leaves_no_more_dilute_than_its_floor():
     assert np.nanmin(urine) < 0.7 * plasma  # it does dilute, down to the floor
 
 
-@reference
-def test_a_ten_kg_dogs_daily_urine_solute_is_about_400_mosm():
-    # DiBartola (ch. 1, Applied physiology of body fluids in dogs and cats): "a urine solute
-    # load of approximately 400 mOsm in a 10-kg dog", so 200–400 mL of urine a day at
-    # 2000–1000 mOsm/kg
-    budget = maintenance.water_budget(load_table(), "dog", 10)
-    assert budget.solute_mosm_per_day == pytest.approx(400, rel=0.05)
-    for osmolality, urine_ml in ((2000, 200), (1000, 400)):
-        assert kidney.urine_volume_ml(budget.solute_mosm_per_day, osmolality) == pytest.approx(
-            urine_ml, rel=0.05
-        )
-
-
 # ---- what a clinician must see (issue 19) ----------------------------------------------------
 @reference
 def test_a_healthy_dog_excretes_a_water_load_as_dilute_urine():

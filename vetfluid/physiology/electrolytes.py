@@ -236,18 +236,12 @@ def largest_hourly_change(
     *,
     from_hour: float = 0.0,
     until_hour: float = np.inf,
-    outside: tuple[float, float] | None = None,
 ) -> tuple[float, float]:
     """The largest change of serum Na over any one hour starting at or after
     ``from_hour`` and before ``until_hour``, on a grid that holds each ``hours[i] + 1``
-    too; signed, and the hour it starts. With ``outside`` (an interval), only the hours that
-    begin or end outside it: a change within the interval corrects nothing."""
+    too; signed, and the hour it starts."""
     ends = np.searchsorted(hours, hours + 1.0 - 1e-9)
     valid = (ends < len(hours)) & (hours >= from_hour - 1e-9) & (hours < until_hour - 1e-9)
-    if outside is not None and valid.any():
-        low, high = outside
-        out = (serum_na < low - 1e-9) | (serum_na > high + 1e-9)
-        valid &= out | out[np.minimum(ends, len(hours) - 1)]
     if not valid.any():
         return 0.0, 0.0
     starts = np.nonzero(valid)[0]
@@ -299,10 +293,6 @@ class SodiumCourse:
     measured: bool  # False: followed from the species' normal Na
     carrier_change_per_h: float  # signed; windows starting after the boluses
     carrier_hour: float
-    # the same over the hours that begin or end outside the species' interval (all hours
-    # when none was given): what the correction limit is about
-    carrier_outside_change_per_h: float
-    carrier_outside_hour: float
     bolus_change_per_h: float  # signed; windows starting during the boluses
     bolus_hour: float
     plan_change: float  # Na when the plan ends minus Na at its start
@@ -310,34 +300,12 @@ class SodiumCourse:
     lowest: float  # the lowest and highest Na anywhere along the plan
     highest: float
 
-    def change_judged(self, low: float, high: float, margin: float) -> tuple[float, float]:
-        """The hourly change (signed) and its hour that the correction limit is held to. A
-        path that leaves the interval by more than ``margin`` is heading for a dysnatraemia:
-        every hour counts. One that only grazes the interval's edge is held to the limit in
-        the hours that begin or end outside it (an early rebound inside the interval, as
-        after a mannitol dose, corrects nothing)."""
-        if self.lowest < low - margin or self.highest > high + margin:
-            return self.carrier_change_per_h, self.carrier_hour
-        return self.carrier_outside_change_per_h, self.carrier_outside_hour
-
 
 def sodium_course(
-    hours: np.ndarray,
-    path: np.ndarray,
-    *,
-    start_na: float,
-    measured: bool,
-    boluses_end_h: float,
-    interval: tuple[float, float] | None = None,
+    hours: np.ndarray, path: np.ndarray, *, start_na: float, measured: bool, boluses_end_h: float
 ) -> SodiumCourse:
-    """Read a Na path (on a grid holding each ``hours[i] + 1``) into a :class:`SodiumCourse`;
-    ``interval``: the species' reference interval, for the changes outside it."""
+    """Read a Na path (on a grid holding each ``hours[i] + 1``) into a :class:`SodiumCourse`."""
     carrier, carrier_h = largest_hourly_change(hours, path, from_hour=boluses_end_h)
-    outside, outside_h = (
-        largest_hourly_change(hours, path, from_hour=boluses_end_h, outside=interval)
-        if interval is not None
-        else (carrier, carrier_h)
-    )
     bolus, bolus_h = (
         largest_hourly_change(hours, path, until_hour=boluses_end_h)
         if boluses_end_h > 0
@@ -345,8 +313,7 @@ def sodium_course(
     )
     return SodiumCourse(
         start_na=start_na, measured=measured, carrier_change_per_h=carrier,
-        carrier_hour=carrier_h, carrier_outside_change_per_h=outside,
-        carrier_outside_hour=outside_h, bolus_change_per_h=bolus, bolus_hour=bolus_h,
+        carrier_hour=carrier_h, bolus_change_per_h=bolus, bolus_hour=bolus_h,
         plan_change=float(path[-1] - path[0]),
         boluses_change=float(np.interp(boluses_end_h, hours, path) - path[0]),
         lowest=float(path.min()),

@@ -1286,10 +1286,8 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         consumed_ml=lambda hours: consumed_ml(outflow, end_h, hours),
     )  # fmt: skip
     followed = _followed_body(regimen, table, ledger)
-    na_interval = (normal.low if normal.low is not None else normal.number,
-                   normal.high if normal.high is not None else normal.number)  # fmt: skip
     sodium_of = partial(_sodium_course, start_na=start_na, measured=request.serum_na is not None,
-                        boluses_end_h=start_h, interval=na_interval)  # fmt: skip
+                        boluses_end_h=start_h)  # fmt: skip
     na_course = sodium_of(followed)
     # with ADH held where it rests: a kidney that never asked to dilute below that is the
     # same kidney (body.with_adh_held returns it as it is)
@@ -1325,9 +1323,7 @@ def build_plan(request: PlanRequest, table: SpeciesTable | None = None) -> Plan:
         ledger, na_course, held=held, normal=normal, max_change_per_h=max_change,
         bag_na_k=bag_comp.na_mmol_per_l + bag_comp.k_mmol_per_l, bag_name=bag.name,
         diuretic_names=tuple(dict.fromkeys(d.name for d in doses)),
-        carrier_phase=_phase_at(
-            phases, na_course.change_judged(*na_interval, safety.LEAVES_RANGE_MARGIN_MMOL_PER_L)[1]
-        ).kind,
+        carrier_phase=_phase_at(phases, na_course.carrier_hour).kind,
         fastest_carrier_ml_per_h=fastest, bolus_mixing=mixing,
     )  # fmt: skip
     if request.serum_na is not None:
@@ -1593,7 +1589,6 @@ def _sodium_course(
     start_na: float,
     measured: bool,
     boluses_end_h: float,
-    interval: tuple[float, float],
 ) -> electrolytes.SodiumCourse:
     """Serum Na through a followed body, read while the body still holds water. The Na that
     sets tonicity is read: mannitol's dilution of the measured Na is no correction."""
@@ -1603,9 +1598,8 @@ def _sodium_course(
         keep = max(int(np.searchsorted(hours, beyond - 1e-9)), 1)
         hours, path = hours[:keep], path[:keep]
     return electrolytes.sodium_course(
-        hours, path, start_na=start_na, measured=measured, boluses_end_h=boluses_end_h,
-        interval=interval,
-    )  # fmt: skip
+        hours, path, start_na=start_na, measured=measured, boluses_end_h=boluses_end_h
+    )
 
 
 def _water_budget(ledger: Ledger, request: PlanRequest) -> maintenance.WaterBudget | None:

@@ -1019,8 +1019,7 @@ def check_sodium(
     SODIUM_CHANGE_TOO_FAST    replacement/maintenance moves Na > limit in an  soft; hard
                               hour (from a normal Na when none was measured)  at 2× the
                               and Na leaves the species' reference interval   shipped
-                              (within it a change is not a correction: the    limit
-                              hours held to it, SodiumCourse.change_judged)
+                              (within it a change is not a correction)        limit
     SODIUM_FALL_IF_ADH_HELD   not that, but with ADH held (pain, nausea,      soft; hard
                               hypovolaemia, drugs) Na would fall > limit in   likewise
                               an hour and leave the interval
@@ -1055,10 +1054,7 @@ def check_sodium(
     # Hard at twice the shipped limit (or the typed one, if stricter): typing a higher limit
     # may soften a warning, never lift a block.
     hard_at = hard_factor * min(max_change_per_h, sourced.value)
-    # the hours the limit is held to (SodiumCourse.change_judged): all of them when Na leaves
-    # the interval by more than the margin, else those that begin or end outside it
-    change_now, change_hour = course.change_judged(low, high, LEAVES_RANGE_MARGIN_MMOL_PER_L)
-    carrier = abs(change_now)
+    carrier = abs(course.carrier_change_per_h)
     if leaves_range and (carrier > max_change_per_h * (1 + 1e-9) or carrier >= hard_at):
         hard = carrier >= hard_at
         fix = (
@@ -1066,7 +1062,7 @@ def check_sodium(
             if fastest_carrier_ml_per_h is not None
             else "slow the rate"
         )
-        rises = change_now > 0
+        rises = course.carrier_change_per_h > 0
         if diuretic_names and rises:
             # the rise comes from the urine a diuretic makes, not from the bag
             fix = (f"give back the urine {' and '.join(diuretic_names)} makes (measure it and "
@@ -1079,8 +1075,8 @@ def check_sodium(
         ledger.add(
             "hard" if hard else "soft",
             "SODIUM_CHANGE_TOO_FAST",
-            f"{subject} {_direction(change_now)} "
-            f"{q(carrier, 'mmol/L')} in the hour from {hour_text(change_hour)} "
+            f"{subject} {_direction(course.carrier_change_per_h)} "
+            f"{q(carrier, 'mmol/L')} in the hour from {hour_text(course.carrier_hour)} "
             f"({carrier_phase}), faster than "
             + (
                 q(max_change_per_h, "mmol/L/h")
@@ -1099,12 +1095,8 @@ def check_sodium(
             + "; recheck Na every 4–6 h.",
             sourced.source_id,
         )
-    held_change, held_hour = (
-        held.change_judged(low, high, LEAVES_RANGE_MARGIN_MMOL_PER_L) if held is not None
-        else (0.0, 0.0)
-    )  # fmt: skip
-    fell = held is not None and held_change < 0 and held.lowest < low - 1e-9
-    fall = abs(held_change)
+    fell = held is not None and held.carrier_change_per_h < 0 and held.lowest < low - 1e-9
+    fall = abs(held.carrier_change_per_h) if held is not None else 0.0
     too_fast = leaves_range and (carrier > max_change_per_h * (1 + 1e-9) or carrier >= hard_at)
     if fell and not too_fast and fall > max_change_per_h * (1 + 1e-9):
         ledger.add(
@@ -1113,7 +1105,7 @@ def check_sodium(
             f"{subject} change at most {q(carrier, 'mmol/L')} in an hour with a kidney free to "
             f"dilute its urine; if ADH stays up (pain, nausea, hypovolaemia, drugs: common in "
             f"sick animals) the water is kept and Na would fall {q(fall, 'mmol/L')} in the hour "
-            f"from {hour_text(held_hour)}, faster than "
+            f"from {hour_text(held.carrier_hour)}, faster than "
             f"{q(max_change_per_h, 'mmol/L/h')}"
             + (f" (at {q(hard_at, 'mmol/L/h')} or more the plan is blocked)." if fall >= hard_at
                else "."),
