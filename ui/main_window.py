@@ -103,7 +103,7 @@ class MainWindow(QMainWindow):
         if watched is self and event.type() == QEvent.Type.Paint and not self._painted:
             self._painted = True
             self.removeEventFilter(self)
-            QTimer.singleShot(0, self.build_planner)
+            QTimer.singleShot(0, self, self.build_planner)  # not once the window is gone
         return super().eventFilter(watched, event)
 
     def build_planner(self) -> None:
@@ -202,7 +202,7 @@ class MainWindow(QMainWindow):
         self.keeper = WorkKeeper(
             self.session, self, save_version=lambda **kw: self.save_version(**kw)
         )
-        QTimer.singleShot(0, self._offer_draft_at_start)
+        QTimer.singleShot(0, self, self._offer_draft_at_start)
         self.session.recompute()
         self._page_opened(self.pages.currentIndex())
 

@@ -66,7 +66,7 @@ class WaitingFiles(QObject):
         if path == self._opening or path in self.waiting:
             return
         self._files.append((path, self._on_screen() if self._started else None))
-        QTimer.singleShot(0, self._open_next)  # queued now, opened on the next turn
+        QTimer.singleShot(0, self, self._open_next)  # next turn; dropped if this queue is gone
 
     def start(self) -> None:
         """The window is ready (the draft left last time has been offered): open what waits."""
@@ -110,7 +110,7 @@ class WaitingFiles(QObject):
                     self._left = self._on_screen()
             finally:
                 self._opening = None
-        QTimer.singleShot(0, self._open_next)  # the next, after this one's questions
+        QTimer.singleShot(0, self, self._open_next)  # the next, after this one's questions
 
     def _still_wanted(self, path: Path) -> bool:
         answer = QMessageBox.question(
