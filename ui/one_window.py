@@ -182,8 +182,13 @@ class WindowLock(QObject):
             self._read(self.sender())
 
     def _forget_sender(self) -> None:
-        if self.sender() in self._connections:
-            self._drop(self.sender())
+        """A connection that closed: forgotten and deleted later. Not aborted from inside its
+        own ``disconnected`` signal (the socket is still emitting it)."""
+        connection = self.sender()
+        if connection in self._connections:
+            self._connections.pop(connection)
+            self._quiet(connection)
+            connection.deleteLater()
 
     def _read(self, connection: QLocalSocket) -> None:
         """A request is answered READY (or CLOSING while the window closes); the window acts
@@ -219,6 +224,7 @@ class WindowLock(QObject):
 
     def _finish(self, connection: QLocalSocket) -> None:
         self._connections.pop(connection, None)
+        self._quiet(connection)
         connection.flush()
         connection.disconnectFromServer()  # once what was written has gone
         connection.deleteLater()
@@ -226,8 +232,15 @@ class WindowLock(QObject):
     def _drop(self, connection: QLocalSocket) -> None:
         if connection in self._connections:
             self._connections.pop(connection)
+            self._quiet(connection)
             connection.abort()
             connection.deleteLater()
+
+    def _quiet(self, connection: QLocalSocket) -> None:
+        """A connection done with (each is, once) calls back into this lock no more: its last
+        signals may come while it is being torn down."""
+        connection.readyRead.disconnect(self._read_sender)
+        connection.disconnected.disconnect(self._forget_sender)
 
     # ---- a second start ----------------------------------------------------------------------
     def hand_over(
